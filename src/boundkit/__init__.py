@@ -1,0 +1,22 @@
+"""boundkit: bound states of central potentials.
+
+Schrodinger, Klein-Gordon and Dirac radial equations, solved with a spectral
+or a finite-difference discretization on a logarithmic radial mesh, each level
+refined to double precision and reported as a binding energy with an error
+estimate.
+"""
+from __future__ import annotations
+
+from importlib.metadata import PackageNotFoundError, version
+
+from .potentials import Potential, make_potential
+from .results import Level, RadialState, SolveResult
+from .solver import make_equation, solve, solve_channel
+
+try:
+    __version__ = version("boundkit")
+except PackageNotFoundError:  # pragma: no cover - running from a source tree
+    __version__ = "0+unknown"
+
+__all__ = ["solve", "solve_channel", "make_equation", "make_potential", "Potential", "Level",
+           "RadialState", "SolveResult", "__version__"]

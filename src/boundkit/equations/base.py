@@ -1,0 +1,209 @@
+"""The contract of a radial equation, and the operator every equation shares.
+
+All three equations are written in one factorized Sturm-Liouville form for
+the (large-component) radial function u(r) = r R(r):
+
+    T(E) u = -(d/dr - kappa/r) p(r, E) (d/dr + kappa/r) u + (q(r, E) - E) u = 0
+
+with E the binding energy (total minus rest energy). An equation supplies
+p, q, their derivatives in E, kappa and the exponent gamma of u ~ r^gamma at
+the origin. For fixed E this is a self-adjoint Sturm-Liouville problem with
+p > 0, so its k-th eigenfunction has exactly k nodes: there are no spurious
+states to begin with, and the node count labels each level.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, ClassVar
+
+import numpy as np
+import scipy.sparse as sp
+
+from ..discretize.base import Grid
+
+__all__ = ["RadialEquation", "Sample", "FactorizedOperator"]
+
+
+@dataclass(frozen=True)
+class Sample:
+    """Potential values on a grid (vector V, scalar S), in double and, when
+    the grid refines in extended precision, in ``numpy.longdouble``."""
+
+    r: np.ndarray
+    V: np.ndarray
+    S: np.ndarray
+
+    def cast(self, dtype) -> "Sample":
+        return Sample(self.r.astype(dtype), self.V.astype(dtype), self.S.astype(dtype))
+
+
+class RadialEquation:
+    """Base class of a radial equation for one channel.
+
+    A subclass must:
+
+    1. set ``name`` and ``spin`` (0 or 1/2) and store the channel (``l``,
+       ``kappa``, ``j``) and the mass ``mass`` (atomic units) in ``__init__``;
+    2. implement ``p(E, s)``, ``dp_dE(E, s)``, ``q(E, s)``, ``dq_dE(E, s)``
+       for a :class:`Sample` ``s``; they must work for float and
+       ``numpy.longdouble`` arrays alike;
+    3. set ``kappa_eff`` (the kappa of the factorized form) and implement
+       ``gamma(potential)``, the exponent of u ~ r^gamma at the origin;
+    4. implement ``energy_window(potential)``: (lower, upper) bounds for a
+       binding energy of a bound level;
+    5. implement ``label(n)`` and, for two-component equations,
+       ``small_component``.
+    """
+
+    name: ClassVar[str] = ""
+    spin: ClassVar[float] = 0.0
+    l: int
+    kappa: int | None
+    j: float | None
+    mass: float
+    kappa_eff: int
+
+    def p(self, E, s: Sample):  # pragma: no cover - contract
+        raise NotImplementedError
+
+    def dp_dE(self, E, s: Sample):
+        return 0 * s.r
+
+    def q(self, E, s: Sample):  # pragma: no cover - contract
+        raise NotImplementedError
+
+    def dq_dE(self, E, s: Sample):
+        return 0 * s.r
+
+    def gamma(self, potential) -> float:  # pragma: no cover - contract
+        raise NotImplementedError
+
+    def energy_window(self, potential) -> tuple[float, float]:
+        return (-np.inf, np.inf if potential.confining else 0.0)
+
+    def label(self, n: int) -> str:  # pragma: no cover - contract
+        raise NotImplementedError
+
+    def small_component(self, E, s: Sample, g):
+        """Small component from g = (d/dr + kappa/r) u, or None."""
+        return None
+
+    def density_weight(self, E, s: Sample):
+        """Weight of u^2 in the normalisation integral (1 unless overridden)."""
+        return None
+
+    def channel(self) -> dict:
+        return {"l": self.l, "kappa": self.kappa, "j": self.j}
+
+
+_SPECTROSCOPIC = "spdfghiklmnoqrtuv"
+
+
+def letter(l: int) -> str:
+    """Spectroscopic letter of orbital l (s, p, d, f, g, h, i, k, ...)."""
+    return _SPECTROSCOPIC[l] if l < len(_SPECTROSCOPIC) else f"[l={l}]"
+
+
+class FactorizedOperator:
+    """T(E) of an equation on a grid, with u = w(r) f and f the unknown.
+
+    Notes
+    -----
+    The weight w = (r / (r + r_c))^gamma carries the r^gamma behaviour at the
+    origin and tends to 1 beyond the core radius r_c, so f is smooth, tends
+    to a constant at the origin and keeps the size of u where the level
+    lives. With t = ln r and beta = d ln w / dt = gamma r_c / (r + r_c),
+    (d/dr + kappa/r) u = (w / r) (f' + b f), b = beta + kappa, ' = d/dt.
+    Multiplying T(E) u = 0 by r^2 / w:
+
+        -(d/dt + a) [p (d/dt + b) f] + r^2 (q - E) f = 0,   a = beta - 1 - kappa.
+
+    Boundary conditions: f'(t_min) = 0 and f(t_max) = 0. Both boundary
+    unknowns are eliminated before the eigen solve; the unknown vector y holds
+    f at the inner nodes. At fixed E_ref the problem is the pencil
+    A y = lambda B y with B = diag(r^2); a bound level is the fixed point
+    lambda(E) = E.
+    """
+
+    def __init__(self, eq: RadialEquation, grid: Grid, sample: Sample, gamma: float,
+                 r_core: float) -> None:
+        self.eq, self.grid, self.sample, self.gamma, self.r_core = eq, grid, sample, gamma, r_core
+        r = sample.r
+        beta = gamma * r_core / (r + r_core)
+        self.a = beta - 1 - eq.kappa_eff
+        self.b = beta + eq.kappa_eff
+        self.log_w = gamma * (np.log(r) - np.log(r + r_core))
+        self.n = len(grid.t)
+        D = grid.D
+        d0 = D[0].toarray().ravel() if sp.issparse(D) else np.asarray(D[0])
+        # f_0 = sum_j c_j f_j (from the Neumann row), f_last = 0
+        self._c = -d0[1:-1] / d0[0]
+        self.B = sample.r[1:-1] ** 2
+        if grid.extended:
+            self._ext = sample.cast(np.longdouble)
+            rl = self._ext.r
+            beta_l = np.longdouble(gamma) * np.longdouble(r_core) / (rl + np.longdouble(r_core))
+            self._a_ext = beta_l - 1 - eq.kappa_eff
+            self._b_ext = beta_l + eq.kappa_eff
+            dx = grid.D_ext
+            self._c_ext = -dx[0, 1:-1] / dx[0, 0]
+
+    # -- expansion of the reduced unknowns to all nodes -------------------------
+    def expand(self, y, c=None):
+        c = self._c if c is None else c
+        f = np.zeros(self.n, dtype=np.result_type(y, c))
+        f[1:-1] = y
+        f[0] = c @ y
+        return f
+
+    def weight(self):
+        """w(r) at the nodes: u = w f."""
+        return np.exp(self.log_w)
+
+    def _T_full(self, f, E, D, s, a, b, derivative=False):
+        eq = self.eq
+        g = D @ f + b * f
+        p = eq.dp_dE(E, s) if derivative else eq.p(E, s)
+        w = p * g
+        out = -(D @ w + a * w)
+        if derivative:
+            out = out + s.r**2 * (eq.dq_dE(E, s) - 1) * f
+        else:
+            out = out + s.r**2 * (eq.q(E, s) - E) * f
+        return out[1:-1]
+
+    def residual(self, E, y):
+        """T(E) y, in extended precision when the grid refines that way."""
+        if self.grid.extended:
+            El = np.longdouble(E)
+            yl = np.asarray(y, dtype=np.longdouble)
+            return self._T_full(self.expand(yl, self._c_ext), El, self.grid.D_ext, self._ext,
+                                self._a_ext, self._b_ext)
+        return self._T_full(self.expand(y), E, self.grid.D, self.sample, self.a, self.b)
+
+    def dT_y(self, E, y):
+        """dT/dE applied to y (double precision)."""
+        return self._T_full(self.expand(y), E, self.grid.D, self.sample, self.a, self.b, derivative=True)
+
+    def matrix(self, E) -> Any:
+        """T(E) on the reduced unknowns: dense array or sparse CSR."""
+        eq, s, D = self.eq, self.sample, self.grid.D
+        n = self.n
+        p = eq.p(E, s)
+        diag = s.r**2 * (eq.q(E, s) - E)
+        if self.grid.dense:
+            full = -(D + np.diag(self.a)) @ (p[:, None] * (D + np.diag(self.b))) + np.diag(diag)
+            Tb = full[1:-1, 1:-1] + np.outer(full[1:-1, 0], self._c)
+            return Tb
+        full = -(D + sp.diags(self.a)) @ sp.diags(p) @ (D + sp.diags(self.b)) + sp.diags(diag)
+        full = full.tocsc()
+        inner = full[1:-1, 1:-1]
+        corr = sp.csr_matrix(full[1:-1, [0]]) @ sp.csr_matrix(self._c.reshape(1, -1))
+        return (inner + corr).tocsr()
+
+    def pencil(self, E_ref):
+        """(A, B) with A y = lambda B y the fixed-E problem at E_ref."""
+        T = self.matrix(E_ref)
+        if self.grid.dense:
+            return T + E_ref * np.diag(self.B), np.diag(self.B)
+        return T + E_ref * sp.diags(self.B), sp.diags(self.B).tocsr()

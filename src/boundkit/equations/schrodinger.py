@@ -1,0 +1,41 @@
+"""Radial Schrodinger equation for one orbital l."""
+from __future__ import annotations
+
+from .._checks import check_int, check_positive
+from .base import RadialEquation, Sample, letter
+
+__all__ = ["Schrodinger"]
+
+
+class Schrodinger(RadialEquation):
+    """Non-relativistic radial equation for orbital ``l`` and (reduced) mass ``mass``.
+
+    Notes
+    -----
+    -u''/(2 mu) + [l(l+1)/(2 mu r^2) + V + S] u = E u, u(0) = u(inf) = 0.
+    In the factorized form: p = 1/(2 mu), q = V + S, kappa_eff = -(l+1)
+    (so that kappa(kappa+1) = l(l+1)); u ~ r^(l+1) at the origin. The pencil
+    is linear in E.
+    """
+
+    name = "schrodinger"
+    spin = 0.0
+
+    def __init__(self, l: int = 0, mass: float = 1.0) -> None:
+        self.l = check_int("l", l, minimum=0)
+        self.mass = check_positive("mass", mass)
+        self.kappa = None
+        self.j = None
+        self.kappa_eff = -(self.l + 1)
+
+    def p(self, E, s: Sample):
+        return 0 * s.r + 1 / (2 * s.r.dtype.type(self.mass))
+
+    def q(self, E, s: Sample):
+        return s.V + s.S
+
+    def gamma(self, potential) -> float:
+        return float(self.l + 1)
+
+    def label(self, n: int) -> str:
+        return f"{n}{letter(self.l)}"

@@ -1,0 +1,134 @@
+"""Frozen result objects with readable reprs."""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from .units import hartree_to
+
+__all__ = ["RadialState", "Level", "SolveResult"]
+
+
+@dataclass(frozen=True, slots=True, repr=False)
+class RadialState:
+    """Normalised radial functions on their grid (atomic units).
+
+    ``P`` is r times the (large) radial component, ``Q`` r times the small
+    component (Dirac only, else None). ``weights`` integrate over r:
+    integral of g(r) dr ~ sum(weights * g).
+    """
+
+    r: np.ndarray
+    P: np.ndarray
+    Q: np.ndarray | None
+    weights: np.ndarray
+    gamma: float
+
+    def __repr__(self) -> str:
+        comp = "P, Q" if self.Q is not None else "P"
+        return (f"RadialState({comp} on {len(self.r)} nodes, r in "
+                f"[{self.r[0]:.3g}, {self.r[-1]:.3g}] bohr, u ~ r^{self.gamma:.6g} at 0)")
+
+
+@dataclass(frozen=True, slots=True, repr=False)
+class Level:
+    """One bound level of one channel.
+
+    ``energy`` is the binding energy (total minus rest energy) in hartree;
+    ``error_estimate`` is absolute, in hartree. Use :meth:`energy_in` for
+    other units.
+    """
+
+    n: int
+    l: int
+    j: float | None
+    kappa: int | None
+    label: str
+    energy: float
+    error_estimate: float
+    nodes: int
+    state: RadialState
+    resolution: int
+    iterations: int
+
+    def energy_in(self, unit: str) -> float:
+        return float(hartree_to(self.energy, unit))
+
+    def error_in(self, unit: str) -> float:
+        return float(hartree_to(self.error_estimate, unit))
+
+    def __repr__(self) -> str:
+        return (f"Level({self.label}: E = {self.energy:.15g} hartree "
+                f"+- {self.error_estimate:.2g}, nodes={self.nodes})")
+
+
+@dataclass(frozen=True, repr=False)
+class SolveResult:
+    """Outcome of :func:`boundkit.solve`.
+
+    Attributes
+    ----------
+    levels : tuple of Level
+        The reported levels, lowest first.
+    success : bool
+        True when every requested level was found and meets ``tol``.
+    status : str
+        ``"ok"``, ``"partial"`` (fewer levels than requested) or
+        ``"tolerance-not-met"``.
+    message : str
+        One line saying what happened.
+    equation, potential : str
+        What was solved.
+    settings, constants, units, diagnostics : dict
+        Everything that produced the numbers.
+    """
+
+    levels: tuple[Level, ...]
+    success: bool
+    status: str
+    message: str
+    equation: str
+    potential: str
+    settings: dict = field(default_factory=dict)
+    constants: dict = field(default_factory=dict)
+    units: dict = field(default_factory=dict)
+    diagnostics: dict = field(default_factory=dict)
+
+    def energies(self, unit: str = "hartree") -> np.ndarray:
+        return np.array([lv.energy_in(unit) for lv in self.levels])
+
+    def level(self, label: str) -> Level:
+        for lv in self.levels:
+            if lv.label == label:
+                return lv
+        raise KeyError(f"no level {label!r}; have {', '.join(lv.label for lv in self.levels)}")
+
+    def to_dict(self, energy_unit: str = "hartree") -> dict[str, Any]:
+        """A JSON-ready record (energies in ``energy_unit``)."""
+        return {
+            "equation": self.equation,
+            "potential": self.potential,
+            "units": {"energy": energy_unit, "length": "bohr"},
+            "constants": self.constants,
+            "settings": self.settings,
+            "status": self.status,
+            "success": self.success,
+            "message": self.message,
+            "levels": [
+                {
+                    "n": lv.n, "l": lv.l, "j": lv.j, "kappa": lv.kappa, "label": lv.label,
+                    "energy": lv.energy_in(energy_unit),
+                    "error_estimate": lv.error_in(energy_unit),
+                    "nodes": lv.nodes, "resolution": lv.resolution,
+                }
+                for lv in self.levels
+            ],
+            "diagnostics": self.diagnostics,
+        }
+
+    def __repr__(self) -> str:
+        lines = [f"SolveResult({self.equation}, {self.potential}, status={self.status!r}: {self.message})"]
+        lines += [f"  {lv!r}" for lv in self.levels]
+        return "\n".join(lines)

@@ -1,0 +1,417 @@
+"""Channel solver: domain choice, seeding, resolution ladder, error estimates.
+
+For one channel the solver
+
+1. takes the exponent gamma of u ~ r^gamma at the origin from the equation
+   and the potential's declared charge there (this also rejects a point
+   Coulomb charge too strong for the equation);
+2. finds a natural length L of the potential (where 2 m r^2 |V + S| = 1) and
+   sets the inner end of the mesh at 1e-9 L;
+3. seeds the levels with two coarse spectral solves of the fixed-energy
+   pencil. A candidate is kept only when it is real, inside the bound-state
+   window, found at both coarse sizes and has as many nodes as levels below
+   it (the k-th level of a Sturm-Liouville problem has k nodes); everything
+   else is counted in the diagnostics as dropped;
+4. gives each level its own outer radius from a WKB estimate of where its
+   radial function has fallen by e^-42, and climbs the method's ladder of
+   resolutions, refining the level by Newton's method at each size;
+5. estimates the error from successive sizes (geometric extrapolation for
+   the spectral family, Richardson for finite differences) and stops when the
+   estimate meets ``tol``.
+"""
+from __future__ import annotations
+
+import logging
+import math
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from .discretize import Discretization, get_method
+from .eigen import dense_pencil, refine, shift_invert
+from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
+from .equations.dirac import Dirac
+from .equations.klein_gordon import KleinGordon
+from .equations.schrodinger import Schrodinger
+from .mesh import LogMap
+from .potentials import Potential, make_potential
+from .results import Level, RadialState, SolveResult
+from .states import count_nodes, normalise, principal_n
+from .units import ELECTRON_MASS_MEV, constants_record, get_particle
+from ._checks import check_choice, check_int, check_positive
+
+__all__ = ["solve", "make_equation"]
+
+log = logging.getLogger(__name__)
+
+_DECAY = 42.0          # e-folds of the radial function kept beyond the turning point
+_INNER = 1e-9          # inner end of the mesh in units of the natural length
+_SEED_SIZES = (80, 112)
+
+
+def make_equation(equation: str, l: int | None = None, kappa: int | None = None,
+                  mass: float = 1.0) -> RadialEquation:
+    """Build the equation object of one channel.
+
+    ``equation`` is ``schrodinger``, ``klein-gordon`` or ``dirac``; Schrodinger
+    and Klein-Gordon take ``l`` (default 0), Dirac takes ``kappa`` (default -1;
+    an ``l`` alone is refused because it fits two kappas).
+    """
+    key = str(equation).lower().replace("_", "-")
+    key = {"kg": "klein-gordon", "kleingordon": "klein-gordon", "schroedinger": "schrodinger"}.get(key, key)
+    check_choice("equation", key, EQUATIONS)
+    if key == "dirac":
+        if kappa is None:
+            if l is not None:
+                raise ValueError(
+                    f"kappa: the Dirac equation needs kappa, not l; for l = {l} use kappa = {-(l + 1)} "
+                    f"(j = l + 1/2)" + (f" or kappa = {l} (j = l - 1/2)" if l > 0 else "")
+                )
+            kappa = -1
+        return Dirac(kappa=kappa, mass=mass)
+    if kappa is not None:
+        raise ValueError(f"kappa: only the Dirac equation takes kappa; give l for {key}")
+    l = 0 if l is None else check_int("l", l, minimum=0)
+    return (Schrodinger if key == "schrodinger" else KleinGordon)(l=l, mass=mass)
+
+
+def _sample(pot: Potential, r: np.ndarray) -> Sample:
+    V = np.asarray(pot.V(r), dtype=float)
+    S = np.asarray(pot.S(r), dtype=float)
+    if not (np.all(np.isfinite(V)) and np.all(np.isfinite(S))):
+        bad = r[~(np.isfinite(V) & np.isfinite(S))][0]
+        raise ValueError(f"potential: not finite at r = {bad:.3g} bohr; check the expression or parameters")
+    return Sample(r, V, S)
+
+
+def _natural_length(eq: RadialEquation, pot: Potential) -> float:
+    r = np.logspace(-14, 8, 2201)
+    s = _sample(pot, r)
+    big = 2 * eq.mass * r**2 * np.abs(s.V + s.S) >= 1.0
+    if not np.any(big):
+        raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr")
+    return float(r[np.argmax(big)])
+
+
+def _outer_radius(eq: RadialEquation, pot: Potential, E: float, L: float) -> float:
+    """Radius where a level of energy E has decayed by e^-_DECAY (WKB)."""
+    return _radii(eq, pot, E, L)[0]
+
+
+def _radii(eq: RadialEquation, pot: Potential, E: float, L: float) -> tuple[float, float]:
+    """(outer radius, core radius) of a level of energy E.
+
+    The outer radius is where the WKB estimate of the radial function has
+    fallen by e^-_DECAY beyond the outer turning point; the core radius is
+    the inner turning point (or L when the level is classically allowed down
+    to the origin)."""
+    r = np.logspace(math.log10(L * 1e-3), math.log10(L * 1e10), 6000)
+    s = _sample(pot, r)
+    k = eq.kappa_eff
+    with np.errstate(over="ignore", invalid="ignore"):
+        p = eq.p(E, s)
+        excess = (eq.q(E, s) - E) / p + k * (k + 1) / r**2
+    allowed = np.nonzero(excess < 0)[0]
+    start = allowed[-1] if allowed.size else 0
+    core = float(r[allowed[0]]) if allowed.size and allowed[0] > 0 else L
+    kk = np.sqrt(np.clip(excess[start:], 0, None))
+    cum = np.concatenate(([0.0], np.cumsum(0.5 * (kk[1:] + kk[:-1]) * np.diff(r[start:]))))
+    beyond = np.nonzero(cum >= _DECAY)[0]
+    if not beyond.size:
+        return float(r[-1]), core
+    return float(r[start + beyond[0]]) * 1.05, core
+
+
+@dataclass
+class _Tally:
+    candidates: int = 0
+    dropped_node_mismatch: int = 0
+    dropped_unstable: int = 0
+    dropped_outside_window: int = 0
+    dropped_unstable_seed: int = 0
+    notes: list = field(default_factory=list)
+
+
+def _nodes_of(op: FactorizedOperator, y) -> int:
+    return count_nodes(op.expand(np.asarray(y, dtype=float)) * op.weight())
+
+
+def _fixed_point(op: FactorizedOperator, E: float, lo: float, hi: float, iters: int = 8) -> float:
+    """Iterate E <- (eigenvalue of the pencil at E nearest E) a few times."""
+    for _ in range(iters):
+        A, B = op.pencil(E)
+        lam, _ = dense_pencil(A, B)
+        lam = lam[(lam > lo) & (lam < hi)]
+        if not lam.size:
+            return E
+        E_new = float(lam[np.argmin(np.abs(lam - E))])
+        if abs(E_new - E) <= 1e-12 * abs(E_new):
+            return E_new
+        E = E_new
+    return E
+
+
+def _seed(eq, pot, gamma, r_min, R, levels, lo, hi, tally: _Tally, sizes=_SEED_SIZES,
+          r_core: float = 1.0) -> list[float]:
+    """Seed energies of the lowest ``levels`` levels on [r_min, R].
+
+    Energies only: on a mesh much wider than a level the tail of its
+    eigenvector is too noisy to count nodes, while its energy is already
+    good. A candidate must be real, inside the bound window and found at both
+    coarse sizes; the k-th survivor seeds the k-node level, and the node
+    count is checked later on the level's own, tight mesh.
+    """
+    from .discretize.spectral import Chebyshev
+
+    cheb = Chebyshev()
+    mesh = LogMap(r_min, R)
+    E_ref = 0.0 if math.isinf(hi) else hi
+    found = []
+    for size in sizes:
+        grid = cheb.grid(mesh, size)
+        op = FactorizedOperator(eq, grid, _sample(pot, grid.r), gamma, r_core)
+        A, B = op.pencil(E_ref)
+        lam, _ = dense_pencil(A, B)
+        inside = (lam > lo) & (lam < hi)
+        found.append((op, lam[inside], int(np.count_nonzero(~inside))))
+    (op_a, lam_a, out_a), (_, lam_b, _) = found
+    stable = [float(x) for x in lam_a
+              if lam_b.size and np.min(np.abs(lam_b - x)) <= 1e-3 * max(abs(x), 1e-300)]
+    tally.candidates = len(lam_a)
+    tally.dropped_outside_window = out_a
+    tally.dropped_unstable_seed = len(lam_a) - len(stable)
+    return [_fixed_point(op_a, E, lo, hi) for E in stable[:levels]]
+
+
+def _initial_radius(eq, pot, levels: int, L: float) -> float:
+    """First outer radius for seeding: hydrogen-like guess when the potential
+    has a Coulomb tail, else a multiple of the natural length."""
+    n_top = levels + eq.l
+    if pot.tail_charge > 0:
+        return _outer_radius(eq, pot, -eq.mass * pot.tail_charge**2 / (2 * n_top**2), L)
+    return L * 20.0 * n_top**2
+
+
+_FLOOR = 2e-14  # relative: the smallest error we claim (rounding in the refined residual)
+
+
+def _estimate(history: list[float], disc: Discretization) -> float:
+    """Error estimate of the last energy in ``history``.
+
+    Finite differences: Richardson, |E_h - E_2h| / (2^order - 1). Spectral:
+    the last difference |E_k - E_(k-1)|, which bounds the error of E_k once
+    convergence is geometric. Never below _FLOOR |E|.
+    """
+    E = history[-1]
+    floor = _FLOOR * abs(E)
+    if len(history) < 2:
+        return math.inf
+    d1 = abs(history[-1] - history[-2])
+    if disc.order is not None:
+        return max(d1 / (2.0**disc.order - 1), floor)
+    return max(d1, floor)
+
+
+def _converged(history: list[float], disc: Discretization, tol: float) -> bool:
+    """Stop rule: the estimate meets tol; for the spectral family also the
+    difference before it (one lucky agreement of two sizes is not enough)."""
+    if len(history) < 2:
+        return False
+    E = abs(history[-1])
+    if _estimate(history, disc) > tol * E:
+        return False
+    if disc.order is None:
+        return len(history) >= 3 and abs(history[-2] - history[-3]) <= 100 * tol * E
+    return True
+
+
+def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi):
+    grid = disc.grid(mesh, size)
+    op = FactorizedOperator(eq, grid, _sample(pot, grid.r), gamma, r_core)
+    A, B = op.pencil(E_seed)
+    if grid.dense:
+        lam, vec = dense_pencil(A, B)
+    else:
+        lam, vec = shift_invert(A, B, E_seed, k=6)
+    pick = [i for i in range(len(lam)) if lo < lam[i] < hi and _nodes_of(op, vec[:, i]) == k]
+    if not pick:
+        return None
+    i = min(pick, key=lambda i: abs(lam[i] - E_seed))
+    ref = refine(op, lam[i], vec[:, i])
+    nodes = _nodes_of(op, ref.vector)
+    return op, ref, nodes
+
+
+def _state(eq, op: FactorizedOperator, E: float, y) -> RadialState:
+    grid, s = op.grid, op.sample
+    f = op.expand(np.asarray(y, dtype=float))
+    r = s.r
+    P = op.weight() * f
+    w_dr = grid.w * r
+    g = op.weight() / r * (grid.D @ f + op.b * f)
+    Q = eq.small_component(E, s, g)
+    weight = eq.density_weight(E, s)
+    comps = (P,) if Q is None else (P, Q)
+    comps, _ = normalise(w_dr, *comps, weight=weight)
+    return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma)
+
+
+def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, levels: int = 1,
+                  tol: float = 1e-10, settings: dict | None = None, potential_name: str = "") -> SolveResult:
+    """Solve one channel; the engine behind :func:`solve` (same result type)."""
+    t0 = time.perf_counter()
+    gamma = eq.gamma(pot)
+    lo, hi = eq.energy_window(pot)
+    L = _natural_length(eq, pot)
+    r_min = _INNER * L
+    tally = _Tally()
+    R = _initial_radius(eq, pot, levels, L)
+    sizes = _SEED_SIZES
+    seeds: list[float] = []
+    for _attempt in range(10):
+        seeds = _seed(eq, pot, gamma, r_min, R, levels, lo, hi, tally, sizes, r_core=L * (eq.l + 1) ** 2)
+        need = max((_outer_radius(eq, pot, E, L) for E in seeds), default=R)
+        if need > R:
+            R = 1.2 * need
+        elif len(seeds) >= levels:
+            break
+        elif sizes[1] < 300:
+            sizes = (sizes[1], int(sizes[1] * 1.4))
+        elif R < 1e9 * L:
+            R, sizes = 4 * R, _SEED_SIZES
+        else:
+            break
+    per_level = []
+    found: list[Level] = []
+    worst = 0.0
+    for k, E in enumerate(seeds):
+        n = principal_n(k, eq.l)
+        label = eq.label(n)
+        r_out, r_core = _radii(eq, pot, E, L)
+        mesh = LogMap(r_min, r_out)
+        history, sizes, last = [], [], None
+        est = math.inf
+        for size in disc.ladder():
+            got = _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E, k, lo, hi)
+            if got is None or got[2] != k:
+                tally.notes.append(f"{label}: no {k}-node solution at size {size}")
+                continue
+            op, ref, _ = got
+            E = ref.energy
+            history.append(E)
+            sizes.append(size)
+            last = (op, ref)
+            est = _estimate(history, disc)
+            if _converged(history, disc, tol):
+                break
+        record = {"label": label, "sizes": sizes, "energies": history, "r_min": r_min, "r_max": mesh.r_max}
+        per_level.append(record)
+        if last is None or len(history) < 2:
+            tally.dropped_unstable += 1
+            continue
+        if abs(history[-1] - history[-2]) > 1e-6 * abs(E):
+            tally.dropped_unstable += 1
+            record["dropped"] = "unstable under a change of resolution"
+            continue
+        op, ref = last
+        worst = max(worst, est / abs(E))
+        found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=label, energy=E,
+                           error_estimate=est, nodes=k, state=_state(eq, op, E, ref.vector),
+                           resolution=sizes[-1], iterations=ref.iterations))
+    found.sort(key=lambda lv: lv.energy)
+    if len(found) < levels:
+        status = "partial"
+        message = (f"found {len(found)} of {levels} requested bound levels; the potential may hold no more "
+                   "in this channel (see diagnostics)")
+    elif worst > tol:
+        status = "tolerance-not-met"
+        message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g} at the largest "
+                   f"resolution ({disc.cap}); the values shown are the best estimates")
+    else:
+        status = "ok"
+        message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
+    diagnostics = {
+        "gamma": gamma, "natural_length_bohr": L, "seed_candidates": tally.candidates,
+        "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
+        "dropped_outside_window": tally.dropped_outside_window,
+        "dropped_unstable_seed": tally.dropped_unstable_seed, "levels": per_level, "notes": tally.notes,
+        "seconds": time.perf_counter() - t0,
+    }
+    return SolveResult(levels=tuple(found), success=status == "ok", status=status, message=message,
+                       equation=eq.name, potential=potential_name or repr(pot), settings=dict(settings or {}),
+                       constants=constants_record(), units={"energy": "hartree", "length": "bohr"},
+                       diagnostics=diagnostics)
+
+
+def solve(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+          l: int | None = None, kappa: int | None = None, levels: int = 1, tol: float = 1e-10,
+          method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
+          mass_mev: float | None = None, nucleus_mass_mev: float | None = None,
+          scalar=None) -> SolveResult:
+    """Bound levels of one channel of a central potential.
+
+    Parameters
+    ----------
+    equation : {'schrodinger', 'klein-gordon', 'dirac'}
+    potential : str, callable or sequence
+        Built-in term name(s) (they add) or a callable V(r) (r in bohr,
+        V in hartree). Default ``'coulomb'``.
+    params : dict
+        Term parameters, e.g. ``{'Z': 1}``.
+    l, kappa : int
+        Channel: orbital l (Schrodinger, Klein-Gordon) or Dirac kappa (non-zero).
+    levels : int
+        Number of lowest levels wanted in the channel (>= 1).
+    tol : float
+        Target relative error of each binding energy (default 1e-10).
+    method : str or Discretization
+        ``'auto'`` (spectral), ``'spectral'`` or ``'finite-difference'``.
+    order : int, optional
+        Accuracy order of the finite-difference family (default 8).
+    particle, mass_mev : str, float
+        Orbiting particle by name (electron, muon, pion, kaon, proton,
+        antiproton) or its mass in MeV/c^2. Default electron.
+    nucleus_mass_mev : float, optional
+        Nucleus mass; the reduced mass mu = m M / (m + M) is then used in
+        every equation (the leading recoil correction).
+    scalar : str, callable or sequence, optional
+        Lorentz-scalar terms (Dirac and Klein-Gordon).
+
+    Returns
+    -------
+    SolveResult
+        Frozen; ``levels`` hold binding energies in hartree.
+
+    Notes
+    -----
+    The binding energy E = E_total - m c^2 is the unknown throughout. See
+    :mod:`boundkit.equations` for the operators and :mod:`boundkit.solver`
+    for the procedure and the error estimate.
+
+    Examples
+    --------
+    >>> import boundkit
+    >>> res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=0, levels=2)
+    >>> [round(lv.energy, 12) for lv in res.levels]
+    [-0.5, -0.125]
+    """
+    levels = check_int("levels", levels, minimum=1)
+    tol = check_positive("tol", tol)
+    part = get_particle(particle, mass_mev)
+    mass = part.mass_au
+    if nucleus_mass_mev is not None:
+        M = check_positive("nucleus_mass_mev", nucleus_mass_mev) / ELECTRON_MASS_MEV
+        mass = mass * M / (mass + M)
+    eq = make_equation(equation, l=l, kappa=kappa, mass=mass)
+    if scalar is not None and eq.name == "schrodinger":
+        log.info("Schrodinger equation: scalar terms are added to the vector potential")
+    disc = get_method(method, order)
+    pot = make_potential(potential, params, scalar=scalar)
+    name = potential if isinstance(potential, str) else repr(pot)
+    settings = {
+        "equation": eq.name, "l": eq.l, "kappa": eq.kappa, "j": eq.j, "levels": levels, "tol": tol,
+        "method": disc.describe(), "particle": part.name, "particle_mass_MeV": part.mass_mev,
+        "nucleus_mass_MeV": nucleus_mass_mev, "mass_atomic_units": mass, "params": dict(params or {}),
+    }
+    return solve_channel(eq, pot, disc, levels, tol, settings, potential_name=str(name))

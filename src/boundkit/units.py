@@ -1,0 +1,139 @@
+"""Physical constants, particles and energy units.
+
+Everything inside boundkit is in atomic units (hbar = e = m_e = 4 pi eps0 = 1,
+so c = 1/alpha, lengths in bohr, energies in hartree). This module is the one
+place where numbers from outside enter: every constant comes from
+:mod:`scipy.constants` (CODATA), except the meson masses, which CODATA does not
+list (they come from the Particle Data Group review and are marked so).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping
+
+import scipy
+import scipy.constants as sc
+
+from ._checks import check_choice, check_positive
+
+__all__ = [
+    "ALPHA",
+    "C_AU",
+    "HARTREE_EV",
+    "BOHR_M",
+    "ELECTRON_MASS_MEV",
+    "Particle",
+    "PARTICLES",
+    "ENERGY_UNITS",
+    "get_particle",
+    "hartree_to",
+    "constants_record",
+]
+
+ALPHA: float = sc.fine_structure
+"""Fine-structure constant (CODATA, via scipy.constants)."""
+C_AU: float = 1.0 / ALPHA
+"""Speed of light in atomic units."""
+HARTREE_EV: float = sc.physical_constants["Hartree energy in eV"][0]
+HARTREE_J: float = sc.physical_constants["Hartree energy"][0]
+BOHR_M: float = sc.physical_constants["Bohr radius"][0]
+ELECTRON_MASS_MEV: float = sc.physical_constants["electron mass energy equivalent in MeV"][0]
+FM_PER_BOHR: float = BOHR_M * 1e15
+
+
+@dataclass(frozen=True, slots=True)
+class Particle:
+    """An orbiting particle.
+
+    Parameters
+    ----------
+    name : str
+        Name used in reports.
+    mass_mev : float
+        Rest energy in MeV.
+    source : str
+        Where the mass comes from.
+    """
+
+    name: str
+    mass_mev: float
+    source: str
+
+    def __post_init__(self) -> None:
+        check_positive("mass_mev", self.mass_mev)
+
+    @property
+    def mass_au(self) -> float:
+        """Mass in units of the electron mass (the atomic unit of mass)."""
+        return self.mass_mev / ELECTRON_MASS_MEV
+
+
+def _codata_mass(key: str) -> float:
+    return sc.physical_constants[key][0]
+
+
+_PDG = "Particle Data Group, Review of Particle Physics (value from memory; not in CODATA)"
+PARTICLES: Mapping[str, Particle] = {
+    "electron": Particle("electron", _codata_mass("electron mass energy equivalent in MeV"), "CODATA via scipy.constants"),
+    "muon": Particle("muon", _codata_mass("muon mass energy equivalent in MeV"), "CODATA via scipy.constants"),
+    "pion": Particle("pion", 139.57039, _PDG),
+    "kaon": Particle("kaon", 493.677, _PDG),
+    "proton": Particle("proton", _codata_mass("proton mass energy equivalent in MeV"), "CODATA via scipy.constants"),
+    "antiproton": Particle("antiproton", _codata_mass("proton mass energy equivalent in MeV"), "CODATA via scipy.constants (equal to the proton mass)"),
+}
+
+
+def get_particle(particle: str | Particle | None = None, mass_mev: float | None = None) -> Particle:
+    """Return the particle named ``particle`` or one of mass ``mass_mev`` (MeV/c^2)."""
+    if mass_mev is not None:
+        check_positive("mass_mev", mass_mev)
+        name = particle if isinstance(particle, str) else "custom"
+        return Particle(name, float(mass_mev), "given by the user")
+    if particle is None:
+        return PARTICLES["electron"]
+    if isinstance(particle, Particle):
+        return particle
+    key = check_choice("particle", str(particle).lower(), PARTICLES)
+    return PARTICLES[key]
+
+
+# energy unit -> multiply a hartree value by this factor
+ENERGY_UNITS: Mapping[str, float] = {
+    "hartree": 1.0,
+    "eV": HARTREE_EV,
+    "meV": HARTREE_EV * 1e3,
+    "keV": HARTREE_EV * 1e-3,
+    "MeV": HARTREE_EV * 1e-6,
+    "cm^-1": HARTREE_J / (sc.h * sc.c) / 100.0,
+    "MHz": HARTREE_J / sc.h / 1e6,
+    "GHz": HARTREE_J / sc.h / 1e9,
+    "THz": HARTREE_J / sc.h / 1e12,
+}
+_UNIT_ALIASES = {u.lower(): u for u in ENERGY_UNITS} | {"ha": "hartree", "hartrees": "hartree", "cm-1": "cm^-1", "1/cm": "cm^-1"}
+
+
+def energy_unit(name: str) -> str:
+    """Return the canonical spelling of an energy unit, or raise ValueError."""
+    key = _UNIT_ALIASES.get(str(name).lower())
+    if key is None:
+        raise ValueError(
+            f"energy_unit: unknown unit {name!r}; choose one of {', '.join(ENERGY_UNITS)}"
+        )
+    return key
+
+
+def hartree_to(value, unit: str):
+    """Convert an energy (or array) from hartree to ``unit``."""
+    return value * ENERGY_UNITS[energy_unit(unit)]
+
+
+def constants_record() -> dict:
+    """The constants a result was computed with, for reports and JSON."""
+    return {
+        "alpha": ALPHA,
+        "c_atomic_units": C_AU,
+        "hartree_eV": HARTREE_EV,
+        "bohr_m": BOHR_M,
+        "electron_mass_MeV": ELECTRON_MASS_MEV,
+        "source": f"CODATA via scipy.constants (scipy {scipy.__version__})",
+    }
