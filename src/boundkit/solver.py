@@ -109,7 +109,7 @@ def _radii(eq: RadialEquation, pot: Potential, E: float, L: float) -> tuple[floa
     r = np.logspace(math.log10(L * 1e-3), math.log10(L * 1e10), 6000)
     s = _sample(pot, r)
     k = eq.kappa_eff
-    with np.errstate(over="ignore", invalid="ignore"):
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         p = eq.p(E, s)
         excess = (eq.q(E, s) - E) / p + k * (k + 1) / r**2
     allowed = np.nonzero(excess < 0)[0]
@@ -190,6 +190,10 @@ def _initial_radius(eq, pot, levels: int, L: float) -> float:
     n_top = levels + eq.l
     if pot.tail_charge > 0:
         return _outer_radius(eq, pot, -eq.mass * pot.tail_charge**2 / (2 * n_top**2), L)
+    if pot.confining:
+        s = _sample(pot, np.array([L]))
+        e_scale = 1.0 / (2 * eq.mass * L**2) + abs(float(s.V[0] + s.S[0]))
+        return _outer_radius(eq, pot, 2.0 * e_scale * (2 * levels + eq.l + 1.5), L)
     return L * 20.0 * n_top**2
 
 
@@ -269,16 +273,16 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
     R = _initial_radius(eq, pot, levels, L)
     sizes = _SEED_SIZES
     seeds: list[float] = []
-    for _attempt in range(10):
+    for _attempt in range(12):
         seeds = _seed(eq, pot, gamma, r_min, R, levels, lo, hi, tally, sizes, r_core=L * (eq.l + 1) ** 2)
         need = max((_outer_radius(eq, pot, E, L) for E in seeds), default=R)
-        if need > R:
-            R = 1.2 * need
+        if need > R or (seeds and need < R / 2):
+            R = 1.2 * need          # fit the mesh to the highest seed, and seed again
         elif len(seeds) >= levels:
             break
         elif sizes[1] < 300:
             sizes = (sizes[1], int(sizes[1] * 1.4))
-        elif R < 1e9 * L:
+        elif R < 1e9 * L and not pot.confining:
             R, sizes = 4 * R, _SEED_SIZES
         else:
             break
