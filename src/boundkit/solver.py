@@ -412,10 +412,11 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
         log.info("Schrodinger equation: scalar terms are added to the vector potential")
     disc = get_method(method, order)
     pot = make_potential(potential, params, scalar=scalar)
-    name = potential if isinstance(potential, str) else repr(pot)
+    name = pot.name
     settings = {
         "equation": eq.name, "l": eq.l, "kappa": eq.kappa, "j": eq.j, "levels": levels, "tol": tol,
         "method": disc.describe(), "particle": part.name, "particle_mass_MeV": part.mass_mev,
         "nucleus_mass_MeV": nucleus_mass_mev, "mass_atomic_units": mass, "params": dict(params or {}),
+        "terms": repr(pot),
     }
     return solve_channel(eq, pot, disc, levels, tol, settings, potential_name=str(name))

@@ -194,6 +194,13 @@ class Potential:
     def tail_charge(self) -> float:
         return float(sum(t.tail_charge for t in self.vector + self.scalar))
 
+    @property
+    def name(self) -> str:
+        """Short description: term names joined by ' + ', scalar terms marked."""
+        parts = [getattr(t, "label", t.name) for t in self.vector]
+        parts += [f"scalar {getattr(t, 'label', t.name)}" for t in self.scalar]
+        return " + ".join(parts)
+
     def __repr__(self) -> str:
         parts = [repr(t) for t in self.vector] + [f"scalar {t!r}" for t in self.scalar]
         return "Potential(" + " + ".join(parts) + ")"
