@@ -130,6 +130,7 @@ class _Tally:
     dropped_unstable: int = 0
     dropped_outside_window: int = 0
     dropped_unstable_seed: int = 0
+    floor_hit: bool = False
     notes: list = field(default_factory=list)
 
 
@@ -309,6 +310,11 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
             est = _estimate(history, disc)
             if _converged(history, disc, tol):
                 break
+            if len(history) >= 3 and max(abs(history[-1] - history[-2]),
+                                         abs(history[-2] - history[-3])) <= _FLOOR * abs(E):
+                tally.notes.append(f"{label}: at the rounding floor; tol {tol:g} is out of reach")
+                tally.floor_hit = True
+                break
         record = {"label": label, "sizes": sizes, "energies": history, "r_min": r_min, "r_max": mesh.r_max}
         per_level.append(record)
         if last is None or len(history) < 2:
@@ -330,8 +336,10 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
                    "in this channel (see diagnostics)")
     elif worst > tol:
         status = "tolerance-not-met"
-        message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g} at the largest "
-                   f"resolution ({disc.cap}); the values shown are the best estimates")
+        why = (f"the rounding floor (about {_FLOOR:g} relative) lies above it" if tally.floor_hit
+               else f"the largest resolution ({disc.cap}) was reached")
+        message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g}: {why}; "
+                   "the values shown are the best estimates")
     else:
         status = "ok"
         message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"

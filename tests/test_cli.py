@@ -1,0 +1,83 @@
+"""Command-line behaviour: output keys scripts depend on, exit codes, messages."""
+from __future__ import annotations
+
+import json
+
+import pytest
+from click.testing import CliRunner
+
+from boundkit.cli import main
+from boundkit.units import ALPHA
+
+
+def run(*args):
+    return CliRunner().invoke(main, list(args))
+
+
+def test_default_case_runs_and_prints_a_table():
+    res = run("solve")
+    assert res.exit_code == 0, res.output
+    assert "1s1/2" in res.output and "2s1/2" in res.output
+    assert "status: ok" in res.output
+
+
+def test_json_keys_and_units():
+    res = run("solve", "--equation", "schrodinger", "--param", "Z=2", "--l", "1", "--levels", "2",
+              "--energy-unit", "eV", "--json")
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.output)
+    for key in ("equation", "potential", "units", "constants", "settings", "levels", "diagnostics"):
+        assert key in data
+    assert data["units"] == {"energy": "eV", "length": "bohr"}
+    assert data["constants"]["alpha"] == ALPHA
+    lv = data["levels"][0]
+    for key in ("n", "l", "j", "kappa", "label", "energy", "error_estimate"):
+        assert key in lv
+    assert lv["label"] == "2p"
+    # -Z^2/(2 n^2) hartree with Z = 2, n = 2 (Bethe & Salpeter 1957), in eV via CODATA
+    from scipy.constants import physical_constants
+    expected = -0.5 * physical_constants["Hartree energy in eV"][0]
+    assert lv["energy"] == pytest.approx(expected, rel=1e-12)
+
+
+def test_repeatable_potential_terms_add():
+    res = run("solve", "--equation", "schrodinger", "-p", "coulomb", "-p", "coulomb", "--param", "Z=1",
+              "--json")
+    assert res.exit_code == 0, res.output
+    # two unit charges act as Z = 2: E_1s = -2 hartree (Bethe & Salpeter 1957)
+    assert json.loads(res.output)["levels"][0]["energy"] == pytest.approx(-2.0, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (("--equation", "foo"), "equation: unknown value 'foo'"),
+        (("--potential", "bar"), "unknown potential 'bar'"),
+        (("--param", "Z"), "malformed; write NAME=VALUE"),
+        (("--param", "Z=abc"), "is not a number"),
+        (("--param", "Q=1"), "no potential term takes parameter 'Q'"),
+        (("--kappa", "0"), "kappa: must be a non-zero integer"),
+        (("--equation", "schrodinger", "--l", "-1"), "l: must be >= 0"),
+        (("--levels", "0"), "levels: must be >= 1"),
+        (("--param", "Z=140"), "Z alpha < \\|kappa\\|"),
+        (("--equation", "klein-gordon", "--param", "Z=70"), "Z alpha < l \\+ 1/2"),
+        (("--energy-unit", "parsec"), "unknown unit 'parsec'"),
+        (("--tol", "-1"), "tol: must be positive"),
+        (("--method", "magic"), "unknown discretization 'magic'"),
+        (("--particle", "tauon"), "particle: unknown value 'tauon'"),
+    ],
+)
+def test_bad_input_gives_one_message_and_exit_2(args, message):
+    import re
+
+    res = run("solve", *args)
+    assert res.exit_code == 2
+    assert re.search(message, res.output), res.output
+    assert "Traceback" not in res.output
+
+
+def test_unreachable_tolerance_prints_levels_and_exits_3():
+    res = run("solve", "--tol", "1e-17", "--levels", "1")
+    assert res.exit_code == 3
+    assert "1s1/2" in res.output
+    assert "tolerance-not-met" in res.output
