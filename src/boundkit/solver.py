@@ -360,7 +360,7 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
           l: int | None = None, kappa: int | None = None, levels: int = 1, tol: float = 1e-10,
           method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None,
-          scalar=None) -> SolveResult:
+          scalar=None, units: str = "atomic") -> SolveResult:
     """Bound levels of one channel of a central potential.
 
     Parameters
@@ -389,6 +389,10 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
         every equation (the leading recoil correction).
     scalar : str, callable or sequence, optional
         Lorentz-scalar terms (Dirac and Klein-Gordon).
+    units : {'atomic', 'nuclear'}
+        Unit system of the parameters and callables: hartree and bohr
+        (default) or MeV and fm. Results are always in hartree and bohr
+        inside; convert with ``Level.energy_in``.
 
     Returns
     -------
@@ -419,12 +423,12 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     if scalar is not None and eq.name == "schrodinger":
         log.info("Schrodinger equation: scalar terms are added to the vector potential")
     disc = get_method(method, order)
-    pot = make_potential(potential, params, scalar=scalar)
+    pot = make_potential(potential, params, scalar=scalar, units=units)
     name = pot.name
     settings = {
         "equation": eq.name, "l": eq.l, "kappa": eq.kappa, "j": eq.j, "levels": levels, "tol": tol,
         "method": disc.describe(), "particle": part.name, "particle_mass_MeV": part.mass_mev,
         "nucleus_mass_MeV": nucleus_mass_mev, "mass_atomic_units": mass, "params": dict(params or {}),
-        "terms": repr(pot),
+        "terms": repr(pot), "units": units,
     }
     return solve_channel(eq, pot, disc, levels, tol, settings, potential_name=str(name))

@@ -137,3 +137,60 @@ def constants_record() -> dict:
         "electron_mass_MeV": ELECTRON_MASS_MEV,
         "source": f"CODATA via scipy.constants (scipy {scipy.__version__})",
     }
+
+
+# --- unit systems for parameters ---------------------------------------------------------
+MEV_IN_HARTREE: float = 1e6 / HARTREE_EV
+"""One MeV expressed in hartree."""
+FM_IN_BOHR: float = 1e-15 / BOHR_M
+"""One femtometre expressed in bohr."""
+
+UNIT_SYSTEMS = ("atomic", "nuclear")
+"""``atomic``: hartree and bohr. ``nuclear``: MeV and fm (hbar c from scipy.constants)."""
+
+
+def _dimension(unit: str) -> tuple[int, int] | None:
+    """(energy power, length power) of an atomic-unit string such as
+    ``hartree/bohr^2``; None when the unit is fixed (``fm``, ``e``, ...)."""
+    unit = unit.strip()
+    if unit in ("", "1", "e"):
+        return (0, 0)
+    num, _, den = unit.partition("/")
+    powers = [0, 0]
+    for part, sign in ((num, 1), (den, -1)):
+        for factor in filter(None, part.replace(" ", "").split("*")):
+            base, _, exp = factor.partition("^")
+            p = int(exp) if exp else 1
+            if base == "hartree":
+                powers[0] += sign * p
+            elif base == "bohr":
+                powers[1] += sign * p
+            elif base == "1" and sign == 1:
+                continue
+            else:
+                return None
+    return powers[0], powers[1]
+
+
+def to_atomic(value: float, unit: str, system: str = "atomic") -> float:
+    """Convert a parameter given in ``system`` to atomic units.
+
+    ``unit`` is the parameter's atomic-unit string (``hartree``, ``bohr``,
+    ``hartree/bohr^2``, ``1/bohr``, ...). In the nuclear system the same
+    parameter is read in MeV and fm. Units that are not built from hartree and
+    bohr (``fm``, ``e``) are never converted.
+    """
+    system = check_choice("units", system, UNIT_SYSTEMS)
+    if system == "atomic":
+        return value
+    dim = _dimension(unit)
+    if dim is None:
+        return value
+    return value * MEV_IN_HARTREE ** dim[0] * FM_IN_BOHR ** dim[1]
+
+
+def unit_label(unit: str, system: str = "atomic") -> str:
+    """The unit a parameter is read in, in ``system``."""
+    if system == "atomic" or _dimension(unit) is None:
+        return unit
+    return unit.replace("hartree", "MeV").replace("bohr", "fm")

@@ -3,7 +3,8 @@ from __future__ import annotations
 
 from typing import Callable, Mapping, Sequence
 
-from .base import CallableTerm, Parameter, Potential, Term
+from ..units import to_atomic
+from .base import CallableTerm, NuclearUnitsTerm, Parameter, Potential, Term
 from .builtin import Coulomb, Oscillator
 
 __all__ = ["Term", "Parameter", "Potential", "CallableTerm", "TERMS", "make_potential"]
@@ -20,9 +21,9 @@ def _as_list(x) -> list:
     return list(x)
 
 
-def _make_term(spec, params: Mapping[str, float], used: set) -> Term:
+def _make_term(spec, params: Mapping[str, float], used: set, units: str = "atomic") -> Term:
     if isinstance(spec, Term):
-        return spec
+        return NuclearUnitsTerm(spec) if units == "nuclear" else spec
     if isinstance(spec, type) and issubclass(spec, Term):
         cls = spec
     elif isinstance(spec, str):
@@ -34,19 +35,30 @@ def _make_term(spec, params: Mapping[str, float], used: set) -> Term:
             )
         cls = TERMS[key]
     elif callable(spec):
+        if units == "nuclear":
+            return NuclearUnitsTerm(CallableTerm(spec))
         return CallableTerm(spec)
     else:
         raise ValueError(f"potential: expected a name, a Term or a callable, got {spec!r}")
-    names = {p.name for p in cls.parameters}
-    mine = {k: v for k, v in params.items() if k in names}
+    units_of = {p.name: p.unit for p in cls.parameters}
+    mine = {k: v for k, v in params.items() if k in units_of}
     used.update(mine)
-    return cls(**mine)
+    return cls(**{k: to_atomic(float(v), units_of[k], units) if _is_number(v) else v for k, v in mine.items()})
+
+
+def _is_number(v) -> bool:
+    try:
+        float(v)
+    except (TypeError, ValueError):
+        return False
+    return True
 
 
 def make_potential(
     potential: str | Callable | Term | Sequence = "coulomb",
     params: Mapping[str, float] | None = None,
     scalar: str | Callable | Term | Sequence | None = None,
+    units: str = "atomic",
 ) -> Potential:
     """Build a :class:`Potential` from names, callables or terms.
 
@@ -58,6 +70,9 @@ def make_potential(
         Parameter values shared by all terms (a term takes the ones it knows).
     scalar : same as ``potential``, optional
         Lorentz-scalar terms (Dirac and Klein-Gordon only).
+    units : {'atomic', 'nuclear'}
+        System the parameters (and callables) are written in: hartree and
+        bohr, or MeV and fm. Each parameter is converted by its declared unit.
 
     Raises
     ------
@@ -68,8 +83,11 @@ def make_potential(
         return potential
     params = dict(params or {})
     used: set = set()
-    vec = tuple(_make_term(s, params, used) for s in _as_list(potential))
-    sca = tuple(_make_term(s, params, used) for s in _as_list(scalar))
+    from .._checks import check_choice
+
+    check_choice("units", units, ("atomic", "nuclear"))
+    vec = tuple(_make_term(s, params, used, units) for s in _as_list(potential))
+    sca = tuple(_make_term(s, params, used, units) for s in _as_list(scalar))
     if not vec and not sca:
         raise ValueError("potential: give at least one potential term")
     unused = sorted(set(params) - used)

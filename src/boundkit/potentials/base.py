@@ -94,6 +94,16 @@ class Term:
     def tail_charge(self) -> float:
         return 0.0
 
+    @property
+    def origin_inverse_square(self) -> float:
+        """Coefficient B0 of an inverse-square part of the term at the origin.
+
+        V ~ B0 / r^2 as r -> 0 (B0 in hartree bohr^2). Such a part adds 2 m B0
+        to l(l+1) in the radial Schrodinger equation and so changes the
+        exponent gamma of u ~ r^gamma at the origin. 0.0 for terms without one.
+        """
+        return 0.0
+
     def __repr__(self) -> str:
         args = ", ".join(f"{k}={v:g}" for k, v in self.values.items())
         return f"{type(self).__name__}({args})"
@@ -195,6 +205,11 @@ class Potential:
         return float(sum(t.tail_charge for t in self.vector + self.scalar))
 
     @property
+    def origin_inverse_square(self) -> float:
+        """Sum of the terms' 1/r^2 coefficients at the origin (vector and scalar terms)."""
+        return float(sum(t.origin_inverse_square for t in self.vector + self.scalar))
+
+    @property
     def name(self) -> str:
         """Short description: term names joined by ' + ', scalar terms marked."""
         parts = [getattr(t, "label", t.name) for t in self.vector]
@@ -204,3 +219,40 @@ class Potential:
     def __repr__(self) -> str:
         parts = [repr(t) for t in self.vector] + [f"scalar {t!r}" for t in self.scalar]
         return "Potential(" + " + ".join(parts) + ")"
+
+
+class NuclearUnitsTerm(Term):
+    """Wrap a term written in MeV and fm so that it reads bohr and returns hartree.
+
+    Notes
+    -----
+    V_au(r) = V_nuc(r / FM_IN_BOHR) * MEV_IN_HARTREE; a charge-like coefficient
+    (V ~ -Z/r) in MeV fm becomes Z * MEV_IN_HARTREE * FM_IN_BOHR in hartree bohr.
+    """
+
+    def __init__(self, inner: Term) -> None:
+        from ..units import FM_IN_BOHR, MEV_IN_HARTREE
+
+        self.inner = inner
+        self.values = dict(inner.values)
+        self.name = inner.name
+        self.label = getattr(inner, "label", inner.name)
+        self._r, self._v = FM_IN_BOHR, MEV_IN_HARTREE
+
+    def _evaluate(self, r):
+        return self.inner(np.asarray(r) / self._r) * self._v
+
+    @property
+    def origin_charge(self) -> float:
+        return self.inner.origin_charge * self._v * self._r
+
+    @property
+    def tail_charge(self) -> float:
+        return self.inner.tail_charge * self._v * self._r
+
+    @property
+    def far(self) -> str:  # type: ignore[override]
+        return self.inner.far
+
+    def __repr__(self) -> str:
+        return f"{self.inner!r} [MeV, fm]"

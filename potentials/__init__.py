@@ -1,0 +1,1 @@
+"""Model potential files shipped with boundkit (installed as boundkit.catalog)."""

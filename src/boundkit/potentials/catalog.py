@@ -1,0 +1,144 @@
+"""Model potential files: one TOML file per named model.
+
+The library's own files live in ``potentials/`` at the repository root
+(installed as the package ``boundkit.catalog``); a user's file is read the
+same way with ``--potential-file my.toml``. The format is ours:
+
+.. code-block:: toml
+
+    name = "screened-hydrogen"
+    description = "Hydrogen-like ion with Debye screening"
+    source = "Debye and Hueckel, Phys. Z. 24, 185 (1923)"
+    expression = "-Z*exp(-r/D)/r"        # or: term = "yukawa" (a built-in term)
+    units = "atomic"                     # optional: "atomic" (hartree, bohr) or "nuclear" (MeV, fm)
+    role = "vector"                      # optional: "vector" or "scalar"
+
+    [parameters.Z]
+    default = 1.0                        # optional
+    unit = "e"
+    description = "nuclear charge number"
+
+A file with an unknown key, a value of the wrong type or a missing field is
+refused with the file, the key and its line.
+"""
+from __future__ import annotations
+
+import re
+import tomllib
+from dataclasses import dataclass, field
+from importlib import resources
+from pathlib import Path
+from typing import Any, Mapping
+
+__all__ = ["ModelSpec", "read_model_file", "library_models", "library_model"]
+
+_TOP = {"name": str, "description": str, "source": str, "expression": str, "term": str,
+        "formula": str, "units": str, "role": str, "parameters": dict}
+_PARAM = {"default": (int, float), "unit": str, "description": str}
+_REQUIRED = ("name", "description", "source")
+
+
+@dataclass(frozen=True)
+class ModelSpec:
+    """A named model potential read from a TOML file."""
+
+    name: str
+    description: str
+    source: str
+    path: str
+    term: str | None = None
+    expression: str | None = None
+    formula: str = ""
+    units: str = "atomic"
+    role: str = "vector"
+    parameters: Mapping[str, dict] = field(default_factory=dict)
+
+    @property
+    def defaults(self) -> dict[str, float]:
+        return {k: float(v["default"]) for k, v in self.parameters.items() if "default" in v}
+
+
+def _line_of(text: str, key: str, table: str | None = None) -> int:
+    """1-based line where ``key`` is set (or its table starts); 1 if not found."""
+    lines = text.splitlines()
+    pattern = re.compile(rf"^\s*(\[\s*parameters\.{re.escape(key)}\s*\]|{re.escape(key)}\s*=)")
+    start = 0
+    if table is not None:
+        for i, line in enumerate(lines):
+            if re.match(rf"^\s*\[\s*parameters\.{re.escape(table)}\s*\]", line):
+                start = i + 1
+                break
+    for i in range(start, len(lines)):
+        if pattern.match(lines[i]):
+            return i + 1
+    return 1
+
+
+def read_model_file(path: str | Path, text: str | None = None) -> ModelSpec:
+    """Read and check one model file; ValueError names file, key and line."""
+    path = Path(path)
+    if text is None:
+        try:
+            text = path.read_text(encoding="utf-8")
+        except OSError as exc:
+            raise ValueError(f"potential file {path}: cannot read it ({exc.strerror})") from None
+    try:
+        data: dict[str, Any] = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ValueError(f"potential file {path}: not valid TOML ({exc})") from None
+
+    def bad(key, msg, table=None):
+        return ValueError(f"potential file {path}, line {_line_of(text, key, table)}, key {key!r}: {msg}")
+
+    for key, value in data.items():
+        if key not in _TOP:
+            raise bad(key, f"unknown key; allowed keys are {', '.join(_TOP)}")
+        if not isinstance(value, _TOP[key]):
+            raise bad(key, f"expected a {_TOP[key].__name__}, got {type(value).__name__}")
+    for key in _REQUIRED:
+        if key not in data:
+            raise ValueError(f"potential file {path}, line 1, key {key!r}: missing; add {key} = \"...\"")
+    if ("term" in data) == ("expression" in data):
+        raise ValueError(f"potential file {path}, line 1, key 'expression': give exactly one of "
+                         "expression = \"...\" or term = \"<built-in name>\"")
+    if data.get("units", "atomic") not in ("atomic", "nuclear"):
+        raise bad("units", "must be \"atomic\" or \"nuclear\"")
+    if data.get("role", "vector") not in ("vector", "scalar"):
+        raise bad("role", "must be \"vector\" or \"scalar\"")
+    params = {}
+    for pname, spec in data.get("parameters", {}).items():
+        if not isinstance(spec, dict):
+            raise bad(pname, "each parameter is a table [parameters.NAME] with unit, description, default")
+        for k, v in spec.items():
+            if k not in _PARAM:
+                raise bad(k, f"unknown key in [parameters.{pname}]; allowed: {', '.join(_PARAM)}", pname)
+            if isinstance(v, bool) or not isinstance(v, _PARAM[k]):
+                want = "number" if k == "default" else "string"
+                raise bad(k, f"expected a {want}, got {type(v).__name__}", pname)
+        for k in ("unit", "description"):
+            if k not in spec:
+                raise bad(pname, f"[parameters.{pname}] needs {k} = \"...\"")
+        params[pname] = dict(spec)
+    return ModelSpec(name=data["name"], description=data["description"], source=data["source"],
+                     path=str(path), term=data.get("term"), expression=data.get("expression"),
+                     formula=data.get("formula", data.get("expression", "")),
+                     units=data.get("units", "atomic"), role=data.get("role", "vector"), parameters=params)
+
+
+def library_models() -> dict[str, ModelSpec]:
+    """All model files shipped with boundkit, by name."""
+    out = {}
+    folder = resources.files("boundkit.catalog")
+    for entry in sorted(folder.iterdir(), key=lambda e: e.name):
+        if entry.name.endswith(".toml"):
+            spec = read_model_file(Path(str(entry)), entry.read_text(encoding="utf-8"))
+            out[spec.name] = spec
+    return out
+
+
+def library_model(name: str) -> ModelSpec:
+    models = library_models()
+    if name not in models:
+        raise ValueError(f"potential: no model named {name!r}; `boundkit potentials` lists "
+                         f"{', '.join(models)}")
+    return models[name]
