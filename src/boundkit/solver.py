@@ -41,7 +41,7 @@ from .states import count_nodes, normalise, principal_n
 from .units import ELECTRON_MASS_MEV, constants_record, get_particle
 from ._checks import check_choice, check_int, check_positive
 
-__all__ = ["solve", "make_equation"]
+__all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation"]
 
 log = logging.getLogger(__name__)
 
@@ -262,10 +262,52 @@ def _state(eq, op: FactorizedOperator, E: float, y) -> RadialState:
     return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma)
 
 
-def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, levels: int = 1,
-                  tol: float = 1e-10, settings: dict | None = None, potential_name: str = "") -> SolveResult:
-    """Solve one channel; the engine behind :func:`solve` (same result type)."""
-    t0 = time.perf_counter()
+@dataclass
+class Channel:
+    """One channel made ready: exponent, window, scales and seed energies.
+
+    Built by :func:`prepare_channel`; :meth:`level` solves one seeded level
+    on one grid. Studies (convergence, scans) reuse it.
+    """
+
+    eq: RadialEquation
+    pot: Potential
+    gamma: float
+    lo: float
+    hi: float
+    L: float
+    r_min: float
+    seeds: list
+    tally: _Tally
+
+    def label(self, k: int) -> str:
+        return self.eq.label(principal_n(k, self.eq.l))
+
+    def mesh(self, E: float) -> tuple[LogMap, float]:
+        """Mesh and core radius for a level of energy E."""
+        r_out, r_core = _radii(self.eq, self.pot, E, self.L)
+        return LogMap(self.r_min, r_out), r_core
+
+    def level(self, k: int, disc: Discretization, size: int, E_seed: float, mesh=None):
+        """Refine the k-node level at one size: (operator, Refined) or None."""
+        if mesh is None:
+            mesh, r_core = self.mesh(E_seed)
+        else:
+            r_core = self.mesh(E_seed)[1]
+        got = _level_on_grid(self.eq, self.pot, self.gamma, r_core, disc, mesh, size, E_seed, k,
+                             self.lo, self.hi)
+        if got is None:
+            self.tally.notes.append(f"{self.label(k)}: no {k}-node solution at size {size}")
+            return None
+        if got[2] != k:
+            self.tally.dropped_node_mismatch += 1
+            self.tally.notes.append(f"{self.label(k)}: refined state has {got[2]} nodes, not {k}, at size {size}")
+            return None
+        return got[0], got[1]
+
+
+def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
+    """Exponent, bound window, natural length, inner cut and seed energies."""
     gamma = eq.gamma(pot)
     lo, hi = eq.energy_window(pot)
     L = _natural_length(eq, pot)
@@ -287,22 +329,29 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
             R, sizes = 4 * R, _SEED_SIZES
         else:
             break
+    return Channel(eq, pot, gamma, lo, hi, L, r_min, seeds, tally)
+
+
+def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, levels: int = 1,
+                  tol: float = 1e-10, settings: dict | None = None, potential_name: str = "") -> SolveResult:
+    """Solve one channel; the engine behind :func:`solve` (same result type)."""
+    t0 = time.perf_counter()
+    ch = prepare_channel(eq, pot, levels)
+    tally = ch.tally
     per_level = []
     found: list[Level] = []
     worst = 0.0
-    for k, E in enumerate(seeds):
+    for k, E in enumerate(ch.seeds):
         n = principal_n(k, eq.l)
         label = eq.label(n)
-        r_out, r_core = _radii(eq, pot, E, L)
-        mesh = LogMap(r_min, r_out)
+        mesh, _ = ch.mesh(E)
         history, sizes, last = [], [], None
         est = math.inf
         for size in disc.ladder():
-            got = _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E, k, lo, hi)
-            if got is None or got[2] != k:
-                tally.notes.append(f"{label}: no {k}-node solution at size {size}")
+            got = ch.level(k, disc, size, E, mesh)
+            if got is None:
                 continue
-            op, ref, _ = got
+            op, ref = got
             E = ref.energy
             history.append(E)
             sizes.append(size)
@@ -315,7 +364,7 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
                 tally.notes.append(f"{label}: at the rounding floor; tol {tol:g} is out of reach")
                 tally.floor_hit = True
                 break
-        record = {"label": label, "sizes": sizes, "energies": history, "r_min": r_min, "r_max": mesh.r_max}
+        record = {"label": label, "sizes": sizes, "energies": history, "r_min": ch.r_min, "r_max": mesh.r_max}
         per_level.append(record)
         if last is None or len(history) < 2:
             tally.dropped_unstable += 1
@@ -344,7 +393,7 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
         status = "ok"
         message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
     diagnostics = {
-        "gamma": gamma, "natural_length_bohr": L, "seed_candidates": tally.candidates,
+        "gamma": ch.gamma, "natural_length_bohr": ch.L, "seed_candidates": tally.candidates,
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "dropped_outside_window": tally.dropped_outside_window,
         "dropped_unstable_seed": tally.dropped_unstable_seed, "levels": per_level, "notes": tally.notes,
@@ -354,6 +403,31 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
                        equation=eq.name, potential=potential_name or repr(pot), settings=dict(settings or {}),
                        constants=constants_record(), units={"energy": "hartree", "length": "bohr"},
                        diagnostics=diagnostics)
+
+
+def setup(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+          l: int | None = None, kappa: int | None = None, particle: str | None = None,
+          mass_mev: float | None = None, nucleus_mass_mev: float | None = None, scalar=None,
+          units: str = "atomic"):
+    """Check and build (equation, potential, settings) from user-level arguments.
+
+    Shared by :func:`solve` and the studies; raises ValueError on bad input.
+    """
+    part = get_particle(particle, mass_mev)
+    mass = part.mass_au
+    if nucleus_mass_mev is not None:
+        M = check_positive("nucleus_mass_mev", nucleus_mass_mev) / ELECTRON_MASS_MEV
+        mass = mass * M / (mass + M)
+    eq = make_equation(equation, l=l, kappa=kappa, mass=mass)
+    if scalar is not None and eq.name == "schrodinger":
+        log.info("Schrodinger equation: scalar terms are added to the vector potential")
+    pot = make_potential(potential, params, scalar=scalar, units=units)
+    settings = {
+        "equation": eq.name, "l": eq.l, "kappa": eq.kappa, "j": eq.j, "particle": part.name,
+        "particle_mass_MeV": part.mass_mev, "nucleus_mass_MeV": nucleus_mass_mev,
+        "mass_atomic_units": mass, "params": dict(params or {}), "terms": repr(pot), "units": units,
+    }
+    return eq, pot, settings
 
 
 def solve(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
@@ -414,21 +488,9 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     """
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
-    part = get_particle(particle, mass_mev)
-    mass = part.mass_au
-    if nucleus_mass_mev is not None:
-        M = check_positive("nucleus_mass_mev", nucleus_mass_mev) / ELECTRON_MASS_MEV
-        mass = mass * M / (mass + M)
-    eq = make_equation(equation, l=l, kappa=kappa, mass=mass)
-    if scalar is not None and eq.name == "schrodinger":
-        log.info("Schrodinger equation: scalar terms are added to the vector potential")
     disc = get_method(method, order)
-    pot = make_potential(potential, params, scalar=scalar, units=units)
-    name = pot.name
-    settings = {
-        "equation": eq.name, "l": eq.l, "kappa": eq.kappa, "j": eq.j, "levels": levels, "tol": tol,
-        "method": disc.describe(), "particle": part.name, "particle_mass_MeV": part.mass_mev,
-        "nucleus_mass_MeV": nucleus_mass_mev, "mass_atomic_units": mass, "params": dict(params or {}),
-        "terms": repr(pot), "units": units,
-    }
-    return solve_channel(eq, pot, disc, levels, tol, settings, potential_name=str(name))
+    eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
+                              mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
+                              units=units)
+    settings.update({"levels": levels, "tol": tol, "method": disc.describe()})
+    return solve_channel(eq, pot, disc, levels, tol, settings, potential_name=pot.name)

@@ -6,10 +6,11 @@ from typing import Callable, Mapping, Sequence
 from ..units import to_atomic
 from .base import CallableTerm, NuclearUnitsTerm, Parameter, Potential, Term
 from .builtin import Coulomb, Oscillator
+from .library import LIBRARY
 
 __all__ = ["Term", "Parameter", "Potential", "CallableTerm", "TERMS", "make_potential"]
 
-TERMS: dict[str, type[Term]] = {cls.name: cls for cls in (Coulomb, Oscillator)}
+TERMS: dict[str, type[Term]] = {cls.name: cls for cls in (Coulomb, Oscillator, *LIBRARY)}
 """Registry of built-in terms by name. Add a :class:`Term` subclass here."""
 
 

@@ -18,10 +18,11 @@ Two special functions are evaluated here without mpmath:
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import numpy as np
 from scipy.optimize import brentq
-from scipy.special import bernoulli, expit, roots_genlaguerre, roots_legendre, zeta
+from scipy.special import expit, roots_genlaguerre, roots_legendre, zeta
 
 from ..units import ALPHA, FM_PER_BOHR
 from .base import Parameter, Term
@@ -65,6 +66,16 @@ _N_SERIES = 40   # terms of the series in e^y for y <= -1 (e^-41 / 41 ~ 1e-19)
 _N_TAYLOR = 40   # terms of the Taylor series about y = 0 for |y| <= 1 (radius pi)
 
 
+def _bernoulli(n: int) -> Fraction:
+    """Bernoulli number B_n (B_1 = -1/2) as an exact fraction, from
+    sum_(k=0)^(m) C(m+1, k) B_k = 0 (scipy's floating-point table is off by
+    up to ~1e-13 relative)."""
+    B = [Fraction(1)]
+    for m in range(1, n + 1):
+        B.append(-sum(math.comb(m + 1, k) * B[k] for k in range(m)) / (m + 1))
+    return B[n]
+
+
 def _eta(m: int) -> float:
     """Dirichlet eta function eta(m) = (1 - 2^(1-m)) zeta(m) at an integer m."""
     if m == 1:
@@ -72,8 +83,7 @@ def _eta(m: int) -> float:
     if m >= 2:
         return float((1.0 - 2.0 ** (1 - m)) * zeta(m))
     n = -m  # zeta(-n) = (-1)^n B_(n+1) / (n+1), with B_1 = -1/2
-    b = bernoulli(n + 1)[n + 1]
-    return float((1.0 - 2.0 ** (1 + n)) * (-1) ** n * b / (n + 1))
+    return float((1 - 2 ** (1 + n)) * (-1) ** n * _bernoulli(n + 1) / (n + 1))
 
 
 _TAYLOR_CACHE: dict[int, np.ndarray] = {}
@@ -266,7 +276,7 @@ class Fermi(Term):
             hi = math.sqrt(5.0 / 3.0) * rms + a_fm
             while self.rms_of(hi, a_fm) < rms:
                 hi *= 2.0
-            c_fm = brentq(lambda c: self.rms_of(c, a_fm) - rms, 0.0, hi, xtol=1e-15 * rms, rtol=4e-16,
+            c_fm = brentq(lambda c: self.rms_of(c, a_fm) - rms, 0.0, hi, xtol=1e-15 * rms, rtol=1e-15,
                           maxiter=200)
         self.a_fm, self.c_fm = a_fm, c_fm
         self.a = a_fm / FM_PER_BOHR
@@ -744,8 +754,8 @@ class Uehling(Term):
       so V ~ -(2 alpha Z/(3 pi)) ln(1/r)/r diverges slightly faster than
       1/r. ``origin_charge`` is nevertheless returned as 0: the logarithm
       does not fit the r^gamma form, and how the solver treats it is left
-      to the solver (the correction to -Z/r at r = 1e-9 lambda_e is only
-      ~3e-2 of alpha Z/r... i.e. about 4% of Z alpha... see the tests).
+      to the solver. The correction stays small: relative to -Z/r it is
+      (2 alpha/(3 pi)) K, about 3% at r = 1e-9 lambda_e.
     * r >> lambda_e: V ~ -(Z/r) (alpha/(4 sqrt(pi))) e^(-2r/lambda_e)
       (r/lambda_e)^(-3/2) (1 - 29 lambda_e/(16 r) + ...), short range
       (tail_charge 0); it underflows to 0 beyond about 370 lambda_e.

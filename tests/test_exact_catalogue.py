@@ -1,0 +1,245 @@
+"""Catalogue of exactly solvable spectra: every level against its formula.
+
+The reference values come from :mod:`exact` (sources named there); none is
+typed in. Each catalogue entry is one :func:`boundkit.solve` call (an
+equation, a potential, one channel, a number of levels and a method); the
+same cached solve serves the accuracy test and the error-estimate test.
+
+Tolerances (relative error of the binding energy):
+
+* default settings (``method="auto"``, the spectral family): 1e-12, except
+  the spin-symmetric Dirac oscillator (1e-10, as specified for that case);
+* ``method="finite-difference"`` (default order 8): 1e-9.
+"""
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass
+
+import mpmath
+import pytest
+
+from exact import (ALPHA, Case, dirac_coulomb, dirac_coulomb_mp, dirac_spin_symmetric_oscillator,
+                   kappa_to_l, klein_gordon_coulomb, klein_gordon_coulomb_mp, oscillator,
+                   schrodinger_coulomb, solve_case)
+
+AUTO = "auto"
+FD = "finite-difference"
+METHODS = (AUTO, FD)
+TOL = {AUTO: 1e-12, FD: 1e-9}
+
+DIRAC_Z = (1, 10, 50, 92)
+DIRAC_KAPPAS = tuple(k for k in range(-5, 5) if k != 0)
+KG_Z = (1, 40)
+SCHRODINGER_Z = (1, 26)
+OSC_K = 1.0                      # hartree/bohr^2: omega = 1 hartree for the electron
+OSC_L = (0, 1, 2, 3, 5)
+SV_K = 2e6                       # S = V = k r^2/2: omega = sqrt(2k/m) = 2000 hartree
+SV_KAPPAS = (-3, -2, -1, 1, 2)
+
+
+@dataclass(frozen=True)
+class Entry:
+    """A solve and what it must give: exact energies (lowest first), the
+    principal numbers n (None where n is not defined, e.g. oscillators) and
+    the relative tolerance."""
+
+    case: Case
+    exact: tuple
+    n: tuple | None
+    tol: float
+
+    @property
+    def id(self) -> str:
+        c = self.case
+        ch = f"kappa{c.channel}" if c.equation == "dirac" else f"l{c.channel}"
+        par = "-".join(f"{k}{v:g}" for k, v in c.params)
+        extra = f"-scalar_{c.scalar}" if c.scalar else ""
+        return f"{c.equation}-{c.potential}{extra}-{par}-{ch}-{'spectral' if c.method == AUTO else 'fd'}"
+
+
+def _dirac_coulomb():
+    for method, Z, kappa in itertools.product(METHODS, DIRAC_Z, DIRAC_KAPPAS):
+        l = kappa_to_l(kappa)
+        levels = 5 - l                              # n = l+1 .. 5
+        if levels < 1:
+            continue
+        n = tuple(range(l + 1, 6))
+        case = Case("dirac", "coulomb", (("Z", Z),), kappa, levels, method)
+        slow = method == FD and Z in (10, 50)
+        yield Entry(case, tuple(dirac_coulomb(Z, k, kappa) for k in n), n, TOL[method]), slow
+
+
+def _klein_gordon_coulomb():
+    for method, Z, l in itertools.product(METHODS, KG_Z, range(4)):
+        n = tuple(range(l + 1, 6))
+        case = Case("klein-gordon", "coulomb", (("Z", Z),), l, len(n), method)
+        yield Entry(case, tuple(klein_gordon_coulomb(Z, k, l) for k in n), n, TOL[method]), False
+
+
+def _schrodinger_coulomb():
+    for method, Z, l in itertools.product(METHODS, SCHRODINGER_Z, range(6)):
+        n = tuple(range(l + 1, 7))
+        case = Case("schrodinger", "coulomb", (("Z", Z),), l, len(n), method)
+        slow = method == FD and Z != 1
+        yield Entry(case, tuple(schrodinger_coulomb(Z, k) for k in n), n, TOL[method]), slow
+
+
+def _oscillator():
+    for method, l in itertools.product(METHODS, OSC_L):
+        case = Case("schrodinger", "oscillator", (("k", OSC_K),), l, 4, method)
+        yield Entry(case, tuple(oscillator(OSC_K, nr, l) for nr in range(4)), None, TOL[method]), False
+
+
+def _spin_symmetric_oscillator():
+    for method, kappa in itertools.product(METHODS, SV_KAPPAS):
+        l = kappa_to_l(kappa)
+        case = Case("dirac", "oscillator", (("k", SV_K),), kappa, 3, method, scalar="oscillator")
+        exact = tuple(dirac_spin_symmetric_oscillator(SV_K, nr, l) for nr in range(3))
+        yield Entry(case, exact, None, 1e-10 if method == AUTO else TOL[FD]), False
+
+
+CATALOGUES = {
+    "dirac-coulomb": _dirac_coulomb,
+    "klein-gordon-coulomb": _klein_gordon_coulomb,
+    "schrodinger-coulomb": _schrodinger_coulomb,
+    "oscillator": _oscillator,
+    "dirac-spin-symmetric-oscillator": _spin_symmetric_oscillator,
+}
+
+
+def _params():
+    out = []
+    for make in CATALOGUES.values():
+        for entry, slow in make():
+            out.append(pytest.param(entry, id=entry.id, marks=[pytest.mark.slow] if slow else []))
+    return out
+
+
+ALL = _params()
+
+
+def _rel(E, ref):
+    return abs(E - ref) / abs(ref)
+
+
+# ---------------------------------------------------------------------------
+# the reference formulas themselves
+# ---------------------------------------------------------------------------
+
+@pytest.mark.parametrize("Z", (1, 10, 50, 92, 137))
+def test_dirac_formula_without_cancellation_matches_textbook_form(Z):
+    """exact.dirac_coulomb equals the textbook Sommerfeld-Dirac form evaluated
+    with 50 digits (Bethe & Salpeter 1957, eq. 14.29) to 1e-14 relative."""
+    worst = 0.0
+    for kappa, n in itertools.product(DIRAC_KAPPAS + (-6, 6), range(1, 8)):
+        if n - abs(kappa) < 0 or (kappa > 0 and n == kappa):
+            continue
+        ref = dirac_coulomb_mp(Z, n, kappa)
+        worst = max(worst, float(abs((mpmath.mpf(dirac_coulomb(Z, n, kappa)) - ref) / ref)))
+    assert worst <= 1e-14
+
+
+@pytest.mark.parametrize("Z", (1, 10, 40, 68))
+def test_klein_gordon_formula_without_cancellation_matches_textbook_form(Z):
+    """exact.klein_gordon_coulomb equals the textbook form (Greiner, Relativistic
+    Quantum Mechanics: Wave Equations, ch. 1) at 50 digits to 1e-14 relative."""
+    worst = 0.0
+    for l, n in itertools.product(range(5), range(1, 8)):
+        if n <= l:
+            continue
+        ref = klein_gordon_coulomb_mp(Z, n, l)
+        worst = max(worst, float(abs((mpmath.mpf(klein_gordon_coulomb(Z, n, l)) - ref) / ref)))
+    assert worst <= 1e-14
+
+
+def test_textbook_forms_lose_digits_in_double_precision():
+    """Why the formulas are rewritten: the textbook Dirac form in double
+    precision is off by far more than 1e-14 for hydrogen (common practice:
+    cancellation in m c^2 (x - 1) with x = 1 - O(alpha^2))."""
+    mc2 = 1.0 / ALPHA**2
+    g = math.sqrt(1.0 - ALPHA**2)
+    naive = mc2 * ((1.0 + (ALPHA / g) ** 2) ** -0.5 - 1.0)
+    ref = dirac_coulomb_mp(1, 1, -1)
+    assert float(abs((naive - ref) / ref)) > 1e-13
+    assert float(abs((dirac_coulomb(1, 1, -1) - ref) / ref)) <= 1e-15
+
+
+@pytest.mark.parametrize("k", (1e-2, 2e6, 1e9))
+def test_spin_symmetric_oscillator_helper(k):
+    """The brentq root of eps sqrt((eps + 2mc^2)/(2mc^2)) = omega N (derived in
+    exact.dirac_spin_symmetric_oscillator) agrees with an independent 40-digit
+    mpmath root of the equivalent polynomial eps^2 (eps + 2mc^2) = 2mc^2 (omega N)^2,
+    and tends to the Schrodinger value omega N for omega << mc^2 (common practice:
+    non-relativistic limit)."""
+    mc2 = 1.0 / ALPHA**2
+    omega = math.sqrt(2.0 * k)
+    for nr, l in itertools.product(range(3), range(3)):
+        N = 2 * nr + l + 1.5
+        eps = dirac_spin_symmetric_oscillator(k, nr, l)
+        with mpmath.workdps(40):
+            m2 = 2 * mpmath.mpf(mc2)
+            t = mpmath.mpf(omega) * N
+            ref = mpmath.findroot(lambda e: e * e * (e + m2) - m2 * t * t, t)
+        assert abs(eps - float(ref)) <= 2e-15 * float(ref)
+        x = omega * N / mc2
+        if x < 1e-6:
+            # eps = omega N (1 - x/4 + O(x^2))
+            assert abs(eps / (omega * N) - (1 - x / 4)) <= x * x
+
+
+# ---------------------------------------------------------------------------
+# the solver against the catalogue
+# ---------------------------------------------------------------------------
+
+@pytest.mark.parametrize("entry", ALL)
+def test_energies_match_exact_spectrum(entry: Entry):
+    """Every requested level is found, in order, with the right node count and
+    principal number, and its binding energy meets the tolerance."""
+    res = solve_case(entry.case)
+    assert res.status == "ok", res.message
+    got = res.levels
+    assert len(got) == len(entry.exact), [lv.label for lv in got]
+    bad = []
+    for i, (lv, ref) in enumerate(zip(got, entry.exact)):
+        assert lv.nodes == i, (lv.label, lv.nodes, i)
+        if entry.n is not None:
+            assert lv.n == entry.n[i], (lv.label, entry.n[i])
+        rel = _rel(lv.energy, ref)
+        if not rel <= entry.tol:
+            bad.append(f"{lv.label}: E = {lv.energy!r}, exact {ref!r}, rel. error {rel:.2e}")
+    assert not bad, f"tolerance {entry.tol:g} missed:\n" + "\n".join(bad)
+
+
+@pytest.mark.parametrize("entry", ALL)
+def test_error_estimate_is_honest(entry: Entry):
+    """The reported error estimate bounds the true error within a factor 2:
+    |E - E_exact| <= 2 * error_estimate for every level (the acceptance
+    criterion; not relaxed)."""
+    res = solve_case(entry.case)
+    bad = []
+    for lv, ref in zip(res.levels, entry.exact):
+        err = abs(lv.energy - ref)
+        if not err <= 2.0 * lv.error_estimate:
+            bad.append(f"{lv.label}: true error {err:.3g} ({err / abs(ref):.2e} rel.) > 2 x estimate "
+                       f"{lv.error_estimate:.3g} ({lv.error_estimate / abs(ref):.2e} rel.)")
+    assert not bad, "\n".join(bad)
+
+
+@pytest.mark.parametrize("method", METHODS)
+@pytest.mark.parametrize("l", (1, 2))
+def test_spin_symmetric_doublets_are_degenerate(l, method):
+    """With S = V the spectrum depends on n_r and l only (see
+    exact.dirac_spin_symmetric_oscillator; Ginocchio, Phys. Rep. 414, 165 (2005),
+    from memory): kappa = -(l+1) and kappa = l give the same energies, while
+    the levels themselves are strongly relativistic (far from omega N)."""
+    tol = 1e-10 if method == AUTO else TOL[FD]
+    a = solve_case(Case("dirac", "oscillator", (("k", SV_K),), -(l + 1), 3, method, scalar="oscillator"))
+    b = solve_case(Case("dirac", "oscillator", (("k", SV_K),), l, 3, method, scalar="oscillator"))
+    assert len(a.levels) == len(b.levels) == 3
+    for nr, (x, y) in enumerate(zip(a.levels, b.levels)):
+        assert x.label != y.label                   # e.g. 1d5/2 and 1d3/2 ...
+        assert _rel(x.energy, y.energy) <= tol      # ... at one energy
+        omega_n = math.sqrt(2 * SV_K) * (2 * nr + l + 1.5)
+        assert x.energy < 0.95 * omega_n            # relativistic shifts of 5 % and more here
