@@ -24,7 +24,7 @@ from __future__ import annotations
 import logging
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -434,7 +434,7 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
           l: int | None = None, kappa: int | None = None, levels: int = 1, tol: float = 1e-10,
           method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None,
-          scalar=None, units: str = "atomic") -> SolveResult:
+          scalar=None, units: str = "atomic", cross_check: bool = False) -> SolveResult:
     """Bound levels of one channel of a central potential.
 
     Parameters
@@ -467,6 +467,9 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
         Unit system of the parameters and callables: hartree and bohr
         (default) or MeV and fm. Results are always in hartree and bohr
         inside; convert with ``Level.energy_in``.
+    cross_check : bool
+        Also solve with the other discretization family and put the
+        per-level agreement in ``diagnostics['cross_check']``.
 
     Returns
     -------
@@ -493,4 +496,18 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
                               units=units)
     settings.update({"levels": levels, "tol": tol, "method": disc.describe()})
-    return solve_channel(eq, pot, disc, levels, tol, settings, potential_name=pot.name)
+    res = solve_channel(eq, pot, disc, levels, tol, settings, potential_name=pot.name)
+    if cross_check:
+        other = get_method("finite-difference" if disc.family == "spectral" else "spectral")
+        res2 = solve_channel(eq, pot, other, levels, tol)
+        by_label = {lv.label: lv for lv in res2.levels}
+        rows = []
+        for lv in res.levels:
+            o = by_label.get(lv.label)
+            rows.append({"label": lv.label, "method": disc.name, "energy": lv.energy,
+                         "error_estimate": lv.error_estimate, "other_method": other.name,
+                         "other_energy": None if o is None else o.energy,
+                         "other_error_estimate": None if o is None else o.error_estimate,
+                         "difference": None if o is None else abs(lv.energy - o.energy)})
+        res = replace(res, diagnostics={**res.diagnostics, "cross_check": rows})
+    return res

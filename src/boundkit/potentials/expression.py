@@ -1,0 +1,623 @@
+"""A small, safe expression language for potentials V(r).
+
+An expression such as ``"-Z*exp(-r/D)/r"`` is read with :func:`ast.parse`
+(``mode="eval"``), which only builds a syntax tree; nothing of the user's text
+is ever executed. The tree is checked against a whitelist and translated into
+a private, minimal tree of tuples, which :meth:`CompiledExpression.evaluate`
+walks with numpy, vectorised over an array of radii.
+
+Grammar
+-------
+- numbers: ``2``, ``0.5``, ``1.5e-3``;
+- the radius ``r`` (bohr) and named parameters (any other plain name);
+- binary ``+ - * / **``, unary ``-`` and ``+``, parentheses;
+- the functions ``exp log sqrt sin cos tan sinh cosh tanh erf erfc abs``
+  (one argument each) and ``where(condition, a, b)``, whose condition is a
+  comparison with ``< <= > >=`` (chains such as ``1 < r <= 2`` are allowed);
+  comparisons appear nowhere else;
+- the constants ``pi`` and ``e``.
+
+Everything else is refused with a :class:`ValueError` that names the
+offending token, its 1-based character position and what is allowed: ``^``
+(write ``**``), attribute access, subscripts, strings, lambdas,
+comprehensions, keyword arguments, calls of anything but a whitelisted
+function name, names starting with ``_`` (dunder names), literal exponents
+larger than 1000 in magnitude and power towers of literals such as
+``10**10**10``, input longer than 2000 characters and nesting deeper than
+100 levels.
+
+The values are the potential in hartree with r in bohr, like every term of
+boundkit.
+"""
+from __future__ import annotations
+
+import ast
+import logging
+import math
+import warnings
+from dataclasses import dataclass
+from typing import Any, Mapping
+
+import numpy as np
+import scipy.special
+
+from .._checks import check_finite
+from .base import Parameter, Term
+
+__all__ = ["CompiledExpression", "parse_expression", "ExpressionTerm", "FUNCTIONS", "CONSTANTS",
+           "MAX_LENGTH", "MAX_DEPTH", "MAX_EXPONENT"]
+
+log = logging.getLogger(__name__)
+
+MAX_LENGTH = 2000
+"""Longest accepted expression, in characters."""
+MAX_DEPTH = 100
+"""Deepest accepted nesting (brackets, or levels of the syntax tree)."""
+MAX_EXPONENT = 1000.0
+"""Largest accepted magnitude of a literal exponent."""
+
+FUNCTIONS: dict[str, Any] = {
+    "exp": np.exp,
+    "log": np.log,
+    "sqrt": np.sqrt,
+    "sin": np.sin,
+    "cos": np.cos,
+    "tan": np.tan,
+    "sinh": np.sinh,
+    "cosh": np.cosh,
+    "tanh": np.tanh,
+    "erf": scipy.special.erf,
+    "erfc": scipy.special.erfc,
+    "abs": np.abs,
+}
+"""The one-argument functions an expression may call (besides ``where``)."""
+
+CONSTANTS: dict[str, float] = {"pi": math.pi, "e": math.e}
+"""Named constants."""
+
+_ALLOWED = (
+    "allowed are numbers, r, parameter names, + - * / ** (not ^), unary -, parentheses, "
+    "the functions " + " ".join(FUNCTIONS) + ", where(condition, a, b) with < <= > >= "
+    "in the condition, and the constants pi and e"
+)
+
+_BINOPS = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
+_ADDITIVE = (ast.Add, ast.Sub)
+_MULTIPLICATIVE = (ast.Mult, ast.Div)
+_CMP = {ast.Lt: "<", ast.LtE: "<=", ast.Gt: ">", ast.GtE: ">="}
+_CMP_FUNCS = {"<": np.less, "<=": np.less_equal, ">": np.greater, ">=": np.greater_equal}
+_REFUSED_OPS = {ast.BitXor: "^", ast.Mod: "%", ast.FloorDiv: "//", ast.MatMult: "@", ast.BitAnd: "&",
+                ast.BitOr: "|", ast.LShift: "<<", ast.RShift: ">>"}
+_NODE_WORDS = {
+    ast.Subscript: "subscript",
+    ast.Slice: "slice",
+    ast.Lambda: "lambda",
+    ast.ListComp: "comprehension",
+    ast.SetComp: "comprehension",
+    ast.DictComp: "comprehension",
+    ast.GeneratorExp: "comprehension",
+    ast.JoinedStr: "string",
+    ast.FormattedValue: "string",
+    ast.List: "list",
+    ast.Tuple: "tuple",
+    ast.Set: "set",
+    ast.Dict: "dict",
+    ast.IfExp: "if-expression (use where(condition, a, b))",
+    ast.BoolOp: "and/or (use nested where(...))",
+    ast.NamedExpr: "assignment",
+    ast.Starred: "starred argument",
+    ast.Await: "await",
+    ast.Yield: "yield",
+    ast.YieldFrom: "yield",
+}
+
+
+class _Source:
+    """Maps syntax-tree positions (line, UTF-8 byte column) to 1-based characters."""
+
+    def __init__(self, text: str, lead: int) -> None:
+        self.text = text
+        self.lead = lead
+        self.lines = text.split("\n")
+        self.starts = []
+        pos = 0
+        for line in self.lines:
+            self.starts.append(pos)
+            pos += len(line) + 1
+
+    def char(self, lineno: int, col_byte: int) -> int:
+        """0-based character index in the stripped text."""
+        line = self.lines[lineno - 1]
+        col = len(line.encode("utf-8")[:col_byte].decode("utf-8", errors="ignore"))
+        return self.starts[lineno - 1] + col
+
+    def start(self, node: ast.AST) -> int:
+        return self.char(node.lineno, node.col_offset)
+
+    def end(self, node: ast.AST) -> int:
+        return self.char(node.end_lineno, node.end_col_offset)
+
+    def position(self, index: int) -> int:
+        """1-based position in the user's original text."""
+        return index + self.lead + 1
+
+    def segment(self, node: ast.AST) -> str:
+        return self.text[self.start(node):self.end(node)]
+
+    def find(self, symbol: str, after: ast.AST, before: ast.AST) -> int:
+        """Index of ``symbol`` between two nodes (an operator's place)."""
+        lo, hi = self.end(after), self.start(before)
+        i = self.text.find(symbol, lo, hi)
+        return i if i >= 0 else lo
+
+
+def _short(token: str, limit: int = 40) -> str:
+    token = " ".join(token.split())
+    return token if len(token) <= limit else token[: limit - 3] + "..."
+
+
+def _refuse(what: str, token: str, position: int, hint: str = "") -> ValueError:
+    hint = f"; {hint}" if hint else ""
+    return ValueError(f"expression: {what} {_short(token)!r} at position {position} is not allowed{hint}; "
+                      f"{_ALLOWED}")
+
+
+@dataclass(frozen=True)
+class CompiledExpression:
+    """A checked expression, ready to evaluate.
+
+    Attributes
+    ----------
+    text : str
+        The expression as given.
+    parameter_names : tuple of str
+        Free names other than ``r``, ``pi``, ``e`` and function names, in
+        order of first appearance.
+    positions : dict
+        1-based character position of the first appearance of each parameter.
+    """
+
+    text: str
+    parameter_names: tuple[str, ...]
+    positions: Mapping[str, int]
+    _tree: tuple
+
+    def check_params(self, params: Mapping[str, float] | None) -> dict[str, float]:
+        """Return the finite values of this expression's parameters.
+
+        Extra entries of ``params`` are ignored (the caller decides whether
+        that is an error; compare with :attr:`parameter_names`).
+
+        Raises
+        ------
+        ValueError
+            A parameter without a value (the message names it, its position
+            and suggests ``--param NAME=VALUE``), or a non-finite value.
+        """
+        params = dict(params or {})
+        missing = [n for n in self.parameter_names if n not in params]
+        if missing:
+            where = ", ".join(f"{n!r} at position {self.positions[n]}" for n in missing)
+            example = " ".join(f"--param {n}=VALUE" for n in missing)
+            raise ValueError(
+                f"expression: unknown name {where}: not r, pi, e or a function, so it is read as a "
+                f"parameter, and no value was given; give it with {example} "
+                f"(or params={{{', '.join(repr(n) + ': ...' for n in missing)}}}); {_ALLOWED}"
+            )
+        return {n: check_finite(f"params[{n!r}]", params[n]) for n in self.parameter_names}
+
+    def evaluate(self, r, params: Mapping[str, float] | None = None) -> np.ndarray:
+        """Values of the expression at radii ``r`` (vectorised).
+
+        Parameters
+        ----------
+        r : array_like
+            Radii in bohr.
+        params : mapping
+            Values of :attr:`parameter_names` (extra entries are ignored).
+
+        Returns
+        -------
+        numpy.ndarray
+            Float array of the shape of ``r``. Division by zero, overflow and
+            invalid operations give inf or nan without warnings; a solver
+            checks the values it samples.
+        """
+        values = self.check_params(params)
+        r = np.asarray(r, dtype=float)
+        with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
+            out = _eval(self._tree, r, values)
+            return np.array(np.broadcast_to(np.asarray(out, dtype=float), r.shape), dtype=float)
+
+    def __call__(self, r, params: Mapping[str, float] | None = None) -> np.ndarray:
+        return self.evaluate(r, params)
+
+
+def _eval(node: tuple, r: np.ndarray, p: Mapping[str, float]):
+    kind = node[0]
+    if kind == "num":
+        return node[1]
+    if kind == "r":
+        return r
+    if kind == "par":
+        return p[node[1]]
+    if kind == "neg":
+        return -_eval(node[1], r, p)
+    if kind == "chain":
+        acc = _eval(node[1], r, p)
+        for op, operand in node[2]:
+            x = _eval(operand, r, p)
+            if op == "+":
+                acc = acc + x
+            elif op == "-":
+                acc = acc - x
+            elif op == "*":
+                acc = acc * x
+            else:
+                acc = np.divide(acc, x)
+        return acc
+    if kind == "pow":
+        return np.power(np.asarray(_eval(node[1], r, p), dtype=float), _eval(node[2], r, p))
+    if kind == "call":
+        return FUNCTIONS[node[1]](_eval(node[2], r, p))
+    if kind == "where":
+        return np.where(_eval(node[1], r, p), _eval(node[2], r, p), _eval(node[3], r, p))
+    if kind == "cmp":
+        operands = [_eval(x, r, p) for x in node[1]]
+        result = True
+        for i, op in enumerate(node[2]):
+            result = np.logical_and(result, _CMP_FUNCS[op](operands[i], operands[i + 1]))
+        return result
+    raise AssertionError(f"unknown node {kind!r}")  # pragma: no cover - internal
+
+
+class _Translator:
+    """Checks a Python syntax tree and translates it into the private tree."""
+
+    def __init__(self, src: _Source) -> None:
+        self.src = src
+        self.params: dict[str, int] = {}
+
+    def pos(self, node: ast.AST) -> int:
+        return self.src.position(self.src.start(node))
+
+    def refuse(self, what: str, node: ast.AST, hint: str = "") -> ValueError:
+        return _refuse(what, self.src.segment(node), self.pos(node), hint)
+
+    def visit(self, node: ast.AST, depth: int, in_condition: bool = False) -> tuple:
+        if depth > MAX_DEPTH:
+            raise ValueError(f"expression: nesting deeper than {MAX_DEPTH} levels at "
+                             f"{_short(self.src.segment(node))!r}, position {self.pos(node)}, is not allowed; "
+                             f"simplify the expression; {_ALLOWED}")
+        if isinstance(node, ast.Constant):
+            return self.constant(node)
+        if isinstance(node, ast.Name):
+            return self.name(node)
+        if isinstance(node, ast.UnaryOp):
+            if isinstance(node.op, ast.USub):
+                return ("neg", self.visit(node.operand, depth + 1))
+            if isinstance(node.op, ast.UAdd):
+                return self.visit(node.operand, depth + 1)
+            symbol = "not" if isinstance(node.op, ast.Not) else "~"
+            raise _refuse("operator", symbol, self.pos(node))
+        if isinstance(node, ast.BinOp):
+            return self.binop(node, depth)
+        if isinstance(node, ast.Call):
+            return self.call(node, depth)
+        if isinstance(node, ast.Compare):
+            if not in_condition:
+                op = _CMP.get(type(node.ops[0]), "comparison")
+                i = self.src.find(op, node.left, node.comparators[0]) if op != "comparison" else self.src.start(node)
+                raise _refuse("comparison", op, self.src.position(i),
+                              "comparisons are only allowed as the condition of where(condition, a, b)")
+            return self.compare(node, depth)
+        if isinstance(node, ast.Attribute):
+            start = self.src.end(node) - len(node.attr)
+            dot = self.src.text.rfind(".", 0, start)
+            raise _refuse("attribute access", "." + node.attr, self.src.position(dot if dot >= 0 else start),
+                          "names have no attributes here")
+        for cls, word in _NODE_WORDS.items():
+            if isinstance(node, cls):
+                raise self.refuse(word, node)
+        raise self.refuse(f"construct ({type(node).__name__})", node)
+
+    def constant(self, node: ast.Constant) -> tuple:
+        value = node.value
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            word = "string" if isinstance(value, (str, bytes)) else "constant"
+            raise self.refuse(word, node, "only plain numbers are constants")
+        try:
+            x = float(value)
+        except OverflowError:
+            x = math.inf
+        if not math.isfinite(x):
+            raise self.refuse("number", node, "numbers must be finite double-precision values (|x| < 1.8e308)")
+        return ("num", x)
+
+    def name(self, node: ast.Name) -> tuple:
+        name = node.id
+        if name.startswith("_"):
+            raise self.refuse("name", node, "names starting with '_' (dunder names) are refused")
+        if name == "r":
+            return ("r",)
+        if name in CONSTANTS:
+            return ("num", CONSTANTS[name])
+        if name in FUNCTIONS or name == "where":
+            raise self.refuse("function name", node, f"call it, e.g. {name}(r)" if name != "where"
+                              else "call it as where(condition, a, b)")
+        self.params.setdefault(name, self.pos(node))
+        return ("par", name)
+
+    def binop(self, node: ast.BinOp, depth: int) -> tuple:
+        op = type(node.op)
+        if op in _REFUSED_OPS:
+            symbol = _REFUSED_OPS[op]
+            i = self.src.find(symbol, node.left, node.right)
+            hint = "write ** for powers, e.g. r**2" if symbol == "^" else ""
+            raise _refuse("operator", symbol, self.src.position(i), hint)
+        if op is ast.Pow:
+            base = self.visit(node.left, depth + 1)
+            exponent = self.visit(node.right, depth + 1)
+            self.check_exponent(node.right, exponent)
+            return ("pow", base, exponent)
+        # a left-associative chain of one precedence level counts as one level
+        family = _ADDITIVE if op in _ADDITIVE else _MULTIPLICATIVE
+        rest = []
+        cur: ast.AST = node
+        while isinstance(cur, ast.BinOp) and isinstance(cur.op, family):
+            rest.append((_BINOPS[type(cur.op)], cur.right))
+            cur = cur.left
+        first = self.visit(cur, depth + 1)
+        ops = [(symbol, self.visit(right, depth + 1)) for symbol, right in reversed(rest)]
+        return ("chain", first, ops)
+
+    def check_exponent(self, node: ast.AST, tree: tuple) -> None:
+        """Refuse power towers of literals and literal exponents beyond MAX_EXPONENT."""
+        if not _literal_only(tree):
+            return
+        if _has_pow(tree):
+            raise self.refuse("power tower of literals", node,
+                              "a literal exponent may not itself contain **")
+        with np.errstate(all="ignore"):
+            x = float(_eval(tree, np.zeros(()), {}))
+        if not (math.isfinite(x) and abs(x) <= MAX_EXPONENT):
+            raise self.refuse("exponent", node, f"literal exponents must satisfy |exponent| <= {MAX_EXPONENT:g}")
+
+    def call(self, node: ast.Call, depth: int) -> tuple:
+        func = node.func
+        if not isinstance(func, ast.Name):
+            if isinstance(func, ast.Attribute):
+                self.visit(func, depth + 1)  # raises: attribute access
+            raise self.refuse("call of", func, "only the listed functions can be called, by their plain name")
+        fname = func.id
+        if fname.startswith("_"):
+            raise self.refuse("name", func, "names starting with '_' (dunder names) are refused")
+        if fname not in FUNCTIONS and fname != "where":
+            raise self.refuse("function", func, "it is not in the whitelist")
+        if node.keywords:
+            kw = node.keywords[0]
+            token = f"{kw.arg}=" if kw.arg else "**"
+            raise _refuse("keyword argument", token, self.pos(kw), f"{fname}() takes positional arguments only")
+        for a in node.args:
+            if isinstance(a, ast.Starred):
+                raise self.refuse("starred argument", a)
+        want = 3 if fname == "where" else 1
+        if len(node.args) != want:
+            raise _refuse("call", fname, self.pos(func),
+                          f"{fname}() takes {want} argument{'s' if want > 1 else ''}, got {len(node.args)}")
+        if fname == "where":
+            cond = node.args[0]
+            if not isinstance(cond, ast.Compare):
+                raise self.refuse("condition", cond,
+                                  "the first argument of where() must be a comparison such as r < 1")
+            return ("where", self.visit(cond, depth + 1, in_condition=True),
+                    self.visit(node.args[1], depth + 1), self.visit(node.args[2], depth + 1))
+        return ("call", fname, self.visit(node.args[0], depth + 1))
+
+    def compare(self, node: ast.Compare, depth: int) -> tuple:
+        operands = [node.left, *node.comparators]
+        ops = []
+        for i, op in enumerate(node.ops):
+            symbol = _CMP.get(type(op))
+            if symbol is None:
+                bad = {ast.Eq: "==", ast.NotEq: "!=", ast.Is: "is", ast.IsNot: "is not", ast.In: "in",
+                       ast.NotIn: "not in"}.get(type(op), "?")
+                j = self.src.find(bad, operands[i], operands[i + 1])
+                raise _refuse("comparison", bad, self.src.position(j), "use < <= > >= in where()")
+            ops.append(symbol)
+        return ("cmp", [self.visit(x, depth + 1) for x in operands], ops)
+
+
+def _literal_only(tree: tuple) -> bool:
+    kind = tree[0]
+    if kind == "num":
+        return True
+    if kind in ("r", "par", "call", "where", "cmp"):
+        return False
+    if kind == "neg":
+        return _literal_only(tree[1])
+    if kind == "pow":
+        return _literal_only(tree[1]) and _literal_only(tree[2])
+    if kind == "chain":
+        return _literal_only(tree[1]) and all(_literal_only(x) for _, x in tree[2])
+    return False  # pragma: no cover - internal
+
+
+def _has_pow(tree: tuple) -> bool:
+    kind = tree[0]
+    if kind == "pow":
+        return True
+    if kind == "neg":
+        return _has_pow(tree[1])
+    if kind == "chain":
+        return _has_pow(tree[1]) or any(_has_pow(x) for _, x in tree[2])
+    return False
+
+
+def _bracket_depth(text: str, lead: int) -> None:
+    depth = 0
+    for i, ch in enumerate(text):
+        if ch in "([{":
+            depth += 1
+            if depth > MAX_DEPTH:
+                raise ValueError(f"expression: nesting deeper than {MAX_DEPTH} brackets at {ch!r}, "
+                                 f"position {i + lead + 1}, is not allowed; simplify the expression; {_ALLOWED}")
+        elif ch in ")]}":
+            depth -= 1
+
+
+def parse_expression(text: str) -> CompiledExpression:
+    """Check and compile an expression for a potential V(r).
+
+    Parameters
+    ----------
+    text : str
+        The expression, e.g. ``"-Z*exp(-r/D)/r"`` (r in bohr, V in hartree).
+
+    Returns
+    -------
+    CompiledExpression
+        With ``parameter_names`` and ``evaluate(r, params)``.
+
+    Raises
+    ------
+    ValueError
+        For anything outside the grammar of this module (see its docstring);
+        the message names the offending token, its 1-based character
+        position and what is allowed.
+
+    Notes
+    -----
+    The text is parsed by :func:`ast.parse`, which builds a syntax tree and
+    runs nothing; no ``eval``, ``exec`` or code object is ever involved.
+    """
+    if not isinstance(text, str):
+        raise ValueError(f"expression: expected a string, got {type(text).__name__}")
+    if len(text) > MAX_LENGTH:
+        raise ValueError(f"expression: {len(text)} characters is too long (at most {MAX_LENGTH}); "
+                         f"the text from position {MAX_LENGTH + 1} on is over the limit")
+    stripped = text.lstrip()
+    lead = len(text) - len(stripped)
+    stripped = stripped.rstrip()
+    if not stripped:
+        raise ValueError(f"expression: empty input; write a formula in r, e.g. -Z/r; {_ALLOWED}")
+    for i, ch in enumerate(stripped):
+        if not (ch.isprintable() or ch in "\n\t"):
+            raise _refuse("control character", repr(ch)[1:-1], i + lead + 1)
+    _bracket_depth(stripped, lead)
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # e.g. escape sequences in (refused) strings
+            tree = ast.parse(stripped, mode="eval")
+    except SyntaxError as exc:
+        src = _Source(stripped, lead)
+        if exc.lineno and exc.offset:
+            line = max(1, min(exc.lineno, len(src.lines)))
+            position = src.starts[line - 1] + exc.offset - 1 + lead + 1
+            near = stripped[position - lead - 1: position - lead] or "end of input"
+            where = f"at position {position} (near {near!r})"
+        else:
+            where = "(no position reported)"
+        raise ValueError(f"expression: syntax error {where}: {exc.msg}; {_ALLOWED}") from None
+    except (RecursionError, MemoryError):
+        raise ValueError(f"expression: too deeply nested to parse; at most {MAX_DEPTH} levels") from None
+    src = _Source(stripped, lead)
+    tr = _Translator(src)
+    compiled = tr.visit(tree.body, 1)
+    return CompiledExpression(text=text, parameter_names=tuple(tr.params), positions=dict(tr.params),
+                              _tree=compiled)
+
+
+class ExpressionTerm(Term):
+    """A potential term given by an expression in r and named parameters.
+
+    Parameters
+    ----------
+    text : str
+        The expression (see :mod:`boundkit.potentials.expression`), e.g.
+        ``"-Z*exp(-r/D)/r"``; r in bohr, the value in hartree.
+    params : mapping, optional
+        Values of the expression's parameters. Every parameter needs one;
+        entries the expression does not use are ignored here (compare with
+        :attr:`parameter_names` to refuse them).
+
+    Notes
+    -----
+    The ends are probed numerically, as for a Python callable: the charge at
+    the origin is Z0 = -r V(r) when that is steady (to 1e-6) over
+    r = 1e-12..1e-10 bohr and not negligible, else 0; far out, V growing
+    beyond 1e3 hartree over r = 1e3..1e5 bohr means a confining term,
+    otherwise the tail charge is -r V(r) at r = 1e5 bohr (0 when below 1e-6).
+    When a value at a probe point is not finite (a pole there), the probes
+    are repeated once at radii 4.7 % larger; values still not finite count as
+    "no Coulomb behaviour" (origin) or V -> 0 (far side, with a warning).
+    Non-finite values on the solver's grid are refused by the solver.
+    """
+
+    name = "expr"
+    formula = "V(r) given by a user expression"
+    source = "user expression"
+
+    def __init__(self, text: str, params: Mapping[str, float] | None = None) -> None:
+        self.compiled = parse_expression(text)
+        self.label = text.strip()
+        self.formula = text.strip()  # type: ignore[misc]
+        self.values = self.compiled.check_params(params)
+        self.parameters = tuple(  # type: ignore[misc]
+            Parameter(n, None, "", f"parameter of the expression {self.label!r}")
+            for n in self.compiled.parameter_names
+        )
+        self._probe()
+
+    @property
+    def parameter_names(self) -> tuple[str, ...]:
+        """The expression's parameter names, in order of first appearance."""
+        return self.compiled.parameter_names
+
+    def _evaluate(self, r: np.ndarray) -> np.ndarray:
+        return self.compiled.evaluate(r, self.values)
+
+    def _finite_probe(self, radii: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """V at ``radii``; if any value is not finite, once more at radii shifted by 4.7 %."""
+        for r in (radii, radii * 1.047):
+            with np.errstate(all="ignore"):
+                v = self._evaluate(r)
+            if np.all(np.isfinite(v)):
+                break
+        return r, v
+
+    def _probe(self) -> None:
+        r_small, v = self._finite_probe(np.array([1e-12, 1e-11, 1e-10]))
+        rv = -r_small * v
+        if np.all(np.isfinite(rv)) and abs(rv[0] - rv[2]) <= 1e-6 * max(1.0, abs(rv[0])) and abs(rv[0]) > 1e-8:
+            self._z0 = float(rv[0])
+        else:
+            self._z0 = 0.0
+            if not np.all(np.isfinite(rv)):
+                log.info("expression %r: not finite near r = 0; treated as not Coulomb-like there", self.label)
+        r_big, vb = self._finite_probe(np.array([1e3, 1e4, 1e5]))
+        if not np.all(np.isfinite(vb)):
+            log.warning("expression %r: not finite at r = 1e3..1e5 bohr; far behaviour taken as V -> 0",
+                        self.label)
+            self._far, self._zinf = "zero", 0.0
+        elif vb[2] > 1e3 and vb[2] > vb[1] > vb[0]:
+            self._far, self._zinf = "confining", 0.0
+        else:
+            self._far = "zero"
+            self._zinf = float(-r_big[2] * vb[2]) if abs(r_big[2] * vb[2]) > 1e-6 else 0.0
+
+    @property
+    def origin_charge(self) -> float:
+        return self._z0
+
+    @property
+    def tail_charge(self) -> float:
+        return self._zinf
+
+    @property
+    def far(self) -> str:  # type: ignore[override]
+        return self._far
+
+    def __repr__(self) -> str:
+        args = "".join(f", {k}={v:g}" for k, v in self.values.items())
+        return f"ExpressionTerm({self.label!r}{args})"

@@ -1,0 +1,376 @@
+"""A potential term from a table of (r, V) points.
+
+File format
+-----------
+Plain text, one point per line: two numbers, separated by a comma or by
+white space. ``#`` starts a comment, on a line of its own or after the
+numbers. Units are declared, if at all, by one comment line before the first
+point::
+
+    # units: r=fm V=MeV
+
+(``r=`` and ``V=`` may come in either order, separated by spaces or a comma;
+either may be left out). Length units: bohr, angstrom, fm, nm; energy units:
+hartree, eV, keV, MeV (case matters for the energy units: meV is not MeV).
+Without that line the units are the arguments of :func:`read_table`
+(default bohr and hartree); a units line wins over the default arguments, and
+one that contradicts an argument other than the default is refused.
+
+Conversion uses :mod:`scipy.constants` only (the Bohr radius and the
+Hartree energy in eV, CODATA).
+
+Interpolation
+-------------
+Between the first and the last point the term interpolates y = r V(r) with a
+cubic spline in x = ln r (scipy's ``CubicSpline``, not-a-knot ends) and
+returns V = y / r. A Coulomb table has a constant y, which the spline
+reproduces exactly, and screened or finite potentials have a y that is
+smooth in ln r.
+
+Below the first point r_0 (``origin``):
+
+- ``"coulomb"``: y stays y(r_0), so V = r_0 V(r_0) / r and the charge at the
+  origin is Z0 = -r_0 V(r_0);
+- ``"finite"``: V stays V(r_0), and Z0 = 0.
+
+Beyond the last point r_N (``tail``):
+
+- ``"coulomb"``: V = -Z_inf / r with Z_inf = ``tail_charge``, by default
+  -r_N V(r_N);
+- ``"zero"``: V = 0 (a warning is logged when |V(r_N)| exceeds 1e-6 of the
+  largest |V| of the table);
+- ``"exponential"``: V = V(r_N) exp(-(r - r_N)/b), with the decay length b
+  from a least-squares fit of ln|V| against r over the last five points
+  (A e^(-r/b) with A fixed by continuity at r_N).
+"""
+from __future__ import annotations
+
+import logging
+import math
+import os
+import re
+from typing import Sequence
+
+import numpy as np
+import scipy.constants as sc
+from scipy.interpolate import CubicSpline
+
+from .._checks import check_choice, check_finite
+from .base import Term
+
+__all__ = ["LENGTH_UNITS", "ENERGY_UNITS", "MIN_POINTS", "read_table", "TabulatedTerm"]
+
+log = logging.getLogger(__name__)
+
+_BOHR_M = sc.physical_constants["Bohr radius"][0]
+_HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]
+
+LENGTH_UNITS: dict[str, float] = {
+    "bohr": 1.0,
+    "angstrom": sc.angstrom / _BOHR_M,
+    "nm": sc.nano / _BOHR_M,
+    "fm": sc.femto / _BOHR_M,
+}
+"""Length unit -> bohr per unit (CODATA via scipy.constants)."""
+
+ENERGY_UNITS: dict[str, float] = {
+    "hartree": 1.0,
+    "eV": 1.0 / _HARTREE_EV,
+    "keV": sc.kilo / _HARTREE_EV,
+    "MeV": sc.mega / _HARTREE_EV,
+}
+"""Energy unit -> hartree per unit (CODATA via scipy.constants)."""
+
+MIN_POINTS = 8
+"""Fewest points a table may have."""
+
+TAILS = ("coulomb", "zero", "exponential")
+ORIGINS = ("coulomb", "finite")
+_EXP_FIT_POINTS = 5
+
+_UNITS_LINE = re.compile(r"^\s*#\s*units\s*:(.*)$", re.IGNORECASE)
+_UNITS_SYNTAX = "write it as '# units: r=fm V=MeV'"
+
+
+def _length_unit(name: str, where: str) -> str:
+    key = str(name).strip().lower()
+    if key not in LENGTH_UNITS:
+        raise ValueError(f"{where}: unknown length unit {name!r}; choose one of {', '.join(LENGTH_UNITS)}")
+    return key
+
+
+def _energy_unit(name: str, where: str) -> str:
+    key = str(name).strip()
+    if key.lower() == "hartree":
+        key = "hartree"
+    if key not in ENERGY_UNITS:
+        raise ValueError(f"{where}: unknown energy unit {name!r}; choose one of {', '.join(ENERGY_UNITS)} "
+                         "(case matters: MeV, keV, eV)")
+    return key
+
+
+def _parse_units(body: str, where: str) -> dict[str, str]:
+    found: dict[str, str] = {}
+    for item in [x for x in re.split(r"[,\s]+", body.strip()) if x]:
+        key, eq, value = item.partition("=")
+        if not eq or not value:
+            raise ValueError(f"{where}: cannot read {item!r} in the units line; {_UNITS_SYNTAX}")
+        k = key.strip().lower()
+        if k == "r":
+            found["r"] = _length_unit(value, where)
+        elif k == "v":
+            found["V"] = _energy_unit(value, where)
+        else:
+            raise ValueError(f"{where}: unknown quantity {key!r} in the units line (only r and V); "
+                             f"{_UNITS_SYNTAX}")
+    if not found:
+        raise ValueError(f"{where}: the units line names no unit; {_UNITS_SYNTAX}")
+    return found
+
+
+def _number(token: str, what: str, where: str) -> float:
+    try:
+        x = float(token)
+    except ValueError:
+        hint = " (write exponents with E, not D)" if re.fullmatch(r"[-+]?[\d.]+[dD][-+]?\d+", token) else ""
+        raise ValueError(f"{where}: {what} {token!r} is not a number{hint}; each data line holds two "
+                         "numbers, r and V; start text lines with #") from None
+    if not math.isfinite(x):
+        raise ValueError(f"{where}: {what} is {token!r}; values must be finite numbers; remove or fix the line")
+    return x
+
+
+def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "hartree") -> tuple[np.ndarray, np.ndarray]:
+    """Read a two-column table r, V and convert it to bohr and hartree.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The text file (format in :mod:`boundkit.potentials.tabulated`).
+    r_unit : {'bohr', 'angstrom', 'fm', 'nm'}
+        Unit of r when the file declares none.
+    v_unit : {'hartree', 'eV', 'keV', 'MeV'}
+        Unit of V when the file declares none.
+
+    Returns
+    -------
+    r, V : numpy.ndarray
+        Radii in bohr (positive, strictly increasing) and V in hartree.
+
+    Raises
+    ------
+    ValueError
+        The file cannot be read, or a line breaks a rule: exactly two
+        numeric columns, finite values, r > 0, r strictly increasing, at
+        least 8 points, known units. The message names the file, the
+        1-based line number and the fix.
+    """
+    name = os.fspath(path)
+    r_default = _length_unit(r_unit, "r_unit")
+    v_default = _energy_unit(v_unit, "v_unit")
+    try:
+        with open(name, encoding="utf-8", errors="replace") as fh:
+            lines = fh.read().splitlines()
+    except OSError as exc:
+        raise ValueError(f"potential file {name!r}: cannot read it ({exc.strerror or exc})") from None
+    units: dict[str, str] = {}
+    units_line = 0
+    rs: list[float] = []
+    vs: list[float] = []
+    last_line = 0
+    for lineno, raw in enumerate(lines, start=1):
+        where = f"potential file {name!r}, line {lineno}"
+        m = _UNITS_LINE.match(raw)
+        if m:
+            if units_line:
+                raise ValueError(f"{where}: a second units line (the first is line {units_line}); keep one")
+            if rs:
+                raise ValueError(f"{where}: the units line must come before the first data line "
+                                 f"(line {last_line}); move it to the top")
+            units = _parse_units(m.group(1), where)
+            units_line = lineno
+            continue
+        data = raw.split("#", 1)[0].strip()
+        if not data:
+            continue
+        fields = [f.strip() for f in data.split(",")] if "," in data else data.split()
+        if len(fields) != 2:
+            raise ValueError(f"{where}: expected 2 columns (r and V), found {len(fields)}; "
+                             "write one point per line as 'r V' or 'r, V'")
+        r = _number(fields[0], "r", where)
+        v = _number(fields[1], "V", where)
+        if r <= 0:
+            raise ValueError(f"{where}: r = {fields[0]} but r must be > 0; drop the point at r <= 0 "
+                             "(the origin behaviour is set by the option origin=)")
+        if rs and r <= rs[-1]:
+            raise ValueError(f"{where}: r = {fields[0]} is not larger than r on line {last_line}; "
+                             "r must be strictly increasing: sort the points and remove duplicates")
+        rs.append(r)
+        vs.append(v)
+        last_line = lineno
+    if len(rs) < MIN_POINTS:
+        at = f"line {last_line or len(lines) or 1}"
+        raise ValueError(f"potential file {name!r}, {at}: only {len(rs)} data point(s); at least "
+                         f"{MIN_POINTS} are needed for the interpolation; add points")
+    ru = units.get("r", r_default)
+    vu = units.get("V", v_default)
+    for key, default, given, arg in (("r", "bohr", r_default, "r_unit"), ("V", "hartree", v_default, "v_unit")):
+        if key in units and given != default and units[key] != given:
+            raise ValueError(f"potential file {name!r}, line {units_line}: the file says {key} is in "
+                             f"{units[key]} but {arg}={given!r} was given; drop one of them")
+    r_arr = np.asarray(rs) * LENGTH_UNITS[ru]
+    v_arr = np.asarray(vs) * ENERGY_UNITS[vu]
+    return r_arr, v_arr
+
+
+def _check_arrays(r, V) -> tuple[np.ndarray, np.ndarray]:
+    try:
+        r = np.asarray(r, dtype=float)
+        V = np.asarray(V, dtype=float)
+    except (TypeError, ValueError):
+        raise ValueError("table: r and V must be arrays of numbers") from None
+    if r.ndim != 1 or V.shape != r.shape:
+        raise ValueError(f"table: r and V must be 1-d arrays of one length, got shapes {r.shape} and {V.shape}")
+    if r.size < MIN_POINTS:
+        raise ValueError(f"table: only {r.size} points; at least {MIN_POINTS} are needed; add points")
+    bad = np.nonzero(~(np.isfinite(r) & np.isfinite(V)))[0]
+    if bad.size:
+        raise ValueError(f"table: point {bad[0] + 1} is not finite (r = {r[bad[0]]!r}, V = {V[bad[0]]!r}); fix it")
+    if r[0] <= 0:
+        raise ValueError(f"table: point 1 has r = {r[0]!r} but r must be > 0; drop it")
+    dec = np.nonzero(np.diff(r) <= 0)[0]
+    if dec.size:
+        raise ValueError(f"table: r must be strictly increasing, but point {dec[0] + 2} has r = {r[dec[0] + 1]!r} "
+                         f"after {r[dec[0]]!r}; sort the points and remove duplicates")
+    return r, V
+
+
+class TabulatedTerm(Term):
+    """A potential term interpolated from a table of (r, V) points.
+
+    Parameters
+    ----------
+    table : str, path-like or array_like
+        A file to read with :func:`read_table`, or the radii when ``V`` is
+        given.
+    V : array_like, optional
+        Potential values at the radii ``table``.
+    tail : {'coulomb', 'zero', 'exponential'}
+        Behaviour beyond the last point (see the module docstring).
+    tail_charge : float, optional
+        Z_inf of the Coulomb tail (``tail='coulomb'`` only); default
+        -r_N V(r_N) from the last point.
+    origin : {'coulomb', 'finite'}
+        Behaviour below the first point.
+    r_unit, v_unit : str
+        Units of the table (a file's own units line takes precedence).
+    label : str, optional
+        Name in reports; default the file name, or "table".
+
+    Notes
+    -----
+    Interpolation of r V against ln r with a cubic spline, extended by the
+    declared origin and tail behaviour; see :mod:`boundkit.potentials.tabulated`.
+    """
+
+    name = "table"
+    formula = "V(r) from a table: cubic spline of r V(r) in ln r, declared origin and tail"
+    source = "user table"
+
+    def __init__(self, table, V: Sequence[float] | None = None, *, tail: str = "coulomb",
+                 tail_charge: float | None = None, origin: str = "coulomb", r_unit: str = "bohr",
+                 v_unit: str = "hartree", label: str | None = None) -> None:
+        self.tail = check_choice("tail", str(tail).lower(), TAILS)
+        self.origin = check_choice("origin", str(origin).lower(), ORIGINS)
+        if V is None:
+            if not isinstance(table, (str, os.PathLike)):
+                raise ValueError("table: give a file path, or the arrays r and V")
+            r, v = read_table(table, r_unit, v_unit)
+            self.path: str | None = os.fspath(table)
+            self.label = label or os.path.basename(self.path)
+            self.source = f"table file {self.path}"  # type: ignore[misc]
+        else:
+            r, v = _check_arrays(table, V)
+            r = r * LENGTH_UNITS[_length_unit(r_unit, "r_unit")]
+            v = v * ENERGY_UNITS[_energy_unit(v_unit, "v_unit")]
+            self.path = None
+            self.label = label or "table"
+        self.r, self.V = r, v
+        self.values = {}
+        self._spline = CubicSpline(np.log(r), r * v)
+        self._y0 = float(r[0] * v[0])
+        if tail_charge is not None and self.tail != "coulomb":
+            raise ValueError(f"tail_charge: only used with tail='coulomb', not tail={self.tail!r}; drop it")
+        y_last = float(r[-1] * v[-1])
+        self._zinf = 0.0
+        self._decay = math.inf
+        if self.tail == "coulomb":
+            self._zinf = -y_last if tail_charge is None else check_finite("tail_charge", tail_charge)
+            if tail_charge is not None and abs(-y_last - self._zinf) > 1e-6 * max(1.0, abs(self._zinf)):
+                log.warning("%s: the Coulomb tail charge %g differs from -r V = %g at the last point "
+                            "(r = %g bohr); V jumps there", self.label, self._zinf, -y_last, r[-1])
+            self._warn_unsteady(r[-3:], r[-3:] * v[-3:], "last", "tail='coulomb'")
+        elif self.tail == "zero":
+            if abs(v[-1]) > 1e-6 * float(np.max(np.abs(v))):
+                log.warning("%s: V = %g hartree at the last point (r = %g bohr) is far from 0 but "
+                            "tail='zero' sets V = 0 beyond it; extend the table or choose another tail",
+                            self.label, v[-1], r[-1])
+        else:
+            self._decay = self._fit_decay(r, v)
+        if self.origin == "coulomb":
+            self._warn_unsteady(r[:3], r[:3] * v[:3], "first", "origin='coulomb'")
+
+    def _warn_unsteady(self, r, y, which: str, option: str) -> None:
+        if abs(y[0] - y[-1]) > 1e-3 * max(float(np.max(np.abs(y))), 1e-300):
+            log.warning("%s: r V is not steady over the %s three points (%s); %s assumes it is",
+                        self.label, which, ", ".join(f"{x:.6g}" for x in y), option)
+
+    def _fit_decay(self, r: np.ndarray, v: np.ndarray) -> float:
+        rr, vv = r[-_EXP_FIT_POINTS:], v[-_EXP_FIT_POINTS:]
+        if np.any(vv == 0) or not (np.all(vv > 0) or np.all(vv < 0)):
+            raise ValueError(f"tail='exponential': the last {_EXP_FIT_POINTS} values of V must be non-zero and "
+                             "of one sign to fit A exp(-r/b); use tail='zero' or tail='coulomb'")
+        slope = float(np.polyfit(rr, np.log(np.abs(vv)), 1)[0])
+        if not slope < 0:
+            raise ValueError(f"tail='exponential': |V| does not decrease over the last {_EXP_FIT_POINTS} points "
+                             f"(fitted slope of ln|V| = {slope:.3g} per bohr); use tail='zero' or tail='coulomb'")
+        return -1.0 / slope
+
+    def _evaluate(self, r: np.ndarray) -> np.ndarray:
+        r = np.asarray(r, dtype=float)
+        flat = np.atleast_1d(r).ravel()
+        out = np.full(flat.shape, np.nan)
+        r0, rn = self.r[0], self.r[-1]
+        inside = (flat >= r0) & (flat <= rn)
+        out[inside] = self._spline(np.log(flat[inside])) / flat[inside]
+        below = flat < r0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            if self.origin == "coulomb":
+                out[below] = self._y0 / flat[below]
+            else:
+                out[below] = self.V[0]
+            above = flat > rn
+            if self.tail == "coulomb":
+                out[above] = -self._zinf / flat[above]
+            elif self.tail == "zero":
+                out[above] = 0.0
+            else:
+                out[above] = self.V[-1] * np.exp(-(flat[above] - rn) / self._decay)
+        return out.reshape(r.shape)
+
+    @property
+    def origin_charge(self) -> float:
+        return -self._y0 if self.origin == "coulomb" else 0.0
+
+    @property
+    def tail_charge(self) -> float:
+        return self._zinf
+
+    @property
+    def decay_length(self) -> float:
+        """Decay length b of the exponential tail in bohr (inf for other tails)."""
+        return self._decay
+
+    def __repr__(self) -> str:
+        return (f"TabulatedTerm({self.label!r}, {self.r.size} points, r = {self.r[0]:.3g}..{self.r[-1]:.3g} bohr, "
+                f"origin={self.origin!r}, tail={self.tail!r})")
