@@ -14,6 +14,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
+from threadpoolctl import threadpool_limits
 
 from .discretize import FiniteDifference, get_method
 from .solver import prepare_channel, setup, solve_channel
@@ -91,6 +92,11 @@ def converge(equation: str = "dirac", potential="coulomb", params: dict | None =
     :class:`ConvergenceResult`; ``kwargs`` are passed to the argument setup
     (particle, mass_mev, nucleus_mass_mev, scalar, units).
     """
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, kwargs)
+
+
+def _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, kwargs):
     levels = check_int("levels", levels, minimum=1)
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, **kwargs)
     ref = solve_channel(eq, pot, get_method("spectral"), levels, 1e-13)

@@ -27,6 +27,7 @@ import time
 from dataclasses import dataclass, field, replace
 
 import numpy as np
+from threadpoolctl import threadpool_limits
 
 from .discretize import Discretization, get_method
 from .eigen import dense_pencil, refine, shift_invert
@@ -138,7 +139,7 @@ def _nodes_of(op: FactorizedOperator, y) -> int:
     return count_nodes(op.expand(np.asarray(y, dtype=float)) * op.weight())
 
 
-def _fixed_point(op: FactorizedOperator, E: float, lo: float, hi: float, iters: int = 8) -> float:
+def _fixed_point(op: FactorizedOperator, E: float, lo: float, hi: float, iters: int = 4) -> float:
     """Iterate E <- (eigenvalue of the pencil at E nearest E) a few times."""
     for _ in range(iters):
         A, B = op.pencil(E)
@@ -199,6 +200,12 @@ def _initial_radius(eq, pot, levels: int, L: float) -> float:
 
 
 _FLOOR = 2e-14  # relative: the smallest error we claim (rounding in the refined residual)
+
+
+def _ladder_from(disc: Discretization, start: int) -> list[int]:
+    """The family's ladder from the first size >= start."""
+    ladder = disc.ladder()
+    return [n for n in ladder if n >= start] or ladder[-1:]
 
 
 def _estimate(history: list[float], disc: Discretization) -> float:
@@ -334,20 +341,30 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
 
 def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, levels: int = 1,
                   tol: float = 1e-10, settings: dict | None = None, potential_name: str = "") -> SolveResult:
-    """Solve one channel; the engine behind :func:`solve` (same result type)."""
+    """Solve one channel; the engine behind :func:`solve` (same result type).
+
+    BLAS runs single-threaded inside: the matrices are small (a few hundred
+    rows), and threads only contend, badly so on a shared machine.
+    """
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
+
+
+def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
     ch = prepare_channel(eq, pot, levels)
     tally = ch.tally
     per_level = []
     found: list[Level] = []
     worst = 0.0
+    start = disc.first
     for k, E in enumerate(ch.seeds):
         n = principal_n(k, eq.l)
         label = eq.label(n)
         mesh, _ = ch.mesh(E)
         history, sizes, last = [], [], None
         est = math.inf
-        for size in disc.ladder():
+        for size in _ladder_from(disc, start):
             got = ch.level(k, disc, size, E, mesh)
             if got is None:
                 continue
@@ -374,6 +391,7 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
             record["dropped"] = "unstable under a change of resolution"
             continue
         op, ref = last
+        start = sizes[max(0, len(sizes) - 3)]   # the next level needs at least about as many nodes
         worst = max(worst, est / abs(E))
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=label, energy=E,
                            error_estimate=est, nodes=k, state=_state(eq, op, E, ref.vector),
