@@ -6,7 +6,7 @@ import numpy as np
 __all__ = ["count_nodes", "principal_n", "normalise"]
 
 
-def count_nodes(u: np.ndarray, tail: float = 1e-4, floor: float = 1e-10) -> int:
+def count_nodes(u: np.ndarray, tail: float = 1e-4, floor: float = 1e-6) -> int:
     """Sign changes of ``u`` on its nodes (ascending r).
 
     Only the part up to the last node where |u| exceeds ``tail`` max|u| is

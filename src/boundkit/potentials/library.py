@@ -66,12 +66,15 @@ _N_SERIES = 40   # terms of the series in e^y for y <= -1 (e^-41 / 41 ~ 1e-19)
 _N_TAYLOR = 40   # terms of the Taylor series about y = 0 for |y| <= 1 (radius pi)
 
 
+_BERNOULLI: list[Fraction] = [Fraction(1)]
+
+
 def _bernoulli(n: int) -> Fraction:
     """Bernoulli number B_n (B_1 = -1/2) as an exact fraction, from
     sum_(k=0)^(m) C(m+1, k) B_k = 0 (scipy's floating-point table is off by
     up to ~1e-13 relative)."""
-    B = [Fraction(1)]
-    for m in range(1, n + 1):
+    B = _BERNOULLI
+    for m in range(len(B), n + 1):
         B.append(-sum(math.comb(m + 1, k) * B[k] for k in range(m)) / (m + 1))
     return B[n]
 
