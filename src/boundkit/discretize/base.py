@@ -69,12 +69,14 @@ class Discretization:
     3. implement ``ladder(start)``: the sequence of sizes tried when the
        solver raises the resolution, and ``first``: the size to start from;
     4. set ``order``: the algebraic order of convergence (None for spectral),
-       used by the error estimate.
+       used by the error estimate, and ``floor``: the smallest relative error
+       the family claims (its rounding level).
     """
 
     name: ClassVar[str] = "base"
     family: ClassVar[str] = ""
     order: int | None = None
+    floor: float = 1e-12
     first: int = 0
     cap: int = 0
 

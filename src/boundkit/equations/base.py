@@ -118,7 +118,9 @@ class FactorizedOperator:
 
         -(d/dt + a) [p (d/dt + b) f] + r^2 (q - E) f = 0,   a = beta - 1 - kappa.
 
-    Boundary conditions: f'(t_min) = 0 and f(t_max) = 0. Both boundary
+    Boundary conditions: f'(t_min) = c r_min f(t_min), with c the first
+    Frobenius correction f ~ 1 + c r computed from the operator itself, and
+    f(t_max) = 0. Both boundary
     unknowns are eliminated before the eigen solve; the unknown vector y holds
     f at the inner nodes. At fixed E_ref the problem is the pencil
     A y = lambda B y with B = diag(r^2); a bound level is the fixed point
@@ -126,7 +128,7 @@ class FactorizedOperator:
     """
 
     def __init__(self, eq: RadialEquation, grid: Grid, sample: Sample, gamma: float,
-                 r_core: float) -> None:
+                 r_core: float, E_ref: float = 0.0) -> None:
         self.eq, self.grid, self.sample, self.gamma, self.r_core = eq, grid, sample, gamma, r_core
         r = sample.r
         beta = gamma * r_core / (r + r_core)
@@ -136,9 +138,13 @@ class FactorizedOperator:
         self.n = len(grid.t)
         D = grid.D
         d0 = D[0].toarray().ravel() if sp.issparse(D) else np.asarray(D[0])
-        # f_0 = sum_j c_j f_j (from the Neumann row), f_last = 0
-        self._c = -d0[1:-1] / d0[0]
-        self.B = sample.r[1:-1] ** 2
+        # inner condition f'(t_min) = s f(t_min): f_0 = sum_j c_j f_j; f_last = 0
+        self.inner_slope = self._inner_slope(E_ref, d0)
+        self._c = -d0[1:-1] / (d0[0] - self.inner_slope)
+        # rows are scaled by 1/p(E_ref): near a Coulomb origin the Dirac p goes like r, and
+        # unscaled rows there would be tiny next to the others (bad for QZ and LU)
+        self.row_scale = 1.0 / eq.p(E_ref, sample)[1:-1]
+        self.B = sample.r[1:-1] ** 2 * self.row_scale
         if grid.extended:
             self._ext = sample.cast(np.longdouble)
             rl = self._ext.r
@@ -146,7 +152,29 @@ class FactorizedOperator:
             self._a_ext = beta_l - 1 - eq.kappa_eff
             self._b_ext = beta_l + eq.kappa_eff
             dx = grid.D_ext
-            self._c_ext = -dx[0, 1:-1] / dx[0, 0]
+            self._c_ext = -dx[0, 1:-1] / (dx[0, 0] - np.longdouble(self.inner_slope))
+            self._scale_ext = 1 / eq.p(np.longdouble(E_ref), self._ext)[1:-1]
+
+    def _inner_slope(self, E: float, d0) -> float:
+        """df/dt at t_min for f = 1 + c r near the origin.
+
+        Plugging f = 1 and f = r into the operator at the first node gives
+        T(1) + c T(r) = 0, so f'/f = c r there (the first Frobenius
+        correction). This makes the error of cutting the mesh at r_min
+        quadratic in r_min instead of linear.
+        """
+        s, eq = self.sample, self.eq
+        r0 = s.r[0]
+        p = eq.p(E, s)
+        p_t = float(d0 @ p)
+        a, b = self.a[0], self.b[0]
+        b_t = -self.gamma * self.r_core * r0 / (r0 + self.r_core) ** 2   # d(beta)/dt
+        qE = eq.q(E, s)[0] - E
+        T1 = -(b * (p_t + a * p[0]) + p[0] * b_t) + r0**2 * qE
+        Tr = -((1 + b) * (p_t + (1 + a) * p[0]) + p[0] * b_t) * r0 + r0**3 * qE
+        if not np.isfinite(T1 / Tr) or abs(Tr) < 1e-300:
+            return 0.0
+        return float(-T1 / Tr * r0)
 
     # -- expansion of the reduced unknowns to all nodes -------------------------
     def expand(self, y, c=None):
@@ -177,13 +205,14 @@ class FactorizedOperator:
         if self.grid.extended:
             El = np.longdouble(E)
             yl = np.asarray(y, dtype=np.longdouble)
-            return self._T_full(self.expand(yl, self._c_ext), El, self.grid.D_ext, self._ext,
-                                self._a_ext, self._b_ext)
-        return self._T_full(self.expand(y), E, self.grid.D, self.sample, self.a, self.b)
+            return self._scale_ext * self._T_full(self.expand(yl, self._c_ext), El, self.grid.D_ext,
+                                                  self._ext, self._a_ext, self._b_ext)
+        return self.row_scale * self._T_full(self.expand(y), E, self.grid.D, self.sample, self.a, self.b)
 
     def dT_y(self, E, y):
         """dT/dE applied to y (double precision)."""
-        return self._T_full(self.expand(y), E, self.grid.D, self.sample, self.a, self.b, derivative=True)
+        return self.row_scale * self._T_full(self.expand(y), E, self.grid.D, self.sample, self.a, self.b,
+                                             derivative=True)
 
     def matrix(self, E) -> Any:
         """T(E) on the reduced unknowns: dense array or sparse CSR."""
@@ -194,12 +223,12 @@ class FactorizedOperator:
         if self.grid.dense:
             full = -(D + np.diag(self.a)) @ (p[:, None] * (D + np.diag(self.b))) + np.diag(diag)
             Tb = full[1:-1, 1:-1] + np.outer(full[1:-1, 0], self._c)
-            return Tb
+            return self.row_scale[:, None] * Tb
         full = -(D + sp.diags(self.a)) @ sp.diags(p) @ (D + sp.diags(self.b)) + sp.diags(diag)
         full = full.tocsc()
         inner = full[1:-1, 1:-1]
         corr = sp.csr_matrix(full[1:-1, [0]]) @ sp.csr_matrix(self._c.reshape(1, -1))
-        return (inner + corr).tocsr()
+        return (sp.diags(self.row_scale) @ (inner + corr)).tocsr()
 
     def pencil(self, E_ref):
         """(A, B) with A y = lambda B y the fixed-E problem at E_ref."""
