@@ -89,7 +89,9 @@ def _sample(pot: Potential, r: np.ndarray) -> Sample:
 def _natural_length(eq: RadialEquation, pot: Potential) -> float:
     r = np.logspace(-14, 8, 2201)
     s = _sample(pot, r)
-    big = 2 * eq.mass * r**2 * np.abs(s.V + s.S) >= 1.0
+    # a 1/r^2 part has no length of its own (it only shifts l): leave it out
+    v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
+    big = 2 * eq.mass * r**2 * np.abs(v) >= 1.0
     if not np.any(big):
         raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr")
     return float(r[np.argmax(big)])
@@ -201,17 +203,49 @@ def _inner_cut(gamma: float, two_component: bool) -> float:
     return max(_INNER ** (1.0 / min(1.0, gap)), 1e-11 if two_component else 1e-60)
 
 
+def _energy_scale(eq, pot, L: float) -> float:
+    s = _sample(pot, np.array([L]))
+    return 1.0 / (2 * eq.mass * L**2) + abs(float(s.V[0] + s.S[0]))
+
+
+def _well_radius(pot, L: float) -> float:
+    """Radius of the deepest point of V + S when it lies away from the origin, else 0."""
+    r = np.logspace(math.log10(L), math.log10(L) + 10, 2001)
+    s = _sample(pot, r)
+    v = s.V + s.S
+    i = int(np.argmin(v))
+    return float(r[i]) if 0 < i < len(r) - 1 and v[i] < 0 else 0.0
+
+
+def _inner_wkb(eq, pot, E: float, L: float) -> float:
+    """Radius inside the inner turning point where a level of energy E has
+    decayed by e^-_DECAY (0 when the region near the origin is allowed or the
+    decay there comes from the centrifugal term alone)."""
+    r = np.logspace(math.log10(L * 1e-12), math.log10(L * 1e10), 6000)
+    s = _sample(pot, r)
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        excess = (eq.q(E, s) - E) / eq.p(E, s)
+    allowed = np.nonzero(excess < 0)[0]
+    if not allowed.size or allowed[0] == 0:
+        return 0.0
+    i0 = allowed[0]
+    kk = np.sqrt(np.clip(excess[:i0 + 1], 0, None))[::-1]
+    rr = r[:i0 + 1][::-1]
+    cum = np.concatenate(([0.0], np.cumsum(0.5 * (kk[1:] + kk[:-1]) * -np.diff(rr))))
+    beyond = np.nonzero(cum >= _DECAY)[0]
+    return float(rr[beyond[0]]) * 0.95 if beyond.size else 0.0
+
+
 def _initial_radius(eq, pot, levels: int, L: float) -> float:
     """First outer radius for seeding: hydrogen-like guess when the potential
-    has a Coulomb tail, else a multiple of the natural length."""
+    has a Coulomb tail, a WKB guess for confining wells, else a multiple of the
+    natural length (or of the radius of a well away from the origin)."""
     n_top = levels + eq.l
     if pot.tail_charge > 0:
         return _outer_radius(eq, pot, -eq.mass * pot.tail_charge**2 / (2 * n_top**2), L)
     if pot.confining:
-        s = _sample(pot, np.array([L]))
-        e_scale = 1.0 / (2 * eq.mass * L**2) + abs(float(s.V[0] + s.S[0]))
-        return _outer_radius(eq, pot, 2.0 * e_scale * (2 * levels + eq.l + 1.5), L)
-    return L * 20.0 * n_top**2
+        return _outer_radius(eq, pot, 2.0 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5), L)
+    return max(L * 20.0 * n_top**2, 4 * _well_radius(pot, L))
 
 
 def _ladder_from(disc: Discretization, start: int) -> list[int]:
@@ -333,9 +367,14 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     gamma = eq.gamma(pot)
     lo, hi = eq.energy_window(pot)
     L = _natural_length(eq, pot)
-    r_min = _inner_cut(gamma, eq.spin == 0.5) * L
-    tally = _Tally()
     R = _initial_radius(eq, pot, levels, L)
+    # inner end: the Frobenius cut, or further out when a repulsive core keeps every bound level
+    # out (WKB decay by e^-_DECAY inward from the inner turning point at the top of the window)
+    E_top = hi if math.isfinite(hi) else 2 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5)
+    r_min = max(_inner_cut(gamma, eq.spin == 0.5) * L, _inner_wkb(eq, pot, E_top, L))
+    if r_min >= R / 4:
+        R = max(R, 8 * r_min)
+    tally = _Tally()
     sizes = _SEED_SIZES
     seeds: list[float] = []
     for _attempt in range(12):

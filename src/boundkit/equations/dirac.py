@@ -68,6 +68,9 @@ class Dirac(RadialEquation):
         return s.V + s.S
 
     def gamma(self, potential) -> float:
+        if getattr(potential, "origin_inverse_square", 0.0) != 0.0:
+            raise ValueError("potential: a 1/r^2 term at the origin (kratzer B) is supported in the "
+                             "Schrodinger equation only; use --equation schrodinger or set B = 0")
         zv, zs = potential.z_vector, potential.z_scalar
         if abs(zv - zs) < 1e-14 * max(1.0, abs(zv)):
             return float(abs(self.kappa) if self.kappa < 0 else self.kappa + 1)

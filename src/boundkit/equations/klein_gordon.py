@@ -53,6 +53,9 @@ class KleinGordon(RadialEquation):
         return -(E - s.V) / self._mc2(s)
 
     def gamma(self, potential) -> float:
+        if getattr(potential, "origin_inverse_square", 0.0) != 0.0:
+            raise ValueError("potential: a 1/r^2 term at the origin (kratzer B) is supported in the "
+                             "Schrodinger equation only; use --equation schrodinger or set B = 0")
         zz = (potential.z_vector**2 - potential.z_scalar**2) * ALPHA**2
         disc = (self.l + 0.5) ** 2 - zz
         if disc <= 0:

@@ -251,6 +251,10 @@ class NuclearUnitsTerm(Term):
         return self.inner.tail_charge * self._v * self._r
 
     @property
+    def origin_inverse_square(self) -> float:
+        return self.inner.origin_inverse_square * self._v * self._r**2
+
+    @property
     def far(self) -> str:  # type: ignore[override]
         return self.inner.far
 
