@@ -84,6 +84,73 @@ def _table(res, unit: str) -> str:
     return "\n".join(head + rows + tail)
 
 
+def potential_options(f):
+    """Options that describe the potential, shared by the commands that solve."""
+    opts = [
+        click.option("--potential", "-p", "potentials", multiple=True,
+                     help="Built-in term or library model, repeatable (terms add). Default: coulomb."),
+        click.option("--scalar", "scalars", multiple=True,
+                     help="Built-in term used as a Lorentz scalar (Dirac, Klein-Gordon; repeatable)."),
+        click.option("--expr", "exprs", multiple=True,
+                     help="Potential expression in r, e.g. \"-Z*exp(-r/D)/r\" (repeatable)."),
+        click.option("--scalar-expr", "scalar_exprs", multiple=True, help="Expression used as a Lorentz scalar."),
+        click.option("--potential-file", "files", multiple=True, type=click.Path(dir_okay=False),
+                     help="A model file (.toml) or a table of r and V (any other suffix)."),
+        click.option("--table-tail", type=click.Choice(["coulomb", "zero", "exponential"]), default="coulomb",
+                     show_default=True, help="Table: behaviour beyond the last point."),
+        click.option("--table-tail-charge", type=float, default=None,
+                     help="Table: charge of the Coulomb tail (default from the last point)."),
+        click.option("--table-origin", type=click.Choice(["coulomb", "finite"]), default="coulomb",
+                     show_default=True, help="Table: behaviour below the first point."),
+        click.option("--table-r-unit", default="bohr", show_default=True, help="Table: unit of r (bohr, angstrom, fm, nm)."),
+        click.option("--table-v-unit", default="hartree", show_default=True, help="Table: unit of V (hartree, eV, keV, MeV)."),
+        click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
+                     help="Potential parameter (repeatable), e.g. --param Z=1."),
+        click.option("--units", "unit_system", type=click.Choice(["atomic", "nuclear"]), default="atomic",
+                     show_default=True, help="Parameters in hartree and bohr, or in MeV and fm."),
+    ]
+    for opt in reversed(opts):
+        f = opt(f)
+    return f
+
+
+def build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
+                    table_origin, table_r_unit, table_v_unit, params):
+    """(vector terms, scalar terms, parameter values) from the potential options.
+
+    Raises ValueError for bad input (the caller reports it).
+    """
+    from .potentials.catalog import read_model_file
+    from .potentials.expression import ExpressionTerm
+    from .potentials.tabulated import TabulatedTerm
+
+    values = _parse_params(params)
+    vector, scalar = list(potentials), list(scalars)
+    for text in exprs:
+        vector.append(ExpressionTerm(text, _subset(text, values)))
+    for text in scalar_exprs:
+        scalar.append(ExpressionTerm(text, _subset(text, values)))
+    for path in files:
+        if str(path).lower().endswith(".toml"):
+            spec = read_model_file(path)
+            term, _ = spec.build(values)
+            (scalar if spec.role == "scalar" else vector).append(term)
+        else:
+            vector.append(TabulatedTerm(path, tail=table_tail, tail_charge=table_tail_charge,
+                                        origin=table_origin, r_unit=table_r_unit, v_unit=table_v_unit))
+    if not vector and not scalar:
+        vector = ["coulomb"]
+        values.setdefault("Z", 1.0)
+    return vector, scalar, values
+
+
+def _subset(text, values):
+    from .potentials.expression import parse_expression
+
+    names = parse_expression(text).parameter_names
+    return {k: v for k, v in values.items() if k in names}
+
+
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="boundkit")
 @click.option("-v", "--verbose", count=True, help="More log output (-v info, -vv debug).")
@@ -96,12 +163,7 @@ def main(verbose: int) -> None:
 @main.command("solve")
 @click.option("--equation", "-e", default="dirac", show_default=True,
               help="schrodinger, klein-gordon or dirac.")
-@click.option("--potential", "-p", "potentials", multiple=True,
-              help="Built-in potential term (repeatable; terms add). Default: coulomb.")
-@click.option("--scalar", "scalars", multiple=True,
-              help="Built-in term used as a Lorentz scalar (Dirac, Klein-Gordon; repeatable).")
-@click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
-              help="Potential parameter (repeatable), e.g. --param Z=1.")
+@potential_options
 @click.option("--l", "l", type=int, default=None, help="Orbital l (Schrodinger, Klein-Gordon).")
 @click.option("--kappa", type=int, default=None, help="Dirac kappa (-1 = s1/2, 1 = p1/2, -2 = p3/2, ...).")
 @click.option("--levels", "-n", type=int, default=3, show_default=True, help="Number of lowest levels.")
@@ -112,31 +174,27 @@ def main(verbose: int) -> None:
 @click.option("--particle", default=None, help="electron (default), muon, pion, kaon, proton, antiproton.")
 @click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2 (instead of --particle).")
 @click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass).")
-@click.option("--energy-unit", default="hartree", show_default=True,
-              help="Unit of reported energies: " + ", ".join(ENERGY_UNITS) + ".")
-@click.option("--units", "unit_system", type=click.Choice(["atomic", "nuclear"]), default="atomic",
-              show_default=True, help="Parameters in hartree and bohr, or in MeV and fm.")
+@click.option("--energy-unit", default=None,
+              help="Unit of reported energies: " + ", ".join(ENERGY_UNITS) + " (default hartree; MeV with --units nuclear).")
 @click.option("--cross-check", is_flag=True, help="Also solve with the other discretization family.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
-def solve_cmd(equation, potentials, scalars, params, l, kappa, levels, tol, method, order, particle,
-              mass_mev, nucleus_mass_mev, energy_unit, unit_system, cross_check, as_json):
+def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
+              table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, levels, tol, method, order,
+              particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json):
     """Bound levels of one channel.
 
     Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
     three lowest levels.
     """
-    values = _parse_params(params)
-    if not potentials and not scalars:
-        potentials = ("coulomb",)
-        values.setdefault("Z", 1.0)
     try:
-        if unit_system == "nuclear" and energy_unit == "hartree":
-            energy_unit = "MeV"
-        unit = canonical_unit(energy_unit)
-        res = solve(equation=equation, potential=list(potentials), params=values, l=l, kappa=kappa,
+        unit = canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
+        vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
+                                                 table_tail_charge, table_origin, table_r_unit, table_v_unit,
+                                                 params)
+        res = solve(equation=equation, potential=vector, params=values, l=l, kappa=kappa,
                     levels=levels, tol=tol, method=method, order=order, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
-                    scalar=list(scalars) or None, units=unit_system, cross_check=cross_check)
+                    scalar=scalar or None, units=unit_system, cross_check=cross_check)
     except ValueError as exc:
         _fail(str(exc))
     if as_json:
@@ -150,9 +208,7 @@ def solve_cmd(equation, potentials, scalars, params, l, kappa, levels, tol, meth
 
 @main.command("converge")
 @click.option("--equation", "-e", default="dirac", show_default=True)
-@click.option("--potential", "-p", "potentials", multiple=True)
-@click.option("--scalar", "scalars", multiple=True)
-@click.option("--param", "params", multiple=True, metavar="NAME=VALUE")
+@potential_options
 @click.option("--l", "l", type=int, default=None)
 @click.option("--kappa", type=int, default=None)
 @click.option("--levels", "-n", type=int, default=1, show_default=True)
@@ -161,22 +217,21 @@ def solve_cmd(equation, potentials, scalars, params, l, kappa, levels, tol, meth
 @click.option("--order", type=int, default=8, show_default=True, help="Finite-difference order.")
 @click.option("--particle", default=None)
 @click.option("--mass-mev", type=float, default=None)
-@click.option("--units", "unit_system", type=click.Choice(["atomic", "nuclear"]), default="atomic")
 @click.option("--plot", "plot_path", default=None, help="Write a log-log figure (.png, .svg or .pdf).")
 @click.option("--json", "as_json", is_flag=True)
-def converge_cmd(equation, potentials, scalars, params, l, kappa, levels, method, order, particle, mass_mev,
-                 unit_system, plot_path, as_json):
+def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
+                 table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, levels, method, order,
+                 particle, mass_mev, plot_path, as_json):
     """Energies against resolution for one channel, with the observed order."""
     from .accuracy import converge
 
-    values = _parse_params(params)
-    if not potentials and not scalars:
-        potentials = ("coulomb",)
-        values.setdefault("Z", 1.0)
     methods = ("spectral", "finite-difference") if method == "both" else (method,)
     try:
-        res = converge(equation, list(potentials), values, l=l, kappa=kappa, levels=levels, methods=methods,
-                       order=order, particle=particle, mass_mev=mass_mev, scalar=list(scalars) or None,
+        vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
+                                                 table_tail_charge, table_origin, table_r_unit, table_v_unit,
+                                                 params)
+        res = converge(equation, vector, values, l=l, kappa=kappa, levels=levels, methods=methods,
+                       order=order, particle=particle, mass_mev=mass_mev, scalar=scalar or None,
                        units=unit_system)
         if plot_path:
             from .plots import convergence_figure
@@ -191,6 +246,32 @@ def converge_cmd(equation, potentials, scalars, params, l, kappa, levels, method
         click.echo(res.table())
         if plot_path:
             click.echo(f"figure: {plot_path}")
+
+
+@main.command("potentials")
+@click.argument("name", required=False)
+def potentials_cmd(name):
+    """List the library's model potentials, or show one."""
+    from .potentials.catalog import library_model, library_models
+    from .units import unit_label
+
+    if name is None:
+        for spec in library_models().values():
+            params = ", ".join(spec.parameters)
+            click.echo(f"{spec.name:<16} {spec.description}  [{params}]")
+        return
+    try:
+        spec = library_model(name)
+    except ValueError as exc:
+        _fail(str(exc))
+    click.echo(f"{spec.name}: {spec.description}")
+    click.echo(f"formula: {spec.formula}")
+    click.echo(f"source:  {spec.source}")
+    click.echo("parameters (unit with --units atomic / --units nuclear):")
+    for pname, p in spec.parameters.items():
+        default = f"default {p['default']:g}" if "default" in p else "required"
+        click.echo(f"  {pname:<18} {p['unit']:>16} / {unit_label(p['unit'], 'nuclear'):<14} {default:<16} "
+                   f"{p['description']}")
 
 
 @main.command("validate")

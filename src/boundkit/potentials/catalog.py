@@ -57,6 +57,31 @@ class ModelSpec:
     def defaults(self) -> dict[str, float]:
         return {k: float(v["default"]) for k, v in self.parameters.items() if "default" in v}
 
+    def build(self, params: Mapping[str, float]):
+        """The term this model describes, with the file's defaults under ``params``.
+
+        Returns (term, names of the parameters it took). Parameters are in the
+        file's unit system; a nuclear-units file comes back wrapped to atomic.
+        """
+        from . import TERMS, _make_term
+        from .expression import ExpressionTerm
+
+        values = {**self.defaults, **{k: v for k, v in params.items() if k in self.parameters}}
+        if self.expression is not None:
+            term = ExpressionTerm(self.expression, values)
+            term.label = self.name
+            used = set(term.parameter_names)
+            if self.units == "nuclear":
+                from .base import NuclearUnitsTerm
+                term = NuclearUnitsTerm(term)
+            return term, used
+        if self.term not in TERMS:
+            raise ValueError(f"potential file {self.path}: key 'term': unknown built-in {self.term!r}; "
+                             f"built-ins are {', '.join(sorted(TERMS))}")
+        used: set = set()
+        term = _make_term(self.term, values, used, self.units)
+        return term, used | (set(self.parameters) & set(params))
+
 
 def _line_of(text: str, key: str, table: str | None = None) -> int:
     """1-based line where ``key`` is set (or its table starts); 1 if not found."""
