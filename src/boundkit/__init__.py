@@ -11,6 +11,7 @@ from importlib.metadata import PackageNotFoundError, version
 
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
+from . import exact
 from .solver import make_equation, solve, solve_channel
 
 try:

@@ -173,7 +173,7 @@ def _seed(eq, pot, gamma, r_min, R, levels, lo, hi, tally: _Tally, sizes=_SEED_S
     E_ref = 0.0 if math.isinf(hi) else hi
     found = []
     for size in sizes:
-        grid = cheb.grid(mesh, size)
+        grid = cheb.grid(mesh, size, breaks=pot.breakpoints)
         op = FactorizedOperator(eq, grid, _sample(pot, grid.r), gamma, r_core, E_ref=E_ref)
         A, B = op.pencil(E_ref)
         lam, _ = dense_pencil(A, B)
@@ -254,7 +254,7 @@ def _ladder_from(disc: Discretization, start: int) -> list[int]:
     return [n for n in ladder if n >= start] or ladder[-1:]
 
 
-def _estimate(history: list[float], disc: Discretization) -> float:
+def _estimate(history: list[float], disc: Discretization, order: int | None = None) -> float:
     """Error estimate of the last energy in ``history``.
 
     Finite differences: Richardson, |E_h - E_2h| / (2^order - 1). Spectral:
@@ -270,17 +270,17 @@ def _estimate(history: list[float], disc: Discretization) -> float:
         return math.inf
     d1 = abs(history[-1] - history[-2])
     if disc.order is not None:
-        return max(d1 / (2.0**disc.order - 1), floor)
+        return max(d1 / (2.0 ** (order or disc.order) - 1), floor)
     return max(d1, floor)
 
 
-def _converged(history: list[float], disc: Discretization, tol: float) -> bool:
+def _converged(history: list[float], disc: Discretization, tol: float, order: int | None = None) -> bool:
     """Stop rule: the estimate meets tol; for the spectral family also the
     difference before it (one lucky agreement of two sizes is not enough)."""
     if len(history) < 2:
         return False
     E = abs(history[-1])
-    if _estimate(history, disc) > tol * E:
+    if _estimate(history, disc, order) > tol * E:
         return False
     if disc.order is None:
         return len(history) >= 3 and abs(history[-2] - history[-3]) <= 100 * tol * E
@@ -288,7 +288,7 @@ def _converged(history: list[float], disc: Discretization, tol: float) -> bool:
 
 
 def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi):
-    grid = disc.grid(mesh, size)
+    grid = disc.grid(mesh, size, breaks=pot.breakpoints)
     op = FactorizedOperator(eq, grid, _sample(pot, grid.r), gamma, r_core, E_ref=E_seed)
     A, B = op.pencil(E_seed)
     if grid.dense:
@@ -418,6 +418,9 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
         mesh, _ = ch.mesh(E)
         history, sizes, last = [], [], None
         est = math.inf
+        # finite differences across a kink of the potential converge at second order only
+        kinked = any(mesh.r_min < b < mesh.r_max for b in pot.breakpoints) and not disc.family == "spectral"
+        order = 2 if kinked else None
         for size in _ladder_from(disc, start):
             got = ch.level(k, disc, size, E, mesh)
             if got is None:
@@ -427,8 +430,8 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
             history.append(E)
             sizes.append(size)
             last = (op, ref)
-            est = _estimate(history, disc)
-            if _converged(history, disc, tol):
+            est = _estimate(history, disc, order)
+            if _converged(history, disc, tol, order):
                 break
             if len(history) >= 3 and max(abs(history[-1] - history[-2]),
                                          abs(history[-2] - history[-3])) <= disc.floor * abs(E):

@@ -37,6 +37,10 @@ class Grid:
         Whether D is a dense array (dense eigen solves) or sparse.
     method, size : str, int
         Family name and number of nodes, for the record.
+    interfaces, jumps, jumps_ext : tuple, ndarray
+        Indices of nodes shared by two elements, and for each the difference
+        of the left and right first-derivative rows there (double and
+        extended precision); the operator imposes a continuous derivative.
     """
 
     t: np.ndarray
@@ -50,6 +54,9 @@ class Grid:
     mesh: LogMap
 
     t_ext: Any = None
+    interfaces: tuple = ()
+    jumps: Any = None
+    jumps_ext: Any = None
 
     @property
     def extended(self) -> bool:
@@ -64,8 +71,10 @@ class Discretization:
 
     1. set ``name`` (registry key) and ``family`` (``"spectral"`` or
        ``"finite-difference"``);
-    2. implement ``grid(mesh, size) -> Grid`` with ascending nodes whose first
-       and last nodes are the ends of the map;
+    2. implement ``grid(mesh, size, breaks=()) -> Grid`` with ascending nodes
+       whose first and last nodes are the ends of the map; ``breaks`` are radii
+       where the potential is not smooth (a family may place element
+       boundaries there and report them as ``interfaces``, or ignore them);
     3. implement ``ladder(start)``: the sequence of sizes tried when the
        solver raises the resolution, and ``first``: the size to start from;
     4. set ``order``: the algebraic order of convergence (None for spectral),
@@ -80,7 +89,7 @@ class Discretization:
     first: int = 0
     cap: int = 0
 
-    def grid(self, mesh: LogMap, size: int) -> Grid:  # pragma: no cover - contract
+    def grid(self, mesh: LogMap, size: int, breaks=()) -> Grid:  # pragma: no cover - contract
         raise NotImplementedError
 
     def ladder(self) -> list[int]:  # pragma: no cover - contract

@@ -79,7 +79,8 @@ class FiniteDifference(Discretization):
             n *= 2
         return sizes
 
-    def grid(self, mesh: LogMap, size: int) -> Grid:
+    def grid(self, mesh: LogMap, size: int, breaks=()) -> Grid:
+        """Uniform grid in t (``breaks`` are ignored: the order drops near a kink)."""
         size = check_int("size", size, minimum=4 * self.order)
         t = np.linspace(mesh.t_min, mesh.t_max, size)
         h = t[1] - t[0]

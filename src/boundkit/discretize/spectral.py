@@ -89,22 +89,55 @@ class Chebyshev(Discretization):
             n = int(round(n * 1.25 / 4)) * 4
         return sizes
 
-    def grid(self, mesh: LogMap, size: int) -> Grid:
-        x, D = chebyshev_matrix(size)
+    def grid(self, mesh: LogMap, size: int, breaks=()) -> Grid:
+        """Chebyshev grid; with ``breaks`` inside the mesh, one element per
+        piece (sizes in proportion to their length in t, at least 24 each)."""
         t0, t1 = np.longdouble(mesh.t_min), np.longdouble(mesh.t_max)
-        half = (t1 - t0) / 2
-        t_ext = t0 + (x + 1) * half
-        D_ext = D / half
+        cuts = [np.longdouble(np.log(b)) for b in sorted(breaks)
+                if mesh.r_min * 1.001 < b < mesh.r_max * 0.999]
+        if not cuts:
+            x, D = chebyshev_matrix(size)
+            half = (t1 - t0) / 2
+            t_ext = t0 + (x + 1) * half
+            D_ext = D / half
+            t = t_ext.astype(float)
+            return Grid(t=t, r=np.exp(t), D=D_ext.astype(float), D_ext=D_ext,
+                        w=clenshaw_curtis(size) * float(half), dense=True, method=self.name,
+                        size=size, mesh=mesh, t_ext=t_ext)
+        edges = [t0, *cuts, t1]
+        lengths = np.array([float(b - a) for a, b in zip(edges[:-1], edges[1:])])
+        sizes = np.maximum(24, np.round(size * lengths / lengths.sum() / 2) * 2).astype(int)
+        n_total = int(sizes.sum()) + 1
+        D_ext = np.zeros((n_total, n_total), dtype=np.longdouble)
+        t_ext = np.zeros(n_total, dtype=np.longdouble)
+        w = np.zeros(n_total)
+        interfaces, jumps = [], []
+        start = 0
+        prev = None
+        for (a, b), m in zip(zip(edges[:-1], edges[1:]), sizes):
+            m = int(m)
+            x, D = chebyshev_matrix(m)
+            half = (b - a) / 2
+            Dl = D / half
+            sl = slice(start, start + m + 1)
+            t_ext[sl] = a + (x + 1) * half
+            w[sl] += clenshaw_curtis(m) * float(half)
+            D_ext[sl, sl] = Dl
+            if prev is not None:
+                prev_sl, prev_row = prev
+                jump = np.zeros(n_total, dtype=np.longdouble)
+                jump[prev_sl] = prev_row
+                jump[sl] -= Dl[0]
+                interfaces.append(start)
+                jumps.append(jump)
+                # the shared node's row: the average of the one-sided rows
+                D_ext[start, :] = 0
+                D_ext[start, prev_sl] += prev_row / 2
+                D_ext[start, sl] += Dl[0] / 2
+            prev = (sl, Dl[-1])
+            start += m
         t = t_ext.astype(float)
-        return Grid(
-            t=t,
-            r=np.exp(t),
-            D=D_ext.astype(float),
-            D_ext=D_ext,
-            w=clenshaw_curtis(size) * float(half),
-            dense=True,
-            method=self.name,
-            size=size,
-            mesh=mesh,
-            t_ext=t_ext,
-        )
+        J = np.array(jumps, dtype=np.longdouble)
+        return Grid(t=t, r=np.exp(t), D=D_ext.astype(float), D_ext=D_ext, w=w, dense=True,
+                    method=self.name, size=size, mesh=mesh, t_ext=t_ext,
+                    interfaces=tuple(interfaces), jumps=J.astype(float), jumps_ext=J)

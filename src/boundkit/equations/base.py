@@ -135,25 +135,39 @@ class FactorizedOperator:
         self.a = beta - 1 - eq.kappa_eff
         self.b = beta + eq.kappa_eff
         self.log_w = gamma * (np.log(r) - np.log(r + r_core))
-        self.n = len(grid.t)
+        self.n = n = len(grid.t)
         D = grid.D
         d0 = D[0].toarray().ravel() if sp.issparse(D) else np.asarray(D[0])
-        # inner condition f'(t_min) = s f(t_min): f_0 = sum_j c_j f_j; f_last = 0
+        # eliminated unknowns: f at the first node (inner condition f' = s f) and at element
+        # interfaces (continuous f'); f at the last node is 0; y holds f at the other nodes
         self.inner_slope = self._inner_slope(E_ref, d0)
-        self._c = -d0[1:-1] / (d0[0] - self.inner_slope)
+        self.elim = [0, *grid.interfaces]
+        self.keep = np.array([i for i in range(1, n - 1) if i not in set(grid.interfaces)])
+        self._E = self._elimination(d0, grid.jumps, np.float64)
         # rows are scaled by 1/p(E_ref): near a Coulomb origin the Dirac p goes like r, and
         # unscaled rows there would be tiny next to the others (bad for QZ and LU)
-        self.row_scale = 1.0 / eq.p(E_ref, sample)[1:-1]
-        self.B = sample.r[1:-1] ** 2 * self.row_scale
+        self.row_scale = 1.0 / eq.p(E_ref, sample)[self.keep]
+        self.B = sample.r[self.keep] ** 2 * self.row_scale
         if grid.extended:
             self._ext = sample.cast(np.longdouble)
             rl = self._ext.r
             beta_l = np.longdouble(gamma) * np.longdouble(r_core) / (rl + np.longdouble(r_core))
             self._a_ext = beta_l - 1 - eq.kappa_eff
             self._b_ext = beta_l + eq.kappa_eff
-            dx = grid.D_ext
-            self._c_ext = -dx[0, 1:-1] / (dx[0, 0] - np.longdouble(self.inner_slope))
-            self._scale_ext = 1 / eq.p(np.longdouble(E_ref), self._ext)[1:-1]
+            self._E_ext = self._elimination(grid.D_ext[0], grid.jumps_ext, np.longdouble)
+            self._scale_ext = 1 / eq.p(np.longdouble(E_ref), self._ext)[self.keep]
+
+    def _elimination(self, d0, jumps, dtype):
+        """Matrix giving the eliminated values of f from y (constraint rows solved)."""
+        rows = [np.asarray(d0, dtype=dtype).copy()]
+        rows[0][0] -= dtype(self.inner_slope)
+        if jumps is not None and len(jumps):
+            rows += [np.asarray(j, dtype=dtype) for j in jumps]
+        C = np.array(rows, dtype=dtype)
+        CE, CY = C[:, self.elim], C[:, self.keep]
+        if dtype is np.float64:
+            return -np.linalg.solve(CE, CY)
+        return -_solve_small(CE, CY)
 
     def _inner_slope(self, E: float, d0) -> float:
         """df/dt at t_min for f = 1 + c r near the origin.
@@ -177,11 +191,12 @@ class FactorizedOperator:
         return float(-T1 / Tr * r0)
 
     # -- expansion of the reduced unknowns to all nodes -------------------------
-    def expand(self, y, c=None):
-        c = self._c if c is None else c
-        f = np.zeros(self.n, dtype=np.result_type(y, c))
-        f[1:-1] = y
-        f[0] = c @ y
+    def expand(self, y, elim=None):
+        """f at every node from the reduced unknowns y."""
+        elim = self._E if elim is None else elim
+        f = np.zeros(self.n, dtype=np.result_type(y, elim))
+        f[self.keep] = y
+        f[self.elim] = elim @ y
         return f
 
     def weight(self):
@@ -198,14 +213,14 @@ class FactorizedOperator:
             out = out + s.r**2 * (eq.dq_dE(E, s) - 1) * f
         else:
             out = out + s.r**2 * (eq.q(E, s) - E) * f
-        return out[1:-1]
+        return out[self.keep]
 
     def residual(self, E, y):
         """T(E) y, in extended precision when the grid refines that way."""
         if self.grid.extended:
             El = np.longdouble(E)
             yl = np.asarray(y, dtype=np.longdouble)
-            return self._scale_ext * self._T_full(self.expand(yl, self._c_ext), El, self.grid.D_ext,
+            return self._scale_ext * self._T_full(self.expand(yl, self._E_ext), El, self.grid.D_ext,
                                                   self._ext, self._a_ext, self._b_ext)
         return self.row_scale * self._T_full(self.expand(y), E, self.grid.D, self.sample, self.a, self.b)
 
@@ -220,15 +235,15 @@ class FactorizedOperator:
         n = self.n
         p = eq.p(E, s)
         diag = s.r**2 * (eq.q(E, s) - E)
+        keep, elim = self.keep, self.elim
         if self.grid.dense:
             full = -(D + np.diag(self.a)) @ (p[:, None] * (D + np.diag(self.b))) + np.diag(diag)
-            Tb = full[1:-1, 1:-1] + np.outer(full[1:-1, 0], self._c)
+            Tb = full[np.ix_(keep, keep)] + full[np.ix_(keep, elim)] @ self._E
             return self.row_scale[:, None] * Tb
         full = -(D + sp.diags(self.a)) @ sp.diags(p) @ (D + sp.diags(self.b)) + sp.diags(diag)
-        full = full.tocsc()
-        inner = full[1:-1, 1:-1]
-        corr = sp.csr_matrix(full[1:-1, [0]]) @ sp.csr_matrix(self._c.reshape(1, -1))
-        return (sp.diags(self.row_scale) @ (inner + corr)).tocsr()
+        full = full.tocsr()[keep].tocsc()
+        corr = sp.csr_matrix(full[:, elim]) @ sp.csr_matrix(self._E)
+        return (sp.diags(self.row_scale) @ (full[:, keep] + corr)).tocsr()
 
     def pencil(self, E_ref):
         """(A, B) with A y = lambda B y the fixed-E problem at E_ref."""
@@ -236,3 +251,23 @@ class FactorizedOperator:
         if self.grid.dense:
             return T + E_ref * np.diag(self.B), np.diag(self.B)
         return T + E_ref * sp.diags(self.B), sp.diags(self.B).tocsr()
+
+
+def _solve_small(A, B):
+    """Solve A X = B for a small square A by Gaussian elimination with partial
+    pivoting, in the precision of the arrays (numpy.linalg has no longdouble)."""
+    A = A.copy()
+    X = B.copy()
+    m = A.shape[0]
+    for k in range(m):
+        piv = k + int(np.argmax(np.abs(A[k:, k])))
+        if piv != k:
+            A[[k, piv]] = A[[piv, k]]
+            X[[k, piv]] = X[[piv, k]]
+        for i in range(k + 1, m):
+            factor = A[i, k] / A[k, k]
+            A[i, k:] -= factor * A[k, k:]
+            X[i] -= factor * X[k]
+    for k in range(m - 1, -1, -1):
+        X[k] = (X[k] - A[k, k + 1:] @ X[k + 1:]) / A[k, k]
+    return X

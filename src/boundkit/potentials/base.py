@@ -95,6 +95,12 @@ class Term:
         return 0.0
 
     @property
+    def breakpoints(self) -> tuple[float, ...]:
+        """Radii (bohr) where V or a low derivative jumps; the spectral mesh
+        puts an element boundary there. Empty for smooth terms."""
+        return ()
+
+    @property
     def origin_inverse_square(self) -> float:
         """Coefficient B0 of an inverse-square part of the term at the origin.
 
@@ -197,6 +203,11 @@ class Potential:
         return float(sum(t.origin_charge for t in self.scalar))
 
     @property
+    def breakpoints(self) -> tuple[float, ...]:
+        """Sorted radii where some term is not smooth."""
+        return tuple(sorted({float(b) for t in self.vector + self.scalar for b in t.breakpoints}))
+
+    @property
     def confining(self) -> bool:
         return any(t.far == "confining" for t in self.vector + self.scalar)
 
@@ -253,6 +264,10 @@ class NuclearUnitsTerm(Term):
     @property
     def origin_inverse_square(self) -> float:
         return self.inner.origin_inverse_square * self._v * self._r**2
+
+    @property
+    def breakpoints(self) -> tuple[float, ...]:
+        return tuple(b * self._r for b in self.inner.breakpoints)
 
     @property
     def far(self) -> str:  # type: ignore[override]

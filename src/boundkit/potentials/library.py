@@ -207,6 +207,10 @@ class UniformSphere(Term):
     def tail_charge(self) -> float:
         return self.values["Z"]
 
+    @property
+    def breakpoints(self) -> tuple[float, ...]:
+        return (self.radius,)   # V'' jumps at the surface
+
 
 class Fermi(Term):
     """Potential of the two-parameter Fermi charge density.

@@ -1,0 +1,46 @@
+"""Finite nuclei: element boundaries at the nuclear surface, shifts, two-family agreement."""
+from __future__ import annotations
+
+import pytest
+from scipy.constants import physical_constants
+
+import boundkit
+from boundkit.discretize import Chebyshev
+from boundkit.mesh import LogMap
+
+BOHR_FM = physical_constants["Bohr radius"][0] * 1e15
+
+
+def test_uniform_sphere_gets_an_element_boundary_at_its_surface():
+    pot = boundkit.make_potential("uniform-sphere", {"Z": 82, "rms_fm": 5.5})
+    (R,) = pot.breakpoints
+    grid = Chebyshev().grid(LogMap(1e-9, 1.0), 100, breaks=pot.breakpoints)
+    assert len(grid.interfaces) == 1
+    assert grid.r[grid.interfaces[0]] == pytest.approx(R, rel=1e-13)
+
+
+@pytest.mark.parametrize("n", [1, 2])
+def test_finite_size_shift_matches_leading_order(n):
+    """Schrodinger ns levels of a uniformly charged sphere lie above the point-Coulomb
+    ones by Delta E = (2/3) Z^4 <r^2> / n^3 (hartree, bohr; leading order in Z R:
+    Delta E = (2 pi / 3) Z |psi(0)|^2 <r^2> with |psi_ns(0)|^2 = Z^3 / (pi n^3); common
+    practice, e.g. Eides, Grotch & Shelyuto, Phys. Rep. 342, 63 (2001), from memory).
+    Relative corrections are O(Z R) ~ 1e-4 here."""
+    Z, rms_fm = 10.0, 3.0
+    res = boundkit.solve("schrodinger", "uniform-sphere", {"Z": Z, "rms_fm": rms_fm}, l=0, levels=n)
+    assert res.success, res.message
+    shift = res.levels[n - 1].energy - (-Z * Z / (2 * n * n))    # point value: Bethe & Salpeter (1957)
+    r2 = (rms_fm / BOHR_FM) ** 2
+    assert shift == pytest.approx((2 / 3) * Z**4 * r2 / n**3, rel=2e-3)
+
+
+@pytest.mark.parametrize("term", ["uniform-sphere", "fermi"])
+def test_dirac_finite_nucleus_both_families_agree_within_estimates(term):
+    params = {"Z": 82, "rms_fm": 5.5012}
+    a = boundkit.solve("dirac", term, params, kappa=-1, levels=2)
+    b = boundkit.solve("dirac", term, params, kappa=-1, levels=2, method="finite-difference")
+    assert a.success and b.success, (a.message, b.message)
+    for x, y in zip(a.levels, b.levels):
+        assert abs(x.energy - y.energy) <= 2 * (x.error_estimate + y.error_estimate)
+        # a finite nucleus binds less than a point charge (the field inside is weaker)
+        assert x.energy > boundkit.exact.dirac_coulomb(82, x.n, -1)
