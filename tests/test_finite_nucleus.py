@@ -44,3 +44,23 @@ def test_dirac_finite_nucleus_both_families_agree_within_estimates(term):
         assert abs(x.energy - y.energy) <= 2 * (x.error_estimate + y.error_estimate)
         # a finite nucleus binds less than a point charge (the field inside is weaker)
         assert x.energy > boundkit.exact.dirac_coulomb(82, x.n, -1)
+
+
+@pytest.mark.parametrize("equation, channel", [("schrodinger", {"l": 0}), ("dirac", {"kappa": -1}),
+                                               ("dirac", {"kappa": 1})])
+def test_an_element_boundary_changes_nothing_for_a_smooth_potential(equation, channel):
+    """Coulomb with a needless element boundary at r = 1 bohr must still give the exact
+    levels (Bethe & Salpeter 1957; Sommerfeld-Dirac formula, boundkit.exact)."""
+    from boundkit.potentials.builtin import Coulomb
+
+    class Split(Coulomb):
+        @property
+        def breakpoints(self):
+            return (1.0,)
+
+    res = boundkit.solve(equation, Split(Z=1), levels=3, **channel)
+    assert res.success, res.message
+    for lv in res.levels:
+        exact = (boundkit.exact.schrodinger_coulomb(1, lv.n) if equation == "schrodinger"
+                 else boundkit.exact.dirac_coulomb(1, lv.n, lv.kappa))
+        assert abs(lv.energy - exact) <= 1e-12 * abs(exact)

@@ -48,6 +48,7 @@ log = logging.getLogger(__name__)
 
 _DECAY = 42.0          # e-folds of the radial function kept beyond the turning point
 _INNER = 1e-9          # inner end of the mesh in units of the natural length (see _inner_cut)
+_FINITE_INNER = 1e-5   # inner cut for potentials finite at the origin: f = 1 + O(r^2) there
 _SEED_SIZES = (80, 112)
 
 
@@ -371,7 +372,9 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     # inner end: the Frobenius cut, or further out when a repulsive core keeps every bound level
     # out (WKB decay by e^-_DECAY inward from the inner turning point at the top of the window)
     E_top = hi if math.isfinite(hi) else 2 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5)
-    r_min = max(_inner_cut(gamma, eq.spin == 0.5) * L, _inner_wkb(eq, pot, E_top, L))
+    finite_origin = pot.z_vector == 0 and pot.z_scalar == 0 and pot.origin_inverse_square == 0
+    cut = _FINITE_INNER if finite_origin else _inner_cut(gamma, eq.spin == 0.5)
+    r_min = max(cut * L, _inner_wkb(eq, pot, E_top, L))
     if r_min >= R / 4:
         R = max(R, 8 * r_min)
     tally = _Tally()

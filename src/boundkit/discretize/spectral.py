@@ -91,7 +91,7 @@ class Chebyshev(Discretization):
 
     def grid(self, mesh: LogMap, size: int, breaks=()) -> Grid:
         """Chebyshev grid; with ``breaks`` inside the mesh, one element per
-        piece (sizes in proportion to their length in t, at least 24 each)."""
+        piece (sizes in proportion to their length in t, at least size/2 each)."""
         t0, t1 = np.longdouble(mesh.t_min), np.longdouble(mesh.t_max)
         cuts = [np.longdouble(np.log(b)) for b in sorted(breaks)
                 if mesh.r_min * 1.001 < b < mesh.r_max * 0.999]
@@ -106,7 +106,9 @@ class Chebyshev(Discretization):
                         size=size, mesh=mesh, t_ext=t_ext)
         edges = [t0, *cuts, t1]
         lengths = np.array([float(b - a) for a, b in zip(edges[:-1], edges[1:])])
-        sizes = np.maximum(24, np.round(size * lengths / lengths.sum() / 2) * 2).astype(int)
+        # every element gets at least half the nodes: the pieces near the ends carry the
+        # fast changes (origin, far tail) even when they are short in t
+        sizes = np.maximum(size // 2, np.round(size * lengths / lengths.sum() / 2) * 2).astype(int)
         n_total = int(sizes.sum()) + 1
         D_ext = np.zeros((n_total, n_total), dtype=np.longdouble)
         t_ext = np.zeros(n_total, dtype=np.longdouble)

@@ -96,8 +96,9 @@ class Term:
 
     @property
     def breakpoints(self) -> tuple[float, ...]:
-        """Radii (bohr) where V or a low derivative jumps; the spectral mesh
-        puts an element boundary there. Empty for smooth terms."""
+        """Radii (bohr) where V or a low derivative jumps, or where V changes
+        over a short length; the spectral mesh puts an element boundary there.
+        Empty for smooth, featureless terms."""
         return ()
 
     @property

@@ -505,6 +505,12 @@ class WoodsSaxon(Term):
                 "leave spin_orbit at 0"
             )
 
+    @property
+    def breakpoints(self) -> tuple[float, ...]:
+        # smooth, but it changes over a few diffuseness lengths around R: an element
+        # boundary there puts the spectral nodes where the well's edge is
+        return (self.values["radius"],)
+
     def _evaluate(self, r):
         r = np.asarray(r, dtype=float)
         v = self.values
