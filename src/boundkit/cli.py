@@ -178,9 +178,11 @@ def main(verbose: int) -> None:
               help="Unit of reported energies: " + ", ".join(ENERGY_UNITS) + " (default hartree; MeV with --units nuclear).")
 @click.option("--cross-check", is_flag=True, help="Also solve with the other discretization family.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@click.option("--plot", "plot_path", default=None, metavar="FILE",
+              help="Also draw the radial functions of the levels (.png, .svg or .pdf).")
 def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
               table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, levels, tol, method, order,
-              particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json):
+              particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json, plot_path):
     """Bound levels of one channel.
 
     Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
@@ -195,6 +197,10 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
                     levels=levels, tol=tol, method=method, order=order, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
                     scalar=scalar or None, units=unit_system, cross_check=cross_check)
+        if plot_path and res.levels:
+            from .plots import radial_figure
+            radial_figure(res.levels, plot_path, length_unit="fm" if unit_system == "nuclear" else "bohr",
+                          title=f"{res.equation}: {res.potential}")
     except ValueError as exc:
         _fail(str(exc))
     if as_json:
@@ -293,6 +299,8 @@ def validate_cmd(quick, method, as_json):
     if not all(r["passed"] for r in rows):
         sys.exit(1)
 
+
+from . import cli_run  # noqa: E402,F401  (registers `boundkit run`)
 
 if __name__ == "__main__":  # pragma: no cover
     main()

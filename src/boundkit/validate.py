@@ -70,6 +70,15 @@ def catalogue(quick: bool = False) -> list[Case]:
                       tuple(({"kappa": k}, 2 if quick else 3) for k in ((1,) if quick else (-1, 1, -2, 2, -3))),
                       lambda lv: exact.dirac_spin_symmetric_oscillator(k_sv, lv.nodes, lv.l),
                       exact.SOURCES["dirac_spin_symmetric_oscillator"], scalar="oscillator"))
+    cases.append(Case("Hulthen Z=1 delta=0.1", "schrodinger", "hulthen", {"Z": 1.0, "delta": 0.1},
+                      (({"l": 0}, 2 if quick else 3),),
+                      lambda lv: exact.hulthen(1.0, 0.1, lv.n), exact.SOURCES["hulthen"]))
+    if not quick:
+        cases.append(Case("Kratzer A=1 B=0.3", "schrodinger", "kratzer", {"A": 1.0, "B": 0.3},
+                          tuple(({"l": l}, 3) for l in range(3)),
+                          lambda lv: exact.kratzer(1.0, 0.3, lv.nodes, lv.l), exact.SOURCES["kratzer"]))
+        cases.append(Case("linear F=0.7", "schrodinger", "linear", {"F": 0.7}, (({"l": 0}, 4),),
+                          lambda lv: exact.linear(0.7, lv.nodes + 1), exact.SOURCES["linear"]))
     return cases
 
 
@@ -93,7 +102,7 @@ def _measured_order(case: Case, method: str) -> float | str:
         if got is None:
             continue
         E = got[1].energy
-        lv = _Probe(n=eq.l + 1, l=eq.l, kappa=eq.kappa, nodes=0)
+        lv = _Probe(n=eq.l + 1, l=eq.l, kappa=eq.kappa, nodes=0, energy=E)
         ex = case.exact(lv)
         sizes.append(size)
         errs.append(abs(E - ex) / abs(ex))
@@ -106,6 +115,7 @@ class _Probe:
     l: int
     kappa: int | None
     nodes: int
+    energy: float
 
 
 def run_validation(quick: bool = False, methods=("spectral", "finite-difference")) -> list[dict]:

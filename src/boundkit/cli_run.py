@@ -1,0 +1,50 @@
+"""``boundkit run SPEC.toml``: run a study described in a run spec file.
+
+The spec format is documented in :mod:`boundkit.runspec` and docs/runspec.md.
+Exit codes: 0 everything as asked; 2 bad spec or output folder in the way (one
+message, nothing written); 3 the run finished but some levels were not found,
+a tolerance was not met or a study failed (the output is written and
+report.md lists what went wrong).
+"""
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+from .cli import EXIT_NOT_CONVERGED, _fail, main
+
+__all__ = ["run_cmd"]
+
+
+@main.command("run")
+@click.argument("spec_path", metavar="SPEC.toml", type=click.Path(dir_okay=False))
+@click.option("--out", "out_dir", default=None, type=click.Path(file_okay=False),
+              help="Output folder (default: out/<spec file name without .toml>).")
+@click.option("--force", is_flag=True, help="Replace the output folder of an earlier run.")
+def run_cmd(spec_path: str, out_dir: str | None, force: bool) -> None:
+    """Run the studies of a run spec and write results.json, tables, figures and report.md."""
+    from .runspec import load_spec, run
+
+    try:
+        spec = load_spec(spec_path)
+    except ValueError as exc:
+        _fail(str(exc))
+    target = Path(out_dir) if out_dir else Path("out") / spec.name
+    try:
+        report = run(spec, target, force=force)
+    except FileExistsError as exc:
+        _fail(str(exc))
+    except ValueError as exc:
+        _fail(str(exc))
+    click.echo(f"{spec.title}")
+    for line in report.headline:
+        click.echo(f"  {line}")
+    click.echo(f"wrote {len(report.files)} files to {report.out_dir} in {report.seconds:.1f} s "
+               f"(see {report.out_dir / 'report.md'})")
+    if report.problems:
+        for p in report.problems:
+            click.echo(f"boundkit: problem: {p}", err=True)
+        sys.exit(EXIT_NOT_CONVERGED)
+

@@ -1,0 +1,110 @@
+"""Tolerance control, honest error estimates, convergence study, cross-check, validator."""
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+import boundkit
+from boundkit import exact
+from boundkit.accuracy import converge, observed_order
+from boundkit.cli import main
+from boundkit.validate import catalogue
+
+
+@pytest.mark.parametrize("order", [4, 6, 8])
+def test_finite_difference_order_is_the_order_asked(order):
+    """Hydrogen-like Dirac 1s1/2 (Z = 10): log-log slope of the error against the number of
+    nodes, errors taken against the Sommerfeld-Dirac value (boundkit.exact, Bethe & Salpeter 1957)."""
+    res = converge("dirac", "coulomb", {"Z": 10}, kappa=-1, methods=("finite-difference",), order=order,
+                   sizes={"finite-difference": (150, 212, 300, 424, 600)})
+    ref = exact.dirac_coulomb(10, 1, -1)
+    rows = [r for r in res.rows if r["method"] == "finite-difference"]
+    errs = [abs(r["energy"] - ref) / abs(ref) for r in rows]
+    slope = observed_order([r["size"] for r in rows], errs)
+    assert abs(slope - order) < 0.6, (order, slope, errs)
+
+
+def test_spectral_convergence_is_faster_than_any_power():
+    """The error falls geometrically with the number of nodes: log(error) is closer to a
+    straight line in N than in log N, and the algebraic slope is far above any FD order."""
+    res = converge("dirac", "coulomb", {"Z": 10}, kappa=1, methods=("spectral",),
+                   sizes={"spectral": (64, 72, 80, 88, 96)})
+    rows = [r for r in res.rows if r["error"] > 1e-14]
+    n = np.array([r["size"] for r in rows], float)
+    le = np.log([r["error"] for r in rows])
+    assert len(rows) >= 4
+    resid_exp = np.polyfit(n, le, 1, full=True)[1][0]
+    resid_pow = np.polyfit(np.log(n), le, 1, full=True)[1][0]
+    assert resid_exp < resid_pow
+    assert res.orders[("spectral", "2p1/2")] > 20
+    assert min(r["error"] for r in res.rows) < 1e-13
+
+
+@pytest.mark.parametrize("tol", [1e-6, 1e-9, 1e-12])
+def test_tolerance_is_met_and_estimates_are_honest(tol):
+    """A representative part of the exact catalogue (boundkit.validate; the whole one runs in
+    `boundkit validate` and the slow test below): true relative error <= tol and
+    error_estimate >= true error / 2."""
+    cases = [c for c in catalogue(quick=True)]
+    for case in cases:
+        for channel, levels in case.channels:
+            res = boundkit.solve(case.equation, case.potential, case.params, levels=levels, tol=tol,
+                                 scalar=case.scalar, **channel)
+            assert res.success, res.message
+            for lv in res.levels:
+                err = abs(lv.energy - case.exact(lv))
+                assert err <= tol * abs(lv.energy), (case.name, lv.label, err)
+                assert lv.error_estimate >= err / 2, (case.name, lv.label, err, lv.error_estimate)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("method, tol", [("spectral", 1e-6), ("spectral", 1e-9), ("spectral", 1e-12),
+                                         ("finite-difference", 1e-6), ("finite-difference", 1e-9)])
+def test_whole_catalogue_tolerances(method, tol):
+    for case in catalogue(quick=False):
+        for channel, levels in case.channels:
+            res = boundkit.solve(case.equation, case.potential, case.params, levels=levels, tol=tol,
+                                 method=method, scalar=case.scalar, **channel)
+            for lv in res.levels:
+                err = abs(lv.energy - case.exact(lv))
+                assert err <= tol * abs(lv.energy), (case.name, lv.label, err)
+                assert lv.error_estimate >= err / 2, (case.name, lv.label, err, lv.error_estimate)
+
+
+def test_unreachable_tolerance_is_reported():
+    res = boundkit.solve("dirac", "coulomb", {"Z": 1}, kappa=-1, tol=1e-16)
+    assert not res.success
+    assert res.status == "tolerance-not-met"
+    assert "rounding floor" in res.message
+    assert len(res.levels) == 1                 # the best estimate is still there
+
+
+def test_cross_check_reports_agreement_beside_estimates():
+    res = boundkit.solve("dirac", "coulomb", {"Z": 20}, kappa=-1, levels=2, cross_check=True)
+    rows = res.diagnostics["cross_check"]
+    assert [r["label"] for r in rows] == ["1s1/2", "2s1/2"]
+    for r in rows:
+        assert r["other_method"] == "finite-difference"
+        assert r["difference"] <= 2 * (r["error_estimate"] + r["other_error_estimate"])
+
+
+def test_converge_cli_writes_a_figure(tmp_path):
+    fig = tmp_path / "conv.svg"
+    out = CliRunner().invoke(main, ["converge", "--param", "Z=1", "--kappa", "-1", "--plot", str(fig)])
+    assert out.exit_code == 0, out.output
+    assert "observed order finite-difference" in out.output
+    assert fig.exists() and fig.read_text().lstrip().startswith("<?xml")
+
+
+def test_validate_quick_passes_and_speaks_json():
+    out = CliRunner().invoke(main, ["validate", "--quick", "--json"])
+    assert out.exit_code == 0, out.output
+    data = json.loads(out.output)
+    assert data["passed"] is True
+    assert {r["method"] for r in data["cases"]} == {"spectral", "finite-difference"}
+    assert all(r["source"] for r in data["cases"])
+    orders = [r["observed_order"] for r in data["cases"] if r["method"] == "finite-difference"]
+    assert all(abs(o - 8) < 1 for o in orders)
