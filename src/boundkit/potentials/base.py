@@ -8,6 +8,8 @@ equations). All values are in atomic units: r in bohr, V in hartree.
 """
 from __future__ import annotations
 
+import logging
+
 from dataclasses import dataclass, field
 from typing import Callable, ClassVar, Mapping
 
@@ -15,7 +17,9 @@ import numpy as np
 
 from .._checks import check_finite
 
-__all__ = ["Parameter", "Term", "Potential", "CallableTerm"]
+log = logging.getLogger(__name__)
+
+__all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "NuclearUnitsTerm"]
 
 
 @dataclass(frozen=True, slots=True)
@@ -116,45 +120,49 @@ class Term:
         return f"{type(self).__name__}({args})"
 
 
-class CallableTerm(Term):
-    """A term from a user's Python callable ``V(r)`` (r in bohr, V in hartree).
+class ProbedTerm(Term):
+    """A term whose ends are found by probing it numerically (callables, expressions).
 
-    Its behaviour at the ends is probed numerically: Z0 from ``-r V(r)`` at
-    very small r (accepted as Coulomb-like when it is steady over two decades),
-    and the far side from V at large r.
+    Notes
+    -----
+    Z0 = -r V(r) at r = 1e-12..1e-10 bohr when that is steady (to 1e-6) and not
+    negligible, else 0; far out, V growing beyond 1e3 hartree over
+    r = 1e3..1e5 bohr means a confining term, otherwise the tail charge is
+    -r V(r) at r = 1e5 bohr (0 when below 1e-6). When a probe value is not
+    finite (a pole there), the probe is repeated once at radii 4.7 % larger;
+    values still not finite count as "no Coulomb behaviour" (origin) or
+    V -> 0 (far side, with a warning).
     """
 
-    name = "callable"
-    formula = "user function V(r)"
-    source = "user"
+    label: str = "term"
 
-    def __init__(self, func: Callable, label: str | None = None) -> None:
-        if not callable(func):
-            raise ValueError("potential: expected a built-in name or a callable V(r)")
-        self.func = func
-        self.label = label or getattr(func, "__name__", "callable")
-        self.values = {}
-        r_small = np.array([1e-12, 1e-11, 1e-10])
-        v = self._evaluate(r_small)
+    def _finite_probe(self, radii: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """V at ``radii``; if any value is not finite, once more at radii shifted by 4.7 %."""
+        for r in (radii, radii * 1.047):
+            with np.errstate(all="ignore"):
+                v = self._evaluate(r)
+            if np.all(np.isfinite(v)):
+                break
+        return r, v
+
+    def _probe(self) -> None:
+        r_small, v = self._finite_probe(np.array([1e-12, 1e-11, 1e-10]))
         rv = -r_small * v
         if np.all(np.isfinite(rv)) and abs(rv[0] - rv[2]) <= 1e-6 * max(1.0, abs(rv[0])) and abs(rv[0]) > 1e-8:
             self._z0 = float(rv[0])
         else:
             self._z0 = 0.0
-        r_big = np.array([1e3, 1e4, 1e5])
-        vb = self._evaluate(r_big)
-        if vb[2] > 1e3 and vb[2] > vb[1] > vb[0]:
-            self._far = "confining"
-            self._zinf = 0.0
+            if not np.all(np.isfinite(rv)):
+                log.info("%s: not finite near r = 0; treated as not Coulomb-like there", self.label)
+        r_big, vb = self._finite_probe(np.array([1e3, 1e4, 1e5]))
+        if not np.all(np.isfinite(vb)):
+            log.warning("%s: not finite at r = 1e3..1e5 bohr; far behaviour taken as V -> 0", self.label)
+            self._far, self._zinf = "zero", 0.0
+        elif vb[2] > 1e3 and vb[2] > vb[1] > vb[0]:
+            self._far, self._zinf = "confining", 0.0
         else:
             self._far = "zero"
             self._zinf = float(-r_big[2] * vb[2]) if abs(r_big[2] * vb[2]) > 1e-6 else 0.0
-
-    def _evaluate(self, r: np.ndarray) -> np.ndarray:
-        out = np.asarray(self.func(r), dtype=float)
-        if out.shape != np.shape(r):
-            out = np.broadcast_to(out, np.shape(r)).astype(float)
-        return out
 
     @property
     def origin_charge(self) -> float:
@@ -167,6 +175,29 @@ class CallableTerm(Term):
     @property
     def far(self) -> str:  # type: ignore[override]
         return self._far
+
+
+class CallableTerm(ProbedTerm):
+    """A term from a user's Python callable ``V(r)`` (r in bohr, V in hartree),
+    its ends probed numerically (see :class:`ProbedTerm`)."""
+
+    name = "callable"
+    formula = "user function V(r)"
+    source = "user"
+
+    def __init__(self, func: Callable, label: str | None = None) -> None:
+        if not callable(func):
+            raise ValueError("potential: expected a built-in name or a callable V(r)")
+        self.func = func
+        self.label = label or getattr(func, "__name__", "callable")
+        self.values = {}
+        self._probe()
+
+    def _evaluate(self, r: np.ndarray) -> np.ndarray:
+        out = np.asarray(self.func(r), dtype=float)
+        if out.shape != np.shape(r):
+            out = np.broadcast_to(out, np.shape(r)).astype(float)
+        return out
 
     def __repr__(self) -> str:
         return f"CallableTerm({self.label})"

@@ -42,7 +42,7 @@ import numpy as np
 import scipy.special
 
 from .._checks import check_finite
-from .base import Parameter, Term
+from .base import Parameter, ProbedTerm
 
 __all__ = ["CompiledExpression", "parse_expression", "ExpressionTerm", "FUNCTIONS", "CONSTANTS",
            "MAX_LENGTH", "MAX_DEPTH", "MAX_EXPONENT"]
@@ -528,7 +528,7 @@ def parse_expression(text: str) -> CompiledExpression:
                               _tree=compiled)
 
 
-class ExpressionTerm(Term):
+class ExpressionTerm(ProbedTerm):
     """A potential term given by an expression in r and named parameters.
 
     Parameters
@@ -543,15 +543,9 @@ class ExpressionTerm(Term):
 
     Notes
     -----
-    The ends are probed numerically, as for a Python callable: the charge at
-    the origin is Z0 = -r V(r) when that is steady (to 1e-6) over
-    r = 1e-12..1e-10 bohr and not negligible, else 0; far out, V growing
-    beyond 1e3 hartree over r = 1e3..1e5 bohr means a confining term,
-    otherwise the tail charge is -r V(r) at r = 1e5 bohr (0 when below 1e-6).
-    When a value at a probe point is not finite (a pole there), the probes
-    are repeated once at radii 4.7 % larger; values still not finite count as
-    "no Coulomb behaviour" (origin) or V -> 0 (far side, with a warning).
-    Non-finite values on the solver's grid are refused by the solver.
+    The ends are probed numerically, as for a Python callable (see
+    :class:`boundkit.potentials.base.ProbedTerm`). Non-finite values on the
+    solver's grid are refused by the solver.
     """
 
     name = "expr"
@@ -576,47 +570,6 @@ class ExpressionTerm(Term):
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
         return self.compiled.evaluate(r, self.values)
-
-    def _finite_probe(self, radii: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """V at ``radii``; if any value is not finite, once more at radii shifted by 4.7 %."""
-        for r in (radii, radii * 1.047):
-            with np.errstate(all="ignore"):
-                v = self._evaluate(r)
-            if np.all(np.isfinite(v)):
-                break
-        return r, v
-
-    def _probe(self) -> None:
-        r_small, v = self._finite_probe(np.array([1e-12, 1e-11, 1e-10]))
-        rv = -r_small * v
-        if np.all(np.isfinite(rv)) and abs(rv[0] - rv[2]) <= 1e-6 * max(1.0, abs(rv[0])) and abs(rv[0]) > 1e-8:
-            self._z0 = float(rv[0])
-        else:
-            self._z0 = 0.0
-            if not np.all(np.isfinite(rv)):
-                log.info("expression %r: not finite near r = 0; treated as not Coulomb-like there", self.label)
-        r_big, vb = self._finite_probe(np.array([1e3, 1e4, 1e5]))
-        if not np.all(np.isfinite(vb)):
-            log.warning("expression %r: not finite at r = 1e3..1e5 bohr; far behaviour taken as V -> 0",
-                        self.label)
-            self._far, self._zinf = "zero", 0.0
-        elif vb[2] > 1e3 and vb[2] > vb[1] > vb[0]:
-            self._far, self._zinf = "confining", 0.0
-        else:
-            self._far = "zero"
-            self._zinf = float(-r_big[2] * vb[2]) if abs(r_big[2] * vb[2]) > 1e-6 else 0.0
-
-    @property
-    def origin_charge(self) -> float:
-        return self._z0
-
-    @property
-    def tail_charge(self) -> float:
-        return self._zinf
-
-    @property
-    def far(self) -> str:  # type: ignore[override]
-        return self._far
 
     def __repr__(self) -> str:
         args = "".join(f", {k}={v:g}" for k, v in self.values.items())
