@@ -252,7 +252,8 @@ class Case:
     """One solver call of the catalogue (hashable, so solves can be cached).
 
     ``channel`` is kappa for the Dirac equation and l otherwise; ``params`` is
-    a tuple of (name, value) pairs.
+    a tuple of (name, value) pairs; ``order`` is the finite-difference order
+    (None: the package default).
     """
 
     equation: str
@@ -262,11 +263,13 @@ class Case:
     levels: int
     method: str = "auto"
     scalar: str | None = None
+    order: int | None = None
 
     def kwargs(self) -> dict:
         key = "kappa" if self.equation == "dirac" else "l"
         return dict(equation=self.equation, potential=self.potential, params=dict(self.params),
-                    levels=self.levels, method=self.method, scalar=self.scalar, **{key: self.channel})
+                    levels=self.levels, method=self.method, scalar=self.scalar, order=self.order,
+                    **{key: self.channel})
 
     @property
     def l(self) -> int:

@@ -9,7 +9,11 @@ Tolerances (relative error of the binding energy):
 
 * default settings (``method="auto"``, the spectral family): 1e-12, except
   the spin-symmetric Dirac oscillator (1e-10, as specified for that case);
-* ``method="finite-difference"`` (default order 8): 1e-9.
+* ``method="finite-difference"`` (default order 8, and 6, 10, 12 in the
+  slow run): 1e-9.
+
+The default run holds the acceptance catalogue; ``-m slow`` adds more
+nuclear charges and the other finite-difference orders.
 """
 from __future__ import annotations
 
@@ -19,6 +23,8 @@ from dataclasses import dataclass
 
 import mpmath
 import pytest
+
+import boundkit
 
 from exact import (ALPHA, Case, dirac_coulomb, dirac_coulomb_mp, dirac_spin_symmetric_oscillator,
                    kappa_to_l, klein_gordon_coulomb, klein_gordon_coulomb_mp, oscillator,
@@ -31,6 +37,8 @@ TOL = {AUTO: 1e-12, FD: 1e-9}
 
 DIRAC_Z = (1, 10, 50, 92)
 DIRAC_KAPPAS = tuple(k for k in range(-5, 5) if k != 0)
+DIRAC_Z_MORE = (20, 40, 60, 80, 100, 118)
+FD_ORDERS_MORE = (6, 10, 12)
 KG_Z = (1, 40)
 SCHRODINGER_Z = (1, 26)
 OSC_K = 1.0                      # hartree/bohr^2: omega = 1 hartree for the electron
@@ -56,10 +64,13 @@ class Entry:
         ch = f"kappa{c.channel}" if c.equation == "dirac" else f"l{c.channel}"
         par = "-".join(f"{k}{v:g}" for k, v in c.params)
         extra = f"-scalar_{c.scalar}" if c.scalar else ""
-        return f"{c.equation}-{c.potential}{extra}-{par}-{ch}-{'spectral' if c.method == AUTO else 'fd'}"
+        meth = "spectral" if c.method == AUTO else "fd" + (str(c.order) if c.order else "")
+        return f"{c.equation}-{c.potential}{extra}-{par}-{ch}-{meth}"
 
 
 def _dirac_coulomb():
+    """The acceptance catalogue (default run; the finite-difference half takes
+    about 15 s, under the 30 s at which it would move to the slow run)."""
     for method, Z, kappa in itertools.product(METHODS, DIRAC_Z, DIRAC_KAPPAS):
         l = kappa_to_l(kappa)
         levels = 5 - l                              # n = l+1 .. 5
@@ -67,8 +78,27 @@ def _dirac_coulomb():
             continue
         n = tuple(range(l + 1, 6))
         case = Case("dirac", "coulomb", (("Z", Z),), kappa, levels, method)
-        slow = method == FD and Z in (10, 50)
-        yield Entry(case, tuple(dirac_coulomb(Z, k, kappa) for k in n), n, TOL[method]), slow
+        yield Entry(case, tuple(dirac_coulomb(Z, k, kappa) for k in n), n, TOL[method]), False
+
+
+def _dirac_coulomb_more_charges():
+    """Slow run: more nuclear charges, up to Z alpha = 0.86."""
+    for method, Z, kappa in itertools.product(METHODS, DIRAC_Z_MORE, DIRAC_KAPPAS):
+        l = kappa_to_l(kappa)
+        n = tuple(range(l + 1, 6))
+        if not n:
+            continue
+        case = Case("dirac", "coulomb", (("Z", Z),), kappa, len(n), method)
+        yield Entry(case, tuple(dirac_coulomb(Z, k, kappa) for k in n), n, TOL[method]), True
+
+
+def _dirac_coulomb_fd_orders():
+    """Slow run: the other finite-difference orders reach the same 1e-9."""
+    for order, Z, kappa in itertools.product(FD_ORDERS_MORE, (1, 92), (-1, 1, -2)):
+        l = kappa_to_l(kappa)
+        n = tuple(range(l + 1, l + 4))
+        case = Case("dirac", "coulomb", (("Z", Z),), kappa, 3, FD, order=order)
+        yield Entry(case, tuple(dirac_coulomb(Z, k, kappa) for k in n), n, TOL[FD]), True
 
 
 def _klein_gordon_coulomb():
@@ -82,8 +112,7 @@ def _schrodinger_coulomb():
     for method, Z, l in itertools.product(METHODS, SCHRODINGER_Z, range(6)):
         n = tuple(range(l + 1, 7))
         case = Case("schrodinger", "coulomb", (("Z", Z),), l, len(n), method)
-        slow = method == FD and Z != 1
-        yield Entry(case, tuple(schrodinger_coulomb(Z, k) for k in n), n, TOL[method]), slow
+        yield Entry(case, tuple(schrodinger_coulomb(Z, k) for k in n), n, TOL[method]), False
 
 
 def _oscillator():
@@ -102,6 +131,8 @@ def _spin_symmetric_oscillator():
 
 CATALOGUES = {
     "dirac-coulomb": _dirac_coulomb,
+    "dirac-coulomb-more-charges": _dirac_coulomb_more_charges,
+    "dirac-coulomb-fd-orders": _dirac_coulomb_fd_orders,
     "klein-gordon-coulomb": _klein_gordon_coulomb,
     "schrodinger-coulomb": _schrodinger_coulomb,
     "oscillator": _oscillator,
@@ -155,24 +186,28 @@ def test_klein_gordon_formula_without_cancellation_matches_textbook_form(Z):
 
 
 def test_textbook_forms_lose_digits_in_double_precision():
-    """Why the formulas are rewritten: the textbook Dirac form in double
-    precision is off by far more than 1e-14 for hydrogen (common practice:
-    cancellation in m c^2 (x - 1) with x = 1 - O(alpha^2))."""
+    """Why the formulas are rewritten: the textbook Dirac form evaluated in
+    double precision misses hydrogen levels by far more than 1e-14 (common
+    practice: cancellation in m c^2 (x - 1) with x = 1 - O(alpha^2)), while
+    the rewritten form does not."""
     mc2 = 1.0 / ALPHA**2
-    g = math.sqrt(1.0 - ALPHA**2)
-    naive = mc2 * ((1.0 + (ALPHA / g) ** 2) ** -0.5 - 1.0)
-    ref = dirac_coulomb_mp(1, 1, -1)
-    assert float(abs((naive - ref) / ref)) > 1e-13
-    assert float(abs((dirac_coulomb(1, 1, -1) - ref) / ref)) <= 1e-15
+    naive_worst = ours_worst = 0.0
+    for n, kappa in ((1, -1), (2, -1), (2, 1), (2, -2), (3, -1), (3, 2), (4, -4), (5, -3)):
+        n_r = n - abs(kappa)
+        g = math.sqrt(kappa * kappa - ALPHA**2)
+        naive = mc2 * ((1.0 + (ALPHA / (n_r + g)) ** 2) ** -0.5 - 1.0)
+        ref = dirac_coulomb_mp(1, n, kappa)
+        naive_worst = max(naive_worst, float(abs((naive - ref) / ref)))
+        ours_worst = max(ours_worst, float(abs((dirac_coulomb(1, n, kappa) - ref) / ref)))
+    assert naive_worst > 1e-13
+    assert ours_worst <= 1e-15
 
 
 @pytest.mark.parametrize("k", (1e-2, 2e6, 1e9))
 def test_spin_symmetric_oscillator_helper(k):
     """The brentq root of eps sqrt((eps + 2mc^2)/(2mc^2)) = omega N (derived in
     exact.dirac_spin_symmetric_oscillator) agrees with an independent 40-digit
-    mpmath root of the equivalent polynomial eps^2 (eps + 2mc^2) = 2mc^2 (omega N)^2,
-    and tends to the Schrodinger value omega N for omega << mc^2 (common practice:
-    non-relativistic limit)."""
+    mpmath root of the equivalent cubic eps^2 (eps + 2mc^2) = 2mc^2 (omega N)^2."""
     mc2 = 1.0 / ALPHA**2
     omega = math.sqrt(2.0 * k)
     for nr, l in itertools.product(range(3), range(3)):
@@ -183,10 +218,22 @@ def test_spin_symmetric_oscillator_helper(k):
             t = mpmath.mpf(omega) * N
             ref = mpmath.findroot(lambda e: e * e * (e + m2) - m2 * t * t, t)
         assert abs(eps - float(ref)) <= 2e-15 * float(ref)
-        x = omega * N / mc2
-        if x < 1e-6:
-            # eps = omega N (1 - x/4 + O(x^2))
-            assert abs(eps / (omega * N) - (1 - x / 4)) <= x * x
+
+
+def test_spin_symmetric_oscillator_non_relativistic_limit():
+    """For omega N << mc^2 the root tends to the Schrodinger value omega N of
+    S + V = k r^2 (omega = sqrt(2k/m)): expanding the condition gives
+    eps = omega N (1 - x/4 + O(x^2)), x = omega N / (m c^2) (common practice:
+    first-order expansion)."""
+    mc2 = 1.0 / ALPHA**2
+    k = 1e-2
+    omega = math.sqrt(2.0 * k)
+    for nr, l in itertools.product(range(3), range(3)):
+        N = 2 * nr + l + 1.5
+        x = omega * N / mc2                      # 1e-5 .. 6e-5 here
+        eps = dirac_spin_symmetric_oscillator(k, nr, l)
+        assert abs(eps / (omega * N) - (1 - x / 4)) <= x * x
+        assert abs(eps / (omega * N) - 1) > x / 8   # the correction is really there
 
 
 # ---------------------------------------------------------------------------
@@ -243,3 +290,34 @@ def test_spin_symmetric_doublets_are_degenerate(l, method):
         assert _rel(x.energy, y.energy) <= tol      # ... at one energy
         omega_n = math.sqrt(2 * SV_K) * (2 * nr + l + 1.5)
         assert x.energy < 0.95 * omega_n            # relativistic shifts of 5 % and more here
+
+
+# ---------------------------------------------------------------------------
+# beyond the catalogue: near-critical point charges (gamma -> 0)
+# ---------------------------------------------------------------------------
+
+_FD_LIMIT = pytest.mark.xfail(
+    strict=True, reason="known limit: with Z alpha > ~0.96 the finite-difference family misses the 1s1/2 "
+                        "of a point charge (the inner cut stops at 1e-11 natural lengths); it says so "
+                        "(status 'partial'), and the spectral family covers these charges")
+NEAR_CRITICAL = [(132, FD, 1, _FD_LIMIT), (132, AUTO, 2, ()), (135, AUTO, 2, ()), (135, FD, 2, _FD_LIMIT),
+                 (137, AUTO, 1, ()), (137, FD, 2, _FD_LIMIT)]
+
+
+@pytest.mark.parametrize("Z, method, levels",
+                         [pytest.param(Z, m, n, marks=mk, id=f"Z{Z}-{'spectral' if m == AUTO else 'fd'}-levels{n}")
+                          for Z, m, n, mk in NEAR_CRITICAL])
+def test_near_critical_dirac_coulomb(Z, method, levels):
+    """Z alpha -> 1 for s1/2 (gamma = sqrt(1 - (Z alpha)^2) = 0.36, 0.17, 0.023
+    for Z = 132, 135, 137). The point-charge check accepts these charges, so
+    the solver must find every requested level (they exist: exact.dirac_coulomb,
+    Bethe & Salpeter 1957, eq. 14.29) and must not claim more accuracy than
+    it has: |E - E_exact| <= 2 * error_estimate. Missing tol is allowed here
+    when said so (status 'tolerance-not-met'); a silent miss is not."""
+    res = boundkit.solve("dirac", "coulomb", {"Z": Z}, kappa=-1, levels=levels, method=method)
+    assert res.status in ("ok", "tolerance-not-met"), res.message
+    assert [lv.n for lv in res.levels] == list(range(1, levels + 1))
+    for lv in res.levels:
+        E = dirac_coulomb(Z, lv.n, -1)
+        err = abs(lv.energy - E)
+        assert err <= 2.0 * lv.error_estimate, (lv.label, err / abs(E), lv.error_estimate / abs(E))

@@ -1,0 +1,94 @@
+"""Bad input: every ValueError names the argument and says what is wrong.
+
+Each case calls :func:`boundkit.solve` with one bad argument (everything else
+valid) and checks the message with ``pytest.raises(..., match=...)``. The
+limits on a point Coulomb charge are Z alpha < |kappa| (Dirac) and
+Z alpha < l + 1/2 (Klein-Gordon), where gamma = sqrt(kappa^2 - (Z alpha)^2)
+and sqrt((l + 1/2)^2 - (Z alpha)^2) turn imaginary (the exponents of the
+exact spectra in exact.py: Bethe & Salpeter 1957, eq. 14.29; Greiner,
+Relativistic Quantum Mechanics: Wave Equations, ch. 1).
+"""
+from __future__ import annotations
+
+import math
+
+import pytest
+
+import boundkit
+from exact import ALPHA, dirac_coulomb, klein_gordon_coulomb
+
+COULOMB = dict(potential="coulomb", params={"Z": 1})
+
+BAD = [
+    ("unknown-equation", dict(equation="pauli", **COULOMB), r"^equation: unknown value 'pauli'"),
+    ("unknown-potential", dict(equation="schrodinger", potential="no-such-well", params={"Z": 1}),
+     r"^potential: unknown potential 'no-such-well'"),
+    ("unknown-parameter", dict(equation="schrodinger", potential="coulomb", params={"Z": 1, "Zeta": 2}),
+     r"^params: no potential term takes parameter 'Zeta'"),
+    ("missing-Z", dict(equation="schrodinger", potential="coulomb", params={}),
+     r"^params: term 'coulomb' needs parameter 'Z'"),
+    ("kappa-zero", dict(equation="dirac", kappa=0, **COULOMB), r"^kappa: must be a non-zero integer"),
+    ("l-negative-schrodinger", dict(equation="schrodinger", l=-1, **COULOMB), r"^l: must be >= 0, got -1"),
+    ("l-negative-kg", dict(equation="klein-gordon", l=-2, **COULOMB), r"^l: must be >= 0, got -2"),
+    ("levels-zero", dict(equation="schrodinger", levels=0, **COULOMB), r"^levels: must be >= 1, got 0"),
+    ("levels-negative", dict(equation="dirac", levels=-3, **COULOMB), r"^levels: must be >= 1, got -3"),
+    ("dirac-supercritical", dict(equation="dirac", potential="coulomb", params={"Z": 140}, kappa=-1),
+     r"^Z: for the Dirac equation a point Coulomb charge needs Z alpha < \|kappa\|"),
+    ("dirac-supercritical-p1/2", dict(equation="dirac", potential="coulomb", params={"Z": 138}, kappa=1),
+     r"^Z: for the Dirac equation a point Coulomb charge needs Z alpha < \|kappa\|"),
+    ("kg-supercritical", dict(equation="klein-gordon", potential="coulomb", params={"Z": 70}, l=0),
+     r"^Z: for the Klein-Gordon equation a point Coulomb charge needs Z alpha < l \+ 1/2"),
+    ("dirac-given-l", dict(equation="dirac", l=1, **COULOMB),
+     r"^kappa: the Dirac equation needs kappa, not l; for l = 1 use kappa = -2 .* or kappa = 1"),
+    ("schrodinger-given-kappa", dict(equation="schrodinger", kappa=-1, **COULOMB),
+     r"^kappa: only the Dirac equation takes kappa"),
+    ("kg-given-kappa", dict(equation="klein-gordon", kappa=-1, **COULOMB),
+     r"^kappa: only the Dirac equation takes kappa"),
+    ("bad-method", dict(equation="schrodinger", method="monte-carlo", **COULOMB),
+     r"^method: unknown discretization 'monte-carlo'"),
+    ("bad-particle", dict(equation="schrodinger", particle="tauon", **COULOMB),
+     r"^particle: unknown value 'tauon'"),
+    ("negative-mass", dict(equation="schrodinger", mass_mev=-0.511, **COULOMB), r"^mass_mev: must be positive"),
+    ("zero-mass", dict(equation="schrodinger", mass_mev=0.0, **COULOMB), r"^mass_mev: must be positive"),
+    ("tol-zero", dict(equation="schrodinger", tol=0.0, **COULOMB), r"^tol: must be positive"),
+    ("tol-negative", dict(equation="schrodinger", tol=-1e-10, **COULOMB), r"^tol: must be positive"),
+    ("tol-nan", dict(equation="schrodinger", tol=float("nan"), **COULOMB), r"^tol: expected a finite number"),
+]
+
+
+@pytest.mark.parametrize("kwargs, pattern", [pytest.param(k, p, id=i) for i, k, p in BAD])
+def test_bad_input_raises_value_error(kwargs, pattern):
+    with pytest.raises(ValueError, match=pattern):
+        boundkit.solve(**kwargs)
+
+
+def _assert_kept_promise(res, exact):
+    """status 'ok' and the true error within twice the error estimate."""
+    assert res.status == "ok", res.message
+    lv = res.levels[0]
+    assert abs(lv.energy - exact) <= 2.0 * lv.error_estimate, (lv.label, lv.energy, exact, lv.error_estimate)
+
+
+def test_critical_charges_sit_where_the_formulas_turn_imaginary():
+    """The refusals above are not over-eager: the limit is Z = |kappa|/alpha
+    (Dirac) and Z = (l + 1/2)/alpha (Klein-Gordon). Z = 137 (Dirac, kappa = -1)
+    and Z = 68 (KG, l = 0) are accepted while Z = 138 and Z = 69 are refused;
+    below the limits the levels agree with exact.py within their error
+    estimates. (How well Z = 132..137 are solved is checked in
+    test_exact_catalogue.py::test_near_critical_dirac_coulomb.)"""
+    z_dirac = math.floor(1 / ALPHA)             # 137: Z alpha = 0.9997 < 1
+    res = boundkit.solve("dirac", "coulomb", {"Z": z_dirac}, kappa=-1, levels=1)
+    assert isinstance(res, boundkit.SolveResult)    # accepted: no ValueError
+    with pytest.raises(ValueError, match=r"^Z: for the Dirac"):
+        boundkit.solve("dirac", "coulomb", {"Z": z_dirac + 1}, kappa=-1)
+    res = boundkit.solve("dirac", "coulomb", {"Z": 130}, kappa=-1, levels=1)  # Z alpha = 0.949
+    _assert_kept_promise(res, dirac_coulomb(130, 1, -1))
+
+    z_kg = math.floor(0.5 / ALPHA)              # 68: Z alpha = 0.496 < 1/2
+    res = boundkit.solve("klein-gordon", "coulomb", {"Z": z_kg}, l=0, levels=1)
+    _assert_kept_promise(res, klein_gordon_coulomb(z_kg, 1, 0))
+    with pytest.raises(ValueError, match=r"^Z: for the Klein-Gordon"):
+        boundkit.solve("klein-gordon", "coulomb", {"Z": z_kg + 1}, l=0)
+    # a higher channel takes the same charge (Z alpha < l + 1/2 = 3/2)
+    res = boundkit.solve("klein-gordon", "coulomb", {"Z": 70}, l=1, levels=1)
+    _assert_kept_promise(res, klein_gordon_coulomb(70, 2, 1))
