@@ -113,8 +113,11 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
         dy[j] = 0.0
         yw = yw + dy.astype(yw.dtype)
         E = E + type(E)(dE)
-        step = abs(float(dE))
-        if step <= rtol * abs(float(E)) or step == 0.0:
+        prev, step = step, abs(float(dE))
+        # converged: a step at the rounding level, or steps that stopped shrinking while already
+        # tiny (a level very near threshold, |E| ~ 1e-7, never meets a relative 1e-17)
+        stalled = step > 0.5 * prev and step <= 1e-12 * abs(float(E))
+        if step <= rtol * abs(float(E)) or step == 0.0 or stalled:
             small += 1
             if small >= 2:
                 return Refined(float(E), np.asarray(yw, dtype=float), it, True, step)

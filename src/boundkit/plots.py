@@ -34,6 +34,7 @@ def save_figure(fig, path) -> Path:
     os.close(fd)
     try:
         fig.savefig(tmp, format=suffix[1:], dpi=150, bbox_inches="tight")
+        os.chmod(tmp, 0o644)          # mkstemp makes private files; a figure is for sharing
         os.replace(tmp, path)
     finally:
         plt.close(fig)
@@ -328,10 +329,12 @@ def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", leng
     else:
         y_lo, y_hi = float(np.min(total)), float(np.max(total))
     ngroups = max(len(groups), 1)
+    gap = 0.03 * (y_hi - y_lo)          # smallest vertical distance between two labels
     for gi, (group, lvs) in enumerate(groups.items()):
         colour = _colour(gi)
         first = True
-        for lv in lvs:
+        text_y = -math.inf
+        for lv in sorted(lvs, key=lambda lv: lv.energy):
             inside = np.nonzero(total < lv.energy)[0]
             if inside.size:
                 a, b = x[inside[0]], x[inside[-1]]
@@ -342,8 +345,10 @@ def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", leng
             a, b = a + gi * width, a + (gi + 1) * width
             ax.hlines(lv.energy * e_scale, a, b, colors=colour, lw=1.6,
                       label=(group or "levels") if first else None)
-            ax.annotate(lv.label, (b, lv.energy * e_scale), xytext=(2, 0), textcoords="offset points",
-                        fontsize=7, color=colour, va="center")
+            text_y = max(lv.energy, text_y + gap)
+            ax.annotate(lv.label, (b, lv.energy * e_scale), xytext=(b + 0.008 * x[-1], text_y * e_scale),
+                        textcoords="data",
+                        fontsize=7, color=colour, va="center", ha="left")
             first = False
     ax.axhline(0.0, color="0.6", lw=0.7)
     ax.set_ylim(y_lo * e_scale, y_hi * e_scale)

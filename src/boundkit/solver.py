@@ -94,10 +94,15 @@ def _natural_length(eq: RadialEquation, pot: Potential) -> float:
     s = _sample(pot, r)
     # a 1/r^2 part has no length of its own (it only shifts l): leave it out
     v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
-    big = 2 * eq.mass * r**2 * np.abs(v) >= 1.0
-    if not np.any(big):
-        raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr")
-    return float(r[np.argmax(big)])
+    strength = 2 * eq.mass * r**2 * np.abs(v)
+    big = strength >= 1.0
+    if np.any(big):
+        return float(r[np.argmax(big)])
+    # a weak well (a short-range potential near its binding threshold): its strongest scale
+    if np.max(strength) >= 1e-3:
+        return float(r[np.argmax(strength)])
+    raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr "
+                     "(2 m r^2 |V| stays below 1e-3); check the parameters")
 
 
 def _outer_radius(eq: RadialEquation, pot: Potential, E: float, L: float) -> float:
