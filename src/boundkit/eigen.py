@@ -115,8 +115,8 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
         E = E + type(E)(dE)
         prev, step = step, abs(float(dE))
         # converged: a step at the rounding level, or steps that stopped shrinking while already
-        # tiny (a level very near threshold, |E| ~ 1e-7, never meets a relative 1e-17)
-        stalled = step > 0.5 * prev and step <= 1e-12 * abs(float(E))
+        # tiny (a level very near threshold, |E| ~ 1e-7, may never meet a relative 1e-17)
+        stalled = step > 0.5 * prev and step <= 1e-14 * abs(float(E))
         if step <= rtol * abs(float(E)) or step == 0.0 or stalled:
             small += 1
             if small >= 2:
