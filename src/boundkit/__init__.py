@@ -13,6 +13,7 @@ from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
 from . import exact
 from .solver import make_equation, solve, solve_channel
+from .studies import scan, critical, compare
 
 try:
     __version__ = version("boundkit")
@@ -20,4 +21,4 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0+unknown"
 
 __all__ = ["solve", "solve_channel", "make_equation", "make_potential", "Potential", "Level",
-           "RadialState", "SolveResult", "__version__"]
+           "RadialState", "SolveResult", "scan", "critical", "compare", "__version__"]

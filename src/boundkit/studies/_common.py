@@ -1,0 +1,413 @@
+"""Pieces shared by the studies: channels, state labels, parameters at a
+point, atomic file writes, a progress bar and the seeded level solve.
+
+Nothing here is public API; :mod:`boundkit.studies` re-exports what users need.
+"""
+from __future__ import annotations
+
+import json
+import logging
+import math
+import os
+import re
+import sys
+import tempfile
+import time
+from pathlib import Path
+from typing import Any, Callable, Mapping, Sequence
+
+import numpy as np
+
+from ..equations.base import letter
+from ..equations.dirac import kappa_to_lj
+from ..potentials import TERMS, Term
+from ..solver import make_equation
+from ..states import principal_n
+
+__all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
+           "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
+           "write_json_atomic", "ProgressBar", "seeded_level", "expected_labels", "NuclearRadius",
+           "parameter_units"]
+
+log = logging.getLogger(__name__)
+
+_LETTERS = "spdfghiklmnoqrtuv"
+
+
+class StudyError(RuntimeError):
+    """A study could not produce its result (numerical trouble, not bad input)."""
+
+
+# --- equations and channels ----------------------------------------------------------------
+def canonical_equation(name: str) -> str:
+    """Canonical name of an equation (``schrodinger``, ``klein-gordon``, ``dirac``)."""
+    return make_equation(name).name
+
+
+def channel_for(equation: str, channel: Mapping[str, int]) -> dict[str, int]:
+    """The channel of ``equation`` described by ``channel`` ({"l": ..} or {"kappa": ..}).
+
+    Schrodinger and Klein-Gordon take l; a kappa alone is mapped to the l of
+    its large component (kappa = -(l+1) or kappa = l). Dirac needs kappa.
+    Raises ValueError for anything else.
+    """
+    if not isinstance(channel, Mapping):
+        raise ValueError(f"channels: each channel is a dict such as {{'l': 0}} or {{'kappa': -1}}, "
+                         f"got {channel!r}")
+    extra = sorted(set(channel) - {"l", "kappa"})
+    if extra:
+        raise ValueError(f"channels: unknown key {extra[0]!r} in {dict(channel)!r}; use 'l' or 'kappa'")
+    l, kappa = channel.get("l"), channel.get("kappa")
+    if l is None and kappa is None:
+        raise ValueError("channels: a channel needs 'l' (Schrodinger, Klein-Gordon) or 'kappa' (Dirac)")
+    eq = canonical_equation(equation)
+    if eq == "dirac":
+        if kappa is None:
+            make_equation("dirac", l=l)       # raises the solver's message naming both kappas
+        make_equation("dirac", kappa=kappa)   # checks kappa != 0
+        return {"kappa": int(kappa)}
+    if kappa is not None:
+        lk, _ = kappa_to_lj(int(kappa))
+        if l is not None and int(l) != lk:
+            raise ValueError(f"channels: l = {l} does not fit kappa = {kappa} (its l is {lk})")
+        l = lk
+    make_equation(eq, l=l)
+    return {"l": int(l)}
+
+
+def channel_name(channel: Mapping[str, int]) -> str:
+    """``'l=0'`` or ``'kappa=-1'``."""
+    return ", ".join(f"{k}={v}" for k, v in channel.items())
+
+
+def expected_labels(equation: str, channel: Mapping[str, int], levels: int) -> list[str]:
+    """Labels of the ``levels`` lowest levels of a channel (k nodes -> k-th label)."""
+    eq = make_equation(equation, **channel)
+    return [eq.label(principal_n(k, eq.l)) for k in range(levels)]
+
+
+_STATE = re.compile(r"^\s*(\d+)\s*([a-zA-Z])\s*(?:(\d+)\s*/\s*2)?\s*$")
+
+
+def parse_state(label: str) -> tuple[int, int, float | None]:
+    """(n, l, j) of a state label such as ``1s``, ``2p``, ``2p1/2``, ``3d5/2``.
+
+    j is None when the label has no j. Raises ValueError for a malformed
+    label, n < l + 1, or j other than l +- 1/2.
+    """
+    m = _STATE.match(str(label))
+    hint = "write n, the orbital letter and optionally j, e.g. 1s, 2p, 2p1/2, 3d5/2"
+    if not m:
+        raise ValueError(f"state: cannot read {label!r}; {hint}")
+    n, let, twoj = int(m.group(1)), m.group(2).lower(), m.group(3)
+    if let not in _LETTERS:
+        raise ValueError(f"state: unknown orbital letter {let!r} in {label!r}; use one of {', '.join(_LETTERS)}")
+    l = _LETTERS.index(let)
+    if n < l + 1:
+        raise ValueError(f"state: {label!r} needs n >= l + 1 = {l + 1} for an {let} level")
+    j = None
+    if twoj is not None:
+        j = int(twoj) / 2
+        if j not in (l + 0.5, l - 0.5) or j < 0.5:
+            allowed = " or ".join(f"{int(2 * x)}/2" for x in (l - 0.5, l + 0.5) if x >= 0.5)
+            raise ValueError(f"state: j = {twoj}/2 does not fit l = {l} in {label!r}; use j = {allowed}")
+    return n, l, j
+
+
+def state_channel(equation: str, label: str) -> tuple[dict[str, int], int, str]:
+    """(channel, node count k, canonical label) of a state in ``equation``.
+
+    Dirac: j = l + 1/2 -> kappa = -(l + 1), j = l - 1/2 -> kappa = l; an s
+    label needs no j; other labels without j are refused (two kappas fit).
+    Schrodinger and Klein-Gordon take l; a j in the label is ignored.
+    """
+    n, l, j = parse_state(label)
+    eq = canonical_equation(equation)
+    if eq == "dirac":
+        if j is None:
+            if l > 0:
+                raise ValueError(f"state: the Dirac equation needs j in {label!r}; write "
+                                 f"{n}{letter(l)}{2 * l - 1}/2 or {n}{letter(l)}{2 * l + 1}/2")
+            j = 0.5
+        channel = {"kappa": -(l + 1) if j == l + 0.5 else l}
+    else:
+        if j is not None:
+            log.info("state %s: %s has no spin-orbit splitting; j is ignored", label, eq)
+        channel = {"l": l}
+    k = n - l - 1
+    return channel, k, expected_labels(eq, channel, k + 1)[k]
+
+
+# --- parameters at a point -----------------------------------------------------------------
+def resolve_params(params: Mapping[str, Any] | None, point: Mapping[str, float]) -> dict[str, Any]:
+    """Parameters at one point: ``params`` updated by ``point``; callable values
+    are then called with the dict of the other (resolved) values."""
+    merged = {**dict(params or {}), **dict(point)}
+    out = {k: v for k, v in merged.items() if not callable(v)}
+    for k, v in merged.items():
+        if callable(v):
+            out[k] = float(v(dict(out)))
+    return out
+
+
+def _rebuild_term(term: Term, values: Mapping[str, Any], names: set) -> Term:
+    from ..potentials.expression import ExpressionTerm
+
+    new = {**term.values, **{n: values[n] for n in names}}
+    if isinstance(term, ExpressionTerm):
+        out = ExpressionTerm(term.formula, new)
+        out.label = term.label
+        return out
+    if type(term) in TERMS.values():
+        return type(term)(**new)
+    raise ValueError(f"vary: parameter {sorted(names)[0]!r} is fixed inside the prebuilt term {term!r}; "
+                     "pass the term by name (or as an expression) so that it can be rebuilt at each point")
+
+
+def rebuild_potential(spec, values: Mapping[str, Any], varied: set):
+    """``spec`` with every prebuilt :class:`Term` that holds a varied parameter
+    rebuilt with the point's values (names and callables pass through)."""
+    if spec is None:
+        return None
+    single = isinstance(spec, (str, Term)) or callable(spec)
+    items = [spec] if single else list(spec)
+    out = []
+    for item in items:
+        if isinstance(item, Term):
+            names = set(getattr(item, "values", {})) & set(varied)
+            if names:
+                item = _rebuild_term(item, values, names)
+        out.append(item)
+    return out[0] if single else out
+
+
+def describe(spec) -> Any:
+    """A stable, JSON-ready description of a potential spec (for keys and reports)."""
+    if spec is None:
+        return None
+    if isinstance(spec, str):
+        return spec
+    if isinstance(spec, Term):
+        return {"term": getattr(spec, "label", spec.name), "formula": str(spec.formula),
+                "values": dict(getattr(spec, "values", {}))}
+    if callable(spec):
+        return {"callable": f"{getattr(spec, '__module__', '?')}.{getattr(spec, '__qualname__', repr(spec))}",
+                "repr": repr(spec) if not hasattr(spec, "__code__") else None}
+    if isinstance(spec, Sequence):
+        return [describe(x) for x in spec]
+    return repr(spec)
+
+
+def parameter_units(potential, scalar, names: Sequence[str], units: str = "atomic") -> dict[str, str]:
+    """Unit of each named parameter, from the built-in terms' declarations ('' if unknown)."""
+    from ..potentials import _as_list
+    from ..units import unit_label
+
+    out = {n: "" for n in names}
+    for spec in _as_list(potential) + _as_list(scalar):
+        cls = TERMS.get(spec.strip().lower()) if isinstance(spec, str) else (
+            type(spec) if isinstance(spec, Term) else None)
+        if cls is None:
+            continue
+        for p in getattr(cls, "parameters", ()):
+            if p.name in out and not out[p.name]:
+                out[p.name] = unit_label(p.unit, units) if p.unit != "e" else ""
+    return out
+
+
+class NuclearRadius:
+    """rms charge radius (fm) of a uniform sphere of radius r0 A^(1/3), A = a Z.
+
+    Use it as a parameter value that follows the charge during a scan or a
+    critical-charge search: ``params={"Z": 150, "rms_fm": NuclearRadius()}``.
+
+    Parameters
+    ----------
+    r0_fm : float
+        Radius constant r0 in fm (default 1.2).
+    mass_per_charge : float
+        A / Z (default 2.5, about right for superheavy nuclei).
+    charge : str
+        Name of the charge parameter (default ``"Z"``).
+
+    Notes
+    -----
+    R = r0 (a Z)^(1/3) and, for a uniform sphere, r_rms = sqrt(3/5) R.
+    """
+
+    def __init__(self, r0_fm: float = 1.2, mass_per_charge: float = 2.5, charge: str = "Z") -> None:
+        if not (r0_fm > 0 and mass_per_charge > 0):
+            raise ValueError("rms rule: r0 and A/Z must be > 0, e.g. 1.2,2.5")
+        self.r0_fm, self.mass_per_charge, self.charge = float(r0_fm), float(mass_per_charge), charge
+
+    def __call__(self, values: Mapping[str, float]) -> float:
+        Z = float(values[self.charge])
+        if Z <= 0:
+            raise ValueError(f"rms rule: needs {self.charge} > 0, got {Z:g}")
+        return math.sqrt(3.0 / 5.0) * self.r0_fm * (self.mass_per_charge * Z) ** (1.0 / 3.0)
+
+    def __repr__(self) -> str:
+        return (f"NuclearRadius(r0_fm={self.r0_fm:g}, mass_per_charge={self.mass_per_charge:g}, "
+                f"charge={self.charge!r})")
+
+
+# --- files ---------------------------------------------------------------------------------
+def write_atomic(path: str | os.PathLike, text: str) -> Path:
+    """Write ``text`` to ``path`` through a temporary file and a rename."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-", suffix=path.suffix)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    finally:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+    return path
+
+
+def _json_default(x):
+    if isinstance(x, (np.floating, np.integer)):
+        return x.item()
+    if isinstance(x, np.ndarray):
+        return x.tolist()
+    return str(x)
+
+
+def write_json_atomic(path, data) -> Path:
+    return write_atomic(path, json.dumps(data, indent=1, default=_json_default, allow_nan=False))
+
+
+# --- progress ------------------------------------------------------------------------------
+class ProgressBar:
+    """A one-line progress bar on stderr.
+
+    ``mode`` True shows it, False hides it, None shows it only when stderr is
+    a terminal; a callable is not drawn but called as ``mode(done, total)``
+    after every finished item (a hook; it may raise to stop the work). The
+    bar appears only once ``delay`` seconds have passed.
+    """
+
+    def __init__(self, total: int, mode: bool | None | Callable = None, label: str = "scan",
+                 delay: float = 2.0, stream=None) -> None:
+        self.total, self.label, self.delay = total, label, delay
+        self.stream = stream if stream is not None else sys.stderr
+        self.hook = mode if callable(mode) else None
+        if mode is None:
+            isatty = getattr(self.stream, "isatty", None)
+            mode = bool(isatty and isatty())
+        self.enabled = bool(mode) and self.hook is None
+        self.start = time.monotonic()
+        self.drawn = False
+
+    def update(self, done: int) -> None:
+        if self.hook is not None:
+            self.hook(done, self.total)
+            return
+        elapsed = time.monotonic() - self.start
+        if not self.enabled or elapsed < self.delay:
+            return
+        width = 30
+        frac = done / self.total if self.total else 1.0
+        bar = "#" * int(round(frac * width))
+        eta = f", ~{elapsed / frac * (1 - frac):.0f} s left" if 0 < frac < 1 else ""
+        self.stream.write(f"\r{self.label} [{bar:<{width}}] {done}/{self.total}, {elapsed:.0f} s{eta}   ")
+        self.stream.flush()
+        self.drawn = True
+
+    def close(self) -> None:
+        if self.drawn:
+            self.stream.write("\n")
+            self.stream.flush()
+
+
+# --- one level from a given seed energy ----------------------------------------------------
+def seeded_level(eq, pot, disc, k: int, E_seed: float, tol: float, max_refits: int = 2) -> dict | None:
+    """The k-node level of one channel, refined from the seed energy ``E_seed``.
+
+    Uses the solver's per-level machinery (:func:`boundkit.solver.prepare_channel`
+    for the exponent, window and inner cut; :meth:`Channel.level` on the mesh
+    that the solver's WKB estimate gives for a level's energy) but not its
+    seeding, so a level can be followed by continuation where the solver's
+    own seeding does not find it (very weakly bound levels; levels near the
+    lower continuum).
+
+    The mesh is made for ``E_seed``. The resolution ladder stops when the
+    last change is below ``tol`` |E| and the one before below 100 tol |E|
+    (spectral), or when the Richardson estimate is below ``tol`` |E| (finite
+    differences); it gives up after three sizes in a row without the level.
+    The level is accepted only when its last three energies (two for finite
+    differences) agree to 1e-6, the solver's guard against unstable states.
+    If the converged level needs a mesh more than 1.5 times longer than the
+    one used (the seed was too deep, so the mesh too short), the ladder is
+    run again on the longer mesh (at most ``max_refits`` times); a longer
+    mesh than needed only costs resolution.
+
+    Returns a dict (energy, error_estimate, resolution, r_max, status) or None.
+    """
+    from ..solver import prepare_channel
+
+    ch = prepare_channel(eq, pot, 1)
+    E = float(E_seed)
+    if not ch.lo < E < ch.hi:
+        return None
+    mesh, _ = ch.mesh(E)
+    need = 2 if disc.order is not None else 3
+    for _refit in range(max_refits + 1):
+        got = _ladder(ch, disc, k, E, mesh, tol)
+        if got is None:
+            return None
+        hist, sizes, est = got
+        if len(hist) < need or any(abs(hist[-1] - h) > 1e-6 * abs(hist[-1]) for h in hist[-need:]):
+            return None
+        E = hist[-1]
+        fit, _ = ch.mesh(E)
+        if fit.r_max <= 1.5 * mesh.r_max:
+            return {"energy": E, "error_estimate": est, "resolution": sizes[-1], "r_max": mesh.r_max,
+                    "status": "ok" if est <= tol * abs(E) else "tolerance-not-met"}
+        log.debug("seeded level: mesh %.3g bohr too short for E = %.6g (needs %.3g); refit",
+                  mesh.r_max, E, fit.r_max)
+        mesh = fit
+    return None
+
+
+def _ladder(ch, disc, k: int, E: float, mesh, tol: float):
+    """Climb the method's ladder on one mesh: (energies, sizes, estimate) or None.
+
+    Gives up after three sizes in a row without a k-node level in the window.
+    """
+    hist: list[float] = []
+    sizes: list[int] = []
+    est = math.inf
+    misses = 0
+    for size in disc.ladder():
+        got = ch.level(k, disc, size, E, mesh)
+        if got is None:
+            misses += 1
+            if misses >= 3:      # nothing at three sizes in a row: no such level from this seed
+                break
+            continue
+        misses = 0
+        E = float(got[1].energy)
+        hist.append(E)
+        sizes.append(size)
+        if len(hist) < 2:
+            continue
+        d1 = abs(hist[-1] - hist[-2])
+        floor = disc.floor * abs(E)
+        if disc.order is not None:
+            est = max(d1 / (2.0 ** disc.order - 1), floor)
+            if est <= tol * abs(E):
+                break
+        else:
+            est = max(d1, floor)
+            if len(hist) >= 3 and est <= tol * abs(E) and abs(hist[-2] - hist[-3]) <= 100 * tol * abs(E):
+                break
+            if len(hist) >= 3 and max(d1, abs(hist[-2] - hist[-3])) <= floor:
+                break
+    if not hist:
+        return None
+    return hist, sizes, est

@@ -1,0 +1,518 @@
+"""Parameter scans: bound levels over a grid of one or two potential parameters.
+
+Every point of the grid (parameter values x equation x channel) is an
+independent solve, run in parallel on local cores (processes) or on a Dask
+cluster. Each level is followed by its *label*: the solver labels a level
+by the node count of its (large-component) radial function, so a label
+names the same physical level at every point, and a level that is not found
+at a point (it has unbound, or the solver could not seed it) is recorded as
+absent, never replaced by another level.
+
+With an ``out`` directory every finished point is written at once, as its
+own small JSON file (temporary file + rename, so a file is either whole or
+absent); a rerun with the same directory reuses the points already there.
+At the end the whole table is written as ``scan.csv`` and ``scan.json``.
+"""
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import itertools
+import json
+import logging
+import math
+import os
+import pickle
+import time
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable, Mapping, Sequence
+
+import numpy as np
+
+from .._checks import check_int, check_positive
+from ..solver import solve
+from ..units import constants_record, hartree_to
+from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, describe,
+                      expected_labels, parameter_units, rebuild_potential, resolve_params,
+                      write_atomic, write_json_atomic)
+
+__all__ = ["scan", "ScanResult", "linspace", "logspace", "parse_vary"]
+
+log = logging.getLogger(__name__)
+
+_POINTS_DIR = "points"
+_FORMAT = 1   # version of the point files; part of the key
+
+
+def linspace(start: float, stop: float, num: int) -> list[float]:
+    """``num`` evenly spaced values from ``start`` to ``stop`` (both included)."""
+    num = check_int("num", num, minimum=1)
+    return [float(x) for x in np.linspace(float(start), float(stop), num)]
+
+
+def logspace(start: float, stop: float, num: int) -> list[float]:
+    """``num`` values from ``start`` to ``stop`` (both included, both > 0), evenly
+    spaced in their logarithm. Unlike :func:`numpy.logspace`, the ends are the
+    values themselves, not exponents."""
+    num = check_int("num", num, minimum=1)
+    a, b = float(start), float(stop)
+    if not (a > 0 and b > 0):
+        raise ValueError(f"vary: a logarithmic range needs positive ends, got {a:g} and {b:g}")
+    return [float(x) for x in np.geomspace(a, b, num)]
+
+
+def parse_vary(text: str) -> tuple[str, list[float]]:
+    """Read ``NAME=START:STOP:N``, ``NAME=START:STOP:N:log`` or ``NAME=v1,v2,...``."""
+    name, eq, rhs = str(text).partition("=")
+    name, rhs = name.strip(), rhs.strip()
+    hint = "write NAME=START:STOP:N, NAME=START:STOP:N:log or NAME=v1,v2,v3"
+    if not eq or not name or not rhs:
+        raise ValueError(f"vary: {text!r} is malformed; {hint}")
+    try:
+        if ":" in rhs:
+            parts = [p.strip() for p in rhs.split(":")]
+            if len(parts) not in (3, 4) or (len(parts) == 4 and parts[3].lower() != "log"):
+                raise ValueError
+            a, b = float(parts[0]), float(parts[1])
+            n = int(parts[2])
+            if n < 1 or str(n) != parts[2]:
+                raise ValueError
+            values = logspace(a, b, n) if len(parts) == 4 else linspace(a, b, n)
+        else:
+            values = [float(v) for v in rhs.split(",") if v.strip()]
+    except ValueError as exc:
+        if "positive ends" in str(exc):
+            raise
+        raise ValueError(f"vary: cannot read {text!r}; {hint} (N a whole number >= 1)") from None
+    if not values or not all(math.isfinite(v) for v in values):
+        raise ValueError(f"vary: {text!r} needs finite values; {hint}")
+    return name, values
+
+
+# --- one point -----------------------------------------------------------------------------
+def solve_point(task: Mapping[str, Any]) -> dict:
+    """Solve one point of a scan (run in a worker; must stay importable at top level).
+
+    Returns a JSON-ready record: key, status, message and the found levels.
+    """
+    t0 = time.perf_counter()
+    varied = set(task["varied"])
+    params = task["params"]
+    try:
+        res = solve(task["equation"], rebuild_potential(task["potential"], params, varied), params,
+                    levels=task["levels"], tol=task["tol"], method=task["method"],
+                    scalar=rebuild_potential(task["scalar"], params, varied), **task["channel"],
+                    **task["solve_kwargs"])
+    except ValueError as exc:
+        return {"key": task["key"], "status": "error", "message": str(exc), "levels": [],
+                "seconds": time.perf_counter() - t0}
+    levels = [{"label": lv.label, "n": lv.n, "l": lv.l, "j": lv.j, "kappa": lv.kappa, "energy": lv.energy,
+               "error_estimate": lv.error_estimate, "resolution": lv.resolution,
+               "r_max": float(lv.state.r[-1])} for lv in res.levels]
+    return {"key": task["key"], "status": res.status, "message": res.message, "levels": levels,
+            "seconds": time.perf_counter() - t0}
+
+
+def _point_key(task: Mapping[str, Any]) -> str:
+    ident = {k: task[k] for k in ("params", "equation", "channel", "levels", "tol", "method", "solve_kwargs")}
+    ident["potential"] = describe(task["potential"])
+    ident["scalar"] = describe(task["scalar"])
+    ident["format"] = _FORMAT
+    text = json.dumps(ident, sort_keys=True, default=repr)
+    return hashlib.sha256(text.encode()).hexdigest()[:24]
+
+
+# --- the result ----------------------------------------------------------------------------
+@dataclass(frozen=True, repr=False)
+class ScanResult:
+    """Levels over a parameter grid.
+
+    Attributes
+    ----------
+    parameters : tuple of str
+        The varied parameters (one or two), outermost first.
+    values : dict
+        The grid: parameter name -> tuple of values.
+    rows : tuple of dict
+        One row per point and level label, with keys: each varied parameter,
+        ``equation``, ``channel`` (``'l=0'`` or ``'kappa=-1'``), ``label``,
+        ``energy`` (binding energy, hartree; None when absent),
+        ``error_estimate`` (hartree), ``status`` (``ok``,
+        ``tolerance-not-met``, ``absent`` or ``error``) and ``message``.
+    settings : dict
+        Everything that produced the numbers (potential, fixed parameters,
+        levels, tol, method, channels, equations, particle).
+    parameter_units : dict
+        Unit of each varied parameter ('' for a charge or when unknown).
+    solved, reused : int
+        Points solved in this run, and points read back from ``out``.
+    out : str or None
+        Directory of the point files and of scan.csv / scan.json.
+    seconds : float
+        Wall time of the run.
+    """
+
+    parameters: tuple
+    values: dict
+    rows: tuple
+    settings: dict
+    parameter_units: dict = field(default_factory=dict)
+    solved: int = 0
+    reused: int = 0
+    out: str | None = None
+    seconds: float = 0.0
+
+    @property
+    def series_keys(self) -> list[tuple[str, str, str]]:
+        """(equation, channel, label) of every followed level, in table order."""
+        seen: dict = {}
+        for r in self.rows:
+            seen.setdefault((r["equation"], r["channel"], r["label"]), None)
+        return list(seen)
+
+    def series(self, label: str, equation: str | None = None, channel: str | None = None,
+               where: Mapping[str, float] | None = None, unit: str = "hartree"):
+        """(x, E) of one level along the first parameter; E is NaN where absent.
+
+        ``where`` fixes the other parameter of a two-parameter scan.
+        """
+        rows = [r for r in self.rows if r["label"] == label
+                and (equation is None or r["equation"] == canonical_equation(equation))
+                and (channel is None or r["channel"] == channel)
+                and all(r[k] == v for k, v in (where or {}).items())]
+        if not rows:
+            raise KeyError(f"no level {label!r} in this scan; have "
+                           f"{', '.join(sorted({k[2] for k in self.series_keys}))}")
+        combos = {(r["equation"], r["channel"]) for r in rows}
+        if len(combos) > 1:
+            raise KeyError(f"level {label!r} appears in {len(combos)} (equation, channel) pairs; "
+                           "give equation= and channel=")
+        if len(self.parameters) > 1 and not where:
+            raise KeyError(f"two-parameter scan: fix {self.parameters[1]!r} with where={{...}}")
+        x = np.array([r[self.parameters[0]] for r in rows], float)
+        E = np.array([np.nan if r["energy"] is None else hartree_to(r["energy"], unit) for r in rows])
+        return x, E
+
+    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
+        """A JSON-ready record (energies in ``unit``; absent levels as null)."""
+        rows = []
+        for r in self.rows:
+            r = dict(r)
+            for k in ("energy", "error_estimate"):
+                if r[k] is not None:
+                    r[k] = float(hartree_to(r[k], unit))
+            rows.append(r)
+        return {"parameters": list(self.parameters), "values": {k: list(v) for k, v in self.values.items()},
+                "parameter_units": self.parameter_units, "units": {"energy": unit, "length": "bohr"},
+                "settings": self.settings, "constants": constants_record(), "rows": rows,
+                "solved": self.solved, "reused": self.reused, "seconds": self.seconds}
+
+    def to_csv(self, unit: str = "hartree") -> str:
+        """The rows as CSV text (energies in ``unit``, empty when absent)."""
+        buf = io.StringIO()
+        u = "hartree" if unit == "hartree" else unit
+        cols = [*self.parameters, "equation", "channel", "label", f"energy_{u}", f"error_estimate_{u}",
+                "status", "message"]
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(cols)
+        for r in self.rows:
+            e = "" if r["energy"] is None else repr(float(hartree_to(r["energy"], unit)))
+            de = "" if r["error_estimate"] is None else repr(float(hartree_to(r["error_estimate"], unit)))
+            w.writerow([*(repr(float(r[p])) for p in self.parameters), r["equation"], r["channel"], r["label"],
+                        e, de, r["status"], r["message"]])
+        return buf.getvalue()
+
+    def table(self, unit: str = "hartree") -> str:
+        """A plain-text table (energies in ``unit``)."""
+        head = [f"{p:>16}" for p in self.parameters]
+        lines = [" ".join(head + [f"{'equation':<13} {'channel':<9} {'level':<8} {'energy (' + unit + ')':>24} "
+                                  f"{'error':>9} status"])]
+        for r in self.rows:
+            vals = [f"{r[p]:>16.10g}" for p in self.parameters]
+            if r["energy"] is None:
+                e, de = "-", "-"
+            else:
+                e = f"{hartree_to(r['energy'], unit):.16g}"
+                de = f"{hartree_to(r['error_estimate'], unit):.2g}"
+            lines.append(" ".join(vals + [f"{r['equation']:<13} {r['channel']:<9} {r['label']:<8} {e:>24} "
+                                          f"{de:>9} {r['status']}"]))
+        return "\n".join(lines)
+
+    def __repr__(self) -> str:
+        grid = " x ".join(f"{p}[{len(self.values[p])}]" for p in self.parameters)
+        return (f"ScanResult({grid}, {len(self.series_keys)} level(s), {len(self.rows)} rows, "
+                f"solved {self.solved}, reused {self.reused})")
+
+
+# --- running -------------------------------------------------------------------------------
+def _run_local(tasks, workers, on_done) -> None:
+    if workers <= 1 or len(tasks) <= 1:
+        for t in tasks:
+            on_done(solve_point(t))
+        return
+    try:
+        pickle.dumps(tasks)
+    except Exception as exc:  # lambdas and local functions cannot go to another process
+        log.warning("scan: the potential or parameters cannot be sent to worker processes (%s); "
+                    "solving the points one after another here", exc)
+        for t in tasks:
+            on_done(solve_point(t))
+        return
+    pool = ProcessPoolExecutor(max_workers=min(workers, len(tasks)))
+    try:
+        pending = {pool.submit(solve_point, t) for t in tasks}
+        while pending:
+            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            for fut in done:
+                on_done(fut.result())
+    finally:
+        pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _run_dask(tasks, scheduler, on_done) -> None:
+    try:
+        from dask.distributed import Client, as_completed
+    except ImportError:
+        raise ValueError("scheduler: Dask is not installed; install it with pip install 'boundkit[dask]'") from None
+    own = isinstance(scheduler, str)
+    if own:
+        try:
+            client = Client(scheduler)   # connect timeout: dask config distributed.comm.timeouts.connect
+        except (OSError, TimeoutError) as exc:
+            raise ValueError(f"scheduler: cannot reach the Dask scheduler at {scheduler!r} ({exc}); "
+                             "check the address, e.g. tcp://127.0.0.1:8786") from None
+    else:
+        client = scheduler
+    futures = []
+    try:
+        futures = client.map(solve_point, tasks, pure=False)
+        for fut in as_completed(futures):
+            on_done(fut.result())
+    finally:
+        for fut in futures:
+            fut.cancel()
+        if own:
+            client.close()
+
+
+def _rows_for(task, record) -> list[dict]:
+    found = {lv["label"]: lv for lv in record["levels"]}
+    rows = []
+    labels = list(task["labels"]) + [lab for lab in found if lab not in task["labels"]]
+    for lab in labels:
+        row = {p: task["point"][p] for p in task["vary_order"]}
+        row.update({"equation": task["equation"], "channel": channel_name(task["channel"]), "label": lab})
+        lv = found.get(lab)
+        if lv is None:
+            status = "error" if record["status"] == "error" else "absent"
+            msg = record["message"] if status == "error" else "not found at this point"
+            row.update({"energy": None, "error_estimate": None, "status": status, "message": msg})
+        else:
+            ok = lv["error_estimate"] <= task["tol"] * abs(lv["energy"])
+            row.update({"energy": lv["energy"], "error_estimate": lv["error_estimate"],
+                        "status": "ok" if ok else "tolerance-not-met", "message": ""})
+        rows.append(row)
+    return rows
+
+
+def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | None,
+         vary: Mapping[str, Sequence[float]], *, channels: Sequence[Mapping[str, int]] | None = None,
+         levels: int = 3, tol: float = 1e-10, method: str = "auto", workers: int | None = None,
+         scheduler=None, out: str | os.PathLike | None = None,
+         progress: bool | None | Callable[[int, int], None] = None, scalar=None, **solve_kwargs) -> ScanResult:
+    """Bound levels over a grid of one or two potential parameters.
+
+    Parameters
+    ----------
+    equation : str or sequence of str
+        ``'schrodinger'``, ``'klein-gordon'``, ``'dirac'``, or several of them.
+    potential : str, callable, Term or sequence
+        As for :func:`boundkit.solve`.
+    params : dict
+        Fixed parameters. A callable value is evaluated at every point with
+        the dict of that point's other parameters, e.g. a nuclear radius that
+        follows the charge (:class:`boundkit.studies.NuclearRadius`).
+    vary : dict
+        One or two parameter names -> sequences of values (see
+        :func:`linspace`, :func:`logspace`). The first is the outer loop.
+    channels : sequence of dict
+        E.g. ``[{"l": 0}, {"l": 1}]`` or ``[{"kappa": -1}, {"kappa": 1}]``.
+        Dirac needs kappa; for Schrodinger and Klein-Gordon a kappa alone
+        stands for the l of its large component. Default: the lowest channel.
+    levels : int
+        Number of lowest levels followed in each channel.
+    tol : float
+        Relative tolerance of each binding energy.
+    method : str
+        Discretization (``'auto'``, ``'spectral'``, ``'finite-difference'``).
+    workers : int, optional
+        Local worker processes (default ``os.cpu_count()``; 1 = in this process).
+    scheduler : str or dask.distributed.Client, optional
+        A Dask scheduler address such as ``'tcp://127.0.0.1:8786'`` (or a
+        client): the points are then solved on that cluster.
+    out : path, optional
+        Directory for the point files (``points/<key>.json``) and for
+        ``scan.csv`` and ``scan.json``. Points already there are reused.
+    progress : bool, None or callable
+        Progress bar on stderr: None shows it when stderr is a terminal and
+        the scan runs for more than two seconds. A callable is called as
+        ``progress(done, total)`` after each finished point instead.
+    scalar : optional
+        Lorentz-scalar terms, as for :func:`boundkit.solve`.
+    **solve_kwargs
+        Passed to :func:`boundkit.solve` (``particle``, ``mass_mev``,
+        ``nucleus_mass_mev``, ``units``, ``order``).
+
+    Returns
+    -------
+    ScanResult
+
+    Notes
+    -----
+    A level is identified by the node count k of its radial function,
+    label n = k + l + 1 (Sturm-Liouville ordering, see
+    :mod:`boundkit.equations`), so the curve E_label(p) can only be broken
+    by the level's absence, never by a jump to another level. The key of a
+    point file is a SHA-256 hash of the point's resolved parameters,
+    equation, channel, potential description and solve settings; a change
+    to any of them makes a new point. The mesh of each level follows its
+    energy (WKB, see :mod:`boundkit.solver`), so levels that spread out
+    towards threshold get a wider mesh automatically; very weakly bound
+    levels may still be missed by the solver's seeding and then show as
+    absent (see :func:`boundkit.studies.critical`, which follows a level by
+    continuation).
+    """
+    t0 = time.perf_counter()
+    equations = [equation] if isinstance(equation, str) else list(equation)
+    if not equations:
+        raise ValueError("equation: give at least one equation")
+    equations = list(dict.fromkeys(canonical_equation(e) for e in equations))
+    levels = check_int("levels", levels, minimum=1)
+    tol = check_positive("tol", tol)
+    if workers is not None:
+        workers = check_int("workers", workers, minimum=1)
+    if not isinstance(vary, Mapping) or not 1 <= len(vary) <= 2:
+        raise ValueError("vary: give a dict of one or two parameter names -> sequences of values")
+    grid: dict[str, tuple] = {}
+    for name, vals in vary.items():
+        try:
+            vals = tuple(float(v) for v in vals)
+        except (TypeError, ValueError):
+            raise ValueError(f"vary[{name!r}]: expected a sequence of numbers") from None
+        if not vals or not all(math.isfinite(v) for v in vals):
+            raise ValueError(f"vary[{name!r}]: expected a non-empty sequence of finite numbers")
+        grid[str(name)] = vals
+    params = dict(params or {})
+    derived = {k for k, v in params.items() if callable(v)}
+    clash = derived & set(grid)
+    if clash:
+        raise ValueError(f"vary: {sorted(clash)[0]!r} is both varied and given as a rule in params")
+    varied = sorted(set(grid) | derived)
+    if channels is None:
+        channels = [{"kappa": -1}]
+    pairs = []
+    for eq in equations:
+        for ch in channels:
+            c = channel_for(eq, ch)
+            if (eq, c) not in pairs:
+                pairs.append((eq, c))
+    names = list(grid)
+    tasks = []
+    for combo in itertools.product(*(grid[n] for n in names)):
+        point = dict(zip(names, combo))
+        resolved = resolve_params(params, point)
+        for eq, c in pairs:
+            task = {"params": resolved, "point": point, "vary_order": names, "varied": varied,
+                    "equation": eq, "channel": c, "levels": levels, "tol": tol, "method": method,
+                    "solve_kwargs": dict(solve_kwargs), "potential": potential, "scalar": scalar,
+                    "labels": expected_labels(eq, c, levels)}
+            task["key"] = _point_key(task)
+            tasks.append(task)
+    units = solve_kwargs.get("units", "atomic")
+    records: dict[str, dict] = {}
+    outdir = Path(out) if out is not None else None
+    if outdir is not None:
+        (outdir / _POINTS_DIR).mkdir(parents=True, exist_ok=True)
+        for t in tasks:
+            f = outdir / _POINTS_DIR / f"{t['key']}.json"
+            if f.exists():
+                try:
+                    rec = json.loads(f.read_text(encoding="utf-8"))
+                except (OSError, ValueError):
+                    log.warning("scan: unreadable point file %s is solved again", f)
+                    continue
+                if rec.get("key") == t["key"] and "result" in rec:
+                    records[t["key"]] = rec["result"]
+    reused = len(records)
+    todo = [t for t in tasks if t["key"] not in records]
+    _check_input(todo)
+    by_key = {t["key"]: t for t in tasks}
+    bar = ProgressBar(len(todo), progress, label="scan")
+    solved = 0
+
+    def on_done(record: dict) -> None:
+        nonlocal solved
+        key = record["key"]
+        records[key] = record
+        solved += 1
+        if outdir is not None:
+            t = by_key[key]
+            write_json_atomic(outdir / _POINTS_DIR / f"{key}.json", {
+                "key": key, "point": t["point"], "params": t["params"], "equation": t["equation"],
+                "channel": t["channel"], "levels": t["levels"], "tol": t["tol"], "method": t["method"],
+                "potential": describe(t["potential"]), "result": record})
+        bar.update(solved)
+
+    try:
+        if scheduler is not None:
+            _run_dask(todo, scheduler, on_done)
+        else:
+            _run_local(todo, workers or os.cpu_count() or 1, on_done)
+    finally:
+        bar.close()
+    rows = []
+    for t in tasks:
+        rows.extend(_rows_for(t, records[t["key"]]))
+    settings = {"equations": equations, "channels": [c for _, c in pairs], "potential": describe(potential),
+                "scalar": describe(scalar), "params": {k: (repr(v) if callable(v) else v) for k, v in params.items()},
+                "levels": levels, "tol": tol, "method": method,
+                "solve_kwargs": {k: v for k, v in solve_kwargs.items()},
+                "backend": "dask" if scheduler is not None else "local"}
+    result = ScanResult(parameters=tuple(names), values=grid, rows=tuple(rows), settings=settings,
+                        parameter_units=parameter_units(potential, scalar, names, units), solved=solved,
+                        reused=reused, out=None if outdir is None else str(outdir),
+                        seconds=time.perf_counter() - t0)
+    if outdir is not None:
+        write_atomic(outdir / "scan.csv", result.to_csv())
+        write_json_atomic(outdir / "scan.json", result.to_dict())
+    log.info("scan: %d point(s) solved, %d reused, %.1f s", solved, reused, result.seconds)
+    return result
+
+
+def _check_input(todo: list[dict]) -> None:
+    """Refuse bad input (unknown names, bad parameter values at any point) before
+    sending work out: builds the equation and potential of every point (no solve),
+    so a ValueError here is the user's, not the solver's trouble at one point."""
+    if not todo:
+        return
+    from ..discretize import get_method
+    from ..solver import setup
+
+    allowed = {"particle", "mass_mev", "nucleus_mass_mev", "units", "order"}
+    bad = set(todo[0]["solve_kwargs"]) - allowed
+    if bad:
+        raise ValueError(f"scan: unknown option {sorted(bad)[0]!r}; solve options are "
+                         f"{', '.join(sorted(allowed))}")
+    get_method(todo[0]["method"], todo[0]["solve_kwargs"].get("order"))
+    for t in todo:
+        varied = set(t["varied"])
+        kwargs = {k: v for k, v in t["solve_kwargs"].items() if k != "order"}
+        try:
+            setup(t["equation"], rebuild_potential(t["potential"], t["params"], varied), t["params"],
+                  scalar=rebuild_potential(t["scalar"], t["params"], varied), **t["channel"], **kwargs)
+        except ValueError as exc:
+            where = ", ".join(f"{k} = {v:g}" for k, v in t["point"].items())
+            raise ValueError(f"{exc} (at {where})") from None

@@ -1,0 +1,73 @@
+"""Schrodinger, Klein-Gordon and Dirac levels side by side."""
+from __future__ import annotations
+
+import pytest
+
+from boundkit.exact import dirac_coulomb, klein_gordon_coulomb, schrodinger_coulomb
+from boundkit.studies import CompareResult, compare
+from boundkit.units import hartree_to
+
+
+@pytest.fixture(scope="module")
+def hydrogen() -> CompareResult:
+    # Z = 1, infinitely heavy point nucleus, electron
+    return compare("coulomb", {"Z": 1}, l_max=1, levels=2)
+
+
+def test_hydrogen_2p_fine_structure_is_the_sommerfeld_dirac_splitting(hydrogen):
+    # E(2p3/2) - E(2p1/2) from the Sommerfeld-Dirac formula (Bethe & Salpeter 1957, eq. 14.29;
+    # boundkit.exact.dirac_coulomb): about 10.9496 GHz
+    expected = hartree_to(dirac_coulomb(1, 2, -2) - dirac_coulomb(1, 2, 1), "GHz")
+    assert hydrogen.splitting("2p", "GHz") == pytest.approx(expected, rel=1e-9)
+    assert 10.9 < expected < 11.0
+    row = hydrogen.to_dict("hartree", "GHz")["rows"]
+    twop = next(r for r in row if r["label"] == "2p")
+    assert twop["fine_structure"] == pytest.approx(expected, rel=1e-9)
+    # the error estimate (sum of the two levels' estimates) bounds the true error and respects tol = 1e-10
+    assert abs(twop["fine_structure"] - expected) <= twop["fine_structure_error"]
+    assert twop["fine_structure_error"] <= 2e-10 * abs(hartree_to(dirac_coulomb(1, 2, 1), "GHz"))
+
+
+def test_every_column_matches_its_exact_coulomb_formula(hydrogen):
+    # Schrodinger -Z^2/(2n^2) (Bethe & Salpeter 1957); Klein-Gordon spin-0 Coulomb levels (Greiner,
+    # Relativistic Quantum Mechanics); Dirac Sommerfeld-Dirac (Bethe & Salpeter 1957)
+    assert hydrogen.success
+    for r in hydrogen.rows:
+        n, l = r["n"], r["l"]
+        assert r["schrodinger"] == pytest.approx(schrodinger_coulomb(1, n), rel=1e-12)
+        assert r["klein_gordon"] == pytest.approx(klein_gordon_coulomb(1, n, l), rel=1e-12)
+        assert r["dirac_plus"] == pytest.approx(dirac_coulomb(1, n, -(l + 1)), rel=1e-12)
+        if l > 0:
+            assert r["dirac_minus"] == pytest.approx(dirac_coulomb(1, n, l), rel=1e-12)
+        else:
+            assert r["dirac_minus"] is None and r["fine_structure"] is None
+        assert r["shift_klein_gordon"] == pytest.approx(r["klein_gordon"] - r["schrodinger"], rel=1e-12)
+        assert r["spin_plus"] == pytest.approx(r["dirac_plus"] - r["klein_gordon"], rel=1e-12)
+
+
+def test_dirac_centroid_is_close_to_the_klein_gordon_level(hydrogen):
+    # The (2j+1)-weighted mean of E(j = l +- 1/2) differs from the spin-0 level only at order (Z alpha)^6
+    # for l > 0 (expand both exact formulas); at Z = 1 that is ~1e-5 of the fine structure
+    r = hydrogen.row("2p")
+    assert abs(r["spin_centroid"]) < 1e-4 * abs(r["fine_structure"])
+    assert abs(r["spin_plus"]) > 1e3 * abs(r["spin_centroid"])
+
+
+def test_tables_and_units(hydrogen):
+    text = hydrogen.table("eV", "MHz")
+    assert "binding energies in eV" in text and "differences in MHz" in text and "status: ok" in text
+    d = hydrogen.to_dict("eV", "MHz")
+    assert d["units"] == {"energy": "eV", "differences": "MHz", "length": "bohr"}
+    twop = next(r for r in d["rows"] if r["label"] == "2p")
+    assert twop["fine_structure"] == pytest.approx(1e3 * hydrogen.splitting("2p", "GHz"), rel=1e-12)
+    with pytest.raises(ValueError, match="unknown unit"):
+        hydrogen.table("furlongs")
+    with pytest.raises(KeyError, match="no fine-structure splitting"):
+        hydrogen.splitting("1s")
+
+
+def test_compare_refuses_bad_input():
+    with pytest.raises(ValueError, match="l_max"):
+        compare("coulomb", {"Z": 1}, l_max=-1)
+    with pytest.raises(ValueError, match="unknown potential"):
+        compare("coulomb-ish", {"Z": 1})
