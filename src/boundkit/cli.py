@@ -302,5 +302,7 @@ def validate_cmd(quick, method, as_json):
 
 from . import cli_run  # noqa: E402,F401  (registers `boundkit run`)
 
+from . import cli_studies  # noqa: E402,F401  (registers scan, critical, compare)
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -70,7 +70,8 @@ array ``[[x]]`` of several::
     parameter = "screening_length"     # required, a shared parameter of a built-in term
     values = [100.0, 30.0, 10.0]       # or: range = { start = 1, stop = 100, num = 12,
                                        #               spacing = "log" }
-    equation, channels, levels, tolerance, method as above; workers = 1
+    equation, channels, levels, tolerance, method as above
+    workers = 2                        # worker processes (default: all cores)
     differences = [["2p1/2", "2s1/2"]] # per parameter value, with the slope d/dparameter
 
     [critical]                         # where a level stops being bound (boundkit.studies)
@@ -78,14 +79,20 @@ array ``[[x]]`` of several::
     states = ["1s", "2s", "2p"]        # required
     parameter = "screening_length"     # default screening_length
     equation = "schrodinger"           # default: the first equation
-    bracket = [0.5, 20.0]              # optional
-    tolerance = 1e-8
+    bracket = [0.5, 20.0]              # optional: bound at one end, unbound at the other
+    tolerance = 1e-8                   # relative tolerance of the critical value
+    energy_tolerance = 1e-10           # relative tolerance of each energy on the way
+    kind = "unbind"                    # optional: unbind or dive (default from the potential)
+    workers = 2                        # states searched in parallel (default: all cores)
 
     [compare]                          # Schrodinger, Klein-Gordon and Dirac side by side
     model = "point"                    # required (boundkit.studies)
     l_max = 1
     levels = 2
     tolerance = 1e-10
+
+``differences`` entries may name the equation of each level, ``"dirac:1s1/2"``,
+to compare equations within one model.
 
 Channels
 --------
@@ -463,7 +470,7 @@ class ScanSection:
     levels: int
     tolerance: float
     method: str
-    workers: int
+    workers: int | None
     differences: tuple[tuple[str, str], ...]
 
 
@@ -476,7 +483,9 @@ class CriticalSection:
     equation: str
     bracket: tuple[float, float] | None
     tolerance: float
+    energy_tolerance: float
     kind: str | None
+    workers: int | None
 
 
 @dataclass(frozen=True)
@@ -627,7 +636,8 @@ _CONVERGE = ("model", "equation", "channel", "levels", "methods", "order")
 _SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tolerance", "method", "workers",
          "differences")
 _RANGE = ("start", "stop", "num", "spacing")
-_CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tolerance", "kind")
+_CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tolerance", "energy_tolerance", "kind",
+             "workers")
 _COMPARE = ("model", "l_max", "levels", "tolerance")
 
 
@@ -705,6 +715,13 @@ def _method(rd: _Reader, data: dict, key: tuple, default: str, order_default: in
     return method, order
 
 
+def _workers(rd: _Reader, data: dict, key: tuple) -> int | None:
+    workers = rd.get(data, key, "workers", "int", None)
+    if workers is not None and workers < 1:
+        raise rd.error(key + ("workers",), f"must be >= 1, got {workers}")
+    return workers
+
+
 def _pairs(rd: _Reader, data: dict, key: tuple) -> tuple[tuple[str, str], ...]:
     if "differences" not in data:
         return ()
@@ -716,6 +733,11 @@ def _pairs(rd: _Reader, data: dict, key: tuple) -> tuple[tuple[str, str], ...]:
         if not (isinstance(pair, list) and len(pair) == 2 and all(isinstance(x, str) for x in pair)):
             raise rd.error(key + ("differences", i), "each difference is a pair of level labels, "
                                                       "e.g. [\"2p1/2\", \"2s1/2\"] for E(2p1/2) - E(2s1/2)")
+        for j, text in enumerate(pair):
+            eq, sep, _label = text.partition(":")
+            if sep and eq.strip().lower() not in _EQUATIONS:
+                raise rd.error(key + ("differences", i), f"{text!r}: unknown equation {eq.strip()!r} before ':'; "
+                                                          "write e.g. \"dirac:1s1/2\"")
         out.append((pair[0].strip(), pair[1].strip()))
     return tuple(out)
 
@@ -988,9 +1010,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
             except ValueError as exc:
                 raise rd.error(key + ("values" if "values" in s else "range",), f"value {v:g}: {exc}") from None
         m, _o = _method(rd, s, key, method, None)
-        workers = rd.get(s, key, "workers", "int", 1)
-        if workers < 1:
-            raise rd.error(key + ("workers",), f"must be >= 1, got {workers}")
+        workers = _workers(rd, s, key)
         scan_secs.append(ScanSection(
             key, model, param, values,
             _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
@@ -1014,13 +1034,23 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
             if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
                 raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
                                                     "\"2p3/2\"")
+        eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
+        for i, st in enumerate(states):
+            if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
+                raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
+                                                    f"or \"{st}3/2\"")
         bracket = rd.get(s, key, "bracket", "list:number", None)
         if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
             raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
+        kind = rd.get(s, key, "kind", "str", None)
+        if kind is not None and kind not in ("unbind", "dive"):
+            raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
+        etol = rd.get(s, key, "energy_tolerance", "number", 1e-10)
+        if not 0 < etol < 1:
+            raise rd.error(key + ("energy_tolerance",), f"must lie between 0 and 1, got {etol:g}")
         critical_secs.append(CriticalSection(
-            key, model, param, states,
-            _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8), rd.get(s, key, "kind", "str", None)))
+            key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
+            etol, kind, _workers(rd, s, key)))
 
     compare_secs = []
     for key, s in _sections(rd, data, "compare"):
@@ -1304,6 +1334,7 @@ class _Engine:
         self.write("spec.toml", spec.text)
         if spec.solve is not None:
             self._solve(spec.solve)
+            log.info("[solve] done in %.1f s", time.perf_counter() - t0)
         for i, sec in enumerate(spec.converge):
             self._guard(sec.key, lambda: self._converge(sec, self._suffix(spec.converge, i)))
         for i, sec in enumerate(spec.scan):
@@ -1324,9 +1355,11 @@ class _Engine:
 
     def _guard(self, key: tuple, job) -> None:
         """Run one study; a ValueError from the numerics is recorded as a problem, not raised."""
+        t0 = time.perf_counter()
         try:
             job()
-        except ValueError as exc:
+            log.info("[%s] done in %.1f s", _dotted(key), time.perf_counter() - t0)
+        except (ValueError, RuntimeError) as exc:   # bad values met on the way; StudyError is a RuntimeError
             msg = f"[{_dotted(key)}] (line {self.spec.line_of(key)}) failed: {exc}"
             log.warning("%s", msg)
             self.problems.append(msg)
@@ -1395,18 +1428,22 @@ class _Engine:
                                "runs": runs, "levels": rows,
                                "columns": {"energy": self.e_unit, "error_estimate": self.e_unit,
                                            "mean_radius": self.l_unit, "rms_radius": self.l_unit}}
-        # differences within one model and equation
+        # differences within one model (and one equation, unless a label names its equation)
         diffs = []
         for (a, b) in sec.differences:
+            (ea, la_), (eb, lb_) = _split_label(a), _split_label(b)
             for mname, per_eq in by_model.items():
-                for eq, lvs in per_eq.items():
-                    la = next((lv for lv in lvs if lv.label == a), None)
-                    lb = next((lv for lv in lvs if lv.label == b), None)
+                for eq in per_eq:
+                    if (ea or eb) and eq != (ea or eb):
+                        continue
+                    la = next((lv for lv in per_eq.get(ea or eq, []) if lv.label == la_), None)
+                    lb = next((lv for lv in per_eq.get(eb or eq, []) if lv.label == lb_), None)
                     if la is None or lb is None:
                         continue
                     d = la.energy - lb.energy
                     err = math.hypot(la.error_estimate, lb.error_estimate)
-                    diffs.append({"model": mname, "equation": eq, "a": a, "b": b, "difference": self.E(d),
+                    shown = eq if not (ea or eb) else " vs ".join(dict.fromkeys([ea or eq, eb or eq]))
+                    diffs.append({"model": mname, "equation": shown, "a": a, "b": b, "difference": self.E(d),
                                   "error_estimate": self.E(err), "difference_hartree": d})
             if not any(r["a"] == a and r["b"] == b for r in diffs):
                 self.problems.append(f"difference E({a}) - E({b}): no model and equation has both levels")
@@ -1525,8 +1562,8 @@ class _Engine:
                 if k not in lowest:
                     lowest[k] = s
             for s in lowest.values():
-                self.headline.append(f"{spec.models[s['model']].label} - {spec.models[sec.reference].label}, "
-                                     f"{s['equation']} {s['label']}: {_fmt(s['shift'], 6)} {eu}")
+                self.headline.append(f"E({s['model']}) - E({sec.reference}), {s['equation']} {s['label']}: "
+                                     f"{_fmt(s['shift'], 6)} {eu}")
             md.append("")
         self.md += md
 
@@ -1577,14 +1614,32 @@ class _Engine:
                     method=sec.method, workers=sec.workers, scalar=scalar or None, units=spec.units,
                     **self.particle_kwargs())
         rows = [dict(r) for r in _rows_of(res)]
-        self.write(f"scan{suffix}.csv", _csv_text(rows))
+        if hasattr(res, "to_csv"):
+            self.write(f"scan{suffix}.csv", res.to_csv(self.e_unit))
+        else:
+            self.write(f"scan{suffix}.csv", _csv_text(rows))
+        table = _scan_table(rows, sec.parameter)
+        for status in ("error", "tolerance-not-met"):
+            bad = [r for r in rows if r.get("status") == status]
+            if bad:
+                where = sorted({float(r[sec.parameter]) for r in bad if sec.parameter in r})
+                first = next((r.get("message") for r in bad if r.get("message")), "")
+                self.problems.append(f"scan{suffix} ({sec.model}): {len(bad)} level(s) with status {status} at "
+                                     f"{sec.parameter} = {', '.join(f'{v:g}' for v in where)}"
+                                     + (f" ({first})" if first else ""))
+        caption = f"Levels against {sec.parameter}, model {sec.model}"
         try:
             figures = importlib.import_module("boundkit.studies.figures")
-            self.figure(f"scan{suffix}", f"Levels against {sec.parameter}, model {sec.model}",
-                        lambda p: figures.scan_figure(res, p))
-        except ImportError as exc:
-            self.problems.append(f"scan figure not drawn: boundkit.studies.figures is not available ({exc})")
-        table = _scan_table(rows, sec.parameter)
+            title = f"{spec.models[sec.model].label}: levels against {sec.parameter}"
+            self.figure(f"scan{suffix}", caption, lambda p: _call(figures.scan_figure, result=res, path=p,
+                                                                  unit=self.e_unit, title=title))
+        except ImportError:
+            log.info("boundkit.studies.figures is not available; drawing the scan with the run engine's own figure")
+            self.figure(f"scan{suffix}", caption,
+                        lambda p: _scan_figure(table, sec.parameter, self.e_unit, p,
+                                               x_unit=getattr(res, "parameter_units", {}).get(sec.parameter, ""),
+                                               title=f"{spec.models[sec.model].label}: levels against "
+                                                     f"{sec.parameter}"))
         entry = {"model": sec.model, "equation": sec.equation, "parameter": sec.parameter,
                  "values": list(sec.values), "energy_unit_of_rows": "hartree", "rows": rows}
         if hasattr(res, "to_dict"):
@@ -1594,10 +1649,9 @@ class _Engine:
                 pass
         md = [f"## Scan{suffix}: levels against {sec.parameter}", "",
               f"Model {sec.model}, {sec.equation} equation, {len(sec.values)} values of {sec.parameter} from "
-              f"{min(sec.values):g} to {max(sec.values):g} (table `scan{suffix}.csv`, energies there in hartree).", ""]
+              f"{min(sec.values):g} to {max(sec.values):g} (table `scan{suffix}.csv`, energies in {self.e_unit}).", ""]
         if table:
-            labels = sorted({lab for per in table.values() for lab in per},
-                            key=lambda s: (int(re.match(r"\d+", s).group()) if re.match(r"\d+", s) else 0, s))
+            labels = sorted({lab for per in table.values() for lab in per}, key=_label_order)
             md += [f"| {sec.parameter} | " + " | ".join(f"{lab} ({self.e_unit})" for lab in labels) + " |",
                    "|---:|" + "---:|" * len(labels)]
             for v in sorted(table):
@@ -1608,6 +1662,7 @@ class _Engine:
                 md.append("A blank (-) means the level was not found bound at that value.")
                 md.append("")
         diffs = []
+        p_unit = getattr(res, "parameter_units", {}).get(sec.parameter, "")
         for a, b in sec.differences:
             pts = [(v, table[v][a] - table[v][b]) for v in sorted(table) if a in table[v] and b in table[v]]
             if not pts:
@@ -1619,14 +1674,15 @@ class _Engine:
                 slope = float(np.polyfit([p[0] for p in pts], [p[1] for p in pts], 1)[0])
                 item["slope_per_parameter"] = self.E(slope)
             diffs.append(item)
-            md.append(f"E({a}) - E({b}) ({self.e_unit}): " + ", ".join(
-                f"{v:g}: {_fmt(self.E(d), 8)}" for v, d in pts))
+            line = f"E({a}) - E({b}) ({self.e_unit}) at {sec.parameter} = " + ", ".join(
+                f"{v:g}: {_fmt(self.E(d), 8)}" for v, d in pts) + "."
             if "slope_per_parameter" in item:
-                md.append(f"; least-squares slope d/d{sec.parameter} = {_fmt(item['slope_per_parameter'], 5)} "
-                          f"{self.e_unit} per unit of {sec.parameter}.")
+                per = f"{self.e_unit}/{p_unit}" if p_unit else f"{self.e_unit} per unit of {sec.parameter}"
+                item["slope_unit"] = per
+                line += f" Least-squares slope: {_fmt(item['slope_per_parameter'], 5)} {per}."
                 self.headline.append(f"scan of {sec.parameter} ({sec.model}): d[E({a}) - E({b})]/d{sec.parameter} = "
-                                     f"{_fmt(item['slope_per_parameter'], 5)} {self.e_unit} per unit")
-            md.append("")
+                                     f"{_fmt(item['slope_per_parameter'], 5)} {per}")
+            md += [line, ""]
         if diffs:
             entry["differences"] = diffs
         self.results.setdefault("scan", []).append(_clean(entry))
@@ -1634,22 +1690,22 @@ class _Engine:
 
     # -- [critical] ------------------------------------------------------------------------
     def _critical(self, sec: CriticalSection, suffix: str) -> None:
-        studies = importlib.import_module("boundkit.studies")
         spec = self.spec
         vector, scalar, params = spec.models[sec.model].arguments(spec.units)
+        jobs = [dict(equation=sec.equation, potential=vector, params=params, state=state, vary=sec.parameter,
+                     bracket=tuple(sec.bracket) if sec.bracket else None, tol=sec.tolerance,
+                     energy_tol=sec.energy_tolerance, method=spec.method, kind=sec.kind, scalar=scalar or None,
+                     units=spec.units, **self.particle_kwargs()) for state in sec.states]
         rows = []
-        for state in sec.states:
-            try:
-                res = _call(studies.critical, equation=sec.equation, potential=vector, params=params, state=state,
-                            vary=sec.parameter, bracket=list(sec.bracket) if sec.bracket else None,
-                            tol=sec.tolerance, kind=sec.kind, scalar=scalar or None, units=spec.units,
-                            **self.particle_kwargs())
-            except ValueError as exc:
-                self.problems.append(f"critical {sec.parameter} of {state} ({sec.model}): {exc}")
-                rows.append({"state": state, "error": str(exc)})
+        for state, (ok, got) in zip(sec.states, _map_jobs(_critical_job, jobs, sec.workers)):
+            if not ok:
+                self.problems.append(f"critical {sec.parameter} of {state} ({sec.model}): {got}")
+                rows.append({"state": state, "error": got})
                 continue
-            d = _clean(res.to_dict()) if hasattr(res, "to_dict") else {"value": _clean(res)}
-            rows.append({"state": state, **d})
+            rows.append({"state": state, **got})
+            if got.get("status", "ok") != "ok":
+                self.problems.append(f"critical {sec.parameter} of {state} ({sec.model}): {got.get('status')}: "
+                                     f"{got.get('message', '')}")
         flat = [{k: v for k, v in r.items() if not isinstance(v, (dict, list))} for r in rows]
         self.write(f"critical{suffix}.csv", _csv_text(flat))
         self.results.setdefault("critical", []).append({"model": sec.model, "equation": sec.equation,
@@ -1661,9 +1717,15 @@ class _Engine:
               f"| state | critical {sec.parameter} | details |", "|---|---:|---|"]
         for r in rows:
             value = _critical_value(r, sec.parameter)
-            details = r.get("error") or ", ".join(f"{k} = {_fmt(v, 6) if isinstance(v, float) else v}"
-                                                  for k, v in r.items()
-                                                  if k not in ("state",) and not isinstance(v, (dict, list)))
+            if "error" in r:
+                details = r["error"]
+            else:
+                bits = []
+                if isinstance(r.get("uncertainty"), float):
+                    bits.append(f"+- {r['uncertainty']:.2g}")
+                bits += [f"status {r['status']}"] if "status" in r else []
+                bits += [f"{r['evaluations']} evaluations"] if "evaluations" in r else []
+                details = ", ".join(bits)
             md.append(f"| {r['state']} | {_fmt(value, 8)} | {details} |")
             if value is not None:
                 self.headline.append(f"critical {sec.parameter} of {r['state']} ({sec.model}, {sec.equation}): "
@@ -1678,7 +1740,10 @@ class _Engine:
         pot = spec.models[sec.model].potential(spec.units)
         res = _call(studies.compare, potential=pot, params=None, l_max=sec.l_max, levels=sec.levels,
                     particle=spec.particle.name, mass_mev=spec.particle.mass_mev,
-                    nucleus_mass_mev=spec.particle.nucleus_mass_mev, tol=sec.tolerance)
+                    nucleus_mass_mev=spec.particle.nucleus_mass_mev, tol=sec.tolerance, method=spec.method)
+        if not (hasattr(res, "to_dict") and hasattr(res, "table")):
+            raise ValueError("boundkit.studies.compare returned no comparison (this installation's studies "
+                             "package does not provide it yet)")
         data = _clean(res.to_dict(self.e_unit))
         rows = _rows_of_dict(data)
         self.write(f"compare{suffix}.csv", _csv_text(rows) if rows else json.dumps(data, indent=2))
@@ -1688,6 +1753,17 @@ class _Engine:
               f"l <= {sec.l_max} (table `compare{suffix}.csv`; energies in {self.e_unit}).", "", "```",
               str(res.table(self.e_unit)).rstrip(), "```", ""]
         self.md += md
+        if getattr(res, "success", True) is False:
+            bad = {k: v for k, v in getattr(res, "statuses", {}).items() if v != "ok"}
+            self.problems.append(f"compare{suffix} ({sec.model}): not every level was found or met its tolerance: "
+                                 + "; ".join(f"{k}: {v}" for k, v in bad.items()))
+        for row in rows[:1]:
+            parts = [f"{name} {_fmt(row.get(key), 6)}" for key, name in
+                     (("shift_klein_gordon", "Klein-Gordon"), ("shift_dirac_plus", "Dirac"))
+                     if row.get(key) is not None]
+            if parts:
+                self.headline.append(f"compare ({sec.model}), {row.get('label')}: shift from Schrodinger: "
+                                     + ", ".join(parts) + f" {self.e_unit}")
 
     # -- output ----------------------------------------------------------------------------
     def _write_results(self, seconds: float) -> None:
@@ -1777,6 +1853,78 @@ def _scan_table(rows: list[dict], parameter: str) -> dict[float, dict[str, float
         if math.isfinite(energy):
             out.setdefault(value, {})[str(label)] = energy
     return out
+
+
+def _critical_job(kwargs: dict) -> tuple[bool, Any]:
+    """One critical search (top level, so that worker processes can run it).
+
+    Returns (True, the result as a JSON-ready dict) or (False, the message of
+    the ValueError or StudyError that stopped it).
+    """
+    from threadpoolctl import threadpool_limits
+
+    studies = importlib.import_module("boundkit.studies")
+    try:
+        with threadpool_limits(limits=1, user_api="blas"):   # small matrices: threads only contend
+            res = _call(studies.critical, **kwargs)
+    except (ValueError, RuntimeError) as exc:
+        return False, str(exc)
+    return True, (_clean(res.to_dict()) if hasattr(res, "to_dict") else {"value": _clean(res)})
+
+
+def _map_jobs(func, jobs: list, workers: int | None) -> list:
+    """``[func(job) for job in jobs]``, on up to ``workers`` processes (default: all cores)."""
+    workers = min(workers or os.cpu_count() or 1, len(jobs))
+    if workers <= 1:
+        return [func(j) for j in jobs]
+    try:
+        import pickle
+
+        pickle.dumps(jobs)
+    except Exception as exc:  # noqa: BLE001 - unpicklable terms: run here instead
+        log.info("jobs cannot go to worker processes (%s); running them here", exc)
+        return [func(j) for j in jobs]
+    from concurrent.futures import ProcessPoolExecutor
+
+    with ProcessPoolExecutor(max_workers=workers) as pool:
+        return list(pool.map(func, jobs))
+
+
+def _label_order(label: str) -> tuple:
+    """Sort key of a level label: n, then l, then j (``2s`` < ``2p1/2`` < ``2p3/2`` < ``3s``)."""
+    m = re.match(r"(\d+)([a-z])(?:(\d+)/2)?", label)
+    if not m:
+        return (math.inf, label)
+    return (int(m.group(1)), _LETTERS.find(m.group(2)), int(m.group(3) or 0), label)
+
+
+def _scan_figure(table: dict, parameter: str, unit: str, path, title: str = "", x_unit: str = ""):
+    """Levels against the scanned parameter (used when boundkit.studies.figures is not there)."""
+    from .plots import _colour, plt, save_figure
+
+    fig, ax = plt.subplots(figsize=(6.8, 4.6))
+    labels = sorted({lab for per in table.values() for lab in per}, key=_label_order)
+    xs = sorted(table)
+    for i, lab in enumerate(labels):
+        y = [hartree_to(table[x][lab], unit) if lab in table[x] else np.nan for x in xs]
+        ax.plot(xs, y, "o-", ms=3.5, lw=1.4, color=_colour(i), label=lab)
+    if xs and min(xs) > 0 and max(xs) / min(xs) > 20:
+        ax.set_xscale("log")
+    ax.axhline(0.0, color="0.6", lw=0.7)
+    ax.set_xlabel(f"{parameter} ({x_unit})" if x_unit else parameter)
+    ax.set_ylabel(f"binding energy ({unit})")
+    ax.set_title(title or f"levels against {parameter}")
+    ax.legend(fontsize=8)
+    ax.grid(True, alpha=0.25)
+    return save_figure(fig, path)
+
+
+def _split_label(text: str) -> tuple[str | None, str]:
+    """("dirac", "1s1/2") from "dirac:1s1/2"; (None, "1s1/2") from "1s1/2"."""
+    eq, sep, label = text.partition(":")
+    if not sep:
+        return None, text.strip()
+    return _EQUATIONS.get(eq.strip().lower(), eq.strip().lower()), label.strip()
 
 
 def _critical_value(row: dict, parameter: str) -> float | None:

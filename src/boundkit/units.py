@@ -114,7 +114,8 @@ _UNIT_ALIASES = {u.lower(): u for u in ENERGY_UNITS} | {"ha": "hartree", "hartre
 
 def energy_unit(name: str) -> str:
     """Return the canonical spelling of an energy unit, or raise ValueError."""
-    key = _UNIT_ALIASES.get(str(name).lower())
+    # exact spelling first: "meV" and "MeV" differ only in case
+    key = str(name) if str(name) in ENERGY_UNITS else _UNIT_ALIASES.get(str(name).lower())
     if key is None:
         raise ValueError(
             f"energy_unit: unknown unit {name!r}; choose one of {', '.join(ENERGY_UNITS)}"

@@ -1,0 +1,506 @@
+"""Run specs: strict reading (file, key, line), the run engine's output and its safety, the
+figures it draws, the expectation values it reports, and `boundkit run` on the command line."""
+from __future__ import annotations
+
+import json
+import math
+import os
+import re
+from pathlib import Path
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+import boundkit
+from boundkit.cli import main
+from boundkit.observables import bohr_to, expectation, mean_radius, rms_radius
+from boundkit.runspec import RunSpec, _KeyLines, load_spec, run
+from boundkit.units import ENERGY_UNITS, energy_unit
+
+# A small, fast spec: hydrogen, Schrodinger, whose levels are known exactly (-Z^2/(2n^2) hartree,
+# Bethe & Salpeter 1957).
+HYDROGEN = """\
+title = "Hydrogen, Schrodinger"
+description = "Test spec: exact Coulomb levels."
+equations = ["schrodinger"]
+channels = ["s", { l = 1, levels = 1 }]
+levels = 2
+
+[models.h]
+terms = ["coulomb"]
+params = { Z = 1 }
+
+[solve]
+differences = [["2p", "2s"]]
+"""
+
+FAST = HYDROGEN.replace("[solve]\n", "[solve]\nfigures = []\n")   # the same without figures
+
+
+def write(tmp_path: Path, text: str, name: str = "spec.toml") -> Path:
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def line_of(text: str, needle: str) -> int:
+    """1-based line of the first line containing ``needle`` (the test's own search)."""
+    for i, line in enumerate(text.splitlines(), start=1):
+        if needle in line:
+            return i
+    raise AssertionError(f"{needle!r} not in text")
+
+
+def tree(folder: Path) -> dict:
+    """{relative path: bytes} of every file below ``folder``."""
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*")) if p.is_file()}
+
+
+# ----------------------------------------------------------------------------------------------
+# reading
+# ----------------------------------------------------------------------------------------------
+def test_the_small_spec_reads():
+    spec = load_spec("hydrogen.toml", HYDROGEN)
+    assert isinstance(spec, RunSpec)
+    assert spec.equations == ("schrodinger",)
+    assert spec.energy_unit == "hartree" and spec.length_unit == "bohr"
+    assert spec.solve is not None and spec.solve.differences == (("2p", "2s"),)
+    assert set(spec.models) == {"h"}
+
+
+# (replace this, with that, key named in the message, text of the line it must point at)
+BAD = [
+    ('levels = 2', 'levels = 2\ncolour = "red"', "colour", 'colour = "red"', "unknown key"),
+    ('levels = 2', 'levels = "2"', "levels", 'levels = "2"', "expected an integer"),
+    ('title = "Hydrogen, Schrodinger"\n', '', "title", None, "missing"),
+    ('params = { Z = 1 }', 'params = { Z = "one" }', "models.h.params.Z", 'params = { Z = "one" }',
+     "expected a number"),
+    ('params = { Z = 1 }', 'params = { Z = 1, D = 2 }', "models.h.params.D", "params = { Z = 1, D = 2 }",
+     "no term of model 'h' takes this parameter"),
+    ('terms = ["coulomb"]', 'terms = ["colomb"]', "models.h.terms[0]", 'terms = ["colomb"]',
+     "unknown built-in term 'colomb'"),
+    ('params = { Z = 1 }', 'params = { Z = 1 }\nshape = "round"', "models.h.shape", 'shape = "round"',
+     "unknown key"),
+    ('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s", "e"]', "channels[1]",
+     'channels = ["s", "e"]', "channel 'e' not understood"),
+    ('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["p5/2"]', "channels[0]", 'channels = ["p5/2"]',
+     "j must be l - 1/2 or l + 1/2"),
+    ('equations = ["schrodinger"]', 'equations = ["dirak"]', "equations[0]", 'equations = ["dirak"]',
+     "unknown equation 'dirak'"),
+    ('differences = [["2p", "2s"]]', 'differences = [["2p", "2s"]]\nmodels = ["h", "x"]', "solve.models[1]",
+     'models = ["h", "x"]', "no model 'x'"),
+    ('differences = [["2p", "2s"]]', 'differences = [["2p"]]', "solve.differences[0]",
+     'differences = [["2p"]]', "pair of level labels"),
+    ('levels = 2', 'levels = 2\ntolerance = 2.0', "tolerance", "tolerance = 2.0", "between 0 and 1"),
+    ('levels = 2', 'levels = 2\nenergy_unit = "furlong"', "energy_unit", 'energy_unit = "furlong"',
+     "unknown unit 'furlong'"),
+    ('levels = 2', 'levels = 2\nunits = "imperial"', "units", 'units = "imperial"', "must be \"atomic\""),
+    ('levels = 2', 'levels = 2\n[particle]\nname = "tauon"', "particle.name", 'name = "tauon"',
+     "unknown value 'tauon'"),
+    ('levels = 2', 'levels = 2\n[particle]\nmass_mev = -5.0', "particle.mass_mev", "mass_mev = -5.0",
+     "must be positive"),
+    ('[solve]\ndifferences = [["2p", "2s"]]\n', '[converge]\nmodel = "hh"\n', "converge.model", 'model = "hh"',
+     "no model 'hh'"),
+    ('[solve]\ndifferences = [["2p", "2s"]]\n', '', "solve", None, "asks for no study"),
+]
+
+
+@pytest.mark.parametrize("old, new, key, line_text, message", BAD, ids=[b[2] + ":" + b[4][:18] for b in BAD])
+def test_bad_spec_names_file_key_and_line(tmp_path, old, new, key, line_text, message):
+    assert old in HYDROGEN
+    text = HYDROGEN.replace(old, new, 1)
+    path = write(tmp_path, text)
+    with pytest.raises(ValueError) as err:
+        load_spec(path)
+    msg = str(err.value)
+    assert str(path) in msg
+    assert f"key {key!r}" in msg
+    assert message in msg
+    expected_line = line_of(text, line_text) if line_text else 1
+    assert f"line {expected_line}," in msg, msg
+
+
+def test_missing_key_in_a_table_points_at_the_table(tmp_path):
+    text = HYDROGEN.replace('[solve]\ndifferences = [["2p", "2s"]]\n', '[critical]\nstates = ["1s"]\n')
+    path = write(tmp_path, text)
+    with pytest.raises(ValueError, match=r"line \d+, key 'critical.model': missing") as err:
+        load_spec(path)
+    assert f"line {line_of(text, '[critical]')}," in str(err.value)
+
+
+def test_errors_inside_arrays_of_tables_point_at_the_right_entry(tmp_path):
+    text = HYDROGEN.replace('[models.h]\nterms = ["coulomb"]\nparams = { Z = 1 }\n', """\
+[models.h]
+terms = ["coulomb"]
+params = { Z = 1 }
+
+[[models.h.term]]
+name = "yukawa"
+params = { Z = 0.1, screening_length = 3.0 }
+
+[[models.h.term]]
+name = "yukawa"
+params = { Z = 0.1, screening_length = -3.0 }
+""")
+    path = write(tmp_path, text)
+    with pytest.raises(ValueError, match="screening_length > 0") as err:
+        load_spec(path)
+    msg = str(err.value)
+    assert "key 'models.h.term[1].params.screening_length'" in msg
+    assert f"line {line_of(text, 'screening_length = -3.0')}," in msg
+
+
+def test_invalid_toml_names_the_line(tmp_path):
+    text = HYDROGEN.replace("levels = 2", "levels = = 2")
+    path = write(tmp_path, text)
+    with pytest.raises(ValueError, match=rf"run spec .*spec.toml, line {line_of(text, 'levels = = 2')}: "
+                                         "not valid TOML"):
+        load_spec(path)
+
+
+def test_unreadable_file(tmp_path):
+    with pytest.raises(ValueError, match="run spec .*nothing.toml: cannot read it"):
+        load_spec(tmp_path / "nothing.toml")
+
+
+def test_key_lines_follow_tables_arrays_inline_tables_and_multiline_values():
+    text = '''\
+title = "t"
+description = """
+levels = 99
+"""
+channels = [
+  "s",
+  { kappa = -2 },
+]
+[models.a]
+params = { Z = 1, "rms_fm" = 2 }
+[[scan]]
+model = "a"
+[[scan]]
+model = "b"
+[scan.range]
+start = 1
+'''
+    lines = _KeyLines(text)
+    assert lines.find(("description",)) == 2
+    assert lines.find(("levels",)) == 1           # inside the string: not a key; falls back to line 1
+    assert lines.find(("channels", 1, "kappa")) == 5
+    assert lines.find(("models", "a")) == 9
+    assert lines.find(("models", "a", "params", "Z")) == 10
+    assert lines.find(("models", "a", "params", "rms_fm")) == 10
+    assert lines.find(("scan", 0, "model")) == 12
+    assert lines.find(("scan", 1, "model")) == 14
+    assert lines.find(("scan", 1, "range", "start")) == 16
+
+
+# ----------------------------------------------------------------------------------------------
+# running
+# ----------------------------------------------------------------------------------------------
+def test_run_writes_results_tables_figures_and_report(tmp_path):
+    spec = write(tmp_path, HYDROGEN)
+    out = tmp_path / "out" / "h"
+    report = run(spec, out)
+    assert report.out_dir == out and report.success, report.problems
+    files = set(os.listdir(out))
+    for name in ("results.json", "report.md", "levels.csv", "differences.csv", "spec.toml",
+                 "radial-h-schrodinger.png", "density-h-schrodinger.png", "levels-h.png"):
+        assert name in files
+    assert set(report.files) <= files
+    # nothing but the output folder was created next to it (no temporary folders left)
+    assert os.listdir(out.parent) == ["h"]
+    data = json.loads((out / "results.json").read_text())
+    assert data["boundkit_version"] == boundkit.__version__
+    assert data["constants"]["alpha"] == pytest.approx(0.0072973525643, rel=1e-9)
+    assert data["units"]["energy"] == "hartree" and data["units"]["length"] == "bohr"
+    assert data["settings"]["particle"] == "electron"
+    assert data["success"] is True and data["problems"] == []
+    levels = {r["label"]: r for r in data["solve"]["levels"]}
+    assert set(levels) == {"1s", "2s", "2p"}
+    # exact: E_n = -1/(2 n^2) hartree; <r> = (3 n^2 - l(l+1))/2 bohr (Bethe & Salpeter 1957, eq. 3.24)
+    for label, n, l in (("1s", 1, 0), ("2s", 2, 0), ("2p", 2, 1)):
+        assert levels[label]["energy_hartree"] == pytest.approx(-0.5 / n**2, rel=1e-12)
+        assert levels[label]["mean_radius"] == pytest.approx((3 * n * n - l * (l + 1)) / 2, rel=1e-9)
+    (diff,) = data["solve"]["differences"]
+    assert abs(diff["difference_hartree"]) < 1e-12        # 2s and 2p are degenerate in the Coulomb field
+    md = (out / "report.md").read_text()
+    assert md.startswith("# Hydrogen, Schrodinger")
+    assert "![" in md and "(radial-h-schrodinger.png)" in md
+    assert "hartree" in md and "-0.5" in md
+    csv_head = (out / "levels.csv").read_text().splitlines()[0]
+    assert csv_head.startswith("model,equation,channel,label,n,l,j,kappa,nodes,energy")
+
+
+def test_units_and_figure_format_options(tmp_path):
+    text = HYDROGEN.replace("levels = 2", 'levels = 2\nenergy_unit = "eV"\nlength_unit = "angstrom"\n'
+                                          'figure_format = "svg"')
+    out = tmp_path / "o"
+    run(write(tmp_path, text), out)
+    data = json.loads((out / "results.json").read_text())
+    one = next(r for r in data["solve"]["levels"] if r["label"] == "1s")
+    assert one["energy"] == pytest.approx(-0.5 * ENERGY_UNITS["eV"], rel=1e-12)
+    assert one["mean_radius"] == pytest.approx(bohr_to(1.5, "angstrom"), rel=1e-9)
+    assert (out / "radial-h-schrodinger.svg").read_text().lstrip().startswith("<?xml")
+    assert not list(out.glob("*.png"))
+
+
+def test_existing_output_is_refused_without_force_and_kept(tmp_path):
+    spec = write(tmp_path, FAST)
+    out = tmp_path / "o"
+    out.mkdir()
+    (out / "results.json").write_text("{}")
+    (out / "mine.txt").write_text("keep me")
+    before = tree(out)
+    with pytest.raises(FileExistsError, match="exists; choose another with --out or replace it with --force"):
+        run(spec, out)
+    assert tree(out) == before
+
+
+def test_force_replaces_an_earlier_run_and_leaves_nothing_else(tmp_path):
+    spec = write(tmp_path, FAST)
+    out = tmp_path / "o"
+    run(spec, out)
+    (out / "stale.txt").write_text("from before")
+    run(spec, out, force=True)
+    assert not (out / "stale.txt").exists()
+    assert (out / "results.json").is_file()
+    assert sorted(os.listdir(tmp_path)) == ["o", "spec.toml"]
+
+
+def test_force_never_replaces_a_folder_that_is_not_run_output(tmp_path):
+    spec = write(tmp_path, HYDROGEN)
+    out = tmp_path / "important"
+    out.mkdir()
+    (out / "thesis.tex").write_text("years of work")
+    with pytest.raises(FileExistsError, match="does not hold a boundkit run"):
+        run(spec, out, force=True)
+    assert (out / "thesis.tex").read_text() == "years of work"
+
+
+def test_a_failing_run_leaves_existing_output_untouched_and_no_debris(tmp_path, monkeypatch):
+    from boundkit import runspec
+
+    spec = write(tmp_path, FAST)
+    out = tmp_path / "o"
+    run(spec, out)
+    before = tree(out)
+
+    def boom(self, seconds):
+        raise RuntimeError("disk on fire")
+
+    monkeypatch.setattr(runspec._Engine, "_write_report", boom)
+    with pytest.raises(RuntimeError, match="disk on fire"):
+        run(spec, out, force=True)
+    assert tree(out) == before
+    assert sorted(os.listdir(tmp_path)) == ["o", "spec.toml"]
+
+
+def test_levels_that_are_not_found_are_reported_as_problems(tmp_path):
+    # a shallow Yukawa well (Z = 1, D = 2 bohr) holds 1s but no 2s: critical D of 2s is 3.22 bohr
+    # (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970))
+    text = FAST.replace('terms = ["coulomb"]\nparams = { Z = 1 }',
+                            'terms = ["yukawa"]\nparams = { Z = 1, screening_length = 2.0 }')
+    text = text.replace('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s"]')
+    report = run(write(tmp_path, text), tmp_path / "o")
+    assert not report.success
+    assert any("found 1 of 2" in p for p in report.problems)
+    data = json.loads((tmp_path / "o" / "results.json").read_text())
+    assert data["success"] is False and data["problems"]
+    assert [r["label"] for r in data["solve"]["levels"]] == ["1s"]
+    assert "did not go as asked" in (tmp_path / "o" / "report.md").read_text()
+
+
+def test_nuclear_units_and_own_term_parameters_reach_the_solver(tmp_path):
+    # the same Woods-Saxon well given once by shared parameters and once as a term with its own
+    text = """\
+title = "well"
+description = "Two spellings of one nuclear well."
+units = "nuclear"
+equations = ["schrodinger"]
+levels = 1
+[particle]
+name = "proton"
+[models.shared]
+terms = ["woods-saxon"]
+params = { depth = 50.0, radius = 4.0, diffuseness = 0.6 }
+[models.own]
+[[models.own.term]]
+name = "woods-saxon"
+params = { depth = 50.0, radius = 4.0, diffuseness = 0.6 }
+[solve]
+figures = []
+reference = "shared"
+"""
+    run(write(tmp_path, text), tmp_path / "o")
+    data = json.loads((tmp_path / "o" / "results.json").read_text())
+    (shift,) = data["solve"]["shifts"]
+    assert abs(shift["shift_hartree"]) <= 1e-12 * abs(data["solve"]["levels"][0]["energy_hartree"])
+    direct = boundkit.solve("schrodinger", "woods-saxon", {"depth": 50.0, "radius": 4.0, "diffuseness": 0.6},
+                            particle="proton", units="nuclear")
+    assert data["solve"]["levels"][0]["energy_hartree"] == pytest.approx(direct.levels[0].energy, rel=1e-12)
+    assert data["units"]["energy"] == "MeV" and data["units"]["length"] == "fm"
+
+
+# ----------------------------------------------------------------------------------------------
+# command line
+# ----------------------------------------------------------------------------------------------
+def test_cli_run_success_and_default_folder(tmp_path, monkeypatch):
+    spec = write(tmp_path, FAST, "hyd.toml")
+    monkeypatch.chdir(tmp_path)
+    runner = CliRunner()
+    res = runner.invoke(main, ["run", str(spec)])
+    assert res.exit_code == 0, res.output
+    assert (tmp_path / "out" / "hyd" / "results.json").is_file()
+    assert "Hydrogen, Schrodinger" in res.output and "wrote" in res.output
+    again = runner.invoke(main, ["run", str(spec)])
+    assert again.exit_code == 2
+    assert "exists" in again.output and "--force" in again.output
+    assert runner.invoke(main, ["run", str(spec), "--force"]).exit_code == 0
+
+
+@pytest.mark.parametrize("force", [False, True])
+def test_cli_bad_spec_exit_2_one_message_and_output_untouched(tmp_path, force):
+    good = write(tmp_path, FAST)
+    out = tmp_path / "o"
+    assert CliRunner().invoke(main, ["run", str(good), "--out", str(out)]).exit_code == 0
+    before = tree(out)
+    text = FAST.replace('params = { Z = 1 }', 'params = { Z = 1 }\ncolour = "blue"')
+    bad = write(tmp_path, text, "bad.toml")
+    args = ["run", str(bad), "--out", str(out)] + (["--force"] if force else [])
+    res = CliRunner().invoke(main, args)
+    assert res.exit_code == 2
+    assert "Traceback" not in res.output
+    msg = res.output.strip()
+    assert msg.count("\n") == 0, msg
+    assert msg.startswith("boundkit: error: run spec ")
+    assert str(bad) in msg and "key 'models.h.colour'" in msg
+    assert f"line {line_of(text, 'colour')}," in msg
+    assert tree(out) == before
+    assert sorted(os.listdir(tmp_path)) == ["bad.toml", "o", "spec.toml"]
+
+
+def test_cli_problems_give_exit_3_with_output_written(tmp_path):
+    text = FAST.replace('terms = ["coulomb"]\nparams = { Z = 1 }',
+                            'terms = ["yukawa"]\nparams = { Z = 1, screening_length = 2.0 }')
+    text = text.replace('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s"]')
+    res = CliRunner().invoke(main, ["run", str(write(tmp_path, text)), "--out", str(tmp_path / "o")])
+    assert res.exit_code == 3
+    assert "problem:" in res.output
+    assert (tmp_path / "o" / "report.md").is_file()
+
+
+def test_solve_plot_option_writes_the_radial_figure(tmp_path):
+    fig = tmp_path / "h.png"
+    res = CliRunner().invoke(main, ["solve", "--equation", "schrodinger", "--levels", "2", "--plot", str(fig)])
+    assert res.exit_code == 0, res.output
+    assert fig.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    bad = CliRunner().invoke(main, ["solve", "--plot", str(tmp_path / "h.gif")])
+    assert bad.exit_code == 2 and "unsupported figure format" in bad.output
+
+
+# ----------------------------------------------------------------------------------------------
+# observables and figures
+# ----------------------------------------------------------------------------------------------
+def test_expectation_values_of_hydrogen_match_the_exact_ones():
+    # <r> = (3n^2 - l(l+1))/(2Z), <r^2> = n^2 (5n^2 + 1 - 3l(l+1))/(2Z^2), <1/r> = Z/n^2
+    # (Bethe & Salpeter 1957, eqs. 3.24-3.26)
+    Z = 3.0
+    for l, levels in ((0, 3), (1, 2)):
+        res = boundkit.solve("schrodinger", "coulomb", {"Z": Z}, l=l, levels=levels)
+        for lv in res.levels:
+            n = lv.n
+            assert mean_radius(lv) == pytest.approx((3 * n * n - l * (l + 1)) / (2 * Z), rel=1e-9)
+            assert rms_radius(lv) ** 2 == pytest.approx(n * n * (5 * n * n + 1 - 3 * l * (l + 1)) / (2 * Z * Z),
+                                                        rel=1e-9)
+            assert expectation(lv, lambda r: 1 / r) == pytest.approx(Z / n**2, rel=1e-9)
+            assert expectation(lv, np.ones_like) == pytest.approx(1.0, rel=1e-12)
+
+
+def test_expectation_uses_both_dirac_components():
+    # Dirac-Coulomb 1s: P and Q both go like r^gamma e^(-Z r) (atomic units), so the density is
+    # r^(2 gamma) e^(-2 Z r) and <r> = (2 gamma + 1)/(2 Z), gamma = sqrt(1 - (Z alpha)^2)
+    # (Bethe & Salpeter 1957, sec. 14). P^2 alone integrates to less than one.
+    Z = 80
+    lv = boundkit.solve("dirac", "coulomb", {"Z": Z}, kappa=-1).levels[0]
+    st = lv.state
+    assert np.sum(st.weights * (st.P**2 + st.Q**2)) == pytest.approx(1.0, rel=1e-10)
+    assert np.sum(st.weights * st.P**2) < 0.99
+    g = math.sqrt(1 - (Z * boundkit.units.ALPHA) ** 2)
+    assert mean_radius(lv) == pytest.approx((2 * g + 1) / (2 * Z), rel=1e-9)
+
+
+def test_cornell_virial_theorem_from_expectation_values():
+    # Schrodinger: 2<T> = <r dV/dr>, so E = <V> + <r V'>/2 = -kappa<1/r>/2 + 3 sigma<r>/2 for
+    # V = -kappa/r + sigma r (virial theorem, any bound state)
+    kappa, sigma = 0.7, 0.3
+    res = boundkit.solve("schrodinger", "cornell", {"kappa_c": kappa, "sigma": sigma}, l=1, levels=2)
+    for lv in res.levels:
+        rhs = -0.5 * kappa * expectation(lv, lambda r: 1 / r) + 1.5 * sigma * mean_radius(lv)
+        assert lv.energy == pytest.approx(rhs, rel=1e-9)
+
+
+def test_node_radii_of_hydrogen_s_levels():
+    from boundkit.plots import node_radii
+
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=0, levels=3)
+    _, two, three = res.levels
+    # R_20 ~ (2 - r): node at r = 2; R_30 ~ 27 - 18 r + 2 r^2: nodes at (9 -+ 3 sqrt 3)/2 bohr
+    assert node_radii(two.state.r, two.state.P) == pytest.approx([2.0], rel=1e-3)
+    assert node_radii(three.state.r, three.state.P) == pytest.approx(
+        [(9 - 3 * math.sqrt(3)) / 2, (9 + 3 * math.sqrt(3)) / 2], rel=1e-3)
+
+
+def test_figures_are_written_in_each_format(tmp_path):
+    from boundkit.plots import density_figure, level_diagram, radial_figure
+
+    d = boundkit.solve("dirac", "coulomb", {"Z": 50}, kappa=1, levels=2)
+    s = boundkit.solve("schrodinger", "coulomb", {"Z": 50}, l=1, levels=2)
+    pot = boundkit.make_potential("coulomb", {"Z": 50})
+    for suffix in (".png", ".svg", ".pdf"):
+        for func, args in ((radial_figure, ({"dirac": d.levels, "schrodinger": s.levels},)),
+                           (density_figure, (d.levels,)),
+                           (level_diagram, (pot, {"dirac": d.levels}))):
+            path = func(*args, tmp_path / f"{func.__name__}{suffix}")
+            assert path.stat().st_size > 1000
+    with pytest.raises(ValueError, match="no levels to draw"):
+        radial_figure([], tmp_path / "empty.png")
+
+
+def test_energy_unit_keeps_milli_and_mega_apart():
+    # "meV" and "MeV" differ only in case; both must keep their own meaning
+    assert energy_unit("meV") == "meV" and energy_unit("MeV") == "MeV"
+    assert ENERGY_UNITS[energy_unit("meV")] == pytest.approx(ENERGY_UNITS["MeV"] * 1e9, rel=1e-15)
+
+
+def test_report_headline_numbers_carry_units(tmp_path):
+    report = run(write(tmp_path, FAST), tmp_path / "o")
+    assert report.headline
+    for line in report.headline:
+        assert re.search(r"hartree|bohr", line), line
+
+
+def test_the_spec_in_the_documentation_reads():
+    doc = (Path(__file__).resolve().parent.parent / "docs" / "runspec.md").read_text()
+    block = re.search(r"## A first spec\s+```toml\n(.*?)```", doc, re.S).group(1)
+    spec = load_spec("docs/runspec.md", block)
+    assert set(spec.models) == {"point", "fermi"} and spec.solve.reference == "point"
+
+
+def test_scan_points_the_solver_refuses_are_reported(tmp_path):
+    pytest.importorskip("boundkit.studies")
+    # a point charge with Z alpha > 1 has no Dirac 1s1/2 level (gamma = sqrt(1 - (Z alpha)^2) turns
+    # imaginary; Bethe & Salpeter 1957): the solver refuses Z = 150, and the scan must say so rather
+    # than pass the point over as an absent level
+    text = FAST.replace('equations = ["schrodinger"]', 'equations = ["dirac"]')
+    text = text.replace('[solve]\nfigures = []\ndifferences = [["2p", "2s"]]\n',
+                        '[scan]\nmodel = "h"\nparameter = "Z"\nvalues = [50.0, 150.0]\n'
+                        'channels = ["s"]\nlevels = 1\nworkers = 1\n')
+    report = run(write(tmp_path, text), tmp_path / "o")
+    assert any("status error at Z = 150" in p for p in report.problems), report.problems
+    data = json.loads((tmp_path / "o" / "results.json").read_text())
+    (scan,) = data["scan"]
+    rows = {r["Z"]: r for r in scan["rows"]}
+    assert rows[50.0]["status"] == "ok" and rows[50.0]["energy"] < 0
+    assert rows[150.0]["status"] == "error"
+    assert (tmp_path / "o" / "scan.png").is_file() and (tmp_path / "o" / "scan.csv").is_file()

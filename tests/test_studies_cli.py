@@ -1,0 +1,108 @@
+"""Command line of the studies: scan, critical, compare (parse, call, print; bad input -> exit 2)."""
+from __future__ import annotations
+
+import json
+
+import pytest
+from click.testing import CliRunner
+
+from boundkit.cli import main
+from boundkit.exact import dirac_coulomb, hulthen
+from boundkit.units import hartree_to
+
+
+def run(*args):
+    return CliRunner().invoke(main, list(args))
+
+
+def test_critical_json_keys_and_value():
+    res = run("critical", "-e", "schrodinger", "-p", "hulthen", "--param", "Z=1", "--param", "delta=0.3",
+              "--state", "2s", "--vary", "delta", "--json")
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.output)
+    for key in ("parameter", "value", "uncertainty", "state", "equation", "kind", "bracket", "evaluations"):
+        assert key in data
+    # Hulthen 2s: delta_c = 2Z/n^2 = 0.5 (Flugge 1971, from memory)
+    assert data["value"] == pytest.approx(0.5, rel=1e-8)
+    assert (data["parameter"], data["state"], data["kind"]) == ("delta", "2s", "unbind")
+
+
+def test_compare_prints_the_fine_structure_in_ghz():
+    res = run("compare", "--param", "Z=1", "--l-max", "1", "--levels", "1", "--splitting-unit", "GHz", "--json")
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.output)
+    twop = next(r for r in data["rows"] if r["label"] == "2p")
+    # Sommerfeld-Dirac (Bethe & Salpeter 1957)
+    expected = hartree_to(dirac_coulomb(1, 2, -2) - dirac_coulomb(1, 2, 1), "GHz")
+    assert twop["fine_structure"] == pytest.approx(expected, rel=1e-9)
+    table = run("compare", "--param", "Z=1", "--l-max", "0", "--levels", "1")
+    assert table.exit_code == 0 and "Klein-Gordon" in table.output
+
+
+def test_scan_writes_files_a_figure_and_resumes(tmp_path):
+    out, fig = tmp_path / "run", tmp_path / "levels.svg"
+    args = ("scan", "-e", "schrodinger", "--expr", "-Z*D*exp(-D*r)/(1-exp(-D*r))", "--param", "Z=1",
+            "--vary", "D=0.2,0.6", "--l", "0", "--levels", "2", "--workers", "1", "--out", str(out))
+    res = run(*args, "--plot", str(fig), "--energy-unit", "eV")
+    assert res.exit_code == 0, res.output
+    assert "2 point(s) solved, 0 reused" in res.output
+    assert fig.read_text().lstrip().startswith("<?xml")
+    data = json.loads((out / "scan.json").read_text())
+    # the expression is the Hulthen potential, rebuilt at each D: E_n = -(Z/n - n D/2)^2/2 (Flugge 1971)
+    for r in data["rows"]:
+        n = int(r["label"][0])
+        if r["D"] < 2 / n**2:
+            assert r["energy"] == pytest.approx(hulthen(1, r["D"], n), rel=1e-10)
+        else:
+            assert r["energy"] is None and r["status"] == "absent"
+    again = run(*args, "--json")
+    assert again.exit_code == 0, again.output
+    assert json.loads(again.output)["reused"] == 2
+
+
+@pytest.mark.parametrize("args, match", [
+    (("scan", "-e", "schrodinger", "-p", "yukawa", "--param", "Z=1", "--vary", "screening_length=1:2"),
+     "cannot read 'screening_length=1:2'"),
+    (("scan", "-e", "dirac", "-p", "yukawa", "--param", "Z=1", "--vary", "screening_length=2", "--l", "1"),
+     "needs kappa"),
+    (("scan", "-e", "schrodinger", "-p", "yukawa", "--param", "Z=1", "--vary", "screening_length=2",
+      "--vary", "Z=1,2", "--vary", "screening_length=3"), "one or two"),
+    (("critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--rms-rule", "1.2,2.5",
+      "--state", "2p", "--vary", "Z"), "needs j in '2p'"),
+    (("critical", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=5", "--state", "1j",
+      "--vary", "screening_length"), "unknown orbital letter"),
+    (("critical", "-p", "yukawa", "--param", "Z=1", "--state", "1s", "--vary", "screening_length",
+      "--bracket", "1;2"), "--bracket"),
+    (("critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--param", "rms_fm=7",
+      "--rms-rule", "1.2,2.5", "--state", "1s", "--vary", "Z"), "leave out --param rms_fm"),
+    (("compare", "--param", "Z=1", "--energy-unit", "furlongs"), "unknown unit"),
+])
+def test_bad_input_is_one_message_and_exit_2(args, match):
+    res = run(*args)
+    assert res.exit_code == 2, res.output
+    assert isinstance(res.exception, SystemExit)
+    assert "Traceback" not in res.output
+    assert match in res.output
+
+
+def test_a_search_that_does_not_converge_exits_3_and_says_so():
+    # four solves cannot pin the Dirac 1s diving charge to 1e-8: the result is printed with its
+    # status, a message goes to stderr, exit code 3
+    res = run("critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--rms-rule", "1.2,2.5",
+              "--state", "1s1/2", "--vary", "Z", "--max-evaluations", "4")
+    assert res.exit_code == 3, res.output
+    assert "status: tolerance-not-met" in res.output
+    assert "boundkit: tolerance-not-met: the extrapolations did not agree" in res.output
+
+
+def test_a_search_stopped_by_the_solver_exits_3_with_its_message(monkeypatch):
+    import boundkit.studies as studies
+
+    def refuse(*args, **kwargs):
+        raise studies.StudyError("the solver refused delta = 1.3: example")
+
+    monkeypatch.setattr(studies, "critical", refuse)
+    res = run("critical", "-p", "hulthen", "--param", "Z=1", "--param", "delta=1", "--state", "1s", "--vary", "delta")
+    assert res.exit_code == 3, res.output
+    assert "boundkit: failed: the solver refused delta = 1.3: example" in res.output
+    assert "Traceback" not in res.output
