@@ -465,7 +465,6 @@ BAD = [
     ("hulthen", {"Z": 1, "delta": 0.0}, r"delta > 0"),
     ("woods-saxon", {"depth": 1, "radius": -1.0, "diffuseness": 0.5}, r"radius >= 0"),
     ("woods-saxon", {"depth": 1, "radius": 1.0, "diffuseness": 0.0}, r"diffuseness > 0"),
-    ("woods-saxon", {"depth": 1, "radius": 1.0, "diffuseness": 0.5, "spin_orbit": 0.3}, r"not yet supported"),
     ("linear", {"F": 0.0}, r"F > 0"),
     ("linear", {"F": -1.0}, r"F > 0"),
     ("cornell", {"kappa_c": 0.5, "sigma": -0.1}, r"sigma > 0"),

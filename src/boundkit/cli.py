@@ -166,6 +166,8 @@ def main(verbose: int) -> None:
 @potential_options
 @click.option("--l", "l", type=int, default=None, help="Orbital l (Schrodinger, Klein-Gordon).")
 @click.option("--kappa", type=int, default=None, help="Dirac kappa (-1 = s1/2, 1 = p1/2, -2 = p3/2, ...).")
+@click.option("--j", "j", type=float, default=None,
+              help="j = l +- 1/2 (Schrodinger, for a spin-orbit term such as woods-saxon spin_orbit).")
 @click.option("--levels", "-n", type=int, default=3, show_default=True, help="Number of lowest levels.")
 @click.option("--tol", type=float, default=1e-10, show_default=True,
               help="Relative tolerance on binding energies.")
@@ -181,8 +183,8 @@ def main(verbose: int) -> None:
 @click.option("--plot", "plot_path", default=None, metavar="FILE",
               help="Also draw the radial functions of the levels (.png, .svg or .pdf).")
 def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
-              table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, levels, tol, method, order,
-              particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json, plot_path):
+              table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, j, levels, tol, method,
+              order, particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json, plot_path):
     """Bound levels of one channel.
 
     Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
@@ -196,7 +198,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
         res = solve(equation=equation, potential=vector, params=values, l=l, kappa=kappa,
                     levels=levels, tol=tol, method=method, order=order, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
-                    scalar=scalar or None, units=unit_system, cross_check=cross_check)
+                    scalar=scalar or None, units=unit_system, cross_check=cross_check, j=j)
         if plot_path and res.levels:
             from .plots import radial_figure
             radial_figure(res.levels, plot_path, length_unit="fm" if unit_system == "nuclear" else "bohr",

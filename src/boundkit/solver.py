@@ -55,7 +55,7 @@ _UNSTABLE = 1e-3       # a level whose energy still moves this much between size
 
 
 def make_equation(equation: str, l: int | None = None, kappa: int | None = None,
-                  mass: float = 1.0) -> RadialEquation:
+                  mass: float = 1.0, j: float | None = None) -> RadialEquation:
     """Build the equation object of one channel.
 
     ``equation`` is ``schrodinger``, ``klein-gordon`` or ``dirac``; Schrodinger
@@ -77,16 +77,22 @@ def make_equation(equation: str, l: int | None = None, kappa: int | None = None,
     if kappa is not None:
         raise ValueError(f"kappa: only the Dirac equation takes kappa; give l for {key}")
     l = 0 if l is None else check_int("l", l, minimum=0)
-    return (Schrodinger if key == "schrodinger" else KleinGordon)(l=l, mass=mass)
+    if key == "schrodinger":
+        return Schrodinger(l=l, mass=mass, j=j)
+    if j is not None:
+        raise ValueError("j: only the Schrodinger equation takes j (for a spin-orbit term); the Dirac "
+                         "equation takes kappa, and a spin-0 particle has j = l")
+    return KleinGordon(l=l, mass=mass)
 
 
 def _sample(pot: Potential, r: np.ndarray) -> Sample:
     V = np.asarray(pot.V(r), dtype=float)
     S = np.asarray(pot.S(r), dtype=float)
+    W = pot.spin_orbit(r)
     if not (np.all(np.isfinite(V)) and np.all(np.isfinite(S))):
         bad = r[~(np.isfinite(V) & np.isfinite(S))][0]
         raise ValueError(f"potential: not finite at r = {bad:.3g} bohr; check the expression or parameters")
-    return Sample(r, V, S)
+    return Sample(r, V, S, None if W is None else np.asarray(W, dtype=float))
 
 
 def _natural_length(eq: RadialEquation, pot: Potential) -> float:
@@ -521,7 +527,7 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
 def setup(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
           l: int | None = None, kappa: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None, scalar=None,
-          units: str = "atomic"):
+          units: str = "atomic", j: float | None = None):
     """Check and build (equation, potential, settings) from user-level arguments.
 
     Shared by :func:`solve` and the studies; raises ValueError on bad input.
@@ -531,7 +537,7 @@ def setup(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     if nucleus_mass_mev is not None:
         M = check_positive("nucleus_mass_mev", nucleus_mass_mev) / ELECTRON_MASS_MEV
         mass = mass * M / (mass + M)
-    eq = make_equation(equation, l=l, kappa=kappa, mass=mass)
+    eq = make_equation(equation, l=l, kappa=kappa, mass=mass, j=j)
     if scalar is not None and eq.name == "schrodinger":
         log.info("Schrodinger equation: scalar terms are added to the vector potential")
     pot = make_potential(potential, params, scalar=scalar, units=units)
@@ -547,7 +553,8 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
           l: int | None = None, kappa: int | None = None, levels: int = 1, tol: float = 1e-10,
           method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None,
-          scalar=None, units: str = "atomic", cross_check: bool = False) -> SolveResult:
+          scalar=None, units: str = "atomic", cross_check: bool = False,
+          j: float | None = None) -> SolveResult:
     """Bound levels of one channel of a central potential.
 
     Parameters
@@ -580,6 +587,9 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
         Unit system of the parameters and callables: hartree and bohr
         (default) or MeV and fm. Results are always in hartree and bohr
         inside; convert with ``Level.energy_in``.
+    j : float, optional
+        Total angular momentum l +- 1/2 of a spin-1/2 particle in the
+        Schrodinger equation, needed when the potential has a spin-orbit term.
     cross_check : bool
         Also solve with the other discretization family and put the
         per-level agreement in ``diagnostics['cross_check']``.
@@ -607,7 +617,7 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     disc = get_method(method, order)
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
-                              units=units)
+                              units=units, j=j)
     settings.update({"levels": levels, "tol": tol, "method": disc.describe()})
     res = solve_channel(eq, pot, disc, levels, tol, settings, potential_name=pot.name)
     if cross_check:

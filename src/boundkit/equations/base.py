@@ -26,15 +26,17 @@ __all__ = ["RadialEquation", "Sample", "FactorizedOperator"]
 
 @dataclass(frozen=True)
 class Sample:
-    """Potential values on a grid (vector V, scalar S), in double and, when
+    """Potential values on a grid (vector V, scalar S, spin-orbit factor W), in double and, when
     the grid refines in extended precision, in ``numpy.longdouble``."""
 
     r: np.ndarray
     V: np.ndarray
     S: np.ndarray
+    W: np.ndarray | None = None    # spin-orbit radial factor U(r), when the potential has one
 
     def cast(self, dtype) -> "Sample":
-        return Sample(self.r.astype(dtype), self.V.astype(dtype), self.S.astype(dtype))
+        W = None if self.W is None else self.W.astype(dtype)
+        return Sample(self.r.astype(dtype), self.V.astype(dtype), self.S.astype(dtype), W)
 
 
 class RadialEquation:

@@ -3,6 +3,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from .._checks import check_int, check_positive
 from .base import RadialEquation, Sample, letter
 
@@ -14,7 +16,9 @@ class Schrodinger(RadialEquation):
 
     Notes
     -----
-    -u''/(2 mu) + [l(l+1)/(2 mu r^2) + V + S] u = E u, u(0) = u(inf) = 0.
+    -u''/(2 mu) + [l(l+1)/(2 mu r^2) + V + S + <l.s> U(r)] u = E u, u(0) = u(inf) = 0,
+    the spin-orbit term present only when the potential has one and j is given
+    (<l.s> = [j(j+1) - l(l+1) - 3/4]/2 for a spin-1/2 particle).
     In the factorized form: p = 1/(2 mu), q = V + S, kappa_eff = -(l+1)
     (so that kappa(kappa+1) = l(l+1)); u ~ r^(l+1) at the origin, or
     u ~ r^(l'+1) with l'(l'+1) = l(l+1) + 2 mu B0 when V ~ B0/r^2 there. The
@@ -24,20 +28,35 @@ class Schrodinger(RadialEquation):
     name = "schrodinger"
     spin = 0.0
 
-    def __init__(self, l: int = 0, mass: float = 1.0) -> None:
+    def __init__(self, l: int = 0, mass: float = 1.0, j: float | None = None) -> None:
         self.l = check_int("l", l, minimum=0)
         self.mass = check_positive("mass", mass)
         self.kappa = None
         self.j = None
+        self.ls = 0.0
+        if j is not None:
+            j = float(j)
+            if j not in (self.l + 0.5, self.l - 0.5) or j < 0:
+                raise ValueError(f"j: for l = {self.l} a spin-1/2 particle has j = l +- 1/2 "
+                                 f"({', '.join(f'{x:g}' for x in (self.l - 0.5, self.l + 0.5) if x > 0)}), got {j:g}")
+            self.j = j
+            self.ls = (j * (j + 1) - self.l * (self.l + 1) - 0.75) / 2
         self.kappa_eff = -(self.l + 1)
 
     def p(self, E, s: Sample):
         return 0 * s.r + 1 / (2 * s.r.dtype.type(self.mass))
 
     def q(self, E, s: Sample):
-        return s.V + s.S
+        if s.W is None:
+            return s.V + s.S
+        return s.V + s.S + s.r.dtype.type(self.ls) * s.W
 
     def gamma(self, potential) -> float:
+        if self.j is None and potential.spin_orbit(np.array([1.0])) is not None:
+            raise ValueError("j: the potential has a spin-orbit term; give j = l +- 1/2 (e.g. --j 1.5 with --l 1)")
+        return self._gamma(potential)
+
+    def _gamma(self, potential) -> float:
         """l' + 1 with l'(l'+1) = l(l+1) + 2 mu B0, B0 the 1/r^2 coefficient of V at 0."""
         b0 = getattr(potential, "origin_inverse_square", 0.0)
         if b0 == 0.0:
@@ -52,4 +71,6 @@ class Schrodinger(RadialEquation):
         return 0.5 + math.sqrt(disc)
 
     def label(self, n: int) -> str:
+        if self.j is not None:
+            return f"{n}{letter(self.l)}{int(2 * self.j)}/2"
         return f"{n}{letter(self.l)}"

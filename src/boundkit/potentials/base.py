@@ -98,6 +98,10 @@ class Term:
     def tail_charge(self) -> float:
         return 0.0
 
+    def spin_orbit(self, r):
+        """Radial factor U(r) of a spin-orbit term V_ls = U(r) <l.s> (hartree), or None."""
+        return None
+
     @property
     def breakpoints(self) -> tuple[float, ...]:
         """Radii (bohr) where V or a low derivative jumps, or where V changes
@@ -234,6 +238,11 @@ class Potential:
     def z_scalar(self) -> float:
         return float(sum(t.origin_charge for t in self.scalar))
 
+    def spin_orbit(self, r):
+        """Sum of the terms' spin-orbit radial factors, or None when no term has one."""
+        parts = [u for u in (t.spin_orbit(r) for t in self.vector + self.scalar) if u is not None]
+        return sum(parts) if parts else None
+
     @property
     def breakpoints(self) -> tuple[float, ...]:
         """Sorted radii where some term is not smooth."""
@@ -300,6 +309,10 @@ class NuclearUnitsTerm(Term):
     @property
     def breakpoints(self) -> tuple[float, ...]:
         return tuple(b * self._r for b in self.inner.breakpoints)
+
+    def spin_orbit(self, r):
+        u = self.inner.spin_orbit(np.asarray(r) / self._r)
+        return None if u is None else u * self._v
 
     @property
     def far(self) -> str:  # type: ignore[override]

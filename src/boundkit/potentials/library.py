@@ -471,8 +471,9 @@ class WoodsSaxon(Term):
     diffuseness : float
         Surface diffuseness a in bohr (> 0).
     spin_orbit : float, default 0
-        Strength of a spin-orbit term. Stored, but not yet supported: any
-        value other than 0 raises ValueError.
+        Strength lambda of the spin-orbit term in hartree bohr^2 (MeV fm^2
+        with nuclear units); only the Schrodinger equation with a given j
+        applies it (the Dirac equation makes its own spin-orbit force).
 
     Notes
     -----
@@ -480,10 +481,10 @@ class WoodsSaxon(Term):
     V(0) = -V0 / (1 + exp(-R/a)) (origin_charge 0); far out
     V ~ -V0 exp(-(r - R)/a) (tail_charge 0).
 
-    The spin-orbit part, when it comes, is l.s-dependent: the solver applies
-    it per channel, and only for l > 0; this term then only carries its
-    strength. For nucleon problems the parameters will be given in MeV and fm
-    through a unit system; here they are in hartree and bohr.
+    Spin-orbit part (Thomas form): V_ls(r) = lambda (1/r) (df/dr) <l.s> with
+    f = 1/(1 + exp((r - R)/a)) and <l.s> = [j(j+1) - l(l+1) - 3/4]/2; for
+    lambda > 0 the j = l + 1/2 level lies lower. For nucleon problems give
+    the parameters in MeV and fm with ``units="nuclear"``.
     """
 
     name = "woods-saxon"
@@ -491,7 +492,7 @@ class WoodsSaxon(Term):
         Parameter("depth", None, "hartree", "well depth V0"),
         Parameter("radius", None, "bohr", "half-depth radius R"),
         Parameter("diffuseness", None, "bohr", "surface diffuseness a"),
-        Parameter("spin_orbit", 0.0, "hartree", "spin-orbit strength (not yet supported; must be 0)"),
+        Parameter("spin_orbit", 0.0, "hartree*bohr^2", "spin-orbit strength lambda (Thomas form)"),
     )
     formula = "V(r) = -V0/(1 + exp((r - R)/a))"
     source = "Woods & Saxon, Phys. Rev. 95, 577 (1954)"
@@ -499,11 +500,6 @@ class WoodsSaxon(Term):
     def _validate(self) -> None:
         _need_nonnegative(self, "radius")
         _need_positive(self, "diffuseness")
-        if self.values["spin_orbit"] != 0.0:
-            raise ValueError(
-                "params['spin_orbit']: the spin-orbit part of the woods-saxon term is not yet supported; "
-                "leave spin_orbit at 0"
-            )
 
     @property
     def breakpoints(self) -> tuple[float, ...]:
@@ -515,6 +511,15 @@ class WoodsSaxon(Term):
         r = np.asarray(r, dtype=float)
         v = self.values
         return -v["depth"] * expit((v["radius"] - r) / v["diffuseness"])
+
+    def spin_orbit(self, r):
+        """Radial factor U(r) = lambda (1/r) df/dr of the spin-orbit term (None when lambda = 0)."""
+        lam = self.values["spin_orbit"]
+        if lam == 0.0:
+            return None
+        r = np.asarray(r, dtype=float)
+        f = expit((self.values["radius"] - r) / self.values["diffuseness"])
+        return lam * (-f * (1 - f) / self.values["diffuseness"]) / r
 
 
 # ---------------------------------------------------------------------------------------------
