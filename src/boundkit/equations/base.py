@@ -80,6 +80,17 @@ class RadialEquation:
     def gamma(self, potential) -> float:  # pragma: no cover - contract
         raise NotImplementedError
 
+    @staticmethod
+    def _refuse_nonrelativistic_terms(potential) -> None:
+        """Relativistic equations refuse terms that only the Schrodinger equation takes."""
+        if potential.spin_orbit(np.array([1.0])) is not None:
+            raise ValueError("potential: a spin-orbit term (woods-saxon spin_orbit) is for the Schrodinger "
+                             "equation with j; the Dirac equation makes its own spin-orbit force and a spin-0 "
+                             "particle has none; set spin_orbit = 0")
+        if getattr(potential, "origin_inverse_square", 0.0) != 0.0:
+            raise ValueError("potential: a 1/r^2 term at the origin (kratzer B) is supported in the "
+                             "Schrodinger equation only; use --equation schrodinger or set B = 0")
+
     def energy_window(self, potential) -> tuple[float, float]:
         return (-np.inf, np.inf if potential.confining else 0.0)
 

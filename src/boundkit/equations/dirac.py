@@ -3,8 +3,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
-
 from .._checks import check_int, check_positive
 from ..units import ALPHA, C_AU
 from .base import RadialEquation, Sample, letter
@@ -70,13 +68,7 @@ class Dirac(RadialEquation):
         return s.V + s.S
 
     def gamma(self, potential) -> float:
-        if potential.spin_orbit(np.array([1.0])) is not None:
-            raise ValueError("potential: a spin-orbit term (woods-saxon spin_orbit) is for the Schrodinger "
-                             "equation with j; the Dirac equation makes its own spin-orbit force and a spin-0 "
-                             "particle has none; set spin_orbit = 0")
-        if getattr(potential, "origin_inverse_square", 0.0) != 0.0:
-            raise ValueError("potential: a 1/r^2 term at the origin (kratzer B) is supported in the "
-                             "Schrodinger equation only; use --equation schrodinger or set B = 0")
+        self._refuse_nonrelativistic_terms(potential)
         zv, zs = potential.z_vector, potential.z_scalar
         if abs(zv - zs) < 1e-14 * max(1.0, abs(zv)):
             return float(abs(self.kappa) if self.kappa < 0 else self.kappa + 1)

@@ -3,8 +3,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
-
 from .._checks import check_int, check_positive
 from ..units import ALPHA, C_AU
 from .base import RadialEquation, Sample, letter
@@ -55,13 +53,7 @@ class KleinGordon(RadialEquation):
         return -(E - s.V) / self._mc2(s)
 
     def gamma(self, potential) -> float:
-        if potential.spin_orbit(np.array([1.0])) is not None:
-            raise ValueError("potential: a spin-orbit term (woods-saxon spin_orbit) is for the Schrodinger "
-                             "equation with j; the Dirac equation makes its own spin-orbit force and a spin-0 "
-                             "particle has none; set spin_orbit = 0")
-        if getattr(potential, "origin_inverse_square", 0.0) != 0.0:
-            raise ValueError("potential: a 1/r^2 term at the origin (kratzer B) is supported in the "
-                             "Schrodinger equation only; use --equation schrodinger or set B = 0")
+        self._refuse_nonrelativistic_terms(potential)
         zz = (potential.z_vector**2 - potential.z_scalar**2) * ALPHA**2
         disc = (self.l + 0.5) ** 2 - zz
         if disc <= 0:

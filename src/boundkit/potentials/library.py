@@ -344,7 +344,23 @@ class Fermi(Term):
 # ---------------------------------------------------------------------------------------------
 # Screened and short-range terms
 # ---------------------------------------------------------------------------------------------
-class Yukawa(Term):
+class _Screened(Term):
+    """Shared parts of the screened Coulomb terms: parameters Z and D, Z0 = Z."""
+
+    parameters = (
+        Parameter("Z", None, "e", "charge number"),
+        Parameter("screening_length", None, "bohr", "screening length D"),
+    )
+
+    def _validate(self) -> None:
+        _need_positive(self, "screening_length")
+
+    @property
+    def origin_charge(self) -> float:
+        return self.values["Z"]
+
+
+class Yukawa(_Screened):
     """Yukawa (screened Coulomb, Debye-Hueckel) attraction.
 
     Parameters
@@ -361,26 +377,15 @@ class Yukawa(Term):
     """
 
     name = "yukawa"
-    parameters = (
-        Parameter("Z", None, "e", "charge number"),
-        Parameter("screening_length", None, "bohr", "screening length D"),
-    )
     formula = "V(r) = -Z exp(-r/D)/r"
     source = "Yukawa, Proc. Phys.-Math. Soc. Japan 17, 48 (1935); Debye & Hueckel, Phys. Z. 24, 185 (1923)"
-
-    def _validate(self) -> None:
-        _need_positive(self, "screening_length")
 
     def _evaluate(self, r):
         r = np.asarray(r, dtype=float)
         return -self.values["Z"] * np.exp(-r / self.values["screening_length"]) / r
 
-    @property
-    def origin_charge(self) -> float:
-        return self.values["Z"]
 
-
-class ExpCosine(Term):
+class ExpCosine(_Screened):
     """Exponential-cosine screened Coulomb potential.
 
     Parameters
@@ -398,24 +403,13 @@ class ExpCosine(Term):
     """
 
     name = "exp-cosine"
-    parameters = (
-        Parameter("Z", None, "e", "charge number"),
-        Parameter("screening_length", None, "bohr", "screening length D"),
-    )
     formula = "V(r) = -Z exp(-r/D) cos(r/D)/r"
     source = "exponential-cosine screened Coulomb potential (Lam & Varshni, Phys. Rev. A 6, 1391 (1972))"
-
-    def _validate(self) -> None:
-        _need_positive(self, "screening_length")
 
     def _evaluate(self, r):
         r = np.asarray(r, dtype=float)
         x = r / self.values["screening_length"]
         return -self.values["Z"] * np.exp(-x) * np.cos(x) / r
-
-    @property
-    def origin_charge(self) -> float:
-        return self.values["Z"]
 
 
 class Hulthen(Term):
