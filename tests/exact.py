@@ -134,7 +134,7 @@ def klein_gordon_coulomb(Z: float, n: int, l: int, mass: float = 1.0) -> float:
     """Klein-Gordon (spin-0) Coulomb binding energy.
 
     Source: W. Greiner, *Relativistic Quantum Mechanics: Wave Equations*
-    (Springer), chapter 1 (the pionic atom / Klein-Gordon Coulomb problem):
+    (Springer), ch. 1 (the pionic atom / Klein-Gordon Coulomb problem):
 
         E_total = m c^2 [1 + (Z alpha)^2 / d^2]^(-1/2),
         d = n - l - 1/2 + sqrt((l + 1/2)^2 - (Z alpha)^2).
