@@ -1,0 +1,951 @@
+"""Reading and checking run specs (the format is described in :mod:`boundkit.runspec`)."""
+from __future__ import annotations
+
+import csv
+import datetime as _dt
+import hashlib
+import importlib
+import inspect
+import io
+import json
+import logging
+import math
+import os
+import re
+import shutil
+import tempfile
+import time
+import tomllib
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any, Iterable
+
+import numpy as np
+
+from .. import __version__
+from ..observables import LENGTH_UNITS, bohr_to, length_unit as canonical_length_unit, mean_radius, rms_radius
+from ..potentials.base import Term
+from ..units import ENERGY_UNITS, FM_IN_BOHR, MEV_IN_HARTREE, constants_record, energy_unit as canonical_energy_unit
+from ..units import get_particle, hartree_to
+
+
+__all__ = ["load_spec", "RunSpec", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
+
+log = logging.getLogger(__name__)
+
+STUDY_SECTIONS = ("solve", "converge", "scan", "critical", "compare")
+"""Sections that ask for a study; a spec needs at least one."""
+_NEEDS_STUDIES = ("scan", "critical", "compare")
+_EQUATIONS = {"schrodinger": "schrodinger", "schroedinger": "schrodinger", "klein-gordon": "klein-gordon",
+              "kg": "klein-gordon", "dirac": "dirac"}
+_LETTERS = "spdfghiklmnoqrtuv"
+_FIGURES = ("radial", "density", "levels")
+_FORMATS = ("png", "svg", "pdf")
+
+
+# ---------------------------------------------------------------------------------------------
+# where a key stands in the TOML text
+# ---------------------------------------------------------------------------------------------
+_BARE = r"[A-Za-z0-9_\-]+"
+_QUOTED = r"\"(?:[^\"\\]|\\.)*\"|'[^']*'"
+_KEYPART = rf"(?:{_BARE}|{_QUOTED})"
+_KEY_RE = re.compile(rf"^\s*({_KEYPART}(?:\s*\.\s*{_KEYPART})*)\s*=")
+_HEADER_RE = re.compile(rf"^\s*(\[\[|\[)\s*({_KEYPART}(?:\s*\.\s*{_KEYPART})*)\s*(\]\]|\])\s*(#.*)?$")
+_INLINE_KEY_RE = re.compile(rf"[{{,]\s*({_KEYPART})\s*=")
+
+
+def _split_key(text: str) -> tuple[str, ...]:
+    parts = re.findall(_KEYPART, text)
+    return tuple(p[1:-1] if p[:1] in "\"'" else p for p in parts)
+
+
+def _strip_strings(line: str) -> str:
+    """The line without string literals and comments (for bracket counting)."""
+    line = re.sub(_QUOTED, '""', line)
+    return line.split("#", 1)[0]
+
+
+class _KeyLines:
+    """Map key paths of a TOML document to the 1-based line where they are set.
+
+    A path is a tuple of keys with integer indices for arrays of tables,
+    e.g. ``("models", "fermi", "term", 0, "params")``. Keys inside an inline
+    table on one line are found too. :meth:`find` falls back to the nearest
+    enclosing key, then to line 1.
+    """
+
+    def __init__(self, text: str) -> None:
+        self.where: dict[tuple, int] = {}
+        counts: dict[tuple, int] = {}
+        table: tuple = ()
+        depth = 0                 # open brackets of a multi-line value
+        in_string = False         # inside a multi-line string
+        for number, line in enumerate(text.splitlines(), start=1):
+            if in_string:
+                if line.count('"""') % 2 == 1 or line.count("'''") % 2 == 1:
+                    in_string = False
+                continue
+            if depth > 0:
+                bare = _strip_strings(line)
+                depth += bare.count("[") + bare.count("{") - bare.count("]") - bare.count("}")
+                continue
+            header = _HEADER_RE.match(line)
+            if header:
+                raw = _split_key(header.group(2))
+                table = self._indexed(raw, counts, is_array=header.group(1) == "[[")
+                self.where.setdefault(table, number)
+                continue
+            key = _KEY_RE.match(line)
+            if not key:
+                continue
+            path = table + _split_key(key.group(1))
+            self.where.setdefault(path, number)
+            rest = line[key.end():]
+            for inner in _INLINE_KEY_RE.finditer(_strip_strings_keep_keys(rest)):
+                self.where.setdefault(path + _split_key(inner.group(1)), number)
+            if rest.count('"""') % 2 == 1 or rest.count("'''") % 2 == 1:
+                in_string = True
+                continue
+            bare = _strip_strings(rest)
+            depth = max(0, bare.count("[") + bare.count("{") - bare.count("]") - bare.count("}"))
+
+    @staticmethod
+    def _indexed(raw: tuple, counts: dict, is_array: bool) -> tuple:
+        out: list = []
+        for i, part in enumerate(raw):
+            out.append(part)
+            prefix = tuple(raw[: i + 1])
+            last = i == len(raw) - 1
+            if last and is_array:
+                counts[prefix] = counts.get(prefix, 0) + 1
+                out.append(counts[prefix] - 1)
+            elif prefix in counts:
+                out.append(counts[prefix] - 1)
+        return tuple(out)
+
+    def find(self, path: tuple) -> int:
+        path = tuple(path)
+        while path:
+            if path in self.where:
+                return self.where[path]
+            path = path[:-1]
+        return 1
+
+
+def _strip_strings_keep_keys(rest: str) -> str:
+    """Blank out string values but keep quoted keys that are followed by '='."""
+    return re.sub(rf"({_QUOTED})(?!\s*=)", '""', rest)
+
+
+def _dotted(path: Iterable) -> str:
+    out = ""
+    for part in path:
+        if isinstance(part, int):
+            out += f"[{part}]"
+        else:
+            out += ("." if out else "") + str(part)
+    return out
+
+
+# ---------------------------------------------------------------------------------------------
+# spec objects
+# ---------------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class ChannelSpec:
+    """One channel entry of a spec: l with an optional j (as 2j), or a Dirac kappa.
+
+    ``levels`` overrides the section's number of levels for this channel.
+    """
+
+    l: int
+    two_j: int | None = None
+    kappa: int | None = None
+    levels: int | None = None
+    text: str = ""
+
+    def expand(self, equation: str) -> list[tuple[dict, str]]:
+        """(solve keywords, channel name) for ``equation``."""
+        if equation == "dirac":
+            if self.kappa is not None:
+                kappas = [self.kappa]
+            elif self.two_j is not None:
+                kappas = [-(self.l + 1) if self.two_j == 2 * self.l + 1 else self.l]
+            else:
+                kappas = [-(self.l + 1)] + ([self.l] if self.l > 0 else [])
+            out = []
+            for k in kappas:
+                l = k if k > 0 else -k - 1
+                out.append(({"kappa": k}, f"{_LETTERS[l]}{2 * abs(k) - 1}/2"))
+            return out
+        return [({"l": self.l}, _LETTERS[self.l] if self.l < len(_LETTERS) else f"l={self.l}")]
+
+
+def _channels_for(channels: Iterable[ChannelSpec], equation: str, levels: int) -> list[tuple[dict, str, int]]:
+    """Unique (solve keywords, name, levels) of a channel list for one equation."""
+    seen: dict[str, list] = {}
+    for ch in channels:
+        for kw, name in ch.expand(equation):
+            n = ch.levels or levels
+            if name in seen:
+                seen[name][2] = max(seen[name][2], n)
+            else:
+                seen[name] = [kw, name, n]
+    return [tuple(v) for v in seen.values()]
+
+
+class _AtomicAsNuclear(Term):
+    """A term in atomic units presented in MeV and fm.
+
+    ``make_potential(..., units="nuclear")`` reads a term *instance* as a
+    function of r in fm giving MeV and wraps it accordingly; this wrapper is
+    its inverse, so a term built with its own parameters (already converted to
+    atomic units) comes back unchanged.
+    """
+
+    def __init__(self, inner: Term, label: str) -> None:
+        self.inner = inner
+        self.values = {}
+        self.name = inner.name
+        self.label = label
+
+    def _evaluate(self, r):
+        return self.inner(np.asarray(r) * FM_IN_BOHR) / MEV_IN_HARTREE
+
+    @property
+    def origin_charge(self) -> float:
+        return self.inner.origin_charge / (MEV_IN_HARTREE * FM_IN_BOHR)
+
+    @property
+    def tail_charge(self) -> float:
+        return self.inner.tail_charge / (MEV_IN_HARTREE * FM_IN_BOHR)
+
+    @property
+    def origin_inverse_square(self) -> float:
+        return self.inner.origin_inverse_square / (MEV_IN_HARTREE * FM_IN_BOHR**2)
+
+    @property
+    def far(self) -> str:  # type: ignore[override]
+        return self.inner.far
+
+    def __repr__(self) -> str:
+        return repr(self.inner)
+
+
+@dataclass(frozen=True)
+class TermEntry:
+    """A ``[[models.NAME.term]]`` entry: one term with its own parameters."""
+
+    key: tuple
+    name: str | None
+    expression: str | None
+    role: str
+    params: dict
+
+    def build(self, units: str):
+        """The term as :func:`~boundkit.potentials.make_potential` should receive it."""
+        from ..potentials import _make_term
+        from ..potentials.expression import ExpressionTerm
+
+        if self.expression is not None:
+            term = ExpressionTerm(self.expression, self.params)
+            unused = sorted(set(self.params) - set(term.parameter_names))
+            if unused:
+                raise ValueError(f"params: the expression takes no parameter {unused[0]!r}")
+            return term                      # make_potential reads it in the spec's unit system
+        term = _make_term(self.name, self.params, set(), units)   # atomic units from here on
+        if units == "nuclear":
+            return _AtomicAsNuclear(term, self.name)
+        return term
+
+
+@dataclass(frozen=True)
+class ModelDef:
+    """A named potential model of a spec (``[models.NAME]``)."""
+
+    name: str
+    key: tuple
+    label: str
+    terms: tuple[str, ...] = ()
+    scalar_terms: tuple[str, ...] = ()
+    expressions: tuple[str, ...] = ()
+    scalar_expressions: tuple[str, ...] = ()
+    params: dict = field(default_factory=dict)
+    entries: tuple[TermEntry, ...] = ()
+
+    def builtin_parameters(self) -> set[str]:
+        """Parameter names of the built-in terms listed in ``terms`` and ``scalar_terms``."""
+        from ..potentials import TERMS
+
+        return {p.name for t in self.terms + self.scalar_terms for p in TERMS[t].parameters}
+
+    def arguments(self, units: str, overrides: dict | None = None) -> tuple[list, list, dict]:
+        """(vector terms, scalar terms, shared parameters) for ``solve``-like calls with ``units``."""
+        from ..potentials.expression import ExpressionTerm, parse_expression
+
+        params = {**self.params, **(overrides or {})}
+        vector: list = list(self.terms)
+        scalar: list = list(self.scalar_terms)
+        for text, into in [(t, vector) for t in self.expressions] + [(t, scalar) for t in self.scalar_expressions]:
+            names = parse_expression(text).parameter_names
+            into.append(ExpressionTerm(text, {k: v for k, v in params.items() if k in names}))
+        for entry in self.entries:
+            (scalar if entry.role == "scalar" else vector).append(entry.build(units))
+        named = {k: v for k, v in params.items() if k in self.builtin_parameters()}
+        return vector, scalar, named
+
+    def potential(self, units: str, overrides: dict | None = None):
+        """The model as a :class:`~boundkit.potentials.Potential` (atomic units inside)."""
+        from ..potentials import make_potential
+
+        vector, scalar, params = self.arguments(units, overrides)
+        pot = make_potential(vector or [], params, scalar=scalar or None, units=units)
+        return pot
+
+
+@dataclass(frozen=True)
+class ParticleSpec:
+    name: str | None = None
+    mass_mev: float | None = None
+    nucleus_mass_mev: float | None = None
+
+    def kwargs(self) -> dict:
+        return {"particle": self.name, "mass_mev": self.mass_mev, "nucleus_mass_mev": self.nucleus_mass_mev}
+
+
+@dataclass(frozen=True)
+class SolveSection:
+    key: tuple
+    models: tuple[str, ...]
+    equations: tuple[str, ...]
+    channels: tuple[ChannelSpec, ...]
+    levels: int
+    tolerance: float
+    method: str
+    order: int | None
+    figures: tuple[str, ...]
+    radii: bool
+    differences: tuple[tuple[str, str], ...]
+    reference: str | None
+
+
+@dataclass(frozen=True)
+class ConvergeSection:
+    key: tuple
+    model: str
+    equation: str
+    channel: ChannelSpec
+    levels: int
+    methods: tuple[str, ...]
+    order: int
+
+
+@dataclass(frozen=True)
+class ScanSection:
+    key: tuple
+    model: str
+    parameter: str
+    values: tuple[float, ...]
+    equation: str
+    channels: tuple[ChannelSpec, ...]
+    levels: int
+    tolerance: float
+    method: str
+    workers: int | None
+    differences: tuple[tuple[str, str], ...]
+
+
+@dataclass(frozen=True)
+class CriticalSection:
+    key: tuple
+    model: str
+    parameter: str
+    states: tuple[str, ...]
+    equation: str
+    bracket: tuple[float, float] | None
+    tolerance: float
+    energy_tolerance: float
+    kind: str | None
+    workers: int | None
+
+
+@dataclass(frozen=True)
+class CompareSection:
+    key: tuple
+    model: str
+    l_max: int
+    levels: int
+    tolerance: float
+
+
+@dataclass(frozen=True)
+class RunSpec:
+    """A checked run spec (see the module docstring for the format)."""
+
+    path: Path
+    text: str
+    title: str
+    description: str
+    units: str
+    energy_unit: str
+    length_unit: str
+    figure_format: str
+    particle: ParticleSpec
+    equations: tuple[str, ...]
+    channels: tuple[ChannelSpec, ...]
+    levels: int
+    tolerance: float
+    method: str
+    order: int | None
+    models: dict
+    solve: SolveSection | None = None
+    converge: tuple[ConvergeSection, ...] = ()
+    scan: tuple[ScanSection, ...] = ()
+    critical: tuple[CriticalSection, ...] = ()
+    compare: tuple[CompareSection, ...] = ()
+
+    @property
+    def name(self) -> str:
+        """Short name of the spec: the file name without suffix."""
+        return self.path.stem
+
+    def line_of(self, key: tuple) -> int:
+        return _KeyLines(self.text).find(key)
+
+    def where(self, key: tuple) -> str:
+        """``run spec FILE, line N, key 'K'`` for messages."""
+        return f"run spec {self.path}, line {self.line_of(key)}, key {_dotted(key)!r}"
+
+
+# ---------------------------------------------------------------------------------------------
+# reading and checking
+# ---------------------------------------------------------------------------------------------
+_MISSING = object()
+
+
+class _Reader:
+    """Typed access to the parsed TOML with file/key/line errors."""
+
+    def __init__(self, path: Path, text: str) -> None:
+        self.path = path
+        self.lines = _KeyLines(text)
+
+    def error(self, key: tuple, msg: str, at: tuple | None = None) -> ValueError:
+        line = self.lines.find(key if at is None else at)
+        return ValueError(f"run spec {self.path}, line {line}, key {_dotted(key)!r}: {msg}")
+
+    def keys(self, data: dict, key: tuple, allowed: Iterable[str], required: Iterable[str] = ()) -> None:
+        allowed = list(allowed)
+        for k in data:
+            if k not in allowed:
+                raise self.error(key + (k,), f"unknown key; allowed here: {', '.join(allowed)}")
+        for k in required:
+            if k not in data:
+                where = f"[{_dotted(key)}]" if key else "the top level"
+                raise self.error(key + (k,), f"missing; add it to {where}", at=key)
+
+    def get(self, data: dict, key: tuple, name: str, kind: str, default: Any = _MISSING) -> Any:
+        if name not in data:
+            if default is _MISSING:
+                raise self.error(key + (name,), "missing", at=key)
+            return default
+        return self.convert(data[name], key + (name,), kind)
+
+    def convert(self, value: Any, key: tuple, kind: str) -> Any:
+        def want(what: str) -> ValueError:
+            return self.error(key, f"expected {what}, got {_describe(value)}")
+
+        if kind == "str":
+            if not isinstance(value, str):
+                raise want("a string")
+            if not value.strip():
+                raise self.error(key, "must not be empty")
+            return value
+        if kind == "int":
+            if isinstance(value, bool) or not isinstance(value, int):
+                raise want("an integer")
+            return value
+        if kind == "number":
+            if isinstance(value, bool) or not isinstance(value, (int, float)):
+                raise want("a number")
+            if not math.isfinite(value):
+                raise self.error(key, "must be finite")
+            return float(value)
+        if kind == "bool":
+            if not isinstance(value, bool):
+                raise want("true or false")
+            return value
+        if kind == "table":
+            if not isinstance(value, dict):
+                raise want("a table")
+            return value
+        if kind.startswith("list:"):
+            if not isinstance(value, list):
+                raise want(f"an array ({kind[5:]} items)")
+            return [self.convert(v, key + (i,), kind[5:]) for i, v in enumerate(value)]
+        raise AssertionError(kind)  # pragma: no cover
+
+    def positive(self, value: float, key: tuple) -> float:
+        if not value > 0:
+            raise self.error(key, f"must be positive, got {value:g}")
+        return value
+
+
+def _describe(value: Any) -> str:
+    if isinstance(value, bool):
+        return f"a boolean ({str(value).lower()})"
+    if isinstance(value, str):
+        return f"a string ({value!r})"
+    if isinstance(value, int):
+        return f"an integer ({value})"
+    if isinstance(value, float):
+        return f"a number ({value:g})"
+    if isinstance(value, list):
+        return "an array"
+    if isinstance(value, dict):
+        return "a table"
+    return type(value).__name__
+
+
+_TOP = ("title", "description", "units", "energy_unit", "length_unit", "figure_format", "equations", "channels",
+        "levels", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
+_MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "params", "term")
+_ENTRY = ("name", "expression", "role", "params")
+_SOLVE = ("models", "equations", "channels", "levels", "tolerance", "method", "order", "figures", "radii",
+          "differences", "reference")
+_CONVERGE = ("model", "equation", "channel", "levels", "methods", "order")
+_SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tolerance", "method", "workers",
+         "differences")
+_RANGE = ("start", "stop", "num", "spacing")
+_CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tolerance", "energy_tolerance", "kind",
+             "workers")
+_COMPARE = ("model", "l_max", "levels", "tolerance")
+
+
+def _equation(rd: _Reader, value: str, key: tuple) -> str:
+    name = _EQUATIONS.get(value.strip().lower().replace("_", "-"))
+    if name is None:
+        raise rd.error(key, f"unknown equation {value!r}; choose schrodinger, klein-gordon or dirac")
+    return name
+
+
+def _channel(rd: _Reader, value: Any, key: tuple) -> ChannelSpec:
+    if isinstance(value, str):
+        m = re.fullmatch(r"\s*([a-z])\s*(?:(\d+)\s*/\s*2)?\s*", value)
+        if not m or m.group(1) not in _LETTERS:
+            raise rd.error(key, f"channel {value!r} not understood; write a letter with an optional j, "
+                                "e.g. \"s\", \"p3/2\", or a table { l = 1 } or { kappa = -2 }")
+        l = _LETTERS.index(m.group(1))
+        two_j = int(m.group(2)) if m.group(2) else None
+        if two_j is not None and two_j not in (2 * l - 1, 2 * l + 1) or two_j == -1:
+            raise rd.error(key, f"channel {value!r}: j must be l - 1/2 or l + 1/2 (and positive)")
+        return ChannelSpec(l=l, two_j=two_j, text=value.strip())
+    if isinstance(value, dict):
+        rd.keys(value, key, ("l", "kappa", "levels"))
+        if ("l" in value) == ("kappa" in value):
+            raise rd.error(key, "a channel table needs exactly one of l = ... or kappa = ...")
+        levels = rd.get(value, key, "levels", "int", None)
+        if levels is not None and levels < 1:
+            raise rd.error(key + ("levels",), f"must be >= 1, got {levels}")
+        if "l" in value:
+            l = rd.get(value, key, "l", "int")
+            if l < 0:
+                raise rd.error(key + ("l",), f"must be >= 0, got {l}")
+            return ChannelSpec(l=l, levels=levels, text=f"l={l}")
+        kappa = rd.get(value, key, "kappa", "int")
+        if kappa == 0:
+            raise rd.error(key + ("kappa",), "must be a non-zero integer (-1 is s1/2, 1 is p1/2, -2 is p3/2)")
+        l = kappa if kappa > 0 else -kappa - 1
+        return ChannelSpec(l=l, two_j=2 * abs(kappa) - 1, kappa=kappa, levels=levels, text=f"kappa={kappa}")
+    raise rd.error(key, f"expected a channel string or table, got {_describe(value)}")
+
+
+def _channels(rd: _Reader, data: dict, key: tuple, default) -> tuple[ChannelSpec, ...]:
+    if "channels" not in data:
+        return default
+    value = data["channels"]
+    if not isinstance(value, list) or not value:
+        raise rd.error(key + ("channels",), f"expected a non-empty array of channels, got {_describe(value)}")
+    return tuple(_channel(rd, v, key + ("channels", i)) for i, v in enumerate(value))
+
+
+def _levels(rd: _Reader, data: dict, key: tuple, default: int) -> int:
+    n = rd.get(data, key, "levels", "int", default)
+    if n < 1:
+        raise rd.error(key + ("levels",), f"must be >= 1, got {n}")
+    return n
+
+
+def _tolerance(rd: _Reader, data: dict, key: tuple, default: float) -> float:
+    tol = rd.get(data, key, "tolerance", "number", default)
+    if not 0 < tol < 1:
+        raise rd.error(key + ("tolerance",), f"must lie between 0 and 1, got {tol:g}")
+    return tol
+
+
+def _method(rd: _Reader, data: dict, key: tuple, default: str, order_default: int | None):
+    from ..discretize import get_method
+
+    method = rd.get(data, key, "method", "str", default)
+    order = rd.get(data, key, "order", "int", order_default)
+    try:
+        get_method(method, order)
+    except ValueError as exc:
+        raise rd.error(key + ("order" if "order" in str(exc).split(":")[0] else "method",),
+                       str(exc).split(": ", 1)[-1]) from None
+    return method, order
+
+
+def _workers(rd: _Reader, data: dict, key: tuple) -> int | None:
+    workers = rd.get(data, key, "workers", "int", None)
+    if workers is not None and workers < 1:
+        raise rd.error(key + ("workers",), f"must be >= 1, got {workers}")
+    return workers
+
+
+def _pairs(rd: _Reader, data: dict, key: tuple) -> tuple[tuple[str, str], ...]:
+    if "differences" not in data:
+        return ()
+    value = data["differences"]
+    out = []
+    if not isinstance(value, list):
+        raise rd.error(key + ("differences",), f"expected an array of [\"a\", \"b\"] pairs, got {_describe(value)}")
+    for i, pair in enumerate(value):
+        if not (isinstance(pair, list) and len(pair) == 2 and all(isinstance(x, str) for x in pair)):
+            raise rd.error(key + ("differences", i), "each difference is a pair of level labels, "
+                                                      "e.g. [\"2p1/2\", \"2s1/2\"] for E(2p1/2) - E(2s1/2)")
+        for j, text in enumerate(pair):
+            eq, sep, _label = text.partition(":")
+            if sep and eq.strip().lower() not in _EQUATIONS:
+                raise rd.error(key + ("differences", i), f"{text!r}: unknown equation {eq.strip()!r} before ':'; "
+                                                          "write e.g. \"dirac:1s1/2\"")
+        out.append((pair[0].strip(), pair[1].strip()))
+    return tuple(out)
+
+
+def _model_name(rd: _Reader, data: dict, key: tuple, models: dict) -> str:
+    name = rd.get(data, key, "model", "str")
+    if name not in models:
+        raise rd.error(key + ("model",), f"no model {name!r}; the spec defines {', '.join(models)}")
+    return name
+
+
+def _sections(rd: _Reader, data: dict, name: str) -> list[tuple[tuple, dict]]:
+    value = data.get(name)
+    if value is None:
+        return []
+    if isinstance(value, dict):
+        return [((name,), value)]
+    if isinstance(value, list) and value and all(isinstance(v, dict) for v in value):
+        return [((name, i), v) for i, v in enumerate(value)]
+    raise rd.error((name,), f"expected a table [{name}] or an array of tables [[{name}]], got {_describe(value)}")
+
+
+def _param_error(rd: _Reader, exc: Exception, key: tuple, params: dict) -> ValueError:
+    """Point a potential-building error at the parameter it names, when it names one."""
+    msg = str(exc)
+    for name in re.findall(r"['\"]([A-Za-z_][A-Za-z0-9_]*)['\"]", msg):
+        if name in params:
+            return rd.error(key + ("params", name), msg)
+    return rd.error(key, msg)
+
+
+def _read_model(rd: _Reader, name: str, data: Any, key: tuple, units: str) -> ModelDef:
+    from ..potentials import TERMS
+    from ..potentials.expression import parse_expression
+
+    rd.convert(data, key, "table")
+    rd.keys(data, key, _MODEL)
+    lists = {}
+    for k in ("terms", "scalar_terms", "expressions", "scalar_expressions"):
+        lists[k] = tuple(rd.get(data, key, k, "list:str", []))
+    for k in ("terms", "scalar_terms"):
+        for i, t in enumerate(lists[k]):
+            if t.strip().lower() not in TERMS:
+                raise rd.error(key + (k, i), f"unknown built-in term {t!r}; built-ins are {', '.join(sorted(TERMS))}")
+        lists[k] = tuple(t.strip().lower() for t in lists[k])
+    expr_params: set = set()
+    for k in ("expressions", "scalar_expressions"):
+        for i, text in enumerate(lists[k]):
+            try:
+                expr_params |= set(parse_expression(text).parameter_names)
+            except ValueError as exc:
+                raise rd.error(key + (k, i), str(exc)) from None
+    params_raw = rd.get(data, key, "params", "table", {})
+    params = {p: rd.convert(v, key + ("params", p), "number") for p, v in params_raw.items()}
+    entries = []
+    raw_entries = data.get("term", [])
+    if not isinstance(raw_entries, list) or not all(isinstance(e, dict) for e in raw_entries):
+        raise rd.error(key + ("term",), "write each term with its own parameters as [[models.NAME.term]]")
+    for i, e in enumerate(raw_entries):
+        ekey = key + ("term", i)
+        rd.keys(e, ekey, _ENTRY)
+        if ("name" in e) == ("expression" in e):
+            raise rd.error(ekey, "give exactly one of name = \"<built-in>\" or expression = \"...\"")
+        tname = rd.get(e, ekey, "name", "str", None)
+        if tname is not None and tname.strip().lower() not in TERMS:
+            raise rd.error(ekey + ("name",), f"unknown built-in term {tname!r}; built-ins are {', '.join(sorted(TERMS))}")
+        expr = rd.get(e, ekey, "expression", "str", None)
+        role = rd.get(e, ekey, "role", "str", "vector")
+        if role not in ("vector", "scalar"):
+            raise rd.error(ekey + ("role",), f"must be \"vector\" or \"scalar\", got {role!r}")
+        eparams = {p: rd.convert(v, ekey + ("params", p), "number")
+                   for p, v in rd.get(e, ekey, "params", "table", {}).items()}
+        entry = TermEntry(ekey, tname.strip().lower() if tname else None, expr, role, eparams)
+        try:
+            entry.build(units)
+        except ValueError as exc:
+            raise _param_error(rd, exc, ekey, eparams) from None
+        entries.append(entry)
+    model = ModelDef(name=name, key=key, label=rd.get(data, key, "label", "str", name), params=params,
+                     entries=tuple(entries), **lists)
+    if not (model.terms or model.scalar_terms or model.expressions or model.scalar_expressions or model.entries):
+        raise rd.error(key, "the model has no terms; add terms = [\"coulomb\"], expressions = [...] or a "
+                            f"[[models.{name}.term]]")
+    known = model.builtin_parameters() | expr_params
+    for p in params:
+        if p not in known:
+            raise rd.error(key + ("params", p), f"no term of model {name!r} takes this parameter; its terms take "
+                                                f"{', '.join(sorted(known)) or 'none'}")
+    try:
+        model.potential(units)
+    except ValueError as exc:
+        raise _param_error(rd, exc, key, params) from None
+    return model
+
+
+def _check_studies_available(rd: _Reader, key: tuple, section: str, function: str) -> None:
+    try:
+        mod = importlib.import_module("boundkit.studies")
+    except ImportError as exc:
+        raise rd.error(key, f"the [{section}] study needs boundkit.studies, which is not available in this "
+                            f"installation ({exc}); remove the section or install a boundkit that has it") from None
+    if not hasattr(mod, function):
+        raise rd.error(key, f"the [{section}] study needs boundkit.studies.{function}, which this installation "
+                            "does not provide; remove the section")
+
+
+def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
+    """Read and check a run spec.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The TOML file (see the module docstring for the format).
+    text : str, optional
+        The file's contents, when already read.
+
+    Returns
+    -------
+    RunSpec
+
+    Raises
+    ------
+    ValueError
+        For an unreadable file, invalid TOML, an unknown key, a wrong type, a
+        missing field or an unusable value; the message names the file, the
+        key and its line.
+    """
+    path = Path(path)
+    if text is None:
+        try:
+            text = path.read_text(encoding="utf-8")
+        except OSError as exc:
+            raise ValueError(f"run spec {path}: cannot read it ({exc.strerror or exc})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        m = re.search(r"line (\d+)", str(exc))
+        where = f", line {m.group(1)}" if m else ""
+        raise ValueError(f"run spec {path}{where}: not valid TOML ({exc})") from None
+    rd = _Reader(path, text)
+    rd.keys(data, (), _TOP, required=("title", "description", "models"))
+    title = rd.get(data, (), "title", "str")
+    description = rd.get(data, (), "description", "str")
+    units = rd.get(data, (), "units", "str", "atomic")
+    if units not in ("atomic", "nuclear"):
+        raise rd.error(("units",), f"must be \"atomic\" (hartree, bohr) or \"nuclear\" (MeV, fm), got {units!r}")
+    nuclear = units == "nuclear"
+    try:
+        e_unit = canonical_energy_unit(rd.get(data, (), "energy_unit", "str", "MeV" if nuclear else "hartree"))
+    except ValueError as exc:
+        raise rd.error(("energy_unit",), str(exc).split(": ", 1)[-1]) from None
+    try:
+        l_unit = canonical_length_unit(rd.get(data, (), "length_unit", "str", "fm" if nuclear else "bohr"))
+    except ValueError as exc:
+        raise rd.error(("length_unit",), str(exc).split(": ", 1)[-1]) from None
+    fmt = rd.get(data, (), "figure_format", "str", "png").lower().lstrip(".")
+    if fmt not in _FORMATS:
+        raise rd.error(("figure_format",), f"must be one of {', '.join(_FORMATS)}, got {fmt!r}")
+
+    # particle
+    pdata = rd.get(data, (), "particle", "table", {})
+    rd.keys(pdata, ("particle",), ("name", "mass_mev", "nucleus_mass_mev"))
+    pname = rd.get(pdata, ("particle",), "name", "str", None)
+    pmass = rd.get(pdata, ("particle",), "mass_mev", "number", None)
+    nmass = rd.get(pdata, ("particle",), "nucleus_mass_mev", "number", None)
+    if pmass is not None:
+        rd.positive(pmass, ("particle", "mass_mev"))
+    if nmass is not None:
+        rd.positive(nmass, ("particle", "nucleus_mass_mev"))
+    if pmass is None and pname is not None:
+        try:
+            get_particle(pname.strip().lower())
+        except ValueError as exc:
+            raise rd.error(("particle", "name"), str(exc).split(": ", 1)[-1] +
+                           "; or give mass_mev = ... for another particle") from None
+        pname = pname.strip().lower()
+    particle = ParticleSpec(pname, pmass, nmass)
+
+    # defaults for the studies
+    equations = tuple(_equation(rd, e, ("equations", i))
+                      for i, e in enumerate(rd.get(data, (), "equations", "list:str", ["dirac"])))
+    if not equations:
+        raise rd.error(("equations",), "give at least one equation")
+    channels = _channels(rd, data, (), (ChannelSpec(l=0, text="s"),))
+    levels = _levels(rd, data, (), 3)
+    tolerance = _tolerance(rd, data, (), 1e-10)
+    method, order = _method(rd, data, (), "auto", None)
+
+    # models
+    mdata = rd.get(data, (), "models", "table")
+    if not mdata:
+        raise rd.error(("models",), "define at least one model, e.g. [models.point] with terms = [\"coulomb\"]")
+    models = {name: _read_model(rd, name, m, ("models", name), units) for name, m in mdata.items()}
+
+    if not any(s in data for s in STUDY_SECTIONS):
+        raise rd.error(("solve",), "the spec asks for no study; add at least one of "
+                                   + ", ".join(f"[{s}]" for s in STUDY_SECTIONS), at=())
+
+    solve_sec = None
+    if "solve" in data:
+        key = ("solve",)
+        s = rd.convert(data["solve"], key, "table")
+        rd.keys(s, key, _SOLVE)
+        names = tuple(rd.get(s, key, "models", "list:str", list(models)))
+        for i, n in enumerate(names):
+            if n not in models:
+                raise rd.error(key + ("models", i), f"no model {n!r}; the spec defines {', '.join(models)}")
+        eqs = tuple(_equation(rd, e, key + ("equations", i))
+                    for i, e in enumerate(rd.get(s, key, "equations", "list:str", list(equations))))
+        figs = tuple(rd.get(s, key, "figures", "list:str", list(_FIGURES)))
+        for i, f in enumerate(figs):
+            if f not in _FIGURES:
+                raise rd.error(key + ("figures", i), f"unknown figure {f!r}; choose from {', '.join(_FIGURES)}")
+        ref = rd.get(s, key, "reference", "str", None)
+        if ref is not None and ref not in names:
+            raise rd.error(key + ("reference",), f"the reference must be one of the solved models: {', '.join(names)}")
+        m, o = _method(rd, s, key, method, order)
+        solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels),
+                                 _tolerance(rd, s, key, tolerance), m, o, figs,
+                                 rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref)
+
+    converge_secs = []
+    for key, s in _sections(rd, data, "converge"):
+        rd.keys(s, key, _CONVERGE, required=("model",))
+        ch = (_channel(rd, s["channel"], key + ("channel",)),) if "channel" in s else channels[:1]
+        meths = tuple(rd.get(s, key, "methods", "list:str", ["spectral", "finite-difference"]))
+        for i, mth in enumerate(meths):
+            if mth not in ("spectral", "finite-difference"):
+                raise rd.error(key + ("methods", i), f"must be spectral or finite-difference, got {mth!r}")
+        converge_secs.append(ConvergeSection(
+            key, _model_name(rd, s, key, models),
+            _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
+            ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8)))
+
+    scan_secs = []
+    for key, s in _sections(rd, data, "scan"):
+        rd.keys(s, key, _SCAN, required=("model", "parameter"))
+        _check_studies_available(rd, key, "scan", "scan")
+        model = _model_name(rd, s, key, models)
+        param = rd.get(s, key, "parameter", "str")
+        if param not in models[model].builtin_parameters():
+            raise rd.error(key + ("parameter",),
+                           f"a scan varies a parameter of a built-in term of model {model!r} "
+                           f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); "
+                           f"{param!r} is not one")
+        if ("values" in s) == ("range" in s):
+            raise rd.error(key + ("values",), "give exactly one of values = [...] or range = {...}", at=key)
+        if "values" in s:
+            values = tuple(rd.get(s, key, "values", "list:number"))
+            if not values:
+                raise rd.error(key + ("values",), "give at least one value")
+        else:
+            r = rd.get(s, key, "range", "table")
+            rk = key + ("range",)
+            rd.keys(r, rk, _RANGE, required=("start", "stop", "num"))
+            start, stop = rd.get(r, rk, "start", "number"), rd.get(r, rk, "stop", "number")
+            num = rd.get(r, rk, "num", "int")
+            if num < 2:
+                raise rd.error(rk + ("num",), f"must be >= 2, got {num}")
+            spacing = rd.get(r, rk, "spacing", "str", "linear")
+            if spacing not in ("linear", "log"):
+                raise rd.error(rk + ("spacing",), f"must be \"linear\" or \"log\", got {spacing!r}")
+            if spacing == "log" and not (start > 0 and stop > 0):
+                raise rd.error(rk + ("start",), "a log range needs start > 0 and stop > 0")
+            grid = np.geomspace(start, stop, num) if spacing == "log" else np.linspace(start, stop, num)
+            values = tuple(float(v) for v in grid)
+        for i, v in enumerate(values):
+            try:
+                models[model].potential(units, {param: v})
+            except ValueError as exc:
+                raise rd.error(key + ("values" if "values" in s else "range",), f"value {v:g}: {exc}") from None
+        m, _o = _method(rd, s, key, method, None)
+        workers = _workers(rd, s, key)
+        scan_secs.append(ScanSection(
+            key, model, param, values,
+            _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
+            _channels(rd, s, key, channels), _levels(rd, s, key, levels), _tolerance(rd, s, key, tolerance), m,
+            workers, _pairs(rd, s, key)))
+
+    critical_secs = []
+    for key, s in _sections(rd, data, "critical"):
+        rd.keys(s, key, _CRITICAL, required=("model", "states"))
+        _check_studies_available(rd, key, "critical", "critical")
+        model = _model_name(rd, s, key, models)
+        param = rd.get(s, key, "parameter", "str", "screening_length")
+        if param not in models[model].builtin_parameters():
+            raise rd.error(key + ("parameter",),
+                           f"must be a parameter of a built-in term of model {model!r} "
+                           f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); got {param!r}")
+        states = tuple(x.strip() for x in rd.get(s, key, "states", "list:str"))
+        if not states:
+            raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
+        for i, st in enumerate(states):
+            if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
+                raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
+                                                    "\"2p3/2\"")
+        eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
+        for i, st in enumerate(states):
+            if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
+                raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
+                                                    f"or \"{st}3/2\"")
+        bracket = rd.get(s, key, "bracket", "list:number", None)
+        if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
+            raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
+        kind = rd.get(s, key, "kind", "str", None)
+        if kind is not None and kind not in ("unbind", "dive"):
+            raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
+        etol = rd.get(s, key, "energy_tolerance", "number", 1e-10)
+        if not 0 < etol < 1:
+            raise rd.error(key + ("energy_tolerance",), f"must lie between 0 and 1, got {etol:g}")
+        critical_secs.append(CriticalSection(
+            key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
+            etol, kind, _workers(rd, s, key)))
+
+    compare_secs = []
+    for key, s in _sections(rd, data, "compare"):
+        rd.keys(s, key, _COMPARE, required=("model",))
+        _check_studies_available(rd, key, "compare", "compare")
+        l_max = rd.get(s, key, "l_max", "int", 1)
+        if l_max < 0:
+            raise rd.error(key + ("l_max",), f"must be >= 0, got {l_max}")
+        compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels),
+                                           _tolerance(rd, s, key, tolerance)))
+
+    return RunSpec(path=path, text=text, title=title.strip(), description=description.strip(), units=units,
+                   energy_unit=e_unit, length_unit=l_unit, figure_format=fmt, particle=particle,
+                   equations=equations, channels=channels, levels=levels, tolerance=tolerance, method=method,
+                   order=order, models=models, solve=solve_sec, converge=tuple(converge_secs),
+                   scan=tuple(scan_secs), critical=tuple(critical_secs), compare=tuple(compare_secs))
+
+
