@@ -110,10 +110,10 @@ def _converge(equation, potential, params, l, kappa, levels, methods, order, siz
             if label not in reference:
                 continue
             Eref = reference[label]
-            mesh, _ = ch.mesh(Eref)
+            mesh, r_core = ch.mesh(Eref)
             got_sizes, errs, prev = [], [], None
             for size in (sizes or DEFAULT_SIZES)[disc.name]:
-                got = ch.level(k, disc, size, Eref * (1 + 1e-6), mesh)
+                got = ch.level(k, disc, size, Eref * (1 + 1e-6), mesh, r_core)
                 if got is None:
                     continue
                 E = got[1].energy

@@ -20,6 +20,17 @@ __all__ = ["convergence_figure", "save_figure", "radial_figure", "density_figure
 _FORMATS = (".png", ".svg", ".pdf")
 
 
+def _level_figure(levels, length_unit: str):
+    """Shared start of the per-level figures: unit and scale, level groups, axes, r range."""
+    unit, scale = _length_scale(length_unit)
+    groups = _as_groups(levels)
+    every = [lv for lvs in groups.values() for lv in lvs]
+    if not every:
+        raise ValueError("plot: no levels to draw")
+    fig, ax = plt.subplots(figsize=(7.0, 4.6))
+    return unit, scale, groups, fig, ax, _extent(every) * scale
+
+
 def save_figure(fig, path) -> Path:
     """Write ``fig`` atomically (temporary file, then rename) and close it."""
     path = Path(path)
@@ -172,13 +183,7 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
     the axis. The large component is a solid line, the small one dashed (and
     drawn only for Dirac levels); circles mark the nodes of P.
     """
-    unit, scale = _length_scale(length_unit)
-    groups = _as_groups(levels)
-    every = [lv for lvs in groups.values() for lv in lvs]
-    if not every:
-        raise ValueError("plot: no levels to draw")
-    fig, ax = plt.subplots(figsize=(7.0, 4.6))
-    r_top = _extent(every) * scale
+    unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
     norm = 1.0 / math.sqrt(scale)
     i = 0
     have_q = have_nodes = False
@@ -232,13 +237,7 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
     """
     from .observables import mean_radius
 
-    unit, scale = _length_scale(length_unit)
-    groups = _as_groups(levels)
-    every = [lv for lvs in groups.values() for lv in lvs]
-    if not every:
-        raise ValueError("plot: no levels to draw")
-    fig, ax = plt.subplots(figsize=(7.0, 4.6))
-    r_top = _extent(every) * scale
+    unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
     i = 0
     for group, lvs in groups.items():
         for lv in lvs:

@@ -216,6 +216,12 @@ def _seed(eq, pot, gamma, r_min, R, levels, lo, hi, tally: _Tally, sizes=_SEED_S
     return [_fixed_point(op_a, E, lo, hi) for E in stable[:levels]]
 
 
+def _wanted_cut(gamma: float, two_component: bool) -> float:
+    """The inner cut the exponents ask for (see :func:`_inner_cut`), before any floor."""
+    gap = max(2 * gamma if two_component else 2 * gamma - 1, 0.05)
+    return _INNER ** (1.0 / min(1.0, gap))
+
+
 def _inner_cut(gamma: float, two_component: bool) -> float:
     """Inner end of the mesh in units of the natural length.
 
@@ -225,16 +231,14 @@ def _inner_cut(gamma: float, two_component: bool) -> float:
     (r_min)^(gap) with gap = the difference of the two exponents. Near a
     critical charge that gap is small and the cut must move inward.
     """
-    gap = max(2 * gamma if two_component else 2 * gamma - 1, 0.05)
     # the floor: a point charge with Z alpha > ~0.96 in the Dirac equation gets fewer digits
-    # (the solver then also estimates the cut's own error, see solve_channel)
-    return max(_INNER ** (1.0 / min(1.0, gap)), _DIRAC_INNER_FLOOR if two_component else 1e-60)
+    # (solve_channel then inflates its estimate, see _cut_is_clipped)
+    return max(_wanted_cut(gamma, two_component), _DIRAC_INNER_FLOOR if two_component else 1e-60)
 
 
 def _cut_is_clipped(gamma: float, two_component: bool) -> bool:
     """Whether the inner cut wanted for this exponent lies below the floor."""
-    gap = max(2 * gamma if two_component else 2 * gamma - 1, 0.05)
-    return two_component and _INNER ** (1.0 / min(1.0, gap)) < _DIRAC_INNER_FLOOR
+    return two_component and _wanted_cut(gamma, two_component) < _DIRAC_INNER_FLOOR
 
 
 def _energy_scale(eq, pot, L: float) -> float:
@@ -378,12 +382,16 @@ class Channel:
         r_out, r_core = _radii(self.eq, self.pot, E, self.L)
         return LogMap(self.r_min, r_out), r_core
 
-    def level(self, k: int, disc: Discretization, size: int, E_seed: float, mesh=None):
-        """Refine the k-node level at one size: (operator, Refined) or None."""
-        if mesh is None:
-            mesh, r_core = self.mesh(E_seed)
-        else:
-            r_core = self.mesh(E_seed)[1]
+    def level(self, k: int, disc: Discretization, size: int, E_seed: float, mesh=None, r_core=None):
+        """Refine the k-node level at one size: (operator, Refined) or None.
+
+        ``mesh`` and ``r_core`` default to those of :meth:`mesh` at E_seed; pass
+        them when solving one level at several sizes (the WKB scan is not cheap).
+        """
+        if mesh is None or r_core is None:
+            mesh_e, core_e = self.mesh(E_seed)
+            mesh = mesh_e if mesh is None else mesh
+            r_core = core_e if r_core is None else r_core
         got = _level_on_grid(self.eq, self.pot, self.gamma, r_core, disc, mesh, size, E_seed, k,
                              self.lo, self.hi)
         if got is None:
@@ -451,14 +459,14 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
     for k, E in enumerate(ch.seeds):
         n = principal_n(k, eq.l)
         label = eq.label(n)
-        mesh, _ = ch.mesh(E)
+        mesh, r_core = ch.mesh(E)
         history, sizes, last = [], [], None
         est = math.inf
         # finite differences across a kink of the potential converge at second order only
         kinked = any(mesh.r_min < b < mesh.r_max for b in pot.breakpoints) and not disc.family == "spectral"
         order = 2 if kinked else None
         for size in _ladder_from(disc, start):
-            got = ch.level(k, disc, size, E, mesh)
+            got = ch.level(k, disc, size, E, mesh, r_core)
             if got is None:
                 continue
             op, ref = got
