@@ -18,6 +18,14 @@ class RadialState:
     ``P`` is r times the (large) radial component, ``Q`` r times the small
     component (Dirac only, else None). ``weights`` integrate over r:
     integral of g(r) dr ~ sum(weights * g).
+
+    How the functions were represented (for interpolation between nodes):
+    P = w(r) f(t), t = ln r, w = (r / (r + r_core))^gamma, with f a polynomial
+    in t on each element; ``elements`` holds the (first, last) node index of
+    every element (neighbouring elements share their end node), ``family`` the
+    discretization family (``"spectral"`` or ``"finite-difference"``).
+    ``density_weight`` is the weight of P^2 in the normalised density (the
+    Klein-Gordon charge density (E + mc^2 - V)/(mc^2)), None when it is 1.
     """
 
     r: np.ndarray
@@ -25,6 +33,10 @@ class RadialState:
     Q: np.ndarray | None
     weights: np.ndarray
     gamma: float
+    r_core: float = 0.0
+    elements: tuple = ()
+    family: str = ""
+    density_weight: np.ndarray | None = None
 
     def __repr__(self) -> str:
         comp = "P, Q" if self.Q is not None else "P"
@@ -52,6 +64,7 @@ class Level:
     state: RadialState
     resolution: int
     iterations: int
+    previous_state: RadialState | None = None    # the same level one resolution lower (error estimates)
 
     def energy_in(self, unit: str) -> float:
         return float(hartree_to(self.energy, unit))

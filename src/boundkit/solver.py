@@ -353,7 +353,11 @@ def _state(eq, op: FactorizedOperator, E: float, y) -> RadialState:
     weight = eq.density_weight(E, s)
     comps = (P,) if Q is None else (P, Q)
     comps, _ = normalise(w_dr, *comps, weight=weight)
-    return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma)
+    bounds = [0, *grid.interfaces, len(r) - 1]
+    return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma,
+                       r_core=op.r_core, elements=tuple(zip(bounds[:-1], bounds[1:])), family=grid.method
+                       if grid.method == "spectral" else "finite-difference",
+                       density_weight=None if weight is None else np.asarray(weight, dtype=float))
 
 
 @dataclass
@@ -460,7 +464,7 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
         n = principal_n(k, eq.l)
         label = eq.label(n)
         mesh, r_core = ch.mesh(E)
-        history, sizes, last = [], [], None
+        history, sizes, last, prev = [], [], None, None
         est = math.inf
         # finite differences across a kink of the potential converge at second order only
         kinked = any(mesh.r_min < b < mesh.r_max for b in pot.breakpoints) and not disc.family == "spectral"
@@ -473,7 +477,7 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
             E = ref.energy
             history.append(E)
             sizes.append(size)
-            last = (op, ref)
+            prev, last = last, (op, ref)
             est = _estimate(history, disc, order)
             if _converged(history, disc, tol, order):
                 break
@@ -501,7 +505,8 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
         worst = max(worst, est / abs(E))
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=label, energy=E,
                            error_estimate=est, nodes=k, state=_state(eq, op, E, ref.vector),
-                           resolution=sizes[-1], iterations=ref.iterations))
+                           resolution=sizes[-1], iterations=ref.iterations,
+                           previous_state=None if prev is None else _state(eq, prev[0], history[-2], prev[1].vector)))
     found.sort(key=lambda lv: lv.energy)
     if len(found) < levels:
         status = "partial"
