@@ -14,6 +14,8 @@ from .results import Level, RadialState, SolveResult
 from . import exact
 from .solver import make_equation, solve, solve_channel
 from .studies import scan, critical, compare
+from .observables import matrix_element, observables
+from .transitions import transitions
 
 try:
     __version__ = version("boundkit")
@@ -21,4 +23,5 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0+unknown"
 
 __all__ = ["solve", "solve_channel", "make_equation", "make_potential", "Potential", "Level",
-           "RadialState", "SolveResult", "scan", "critical", "compare", "__version__"]
+           "RadialState", "SolveResult", "scan", "critical", "compare", "matrix_element", "observables",
+           "transitions", "__version__"]

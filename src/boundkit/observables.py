@@ -1,21 +1,64 @@
-"""Expectation values of a bound level, and length units for reporting them.
+"""Expectation values, radial matrix elements, g-factors and hyperfine constants.
 
-A :class:`~boundkit.results.Level` carries its normalised radial functions
-(``state.P``, ``state.Q`` for the Dirac small component) on the solver's grid
-with quadrature weights for dr, so a radial expectation value is one weighted
-sum. Everything is in atomic units (r in bohr); :func:`bohr_to` converts
-lengths for reports.
+Everything here is computed from the normalised radial functions a
+:class:`~boundkit.results.Level` carries, in atomic units (r in bohr, energies
+in hartree); lengths are converted for reports with :func:`bohr_to`.
+
+Equations
+---------
+Radial density (integrates to 1 over dr):
+
+* Schrodinger: rho = P^2;
+* Dirac: rho = P^2 + Q^2 (P = r g, Q = r f);
+* Klein-Gordon: the conserved charge density rho = (E + mc^2 - V)/(mc^2) P^2
+  (the state's ``density_weight``), not P^2 alone.
+
+An expectation value is <f> = integral_0^inf f(r) rho(r) dr, and a radial
+matrix element between two levels a, b of the same potential
+
+    <a|f|b> = integral_0^inf f(r) [P_a P_b + Q_a Q_b] dr
+
+with, for Klein-Gordon, the weight (E_a + E_b + 2mc^2 - 2V)/(2mc^2) of the
+charge-density inner product (the mean of the two states' weights).
+
+Quadrature: on the nodes [r_min, r_max] the solver's own weights (Clenshaw-
+Curtis per element for the spectral family: spectral accuracy), plus the
+piece [0, r_min] from the origin behaviour P, Q ~ r^gamma (Gauss-Legendre in
+ln r over 60 e-folds below r_min). For two levels the product is integrated on
+the nodes of the level reaching further out, the other one interpolated
+(:mod:`boundkit.wavefunctions`).
+
+Error estimate: the same quantity from ``level.previous_state`` (the level one
+resolution lower on the solver's ladder); the estimate is the difference,
+never below 4 ulp of the value. It is ``inf`` when the level has no previous
+state. The spectral family converges geometrically, so this bounds the error
+of the value at the finer resolution with a wide margin.
+
+Dirac magnetic quantities (point nucleus, m the particle mass in the solve):
+
+    g     = (2 kappa / (j (j + 1))) m c  integral r P Q dr
+    A_hfs = (mu_I / I) (2 kappa / (j (j + 1)))  integral P Q F(r) dr
+
+with F = 1/r^2 for a point dipole and F = r / R^3 inside a uniformly
+magnetized sphere of radius R (Bohr-Weisskopf), mu_I in atomic units
+(mu_N = (alpha/2)(m_e/m_p)). With the sign convention of the solver (P > 0 near
+the origin) these give Breit's g = (2/3)(1 + 2 sqrt(1 - (Z alpha)^2)) for 1s.
 """
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Callable, Mapping
 
 import numpy as np
+import scipy.constants as sc
 
-from .units import BOHR_M
+from .units import ALPHA, BOHR_M, C_AU, ELECTRON_MASS_MEV, hartree_to
+from .wavefunctions import evaluate, origin_coefficient
 
-__all__ = ["expectation", "mean_radius", "rms_radius", "LENGTH_UNITS", "length_unit", "bohr_to"]
+__all__ = ["Quantity", "LevelObservables", "expectation", "expectation_value", "radial_moment",
+           "mean_radius", "rms_radius", "matrix_element", "observables", "g_factor", "hyperfine_a",
+           "density_at_origin", "LENGTH_UNITS", "length_unit", "bohr_to", "masses_of"]
 
 LENGTH_UNITS: Mapping[str, float] = {
     "bohr": 1.0,
@@ -28,6 +71,10 @@ LENGTH_UNITS: Mapping[str, float] = {
 
 _ALIASES = {u.lower(): u for u in LENGTH_UNITS} | {"a0": "bohr", "a.u.": "bohr", "å": "angstrom",
                                                      "ang": "angstrom"}
+_INNER_EFOLDS = 60.0
+_GL_T, _GL_W = np.polynomial.legendre.leggauss(64)
+
+KG_NOTE = "Klein-Gordon: conserved charge density (E + mc^2 - V)/(mc^2) P^2"
 
 
 def length_unit(name: str) -> str:
@@ -43,45 +90,165 @@ def bohr_to(value, unit: str):
     return value * LENGTH_UNITS[length_unit(unit)]
 
 
-def _density(level) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    st = level.state
-    dens = st.P**2 if st.Q is None else st.P**2 + st.Q**2
-    return st.r, st.weights, dens
+@dataclass(frozen=True, slots=True)
+class Quantity:
+    """A computed value with its error estimate and unit.
+
+    ``error`` is absolute (same unit), ``inf`` when no estimate exists;
+    ``note`` says what density or convention was used.
+    """
+
+    name: str
+    value: float
+    error: float
+    unit: str
+    note: str = ""
+
+    def __float__(self) -> float:
+        return float(self.value)
+
+    def __repr__(self) -> str:
+        note = f"; {self.note}" if self.note else ""
+        return f"{self.name} = {self.value:.15g} +- {self.error:.2g} {self.unit}{note}"
 
 
-def expectation(level, f: Callable[[np.ndarray], np.ndarray]) -> float:
-    """Expectation value of a radial function ``f(r)`` (r in bohr) in ``level``.
+# --- quadrature ----------------------------------------------------------------------------
+
+def _pair_integrand(sa, sb, r, f, kind: str) -> np.ndarray:
+    """Integrand for dr at radii r: f(r) times the density/overlap of states sa, sb."""
+    if kind == "PQ":      # P_a Q_b + Q_a P_b, halved (equal to P Q on the diagonal)
+        return f(r) * 0.5 * (evaluate(sa, r, "P") * evaluate(sb, r, "Q")
+                             + evaluate(sa, r, "Q") * evaluate(sb, r, "P"))
+    if kind == "QP-PQ":
+        return f(r) * (evaluate(sa, r, "Q") * evaluate(sb, r, "P") - evaluate(sa, r, "P") * evaluate(sb, r, "Q"))
+    Pa, Pb = evaluate(sa, r, "P"), evaluate(sb, r, "P")
+    if kind == "plain":   # the large components only, no weight (an L2 product)
+        return f(r) * Pa * Pb
+    if kind == "P2-Q2":
+        return f(r) * (Pa * Pb - evaluate(sa, r, "Q") * evaluate(sb, r, "Q"))
+    dens = Pa * Pb
+    if sa.density_weight is not None or sb.density_weight is not None:
+        dens = dens * 0.5 * (evaluate(sa, r, "weight") + evaluate(sb, r, "weight"))
+    if sa.Q is not None and sb.Q is not None:
+        dens = dens + evaluate(sa, r, "Q") * evaluate(sb, r, "Q")
+    return f(r) * dens
+
+
+def _nodal_integrand(s, f, kind: str) -> np.ndarray:
+    """Same as :func:`_pair_integrand` for sa = sb = s, at s's own nodes (no interpolation)."""
+    r = s.r
+    if kind == "QP-PQ":
+        return 0 * r
+    if kind == "plain":
+        return f(r) * s.P**2
+    if kind == "PQ":
+        return f(r) * s.P * s.Q
+    if kind == "P2-Q2":
+        return f(r) * (s.P**2 - s.Q**2)
+    dens = s.P**2 if s.density_weight is None else s.density_weight * s.P**2
+    if s.Q is not None:
+        dens = dens + s.Q**2
+    return f(r) * dens
+
+
+def _integral(sa, sb, f, kind: str = "density") -> float:
+    """integral_0^r_max of the integrand on the nodes of the state reaching further out."""
+    grid = sa if sb is None or sa.r[-1] >= sb.r[-1] else sb
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if sb is None or sb is sa:
+            g = _nodal_integrand(sa, f, kind)
+            sb = sa
+        else:
+            g = _pair_integrand(sa, sb, grid.r, f, kind)
+        body = float(np.sum(grid.weights * g))
+        # [0, r_min]: Gauss-Legendre in t = ln r over _INNER_EFOLDS e-folds, dr = r dt
+        r0 = min(sa.r[0], sb.r[0])
+        t = math.log(r0) + 0.5 * _INNER_EFOLDS * (_GL_T - 1.0)
+        rr = np.exp(t)
+        inner = 0.5 * _INNER_EFOLDS * float(np.sum(_GL_W * rr * _pair_integrand(sa, sb, rr, f, kind)))
+        if sa.r[0] != sb.r[0]:      # the gap between the two first nodes (interpolated)
+            lo, hi = r0, grid.r[0]
+            if hi > lo:
+                x = 0.5 * (math.log(hi) + math.log(lo)) + 0.5 * (math.log(hi) - math.log(lo)) * _GL_T
+                rx = np.exp(x)
+                inner += 0.5 * (math.log(hi) - math.log(lo)) * float(
+                    np.sum(_GL_W * rx * _pair_integrand(sa, sb, rx, f, kind)))
+    total = body + inner
+    if not math.isfinite(total):
+        raise ValueError("f: the integral does not converge for this level (check the power of r at the "
+                         "origin: the integrand must vanish faster than 1/r)")
+    return total
+
+
+def _estimate(value: float, other: float | None) -> float:
+    if other is None:
+        return math.inf
+    return max(abs(value - other), 4 * np.finfo(float).eps * abs(value))
+
+
+def _check_callable(f) -> None:
+    if not callable(f):
+        raise ValueError("f: give a vectorised function of r in bohr, e.g. lambda r: r**2")
+
+
+# --- expectation values --------------------------------------------------------------------
+
+def _note(level) -> str:
+    return KG_NOTE if level.state.density_weight is not None else ""
+
+
+def expectation_value(level, f: Callable[[np.ndarray], np.ndarray], *, name: str = "<f>",
+                      unit: str = "a.u.", kind: str = "density") -> Quantity:
+    """<f> of ``level`` with an error estimate from the previous resolution.
 
     Parameters
     ----------
     level : Level
         A level from :func:`boundkit.solve`.
     f : callable
-        Vectorised function of r in bohr, e.g. ``lambda r: r`` for <r>.
+        Vectorised f(r), r in bohr (atomic units in, atomic units out).
+    name, unit : str
+        Labels of the returned quantity.
 
     Returns
     -------
-    float
-        <f> in the units of f (atomic units).
+    Quantity
+        ``value`` and absolute ``error`` (inf when ``level.previous_state`` is None).
 
     Notes
     -----
-    With P = r g and Q = r f the radial functions of the state and w_i the
-    quadrature weights for dr on its grid,
-
-        <f> = sum_i w_i f(r_i) (P_i^2 + Q_i^2) / sum_i w_i (P_i^2 + Q_i^2)
-
-    (Q = 0 outside the Dirac equation). The denominator is 1 for Schrodinger
-    and Dirac states; for Klein-Gordon states it makes the plain density
-    P^2 a probability density (the conserved Klein-Gordon density carries an
-    extra energy-dependent weight, which is not used here).
+    <f> = integral f(r) rho(r) dr with rho = P^2 (Schrodinger), P^2 + Q^2
+    (Dirac) or the Klein-Gordon charge density (E + mc^2 - V)/(mc^2) P^2.
     """
-    r, w, dens = _density(level)
-    values = np.asarray(f(r), dtype=float)
-    norm = float(np.sum(w * dens))
-    if not norm > 0:
-        raise ValueError(f"level {level.label}: its density integrates to {norm:g}; cannot take an expectation")
-    return float(np.sum(w * values * dens) / norm)
+    _check_callable(f)
+    value = _integral(level.state, None, f, kind)
+    prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind)
+    return Quantity(name, value, _estimate(value, prev), unit, _note(level))
+
+
+def expectation(level, f: Callable[[np.ndarray], np.ndarray]) -> float:
+    """<f(r)> of ``level`` (atomic units): the value of :func:`expectation_value`."""
+    return expectation_value(level, f).value
+
+
+def radial_moment(level, k: float, length_unit: str = "bohr") -> Quantity:
+    """<r^k> in ``length_unit``^k, with error estimate.
+
+    Raises ValueError unless k > -(2 gamma + 1) (else the integral diverges at the origin).
+
+    Notes
+    -----
+    <r^k> = integral r^k rho(r) dr; rho ~ r^(2 gamma) at the origin.
+    """
+    k = float(k)
+    gamma = level.state.gamma
+    if not math.isfinite(k) or k <= -(2 * gamma + 1):
+        raise ValueError(f"k: <r^k> of {level.label} needs k > -(2 gamma + 1) = {-(2 * gamma + 1):.6g} "
+                         "(the density goes like r^(2 gamma) at the origin); use a larger power")
+    unit = globals()["length_unit"](length_unit)
+    scale = LENGTH_UNITS[unit] ** k
+    q = expectation_value(level, lambda r: r**k)
+    return Quantity(f"<r^{k:g}>", q.value * scale, q.error * abs(scale), f"{unit}^{k:g}", q.note)
 
 
 def mean_radius(level) -> float:
@@ -92,3 +259,246 @@ def mean_radius(level) -> float:
 def rms_radius(level) -> float:
     """sqrt(<r^2>) of ``level`` in bohr."""
     return math.sqrt(expectation(level, lambda r: r * r))
+
+
+def density_at_origin(level) -> Quantity:
+    """Coefficient c of the density rho(r) ~ c r^(2 gamma) at the origin (bohr^(-1-2 gamma)).
+
+    Notes
+    -----
+    c = lim P^2 / r^(2 gamma) (+ Q^2 / r^(2 gamma) for Dirac). For Schrodinger
+    s states (gamma = 1) |psi(0)|^2 = c / (4 pi). Klein-Gordon: the plain
+    P^2 coefficient (the charge-density weight diverges at a point charge).
+    """
+    def coef(s):
+        return origin_coefficient(s, "P") ** 2 + origin_coefficient(s, "Q") ** 2
+
+    value = coef(level.state)
+    prev = None if level.previous_state is None else coef(level.previous_state)
+    g = level.state.gamma
+    return Quantity("rho/r^(2 gamma) at 0", value, _estimate(value, prev), f"bohr^-{1 + 2 * g:.6g}",
+                    "P^2 coefficient" if level.state.density_weight is not None else "")
+
+
+# --- matrix elements -----------------------------------------------------------------------
+
+def matrix_element(level_a, level_b, f: Callable[[np.ndarray], np.ndarray], *,
+                   kind: str = "density") -> Quantity:
+    """Radial matrix element <a|f|b> between two levels of the same potential.
+
+    Parameters
+    ----------
+    level_a, level_b : Level
+        Levels of any channels of one potential and equation.
+    f : callable
+        Vectorised f(r), r in bohr.
+    kind : {'density', 'PQ', 'P2-Q2'}
+        'density' (default): integral f (P_a P_b + Q_a Q_b) dr (Klein-Gordon:
+        charge-density inner product). 'PQ': integral f (P_a Q_b + Q_a P_b)/2 dr.
+        'P2-Q2': integral f (P_a P_b - Q_a Q_b) dr (a Lorentz-scalar operator).
+
+    Returns
+    -------
+    Quantity
+        Atomic units; the error is the larger of the change from the previous
+        resolutions and the difference between integrating on either level's nodes.
+
+    Notes
+    -----
+    See the module docstring for the Klein-Gordon weight and the quadrature.
+    """
+    _check_callable(f)
+    if kind not in ("density", "PQ", "P2-Q2"):
+        raise ValueError(f"kind: {kind!r} is not one of 'density', 'PQ', 'P2-Q2'")
+    if kind != "density" and (level_a.state.Q is None or level_b.state.Q is None):
+        raise ValueError(f"kind: {kind!r} needs Dirac levels (two components)")
+    sa, sb = level_a.state, level_b.state
+    if sa is sb:
+        return expectation_value(level_a, f, name=f"<{level_a.label}|f|{level_a.label}>", kind=kind)
+    value = _integral(sa, sb, f, kind)
+    swapped = _integral(sb, sa, f, kind) if sa.r[-1] != sb.r[-1] else value
+    pa, pb = level_a.previous_state, level_b.previous_state
+    prev = None if pa is None or pb is None else _integral(pa, pb, f, kind)
+    err = max(_estimate(value, prev), abs(value - swapped))
+    return Quantity(f"<{level_a.label}|f|{level_b.label}>", value, err, "a.u.", _note(level_a))
+
+
+# --- Dirac magnetic quantities ---------------------------------------------------------------
+
+def _need_dirac(level, what: str) -> None:
+    if level.state.Q is None or level.kappa is None:
+        raise ValueError(f"level: the {what} needs a Dirac level (two components); {level.label} has one")
+
+
+def g_factor(level, mass: float = 1.0) -> Quantity:
+    """Bound-particle g-factor of a Dirac level (point magnetic moment of the particle itself
+    not included beyond Dirac's g = 2).
+
+    Parameters
+    ----------
+    level : Level
+        A Dirac level.
+    mass : float
+        Mass used in the solve, in electron masses (``result.settings['mass_atomic_units']``).
+
+    Notes
+    -----
+    g = (2 kappa / (j (j + 1))) m c integral r P Q dr. For a point Coulomb
+    nucleus this equals kappa (2 kappa E_tot/(mc^2) - 1) / (2 j (j + 1))
+    (Breit's (2/3)(1 + 2 gamma) for 1s).
+    """
+    _need_dirac(level, "g-factor")
+    j = abs(level.kappa) - 0.5
+    factor = 2 * level.kappa / (j * (j + 1)) * mass * C_AU
+    q = expectation_value(level, lambda r: r, kind="PQ")
+    return Quantity("g", factor * q.value, abs(factor) * q.error, "1", "Dirac, no radiative corrections")
+
+
+NUCLEAR_MAGNETON_AU: float = 0.5 * ALPHA * sc.m_e / sc.m_p
+"""Nuclear magneton in Gaussian atomic units (Bohr magneton alpha/2), from scipy.constants."""
+
+
+def hyperfine_a(level, nuclear_moment: float, nuclear_spin: float, *, mass: float = 1.0,
+                particle_mass: float | None = None, magnetization_radius: float | None = None,
+                energy_unit: str = "MHz") -> Quantity:
+    """Magnetic dipole hyperfine constant A of a Dirac level.
+
+    Parameters
+    ----------
+    level : Level
+        A Dirac level.
+    nuclear_moment : float
+        Nuclear magnetic moment in nuclear magnetons (e.g. the proton's 2.79...).
+    nuclear_spin : float
+        Nuclear spin I (> 0).
+    mass, particle_mass : float
+        Mass used in the solve (the reduced mass when a nucleus mass was given) and
+        the orbiting particle's own mass, in electron masses. The particle's
+        magnetic moment goes with its own mass, so A is scaled by mass/particle_mass.
+    magnetization_radius : float, optional
+        Radius (bohr) of a uniformly magnetized sphere (Bohr-Weisskopf effect);
+        None: point dipole.
+    energy_unit : str
+        Unit of the result (MHz by default; any energy unit).
+
+    Notes
+    -----
+    A = (mu_I / I) (2 kappa / (j (j + 1))) integral P Q F(r) dr, F = 1/r^2
+    (point dipole) or r/R^3 for r < R (uniform sphere). The energy of a level F
+    is A [F(F+1) - I(I+1) - j(j+1)] / 2.
+    """
+    _need_dirac(level, "hyperfine constant")
+    if not (nuclear_spin > 0 and math.isfinite(nuclear_spin)):
+        raise ValueError("nuclear_spin: must be a positive number (e.g. 0.5 for the proton)")
+    if not math.isfinite(nuclear_moment):
+        raise ValueError("nuclear_moment: must be finite (nuclear magnetons)")
+    j = abs(level.kappa) - 0.5
+    ratio = 1.0 if particle_mass is None else mass / particle_mass
+    factor = (nuclear_moment * NUCLEAR_MAGNETON_AU / nuclear_spin) * 2 * level.kappa / (j * (j + 1)) * ratio
+    if magnetization_radius is None:
+        F = lambda r: r**-2.0  # noqa: E731
+        note = "point magnetic dipole"
+    else:
+        R = float(magnetization_radius)
+        if not R > 0:
+            raise ValueError("magnetization_radius: must be > 0 (bohr)")
+        F = lambda r: np.where(r < R, r / R**3, 1.0 / np.maximum(r, R) ** 2)  # noqa: E731
+        note = f"uniformly magnetized sphere, R = {R:.6g} bohr"
+    q = expectation_value(level, F, kind="PQ")
+    scale = factor * float(hartree_to(1.0, energy_unit))
+    return Quantity("A_hfs", scale * q.value, abs(scale) * q.error, energy_unit, note)
+
+
+# --- one record per level ----------------------------------------------------------------------
+
+@dataclass(frozen=True, slots=True, repr=False)
+class LevelObservables:
+    """Expectation values of one level (lengths in ``length_unit``).
+
+    ``g_factor`` is None outside the Dirac equation, ``potential``/``scalar``
+    (hartree) None unless a potential was given.
+    """
+
+    label: str
+    length_unit: str
+    r_mean: Quantity
+    r_rms: Quantity
+    r_inverse: Quantity
+    origin: Quantity
+    g_factor: Quantity | None = None
+    potential: Quantity | None = None
+    scalar: Quantity | None = None
+    note: str = ""
+
+    def to_dict(self) -> dict:
+        out = {"r_mean": self.r_mean.value, "r_rms": self.r_rms.value, "r_inverse": self.r_inverse.value,
+               "errors": {"r_mean": self.r_mean.error, "r_rms": self.r_rms.error,
+                          "r_inverse": self.r_inverse.error}}
+        if self.g_factor is not None:
+            out["g_factor"] = self.g_factor.value
+            out["errors"]["g_factor"] = self.g_factor.error
+        for key in ("potential", "scalar"):
+            q = getattr(self, key)
+            if q is not None:
+                out[f"{key}_hartree"] = q.value
+        if self.note:
+            out["density"] = self.note
+        return out
+
+    def __repr__(self) -> str:
+        parts = [repr(self.r_mean), repr(self.r_rms), repr(self.r_inverse)]
+        if self.g_factor is not None:
+            parts.append(repr(self.g_factor))
+        return f"LevelObservables({self.label}: " + "; ".join(parts) + ")"
+
+
+def masses_of(result) -> tuple[float, float]:
+    """(mass used in the solve, particle's own mass) in electron masses, from a SolveResult."""
+    s = result.settings
+    mass = float(s.get("mass_atomic_units", 1.0))
+    mev = s.get("particle_mass_MeV")
+    return mass, (mass if mev is None else float(mev) / ELECTRON_MASS_MEV)
+
+
+def observables(level, *, length_unit: str = "bohr", mass: float = 1.0, potential=None) -> LevelObservables:
+    """<r>, sqrt(<r^2>), <1/r>, the density at the origin, and for Dirac levels g.
+
+    Parameters
+    ----------
+    level : Level
+    length_unit : str
+        Unit of the radii (<1/r> is in 1/length_unit).
+    mass : float
+        Mass used in the solve (electron masses), for the g-factor.
+    potential : Potential, optional
+        The potential solved (``boundkit.make_potential(...)``); gives <V> and <S> (hartree).
+
+    Notes
+    -----
+    r_rms = sqrt(<r^2>), its error dr_rms = d<r^2> / (2 r_rms).
+    """
+    unit = globals()["length_unit"](length_unit)
+    scale = LENGTH_UNITS[unit]
+    note = _note(level)
+    r1 = expectation_value(level, lambda r: r)
+    r2 = expectation_value(level, lambda r: r * r)
+    rinv = expectation_value(level, lambda r: 1.0 / r)
+    rms = math.sqrt(r2.value)
+    out = dict(
+        r_mean=Quantity("<r>", r1.value * scale, r1.error * scale, unit, note),
+        r_rms=Quantity("r_rms", rms * scale, r2.error / (2 * rms) * scale, unit, note),
+        r_inverse=Quantity("<1/r>", rinv.value / scale, rinv.error / scale, f"1/{unit}", note),
+        origin=density_at_origin(level),
+    )
+    if level.state.Q is not None and level.kappa is not None:
+        out["g_factor"] = g_factor(level, mass)
+    if potential is not None:
+        out["potential"] = expectation_value(level, lambda r: np.asarray(potential.V(r), float),
+                                             name="<V>", unit="hartree")
+        if level.state.Q is not None:
+            out["scalar"] = expectation_value(level, lambda r: np.asarray(potential.S(r), float),
+                                              name="<S>", unit="hartree", kind="P2-Q2")
+        else:
+            out["scalar"] = expectation_value(level, lambda r: np.asarray(potential.S(r), float),
+                                              name="<S>", unit="hartree")
+    return LevelObservables(label=level.label, length_unit=unit, note=note, **out)

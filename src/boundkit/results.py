@@ -38,6 +38,37 @@ class RadialState:
     family: str = ""
     density_weight: np.ndarray | None = None
 
+    def __call__(self, r) -> np.ndarray:
+        """Normalised radial function(s) at radii ``r`` (bohr).
+
+        Returns P(r) (same shape as ``r``) for a one-component state, and the
+        stacked array [P(r), Q(r)] (so ``P, Q = state(r)``) for a Dirac state.
+        Between nodes f = P / w(r) is interpolated as a polynomial in ln r on
+        each element (see :mod:`boundkit.wavefunctions`).
+        """
+        from .wavefunctions import evaluate
+
+        shape = np.shape(r)
+        P = evaluate(self, r, "P").reshape(shape)
+        if self.Q is None:
+            return P
+        return np.stack([P, evaluate(self, r, "Q").reshape(shape)])
+
+    def density(self, r) -> np.ndarray:
+        """Normalised radial density at ``r`` (bohr), integrating to 1 over dr.
+
+        Schrodinger: P^2; Dirac: P^2 + Q^2; Klein-Gordon: the conserved charge
+        density (E + mc^2 - V)/(mc^2) P^2 (``density_weight`` interpolated).
+        """
+        from .wavefunctions import evaluate
+
+        shape = np.shape(r)
+        P = evaluate(self, r, "P")
+        dens = evaluate(self, r, "weight") * P**2
+        if self.Q is not None:
+            dens = dens + evaluate(self, r, "Q") ** 2
+        return dens.reshape(shape)
+
     def __repr__(self) -> str:
         comp = "P, Q" if self.Q is not None else "P"
         return (f"RadialState({comp} on {len(self.r)} nodes, r in "

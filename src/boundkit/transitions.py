@@ -1,0 +1,440 @@
+"""Radiative transitions between bound levels: line strengths, oscillator strengths, rates.
+
+Atomic units throughout (e = hbar = m_e = 1, c = 1/alpha); photon energy
+omega = E_upper - E_lower (a difference of binding energies), k = omega / c.
+
+Spinless equations (Schrodinger, Klein-Gordon), electric dipole
+-------------------------------------------------------------------
+Length form:   R_L = <a| r |b>  (Klein-Gordon: charge-density inner product,
+               weight (E_a + E_b + 2mc^2 - 2V)/(2mc^2)),
+velocity form: R_V = <a| d/dr + (l_a + 1 ... ) |b> / (m omega), i.e. for l_b = l_a + 1
+
+    R_V = integral P_a (P_b' + (l_b + 1) P_b / r) dr / (m omega) ... written
+          below with the radial gradient of the level with the larger l:
+    l' = l - 1:  G = integral P_(l-1) (P_l' + l P_l / r) dr
+    l' = l + 1:  G = integral P_(l+1) (P_l' - (l + 1) P_l / r) dr,
+
+and R_V = |G| / (m omega) (the plain L2 product: the Klein-Gordon current is
+(psi_a* grad psi_b - psi_b grad psi_a*)/(2m)). Line strength S = l_> R^2
+(|<l_a||C_1||l_b>|^2 = l_>, with l_> the larger l).
+
+Dirac multipoles (the form of Johnson, Atomic Structure Theory, Springer 2007, ch. 8,
+from memory; the relative signs below are those of this solver's convention, P > 0
+near the origin and P' + kappa P / r = (E + 2mc^2 - V + S) Q / c, fixed by demanding
+that the two gauges agree: they do to ~1e-11 for E1 and E2 at Z = 1..92)
+-----------------------------------------------------------------------
+With C = <kappa_a||C_J||kappa_b> and N = (2J+1)!! / k^J, electric (length gauge):
+
+    Q_EJ = C N integral { j_J(kr) (P_a P_b + Q_a Q_b)
+           + j_(J+1)(kr) [ -(kappa_a - kappa_b)/(J+1) (P_a Q_b + Q_a P_b) + (Q_a P_b - P_a Q_b) ] } dr
+
+electric (velocity gauge):
+
+    Q_EJ = C N integral { (kappa_a - kappa_b)/(J+1) [j_J'(kr) + j_J(kr)/(kr)] (P_a Q_b + Q_a P_b)
+           + J j_J(kr)/(kr) (Q_a P_b - P_a Q_b) } dr
+
+magnetic (C' = <-kappa_a||C_J||kappa_b>):
+
+    Q_MJ = C' N (kappa_a + kappa_b)/(J+1) integral j_J(kr) (P_a Q_b + Q_a P_b) dr.
+
+The long-wavelength limit replaces j_J(x) by x^J/(2J+1)!! and drops
+j_(J+1): Q_E1 -> C integral r (P_a P_b + Q_a Q_b) dr.
+
+Rates for every multipole (u upper, l lower, g = 2j + 1 or 2l + 1)
+--------------------------------------------------------------
+    S = |Q|^2,  A_ul = 2 (2J+1)(J+1) / (J [(2J+1)!!]^2) k^(2J+1) S / g_u,
+    f_lu = m c^3 g_u A_ul / (2 omega^2 g_l)   (absorption oscillator strength),
+
+which for E1 is A = 4 omega^3 S / (3 c^3 g_u), f = 2 m omega S / (3 g_l). The
+lifetime of a level is 1 / sum of its A; the branching ratio of a line is
+A / sum A. A in 1/s uses the atomic unit of time from scipy.constants.
+
+Reduced mass: when a nucleus mass M is given the levels are solved with
+mu = m M / (m + M), omega is the true transition energy, and the dipole is
+e r (r the relative coordinate), exact for a neutral two-body system such as
+hydrogen (for a nucleus of charge Z it is e r (M + Z m)/(M + m), a factor not
+applied here). m in f is the orbiting particle's own mass, the usual
+definition (with it, f of hydrogen exceeds the infinite-mass value by m/mu).
+"""
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass, field
+from fractions import Fraction
+from typing import Sequence
+
+import numpy as np
+import scipy.constants as sc
+from scipy.special import spherical_jn
+
+from .observables import _integral, matrix_element
+from .units import C_AU, ELECTRON_MASS_MEV, hartree_to
+from .wavefunctions import radial_derivative_state
+
+__all__ = ["Line", "LevelDecay", "TransitionResult", "transitions", "line", "wigner3j", "reduced_c"]
+
+log = logging.getLogger(__name__)
+
+AU_TIME_S: float = sc.physical_constants["atomic unit of time"][0]
+NM_HARTREE: float = sc.h * sc.c / sc.physical_constants["Hartree energy"][0] * 1e9
+"""Wavelength in nm of a photon of 1 hartree (scipy.constants)."""
+
+MULTIPOLES = ("E1", "M1", "E2")
+
+
+# --- angular factors ---------------------------------------------------------------------
+
+def wigner3j(j1, j2, j3, m1, m2, m3) -> float:
+    """Wigner 3j symbol (Racah's formula), arguments integers or half-integers."""
+    J = [Fraction(x).limit_denominator(2) for x in (j1, j2, j3, m1, m2, m3)]
+    j1, j2, j3, m1, m2, m3 = J
+    if m1 + m2 + m3 != 0 or any(abs(m) > j for m, j in ((m1, j1), (m2, j2), (m3, j3))):
+        return 0.0
+    if j3 < abs(j1 - j2) or j3 > j1 + j2:
+        return 0.0
+    f = math.factorial
+
+    def I(x):  # noqa: E743 - an integer from a Fraction
+        if x.denominator != 1:
+            raise ValueError("wigner3j: arguments do not add to integers")
+        return int(x)
+
+    pre = (f(I(j1 + j2 - j3)) * f(I(j1 - j2 + j3)) * f(I(-j1 + j2 + j3)) / f(I(j1 + j2 + j3 + 1))
+           * f(I(j1 + m1)) * f(I(j1 - m1)) * f(I(j2 + m2)) * f(I(j2 - m2)) * f(I(j3 + m3)) * f(I(j3 - m3)))
+    total = 0.0
+    for t in range(0, I(j1 + j2 + j3) + 2):
+        args = [t, I(j3 - j2 + t + m1), I(j3 - j1 + t - m2), I(j1 + j2 - j3 - t), I(j1 - t - m1),
+                I(j2 - t + m2)]
+        if min(args) < 0:
+            continue
+        total += (-1) ** t / math.prod(f(a) for a in args)
+    return float((-1) ** I(j1 - j2 - m3) * math.sqrt(pre) * total)
+
+
+def _l_of(kappa: int) -> int:
+    return kappa if kappa > 0 else -kappa - 1
+
+
+def reduced_c(kappa_a: int, kappa_b: int, J: int) -> float:
+    """<kappa_a||C_J||kappa_b> = (-1)^(j_a + 1/2) sqrt((2j_a+1)(2j_b+1)) (j_a J j_b; -1/2 0 1/2)
+    when l_a + l_b + J is even, else 0."""
+    if (_l_of(kappa_a) + _l_of(kappa_b) + J) % 2:
+        return 0.0
+    ja, jb = abs(kappa_a) - 0.5, abs(kappa_b) - 0.5
+    sign = -1.0 if round(ja + 0.5) % 2 else 1.0
+    return sign * math.sqrt((2 * ja + 1) * (2 * jb + 1)) * wigner3j(ja, J, jb, -0.5, 0, 0.5)
+
+
+def _double_factorial(n: int) -> int:
+    return math.prod(range(n, 0, -2)) if n > 0 else 1
+
+
+def _rate_factor(J: int) -> float:
+    return 2 * (2 * J + 1) * (J + 1) / (J * _double_factorial(2 * J + 1) ** 2)
+
+
+# --- results ---------------------------------------------------------------------------
+
+@dataclass(frozen=True, slots=True, repr=False)
+class Line:
+    """One radiative line upper -> lower.
+
+    ``energy`` in ``energy_unit``; ``line_strength`` in atomic units
+    (e^2 a0^(2J) for EJ); ``einstein_a`` in 1/s; ``oscillator_strength`` the
+    absorption f of lower -> upper. ``gauge_check`` holds the line strength in
+    the second gauge (velocity form) and ``long_wavelength_a`` the rate in the
+    long-wavelength limit (Dirac), both for comparison.
+    """
+
+    upper: str
+    lower: str
+    multipole: str
+    energy: float
+    energy_unit: str
+    energy_hartree: float
+    wavelength_nm: float
+    line_strength: float
+    oscillator_strength: float
+    einstein_a: float
+    line_strength_velocity: float | None = None
+    long_wavelength_a: float | None = None
+
+    @property
+    def gauge_agreement(self) -> float | None:
+        """|S_length / S_velocity - 1|, or None."""
+        if self.line_strength_velocity is None or self.line_strength == 0:
+            return None
+        return abs(self.line_strength_velocity / self.line_strength - 1.0)
+
+    def to_dict(self) -> dict:
+        return {"upper": self.upper, "lower": self.lower, "multipole": self.multipole,
+                "energy": self.energy, "wavelength_nm": self.wavelength_nm,
+                "line_strength": self.line_strength, "oscillator_strength": self.oscillator_strength,
+                "einstein_a": self.einstein_a, "line_strength_velocity": self.line_strength_velocity,
+                "gauge_agreement": self.gauge_agreement, "long_wavelength_a": self.long_wavelength_a}
+
+    def __repr__(self) -> str:
+        return (f"Line({self.upper} -> {self.lower} {self.multipole}: {self.energy:.10g} {self.energy_unit}, "
+                f"{self.wavelength_nm:.8g} nm, S = {self.line_strength:.8g}, f = {self.oscillator_strength:.6g}, "
+                f"A = {self.einstein_a:.6g} /s)")
+
+
+@dataclass(frozen=True, slots=True, repr=False)
+class LevelDecay:
+    """Radiative lifetime (s) of a level and the branching ratio of each line down from it."""
+
+    label: str
+    energy: float
+    lifetime_s: float
+    total_rate: float
+    branching: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        return {"label": self.label, "energy": self.energy, "lifetime_s": self.lifetime_s,
+                "total_rate_per_s": self.total_rate, "branching": dict(self.branching)}
+
+    def __repr__(self) -> str:
+        return f"LevelDecay({self.label}: lifetime {self.lifetime_s:.6g} s)"
+
+
+@dataclass(frozen=True, repr=False)
+class TransitionResult:
+    """Outcome of :func:`transitions`: lines, level lifetimes, and what produced them."""
+
+    lines: tuple[Line, ...]
+    levels: tuple[LevelDecay, ...]
+    equation: str
+    potential: str
+    energy_unit: str
+    settings: dict = field(default_factory=dict)
+    constants: dict = field(default_factory=dict)
+    status: str = "ok"
+    message: str = ""
+
+    def line(self, upper: str, lower: str, multipole: str = "E1") -> Line:
+        for ln in self.lines:
+            if (ln.upper, ln.lower, ln.multipole) == (upper, lower, multipole):
+                return ln
+        raise KeyError(f"no {multipole} line {upper} -> {lower}")
+
+    def level(self, label: str) -> LevelDecay:
+        for lv in self.levels:
+            if lv.label == label:
+                return lv
+        raise KeyError(f"no level {label!r}")
+
+    def to_dict(self) -> dict:
+        return {"equation": self.equation, "potential": self.potential,
+                "units": {"energy": self.energy_unit, "wavelength": "nm", "einstein_a": "1/s",
+                          "line_strength": "atomic units (e^2 bohr^(2J) for EJ)", "lifetime": "s"},
+                "status": self.status, "message": self.message, "constants": self.constants,
+                "settings": self.settings, "lines": [ln.to_dict() for ln in self.lines],
+                "levels": [lv.to_dict() for lv in self.levels]}
+
+    def __repr__(self) -> str:
+        head = f"TransitionResult({self.equation}, {self.potential}: {len(self.lines)} lines; {self.message})"
+        return "\n".join([head] + [f"  {ln!r}" for ln in self.lines])
+
+
+# --- radial integrals ------------------------------------------------------------------
+
+def _spinless_e1(a, b, mass: float, omega: float) -> tuple[float, float]:
+    """(R_length, R_velocity) of the E1 radial integral between spinless levels a (upper), b."""
+    RL = matrix_element(a, b, lambda r: r).value
+    hi, lo = (a, b) if a.l > b.l else (b, a)
+    d = radial_derivative_state(hi.state)
+    # integral P_lo (P_hi' + c P_hi / r) dr with c = l_hi (l_lo = l_hi - 1)
+    G = (_integral(lo.state, d, lambda r: 1.0 / r, "plain")
+         + hi.l * _integral(lo.state, hi.state, lambda r: 1.0 / r, "plain"))
+    return RL, G / (mass * omega)
+
+
+def _dirac_q(a, b, J: int, k: float, kind: str) -> float:
+    """Reduced multipole amplitude Q_J (kind 'E-length', 'E-velocity', 'M', or 'E-long')."""
+    ka, kb = a.kappa, b.kappa
+    norm = _double_factorial(2 * J + 1) / k**J
+    sa, sb = a.state, b.state
+
+    def I(f, which):  # noqa: E743
+        return _integral(sa, sb, f, which)
+
+    jJ = lambda r: spherical_jn(J, k * r)  # noqa: E731
+    if kind == "M":
+        C = reduced_c(-ka, kb, J)
+        if C == 0:
+            return 0.0
+        return C * norm * (ka + kb) / (J + 1) * 2 * I(jJ, "PQ")
+    C = reduced_c(ka, kb, J)
+    if C == 0:
+        return 0.0
+    if kind == "E-long":
+        return C * I(lambda r: r**J, "density")
+    jJ1 = lambda r: spherical_jn(J + 1, k * r)  # noqa: E731
+    if kind == "E-length":
+        return C * norm * (I(jJ, "density") - (ka - kb) / (J + 1) * 2 * I(jJ1, "PQ") + I(jJ1, "QP-PQ"))
+    # velocity gauge
+    def dj(r):
+        x = k * r
+        return spherical_jn(J, x, derivative=True) + spherical_jn(J, x) / x
+    return C * norm * ((ka - kb) / (J + 1) * 2 * I(dj, "PQ")
+                       + J * I(lambda r: spherical_jn(J, k * r) / (k * r), "QP-PQ"))
+
+
+def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.0,
+         particle_mass: float | None = None, energy_unit: str = "eV") -> Line | None:
+    """The line upper -> lower of one multipole, or None when the selection rules forbid it.
+
+    ``mass`` is the mass used in the solve, ``particle_mass`` the particle's
+    own mass (for f), both in electron masses. See the module docstring.
+    """
+    omega = upper.energy - lower.energy
+    if not omega > 0:
+        raise ValueError(f"upper: {upper.label} does not lie above {lower.label}; swap them")
+    m_f = mass if particle_mass is None else particle_mass
+    k = omega / C_AU
+    SV = long_a = None
+    if equation in ("schrodinger", "klein-gordon"):
+        if multipole != "E1":
+            raise ValueError(f"multipole: only E1 is computed for the {equation} equation")
+        if abs(upper.l - lower.l) != 1:
+            return None
+        RL, RV = _spinless_e1(upper, lower, mass, omega)
+        lmax = max(upper.l, lower.l)
+        S, SV = lmax * RL**2, lmax * RV**2
+        gu, gl = 2 * upper.l + 1, 2 * lower.l + 1
+        J = 1
+    elif equation == "dirac":
+        J = int(multipole[1])
+        if multipole[0] == "E":
+            q = _dirac_q(upper, lower, J, k, "E-length")
+            if q == 0.0:
+                return None
+            S = q * q
+            SV = _dirac_q(upper, lower, J, k, "E-velocity") ** 2
+            long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k, "E-long") ** 2
+        else:
+            q = _dirac_q(upper, lower, J, k, "M")
+            if q == 0.0:
+                return None
+            S = q * q
+            long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k * 1e-6, "M") ** 2
+        gu, gl = 2 * abs(upper.kappa), 2 * abs(lower.kappa)
+        long_a = long_a / gu / AU_TIME_S
+    else:
+        raise ValueError(f"equation: {equation!r} is not one of schrodinger, klein-gordon, dirac")
+    A_au = _rate_factor(J) * k ** (2 * J + 1) * S / gu
+    f = m_f * C_AU**3 * gu * A_au / (2 * omega**2 * gl)
+    return Line(upper=upper.label, lower=lower.label, multipole=multipole,
+                energy=float(hartree_to(omega, energy_unit)), energy_unit=energy_unit, energy_hartree=omega,
+                wavelength_nm=NM_HARTREE / omega, line_strength=S, oscillator_strength=f,
+                einstein_a=A_au / AU_TIME_S, line_strength_velocity=SV, long_wavelength_a=long_a)
+
+
+def _channels(equation: str, max_n: int):
+    """(l or kappa keyword, number of levels with n <= max_n) for every channel."""
+    out = []
+    for l in range(max_n):
+        count = max_n - l
+        if equation == "dirac":
+            out.append(({"kappa": -(l + 1)}, count))
+            if l > 0:
+                out.append(({"kappa": l}, count))
+        else:
+            out.append(({"l": l}, count))
+    return out
+
+
+def transitions(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+                max_n: int = 2, levels: Sequence[str] | None = None, multipoles: Sequence[str] = ("E1",),
+                energy_unit: str = "eV", tol: float = 1e-12, method: str = "auto",
+                particle: str | None = None, mass_mev: float | None = None,
+                nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic") -> TransitionResult:
+    """All radiative lines among the bound levels with n <= ``max_n``.
+
+    Parameters
+    ----------
+    equation, potential, params, particle, mass_mev, nucleus_mass_mev, scalar, units, method, tol
+        As for :func:`boundkit.solve` (every channel with l < max_n is solved).
+    max_n : int
+        Highest principal quantum number included (>= 2).
+    levels : sequence of str, optional
+        Keep only these level labels (e.g. ``["1s", "2p"]``).
+    multipoles : sequence of {'E1', 'M1', 'E2'}
+        Multipoles computed (M1 and E2 for the Dirac equation only).
+    energy_unit : str
+        Unit of line energies (any energy unit, e.g. eV, cm^-1, MHz).
+
+    Returns
+    -------
+    TransitionResult
+        Lines (upper, lower, multipole, energy, wavelength, S, f, A) and, per
+        level, lifetime and branching ratios.
+
+    Notes
+    -----
+    See the module docstring for the radial integrals and the rate formulas.
+    """
+    from .solver import solve  # the public entry point
+    from .units import energy_unit as canonical_energy_unit
+    from ._checks import check_int
+
+    max_n = check_int("max_n", max_n, minimum=1)
+    if max_n < 2:
+        raise ValueError("max_n: needs at least 2 (no lines among n = 1 levels alone)")
+    unit = canonical_energy_unit(energy_unit)
+    key = str(equation).lower().replace("_", "-")
+    key = {"kg": "klein-gordon"}.get(key, key)
+    mults = [str(m).upper() for m in multipoles]
+    for m in mults:
+        if m not in MULTIPOLES:
+            raise ValueError(f"multipoles: {m!r} is not one of {', '.join(MULTIPOLES)}")
+        if m != "E1" and key != "dirac":
+            raise ValueError(f"multipoles: {m} is computed for the Dirac equation only; use E1")
+    found, messages, settings = [], [], {}
+    status = "ok"
+    for channel, count in _channels(key, max_n):
+        res = solve(key, potential, params, levels=count, tol=tol, method=method, particle=particle,
+                    mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar, units=units,
+                    **channel)
+        settings = res.settings
+        if res.status == "partial":
+            status = "partial"
+            messages.append(f"{channel}: {res.message}")
+        found.extend(lv for lv in res.levels if lv.n <= max_n)
+    if levels is not None:
+        wanted = [str(x) for x in levels]
+        have = {lv.label for lv in found}
+        missing = [x for x in wanted if x not in have]
+        if missing:
+            raise ValueError(f"levels: {', '.join(missing)} not found; bound levels with n <= {max_n}: "
+                             f"{', '.join(sorted(have))}")
+        found = [lv for lv in found if lv.label in wanted]
+    mass = float(settings.get("mass_atomic_units", 1.0))
+    pm = settings.get("particle_mass_MeV")
+    particle_mass = mass if pm is None else float(pm) / ELECTRON_MASS_MEV
+    found.sort(key=lambda lv: lv.energy)
+    lines = []
+    for i, up in enumerate(found):
+        for low in found[:i]:
+            if up.energy <= low.energy:
+                continue
+            for m in mults:
+                ln = line(up, low, m, equation=key, mass=mass, particle_mass=particle_mass, energy_unit=unit)
+                if ln is not None:
+                    lines.append(ln)
+    decays = []
+    for lv in found:
+        down = [ln for ln in lines if ln.upper == lv.label]
+        total = sum(ln.einstein_a for ln in down)
+        decays.append(LevelDecay(lv.label, float(hartree_to(lv.energy, unit)),
+                                 math.inf if total == 0 else 1.0 / total, total,
+                                 {f"{ln.lower} {ln.multipole}": ln.einstein_a / total for ln in down}
+                                 if total > 0 else {}))
+    message = f"{len(lines)} line(s) among {len(found)} level(s) with n <= {max_n}"
+    if messages:
+        message += "; " + "; ".join(messages)
+    from .units import constants_record
+    return TransitionResult(tuple(lines), tuple(decays), key, str(settings.get("terms", potential)), unit,
+                            settings={**settings, "max_n": max_n, "multipoles": mults, "tol": tol},
+                            constants=constants_record(), status=status, message=message)
