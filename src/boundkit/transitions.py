@@ -347,7 +347,7 @@ def _channels(equation: str, max_n: int):
 
 def transitions(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
                 max_n: int = 2, levels: Sequence[str] | None = None, multipoles: Sequence[str] = ("E1",),
-                energy_unit: str = "eV", tol: float = 1e-12, method: str = "auto",
+                energy_unit: str = "eV", tol: float = 1e-14, method: str = "auto",
                 particle: str | None = None, mass_mev: float | None = None,
                 nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic") -> TransitionResult:
     """All radiative lines among the bound levels with n <= ``max_n``.
@@ -417,7 +417,8 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
     lines = []
     for i, up in enumerate(found):
         for low in found[:i]:
-            if up.energy <= low.energy:
+            # degenerate within the error estimates (2s and 2p of hydrogen): no line
+            if up.energy - low.energy <= 10 * (up.error_estimate + low.error_estimate) + 1e-14 * abs(up.energy):
                 continue
             for m in mults:
                 ln = line(up, low, m, equation=key, mass=mass, particle_mass=particle_mass, energy_unit=unit)
