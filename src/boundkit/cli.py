@@ -180,11 +180,16 @@ def main(verbose: int) -> None:
               help="Unit of reported energies: " + ", ".join(ENERGY_UNITS) + " (default hartree; MeV with --units nuclear).")
 @click.option("--cross-check", is_flag=True, help="Also solve with the other discretization family.")
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@click.option("--observables", "with_observables", is_flag=True,
+              help="Also print <r>, r_rms, <1/r> (and g for Dirac) with error estimates.")
+@click.option("--states", "states_path", default=None, metavar="FILE.csv|FILE.npz",
+              help="Write r, P, Q and the density of every level (units in the header).")
 @click.option("--plot", "plot_path", default=None, metavar="FILE",
               help="Also draw the radial functions of the levels (.png, .svg or .pdf).")
 def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
               table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, j, levels, tol, method,
-              order, particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json, plot_path):
+              order, particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json, with_observables,
+              states_path, plot_path):
     """Bound levels of one channel.
 
     Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
@@ -203,12 +208,21 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
             from .plots import radial_figure
             radial_figure(res.levels, plot_path, length_unit="fm" if unit_system == "nuclear" else "bohr",
                           title=f"{res.equation}: {res.potential}")
+        from .cli_observables import add_observables, observables_table, write_states_file
+        length = "fm" if unit_system == "nuclear" else "bohr"
+        if states_path:
+            write_states_file(res, states_path, length)
+        record = res.to_dict(unit)
+        extra = ""
+        if with_observables and res.levels:
+            record = add_observables(record, res, length)
+            extra = observables_table(res, length)
     except ValueError as exc:
         _fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=_default, indent=2))
+        click.echo(json.dumps(record, default=_default, indent=2))
     else:
-        click.echo(_table(res, unit))
+        click.echo(_table(res, unit) + extra)
     if not res.success:
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
@@ -305,6 +319,8 @@ def validate_cmd(quick, method, as_json):
 from . import cli_run  # noqa: E402,F401  (registers `boundkit run`)
 
 from . import cli_studies  # noqa: E402,F401  (registers scan, critical, compare)
+
+from . import cli_observables  # noqa: E402,F401  (registers transitions; solve --observables/--states)
 
 if __name__ == "__main__":  # pragma: no cover
     main()

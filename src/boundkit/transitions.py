@@ -391,13 +391,14 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
             raise ValueError(f"multipoles: {m!r} is not one of {', '.join(MULTIPOLES)}")
         if m != "E1" and key != "dirac":
             raise ValueError(f"multipoles: {m} is computed for the Dirac equation only; use E1")
-    found, messages, settings = [], [], {}
+    found, messages, settings, potential_name = [], [], {}, str(potential)
     status = "ok"
     for channel, count in _channels(key, max_n):
         res = solve(key, potential, params, levels=count, tol=tol, method=method, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar, units=units,
                     **channel)
-        settings = res.settings
+        settings = {k: v for k, v in res.settings.items() if k not in ("l", "kappa", "j", "levels")}
+        potential_name = res.potential
         if res.status == "partial":
             status = "partial"
             messages.append(f"{channel}: {res.message}")
@@ -436,6 +437,6 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
     if messages:
         message += "; " + "; ".join(messages)
     from .units import constants_record
-    return TransitionResult(tuple(lines), tuple(decays), key, str(settings.get("terms", potential)), unit,
+    return TransitionResult(tuple(lines), tuple(decays), key, potential_name, unit,
                             settings={**settings, "max_n": max_n, "multipoles": mults, "tol": tol},
                             constants=constants_record(), status=status, message=message)

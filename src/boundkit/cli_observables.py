@@ -1,0 +1,115 @@
+"""Command line for what the levels mean: ``boundkit transitions`` and the
+``--observables`` / ``--states`` extras of ``boundkit solve``. Parses, calls the
+public API, prints; no numerics here."""
+from __future__ import annotations
+
+import json
+import sys
+
+import click
+
+from .cli import EXIT_NOT_CONVERGED, _default, _fail, build_potential, main, potential_options
+
+__all__ = ["transitions_cmd", "observables_table", "add_observables", "write_states_file"]
+
+
+def _observables(res, length_unit: str):
+    from .observables import masses_of, observables
+
+    mass, _ = masses_of(res)
+    return [observables(lv, length_unit=length_unit, mass=mass) for lv in res.levels]
+
+
+def observables_table(res, length_unit: str) -> str:
+    """Rows of <r>, r_rms, <1/r> (and g for Dirac) with their error estimates."""
+    obs = _observables(res, length_unit)
+    dirac = any(o.g_factor is not None for o in obs)
+    head = [f"expectation values (lengths in {length_unit}; +- the change from the previous resolution)"]
+    if any(o.note for o in obs):
+        head.append(f"density: {obs[0].note}")
+    cols = f"{'level':<8} {'<r>':>22} {'r_rms':>22} {'<1/r>':>22}" + (f" {'g':>22}" if dirac else "")
+    rows = [cols]
+    for o in obs:
+        cells = [o.r_mean, o.r_rms, o.r_inverse] + ([o.g_factor] if dirac else [])
+        rows.append(f"{o.label:<8} " + " ".join(f"{q.value:>13.10g} +-{q.error:>7.1g}" for q in cells))
+    return "\n".join(["", *head, *rows])
+
+
+def add_observables(record: dict, res, length_unit: str) -> dict:
+    """Give each level of a JSON record its ``observables`` (values in ``units.length``)."""
+    record.setdefault("units", {})["length"] = length_unit
+    for entry, o in zip(record["levels"], _observables(res, length_unit)):
+        entry["observables"] = o.to_dict()
+    return record
+
+
+def write_states_file(res, path: str, length_unit: str) -> None:
+    from .io_states import write_states
+
+    write_states(res, path, length_unit=length_unit)
+    click.echo(f"wrote radial functions of {len(res.levels)} level(s) to {path} (r in {length_unit})", err=True)
+
+
+def _format_lines(tr) -> str:
+    u = tr.energy_unit
+    out = [f"{tr.equation} equation, potential {tr.potential}: {tr.message}",
+           f"line energies in {u}; S in atomic units; f absorption oscillator strength; A in 1/s", "",
+           f"{'upper':<8} {'lower':<8} {'mult':<4} {'energy':>16} {'lambda (nm)':>14} {'S':>13} {'f':>12} "
+           f"{'A (1/s)':>12} {'check':>10}"]
+    for ln in tr.lines:
+        if ln.gauge_agreement is not None:
+            check = f"{ln.gauge_agreement:.1e}"
+        elif ln.long_wavelength_a is not None and ln.einstein_a:
+            check = f"lw {ln.long_wavelength_a / ln.einstein_a - 1:+.1e}"
+        else:
+            check = "-"
+        out.append(f"{ln.upper:<8} {ln.lower:<8} {ln.multipole:<4} {ln.energy:>16.10g} {ln.wavelength_nm:>14.8g} "
+                   f"{ln.line_strength:>13.6g} {ln.oscillator_strength:>12.6g} {ln.einstein_a:>12.6g} {check:>10}")
+    out += ["", "check: |S_length / S_velocity - 1| (E1 gauges), or 'lw': long-wavelength A / A - 1", "",
+            f"{'level':<8} {'lifetime (s)':>14}  branching ratios"]
+    for lv in tr.levels:
+        br = ", ".join(f"{k} {v:.4g}" for k, v in sorted(lv.branching.items(), key=lambda kv: -kv[1]))
+        out.append(f"{lv.label:<8} {lv.lifetime_s:>14.6g}  {br or '(stable: no lower level in the list)'}")
+    return "\n".join(out)
+
+
+@main.command("transitions")
+@click.option("--equation", "-e", default="schrodinger", show_default=True,
+              help="schrodinger, klein-gordon or dirac.")
+@potential_options
+@click.option("--max-n", type=int, default=3, show_default=True, help="Highest principal quantum number.")
+@click.option("--level", "levels", multiple=True, metavar="LABEL",
+              help="Keep only these levels (repeatable), e.g. --level 1s --level 2p.")
+@click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2",
+              help="Multipoles (repeatable; default E1; M1 and E2 for Dirac only).")
+@click.option("--energy-unit", default="eV", show_default=True, help="Unit of line energies (eV, cm^-1, MHz, ...).")
+@click.option("--tol", type=float, default=1e-14, show_default=True, help="Tolerance of the level solves.")
+@click.option("--method", default="auto", show_default=True, help="auto, spectral or finite-difference.")
+@click.option("--particle", default=None, help="electron (default), muon, pion, ...")
+@click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2.")
+@click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass).")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
+                    table_origin, table_r_unit, table_v_unit, params, unit_system, max_n, levels, multipoles,
+                    energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
+    """Radiative lines among the levels up to --max-n: energies, line strengths, oscillator
+    strengths, Einstein A, lifetimes and branching ratios."""
+    from .transitions import transitions
+
+    try:
+        vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
+                                                 table_tail_charge, table_origin, table_r_unit, table_v_unit,
+                                                 params)
+        tr = transitions(equation, vector, values, max_n=max_n, levels=list(levels) or None,
+                         multipoles=list(multipoles) or ["E1"], energy_unit=energy_unit, tol=tol, method=method,
+                         particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
+                         scalar=scalar or None, units=unit_system)
+    except ValueError as exc:
+        _fail(str(exc))
+    if as_json:
+        click.echo(json.dumps(tr.to_dict(), default=_default, indent=2))
+    else:
+        click.echo(_format_lines(tr))
+    if tr.status != "ok":
+        click.echo(f"boundkit: {tr.status}: {tr.message}", err=True)
+        sys.exit(EXIT_NOT_CONVERGED)

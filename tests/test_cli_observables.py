@@ -1,0 +1,107 @@
+"""`boundkit solve --observables / --states` and `boundkit transitions` on the command line,
+and exported states read back."""
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+import boundkit
+from boundkit.cli import main
+from boundkit.io_states import read_states, write_states
+from boundkit.observables import LENGTH_UNITS, mean_radius
+
+
+def run(*args):
+    return CliRunner().invoke(main, list(args))
+
+
+def test_solve_observables_json_has_the_keys_and_values():
+    r = run("solve", "-e", "schrodinger", "--l", "1", "-n", "2", "--tol", "1e-13", "--observables", "--json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    assert data["units"]["length"] == "bohr"
+    for lv in data["levels"]:
+        n = lv["n"]
+        obs = lv["observables"]
+        # hydrogen <r> = (3 n^2 - l(l+1))/2, <1/r> = 1/n^2 (Bethe and Salpeter 1957)
+        assert obs["r_mean"] == pytest.approx((3 * n * n - 2) / 2, rel=1e-11)
+        assert obs["r_inverse"] == pytest.approx(1 / n**2, rel=1e-11)
+        assert "g_factor" not in obs
+
+
+def test_solve_observables_dirac_table_shows_g():
+    r = run("solve", "-e", "dirac", "-p", "coulomb", "--param", "Z=20", "-n", "1", "--observables")
+    assert r.exit_code == 0, r.output
+    assert "expectation values (lengths in bohr" in r.output
+    assert "g" in r.output.splitlines()[-2]
+    r = run("solve", "-e", "dirac", "-n", "1", "--observables", "--json")
+    assert "g_factor" in json.loads(r.output)["levels"][0]["observables"]
+
+
+def test_solve_observables_klein_gordon_says_charge_density():
+    r = run("solve", "-e", "klein-gordon", "--param", "Z=30", "-n", "1", "--observables")
+    assert r.exit_code == 0, r.output
+    assert "conserved charge density" in r.output
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".npz"])
+def test_exported_states_integrate_to_one_and_reproduce_mean_radius(tmp_path, suffix):
+    path = tmp_path / f"states{suffix}"
+    r = run("solve", "-e", "dirac", "--param", "Z=40", "-n", "2", "--tol", "1e-13", "--states", str(path))
+    assert r.exit_code == 0, r.output
+    meta, levels = read_states(path)
+    assert meta["units"]["r"] == "bohr" and meta["density"] == "P^2 + Q^2"
+    res = boundkit.solve("dirac", "coulomb", {"Z": 40}, levels=2, tol=1e-13)
+    for lv in res.levels:
+        cols = levels[lv.label]
+        assert np.sum(cols["weight"] * cols["density"]) == pytest.approx(1.0, rel=1e-13)
+        assert np.sum(cols["weight"] * cols["r"] * cols["density"]) == pytest.approx(mean_radius(lv), rel=1e-13)
+        assert np.allclose(cols["density"], cols["P"] ** 2 + cols["Q"] ** 2, rtol=1e-14, atol=0)
+
+
+def test_exported_states_in_angstrom_keep_the_normalisation(tmp_path):
+    res = boundkit.solve("klein-gordon", "coulomb", {"Z": 30}, levels=1, tol=1e-13)
+    path = write_states(res, tmp_path / "kg.csv", length_unit="angstrom")
+    meta, levels = read_states(path)
+    cols = levels[res.levels[0].label]
+    assert "charge density" in meta["density"]
+    assert np.sum(cols["weight"] * cols["density"]) == pytest.approx(1.0, rel=1e-13)
+    assert np.sum(cols["weight"] * cols["r"] * cols["density"]) == pytest.approx(
+        mean_radius(res.levels[0]) * LENGTH_UNITS["angstrom"], rel=1e-13)
+    head = path.read_text().splitlines()[1]
+    assert head.startswith("# units: r in angstrom")
+
+
+def test_states_refuse_a_bad_suffix():
+    r = run("solve", "-e", "schrodinger", "-n", "1", "--states", "out.txt")
+    assert r.exit_code == 2
+    assert r.output.strip().splitlines()[-1] == ("boundkit: error: states: file 'out.txt' must end in .csv or .npz")
+    with pytest.raises(ValueError, match="states: file 'x.dat' must end in .csv or .npz"):
+        read_states("x.dat")
+
+
+def test_transitions_command_table_and_json():
+    r = run("transitions", "--max-n", "2")
+    assert r.exit_code == 0, r.output
+    assert "2p       1s       E1" in r.output
+    r = run("transitions", "-e", "dirac", "--max-n", "2", "--multipole", "E1", "--multipole", "M1", "--json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    keys = {"upper", "lower", "multipole", "energy", "wavelength_nm", "line_strength", "oscillator_strength",
+            "einstein_a"}
+    assert data["lines"] and all(keys <= set(ln) for ln in data["lines"])
+    assert {lv["label"] for lv in data["levels"]} == {"1s1/2", "2s1/2", "2p1/2", "2p3/2"}
+    assert {ln["multipole"] for ln in data["lines"]} == {"E1", "M1"}
+
+
+def test_transitions_command_errors():
+    r = run("transitions", "--max-n", "1")
+    assert r.exit_code == 2 and "boundkit: error: max_n: needs at least 2" in r.output
+    r = run("transitions", "--multipole", "M1")
+    assert r.exit_code == 2 and "boundkit: error: multipoles: M1 is computed for the Dirac equation only" in r.output
+    r = run("transitions", "--energy-unit", "furlong")
+    assert r.exit_code == 2 and "boundkit: error: energy_unit: unknown unit 'furlong'" in r.output
+    assert "Traceback" not in r.output
