@@ -151,8 +151,43 @@ def _nodal_integrand(s, f, kind: str) -> np.ndarray:
     return f(r) * dens
 
 
-def _integral(sa, sb, f, kind: str = "density") -> float:
-    """integral_0^r_max of the integrand on the nodes of the state reaching further out."""
+_PANEL_T, _PANEL_W = np.polynomial.legendre.leggauss(24)
+_PANEL_WIDTH = 0.5
+
+
+def _integral_panels(sa, sb, f, kind: str, breaks) -> float:
+    """integral_0^r_max by composite Gauss-Legendre in t = ln r, panels split at the elements'
+    ends and at ``breaks`` (radii where f has a kink the nodes do not know of), the states
+    interpolated. Panels are at most _PANEL_WIDTH long in t."""
+    grid = sa if sa.r[-1] >= sb.r[-1] else sb
+    t_lo = math.log(min(sa.r[0], sb.r[0])) - _INNER_EFOLDS
+    t_hi = math.log(grid.r[-1])
+    cuts = {t_lo, t_hi, math.log(min(sa.r[0], sb.r[0]))}
+    for s in (sa, sb):
+        for a, b in s.elements:
+            cuts.update((math.log(s.r[a]), math.log(s.r[b])))
+    cuts.update(math.log(b) for b in breaks if b > 0)
+    edges = sorted(c for c in cuts if t_lo <= c <= t_hi)
+    total = 0.0
+    for a, b in zip(edges[:-1], edges[1:]):
+        m = max(1, math.ceil((b - a) / _PANEL_WIDTH))
+        for i in range(m):
+            x0, x1 = a + (b - a) * i / m, a + (b - a) * (i + 1) / m
+            t = 0.5 * (x0 + x1) + 0.5 * (x1 - x0) * _PANEL_T
+            rr = np.exp(t)
+            total += 0.5 * (x1 - x0) * float(np.sum(_PANEL_W * rr * _pair_integrand(sa, sb, rr, f, kind)))
+    return total
+
+
+def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
+    """integral_0^r_max of the integrand on the nodes of the state reaching further out
+    (or by panels, see :func:`_integral_panels`, when ``breaks`` are given)."""
+    if breaks:
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            total = _integral_panels(sa, sa if sb is None else sb, f, kind, breaks)
+        if not math.isfinite(total):
+            raise ValueError("f: the integral does not converge for this level")
+        return total
     grid = sa if sb is None or sa.r[-1] >= sb.r[-1] else sb
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if sb is None or sb is sa:
@@ -198,7 +233,7 @@ def _note(level) -> str:
 
 
 def expectation_value(level, f: Callable[[np.ndarray], np.ndarray], *, name: str = "<f>",
-                      unit: str = "a.u.", kind: str = "density") -> Quantity:
+                      unit: str = "a.u.", kind: str = "density", breaks=()) -> Quantity:
     """<f> of ``level`` with an error estimate from the previous resolution.
 
     Parameters
@@ -209,6 +244,10 @@ def expectation_value(level, f: Callable[[np.ndarray], np.ndarray], *, name: str
         Vectorised f(r), r in bohr (atomic units in, atomic units out).
     name, unit : str
         Labels of the returned quantity.
+    breaks : sequence of float
+        Radii (bohr) where f has a kink or jump that the level's nodes do not
+        know of (e.g. a nuclear surface); the integral is then taken by panels
+        split there, with the level interpolated.
 
     Returns
     -------
@@ -221,8 +260,9 @@ def expectation_value(level, f: Callable[[np.ndarray], np.ndarray], *, name: str
     (Dirac) or the Klein-Gordon charge density (E + mc^2 - V)/(mc^2) P^2.
     """
     _check_callable(f)
-    value = _integral(level.state, None, f, kind)
-    prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind)
+    breaks = tuple(breaks)
+    value = _integral(level.state, None, f, kind, breaks)
+    prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind, breaks)
     return Quantity(name, value, _estimate(value, prev), unit, _note(level))
 
 
@@ -404,7 +444,7 @@ def hyperfine_a(level, nuclear_moment: float, nuclear_spin: float, *, mass: floa
             raise ValueError("magnetization_radius: must be > 0 (bohr)")
         F = lambda r: np.where(r < R, r / R**3, 1.0 / np.maximum(r, R) ** 2)  # noqa: E731
         note = f"uniformly magnetized sphere, R = {R:.6g} bohr"
-    q = expectation_value(level, F, kind="PQ")
+    q = expectation_value(level, F, kind="PQ", breaks=() if magnetization_radius is None else (R,))
     scale = factor * float(hartree_to(1.0, energy_unit))
     return Quantity("A_hfs", scale * q.value, abs(scale) * q.error, energy_unit, note)
 
