@@ -105,3 +105,23 @@ def test_transitions_command_errors():
     r = run("transitions", "--energy-unit", "furlong")
     assert r.exit_code == 2 and "boundkit: error: energy_unit: unknown unit 'furlong'" in r.output
     assert "Traceback" not in r.output
+
+
+def test_run_spec_solve_states_option_writes_csv(tmp_path):
+    """[solve] states = true writes one CSV per model, equation and channel (length_unit of the spec)."""
+    from boundkit.runspec import load_spec, run as run_spec
+
+    spec = tmp_path / "h.toml"
+    spec.write_text('title = "H"\ndescription = "states test"\nequations = ["schrodinger"]\nchannels = ["s"]\n'
+                    'levels = 2\n'
+                    'length_unit = "angstrom"\n\n[models.h]\nterms = ["coulomb"]\nparams = { Z = 1 }\n\n'
+                    '[solve]\nfigures = []\nstates = true\n', encoding="utf-8")
+    out = tmp_path / "out"
+    run_spec(load_spec(spec), out)
+    (path,) = out.glob("states-*.csv")
+    meta, levels = read_states(path)
+    assert meta["units"]["r"] == "angstrom"
+    cols = levels["2s"]
+    # hydrogen 2s: <r> = 6 bohr (Bethe and Salpeter 1957)
+    assert np.sum(cols["weight"] * cols["r"] * cols["density"]) == pytest.approx(6 * LENGTH_UNITS["angstrom"],
+                                                                                  rel=1e-9)

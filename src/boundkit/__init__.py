@@ -16,6 +16,7 @@ from .solver import make_equation, solve, solve_channel
 from .studies import scan, critical, compare
 from .observables import matrix_element, observables
 from .transitions import transitions
+from .perturbation import compare_shift, first_order_shift
 
 try:
     __version__ = version("boundkit")
@@ -24,4 +25,4 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
 
 __all__ = ["solve", "solve_channel", "make_equation", "make_potential", "Potential", "Level",
            "RadialState", "SolveResult", "scan", "critical", "compare", "matrix_element", "observables",
-           "transitions", "__version__"]
+           "transitions", "compare_shift", "first_order_shift", "__version__"]

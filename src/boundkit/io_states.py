@@ -26,7 +26,7 @@ import numpy as np
 
 from .observables import LENGTH_UNITS, KG_NOTE, length_unit as canonical_length_unit
 
-__all__ = ["write_states", "read_states", "STATE_FORMATS"]
+__all__ = ["write_states", "read_states", "states_csv_text", "STATE_FORMATS"]
 
 STATE_FORMATS = (".csv", ".npz")
 
@@ -57,7 +57,20 @@ def write_states(result, path, length_unit: str = "bohr") -> Path:
     unit = canonical_length_unit(length_unit)
     if not result.levels:
         raise ValueError("states: the result has no levels to write")
-    meta = {
+    meta = _meta(result, unit)
+    if suffix == ".npz":
+        arrays = {}
+        for lv in result.levels:
+            for name, col in zip(("r", "P", "Q", "density", "weight"), _columns(lv, unit)):
+                arrays[f"{lv.label}/{name}"] = col
+        np.savez(path, meta=np.array(json.dumps(meta)), **arrays)
+        return path
+    path.write_text(states_csv_text(result, unit, meta))
+    return path
+
+
+def _meta(result, unit: str) -> dict:
+    return {
         "equation": result.equation, "potential": result.potential,
         "units": {"r": unit, "P": f"{unit}^-1/2", "Q": f"{unit}^-1/2", "density": f"1/{unit}",
                   "weight": unit, "energy": "hartree"},
@@ -67,13 +80,13 @@ def write_states(result, path, length_unit: str = "bohr") -> Path:
         "note": "P = r x (large radial component), Q = r x (small component, Dirac); values on the solver's "
                 "nodes; weight integrates over r",
     }
-    if suffix == ".npz":
-        arrays = {}
-        for lv in result.levels:
-            for name, col in zip(("r", "P", "Q", "density", "weight"), _columns(lv, unit)):
-                arrays[f"{lv.label}/{name}"] = col
-        np.savez(path, meta=np.array(json.dumps(meta)), **arrays)
-        return path
+
+
+def states_csv_text(result, length_unit: str = "bohr", meta: dict | None = None) -> str:
+    """The CSV text :func:`write_states` writes (for callers that write files themselves)."""
+    unit = canonical_length_unit(length_unit)
+    if meta is None:
+        meta = _meta(result, unit)
     lines = [f"# boundkit radial functions: {result.equation} equation, potential {result.potential}",
              f"# units: r in {unit}; P, Q in {unit}^-1/2; density in 1/{unit}; weight in {unit}",
              f"# density: {meta['density']}",
@@ -83,8 +96,7 @@ def write_states(result, path, length_unit: str = "bohr") -> Path:
         r, P, Q, d, w = _columns(lv, unit)
         lines.extend(f"{lv.label},{a!r},{b!r},{c!r},{e!r},{f!r}" for a, b, c, e, f in
                      zip(r.tolist(), P.tolist(), Q.tolist(), d.tolist(), w.tolist()))
-    path.write_text("\n".join(lines) + "\n")
-    return path
+    return "\n".join(lines) + "\n"
 
 
 def read_states(path) -> tuple[dict, dict]:

@@ -217,7 +217,7 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
 
 
 def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None = None) -> Path:
-    """Radial probability densities P^2 + Q^2 of the given levels.
+    """Radial densities of the given levels (labelled for each equation).
 
     Parameters
     ----------
@@ -230,20 +230,21 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
 
     Notes
     -----
-    rho(r) = P^2 + Q^2 is the probability per unit radius (integral 1 for
-    Schrodinger and Dirac levels; Klein-Gordon levels are drawn as P^2
-    rescaled to integral 1). On an axis in unit L it is rho / L. A vertical
-    tick marks <r> of each level.
+    rho(r) is P^2 (Schrodinger), P^2 + Q^2 (Dirac) or the conserved
+    Klein-Gordon charge density (E + mc^2 - V) P^2 / mc^2, each with integral 1
+    (``RadialState.density``); the axis label says which. On an axis in unit L
+    it is rho / L. A vertical tick marks <r> of each level.
     """
     from .observables import mean_radius
 
     unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
     i = 0
+    kinds: set = set()
     for group, lvs in groups.items():
         for lv in lvs:
             st = lv.state
-            dens = st.P**2 if st.Q is None else st.P**2 + st.Q**2
-            dens = dens / float(np.sum(st.weights * dens))
+            kinds.add("kg" if st.density_weight is not None else "dirac" if st.Q is not None else "schrodinger")
+            dens = st.density(st.r)
             fine, (smooth,) = _smooth(st.r, dens, r_top=r_top / scale)
             colour = _colour(i)
             mean = mean_radius(lv) * scale
@@ -254,8 +255,11 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
     ax.set_xlim(0.0, r_top)
     ax.set_ylim(bottom=0.0)
     ax.set_xlabel(f"r ({unit})")
-    ax.set_ylabel(f"radial probability density P$^2$ + Q$^2$ ({unit}$^{{-1}}$)")
-    ax.set_title(title or "radial probability densities (dotted: <r>)")
+    what = {"schrodinger": "radial probability density P$^2$", "dirac": "radial probability density P$^2$ + Q$^2$",
+            "kg": "Klein-Gordon charge density (E + mc$^2$ - V) P$^2$ / mc$^2$"}
+    name = what[kinds.pop()] if len(kinds) == 1 else "radial density (P$^2$; P$^2$ + Q$^2$; Klein-Gordon: charge)"
+    ax.set_ylabel(f"{name} ({unit}$^{{-1}}$)")
+    ax.set_title(title or "radial densities (dotted: <r>)")
     ax.legend(fontsize=7, ncol=2 if i > 4 else 1)
     ax.grid(True, alpha=0.25)
     return save_figure(fig, path)

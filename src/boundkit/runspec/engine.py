@@ -372,6 +372,10 @@ class _Engine:
                     runs.append({"model": mname, "equation": eq, "channel": cname, **kw, "requested": nlev,
                                  "status": res.status, "message": res.message,
                                  "diagnostics": {k: v for k, v in res.diagnostics.items() if k != "levels"}})
+                    if sec.states and res.levels:
+                        from ..io_states import states_csv_text
+                        stem = re.sub(r"[^A-Za-z0-9.=+-]+", "_", f"states-{mname}-{eq}-{cname}")
+                        self.write(f"{stem}.csv", states_csv_text(res, self.l_unit))
                     for lv in res.levels:
                         row = {"model": mname, "equation": eq, "channel": cname, "label": lv.label, "n": lv.n,
                                "l": lv.l, "j": lv.j, "kappa": lv.kappa, "nodes": lv.nodes,

@@ -326,6 +326,7 @@ class SolveSection:
     radii: bool
     differences: tuple[tuple[str, str], ...]
     reference: str | None
+    states: bool = False
 
 
 @dataclass(frozen=True)
@@ -511,7 +512,7 @@ _TOP = ("title", "description", "units", "energy_unit", "length_unit", "figure_f
 _MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "params", "term")
 _ENTRY = ("name", "expression", "role", "params")
 _SOLVE = ("models", "equations", "channels", "levels", "tolerance", "method", "order", "figures", "radii",
-          "differences", "reference")
+          "differences", "reference", "states")
 _CONVERGE = ("model", "equation", "channel", "levels", "methods", "order")
 _SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tolerance", "method", "workers",
          "differences")
@@ -837,7 +838,8 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         m, o = _method(rd, s, key, method, order)
         solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels),
                                  _tolerance(rd, s, key, tolerance), m, o, figs,
-                                 rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref)
+                                 rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
+                                 rd.get(s, key, "states", "bool", False))
 
     converge_secs = []
     for key, s in _sections(rd, data, "converge"):
