@@ -77,6 +77,13 @@ def test_lyman_alpha_dirac_and_klein_gordon_close_to_schrodinger():
         assert ln.long_wavelength_a == pytest.approx(ln.einstein_a, rel=1e-4)
     f = tr.line("2p1/2", "1s1/2").oscillator_strength + tr.line("2p3/2", "1s1/2").oscillator_strength
     assert f == pytest.approx(schr.oscillator_strength, rel=2e-4)
+    # with the reduced mass, against the NIST values quoted above (f = 0.41641, A = 6.2649e8 /s)
+    red = _tr("dirac", nucleus=PROTON_MASS_MEV)
+    lines = [red.line(u, "1s1/2") for u in ("2p1/2", "2p3/2")]
+    assert sum(ln.oscillator_strength for ln in lines) == pytest.approx(0.41641, rel=2e-4)
+    for ln in lines:
+        assert ln.einstein_a == pytest.approx(6.2649e8, rel=2e-4)
+    assert red.level("2p1/2").lifetime_s == pytest.approx(1.596e-9, rel=5e-4)
 
 
 def test_hydrogen_2s_two_photon_free_m1_rate():
@@ -175,3 +182,13 @@ def test_transitions_refuse_bad_input():
     with pytest.raises(ValueError, match="upper: 1s does not lie above 2p; swap them"):
         line(s, p, equation="schrodinger")
     assert tr.lines
+
+
+def test_line_strength_error_estimate_covers_the_exact_value():
+    """Hydrogen Lyman-alpha S = |<1s|r|2p>|^2 = 2^15 / 3^9 (exact; Bethe and Salpeter 1957)."""
+    ln = _tr("schrodinger").line("2p", "1s")
+    exact = 2**15 / 3**9
+    assert abs(ln.line_strength - exact) <= ln.line_strength_error + 1e-15
+    assert ln.line_strength_error < 1e-10 * exact
+    d = _tr("dirac").line("2p1/2", "1s1/2")
+    assert 0 < d.line_strength_error < 1e-9 * d.line_strength

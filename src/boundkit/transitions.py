@@ -60,7 +60,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from typing import Sequence
 
@@ -142,9 +142,12 @@ class Line:
 
     ``energy`` in ``energy_unit``; ``line_strength`` in atomic units
     (e^2 a0^(2J) for EJ); ``einstein_a`` in 1/s; ``oscillator_strength`` the
-    absorption f of lower -> upper. ``gauge_check`` holds the line strength in
-    the second gauge (velocity form) and ``long_wavelength_a`` the rate in the
-    long-wavelength limit (Dirac), both for comparison.
+    absorption f of lower -> upper. ``line_strength_velocity`` holds the line
+    strength in the second gauge (velocity form) and ``long_wavelength_a`` the
+    rate in the long-wavelength limit (Dirac), both for comparison;
+    ``line_strength_error`` the change of S when both levels are taken one
+    resolution lower (inf when a level has no previous state). A, f and S share
+    the same relative error.
     """
 
     upper: str
@@ -159,6 +162,7 @@ class Line:
     einstein_a: float
     line_strength_velocity: float | None = None
     long_wavelength_a: float | None = None
+    line_strength_error: float = math.inf
 
     @property
     def gauge_agreement(self) -> float | None:
@@ -172,7 +176,8 @@ class Line:
                 "energy": self.energy, "wavelength_nm": self.wavelength_nm,
                 "line_strength": self.line_strength, "oscillator_strength": self.oscillator_strength,
                 "einstein_a": self.einstein_a, "line_strength_velocity": self.line_strength_velocity,
-                "gauge_agreement": self.gauge_agreement, "long_wavelength_a": self.long_wavelength_a}
+                "gauge_agreement": self.gauge_agreement, "long_wavelength_a": self.long_wavelength_a,
+                "line_strength_error": self.line_strength_error}
 
     def __repr__(self) -> str:
         return (f"Line({self.upper} -> {self.lower} {self.multipole}: {self.energy:.10g} {self.energy_unit}, "
@@ -281,6 +286,13 @@ def _dirac_q(a, b, J: int, k: float, kind: str) -> float:
                        + J * I(lambda r: spherical_jn(J, k * r) / (k * r), "QP-PQ"))
 
 
+def _previous(level):
+    """The level as it was one resolution lower (None when not recorded)."""
+    if level.previous_state is None:
+        return None
+    return replace(level, state=level.previous_state, previous_state=None)
+
+
 def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.0,
          particle_mass: float | None = None, energy_unit: str = "eV") -> Line | None:
     """The line upper -> lower of one multipole, or None when the selection rules forbid it.
@@ -294,6 +306,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
     m_f = mass if particle_mass is None else particle_mass
     k = omega / C_AU
     SV = long_a = None
+    lower_res = _previous(upper), _previous(lower)
     if equation in ("schrodinger", "klein-gordon"):
         if multipole != "E1":
             raise ValueError(f"multipole: only E1 is computed for the {equation} equation")
@@ -302,6 +315,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
         RL, RV = _spinless_e1(upper, lower, mass, omega)
         lmax = max(upper.l, lower.l)
         S, SV = lmax * RL**2, lmax * RV**2
+        S_prev = None if None in lower_res else lmax * _spinless_e1(*lower_res, mass, omega)[0] ** 2
         gu, gl = 2 * upper.l + 1, 2 * lower.l + 1
         J = 1
     elif equation == "dirac":
@@ -311,6 +325,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
             if q == 0.0:
                 return None
             S = q * q
+            S_prev = None if None in lower_res else _dirac_q(*lower_res, J, k, "E-length") ** 2
             SV = _dirac_q(upper, lower, J, k, "E-velocity") ** 2
             long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k, "E-long") ** 2
         else:
@@ -318,6 +333,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
             if q == 0.0:
                 return None
             S = q * q
+            S_prev = None if None in lower_res else _dirac_q(*lower_res, J, k, "M") ** 2
             long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k * 1e-6, "M") ** 2
         gu, gl = 2 * abs(upper.kappa), 2 * abs(lower.kappa)
         long_a = long_a / gu / AU_TIME_S
@@ -328,7 +344,8 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
     return Line(upper=upper.label, lower=lower.label, multipole=multipole,
                 energy=float(hartree_to(omega, energy_unit)), energy_unit=energy_unit, energy_hartree=omega,
                 wavelength_nm=NM_HARTREE / omega, line_strength=S, oscillator_strength=f,
-                einstein_a=A_au / AU_TIME_S, line_strength_velocity=SV, long_wavelength_a=long_a)
+                einstein_a=A_au / AU_TIME_S, line_strength_velocity=SV, long_wavelength_a=long_a,
+                line_strength_error=math.inf if S_prev is None else max(abs(S - S_prev), 4e-16 * S))
 
 
 def _channels(equation: str, max_n: int):
