@@ -287,3 +287,17 @@ def test_observables_record_in_length_unit():
     pot = boundkit.make_potential("coulomb", {"Z": 1})
     with_v = observables(lv, potential=pot)
     assert with_v.potential.value == pytest.approx(-dirac_moment(1, -1, 1, ALPHA, -1), rel=1e-12)
+
+
+@pytest.mark.parametrize("equation, label", [("schrodinger", "density P$^2$ ("),
+                                             ("dirac", "P$^2$ + Q$^2$"),
+                                             ("klein-gordon", "Klein-Gordon charge density")])
+def test_density_figure_labels_each_equations_density(monkeypatch, equation, label):
+    from boundkit import plots
+
+    monkeypatch.setattr(plots, "save_figure", lambda fig, path: fig)
+    res = boundkit.solve(equation, "coulomb", {"Z": 20}, levels=1)
+    fig = plots.density_figure(res.levels, "unused.png")
+    assert label in fig.axes[0].get_ylabel()
+    import matplotlib.pyplot as plt
+    plt.close(fig)

@@ -65,7 +65,9 @@ def _format_lines(tr) -> str:
             check = "-"
         out.append(f"{ln.upper:<8} {ln.lower:<8} {ln.multipole:<4} {ln.energy:>16.10g} {ln.wavelength_nm:>14.8g} "
                    f"{ln.line_strength:>13.6g} {ln.oscillator_strength:>12.6g} {ln.einstein_a:>12.6g} {check:>10}")
-    out += ["", "check: |S_length / S_velocity - 1| (E1 gauges), or 'lw': long-wavelength A / A - 1", "",
+    out += ["", "check: |S_length / S_velocity - 1| (the two gauges; it loses digits when omega is tiny), or",
+            "       'lw': long-wavelength A / A - 1 (large for M1 between s levels: that rate comes from retardation)",
+            "",
             f"{'level':<8} {'lifetime (s)':>14}  branching ratios"]
     for lv in tr.levels:
         br = ", ".join(f"{k} {v:.4g}" for k, v in sorted(lv.branching.items(), key=lambda kv: -kv[1]))
