@@ -257,13 +257,25 @@ def test_hydrogen_ground_state_hyperfine_splitting():
     assert 1.0e-4 < rel < 1.7e-4       # measured 1.36e-4, the sum of the omitted terms ~1.3e-4
 
 
-def test_hyperfine_bohr_weisskopf_sphere_reduces_a():
+def test_hyperfine_bohr_weisskopf_sphere_against_exact_1s():
+    """Uniformly magnetized sphere of radius R: F = r/R^3 inside. For the point-Coulomb 1s,
+    P Q ~ r^(2 gamma) e^(-2 Z r) (exact), so the relative change is
+    eps = integral_0^R (r^(2g-2) - r^(2g+1)/R^3) e^(-2Zr) dr / integral_0^inf r^(2g-2) e^(-2Zr) dr
+    (integrated here with mpmath)."""
+    import mpmath as mp
+
     mu_p = sc.physical_constants["proton mag. mom. to nuclear magneton ratio"][0]
-    lv = _levels("dirac", 80, ("kappa", -1), 1).levels[0]
+    Z, R = 80, 1.3e-4          # R ~ 6.9 fm
+    lv = _levels("dirac", Z, ("kappa", -1), 1).levels[0]
     point = hyperfine_a(lv, mu_p, 0.5)
-    sphere = hyperfine_a(lv, mu_p, 0.5, magnetization_radius=7e-5)   # ~ 3.7 fm
-    assert 0 < sphere.value < point.value
+    sphere = hyperfine_a(lv, mu_p, 0.5, magnetization_radius=R)
     assert "uniformly magnetized sphere" in sphere.note
+    with mp.workdps(25):
+        g = mp.sqrt(1 - (Z * ALPHA) ** 2)
+        num = mp.quad(lambda r: (r ** (2 * g - 2) - r ** (2 * g + 1) / R**3) * mp.exp(-2 * Z * r), [0, R])
+        den = mp.gamma(2 * g - 1) / (2 * Z) ** (2 * g - 1)
+        eps = float(num / den)
+    assert 1 - sphere.value / point.value == pytest.approx(eps, rel=1e-8)
 
 
 def test_magnetic_quantities_refuse_bad_input():
