@@ -7,21 +7,24 @@ Spinless equations (Schrodinger, Klein-Gordon), electric dipole
 -------------------------------------------------------------------
 Length form:   R_L = <a| r |b>  (Klein-Gordon: charge-density inner product,
                weight (E_a + E_b + 2mc^2 - 2V)/(2mc^2)),
-velocity form: R_V = <a| d/dr + (l_a + 1 ... ) |b> / (m omega), i.e. for l_b = l_a + 1
+velocity form: R_V = G / (m omega), with G the radial integral of the gradient
+between the level of larger l (P_l) and the other one:
 
-    R_V = integral P_a (P_b' + (l_b + 1) P_b / r) dr / (m omega) ... written
-          below with the radial gradient of the level with the larger l:
     l' = l - 1:  G = integral P_(l-1) (P_l' + l P_l / r) dr
-    l' = l + 1:  G = integral P_(l+1) (P_l' - (l + 1) P_l / r) dr,
+    l' = l + 1:  G = integral P_(l+1) (P_l' - (l + 1) P_l / r) dr
 
-and R_V = |G| / (m omega) (the plain L2 product: the Klein-Gordon current is
-(psi_a* grad psi_b - psi_b grad psi_a*)/(2m)). Line strength S = l_> R^2
-(|<l_a||C_1||l_b>|^2 = l_>, with l_> the larger l).
+in the plain L2 product (the Klein-Gordon current is
+(psi_a* grad psi_b - psi_b grad psi_a*)/(2m)); [H, r] = -i p / m makes
+|R_V| = |R_L| for exact states. Line strength S = l_> R^2
+(|<l_a||C_1||l_b>|^2 = l_>, l_> the larger l); P' comes from differentiating
+the interpolant (:func:`boundkit.wavefunctions.radial_derivative_state`).
 
 Dirac multipoles (the form of Johnson, Atomic Structure Theory, Springer 2007, ch. 8,
 from memory; the relative signs below are those of this solver's convention, P > 0
 near the origin and P' + kappa P / r = (E + 2mc^2 - V + S) Q / c, fixed by demanding
-that the two gauges agree: they do to ~1e-11 for E1 and E2 at Z = 1..92)
+that the two gauges agree. Measured: ~1e-11 for E1 at Z = 1..92 and E2 at Z = 92; at
+small k the velocity form loses digits to cancellation: E2 at Z = 1 2e-9, lines between
+fine-structure partners (omega ~ 1e-6 hartree) up to 4e-7)
 -----------------------------------------------------------------------
 With C = <kappa_a||C_J||kappa_b> and N = (2J+1)!! / k^J, electric (length gauge):
 
