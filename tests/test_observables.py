@@ -173,6 +173,20 @@ def test_klein_gordon_observables_use_the_charge_density():
     assert "charge density" in obs.r_inverse.note
 
 
+def test_klein_gordon_levels_are_orthogonal_in_the_charge_inner_product():
+    """For the energy-dependent Klein-Gordon operator, levels of one channel are orthogonal with
+    the weight (E_a + E_b + 2mc^2 - 2V)/(2mc^2) (subtract the two radial equations; standard),
+    not in the plain product of P_a P_b."""
+    from boundkit.observables import _integral
+
+    a, b, c = _levels("klein-gordon", 60, ("l", 0), 3, tol=1e-14).levels
+    one = lambda r: np.ones_like(r)  # noqa: E731
+    for x, y in ((a, b), (a, c), (b, c)):
+        q = boundkit.matrix_element(x, y, one)
+        assert abs(q.value) < 1e-12 and q.error < 1e-11
+        assert abs(_integral(x.state, y.state, one, "plain")) > 1e-2
+
+
 # --- wave functions between nodes ---------------------------------------------------------
 
 @pytest.mark.parametrize("method, rel", [("spectral", 1e-12), ("finite-difference", 1e-9)])

@@ -22,10 +22,11 @@ nearest t (degree stencil - 1, default 10 nodes, matching the default
 
 Outside the mesh: for r < r_min, P / r^gamma (a power series in r at a
 Coulomb-like origin) is extrapolated linearly in r from the first two nodes
-(relative error O(r_min^2)), and a density weight as a + b / r (exact for
-a Coulomb-like V); for r > r_max the functions
-are returned as 0 (the solver's outer radius lies where the level has decayed
-by about e^-42).
+(relative error O(r_min^2)). The Klein-Gordon density weight, ~ 1/r at a
+point charge, is handled the same way with exponent -1: weight r / (r + r_core)
+is interpolated, and extrapolated as a + b / r below r_min. For r > r_max the
+functions are returned as 0 (the solver's outer radius lies where the level has
+decayed by about e^-42).
 """
 from __future__ import annotations
 
@@ -106,11 +107,11 @@ def _weight(r, r_core: float, gamma: float):
     return (r / (r + r_core)) ** gamma if r_core > 0 else r**gamma
 
 
-def _towards_origin(rn, fn, state, r):
+def _towards_origin(rn, fn, state, r, gamma: float):
     """f below the first node. At a Coulomb-like origin P / r^gamma = h(r), a power series
-    in r, with h = f (r + r_core)^-gamma; h is extrapolated
-    linearly in r from the first two nodes (error O(r_min^2))."""
-    rc, g = state.r_core, state.gamma
+    in r, with h = f (r + r_core)^-gamma; h is extrapolated linearly in r from the first
+    two nodes (error O(r_min^2)) and returned as f = h (r + r_core)^gamma."""
+    rc, g = state.r_core, gamma
     h0, h1 = (fn[:2] * (rn[:2] + rc) ** -g) if rc > 0 else fn[:2]
     h = h0 + (h1 - h0) / (rn[1] - rn[0]) * (r - rn[0])
     return h * (r + rc) ** g if rc > 0 else h
@@ -140,23 +141,21 @@ def evaluate(state, r, component: str = "P") -> np.ndarray:
         return np.ones_like(r) if component == "weight" else np.zeros_like(r)
     rn = state.r
     tn = np.log(rn)
-    smooth = component != "weight"
-    fn = values / _weight(rn, state.r_core, state.gamma) if smooth else values
+    # the Klein-Gordon weight (E + mc^2 - V)/mc^2 grows like 1/r at a point charge: it is
+    # interpolated as weight * r / (r + r_core), bounded at both ends (exponent -1 below)
+    gamma = -1.0 if component == "weight" else state.gamma
+    fn = values / _weight(rn, state.r_core, gamma)
     out = np.zeros_like(r)
     mid = (r >= rn[0]) & (r <= rn[-1])
     if mid.any():
         out[mid] = interpolate_f(tn, fn, state.elements, state.family, np.log(r[mid]))
     low = r < rn[0]
     if low.any():
-        if smooth:
-            out[low] = _towards_origin(rn, fn, state, r[low])
-        else:   # the Klein-Gordon weight (E + mc^2 - V)/mc^2: a + b / r near a Coulomb-like origin
-            b = (fn[0] - fn[1]) / (1 / rn[0] - 1 / rn[1])
-            out[low] = fn[0] + b * (1 / r[low] - 1 / rn[0])
-    if smooth:
-        out[low | mid] *= _weight(r[low | mid], state.r_core, state.gamma)
-    elif (r > rn[-1]).any():
-        out[r > rn[-1]] = fn[-1]
+        out[low] = _towards_origin(rn, fn, state, r[low], gamma)
+    inside = low | mid
+    out[inside] *= _weight(r[inside], state.r_core, gamma)
+    if component == "weight" and (r > rn[-1]).any():
+        out[r > rn[-1]] = values[-1]
     return out
 
 
