@@ -31,6 +31,8 @@ def schrodinger_moment(n: int, l: int, k: int, Z: float = 1.0) -> float:
     """Hydrogen <r^k>, Bethe and Salpeter, Quantum Mechanics of One- and Two-Electron Atoms
     (1957), eqs. (3.24)-(3.26) (from memory; <r^-3> and <r^-2> also by Pasternack's recursion)."""
     L = l * (l + 1)
+    if k == 0:
+        return 1.0
     if k == 2:
         return n * n * (5 * n * n + 1 - 3 * L) / (2 * Z * Z)
     if k == 1:
@@ -52,7 +54,7 @@ def _hydrogen_levels():
             yield lv
 
 
-@pytest.mark.parametrize("k", [-3, -2, -1, 1, 2])
+@pytest.mark.parametrize("k", [-3, -2, -1, 0, 1, 2])
 def test_hydrogen_radial_moments_match_bethe_salpeter(k):
     worst = 0.0
     for lv in _hydrogen_levels():
