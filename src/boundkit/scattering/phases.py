@@ -371,7 +371,7 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     if count_bound:
         from ..solver import solve
 
-        found = solve("schrodinger", ch.pot, l=eq.l, levels=count + 2, particle=particle, mass_mev=mass_mev,
+        found = solve("schrodinger", ch.pot, l=eq.l, levels=count + 1, particle=particle, mass_mev=mass_mev,
                       nucleus_mass_mev=nucleus_mass_mev)
         n_bound = len(found.levels)
     agrees = None if n_bound is None else (count == count_unw == n_bound)
@@ -439,15 +439,18 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
         raise ValueError(f"normalisation: unknown value {normalisation!r}; choose unit-amplitude or energy")
     tol = check_positive("tol", tol)
     E = float(_energies(energy, energy_unit)[0])
+    if r is not None:
+        r = np.atleast_1d(np.asarray(r, dtype=float))
+        if r.size == 0 or not np.all(np.isfinite(r)) or np.any(r <= 0):
+            raise ValueError("r: give positive, finite radii in bohr")
     ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
                      hard_core)
     eq = ch.eq
     R1, _ = matching_radius(ch, E, tol)
     k = float(wave_number(eq.name, E, eq.mass))
     r0 = _start(ch, k)
-    r = np.linspace(0.0, _SECOND_RADIUS * R1, 1002)[1:] if r is None else np.atleast_1d(np.asarray(r, dtype=float))
-    if r.size == 0 or not np.all(np.isfinite(r)) or np.any(r <= 0):
-        raise ValueError("r: give positive, finite radii in bohr")
+    if r is None:
+        r = np.linspace(0.0, _SECOND_RADIUS * R1, 1002)[1:]
     raws, evaluate = integrate(ch, E, [R1, max(float(r.max()), R1)], _rtol(tol), dense=True)
     m = match(ch, E, raws[0])
     scale = m.amplitude * R1**ch.gamma * math.exp(raws[0].log_scale)
