@@ -454,3 +454,11 @@ def test_cli_phases_errors(args, match):
     assert run.exit_code == 2
     assert run.output.startswith("boundkit: error: ") and match in run.output
     assert "Traceback" not in run.output and len(run.output.strip().splitlines()) == 1
+
+
+@pytest.mark.slow
+def test_a_long_tail_is_reported_not_hidden():
+    # V ~ -1/r^3 far out: the first-order bound on the phase change beyond R stays above tol/100 up to
+    # the largest radius tried, so the result says so
+    res = phase_shifts([0.0005], "schrodinger", lambda r: -1 / (1 + r**3))
+    assert not res.success and res.status == "range-not-reached"

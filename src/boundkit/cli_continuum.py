@@ -12,7 +12,7 @@ import sys
 import click
 
 from .cli import _default, _fail, build_potential, main, potential_options
-from .units import ENERGY_UNITS
+from .units import ENERGY_UNITS, FM_PER_BOHR
 from .units import energy_unit as canonical_unit
 
 __all__ = ["phases_cmd"]
@@ -101,17 +101,19 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             record["scattering_length"] = out["scattering_length"].to_dict()
         click.echo(json.dumps(record, default=_default, indent=2))
     else:
-        click.echo(res.table(unit))
+        lunit = "fm" if unit_system == "nuclear" else "bohr"
+        per = FM_PER_BOHR if unit_system == "nuclear" else 1.0
+        click.echo(res.table(unit, lunit))
         if "levinson" in out:
             c = out["levinson"]
             click.echo(f"Levinson: delta(0) - delta(inf) = {c.count_from_phase} pi (following delta along the grid: "
                        f"{c.count_unwrapped} pi); status: {c.status} - {c.message}")
         if "scattering_length" in out:
             a = out["scattering_length"]
-            re_ = "" if a.effective_range is None else (f", effective range r_e = {a.effective_range:.12g} +- "
-                                                        f"{a.effective_range_error:.2g} bohr")
-            click.echo(f"scattering length a = {a.a:.12g} +- {a.a_error:.2g} bohr{re_} ({a.convention}); "
-                       f"status: {a.status}")
+            re_ = "" if a.effective_range is None else (f", effective range r_e = {a.effective_range * per:.12g} +- "
+                                                        f"{a.effective_range_error * per:.2g} {lunit}")
+            click.echo(f"scattering length a = {a.a * per:.12g} +- {a.a_error * per:.2g} {lunit}{re_} "
+                       f"({a.convention}); status: {a.status}")
         if plot_path:
             click.echo(f"figure: {plot_path}")
     bad = [x for x in (res, *out.values()) if not x.success]

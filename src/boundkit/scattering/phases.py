@@ -176,7 +176,8 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
     unreached = [float(e) for e, ok in zip(E, reached) if not ok]
     delta = np.array(delta)
     absolute = ch.tail_charge == 0.0
-    unwrapped, max_step = _unwrap_from_top(delta, anchor_to_zero=False)
+    # the absolute branch is continuous in E already; a Coulomb-relative delta is continued along the grid
+    unwrapped, max_step = (delta.copy(), 0.0) if absolute else _unwrap_from_top(delta, anchor_to_zero=False)
     worst_residual = float(np.nanmax(residual)) if absolute and len(residual) else 0.0
     if unreached:
         status, msg = "range-not-reached", (
@@ -226,7 +227,7 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     hard_core : float, optional
         Impenetrable core radius (bohr; fm with ``units='nuclear'``).
     tol : float
-        Target relative accuracy of a.
+        Target accuracy of a, relative to max(|a|, the potential's natural length).
 
     Returns
     -------
@@ -256,7 +257,7 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     if ch.kappa != -1:
         raise ValueError("kappa: the scattering length is an s-wave quantity; use kappa = -1 (s1/2)")
     schr = ch.eq.name == "schrodinger"
-    R1, reached = matching_radius(ch, 0.0, tol * max(1.0, ch.length))
+    R1, reached = matching_radius(ch, 0.0, tol * ch.length)
     runs = {}
     for key, rtol, radii in (("main", _rtol(tol), [R1, _SECOND_RADIUS * R1]), ("loose", _rtol(tol) * _LOOSE, [R1])):
         raws, _ = integrate(ch, 0.0, radii, rtol, integral=schr)
@@ -267,7 +268,7 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     re_err = max(abs(re - re2), abs(re - re3)) if schr and re is not None else None
     if not reached:
         status, msg = "range-not-reached", "the potential is not negligible at the largest radius tried"
-    elif a_err > tol * max(1.0, abs(a)):
+    elif a_err > tol * max(ch.length, abs(a)):
         status, msg = "tolerance-not-met", f"error estimate {a_err:.2g} bohr exceeds the tolerance"
     else:
         status, msg = "ok", f"a from the zero-energy solution matched at R = {R1:.4g} bohr"

@@ -52,6 +52,7 @@ _START = 1e-7      # inner start in units of the smallest length of the problem
 _RANGE_GRID = 4000
 _RTOL_FLOOR = 3e-14   # DOP853 refuses rtol below 100 x machine epsilon
 _CHUNK = 2.0          # rescaling interval in ln r
+_FAR = 1e4            # the matching radius is sought up to this many natural lengths (or breakpoints)
 
 
 @dataclass(frozen=True)
@@ -118,7 +119,7 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None) 
     L = _natural_length(eq.mass, pot, hard_core)
     bps = tuple(b for b in pot.breakpoints if b > 0 and (hard_core is None or b > hard_core))
     far = max([L, *bps, hard_core or 0.0])
-    r = np.logspace(math.log10(min(L, far) * 1e-3), math.log10(far * 1e6), _RANGE_GRID)
+    r = np.logspace(math.log10(min(L, far) * 1e-3), math.log10(far * _FAR), _RANGE_GRID)
     with np.errstate(all="ignore"):
         vsr = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) + zt / r
     v = 2 * eq.mass * np.abs(np.nan_to_num(vsr, nan=np.inf))

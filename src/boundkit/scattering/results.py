@@ -7,7 +7,7 @@ from typing import Any
 
 import numpy as np
 
-from ..units import hartree_to
+from ..units import FM_PER_BOHR, hartree_to
 
 __all__ = ["PhaseShifts", "ScatteringLength", "LevinsonCheck", "ContinuumState"]
 
@@ -32,8 +32,9 @@ class PhaseShifts:
         equation). Coulomb tail: relative to the Coulomb phase, in
         (-pi/2, pi/2].
     delta_unwrapped : ndarray
-        ``delta`` made continuous along the grid (steps below pi/2), anchored
-        at the highest energy.
+        Short-range potential: ``delta`` itself (already continuous). Coulomb
+        tail: ``delta`` continued along the grid (steps below pi/2), anchored
+        at the highest energy; meaningful when the grid is fine.
     error_estimate : ndarray
         Absolute error estimate of delta, radians (largest change under a
         second matching radius and a looser integration tolerance).
@@ -92,13 +93,17 @@ class PhaseShifts:
             "diagnostics": self.diagnostics,
         }
 
-    def table(self, energy_unit: str = "hartree") -> str:
+    def table(self, energy_unit: str = "hartree", length_unit: str = "bohr") -> str:
+        """Readable table; ``length_unit`` (bohr or fm) is that of k."""
+        if length_unit not in ("bohr", "fm"):
+            raise ValueError(f"length_unit: unknown value {length_unit!r}; choose bohr or fm")
+        per = FM_PER_BOHR if length_unit == "fm" else 1.0
         head = [f"{self.equation} equation, {self._channel_text()}, potential {self.potential}",
                 f"reference: {self.reference}; branch: {self.branch}",
-                f"energies (kinetic, total minus rest) in {energy_unit}; k in 1/bohr; phases in rad", "",
+                f"energies (kinetic, total minus rest) in {energy_unit}; k in 1/{length_unit}; phases in rad", "",
                 f"{'energy':>16} {'k':>14} {'delta':>20} {'unwrapped':>20} {'error':>9} {'coulomb phase':>14}"]
         rows = [f"{e:>16.9g} {k:>14.8g} {d:>20.14g} {u:>20.14g} {er:>9.2g} {c:>14.8g}"
-                for e, k, d, u, er, c in zip(self.energies_in(energy_unit), self.wave_numbers, self.delta,
+                for e, k, d, u, er, c in zip(self.energies_in(energy_unit), self.wave_numbers / per, self.delta,
                                              self.delta_unwrapped, self.error_estimate, self.coulomb_phase)]
         return "\n".join(head + rows + ["", f"status: {self.status} - {self.message}"])
 
