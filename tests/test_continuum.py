@@ -462,3 +462,22 @@ def test_a_long_tail_is_reported_not_hidden():
     # the largest radius tried, so the result says so
     res = phase_shifts([0.0005], "schrodinger", lambda r: -1 / (1 + r**3))
     assert not res.success and res.status == "range-not-reached"
+
+
+def test_relativistic_effective_range_from_low_energy_phases():
+    # Klein-Gordon and Dirac r_e come from k cot delta_0 at three small k, extrapolated in k^2.
+    # The same procedure on the Schrodinger channel must reproduce Bethe's integral, and in a
+    # weak, short well (a < 0, no bound level) the relativistic r_e stay within 1e-3 of it
+    # (corrections of order (Z alpha)^2 and V / mc^2)
+    from boundkit.scattering.phases import _channel, _effective_range_from_phases
+
+    params = {"Z": 1.0, "screening_length": 0.5}
+    bethe = scattering_length("schrodinger", "yukawa", params)
+    ch, _ = _channel("schrodinger", "yukawa", params, None, None, None, None, None, None, "atomic", None, None)
+    fit, err = _effective_range_from_phases(ch, bethe.a)
+    assert abs(fit - bethe.effective_range) < max(err, 1e-6)
+    for eq, kw in (("klein-gordon", {}), ("dirac", {"kappa": -1})):
+        rel = scattering_length(eq, "yukawa", params, **kw)
+        assert rel.effective_range_error < 1e-4
+        assert abs(rel.effective_range / bethe.effective_range - 1) < 1e-3
+        assert abs(rel.a / bethe.a - 1) < 1e-3 and rel.a != bethe.a

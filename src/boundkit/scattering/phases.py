@@ -24,6 +24,7 @@ __all__ = ["phase_shifts", "scattering_length", "levinson", "continuum_state"]
 
 _LOOSE = 30.0        # the error estimate repeats the integration with rtol x this factor
 _SECOND_RADIUS = 1.25   # ... and reads delta again at this multiple of the matching radius
+_K_EFFECTIVE = 0.01  # k x (length scale) of the lowest phase used for a relativistic effective range
 _BORN_TOP = 1.0      # Levinson grid ends where the first-order bound on |delta| falls below this (rad)
 
 
@@ -245,8 +246,10 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     sphere). At E = 0 the solution beyond the range is u = C (r - a), so
     a = R - u(R)/u'(R). With u normalised to u -> 1 - r/a,
     r_e = 2 integral_0^inf [(1 - r/a)^2 - u^2] dr (Bethe's effective-range
-    integral; Schrodinger only -- for Klein-Gordon and Dirac r_e is left
-    out, because the energy dependence of p and q changes that integral).
+    integral) for Schrodinger. For Klein-Gordon and Dirac, whose p and q
+    depend on E, r_e comes instead from the low-energy phase shifts:
+    g(k) = 2 (k cot delta_0 + 1/a) / k^2 = r_e + O(k^2) at k, 2k and 4k with
+    k = 0.01 / max(|a|, L, |r_e|), extrapolated in k^2 (error estimate included).
     """
     tol = check_positive("tol", tol)
     ch, settings = _channel(equation, potential, params, None, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
@@ -266,21 +269,55 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     a3, re3 = runs["loose"][0]
     a_err = max(abs(a - a2), abs(a - a3))
     re_err = max(abs(re - re2), abs(re - re3)) if schr and re is not None else None
+    if not schr:
+        re, re_err = _effective_range_from_phases(ch, a)
     if not reached:
         status, msg = "range-not-reached", "the potential is not negligible at the largest radius tried"
     elif a_err > tol * max(ch.length, abs(a)):
         status, msg = "tolerance-not-met", f"error estimate {a_err:.2g} bohr exceeds the tolerance"
     else:
         status, msg = "ok", f"a from the zero-energy solution matched at R = {R1:.4g} bohr"
-    if not schr:
-        msg += "; effective range: Schrodinger equation only"
-    return ScatteringLength(a=a, a_error=a_err, effective_range=re if schr else None,
-                            effective_range_error=re_err, equation=ch.eq.name,
-                            potential=settings.get("potential_name", ""),
-                            method="zero-energy solution, u = C (r - a) beyond the range; Bethe's integral for r_e",
+    how = ("Bethe's integral for r_e" if schr else
+           "r_e from k cot delta_0 at k, 2k, 4k (k = 0.01 / max(|a|, L, |r_e|)), extrapolated in k^2")
+    return ScatteringLength(a=a, a_error=a_err, effective_range=re, effective_range_error=re_err,
+                            equation=ch.eq.name, potential=settings.get("potential_name", ""),
+                            method=f"zero-energy solution, u = C (r - a) beyond the range; {how}",
                             success=status == "ok", status=status, message=msg,
                             settings={**settings, "tol": tol, "matching_radius_bohr": R1},
                             constants=constants_record())
+
+
+def _effective_range_from_phases(ch: Channel, a: float) -> tuple[float | None, float | None]:
+    """r_e from g(k) = 2 (k cot delta_0 + 1/a) / k^2 = r_e + O(k^2) at k, 2k, 4k (Richardson).
+
+    Used for Klein-Gordon and Dirac, where Bethe's integral does not apply as written. The
+    three values give the extrapolation without the k^2 and k^4 terms; the error estimate is
+    its difference from the one without the k^2 term only.
+    """
+    if a == 0.0:
+        return None, None
+    scale = max(abs(a), ch.length)
+    r_e, err = _extrapolated_range(ch, a, _K_EFFECTIVE / scale)
+    if abs(r_e) > 1.5 * scale:       # the expansion runs in k r_e: start again on that scale
+        r_e, err = _extrapolated_range(ch, a, _K_EFFECTIVE / abs(r_e))
+    return r_e, err
+
+
+def _extrapolated_range(ch: Channel, a: float, k0: float) -> tuple[float, float]:
+    eq = ch.eq
+    k = k0 * np.array([1.0, 2.0, 4.0])
+    mc = eq.mass * C_AU
+    if eq.name == "schrodinger":
+        E = k * k / (2 * eq.mass)
+    else:    # k^2 c^2 = E (E + 2mc^2), solved without cancellation
+        E = k * k / (eq.mass * (1 + np.sqrt(1 + (k / mc) ** 2)))
+    dtol = 1e-12
+    delta = np.array([m.delta for m in _phases_at(ch, E, dtol, False)[0]])
+    g = 2 * (k / np.tan(delta) + 1 / a) / k**2
+    r2 = (4 * g[0] - g[1]) / 3                          # removes the k^2 term
+    r3 = (64 * g[0] - 20 * g[1] + g[2]) / 45            # removes the k^2 and k^4 terms
+    noise = 2 * dtol / (k[0] * math.sin(delta[0]) ** 2) * (64 + 20 + 1) / 45   # from a phase error dtol
+    return float(r3), float(abs(r3 - r2) + noise)
 
 
 def _length_pair(ch: Channel, raw) -> tuple[float, float | None]:
