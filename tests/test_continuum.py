@@ -216,6 +216,31 @@ def test_coulomb_tail_phase_of_a_screened_core():
     assert np.max(np.abs(tight.delta - res.delta)) < 1e-8
 
 
+def test_coulomb_tail_phase_against_independent_matching():
+    # V = -1/r - exp(-r/0.3)/r, l = 1, E = 0.3: u'' = [l(l+1)/r^2 + 2 (V - E)] u integrated here with
+    # LSODA in r and matched at r = 14 to mpmath's F_1, G_1 (eta = -1/k), derivatives by mpmath.diff
+    l, E, D = 1, 0.3, 0.3
+    k = math.sqrt(2 * E)
+    eta = -1 / k
+
+    def f(r, y):
+        V = -1 / r - math.exp(-r / D) / r
+        return [y[1], (l * (l + 1) / r**2 + 2 * (V - E)) * y[0]]
+
+    r0, R = 1e-6, 14.0
+    sol = solve_ivp(f, (r0, R), [r0**2, 2 * r0], method="LSODA", rtol=1e-12, atol=1e-30)
+    u, du = sol.y[:, -1]
+    with mpmath.workdps(25):
+        F = float(mpmath.coulombf(l, eta, k * R))
+        G = float(mpmath.coulombg(l, eta, k * R))
+        dF = k * float(mpmath.diff(lambda x: mpmath.coulombf(l, eta, x), k * R))
+        dG = k * float(mpmath.diff(lambda x: mpmath.coulombg(l, eta, x), k * R))
+    # u = A (F cos d + G sin d): tan d = -W(u, F) / W(u, G)
+    expect = math.atan2(-(u * dF - du * F), u * dG - du * G)
+    res = phase_shifts([E], "schrodinger", ["coulomb", "yukawa"], {"Z": 1.0, "screening_length": D}, l=l)
+    assert abs(mod_pi(res.delta[0] - expect)) < 1e-9 and abs(res.delta[0]) > 1e-3
+
+
 def test_klein_gordon_coulomb_reference():
     # Klein-Gordon Coulomb waves are F_L(eta, kr) with L(L + 1) = l(l + 1) - (Z alpha)^2 and
     # eta = -Z (E + mc^2)/(c^2 k) (Greiner, Relativistic Quantum Mechanics: Wave Equations, ch. 1 and

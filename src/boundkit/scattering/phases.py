@@ -194,6 +194,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
     else:
         status, msg = "ok", f"{len(E)} phase shift(s)" + (f", largest error estimate {err.max():.2g} rad"
                                                           if estimate else " (no error estimate asked)")
+    log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
     if ch.tail_charge:
         reference = f"Coulomb tail V ~ -{ch.tail_charge:g}/r (delta relative to the Coulomb phase)"
         branch = "delta in (-pi/2, pi/2]; delta_unwrapped continuous along the grid"

@@ -264,7 +264,7 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
 
     evaluate = None
     if dense:
-        def evaluate(r):
+        def _evaluate(r):
             r = np.asarray(r, dtype=float)
             Uv = np.full((n, r.size), np.nan)
             Wv = np.full((n, r.size), np.nan)
@@ -276,6 +276,7 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
                     Wv[:, sel] = vals[n:2 * n] * np.exp(ls)[:, None]
             u, w = r**gam * Uv, r ** (gam - 1) * Wv
             return (u[0], w[0]) if scalar else (u, w)
+        evaluate = _evaluate
     return (out[0] if scalar else out), evaluate
 
 
