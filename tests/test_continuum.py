@@ -206,6 +206,17 @@ def test_pure_coulomb_recovers_coulomb_phase(Z, l):
     assert np.max(np.abs(mod_pi(res.coulomb_phase - np.imag(loggamma(l + 1 + 1j * eta))))) < 1e-12
 
 
+def test_strong_coulomb_barrier_does_not_break_the_matching():
+    # Z = -3, l = 5, E = 0.001: eta = 67, F and G differ by ~400 orders of magnitude at the matching
+    # radius; the relative shift of a pure Coulomb potential must still come out ~ 0, for Dirac too
+    res = phase_shifts([0.001], "schrodinger", "coulomb", {"Z": -3.0}, l=5)
+    assert res.success and abs(res.delta[0]) < 1e-12
+    eta = -(-3.0) / math.sqrt(2 * 0.001)
+    assert abs(mod_pi(res.coulomb_phase[0] - np.imag(loggamma(6 + 1j * eta)))) < 1e-9
+    res = phase_shifts([0.001], "dirac", "coulomb", {"Z": -50.0}, kappa=-1)
+    assert res.success and abs(res.delta[0]) < 1e-12
+
+
 def test_coulomb_tail_phase_of_a_screened_core():
     # V = -Z/r + Yukawa core: delta relative to the Coulomb phase is small, finite and matches at two
     # radii (the module's own estimate) and at two tolerances

@@ -36,6 +36,7 @@ import logging
 import math
 from dataclasses import dataclass
 
+import mpmath
 import numpy as np
 from scipy.integrate import solve_ivp
 
@@ -307,11 +308,16 @@ def match(ch: Channel, E: float, raw: Raw) -> Match:
     """Phase shift from the solution at radius ``raw.R``."""
     ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p)
     (F0, F1), (G0, G1) = ref.F, ref.G
+    if ch.tail_charge != 0.0:       # in mpmath: F and G may be far outside the double range
+        with mpmath.workdps(30):
+            det = F0 * G1 - G0 * F1
+            alpha, beta = (raw.u * G1 - G0 * raw.du) / det, (F0 * raw.du - raw.u * F1) / det
+            delta = _wrap(float(mpmath.atan2(beta, alpha)))
+            amp = alpha / mpmath.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / mpmath.sin(delta)
+        return Match(delta, float(amp), ref, float("nan"))
     alpha, beta = np.linalg.solve([[F0, G0], [F1, G1]], [raw.u, raw.du])
     delta = _wrap(math.atan2(beta, alpha))
     amp = alpha / math.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / math.sin(delta)
-    if ch.tail_charge != 0.0:
-        return Match(delta, float(amp), ref, float("nan"))
     k = ref.k
     pi = math.pi
     theta_u = raw.nodes * pi + math.atan2(k * raw.u, raw.du) % pi

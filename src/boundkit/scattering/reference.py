@@ -97,32 +97,29 @@ def sommerfeld(equation: str, E, mass: float, tail_charge: float):
 class Reference:
     """Tail solutions at one radius: F^ ~ sin(Theta + theta), G^ ~ cos(Theta + theta).
 
-    ``F``, ``G`` are (u, du/dr) pairs; ``theta`` the reference phase
+    ``F``, ``G`` are (u, du/dr) pairs (floats for a free tail, mpmath numbers for a Coulomb
+    tail, where they may lie far outside the double range); ``theta`` the reference phase
     (0 for a free tail, the Coulomb phase otherwise); ``eta`` the Sommerfeld
     parameter (0 for a free tail); ``k`` the wave number.
     """
 
-    F: tuple[float, float]
-    G: tuple[float, float]
+    F: tuple
+    G: tuple
     theta: float
     eta: float
     k: float
 
 
-def _normalised(F, G, cF: complex, cG: complex):
-    """Combinations of F and G that go like sin(Theta + arg cF) and cos(Theta + arg cF)."""
-    th = cmath_arg(cF)
-    M = np.array([[cF.real, cG.real], [cF.imag, cG.imag]])
-    s, c = complex(math.cos(th), math.sin(th)), complex(-math.sin(th), math.cos(th))   # e^{i th}, i e^{i th}
-    a1, b1 = np.linalg.solve(M, [s.real, s.imag])
-    a2, b2 = np.linalg.solve(M, [c.real, c.imag])
-    Fh = (a1 * F[0] + b1 * G[0], a1 * F[1] + b1 * G[1])
-    Gh = (a2 * F[0] + b2 * G[0], a2 * F[1] + b2 * G[1])
-    return Fh, Gh, th
-
-
-def cmath_arg(z: complex) -> float:
-    return math.atan2(z.imag, z.real)
+def _normalised(F, G, cF, cG):
+    """F^ = F / |cF| ~ sin(Theta + arg cF) and G^ = (G - x F) / (y |cF|) ~ cos(Theta + arg cF),
+    x + i y = cG / cF; in mpmath, because F and G can differ by hundreds of orders of
+    magnitude (a strong repulsive Coulomb barrier)."""
+    z = cG / cF
+    x, y = mpmath.re(z), mpmath.im(z)
+    a = abs(cF)
+    Fh = (F[0] / a, F[1] / a)
+    Gh = ((G[0] - x * F[0]) / (y * a), (G[1] - x * F[1]) / (y * a))
+    return Fh, Gh, float(mpmath.arg(cF))
 
 
 def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float) -> Reference:
@@ -152,14 +149,13 @@ def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float) -> Refe
                 # alike (the standard Coulomb-function recurrence, e.g. Abramowitz & Stegun 14.2)
                 v, v1 = fun(L, eta, rho), fun(L + 1, eta, rho)
                 d = (((L + 1) ** 2 / rho + eta) * v - mpmath.sqrt((L + 1) ** 2 + eta**2) * v1) / (L + 1)
-                return (float(v), float(d) * k)
+                return (v, d * k)
 
             F, G = pair(mpmath.coulombf), pair(mpmath.coulombg)
-            sigma = float(mpmath.im(mpmath.loggamma(L + 1 + 1j * eta)))
-            th = sigma + (l - L) * math.pi / 2
-            cF = complex(math.cos(th), math.sin(th))
+            th = mpmath.im(mpmath.loggamma(L + 1 + 1j * eta)) + (l - L) * mpmath.pi / 2
+            cF = mpmath.expj(th)
             cG = 1j * cF
-    Fh, Gh, th = _normalised(F, G, cF, cG)
+        Fh, Gh, th = _normalised(F, G, cF, cG)
     return Reference(Fh, Gh, th, eta, k)
 
 
@@ -194,11 +190,11 @@ def _dirac_coulomb(kappa: int, l: int, E: float, m: float, Z: float, R: float, p
         P = mpmath.sqrt(W + 1) * mpmath.re(Phi)
         Q = -mpmath.sqrt(eps) * mpmath.im(Phi)
         # du/dr = c Q / p(R) - kappa P / R, with w = c Q in the factorized form
-        out.append((float(P), float(c * Q / p_R - kappa * P / R)))
+        out.append((P, c * Q / p_R - kappa * P / R))
         lg = mpmath.loggamma(g + 1j * etaD)
         amp = mpmath.sqrt(W + 1) * mpmath.gamma(2 * g + 1) * mpmath.exp(-mpmath.pi * etaD / 2 - mpmath.re(lg))
         phase = (l + 1) * mpmath.pi / 2 + xi - mpmath.pi * g / 2 - mpmath.im(lg)
-        coef.append(complex(amp * mpmath.exp(1j * phase)))
+        coef.append(amp * mpmath.expj(phase))
     return out[0], out[1], coef[0], coef[1]
 
 
