@@ -252,6 +252,19 @@ def test_coulomb_tail_phase_against_independent_matching():
     assert abs(mod_pi(res.delta[0] - expect)) < 1e-9 and abs(res.delta[0]) > 1e-3
 
 
+def test_coulomb_relative_phase_is_absolute_and_continuous():
+    # Coulomb plus a deep square well: delta relative to the Coulomb phase passes pi; the branch
+    # comes from node counts at each energy alone (the same value with or without the grid), and
+    # along a grid it moves smoothly and falls towards 0 at high energy
+    pot = ["coulomb", SquareWell(V0=12.0, R=1.0)]
+    E = np.geomspace(0.02, 200, 16)
+    res = phase_shifts(E, "schrodinger", pot, {"Z": 1.0}, estimate_error=False)
+    assert res.success and res.delta[0] > np.pi
+    assert np.max(np.abs(np.diff(res.delta))) < 0.6 and 0 < res.delta[-1] < 0.7
+    alone = phase_shifts([E[0], E[9]], "schrodinger", pot, {"Z": 1.0}, estimate_error=False)
+    assert np.allclose(alone.delta, res.delta[[0, 9]], atol=1e-9)
+
+
 def test_klein_gordon_coulomb_reference():
     # Klein-Gordon Coulomb waves are F_L(eta, kr) with L(L + 1) = l(l + 1) - (Z alpha)^2 and
     # eta = -Z (E + mc^2)/(c^2 k) (Greiner, Relativistic Quantum Mechanics: Wave Equations, ch. 1 and

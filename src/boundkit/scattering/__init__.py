@@ -34,10 +34,13 @@ Method.
    functions (scipy), Coulomb functions F_L, G_L (mpmath; non-integer L for
    Klein-Gordon) or the closed-form Dirac-Coulomb functions of the Mott
    problem (mpmath 1F1) (:mod:`.reference`).
-3. For a short-range potential the integer part of delta comes from the node
-   count of u (a Pruefer angle), so delta is absolute: continuous in E and
-   -> 0 at high energy (Schrodinger), delta(0) = n pi with n bound levels
-   (Levinson's theorem, checked by :func:`levinson`).
+3. The integer part of delta comes from the node count of u (a Pruefer
+   angle) compared with that of the tail's regular solution (counted exactly
+   for Riccati-Bessel functions, by integrating the point-Coulomb equation the
+   same way for a Coulomb tail), so delta is absolute: continuous in E. For a
+   short-range potential it tends to 0 at high energy (Schrodinger) and
+   delta(0) = n pi with n bound levels (Levinson's theorem, checked by
+   :func:`levinson`).
 4. The error estimate is the larger change of delta when it is read at
    1.25 R and when the integration tolerance is loosened 30 times.
 5. The s-wave scattering length comes from the zero-energy solution,

@@ -13,7 +13,7 @@ __all__ = ["phase_figure"]
 
 
 def phase_figure(result, path, unit: str = "hartree", title: str | None = None) -> Path:
-    """Plot delta/pi (continued along the grid) against the kinetic energy.
+    """Plot delta/pi against the kinetic energy.
 
     Parameters
     ----------
@@ -27,7 +27,7 @@ def phase_figure(result, path, unit: str = "hartree", title: str | None = None) 
     unit = energy_unit(unit)
     E = result.energies_in(unit)
     fig, ax = plt.subplots(figsize=(7.0, 4.4))
-    ax.plot(E, result.delta_unwrapped / np.pi, "o-", ms=3, lw=1.2)
+    ax.plot(E, result.delta / np.pi, "o-", ms=3, lw=1.2)
     if E.size and E[0] > 0 and E[-1] / E[0] > 20:
         ax.set_xscale("log")
     rel = " - Coulomb phase" if result.coulomb_phase.any() else ""

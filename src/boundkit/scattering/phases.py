@@ -60,13 +60,6 @@ def _energies(energies, unit: str) -> np.ndarray:
     return np.sort(E / ENERGY_UNITS[unit])
 
 
-def _phase_difference(a: float, b: float, absolute: bool) -> float:
-    d = a - b
-    if not absolute:
-        d = math.remainder(d, math.pi)
-    return abs(d)
-
-
 def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     """Matches at R1 for a batch of energies sharing the integration steps.
 
@@ -79,15 +72,17 @@ def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     rtol = _rtol(tol) / math.sqrt(2 * len(E))
     radii = [[R, _SECOND_RADIUS * R] if estimate else [R] for R in R1]
     raws, _ = integrate(ch, E, radii, rtol)
-    absolute = ch.tail_charge == 0.0
-    matches = [match(ch, float(e), raw[0]) for e, raw in zip(E, raws)]
+    refs = integrate(ch.reference, E, radii, rtol)[0] if ch.reference else [[None] * len(r) for r in radii]
+    matches = [match(ch, float(e), raw[0], rf[0]) for e, raw, rf in zip(E, raws, refs)]
     err = np.zeros(len(E))
     if estimate:
-        loose, _ = integrate(ch, E, [[R] for R in R1], rtol * _LOOSE)
+        one = [[R] for R in R1]
+        loose, _ = integrate(ch, E, one, rtol * _LOOSE)
+        lrefs = integrate(ch.reference, E, one, rtol * _LOOSE)[0] if ch.reference else [[None]] * len(E)
         for i, e in enumerate(E):
             d = matches[i].delta
-            err[i] = max(_phase_difference(d, match(ch, float(e), raws[i][1]).delta, absolute),
-                         _phase_difference(d, match(ch, float(e), loose[i][0]).delta, absolute))
+            err[i] = max(abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta),
+                         abs(d - match(ch, float(e), loose[i][0], lrefs[i][0]).delta))
     return matches, err, R1, [ok for _, ok in rr]
 
 
@@ -176,10 +171,9 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
     residual = [m.residual for m in matches]
     unreached = [float(e) for e, ok in zip(E, reached) if not ok]
     delta = np.array(delta)
-    absolute = ch.tail_charge == 0.0
-    # the absolute branch is continuous in E already; a Coulomb-relative delta is continued along the grid
-    unwrapped, max_step = (delta.copy(), 0.0) if absolute else _unwrap_from_top(delta, anchor_to_zero=False)
-    worst_residual = float(np.nanmax(residual)) if absolute and len(residual) else 0.0
+    # the branch is absolute (continuous in E); the largest step along the grid is kept as a diagnostic
+    max_step = float(np.max(np.abs(np.diff(delta)))) if delta.size > 1 else 0.0
+    worst_residual = float(np.nanmax(residual)) if len(residual) else 0.0
     if unreached:
         status, msg = "range-not-reached", (
             f"the short-range part of the potential is still not negligible at the largest radius tried "
@@ -197,7 +191,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
     log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
     if ch.tail_charge:
         reference = f"Coulomb tail V ~ -{ch.tail_charge:g}/r (delta relative to the Coulomb phase)"
-        branch = "delta in (-pi/2, pi/2]; delta_unwrapped continuous along the grid"
+        branch = "absolute: continuous in E from the node counts of the solution and of the Coulomb one"
     else:
         reference = "free waves (short-range potential)"
         branch = ("absolute: continuous in E from the node count (Levinson convention)"
@@ -207,7 +201,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
                           + ("Coulomb" if ch.tail_charge else "Riccati-Bessel") + " functions"}
     return PhaseShifts(
         energies=E, wave_numbers=np.asarray(wave_number(eq.name, E, eq.mass), dtype=float), delta=delta,
-        delta_unwrapped=unwrapped, error_estimate=err, coulomb_phase=np.array(theta), eta=np.array(eta),
+        error_estimate=err, coulomb_phase=np.array(theta), eta=np.array(eta),
         matching_radius=np.array(Rs), equation=eq.name, channel=eq.channel(),
         potential=settings.get("potential_name", repr(ch.pot)), reference=reference, branch=branch,
         success=status == "ok", status=status, message=msg, settings=settings, constants=constants_record(),
@@ -491,7 +485,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     if r is None:
         r = np.linspace(0.0, _SECOND_RADIUS * R1, 1002)[1:]
     raws, evaluate = integrate(ch, E, [R1, max(float(r.max()), R1)], _rtol(tol), dense=True)
-    m = match(ch, E, raws[0])
+    m = match(ch, E, raws[0], integrate(ch.reference, E, [R1], _rtol(tol))[0][0] if ch.reference else None)
     scale = m.amplitude * R1**ch.gamma * math.exp(raws[0].log_scale)
     inside = r >= r0
     u, w = np.zeros_like(r), np.zeros_like(r)

@@ -21,14 +21,16 @@ Matching: at a radius R beyond the range of the short-range part
 V_sr = V + S + Z_t/r, u = alpha F^ + beta G^ with the tail solutions of
 :mod:`.reference`, so u ~ C sin(Theta + theta + delta), tan delta = beta/alpha.
 
-Branch (free tail): the Pruefer angle phi(r) = atan2(k u, u') starts in
+Branch: the Pruefer angle phi(r) = atan2(k u, u') starts in
 (0, pi/2) at the origin (u'/u = gamma/r) and passes each multiple of pi
 upwards exactly at a node of u, so phi(R) = pi (nodes of u in (0, R)) +
 [atan2(k u, u') mod pi]. The same holds for the free regular solution. The
 absolute phase shift is the delta with phi_u(R) = phi of cos(delta) F^ +
 sin(delta) G^ continued from delta = 0, where it equals phi_F(R); that angle
 grows monotonically with delta by pi per period. delta is then continuous in
-E and tends to 0 at high energy for a Schrodinger short-range potential.
+E and tends to 0 at high energy for a Schrodinger short-range potential. With
+a Coulomb tail the node count of F comes from integrating the pure point-Coulomb
+equation the same way (the closed-form F fixes the angle mod pi).
 """
 from __future__ import annotations
 
@@ -70,6 +72,7 @@ class Channel:
     length: float
     r_grid: np.ndarray          # radii of the range profile
     v_grid: np.ndarray          # 2 m |V_sr| there (1/bohr^2)
+    reference: "Channel | None" = None   # the pure Coulomb tail as a channel (its node count fixes the branch)
 
     def sample(self, r) -> Sample:
         r = np.atleast_1d(np.asarray(r, dtype=float))
@@ -92,7 +95,8 @@ def _natural_length(mass: float, pot: Potential, hard_core: float | None) -> flo
     return float(hard_core) if hard_core else 1.0
 
 
-def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None) -> Channel:
+def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
+            with_reference: bool = True) -> Channel:
     """Check a channel for continuum work and build its range profile.
 
     Raises
@@ -124,7 +128,16 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None) 
     with np.errstate(all="ignore"):
         vsr = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) + zt / r
     v = 2 * eq.mass * np.abs(np.nan_to_num(vsr, nan=np.inf))
-    return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v)
+    reference = None
+    if zt != 0.0 and with_reference:
+        from ..potentials.builtin import Coulomb
+
+        try:
+            reference = prepare(eq, Potential((Coulomb(Z=zt),)), None, with_reference=False)
+        except ValueError as exc:
+            raise ValueError(f"potential: its Coulomb tail (charge {zt:g}) has no regular point-Coulomb "
+                             f"reference in this channel ({exc})") from None
+    return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference)
 
 
 def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
@@ -283,10 +296,10 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
 
 @dataclass(frozen=True)
 class Match:
-    """Phase shift read at one radius: delta (absolute branch for a free tail, else in
-    (-pi/2, pi/2]), the signed amplitude C of u ~ C sin(Theta + theta + delta) on the
-    scale of ``Raw``, the reference and the branch residual (distance of the branch
-    count from an integer; nan for a Coulomb tail)."""
+    """Phase shift read at one radius: delta (absolute branch, or in (-pi/2, pi/2] for a Coulomb
+    tail read without its reference solution), the signed amplitude C of
+    u ~ C sin(Theta + theta + delta) on the scale of ``Raw``, the reference and the branch
+    residual (distance of the branch count from an integer; nan when not computed)."""
 
     delta: float
     amplitude: float
@@ -304,26 +317,38 @@ def _wrap(x: float) -> float:
     return x
 
 
-def match(ch: Channel, E: float, raw: Raw) -> Match:
-    """Phase shift from the solution at radius ``raw.R``."""
+def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
+    """Phase shift from the solution at radius ``raw.R``.
+
+    For a Coulomb tail, ``ref_raw`` (the pure-Coulomb regular solution integrated to the same
+    radius) fixes the integer part of delta; without it delta is left in (-pi/2, pi/2].
+    """
     ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p)
     (F0, F1), (G0, G1) = ref.F, ref.G
+    k, pi = ref.k, math.pi
     if ch.tail_charge != 0.0:       # in mpmath: F and G may be far outside the double range
         with mpmath.workdps(30):
             det = F0 * G1 - G0 * F1
             alpha, beta = (raw.u * G1 - G0 * raw.du) / det, (F0 * raw.du - raw.u * F1) / det
             delta = _wrap(float(mpmath.atan2(beta, alpha)))
             amp = alpha / mpmath.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / mpmath.sin(delta)
-        return Match(delta, float(amp), ref, float("nan"))
-    alpha, beta = np.linalg.solve([[F0, G0], [F1, G1]], [raw.u, raw.du])
-    delta = _wrap(math.atan2(beta, alpha))
-    amp = alpha / math.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / math.sin(delta)
-    k = ref.k
-    pi = math.pi
+            if ref_raw is None:
+                return Match(delta, float(amp), ref, float("nan"))
+            # Pruefer angle of F^ at R: the numerical reference's node count, plus the closed form's
+            # angle (equal mod pi up to rounding; the small difference is added, not wrapped)
+            phi_num = math.atan2(k * ref_raw.u, ref_raw.du) % pi
+            phi_F = float(mpmath.atan2(k * F0, F1)) % pi
+            theta_F = ref_raw.nodes * pi + phi_num + math.remainder(phi_F - phi_num, pi)
+            c, s = mpmath.cos(delta), mpmath.sin(delta)
+            phi_d = float(mpmath.atan2(k * (c * F0 + s * G0), c * F1 + s * G1)) % pi
+    else:
+        alpha, beta = np.linalg.solve([[F0, G0], [F1, G1]], [raw.u, raw.du])
+        delta = _wrap(math.atan2(beta, alpha))
+        amp = alpha / math.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / math.sin(delta)
+        theta_F = free_zero_count(ch.eq.l, k * raw.R) * pi + math.atan2(k * F0, F1) % pi
+        c, s = math.cos(delta), math.sin(delta)
+        phi_d = math.atan2(k * (c * F0 + s * G0), c * F1 + s * G1) % pi
     theta_u = raw.nodes * pi + math.atan2(k * raw.u, raw.du) % pi
-    theta_F = free_zero_count(ch.eq.l, k * raw.R) * pi + math.atan2(k * F0, F1) % pi
-    c, s = math.cos(delta), math.sin(delta)
-    phi_d = math.atan2(k * (c * F0 + s * G0), c * F1 + s * G1) % pi
     phi_0 = theta_F % pi
     inc = (phi_d - phi_0) % pi if delta >= 0 else -((phi_0 - phi_d) % pi)
     m = (theta_u - theta_F - inc) / pi

@@ -27,14 +27,10 @@ class PhaseShifts:
     wave_numbers : ndarray
         k in 1/bohr.
     delta : ndarray
-        Phase shifts in radians. Short-range potential: the absolute branch
-        (continuous in E; tends to 0 at high energy in the Schrodinger
-        equation). Coulomb tail: relative to the Coulomb phase, in
-        (-pi/2, pi/2].
-    delta_unwrapped : ndarray
-        Short-range potential: ``delta`` itself (already continuous). Coulomb
-        tail: ``delta`` continued along the grid (steps below pi/2), anchored
-        at the highest energy; meaningful when the grid is fine.
+        Phase shifts in radians, on the absolute branch (continuous in E,
+        integer part from node counts). Short-range potential: tends to 0 at
+        high energy in the Schrodinger equation. Coulomb tail: relative to
+        the Coulomb phase.
     error_estimate : ndarray
         Absolute error estimate of delta, radians (largest change under a
         second matching radius and a looser integration tolerance).
@@ -52,7 +48,6 @@ class PhaseShifts:
     energies: np.ndarray
     wave_numbers: np.ndarray
     delta: np.ndarray
-    delta_unwrapped: np.ndarray
     error_estimate: np.ndarray
     coulomb_phase: np.ndarray
     eta: np.ndarray
@@ -83,11 +78,11 @@ class PhaseShifts:
             "constants": self.constants, "settings": self.settings,
             "status": self.status, "success": self.success, "message": self.message,
             "points": [
-                {"energy": e, "wave_number": k, "delta": d, "delta_unwrapped": du, "error_estimate": er,
+                {"energy": e, "wave_number": k, "delta": d, "error_estimate": er,
                  "coulomb_phase": c, "eta": et, "matching_radius": R}
-                for e, k, d, du, er, c, et, R in zip(
+                for e, k, d, er, c, et, R in zip(
                     _floats(self.energies_in(energy_unit)), _floats(self.wave_numbers), _floats(self.delta),
-                    _floats(self.delta_unwrapped), _floats(self.error_estimate), _floats(self.coulomb_phase),
+                    _floats(self.error_estimate), _floats(self.coulomb_phase),
                     _floats(self.eta), _floats(self.matching_radius))
             ],
             "diagnostics": self.diagnostics,
@@ -101,10 +96,10 @@ class PhaseShifts:
         head = [f"{self.equation} equation, {self._channel_text()}, potential {self.potential}",
                 f"reference: {self.reference}; branch: {self.branch}",
                 f"energies (kinetic, total minus rest) in {energy_unit}; k in 1/{length_unit}; phases in rad", "",
-                f"{'energy':>16} {'k':>14} {'delta':>20} {'unwrapped':>20} {'error':>9} {'coulomb phase':>14}"]
-        rows = [f"{e:>16.9g} {k:>14.8g} {d:>20.14g} {u:>20.14g} {er:>9.2g} {c:>14.8g}"
-                for e, k, d, u, er, c in zip(self.energies_in(energy_unit), self.wave_numbers / per, self.delta,
-                                             self.delta_unwrapped, self.error_estimate, self.coulomb_phase)]
+                f"{'energy':>16} {'k':>14} {'delta':>20} {'delta/pi':>12} {'error':>9} {'coulomb phase':>14}"]
+        rows = [f"{e:>16.9g} {k:>14.8g} {d:>20.14g} {d / math.pi:>12.6f} {er:>9.2g} {c:>14.8g}"
+                for e, k, d, er, c in zip(self.energies_in(energy_unit), self.wave_numbers / per, self.delta,
+                                          self.error_estimate, self.coulomb_phase)]
         return "\n".join(head + rows + ["", f"status: {self.status} - {self.message}"])
 
     def _channel_text(self) -> str:
