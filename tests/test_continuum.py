@@ -21,7 +21,7 @@ from boundkit.cli import main
 from boundkit.potentials import Parameter, Term
 from boundkit.scattering import (LevinsonCheck, PhaseShifts, continuum_state, levinson, phase_shifts,
                                  scattering_length, wave_number)
-from boundkit.units import C_AU
+from boundkit.units import C_AU, ELECTRON_MASS_MEV
 
 ZERO = lambda r: 0.0 * r   # noqa: E731  (a potential that vanishes: free particle, used with a hard core)
 
@@ -171,6 +171,22 @@ def test_dirac_square_well(kappa):
                                       kappa=kappa))
     assert np.max(np.abs(mod_pi(res.delta - exact))) < 1e-8
     assert np.allclose(res.wave_numbers, k, rtol=1e-14)
+
+
+@pytest.mark.parametrize("kappa", [1, -2])
+def test_dirac_with_equal_scalar_and_vector_is_a_schrodinger_problem(kappa):
+    # S = V: p = c^2/(E + 2mc^2) is constant and q = 2V, so P obeys a Schrodinger equation with mass
+    # m' = (E + 2mc^2)/(2c^2) and potential 2V at the same E and k, for both kappa of the same l
+    # (the spin-symmetry limit; derived from the radial equations here, Ginocchio, Phys. Rep. 414,
+    # 165 (2005) reviews it -- from memory)
+    E, D = 800.0, 0.05
+    half = {"Z": 0.5, "screening_length": D}
+    dirac = phase_shifts([E], "dirac", "yukawa", half, scalar="yukawa", kappa=kappa)
+    m_eff = (E + 2 * C_AU**2) / (2 * C_AU**2)
+    schr = phase_shifts([E], "schrodinger", "yukawa", {"Z": 1.0, "screening_length": D}, l=1,
+                        mass_mev=m_eff * ELECTRON_MASS_MEV)
+    assert abs(dirac.wave_numbers[0] - schr.wave_numbers[0]) < 1e-12 * schr.wave_numbers[0]
+    assert abs(dirac.delta[0] - schr.delta[0]) < 1e-9
 
 
 def test_klein_gordon_square_well():

@@ -58,8 +58,8 @@ def _energy_grid(text: str | None) -> list[float] | None:
 def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
                table_r_unit, table_v_unit, params, unit_system, l, kappa, j, energies, energy_unit, hard_core, tol,
                want_a, want_levinson, bound_levels, particle, mass_mev, nucleus_mass_mev, plot_path, as_json):
-    """Phase shifts delta(E) of one channel above threshold (absolute for short-range
-    potentials, relative to the Coulomb phase with a Coulomb tail)."""
+    """Phase shifts delta(E) of one channel above threshold (absolute branch; relative to
+    the Coulomb phase when the potential has a Coulomb tail)."""
     from .scattering import levinson, phase_shifts, scattering_length
 
     out: dict = {}
