@@ -477,6 +477,10 @@ def test_package_exports_the_continuum_api():
     (lambda: levinson("dirac", "yukawa", {"Z": 1.0, "screening_length": 1.0}), "equation: Levinson"),
     (lambda: levinson("schrodinger", "coulomb", {"Z": 1.0}), "Levinson's theorem needs a short-range"),
     (lambda: levinson("schrodinger", "yukawa", {"Z": 1.0, "screening_length": 1.0}, points=2), "points: must be >= 4"),
+    (lambda: phase_shifts([1.0], "dirac", "uniform-sphere", {"Z": 150.0, "rms_fm": 6.0}),
+     "its Coulomb tail \\(charge 150\\) has no regular point-Coulomb reference"),
+    (lambda: phase_shifts([1.0], "schrodinger", ZERO, hard_core=1.0).table(length_unit="mile"),
+     "length_unit: unknown value"),
     (lambda: continuum_state(1.0, normalisation="flux"), "normalisation: unknown value"),
     (lambda: continuum_state(1.0, r=[-1.0]), "r: give positive, finite radii"),
 ])
@@ -512,6 +516,7 @@ def test_cli_phases_table_and_levinson():
     (["phases", "--energies", "-1,1"], "energies: every energy must be finite and above threshold"),
     (["phases", "--energies", "1,2", "--levinson"], "--levinson chooses its own energy grid"),
     (["phases", "--energies", "1,2", "--bound-levels", "2"], "--bound-levels goes with --levinson"),
+    (["phases", "--levinson", "--hard-core", "1"], "--levinson takes neither --hard-core nor scalar terms"),
 ])
 def test_cli_phases_errors(args, match):
     run = CliRunner().invoke(main, args)

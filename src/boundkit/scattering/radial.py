@@ -113,9 +113,7 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
         if any(t.tail_charge != 0.0 for t in pot.scalar):
             raise ValueError("potential: a scalar term with a Coulomb tail has no continuum reference here; "
                              "give Coulomb tails as vector terms")
-    if hard_core is not None:
-        if not (math.isfinite(hard_core) and hard_core > 0):
-            raise ValueError(f"hard_core: must be a positive radius in bohr, got {hard_core!r}")
+    if hard_core is not None:        # checked positive by the caller
         if eq.name != "schrodinger":
             eq._refuse_nonrelativistic_terms(pot)
         gamma = float(eq.l + 1)

@@ -161,22 +161,14 @@ def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float) -> Refe
 
 def _kg_L(l: int, Z: float) -> float:
     """L with L (L + 1) = l (l + 1) - (Z alpha)^2 (Klein-Gordon Coulomb tail)."""
-    disc = (l + 0.5) ** 2 - (Z / C_AU) ** 2
-    if disc <= 0:
-        raise ValueError(f"potential: a Coulomb tail of charge {Z:g} needs Z alpha < l + 1/2 in the Klein-Gordon "
-                         f"equation (l = {l}); use a higher l or a smaller charge")
-    return -0.5 + math.sqrt(disc)
+    return -0.5 + math.sqrt((l + 0.5) ** 2 - (Z / C_AU) ** 2)    # real: the channel checks Z alpha < l + 1/2
 
 
 def _dirac_coulomb(kappa: int, l: int, E: float, m: float, Z: float, R: float, p_R: float):
     """(P, dP/dr) of the regular and irregular Dirac-Coulomb solutions and their coefficients c."""
     c = C_AU
     y = mpmath.mpf(Z) / c
-    gam2 = kappa**2 - y**2
-    if gam2 <= 0:
-        raise ValueError(f"potential: a Coulomb tail of charge {Z:g} needs Z alpha < |kappa| in the Dirac "
-                         f"equation (kappa = {kappa}); use another kappa or a smaller charge")
-    gamma = mpmath.sqrt(gam2)
+    gamma = mpmath.sqrt(kappa**2 - y**2)      # real: the channel checks Z alpha < |kappa|
     eps = mpmath.mpf(E) / (m * c * c)              # W - 1, exact
     W = 1 + eps
     p = mpmath.sqrt(eps * (eps + 2))
