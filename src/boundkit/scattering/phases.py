@@ -86,13 +86,13 @@ def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     return matches, err, R1, [ok for _, ok in rr]
 
 
-def _unwrap_from_top(delta: np.ndarray, anchor_to_zero: bool) -> tuple[np.ndarray, float]:
-    """delta continued from the highest energy down with steps below pi/2; the largest step."""
+def _unwrap_from_top(delta: np.ndarray) -> tuple[np.ndarray, float]:
+    """delta mod pi followed down from the highest energy, where it is put on the branch
+    nearest 0, with steps below pi/2; and the largest step."""
     out = np.array(delta, dtype=float)
     if not out.size:
         return out, 0.0
-    if anchor_to_zero:
-        out[-1] -= math.pi * round(out[-1] / math.pi)
+    out[-1] -= math.pi * round(out[-1] / math.pi)
     for i in range(len(out) - 2, -1, -1):
         out[i] = out[i + 1] + math.remainder(delta[i] - out[i + 1], math.pi)
     steps = np.abs(np.diff(out))
@@ -396,7 +396,7 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
         rows.update(zip(extra, zip(*_phases_at(ch, extra, tol, False))))
     Es = np.array(sorted(rows))
     res = _assemble(ch, Es, *(list(col) for col in zip(*(rows[e] for e in Es))), tol, False, settings, t0)
-    unwrapped, max_step = _unwrap_from_top(res.delta, anchor_to_zero=True)
+    unwrapped, max_step = _unwrap_from_top(res.delta)
     d_lo, d_hi = float(res.delta[0]), float(res.delta[-1])
     count = round(d_lo / math.pi)
     residual = abs(d_lo / math.pi - count)
