@@ -17,6 +17,7 @@ from .studies import scan, critical, compare
 from .observables import matrix_element, observables
 from .transitions import transitions
 from .perturbation import compare_shift, first_order_shift
+from .scattering import continuum_state, levinson, phase_shifts, scattering_length
 
 try:
     __version__ = version("boundkit")
@@ -25,4 +26,5 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
 
 __all__ = ["solve", "solve_channel", "make_equation", "make_potential", "Potential", "Level",
            "RadialState", "SolveResult", "scan", "critical", "compare", "matrix_element", "observables",
-           "transitions", "compare_shift", "first_order_shift", "__version__"]
+           "transitions", "compare_shift", "first_order_shift", "phase_shifts", "scattering_length",
+           "levinson", "continuum_state", "__version__"]

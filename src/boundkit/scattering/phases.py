@@ -1,0 +1,506 @@
+"""Public API of the continuum layer: phase shifts, scattering length, Levinson, states.
+
+See :mod:`boundkit.scattering` for the equations and the method.
+"""
+from __future__ import annotations
+
+import logging
+import math
+import time
+from typing import Sequence
+
+import numpy as np
+
+from .._checks import check_int, check_positive
+from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
+from ..units import energy_unit as canonical_unit
+from .radial import Channel, _start, integrate, match, matching_radius, prepare
+from .reference import wave_number
+from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
+
+log = logging.getLogger(__name__)
+
+__all__ = ["phase_shifts", "scattering_length", "levinson", "continuum_state"]
+
+_LOOSE = 30.0        # the error estimate repeats the integration with rtol x this factor
+_SECOND_RADIUS = 1.25   # ... and reads delta again at this multiple of the matching radius
+_K_EFFECTIVE = 0.01  # k x (length scale) of the lowest phase used for a relativistic effective range
+_BORN_TOP = 1.0      # Levinson grid ends where the first-order bound on |delta| falls below this (rad)
+
+
+def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
+             hard_core) -> tuple[Channel, dict]:
+    from ..solver import setup
+
+    eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
+                              mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar, units=units,
+                              j=j)
+    if hard_core is not None:
+        hard_core = check_positive("hard_core", hard_core) * (FM_IN_BOHR if units == "nuclear" else 1.0)
+    settings["hard_core_bohr"] = hard_core
+    settings["potential_name"] = pot.name
+    return prepare(eq, pot, hard_core), settings
+
+
+def _rtol(tol: float) -> float:
+    return min(1e-6, tol * 1e-3)
+
+
+def _energies(energies, unit: str) -> np.ndarray:
+    unit = canonical_unit(unit)
+    try:
+        E = np.atleast_1d(np.asarray(energies, dtype=float)).ravel()
+    except (TypeError, ValueError):
+        raise ValueError(f"energies: expected numbers, got {energies!r}") from None
+    if not E.size:
+        raise ValueError("energies: give at least one energy above threshold (E > 0)")
+    if not np.all(np.isfinite(E)) or np.any(E <= 0):
+        raise ValueError("energies: every energy must be finite and above threshold (E > 0, kinetic energy "
+                         f"= total minus rest energy); got {float(E[~(np.isfinite(E) & (E > 0))][0]):g}")
+    return np.sort(E / ENERGY_UNITS[unit])
+
+
+def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
+    """Matches at R1 for a batch of energies sharing the integration steps.
+
+    Returns (matches, error estimates, R1 values, range reached flags). The
+    batch tolerance is divided by sqrt(number of components), because the
+    step control measures the root mean square error of all of them.
+    """
+    rr = [matching_radius(ch, float(e), tol) for e in E]
+    R1 = [R for R, _ in rr]
+    rtol = _rtol(tol) / math.sqrt(2 * len(E))
+    radii = [[R, _SECOND_RADIUS * R] if estimate else [R] for R in R1]
+    raws, _ = integrate(ch, E, radii, rtol)
+    refs = integrate(ch.reference, E, radii, rtol)[0] if ch.reference else [[None] * len(r) for r in radii]
+    matches = [match(ch, float(e), raw[0], rf[0]) for e, raw, rf in zip(E, raws, refs)]
+    err = np.zeros(len(E))
+    if estimate:
+        one = [[R] for R in R1]
+        loose, _ = integrate(ch, E, one, rtol * _LOOSE)
+        lrefs = integrate(ch.reference, E, one, rtol * _LOOSE)[0] if ch.reference else [[None]] * len(E)
+        for i, e in enumerate(E):
+            d = matches[i].delta
+            err[i] = max(abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta),
+                         abs(d - match(ch, float(e), loose[i][0], lrefs[i][0]).delta))
+    return matches, err, R1, [ok for _, ok in rr]
+
+
+def _unwrap_from_top(delta: np.ndarray) -> tuple[np.ndarray, float]:
+    """delta mod pi followed down from the highest energy, where it is put on the branch
+    nearest 0, with steps below pi/2; and the largest step."""
+    out = np.array(delta, dtype=float)
+    if not out.size:
+        return out, 0.0
+    out[-1] -= math.pi * round(out[-1] / math.pi)
+    for i in range(len(out) - 2, -1, -1):
+        out[i] = out[i + 1] + math.remainder(delta[i] - out[i + 1], math.pi)
+    steps = np.abs(np.diff(out))
+    return out, float(steps.max()) if steps.size else 0.0
+
+
+def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger", potential="coulomb",
+                 params: dict | None = None, *, l: int | None = None, kappa: int | None = None,
+                 particle: str | None = None, mass_mev: float | None = None,
+                 nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
+                 j: float | None = None, hard_core: float | None = None, energy_unit: str = "hartree",
+                 tol: float = 1e-8, estimate_error: bool = True) -> PhaseShifts:
+    """Phase shifts of one channel at kinetic energies above threshold.
+
+    Parameters
+    ----------
+    energies : float or sequence
+        Kinetic energies E > 0 (total minus rest energy) in ``energy_unit``;
+        returned in ascending order.
+    equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j
+        As in :func:`boundkit.solve`.
+    hard_core : float, optional
+        Radius of an impenetrable core (u = 0 there), bohr (fm with
+        ``units='nuclear'``).
+    energy_unit : str
+        Unit of ``energies`` (hartree, eV, keV, MeV, ...).
+    tol : float
+        Target absolute accuracy of each phase shift, radians.
+    estimate_error : bool
+        Repeat each integration with a second matching radius and a looser
+        tolerance to estimate the error (default True).
+
+    Returns
+    -------
+    PhaseShifts
+        Frozen; see its attributes for branch and reference conventions.
+
+    Raises
+    ------
+    ValueError
+        Bad energies, channel or potential (confining, scalar Coulomb tail,
+        point charge too strong for the equation).
+
+    Notes
+    -----
+    Far out u ~ C sin(k r - eta ln(2 k r) - l pi/2 + theta + delta) with
+    eta = 0, theta = 0 for a short-range potential (then delta is the
+    absolute phase shift) and eta, theta the Sommerfeld parameter and
+    Coulomb phase of the tail V ~ -Z_t/r otherwise (then delta is relative
+    to the Coulomb phase). See :mod:`boundkit.scattering`.
+
+    Examples
+    --------
+    >>> from boundkit.scattering import phase_shifts
+    >>> res = phase_shifts([0.5], "schrodinger", lambda r: 0 * r, hard_core=1.0)
+    >>> round(float(res.delta[0]), 10)    # hard sphere: delta_0 = -k a, k = 1
+    -1.0
+    """
+    tol = check_positive("tol", tol)
+    E = _energies(energies, energy_unit)
+    t0 = time.perf_counter()
+    ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
+                            units, j, hard_core)
+    return _tabulate(ch, E, tol, estimate_error, settings, t0)
+
+
+def _tabulate(ch: Channel, E: np.ndarray, tol: float, estimate: bool, settings: dict, t0: float) -> PhaseShifts:
+    return _assemble(ch, E, *_phases_at(ch, E, tol, estimate), tol, estimate, settings, t0)
+
+
+def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings, t0) -> PhaseShifts:
+    eq = ch.eq
+    delta = [m.delta for m in matches]
+    theta = [m.ref.theta for m in matches]
+    eta = [m.ref.eta for m in matches]
+    residual = [m.residual for m in matches]
+    unreached = [float(e) for e, ok in zip(E, reached) if not ok]
+    delta = np.array(delta)
+    # the branch is absolute (continuous in E); the largest step along the grid is kept as a diagnostic
+    max_step = float(np.max(np.abs(np.diff(delta)))) if delta.size > 1 else 0.0
+    worst_residual = float(np.nanmax(residual)) if len(residual) else 0.0
+    if unreached:
+        status, msg = "range-not-reached", (
+            f"the short-range part of the potential is still not negligible at the largest radius tried "
+            f"(first energy affected: {unreached[0]:.4g} hartree); the tail was cut there")
+    elif estimate and np.any(err > tol):
+        i = int(np.argmax(err))
+        status, msg = "tolerance-not-met", (f"error estimate {err[i]:.2g} rad at E = {E[i]:.4g} hartree "
+                                            f"exceeds tol = {tol:g}")
+    elif worst_residual > 0.05:
+        status, msg = "branch-uncertain", (f"the node count and the matched phase disagree by "
+                                           f"{worst_residual:.2g} pi somewhere; the integer part of delta may be off")
+    else:
+        status, msg = "ok", f"{len(E)} phase shift(s)" + (f", largest error estimate {err.max():.2g} rad"
+                                                          if estimate else " (no error estimate asked)")
+    log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
+    if ch.tail_charge:
+        reference = f"Coulomb tail V ~ -{ch.tail_charge:g}/r (delta relative to the Coulomb phase)"
+        branch = "absolute: continuous in E from the node counts of the solution and of the Coulomb one"
+    else:
+        reference = "free waves (short-range potential)"
+        branch = ("absolute: continuous in E from the node count (Levinson convention)"
+                  + ("; hard core" if ch.hard_core else ""))
+    settings = {**settings, "tol": tol, "rtol": _rtol(tol), "estimate_error": estimate,
+                "method": "DOP853 outward integration in ln r from the Frobenius start, matched to "
+                          + ("Coulomb" if ch.tail_charge else "Riccati-Bessel") + " functions"}
+    return PhaseShifts(
+        energies=E, wave_numbers=np.asarray(wave_number(eq.name, E, eq.mass), dtype=float), delta=delta,
+        error_estimate=err, coulomb_phase=np.array(theta), eta=np.array(eta),
+        matching_radius=np.array(Rs), equation=eq.name, channel=eq.channel(),
+        potential=settings.get("potential_name", repr(ch.pot)), reference=reference, branch=branch,
+        success=status == "ok", status=status, message=msg, settings=settings, constants=constants_record(),
+        diagnostics={"branch_residual_max": worst_residual, "max_step_along_grid": max_step,
+                     "seconds": time.perf_counter() - t0})
+
+
+# --- scattering length -----------------------------------------------------------------------
+def scattering_length(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+                      kappa: int | None = None, particle: str | None = None, mass_mev: float | None = None,
+                      nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
+                      hard_core: float | None = None, tol: float = 1e-10) -> ScatteringLength:
+    """s-wave scattering length a and effective range r_e of a short-range potential.
+
+    Parameters
+    ----------
+    equation, potential, params, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units
+        As in :func:`boundkit.solve`; the channel is l = 0 (Dirac kappa = -1).
+    hard_core : float, optional
+        Impenetrable core radius (bohr; fm with ``units='nuclear'``).
+    tol : float
+        Target accuracy of a, relative to max(|a|, the potential's natural length).
+
+    Returns
+    -------
+    ScatteringLength
+        Lengths in bohr (convert with ``boundkit.units.FM_PER_BOHR``).
+
+    Raises
+    ------
+    ValueError
+        Coulomb tail, l != 0, or bad input.
+
+    Notes
+    -----
+    Convention k cot delta_0 = -1/a + r_e k^2/2 + O(k^4) (a = +R for a hard
+    sphere). At E = 0 the solution beyond the range is u = C (r - a), so
+    a = R - u(R)/u'(R). With u normalised to u -> 1 - r/a,
+    r_e = 2 integral_0^inf [(1 - r/a)^2 - u^2] dr (Bethe's effective-range
+    integral) for Schrodinger. For Klein-Gordon and Dirac, whose p and q
+    depend on E, r_e comes instead from the low-energy phase shifts:
+    g(k) = 2 (k cot delta_0 + 1/a) / k^2 = r_e + O(k^2) at k, 2k and 4k with
+    k = 0.01 / max(|a|, L, |r_e|), extrapolated in k^2 (error estimate included).
+    """
+    tol = check_positive("tol", tol)
+    ch, settings = _channel(equation, potential, params, None, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
+                            units, None, hard_core)
+    if ch.tail_charge:
+        raise ValueError(f"potential: it has a Coulomb tail (charge {ch.tail_charge:g}); the scattering length "
+                         "here is for short-range potentials -- use phase_shifts for Coulomb-modified phases")
+    if ch.kappa != -1:
+        raise ValueError("kappa: the scattering length is an s-wave quantity; use kappa = -1 (s1/2)")
+    schr = ch.eq.name == "schrodinger"
+    R1, reached = matching_radius(ch, 0.0, tol * ch.length)
+    runs = {}
+    for key, rtol, radii in (("main", _rtol(tol), [R1, _SECOND_RADIUS * R1]), ("loose", _rtol(tol) * _LOOSE, [R1])):
+        raws, _ = integrate(ch, 0.0, radii, rtol, integral=schr)
+        runs[key] = [_length_pair(ch, raw) for raw in raws]
+    (a, re), (a2, re2) = runs["main"]
+    a3, re3 = runs["loose"][0]
+    a_err = max(abs(a - a2), abs(a - a3))
+    re_err = max(abs(re - re2), abs(re - re3)) if schr and re is not None else None
+    if not schr:
+        re, re_err = _effective_range_from_phases(ch, a)
+    if not reached:
+        status, msg = "range-not-reached", "the potential is not negligible at the largest radius tried"
+    elif a_err > tol * max(ch.length, abs(a)):
+        status, msg = "tolerance-not-met", f"error estimate {a_err:.2g} bohr exceeds the tolerance"
+    else:
+        status, msg = "ok", f"a from the zero-energy solution matched at R = {R1:.4g} bohr"
+    how = ("Bethe's integral for r_e" if schr else
+           "r_e from k cot delta_0 at k, 2k, 4k (k = 0.01 / max(|a|, L, |r_e|)), extrapolated in k^2")
+    return ScatteringLength(a=a, a_error=a_err, effective_range=re, effective_range_error=re_err,
+                            equation=ch.eq.name, potential=settings.get("potential_name", ""),
+                            method=f"zero-energy solution, u = C (r - a) beyond the range; {how}",
+                            success=status == "ok", status=status, message=msg,
+                            settings={**settings, "tol": tol, "matching_radius_bohr": R1},
+                            constants=constants_record())
+
+
+def _effective_range_from_phases(ch: Channel, a: float) -> tuple[float | None, float | None]:
+    """r_e from g(k) = 2 (k cot delta_0 + 1/a) / k^2 = r_e + O(k^2) at k, 2k, 4k (Richardson).
+
+    Used for Klein-Gordon and Dirac, where Bethe's integral does not apply as written. The
+    three values give the extrapolation without the k^2 and k^4 terms; the error estimate is
+    its difference from the one without the k^2 term only.
+    """
+    if a == 0.0:
+        return None, None
+    scale = max(abs(a), ch.length)
+    r_e, err = _extrapolated_range(ch, a, _K_EFFECTIVE / scale)
+    if abs(r_e) > 1.5 * scale:       # the expansion runs in k r_e: start again on that scale
+        r_e, err = _extrapolated_range(ch, a, _K_EFFECTIVE / abs(r_e))
+    return r_e, err
+
+
+def _extrapolated_range(ch: Channel, a: float, k0: float) -> tuple[float, float]:
+    eq = ch.eq
+    k = k0 * np.array([1.0, 2.0, 4.0])
+    mc = eq.mass * C_AU
+    if eq.name == "schrodinger":
+        E = k * k / (2 * eq.mass)
+    else:    # k^2 c^2 = E (E + 2mc^2), solved without cancellation
+        E = k * k / (eq.mass * (1 + np.sqrt(1 + (k / mc) ** 2)))
+    dtol = 1e-12
+    delta = np.array([m.delta for m in _phases_at(ch, E, dtol, False)[0]])
+    g = 2 * (k / np.tan(delta) + 1 / a) / k**2
+    r2 = (4 * g[0] - g[1]) / 3                          # removes the k^2 term
+    r3 = (64 * g[0] - 20 * g[1] + g[2]) / 45            # removes the k^2 and k^4 terms
+    noise = 2 * dtol / (k[0] * math.sin(delta[0]) ** 2) * (64 + 20 + 1) / 45   # from a phase error dtol
+    return float(r3), float(abs(r3 - r2) + noise)
+
+
+def _length_pair(ch: Channel, raw) -> tuple[float, float | None]:
+    """(a, r_e) from the zero-energy solution at one radius."""
+    R = raw.R
+    a = R - raw.u / raw.du
+    if raw.integral is None or a == 0.0:
+        return a, None
+    du_true = R**ch.gamma * raw.du * math.exp(raw.log_scale)   # u'(R) on the scale of the integral of u^2
+    re = 2 * (R - R * R / a + R**3 / (3 * a * a) - raw.integral / (a * a * du_true**2))
+    return a, re
+
+
+# --- Levinson ----------------------------------------------------------------------------------
+def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | None = None, *,
+             l: int | None = None, particle: str | None = None, mass_mev: float | None = None,
+             nucleus_mass_mev: float | None = None, units: str = "atomic", n_bound: int | None = None,
+             count_bound: bool = False, points: int = 24, tol: float = 1e-6) -> LevinsonCheck:
+    """Check Levinson's theorem, delta_l(0) - delta_l(inf) = n pi, on one channel.
+
+    Parameters
+    ----------
+    equation : str
+        ``'schrodinger'`` only (see Notes).
+    potential, params, l, particle, mass_mev, nucleus_mass_mev, units
+        As in :func:`boundkit.solve`; the potential must be short-range.
+    n_bound : int, optional
+        Number of bound levels of the channel to compare with (e.g. exact).
+    count_bound : bool
+        Count the bound levels with :func:`boundkit.solve` instead.
+    points : int
+        Energies on the logarithmic grid (refined where delta moves fast).
+    tol : float
+        Accuracy of each phase shift, radians.
+
+    Returns
+    -------
+    LevinsonCheck
+
+    Notes
+    -----
+    The phase shift is taken on its absolute branch (node count, see
+    :mod:`boundkit.scattering.radial`) on a grid from k R ~ 1e-3 up to an
+    energy where the first-order bound 2 m integral |V| min(k r^2, 1/k) dr
+    falls below 1 rad, so n = delta(E_min)/pi. Independently, delta mod pi
+    is followed continuously down from the highest energy, anchored at the
+    branch nearest 0 there (delta -> 0 as E -> infinity); both counts and
+    the bound-level count must agree. An s wave with a state at threshold
+    gives delta(0) = (n + 1/2) pi (status ``threshold-state``). In the Klein-
+    Gordon and Dirac equations delta does not tend to 0 at high energy (it
+    tends to -integral V dr / c for a vector potential), so the theorem
+    takes another form; they are refused here.
+    """
+    if str(equation).lower() not in ("schrodinger", "schroedinger"):
+        raise ValueError("equation: Levinson's theorem in the form delta(0) - delta(inf) = n pi is checked for "
+                         "the Schrodinger equation only; relativistic phases do not vanish at high energy")
+    points = check_int("points", points, minimum=4)
+    tol = check_positive("tol", tol)
+    if n_bound is not None:
+        n_bound = check_int("n_bound", n_bound, minimum=0)
+    t0 = time.perf_counter()
+    ch, settings = _channel(equation, potential, params, l, None, particle, mass_mev, nucleus_mass_mev, None,
+                            units, None, None)
+    if ch.tail_charge:
+        raise ValueError(f"potential: Levinson's theorem needs a short-range potential; this one has a Coulomb tail "
+                         f"(charge {ch.tail_charge:g}) and infinitely many bound levels")
+    eq = ch.eq
+    R0, _ = matching_radius(ch, 0.0, tol)
+    k_lo = 1e-3 / max(R0, ch.length)
+    k_hi = _born_small(ch, _BORN_TOP)
+    k = np.geomspace(k_lo, max(k_hi, 10 * k_lo), points)
+    E = k * k / (2 * eq.mass)
+    rows = dict(zip(E, zip(*_phases_at(ch, E, tol, False))))
+    for _ in range(6):     # refine where delta moves by more than 0.5 rad between neighbours
+        Es = np.array(sorted(rows))
+        d = np.array([rows[e][0].delta for e in Es])
+        jumps = np.nonzero(np.abs(np.diff(d)) > 0.5)[0]
+        if not jumps.size:
+            break
+        extra = np.sqrt(Es[jumps] * Es[jumps + 1])
+        rows.update(zip(extra, zip(*_phases_at(ch, extra, tol, False))))
+    Es = np.array(sorted(rows))
+    res = _assemble(ch, Es, *(list(col) for col in zip(*(rows[e] for e in Es))), tol, False, settings, t0)
+    unwrapped, max_step = _unwrap_from_top(res.delta)
+    d_lo, d_hi = float(res.delta[0]), float(res.delta[-1])
+    count = round(d_lo / math.pi)
+    residual = abs(d_lo / math.pi - count)
+    count_unw = round(unwrapped[0] / math.pi)
+    if count_bound:
+        from ..solver import solve
+
+        found = solve("schrodinger", ch.pot, l=eq.l, levels=count + 1, particle=particle, mass_mev=mass_mev,
+                      nucleus_mass_mev=nucleus_mass_mev)
+        n_bound = len(found.levels)
+    agrees = None if n_bound is None else (count == count_unw == n_bound)
+    if residual > 0.25:
+        status, msg = "threshold-state", (f"delta(E_min)/pi = {d_lo / math.pi:.4f} is far from an integer: a "
+                                          "level at threshold (zero-energy resonance) or E_min too high")
+    elif count != count_unw or max_step > 1.0:
+        status, msg = "grid-too-coarse", (f"the absolute phase gives {count} but following delta along the grid "
+                                          f"gives {count_unw} (largest step {max_step:.2g} rad)")
+    elif agrees is False:
+        status, msg = "disagrees", f"delta(0) - delta(inf) = {count} pi but the channel has {n_bound} bound level(s)"
+    else:
+        status, msg = "ok", (f"delta(0) - delta(inf) = {count} pi" +
+                             ("" if n_bound is None else f", {n_bound} bound level(s)") +
+                             f"; delta at the highest energy {d_hi:.3g} rad")
+    return LevinsonCheck(count_from_phase=count, count_unwrapped=count_unw, n_bound=n_bound, agrees=agrees,
+                         residual=residual, delta_low=d_lo, delta_high=d_hi, max_step=max_step, phases=res,
+                         success=status == "ok", status=status, message=msg)
+
+
+def _born_small(ch: Channel, bound: float) -> float:
+    """k (1/bohr) above which 2 m integral |V| min(k r^2, 1/k) dr < ``bound`` (first-order |delta| bound)."""
+    r, v = ch.r_grid, ch.v_grid
+    dlnr = math.log(r[1] / r[0])
+    ks = np.geomspace(0.01 / ch.length, 1e4 / ch.length, 241)
+    B = np.array([np.sum(0.5 * (f[1:] + f[:-1])) * dlnr for f in (v * np.minimum(k * r**2, 1 / k) * r for k in ks)])
+    peak = int(np.argmax(B))
+    # the bound is small at low k too (where it says nothing about bound states): take the high side
+    # of its peak, where it falls below ``bound`` (or below half the peak for a weak potential)
+    below = np.nonzero(B[peak:] < min(bound, 0.5 * B[peak]))[0]
+    return float(ks[peak + below[0]]) if below.size else float(ks[-1])
+
+
+# --- states ------------------------------------------------------------------------------------
+def continuum_state(energy: float, equation: str = "schrodinger", potential="coulomb",
+                    params: dict | None = None, *, l: int | None = None, kappa: int | None = None,
+                    particle: str | None = None, mass_mev: float | None = None,
+                    nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
+                    j: float | None = None, hard_core: float | None = None, r=None,
+                    normalisation: str = "unit-amplitude", energy_unit: str = "hartree",
+                    tol: float = 1e-8) -> ContinuumState:
+    """The regular solution at one energy above threshold, normalised.
+
+    Parameters
+    ----------
+    energy : float
+        Kinetic energy E > 0 in ``energy_unit``.
+    r : array, optional
+        Radii (bohr) to return it at; default 1001 points up to 1.25 times the
+        matching radius.
+    normalisation : {'unit-amplitude', 'energy'}
+        Unit amplitude: P ~ sin(k r - eta ln 2kr - l pi/2 + theta + delta).
+        Energy: integral P_E P_E' (x charge weight) dr = delta(E - E').
+    Other parameters as in :func:`phase_shifts`.
+
+    Notes
+    -----
+    Energy normalisation multiplies the unit-amplitude solution by
+    sqrt(2 / (pi w dE/dk)), w the asymptotic weight of P^2 in the density:
+    sqrt(2 m / (pi k)) for Schrodinger and Klein-Gordon, and
+    sqrt((E + 2 m c^2) / (pi k c^2)) for Dirac (P^2 + Q^2, Q/P amplitude
+    ratio sqrt(E / (E + 2 m c^2))).
+    """
+    if normalisation not in ("unit-amplitude", "energy"):
+        raise ValueError(f"normalisation: unknown value {normalisation!r}; choose unit-amplitude or energy")
+    tol = check_positive("tol", tol)
+    E = float(_energies(energy, energy_unit)[0])
+    if r is not None:
+        r = np.atleast_1d(np.asarray(r, dtype=float))
+        if r.size == 0 or not np.all(np.isfinite(r)) or np.any(r <= 0):
+            raise ValueError("r: give positive, finite radii in bohr")
+    ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
+                     hard_core)
+    eq = ch.eq
+    R1, _ = matching_radius(ch, E, tol)
+    k = float(wave_number(eq.name, E, eq.mass))
+    r0 = _start(ch, k)
+    if r is None:
+        r = np.linspace(0.0, _SECOND_RADIUS * R1, 1002)[1:]
+    raws, evaluate = integrate(ch, E, [R1, max(float(r.max()), R1)], _rtol(tol), dense=True)
+    m = match(ch, E, raws[0], integrate(ch.reference, E, [R1], _rtol(tol))[0][0] if ch.reference else None)
+    scale = m.amplitude * R1**ch.gamma * math.exp(raws[0].log_scale)
+    inside = r >= r0
+    u, w = np.zeros_like(r), np.zeros_like(r)
+    u[inside], w[inside] = evaluate(r[inside])
+    if not ch.hard_core and np.any(~inside):          # below the start: the Frobenius leading term
+        u0, w0 = evaluate(np.array([r0]))
+        u[~inside] = u0[0] * (r[~inside] / r0) ** ch.gamma
+        w[~inside] = w0[0] * (r[~inside] / r0) ** (ch.gamma - 1)
+    P, Q = u / scale, (w / C_AU / scale if eq.name == "dirac" else None)
+    if normalisation == "energy":
+        if eq.name == "dirac":
+            f = math.sqrt((E + 2 * eq.mass * C_AU**2) / (math.pi * k * C_AU**2))
+        else:
+            f = math.sqrt(2 * eq.mass / (math.pi * k))
+        P = P * f
+        Q = None if Q is None else Q * f
+    return ContinuumState(energy=E, wave_number=k, delta=m.delta, r=r, P=P, Q=Q, normalisation=normalisation,
+                          equation=eq.name, channel=eq.channel())

@@ -1,0 +1,354 @@
+"""Outward integration of one channel above threshold, and matching to the tail.
+
+The factorized form of :mod:`boundkit.equations.base`, written as a first-order
+system with w = p (u' + kappa u / r):
+
+    u' = -kappa u / r + w / p,        w' = kappa w / r + (q - E) u.
+
+With t = ln r, u = r^gamma U and w = r^(gamma - 1) W it reads
+
+    dU/dt = -(kappa + gamma) U + W / p,
+    dW/dt = (kappa - gamma + 1) W + r^2 (q - E) U,
+
+started at r_0 = 1e-7 x (the smallest length of the problem) from the
+Frobenius leading term U = 1, W = p (gamma + kappa); the irregular solution,
+r^-gamma, dies out relative to the regular one on the way out, so the start
+error fades. A hard core of radius a starts instead at r = a with u = 0,
+u' > 0. The system is integrated by scipy's DOP853 piece by piece between the
+potential's breakpoints (jumps of V or of p), so no step straddles a jump.
+
+Matching: at a radius R beyond the range of the short-range part
+V_sr = V + S + Z_t/r, u = alpha F^ + beta G^ with the tail solutions of
+:mod:`.reference`, so u ~ C sin(Theta + theta + delta), tan delta = beta/alpha.
+
+Branch: the Pruefer angle phi(r) = atan2(k u, u') starts in
+(0, pi/2) at the origin (u'/u = gamma/r) and passes each multiple of pi
+upwards exactly at a node of u, so phi(R) = pi (nodes of u in (0, R)) +
+[atan2(k u, u') mod pi]. The same holds for the free regular solution. The
+absolute phase shift is the delta with phi_u(R) = phi of cos(delta) F^ +
+sin(delta) G^ continued from delta = 0, where it equals phi_F(R); that angle
+grows monotonically with delta by pi per period. delta is then continuous in
+E and tends to 0 at high energy for a Schrodinger short-range potential. With
+a Coulomb tail the node count of F comes from integrating the pure point-Coulomb
+equation the same way (the closed-form F fixes the angle mod pi).
+"""
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass
+
+import mpmath
+import numpy as np
+from scipy.integrate import solve_ivp
+
+from ..equations import RadialEquation, Sample
+from ..potentials import Potential
+from ..units import C_AU
+from .reference import Reference, free_zero_count, reference_at, wave_number
+
+log = logging.getLogger(__name__)
+
+__all__ = ["Channel", "prepare", "matching_radius", "integrate", "Match", "match"]
+
+_START = 1e-7      # inner start in units of the smallest length of the problem
+_RANGE_GRID = 4000
+_RTOL_FLOOR = 3e-14   # DOP853 refuses rtol below 100 x machine epsilon
+_CHUNK = 2.0          # rescaling interval in ln r
+_FAR = 1e4            # the matching radius is sought up to this many natural lengths (or breakpoints)
+
+
+@dataclass(frozen=True)
+class Channel:
+    """One channel prepared for continuum integration (atomic units)."""
+
+    eq: RadialEquation
+    pot: Potential
+    gamma: float
+    kappa: int
+    tail_charge: float
+    hard_core: float | None
+    breakpoints: tuple[float, ...]
+    length: float
+    r_grid: np.ndarray          # radii of the range profile
+    v_grid: np.ndarray          # 2 m |V_sr| there (1/bohr^2)
+    reference: "Channel | None" = None   # the pure Coulomb tail as a channel (its node count fixes the branch)
+
+    def sample(self, r) -> Sample:
+        r = np.atleast_1d(np.asarray(r, dtype=float))
+        W = self.pot.spin_orbit(r)
+        return Sample(r, np.asarray(self.pot.V(r), dtype=float), np.asarray(self.pot.S(r), dtype=float),
+                      None if W is None else np.asarray(W, dtype=float))
+
+
+def _natural_length(mass: float, pot: Potential, hard_core: float | None) -> float:
+    """First r with 2 m r^2 |V + S| >= 1, else where that strength peaks, else the hard core or 1."""
+    r = np.logspace(-12, 7, 1901)
+    with np.errstate(all="ignore"):
+        v = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float)
+    strength = 2 * mass * r**2 * np.abs(np.nan_to_num(v))
+    big = strength >= 1.0
+    if np.any(big):
+        return float(r[np.argmax(big)])
+    if np.max(strength) > 1e-12:
+        return float(r[np.argmax(strength)])
+    return float(hard_core) if hard_core else 1.0
+
+
+def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
+            with_reference: bool = True) -> Channel:
+    """Check a channel for continuum work and build its range profile.
+
+    Raises
+    ------
+    ValueError
+        Confining potential, a scalar Coulomb tail in a relativistic
+        equation, a point charge too strong for the equation, a bad hard core.
+    """
+    if pot.confining:
+        raise ValueError("potential: it grows without bound far out (confining), so there is no continuum; "
+                         "use a potential that tends to 0 or to a Coulomb tail")
+    zt = pot.tail_charge
+    if eq.name != "schrodinger":
+        if any(t.tail_charge != 0.0 for t in pot.scalar):
+            raise ValueError("potential: a scalar term with a Coulomb tail has no continuum reference here; "
+                             "give Coulomb tails as vector terms")
+    if hard_core is not None:        # checked positive by the caller
+        if eq.name != "schrodinger":
+            eq._refuse_nonrelativistic_terms(pot)
+        gamma = float(eq.l + 1)
+    else:
+        gamma = float(eq.gamma(pot))
+    L = _natural_length(eq.mass, pot, hard_core)
+    bps = tuple(b for b in pot.breakpoints if b > 0 and (hard_core is None or b > hard_core))
+    far = max([L, *bps, hard_core or 0.0])
+    r = np.logspace(math.log10(min(L, far) * 1e-3), math.log10(far * _FAR), _RANGE_GRID)
+    with np.errstate(all="ignore"):
+        vsr = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) + zt / r
+    v = 2 * eq.mass * np.abs(np.nan_to_num(vsr, nan=np.inf))
+    reference = None
+    if zt != 0.0 and with_reference:
+        from ..potentials.builtin import Coulomb
+
+        try:
+            reference = prepare(eq, Potential((Coulomb(Z=zt),)), None, with_reference=False)
+        except ValueError as exc:
+            raise ValueError(f"potential: its Coulomb tail (charge {zt:g}) has no regular point-Coulomb "
+                             f"reference in this channel ({exc})") from None
+    return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference)
+
+
+def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
+    """(R, reached): a radius beyond which the short-range part changes delta by < tol/100.
+
+    Notes
+    -----
+    The phase change from V_sr beyond R is bounded (first order) by
+    integral_R^inf 2 m_E |V_sr| min(k r^2, 1/k) dr, with k r^2 -> r^2 at
+    E = 0 (a change of the scattering length) and m_E = m (1 + E/(m c^2)) in
+    the relativistic equations. ``reached`` is False when V_sr never falls
+    that low on the profile (a long-range tail other than Coulomb).
+    """
+    eq = ch.eq
+    k = float(wave_number(eq.name, E, eq.mass)) if E > 0 else 0.0
+    r, v = ch.r_grid, ch.v_grid
+    if eq.name != "schrodinger":
+        v = v * (1 + E / (eq.mass * C_AU**2))
+    weight = np.minimum(k * r**2, 1 / k) if k > 0 else r**2
+    f = v * weight * r                      # integrand in ln r
+    dlnr = math.log(r[1] / r[0])
+    seg = 0.5 * (f[1:] + f[:-1]) * dlnr
+    tail = np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
+    ok = np.nonzero(~(tail < 1e-2 * tol))[0]
+    reached = bool(ok.size == 0 or ok[-1] < len(r) - 2)
+    R = float(r[ok[-1] + 1]) if ok.size and reached else (float(r[-1]) if ok.size else float(r[0]))
+    floor = max([*ch.breakpoints, ch.hard_core or 0.0, 0.0])
+    R = max(R, floor * 1.0001, 1.5 * (ch.hard_core or 0.0), 4 * ch.length)
+    return R, reached
+
+
+def _start(ch: Channel, k: float) -> float:
+    if ch.hard_core:
+        return float(ch.hard_core)
+    scales = [ch.length, *ch.breakpoints[:1]] + ([1.0 / k] if k > 0 else [])
+    return _START * min(scales)
+
+
+@dataclass(frozen=True)
+class Raw:
+    """The solution at one radius: u and du/dr (true scale / exp(log_scale), with the r^gamma factor
+    dropped), nodes in (start, R), p(E) there."""
+
+    R: float
+    u: float
+    du: float
+    nodes: int
+    p: float
+    integral: float | None = None   # integral of u^2 dr from the start (true scale), when asked
+    log_scale: float = 0.0          # u, du are on the true scale divided by exp(log_scale)
+
+
+def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral: bool = False):
+    """Integrate outward at one energy or a batch of energies sharing the steps.
+
+    Parameters
+    ----------
+    E : float or array
+        Energies (hartree, >= 0).
+    radii : sequence of float, or one sequence per energy
+        Radii (bohr) where the solution is recorded.
+    integral : bool
+        Also accumulate the integral of u^2 dr (true scale).
+
+    Returns
+    -------
+    (raws, evaluate)
+        ``raws[i]`` lists a :class:`Raw` per radius of energy i (ascending;
+        a plain list for a scalar E). With ``dense``, ``evaluate(r)`` gives
+        (u, w) on the true scale of the start values, columns per energy.
+    """
+    scalar = np.ndim(E) == 0
+    Es = np.atleast_1d(np.asarray(E, dtype=float))
+    n = Es.size
+    if scalar or np.ndim(radii[0]) == 0:
+        radii = [list(radii)] * n
+    wanted = [sorted(float(x) for x in rr) for rr in radii]
+    eq, kap, gam = ch.eq, ch.kappa, ch.gamma
+    k_max = float(np.max(wave_number(eq.name, Es, eq.mass)))
+    r0 = _start(ch, k_max)
+    rmax = max(rr[-1] for rr in wanted)
+    edges = {r0, *[b for b in ch.breakpoints if r0 < b < rmax], *[x for rr in wanted for x in rr]}
+    # extra edges every factor e^2 in r: the state is rescaled to norm 1 at each edge, so the
+    # absolute tolerance stays far below it however strongly u grows or decays
+    edges |= {math.exp(t) for t in np.arange(math.log(r0) + _CHUNK, math.log(rmax), _CHUNK)}
+    edges = sorted(edges)
+    if ch.hard_core:
+        U, Wt = np.zeros(n), np.ones(n)
+    else:
+        U, Wt = np.ones(n), np.broadcast_to(eq.p(Es, ch.sample(r0)), (n,)) * (gam + kap)
+    y = np.concatenate((U, Wt, np.zeros(n))) if integral else np.concatenate((U, Wt))
+
+    def rhs(t, yy):
+        r = math.exp(t)
+        smp = ch.sample(r)
+        p = eq.p(Es, smp)
+        qE = eq.q(Es, smp) - Es
+        u, w = yy[:n], yy[n:2 * n]
+        du = -(kap + gam) * u + w / p
+        dw = (kap - gam + 1) * w + r * r * qE * u
+        if integral:
+            return np.concatenate((du, dw, r ** (2 * gam + 1) * u * u))
+        return np.concatenate((du, dw))
+
+    rtol = max(float(rtol), _RTOL_FLOOR)
+    out = [[] for _ in range(n)]
+    pieces = []
+    nodes, last = np.zeros(n, dtype=int), np.zeros(n)
+    log_scale, integ = np.zeros(n), np.zeros(n)
+    for a, b in zip(edges[:-1], edges[1:]):
+        sol = solve_ivp(rhs, (math.log(a), math.log(b)), y, method="DOP853", rtol=rtol, atol=1e-30,
+                        dense_output=dense)
+        if not sol.success:
+            raise RuntimeError(f"integration failed between r = {a:.4g} and {b:.4g} bohr: {sol.message}")
+        for i in range(n):
+            sg = np.sign(sol.y[i])
+            sg = sg[sg != 0]
+            if sg.size:
+                nodes[i] += int(np.count_nonzero(sg[1:] != sg[:-1])) + int(last[i] != 0 and sg[0] != last[i])
+                last[i] = sg[-1]
+        y = sol.y[:, -1].copy()
+        if dense:
+            pieces.append((a, b, sol.sol, log_scale.copy()))
+        if integral:
+            integ += y[2 * n:] * np.exp(2 * log_scale)
+            y[2 * n:] = 0.0
+        p_b = np.broadcast_to(eq.p(Es, ch.sample(b)), (n,))
+        for i in range(n):
+            if b in wanted[i]:
+                du = (y[n + i] / p_b[i] - kap * y[i]) / b
+                out[i].append(Raw(b, float(y[i]), float(du), int(nodes[i]), float(p_b[i]),
+                                  float(integ[i]) if integral else None, float(log_scale[i])))
+        norm = np.hypot(y[:n], y[n:2 * n])
+        norm[norm == 0] = 1.0
+        y[:n] /= norm
+        y[n:2 * n] /= norm
+        log_scale += np.log(norm)
+
+    evaluate = None
+    if dense:
+        def _evaluate(r):
+            r = np.asarray(r, dtype=float)
+            Uv = np.full((n, r.size), np.nan)
+            Wv = np.full((n, r.size), np.nan)
+            for a, b, f, ls in pieces:
+                sel = (r >= a) & (r <= b)
+                if np.any(sel):
+                    vals = f(np.log(r[sel]))
+                    Uv[:, sel] = vals[:n] * np.exp(ls)[:, None]
+                    Wv[:, sel] = vals[n:2 * n] * np.exp(ls)[:, None]
+            u, w = r**gam * Uv, r ** (gam - 1) * Wv
+            return (u[0], w[0]) if scalar else (u, w)
+        evaluate = _evaluate
+    return (out[0] if scalar else out), evaluate
+
+
+@dataclass(frozen=True)
+class Match:
+    """Phase shift read at one radius: delta (absolute branch, or in (-pi/2, pi/2] for a Coulomb
+    tail read without its reference solution), the signed amplitude C of
+    u ~ C sin(Theta + theta + delta) on the scale of ``Raw``, the reference and the branch
+    residual (distance of the branch count from an integer; nan when not computed)."""
+
+    delta: float
+    amplitude: float
+    ref: Reference
+    residual: float
+
+
+def _wrap(x: float) -> float:
+    """x into (-pi/2, pi/2]."""
+    x = math.fmod(x, math.pi)
+    if x > math.pi / 2:
+        x -= math.pi
+    elif x <= -math.pi / 2:
+        x += math.pi
+    return x
+
+
+def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
+    """Phase shift from the solution at radius ``raw.R``.
+
+    For a Coulomb tail, ``ref_raw`` (the pure-Coulomb regular solution integrated to the same
+    radius) fixes the integer part of delta; without it delta is left in (-pi/2, pi/2].
+    """
+    ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p)
+    (F0, F1), (G0, G1) = ref.F, ref.G
+    k, pi = ref.k, math.pi
+    if ch.tail_charge != 0.0:       # in mpmath: F and G may be far outside the double range
+        with mpmath.workdps(30):
+            det = F0 * G1 - G0 * F1
+            alpha, beta = (raw.u * G1 - G0 * raw.du) / det, (F0 * raw.du - raw.u * F1) / det
+            delta = _wrap(float(mpmath.atan2(beta, alpha)))
+            amp = alpha / mpmath.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / mpmath.sin(delta)
+            if ref_raw is None:
+                return Match(delta, float(amp), ref, float("nan"))
+            # Pruefer angle of F^ at R: the numerical reference's node count, plus the closed form's
+            # angle (equal mod pi up to rounding; the small difference is added, not wrapped)
+            phi_num = math.atan2(k * ref_raw.u, ref_raw.du) % pi
+            phi_F = float(mpmath.atan2(k * F0, F1)) % pi
+            theta_F = ref_raw.nodes * pi + phi_num + math.remainder(phi_F - phi_num, pi)
+            c, s = mpmath.cos(delta), mpmath.sin(delta)
+            phi_d = float(mpmath.atan2(k * (c * F0 + s * G0), c * F1 + s * G1)) % pi
+    else:
+        alpha, beta = np.linalg.solve([[F0, G0], [F1, G1]], [raw.u, raw.du])
+        delta = _wrap(math.atan2(beta, alpha))
+        amp = alpha / math.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / math.sin(delta)
+        theta_F = free_zero_count(ch.eq.l, k * raw.R) * pi + math.atan2(k * F0, F1) % pi
+        c, s = math.cos(delta), math.sin(delta)
+        phi_d = math.atan2(k * (c * F0 + s * G0), c * F1 + s * G1) % pi
+    theta_u = raw.nodes * pi + math.atan2(k * raw.u, raw.du) % pi
+    phi_0 = theta_F % pi
+    inc = (phi_d - phi_0) % pi if delta >= 0 else -((phi_0 - phi_d) % pi)
+    m = (theta_u - theta_F - inc) / pi
+    mi = round(m)
+    return Match(delta + mi * pi, float(amp), ref, float(abs(m - mi)))
