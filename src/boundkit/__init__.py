@@ -14,6 +14,7 @@ from .results import Level, RadialState, SolveResult
 from . import exact
 from .solver import make_equation, solve, solve_channel
 from .studies import scan, critical, compare
+from .resonances import Resonance, ResonanceResult, resonances
 
 try:
     __version__ = version("boundkit")
@@ -21,4 +22,5 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0+unknown"
 
 __all__ = ["solve", "solve_channel", "make_equation", "make_potential", "Potential", "Level",
-           "RadialState", "SolveResult", "scan", "critical", "compare", "__version__"]
+           "RadialState", "SolveResult", "scan", "critical", "compare", "resonances",
+           "Resonance", "ResonanceResult", "__version__"]

@@ -306,5 +306,7 @@ from . import cli_run  # noqa: E402,F401  (registers `boundkit run`)
 
 from . import cli_studies  # noqa: E402,F401  (registers scan, critical, compare)
 
+from . import cli_resonances  # noqa: E402,F401  (registers resonances)
+
 if __name__ == "__main__":  # pragma: no cover
     main()
