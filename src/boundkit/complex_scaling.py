@@ -135,15 +135,24 @@ def build_mesh(edges, order: int, r0: float, theta: float) -> ScaledMesh:
 
 def element_edges(r0: float, inner: float, h: float, breakpoints=()) -> np.ndarray:
     """Edges of the real segment [0, R0]: sizes doubling from ``inner`` up to ``h``, then even
-    steps of at most ``h``; every breakpoint below R0 is an edge."""
+    steps of at most ``h``; every breakpoint below R0 is an edge, and an ordinary edge closer
+    to a breakpoint than a fifth of the local element size is dropped."""
+    bps = sorted(float(p) for p in breakpoints if 0 < p < r0)
+    if bps:
+        inner = min(inner, bps[0] / 4)
     edges = [0.0]
     r = inner
     while r < min(h, r0):
         edges.append(r)
         r *= 2.0
-    pts = sorted({float(p) for p in breakpoints if edges[-1] < p < r0} | {r0})
-    for p in pts:
-        start = edges[-1]
-        n = max(1, math.ceil((p - start) / h - 1e-9))
-        edges += list(np.linspace(start, p, n + 1)[1:])
-    return np.asarray(edges)
+    start = edges[-1]
+    n = max(1, math.ceil((r0 - start) / h - 1e-9))
+    edges += list(np.linspace(start, r0, n + 1)[1:])
+    edges[-1] = r0
+    grid = np.asarray(edges)
+    for p in bps:
+        k = int(np.searchsorted(grid, p))
+        size = grid[k] - grid[k - 1]
+        grid = grid[(np.abs(grid - p) > 0.2 * size) | (grid == 0.0) | (grid == r0)]
+        grid = np.sort(np.append(grid, p))
+    return grid
