@@ -39,6 +39,12 @@ Method
    result (the stability test, reported).
 4. A complex potential V = V_R + i W gives complex energies E - i Gamma/2
    for all equations; to first order Gamma = -2 <W>.
+5. Bound and quasi-bound levels are labelled by continuity from the real
+   limit: the real levels of V_R are counted from the bottom (the k-th is
+   n = k + l: 1s, 2p1/2, ...), each is followed along V_R + i lam W,
+   lam = 0 -> 1, by inverse iteration, and names the eigenvalue it reaches.
+   Resonances above threshold and supercritical states keep a generic label
+   (``resonance 1``, ``supercritical 1``, in order of energy).
 
 Width sign: above the upper threshold (and for every Schrodinger state)
 Gamma = -2 Im E. A Dirac or Klein-Gordon state that has dived into the lower
@@ -51,7 +57,8 @@ from __future__ import annotations
 import logging
 import math
 import time
-from dataclasses import dataclass, field
+import warnings
+from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Sequence
 
 import numpy as np
@@ -419,6 +426,10 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
             V, S = _sample(pot, mesh, analytic)
             spectra[(th, o)] = sla.eigvals(_operator(eq, mesh, V, S), check_finite=False)
     found, rejected, in_window = _stable(spectra, angles, orders, (emin, emax), tol, eq)
+    if any(r.kind in ("bound", "quasi-bound") for r in found):
+        with threadpool_limits(limits=1, user_api="blas"):
+            found = _label_by_continuity(found, eq, build_mesh(edges, order, plan["r0"], angles[0]), pot,
+                                         analytic, (emin, emax), tol)
     settings.update({"window_hartree": [emin, emax], "angles_rad": list(angles), "orders": list(orders),
                      "tol": tol, "r0_bohr": plan["r0"], "r_max_bohr": plan["r_max"], "elements": len(edges) - 1,
                      "element_size_bohr": plan["h"], "scaling": "uniform" if plan["r0"] == 0 else "exterior",
@@ -444,6 +455,61 @@ def _pair(window) -> tuple:
     except (TypeError, ValueError):
         raise ValueError(f"window: expected (lower, upper) in hartree, got {window!r}") from None
     return a, b
+
+
+def _label_by_continuity(found, eq, mesh, pot, analytic, window, tol):
+    """Name bound and quasi-bound levels after the real-limit level they continue.
+
+    The levels of Re V (and Re S) below threshold are counted from the bottom of the spectrum
+    (the k-th one is n = k + l: 1s, 2p1/2, ...); each is then followed to the full complex
+    potential V_R + i lam W, lam = 0 -> 1 in 8 steps, by Rayleigh-quotient inverse iteration, and
+    gives its label to the stable eigenvalue it arrives at. A level whose path does not arrive
+    keeps its generic label.
+    """
+    V, S = _sample(pot, mesh, analytic)
+    ext = mesh.exterior
+    # the physical imaginary part lives on the real segment (R0 lies beyond it); on the rotated
+    # segment the tail is complex only through z and stays as it is
+    WV = np.where(ext, 0.0, V.imag)
+    WS = np.where(ext, 0.0, S.imag)
+    V, S = V - 1j * WV, S - 1j * WS
+    mc2 = eq.mass * C_AU**2
+    lower = -2 * mc2 if eq.name != "schrodinger" else -np.inf
+    E0 = sla.eigvals(_operator(eq, mesh, V, S), check_finite=False)
+    scale = max(abs(window[0]), abs(window[1]))
+    real = np.sort(E0[(np.abs(E0.imag) <= 1e-8 * np.maximum(np.abs(E0), scale)) & (E0.real < 0)
+                      & (E0.real > lower)].real)
+    targets = {i: r for i, r in enumerate(found) if r.kind in ("bound", "quasi-bound")}
+    labels: dict[int, str] = {}
+    for k, e0 in enumerate(real):
+        if e0 > window[1] + 0.5 * (window[1] - window[0]):
+            break
+        e = complex(e0)
+        for lam in np.linspace(0.0, 1.0, 9)[1:] if np.any(WV) or np.any(WS) else ():
+            e = _follow(_operator(eq, mesh, V + 1j * lam * WV, S + 1j * lam * WS), e)
+        for i, r in targets.items():
+            if i not in labels and abs(e - complex(r.energy, -r.width / 2)) <= tol * max(abs(e), scale):
+                labels[i] = eq.label(k + 1 + eq.l)
+    return [replace(r, label=labels[i]) if i in labels else r for i, r in enumerate(found)]
+
+
+def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
+    """Eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
+    n = M.shape[0]
+    x = np.ones(n, dtype=complex) / math.sqrt(n)
+    for it in range(steps):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", sla.LinAlgWarning)   # near-singular is the point here
+            try:
+                y = sla.solve(M - e * np.eye(n), x, check_finite=False)
+            except (sla.LinAlgError, ValueError):
+                break
+        x = y / np.linalg.norm(y)
+        e_new = complex(np.vdot(x, M @ x))
+        if abs(e_new - e) <= 1e-14 * max(1.0, abs(e)) and it > 0:
+            return e_new
+        e = e_new
+    return e
 
 
 def _stable(spectra, angles, orders, window, tol, eq):
