@@ -145,6 +145,26 @@ def test_relativistic_bound_levels_match_the_real_solver():
         assert got == pytest.approx(E, rel=1e-9)
 
 
+@pytest.mark.slow
+def test_point_coulomb_relativistic_levels_closed_forms():
+    # r^gamma at a point charge (gamma not an integer) limits the Lobatto elements to algebraic
+    # convergence: the error estimates must still cover the error. Closed forms: Klein-Gordon
+    # E = mc^2 [(1 + (Z alpha)^2 / (n - l - 1/2 + sqrt((l + 1/2)^2 - (Z alpha)^2))^2)^(-1/2) - 1],
+    # Dirac (Sommerfeld) 1s: mc^2 [sqrt(1 - (Z alpha)^2) - 1] (Greiner, Relativistic Quantum
+    # Mechanics; Bethe and Salpeter 1957)
+    a = 1 / C_AU
+    mc2 = C_AU**2
+    d = 0.5 + math.sqrt(0.25 - a**2)
+    kg_1s = mc2 * (1 / math.sqrt(1 + a**2 / d**2) - 1)
+    dirac_1s = mc2 * (math.sqrt(1 - a**2) - 1)
+    for equation, exact in (("klein-gordon", kg_1s), ("dirac", dirac_1s)):
+        res = boundkit.resonances(equation, "coulomb", {"Z": 1}, window=(-0.6, -0.3))
+        (r,) = res.resonances
+        assert r.label in ("1s", "1s1/2")
+        assert abs(r.energy - exact) < 1e-7
+        assert abs(r.energy - exact) <= 2 * r.energy_error
+
+
 # --- the optical potential ------------------------------------------------------------------
 def test_optical_trho_density_normalisation_and_strength():
     t = OpticalTRho(A=12, c_fm=2.3, a_fm=0.5, b0_re_fm=0.5, b0_im_fm=0.8, mu_mev=450.0)

@@ -477,7 +477,7 @@ def _label_by_continuity(found, eq, mesh, pot, analytic, window, tol):
     lower = -2 * mc2 if eq.name != "schrodinger" else -np.inf
     E0 = sla.eigvals(_operator(eq, mesh, V, S), check_finite=False)
     scale = max(abs(window[0]), abs(window[1]))
-    real = np.sort(E0[(np.abs(E0.imag) <= 1e-8 * np.maximum(np.abs(E0), scale)) & (E0.real < 0)
+    real = np.sort(E0[(np.abs(E0.imag) <= tol * np.maximum(np.abs(E0), scale)) & (E0.real < 0)
                       & (E0.real > lower)].real)
     targets = {i: r for i, r in enumerate(found) if r.kind in ("bound", "quasi-bound")}
     labels: dict[int, str] = {}
