@@ -171,8 +171,8 @@ def test_optical_trho_density_normalisation_and_strength():
     a_b = 0.5 / (boundkit.units.FM_PER_BOHR)
     # V is proportional to rho; its volume integral is -(2 pi hbar^2/mu)(1 + mu/M) b0 A (exact for any shape)
     vol = quad(lambda r: 4 * math.pi * r**2 * t(np.array([r]))[0].real, 0, 60 * a_b, limit=200)[0]
-    hbarc = 197.3269804                                   # MeV fm (CODATA 2018, common practice)
-    M = 938.27208816                                      # proton mass, MeV (CODATA 2018)
+    hbarc = 197.3269804                                   # MeV fm (exact in the 2019 SI, to these digits)
+    M = 938.272089                                        # proton mass, MeV (CODATA 2018/2022 to 9 digits)
     expected = (-2 * math.pi * hbarc**2 / 450.0 * (1 + 450.0 / M) * 0.5 * 12      # MeV fm^3
                 * 1e6 / HARTREE_EV / boundkit.units.FM_PER_BOHR**3)
     assert vol == pytest.approx(expected, rel=1e-6)

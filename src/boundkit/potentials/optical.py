@@ -91,20 +91,21 @@ class OpticalTRho(Term):
     A : float
         Mass number (the density integrates to A nucleons).
     c_fm, a_fm : float
-        Half-density radius and diffuseness of the Fermi density (fm).
+        Half-density radius and diffuseness of the Fermi density (fm); the
+        default a = 0.523 fm is t/(4 ln 3) with the skin thickness t = 2.3 fm
+        of the ``fermi`` term (common practice).
     b0_re_fm, b0_im_fm : float
         Real and imaginary parts of the effective scattering length b0 (fm);
         Im b0 > 0 absorbs.
     mu_mev : float
         Reduced mass of the hadron-nucleus pair (MeV/c^2).
-    nucleon_mev : float
-        Nucleon mass M (MeV/c^2), default the CODATA proton mass.
 
     Notes
     -----
     V(r) = -(2 pi (hbar c)^2 / (mu c^2)) (1 + mu/M) b0 rho(r),
     rho(r) = rho0 / (1 + exp((r - c)/a)), 4 pi int rho r^2 dr = A, so
-    rho0 = A / (8 pi a^3 F_3(c/a)) with the complete Fermi-Dirac integral F_3.
+    rho0 = A / (8 pi a^3 F_3(c/a)) with the complete Fermi-Dirac integral F_3;
+    M is the CODATA proton mass.
     Converted to hartree and bohr with scipy.constants. Form: Batty, Friedman
     and Gal, Phys. Rep. 287, 385 (1997) (from memory); the b0 values are the
     user's (the fitted values depend on the atom and the data set).
@@ -118,13 +119,12 @@ class OpticalTRho(Term):
         Parameter("b0_re_fm", None, "fm", "real part of the effective scattering length b0"),
         Parameter("b0_im_fm", None, "fm", "imaginary part of b0 (> 0 absorbs)"),
         Parameter("mu_mev", None, "MeV", "hadron-nucleus reduced mass"),
-        Parameter("nucleon_mev", _NUCLEON_MEV, "MeV", "nucleon mass"),
     )
     formula = "V = -(2 pi/mu)(1 + mu/M) b0 rho(r), rho Fermi with A nucleons, b0 complex"
     source = "t-rho optical potential (Batty, Friedman & Gal, Phys. Rep. 287, 385 (1997); from memory)"
 
     def _validate(self) -> None:
-        for key in ("A", "c_fm", "a_fm", "mu_mev", "nucleon_mev"):
+        for key in ("A", "c_fm", "a_fm", "mu_mev"):
             if not self.values[key] > 0:
                 raise ValueError(f"params[{key!r}]: the optical-trho term needs {key} > 0, got {self.values[key]:g}")
         v = self.values
@@ -132,7 +132,7 @@ class OpticalTRho(Term):
         rho0 = v["A"] / (8 * math.pi * a**3 * float(fermi_dirac(3, c / a)))       # fm^-3
         b0 = complex(v["b0_re_fm"], v["b0_im_fm"])
         mu = v["mu_mev"]
-        self._depth = -2 * math.pi * _HBARC_MEV_FM**2 / mu * (1 + mu / v["nucleon_mev"]) * b0 * rho0  # MeV
+        self._depth = -2 * math.pi * _HBARC_MEV_FM**2 / mu * (1 + mu / _NUCLEON_MEV) * b0 * rho0  # MeV
         self._c, self._a = c / FM_PER_BOHR, a / FM_PER_BOHR
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
