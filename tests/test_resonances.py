@@ -165,6 +165,18 @@ def test_point_coulomb_relativistic_levels_closed_forms():
         assert abs(r.energy - exact) <= 2 * r.energy_error
 
 
+def test_dived_dirac_1s_keeps_its_label_beyond_diving():
+    # Z = 190 on a uniform sphere (rms 5.8 fm) is far past the 1s1/2 diving charge (167.55 from
+    # boundkit.critical): the 1s1/2 is a resonance in the lower continuum, the 2s1/2 still bound
+    mc2 = C_AU**2
+    res = boundkit.resonances("dirac", "uniform-sphere", {"Z": 190, "rms_fm": 5.8}, kappa=-1,
+                              window=(-2 * mc2 - 60000, -2 * mc2 + 20000))
+    assert [(r.label, r.kind) for r in res.resonances] == [("1s1/2", "supercritical"), ("2s1/2", "bound")]
+    dived = res.resonances[0]
+    assert dived.energy < -2 * mc2 and dived.width > 0
+    assert dived.complex_energy.imag == pytest.approx(dived.width / 2)   # E + i Gamma/2 (positron emission)
+
+
 # --- the optical potential ------------------------------------------------------------------
 def test_optical_trho_density_normalisation_and_strength():
     t = OpticalTRho(A=12, c_fm=2.3, a_fm=0.5, b0_re_fm=0.5, b0_im_fm=0.8, mu_mev=450.0)
@@ -222,7 +234,7 @@ def test_supercritical_1s_width_grows_from_zero_beyond_diving():
         res = boundkit.resonances("dirac", "uniform-sphere", {"Z": Z, "rms_fm": rms}, kappa=-1,
                                   window=(-2 * mc2 - 30000, -2 * mc2 + 3000), order=10)
         sc = [r for r in res.resonances if r.kind == "supercritical"]
-        assert len(sc) == 1, res
+        assert len(sc) == 1 and sc[0].label == "1s1/2", res
         rows.append((Z, -(sc[0].energy + 2 * mc2), sc[0].width))
     depth = np.array([d for _, d, _ in rows])
     width = np.array([g for _, _, g in rows])

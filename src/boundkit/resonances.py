@@ -39,18 +39,20 @@ Method
    result (the stability test, reported).
 4. A complex potential V = V_R + i W gives complex energies E - i Gamma/2
    for all equations; to first order Gamma = -2 <W>.
-5. Bound and quasi-bound levels are labelled by continuity from the real
-   limit: the real levels of V_R are counted from the bottom (the k-th is
-   n = k + l: 1s, 2p1/2, ...), each is followed along V_R + i lam W,
-   lam = 0 -> 1, by inverse iteration, and names the eigenvalue it reaches.
-   Resonances above threshold and supercritical states keep a generic label
-   (``resonance 1``, ``supercritical 1``, in order of energy).
+5. Bound, quasi-bound and dived levels are labelled by continuity from the
+   real limit: the levels of V_R (real ones below threshold and, for Dirac
+   and Klein-Gordon, dived ones below -2 m c^2 that are stable in theta and
+   order) are counted from the bottom (the k-th is n = k + l: 1s, 2p1/2,
+   ...), each is followed along V_R + i lam W, lam = 0 -> 1, by inverse
+   iteration, and names the eigenvalue it reaches. Resonances above
+   threshold keep a generic label (``resonance 1``, ... in order of energy).
 
 Width sign: above the upper threshold (and for every Schrodinger state)
-Gamma = -2 Im E. A Dirac or Klein-Gordon state that has dived into the lower
-continuum (binding energy below -2 m c^2) decays by positron emission; complex
-scaling turns that continuum into the upper half plane and the resonance
-appears at E_R + i Gamma/2, so Gamma = +2 Im E there.
+Gamma = -2 Im E. A Dirac state that has dived into the lower continuum
+(binding energy below -2 m c^2) decays by positron emission; complex scaling
+turns that continuum into the upper half plane and the resonance appears at
+E_R + i Gamma/2, so Gamma = +2 Im E there (Gamma = 2 |Im E| is reported for
+every state below -2 m c^2; for Klein-Gordon these are not validated).
 """
 from __future__ import annotations
 
@@ -103,9 +105,9 @@ class Resonance:
 
     @property
     def complex_energy(self) -> complex:
-        """E - i Gamma/2 in hartree (E + i Gamma/2 for a supercritical state)."""
-        sign = 1.0 if self.kind == "supercritical" else -1.0
-        return complex(self.energy, sign * self.width / 2)
+        """The eigenvalue itself, hartree: E - i Gamma/2 (E + i Gamma/2 for a Dirac supercritical
+        state), from the reference run of the stability test."""
+        return self.runs[0][2]
 
     def energy_in(self, unit: str) -> float:
         return float(hartree_to(self.energy, unit))
@@ -426,10 +428,10 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
             V, S = _sample(pot, mesh, analytic)
             spectra[(th, o)] = sla.eigvals(_operator(eq, mesh, V, S), check_finite=False)
     found, rejected, in_window = _stable(spectra, angles, orders, (emin, emax), tol, eq)
-    if any(r.kind in ("bound", "quasi-bound") for r in found):
+    if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
         with threadpool_limits(limits=1, user_api="blas"):
-            found = _label_by_continuity(found, eq, build_mesh(edges, order, plan["r0"], angles[0]), pot,
-                                         analytic, (emin, emax), tol)
+            found = _label_by_continuity(found, eq, edges, plan["r0"], angles, order, pot, analytic,
+                                         (emin, emax), tol, spectra)
     settings.update({"window_hartree": [emin, emax], "angles_rad": list(angles), "orders": list(orders),
                      "tol": tol, "r0_bohr": plan["r0"], "r_max_bohr": plan["r_max"], "elements": len(edges) - 1,
                      "element_size_bohr": plan["h"], "scaling": "uniform" if plan["r0"] == 0 else "exterior",
@@ -437,6 +439,10 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                      "unknowns": size})
     diagnostics = {"in_window": in_window, "stable": len(found), "rejected_as_continuum": rejected,
                    "seconds": round(time.perf_counter() - t0, 3)}
+    if eq.name == "klein-gordon" and any(r.kind == "supercritical" for r in found):
+        log.warning("Klein-Gordon eigenvalues below -2 m c^2 are reported but not validated")
+        diagnostics["note"] = ("Klein-Gordon states below -2 m c^2 (boson pair states) are not validated; "
+                               "width = 2 |Im E| there")
     if found:
         status, message = "ok", (f"{len(found)} eigenvalue(s) stable to {tol:g} over theta = "
                                  f"{', '.join(f'{a:g}' for a in angles)} rad and orders {orders[0]}, {orders[1]}")
@@ -457,40 +463,62 @@ def _pair(window) -> tuple:
     return a, b
 
 
-def _label_by_continuity(found, eq, mesh, pot, analytic, window, tol):
-    """Name bound and quasi-bound levels after the real-limit level they continue.
+def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, window, tol, spectra):
+    """Name bound, quasi-bound and dived levels after the real-limit level they continue.
 
-    The levels of Re V (and Re S) below threshold are counted from the bottom of the spectrum
-    (the k-th one is n = k + l: 1s, 2p1/2, ...); each is then followed to the full complex
-    potential V_R + i lam W, lam = 0 -> 1 in 8 steps, by Rayleigh-quotient inverse iteration, and
-    gives its label to the stable eigenvalue it arrives at. A level whose path does not arrive
-    keeps its generic label.
+    The real limit keeps Re V (and Re S) on the real segment. Its levels are the eigenvalues that
+    do not move between the first two angles: real ones below threshold and, for the relativistic
+    equations, dived ones below -2 m c^2 (complex, deepest of all). Counted from the bottom, the
+    k-th is n = k + l (1s, 2p1/2, ...). Each is followed to the full potential V_R + i lam W,
+    lam = 0 -> 1 in 8 steps, by Rayleigh-quotient inverse iteration, and names the stable
+    eigenvalue it arrives at. A level whose path arrives nowhere keeps its generic label; a level
+    the mesh cannot resolve (far below the window) is missed by the count, which shifts n.
     """
-    V, S = _sample(pot, mesh, analytic)
-    ext = mesh.exterior
+    meshes = [build_mesh(edges, order, r0, th) for th in angles[:2]]
+    V, S = _sample(pot, meshes[0], analytic)
+    ext = meshes[0].exterior
     # the physical imaginary part lives on the real segment (R0 lies beyond it); on the rotated
     # segment the tail is complex only through z and stays as it is
     WV = np.where(ext, 0.0, V.imag)
     WS = np.where(ext, 0.0, S.imag)
-    V, S = V - 1j * WV, S - 1j * WS
+    absorbing = bool(np.any(WV) or np.any(WS))
+    V, S = _real_limit(V, S, ext)
+    if absorbing:
+        E1 = sla.eigvals(_operator(eq, meshes[0], V, S), check_finite=False)
+        E2, E3 = (sla.eigvals(_operator(eq, m, *_real_limit(*_sample(pot, m, analytic), m.exterior)),
+                              check_finite=False)
+                  for m in (meshes[1], build_mesh(edges, order - 4, r0, angles[0])))
+    else:
+        E1, E2, E3 = spectra[(angles[0], order)], spectra[(angles[1], order)], spectra[(angles[0], order - 4)]
+    scale = max(abs(window[0]), abs(window[1]))
     mc2 = eq.mass * C_AU**2
     lower = -2 * mc2 if eq.name != "schrodinger" else -np.inf
-    E0 = sla.eigvals(_operator(eq, mesh, V, S), check_finite=False)
-    scale = max(abs(window[0]), abs(window[1]))
-    real = np.sort(E0[(np.abs(E0.imag) <= tol * np.maximum(np.abs(E0), scale)) & (E0.real < 0)
-                      & (E0.real > lower)].real)
-    targets = {i: r for i, r in enumerate(found) if r.kind in ("bound", "quasi-bound")}
+    thr = tol * np.maximum(np.abs(E1), scale)
+    steady = np.array([np.min(np.abs(E2 - e)) for e in E1]) <= thr
+    bound = steady & (E1.real < 0) & (E1.real > lower) & (np.abs(E1.imag) <= thr)
+    # dived levels must also survive the change of order: states of very large kinetic energy
+    # held in the small unscaled elements near the origin do not move with theta either
+    dived = steady & (E1.real < lower)
+    dived[dived] = np.array([np.min(np.abs(E3 - e)) for e in E1[dived]]) <= thr[dived]
+    levels = E1[bound | dived]
+    levels = levels[np.argsort(levels.real)]
+    targets = {i: r for i, r in enumerate(found) if r.kind in ("bound", "quasi-bound", "supercritical")}
     labels: dict[int, str] = {}
-    for k, e0 in enumerate(real):
-        if e0 > window[1] + 0.5 * (window[1] - window[0]):
+    for k, e0 in enumerate(levels):
+        if e0.real > window[1] + 0.5 * (window[1] - window[0]):
             break
         e = complex(e0)
-        for lam in np.linspace(0.0, 1.0, 9)[1:] if np.any(WV) or np.any(WS) else ():
-            e = _follow(_operator(eq, mesh, V + 1j * lam * WV, S + 1j * lam * WS), e)
+        for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
+            e = _follow(_operator(eq, meshes[0], V + 1j * lam * WV, S + 1j * lam * WS), e)
         for i, r in targets.items():
-            if i not in labels and abs(e - complex(r.energy, -r.width / 2)) <= tol * max(abs(e), scale):
+            if i not in labels and abs(e - r.complex_energy) <= tol * max(abs(e), scale):
                 labels[i] = eq.label(k + 1 + eq.l)
     return [replace(r, label=labels[i]) if i in labels else r for i, r in enumerate(found)]
+
+
+def _real_limit(V, S, exterior):
+    """V and S without their imaginary part on the real segment (the tail keeps its complex z)."""
+    return V - 1j * np.where(exterior, 0.0, V.imag), S - 1j * np.where(exterior, 0.0, S.imag)
 
 
 def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
@@ -540,7 +568,7 @@ def _stable(spectra, angles, orders, window, tol, eq):
             rejected += 1
             continue
         supercritical = eq.name != "schrodinger" and e.real < -2 * mc2
-        width = 2 * e.imag if supercritical else -2 * e.imag
+        width = 2 * abs(e.imag) if supercritical else -2 * e.imag
         if supercritical:
             kind = "supercritical"
         elif e.real >= 0:
