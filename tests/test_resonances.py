@@ -95,6 +95,31 @@ def test_uniform_scaling_with_analytic_potential_agrees(barrier_result):
     assert u.width == pytest.approx(r.width, abs=1e-8)
 
 
+def test_window_without_a_resonance_says_so():
+    res = boundkit.resonances("schrodinger", barrier, window=(0.5, 1.0))
+    assert res.success and res.status == "none-stable" and res.resonances == ()
+    assert "no eigenvalue with Re E in [0.5, 1] hartree is stable" in res.message
+    assert res.diagnostics["rejected_as_continuum"] == res.diagnostics["in_window"] > 0
+
+
+def test_failed_eigen_solve_is_reported_not_raised(monkeypatch):
+    import scipy.linalg
+
+    def broken(*args, **kwargs):
+        raise scipy.linalg.LinAlgError("eigenvalues did not converge")
+
+    monkeypatch.setattr(scipy.linalg, "eigvals", broken)
+    res = boundkit.resonances("schrodinger", barrier, window=(3.0, 4.0))
+    assert not res.success and res.status == "eig-failed" and res.resonances == ()
+    assert "the dense complex eigen solve failed at theta = 0.25 rad" in res.message
+
+
+def test_potential_not_finite_is_refused():
+    with pytest.raises(ValueError, match="potential: not finite at a node of the scaled mesh"):
+        boundkit.resonances("schrodinger", lambda r: np.where((r > 1) & (r < 1.5), np.nan, barrier(r)),
+                            window=(3.0, 4.0), r0=40.0)
+
+
 # --- complex potentials: first-order width --------------------------------------------------
 @pytest.mark.parametrize("lam", [1e-2, 1e-3])
 def test_hydrogen_small_absorption_first_order_width(lam):

@@ -78,6 +78,7 @@ log = logging.getLogger(__name__)
 _TAIL_TOL = 1e-12       # potential minus its tail, relative to the energy scale, at R0
 _DECAY = 27.0           # e-folds of an outgoing wave kept on the rotated segment
 _MAX_SIZE = 2400        # largest dense eigenproblem (unknowns) built
+_UNITS = {"energy": "hartree", "width": "hartree", "length": "bohr", "angle": "rad"}
 
 
 @dataclass(frozen=True, slots=True, repr=False)
@@ -268,7 +269,7 @@ def _mesh_plan(eq, pot, window, angles, analytic, r0, r_max, h) -> dict:
     # kinetic energy where the potential is deepest (beyond the origin's grading)
     rr = np.linspace(min(L, r0) * 0.5, max(r0, L), 400) if r0 > 0 else np.array([L])
     with np.errstate(all="ignore"):
-        vmin = float(np.min(np.real(pot.V(rr) + pot.S(rr))))
+        vmin = float(np.nanmin(np.real(pot.V(rr) + pot.S(rr))))
     k_in = max(_wavenumber(eq, e - min(vmin, 0.0)) for e in ends)
     k_out = max(_wavenumber(eq, e) for e in ends)
     k_in = max(k_in, k_out, 1e-6)
@@ -426,7 +427,13 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         for th, o in [(th, order) for th in angles] + [(angles[0], orders[0])]:
             mesh = build_mesh(edges, o, plan["r0"], th)
             V, S = _sample(pot, mesh, analytic)
-            spectra[(th, o)] = sla.eigvals(_operator(eq, mesh, V, S), check_finite=False)
+            try:
+                spectra[(th, o)] = sla.eigvals(_operator(eq, mesh, V, S), check_finite=True)
+            except (sla.LinAlgError, ValueError) as exc:
+                log.warning("complex eigen solve failed at theta = %g, order %d: %s", th, o, exc)
+                return ResonanceResult((), False, "eig-failed", f"the dense complex eigen solve failed at theta = "
+                                       f"{th:g} rad, order {o} ({exc}); try other angles, r0 or r_max",
+                                       eq.name, pot.name, settings, constants_record(), _UNITS, {"unknowns": size})
     found, rejected, in_window = _stable(spectra, angles, orders, (emin, emax), tol, eq)
     if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
         with threadpool_limits(limits=1, user_api="blas"):
@@ -451,8 +458,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                                           f"{tol:g} over the angles and orders ({in_window} moved: rotated "
                                           "continuum); try larger angles or a wider window")
     return ResonanceResult(tuple(found), True, status, message, eq.name, pot.name, settings, constants_record(),
-                           {"energy": "hartree", "width": "hartree", "length": "bohr", "angle": "rad"},
-                           diagnostics)
+                           _UNITS, diagnostics)
 
 
 def _pair(window) -> tuple:
@@ -496,9 +502,12 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     thr = tol * np.maximum(np.abs(E1), scale)
     steady = np.array([np.min(np.abs(E2 - e)) for e in E1]) <= thr
     bound = steady & (E1.real < 0) & (E1.real > lower) & (np.abs(E1.imag) <= thr)
-    # dived levels must also survive the change of order: states of very large kinetic energy
-    # held in the small unscaled elements near the origin do not move with theta either
-    dived = steady & (E1.real < lower)
+    # dived levels must also survive the change of order (states of very large kinetic energy held
+    # in the small unscaled elements near the origin do not move with theta either) and lie above
+    # the bottom of the well; a point Coulomb charge (finite gamma needs Z alpha < |kappa|) dives none
+    finite = pot.z_vector == 0.0 and pot.z_scalar == 0.0
+    floor = float(np.min((V + S).real[~ext])) if np.any(~ext) else -np.inf
+    dived = steady & (E1.real < lower) & (E1.real > floor) & finite
     dived[dived] = np.array([np.min(np.abs(E3 - e)) for e in E1[dived]]) <= thr[dived]
     levels = E1[bound | dived]
     levels = levels[np.argsort(levels.real)]
