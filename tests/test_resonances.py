@@ -328,6 +328,22 @@ def test_cli_table_and_json():
     assert {"energy_error", "width_error", "runs"} <= set(r)
 
 
+def test_cli_tabulated_barrier(tmp_path, barrier_result):
+    # a table that ends at 40 bohr; the contour bends where its values have fallen below 1e-12 of
+    # the energy scale (the zero tail), and agreement is limited by the interpolation (4001 points)
+    r = np.linspace(0.01, 40.0, 4001)
+    path = tmp_path / "barrier.dat"
+    np.savetxt(path, np.c_[r, barrier(r)])
+    out = CliRunner().invoke(main, ["resonances", "--potential-file", str(path), "--table-tail", "zero",
+                                    "--table-origin", "finite", "--window", "3,4", "--json"])
+    assert out.exit_code == 0, out.output
+    data = json.loads(out.output)
+    (res,) = data["resonances"]
+    assert 30.0 < data["settings"]["r0_bohr"] <= 40.0
+    assert res["energy"] == pytest.approx(barrier_result.resonances[0].energy, abs=1e-7)
+    assert res["width"] == pytest.approx(barrier_result.resonances[0].width, abs=1e-7)
+
+
 @pytest.mark.parametrize("args, match", [
     (["--window", "3"], "boundkit: error: --window '3': write two numbers LO,HI"),
     (["--window", "3,4", "--angles", "x"], "boundkit: error: --angles 'x': write numbers"),
