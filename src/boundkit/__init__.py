@@ -18,6 +18,7 @@ from .observables import matrix_element, observables
 from .transitions import transitions
 from .perturbation import compare_shift, first_order_shift
 from .scattering import continuum_state, levinson, phase_shifts, scattering_length
+from .resonances import Resonance, ResonanceResult, resonances
 
 try:
     __version__ = version("boundkit")
@@ -27,4 +28,4 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
 __all__ = ["solve", "solve_channel", "make_equation", "make_potential", "Potential", "Level",
            "RadialState", "SolveResult", "scan", "critical", "compare", "matrix_element", "observables",
            "transitions", "compare_shift", "first_order_shift", "phase_shifts", "scattering_length",
-           "levinson", "continuum_state", "__version__"]
+           "levinson", "continuum_state", "resonances", "Resonance", "ResonanceResult", "__version__"]

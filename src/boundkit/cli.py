@@ -322,6 +322,7 @@ from . import cli_studies  # noqa: E402,F401  (registers scan, critical, compare
 
 from . import cli_observables  # noqa: E402,F401  (registers transitions; solve --observables/--states)
 from . import cli_continuum  # noqa: E402,F401  (registers phases)
+from . import cli_resonances  # noqa: E402,F401  (registers resonances)
 
 if __name__ == "__main__":  # pragma: no cover
     main()

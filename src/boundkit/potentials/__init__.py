@@ -7,10 +7,11 @@ from ..units import to_atomic
 from .base import CallableTerm, NuclearUnitsTerm, Parameter, Potential, Term
 from .builtin import Coulomb, Oscillator
 from .library import LIBRARY
+from .optical import OPTICAL
 
 __all__ = ["Term", "Parameter", "Potential", "CallableTerm", "TERMS", "make_potential"]
 
-TERMS: dict[str, type[Term]] = {cls.name: cls for cls in (Coulomb, Oscillator, *LIBRARY)}
+TERMS: dict[str, type[Term]] = {cls.name: cls for cls in (Coulomb, Oscillator, *LIBRARY, *OPTICAL)}
 """Registry of built-in terms by name. Add a :class:`Term` subclass here."""
 
 

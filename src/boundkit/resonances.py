@@ -1,0 +1,593 @@
+"""Resonances and complex (optical) potentials by exterior complex scaling.
+
+Method
+------
+1. The radial coordinate is continued to z = R0 + (r - R0) e^{i theta}
+   beyond R0 (exterior complex scaling; uniform scaling r e^{i theta} when
+   R0 = 0 and an analytic form of the potential is given). R0 is chosen
+   beyond the last non-analytic feature of the potential (``breakpoints``:
+   a nuclear radius, a table's end) and beyond the radius where the sampled
+   potential has reached its analytic tail -Z_inf/z (or 0) to 1e-12 of the
+   energy scale. The potential is evaluated only at real r <= R0; on the
+   rotated segment its tail (or the user's analytic function of complex z)
+   is used. This is the choice the module makes for every potential, since
+   the library's terms accept real radii only.
+2. The scaled radial operator of the equation is discretized with the
+   finite-element DVR of :mod:`boundkit.complex_scaling` (independent of the
+   bound-state solver) and solved densely with :func:`scipy.linalg.eigvals`
+   in complex arithmetic:
+
+   * Schrodinger: [-1/(2m) d^2/dz^2 + l(l+1)/(2m z^2) + V(z)] u = E u;
+   * Klein-Gordon: the same with V + S + (S^2 - (E - V)^2)/(2 m c^2), a
+     quadratic eigenproblem in E, linearised as A0 y + E A1 y + E^2 A2 y = 0
+     -> [[0, 1], [-A0, -A1]] Y = E [[1, 0], [0, A2]] Y;
+   * Dirac: the two-component first-order system in P and Q directly (no
+     elimination, so no pole of the eliminated form),
+
+         E P = (V + S) P + c (-d/dz + kappa/z) Q,
+         E Q = c (d/dz + kappa/z) P + (V - S - 2 m c^2) Q.
+
+   E is always the binding energy (total minus rest energy).
+3. Bound states and resonances do not move with theta; the rotated
+   continuum, E ~ e^{-2 i theta} |E| above threshold, does. Every
+   eigenvalue in the energy window at the first angle and the finest order is
+   matched to the nearest eigenvalue at every other angle (same order) and
+   at the first angle with the order lowered by 4; it is kept when all these
+   distances stay below ``tol`` times the energy scale.
+   The largest distance in the real and imaginary parts gives the error
+   estimates of the energy and of the width. The runs' values are kept on the
+   result (the stability test, reported).
+4. A complex potential V = V_R + i W gives complex energies E - i Gamma/2
+   for all equations; to first order Gamma = -2 <W>.
+5. Bound, quasi-bound and dived levels are labelled by continuity from the
+   real limit: the levels of V_R (real ones below threshold and, for Dirac
+   and Klein-Gordon, dived ones below -2 m c^2 that are stable in theta and
+   order) are counted from the bottom (the k-th is n = k + l: 1s, 2p1/2,
+   ...), each is followed along V_R + i lam W, lam = 0 -> 1, by inverse
+   iteration, and names the eigenvalue it reaches. Resonances above
+   threshold keep a generic label (``resonance 1``, ... in order of energy).
+
+Width sign: above the upper threshold (and for every Schrodinger state)
+Gamma = -2 Im E. A Dirac state that has dived into the lower continuum
+(binding energy below -2 m c^2) decays by positron emission; complex scaling
+turns that continuum into the upper half plane and the resonance appears at
+E_R + i Gamma/2, so Gamma = +2 Im E there (Gamma = 2 |Im E| is reported for
+every state below -2 m c^2; for Klein-Gordon these are not validated).
+"""
+from __future__ import annotations
+
+import logging
+import math
+import time
+import warnings
+from dataclasses import dataclass, field, replace
+from typing import Any, Callable, Sequence
+
+import numpy as np
+import scipy.linalg as sla
+from threadpoolctl import threadpool_limits
+
+from ._checks import check_finite, check_int, check_positive
+from .complex_scaling import ScaledMesh, build_mesh, element_edges
+from .units import C_AU, constants_record, hartree_to
+
+__all__ = ["Resonance", "ResonanceResult", "resonances"]
+
+log = logging.getLogger(__name__)
+
+_TAIL_TOL = 1e-12       # potential minus its tail, relative to the energy scale, at R0
+_DECAY = 27.0           # e-folds of an outgoing wave kept on the rotated segment
+_MAX_SIZE = 2400        # largest dense eigenproblem (unknowns) built
+_UNITS = {"energy": "hartree", "width": "hartree", "length": "bohr", "angle": "rad"}
+
+
+@dataclass(frozen=True, slots=True, repr=False)
+class Resonance:
+    """One stable complex eigenvalue E - i Gamma/2 (binding energy, hartree).
+
+    ``energy`` is Re E and ``width`` Gamma (both hartree); ``energy_error``
+    and ``width_error`` are the largest changes over the scaling angles and
+    orders of the stability test. ``kind`` is ``bound`` (real, below
+    threshold), ``quasi-bound`` (below threshold, width from an absorptive
+    potential), ``resonance`` (above threshold) or ``supercritical`` (in the
+    lower continuum of a relativistic equation). ``runs`` holds the matched
+    complex eigenvalue at each (theta, order) of the test.
+    """
+
+    label: str
+    kind: str
+    energy: float
+    width: float
+    energy_error: float
+    width_error: float
+    theta_spread: float
+    order_spread: float
+    runs: tuple[tuple[float, int, complex], ...]
+
+    @property
+    def complex_energy(self) -> complex:
+        """The eigenvalue itself, hartree: E - i Gamma/2 (E + i Gamma/2 for a Dirac supercritical
+        state), from the reference run of the stability test."""
+        return self.runs[0][2]
+
+    def energy_in(self, unit: str) -> float:
+        return float(hartree_to(self.energy, unit))
+
+    def width_in(self, unit: str) -> float:
+        return float(hartree_to(self.width, unit))
+
+    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
+        return {"label": self.label, "kind": self.kind,
+                "energy": self.energy_in(unit), "energy_error": float(hartree_to(self.energy_error, unit)),
+                "width": self.width_in(unit), "width_error": float(hartree_to(self.width_error, unit)),
+                "theta_spread": float(hartree_to(self.theta_spread, unit)),
+                "order_spread": float(hartree_to(self.order_spread, unit)),
+                "runs": [{"theta": t, "order": o, "energy": float(hartree_to(e.real, unit)),
+                          "imag": float(hartree_to(e.imag, unit))} for t, o, e in self.runs]}
+
+    def __repr__(self) -> str:
+        return (f"Resonance({self.label}: E = {self.energy:.12g} +- {self.energy_error:.2g}, "
+                f"Gamma = {self.width:.6g} +- {self.width_error:.2g} hartree, {self.kind})")
+
+
+@dataclass(frozen=True, repr=False)
+class ResonanceResult:
+    """Outcome of :func:`resonances`: the stable eigenvalues in the window.
+
+    ``success`` is False only when the discretization could not be built or
+    solved; finding nothing stable is ``status = 'none-stable'`` with
+    success True. ``diagnostics`` counts the eigenvalues in the window and the
+    ones rejected as rotated continuum (or unconverged).
+    """
+
+    resonances: tuple[Resonance, ...]
+    success: bool
+    status: str
+    message: str
+    equation: str
+    potential: str
+    settings: dict = field(default_factory=dict)
+    constants: dict = field(default_factory=dict)
+    units: dict = field(default_factory=dict)
+    diagnostics: dict = field(default_factory=dict)
+
+    def to_dict(self, energy_unit: str = "hartree") -> dict[str, Any]:
+        """JSON-ready record; energies and widths in ``energy_unit``."""
+        return {"equation": self.equation, "potential": self.potential,
+                "units": {"energy": energy_unit, "width": energy_unit, "length": "bohr", "angle": "rad"},
+                "constants": self.constants, "settings": self.settings, "status": self.status,
+                "success": self.success, "message": self.message, "diagnostics": self.diagnostics,
+                "resonances": [r.to_dict(energy_unit) for r in self.resonances]}
+
+    def __repr__(self) -> str:
+        lines = [f"ResonanceResult({self.equation}, {self.potential}: {self.status}, "
+                 f"{len(self.resonances)} stable)"]
+        lines += [f"  {r!r}" for r in self.resonances]
+        return "\n".join(lines)
+
+
+# ---------------------------------------------------------------------------------------------
+# the scaled operators
+# ---------------------------------------------------------------------------------------------
+def _sample(pot, mesh: ScaledMesh, analytic: Callable | None) -> tuple[np.ndarray, np.ndarray]:
+    """V and S at the mesh nodes: real segment from the potential, rotated one from its tail."""
+    V = np.zeros(mesh.size, dtype=complex)
+    S = np.zeros(mesh.size, dtype=complex)
+    inner = ~mesh.exterior
+    if np.any(inner):
+        V[inner] = np.asarray(pot.V(mesh.x[inner]), dtype=complex)
+        S[inner] = np.asarray(pot.S(mesh.x[inner]), dtype=complex)
+    z = mesh.z[mesh.exterior]
+    if analytic is not None:
+        V[mesh.exterior] = np.asarray(analytic(z), dtype=complex) * np.ones_like(z)
+    else:
+        V[mesh.exterior] = -_tail(pot.vector) / z
+    S[mesh.exterior] = -_tail(pot.scalar) / z
+    if not (np.all(np.isfinite(V)) and np.all(np.isfinite(S))):
+        raise ValueError("potential: not finite at a node of the scaled mesh; check the expression or analytic=")
+    return V, S
+
+
+def _tail(terms) -> float:
+    return float(sum(t.tail_charge for t in terms))
+
+
+def _operator(eq, mesh: ScaledMesh, V: np.ndarray, S: np.ndarray) -> np.ndarray:
+    """Matrix M with eigenvalues E (binding energies) for one channel on one mesh."""
+    B, z, m = mesh.B, mesh.z, eq.mass
+    n = mesh.size
+    if eq.name == "dirac":
+        c = C_AU
+        kz = eq.kappa * B / z
+        M = np.zeros((2 * n, 2 * n), dtype=complex)
+        M[:n, :n] = np.diag(B * (V + S))
+        M[:n, n:] = c * (-mesh.D + np.diag(kz))
+        M[n:, :n] = c * (mesh.D + np.diag(kz))
+        M[n:, n:] = np.diag(B * (V - S - 2 * m * c * c))
+        return M / np.concatenate([B, B])[:, None]
+    cent = eq.l * (eq.l + 1) / (2 * m * z**2)
+    if eq.name == "schrodinger":
+        return (mesh.K / (2 * m) + np.diag(B * (cent + V + S))) / B[:, None]
+    # Klein-Gordon: A0 + E A1 + E^2 A2 = 0 on u, linearised on (u, E u); all divided by B
+    mc2 = m * C_AU**2
+    A0 = (mesh.K / (2 * m) + np.diag(B * (cent + V + S + (S * S - V * V) / (2 * mc2)))) / B[:, None]
+    a1 = V / mc2 - 1.0
+    a2 = -1.0 / (2 * mc2)
+    M = np.zeros((2 * n, 2 * n), dtype=complex)
+    M[:n, n:] = np.eye(n)
+    M[n:, :n] = -A0 / a2
+    M[n:, n:] = -np.diag(a1) / a2
+    return M
+
+
+# ---------------------------------------------------------------------------------------------
+# choice of the contour and the elements
+# ---------------------------------------------------------------------------------------------
+def _wavenumber(eq, T: float) -> float:
+    """|k| of a free particle of kinetic (binding) energy T (relativistic for Dirac, KG)."""
+    if eq.name == "schrodinger":
+        return math.sqrt(2 * eq.mass * abs(T))
+    mc2 = eq.mass * C_AU**2
+    return math.sqrt(abs((T + mc2) ** 2 - mc2**2)) / C_AU
+
+
+def _auto_r0(pot, analytic, scale: float) -> float:
+    """Smallest radius beyond every breakpoint where V has reached its exterior form."""
+    r = np.geomspace(1e-8, 1e5, 3000)
+    with np.errstate(all="ignore"):
+        V = np.asarray(pot.V(r), dtype=complex)
+        S = np.asarray(pot.S(r), dtype=complex)
+        tailV = np.asarray(analytic(r + 0j), dtype=complex) if analytic is not None else -_tail(pot.vector) / r
+        dev = np.abs(V - tailV) + np.abs(S + _tail(pot.scalar) / r)
+    bad = ~(dev <= _TAIL_TOL * scale)
+    if np.any(bad[r >= 1e4]):
+        raise ValueError("potential: does not reach a Coulomb tail -Z/r or zero by r = 1e5 bohr (to 1e-12 of the "
+                         "energy scale) from r = 1e4 bohr on; give r0 and analytic=, a function of complex r for the exterior")
+    k = int(np.nonzero(bad)[0][-1]) + 1 if np.any(bad) else 0
+    r0 = float(r[k])
+    bps = pot.breakpoints
+    if bps and max(bps) >= (r[k - 1] if k > 0 else 0.0):
+        r0 = float(max(bps))
+    return r0
+
+
+def _natural_length(eq, pot) -> float:
+    r = np.geomspace(1e-10, 1e5, 1500)
+    with np.errstate(all="ignore"):
+        v = np.abs(np.asarray(pot.V(r), dtype=complex)) + np.abs(np.asarray(pot.S(r), dtype=complex))
+    big = 2 * eq.mass * r**2 * v >= 1.0
+    return float(r[np.argmax(big)]) if np.any(big) else 1.0
+
+
+def _mesh_plan(eq, pot, window, angles, analytic, r0, r_max, h) -> dict:
+    emin, emax = window
+    scale = max(abs(emin), abs(emax))
+    if r0 is None:
+        r0 = _auto_r0(pot, analytic, scale)
+    L = _natural_length(eq, pot)
+    ends = (emin, emax)
+    # kinetic energy where the potential is deepest (beyond the origin's grading)
+    rr = np.linspace(min(L, r0) * 0.5, max(r0, L), 400) if r0 > 0 else np.array([L])
+    with np.errstate(all="ignore"):
+        vmin = float(np.nanmin(np.real(pot.V(rr) + pot.S(rr))))
+    k_in = max(_wavenumber(eq, e - min(vmin, 0.0)) for e in ends)
+    k_out = max(_wavenumber(eq, e) for e in ends)
+    k_in = max(k_in, k_out, 1e-6)
+    if h is None:
+        h = min(2 * math.pi / k_in, max(r0, L))
+    h_out = 2 * math.pi / max(k_out, 1e-12)
+    if r_max is None:
+        # waves of the lowest energy of interest must fall by e^-_DECAY on the rotated segment:
+        # outgoing ones (E above threshold) as exp(-k sin(theta) x), bound ones as exp(-kappa x)
+        mc2 = eq.mass * C_AU**2
+        lower_side = eq.name != "schrodinger" and emax < -mc2
+        if lower_side:
+            e_low = max(min(abs(emin + 2 * mc2), abs(emax + 2 * mc2)), 0.05 * scale) if emax < -2 * mc2 \
+                else 0.05 * scale
+            rate = _wavenumber(eq, -2 * mc2 - e_low) * math.sin(min(angles))
+        elif emax < 0:
+            rate = _wavenumber(eq, emax)
+        else:
+            e_low = emin if emin > 0 else 0.05 * scale
+            rate = _wavenumber(eq, e_low) * math.sin(min(angles))
+        r_max = r0 + max(_DECAY / max(rate, 1e-12), 6 * L)
+    inner = min(h, L) / 64 if r0 > 0 else None
+    return {"r0": float(r0), "r_max": float(r_max), "h": float(h), "h_out": float(h_out),
+            "inner": inner, "natural_length": L}
+
+
+def _edges(plan: dict, pot) -> np.ndarray:
+    r0, r_max = plan["r0"], plan["r_max"]
+    h, h_out = plan["h"], plan["h_out"]
+    if r0 > 0:
+        edges = element_edges(r0, plan["inner"], h, pot.breakpoints)
+    else:
+        edges = np.array([0.0])
+    # rotated part: sizes double from about R0 (the scale of a Coulomb field there) up to h_out
+    size = min(h, h_out, r0) if r0 > 0 else min(h, h_out) / 64
+    x, out = float(edges[-1]), [*edges]
+    while x < r_max - 1e-12:
+        x = min(x + size, r_max)
+        if r_max - x < 0.3 * size:
+            x = r_max
+        out.append(x)
+        size = min(2 * size, h_out)
+    return np.asarray(out)
+
+
+# ---------------------------------------------------------------------------------------------
+# the public API
+# ---------------------------------------------------------------------------------------------
+def resonances(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+               window: tuple[float, float], l: int | None = None, kappa: int | None = None,
+               angles: Sequence[float] = (0.25, 0.35), order: int = 12, r0: float | None = None,
+               r_max: float | None = None, h: float | None = None, analytic: Callable | None = None,
+               absorptive=None, absorptive_params: dict | None = None, tol: float = 1e-6,
+               particle: str | None = None, mass_mev: float | None = None,
+               nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic") -> ResonanceResult:
+    """Resonances, bound and quasi-bound levels with Re E in ``window`` by complex scaling.
+
+    Parameters
+    ----------
+    equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units
+        As in :func:`boundkit.solve`. Callables may return complex values
+        (a complex potential).
+    window : (float, float)
+        Range of the real part of the binding energy, hartree.
+    angles : sequence of float
+        Scaling angles theta in radians, 0 < theta < pi/2, at least two
+        (default 0.25 and 0.35).
+    order : int
+        Lobatto order of the elements (>= 6); the stability test also runs
+        at ``order - 4`` (first angle only).
+    r0, r_max, h : float, optional
+        Start of the rotated segment, end of the mesh and element size (bohr);
+        chosen from the potential and the window when omitted.
+    analytic : callable, optional
+        V(z) for complex z (bohr -> hartree) used on the rotated segment
+        instead of the tail -Z_inf/z; with ``r0=0`` this is uniform scaling.
+    absorptive, absorptive_params : optional
+        Imaginary part W(r) of the vector potential, V = V_R + i W, given like
+        ``potential`` (names, callables, terms) with its own parameters.
+    tol : float
+        Relative stability required of an eigenvalue over angles and orders.
+
+    Returns
+    -------
+    ResonanceResult
+        Frozen; energies and widths in hartree.
+
+    Raises
+    ------
+    ValueError
+        Bad window, angles, order or potential.
+
+    Notes
+    -----
+    The eigenvalue is E - i Gamma/2 with E the binding energy; see the
+    module docstring for the contour, the operators and the stability test.
+
+    Examples
+    --------
+    >>> import numpy as np, boundkit
+    >>> res = boundkit.resonances("schrodinger", lambda r: 7.5 * r**2 * np.exp(-r), window=(3, 4))
+    >>> round(res.resonances[0].energy, 6), round(res.resonances[0].width, 6)
+    (3.42639, 0.025549)
+    """
+    from .potentials import make_potential
+    from .potentials.base import Term
+    from .potentials.optical import ComplexCallableTerm, ImaginaryPart
+    from .solver import setup
+
+    emin, emax = (check_finite("window", w) for w in _pair(window))
+    if not emin < emax:
+        raise ValueError(f"window: need lower < upper, got ({emin:g}, {emax:g}) hartree")
+    angles = tuple(check_finite("angles", a) for a in angles)
+    if len(angles) < 2 or not all(0 < a < math.pi / 2 for a in angles):
+        raise ValueError(f"angles: give at least two scaling angles in (0, pi/2) radians, got {angles}")
+    order = check_int("order", order, minimum=6)
+    tol = check_positive("tol", tol)
+    for name, v in (("r0", r0), ("r_max", r_max), ("h", h)):
+        if v is not None:
+            (check_finite if name == "r0" else check_positive)(name, v)
+    if r0 is not None and r0 < 0:
+        raise ValueError(f"r0: must be >= 0 bohr, got {r0:g}")
+    if r0 == 0 and analytic is None:
+        raise ValueError("r0: r0 = 0 (uniform scaling) needs analytic=, the potential as a function of complex r")
+    if analytic is not None and not callable(analytic):
+        raise ValueError("analytic: expected a callable V(z) of complex z")
+
+    def wrap(spec):
+        items = spec if isinstance(spec, (list, tuple)) else [spec]
+        out = [ComplexCallableTerm(s) if callable(s) and not isinstance(s, (Term, type)) else s for s in items]
+        return out if isinstance(spec, (list, tuple)) else out[0]
+
+    eq, pot, settings = setup(equation, wrap(potential), params, l=l, kappa=kappa, particle=particle,
+                              mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
+                              scalar=None if scalar is None else wrap(scalar), units=units)
+    if pot.spin_orbit(np.array([1.0])) is not None:
+        raise ValueError("potential: spin-orbit terms are not supported by resonances; set spin_orbit = 0")
+    if absorptive is not None:
+        imag = make_potential(absorptive, absorptive_params, units=units)
+        pot = type(pot)(tuple(pot.vector) + tuple(ImaginaryPart(t) for t in imag.vector), pot.scalar)
+        settings["absorptive"] = repr(imag)
+    plan = _mesh_plan(eq, pot, (emin, emax), angles, analytic, r0, r_max, h)
+    if plan["r_max"] <= plan["r0"]:
+        raise ValueError(f"r_max: must exceed r0 = {plan['r0']:.4g} bohr")
+    edges = _edges(plan, pot)
+    orders = (order - 4, order)
+    size = (len(edges) - 1) * order * (1 if eq.name == "schrodinger" else 2)
+    if size > _MAX_SIZE:
+        raise ValueError(f"window: the mesh for this window needs {size} unknowns (> {_MAX_SIZE}); narrow the "
+                         "window, raise its lower end, or give h, r0 and r_max")
+    t0 = time.perf_counter()
+    spectra = {}
+    # one BLAS thread: on a shared 2-core machine the threaded dense eig ran 6x slower (measured)
+    with threadpool_limits(limits=1, user_api="blas"):
+        for th, o in [(th, order) for th in angles] + [(angles[0], orders[0])]:
+            mesh = build_mesh(edges, o, plan["r0"], th)
+            V, S = _sample(pot, mesh, analytic)
+            try:
+                spectra[(th, o)] = sla.eigvals(_operator(eq, mesh, V, S), check_finite=True)
+            except (sla.LinAlgError, ValueError) as exc:
+                log.warning("complex eigen solve failed at theta = %g, order %d: %s", th, o, exc)
+                return ResonanceResult((), False, "eig-failed", f"the dense complex eigen solve failed at theta = "
+                                       f"{th:g} rad, order {o} ({exc}); try other angles, r0 or r_max",
+                                       eq.name, pot.name, settings, constants_record(), _UNITS, {"unknowns": size})
+    found, rejected, in_window = _stable(spectra, angles, orders, (emin, emax), tol, eq)
+    if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
+        with threadpool_limits(limits=1, user_api="blas"):
+            found = _label_by_continuity(found, eq, edges, plan["r0"], angles, order, pot, analytic,
+                                         (emin, emax), tol, spectra)
+    settings.update({"window_hartree": [emin, emax], "angles_rad": list(angles), "orders": list(orders),
+                     "tol": tol, "r0_bohr": plan["r0"], "r_max_bohr": plan["r_max"], "elements": len(edges) - 1,
+                     "element_size_bohr": plan["h"], "scaling": "uniform" if plan["r0"] == 0 else "exterior",
+                     "exterior_potential": "analytic" if analytic is not None else "tail -Z_inf/z",
+                     "unknowns": size})
+    diagnostics = {"in_window": in_window, "stable": len(found), "rejected_as_continuum": rejected,
+                   "seconds": round(time.perf_counter() - t0, 3)}
+    if eq.name == "klein-gordon" and any(r.kind == "supercritical" for r in found):
+        log.warning("Klein-Gordon eigenvalues below -2 m c^2 are reported but not validated")
+        diagnostics["note"] = ("Klein-Gordon states below -2 m c^2 (boson pair states) are not validated; "
+                               "width = 2 |Im E| there")
+    if found:
+        status, message = "ok", (f"{len(found)} eigenvalue(s) stable to {tol:g} over theta = "
+                                 f"{', '.join(f'{a:g}' for a in angles)} rad and orders {orders[0]}, {orders[1]}")
+    else:
+        status, message = "none-stable", (f"no eigenvalue with Re E in [{emin:g}, {emax:g}] hartree is stable to "
+                                          f"{tol:g} over the angles and orders ({in_window} moved: rotated "
+                                          "continuum); try larger angles or a wider window")
+    return ResonanceResult(tuple(found), True, status, message, eq.name, pot.name, settings, constants_record(),
+                           _UNITS, diagnostics)
+
+
+def _pair(window) -> tuple:
+    try:
+        a, b = window
+    except (TypeError, ValueError):
+        raise ValueError(f"window: expected (lower, upper) in hartree, got {window!r}") from None
+    return a, b
+
+
+def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, window, tol, spectra):
+    """Name bound, quasi-bound and dived levels after the real-limit level they continue.
+
+    The real limit keeps Re V (and Re S) on the real segment. Its levels are the eigenvalues that
+    do not move between the first two angles: real ones below threshold and, for the relativistic
+    equations, dived ones below -2 m c^2 (complex, deepest of all). Counted from the bottom, the
+    k-th is n = k + l (1s, 2p1/2, ...). Each is followed to the full potential V_R + i lam W,
+    lam = 0 -> 1 in 8 steps, by Rayleigh-quotient inverse iteration, and names the stable
+    eigenvalue it arrives at. A level whose path arrives nowhere keeps its generic label; a level
+    the mesh cannot resolve (far below the window) is missed by the count, which shifts n.
+    """
+    meshes = [build_mesh(edges, order, r0, th) for th in angles[:2]]
+    V, S = _sample(pot, meshes[0], analytic)
+    ext = meshes[0].exterior
+    # the physical imaginary part lives on the real segment (R0 lies beyond it); on the rotated
+    # segment the tail is complex only through z and stays as it is
+    WV = np.where(ext, 0.0, V.imag)
+    WS = np.where(ext, 0.0, S.imag)
+    absorbing = bool(np.any(WV) or np.any(WS))
+    V, S = _real_limit(V, S, ext)
+    if absorbing:
+        E1 = sla.eigvals(_operator(eq, meshes[0], V, S), check_finite=False)
+        E2, E3 = (sla.eigvals(_operator(eq, m, *_real_limit(*_sample(pot, m, analytic), m.exterior)),
+                              check_finite=False)
+                  for m in (meshes[1], build_mesh(edges, order - 4, r0, angles[0])))
+    else:
+        E1, E2, E3 = spectra[(angles[0], order)], spectra[(angles[1], order)], spectra[(angles[0], order - 4)]
+    scale = max(abs(window[0]), abs(window[1]))
+    mc2 = eq.mass * C_AU**2
+    lower = -2 * mc2 if eq.name != "schrodinger" else -np.inf
+    thr = tol * np.maximum(np.abs(E1), scale)
+    steady = np.array([np.min(np.abs(E2 - e)) for e in E1]) <= thr
+    bound = steady & (E1.real < 0) & (E1.real > lower) & (np.abs(E1.imag) <= thr)
+    # dived levels must also survive the change of order (states of very large kinetic energy held
+    # in the small unscaled elements near the origin do not move with theta either) and lie above
+    # the bottom of the well; a point Coulomb charge (finite gamma needs Z alpha < |kappa|) dives none
+    finite = pot.z_vector == 0.0 and pot.z_scalar == 0.0
+    floor = float(np.min((V + S).real[~ext])) if np.any(~ext) else -np.inf
+    dived = steady & (E1.real < lower) & (E1.real > floor) & finite
+    dived[dived] = np.array([np.min(np.abs(E3 - e)) for e in E1[dived]]) <= thr[dived]
+    levels = E1[bound | dived]
+    levels = levels[np.argsort(levels.real)]
+    targets = {i: r for i, r in enumerate(found) if r.kind in ("bound", "quasi-bound", "supercritical")}
+    labels: dict[int, str] = {}
+    for k, e0 in enumerate(levels):
+        if e0.real > window[1] + 0.5 * (window[1] - window[0]):
+            break
+        e = complex(e0)
+        for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
+            e = _follow(_operator(eq, meshes[0], V + 1j * lam * WV, S + 1j * lam * WS), e)
+        for i, r in targets.items():
+            if i not in labels and abs(e - r.complex_energy) <= tol * max(abs(e), scale):
+                labels[i] = eq.label(k + 1 + eq.l)
+    return [replace(r, label=labels[i]) if i in labels else r for i, r in enumerate(found)]
+
+
+def _real_limit(V, S, exterior):
+    """V and S without their imaginary part on the real segment (the tail keeps its complex z)."""
+    return V - 1j * np.where(exterior, 0.0, V.imag), S - 1j * np.where(exterior, 0.0, S.imag)
+
+
+def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
+    """Eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
+    n = M.shape[0]
+    x = np.ones(n, dtype=complex) / math.sqrt(n)
+    for it in range(steps):
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", sla.LinAlgWarning)   # near-singular is the point here
+            try:
+                y = sla.solve(M - e * np.eye(n), x, check_finite=False)
+            except (sla.LinAlgError, ValueError):
+                break
+        x = y / np.linalg.norm(y)
+        e_new = complex(np.vdot(x, M @ x))
+        if abs(e_new - e) <= 1e-14 * max(1.0, abs(e)) and it > 0:
+            return e_new
+        e = e_new
+    return e
+
+
+def _stable(spectra, angles, orders, window, tol, eq):
+    """Eigenvalues of the reference run that every other run reproduces (step 3 of the module)."""
+    emin, emax = window
+    ref_key = (angles[0], orders[-1])
+    ref = spectra[ref_key]
+    scale = max(abs(emin), abs(emax))
+    mc2 = eq.mass * C_AU**2
+    cand = ref[(ref.real >= emin) & (ref.real <= emax) & np.isfinite(ref)]
+    found, rejected = [], 0
+    for e in sorted(cand, key=lambda v: v.real):
+        runs = [(angles[0], orders[-1], complex(e))]
+        dist_theta, dist_order, dre, dim = 0.0, 0.0, 0.0, 0.0
+        for key, spec in spectra.items():
+            if key == ref_key:
+                continue
+            other = spec[np.argmin(np.abs(spec - e))]
+            runs.append((key[0], key[1], complex(other)))
+            d = abs(other - e)
+            if key[1] == orders[-1]:
+                dist_theta = max(dist_theta, d)
+            else:
+                dist_order = max(dist_order, d)
+            dre, dim = max(dre, abs(other.real - e.real)), max(dim, abs(other.imag - e.imag))
+        thr = tol * max(abs(e), scale)
+        if max(dist_theta, dist_order) > thr:
+            rejected += 1
+            continue
+        supercritical = eq.name != "schrodinger" and e.real < -2 * mc2
+        width = 2 * abs(e.imag) if supercritical else -2 * e.imag
+        if supercritical:
+            kind = "supercritical"
+        elif e.real >= 0:
+            kind = "resonance"
+        elif abs(e.imag) <= max(4 * dim, 1e-12 * max(abs(e), scale)):
+            kind, width = "bound", 0.0
+        else:
+            kind = "quasi-bound"
+        found.append(Resonance(label=f"{kind} {len([f for f in found if f.kind == kind]) + 1}", kind=kind,
+                               energy=float(e.real), width=float(width), energy_error=float(dre),
+                               width_error=float(2 * dim), theta_spread=float(dist_theta),
+                               order_spread=float(dist_order), runs=tuple(runs)))
+    return found, rejected, int(len(cand))

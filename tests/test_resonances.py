@@ -1,0 +1,357 @@
+"""Resonances and complex potentials by exterior complex scaling (boundkit.resonances).
+
+Checks from outside the module: a published complex-scaling value and an
+outgoing-wave (Siegert) shooting computed here with scipy's DOP853 integrator
+and mpmath's root finder; first-order perturbation theory with an exact
+integral; the real bound-state solver (a different discretization); and the
+diving charge from boundkit.critical.
+"""
+from __future__ import annotations
+
+import json
+import math
+
+import mpmath
+import numpy as np
+import pytest
+from click.testing import CliRunner
+from scipy.integrate import quad, solve_ivp
+
+import boundkit
+from boundkit.cli import main
+from boundkit.potentials.optical import ComplexCallableTerm, ImaginaryPart, OpticalTRho
+from boundkit.units import C_AU, HARTREE_EV
+
+
+def barrier(r):
+    """V(r) = 7.5 r^2 exp(-r) (hartree, bohr; hbar = m = 1)."""
+    return 7.5 * r**2 * np.exp(-r)
+
+
+def siegert_barrier(E_guesses) -> complex:
+    """Outgoing-wave eigenvalue of the barrier, l = 0: u(0) = 0 and u'/u = i k at R = 40 bohr
+    (where V < 6e-14 hartree), k = sqrt(2E) with Im k < 0; integrated along the real axis."""
+    R = 40.0
+
+    def mismatch(E):
+        E = complex(E)
+        sol = solve_ivp(lambda r, y: [y[1], 2 * (barrier(r) - E) * y[0]], (0.0, R), [0j, 1 + 0j],
+                        method="DOP853", rtol=1e-12, atol=1e-14)
+        u, du = sol.y[:, -1]
+        k = np.sqrt(2 * E)
+        return (du - 1j * k * u) * np.exp(-1j * k * R)
+
+    root = mpmath.findroot(mismatch, tuple(mpmath.mpc(g) for g in E_guesses), solver="muller",
+                           tol=1e-20, verify=False)
+    return complex(root)
+
+
+@pytest.fixture(scope="module")
+def barrier_result():
+    return boundkit.resonances("schrodinger", barrier, window=(3.0, 4.0))
+
+
+# --- the model barrier ------------------------------------------------------------------------
+def test_barrier_lowest_resonance_published_value(barrier_result):
+    res = barrier_result
+    assert res.success and res.status == "ok"
+    (r,) = res.resonances
+    assert r.kind == "resonance"
+    # Moiseyev, Certain and Weinhold, Mol. Phys. 36, 1613 (1978); tabulated again in Moiseyev,
+    # Phys. Rep. 302, 212 (1998): E = 3.426390 - 0.012774 i (values from memory; 7 and 5 digits)
+    assert r.energy == pytest.approx(3.426390, abs=1.5e-6)
+    assert r.width / 2 == pytest.approx(0.012774, abs=1.5e-6)
+    assert r.complex_energy == pytest.approx(complex(r.energy, -r.width / 2))
+
+
+def test_barrier_against_siegert_shooting(barrier_result):
+    (r,) = barrier_result.resonances
+    # independent: outgoing-wave shooting (started from rough guesses, not from the result)
+    E = siegert_barrier((3.4 - 0.01j, 3.45 - 0.02j, 3.42 + 0j))
+    assert r.energy == pytest.approx(E.real, abs=1e-9)
+    assert r.width == pytest.approx(-2 * E.imag, abs=1e-9)
+    # the error estimates are honest bounds of the actual error here
+    assert abs(r.energy - E.real) <= r.energy_error + 1e-12
+    assert abs(r.width + 2 * E.imag) <= r.width_error + 1e-12
+
+
+def test_stability_test_is_reported(barrier_result):
+    res = barrier_result
+    (r,) = res.resonances
+    assert len(r.runs) == 3                                   # 2 angles, and a lower order
+    assert {t for t, _, _ in r.runs} == {0.25, 0.35}
+    assert r.theta_spread < 1e-9 and r.order_spread < 1e-7
+    d = res.diagnostics
+    assert d["rejected_as_continuum"] >= 5 and d["stable"] == 1
+    assert d["in_window"] == d["stable"] + d["rejected_as_continuum"]
+
+
+def test_uniform_scaling_with_analytic_potential_agrees(barrier_result):
+    (r,) = barrier_result.resonances
+    uni = boundkit.resonances("schrodinger", barrier, window=(3.0, 4.0), r0=0.0, analytic=barrier, r_max=60.0)
+    assert uni.settings["scaling"] == "uniform"
+    (u,) = uni.resonances
+    assert u.energy == pytest.approx(r.energy, abs=1e-8)
+    assert u.width == pytest.approx(r.width, abs=1e-8)
+
+
+def test_window_without_a_resonance_says_so():
+    res = boundkit.resonances("schrodinger", barrier, window=(0.5, 1.0))
+    assert res.success and res.status == "none-stable" and res.resonances == ()
+    assert "no eigenvalue with Re E in [0.5, 1] hartree is stable" in res.message
+    assert res.diagnostics["rejected_as_continuum"] == res.diagnostics["in_window"] > 0
+
+
+def test_failed_eigen_solve_is_reported_not_raised(monkeypatch):
+    import scipy.linalg
+
+    def broken(*args, **kwargs):
+        raise scipy.linalg.LinAlgError("eigenvalues did not converge")
+
+    monkeypatch.setattr(scipy.linalg, "eigvals", broken)
+    res = boundkit.resonances("schrodinger", barrier, window=(3.0, 4.0))
+    assert not res.success and res.status == "eig-failed" and res.resonances == ()
+    assert "the dense complex eigen solve failed at theta = 0.25 rad" in res.message
+
+
+def test_potential_not_finite_is_refused():
+    with pytest.raises(ValueError, match="potential: not finite at a node of the scaled mesh"):
+        boundkit.resonances("schrodinger", lambda r: np.where((r > 1) & (r < 1.5), np.nan, barrier(r)),
+                            window=(3.0, 4.0), r0=40.0)
+
+
+# --- complex potentials: first-order width --------------------------------------------------
+@pytest.mark.parametrize("lam", [1e-2, 1e-3])
+def test_hydrogen_small_absorption_first_order_width(lam):
+    # W = -lam exp(-r) on hydrogen 1s: <W> = -lam int 4 r^2 e^{-3r} dr = -8 lam / 27 (exact integral),
+    # so Gamma = -2 <W> = 16 lam / 27 to first order; the next correction to Gamma is O(lam^3)
+    res = boundkit.resonances("schrodinger", "coulomb", {"Z": 1}, window=(-0.6, -0.4),
+                              absorptive=lambda r: -lam * np.exp(-r))
+    (r,) = res.resonances
+    assert r.kind == "quasi-bound" and r.label == "1s"
+    first = 16 * lam / 27
+    assert abs(r.width / first - 1) < 0.5 * lam**2 + 1e-8
+    # real part against the real solve: it moves at second order only
+    real = boundkit.solve("schrodinger", "coulomb", {"Z": 1}).levels[0].energy
+    assert real == pytest.approx(-0.5, abs=1e-12)             # exact hydrogen 1s
+    assert 0 < r.energy - real < 0.2 * lam**2
+
+
+@pytest.mark.parametrize("equation, channel", [("dirac", {"kappa": -1}), ("klein-gordon", {"l": 0})])
+def test_relativistic_small_absorption_first_order_width(equation, channel):
+    # Gamma = -2 <W>, <W> from the real solver's normalised state (its own discretization);
+    # Dirac density P^2 + Q^2, Klein-Gordon charge density weight (E + mc^2 - V)/mc^2
+    p = {"Z": 50, "rms_fm": 4.6}
+    lam, a = 1e-3, 0.02
+    W = lambda r: -lam * 1000.0 * np.exp(-r / a)          # noqa: E731  (hartree)
+    level = boundkit.solve(equation, "uniform-sphere", p, **channel).levels[0]
+    s = level.state
+    dens = s.P**2 + (s.Q**2 if s.Q is not None else 0.0)
+    if s.density_weight is not None:
+        dens = dens * s.density_weight
+    W_mean = float(np.sum(s.weights * dens * W(s.r)) / np.sum(s.weights * dens))
+    res = boundkit.resonances(equation, "uniform-sphere", p, window=(1.05 * level.energy, 0.9 * level.energy),
+                              absorptive=W, **channel)
+    (r,) = res.resonances
+    assert r.width == pytest.approx(-2 * W_mean, rel=1e-3)
+    assert r.label == level.label                           # followed from the real limit
+    assert r.energy == pytest.approx(level.energy, rel=1e-6)
+
+
+def test_relativistic_bound_levels_match_the_real_solver():
+    p = {"Z": 50, "rms_fm": 4.6}
+    for equation, channel in (("dirac", {"kappa": -1}), ("dirac", {"kappa": 1}), ("klein-gordon", {"l": 1})):
+        real = boundkit.solve(equation, "uniform-sphere", p, levels=2, **channel)
+        E = [lv.energy for lv in real.levels]
+        res = boundkit.resonances(equation, "uniform-sphere", p, window=(1.01 * E[0], 0.99 * E[1]), **channel)
+        got = [r.energy for r in res.resonances]
+        assert [r.kind for r in res.resonances] == ["bound", "bound"]      # no spurious states in between
+        assert [r.label for r in res.resonances] == [lv.label for lv in real.levels]
+        assert got == pytest.approx(E, rel=1e-9)
+
+
+@pytest.mark.slow
+def test_point_coulomb_relativistic_levels_closed_forms():
+    # r^gamma at a point charge (gamma not an integer) limits the Lobatto elements to algebraic
+    # convergence: the error estimates must still cover the error. Closed forms: Klein-Gordon
+    # E = mc^2 [(1 + (Z alpha)^2 / (n - l - 1/2 + sqrt((l + 1/2)^2 - (Z alpha)^2))^2)^(-1/2) - 1],
+    # Dirac (Sommerfeld) 1s: mc^2 [sqrt(1 - (Z alpha)^2) - 1] (Greiner, Relativistic Quantum
+    # Mechanics; Bethe and Salpeter 1957)
+    a = 1 / C_AU
+    mc2 = C_AU**2
+    d = 0.5 + math.sqrt(0.25 - a**2)
+    kg_1s = mc2 * (1 / math.sqrt(1 + a**2 / d**2) - 1)
+    dirac_1s = mc2 * (math.sqrt(1 - a**2) - 1)
+    for equation, exact in (("klein-gordon", kg_1s), ("dirac", dirac_1s)):
+        res = boundkit.resonances(equation, "coulomb", {"Z": 1}, window=(-0.6, -0.3))
+        (r,) = res.resonances
+        assert r.label in ("1s", "1s1/2")
+        assert abs(r.energy - exact) < 1e-7
+        assert abs(r.energy - exact) <= 2 * r.energy_error
+
+
+def test_dived_dirac_1s_keeps_its_label_beyond_diving():
+    # Z = 190 on a uniform sphere (rms 5.8 fm) is far past the 1s1/2 diving charge (167.55 from
+    # boundkit.critical): the 1s1/2 is a resonance in the lower continuum, the 2s1/2 still bound
+    mc2 = C_AU**2
+    res = boundkit.resonances("dirac", "uniform-sphere", {"Z": 190, "rms_fm": 5.8}, kappa=-1,
+                              window=(-2 * mc2 - 60000, -2 * mc2 + 20000))
+    assert [(r.label, r.kind) for r in res.resonances] == [("1s1/2", "supercritical"), ("2s1/2", "bound")]
+    dived = res.resonances[0]
+    assert dived.energy < -2 * mc2 and dived.width > 0
+    assert dived.complex_energy.imag == pytest.approx(dived.width / 2)   # E + i Gamma/2 (positron emission)
+
+
+# --- the optical potential ------------------------------------------------------------------
+def test_optical_trho_density_normalisation_and_strength():
+    t = OpticalTRho(A=12, c_fm=2.3, a_fm=0.5, b0_re_fm=0.5, b0_im_fm=0.8, mu_mev=450.0)
+    a_b = 0.5 / (boundkit.units.FM_PER_BOHR)
+    # V is proportional to rho; its volume integral is -(2 pi hbar^2/mu)(1 + mu/M) b0 A (exact for any shape)
+    vol = quad(lambda r: 4 * math.pi * r**2 * t(np.array([r]))[0].real, 0, 60 * a_b, limit=200)[0]
+    hbarc = 197.3269804                                   # MeV fm (exact in the 2019 SI, to these digits)
+    M = 938.272089                                        # proton mass, MeV (CODATA 2018/2022 to 9 digits)
+    expected = (-2 * math.pi * hbarc**2 / 450.0 * (1 + 450.0 / M) * 0.5 * 12      # MeV fm^3
+                * 1e6 / HARTREE_EV / boundkit.units.FM_PER_BOHR**3)
+    assert vol == pytest.approx(expected, rel=1e-6)
+    assert t.depth_mev.imag < 0                            # Im b0 > 0 absorbs
+
+
+def test_kaonic_carbon_optical_width_first_order():
+    # t-rho potential with a small purely imaginary b0 on the 1s of a kaon in a uniform-sphere carbon
+    # nucleus (rms 2.47 fm): Gamma -> -2 <Im V_opt> linearly in b0, <.> over the real solver's state
+    p = {"Z": 6, "rms_fm": 2.47}
+    level = boundkit.solve("schrodinger", "uniform-sphere", p, particle="kaon").levels[0]
+    s = level.state
+    dev = []
+    for b_im in (1e-3, 1e-4):
+        W = OpticalTRho(A=12, c_fm=2.3, a_fm=0.5, b0_re_fm=0.0, b0_im_fm=b_im, mu_mev=470.0)
+        W_mean = float(np.sum(s.weights * s.P**2 * W(s.r).imag) / np.sum(s.weights * s.P**2))
+        res = boundkit.resonances("schrodinger", ["uniform-sphere", W], p, particle="kaon",
+                                  window=(1.01 * level.energy, 0.99 * level.energy))
+        (r,) = res.resonances
+        assert r.kind == "quasi-bound"
+        dev.append(abs(r.width / (-2 * W_mean) - 1))
+    assert dev[0] < 2e-4 and dev[1] < 2e-6
+    # the real shift is second order in i W, so the width's next correction is third order:
+    # the relative deviation falls as b0^2 (measured 7.1e-5 and 7.1e-7)
+    assert 50 < dev[0] / dev[1] < 200
+
+
+def test_complex_callable_and_imaginary_part_terms():
+    c = ComplexCallableTerm(lambda r: -1 / np.sqrt(r**2 + 1) - 0.1j * np.exp(-r))
+    v = c(np.array([0.0, 1.0]))
+    assert v.dtype == complex and v[0] == pytest.approx(-1 - 0.1j)
+    i = ImaginaryPart(boundkit.potentials.TERMS["woods-saxon"](depth=1.0, radius=2.0, diffuseness=0.5))
+    assert np.iscomplexobj(i(np.array([1.0])))
+    with pytest.raises(ValueError, match="absorptive: an imaginary part with a Coulomb 1/r end"):
+        ImaginaryPart(boundkit.potentials.TERMS["coulomb"](Z=1))
+
+
+# --- supercritical Dirac: the dived 1s1/2 of a uniformly charged sphere ----------------------
+@pytest.mark.slow
+def test_supercritical_1s_width_grows_from_zero_beyond_diving():
+    mc2 = C_AU**2
+    rms = 5.8
+    zcr = boundkit.critical("dirac", "uniform-sphere", {"Z": 150, "rms_fm": rms}, state="1s1/2", vary="Z",
+                            bracket=(150, 168)).value
+    rows = []
+    for Z in (168.0, 169.0, 172.0, 180.0):
+        res = boundkit.resonances("dirac", "uniform-sphere", {"Z": Z, "rms_fm": rms}, kappa=-1,
+                                  window=(-2 * mc2 - 30000, -2 * mc2 + 3000), order=10)
+        sc = [r for r in res.resonances if r.kind == "supercritical"]
+        assert len(sc) == 1 and sc[0].label == "1s1/2", res
+        rows.append((Z, -(sc[0].energy + 2 * mc2), sc[0].width))
+    depth = np.array([d for _, d, _ in rows])
+    width = np.array([g for _, _, g in rows])
+    assert np.all(np.diff(depth) > 0) and np.all(np.diff(width) > 0)
+    # the depth below -2 m c^2 extrapolates to zero at the diving charge of the real solver
+    slope, icpt = np.polyfit([z for z, _, _ in rows[:2]], depth[:2], 1)
+    assert -icpt / slope == pytest.approx(zcr, abs=0.5)
+    # the width vanishes at diving (0.5 charge beyond it, below 1 eV) and faster than the depth
+    assert width[0] * HARTREE_EV < 1.0
+    assert width[1] / depth[1] < 1e-3 * width[-1] / depth[-1]
+    # order of magnitude: a few keV about 10 charges beyond diving (Mueller, Rafelski and Greiner,
+    # Z. Phys. 257, 62 and 183 (1972), and the review of Reinhardt and Greiner, Rep. Prog. Phys.
+    # 40, 219 (1977): widths of order 1-10 keV there; from memory)
+    width_kev = width[-1] * HARTREE_EV / 1e3
+    assert 0.5 < width_kev < 50
+
+
+# --- input errors -----------------------------------------------------------------------------
+@pytest.mark.parametrize("kwargs, match", [
+    ({"window": (4.0, 3.0)}, "window: need lower < upper"),
+    ({"window": 3.0}, r"window: expected \(lower, upper\)"),
+    ({"window": (3, 4), "angles": (0.3,)}, "angles: give at least two scaling angles"),
+    ({"window": (3, 4), "angles": (0.3, 2.0)}, "angles: give at least two scaling angles"),
+    ({"window": (3, 4), "order": 3}, "order: must be >= 6"),
+    ({"window": (3, 4), "tol": 0}, "tol: must be positive"),
+    ({"window": (3, 4), "r0": -1.0}, "r0: must be >= 0"),
+    ({"window": (3, 4), "r0": 0.0}, "r0: r0 = 0 .* needs analytic="),
+    ({"window": (3, 4), "analytic": 3.0}, "analytic: expected a callable"),
+    ({"window": (3, 4), "r0": 10.0, "r_max": 5.0}, "r_max: must exceed r0"),
+    ({"window": (3, 4), "h": -1.0}, "h: must be positive"),
+])
+def test_bad_arguments(kwargs, match):
+    with pytest.raises(ValueError, match=match):
+        boundkit.resonances("schrodinger", barrier, **kwargs)
+
+
+def test_potential_without_a_tail_is_refused():
+    with pytest.raises(ValueError, match="potential: does not reach a Coulomb tail"):
+        boundkit.resonances("schrodinger", lambda r: -1.0 / (1 + r) ** 0.5, window=(0.1, 1.0))
+
+
+def test_too_large_a_mesh_is_refused():
+    with pytest.raises(ValueError, match="window: the mesh for this window needs"):
+        boundkit.resonances("schrodinger", barrier, window=(1e-4, 400.0))
+
+
+def test_spin_orbit_is_refused():
+    with pytest.raises(ValueError, match="potential: spin-orbit terms are not supported"):
+        boundkit.resonances("schrodinger", "woods-saxon", {"depth": 1.0, "radius": 2.0, "diffuseness": 0.5,
+                                                          "spin_orbit": 0.1}, l=1, window=(-1, 0))
+
+# --- command line -----------------------------------------------------------------------------
+def test_cli_table_and_json():
+    runner = CliRunner()
+    out = runner.invoke(main, ["resonances", "--expr", "7.5*r**2*exp(-r)", "--window", "3,4"])
+    assert out.exit_code == 0, out.output
+    assert "resonance 1" in out.output and "3.42639031" in out.output and "stability test:" in out.output
+    out = runner.invoke(main, ["resonances", "--param", "Z=1", "--absorptive-expr", "-w*exp(-r)", "--param",
+                               "w=0.001", "--window", "-16,-11", "--energy-unit", "eV", "--json"])
+    assert out.exit_code == 0, out.output
+    data = json.loads(out.output)
+    assert data["units"]["energy"] == "eV" and data["units"]["width"] == "eV"
+    (r,) = data["resonances"]
+    assert r["energy"] == pytest.approx(-0.5 * HARTREE_EV, rel=1e-6)
+    assert r["width"] == pytest.approx(16e-3 / 27 * HARTREE_EV, rel=1e-5)
+    assert {"energy_error", "width_error", "runs"} <= set(r)
+
+
+def test_cli_tabulated_barrier(tmp_path, barrier_result):
+    # a table that ends at 40 bohr; the contour bends where its values have fallen below 1e-12 of
+    # the energy scale (the zero tail), and agreement is limited by the interpolation (4001 points)
+    r = np.linspace(0.01, 40.0, 4001)
+    path = tmp_path / "barrier.dat"
+    np.savetxt(path, np.c_[r, barrier(r)])
+    out = CliRunner().invoke(main, ["resonances", "--potential-file", str(path), "--table-tail", "zero",
+                                    "--table-origin", "finite", "--window", "3,4", "--json"])
+    assert out.exit_code == 0, out.output
+    data = json.loads(out.output)
+    (res,) = data["resonances"]
+    assert 30.0 < data["settings"]["r0_bohr"] <= 40.0
+    assert res["energy"] == pytest.approx(barrier_result.resonances[0].energy, abs=1e-7)
+    assert res["width"] == pytest.approx(barrier_result.resonances[0].width, abs=1e-7)
+
+
+@pytest.mark.parametrize("args, match", [
+    (["--window", "3"], "boundkit: error: --window '3': write two numbers LO,HI"),
+    (["--window", "3,4", "--angles", "x"], "boundkit: error: --angles 'x': write numbers"),
+    (["--window", "4,3"], "boundkit: error: window: need lower < upper"),
+    (["--window", "3,4", "--energy-unit", "furlong"], "boundkit: error: energy_unit: unknown unit"),
+])
+def test_cli_errors(args, match):
+    out = CliRunner().invoke(main, ["resonances", "--expr", "7.5*r**2*exp(-r)", *args])
+    assert out.exit_code == 2
+    assert match in out.output
+    assert "Traceback" not in out.output
