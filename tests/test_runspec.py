@@ -273,7 +273,7 @@ def test_force_never_replaces_a_folder_that_is_not_run_output(tmp_path):
     out = tmp_path / "important"
     out.mkdir()
     (out / "thesis.tex").write_text("years of work")
-    with pytest.raises(FileExistsError, match="does not hold a boundkit run"):
+    with pytest.raises(FileExistsError, match="has no boundkit run marker"):
         run(spec, out, force=True)
     assert (out / "thesis.tex").read_text() == "years of work"
 

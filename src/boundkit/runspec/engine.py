@@ -16,6 +16,7 @@ import shutil
 import tempfile
 import time
 import tomllib
+import uuid
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Iterable
@@ -156,8 +157,21 @@ def _fmt(x: float | None, digits: int = 10) -> str:
     return f"{x:.{digits}g}"
 
 
-def _looks_like_output(path: Path) -> bool:
-    return path.is_dir() and ((path / "results.json").is_file() or not any(path.iterdir()))
+MARKER = ".boundkit-run.json"
+"""Name of the marker file a run writes into its output folder (its run identity)."""
+
+
+def _run_identity(path: Path) -> str | None:
+    """The run id of a folder boundkit wrote (marker and results.json agree), else None."""
+    try:
+        marker = json.loads((path / MARKER).read_text(encoding="utf-8"))
+        results = json.loads((path / "results.json").read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    rid = marker.get("run_id") if isinstance(marker, dict) else None
+    if not isinstance(rid, str) or not isinstance(results, dict) or results.get("run_id") != rid:
+        return None
+    return rid
 
 
 def _check_target(out: Path, force: bool) -> None:
@@ -165,9 +179,17 @@ def _check_target(out: Path, force: bool) -> None:
         return
     if not force:
         raise FileExistsError(f"output folder {out} exists; choose another with --out or replace it with --force")
-    if not _looks_like_output(out):
-        raise FileExistsError(f"output folder {out} exists and does not hold a boundkit run (no results.json); "
-                              "refusing to replace it even with --force: remove it yourself or choose another")
+    if out.is_symlink() or not out.is_dir():
+        raise FileExistsError(f"output path {out} is not a folder boundkit wrote; refusing to replace it even "
+                              "with --force: choose another --out")
+    if not any(out.iterdir()):
+        return
+    if not (out / MARKER).is_file():
+        raise FileExistsError(f"output folder {out} has no boundkit run marker ({MARKER}); refusing to replace "
+                              "it even with --force: remove it yourself or choose another --out")
+    if _run_identity(out) is None:
+        raise FileExistsError(f"output folder {out}: its run marker does not match its results.json; refusing "
+                              "to replace it even with --force: remove it yourself or choose another --out")
 
 
 def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bool = False) -> RunReport:
@@ -180,8 +202,10 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
     out_dir : path
         Output folder; it must not exist unless ``force`` is true.
     force : bool
-        Replace an existing output folder of an earlier run (a folder holding
-        ``results.json``, or an empty one).
+        Replace an existing output folder of an earlier run: only an empty
+        folder, or one holding the run marker ``.boundkit-run.json`` whose run
+        id matches its ``results.json`` (both written by boundkit), is ever
+        removed.
 
     Returns
     -------
@@ -265,6 +289,7 @@ class _Engine:
         self.results: dict[str, Any] = {}
         self.e_unit = spec.energy_unit
         self.l_unit = spec.length_unit
+        self.run_id = uuid.uuid4().hex
 
     # -- helpers ---------------------------------------------------------------------------
     def write(self, name: str, data: str | bytes) -> None:
@@ -296,6 +321,8 @@ class _Engine:
     def run(self) -> RunReport:
         t0 = time.perf_counter()
         spec = self.spec
+        self.write(MARKER, json.dumps({"written_by": "boundkit", "run_id": self.run_id,
+                                       "boundkit_version": __version__, "spec": str(spec.path)}) + "\n")
         self.write("spec.toml", spec.text)
         if spec.solve is not None:
             self._solve(spec.solve)
@@ -739,6 +766,7 @@ class _Engine:
         spec = self.spec
         doc = {
             "boundkit_version": __version__,
+            "run_id": self.run_id,
             "spec": {"file": str(spec.path), "name": spec.name, "title": spec.title, "description": spec.description,
                      "sha256": hashlib.sha256(spec.text.encode("utf-8")).hexdigest()},
             "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
