@@ -128,3 +128,13 @@ def test_a_callable_returning_complex_values_is_refused():
     # a complex dtype with zero imaginary part is a real potential
     res = boundkit.solve("schrodinger", lambda r: (-1 / r).astype(complex), levels=1)
     assert res.levels[0].energy == pytest.approx(-0.5, rel=1e-9)   # exact: -Z^2/2 (common practice)
+
+
+def test_a_table_with_huge_values_is_refused(tmp_path):
+    from boundkit.potentials.tabulated import TabulatedTerm
+
+    r = np.geomspace(1e-3, 10, 12)
+    with pytest.raises(ValueError, match=r"table table: point 1 has V = .* beyond 1e\+30"):
+        TabulatedTerm(r, -1e300 / r)
+    with pytest.raises(ValueError, match=r"tail_charge: magnitude"):
+        TabulatedTerm(r, -1 / r, tail_charge=1e200)

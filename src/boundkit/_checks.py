@@ -8,7 +8,13 @@ from __future__ import annotations
 import math
 from typing import Iterable
 
-__all__ = ["check_finite", "check_positive", "check_int", "check_choice"]
+__all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "MAX_MAGNITUDE"]
+
+MAX_MAGNITUDE = 1e30
+"""Largest magnitude of a potential parameter (in atomic units) or of a probed
+charge. Far beyond any physical value (a nuclear oscillator constant is about
+1e14 hartree/bohr^2); it keeps squares and products of parameters inside the
+floating-point range, so that the solver never overflows."""
 
 
 def check_finite(name: str, value) -> float:
@@ -47,3 +53,12 @@ def check_choice(name: str, value: str, allowed: Iterable[str]) -> str:
     if value not in allowed:
         raise ValueError(f"{name}: unknown value {value!r}; choose one of {', '.join(allowed)}")
     return value
+
+
+def check_parameter(name: str, value) -> float:
+    """A finite potential parameter of magnitude at most :data:`MAX_MAGNITUDE`."""
+    x = check_finite(name, value)
+    if abs(x) > MAX_MAGNITUDE:
+        raise ValueError(f"{name}: magnitude {x:.3g} is beyond {MAX_MAGNITUDE:g}, the largest boundkit accepts "
+                         "(no physical potential needs more); give a smaller value")
+    return x

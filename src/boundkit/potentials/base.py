@@ -15,11 +15,35 @@ from typing import Callable, ClassVar, Mapping
 
 import numpy as np
 
-from .._checks import check_finite
+from .._checks import MAX_MAGNITUDE, check_parameter
 
 log = logging.getLogger(__name__)
 
-__all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "NuclearUnitsTerm"]
+__all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "NuclearUnitsTerm", "refuse_complex"]
+
+
+def refuse_complex(values, label: str, r=None) -> np.ndarray:
+    """``values`` as a float array; ValueError when they carry an imaginary part.
+
+    Complex potentials (optical potentials, resonances) are not supported by
+    the real bound-state solver yet, and casting to float would silently drop
+    the imaginary part. A complex array whose imaginary part is exactly zero
+    is accepted as real.
+    """
+    arr = np.asarray(values)
+    if np.iscomplexobj(arr):
+        imag = np.abs(np.imag(arr))
+        if np.any(imag != 0):
+            i = int(np.argmax(imag))
+            at = "" if r is None or np.ndim(r) == 0 else f" at r = {np.ravel(r)[i]:.3g} bohr"
+            raise ValueError(f"potential: {label} returned complex values (imaginary part {np.ravel(imag)[i]:.3g}"
+                             f"{at}); complex potentials are not supported yet; return real values")
+        arr = np.real(arr)
+    try:
+        return np.asarray(arr, dtype=float)
+    except (TypeError, ValueError):
+        raise ValueError(f"potential: {label} returned values that are not numbers; return an array of "
+                         "floats") from None
 
 
 @dataclass(frozen=True, slots=True)
@@ -30,6 +54,11 @@ class Parameter:
     default: float | None
     unit: str
     doc: str
+
+
+def _short(text: str, limit: int = 60) -> str:
+    text = str(text)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 class Term:
@@ -70,7 +99,7 @@ class Term:
         values = {}
         for p in self.parameters:
             if p.name in params:
-                values[p.name] = check_finite(f"params[{p.name!r}]", params[p.name])
+                values[p.name] = check_parameter(f"params[{p.name!r}]", params[p.name])
             elif p.default is not None:
                 values[p.name] = float(p.default)
             else:
@@ -167,6 +196,10 @@ class ProbedTerm(Term):
         else:
             self._far = "zero"
             self._zinf = float(-r_big[2] * vb[2]) if abs(r_big[2] * vb[2]) > 1e-6 else 0.0
+        for what, z in (("origin charge -r V(r) near r = 0", self._z0), ("tail charge -r V(r) far out", self._zinf)):
+            if abs(z) > MAX_MAGNITUDE:
+                raise ValueError(f"potential: {_short(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
+                                 "in magnitude (hartree bohr); scale the potential down")
 
     @property
     def origin_charge(self) -> float:
@@ -198,7 +231,7 @@ class CallableTerm(ProbedTerm):
         self._probe()
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
-        out = np.asarray(self.func(r), dtype=float)
+        out = refuse_complex(self.func(r), _short(self.label), r)
         if out.shape != np.shape(r):
             out = np.broadcast_to(out, np.shape(r)).astype(float)
         return out

@@ -41,7 +41,7 @@ from typing import Any, Mapping
 import numpy as np
 import scipy.special
 
-from .._checks import check_finite
+from .._checks import check_parameter
 from .base import Parameter, ProbedTerm
 
 __all__ = ["CompiledExpression", "parse_expression", "ExpressionTerm", "FUNCTIONS", "CONSTANTS",
@@ -204,7 +204,7 @@ class CompiledExpression:
                 f"parameter, and no value was given; give it with {example} "
                 f"(or params={{{', '.join(repr(n) + ': ...' for n in missing)}}}); {_ALLOWED}"
             )
-        return {n: check_finite(f"params[{n!r}]", params[n]) for n in self.parameter_names}
+        return {n: check_parameter(f"params[{n!r}]", params[n]) for n in self.parameter_names}
 
     def evaluate(self, r, params: Mapping[str, float] | None = None) -> np.ndarray:
         """Values of the expression at radii ``r`` (vectorised).

@@ -63,7 +63,7 @@ import numpy as np
 import scipy.constants as sc
 from scipy.interpolate import make_interp_spline
 
-from .._checks import check_choice, check_finite
+from .._checks import MAX_MAGNITUDE, check_choice, check_parameter
 from .base import Term
 
 __all__ = ["LENGTH_UNITS", "ENERGY_UNITS", "MIN_POINTS", "TAILS", "ORIGINS", "DEGREES", "read_table",
@@ -136,6 +136,11 @@ def _parse_units(body: str, where: str) -> dict[str, str]:
     if not found:
         raise ValueError(f"{where}: the units line names no unit; {_UNITS_SYNTAX}")
     return found
+
+
+def _clip(text: str, limit: int = 60) -> str:
+    text = str(text)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 def _number(token: str, what: str, where: str) -> float:
@@ -310,6 +315,10 @@ class TabulatedTerm(Term):
             v = v * ENERGY_UNITS[_energy_unit(v_unit, "v_unit")]
             self.path = None
             self.label = label or "table"
+        big = np.nonzero((np.abs(v) > MAX_MAGNITUDE) | (np.abs(r * v) > MAX_MAGNITUDE))[0]
+        if big.size:
+            raise ValueError(f"table {_clip(self.label)}: point {big[0] + 1} has V = {v[big[0]]:.3g} hartree, beyond "
+                             f"{MAX_MAGNITUDE:g} in magnitude (or r V is); check the units of the table")
         self.r, self.V = r, v
         self.values = {}
         self._spline = make_interp_spline(np.log(r), r * v, k=self.degree)
@@ -320,7 +329,7 @@ class TabulatedTerm(Term):
         self._zinf = 0.0
         self._decay = math.inf
         if self.tail == "coulomb":
-            self._zinf = -y_last if tail_charge is None else check_finite("tail_charge", tail_charge)
+            self._zinf = -y_last if tail_charge is None else check_parameter("tail_charge", tail_charge)
             if tail_charge is not None and abs(-y_last - self._zinf) > 1e-6 * max(1.0, abs(self._zinf)):
                 log.warning("%s: the Coulomb tail charge %g differs from -r V = %g at the last point "
                             "(r = %g bohr); V jumps there", self.label, self._zinf, -y_last, r[-1])
