@@ -62,7 +62,7 @@ def test_repeatable_potential_terms_add():
         (("--param", "Z=140"), "Z alpha < \\|kappa\\|"),
         (("--equation", "klein-gordon", "--param", "Z=70"), "Z alpha < l \\+ 1/2"),
         (("--energy-unit", "parsec"), "unknown unit 'parsec'"),
-        (("--tol", "-1"), "tol: must be positive"),
+        (("--tol", "-1"), "--tol: must lie between 0 and 1"),
         (("--method", "magic"), "unknown discretization 'magic'"),
         (("--particle", "tauon"), "particle: unknown value 'tauon'"),
     ],

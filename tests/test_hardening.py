@@ -138,3 +138,164 @@ def test_a_table_with_huge_values_is_refused(tmp_path):
         TabulatedTerm(r, -1e300 / r)
     with pytest.raises(ValueError, match=r"tail_charge: magnitude"):
         TabulatedTerm(r, -1 / r, tail_charge=1e200)
+
+
+# --- one error format everywhere (items 9, 10) ---------------------------------------------------
+@pytest.mark.parametrize("args,pattern", [
+    (["solve", "--no-such-option"], r"no such option.*--no-such-option.*boundkit solve --help"),
+    (["solve", "--levels", "three"], r"--levels.*'three' is not a valid integer.*--help"),
+    (["nosuchcommand"], r"no such command 'nosuchcommand'.*boundkit --help"),
+    (["scan"], r"missing option '--vary'"),
+    (["solve", "--param", "Z=1", "--param", "Z=2"], r"--param Z is given twice \(1 and 2\); give it once"),
+    (["solve", "--particle", "muon", "--mass-mev", "100"],
+     r"--particle muon and --mass-mev 100: give one of them"),
+    (["solve", "--tol", "1"], r"--tol: must lie between 0 and 1, got 1"),
+    (["scan", "--vary", "Z=1:2:2", "--tol", "2"], r"--tol: must lie between 0 and 1, got 2"),
+    (["solve", "--plot", "/"], r"--plot '/': not a file name; write e.g. --plot levels.png"),
+    (["solve", "--plot", "x.gif"], r"--plot 'x.gif': unsupported figure format '.gif'; use .png, .svg or .pdf"),
+])
+def test_usage_and_option_errors_are_one_line(args, pattern):
+    one_line_error(cli(*args), pattern)
+
+
+def test_paths_of_the_wrong_kind_are_one_line(tmp_path):
+    one_line_error(cli("solve", "--potential-file", tmp_path), r"--potential-file.*is a directory")
+    f = tmp_path / "file"
+    f.write_text("x")
+    one_line_error(cli("scan", "--vary", "Z=1:2:2", "--out", f), r"--out.*is a file")
+    one_line_error(cli("run", tmp_path), r"SPEC.toml.*is a directory")
+
+
+def test_a_huge_argument_is_not_echoed_whole():
+    one_line_error(cli("solve", "--potential", "x" * 1_000_000), r"potential: unknown potential 'xxx")
+    one_line_error(cli("solve", "--levels", "7" * 100_000 + "x"), r"--levels")
+
+
+def test_a_unicode_parameter_name_reaches_the_expression():
+    # Python reads identifiers in NFKC form: the expression's name is Z, and so is the --param name
+    res = cli("solve", "-e", "schrodinger", "-n", "1", "--expr", "-ℤ/r", "--param", "ℤ=1")
+    assert res.exit_code == 0, res.output
+    assert "-0.5" in res.stdout
+
+
+def test_the_api_takes_integers_and_numbers_only():
+    for bad in ("3", True, 2.5):
+        with pytest.raises(ValueError, match=r"^levels: expected an integer"):
+            boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=bad)
+    with pytest.raises(ValueError, match=r"params\['Z'\]: expected a number, got True"):
+        boundkit.solve("schrodinger", "coulomb", {"Z": True})
+    with pytest.raises(ValueError, match=r"params\['Z'\]: expected a number, got '1'"):
+        boundkit.solve("schrodinger", "coulomb", {"Z": "1"})
+
+
+def test_ctrl_c_exits_130_and_runtime_warnings_stay_quiet(monkeypatch):
+    import warnings
+
+    import boundkit.cli as cli_mod
+
+    def interrupted(**kw):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(cli_mod, "solve", interrupted)
+    res = cli("solve")
+    assert res.exit_code == 130
+    assert res.stderr.strip() == "boundkit: interrupted"
+
+    real = boundkit.solve
+
+    def noisy(**kw):
+        warnings.warn("overflow encountered in exp", RuntimeWarning)
+        return real(**kw)
+
+    monkeypatch.setattr(cli_mod, "solve", noisy)
+    res = cli("solve", "-n", "1")
+    assert res.exit_code == 0 and "RuntimeWarning" not in res.stderr and "overflow" not in res.stderr
+
+
+def test_converge_says_when_fewer_levels_than_asked_were_found():
+    res = cli("converge", "-e", "schrodinger", "--expr", "-exp(-r)/r", "--levels", "4", "--method", "spectral")
+    assert res.exit_code == 3, res.output
+    assert "partial: found 1 of 4 requested levels" in res.stderr
+
+
+# --- item 5: an output error costs only that output ---------------------------------------------
+SCAN = ["scan", "-e", "schrodinger", "--kappa", "-1", "-n", "1", "--vary", "Z=1,2", "--workers", "1",
+        "--no-progress"]
+
+
+def test_solve_prints_levels_before_a_figure_that_cannot_be_written():
+    res = cli("solve", "-e", "schrodinger", "-n", "1", "--plot", "/proc/no-such-dir/x.png")
+    assert "1s" in res.stdout and "-0.5" in res.stdout        # the levels are out
+    one_line_error(res, r"--plot '/proc/no-such-dir/x.png': cannot write the figure .* results above are complete")
+
+
+def test_scan_prints_rows_before_a_figure_or_files_that_cannot_be_written(tmp_path, monkeypatch):
+    res = cli(*SCAN, "--plot", "/proc/no-such-dir/x.png")
+    assert "-0.5" in res.stdout and "-2" in res.stdout
+    one_line_error(res, r"cannot write the figure")
+    one_line_error(cli(*SCAN, "--out", "/proc/boundkit-out"), r"out: cannot create the folder")
+
+    scan_mod = sys.modules["boundkit.studies.scan"]
+
+    def full(path, data):
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(scan_mod, "write_json_atomic", full)
+    res = cli(*SCAN, "--out", tmp_path / "o")
+    assert "-0.5" in res.stdout
+    assert res.exit_code == 2
+    assert "No space left on device" in res.stderr and "Traceback" not in res.output
+
+
+def test_run_into_an_unwritable_place_is_one_line(tmp_path):
+    spec = write(tmp_path, HYDROGEN)
+    one_line_error(cli("run", spec, "--out", "/proc/boundkit-out"), r"cannot create the output folder")
+
+
+def test_standard_output_on_a_full_disk_is_one_line():
+    if not os.path.exists("/dev/full"):
+        pytest.skip("no /dev/full here")
+    with open("/dev/full", "w") as full:
+        proc = subprocess.run([sys.executable, "-m", "boundkit.cli", "solve", "-e", "schrodinger", "-n", "1"],
+                              stdout=full, stderr=subprocess.PIPE, text=True, timeout=120)
+    assert proc.returncode == 2, proc.stderr
+    assert proc.stderr.strip().splitlines() == ["boundkit: error: cannot write the output (No space left on "
+                                                "device); redirect it to a writable place"]
+
+
+def test_scan_files_are_as_readable_as_run_files(tmp_path):
+    old = os.umask(0o022)
+    try:
+        res = cli(*SCAN, "--out", tmp_path / "o")
+    finally:
+        os.umask(old)
+    assert res.exit_code == 0, res.output
+    for f in [tmp_path / "o" / "scan.csv", tmp_path / "o" / "scan.json", *(tmp_path / "o" / "points").iterdir()]:
+        assert oct(f.stat().st_mode & 0o777) == oct(0o644), f
+
+
+def test_sigterm_to_run_leaves_no_partial_folder(tmp_path):
+    slow = HYDROGEN + """
+[scan]
+model = "h"
+parameter = "Z"
+range = { start = 1.0, stop = 3.0, num = 400 }
+workers = 1
+"""
+    spec = write(tmp_path, slow)
+    proc = subprocess.Popen([sys.executable, "-m", "boundkit.cli", "run", str(spec), "--out", str(tmp_path / "o")],
+                            stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    try:
+        deadline = time.monotonic() + 60
+        while not list(tmp_path.glob(".o.partial-*")) and time.monotonic() < deadline and proc.poll() is None:
+            time.sleep(0.05)
+        assert list(tmp_path.glob(".o.partial-*")), "the run never started"
+        time.sleep(0.3)
+        proc.send_signal(signal.SIGTERM)
+        _, err = proc.communicate(timeout=60)
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+    assert proc.returncode == 143, err
+    assert err.strip() == "boundkit: interrupted"
+    assert sorted(os.listdir(tmp_path)) == ["spec.toml"]

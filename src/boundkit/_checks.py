@@ -18,12 +18,14 @@ floating-point range, so that the solver never overflows."""
 
 
 def check_finite(name: str, value) -> float:
+    if isinstance(value, (bool, str, bytes)):   # True is not 1.0 and "1" is not a number here
+        raise ValueError(f"{name}: expected a number, got {_short(value)}")
     try:
         x = float(value)
     except (TypeError, ValueError):
-        raise ValueError(f"{name}: expected a number, got {value!r}") from None
+        raise ValueError(f"{name}: expected a number, got {_short(value)}") from None
     if not math.isfinite(x):
-        raise ValueError(f"{name}: expected a finite number, got {value!r}")
+        raise ValueError(f"{name}: expected a finite number, got {_short(value)}")
     return x
 
 
@@ -35,14 +37,14 @@ def check_positive(name: str, value) -> float:
 
 
 def check_int(name: str, value, minimum: int | None = None) -> int:
-    if isinstance(value, bool):
-        raise ValueError(f"{name}: expected an integer, got {value!r}")
+    if isinstance(value, (bool, str, bytes)):   # as for numbers: True and "3" are refused
+        raise ValueError(f"{name}: expected an integer, got {_short(value)}")
     try:
         i = int(value)
-    except (TypeError, ValueError):
-        raise ValueError(f"{name}: expected an integer, got {value!r}") from None
-    if i != value and not (isinstance(value, str) and str(i) == value.strip()):
-        raise ValueError(f"{name}: expected an integer, got {value!r}")
+    except (TypeError, ValueError, OverflowError):
+        raise ValueError(f"{name}: expected an integer, got {_short(value)}") from None
+    if i != value:
+        raise ValueError(f"{name}: expected an integer, got {_short(value)}")
     if minimum is not None and i < minimum:
         raise ValueError(f"{name}: must be >= {minimum}, got {i}")
     return i
@@ -51,7 +53,7 @@ def check_int(name: str, value, minimum: int | None = None) -> int:
 def check_choice(name: str, value: str, allowed: Iterable[str]) -> str:
     allowed = list(allowed)
     if value not in allowed:
-        raise ValueError(f"{name}: unknown value {value!r}; choose one of {', '.join(allowed)}")
+        raise ValueError(f"{name}: unknown value {_short(value)}; choose one of {', '.join(allowed)}")
     return value
 
 
@@ -62,3 +64,9 @@ def check_parameter(name: str, value) -> float:
         raise ValueError(f"{name}: magnitude {x:.3g} is beyond {MAX_MAGNITUDE:g}, the largest boundkit accepts "
                          "(no physical potential needs more); give a smaller value")
     return x
+
+
+def _short(value, limit: int = 60) -> str:
+    """repr of ``value`` cut to ``limit`` characters (messages stay short whatever the input)."""
+    text = repr(value)
+    return text if len(text) <= limit else text[: limit - 12] + "..." + text[-9:]

@@ -1,10 +1,16 @@
 """Command line: parse, call the public API, print. No numerics here."""
 from __future__ import annotations
 
+import errno
 import json
 import logging
 import math
+import os
+import signal
 import sys
+import unicodedata
+import warnings
+from pathlib import Path
 
 import click
 
@@ -19,16 +25,107 @@ EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
 
 
+EXIT_INTERRUPTED = 130
+MAX_MESSAGE = 290
+"""Longest error line (characters); long quoted values in a message are shortened."""
+
+
 def _fail(message: str) -> None:
-    click.echo(f"boundkit: error: {message}", err=True)
+    click.echo(f"boundkit: error: {clip_message(message)}", err=True)
     sys.exit(EXIT_BAD_INPUT)
 
 
+def clip_message(message: str) -> str:
+    """``message`` on one line and at most :data:`MAX_MESSAGE` characters.
+
+    Quoted values longer than 40 characters are cut in the middle first (an
+    argument of a megabyte must not be echoed whole), then the tail.
+    """
+    import re
+
+    text = " ".join(str(message).split())
+    if len(text) <= MAX_MESSAGE:
+        return text
+    text = re.sub(r"'[^']{41,}'|\"[^\"]{41,}\"", lambda m: m.group(0)[:24] + "..." + m.group(0)[-8:], text)
+    text = re.sub(r"\S{61,}", lambda m: m.group(0)[:40] + "..." + m.group(0)[-12:], text)
+    return text if len(text) <= MAX_MESSAGE else text[: MAX_MESSAGE - 4] + " ..."
+
+
+class BoundkitGroup(click.Group):
+    """The command group. Whatever goes wrong ends in one line on stderr:
+
+    - bad input, usage errors (unknown option, bad value, missing argument):
+      ``boundkit: error: ... ; see boundkit CMD --help``, exit 2;
+    - Ctrl-C or SIGTERM: ``boundkit: interrupted``, exit 130 (143 for SIGTERM);
+    - standard output that cannot be written (a full disk, a closed pipe):
+      one line, exit 2 (a closed pipe ends quietly).
+    """
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        if not standalone_mode:
+            return super().main(args, prog_name, complete_var, standalone_mode, **extra)
+        try:
+            with warnings.catch_warnings():
+                if not any(a in ("-vv", "-vvv") for a in (args if args is not None else sys.argv[1:])):
+                    warnings.simplefilter("ignore", RuntimeWarning)   # numerical noise: see -vv
+                rv = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
+        except click.exceptions.NoArgsIsHelpError as exc:
+            click.echo(exc.ctx.get_help() if exc.ctx else "")
+            sys.exit(0)
+        except click.UsageError as exc:
+            _fail(f"{_lower(exc.format_message()).rstrip('.')}; see {_command_path(exc.ctx)} --help")
+        except click.ClickException as exc:
+            _fail(exc.format_message())
+        except click.exceptions.Abort:
+            click.echo("boundkit: interrupted", err=True)
+            sys.exit(EXIT_INTERRUPTED)
+        except Terminated as exc:
+            click.echo("boundkit: interrupted", err=True)
+            sys.exit(exc.code)
+        except OSError as exc:
+            _stdout_failed(exc)
+        sys.exit(rv if isinstance(rv, int) else 0)
+
+
+def _lower(text: str) -> str:
+    return text[:1].lower() + text[1:] if text[:2] != text[:2].upper() else text
+
+
+def _command_path(ctx) -> str:
+    names = []
+    while ctx is not None:
+        names.append(ctx.info_name if ctx.parent is not None else "boundkit")
+        ctx = ctx.parent
+    return " ".join(reversed(names)) if names else "boundkit"
+
+
+def _stdout_failed(exc: OSError) -> None:
+    """Standard output could not be written: say so on stderr (a closed pipe quietly)."""
+    try:   # nothing more may reach the broken stream, not even at interpreter exit
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+    if exc.errno == errno.EPIPE:
+        sys.exit(EXIT_BAD_INPUT)
+    _fail(f"cannot write the output ({exc.strerror or exc}); redirect it to a writable place")
+
+
+class Terminated(SystemExit):
+    """SIGTERM: unwinds like Ctrl-C (``finally`` blocks remove temporary files), exit 128 + 15."""
+
+
+def _on_sigterm(signum, frame):  # pragma: no cover - exercised in a subprocess test
+    raise Terminated(128 + signum)
+
+
 def _parse_params(items: tuple[str, ...]) -> dict[str, float]:
+    """NAME=VALUE pairs; names are read in NFKC form, as Python and the expression parser read them."""
     params: dict[str, float] = {}
+    given: dict[str, str] = {}
     for item in items:
         name, eq, value = item.partition("=")
-        name = name.strip()
+        name = unicodedata.normalize("NFKC", name.strip())
         if not eq or not name or not value.strip():
             _fail(f"--param {item!r} is malformed; write NAME=VALUE, for example --param Z=1")
         try:
@@ -37,8 +134,52 @@ def _parse_params(items: tuple[str, ...]) -> dict[str, float]:
             _fail(f"--param {item!r}: {value.strip()!r} is not a number; write NAME=VALUE, e.g. --param Z=82")
         if not math.isfinite(x):
             _fail(f"--param {item!r}: the value must be finite")
+        if name in given and x != params[name]:
+            _fail(f"--param {name} is given twice ({given[name]} and {value.strip()}); give it once")
         params[name] = x
+        given.setdefault(name, value.strip())
     return params
+
+
+def check_tol(tol: float | None, option: str = "--tol") -> None:
+    """The CLI's tolerances lie strictly between 0 and 1, as in run specs."""
+    if tol is not None and not 0 < tol < 1:
+        _fail(f"{option}: must lie between 0 and 1, got {tol:g}; e.g. {option} 1e-10")
+
+
+def check_particle(particle: str | None, mass_mev: float | None) -> None:
+    """--particle and --mass-mev name the same thing: one of them."""
+    if particle is not None and mass_mev is not None:
+        _fail(f"--particle {particle} and --mass-mev {mass_mev:g}: give one of them (a mass makes a particle "
+              "of its own)")
+
+
+_PLOT_FORMATS = (".png", ".svg", ".pdf")
+
+
+def check_plot_path(path: str | None, option: str = "--plot") -> None:
+    """Refuse a figure path that cannot be a file, before anything is computed."""
+    if path is None:
+        return
+    p = Path(path)
+    if not p.name or path.endswith(("/", os.sep)) or p.is_dir():
+        _fail(f"{option} {path!r}: not a file name; write e.g. {option} levels.png")
+    if p.suffix and p.suffix.lower() not in _PLOT_FORMATS:
+        _fail(f"{option} {path!r}: unsupported figure format {p.suffix!r}; use .png, .svg or .pdf")
+
+
+def write_figure(draw, path: str, option: str = "--plot") -> str | None:
+    """Draw a figure after the results are out; an error costs only the figure.
+
+    Returns the path written, or None after a one-line message on stderr.
+    """
+    try:
+        return str(draw(path))
+    except (OSError, ValueError) as exc:
+        reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
+        click.echo(f"boundkit: error: {clip_message(f'{option} {path!r}: cannot write the figure ({reason}); the results above are complete')}",
+                   err=True)
+        return None
 
 
 def _default(x):
@@ -151,13 +292,19 @@ def _subset(text, values):
     return {k: v for k, v in values.items() if k in names}
 
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+@click.group(cls=BoundkitGroup, context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="boundkit")
 @click.option("-v", "--verbose", count=True, help="More log output (-v info, -vv debug).")
 def main(verbose: int) -> None:
     """boundkit: bound states of central potentials (Schrodinger, Klein-Gordon, Dirac)."""
     level = logging.WARNING - 10 * min(verbose, 2)
     logging.basicConfig(level=level, format="%(levelname)s %(name)s: %(message)s")
+    if verbose >= 2:
+        warnings.simplefilter("default", RuntimeWarning)
+    try:
+        signal.signal(signal.SIGTERM, _on_sigterm)   # SIGTERM unwinds like Ctrl-C: temporary files go
+    except ValueError:   # not the main thread (an embedding program)
+        pass
 
 
 @main.command("solve")
@@ -195,6 +342,9 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
     three lowest levels.
     """
+    check_tol(tol)
+    check_particle(particle, mass_mev)
+    check_plot_path(plot_path)
     try:
         unit = canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
@@ -204,14 +354,8 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
                     levels=levels, tol=tol, method=method, order=order, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
                     scalar=scalar or None, units=unit_system, cross_check=cross_check, j=j)
-        if plot_path and res.levels:
-            from .plots import radial_figure
-            radial_figure(res.levels, plot_path, length_unit="fm" if unit_system == "nuclear" else "bohr",
-                          title=f"{res.equation}: {res.potential}")
         from .cli_observables import add_observables, observables_table, write_states_file
         length = "fm" if unit_system == "nuclear" else "bohr"
-        if states_path:
-            write_states_file(res, states_path, length)
         record = res.to_dict(unit)
         extra = ""
         if with_observables and res.levels:
@@ -223,9 +367,26 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
         click.echo(json.dumps(record, default=_default, indent=2))
     else:
         click.echo(_table(res, unit) + extra)
+    outputs_ok = True
+    if states_path:
+        try:
+            write_states_file(res, states_path, length)
+        except (OSError, ValueError) as exc:   # the levels above are complete; only this file is missing
+            reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
+            click.echo(f"boundkit: error: {clip_message(f'--states {states_path!r}: cannot write it ({reason})')}",
+                       err=True)
+            outputs_ok = False
+    if plot_path and res.levels:
+        from .plots import radial_figure
+
+        outputs_ok = write_figure(lambda p: radial_figure(
+            res.levels, p, length_unit=length, title=f"{res.equation}: {res.potential}"), plot_path) is not None \
+            and outputs_ok
     if not res.success:
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
+    if not outputs_ok:
+        sys.exit(EXIT_BAD_INPUT)
 
 
 @main.command("converge")
@@ -248,6 +409,8 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     from .accuracy import converge
 
     methods = ("spectral", "finite-difference") if method == "both" else (method,)
+    check_particle(particle, mass_mev)
+    check_plot_path(plot_path)
     try:
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
@@ -255,9 +418,6 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         res = converge(equation, vector, values, l=l, kappa=kappa, levels=levels, methods=methods,
                        order=order, particle=particle, mass_mev=mass_mev, scalar=scalar or None,
                        units=unit_system)
-        if plot_path:
-            from .plots import convergence_figure
-            convergence_figure(res, plot_path)
     except ValueError as exc:
         _fail(str(exc))
     if as_json:
@@ -266,8 +426,19 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         click.echo(f"{res.equation} equation, potential {res.potential}; errors relative to a spectral "
                    "solve at tol 1e-13")
         click.echo(res.table())
-        if plot_path:
-            click.echo(f"figure: {plot_path}")
+    written = None
+    if plot_path:
+        from .plots import convergence_figure
+
+        written = write_figure(lambda p: convergence_figure(res, p), plot_path)
+        if written and not as_json:
+            click.echo(f"figure: {written}")
+    if len(res.reference) < levels:
+        click.echo(f"boundkit: partial: found {len(res.reference)} of {levels} requested levels; the table "
+                   "shows those found", err=True)
+        sys.exit(EXIT_NOT_CONVERGED)
+    if plot_path and written is None:
+        sys.exit(EXIT_BAD_INPUT)
 
 
 @main.command("potentials")
@@ -324,5 +495,5 @@ from . import cli_observables  # noqa: E402,F401  (registers transitions; solve 
 from . import cli_continuum  # noqa: E402,F401  (registers phases)
 from . import cli_resonances  # noqa: E402,F401  (registers resonances)
 
-if __name__ == "__main__":  # pragma: no cover
-    main()
+if __name__ == "__main__":  # pragma: no cover - `python -m boundkit.cli`: the commands live on boundkit.cli.main
+    sys.modules["boundkit.cli"].main()

@@ -38,6 +38,9 @@ def run_cmd(spec_path: str, out_dir: str | None, force: bool) -> None:
         _fail(str(exc))
     except ValueError as exc:
         _fail(str(exc))
+    except OSError as exc:
+        _fail(f"cannot create the output folder {str(target)!r} ({exc.strerror or exc}); choose a writable "
+              "place with --out")
     click.echo(f"{spec.title}")
     for line in report.headline:
         click.echo(f"  {line}")

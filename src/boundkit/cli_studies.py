@@ -11,7 +11,8 @@ import sys
 
 import click
 
-from .cli import _default, _fail, build_potential, main, potential_options
+from .cli import (EXIT_BAD_INPUT, _default, _fail, build_potential, check_particle, check_plot_path,
+                  check_tol, main, potential_options, write_figure)
 from .units import ENERGY_UNITS
 from .units import energy_unit as canonical_unit
 
@@ -87,6 +88,9 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
     """Levels over a grid of one or two potential parameters, followed by label."""
     from .studies import parse_vary, scan
 
+    check_tol(tol)
+    check_particle(particle, mass_mev)
+    check_plot_path(plot_path)
     try:
         unit = _unit(energy_unit, unit_system)
         if len(varies) > 2:
@@ -107,10 +111,6 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         res = scan(list(equations) or ["dirac"], vector, values, vary, channels=channels, levels=levels, tol=tol,
                    method=method, workers=workers, scheduler=scheduler, out=out, progress=progress,
                    scalar=scalar or None, units=unit_system, **kwargs)
-        if plot_path:
-            from .studies.figures import scan_figure
-
-            scan_figure(res, plot_path, unit=unit)
     except ValueError as exc:
         _fail(str(exc))
     if as_json:
@@ -119,15 +119,24 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         click.echo(res.table(unit))
         click.echo("")
         click.echo(f"{len(res.rows)} rows; {res.solved} point(s) solved, {res.reused} reused; {res.seconds:.1f} s")
-        if out:
+        if out and not res.problems:
             click.echo(f"results: {out}/scan.csv, {out}/scan.json")
-        if plot_path:
-            click.echo(f"figure: {plot_path}")
+    for problem in res.problems:   # output files that could not be written; the table above is complete
+        click.echo(f"boundkit: error: {problem}", err=True)
+    written = None
+    if plot_path:
+        from .studies.figures import scan_figure
+
+        written = write_figure(lambda p: scan_figure(res, p, unit=unit), plot_path)
+        if written and not as_json:
+            click.echo(f"figure: {written}")
     bad = [r for r in res.rows if r["status"] in ("error", "tolerance-not-met")]
     if bad:
         click.echo(f"boundkit: {len(bad)} row(s) with status error or tolerance-not-met; first: "
                    f"{bad[0]['label']} ({bad[0]['status']}: {bad[0]['message']})", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
+    if res.problems or (plot_path and written is None):
+        sys.exit(EXIT_BAD_INPUT)
 
 
 # --- critical -------------------------------------------------------------------------------
@@ -166,6 +175,9 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     """Parameter value where a level unbinds (E -> 0) or dives into the lower continuum."""
     from .studies import StudyError, critical
 
+    check_tol(tol)
+    check_tol(energy_tol, "--energy-tol")
+    check_particle(particle, mass_mev)
     br = _bracket(bracket)
     try:
         extra = ()
@@ -216,6 +228,8 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
     """Schrodinger, Klein-Gordon and Dirac levels side by side, with shifts and fine structure."""
     from .studies import compare
 
+    check_tol(tol)
+    check_particle(particle, mass_mev)
     try:
         unit = _unit(energy_unit, unit_system)
         sunit = canonical_unit(splitting_unit) if splitting_unit else unit

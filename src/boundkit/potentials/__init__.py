@@ -50,6 +50,8 @@ def _make_term(spec, params: Mapping[str, float], used: set, units: str = "atomi
 
 
 def _is_number(v) -> bool:
+    if isinstance(v, (bool, str, bytes)):   # left for the term's check, which refuses them
+        return False
     try:
         float(v)
     except (TypeError, ValueError):

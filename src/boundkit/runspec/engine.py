@@ -28,6 +28,7 @@ from ..observables import LENGTH_UNITS, bohr_to, length_unit as canonical_length
 from ..potentials.base import Term
 from ..units import ENERGY_UNITS, FM_IN_BOHR, MEV_IN_HARTREE, constants_record, energy_unit as canonical_energy_unit
 from ..units import get_particle, hartree_to
+from ..studies._common import umask_mode as _umask_mode
 
 
 from .spec import (_EQUATIONS, _LETTERS, _dotted, _channels_for, SolveSection, ConvergeSection, ScanSection, CriticalSection, CompareSection, RunSpec, load_spec)
@@ -103,13 +104,6 @@ def _clean(x):
     if isinstance(x, np.ndarray):
         return _clean(x.tolist())
     return x
-
-
-def _umask_mode(mode: int) -> int:
-    """``mode`` less the process umask (mkstemp and mkdtemp create private files)."""
-    mask = os.umask(0)
-    os.umask(mask)
-    return mode & ~mask
 
 
 def _atomic_write(path: Path, data: str | bytes) -> None:

@@ -26,7 +26,7 @@ from ..states import principal_n
 
 __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
            "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
-           "write_json_atomic", "ProgressBar", "seeded_level", "expected_labels", "NuclearRadius",
+           "write_json_atomic", "umask_mode", "ProgressBar", "seeded_level", "expected_labels", "NuclearRadius",
            "parameter_units"]
 
 log = logging.getLogger(__name__)
@@ -252,8 +252,15 @@ class NuclearRadius:
 
 
 # --- files ---------------------------------------------------------------------------------
+def umask_mode(mode: int) -> int:
+    """``mode`` less the process umask (mkstemp and mkdtemp create private files)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return mode & ~mask
+
+
 def write_atomic(path: str | os.PathLike, text: str) -> Path:
-    """Write ``text`` to ``path`` through a temporary file and a rename."""
+    """Write ``text`` to ``path`` through a temporary file and a rename (mode 0666 less the umask)."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=".tmp-", suffix=path.suffix)
@@ -262,6 +269,7 @@ def write_atomic(path: str | os.PathLike, text: str) -> Path:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
+        os.chmod(tmp, umask_mode(0o666))
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):

@@ -26,7 +26,7 @@ import os
 import pickle
 import time
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Callable, Mapping, Sequence
 
@@ -153,6 +153,9 @@ class ScanResult:
         Directory of the point files and of scan.csv / scan.json.
     seconds : float
         Wall time of the run.
+    problems : tuple of str
+        Output files that could not be written (the rows are complete all
+        the same); empty when everything was written.
     """
 
     parameters: tuple
@@ -164,6 +167,7 @@ class ScanResult:
     reused: int = 0
     out: str | None = None
     seconds: float = 0.0
+    problems: tuple = ()
 
     @property
     def series_keys(self) -> list[tuple[str, str, str]]:
@@ -434,8 +438,13 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     units = solve_kwargs.get("units", "atomic")
     records: dict[str, dict] = {}
     outdir = Path(out) if out is not None else None
+    problems: list[str] = []
     if outdir is not None:
-        (outdir / _POINTS_DIR).mkdir(parents=True, exist_ok=True)
+        try:
+            (outdir / _POINTS_DIR).mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise ValueError(f"out: cannot create the folder {str(outdir / _POINTS_DIR)!r} "
+                             f"({exc.strerror or exc}); choose a writable folder") from None
         for t in tasks:
             f = outdir / _POINTS_DIR / f"{t['key']}.json"
             if f.exists():
@@ -458,9 +467,9 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         key = record["key"]
         records[key] = record
         solved += 1
-        if outdir is not None:
+        if outdir is not None and not problems:
             t = by_key[key]
-            write_json_atomic(outdir / _POINTS_DIR / f"{key}.json", {
+            _write_or_note(problems, outdir / _POINTS_DIR / f"{key}.json", write_json_atomic, {
                 "key": key, "point": t["point"], "params": t["params"], "equation": t["equation"],
                 "channel": t["channel"], "levels": t["levels"], "tol": t["tol"], "method": t["method"],
                 "potential": describe(t["potential"]), "result": record})
@@ -486,10 +495,21 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
                         reused=reused, out=None if outdir is None else str(outdir),
                         seconds=time.perf_counter() - t0)
     if outdir is not None:
-        write_atomic(outdir / "scan.csv", result.to_csv())
-        write_json_atomic(outdir / "scan.json", result.to_dict())
+        _write_or_note(problems, outdir / "scan.csv", write_atomic, result.to_csv())
+        _write_or_note(problems, outdir / "scan.json", write_json_atomic, result.to_dict())
+        result = replace(result, problems=tuple(problems))
     log.info("scan: %d point(s) solved, %d reused, %.1f s", solved, reused, result.seconds)
     return result
+
+
+def _write_or_note(problems: list[str], path: Path, writer, data) -> None:
+    """Write one output file; an OSError becomes a note in ``problems`` (the scan goes on)."""
+    try:
+        writer(path, data)
+    except OSError as exc:
+        msg = f"out: cannot write {str(path)!r} ({exc.strerror or exc}); the results are complete without it"
+        log.warning("scan: %s", msg)
+        problems.append(msg)
 
 
 def _check_input(todo: list[dict]) -> None:
