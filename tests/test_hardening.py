@@ -299,3 +299,64 @@ workers = 1
     assert proc.returncode == 143, err
     assert err.strip() == "boundkit: interrupted"
     assert sorted(os.listdir(tmp_path)) == ["spec.toml"]
+
+
+# --- item 1: resume only what is truly the same --------------------------------------------------
+def _coulomb_table(path: Path, charge: float) -> Path:
+    r = np.geomspace(1e-4, 400.0, 300)
+    path.write_text("\n".join(f"{float(x)!r} {float(-charge / x)!r}" for x in r) + "\n")
+    return path
+
+
+def test_scan_resume_sees_an_edited_table_file(tmp_path):
+    # V = table (-c/r) + coulomb (-Z/r): E_1s = -(c + Z)^2 / 2 hartree (hydrogen-like, exact)
+    table = _coulomb_table(tmp_path / "t.dat", 1.0)
+    args = ["scan", "-e", "schrodinger", "--kappa", "-1", "-n", "1", "--potential-file", table, "-p", "coulomb",
+            "--vary", "Z=1,2", "--workers", "1", "--no-progress", "--json", "--out", tmp_path / "o"]
+    first = json.loads(cli(*args).stdout)
+    assert [r["energy"] for r in first["rows"]] == pytest.approx([-2.0, -4.5], rel=1e-9)
+    _coulomb_table(table, 2.0)                      # same name, new content
+    again = json.loads(cli(*args).stdout)
+    assert again["reused"] == 0
+    assert [r["energy"] for r in again["rows"]] == pytest.approx([-4.5, -8.0], rel=1e-9)
+    third = json.loads(cli(*args).stdout)           # unchanged now: reused
+    assert third["reused"] == 2 and third["solved"] == 0
+
+
+def test_scan_never_silently_resumes_a_python_callable(tmp_path, caplog):
+    from boundkit.studies import scan
+
+    def make(c):
+        def V(r):
+            return -c / r
+        return V
+
+    kw = dict(vary={"Z": [1.0]}, channels=[{"l": 0}], levels=1, workers=1, out=tmp_path / "o", progress=False)
+    one = scan("schrodinger", [make(1.0), "coulomb"], {}, **kw)
+    assert one.rows[0]["energy"] == pytest.approx(-2.0, rel=1e-9)
+    with caplog.at_level("WARNING"):
+        two = scan("schrodinger", [make(2.0), "coulomb"], {}, **kw)   # another V with the same name
+    assert two.reused == 0 and two.rows[0]["energy"] == pytest.approx(-4.5, rel=1e-9)
+    assert "not reused" in caplog.text and "resume_key" in caplog.text
+    assert two.settings["resume"].startswith("off")
+    # with an explicit key the user vouches for the callable: reused
+    a = scan("schrodinger", [make(2.0), "coulomb"], {}, resume_key="V-c2", **kw)
+    b = scan("schrodinger", [make(2.0), "coulomb"], {}, resume_key="V-c2", **kw)
+    assert a.reused == 0 and b.reused == 1 and b.solved == 0
+    with pytest.raises(ValueError, match="resume_key: expected a non-empty string"):
+        scan("schrodinger", [make(2.0), "coulomb"], {}, resume_key="", **kw)
+
+
+def test_scan_point_keys_cover_the_expression_text_and_the_code_version(tmp_path, monkeypatch):
+    from boundkit.studies import _common, scan
+
+    kw = dict(vary={"Z": [1.0]}, channels=[{"l": 0}], levels=1, workers=1, out=tmp_path / "o", progress=False)
+    from boundkit.potentials.expression import ExpressionTerm
+    a = scan("schrodinger", [ExpressionTerm("-Z/r", {"Z": 1.0})], {}, **kw)
+    b = scan("schrodinger", [ExpressionTerm("-2*Z/r", {"Z": 1.0})], {}, **kw)
+    assert b.reused == 0 and b.rows[0]["energy"] == pytest.approx(-2.0, rel=1e-9)
+    c = scan("schrodinger", [ExpressionTerm("-2*Z/r", {"Z": 1.0})], {}, **kw)
+    assert c.reused == 1
+    monkeypatch.setattr(_common, "code_version", lambda: "another-build")
+    d = scan("schrodinger", [ExpressionTerm("-2*Z/r", {"Z": 1.0})], {}, **kw)
+    assert d.reused == 0

@@ -5,6 +5,8 @@ Nothing here is public API; :mod:`boundkit.studies` re-exports what users need.
 """
 from __future__ import annotations
 
+import functools
+import hashlib
 import json
 import logging
 import math
@@ -26,7 +28,7 @@ from ..states import principal_n
 
 __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
            "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
-           "write_json_atomic", "umask_mode", "ProgressBar", "seeded_level", "expected_labels", "NuclearRadius",
+           "write_json_atomic", "umask_mode", "identity", "code_version", "ProgressBar", "seeded_level", "expected_labels", "NuclearRadius",
            "parameter_units"]
 
 log = logging.getLogger(__name__)
@@ -196,6 +198,68 @@ def describe(spec) -> Any:
     if isinstance(spec, Sequence):
         return [describe(x) for x in spec]
     return repr(spec)
+
+
+def identity(spec, unstable: list[str]) -> Any:
+    """A JSON-ready fingerprint of a potential spec for resume keys: everything that
+    determines its values.
+
+    Names and built-in terms give their name and parameter values; an
+    expression its text and values; a table a SHA-256 hash of its (r, V)
+    points and its origin/tail settings (so an edited file with the same name
+    is a new potential); unit wrappers their inner term. A Python callable or
+    a user's own Term class has no content boundkit can fingerprint: its
+    name is appended to ``unstable`` (the caller then does not resume).
+    """
+    from ..potentials.expression import ExpressionTerm
+    from ..potentials.tabulated import TabulatedTerm
+
+    if spec is None:
+        return None
+    if isinstance(spec, str):
+        return spec.strip().lower()
+    if isinstance(spec, Term):
+        inner = getattr(spec, "inner", None)
+        if isinstance(inner, Term):
+            return {"wrapper": type(spec).__qualname__, "inner": identity(inner, unstable)}
+        if isinstance(spec, TabulatedTerm):
+            digest = hashlib.sha256(np.ascontiguousarray(spec.r, float).tobytes()
+                                    + np.ascontiguousarray(spec.V, float).tobytes()).hexdigest()
+            return {"table_sha256": digest, "origin": spec.origin, "tail": spec.tail, "degree": spec.degree,
+                    "tail_charge": spec.tail_charge}
+        if isinstance(spec, ExpressionTerm):
+            return {"expression": spec.formula, "values": dict(spec.values)}
+        if type(spec) in TERMS.values():
+            return {"term": spec.name, "values": dict(spec.values)}
+        name = getattr(spec, "label", type(spec).__qualname__)
+        unstable.append(str(name))
+        return {"term": type(spec).__qualname__, "label": str(name)}
+    if isinstance(spec, type) and issubclass(spec, Term) and spec in TERMS.values():
+        return spec.name
+    if callable(spec):
+        module = getattr(spec, "__module__", "") or ""
+        if module.startswith("boundkit.") and not hasattr(spec, "__code__"):
+            return repr(spec)        # boundkit's own rule objects print all their settings
+        name = f"{module}.{getattr(spec, '__qualname__', type(spec).__qualname__)}"
+        unstable.append(name)
+        return {"callable": name}
+    if isinstance(spec, Sequence):
+        return [identity(x, unstable) for x in spec]
+    unstable.append(repr(spec)[:60])
+    return repr(spec)
+
+
+@functools.lru_cache(maxsize=1)
+def code_version() -> str:
+    """boundkit's version and a hash of its source files: a changed solver is a new key."""
+    from .. import __version__
+
+    root = Path(__file__).resolve().parent.parent
+    h = hashlib.sha256()
+    for f in sorted(root.rglob("*.py")):
+        h.update(str(f.relative_to(root)).encode())
+        h.update(f.read_bytes())
+    return f"{__version__}+{h.hexdigest()[:16]}"
 
 
 def parameter_units(potential, scalar, names: Sequence[str], units: str = "atomic") -> dict[str, str]:

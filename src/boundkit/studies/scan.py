@@ -35,6 +35,7 @@ import numpy as np
 from .._checks import check_int, check_positive
 from ..solver import solve
 from ..units import constants_record, hartree_to
+from . import _common
 from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, describe,
                       expected_labels, parameter_units, rebuild_potential, resolve_params,
                       write_atomic, write_json_atomic)
@@ -116,13 +117,31 @@ def solve_point(task: Mapping[str, Any]) -> dict:
             "seconds": time.perf_counter() - t0}
 
 
-def _point_key(task: Mapping[str, Any]) -> str:
+def _point_key(task: Mapping[str, Any], potential_id: Any) -> str:
+    """SHA-256 of everything that determines a point's result (see :func:`scan`, Notes)."""
     ident = {k: task[k] for k in ("params", "equation", "channel", "levels", "tol", "method", "solve_kwargs")}
-    ident["potential"] = describe(task["potential"])
-    ident["scalar"] = describe(task["scalar"])
+    ident["potential"] = potential_id
     ident["format"] = _FORMAT
+    ident["code"] = _common.code_version()
     text = json.dumps(ident, sort_keys=True, default=repr)
     return hashlib.sha256(text.encode()).hexdigest()[:24]
+
+
+def _resume_policy(potential, scalar, resume_key: str | None) -> tuple[Any, bool, str]:
+    """(fingerprint of the potential, may points be reused, what was decided and why)."""
+    unstable: list[str] = []
+    ident = {"potential": _common.identity(potential, unstable), "scalar": _common.identity(scalar, unstable)}
+    if resume_key is not None:
+        if not isinstance(resume_key, str) or not resume_key.strip():
+            raise ValueError(f"resume_key: expected a non-empty string naming this version of the potential, "
+                             f"got {resume_key!r}")
+        ident["resume_key"] = resume_key
+        why = f"on: by resume_key {resume_key!r}" if unstable else "on: by content"
+        return ident, True, why
+    if unstable:
+        return ident, False, (f"off: {', '.join(unstable[:3])} has no content boundkit can fingerprint; "
+                              "pass resume_key to reuse its points")
+    return ident, True, "on: by content"
 
 
 # --- the result ----------------------------------------------------------------------------
@@ -326,7 +345,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
          vary: Mapping[str, Sequence[float]], *, channels: Sequence[Mapping[str, int]] | None = None,
          levels: int = 3, tol: float = 1e-10, method: str = "auto", workers: int | None = None,
          scheduler=None, out: str | os.PathLike | None = None,
-         progress: bool | None | Callable[[int, int], None] = None, scalar=None, **solve_kwargs) -> ScanResult:
+         progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
+         **solve_kwargs) -> ScanResult:
     """Bound levels over a grid of one or two potential parameters.
 
     Parameters
@@ -366,6 +386,12 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         ``progress(done, total)`` after each finished point instead.
     scalar : optional
         Lorentz-scalar terms, as for :func:`boundkit.solve`.
+    resume_key : str, optional
+        A name for this version of a potential that holds a Python callable
+        (or a Term class of your own). boundkit cannot fingerprint such code,
+        so without a key its points in ``out`` are never reused (a warning
+        says so); with a key they are reused whenever the key, the settings
+        and the point agree -- change the key when you change the function.
     **solve_kwargs
         Passed to :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
@@ -424,6 +450,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
             if (eq, c) not in pairs:
                 pairs.append((eq, c))
     names = list(grid)
+    potential_id, reusable, resume = _resume_policy(potential, scalar, resume_key)
     tasks = []
     for combo in itertools.product(*(grid[n] for n in names)):
         point = dict(zip(names, combo))
@@ -433,7 +460,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
                     "equation": eq, "channel": c, "levels": levels, "tol": tol, "method": method,
                     "solve_kwargs": dict(solve_kwargs), "potential": potential, "scalar": scalar,
                     "labels": expected_labels(eq, c, levels)}
-            task["key"] = _point_key(task)
+            task["key"] = _point_key(task, potential_id)
             tasks.append(task)
     units = solve_kwargs.get("units", "atomic")
     records: dict[str, dict] = {}
@@ -445,7 +472,9 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         except OSError as exc:
             raise ValueError(f"out: cannot create the folder {str(outdir / _POINTS_DIR)!r} "
                              f"({exc.strerror or exc}); choose a writable folder") from None
-        for t in tasks:
+        if not reusable:
+            log.warning("scan: finished points in %s are not reused: resume %s", outdir, resume)
+        for t in tasks if reusable else ():
             f = outdir / _POINTS_DIR / f"{t['key']}.json"
             if f.exists():
                 try:
@@ -489,7 +518,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
                 "scalar": describe(scalar), "params": {k: (repr(v) if callable(v) else v) for k, v in params.items()},
                 "levels": levels, "tol": tol, "method": method,
                 "solve_kwargs": {k: v for k, v in solve_kwargs.items()},
-                "backend": "dask" if scheduler is not None else "local"}
+                "backend": "dask" if scheduler is not None else "local",
+                "resume": resume if outdir is not None else "off: no out folder", "code": _common.code_version()}
     result = ScanResult(parameters=tuple(names), values=grid, rows=tuple(rows), settings=settings,
                         parameter_units=parameter_units(potential, scalar, names, units), solved=solved,
                         reused=reused, out=None if outdir is None else str(outdir),
