@@ -360,3 +360,66 @@ def test_scan_point_keys_cover_the_expression_text_and_the_code_version(tmp_path
     monkeypatch.setattr(_common, "code_version", lambda: "another-build")
     d = scan("schrodinger", [ExpressionTerm("-2*Z/r", {"Z": 1.0})], {}, **kw)
     assert d.reused == 0
+
+
+# --- item 3: nothing unbounded ------------------------------------------------------------------
+def test_a_huge_scan_grid_is_refused_at_once_with_the_override_named():
+    from boundkit.studies import linspace, parse_vary, scan
+
+    t0 = time.perf_counter()
+    one_line_error(cli("scan", "--vary", "screening_length=1:5:1000000000", "-p", "yukawa", "--param", "Z=1"),
+                   r"vary: 1000000000 points is more than the limit of 10000; .*--max-points")
+    with pytest.raises(ValueError, match=r"vary: 1000000000 points is more than the limit of 10000"):
+        parse_vary("D=1:5:1000000000")
+    with pytest.raises(ValueError, match=r"num: 1000000000 points is more than the limit of 10000"):
+        linspace(0, 1, 10**9)
+    with pytest.raises(ValueError, match=r"scan: 40000 points .* more than the limit of 10000; .*max_points"):
+        scan("schrodinger", "yukawa", {}, {"Z": linspace(1, 2, 200), "screening_length": linspace(1, 2, 200)})
+    assert time.perf_counter() - t0 < 10
+    assert parse_vary("D=1:5:20000", max_points=20000)[1][-1] == 5.0     # the override
+
+
+def test_a_huge_spec_range_is_refused_at_once(tmp_path):
+    from boundkit.runspec import load_spec
+
+    text = HYDROGEN + '\n[scan]\nmodel = "h"\nparameter = "Z"\nrange = { start = 1.0, stop = 2.0, num = 1000000000 }\n'
+    line = text.splitlines().index("range = { start = 1.0, stop = 2.0, num = 1000000000 }") + 1
+    t0 = time.perf_counter()
+    with pytest.raises(ValueError, match=rf"line {line}, key 'scan.range.num': 1000000000 points is more than the "
+                                         r"limit of 10000; .*max_points = N in this \[scan\] section"):
+        load_spec(write(tmp_path, text))
+    assert time.perf_counter() - t0 < 5
+    lifted = text.replace("num = 1000000000 }", "num = 20000 }\nmax_points = 20000")
+    assert len(load_spec(write(tmp_path, lifted, "b.toml")).scan[0].values) == 20000
+
+
+def test_workers_beyond_the_cores_are_refused(monkeypatch):
+    from boundkit.studies import scan
+
+    monkeypatch.setattr(os, "cpu_count", lambda: 2)
+    with pytest.raises(ValueError, match=r"workers: 40 is more than the 2 cores of this machine; use at most 2"):
+        scan("schrodinger", "coulomb", {}, {"Z": [1.0, 2.0]}, workers=40)
+    one_line_error(cli("scan", "--vary", "Z=1,2", "--workers", "40"), r"workers: 40 is more than the 2 cores")
+
+
+def test_l_max_is_bounded_with_an_override():
+    from boundkit.studies import compare
+
+    with pytest.raises(ValueError, match=r"l_max: 1000 is more than the limit of 20; .*max_l_max="):
+        compare("coulomb", {"Z": 1}, l_max=1000)
+    one_line_error(cli("compare", "--l-max", "1000"), r"l_max: 1000 is more than the limit of 20")
+
+
+def test_table_size_is_bounded_and_the_file_is_streamed(tmp_path):
+    from boundkit.potentials.tabulated import read_table
+
+    small = _coulomb_table(tmp_path / "t.dat", 1.0)             # 300 points
+    with pytest.raises(ValueError, match=r"potential file .*: more than 100 points \(the limit\); thin the table "
+                                         r"or pass max_points="):
+        read_table(small, max_points=100)
+    assert read_table(small)[0].size == 300
+    long_line = tmp_path / "long.dat"
+    long_line.write_text("1 " + "2" * 5_000_000)                 # one 5 MB line: not read whole
+    with pytest.raises(ValueError, match=r"line 1 is longer than 1000 characters"):
+        read_table(long_line)
+    one_line_error(cli("solve", "--potential-file", long_line), r"line 1 is longer than 1000 characters")

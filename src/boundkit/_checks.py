@@ -8,7 +8,20 @@ from __future__ import annotations
 import math
 from typing import Iterable
 
-__all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "MAX_MAGNITUDE"]
+__all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "check_count",
+           "check_workers", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_TABLE_POINTS"]
+
+MAX_GRID_POINTS = 10_000
+"""Most points of a scan grid (values x values x equations x channels), or of one
+range in a run spec. Override: ``max_points=`` (API), ``--max-points`` (CLI),
+``max_points = ...`` in a spec's [scan] section."""
+
+MAX_L = 20
+"""Largest l_max of a comparison. Override: ``compare(..., max_l_max=...)``."""
+
+MAX_TABLE_POINTS = 200_000
+"""Most points of a potential table. Override: ``read_table(..., max_points=...)``
+or ``TabulatedTerm(..., max_points=...)``."""
 
 MAX_MAGNITUDE = 1e30
 """Largest magnitude of a potential parameter (in atomic units) or of a probed
@@ -66,7 +79,38 @@ def check_parameter(name: str, value) -> float:
     return x
 
 
+def shorten(text, limit: int = 60) -> str:
+    """``text`` cut in the middle to at most ``limit`` characters (messages stay
+    short whatever the input; the end, e.g. a file name, is kept)."""
+    text = str(text)
+    if len(text) <= limit:
+        return text
+    tail = limit // 2
+    return text[: limit - tail - 3] + "..." + text[-tail:]
+
+
 def _short(value, limit: int = 60) -> str:
-    """repr of ``value`` cut to ``limit`` characters (messages stay short whatever the input)."""
-    text = repr(value)
-    return text if len(text) <= limit else text[: limit - 12] + "..." + text[-9:]
+    """repr of ``value``, shortened."""
+    return shorten(repr(value), limit)
+
+
+def check_count(name: str, count: int, limit: int, override: str, what: str = "points") -> int:
+    """Refuse ``count`` above ``limit``; the message names the override."""
+    if count > limit:
+        raise ValueError(f"{name}: {count}{' ' + what if what else ''} is more than the limit of {limit}; use fewer, or raise the "
+                         f"limit with {override}")
+    return count
+
+
+def check_workers(workers) -> int | None:
+    """Worker processes: an integer from 1 to the number of cores (None: the caller's default)."""
+    import os
+
+    if workers is None:
+        return None
+    workers = check_int("workers", workers, minimum=1)
+    cores = os.cpu_count() or 1
+    if workers > cores:
+        raise ValueError(f"workers: {workers} is more than the {cores} cores of this machine; use at most {cores} "
+                         "(each worker is a process with its own memory; more than the cores only costs memory)")
+    return workers

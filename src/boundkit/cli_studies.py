@@ -72,7 +72,9 @@ def _unit(energy_unit: str | None, unit_system: str) -> str:
 @_particle_options
 @click.option("--rms-rule", default=None, metavar="R0,A_PER_Z",
               help="Set rms_fm at every point from Z: uniform sphere of radius R0 (A_PER_Z Z)^(1/3) fm.")
-@click.option("--workers", type=int, default=None, help="Local worker processes (default: all cores).")
+@click.option("--workers", type=int, default=None, help="Local worker processes (default and most: the cores).")
+@click.option("--max-points", type=int, default=None,
+              help="Largest number of points the scan may have (default 10000).")
 @click.option("--scheduler", default=None, metavar="ADDRESS",
               help="Dask scheduler address, e.g. tcp://127.0.0.1:8786 (needs boundkit[dask]).")
 @click.option("--out", "out", default=None, type=click.Path(file_okay=False),
@@ -83,8 +85,8 @@ def _unit(energy_unit: str | None, unit_system: str) -> str:
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
 def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
              table_origin, table_r_unit, table_v_unit, params, unit_system, varies, ls, kappas, levels, tol,
-             particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, scheduler, out, plot_path,
-             energy_unit, progress, as_json):
+             particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
+             plot_path, energy_unit, progress, as_json):
     """Levels over a grid of one or two potential parameters, followed by label."""
     from .studies import parse_vary, scan
 
@@ -95,7 +97,8 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         unit = _unit(energy_unit, unit_system)
         if len(varies) > 2:
             raise ValueError("--vary: give one or two parameters")
-        vary = dict(parse_vary(v) for v in varies)
+        limit = {} if max_points is None else {"max_points": max_points}
+        vary = dict(parse_vary(v, **limit) for v in varies)
         if len(vary) < len(varies):
             raise ValueError("--vary: each parameter may be varied once")
         # expression and model-file terms are built now: give them the first value of each varied parameter
@@ -110,7 +113,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
         res = scan(list(equations) or ["dirac"], vector, values, vary, channels=channels, levels=levels, tol=tol,
                    method=method, workers=workers, scheduler=scheduler, out=out, progress=progress,
-                   scalar=scalar or None, units=unit_system, **kwargs)
+                   scalar=scalar or None, units=unit_system, **limit, **kwargs)
     except ValueError as exc:
         _fail(str(exc))
     if as_json:

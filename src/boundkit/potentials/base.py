@@ -15,7 +15,7 @@ from typing import Callable, ClassVar, Mapping
 
 import numpy as np
 
-from .._checks import MAX_MAGNITUDE, check_parameter
+from .._checks import MAX_MAGNITUDE, check_parameter, shorten
 
 log = logging.getLogger(__name__)
 
@@ -54,11 +54,6 @@ class Parameter:
     default: float | None
     unit: str
     doc: str
-
-
-def _short(text: str, limit: int = 60) -> str:
-    text = str(text)
-    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 class Term:
@@ -198,7 +193,7 @@ class ProbedTerm(Term):
             self._zinf = float(-r_big[2] * vb[2]) if abs(r_big[2] * vb[2]) > 1e-6 else 0.0
         for what, z in (("origin charge -r V(r) near r = 0", self._z0), ("tail charge -r V(r) far out", self._zinf)):
             if abs(z) > MAX_MAGNITUDE:
-                raise ValueError(f"potential: {_short(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
+                raise ValueError(f"potential: {shorten(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
                                  "in magnitude (hartree bohr); scale the potential down")
 
     @property
@@ -231,7 +226,7 @@ class CallableTerm(ProbedTerm):
         self._probe()
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
-        out = refuse_complex(self.func(r), _short(self.label), r)
+        out = refuse_complex(self.func(r), shorten(self.label), r)
         if out.shape != np.shape(r):
             out = np.broadcast_to(out, np.shape(r)).astype(float)
         return out

@@ -63,7 +63,7 @@ import numpy as np
 import scipy.constants as sc
 from scipy.interpolate import make_interp_spline
 
-from .._checks import MAX_MAGNITUDE, check_choice, check_parameter
+from .._checks import MAX_MAGNITUDE, MAX_TABLE_POINTS, check_choice, check_parameter, shorten
 from .base import Term
 
 __all__ = ["LENGTH_UNITS", "ENERGY_UNITS", "MIN_POINTS", "TAILS", "ORIGINS", "DEGREES", "read_table",
@@ -138,24 +138,38 @@ def _parse_units(body: str, where: str) -> dict[str, str]:
     return found
 
 
-def _clip(text: str, limit: int = 60) -> str:
-    text = str(text)
-    return text if len(text) <= limit else text[: limit - 3] + "..."
-
-
 def _number(token: str, what: str, where: str) -> float:
     try:
         x = float(token)
     except ValueError:
         hint = " (write exponents with E, not D)" if re.fullmatch(r"[-+]?[\d.]+[dD][-+]?\d+", token) else ""
-        raise ValueError(f"{where}: {what} {token!r} is not a number{hint}; each data line holds two "
+        raise ValueError(f"{where}: {what} {shorten(token, 40)!r} is not a number{hint}; each data line holds two "
                          "numbers, r and V; start text lines with #") from None
     if not math.isfinite(x):
-        raise ValueError(f"{where}: {what} is {token!r}; values must be finite numbers; remove or fix the line")
+        raise ValueError(f"{where}: {what} is {shorten(token, 40)!r}; values must be finite numbers; remove or fix the line")
     return x
 
 
-def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "hartree") -> tuple[np.ndarray, np.ndarray]:
+MAX_LINE = 1000
+"""Longest line of a table file, in characters (a line is read at most this far)."""
+
+
+def _lines(fh, name: str):
+    """Lines of an open table file, streamed; a line longer than MAX_LINE is refused unread."""
+    lineno = 0
+    while True:
+        raw = fh.readline(MAX_LINE + 1)
+        if not raw:
+            return
+        lineno += 1
+        if len(raw) > MAX_LINE and not raw.endswith("\n"):
+            raise ValueError(f"potential file {name!r}, line {lineno} is longer than {MAX_LINE} characters; a data "
+                             "line holds two numbers, r and V")
+        yield lineno, raw.rstrip("\r\n")
+
+
+def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "hartree",
+               max_points: int = MAX_TABLE_POINTS) -> tuple[np.ndarray, np.ndarray]:
     """Read a two-column table r, V and convert it to bohr and hartree.
 
     Parameters
@@ -166,6 +180,11 @@ def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "har
         Unit of r when the file declares none.
     v_unit : {'hartree', 'eV', 'keV', 'MeV'}
         Unit of V when the file declares none.
+    max_points : int
+        Most data points accepted (default 200000,
+        :data:`boundkit._checks.MAX_TABLE_POINTS`). The file is streamed
+        line by line, and lines longer than 1000 characters are refused, so
+        memory stays bounded whatever the file.
 
     Returns
     -------
@@ -183,17 +202,25 @@ def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "har
     name = os.fspath(path)
     r_default = _length_unit(r_unit, "r_unit")
     v_default = _energy_unit(v_unit, "v_unit")
+    from .._checks import check_int
+
+    max_points = check_int("max_points", max_points, minimum=MIN_POINTS)
     try:
         with open(name, encoding="utf-8", errors="replace") as fh:
-            lines = fh.read().splitlines()
+            return _read_lines(_lines(fh, shorten(name, 160)), shorten(name, 160), r_default, v_default, max_points)
     except OSError as exc:
-        raise ValueError(f"potential file {name!r}: cannot read it ({exc.strerror or exc})") from None
+        raise ValueError(f"potential file {shorten(name, 160)!r}: cannot read it ({exc.strerror or exc})") from None
+
+
+def _read_lines(lines, name: str, r_default: str, v_default: str, max_points: int):
+    """The body of :func:`read_table`: parse streamed (line number, text) pairs."""
     units: dict[str, str] = {}
     units_line = 0
     rs: list[float] = []
     vs: list[float] = []
     last_line = 0
-    for lineno, raw in enumerate(lines, start=1):
+    lineno = 0
+    for lineno, raw in lines:
         where = f"potential file {name!r}, line {lineno}"
         m = _UNITS_LINE.match(raw)
         if m:
@@ -220,11 +247,14 @@ def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "har
         if rs and r <= rs[-1]:
             raise ValueError(f"{where}: r = {fields[0]} is not larger than r on line {last_line}; "
                              "r must be strictly increasing: sort the points and remove duplicates")
+        if len(rs) >= max_points:
+            raise ValueError(f"potential file {name!r}: more than {max_points} points (the limit); thin the table "
+                             "or pass max_points= to read_table or TabulatedTerm")
         rs.append(r)
         vs.append(v)
         last_line = lineno
     if len(rs) < MIN_POINTS:
-        at = f"line {last_line or len(lines) or 1}"
+        at = f"line {last_line or lineno or 1}"
         raise ValueError(f"potential file {name!r}, {at}: only {len(rs)} data point(s); at least "
                          f"{MIN_POINTS} are needed for the interpolation; add points")
     ru = units.get("r", r_default)
@@ -283,6 +313,8 @@ class TabulatedTerm(Term):
         Units of the table (a file's own units line takes precedence).
     label : str, optional
         Name in reports; default the file name, or "table".
+    max_points : int
+        Most points of a table file (default 200000); see :func:`read_table`.
 
     Notes
     -----
@@ -296,7 +328,8 @@ class TabulatedTerm(Term):
 
     def __init__(self, table, V: Sequence[float] | None = None, *, tail: str = "coulomb",
                  tail_charge: float | None = None, origin: str = "coulomb", r_unit: str = "bohr",
-                 v_unit: str = "hartree", degree: int = 5, label: str | None = None) -> None:
+                 v_unit: str = "hartree", degree: int = 5, label: str | None = None,
+                 max_points: int = MAX_TABLE_POINTS) -> None:
         if isinstance(degree, bool) or degree not in DEGREES:
             raise ValueError(f"degree: the spline degree must be one of 3, 5, 7, got {degree!r}")
         self.degree = int(degree)
@@ -305,7 +338,7 @@ class TabulatedTerm(Term):
         if V is None:
             if not isinstance(table, (str, os.PathLike)):
                 raise ValueError("table: give a file path, or the arrays r and V")
-            r, v = read_table(table, r_unit, v_unit)
+            r, v = read_table(table, r_unit, v_unit, max_points)
             self.path: str | None = os.fspath(table)
             self.label = label or os.path.basename(self.path)
             self.source = f"table file {self.path}"  # type: ignore[misc]
@@ -317,7 +350,7 @@ class TabulatedTerm(Term):
             self.label = label or "table"
         big = np.nonzero((np.abs(v) > MAX_MAGNITUDE) | (np.abs(r * v) > MAX_MAGNITUDE))[0]
         if big.size:
-            raise ValueError(f"table {_clip(self.label)}: point {big[0] + 1} has V = {v[big[0]]:.3g} hartree, beyond "
+            raise ValueError(f"table {shorten(self.label)}: point {big[0] + 1} has V = {v[big[0]]:.3g} hartree, beyond "
                              f"{MAX_MAGNITUDE:g} in magnitude (or r V is); check the units of the table")
         self.r, self.V = r, v
         self.values = {}

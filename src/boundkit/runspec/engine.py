@@ -601,8 +601,8 @@ class _Engine:
         levels = max(n for _kw, _name, n in _channels_for(sec.channels, sec.equation, sec.levels))
         res = _call(studies.scan, equation=sec.equation, potential=vector, params=params,
                     vary={sec.parameter: list(sec.values)}, channels=channels, levels=levels, tol=sec.tolerance,
-                    method=sec.method, workers=sec.workers, scalar=scalar or None, units=spec.units,
-                    **self.particle_kwargs())
+                    method=sec.method, workers=_workers(sec.workers), scalar=scalar or None, units=spec.units,
+                    max_points=sec.max_points * len(channels), **self.particle_kwargs())
         rows = [dict(r) for r in _rows_of(res)]
         if hasattr(res, "to_csv"):
             self.write(f"scan{suffix}.csv", res.to_csv(self.e_unit))
@@ -863,9 +863,18 @@ def _critical_job(kwargs: dict) -> tuple[bool, Any]:
     return True, (_clean(res.to_dict()) if hasattr(res, "to_dict") else {"value": _clean(res)})
 
 
+def _workers(workers: int | None) -> int | None:
+    """A spec's workers, at most the cores of this machine (a spec may come from a larger one)."""
+    cores = os.cpu_count() or 1
+    if workers is not None and workers > cores:
+        log.warning("workers = %d in the spec, but this machine has %d cores: using %d", workers, cores, cores)
+        return cores
+    return workers
+
+
 def _map_jobs(func, jobs: list, workers: int | None) -> list:
     """``[func(job) for job in jobs]``, on up to ``workers`` processes (default: all cores)."""
-    workers = min(workers or os.cpu_count() or 1, len(jobs))
+    workers = min(_workers(workers) or os.cpu_count() or 1, len(jobs))
     if workers <= 1:
         return [func(j) for j in jobs]
     try:

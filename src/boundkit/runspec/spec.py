@@ -22,6 +22,8 @@ from typing import Any, Iterable
 
 import numpy as np
 
+from .._checks import MAX_GRID_POINTS, MAX_L
+
 from .. import __version__
 from ..observables import LENGTH_UNITS, bohr_to, length_unit as canonical_length_unit, mean_radius, rms_radius
 from ..potentials.base import Term
@@ -353,6 +355,7 @@ class ScanSection:
     method: str
     workers: int | None
     differences: tuple[tuple[str, str], ...]
+    max_points: int = MAX_GRID_POINTS
 
 
 @dataclass(frozen=True)
@@ -515,7 +518,7 @@ _SOLVE = ("models", "equations", "channels", "levels", "tolerance", "method", "o
           "differences", "reference", "states")
 _CONVERGE = ("model", "equation", "channel", "levels", "methods", "order")
 _SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tolerance", "method", "workers",
-         "differences")
+         "differences", "max_points")
 _RANGE = ("start", "stop", "num", "spacing")
 _CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tolerance", "energy_tolerance", "kind",
              "workers")
@@ -867,10 +870,17 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
                            f"{param!r} is not one")
         if ("values" in s) == ("range" in s):
             raise rd.error(key + ("values",), "give exactly one of values = [...] or range = {...}", at=key)
+        max_points = rd.get(s, key, "max_points", "int", MAX_GRID_POINTS)
+        if max_points < 1:
+            raise rd.error(key + ("max_points",), f"must be >= 1, got {max_points}")
+        too_many = (f"is more than the limit of {max_points}; use fewer, or raise it with max_points = N in this "
+                    "[scan] section")
         if "values" in s:
             values = tuple(rd.get(s, key, "values", "list:number"))
             if not values:
                 raise rd.error(key + ("values",), "give at least one value")
+            if len(values) > max_points:
+                raise rd.error(key + ("values",), f"{len(values)} values {too_many}")
         else:
             r = rd.get(s, key, "range", "table")
             rk = key + ("range",)
@@ -879,6 +889,8 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
             num = rd.get(r, rk, "num", "int")
             if num < 2:
                 raise rd.error(rk + ("num",), f"must be >= 2, got {num}")
+            if num > max_points:
+                raise rd.error(rk + ("num",), f"{num} points {too_many}")
             spacing = rd.get(r, rk, "spacing", "str", "linear")
             if spacing not in ("linear", "log"):
                 raise rd.error(rk + ("spacing",), f"must be \"linear\" or \"log\", got {spacing!r}")
@@ -897,7 +909,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
             key, model, param, values,
             _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
             _channels(rd, s, key, channels), _levels(rd, s, key, levels), _tolerance(rd, s, key, tolerance), m,
-            workers, _pairs(rd, s, key)))
+            workers, _pairs(rd, s, key), max_points))
 
     critical_secs = []
     for key, s in _sections(rd, data, "critical"):
@@ -939,8 +951,8 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         rd.keys(s, key, _COMPARE, required=("model",))
         _check_studies_available(rd, key, "compare", "compare")
         l_max = rd.get(s, key, "l_max", "int", 1)
-        if l_max < 0:
-            raise rd.error(key + ("l_max",), f"must be >= 0, got {l_max}")
+        if not 0 <= l_max <= MAX_L:
+            raise rd.error(key + ("l_max",), f"must lie between 0 and {MAX_L}, got {l_max}")
         compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels),
                                            _tolerance(rd, s, key, tolerance)))
 

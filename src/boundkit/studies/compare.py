@@ -13,7 +13,7 @@ import logging
 from dataclasses import dataclass, field
 from typing import Any, Mapping
 
-from .._checks import check_int, check_positive
+from .._checks import MAX_L, check_count, check_int, check_positive
 from ..equations.base import letter
 from ..solver import solve
 from ..units import constants_record, energy_unit, hartree_to
@@ -133,7 +133,7 @@ class CompareResult:
 
 def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 1, levels: int = 2,
             particle: str | None = None, mass_mev: float | None = None, tol: float = 1e-10,
-            method: str = "auto", scalar=None, **solve_kwargs) -> CompareResult:
+            method: str = "auto", scalar=None, max_l_max: int = MAX_L, **solve_kwargs) -> CompareResult:
     """Schrodinger, Klein-Gordon and Dirac levels of one potential side by side.
 
     Parameters
@@ -143,9 +143,12 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
     params : dict
         Potential parameters.
     l_max : int
-        Largest orbital l compared (default 1).
+        Largest orbital l compared (default 1), at most ``max_l_max``.
     levels : int
         Levels per channel (n = l + 1 ... l + levels; default 2).
+    max_l_max : int
+        Limit on ``l_max`` (default 20, :data:`boundkit._checks.MAX_L`): each l
+        costs three solves per level; raise it deliberately.
     particle, mass_mev : optional
         The orbiting particle (default electron); the same mass in all three
         equations.
@@ -173,7 +176,8 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
     Error estimates of differences are the sums of the two levels' estimates.
     Use a frequency unit (``'MHz'``, ``'GHz'``) for small splittings.
     """
-    l_max = check_int("l_max", l_max, minimum=0)
+    l_max = check_count("l_max", check_int("l_max", l_max, minimum=0), check_int("max_l_max", max_l_max, minimum=0),
+                        "max_l_max= (API)", "")
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
     common = dict(params=params, levels=levels, tol=tol, method=method, particle=particle, mass_mev=mass_mev,

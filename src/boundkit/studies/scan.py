@@ -32,7 +32,7 @@ from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
-from .._checks import check_int, check_positive
+from .._checks import MAX_GRID_POINTS, check_count, check_int, check_positive, check_workers
 from ..solver import solve
 from ..units import constants_record, hartree_to
 from . import _common
@@ -48,25 +48,25 @@ _POINTS_DIR = "points"
 _FORMAT = 1   # version of the point files; part of the key
 
 
-def linspace(start: float, stop: float, num: int) -> list[float]:
-    """``num`` evenly spaced values from ``start`` to ``stop`` (both included)."""
-    num = check_int("num", num, minimum=1)
+def linspace(start: float, stop: float, num: int, max_points: int = MAX_GRID_POINTS) -> list[float]:
+    """``num`` evenly spaced values from ``start`` to ``stop`` (both included); at most ``max_points``."""
+    num = check_count("num", check_int("num", num, minimum=1), max_points, "max_points=")
     return [float(x) for x in np.linspace(float(start), float(stop), num)]
 
 
-def logspace(start: float, stop: float, num: int) -> list[float]:
+def logspace(start: float, stop: float, num: int, max_points: int = MAX_GRID_POINTS) -> list[float]:
     """``num`` values from ``start`` to ``stop`` (both included, both > 0), evenly
-    spaced in their logarithm. Unlike :func:`numpy.logspace`, the ends are the
-    values themselves, not exponents."""
-    num = check_int("num", num, minimum=1)
+    spaced in their logarithm (at most ``max_points``). Unlike :func:`numpy.logspace`,
+    the ends are the values themselves, not exponents."""
+    num = check_count("num", check_int("num", num, minimum=1), max_points, "max_points=")
     a, b = float(start), float(stop)
     if not (a > 0 and b > 0):
         raise ValueError(f"vary: a logarithmic range needs positive ends, got {a:g} and {b:g}")
     return [float(x) for x in np.geomspace(a, b, num)]
 
 
-def parse_vary(text: str) -> tuple[str, list[float]]:
-    """Read ``NAME=START:STOP:N``, ``NAME=START:STOP:N:log`` or ``NAME=v1,v2,...``."""
+def parse_vary(text: str, max_points: int = MAX_GRID_POINTS) -> tuple[str, list[float]]:
+    """Read ``NAME=START:STOP:N``, ``NAME=START:STOP:N:log`` or ``NAME=v1,v2,...`` (at most ``max_points`` values)."""
     name, eq, rhs = str(text).partition("=")
     name, rhs = name.strip(), rhs.strip()
     hint = "write NAME=START:STOP:N, NAME=START:STOP:N:log or NAME=v1,v2,v3"
@@ -81,11 +81,14 @@ def parse_vary(text: str) -> tuple[str, list[float]]:
             n = int(parts[2])
             if n < 1 or str(n) != parts[2]:
                 raise ValueError
-            values = logspace(a, b, n) if len(parts) == 4 else linspace(a, b, n)
+            check_count("vary", n, max_points, "--max-points (API: max_points=)")
+            values = logspace(a, b, n, max_points) if len(parts) == 4 else linspace(a, b, n, max_points)
         else:
+            if rhs.count(",") >= max_points:
+                check_count("vary", rhs.count(",") + 1, max_points, "--max-points (API: max_points=)", "values")
             values = [float(v) for v in rhs.split(",") if v.strip()]
     except ValueError as exc:
-        if "positive ends" in str(exc):
+        if "positive ends" in str(exc) or "the limit" in str(exc):
             raise
         raise ValueError(f"vary: cannot read {text!r}; {hint} (N a whole number >= 1)") from None
     if not values or not all(math.isfinite(v) for v in values):
@@ -346,7 +349,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
          levels: int = 3, tol: float = 1e-10, method: str = "auto", workers: int | None = None,
          scheduler=None, out: str | os.PathLike | None = None,
          progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
-         **solve_kwargs) -> ScanResult:
+         max_points: int = MAX_GRID_POINTS, **solve_kwargs) -> ScanResult:
     """Bound levels over a grid of one or two potential parameters.
 
     Parameters
@@ -373,7 +376,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     method : str
         Discretization (``'auto'``, ``'spectral'``, ``'finite-difference'``).
     workers : int, optional
-        Local worker processes (default ``os.cpu_count()``; 1 = in this process).
+        Local worker processes, at most the number of cores (default: the
+        cores, or fewer when there are fewer points; 1 = in this process).
     scheduler : str or dask.distributed.Client, optional
         A Dask scheduler address such as ``'tcp://127.0.0.1:8786'`` (or a
         client): the points are then solved on that cluster.
@@ -392,6 +396,10 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         so without a key its points in ``out`` are never reused (a warning
         says so); with a key they are reused whenever the key, the settings
         and the point agree -- change the key when you change the function.
+    max_points : int
+        Most points (values x values x equations x channels) the scan may
+        have, default 10000 (:data:`boundkit._checks.MAX_GRID_POINTS`); raise
+        it for a larger grid.
     **solve_kwargs
         Passed to :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
@@ -422,18 +430,19 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     equations = list(dict.fromkeys(canonical_equation(e) for e in equations))
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
-    if workers is not None:
-        workers = check_int("workers", workers, minimum=1)
+    workers = check_workers(workers)
+    max_points = check_int("max_points", max_points, minimum=1)
     if not isinstance(vary, Mapping) or not 1 <= len(vary) <= 2:
         raise ValueError("vary: give a dict of one or two parameter names -> sequences of values")
     grid: dict[str, tuple] = {}
     for name, vals in vary.items():
         try:
-            vals = tuple(float(v) for v in vals)
+            vals = tuple(float(v) for v in itertools.islice(vals, max_points + 1))   # no endless iterators
         except (TypeError, ValueError):
             raise ValueError(f"vary[{name!r}]: expected a sequence of numbers") from None
         if not vals or not all(math.isfinite(v) for v in vals):
             raise ValueError(f"vary[{name!r}]: expected a non-empty sequence of finite numbers")
+        check_count(f"vary[{name!r}]", len(vals), max_points, "max_points=", "values or more")
         grid[str(name)] = vals
     params = dict(params or {})
     derived = {k for k, v in params.items() if callable(v)}
@@ -450,6 +459,10 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
             if (eq, c) not in pairs:
                 pairs.append((eq, c))
     names = list(grid)
+    total = math.prod(len(v) for v in grid.values()) * len(pairs)
+    if total > max_points:
+        raise ValueError(f"scan: {total} points (values x equations x channels) is more than the limit of "
+                         f"{max_points}; use fewer, or raise it with max_points= (CLI: --max-points)")
     potential_id, reusable, resume = _resume_policy(potential, scalar, resume_key)
     tasks = []
     for combo in itertools.product(*(grid[n] for n in names)):
