@@ -423,3 +423,22 @@ def test_table_size_is_bounded_and_the_file_is_streamed(tmp_path):
     with pytest.raises(ValueError, match=r"line 1 is longer than 1000 characters"):
         read_table(long_line)
     one_line_error(cli("solve", "--potential-file", long_line), r"line 1 is longer than 1000 characters")
+
+
+# --- item 4: figure names never collide --------------------------------------------------------
+def test_run_figures_of_similar_model_names_do_not_collide(tmp_path):
+    from boundkit.runspec import run
+
+    text = HYDROGEN.replace('[models.h]\nterms = ["coulomb"]\nparams = { Z = 1 }\n',
+                            '[models.h]\nterms = ["coulomb"]\nparams = { Z = 1 }\n'
+                            '[models.H]\nterms = ["coulomb"]\nparams = { Z = 2 }\n'
+                            '[models."h/"]\nterms = ["coulomb"]\nparams = { Z = 3 }\n')
+    text = text.replace("[solve]\nfigures = []", '[solve]\nmodels = ["h", "H", "h/"]\nfigures = ["radial"]')
+    out = tmp_path / "o"
+    report = run(write(tmp_path, text), out)
+    on_disk = sorted(str(p.relative_to(out)) for p in out.rglob("*") if p.is_file())
+    assert sorted(report.files) == on_disk
+    figures = [f for f in on_disk if f.endswith(".png")]
+    assert len(figures) == 3, figures
+    res = cli("run", write(tmp_path, text, "b.toml"), "--out", tmp_path / "o2")
+    assert f"wrote {len(on_disk)} files" in res.stdout

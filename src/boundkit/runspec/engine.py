@@ -280,6 +280,7 @@ class _Engine:
         self.headline: list[str] = []
         self.md: list[str] = []
         self.figures: list[tuple[str, str]] = []
+        self.taken: set[str] = set()
         self.results: dict[str, Any] = {}
         self.e_unit = spec.energy_unit
         self.l_unit = spec.length_unit
@@ -288,10 +289,16 @@ class _Engine:
     # -- helpers ---------------------------------------------------------------------------
     def write(self, name: str, data: str | bytes) -> None:
         _atomic_write(self.folder / name, data)
-        self.files.append(name)
+        if name not in self.files:
+            self.files.append(name)
 
     def figure(self, stem: str, caption: str, draw) -> None:
         name = f"{stem}.{self.spec.figure_format}"
+        k = 1
+        while name in self.files or name in self.taken:   # model names h, H and h/ share a slug
+            k += 1
+            name = f"{stem}-{k}.{self.spec.figure_format}"
+        self.taken.add(name)
         try:
             draw(self.folder / name)
             os.chmod(self.folder / name, _umask_mode(0o666))   # save_figure writes through mkstemp
