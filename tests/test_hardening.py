@@ -442,3 +442,19 @@ def test_run_figures_of_similar_model_names_do_not_collide(tmp_path):
     assert len(figures) == 3, figures
     res = cli("run", write(tmp_path, text, "b.toml"), "--out", tmp_path / "o2")
     assert f"wrote {len(on_disk)} files" in res.stdout
+
+
+# --- item 9: files that are not UTF-8 -----------------------------------------------------------
+def test_files_that_are_not_utf8_name_the_file(tmp_path):
+    from boundkit.potentials.catalog import read_model_file
+    from boundkit.runspec import load_spec
+
+    bad = tmp_path / "latin1.toml"
+    bad.write_bytes("title = \"Grüße\"\n".encode("latin-1"))
+    with pytest.raises(ValueError, match=r"run spec .*latin1.toml: not UTF-8 text \(byte 0xfc at position 11\); "
+                                         r"save it as UTF-8"):
+        load_spec(bad)
+    with pytest.raises(ValueError, match=r"potential file .*latin1.toml: not UTF-8 text"):
+        read_model_file(bad)
+    one_line_error(cli("run", bad), r"latin1.toml: not UTF-8 text")
+    one_line_error(cli("solve", "--potential-file", bad), r"latin1.toml: not UTF-8 text")

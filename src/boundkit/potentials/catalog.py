@@ -105,6 +105,9 @@ def read_model_file(path: str | Path, text: str | None = None) -> ModelSpec:
     if text is None:
         try:
             text = path.read_text(encoding="utf-8")
+        except UnicodeDecodeError as exc:
+            raise ValueError(f"potential file {path}: not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at position "
+                             f"{exc.start}); save it as UTF-8") from None
         except OSError as exc:
             raise ValueError(f"potential file {path}: cannot read it ({exc.strerror})") from None
     try:

@@ -753,6 +753,9 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
     if text is None:
         try:
             text = path.read_text(encoding="utf-8")
+        except UnicodeDecodeError as exc:
+            raise ValueError(f"run spec {path}: not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at position "
+                             f"{exc.start}); save it as UTF-8") from None
         except OSError as exc:
             raise ValueError(f"run spec {path}: cannot read it ({exc.strerror or exc})") from None
     try:
