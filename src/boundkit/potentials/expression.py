@@ -76,10 +76,10 @@ CONSTANTS: dict[str, float] = {"pi": math.pi, "e": math.e}
 """Named constants."""
 
 _ALLOWED = (
-    "allowed are numbers, r, parameter names, + - * / ** (not ^), unary -, parentheses, "
-    "the functions " + " ".join(FUNCTIONS) + ", where(condition, a, b) with < <= > >= "
-    "in the condition, and the constants pi and e"
+    "allowed: numbers, r, names, + - * / ** (not ^), ( ), " + " ".join(FUNCTIONS) + ", where(cond, a, b) with "
+    "< <= > >=, pi, e"
 )
+"""The reminder closing every refusal (kept short: a message stays under 300 characters)."""
 
 _BINOPS = {ast.Add: "+", ast.Sub: "-", ast.Mult: "*", ast.Div: "/", ast.Pow: "**"}
 _ADDITIVE = (ast.Add, ast.Sub)
