@@ -76,7 +76,7 @@ CONSTANTS: dict[str, float] = {"pi": math.pi, "e": math.e}
 """Named constants."""
 
 _ALLOWED = (
-    "allowed: numbers, r, names, + - * / ** (not ^), ( ), " + " ".join(FUNCTIONS) + ", where(cond, a, b) with "
+    "allowed: numbers, r, names, + - * / ** (not ^), ( ), " + " ".join(FUNCTIONS) + ", where(condition, a, b) with "
     "< <= > >=, pi, e"
 )
 """The reminder closing every refusal (kept short: a message stays under 300 characters)."""
