@@ -216,4 +216,5 @@ def test_unreachable_dask_scheduler_is_a_clear_error():
     pytest.importorskip("distributed")
     with dask.config.set({"distributed.comm.timeouts.connect": "1s"}):
         with pytest.raises(ValueError, match="cannot reach the Dask scheduler"):
-            scan("schrodinger", "yukawa", {"Z": 1}, {"screening_length": [5.0]}, scheduler="tcp://127.0.0.1:9")
+            scan("schrodinger", "yukawa", {"Z": 1}, {"screening_length": [5.0]}, scheduler="tcp://127.0.0.1:9",
+                 scheduler_timeout=1)

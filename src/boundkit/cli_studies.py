@@ -88,7 +88,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
              particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
              plot_path, energy_unit, progress, as_json):
     """Levels over a grid of one or two potential parameters, followed by label."""
-    from .studies import parse_vary, scan
+    from .studies import StudyError, parse_vary, scan
 
     check_tol(tol)
     check_particle(particle, mass_mev)
@@ -114,7 +114,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         res = scan(list(equations) or ["dirac"], vector, values, vary, channels=channels, levels=levels, tol=tol,
                    method=method, workers=workers, scheduler=scheduler, out=out, progress=progress,
                    scalar=scalar or None, units=unit_system, **limit, **kwargs)
-    except ValueError as exc:
+    except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
         _fail(str(exc))
     if as_json:
         click.echo(json.dumps(res.to_dict(unit), default=_default, indent=2))

@@ -24,6 +24,8 @@ import logging
 import math
 import os
 import pickle
+import re
+import threading
 import time
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from dataclasses import dataclass, field, replace
@@ -33,6 +35,7 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from .._checks import MAX_GRID_POINTS, check_count, check_int, check_positive, check_workers
+from .._checks import shorten
 from ..solver import solve
 from ..units import constants_record, hartree_to
 from . import _common
@@ -298,30 +301,129 @@ def _run_local(tasks, workers, on_done) -> None:
         pool.shutdown(wait=True, cancel_futures=True)
 
 
-def _run_dask(tasks, scheduler, on_done) -> None:
+DASK_TIMEOUT = 10.0
+"""Seconds to connect to a Dask scheduler, and the longest a scan waits while
+the cluster has no worker (at the start, or after workers were lost)."""
+
+_ADDRESS = re.compile(r"^(tcp|tls|ws|wss|inproc)://[^\s/:]+(:\d{1,5})?/?$|^[A-Za-z0-9.\-]+:\d{1,5}$")
+
+
+def _dask_address(scheduler: str) -> str:
+    text = str(scheduler).strip()
+    if not _ADDRESS.match(text):
+        raise ValueError(f"scheduler: {shorten(text)!r} is not a Dask scheduler address; write e.g. "
+                         "tcp://127.0.0.1:8786")
+    return text
+
+
+def _run_dask(tasks, scheduler, on_done, timeout: float = DASK_TIMEOUT) -> None:
+    """Solve the points on a Dask cluster; every failure mode ends within a bounded time.
+
+    Connecting (address, handshake) takes at most ``timeout`` seconds; a
+    cluster without workers is waited for at most ``timeout`` seconds, at the
+    start and whenever all workers are gone (a lost worker's points go to the
+    others first). A point whose worker died (KilledWorker) or that failed
+    inside Dask is recorded as a transient error (not written to ``out``, so a
+    rerun solves it again). Finished points are handed to ``on_done`` (which
+    writes them) as they arrive, so nothing finished is lost.
+    """
     try:
-        from dask.distributed import Client, as_completed
+        from dask.distributed import Client
     except ImportError:
         raise ValueError("scheduler: Dask is not installed; install it with pip install 'boundkit[dask]'") from None
     own = isinstance(scheduler, str)
     if own:
-        try:
-            client = Client(scheduler)   # connect timeout: dask config distributed.comm.timeouts.connect
-        except (OSError, TimeoutError) as exc:
-            raise ValueError(f"scheduler: cannot reach the Dask scheduler at {scheduler!r} ({exc}); "
-                             "check the address, e.g. tcp://127.0.0.1:8786") from None
+        client = _connect(Client, _dask_address(scheduler), timeout)
     else:
         client = scheduler
     futures = []
     try:
+        _wait_for_workers(client, timeout, done=0, total=len(tasks))
         futures = client.map(solve_point, tasks, pure=False)
-        for fut in as_completed(futures):
-            on_done(fut.result())
+        key_of = {f.key: t["key"] for f, t in zip(futures, tasks)}
+        pending = list(futures)
+        quiet_since = time.monotonic()
+        while pending:
+            done = [f for f in pending if f.done()]
+            if not done:
+                time.sleep(0.05)
+                if time.monotonic() - quiet_since > 1.0:    # nothing for a second: are there workers?
+                    _wait_for_workers(client, timeout, done=len(futures) - len(pending), total=len(futures))
+                    quiet_since = time.monotonic()
+                continue
+            quiet_since = time.monotonic()
+            finished = {id(f) for f in done}
+            pending = [f for f in pending if id(f) not in finished]
+            for fut in done:
+                try:
+                    record = fut.result()
+                except Exception as exc:  # noqa: BLE001 - KilledWorker, lost data: a transient error
+                    record = {"key": key_of[fut.key], "status": "error", "levels": [], "seconds": 0.0,
+                              "transient": True,
+                              "message": f"Dask: {type(exc).__name__}: {shorten(str(exc), 120)}; rerun to solve it again"}
+                on_done(record)
     finally:
         for fut in futures:
             fut.cancel()
         if own:
+            client.close(timeout=timeout)
+
+
+def _connect(Client, address: str, timeout: float):
+    """A Client for ``address``, made in a helper thread that is given ``timeout`` + 2 s.
+
+    The library's own connect timeout does not cover a handshake with a port
+    that accepts the connection and then says nothing a Dask scheduler would
+    (an HTTP server): that waited forever. A client that arrives after the
+    deadline is closed at once.
+    """
+    box: dict = {}
+    gave_up = threading.Event()
+
+    def target() -> None:
+        try:
+            client = Client(address, timeout=timeout, set_as_default=False)
+        except Exception as exc:  # noqa: BLE001 - handed to the caller
+            box["error"] = exc
+            return
+        if gave_up.is_set():
             client.close()
+        else:
+            box["client"] = client
+
+    thread = threading.Thread(target=target, name="boundkit-dask-connect", daemon=True)
+    thread.start()
+    thread.join(timeout + 2.0)
+    if thread.is_alive() or not box:
+        gave_up.set()
+        raise ValueError(f"scheduler: {shorten(address)!r} accepted the connection but did not answer as a Dask "
+                         f"scheduler within {timeout + 2.0:g} s; check the address and port")
+    exc = box.get("error")
+    if isinstance(exc, (OSError, TimeoutError)):
+        raise ValueError(f"scheduler: cannot reach the Dask scheduler at {shorten(address)!r} within {timeout:g} s "
+                         f"({type(exc).__name__}); check the address and that the scheduler runs") from None
+    if exc is not None:   # garbage on the port: the library fails in odd ways (huge allocations, bad frames)
+        raise ValueError(f"scheduler: {shorten(address)!r} does not answer as a Dask scheduler "
+                         f"({type(exc).__name__}); check the address and port") from None
+    return box["client"]
+
+
+def _wait_for_workers(client, timeout: float, done: int, total: int) -> None:
+    """Return when the cluster has a worker; StudyError after ``timeout`` seconds without one."""
+    try:
+        n = len(client.scheduler_info().get("workers", {}))
+    except Exception:  # noqa: BLE001 - the scheduler itself is gone
+        n = 0
+    if n:
+        return
+    try:
+        client.wait_for_workers(1, timeout=timeout)
+    except Exception as exc:  # noqa: BLE001 - TimeoutError, or the scheduler closed
+        from ._common import StudyError
+
+        raise StudyError(f"scheduler: the Dask cluster has had no worker for {timeout:g} s "
+                         f"({type(exc).__name__}); {done} of {total} points finished and kept; start workers "
+                         "and rerun (with --out the finished points are reused)") from None
 
 
 def _rows_for(task, record) -> list[dict]:
@@ -349,7 +451,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
          levels: int = 3, tol: float = 1e-10, method: str = "auto", workers: int | None = None,
          scheduler=None, out: str | os.PathLike | None = None,
          progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
-         max_points: int = MAX_GRID_POINTS, **solve_kwargs) -> ScanResult:
+         max_points: int = MAX_GRID_POINTS, scheduler_timeout: float = DASK_TIMEOUT,
+         **solve_kwargs) -> ScanResult:
     """Bound levels over a grid of one or two potential parameters.
 
     Parameters
@@ -381,6 +484,12 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     scheduler : str or dask.distributed.Client, optional
         A Dask scheduler address such as ``'tcp://127.0.0.1:8786'`` (or a
         client): the points are then solved on that cluster.
+    scheduler_timeout : float
+        Seconds (default 10) to connect to the scheduler, and the longest the
+        scan waits while the cluster has no worker; then it stops with
+        :class:`~boundkit.studies.StudyError`, keeping the finished points
+        (written to ``out`` as they arrive). A point whose worker died is an
+        ``error`` row that a rerun solves again.
     out : path, optional
         Directory for the point files (``points/<key>.json``) and for
         ``scan.csv`` and ``scan.json``. Points already there are reused.
@@ -430,6 +539,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     equations = list(dict.fromkeys(canonical_equation(e) for e in equations))
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
+    scheduler_timeout = check_positive("scheduler_timeout", scheduler_timeout)
     workers = check_workers(workers)
     max_points = check_int("max_points", max_points, minimum=1)
     if not isinstance(vary, Mapping) or not 1 <= len(vary) <= 2:
@@ -509,7 +619,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         key = record["key"]
         records[key] = record
         solved += 1
-        if outdir is not None and not problems:
+        if outdir is not None and not problems and not record.get("transient"):
             t = by_key[key]
             _write_or_note(problems, outdir / _POINTS_DIR / f"{key}.json", write_json_atomic, {
                 "key": key, "point": t["point"], "params": t["params"], "equation": t["equation"],
@@ -519,7 +629,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
 
     try:
         if scheduler is not None:
-            _run_dask(todo, scheduler, on_done)
+            _run_dask(todo, scheduler, on_done, scheduler_timeout)
         else:
             _run_local(todo, workers or os.cpu_count() or 1, on_done)
     finally:
