@@ -64,6 +64,10 @@ class BoundkitGroup(click.Group):
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
         if not standalone_mode:
             return super().main(args, prog_name, complete_var, standalone_mode, **extra)
+        try:   # SIGTERM unwinds like Ctrl-C (temporary files go), for this command only
+            previous = signal.signal(signal.SIGTERM, _on_sigterm)
+        except ValueError:   # not the main thread (an embedding program)
+            previous = None
         try:
             with warnings.catch_warnings():
                 if not any(a in ("-vv", "-vvv") for a in (args if args is not None else sys.argv[1:])):
@@ -84,6 +88,9 @@ class BoundkitGroup(click.Group):
             sys.exit(exc.code)
         except OSError as exc:
             _stdout_failed(exc)
+        finally:
+            if previous is not None:
+                signal.signal(signal.SIGTERM, previous)
         sys.exit(rv if isinstance(rv, int) else 0)
 
 
@@ -301,10 +308,6 @@ def main(verbose: int) -> None:
     logging.basicConfig(level=level, format="%(levelname)s %(name)s: %(message)s")
     if verbose >= 2:
         warnings.simplefilter("default", RuntimeWarning)
-    try:
-        signal.signal(signal.SIGTERM, _on_sigterm)   # SIGTERM unwinds like Ctrl-C: temporary files go
-    except ValueError:   # not the main thread (an embedding program)
-        pass
 
 
 @main.command("solve")

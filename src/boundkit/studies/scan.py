@@ -15,6 +15,7 @@ At the end the whole table is written as ``scan.csv`` and ``scan.json``.
 """
 from __future__ import annotations
 
+import asyncio
 import csv
 import hashlib
 import io
@@ -25,6 +26,7 @@ import math
 import os
 import pickle
 import re
+import socket
 import threading
 import time
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
@@ -370,42 +372,66 @@ def _run_dask(tasks, scheduler, on_done, timeout: float = DASK_TIMEOUT) -> None:
 
 
 def _connect(Client, address: str, timeout: float):
-    """A Client for ``address``, made in a helper thread that is given ``timeout`` + 2 s.
+    """A Client for ``address`` after a bounded check that a Dask scheduler answers there.
 
-    The library's own connect timeout does not cover a handshake with a port
-    that accepts the connection and then says nothing a Dask scheduler would
-    (an HTTP server): that waited forever. A client that arrives after the
-    deadline is closed at once.
+    The library's own connect timeout does not cover a port that accepts the
+    connection and then says nothing a scheduler would (an HTTP server: the
+    client waited forever), and garbage on the port fails in odd ways (huge
+    allocations). So the scheduler is first asked for its identity over one
+    comm, in a private event loop where every step is bounded by ``timeout``
+    (see :func:`_probe`); only a scheduler that answers gets a Client.
     """
     box: dict = {}
-    gave_up = threading.Event()
-
-    def target() -> None:
+    host_port = re.match(r"^(?:tcp://)?\[?([^\]/]+?)\]?:(\d+)/?$", address)
+    if host_port:                     # a plain TCP address: is anything listening?
         try:
-            client = Client(address, timeout=timeout, set_as_default=False)
+            socket.create_connection((host_port.group(1), int(host_port.group(2))), timeout=timeout).close()
+        except OSError as exc:
+            raise ValueError(f"scheduler: cannot reach the Dask scheduler at {shorten(address)!r} within "
+                             f"{timeout:g} s ({exc.strerror or type(exc).__name__}); check the address and that "
+                             "the scheduler runs") from None
+
+    def target() -> None:       # a thread of its own: the caller may already run an event loop
+        try:
+            box["info"] = asyncio.run(_probe(address, timeout))
         except Exception as exc:  # noqa: BLE001 - handed to the caller
             box["error"] = exc
-            return
-        if gave_up.is_set():
-            client.close()
-        else:
-            box["client"] = client
 
-    thread = threading.Thread(target=target, name="boundkit-dask-connect", daemon=True)
+    thread = threading.Thread(target=target, name="boundkit-dask-probe", daemon=True)
     thread.start()
-    thread.join(timeout + 2.0)
-    if thread.is_alive() or not box:
-        gave_up.set()
-        raise ValueError(f"scheduler: {shorten(address)!r} accepted the connection but did not answer as a Dask "
-                         f"scheduler within {timeout + 2.0:g} s; check the address and port")
+    thread.join(3 * timeout + 2.0)     # every step inside is bounded; this is a last guard
     exc = box.get("error")
-    if isinstance(exc, (OSError, TimeoutError)):
+    if isinstance(exc, (OSError, TimeoutError, asyncio.TimeoutError)) and not host_port:
         raise ValueError(f"scheduler: cannot reach the Dask scheduler at {shorten(address)!r} within {timeout:g} s "
                          f"({type(exc).__name__}); check the address and that the scheduler runs") from None
-    if exc is not None:   # garbage on the port: the library fails in odd ways (huge allocations, bad frames)
-        raise ValueError(f"scheduler: {shorten(address)!r} does not answer as a Dask scheduler "
-                         f"({type(exc).__name__}); check the address and port") from None
-    return box["client"]
+    info = box.get("info")
+    if exc is not None or thread.is_alive() or not isinstance(info, dict) or info.get("type") != "Scheduler":
+        what = type(exc).__name__ if exc is not None else "no scheduler identity"
+        raise ValueError(f"scheduler: {shorten(address)!r} does not answer as a Dask scheduler within "
+                         f"{timeout:g} s ({what}); check the address and port") from None
+    try:
+        return Client(address, timeout=timeout, set_as_default=False)
+    except Exception as exc:  # noqa: BLE001 - it answered a moment ago; say so plainly
+        raise ValueError(f"scheduler: connecting a client to {shorten(address)!r} failed ({type(exc).__name__}); "
+                         "try again") from None
+
+
+async def _probe(address: str, timeout: float) -> dict:
+    """The scheduler's identity record, each step (connect, write, read) within ``timeout`` s."""
+    from distributed.comm import connect
+
+    comm = await asyncio.wait_for(connect(address, timeout=timeout), timeout + 1.0)
+    try:
+        await asyncio.wait_for(comm.write({"op": "identity", "reply": True}), timeout)
+        return await asyncio.wait_for(comm.read(), timeout)
+    except (OSError, asyncio.TimeoutError, TimeoutError) as exc:
+        raise _NotAScheduler(type(exc).__name__) from None
+    finally:
+        comm.abort()
+
+
+class _NotAScheduler(Exception):
+    """Something accepted the connection but did not answer as a Dask scheduler."""
 
 
 def _wait_for_workers(client, timeout: float, done: int, total: int) -> None:
