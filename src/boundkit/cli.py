@@ -375,9 +375,9 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
         try:
             write_states_file(res, states_path, length)
         except (OSError, ValueError) as exc:   # the levels above are complete; only this file is missing
-            reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
-            click.echo(f"boundkit: error: {clip_message(f'--states {states_path!r}: cannot write it ({reason})')}",
-                       err=True)
+            text = str(exc) if isinstance(exc, ValueError) else \
+                f"--states {states_path!r}: cannot write it ({exc.strerror or exc})"
+            click.echo(f"boundkit: error: {clip_message(text)}", err=True)
             outputs_ok = False
     if plot_path and res.levels:
         from .plots import radial_figure
