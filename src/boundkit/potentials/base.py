@@ -37,7 +37,8 @@ def refuse_complex(values, label: str, r=None) -> np.ndarray:
             i = int(np.argmax(imag))
             at = "" if r is None or np.ndim(r) == 0 else f" at r = {np.ravel(r)[i]:.3g} bohr"
             raise ValueError(f"potential: {label} returned complex values (imaginary part {np.ravel(imag)[i]:.3g}"
-                             f"{at}); complex potentials are not supported yet; return real values")
+                             f"{at}); complex potentials are not supported yet by the bound-state solver; "
+                             "return real values, or use boundkit.resonances")
         arr = np.real(arr)
     try:
         return np.asarray(arr, dtype=float)
