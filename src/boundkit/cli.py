@@ -9,7 +9,6 @@ import sys
 import click
 
 from . import __version__
-from .solver import solve
 from .units import ENERGY_UNITS, hartree_to
 from .units import energy_unit as canonical_unit
 
@@ -195,6 +194,8 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
     three lowest levels.
     """
+    from .solver import solve  # lazy: `boundkit --help` need not import the solver
+
     try:
         unit = canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
