@@ -44,6 +44,7 @@ def test_lazy_exports_and_submodules():
         assert getattr(boundkit, sub).__name__ == f"boundkit.{sub}"
     assert callable(boundkit.solve) and boundkit.scan.__module__ == "boundkit.studies.scan"
     assert isinstance(boundkit.__version__, str)
+    assert {"solve", "scan", "accuracy", "validate", "runspec"} <= set(dir(boundkit))
 
 
 def test_function_named_like_its_module_stays_the_function():

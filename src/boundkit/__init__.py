@@ -88,4 +88,6 @@ def __getattr__(name: str) -> Any:
 
 
 def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(__all__))
+    import pkgutil
+    submodules = {m.name for m in pkgutil.iter_modules(__path__) if not m.name.startswith("_")}
+    return sorted(set(__all__) | submodules)
