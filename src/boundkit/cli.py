@@ -15,7 +15,6 @@ from pathlib import Path
 import click
 
 from . import __version__
-from .solver import solve
 from .units import ENERGY_UNITS, hartree_to
 from .units import energy_unit as canonical_unit
 
@@ -345,6 +344,8 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
     three lowest levels.
     """
+    from .solver import solve  # lazy: `boundkit --help` need not import the solver
+
     check_tol(tol)
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import math
 
-from scipy.optimize import brentq
 from scipy.special import ai_zeros
 
 from .units import ALPHA, C_AU
@@ -79,6 +78,7 @@ def dirac_spin_symmetric_oscillator(k: float, n_r: int, l: int, m: float = 1.0) 
     omega = math.sqrt(2 * k / m)
     rhs = omega * (2 * n_r + l + 1.5)
     mc2 = m * C_AU**2
+    from scipy.optimize import brentq  # lazy: scipy.optimize costs ~0.2 s to import
     return brentq(lambda e: e * math.sqrt((e + 2 * mc2) / (2 * mc2)) - rhs, 0.0, rhs, xtol=1e-300, rtol=1e-15)
 
 

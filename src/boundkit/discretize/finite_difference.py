@@ -11,7 +11,6 @@ from functools import lru_cache
 
 import numpy as np
 import scipy.sparse as sp
-from findiff import coefficients
 
 from .._checks import check_int
 from ..mesh import LogMap
@@ -22,6 +21,8 @@ __all__ = ["FiniteDifference", "derivative_matrix"]
 
 @lru_cache(maxsize=16)
 def _stencils(order: int):
+    from findiff import coefficients  # lazy: findiff imports sympy (~1 s), paid only when a grid is built
+
     centre = coefficients(deriv=1, acc=order)["center"]
     half = len(centre["offsets"]) // 2
     width = order + 1

@@ -21,7 +21,6 @@ import math
 from fractions import Fraction
 
 import numpy as np
-from scipy.optimize import brentq
 from scipy.special import expit, roots_genlaguerre, roots_legendre, zeta
 
 from ..units import ALPHA, FM_PER_BOHR
@@ -283,6 +282,7 @@ class Fermi(Term):
             hi = math.sqrt(5.0 / 3.0) * rms + a_fm
             while self.rms_of(hi, a_fm) < rms:
                 hi *= 2.0
+            from scipy.optimize import brentq  # lazy: scipy.optimize costs ~0.2 s to import
             c_fm = brentq(lambda c: self.rms_of(c, a_fm) - rms, 0.0, hi, xtol=1e-15 * rms, rtol=1e-15,
                           maxiter=200)
         self.a_fm, self.c_fm = a_fm, c_fm

@@ -38,7 +38,6 @@ import logging
 import math
 from dataclasses import dataclass
 
-import mpmath
 import numpy as np
 from scipy.integrate import solve_ivp
 
@@ -325,6 +324,7 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     (F0, F1), (G0, G1) = ref.F, ref.G
     k, pi = ref.k, math.pi
     if ch.tail_charge != 0.0:       # in mpmath: F and G may be far outside the double range
+        import mpmath  # lazy: only a Coulomb tail needs it
         with mpmath.workdps(30):
             det = F0 * G1 - G0 * F1
             alpha, beta = (raw.u * G1 - G0 * raw.du) / det, (F0 * raw.du - raw.u * F1) / det

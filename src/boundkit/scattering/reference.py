@@ -53,7 +53,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-import mpmath
 import numpy as np
 from scipy.special import spherical_jn, spherical_yn
 
@@ -114,6 +113,7 @@ def _normalised(F, G, cF, cG):
     """F^ = F / |cF| ~ sin(Theta + arg cF) and G^ = (G - x F) / (y |cF|) ~ cos(Theta + arg cF),
     x + i y = cG / cF; in mpmath, because F and G can differ by hundreds of orders of
     magnitude (a strong repulsive Coulomb barrier)."""
+    import mpmath  # lazy: only Coulomb-tail references need it
     z = cG / cF
     x, y = mpmath.re(z), mpmath.im(z)
     a = abs(cF)
@@ -128,6 +128,7 @@ def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float) -> Refe
     ``p_R`` is the equation's p(E) at R (needed to turn the Dirac small
     component into du/dr).
     """
+    import mpmath  # lazy: only Coulomb-tail references need it
     name, m = eq.name, eq.mass
     k = float(wave_number(name, E, m))
     l = eq.l
@@ -166,6 +167,7 @@ def _kg_L(l: int, Z: float) -> float:
 
 def _dirac_coulomb(kappa: int, l: int, E: float, m: float, Z: float, R: float, p_R: float):
     """(P, dP/dr) of the regular and irregular Dirac-Coulomb solutions and their coefficients c."""
+    import mpmath  # lazy: only Coulomb-tail references need it
     c = C_AU
     y = mpmath.mpf(Z) / c
     gamma = mpmath.sqrt(kappa**2 - y**2)      # real: the channel checks Z alpha < |kappa|

@@ -1,0 +1,65 @@
+"""`import boundkit` and the command line load only what they use.
+
+Checked in fresh interpreters through sys.modules (which heavy packages are
+loaded), not by timing: the timing is a benchmark (benchmarks/run.py).
+"""
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+import textwrap
+
+HEAVY = ("sympy", "findiff", "matplotlib", "dask", "distributed", "mpmath")
+
+
+def _loaded_after(code: str) -> list[str]:
+    script = textwrap.dedent(code) + textwrap.dedent(f"""
+        import json, sys
+        print(json.dumps([m for m in {HEAVY!r} if m in sys.modules]))
+    """)
+    out = subprocess.run([sys.executable, "-c", script], check=True, capture_output=True, text=True).stdout
+    return json.loads(out.strip().splitlines()[-1])
+
+
+def test_import_boundkit_loads_no_heavy_package():
+    assert _loaded_after("import boundkit") == []
+
+
+def test_solver_entry_points_and_cli_load_no_heavy_package():
+    assert _loaded_after("""
+        from boundkit import solve, scan, observables, resonances, phase_shifts
+        import boundkit.cli
+        from click.testing import CliRunner
+        assert CliRunner().invoke(boundkit.cli.main, ["--help"]).exit_code == 0
+    """) == []
+
+
+def test_lazy_exports_and_submodules():
+    import boundkit
+
+    for name in boundkit.__all__:
+        assert getattr(boundkit, name) is not None
+    for sub in ("accuracy", "validate", "runspec", "exact", "units"):
+        assert getattr(boundkit, sub).__name__ == f"boundkit.{sub}"
+    assert callable(boundkit.solve) and boundkit.scan.__module__ == "boundkit.studies.scan"
+    assert isinstance(boundkit.__version__, str)
+    assert {"solve", "scan", "accuracy", "validate", "runspec"} <= set(dir(boundkit))
+
+
+def test_function_named_like_its_module_stays_the_function():
+    out = subprocess.run([sys.executable, "-c", textwrap.dedent("""
+        import boundkit.observables, boundkit.transitions, boundkit.resonances, boundkit
+        print(all(callable(f) and not hasattr(f, '__path__') and f.__name__ == n for n, f in
+                  [('observables', boundkit.observables), ('transitions', boundkit.transitions),
+                   ('resonances', boundkit.resonances)]))
+    """)], check=True, capture_output=True, text=True).stdout
+    assert out.strip() == "True"
+
+
+def test_unknown_attribute_raises_attribute_error():
+    import boundkit
+    import pytest
+
+    with pytest.raises(AttributeError, match="module 'boundkit' has no attribute 'no_such_thing'"):
+        boundkit.no_such_thing
