@@ -1,9 +1,15 @@
 """Critical parameters: unbinding (E -> 0) and diving (E -> -2 m c^2)."""
 from __future__ import annotations
 
+import functools
 import math
 
 import pytest
+from click.testing import CliRunner
+from scipy.integrate import solve_ivp
+from scipy.optimize import brentq
+
+from boundkit.cli import main
 
 from boundkit.studies import CriticalResult, NuclearRadius, StudyError, critical
 from boundkit.studies._common import parse_state, state_channel
@@ -170,3 +176,147 @@ def test_bracket_must_hold_the_level_at_exactly_one_end():
         critical("schrodinger", "hulthen", {"Z": 1}, state="2s", vary="delta", bracket=(0.2, 0.3))
     with pytest.raises(ValueError, match="bound at neither"):
         critical("schrodinger", "hulthen", {"Z": 1}, state="2s", vary="delta", bracket=(0.6, 0.7))
+
+
+# --- from any start; the uncertainty --------------------------------------------------------
+def test_uncertainty_never_below_double_precision():
+    # an exact threshold series (p linear and quadratic in s, as for Hulthen s levels) makes the fits of
+    # successive degrees agree to rounding; the uncertainty must still be a few ulp of the value, not 1e-17
+    pts = [{"s": s, "value": 0.84 + 0.3 * s + 0.1 * s**2} for s in (0.4, 0.2, 0.1, 0.05)]
+    best, unc = _extrapolate(pts, "unbind", 0)
+    assert best == pytest.approx(0.84, abs=4 * math.ulp(0.84))
+    assert unc >= 4 * math.ulp(0.84)
+    assert unc < 1e-14
+
+
+def test_errors_of_the_points_are_propagated_through_the_fit():
+    # p = 1 + 0.5 s - 0.2 s^2 + 0.05 s^3 with errors ds = 1e-7 s on s: moving any one s_i by its error
+    # moves the extrapolated value by no more than the reported uncertainty, which is not much larger
+    def series(s):
+        return 1 + 0.5 * s - 0.2 * s**2 + 0.05 * s**3
+
+    s_pts = [0.4, 0.2, 0.1, 0.05, 0.025]
+    pts = [{"s": s, "value": series(s), "s_error": 1e-7 * s} for s in s_pts]
+    best, unc = _extrapolate(pts, "unbind", 0)
+    assert best == pytest.approx(1.0, abs=unc)
+    shifts = []
+    for i in range(len(pts)):
+        for sign in (1, -1):
+            moved = [dict(p) for p in pts]
+            moved[i]["s"] += sign * moved[i]["s_error"]
+            shifts.append(abs(_extrapolate(moved, "unbind", 0)[0] - best))
+    assert max(shifts) > 1e-10                       # the errors matter at this size ...
+    assert max(shifts) <= unc <= 20 * sum(shifts)    # ... and the uncertainty covers them
+
+
+@functools.lru_cache(maxsize=None)
+def _yukawa_1s_critical_screening_length() -> float:
+    """Independent value: the 1s of V = -exp(-r/D)/r (Z = 1, hartree, bohr) unbinds where the
+    zero-energy s-wave solution of -u''/2 + V u = 0, u(0) = 0, becomes flat far out, u'(inf) = 0
+    (a zero-energy bound state: for D below it u' stays > 0, above it u turns over).
+    Integrated with scipy's DOP853 from a series start u = r - r^2 + (1 + 1/D) r^3/3 to r = 40 bohr,
+    where exp(-r/D) ~ 1e-21; root on D by brentq. Changing r_max (40 -> 70), the start (1e-6 -> 1e-5)
+    and rtol (1e-13 -> 3e-14) moves the root by < 1e-14 (measured)."""
+    def slope_far(D: float) -> float:
+        r0 = 1e-6
+        y0 = [r0 - r0**2 + (1 + 1 / D) * r0**3 / 3, 1 - 2 * r0 + (1 + 1 / D) * r0**2]
+        sol = solve_ivp(lambda r, y: [y[1], -2 * math.exp(-r / D) / r * y[0]], (r0, 40.0), y0,
+                        method="DOP853", rtol=1e-13, atol=1e-16)
+        return float(sol.y[1, -1])
+
+    return brentq(slope_far, 0.7, 1.0, xtol=1e-15, rtol=1e-15)
+
+
+@pytest.mark.parametrize("start", [
+    5.0,
+    pytest.param(0.1, marks=pytest.mark.slow),      # level absent at the start
+    pytest.param(20.0, marks=pytest.mark.slow),
+    pytest.param(100.0, marks=pytest.mark.slow),
+    pytest.param(1000.0, marks=pytest.mark.slow),   # nearly hydrogen at the start
+])
+def test_yukawa_1s_critical_screening_length_from_any_start(start):
+    # D_c = 0.83990388669 bohr for the Z = 1 Yukawa 1s level. Rogers, Graboske & Harwood, Phys. Rev. A 1,
+    # 1577 (1970) give delta_c = 1/D_c = 1.19061 (from memory), i.e. D_c = 0.8399 to their precision;
+    # more digits from the independent zero-energy integration above (0.839903886698239).
+    ref = _yukawa_1s_critical_screening_length()
+    assert ref == pytest.approx(0.8399, abs=1e-4)                  # Rogers, Graboske & Harwood 1970
+    res = critical("schrodinger", "yukawa", {"Z": 1, "screening_length": start}, state="1s",
+                   vary="screening_length")
+    assert res.status == "ok", res.message
+    assert res.value == pytest.approx(ref, abs=1e-9)
+    assert res.value == pytest.approx(0.83990388669, abs=1e-10)
+    # a screening length must stay positive: the search steps geometrically, never to 0 or below
+    assert all(p["value"] > 0 for p in res.points)
+    found_at, absent_at = res.bracket
+    assert absent_at < res.value < found_at                        # bound for longer screening lengths
+    # the uncertainty: at least a few ulp, covering the true error, within the bracket
+    assert res.uncertainty >= 4 * math.ulp(res.value)
+    assert abs(res.value - ref) <= 3 * res.uncertainty + 1e-12
+    assert res.uncertainty <= max(found_at - res.value, res.value - absent_at)
+    assert "estimated error" in res.uncertainty_meaning and "ulp" in res.uncertainty_meaning
+
+
+def test_hulthen_2s_from_an_unbound_start():
+    # delta_c = 2 Z / n^2 = 0.75 for Z = 1.5, n = 2 (Flugge, Practical Quantum Mechanics, 1971, from
+    # memory; boundkit.exact.hulthen). At the start 1.0 the level is not bound at all: the search must
+    # look for it on both sides. (A start far below, 1e-3, is run by the command-line test below.)
+    start = 1.0
+    res = critical("schrodinger", "hulthen", {"Z": 1.5, "delta": start}, state="2s", vary="delta")
+    assert res.status == "ok", res.message
+    assert res.value == pytest.approx(0.75, rel=1e-10)
+    assert all(p["value"] > 0 for p in res.points)
+    assert not res.points[0]["found"]
+    assert res.bracket[0] < 0.75 < res.bracket[1]
+    assert abs(res.value - 0.75) <= 3 * res.uncertainty + 1e-14
+    assert res.uncertainty >= 4 * math.ulp(0.75)
+
+
+def test_unbound_start_with_no_bound_value_in_reach_is_refused():
+    with pytest.raises(ValueError, match=r"not bound at screening_length = 0.1, nor anywhere tried from 0.05 to 0.4"):
+        critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 0.1}, state="1s", vary="screening_length",
+                 max_evaluations=4)
+
+
+class _ChargeBelowOneBohrRefused:
+    """A parameter rule that refuses screening lengths below 1 bohr (a range limit not at 0)."""
+
+    def __call__(self, values):
+        if values["screening_length"] < 1:
+            raise ValueError("rule: needs screening_length >= 1")
+        return 1.0
+
+
+def test_critical_value_beyond_the_parameter_range_is_reported():
+    # the 1s unbinds at D ~ 0.84 (above), below the range this rule allows
+    with pytest.raises(StudyError, match=r"would unbind near .* beyond the parameter's range: .*needs "
+                                         r"screening_length >= 1"):
+        critical("schrodinger", "yukawa", {"Z": _ChargeBelowOneBohrRefused(), "screening_length": 2.0},
+                 state="1s", vary="screening_length")
+
+
+def test_cli_critical_explains_its_uncertainty():
+    # Hulthen 2s from delta = 1e-3, a factor 750 below its critical value 0.75 (Flugge 1971, as above)
+    out = CliRunner().invoke(main, ["critical", "-p", "hulthen", "--param", "Z=1.5", "--param", "delta=0.001",
+                                    "--state", "2s", "--vary", "delta"])
+    assert out.exit_code == 0, out.output
+    line = next(x for x in out.output.splitlines() if x.startswith("critical delta = "))
+    value, unc = (float(x) for x in line.removeprefix("critical delta = ").split(" +- "))
+    assert value == pytest.approx(0.75, rel=1e-10)
+    assert 4 * math.ulp(0.75) <= unc < 1e-9
+    assert "uncertainty: +- is the estimated error" in out.output
+
+
+class _OnlyTwoBohr:
+    """A parameter rule that accepts the screening length 2 bohr and nothing else."""
+
+    def __call__(self, values):
+        if values["screening_length"] != 2.0:
+            raise ValueError("rule: needs screening_length = 2")
+        return 1.0
+
+
+def test_a_start_with_no_room_on_either_side_is_reported():
+    with pytest.raises(StudyError, match=r"the potential refuses screening_length = 2.0404 and 1.9604 on either side "
+                                         r"of the start 2"):
+        critical("schrodinger", "yukawa", {"Z": _OnlyTwoBohr(), "screening_length": 2.0}, state="1s",
+                 vary="screening_length")

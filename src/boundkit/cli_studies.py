@@ -205,10 +205,11 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     else:
         lo, hi = res.bracket
         click.echo(f"{res.state} ({res.equation} equation), {'unbinding' if res.kind == 'unbind' else 'diving'}")
-        click.echo(f"critical {res.parameter} = {res.value:.12g} +- {res.uncertainty:.2g}")
+        click.echo(f"critical {res.parameter} = {res.value_text}")
         click.echo(f"bracket: level found at {lo:.12g}, absent at "
                    f"{'-' if hi is None else format(hi, '.12g')}")
         click.echo(f"{res.evaluations} evaluations; status: {res.status} - {res.message}")
+        click.echo(f"uncertainty: {res.uncertainty_meaning}")
     if not res.success:
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)

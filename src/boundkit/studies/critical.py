@@ -11,6 +11,14 @@ polynomial extrapolation of the parameter against a threshold variable that
 vanishes linearly (or, for l > 0, quadratically) at the critical point, and
 is accepted only when successive extrapolations agree to ``tol`` and a
 point just past it has no level.
+
+The search runs in a coordinate that respects the parameter's range: a
+parameter the potential accepts only with one sign (a screening length, a
+range) is stepped geometrically, x = ln|p|, so that no step reaches 0 or
+crosses it; others linearly, x = p. From a start where the level is absent
+the search looks on both sides in growing steps for a value where it is
+bound. The reported uncertainty is the extrapolation's, never below a few
+ulp of the value and never above what the found/absent bracket guarantees.
 """
 from __future__ import annotations
 
@@ -34,6 +42,19 @@ __all__ = ["critical", "CriticalResult"]
 log = logging.getLogger(__name__)
 
 _KINDS = ("unbind", "dive")
+
+UNCERTAINTY_MEANING = (
+    "+- is the estimated error of the critical value, extrapolated to threshold from the solved points: "
+    "the change between fits with successive numbers of terms plus the energy errors propagated through "
+    "the fit, at least 4 ulp (double precision) and at most the distance to the farther end of the "
+    "bracket (the level was solved bound at one end and not found at the other)")
+
+
+def _digits(value: float, uncertainty: float) -> int:
+    """Significant digits of ``value`` resolved by ``uncertainty`` (one guard digit; 6 to 16)."""
+    if not (value and math.isfinite(uncertainty) and uncertainty > 0):
+        return 12
+    return int(min(16, max(6, math.ceil(math.log10(abs(value) / uncertainty)) + 1)))
 _SETUP_KEYS = ("particle", "mass_mev", "nucleus_mass_mev", "units")
 
 
@@ -49,8 +70,12 @@ class CriticalResult:
         Its critical value: where the level's binding energy reaches 0
         (``kind = 'unbind'``) or -2 m c^2 (``kind = 'dive'``).
     uncertainty : float
-        Estimated absolute uncertainty of ``value`` (agreement of successive
-        extrapolations plus the propagated energy error estimates).
+        Estimated absolute error of ``value``: the change between
+        extrapolations to threshold with successive numbers of terms, plus
+        the energies' error estimates propagated through the fit; never below
+        what double precision supports (4 ulp of the value, or the rounding
+        error of the fit) and never above the distance from the value to the
+        farther end of ``bracket`` (see :attr:`uncertainty_meaning`).
     state : str
         The level's label (``1s``, ``2p3/2``, ...).
     equation : str
@@ -94,10 +119,21 @@ class CriticalResult:
     def success(self) -> bool:
         return self.status == "ok"
 
+    @property
+    def uncertainty_meaning(self) -> str:
+        """One sentence saying what ``uncertainty`` is."""
+        return UNCERTAINTY_MEANING
+
+    @property
+    def value_text(self) -> str:
+        """``value +- uncertainty`` with as many digits as the uncertainty supports (6 to 16)."""
+        return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}"
+
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready record."""
         return {"parameter": self.parameter, "value": self.value, "uncertainty": self.uncertainty,
                 "state": self.state, "equation": self.equation, "kind": self.kind,
+                "uncertainty_meaning": self.uncertainty_meaning,
                 "bracket": list(self.bracket), "evaluations": self.evaluations, "status": self.status,
                 "message": self.message, "settings": self.settings, "constants": constants_record(),
                 "units": {"energy": "hartree", "length": "bohr"}, "points": [dict(p) for p in self.points]}
@@ -127,21 +163,44 @@ def _exponents(kind: str, l: int, count: int) -> list[int]:
     return out
 
 
-def _fit_at_zero(s: list[float], p: list[float], exps: list[int]) -> float:
-    """p(0) of p(s) = c_0 + sum_i c_i s^exps[i] through the given points (as many as terms)."""
-    x = np.asarray(s, float) / max(s)
+def _fit(s: list[float], p: list[float], exps: list[int],
+         s_error: list[float] | None = None) -> tuple[float, float, float]:
+    """(c_0, propagated error, rounding error) of the interpolant through (s_i, p_i).
+
+    c_0 = sum_i w_i p_i with w the first row of A^-1 (A_ij = (s_i/s_max)^e_j).
+    An error ds_i in s_i moves the curve like an error -P'(s_i) ds_i in p_i,
+    so it moves c_0 by -w_i P'(s_i) ds_i; the propagated error adds these in
+    absolute value. The rounding error of the sum is taken as
+    eps sum_i |w_i p_i|.
+    """
+    smax = max(s)
+    x = np.asarray(s, float) / smax
+    pv = np.asarray(p, float)
     A = np.column_stack([np.ones_like(x)] + [x**e for e in exps])
-    return float(np.linalg.solve(A, np.asarray(p, float))[0])
+    coef = np.linalg.solve(A, pv)
+    w = np.linalg.solve(A.T, np.eye(len(x))[0])
+    slope = sum(c * e * x ** (e - 1) for c, e in zip(coef[1:], exps)) / smax     # P'(s_i)
+    err = np.zeros_like(x) if s_error is None else np.asarray(s_error, float)
+    propagated = float(np.sum(np.abs(w * slope * err)))
+    rounding = float(np.finfo(float).eps * np.sum(np.abs(w * pv)))
+    return float(coef[0]), propagated, rounding
+
+
+def _precision_floor(value: float, rounding: float = 0.0) -> float:
+    """Smallest honest uncertainty of a double-precision value: 4 ulp, or the fit's rounding error."""
+    return max(4.0 * math.ulp(value), rounding)
 
 
 def _extrapolate(points: list[dict], kind: str = "unbind", l: int = 0) -> tuple[float | None, float]:
-    """Parameter value where the threshold variable s vanishes.
+    """Parameter value where the threshold variable s vanishes, and its uncertainty.
 
     Interpolates p as c_0 + sum c_i s^(e_i) (exponents from
     :func:`_exponents`) through the d + 1 points nearest to threshold
     (d = 1..4) and takes c_0; returns the estimate of the degree whose change
-    from the degree below is smallest, and that change (inf with fewer than
-    three points).
+    from the degree below is smallest. Its uncertainty is that change, plus
+    the errors ``s_error`` of the points (if given) propagated through the
+    fit, and never below what double precision supports (4 ulp of the value,
+    or the rounding error of the fit). inf with fewer than three points.
     """
     near: list[dict] = []
     for r in sorted(points, key=lambda r: r["s"]):
@@ -152,20 +211,22 @@ def _extrapolate(points: list[dict], kind: str = "unbind", l: int = 0) -> tuple[
         return None, math.inf
     s = [r["s"] for r in near]
     p = [r["value"] for r in near]
+    ds = [r.get("s_error") or 0.0 for r in near]
     exps = _exponents(kind, l, len(near) - 1)
     est = []
     for d in range(1, len(near)):
         try:
-            est.append(_fit_at_zero(s[: d + 1], p[: d + 1], exps[:d]))
+            est.append(_fit(s[: d + 1], p[: d + 1], exps[:d], ds[: d + 1]))
         except np.linalg.LinAlgError:
             break
     if not est:
         return None, math.inf
     if len(est) == 1:
-        return est[0], math.inf
-    diffs = [abs(est[i] - est[i - 1]) for i in range(1, len(est))]
+        return est[0][0], math.inf
+    diffs = [abs(est[i][0] - est[i - 1][0]) for i in range(1, len(est))]
     i = int(np.argmin(diffs))
-    return est[i + 1], diffs[i]
+    value, propagated, rounding = est[i + 1]
+    return value, max(diffs[i] + propagated, _precision_floor(value, rounding))
 
 
 def _lagrange_at_zero(x: list[float], y: list[float]) -> float:
@@ -184,6 +245,64 @@ def _predict_s(points: list[dict], p: float) -> float:
     """Threshold variable at p predicted from the (up to) three nearest points."""
     near = sorted(points, key=lambda r: r["s"])[:3]
     return _lagrange_at_zero([r["value"] - p for r in near], [r["s"] for r in near])
+
+
+class _Axis:
+    """Search coordinate x of the varied parameter p.
+
+    A parameter that must keep its sign (the potential refuses 0 or values of
+    the other sign, as for a screening length or a range) is searched in
+    x = ln(p / sign): equal steps in x are equal factors in p, and no step
+    reaches 0 or crosses it. Any other parameter is searched in x = p.
+    """
+
+    def __init__(self, sign: int = 0) -> None:
+        self.sign = sign
+
+    @classmethod
+    def probe(cls, build, p: float) -> "_Axis":
+        """The axis of a parameter whose value p is accepted: geometric if -p is refused."""
+        if p == 0:
+            return cls(0)
+        try:
+            build(-p)
+        except ValueError:
+            return cls(1 if p > 0 else -1)
+        return cls(0)
+
+    @property
+    def geometric(self) -> bool:
+        return self.sign != 0
+
+    def x(self, p: float) -> float:
+        return math.log(p * self.sign) if self.sign else float(p)
+
+    def p(self, x: float) -> float:
+        return self.sign * math.exp(min(x, 700.0)) if self.sign else float(x)
+
+    def allows(self, p: float | None) -> bool:
+        return p is not None and math.isfinite(p) and (not self.sign or p * self.sign > 0)
+
+    @property
+    def max_step(self) -> float:
+        """Largest step in x before the level has been seen absent: a factor 4 (geometric)."""
+        return math.log(4.0) if self.sign else math.inf
+
+    def first_step(self, p: float) -> float:
+        """A small step in x: 2 per cent of p (or 0.02 when p = 0)."""
+        return 0.02 if self.sign else (0.02 * abs(p) if p != 0 else 0.02)
+
+    def far_steps(self, p: float) -> list[float]:
+        """Growing steps in x for a search from a start where the level is absent:
+        factors 2, 4, 16, 256, 65536, 2^32 (geometric) or |p|/4 * 4^j, j = 0..5 (linear)."""
+        if self.sign:
+            return [math.log(2.0) * 2**j for j in range(6)]
+        h = 0.25 * abs(p) if p != 0 else 1.0
+        return [h * 4**j for j in range(6)]
+
+
+class _Refused(StudyError):
+    """The potential refused a parameter value met during the search (outside its range)."""
 
 
 def critical(*args, **kwargs) -> "CriticalResult":
@@ -266,15 +385,37 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
     (E ~ -(p - p_c)). Diving: s = E + 2 m c^2 (m the reduced mass), which
     vanishes linearly at the critical charge, p - p_c = a_1 s + a_2 s^2 + ...
 
+    Search coordinate. A parameter whose opposite value the potential
+    refuses (a screening length, a range: it must keep its sign) is
+    searched in x = ln(p / sign p), so steps are factors and never reach 0;
+    any other parameter in x = p. Targets, steps and bisections are taken in
+    x; a value the potential refuses during the search becomes a wall that
+    the search does not cross.
+
+    Start. At a start where the level is bound, a step of 2 per cent of x
+    on either side gives the direction in which s falls. At a start where it
+    is absent, values on both sides are tried in growing steps (factors 2,
+    4, 16, ... for a geometric search) until the level is bound at one; the
+    last value tried without it on that side closes the bracket.
+
     Search. The level is followed from the start value towards threshold
     (each point is seeded from the points found; the plain solver is tried
     as well unless the level is predicted to be past threshold there);
     each step aims at 3/4 of the way to the current estimate of p_c, so s
-    falls by about 4 per step. The estimate interpolates p by the series
-    above (2 to 5 terms) through as many points nearest threshold and takes
-    its constant term; its
-    uncertainty is the smallest change between successive numbers of terms plus the
-    energy error estimates propagated through dp/ds. It is accepted when
+    falls by about 4 per step; without an estimate the step doubles, and
+    before any value without the level is met no step exceeds a factor 4
+    (geometric search). The estimate interpolates p by the series above
+    (2 to 5 terms) through as many points nearest threshold and takes its
+    constant term; a geometric search also interpolates ln|p| (the same
+    expansion, ln being analytic at p_c != 0; nearer a low-degree
+    polynomial far from threshold) and keeps whichever agrees better. Its
+    uncertainty is the smallest change between successive numbers of terms
+    plus the energy error estimates propagated through the fit (an error
+    ds_i moves the constant term by w_i p'(s_i) ds_i, w the fit's weights),
+    and never below 4 ulp of the value or the rounding error
+    eps sum |w_i p_i| of the fit. The reported uncertainty is in addition
+    capped by the bracket: a value inside (found, absent) is off by at most
+    its distance to the farther end. It is accepted when
     that uncertainty and the change from the previous step are both below
     ``tol`` |p_c|, the level has been found within ``bracket_rtol`` |p_c| of
     p_c, and a point just past p_c (by 100 times the uncertainty) holds no
@@ -354,8 +495,7 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
         except ValueError as exc:
             if not points:
                 raise
-            raise StudyError(f"{vary} = {p:.12g} is outside the parameter's range ({exc}); "
-                             f"give a bracket inside it") from None
+            raise _Refused(f"{vary} = {p:.12g} is outside the parameter's range ({exc})") from None
         mc2 = eq.mass * C_AU**2
         got, via = None, None
         try:
@@ -378,8 +518,10 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
             last = min((r for r in points if r["found"]), key=lambda r: r["s"], default=None)
             where = (f"; the level was last found at {vary} = {last['value']:.12g} with E = "
                      f"{last['energy']:.6g} hartree" if last else "")
-            raise StudyError(f"the solver refused {vary} = {p:.12g}: {exc}{where}. The critical value "
-                             "cannot be reached through this point") from None
+            err = StudyError(f"the solver refused {vary} = {p:.12g}: {exc}{where}. The critical value "
+                             "cannot be reached through this point")
+            err.reason = f"the solver refused {vary} = {p:.6g} ({exc})"
+            raise err from None
         if got is not None:
             E = float(got["energy"])
             s_ = math.sqrt(max(-E, 0.0)) if kind == "unbind" else E + 2 * mc2
@@ -423,8 +565,22 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
                 out.append(lin)
         return tuple(out)
 
-    # -- start: a bound point and a direction --------------------------------------------
+    # -- start: the search coordinate, a bound point and a direction ---------------------
+    # A parameter that keeps its sign is searched geometrically (x = ln|p|), so that no step
+    # reaches 0 or the other sign; others linearly (x = p). See :class:`_Axis`.
+    axis = _Axis(0) if bracket is not None and a * b <= 0 else _Axis.probe(build, p_start)
+    x_of, p_of = axis.x, axis.p
+    log.debug("critical %s: %s searched %s", label, vary, "geometrically" if axis.geometric else "linearly")
     p_out = None
+    wall = None        # nearest x in the search direction where the potential refused the value
+
+    def try_evaluate(x: float, **kw) -> dict | None:
+        """evaluate at p(x); None when the potential refuses the value."""
+        try:
+            return evaluate(p_of(x), **kw)
+        except _Refused:
+            return None
+
     if bracket is not None:
         ra, rb = evaluate(a), evaluate(b)
         if ra["found"] == rb["found"]:
@@ -433,28 +589,84 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
                              f"with the level bound at one end and absent at the other")
         r_in, r_out = (ra, rb) if ra["found"] else (rb, ra)
         p_out = r_out["value"]
-        direction = math.copysign(1.0, p_out - r_in["value"])
-        step = 0.05 * abs(p_out - r_in["value"])
-        if not evaluate(r_in["value"] + direction * step, seeds=(r_in["energy"],))["found"]:
-            p_out = points[-1]["value"]
+        x_in, x_out = x_of(r_in["value"]), x_of(p_out)
+        direction = math.copysign(1.0, x_out - x_in)
+        step = 0.05 * abs(x_out - x_in)
+        rec = try_evaluate(x_in + direction * step, seeds=(r_in["energy"],))
+        if rec is not None and not rec["found"]:
+            p_out = rec["value"]
     else:
         r0 = evaluate(p_start)
+        x0 = x_of(p_start)
         if not r0["found"]:
-            raise ValueError(f"state: {label} is not bound at {vary} = {p_start:g}; start where it is bound "
-                             "(or give a bracket)")
-        step = 0.02 * abs(p_start) if p_start != 0 else 0.02
-        r1 = evaluate(p_start + step, seeds=(r0["energy"],))
-        direction = 1.0
-        if not r1["found"]:
-            p_out = r1["value"]
-        elif r1["s"] > r0["s"]:
-            direction = -1.0
-            if not evaluate(p_start - step, seeds=(r0["energy"],))["found"]:
-                p_out = points[-1]["value"]
+            # absent at the start: look on both sides, in growing steps, for a value where the level
+            # is bound; the last value tried on that side without it closes the bracket
+            # (a side is closed where the potential or the solver refuses a value)
+            last_absent = {1.0: x0, -1.0: x0}
+            closed: dict = {}
+            hit = None
+            for h in axis.far_steps(p_start):
+                for side in (1.0, -1.0):
+                    if hit is not None or side in closed or len(points) >= max_evaluations:
+                        continue
+                    try:
+                        rec = evaluate(p_of(x0 + side * h))
+                    except StudyError as exc:
+                        closed[side] = getattr(exc, "reason", str(exc))
+                        continue
+                    if rec["found"]:
+                        hit = (rec, side)
+                    else:
+                        last_absent[side] = x0 + side * h
+            if hit is None:
+                tried = [p_of(x) for x in last_absent.values()]
+                why = "".join(f"; {msg}" for msg in closed.values())
+                raise ValueError(f"state: {label} is not bound at {vary} = {p_start:g}, nor anywhere tried "
+                                 f"from {min(tried):.6g} to {max(tried):.6g}{why}; start where it is bound "
+                                 "(or give a bracket)")
+            rec, side = hit
+            p_out = p_of(last_absent[side])
+            direction = -side
+            step = 0.05 * abs(x_of(rec["value"]) - last_absent[side])
+        else:
+            step = axis.first_step(p_start)
+            direction = 1.0
+            r1 = try_evaluate(x0 + step, seeds=(r0["energy"],))
+            if r1 is not None and not r1["found"]:
+                p_out = r1["value"]
+            elif r1 is None or r1["s"] > r0["s"]:
+                direction = -1.0
+                r2 = try_evaluate(x0 - step, seeds=(r0["energy"],))
+                if r2 is None:
+                    raise StudyError(f"the potential refuses {vary} = {p_of(x0 + step):.6g} and "
+                                     f"{p_of(x0 - step):.6g} on either side of the start {p_start:g}")
+                if not r2["found"]:
+                    p_out = r2["value"]
+    # signed distances in p along the search (x and p run in opposite senses when p < 0 is searched
+    # geometrically)
+    pdir = direction * (-1.0 if axis.sign < 0 else 1.0)
 
     def ahead(x: float, ref: float) -> float:
-        """Signed distance of x beyond ref in the search direction."""
-        return (x - ref) * direction
+        """Signed distance of the parameter value x beyond ref in the search direction."""
+        return (x - ref) * pdir
+
+    def estimate(fp: list[dict]) -> tuple[float | None, float]:
+        """Critical value and its uncertainty from the points found.
+
+        A geometric search extrapolates both p(s) and ln|p|(s) (the same threshold expansion,
+        ln being analytic at p_c != 0) and keeps the one whose successive fits agree better:
+        far from threshold ln|p| is nearer a low-degree polynomial of s (fewer overshoots),
+        near it p may be exactly one (Hulthen: s is linear in delta).
+        """
+        bp, up = _extrapolate(fp, kind, l_channel)
+        if not axis.geometric:
+            return bp, up
+        bx, ux = _extrapolate([{**r, "value": x_of(r["value"])} for r in fp], kind, l_channel)
+        if bx is None or bx > 700.0:
+            return bp, up
+        bx_p = p_of(bx)
+        ux_p = max(abs(bx_p) * ux, _precision_floor(bx_p))      # dp = |p| dx
+        return (bx_p, ux_p) if bp is None or ux_p < up else (bp, up)
 
     prev_best = None
     rechecked: set = set()
@@ -463,25 +675,20 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
         fp = found_points()
         near = min(fp, key=lambda r: r["s"])
         p_in = near["value"]
-        best, unc_fit = _extrapolate(fp, kind, l_channel)
-        unc = math.inf
-        if best is not None:
-            two = sorted(fp, key=lambda r: r["s"])[:2]
-            dpds = abs((two[1]["value"] - two[0]["value"]) / (two[1]["s"] - two[0]["s"])) \
-                if len(two) == 2 and two[1]["s"] != two[0]["s"] else 0.0
-            unc = unc_fit + dpds * near["s_error"]
+        best, unc = estimate(fp)
         inside = best is not None and ahead(best, p_in) >= -unc and (p_out is None or ahead(p_out, best) >= -unc)
         scale = abs(best) if best else 1.0
-        converged = (best is not None and inside and unc <= tol * scale and prev_best is not None
-                     and abs(best - prev_best) <= tol * scale and abs(best - p_in) <= bracket_rtol * scale)
+        converged = (best is not None and axis.allows(best) and inside and unc <= tol * scale
+                     and prev_best is not None and abs(best - prev_best) <= tol * scale
+                     and abs(best - p_in) <= bracket_rtol * scale)
         log.debug("critical %s: estimate %.15g +- %.2g (%d points)", label,
                   best if best is not None else math.nan, unc, len(fp))
         if converged:
             margin = max(100 * unc, 100 * tol * scale)
-            if p_out is not None and abs(p_out - best) <= 10 * margin:
+            pv = best + pdir * margin
+            if (p_out is not None and abs(p_out - best) <= 10 * margin) or not axis.allows(pv):
                 status = "ok"
                 break
-            pv = best + direction * margin
             if not evaluate(pv, seeds=seeds_for(pv), plain=False)["found"]:
                 p_out = pv
                 status = "ok"
@@ -500,19 +707,37 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
             if abs(p_out - p_in) <= 1e-3 * abs(best - p_out):
                 status = "lost"
                 break
-        if best is None or ahead(best, p_in) <= 0:
-            target = p_in + direction * step if p_out is None else 0.5 * (p_in + p_out)
-            step *= 2
-        elif p_out is not None and ahead(p_out, best) <= 0:
-            target = 0.5 * (p_in + p_out)
+        # the next value, in the search coordinate x: 3/4 of the way to the estimate, a growing step
+        # while there is no usable estimate, the midpoint of the bracket when the estimate is outside it
+        x_in = x_of(p_in)
+        x_out = None if p_out is None else x_of(p_out)
+        x_best = x_of(best) if axis.allows(best) else None
+        if x_best is None or (x_best - x_in) * direction <= 0:
+            tx = x_in + direction * step if x_out is None else 0.5 * (x_in + x_out)
+            step = min(2 * step, axis.max_step)
+        elif x_out is not None and (x_out - x_best) * direction <= 0:
+            tx = 0.5 * (x_in + x_out)
         else:
-            target = p_in + 0.75 * (best - p_in)
-        if p_out is not None and not (ahead(target, p_in) > 0 and ahead(p_out, target) > 0):
-            target = 0.5 * (p_in + p_out)
+            tx = x_in + 0.75 * (x_best - x_in)
+            if x_out is None and abs(tx - x_in) > axis.max_step:     # no bracket yet: no far leaps
+                tx = x_in + direction * axis.max_step
+        if x_out is not None and not ((tx - x_in) * direction > 0 and (x_out - tx) * direction > 0):
+            tx = 0.5 * (x_in + x_out)
+        if wall is not None and (tx - wall) * direction >= 0:
+            tx = 0.5 * (x_in + wall)
+        target = p_of(tx)
         if target == p_in or (p_out is not None and target == p_out):
             break
         # the plain solver is tried too unless the level is predicted to be gone at the target
-        rec = evaluate(target, seeds=seeds_for(target), plain=_predict_s(found_points(), target) > 0)
+        try:
+            rec = evaluate(target, seeds=seeds_for(target), plain=_predict_s(found_points(), target) > 0)
+        except _Refused as exc:
+            # a value outside the parameter's range: never step there again
+            wall = tx
+            if x_best is not None and (x_best - wall) * direction >= 0:
+                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would unbind near "
+                                 f"{best:.6g}, beyond the parameter's range: {exc}") from None
+            continue
         if not rec["found"] and (p_out is None or ahead(p_out, target) > 0):
             p_out = target
     fp = found_points()
@@ -520,12 +745,18 @@ def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, sta
         raise StudyError(f"{label}: found at fewer than two values of {vary}; no estimate of the critical value")
     near = min(fp, key=lambda r: r["s"])
     p_in = near["value"]
+    unc = max(unc, _precision_floor(best))
+    if p_out is not None and ahead(best, p_in) > 0 and ahead(p_out, best) > 0:
+        # the bracket bounds the error whatever the extrapolation says
+        reach = max(abs(best - p_in), abs(p_out - best))
+        unc = max(min(unc, reach), _precision_floor(best))
     unit_s = "hartree^(1/2)" if kind == "unbind" else "hartree"
     if status == "ok" and p_out is not None and not (ahead(best, p_in) >= -unc and ahead(p_out, best) >= -unc):
         status = "unverified"
     if status == "ok":
-        message = (f"{label} {'unbinds' if kind == 'unbind' else 'dives'} at {vary} = {best:.12g} "
-                   f"(+- {unc:.2g}); found at {p_in:.12g}, absent at {p_out:.12g}")
+        message = (f"{label} {'unbinds' if kind == 'unbind' else 'dives'} at {vary} = "
+                   f"{best:.{_digits(best, unc)}g} +- {unc:.2g} (estimated error of the extrapolation); "
+                   f"bound at {p_in:.12g}, not found at {p_out:.12g}")
     elif status == "lost":
         status = "unverified"
         message = (f"{label} disappears between {vary} = {p_in:.12g} (E = {near['energy']:.10g} hartree, "
