@@ -196,6 +196,24 @@ def _default(x):
         return str(x)
 
 
+def _levels_arg(text: str):
+    """--levels N or --levels all."""
+    if str(text).strip().lower() == "all":
+        return "all"
+    try:
+        n = int(str(text).strip())
+    except ValueError:
+        n = 0
+    if n < 1:
+        _fail(f"--levels {_short_text(text)}: give a whole number >= 1 or 'all'")
+    return n
+
+
+def _short_text(text, limit: int = 40) -> str:
+    t = str(text)
+    return repr(t if len(t) <= limit else t[:limit] + "...")
+
+
 def _table(res, unit: str) -> str:
     s = res.settings
     head = [
@@ -225,7 +243,11 @@ def _table(res, unit: str) -> str:
                         f"(estimates {hartree_to(c['error_estimate'], unit):.2g}, "
                         f"{hartree_to(c['other_error_estimate'], unit):.2g})")
     dropped = d.get("dropped_node_mismatch", 0) + d.get("dropped_unstable", 0)
-    tail = ["", f"status: {res.status} - {res.message}",
+    count = d.get("bound_count")
+    threshold = d.get("threshold_hartree") or 0.0
+    tail = ["", f"bound levels below the threshold ({hartree_to(threshold, unit):.9g} {unit}): "
+            + (str(count) if count is not None else "infinitely many (Coulomb tail or confining)"),
+            f"status: {res.status} - {res.message}",
             f"dropped candidates: {dropped} (node mismatch or unstable), {d.get('dropped_unstable_seed', 0)} "
             f"unstable seeds; {d.get('seconds', 0):.2f} s"]
     return "\n".join(head + rows + tail)
@@ -317,7 +339,9 @@ def main(verbose: int) -> None:
 @click.option("--kappa", type=int, default=None, help="Dirac kappa (-1 = s1/2, 1 = p1/2, -2 = p3/2, ...).")
 @click.option("--j", "j", type=float, default=None,
               help="j = l +- 1/2 (Schrodinger, for a spin-orbit term such as woods-saxon spin_orbit).")
-@click.option("--levels", "-n", type=int, default=3, show_default=True, help="Number of lowest levels.")
+@click.option("--levels", "-n", default="3", show_default=True,
+              help="Number of lowest levels, or 'all' for every bound level of a potential that has "
+                   "finitely many.")
 @click.option("--tol", type=float, default=1e-10, show_default=True,
               help="Relative tolerance on binding energies.")
 @click.option("--method", default="auto", show_default=True, help="auto, spectral or finite-difference.")
@@ -346,6 +370,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     """
     from .solver import solve  # lazy: `boundkit --help` need not import the solver
 
+    levels = _levels_arg(levels)
     check_tol(tol)
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)

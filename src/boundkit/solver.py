@@ -1,23 +1,28 @@
-"""Channel solver: domain choice, seeding, resolution ladder, error estimates.
+"""Channel solver: domain, level location by counting, resolution ladder, error estimates.
 
 For one channel the solver
 
 1. takes the exponent gamma of u ~ r^gamma at the origin from the equation
    and the potential's declared charge there (this also rejects a point
-   Coulomb charge too strong for the equation);
-2. finds a natural length L of the potential (where 2 m r^2 |V + S| = 1) and
-   sets the inner end of the mesh at 1e-9 L;
-3. seeds the levels with two coarse spectral solves of the fixed-energy
-   pencil. A candidate is kept only when it is real, inside the bound-state
-   window, found at both coarse sizes and has as many nodes as levels below
-   it (the k-th level of a Sturm-Liouville problem has k nodes); everything
-   else is counted in the diagnostics as dropped;
-4. gives each level its own outer radius from a WKB estimate of where its
-   radial function has fallen by e^-42, and climbs the method's ladder of
-   resolutions, refining the level by Newton's method at each size;
-5. estimates the error from successive sizes (geometric extrapolation for
-   the spectral family, Richardson for finite differences) and stops when the
-   estimate meets ``tol``.
+   Coulomb charge too strong for the equation), reads the far side of the
+   potential (a constant limit V_inf becomes the threshold, a potential that
+   grows without bound is confining) and refuses a Dirac channel whose
+   eliminated form has a pole in the box;
+2. finds a natural length L of the potential (where 2 m r^2 |V + S| = 1), sets
+   the inner end of the mesh from the origin exponent, and, for a short-range
+   potential, counts the bound levels below the threshold on a far box;
+3. fits the box to the highest level sought and lays out spectral elements in
+   t = ln r by the levels' WKB phase (:mod:`boundkit.ladder`);
+4. on each rung of a ladder of element degrees, locates all wanted levels from
+   one symmetric matrix and certifies them by Sylvester's inertia count, which
+   cannot skip a level (:mod:`boundkit.locator`: the k-th level lies between
+   energies with k and k + 1 levels below);
+5. estimates the error from successive rungs and stops when the estimate
+   meets ``tol`` (or the rounding floor).
+
+The finite-difference family refines the levels located this way on its own
+uniform grids in t (per level, Newton with a node-count check), with a
+Richardson estimate.
 """
 from __future__ import annotations
 
@@ -42,7 +47,7 @@ from .states import count_nodes, normalise, principal_n
 from .units import ELECTRON_MASS_MEV, constants_record, get_particle
 from ._checks import check_choice, check_int, check_positive
 
-__all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation"]
+__all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation", "check_levels"]
 
 log = logging.getLogger(__name__)
 
@@ -50,7 +55,6 @@ _DECAY = 42.0          # e-folds of the radial function kept beyond the turning 
 _INNER = 1e-9          # inner end of the mesh in units of the natural length (see _inner_cut)
 _DIRAC_INNER_FLOOR = 1e-11   # the eliminated Dirac operator loses its seeds below this (measured)
 _FINITE_INNER = 1e-5   # inner cut for potentials finite at the origin: f = 1 + O(r^2) there
-_SEED_SIZES = (80, 112)
 _UNSTABLE = 1e-3       # a level whose energy still moves this much between sizes is not reported
 
 
@@ -85,10 +89,22 @@ def make_equation(equation: str, l: int | None = None, kappa: int | None = None,
     return KleinGordon(l=l, mass=mass)
 
 
-def _sample(pot: Potential, r: np.ndarray) -> Sample:
-    V = np.asarray(pot.V(r), dtype=float)
-    S = np.asarray(pot.S(r), dtype=float)
+def _sample(pot: Potential, r: np.ndarray, scan: bool = False) -> Sample:
+    """V, S (and a spin-orbit factor) at r. With ``scan`` (radii probed for lengths and layouts,
+    not mesh nodes), values that overflow to +inf far out count as a large finite wall."""
+    with np.errstate(all="ignore"):
+        V = np.asarray(pot.V(r))
+        S = np.asarray(pot.S(r))
+    for name, x in (("V", V), ("S", S)):
+        if np.iscomplexobj(x) and np.any(x.imag != 0):
+            raise ValueError(f"potential: {name} has complex values (an absorptive part); the bound-state "
+                             "solver takes real potentials only; use boundkit.resonances (boundkit "
+                             "resonances) for complex potentials")
+    V, S = V.real.astype(float), S.real.astype(float)
     W = pot.spin_orbit(r)
+    if scan:
+        V = np.where(np.isposinf(V), 1e300, V)
+        S = np.where(np.isposinf(S), 1e300, S)
     if not (np.all(np.isfinite(V)) and np.all(np.isfinite(S))):
         bad = r[~(np.isfinite(V) & np.isfinite(S))][0]
         raise ValueError(f"potential: not finite at r = {bad:.3g} bohr; check the expression or parameters")
@@ -97,10 +113,11 @@ def _sample(pot: Potential, r: np.ndarray) -> Sample:
 
 def _natural_length(eq: RadialEquation, pot: Potential) -> float:
     r = np.logspace(-14, 8, 2201)
-    s = _sample(pot, r)
+    s = _sample(pot, r, scan=True)
     # a 1/r^2 part has no length of its own (it only shifts l): leave it out
     v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
-    strength = 2 * eq.mass * r**2 * np.abs(v)
+    with np.errstate(over="ignore", invalid="ignore"):
+        strength = 2 * eq.mass * r**2 * np.abs(v)
     big = strength >= 1.0
     if np.any(big):
         return float(r[np.argmax(big)])
@@ -124,7 +141,7 @@ def _radii(eq: RadialEquation, pot: Potential, E: float, L: float) -> tuple[floa
     the inner turning point (or L when the level is classically allowed down
     to the origin)."""
     r = np.logspace(math.log10(L * 1e-3), math.log10(L * 1e10), 6000)
-    s = _sample(pot, r)
+    s = _sample(pot, r, scan=True)
     k = eq.kappa_eff
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         p = eq.p(E, s)
@@ -155,71 +172,12 @@ def _nodes_of(op: FactorizedOperator, y) -> int:
     return count_nodes(op.expand(np.asarray(y, dtype=float)) * op.weight())
 
 
-def _fixed_point(op: FactorizedOperator, E: float, lo: float, hi: float, iters: int = 12) -> float:
-    """Solve lambda(E) = E on a dense pencil by the secant method, lambda(E) being the
-    eigenvalue nearest E. Plain iteration E <- lambda(E) crawls when the level is
-    strongly relativistic (d lambda/dE near 1), the secant does not."""
-
-    def lam_of(E):
-        A, B = op.pencil(E)
-        lam, _ = dense_pencil(A, B)
-        lam = lam[(lam > lo) & (lam < hi)]
-        return None if not lam.size else float(lam[np.argmin(np.abs(lam - E))])
-
-    x0, l0 = E, lam_of(E)
-    if l0 is None:
-        return E
-    x1 = l0
-    for _ in range(iters):
-        l1 = lam_of(x1)
-        if l1 is None:
-            return x1
-        g0, g1 = l0 - x0, l1 - x1
-        if abs(g1) <= 1e-12 * abs(x1) or g1 == g0:
-            return l1
-        x2 = x1 - g1 * (x1 - x0) / (g1 - g0)
-        if not (lo < x2 < hi):
-            x2 = l1
-        x0, l0, x1 = x1, l1, x2
-    return x1
-
-
-def _seed(eq, pot, gamma, r_min, R, levels, lo, hi, tally: _Tally, sizes=_SEED_SIZES,
-          r_core: float = 1.0) -> list[float]:
-    """Seed energies of the lowest ``levels`` levels on [r_min, R].
-
-    Energies only: on a mesh much wider than a level the tail of its
-    eigenvector is too noisy to count nodes, while its energy is already
-    good. A candidate must be real, inside the bound window and found at both
-    coarse sizes; the k-th survivor seeds the k-node level, and the node
-    count is checked later on the level's own, tight mesh.
-    """
-    from .discretize.spectral import Chebyshev
-
-    cheb = Chebyshev()
-    mesh = LogMap(r_min, R)
-    E_ref = 0.0 if math.isinf(hi) else hi
-    found = []
-    for size in sizes:
-        grid = cheb.grid(mesh, size, breaks=pot.breakpoints)
-        op = FactorizedOperator(eq, grid, _sample(pot, grid.r), gamma, r_core, E_ref=E_ref)
-        A, B = op.pencil(E_ref)
-        lam, _ = dense_pencil(A, B)
-        inside = (lam > lo) & (lam < hi)
-        found.append((op, lam[inside], int(np.count_nonzero(~inside))))
-    (op_a, lam_a, out_a), (_, lam_b, _) = found
-    stable = [float(x) for x in lam_a
-              if lam_b.size and np.min(np.abs(lam_b - x)) <= 1e-3 * max(abs(x), 1e-300)]
-    tally.candidates = len(lam_a)
-    tally.dropped_outside_window = out_a
-    tally.dropped_unstable_seed = len(lam_a) - len(stable)
-    return [_fixed_point(op_a, E, lo, hi) for E in stable[:levels]]
-
-
 def _wanted_cut(gamma: float, two_component: bool) -> float:
     """The inner cut the exponents ask for (see :func:`_inner_cut`), before any floor."""
     gap = max(2 * gamma if two_component else 2 * gamma - 1, 0.05)
-    return _INNER ** (1.0 / min(1.0, gap))
+    # a large exponent (high l) makes the region near the origin empty much further out:
+    # (r_min / L)^gap <= 1e-20 is enough, and keeps w^2 = r^(2 gamma) far from underflow
+    return max(_INNER ** (1.0 / min(1.0, gap)), min(1e-2, 10.0 ** (-20.0 / gap)))
 
 
 def _inner_cut(gamma: float, two_component: bool) -> float:
@@ -242,14 +200,14 @@ def _cut_is_clipped(gamma: float, two_component: bool) -> bool:
 
 
 def _energy_scale(eq, pot, L: float) -> float:
-    s = _sample(pot, np.array([L]))
+    s = _sample(pot, np.array([L]), scan=True)
     return 1.0 / (2 * eq.mass * L**2) + abs(float(s.V[0] + s.S[0]))
 
 
 def _well_radius(pot, L: float) -> float:
     """Radius of the deepest point of V + S when it lies away from the origin, else 0."""
     r = np.logspace(math.log10(L), math.log10(L) + 10, 2001)
-    s = _sample(pot, r)
+    s = _sample(pot, r, scan=True)
     v = s.V + s.S
     i = int(np.argmin(v))
     return float(r[i]) if 0 < i < len(r) - 1 and v[i] < 0 else 0.0
@@ -260,7 +218,7 @@ def _inner_wkb(eq, pot, E: float, L: float) -> float:
     decayed by e^-_DECAY (0 when the region near the origin is allowed or the
     decay there comes from the centrifugal term alone)."""
     r = np.logspace(math.log10(L * 1e-12), math.log10(L * 1e10), 6000)
-    s = _sample(pot, r)
+    s = _sample(pot, r, scan=True)
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
         excess = (eq.q(E, s) - E) / eq.p(E, s)
     allowed = np.nonzero(excess < 0)[0]
@@ -377,6 +335,7 @@ class Channel:
     r_min: float
     seeds: list
     tally: _Tally
+    extra: dict = field(default_factory=dict)
 
     def label(self, k: int) -> str:
         return self.eq.label(principal_n(k, self.eq.l))
@@ -408,52 +367,331 @@ class Channel:
         return got[0], got[1]
 
 
-def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
-    """Exponent, bound window, natural length, inner cut and seed energies."""
-    gamma = eq.gamma(pot)
-    lo, hi = eq.energy_window(pot)
-    L = _natural_length(eq, pot)
-    R = _initial_radius(eq, pot, levels, L)
-    # inner end: the Frobenius cut, or further out when a repulsive core keeps every bound level
-    # out (WKB decay by e^-_DECAY inward from the inner turning point at the top of the window)
+def _inner_end(eq, pot, gamma: float, L: float, levels: int, hi: float) -> float:
+    """Inner end of the mesh: the Frobenius cut, or further out when a repulsive core keeps every
+    bound level out (WKB decay by e^-_DECAY inward from the inner turning point at the top of the
+    window)."""
     E_top = hi if math.isfinite(hi) else 2 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5)
     finite_origin = pot.z_vector == 0 and pot.z_scalar == 0 and pot.origin_inverse_square == 0
     cut = _FINITE_INNER if finite_origin else _inner_cut(gamma, eq.spin == 0.5)
-    r_min = max(cut * L, _inner_wkb(eq, pot, E_top, L))
-    if r_min >= R / 4:
-        R = max(R, 8 * r_min)
+    return max(cut * L, _inner_wkb(eq, pot, E_top, L))
+
+
+def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
+    """Exponent, bound window, natural length, inner cut and the located levels (seed energies).
+
+    The levels are located and certified by counting on spectral elements
+    (:mod:`boundkit.ladder`, tolerance 1e-9); other families refine them.
+    """
+    found, tally, _, _, extra = _solve_elements(eq, pot, levels, 1e-9)
+    seeds = [lv.energy for lv in sorted(found, key=lambda lv: lv.energy)]
+    gamma = extra["gamma"]
+    lo, hi = eq.energy_window(pot)
+    return Channel(eq, pot, gamma, lo, hi, extra["L"], extra["r_min"], seeds, tally, extra)
+
+
+def _solve_elements(eq, pot, levels: int | None, tol: float):
+    """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`)."""
+    from .ladder import DEGREES, FLOOR, far_count, layout, solve_rung
+
     tally = _Tally()
-    sizes = _SEED_SIZES
-    seeds: list[float] = []
-    for _attempt in range(12):
-        seeds = _seed(eq, pot, gamma, r_min, R, levels, lo, hi, tally, sizes, r_core=L * (eq.l + 1) ** 2)
-        need = max((_outer_radius(eq, pot, E, L) for E in seeds), default=R)
-        if need > R or (seeds and need < R / 2):
-            R = 1.2 * need          # fit the mesh to the highest seed, and seed again
-        elif len(seeds) >= levels:
+    gamma = eq.gamma(pot)
+    lo, hi = eq.energy_window(pot)
+    sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
+    try:
+        L = _natural_length(eq, pot)
+    except ValueError:
+        _check_pole(eq, sample, 1e-14, 1e8, [0.0])     # a pole is the better reason, when there is one
+        raise
+    scale = _energy_scale(eq, pot, L)
+    n_req = 1 if levels is None else levels
+    r_min = _inner_end(eq, pot, gamma, L, n_req, hi)
+    r_core = L * (eq.l + 1) ** 2
+    extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0}
+    short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
+    bound = None
+    if short_range:
+        r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, n_req, L))
+        bound = far_count(eq, pot, sample, gamma, r_core, r_min, r_far, hi)
+    elif levels is None:
+        raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
+                         + ("is confining" if pot.confining else "has a Coulomb tail")
+                         + " and binds infinitely many; give a number of levels")
+    extra["bound_count"] = bound
+    want = n_req if levels is not None else bound
+    if bound is not None:
+        want = min(want, bound)
+    if want == 0:
+        extra["certified"] = True
+        tally.notes.append("the count of levels below the threshold is 0 on a box of "
+                           f"{1e4:g} natural lengths")
+        return [], tally, [], 0.0, extra
+    # 1. fit the box to the highest level sought
+    R = _initial_radius(eq, pot, want, L)
+    energies = [hi if math.isfinite(hi) else 2 * scale * (2 * want + eq.l + 1.5)]
+    E0 = energies[0] if math.isfinite(energies[0]) else 0.0
+    rung = None
+    for _attempt in range(16):
+        edges, quiet = layout(eq, pot, sample, r_min, R, energies)
+        _check_pole(eq, sample, r_min, R, energies)
+        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, DEGREES[1], want, lo, hi, E0, scale)
+        got = list(rung.located.energies)
+        if len(got) < want:
+            if R < 1e9 * L and not pot.confining and rung.size < 4000:
+                R *= 4
+                continue
+            if pot.confining and got:
+                energies = [got[0], got[-1]]
             break
-        elif sizes[1] < 300:
-            sizes = (sizes[1], int(sizes[1] * 1.4))
-        elif R < 1e9 * L and not pot.confining:
-            R, sizes = 4 * R, _SEED_SIZES
-        else:
+        need = _outer_radius(eq, pot, got[-1], L)
+        new_energies = [got[0], got[-1]]
+        E0 = 0.5 * (got[0] + got[-1])
+        if need > 1.05 * R or need < R / 2:
+            R = 1.1 * need
+            energies = new_energies
+            continue
+        energies = new_energies
+        break
+    # 2. the ladder on a fixed layout
+    edges, quiet = layout(eq, pot, sample, r_min, R, energies)
+    extra["r_max"] = R
+    hist: list[list[float]] = []
+    rungs = []
+    per_level = []
+    for n in DEGREES:
+        guesses = rungs[-1].located.energies if rungs and rungs[-1].located.certified else None
+        top = rungs[-1].located.E_top if guesses is not None else None
+        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale, guesses,
+                          top)
+        loc = rung.located
+        if not loc.certified:
+            tally.notes.append(f"degree {n}: count certificate failed (N(E_top) = {loc.count_top})")
+        if loc.fallback:
+            tally.notes.append(f"degree {n}: {loc.fallback} level(s) located by bisection on the count")
+        rungs.append(rung)
+        for k, E in enumerate(loc.energies):
+            if k >= len(hist):
+                hist.append([])
+            hist[k].append(E)
+        E0 = 0.5 * (loc.energies[0] + loc.energies[-1]) if loc.energies else E0
+        done = len(loc.energies) == want and all(len(h) >= 3 and _spectral_done(h, tol) for h in hist[:want])
+        floor = len(hist) and all(len(h) >= 3 and max(abs(h[-1] - h[-2]), abs(h[-2] - h[-3])) <= FLOOR * abs(h[-1])
+                                  for h in hist[:want])
+        if done:
             break
-    return Channel(eq, pot, gamma, lo, hi, L, r_min, seeds, tally)
+        if floor and len(loc.energies) == want:
+            tally.floor_hit = True
+            tally.notes.append(f"at the rounding floor; tol {tol:g} is out of reach")
+            break
+    last = rungs[-1]
+    prev = rungs[-2] if len(rungs) > 1 else None
+    extra["certified"] = bool(last.located.certified)
+    found, worst = [], 0.0
+    for k, E in enumerate(last.located.energies):
+        h = hist[k]
+        est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
+        if _cut_is_clipped(gamma, eq.spin == 0.5) and pot.z_vector != pot.z_scalar:
+            est *= 10
+        worst = max(worst, est / abs(E)) if E != 0 else worst
+        n = principal_n(k, eq.l)
+        per_level.append({"label": eq.label(n), "sizes": [r.size for r in rungs], "energies": list(h),
+                          "r_min": r_min, "r_max": R})
+        prev_state = None
+        if prev is not None and k < len(prev.located.energies):
+            prev_state = _element_state(eq, prev.op, prev.located.energies[k], prev.located.vectors[k])
+        found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=eq.label(n), energy=E,
+                           error_estimate=est, nodes=k,
+                           state=_element_state(eq, last.op, E, last.located.vectors[k]),
+                           resolution=last.size, iterations=0, previous_state=prev_state))
+    if len(found) < want:
+        extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
+                        if last.located.certified else "the count certificate failed (see diagnostics)")
+    return found, tally, per_level, worst, extra
 
 
-def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, levels: int = 1,
+def _spectral_done(h: list[float], tol: float) -> bool:
+    """Stop rule of the spectral family: the last change meets tol, and the one before it 100 tol."""
+    E = abs(h[-1])
+    return abs(h[-1] - h[-2]) <= tol * E and abs(h[-2] - h[-3]) <= 100 * tol * E
+
+
+def _check_pole(eq, sample, r_min: float, R: float, energies) -> None:
+    """Refuse a Dirac channel whose eliminated form has a pole inside the box."""
+    if eq.name != "dirac":
+        return
+    r = np.logspace(math.log10(r_min), math.log10(R), 2000)
+    s = sample(r, scan=True)
+    for E in energies:
+        with np.errstate(all="ignore"):
+            p = eq.p(min(E, 0.0), s)
+        bad = ~(p > 0)
+        if np.any(bad):
+            raise ValueError(
+                f"potential: E + 2mc^2 - V + S changes sign at r = {r[np.argmax(bad)]:.3g} bohr for "
+                "energies in the bound-state window (strong repulsive V - S, e.g. S = -V with a confining "
+                "V): boundkit's Dirac solver eliminates the small component, and that form has a pole "
+                "there; this channel cannot be solved yet (a two-component formulation is needed)")
+
+
+def _element_state(eq, op, E: float, y) -> RadialState:
+    """Normalised radial functions of a level on a spectral-element grid."""
+    grid, s = op.grid, op.sample
+    f = op.expand(np.asarray(y, dtype=float))
+    r = s.r
+    W = op.weight()
+    P = W * f
+    w_dr = grid.w * r
+    g = W / r * (op.derivative_in_t(f) + op.b * f)
+    Q = eq.small_component(E, s, g)
+    weight = eq.density_weight(E, s)
+    comps = (P,) if Q is None else (P, Q)
+    comps, _ = normalise(w_dr, *comps, weight=weight)
+    return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma,
+                       r_core=op.r_core, elements=grid.elements, family="spectral",
+                       density_weight=None if weight is None else np.asarray(weight, dtype=float))
+
+
+def _with_threshold(pot):
+    """(potential, V_inf): a vector potential tending to a constant V_inf far out is solved as
+    V - V_inf (levels below V_inf are bound) and the energies are shifted back."""
+    if pot.confining:
+        return pot, 0.0
+    r = np.logspace(1, 8, 71)
+    with np.errstate(all="ignore"):
+        far = np.asarray(pot.V(r), dtype=complex).real + np.asarray(pot.S(r), dtype=complex).real
+    grows = np.isposinf(far) | (far > 1e3)
+    if np.any(grows) and np.all(np.diff(far[np.isfinite(far)][-5:]) > 0) if np.isfinite(far).sum() >= 5 else np.any(grows):
+        return _Confining(pot), 0.0
+    r1, r2 = 1e6, 1e7
+    with np.errstate(all="ignore"):
+        v = np.asarray(pot.V(np.array([r1, r2])), dtype=float)
+        sc = np.asarray(pot.S(np.array([r1, r2])), dtype=float)
+    if not np.all(np.isfinite(v)) or np.any(np.abs(sc) > 1e-9):
+        return pot, 0.0
+    z = -(v[0] - v[1]) * r1 * r2 / (r2 - r1)
+    v_inf = float(v[1] + z / r2)
+    if abs(v_inf) <= 1e-9:
+        return pot, 0.0
+    return _Shifted(pot, v_inf, z), v_inf
+
+
+class _Shifted:
+    """A potential moved by a constant so that it tends to zero (see :func:`_with_threshold`)."""
+
+    def __init__(self, pot, v_inf: float, z_tail: float) -> None:
+        self._pot, self._v, self._z = pot, v_inf, z_tail if abs(z_tail) > 1e-6 else 0.0
+
+    def __getattr__(self, name):
+        return getattr(self._pot, name)
+
+    def V(self, r):
+        return self._pot.V(r) - self._v
+
+    @property
+    def tail_charge(self) -> float:
+        return self._z
+
+    def __repr__(self) -> str:
+        return repr(self._pot)
+
+
+class _Confining:
+    """A potential that grows without bound far out (even where it overflows), read as confining."""
+
+    confining = True
+
+    def __init__(self, pot) -> None:
+        self._pot = pot
+
+    def __getattr__(self, name):
+        return getattr(self._pot, name)
+
+    def __repr__(self) -> str:
+        return repr(self._pot)
+
+
+def _shift_result(res: SolveResult, v_inf: float) -> SolveResult:
+    levels = tuple(replace(lv, energy=lv.energy + v_inf) for lv in res.levels)
+    diag = {**res.diagnostics, "threshold_hartree": v_inf}
+    notes = list(diag.get("notes", [])) + [f"the potential tends to {v_inf:.12g} hartree far out: that is the "
+                                           "threshold, and energies are given as the potential defines them"]
+    diag["notes"] = notes
+    return replace(res, levels=levels, diagnostics=diag, message=res.message + f"; threshold at {v_inf:.6g} hartree")
+
+
+def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, levels: int | None = 1,
                   tol: float = 1e-10, settings: dict | None = None, potential_name: str = "") -> SolveResult:
     """Solve one channel; the engine behind :func:`solve` (same result type).
 
-    BLAS runs single-threaded inside: the matrices are small (a few hundred
-    rows), and threads only contend, badly so on a shared machine.
+    ``levels`` is a number of lowest levels, or None for every bound level of
+    a potential that has finitely many. BLAS runs single-threaded inside: the
+    matrices are small (a few hundred rows), and threads only contend, badly
+    so on a shared machine.
     """
     with threadpool_limits(limits=1, user_api="blas"):
-        return _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
+        pot, v_inf = _with_threshold(pot)
+        res = _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
+        if v_inf:
+            res = _shift_result(res, v_inf)
+        return res
 
 
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
+    if disc.family == "spectral":
+        run = _solve_elements(eq, pot, levels, tol)
+        found, tally, per_level, worst, extra = run
+    else:
+        found, tally, per_level, worst, extra = _solve_collocation(eq, pot, disc, levels, tol)
+    return _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst,
+                   extra, t0)
+
+
+def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
+            t0) -> SolveResult:
+    found.sort(key=lambda lv: lv.energy)
+    bound = extra.get("bound_count")
+    wanted = levels if levels is not None else bound
+    if bound is not None and (levels is None or levels > bound) and len(found) == bound:
+        status = "ok" if worst <= tol else "tolerance-not-met"
+        what = ("this potential binds no level in this channel (the count of levels below the threshold "
+                "is 0)" if bound == 0 else f"all {bound} bound level(s) of this channel")
+        if levels is not None and levels > bound:
+            what += f" ({levels} requested)"
+        message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
+        if status != "ok":
+            message = f"{what}; worst estimated relative error {worst:.2g} exceeds tol = {tol:g}"
+    elif wanted is not None and len(found) < wanted:
+        status = "partial"
+        message = (f"found {len(found)} of {wanted} requested bound levels: "
+                   + (extra.get("why") or "the count certificate failed (see diagnostics)"))
+    elif worst > tol:
+        status = "tolerance-not-met"
+        why = (f"the rounding floor (about {disc.floor:g} relative) lies above it" if tally.floor_hit
+               else f"the largest resolution ({disc.ladder()[-1]}) was reached")
+        message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g}: {why}; "
+                   "the values shown are the best estimates")
+    else:
+        status = "ok"
+        message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
+    diagnostics = {
+        "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
+        "bound_count": bound, "threshold_hartree": extra.get("threshold", 0.0),
+        "certified_by_count": extra.get("certified"),
+        "seed_candidates": tally.candidates,
+        "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
+        "dropped_outside_window": tally.dropped_outside_window,
+        "dropped_unstable_seed": tally.dropped_unstable_seed, "levels": per_level, "notes": tally.notes,
+        "seconds": time.perf_counter() - t0,
+    }
+    return SolveResult(levels=tuple(found), success=status == "ok", status=status, message=message,
+                       equation=eq.name, potential=potential_name or repr(pot), settings=dict(settings or {}),
+                       constants=constants_record(), units={"energy": "hartree", "length": "bohr"},
+                       diagnostics=diagnostics)
+
+
+def _solve_collocation(eq, pot, disc, levels, tol):
+    """Finite differences (and a user's collocation family): refine the located levels per level."""
     ch = prepare_channel(eq, pot, levels)
     tally = ch.tally
     per_level = []
@@ -507,34 +745,20 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
                            error_estimate=est, nodes=k, state=_state(eq, op, E, ref.vector),
                            resolution=sizes[-1], iterations=ref.iterations,
                            previous_state=None if prev is None else _state(eq, prev[0], history[-2], prev[1].vector)))
-    found.sort(key=lambda lv: lv.energy)
-    if len(found) < levels:
-        status = "partial"
-        lost = tally.dropped_unstable + tally.dropped_node_mismatch + tally.dropped_unstable_seed
-        why = ("the potential may hold no more in this channel" if not lost else
-               f"{lost} candidate state(s) were dropped as unstable or with the wrong node count, so a level "
-               "may exist that the solver could not pin down")
-        message = f"found {len(found)} of {levels} requested bound levels; {why} (see diagnostics)"
-    elif worst > tol:
-        status = "tolerance-not-met"
-        why = (f"the rounding floor (about {disc.floor:g} relative) lies above it" if tally.floor_hit
-               else f"the largest resolution ({disc.ladder()[-1]}) was reached")
-        message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g}: {why}; "
-                   "the values shown are the best estimates")
-    else:
-        status = "ok"
-        message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
-    diagnostics = {
-        "gamma": ch.gamma, "natural_length_bohr": ch.L, "seed_candidates": tally.candidates,
-        "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
-        "dropped_outside_window": tally.dropped_outside_window,
-        "dropped_unstable_seed": tally.dropped_unstable_seed, "levels": per_level, "notes": tally.notes,
-        "seconds": time.perf_counter() - t0,
-    }
-    return SolveResult(levels=tuple(found), success=status == "ok", status=status, message=message,
-                       equation=eq.name, potential=potential_name or repr(pot), settings=dict(settings or {}),
-                       constants=constants_record(), units={"energy": "hartree", "length": "bohr"},
-                       diagnostics=diagnostics)
+    extra = dict(ch.extra)
+    if len(found) < len(ch.seeds):
+        extra["why"] = (f"{len(ch.seeds) - len(found)} located level(s) could not be refined with "
+                        f"{disc.name}: unstable under a change of resolution or with the wrong node count")
+    return found, tally, per_level, worst, extra
+
+
+def check_levels(levels) -> int | None:
+    """A number of levels (>= 1) or 'all' (returned as None); ValueError otherwise."""
+    if isinstance(levels, str) and levels.strip().lower() == "all":
+        return None
+    if isinstance(levels, bool):
+        raise ValueError(f"levels: give a whole number >= 1 or 'all', got {levels!r}")
+    return check_int("levels", levels, minimum=1)
 
 
 def setup(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
@@ -563,7 +787,7 @@ def setup(equation: str = "schrodinger", potential="coulomb", params: dict | Non
 
 
 def solve(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
-          l: int | None = None, kappa: int | None = None, levels: int = 1, tol: float = 1e-10,
+          l: int | None = None, kappa: int | None = None, levels: int | str = 1, tol: float = 1e-10,
           method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None,
           scalar=None, units: str = "atomic", cross_check: bool = False,
@@ -580,8 +804,12 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
         Term parameters, e.g. ``{'Z': 1}``.
     l, kappa : int
         Channel: orbital l (Schrodinger, Klein-Gordon) or Dirac kappa (non-zero).
-    levels : int
-        Number of lowest levels wanted in the channel (>= 1).
+    levels : int or 'all'
+        Number of lowest levels wanted in the channel (>= 1), or ``'all'``
+        for every bound level of a potential that has finitely many. Asking
+        for more levels than the channel holds returns all of them (status
+        ok, said in the message); ``diagnostics['bound_count']`` is the
+        number of levels below the threshold when it is finite.
     tol : float
         Target relative error of each binding energy (default 1e-10).
     method : str or Discretization
@@ -625,13 +853,13 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     >>> [round(lv.energy, 12) for lv in res.levels]
     [-0.5, -0.125]
     """
-    levels = check_int("levels", levels, minimum=1)
+    levels = check_levels(levels)
     tol = check_positive("tol", tol)
     disc = get_method(method, order)
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
                               units=units, j=j)
-    settings.update({"levels": levels, "tol": tol, "method": disc.describe()})
+    settings.update({"levels": "all" if levels is None else levels, "tol": tol, "method": disc.describe()})
     res = solve_channel(eq, pot, disc, levels, tol, settings, potential_name=pot.name)
     if cross_check:
         other = get_method("finite-difference" if disc.family == "spectral" else "spectral")

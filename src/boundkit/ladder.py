@@ -1,0 +1,134 @@
+"""One channel on spectral elements: box, element layout, resolution ladder.
+
+For the spectral family the solver
+
+1. fits the box [r_min, r_max]: r_min from the origin exponent (as for every
+   family), r_max where the highest level sought has decayed by e^-42 (WKB),
+   grown until the box holds as many levels as requested;
+2. lays out elements in t = ln r so that each holds a bounded share of the
+   levels' WKB phase (oscillations where the level is allowed, decay where it
+   is not, at most 2 units of t each, element edges at the potential's
+   breakpoints); elements near the origin, where f is nearly constant, get
+   half the degree;
+3. raises the degree of every element along a ladder; on each rung all
+   levels come from one symmetric matrix, located and certified by counting
+   (:mod:`boundkit.locator`);
+4. estimates each level's error by the change from the previous rung
+   (geometric convergence makes this conservative) and stops when it meets
+   ``tol`` (twice, as for the collocation family) or the rounding floor.
+
+For a short-range potential the number of bound levels is the count at the
+threshold on a far box (r_max = 1e4 natural lengths beyond the well), which
+is the number of nodes of the zero-energy solution there.
+"""
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .discretize.elements import element_grid
+from .equations.variational import SymmetricOperator
+from .locator import Located, count_below, locate_levels
+
+__all__ = ["DEGREES", "FLOOR", "fit_and_solve", "layout", "Rung"]
+
+log = logging.getLogger(__name__)
+
+DEGREES = (8, 11, 14, 18, 24, 30, 36, 44, 52, 60)
+FLOOR = 2e-14        # rounding floor of refined energies (extended-precision residuals)
+_PHASE = 5.0         # WKB phase (radians of oscillation, or e-folds / 3 of decay) per element
+_MAX_DT = 3.0        # longest element in t
+_MAX_DT_QUIET = 6.0  # longest quiet element (f nearly constant there)
+
+
+def _scan(sample_fn, r):
+    """Sample for layout purposes: overflowing (confining) values become large, not errors."""
+    return sample_fn(r, scan=True)
+
+
+def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[list, list]:
+    """Element edges in t and a 'quiet' flag per element (see the module docstring)."""
+    t = np.linspace(math.log(r_min), math.log(r_max), 4001)
+    r = np.exp(t)
+    s = _scan(sample_fn, r)
+    k = eq.kappa_eff
+    rho = np.full_like(r, 0.25)
+    for E in energies:
+        with np.errstate(all="ignore"):
+            ex = (eq.q(E, s) - E) / eq.p(E, s) + k * (k + 1) / r**2
+        ex = np.nan_to_num(ex, nan=0.0, posinf=1e300, neginf=-1e300)
+        rate = r * np.sqrt(np.abs(ex))
+        rho = np.maximum(rho, np.where(ex < 0, rate, np.minimum(rate, 60.0) / 3.0))
+    cum = np.concatenate(([0.0], np.cumsum(0.5 * (rho[1:] + rho[:-1]) * np.diff(t))))
+    n_el = max(1, int(math.ceil(cum[-1] / _PHASE)))
+    edges = list(np.interp(np.linspace(0, cum[-1], n_el + 1), cum, t))
+    for b in pot.breakpoints:
+        tb = math.log(b)
+        if t[0] + 1e-3 < tb < t[-1] - 1e-3:
+            j = int(np.argmin([abs(e - tb) for e in edges]))
+            if abs(edges[j] - tb) < 0.05 and 0 < j < len(edges) - 1:
+                edges[j] = tb
+            else:
+                edges.append(tb)
+    edges = sorted(edges)
+    out = [edges[0]]
+    for e in edges[1:]:
+        gap = e - out[-1]
+        if gap < 1e-6:
+            continue
+        quiet_here = np.interp(e, t, cum) - np.interp(out[-1], t, cum) < 0.5 * _PHASE
+        pieces = int(math.ceil(gap / (_MAX_DT_QUIET if quiet_here else _MAX_DT)))
+        out += [out[-1] + gap * (i + 1) / pieces for i in range(pieces)]
+        out[-1] = e
+    phase = np.interp(out, t, cum)
+    quiet = [bool(b - a < 0.5 * _PHASE) for a, b in zip(phase[:-1], phase[1:])]
+    return out, quiet
+
+
+@dataclass
+class Rung:
+    """One rung of the ladder: degree, grid size, operator and what it located."""
+
+    degree: int
+    size: int
+    op: SymmetricOperator
+    located: Located
+
+
+_QUIET = 1.0         # degree of quiet elements relative to the others
+
+
+def _degrees(quiet, n):
+    return [max(4, int(n * _QUIET)) if q else n for q in quiet]
+
+
+def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> SymmetricOperator:
+    """The operator on the elements at degree n (more quadrature points where w^2 varies fast)."""
+    degrees = _degrees(quiet, n)
+    quads = [d + 2 + int(math.ceil(0.5 * (2 * gamma + 1) * (b - a)))
+             for d, a, b in zip(degrees, edges[:-1], edges[1:])]
+    grid = element_grid(edges, degrees, quads)
+    sample_q = sample_fn(np.exp(grid.tq.astype(float)))
+    return SymmetricOperator(eq, grid, sample_fn(grid.r), sample_q, gamma, r_core, E_ref=E0)
+
+
+def solve_rung(eq, pot, sample_fn, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale,
+               guesses=None, top_guess=None) -> Rung:
+    op = make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0)
+    grid = op.grid
+    return Rung(n, grid.size, op, locate_levels(op, want, lo, hi, E0, scale, guesses, top_guess))
+
+
+def far_count(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi: float) -> int:
+    """Bound levels below the threshold ``hi`` counted on a far box (short-range potentials)."""
+    edges, quiet = layout(eq, pot, sample_fn, r_min, r_far, [hi])
+    counts = []
+    for n in (DEGREES[1], DEGREES[3]):
+        op = make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, hi)
+        counts.append(count_below(op, hi))
+    if counts[0] != counts[1]:
+        log.info("bound count changed with resolution on the far box: %s", counts)
+    return counts[-1]

@@ -1,0 +1,239 @@
+"""Level location by counting: every level of a channel, in order, none skipped.
+
+The argument
+------------
+At a fixed energy E the radial operator T(E) of every equation here is a
+self-adjoint Sturm-Liouville operator, and its quadratic form (see
+:mod:`boundkit.equations.variational`) is discretized as a symmetric matrix
+K(E) with a positive diagonal mass matrix M. Two facts make counting possible:
+
+1. dK/dE is negative definite (dp/dE <= 0 and dq/dE < 1 in the bound-state
+   window), so every eigenvalue mu_j(E) of the pencil (K(E), M) decreases
+   strictly as E rises;
+2. a level is an energy where K(E) is singular, and the j-th level (j nodes)
+   is where mu_j crosses zero.
+
+Hence N(E), the number of levels below E, equals the number of negative
+eigenvalues of K(E). By Sylvester's law of inertia that number is the number
+of negative pivots of the symmetric factorization K(E) = L D L^T (here
+``scipy.linalg.ldl``), whatever the scaling of the rows. The counting
+function gives
+
+* how many levels lie below the threshold (``bound_count``): N(threshold);
+* a certificate for a set of computed levels: when m distinct roots of
+  det K(E) = 0 lie below an energy E+ and N(E+) = m, they are exactly the m
+  lowest levels, none skipped and none spurious;
+* a bracket for the k-th level when the certificate fails: bisection on N
+  between energies with k and k + 1 levels below, then Brent's method on mu_k.
+
+Fast path: the pencil (K(E0) + E0 M, M) gives every level at once for the
+Schrodinger equation (K is linear in E) and good first guesses for the
+energy-dependent Klein-Gordon and Dirac operators; each guess is refined by
+Newton's method with residuals in extended precision
+(:func:`boundkit.eigen.refine`) and then certified by one count. Guesses
+never decide whether a level exists; the count does.
+
+The count is exact for the discrete problem. It equals the count of the
+continuous problem once the mesh resolves the levels (the same condition as
+for their energies, checked by the resolution ladder), and once the box
+[r_min, r_max] holds them (r_max is fitted to the highest level sought).
+"""
+from __future__ import annotations
+
+import logging
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg as sla
+
+from .eigen import refine
+from .equations.variational import SymmetricOperator
+
+__all__ = ["count_below", "locate_levels", "Located"]
+
+log = logging.getLogger(__name__)
+
+
+def count_below(op: SymmetricOperator, E: float) -> int:
+    """N(E): the number of levels of the discrete problem below E (inertia of K(E))."""
+    K = op.symmetric(E)
+    d = np.sqrt(op.row_scale)
+    _, D, _ = sla.ldl(d[:, None] * K * d[None, :], lower=True, check_finite=False)
+    # D is block diagonal with 1x1 and 2x2 blocks
+    n = D.shape[0]
+    neg = 0
+    i = 0
+    while i < n:
+        if i + 1 < n and D[i + 1, i] != 0.0:
+            ev = np.linalg.eigvalsh(D[i:i + 2, i:i + 2])
+            neg += int(np.count_nonzero(ev < 0))
+            i += 2
+        else:
+            neg += int(D[i, i] < 0)
+            i += 1
+    return neg
+
+
+def _pencil(op: SymmetricOperator, E0: float):
+    """All eigenvalues of (K(E0) + E0 M, M), ascending (and None: vectors come from inverse
+    iteration, the pencil's own carry noise where the mass is tiny)."""
+    A = op.symmetric(E0) + E0 * op.M
+    return sla.eigh(A, op.M, eigvals_only=True, driver="gv", check_finite=False), None
+
+
+def _mu(op: SymmetricOperator, E: float, k: int) -> float:
+    """mu_k(E): the k-th eigenvalue of (K(E), M); it falls through zero at the k-th level."""
+    lam = sla.eigh(op.symmetric(E), op.M, eigvals_only=True, driver="gv", check_finite=False)
+    return float(lam[k])
+
+
+@dataclass(frozen=True)
+class Located:
+    """Levels of one channel on one grid, certified by a count.
+
+    ``energies`` and ``vectors`` hold the lowest ``len(energies)`` levels in
+    order (index = node count); ``count_top`` is N(E) at ``E_top`` (the
+    certificate); ``bound_count`` is N(threshold) on this grid, or None when
+    the window has no finite top; ``fallback`` counts levels that needed
+    bisection; ``certified`` says whether the count matched.
+    """
+
+    energies: tuple
+    vectors: tuple
+    E_top: float
+    count_top: int
+    bound_count: int | None
+    fallback: int
+    certified: bool
+
+
+def _bisect_level(op, k: int, lo: float, hi: float, scale: float) -> tuple[float, float]:
+    """Bracket the k-th level between energies with k and k + 1 levels below."""
+    a, b = lo, hi
+    for _ in range(200):
+        if b - a <= 1e-9 * max(abs(a), abs(b), scale):
+            break
+        # bisect in log |E| when the window spans many decades below zero
+        if a < 0 and b < 0 and a / b > 16:
+            mid = -math.sqrt(a * b)
+        else:
+            mid = 0.5 * (a + b)
+        c = count_below(op, mid)
+        if c <= k:
+            a = mid
+        else:
+            b = mid
+        if count_below(op, a) == k and count_below(op, b) == k + 1 and b - a < 0.5 * scale:
+            break
+    return a, b
+
+
+def _level_in_bracket(op, k: int, a: float, b: float):
+    """The k-th level inside [a, b] (N(a) = k, N(b) = k + 1): Brent on mu_k, then Newton."""
+    from scipy.optimize import brentq   # lazy: scipy.optimize is slow to import
+
+    fa, fb = _mu(op, a, k), _mu(op, b, k)
+    if fa * fb < 0:
+        E = brentq(lambda E: _mu(op, E, k), a, b, xtol=1e-14 * max(abs(a), abs(b)), maxiter=200)
+    else:
+        E = 0.5 * (a + b)
+    ref = refine(op, E, _inverse_iteration(op, E))
+    if ref.converged and a <= ref.energy <= b:
+        return ref.energy, ref.vector
+    return None
+
+
+def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.ndarray:
+    """Eigenvector guess of the level near E: inverse iteration with K(E) (no eigen-solve)."""
+    lu = sla.lu_factor(op.matrix(E), check_finite=False)      # rows scaled: the raw ones span decades
+    v = np.ones(op.M.shape[0])
+    for _ in range(steps):
+        v = sla.lu_solve(lu, op.row_scale * (op.M @ v), check_finite=False)
+        v /= np.max(np.abs(v))
+    return v
+
+
+def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
+                  scale: float, guesses=None, top_guess: float | None = None) -> Located:
+    """The lowest ``want`` levels (all below ``hi`` when None) of one grid.
+
+    ``lo``, ``hi``: the bound-state window (hi may be inf for confining
+    potentials); ``E0``: the energy at which the guessing pencil is built;
+    ``scale``: a typical level spacing (for brackets); ``guesses``: energies
+    of the same levels from a coarser grid, used instead of the pencil (inverse
+    iteration gives their vectors), with ``top_guess`` the energy that separated
+    the last of them from the next level there. Either way the count certifies
+    the result.
+    """
+    finite_top = math.isfinite(hi)
+    bound = count_below(op, hi) if finite_top else None
+    if guesses is not None and len(guesses) and (want is None or len(guesses) >= want):
+        g = np.asarray(guesses, dtype=float)
+        nxt = top_guess if top_guess is not None else (hi if finite_top else g[-1] + 10 * scale)
+        lam = np.concatenate((g, [2 * nxt - g[-1]]))
+    else:
+        lam, _ = _pencil(op, E0)
+    inside = np.nonzero((lam > lo) & (lam < hi))[0]
+    if want is None:
+        if bound is None:
+            raise ValueError("levels: this channel has infinitely many bound levels (a confining "
+                             "potential or a Coulomb tail); ask for a number of levels")
+        m = bound
+    else:
+        m = want if bound is None else min(want, bound)
+    energies, vectors = [], []
+    for i in inside[:m]:
+        # the pencil's vectors carry noise where the mass is tiny (near the origin); inverse
+        # iteration at the pencil's energy gives a clean start for Newton
+        ref = refine(op, lam[i], _inverse_iteration(op, lam[i]))
+        if not ref.converged or not (lo < ref.energy < hi):
+            break
+        energies.append(ref.energy)
+        vectors.append(ref.vector)
+    E_top = _top(energies, lam, inside, m, hi)
+    ok = (len(energies) == m and all(b - a > 1e-12 * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
+          and (m == 0 or count_below(op, E_top) == m))
+    fallback = 0
+    if not ok:
+        energies, vectors, fallback = _by_bisection(op, m, lo, hi, scale, energies)
+        E_top = _top(energies, lam, inside, m, hi)
+        ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m)
+    return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok)
+
+
+def _top(energies, lam, inside, m, hi) -> float:
+    """An energy above the m-th level and below the next one (for the certificate)."""
+    if not energies:
+        return hi
+    nxt = lam[inside[m]] if len(inside) > m else hi
+    last = energies[-1]
+    if not math.isfinite(nxt) or nxt <= last:
+        nxt = last + abs(last) * 1e-3 + 1e-12
+    return last + 0.5 * (min(nxt, hi) - last) if math.isfinite(hi) or math.isfinite(nxt) else last
+
+
+def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses):
+    """The slow, sure path: bracket every level by counting, then solve in the bracket."""
+    top = hi
+    if not math.isfinite(top):
+        top = (guesses[-1] if guesses else 0.0) + 10 * scale
+        while count_below(op, top) < m:
+            top += 10 * scale
+    bottom = lo
+    if not math.isfinite(bottom):
+        bottom = -1e6 * scale
+    energies, vectors = [], []
+    a = bottom
+    fallback = 0
+    for k in range(m):
+        a_k, b_k = _bisect_level(op, k, a, top, scale)
+        got = _level_in_bracket(op, k, a_k, b_k)
+        fallback += 1
+        if got is None:
+            log.info("level %d: no root found in its bracket [%g, %g]", k, a_k, b_k)
+            break
+        energies.append(got[0])
+        vectors.append(got[1])
+        a = got[0]
+    return energies, vectors, fallback

@@ -1,0 +1,178 @@
+"""Every bound level, in order, none skipped: the counting locator.
+
+Reference values (all computed here from closed forms, none typed in):
+
+* hydrogen, Schrodinger: E_n = -Z^2 / (2 n^2) (Bethe and Salpeter, Quantum Mechanics of One- and
+  Two-Electron Atoms, 1957);
+* hydrogen-like, Dirac: the Sommerfeld-Dirac formula (Bethe and Salpeter eq. 14.29), in the
+  cancellation-free form of ``exact.dirac_coulomb``;
+* Morse, l = 0 (Morse, Phys. Rev. 34, 57, 1929): E_v = -(a^2/2m)(lambda - v - 1/2)^2,
+  lambda = sqrt(2 m D)/a, levels v = 0 .. floor(lambda - 1/2) on the whole line. On the half line
+  u(0) = 0 the correction is of the size of the full-line function at r = 0, about
+  exp(-lambda e^(a r_e)) = exp(-10 e^8) here: far below double precision, neglected;
+* Hulthen, l = 0: E_n = -(Z/n - n delta/2)^2 / 2, bound while n^2 delta < 2Z (Flugge, Practical
+  Quantum Mechanics, 1971; citation from memory, formula checked by the limit delta -> 0);
+* Poschl-Teller well -lambda(lambda - 1) / (2 cosh^2 r), l = 0: the odd states of the full-line
+  problem, E_n = -(lambda - 1 - n)^2 / 2 with n odd and n < lambda - 1 (Flugge 1971; Landau and
+  Lifshitz, Quantum Mechanics, sec. 23; from memory, the n = 0 state checked by substitution:
+  u = cosh^(1 - lambda) r solves the equation with E = -(lambda - 1)^2 / 2).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+import boundkit
+from boundkit.potentials.expression import ExpressionTerm
+from exact import dirac_coulomb
+
+TOL = 1e-10
+
+
+def _rel(a, b):
+    return abs(a - b) / abs(b)
+
+
+@pytest.mark.parametrize("levels", [13, 14, 20])
+def test_hydrogen_asking_for_more_levels_never_returns_fewer(levels):
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=0, levels=levels, tol=TOL)
+    assert res.status == "ok", res.message
+    assert len(res.levels) == levels
+    for k, lv in enumerate(res.levels):
+        assert lv.nodes == k and lv.n == k + 1
+        assert _rel(lv.energy, -0.5 / (k + 1) ** 2) < TOL
+
+
+def test_high_l_channel_finds_every_level():
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=10, levels=12, tol=TOL)
+    assert res.status == "ok" and len(res.levels) == 12
+    for k, lv in enumerate(res.levels):
+        assert _rel(lv.energy, -0.5 / (k + 11) ** 2) < TOL
+
+
+def test_dirac_p_half_many_levels():
+    res = boundkit.solve("dirac", "coulomb", {"Z": 1}, kappa=1, levels=20, tol=TOL)
+    assert res.status == "ok" and len(res.levels) == 20
+    for k, lv in enumerate(res.levels):
+        assert _rel(lv.energy, dirac_coulomb(1, k + 2, 1)) < TOL
+
+
+def test_morse_all_levels():
+    D, a, re = 50.0, 1.0, 8.0
+    lam = math.sqrt(2 * D) / a
+    count = math.floor(lam - 0.5) + 1
+    res = boundkit.solve("schrodinger", "morse", {"D": D, "a": a, "r_e": re}, l=0, levels="all", tol=TOL)
+    assert res.status == "ok", res.message
+    assert res.diagnostics["bound_count"] == count == 10
+    assert len(res.levels) == count
+    for v, lv in enumerate(res.levels):
+        assert _rel(lv.energy, -(a**2 / 2) * (lam - v - 0.5) ** 2) < TOL
+
+
+def test_hulthen_all_levels_and_more_than_exist():
+    Z, delta = 1.0, 0.05
+    exact = [-(Z / n - n * delta / 2) ** 2 / 2 for n in range(1, 20) if n * n * delta < 2 * Z]
+    assert len(exact) == 6
+    res = boundkit.solve("schrodinger", "hulthen", {"Z": Z, "delta": delta}, l=0, levels=9, tol=TOL)
+    assert res.status == "ok"
+    assert "all 6 bound level(s)" in res.message and "9 requested" in res.message
+    assert res.diagnostics["bound_count"] == 6
+    assert len(res.levels) == 6
+    for lv, e in zip(res.levels, exact):
+        assert _rel(lv.energy, e) < TOL
+
+
+def test_poschl_teller_odd_states():
+    lam = 6.5
+    exact = [-(lam - 1 - n) ** 2 / 2 for n in range(1, 20, 2) if n < lam - 1]
+    res = boundkit.solve("schrodinger", ExpressionTerm(f"-{lam}*({lam}-1)/(2*cosh(r)**2)"), l=0, levels="all", tol=TOL)
+    assert res.diagnostics["bound_count"] == len(exact) == 3
+    assert [round(lv.energy, 9) for lv in res.levels] == [round(e, 9) for e in exact]
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_levels_n_are_the_first_n_of_levels_n_plus_5(seed):
+    """Random wells built from the library's terms: the lowest N never change when more are asked."""
+    rng = np.random.default_rng(seed)
+    depth, width, z = rng.uniform(5, 40), rng.uniform(0.5, 3), rng.uniform(0.2, 2)
+    kind = ["woods-saxon", "yukawa", "mix"][seed % 3]
+    if kind == "woods-saxon":
+        pot, params = "woods-saxon", {"depth": depth, "radius": 3 * width, "diffuseness": 0.3 * width}
+    elif kind == "yukawa":
+        pot, params = "yukawa", {"Z": 5 * z, "screening_length": 3 * width}
+    else:
+        pot, params = ExpressionTerm(f"-{depth}*exp(-(r/{width})**2) - {z}*exp(-r/{2 * width})/r"), {}
+    l = int(rng.integers(0, 3))
+    n = int(rng.integers(1, 4))
+    small = boundkit.solve("schrodinger", pot, params, l=l, levels=n, tol=1e-9)
+    big = boundkit.solve("schrodinger", pot, params, l=l, levels=n + 5, tol=1e-9)
+    assert small.diagnostics["bound_count"] == big.diagnostics["bound_count"]
+    m = min(n, big.diagnostics["bound_count"])
+    assert len(small.levels) == m
+    assert [lv.nodes for lv in big.levels] == list(range(len(big.levels)))
+    for a, b in zip(small.levels, big.levels[:m]):
+        assert a.label == b.label and _rel(a.energy, b.energy) < 1e-8
+
+
+def test_constant_offset_is_the_threshold():
+    res = boundkit.solve("schrodinger", ExpressionTerm("-1/r - 5"), l=0, levels=2, tol=TOL)
+    assert res.status == "ok", res.message
+    assert abs(res.levels[0].energy - (-5.5)) < 1e-9
+    assert abs(res.levels[1].energy - (-5.125)) < 1e-9
+    assert res.diagnostics["threshold_hartree"] == pytest.approx(-5.0, abs=1e-9)
+
+
+def test_fast_growing_confining_potential_is_solved():
+    pot = ExpressionTerm("-1/r + exp(r/10)")
+    res = boundkit.solve("schrodinger", pot, l=0, levels=3, tol=1e-9)
+    assert res.status == "ok", res.message
+    assert [lv.nodes for lv in res.levels] == [0, 1, 2]
+    fd = boundkit.solve("schrodinger", pot, l=0, levels=3, tol=1e-9, method="finite-difference")
+    for a, b in zip(res.levels, fd.levels):
+        assert _rel(a.energy, b.energy) < 1e-8
+
+
+def test_repulsive_potential_binds_nothing_and_says_why():
+    res = boundkit.solve("schrodinger", ExpressionTerm("exp(-r)/r"), l=0, levels=2)
+    assert res.levels == ()
+    assert res.diagnostics["bound_count"] == 0
+    assert "binds no level" in res.message
+
+
+def test_all_levels_of_a_coulomb_tail_is_refused():
+    with pytest.raises(ValueError, match="infinitely many"):
+        boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels="all")
+
+
+@pytest.mark.parametrize("bad", [0, -1, True, "some", 2.5])
+def test_bad_levels_are_refused(bad):
+    with pytest.raises(ValueError, match="levels"):
+        boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=bad)
+
+
+def test_pseudospin_limit_is_refused_with_the_pole_message():
+    with pytest.raises(ValueError, match="pole"):
+        boundkit.solve("dirac", "oscillator", {"k": 0.05}, kappa=-1, scalar=ExpressionTerm("-0.025*r**2"), levels=1)
+
+
+def test_levels_are_certified_by_the_count():
+    res = boundkit.solve("dirac", "coulomb", {"Z": 92}, kappa=-1, levels=5)
+    assert res.diagnostics["certified_by_count"] is True
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("equation,channel", [("schrodinger", 0), ("schrodinger", 1), ("schrodinger", 10),
+                                              ("dirac", -1), ("dirac", 1), ("dirac", -11), ("dirac", 10)])
+def test_rydberg_levels_up_to_n_60(equation, channel):
+    kw = {"l": channel} if equation == "schrodinger" else {"kappa": channel}
+    l = channel if equation == "schrodinger" else (channel if channel > 0 else -channel - 1)
+    count = 60 - l
+    res = boundkit.solve(equation, "coulomb", {"Z": 1}, levels=count, tol=TOL, **kw)
+    assert res.status == "ok", res.message
+    assert len(res.levels) == count
+    for k, lv in enumerate(res.levels):
+        n = k + l + 1
+        exact = -0.5 / n**2 if equation == "schrodinger" else dirac_coulomb(1, n, channel)
+        assert _rel(lv.energy, exact) < TOL, (lv.label, lv.energy, exact)
