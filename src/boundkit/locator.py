@@ -94,9 +94,12 @@ class Located:
 
     ``energies`` and ``vectors`` hold the lowest ``len(energies)`` levels in
     order (index = node count); ``count_top`` is N(E) at ``E_top`` (the
-    certificate); ``bound_count`` is N(threshold) on this grid, or None when
-    the window has no finite top; ``fallback`` counts levels that needed
-    bisection; ``certified`` says whether the count matched.
+    certificate); ``bound_count`` is the number of levels between the bottom
+    and the top of the window on this grid, or None when the window has no
+    finite top; ``fallback`` counts levels that needed bisection; ``certified``
+    says whether the count matched; ``offset`` is N(bottom of the window): states
+    below it (a Dirac level that has dived into the lower continuum) shift the
+    node count of every level above by that much.
     """
 
     energies: tuple
@@ -106,26 +109,25 @@ class Located:
     bound_count: int | None
     fallback: int
     certified: bool
+    offset: int = 0
 
 
 def _bisect_level(op, k: int, lo: float, hi: float, scale: float) -> tuple[float, float]:
-    """Bracket the k-th level between energies with k and k + 1 levels below."""
+    """Bracket the k-th level between energies with k and k + 1 levels below (one count a step)."""
     a, b = lo, hi
-    for _ in range(200):
-        if b - a <= 1e-9 * max(abs(a), abs(b), scale):
+    ca, cb = count_below(op, a), count_below(op, b)
+    for _ in range(120):
+        if ca == k and cb == k + 1:
+            break
+        if b - a <= 1e-13 * max(abs(a), abs(b), scale):
             break
         # bisect in log |E| when the window spans many decades below zero
-        if a < 0 and b < 0 and a / b > 16:
-            mid = -math.sqrt(a * b)
-        else:
-            mid = 0.5 * (a + b)
+        mid = -math.sqrt(a * b) if (a < 0 and b < 0 and a / b > 16) else 0.5 * (a + b)
         c = count_below(op, mid)
         if c <= k:
-            a = mid
+            a, ca = mid, c
         else:
-            b = mid
-        if count_below(op, a) == k and count_below(op, b) == k + 1 and b - a < 0.5 * scale:
-            break
+            b, cb = mid, c
     return a, b
 
 
@@ -155,7 +157,8 @@ def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.nd
 
 
 def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
-                  scale: float, guesses=None, top_guess: float | None = None) -> Located:
+                  scale: float, guesses=None, top_guess: float | None = None,
+                  sure: bool = True) -> Located:
     """The lowest ``want`` levels (all below ``hi`` when None) of one grid.
 
     ``lo``, ``hi``: the bound-state window (hi may be inf for confining
@@ -164,10 +167,12 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     of the same levels from a coarser grid, used instead of the pencil (inverse
     iteration gives their vectors), with ``top_guess`` the energy that separated
     the last of them from the next level there. Either way the count certifies
-    the result.
+    the result; with ``sure`` False a failed certificate is reported, not mended
+    by bisection (for quick passes that only size the box).
     """
     finite_top = math.isfinite(hi)
-    bound = count_below(op, hi) if finite_top else None
+    offset = count_below(op, lo) if math.isfinite(lo) else 0
+    bound = count_below(op, hi) - offset if finite_top else None
     if guesses is not None and len(guesses) and (want is None or len(guesses) >= want):
         g = np.asarray(guesses, dtype=float)
         nxt = top_guess if top_guess is not None else (hi if finite_top else g[-1] + 10 * scale)
@@ -193,13 +198,13 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
         vectors.append(ref.vector)
     E_top = _top(energies, lam, inside, m, hi)
     ok = (len(energies) == m and all(b - a > 1e-12 * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
-          and (m == 0 or count_below(op, E_top) == m))
+          and (m == 0 or count_below(op, E_top) == m + offset))
     fallback = 0
-    if not ok:
-        energies, vectors, fallback = _by_bisection(op, m, lo, hi, scale, energies)
+    if not ok and sure:
+        energies, vectors, fallback = _by_bisection(op, m, lo, hi, scale, energies, offset)
         E_top = _top(energies, lam, inside, m, hi)
-        ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m)
-    return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok)
+        ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m + offset)
+    return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok, offset)
 
 
 def _top(energies, lam, inside, m, hi) -> float:
@@ -213,12 +218,12 @@ def _top(energies, lam, inside, m, hi) -> float:
     return last + 0.5 * (min(nxt, hi) - last) if math.isfinite(hi) or math.isfinite(nxt) else last
 
 
-def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses):
+def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses, offset: int = 0):
     """The slow, sure path: bracket every level by counting, then solve in the bracket."""
     top = hi
     if not math.isfinite(top):
         top = (guesses[-1] if guesses else 0.0) + 10 * scale
-        while count_below(op, top) < m:
+        while count_below(op, top) < m + offset:
             top += 10 * scale
     bottom = lo
     if not math.isfinite(bottom):
@@ -227,13 +232,13 @@ def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses):
     a = bottom
     fallback = 0
     for k in range(m):
-        a_k, b_k = _bisect_level(op, k, a, top, scale)
-        got = _level_in_bracket(op, k, a_k, b_k)
+        a_k, b_k = _bisect_level(op, k + offset, a, top, scale)
+        got = _level_in_bracket(op, k + offset, a_k, b_k)
         fallback += 1
         if got is None:
             log.info("level %d: no root found in its bracket [%g, %g]", k, a_k, b_k)
             break
         energies.append(got[0])
         vectors.append(got[1])
-        a = got[0]
+        a = got[0] + 1e-10 * max(abs(got[0]), scale)
     return energies, vectors, fallback
