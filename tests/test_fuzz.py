@@ -263,9 +263,10 @@ def _cli_property(monkeypatch, argv):
     import boundkit.accuracy
     import boundkit.cli
     import boundkit.runspec
+    import boundkit.solver
     import boundkit.studies
 
-    for mod, name in ((boundkit.cli, "solve"), (boundkit.accuracy, "converge"), (boundkit.studies, "scan"),
+    for mod, name in ((boundkit.solver, "solve"), (boundkit.accuracy, "converge"), (boundkit.studies, "scan"),
                       (boundkit.studies, "critical"), (boundkit.studies, "compare"), (boundkit.runspec, "run")):
         monkeypatch.setattr(mod, name, _stub)
     res = CliRunner().invoke(boundkit.cli.main, argv)

@@ -191,7 +191,7 @@ def test_the_api_takes_integers_and_numbers_only():
 def test_ctrl_c_exits_130_and_runtime_warnings_stay_quiet(monkeypatch):
     import warnings
 
-    import boundkit.cli as cli_mod
+    import boundkit.solver as cli_mod     # the CLI imports solve from here when a command runs
 
     def interrupted(**kw):
         raise KeyboardInterrupt
@@ -231,7 +231,7 @@ def test_solve_prints_levels_before_a_figure_that_cannot_be_written():
 
 def test_scan_prints_rows_before_a_figure_or_files_that_cannot_be_written(tmp_path, monkeypatch):
     res = cli(*SCAN, "--plot", "/proc/no-such-dir/x.png")
-    assert "-0.5" in res.stdout and "-2" in res.stdout
+    assert "-0.5" in res.stdout and " 2 schrodinger" in res.stdout        # both rows are out
     one_line_error(res, r"cannot write the figure")
     one_line_error(cli(*SCAN, "--out", "/proc/boundkit-out"), r"out: cannot create the folder")
 

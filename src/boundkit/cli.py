@@ -203,15 +203,11 @@ def _levels_arg(text: str):
     try:
         n = int(str(text).strip())
     except ValueError:
-        n = 0
+        raise click.BadParameter(f"{clip_message(repr(str(text)))} is not a valid integer (or 'all')",
+                                 param_hint="'--levels'") from None
     if n < 1:
-        _fail(f"--levels {_short_text(text)}: give a whole number >= 1 or 'all'")
+        raise click.BadParameter(f"levels: must be >= 1 (or 'all'), got {n}", param_hint="'--levels'")
     return n
-
-
-def _short_text(text, limit: int = 40) -> str:
-    t = str(text)
-    return repr(t if len(t) <= limit else t[:limit] + "...")
 
 
 def _table(res, unit: str) -> str:
@@ -229,7 +225,7 @@ def _table(res, unit: str) -> str:
         j = "" if lv.j is None else f"{lv.j:g}"
         kappa = "" if lv.kappa is None else str(lv.kappa)
         rows.append(f"{lv.label:<8} {lv.n:>3} {lv.l:>3} {j:>5} {kappa:>6} "
-                    f"{lv.energy_in(unit):>24.16g} {lv.error_in(unit):>15.2g}")
+                    f"{lv.energy_in(unit):>24.15g} {lv.error_in(unit):>15.2g}")
     d = res.diagnostics
     if "cross_check" in d:
         rows.append("")

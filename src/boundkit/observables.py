@@ -218,7 +218,8 @@ def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
 def _estimate(value: float, other: float | None) -> float:
     if other is None:
         return math.inf
-    return max(abs(value - other), 4 * np.finfo(float).eps * abs(value))
+    # never below the spectral family's rounding floor (2e-14 relative, as for the energies)
+    return max(abs(value - other), 2e-14 * abs(value))
 
 
 def _check_callable(f) -> None:

@@ -410,6 +410,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
     r_min = _inner_end(eq, pot, gamma, L, n_req, hi)
     r_core = L * (eq.l + 1) ** 2
     extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0}
+    lo = _pole_free_bottom(eq, sample, r_min, lo)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
     bound = None
     if short_range:
@@ -520,6 +521,19 @@ def _spectral_done(h: list[float], tol: float) -> bool:
     """Stop rule of the spectral family: the last change meets tol, and the one before it 100 tol."""
     E = abs(h[-1])
     return abs(h[-1] - h[-2]) <= tol * E and abs(h[-2] - h[-3]) <= 100 * tol * E
+
+
+def _pole_free_bottom(eq, sample, r_min: float, lo: float) -> float:
+    """Bottom of the Dirac window where E + 2mc^2 - V + S > 0 everywhere: below it the eliminated
+    form has a pole (a strong repulsive V - S), and counts there mean nothing."""
+    if eq.name != "dirac" or not math.isfinite(lo):
+        return lo
+    r = np.logspace(math.log10(r_min), 8, 3000)
+    s = sample(r, scan=True)
+    top = float(np.max(s.V - s.S))
+    if top <= 0:
+        return lo
+    return lo + top * (1 + 1e-9)
 
 
 def _check_pole(eq, sample, r_min: float, R: float, energies) -> None:
@@ -771,8 +785,6 @@ def check_levels(levels) -> int | None:
     """A number of levels (>= 1) or 'all' (returned as None); ValueError otherwise."""
     if isinstance(levels, str) and levels.strip().lower() == "all":
         return None
-    if isinstance(levels, bool):
-        raise ValueError(f"levels: give a whole number >= 1 or 'all', got {levels!r}")
     return check_int("levels", levels, minimum=1)
 
 

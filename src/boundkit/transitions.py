@@ -348,7 +348,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
                 energy=float(hartree_to(omega, energy_unit)), energy_unit=energy_unit, energy_hartree=omega,
                 wavelength_nm=NM_HARTREE / omega, line_strength=S, oscillator_strength=f,
                 einstein_a=A_au / AU_TIME_S, line_strength_velocity=SV, long_wavelength_a=long_a,
-                line_strength_error=math.inf if S_prev is None else max(abs(S - S_prev), 4e-16 * S))
+                line_strength_error=math.inf if S_prev is None else max(abs(S - S_prev), 2e-14 * S))
 
 
 def _channels(equation: str, max_n: int):

@@ -266,7 +266,7 @@ class ScanResult:
             if r["energy"] is None:
                 e, de = "-", "-"
             else:
-                e = f"{hartree_to(r['energy'], unit):.16g}"
+                e = f"{hartree_to(r['energy'], unit):.15g}"
                 de = f"{hartree_to(r['error_estimate'], unit):.2g}"
             lines.append(" ".join(vals + [f"{r['equation']:<13} {r['channel']:<9} {r['label']:<8} {e:>24} "
                                           f"{de:>9} {r['status']}"]))
