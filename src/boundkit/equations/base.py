@@ -190,18 +190,7 @@ class FactorizedOperator:
         correction). This makes the error of cutting the mesh at r_min
         quadratic in r_min instead of linear.
         """
-        s, eq = self.sample, self.eq
-        r0 = s.r[0]
-        p = eq.p(E, s)
-        p_t = float(d0 @ p)
-        a, b = self.a[0], self.b[0]
-        b_t = -self.gamma * self.r_core * r0 / (r0 + self.r_core) ** 2   # d(beta)/dt
-        qE = eq.q(E, s)[0] - E
-        T1 = -(b * (p_t + a * p[0]) + p[0] * b_t) + r0**2 * qE
-        Tr = -((1 + b) * (p_t + (1 + a) * p[0]) + p[0] * b_t) * r0 + r0**3 * qE
-        if not np.isfinite(T1 / Tr) or abs(Tr) < 1e-300:
-            return 0.0
-        return float(-T1 / Tr * r0)
+        return frobenius_slope(self.eq, self.sample, d0, self.gamma, self.r_core, self.b[0], E)
 
     # -- expansion of the reduced unknowns to all nodes -------------------------
     def expand(self, y, elim=None):
@@ -264,6 +253,26 @@ class FactorizedOperator:
         if self.grid.dense:
             return T + E_ref * np.diag(self.B), np.diag(self.B)
         return T + E_ref * sp.diags(self.B), sp.diags(self.B).tocsr()
+
+
+def frobenius_slope(eq: RadialEquation, s: Sample, d0, gamma: float, r_core: float, b0: float, E) -> float:
+    """df/dt at the first node of ``s`` for f = 1 + c r near the origin (see
+    :meth:`FactorizedOperator._inner_slope`); ``d0`` is the first row of a
+    derivative matrix in t on the nodes of ``s``, b0 = beta + kappa there."""
+    r0 = s.r[0]
+    E = float(E)
+    p = eq.p(E, s)
+    p_t = float(d0 @ p)
+    a = b0 - 1 - 2 * eq.kappa_eff          # a = beta - 1 - kappa
+    b_t = -gamma * r_core * r0 / (r0 + r_core) ** 2   # d(beta)/dt
+    qE = eq.q(E, s)[0] - E
+    T1 = -(b0 * (p_t + a * p[0]) + p[0] * b_t) + r0**2 * qE
+    Tr = -((1 + b0) * (p_t + (1 + a) * p[0]) + p[0] * b_t) * r0 + r0**3 * qE
+    with np.errstate(all="ignore"):
+        ratio = T1 / Tr
+    if not np.isfinite(ratio) or abs(Tr) < 1e-300:
+        return 0.0
+    return float(-ratio * r0)
 
 
 def _solve_small(A, B):

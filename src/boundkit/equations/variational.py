@@ -37,7 +37,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..discretize.elements import ElementGrid
-from .base import RadialEquation, Sample
+from .base import RadialEquation, Sample, frobenius_slope
 
 __all__ = ["SymmetricOperator"]
 
@@ -99,23 +99,12 @@ class SymmetricOperator:
 
     def _slope(self, E) -> float:
         """f'/f at the first node from f ~ 1 + c r (c from the operator itself)."""
-        eq, s = self.eq, self.sample
+        s = self.sample
         i0, i1 = self.grid.elements[0]
-        d0 = self.grid.D[0][0].astype(float)
         sl = slice(i0, i1 + 1)
         se = Sample(s.r[sl], s.V[sl], s.S[sl], None if s.W is None else s.W[sl])
-        E = float(E)
-        p = eq.p(E, se)
-        p_t = float(d0 @ p)
-        r0, b = s.r[0], self.b[0]
-        a = b - 1 - 2 * eq.kappa_eff          # a = beta - 1 - kappa
-        b_t = -self.gamma * self.r_core * r0 / (r0 + self.r_core) ** 2
-        qE = eq.q(E, se)[0] - E
-        T1 = -(b * (p_t + a * p[0]) + p[0] * b_t) + r0**2 * qE
-        Tr = -((1 + b) * (p_t + (1 + a) * p[0]) + p[0] * b_t) * r0 + r0**3 * qE
-        if not np.isfinite(T1 / Tr) or abs(Tr) < 1e-300:
-            return 0.0
-        return float(-T1 / Tr * r0)
+        return frobenius_slope(self.eq, se, self.grid.D[0][0].astype(float), self.gamma, self.r_core,
+                               self.b[0], E)
 
     def _coefficients(self, E, dtype, derivative=False):
         """(p w^2/r, (q - E) w^2 r) at the quadrature points, or their E-derivatives."""
