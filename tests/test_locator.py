@@ -4,6 +4,8 @@ Reference values (all computed here from closed forms, none typed in):
 
 * hydrogen, Schrodinger: E_n = -Z^2 / (2 n^2) (Bethe and Salpeter, Quantum Mechanics of One- and
   Two-Electron Atoms, 1957);
+* hydrogen-like, Klein-Gordon: Greiner, Relativistic Quantum Mechanics: Wave Equations, ch. 1
+  (``exact.klein_gordon_coulomb``);
 * hydrogen-like, Dirac: the Sommerfeld-Dirac formula (Bethe and Salpeter eq. 14.29), in the
   cancellation-free form of ``exact.dirac_coulomb``;
 * Morse, l = 0 (Morse, Phys. Rev. 34, 57, 1929): E_v = -(a^2/2m)(lambda - v - 1/2)^2,
@@ -26,7 +28,7 @@ import pytest
 
 import boundkit
 from boundkit.potentials.expression import ExpressionTerm
-from exact import dirac_coulomb
+from exact import dirac_coulomb, klein_gordon_coulomb
 
 TOL = 1e-10
 
@@ -164,15 +166,17 @@ def test_levels_are_certified_by_the_count():
 
 @pytest.mark.slow
 @pytest.mark.parametrize("equation,channel", [("schrodinger", 0), ("schrodinger", 1), ("schrodinger", 10),
+                                              ("schrodinger", 20), ("klein-gordon", 0), ("klein-gordon", 20),
                                               ("dirac", -1), ("dirac", 1), ("dirac", -11), ("dirac", 10)])
 def test_rydberg_levels_up_to_n_60(equation, channel):
-    kw = {"l": channel} if equation == "schrodinger" else {"kappa": channel}
-    l = channel if equation == "schrodinger" else (channel if channel > 0 else -channel - 1)
+    kw = {"kappa": channel} if equation == "dirac" else {"l": channel}
+    l = channel if equation != "dirac" else (channel if channel > 0 else -channel - 1)
     count = 60 - l
     res = boundkit.solve(equation, "coulomb", {"Z": 1}, levels=count, tol=TOL, **kw)
     assert res.status == "ok", res.message
     assert len(res.levels) == count
     for k, lv in enumerate(res.levels):
         n = k + l + 1
-        exact = -0.5 / n**2 if equation == "schrodinger" else dirac_coulomb(1, n, channel)
+        exact = {"schrodinger": lambda: -0.5 / n**2, "klein-gordon": lambda: klein_gordon_coulomb(1, n, l),
+                 "dirac": lambda: dirac_coulomb(1, n, channel)}[equation]()
         assert _rel(lv.energy, exact) < TOL, (lv.label, lv.energy, exact)
