@@ -154,6 +154,11 @@ def test_bad_levels_are_refused(bad):
         boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=bad)
 
 
+def test_tolerance_of_one_or_more_is_refused():
+    with pytest.raises(ValueError, match="tol: a relative error below 1"):
+        boundkit.solve("schrodinger", "coulomb", {"Z": 1}, tol=1.0)
+
+
 def test_pseudospin_limit_is_refused_with_the_pole_message():
     with pytest.raises(ValueError, match="pole"):
         boundkit.solve("dirac", "oscillator", {"k": 0.05}, kappa=-1, scalar=ExpressionTerm("-0.025*r**2"), levels=1)

@@ -882,6 +882,8 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     """
     levels = check_levels(levels)
     tol = check_positive("tol", tol)
+    if tol >= 1:
+        raise ValueError(f"tol: a relative error below 1 (e.g. 1e-10), got {tol:g}")
     disc = get_method(method, order)
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
