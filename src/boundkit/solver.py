@@ -530,10 +530,9 @@ def _pole_free_bottom(eq, sample, r_min: float, lo: float) -> float:
         return lo
     r = np.logspace(math.log10(r_min), 8, 3000)
     s = sample(r, scan=True)
-    top = float(np.max(s.V - s.S))
-    if top <= 0:
-        return lo
-    return lo + top * (1 + 1e-9)
+    top = max(float(np.max(s.V - s.S)), 0.0)
+    # strictly above: at E = -2mc^2 + max(V - S) the form itself is singular (S = V gives exactly that)
+    return lo + top * (1 + 1e-9) + 1e-9 * abs(lo)
 
 
 def _check_pole(eq, sample, r_min: float, R: float, energies) -> None:
