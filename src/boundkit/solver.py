@@ -572,59 +572,28 @@ def _element_state(eq, op, E: float, y) -> RadialState:
 
 
 def _with_threshold(pot):
-    """(potential, V_inf): a vector potential tending to a constant V_inf far out is solved as
-    V - V_inf (levels below V_inf are bound) and the energies are shifted back."""
-    if pot.confining:
+    """(potential, V_inf): a vector potential tending to a constant V_inf far out
+    (``Potential.far_constant``) is solved as V - V_inf (levels below V_inf are bound) and the
+    energies are shifted back."""
+    v_inf = 0.0 if pot.confining else pot.far_constant
+    if not v_inf:
         return pot, 0.0
-    r = np.logspace(1, 8, 71)
-    with np.errstate(all="ignore"):
-        far = np.asarray(pot.V(r), dtype=complex).real + np.asarray(pot.S(r), dtype=complex).real
-    grows = np.isposinf(far) | (far > 1e3)
-    if np.any(grows) and np.all(np.diff(far[np.isfinite(far)][-5:]) > 0) if np.isfinite(far).sum() >= 5 else np.any(grows):
-        return _Confining(pot), 0.0
-    r1, r2 = 1e6, 1e7
-    with np.errstate(all="ignore"):
-        v = np.asarray(pot.V(np.array([r1, r2])), dtype=float)
-        sc = np.asarray(pot.S(np.array([r1, r2])), dtype=float)
-    if not np.all(np.isfinite(v)) or np.any(np.abs(sc) > 1e-9):
-        return pot, 0.0
-    z = -(v[0] - v[1]) * r1 * r2 / (r2 - r1)
-    v_inf = float(v[1] + z / r2)
-    if abs(v_inf) <= 1e-9:
-        return pot, 0.0
-    return _Shifted(pot, v_inf, z), v_inf
+    return _Shifted(pot, v_inf), v_inf
 
 
 class _Shifted:
     """A potential moved by a constant so that it tends to zero (see :func:`_with_threshold`)."""
 
-    def __init__(self, pot, v_inf: float, z_tail: float) -> None:
-        self._pot, self._v, self._z = pot, v_inf, z_tail if abs(z_tail) > 1e-6 else 0.0
+    far_constant = 0.0
+
+    def __init__(self, pot, v_inf: float) -> None:
+        self._pot, self._v = pot, v_inf
 
     def __getattr__(self, name):
         return getattr(self._pot, name)
 
     def V(self, r):
         return self._pot.V(r) - self._v
-
-    @property
-    def tail_charge(self) -> float:
-        return self._z
-
-    def __repr__(self) -> str:
-        return repr(self._pot)
-
-
-class _Confining:
-    """A potential that grows without bound far out (even where it overflows), read as confining."""
-
-    confining = True
-
-    def __init__(self, pot) -> None:
-        self._pot = pot
-
-    def __getattr__(self, name):
-        return getattr(self._pot, name)
 
     def __repr__(self) -> str:
         return repr(self._pot)

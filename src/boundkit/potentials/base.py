@@ -123,6 +123,11 @@ class Term:
     def tail_charge(self) -> float:
         return 0.0
 
+    @property
+    def far_constant(self) -> float:
+        """Constant V_inf the term tends to far out (hartree; 0 for the built-in terms)."""
+        return 0.0
+
     def spin_orbit(self, r):
         """Radial factor U(r) of a spin-orbit term V_ls = U(r) <l.s> (hartree), or None."""
         return None
@@ -157,10 +162,13 @@ class ProbedTerm(Term):
     Z0 = -r V(r) at r = 1e-12..1e-10 bohr when that is steady (to 1e-6) and not
     negligible, else 0; far out, V growing beyond 1e3 hartree over
     r = 1e3..1e5 bohr means a confining term, otherwise the tail charge is
-    -r V(r) at r = 1e5 bohr (0 when below 1e-6). When a probe value is not
+    read from V ~ V_inf - Z_inf / r fitted at r = 1e4 and 1e5 bohr: Z_inf is the
+    tail charge (0 when below 1e-6), V_inf the far constant (0 when below
+    1e-9 hartree; the solver puts the threshold there). When a probe value is not
     finite (a pole there), the probe is repeated once at radii 4.7 % larger;
-    values still not finite count as "no Coulomb behaviour" (origin) or
-    V -> 0 (far side, with a warning).
+    values still not finite count as "no Coulomb behaviour" (origin); far out,
+    values that overflow to +inf mean a confining term (an exponential wall),
+    other non-finite values V -> 0 (with a warning).
     """
 
     label: str = "term"
@@ -184,14 +192,25 @@ class ProbedTerm(Term):
             if not np.all(np.isfinite(rv)):
                 log.info("%s: not finite near r = 0; treated as not Coulomb-like there", self.label)
         r_big, vb = self._finite_probe(np.array([1e3, 1e4, 1e5]))
+        self._vinf = 0.0
         if not np.all(np.isfinite(vb)):
-            log.warning("%s: not finite at r = 1e3..1e5 bohr; far behaviour taken as V -> 0", self.label)
-            self._far, self._zinf = "zero", 0.0
+            if np.all(np.isfinite(vb) | np.isposinf(vb)):
+                self._far, self._zinf = "confining", 0.0
+            else:
+                log.warning("%s: not finite at r = 1e3..1e5 bohr; far behaviour taken as V -> 0", self.label)
+                self._far, self._zinf = "zero", 0.0
         elif vb[2] > 1e3 and vb[2] > vb[1] > vb[0]:
             self._far, self._zinf = "confining", 0.0
         else:
             self._far = "zero"
-            self._zinf = float(-r_big[2] * vb[2]) if abs(r_big[2] * vb[2]) > 1e-6 else 0.0
+            r1, r2 = r_big[1], r_big[2]
+            z = float(-(vb[1] - vb[2]) * r1 * r2 / (r2 - r1))
+            v_inf = float(vb[2] + z / r2)
+            if abs(v_inf) > 1e-9:
+                self._vinf = v_inf
+            else:
+                z = float(-r2 * vb[2])          # no constant: -r V(r) at 1e5 bohr
+            self._zinf = z if abs(z) > 1e-6 else 0.0
         for what, z in (("origin charge -r V(r) near r = 0", self._z0), ("tail charge -r V(r) far out", self._zinf)):
             if abs(z) > MAX_MAGNITUDE:
                 raise ValueError(f"potential: {shorten(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
@@ -204,6 +223,10 @@ class ProbedTerm(Term):
     @property
     def tail_charge(self) -> float:
         return self._zinf
+
+    @property
+    def far_constant(self) -> float:
+        return self._vinf
 
     @property
     def far(self) -> str:  # type: ignore[override]
@@ -286,6 +309,11 @@ class Potential:
         return float(sum(t.tail_charge for t in self.vector + self.scalar))
 
     @property
+    def far_constant(self) -> float:
+        """V_inf of the vector terms (a scalar constant is a mass shift, not a threshold)."""
+        return float(sum(t.far_constant for t in self.vector))
+
+    @property
     def origin_inverse_square(self) -> float:
         """Sum of the terms' 1/r^2 coefficients at the origin (vector and scalar terms)."""
         return float(sum(t.origin_inverse_square for t in self.vector + self.scalar))
@@ -330,6 +358,10 @@ class NuclearUnitsTerm(Term):
     @property
     def tail_charge(self) -> float:
         return self.inner.tail_charge * self._v * self._r
+
+    @property
+    def far_constant(self) -> float:
+        return self.inner.far_constant * self._v
 
     @property
     def origin_inverse_square(self) -> float:
