@@ -33,7 +33,7 @@ from .discretize.elements import element_grid
 from .equations.variational import SymmetricOperator
 from .locator import Located, count_below, locate_levels
 
-__all__ = ["DEGREES", "FLOOR", "fit_and_solve", "layout", "Rung"]
+__all__ = ["DEGREES", "FLOOR", "far_count", "layout", "make_operator", "solve_rung", "Rung"]
 
 log = logging.getLogger(__name__)
 
@@ -44,16 +44,11 @@ _MAX_DT = 3.0        # longest element in t
 _MAX_DT_QUIET = 6.0  # longest quiet element (f nearly constant there)
 
 
-def _scan(sample_fn, r):
-    """Sample for layout purposes: overflowing (confining) values become large, not errors."""
-    return sample_fn(r, scan=True)
-
-
 def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[list, list]:
     """Element edges in t and a 'quiet' flag per element (see the module docstring)."""
     t = np.linspace(math.log(r_min), math.log(r_max), 4001)
     r = np.exp(t)
-    s = _scan(sample_fn, r)
+    s = sample_fn(r, scan=True)      # overflowing (confining) values become large, not errors
     k = eq.kappa_eff
     rho = np.full_like(r, 0.25)
     for E in energies:

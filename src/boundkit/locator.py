@@ -75,11 +75,11 @@ def count_below(op: SymmetricOperator, E: float) -> int:
     return neg
 
 
-def _pencil(op: SymmetricOperator, E0: float):
-    """All eigenvalues of (K(E0) + E0 M, M), ascending (and None: vectors come from inverse
-    iteration, the pencil's own carry noise where the mass is tiny)."""
+def _pencil(op: SymmetricOperator, E0: float) -> np.ndarray:
+    """All eigenvalues of (K(E0) + E0 M, M), ascending (vectors come from inverse iteration:
+    the pencil's own carry noise where the mass is tiny)."""
     A = op.symmetric(E0) + E0 * op.M
-    return sla.eigh(A, op.M, eigvals_only=True, driver="gv", check_finite=False), None
+    return sla.eigh(A, op.M, eigvals_only=True, driver="gv", check_finite=False)
 
 
 def _mu(op: SymmetricOperator, E: float, k: int) -> float:
@@ -178,7 +178,7 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
         nxt = top_guess if top_guess is not None else (hi if finite_top else g[-1] + 10 * scale)
         lam = np.concatenate((g, [2 * nxt - g[-1]]))
     else:
-        lam, _ = _pencil(op, E0)
+        lam = _pencil(op, E0)
     inside = np.nonzero((lam > lo) & (lam < hi))[0]
     if want is None:
         if bound is None:
