@@ -55,6 +55,9 @@ def _bordered_solver(op, E: float, y, j: int):
     steps (a chord iteration); with the residual in extended precision the
     iteration still converges to full accuracy.
     """
+    own = getattr(op, "bordered_solver", None)
+    if own is not None:           # the operator knows its structure (banded spectral elements)
+        return own(E, y, j)
     col = op.dT_y(E, y)
     T = op.matrix(E)
     if sp.issparse(T):

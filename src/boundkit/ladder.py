@@ -111,10 +111,13 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
 
 
 def solve_rung(eq, pot, sample_fn, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale,
-               guesses=None, top_guess=None, sure: bool = True) -> Rung:
+               guesses=None, top_guess=None, sure: bool = True, certify: bool = True, offset: int = 0,
+               rtol: float | None = None) -> Rung:
+    """Build the operator at degree n and locate the levels on it (see :func:`locate_levels`)."""
     op = make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0)
     grid = op.grid
-    return Rung(n, grid.size, op, locate_levels(op, want, lo, hi, E0, scale, guesses, top_guess, sure))
+    return Rung(n, grid.size, op, locate_levels(op, want, lo, hi, E0, scale, guesses, top_guess, sure,
+                                                certify, offset, rtol))
 
 
 def far_count(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi: float) -> int:

@@ -50,7 +50,7 @@ import scipy.linalg as sla
 from .eigen import refine
 from .equations.variational import SymmetricOperator
 
-__all__ = ["count_below", "locate_levels", "Located"]
+__all__ = ["count_below", "locate_levels", "certify_levels", "Located"]
 
 log = logging.getLogger(__name__)
 
@@ -90,16 +90,19 @@ def _mu(op: SymmetricOperator, E: float, k: int) -> float:
 
 @dataclass(frozen=True)
 class Located:
-    """Levels of one channel on one grid, certified by a count.
+    """Levels of one channel on one grid, certified by a count (or not yet checked).
 
     ``energies`` and ``vectors`` hold the lowest ``len(energies)`` levels in
     order (index = node count); ``count_top`` is N(E) at ``E_top`` (the
     certificate); ``bound_count`` is the number of levels between the bottom
     and the top of the window on this grid, or None when the window has no
-    finite top; ``fallback`` counts levels that needed bisection; ``certified``
-    says whether the count matched; ``offset`` is N(bottom of the window): states
-    below it (a Dirac level that has dived into the lower continuum) shift the
-    node count of every level above by that much.
+    finite top (or nothing was counted); ``fallback`` counts levels that needed
+    bisection; ``certified`` says whether the count matched (``checked`` whether
+    it was asked at all: the ladder counts only on the rung it reports);
+    ``offset`` is N(bottom of the window): states below it (a Dirac level that
+    has dived into the lower continuum) shift the node count of every level
+    above by that much. ``next_energy`` is the guess of the level above the last
+    one (it places ``E_top``).
     """
 
     energies: tuple
@@ -110,6 +113,8 @@ class Located:
     fallback: int
     certified: bool
     offset: int = 0
+    checked: bool = True
+    next_energy: float = math.inf
 
 
 def _bisect_level(op, k: int, lo: float, hi: float, scale: float) -> tuple[float, float]:
@@ -148,17 +153,17 @@ def _level_in_bracket(op, k: int, a: float, b: float):
 
 def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.ndarray:
     """Eigenvector guess of the level near E: inverse iteration with K(E) (no eigen-solve)."""
-    lu = sla.lu_factor(op.matrix(E), check_finite=False)      # rows scaled: the raw ones span decades
     v = np.ones(op.M.shape[0])
-    for _ in range(steps):
-        v = sla.lu_solve(lu, op.row_scale * (op.M @ v), check_finite=False)
+    for _ in range(steps):          # rows scaled (the raw ones span decades); banded LU, kept for Newton
+        v = op.solve(E, op.row_scale * (op.M @ v))
         v /= np.max(np.abs(v))
     return v
 
 
 def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
                   scale: float, guesses=None, top_guess: float | None = None,
-                  sure: bool = True) -> Located:
+                  sure: bool = True, certify: bool = True, offset: int = 0,
+                  rtol: float | None = None) -> Located:
     """The lowest ``want`` levels (all below ``hi`` when None) of one grid.
 
     ``lo``, ``hi``: the bound-state window (hi may be inf for confining
@@ -166,16 +171,23 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     ``scale``: a typical level spacing (for brackets); ``guesses``: energies
     of the same levels from a coarser grid, used instead of the pencil (inverse
     iteration gives their vectors), with ``top_guess`` the energy that separated
-    the last of them from the next level there. Either way the count certifies
-    the result; with ``sure`` False a failed certificate is reported, not mended
-    by bisection (for quick passes that only size the box).
+    the last of them from the next level there. With ``certify`` the count
+    certifies the result (:func:`certify_levels`); with ``sure`` False a failed
+    certificate is reported, not mended by bisection (for quick passes that only
+    size the box). Without ``certify`` nothing is counted (``offset``, the count
+    below the window known from an earlier grid, labels the levels) and the
+    result says ``checked=False``. ``rtol`` is Newton's stopping step
+    (:func:`boundkit.eigen.refine`; default: to the rounding level).
     """
-    finite_top = math.isfinite(hi)
-    offset = count_below(op, lo) if math.isfinite(lo) else 0
-    bound = count_below(op, hi) - offset if finite_top else None
+    if want is None:
+        certify = True
+    bound = None
+    if certify:
+        offset = count_below(op, lo) if math.isfinite(lo) else 0
+        bound = count_below(op, hi) - offset if math.isfinite(hi) else None
     if guesses is not None and len(guesses) and (want is None or len(guesses) >= want):
         g = np.asarray(guesses, dtype=float)
-        nxt = top_guess if top_guess is not None else (hi if finite_top else g[-1] + 10 * scale)
+        nxt = top_guess if top_guess is not None else (hi if math.isfinite(hi) else g[-1] + 10 * scale)
         lam = np.concatenate((g, [2 * nxt - g[-1]]))
     else:
         lam = _pencil(op, E0)
@@ -191,27 +203,42 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     for i in inside[:m]:
         # the pencil's vectors carry noise where the mass is tiny (near the origin); inverse
         # iteration at the pencil's energy gives a clean start for Newton
-        ref = refine(op, lam[i], _inverse_iteration(op, lam[i]))
+        ref = refine(op, lam[i], _inverse_iteration(op, lam[i]), rtol=rtol)
         if not ref.converged or not (lo < ref.energy < hi):
             break
         energies.append(ref.energy)
         vectors.append(ref.vector)
-    E_top = _top(energies, lam, inside, m, hi)
+    nxt = float(lam[inside[m]]) if len(inside) > m else hi
+    loc = Located(tuple(energies), tuple(vectors), _top(energies, nxt, hi), -1, bound, 0, False, offset,
+                  checked=False, next_energy=nxt)
+    return certify_levels(op, loc, m, lo, hi, scale, sure) if certify else loc
+
+
+def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi: float, scale: float,
+                   sure: bool = True) -> Located:
+    """Count below the window, below its top and below ``loc.E_top``; mend by bisection when the
+    count disagrees (unless ``sure`` is False). Returns the certified :class:`Located`."""
+    offset = count_below(op, lo) if math.isfinite(lo) else 0
+    bound = count_below(op, hi) - offset if math.isfinite(hi) else None
+    m = want if bound is None else min(want, bound)
+    energies, vectors = list(loc.energies[:m]), list(loc.vectors[:m])
+    nxt = loc.energies[m] if len(loc.energies) > m else loc.next_energy
+    E_top = _top(energies, nxt, hi)
     ok = (len(energies) == m and all(b - a > 1e-12 * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
           and (m == 0 or count_below(op, E_top) == m + offset))
     fallback = 0
     if not ok and sure:
         energies, vectors, fallback = _by_bisection(op, m, lo, hi, scale, energies, offset)
-        E_top = _top(energies, lam, inside, m, hi)
+        E_top = _top(energies, nxt, hi)
         ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m + offset)
-    return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok, offset)
+    return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok, offset,
+                   checked=True, next_energy=nxt)
 
 
-def _top(energies, lam, inside, m, hi) -> float:
-    """An energy above the m-th level and below the next one (for the certificate)."""
+def _top(energies, nxt: float, hi: float) -> float:
+    """An energy above the last level and below the next one (for the certificate)."""
     if not energies:
         return hi
-    nxt = lam[inside[m]] if len(inside) > m else hi
     last = energies[-1]
     if not math.isfinite(nxt) or nxt <= last:
         nxt = last + abs(last) * 1e-3 + 1e-12

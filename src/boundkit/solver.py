@@ -395,6 +395,7 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
 def _solve_elements(eq, pot, levels: int | None, tol: float):
     """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`)."""
     from .ladder import DEGREES, FLOOR, far_count, layout, solve_rung
+    from .locator import certify_levels
 
     tally = _Tally()
     gamma = eq.gamma(pot)
@@ -438,7 +439,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
         edges, quiet = layout(eq, pot, sample, r_min, R, energies)
         _check_pole(eq, sample, r_min, R, energies)
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, DEGREES[1], want, lo, hi, E0, scale,
-                          sure=False)
+                          sure=False, certify=False, rtol=1e-10)
         got = list(rung.located.energies)
         if len(got) < want:
             if R < 1e9 * L and not pot.confining and rung.size < 4000:
@@ -462,28 +463,54 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
     hist: list[list[float]] = []
     rungs = []
     per_level = []
+    # Newton stops at steps far below tol (its error is then the square of that); counting is done
+    # only on the rung that is reported (the certificate makes its levels exactly the lowest ones,
+    # whatever happened on the rungs below, which only feed the error estimate)
+    rtol = min(1e-6, max(tol * 1e-4, 1e-17))
+    offset = 0
+
+    def finished():
+        done = all(len(h) >= 3 and _spectral_done(h, tol) for h in hist[:want])
+        floor = all(len(h) >= 3 and max(abs(h[-1] - h[-2]), abs(h[-2] - h[-3])) <= FLOOR * abs(h[-1])
+                    for h in hist[:want])
+        return done, floor
+
     for n in DEGREES:
-        guesses = rungs[-1].located.energies if rungs and rungs[-1].located.certified else None
-        top = rungs[-1].located.E_top if guesses is not None else None
+        prev_loc = rungs[-1].located if rungs else None
+        guesses = prev_loc.energies if prev_loc is not None and len(prev_loc.energies) == want else None
+        top = prev_loc.E_top if guesses is not None else None
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale, guesses,
-                          top)
-        loc = rung.located
+                          top, certify=False, offset=offset, rtol=rtol)
+        rungs.append(rung)
+        for k, E in enumerate(rung.located.energies):
+            if k >= len(hist):
+                hist.append([])
+            hist[k].append(E)
+        done, floor = finished() if len(rung.located.energies) == want else (False, False)
+        if not (done or floor or n == DEGREES[-1]):
+            E0 = 0.5 * (rung.located.energies[0] + rung.located.energies[-1]) if rung.located.energies else E0
+            continue
+        loc = certify_levels(rung.op, rung.located, want, lo, hi, scale)
+        offset = loc.offset
         if not loc.certified:
             tally.notes.append(f"degree {n}: count certificate failed (N(E_top) = {loc.count_top})")
         if loc.fallback:
             tally.notes.append(f"degree {n}: {loc.fallback} level(s) located by bisection on the count")
-        rungs.append(rung)
-        for k, E in enumerate(loc.energies):
-            if k >= len(hist):
-                hist.append([])
-            hist[k].append(E)
+        if loc.energies != rung.located.energies:
+            for k, E in enumerate(loc.energies):
+                if k >= len(hist):
+                    hist.append([])
+                if k < len(rung.located.energies):
+                    hist[k][-1] = E
+                else:
+                    hist[k].append(E)
+            del hist[len(loc.energies):]
+        rung.located = loc
         E0 = 0.5 * (loc.energies[0] + loc.energies[-1]) if loc.energies else E0
-        done = len(loc.energies) == want and all(len(h) >= 3 and _spectral_done(h, tol) for h in hist[:want])
-        floor = len(hist) and all(len(h) >= 3 and max(abs(h[-1] - h[-2]), abs(h[-2] - h[-3])) <= FLOOR * abs(h[-1])
-                                  for h in hist[:want])
+        done, floor = finished() if len(loc.energies) == want else (False, False)
         if done:
             break
-        if floor and len(loc.energies) == want:
+        if floor:
             tally.floor_hit = True
             tally.notes.append(f"at the rounding floor; tol {tol:g} is out of reach")
             break

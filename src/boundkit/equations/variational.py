@@ -63,30 +63,60 @@ class SymmetricOperator:
         self.n = n = grid.size
         self.keep = np.arange(n - 1)
         self._q = {np.float64: sample_q, np.longdouble: sample_q.cast(np.longdouble)}
-        sizes = [len(q.t) for q in grid.quad]
-        self._slices = [slice(a, a + m) for a, m in zip(np.cumsum([0] + sizes[:-1]), sizes)]
         rc = r_core
         r = sample.r
         beta = gamma * rc / (r + rc)
         self.b = beta + eq.kappa_eff
         self.log_w = gamma * (np.log(r) - np.log(r + rc))
         self._pieces = {}
-        for dtype in (np.float64, np.longdouble):
-            sq = self._q[dtype]
-            rq = sq.r
-            bq = dtype(gamma) * dtype(rc) / (rq + dtype(rc)) + eq.kappa_eff
-            w2 = np.exp(2 * dtype(gamma) * (np.log(rq) - np.log(rq + dtype(rc))))
-            G, B, wq = [], [], []
-            for sl, q in zip(self._slices, grid.quad):
-                Bd = q.B.astype(dtype)
-                G.append(q.Bt.astype(dtype) + bq[sl, None] * Bd)
-                B.append(Bd)
-                wq.append(q.w.astype(dtype))
-            self._pieces[dtype] = dict(Pf=w2 / rq, Rf=w2 * rq, G=G, B=B, wq=wq)
-        self.M = self._assemble(np.ones(0), mass=True)
+        self._build_batches(grid)
+        self.M = self._dense(self._blocks(None, np.float64, mass=True))
         K = self.symmetric(E_ref)
         self.row_scale = 1.0 / np.maximum(np.abs(np.diag(K)), 1e-300)
         self._scale_ext = self.row_scale.astype(np.longdouble)
+        self._band_scale = None
+        self._factor_cache = None
+
+    def _build_batches(self, grid: ElementGrid) -> None:
+        """Stack the elements of each degree so one batched product assembles them all.
+
+        Quadrature points are padded to the largest count of the batch with zero
+        rows of B and G (padding points repeat a real point, so the potential there
+        is finite); elements of one batch at even and at odd positions share no node,
+        so each parity scatters with one fancy-indexed addition.
+        """
+        sizes = [len(q.t) for q in grid.quad]
+        starts = np.cumsum([0] + sizes[:-1])
+        degs = [i1 - i0 for (i0, i1) in grid.elements]
+        self.band = max(degs)
+        self._batches = []
+        for d in sorted(set(degs)):
+            els = [e for e, x in enumerate(degs) if x == d]
+            m = max(sizes[e] for e in els)
+            qidx = np.array([[starts[e] + min(k, sizes[e] - 1) for k in range(m)] for e in els])
+            idx = np.array([np.arange(grid.elements[e][0], grid.elements[e][1] + 1) for e in els])
+            per = {}
+            for dtype in (np.float64, np.longdouble):
+                sq = self._q[dtype]
+                rq = sq.r
+                bq = dtype(self.gamma) * dtype(self.r_core) / (rq + dtype(self.r_core)) + self.eq.kappa_eff
+                Bs = np.zeros((len(els), m, d + 1), dtype=dtype)
+                Gs = np.zeros_like(Bs)
+                W = np.zeros((len(els), m), dtype=dtype)
+                for a, e in enumerate(els):
+                    q = grid.quad[e]
+                    me = sizes[e]
+                    sl = slice(starts[e], starts[e] + me)
+                    Bs[a, :me] = q.B.astype(dtype)
+                    Gs[a, :me] = q.Bt.astype(dtype) + bq[sl, None] * q.B.astype(dtype)
+                    W[a, :me] = q.w.astype(dtype)
+                per[dtype] = (Bs, Gs, W)
+            self._batches.append(dict(idx=idx, qidx=qidx, per=per, degree=d))
+        for dtype in (np.float64, np.longdouble):
+            sq = self._q[dtype]
+            rq = sq.r
+            w2 = np.exp(2 * dtype(self.gamma) * (np.log(rq) - np.log(rq + dtype(self.r_core))))
+            self._pieces[dtype] = dict(Pf=w2 / rq, Rf=w2 * rq)
 
     # -- pieces -------------------------------------------------------------------
     def _sigma(self, E, derivative=False) -> float:
@@ -114,34 +144,52 @@ class SymmetricOperator:
             return eq.dp_dE(E, s) * pc["Pf"], (eq.dq_dE(E, s) - 1) * pc["Rf"]
         return eq.p(E, s) * pc["Pf"], (eq.q(E, s) - E) * pc["Rf"]
 
-    def _assemble(self, E, derivative=False, mass=False) -> np.ndarray:
-        pc = self._pieces[np.float64]
+    def _blocks(self, E, dtype, derivative=False, mass=False) -> list:
+        """Element matrices of K(E) (or dK/dE, or M), one stacked array per batch."""
         if mass:
-            kin, pot = None, pc["Rf"]
+            kin, pot = None, self._pieces[dtype]["Rf"]
         else:
-            kin, pot = self._coefficients(E, np.float64, derivative)
-        K = np.zeros((self.n, self.n))
-        for (i0, i1), sl, G, B, wq in zip(self.grid.elements, self._slices, pc["G"], pc["B"], pc["wq"]):
-            blk = B.T @ ((wq * pot[sl])[:, None] * B)
+            kin, pot = self._coefficients(E, dtype, derivative)
+        out = []
+        for bt in self._batches:
+            Bs, Gs, W = bt["per"][dtype]
+            cp = W * pot[bt["qidx"]]
+            blk = np.matmul(Bs.transpose(0, 2, 1), cp[:, :, None] * Bs)
             if kin is not None:
-                blk += G.T @ ((wq * kin[sl])[:, None] * G)
-            K[i0:i1 + 1, i0:i1 + 1] += blk
+                ck = W * kin[bt["qidx"]]
+                blk += np.matmul(Gs.transpose(0, 2, 1), ck[:, :, None] * Gs)
+            out.append(blk)
+        return out
+
+    def _dense(self, blocks) -> np.ndarray:
+        """Dense matrix on the kept nodes from element blocks."""
+        K = np.zeros((self.n, self.n), dtype=blocks[0].dtype)
+        for bt, blk in zip(self._batches, blocks):
+            idx = bt["idx"]
+            for par in (0, 1):
+                ii = idx[par::2]
+                K[ii[:, :, None], ii[:, None, :]] += blk[par::2]
         return K[:-1, :-1]
 
     def _apply(self, E, f, dtype, derivative=False):
         """K(E) f (or dK/dE f) on all nodes, in ``dtype``."""
-        pc = self._pieces[dtype]
         kin, pot = self._coefficients(E, dtype, derivative)
         out = np.zeros(self.n, dtype=dtype)
-        for (i0, i1), sl, G, B, wq in zip(self.grid.elements, self._slices, pc["G"], pc["B"], pc["wq"]):
-            fe = f[i0:i1 + 1]
-            out[i0:i1 + 1] += G.T @ (wq * kin[sl] * (G @ fe)) + B.T @ (wq * pot[sl] * (B @ fe))
+        for bt in self._batches:
+            Bs, Gs, W = bt["per"][dtype]
+            idx, qidx = bt["idx"], bt["qidx"]
+            fe = f[idx][:, :, None]
+            gk = (W * kin[qidx])[:, :, None] * np.matmul(Gs, fe)
+            gp = (W * pot[qidx])[:, :, None] * np.matmul(Bs, fe)
+            c = (np.matmul(Gs.transpose(0, 2, 1), gk) + np.matmul(Bs.transpose(0, 2, 1), gp))[:, :, 0]
+            for par in (0, 1):
+                out[idx[par::2]] += c[par::2]
         out[0] += dtype(self._sigma(E, derivative)) * f[0]
         return out
 
     def symmetric(self, E, derivative=False) -> np.ndarray:
         """K(E) (or dK/dE) on the kept nodes, unscaled and symmetric (double precision)."""
-        K = self._assemble(E, derivative)
+        K = self._dense(self._blocks(E, np.float64, derivative))
         K[0, 0] += self._sigma(E, derivative)
         return K
 
@@ -156,6 +204,70 @@ class SymmetricOperator:
 
     def matrix(self, E):
         return self.row_scale[:, None] * self.symmetric(E)
+
+    # -- banded solves (Newton, inverse iteration) ------------------------------------
+    def _banded(self, E) -> np.ndarray:
+        """Row-scaled K(E) in LAPACK general-band storage (kl = ku = the largest degree),
+        with the dropped last node kept as an identity row so the band stays regular."""
+        kl = self.band
+        n = self.n
+        ab = np.zeros((3 * kl + 1, n))
+        for bt, blk in zip(self._batches, self._blocks(E, np.float64)):
+            idx = bt["idx"]
+            a = np.arange(bt["degree"] + 1)
+            rows = (2 * kl + a[:, None] - a[None, :])[None]
+            for par in (0, 1):
+                ii = idx[par::2]
+                ab[rows, ii[:, None, :]] += blk[par::2]
+        ab[2 * kl, 0] += self._sigma(E)
+        if self._band_scale is None:
+            i = np.arange(n)[None, :] + np.arange(3 * kl + 1)[:, None] - 2 * kl
+            rs = np.append(self.row_scale, 0.0)
+            scale = np.where((i >= 0) & (i < n), rs[np.clip(i, 0, n - 1)], 0.0)
+            scale[:, n - 1] = 0.0
+            self._band_scale = scale
+        ab *= self._band_scale
+        ab[2 * kl, n - 1] = 1.0
+        return ab
+
+    def factor(self, E):
+        """Banded LU of the row-scaled K(E) (the last one is kept: inverse iteration and the
+        first Newton step at the same energy share it)."""
+        from scipy.linalg.lapack import dgbtrf
+
+        E = float(E)
+        if self._factor_cache is not None and self._factor_cache[0] == E:
+            return self._factor_cache[1]
+        kl = self.band
+        lu, piv, info = dgbtrf(self._banded(E), kl, kl, overwrite_ab=1)
+        if info > 0:        # an exactly zero pivot: E is a level of the discrete problem to the last bit
+            lu[2 * kl, info - 1] = 1e-300
+        self._factor_cache = (E, (lu, piv))
+        return lu, piv
+
+    def solve(self, E, rhs) -> np.ndarray:
+        """x with (row-scaled K(E)) x = rhs on the kept nodes."""
+        from scipy.linalg.lapack import dgbtrs
+
+        lu, piv = self.factor(E)
+        b = np.zeros(self.n)
+        b[:-1] = rhs
+        x, _ = dgbtrs(lu, self.band, self.band, b, piv)
+        return x[:-1]
+
+    def bordered_solver(self, E, y, j: int):
+        """Solver of the bordered Newton system of :func:`boundkit.eigen.refine` by block
+        elimination with the banded K(E): T dy + dE T'y = rhs, dy_j = 0, returned as dy with dE
+        in slot j."""
+        b = self.solve(E, self.dT_y(E, y))
+
+        def solve(rhs):
+            a = self.solve(E, rhs)
+            dE = a[j] / b[j]
+            out = a - dE * b
+            out[j] = dE
+            return out
+        return solve
 
     def residual(self, E, y):
         f = self.expand(np.asarray(y, dtype=np.longdouble)).astype(np.longdouble)
