@@ -358,8 +358,10 @@ def _run_dask(tasks, scheduler, on_done, timeout: float = DASK_TIMEOUT) -> None:
             pending = [f for f in pending if id(f) not in finished]
             for fut in done:
                 try:
-                    record = fut.result()
-                except Exception as exc:  # noqa: BLE001 - KilledWorker, lost data: a transient error
+                    # bounded: a finished future whose worker has just gone loses its result and
+                    # turns pending again, and a bare result() would wait for a worker forever
+                    record = fut.result(timeout=timeout)
+                except Exception as exc:  # noqa: BLE001 - KilledWorker, lost data, timeout: transient
                     record = {"key": key_of[fut.key], "status": "error", "levels": [], "seconds": 0.0,
                               "transient": True,
                               "message": f"Dask: {type(exc).__name__}: {shorten(str(exc), 120)}; rerun to solve it again"}
