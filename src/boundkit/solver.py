@@ -381,9 +381,10 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     """Exponent, bound window, natural length, inner cut and the located levels (seed energies).
 
     The levels are located and certified by counting on spectral elements
-    (:mod:`boundkit.ladder`, tolerance 1e-9); other families refine them.
+    (:mod:`boundkit.ladder`, tolerance 1e-12: their error estimates must stay well below the
+    other families' errors, which are checked against them); other families refine them.
     """
-    found, tally, _, _, extra = _solve_elements(eq, pot, levels, 1e-9)
+    found, tally, _, _, extra = _solve_elements(eq, pot, levels, 1e-12)
     found = sorted(found, key=lambda lv: lv.energy)
     seeds = [lv.energy for lv in found]
     extra["seed_errors"] = [lv.error_estimate for lv in found]
@@ -394,7 +395,7 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
 
 def _solve_elements(eq, pot, levels: int | None, tol: float):
     """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`)."""
-    from .ladder import DEGREES, FLOOR, far_count, layout, solve_rung
+    from .ladder import FLOOR, far_count, ladder_for, layout, solve_rung
     from .locator import certify_levels
 
     tally = _Tally()
@@ -431,6 +432,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
                            f"{1e4:g} natural lengths")
         return [], tally, [], 0.0, extra
     # 1. fit the box to the highest level sought
+    degrees = ladder_for(tol)
     R = _initial_radius(eq, pot, want, L)
     energies = [hi if math.isfinite(hi) else 2 * scale * (2 * want + eq.l + 1.5)]
     E0 = energies[0] if math.isfinite(energies[0]) else 0.0
@@ -438,7 +440,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
     for _attempt in range(16):
         edges, quiet = layout(eq, pot, sample, r_min, R, energies)
         _check_pole(eq, sample, r_min, R, energies)
-        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, DEGREES[1], want, lo, hi, E0, scale,
+        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, min(8, degrees[0]), want, lo, hi, E0, scale,
                           sure=False, certify=False, rtol=1e-10)
         got = list(rung.located.energies)
         if len(got) < want:
@@ -475,7 +477,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
                     for h in hist[:want])
         return done, floor
 
-    for n in DEGREES:
+    for n in degrees:
         prev_loc = rungs[-1].located if rungs else None
         guesses = prev_loc.energies if prev_loc is not None and len(prev_loc.energies) == want else None
         top = prev_loc.E_top if guesses is not None else None
@@ -487,7 +489,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
                 hist.append([])
             hist[k].append(E)
         done, floor = finished() if len(rung.located.energies) == want else (False, False)
-        if not (done or floor or n == DEGREES[-1]):
+        if not (done or floor or n == degrees[-1]):
             E0 = 0.5 * (rung.located.energies[0] + rung.located.energies[-1]) if rung.located.energies else E0
             continue
         loc = certify_levels(rung.op, rung.located, want, lo, hi, scale)
@@ -508,9 +510,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
         rung.located = loc
         E0 = 0.5 * (loc.energies[0] + loc.energies[-1]) if loc.energies else E0
         done, floor = finished() if len(loc.energies) == want else (False, False)
-        if done:
+        if done and tol >= FLOOR:
             break
-        if floor:
+        if floor or done:           # done below the floor: the estimate cannot go under FLOOR
             tally.floor_hit = True
             tally.notes.append(f"at the rounding floor; tol {tol:g} is out of reach")
             break
