@@ -279,9 +279,11 @@ def test_sigterm_to_run_leaves_no_partial_folder(tmp_path):
 [scan]
 model = "h"
 parameter = "Z"
-range = { start = 1.0, stop = 3.0, num = 400 }
+range = { start = 1.0, stop = 3.0, num = 5000 }
 workers = 1
 """
+    # 5000 points: long enough (tens of seconds) that SIGTERM always arrives mid-run (400 points
+    # finished within the 0.3 s wait once solves got faster)
     spec = write(tmp_path, slow)
     proc = subprocess.Popen([sys.executable, "-m", "boundkit.cli", "run", str(spec), "--out", str(tmp_path / "o")],
                             stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)

@@ -89,8 +89,10 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
     The bordered system [[T(E), T'(E) y], [e_j^T, 0]] [dy, dE] = -[T(E) y, 0]
     is solved in double precision (dense LU or sparse LU, refactorized every
     fourth step); the residual
-    T(E) y comes from ``op.residual`` (extended precision on spectral grids).
-    Iteration stops when |dE| <= rtol |E| twice in a row (rtol defaults to
+    T(E) y comes from ``op.residual`` (extended precision on spectral grids;
+    ``op.residual_double`` when rtol >= 1e-12 asks for no more than double gives).
+    Iteration stops when |dE| <= rtol |E| twice in a row, or once right after a
+    step below 1e-8 |E| (rtol defaults to
     1e-17 with extended-precision residuals, 1e-15 without), or after
     ``max_iter`` steps (then ``converged`` is False).
     """
@@ -98,6 +100,9 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
     j = int(np.argmax(np.abs(y)))
     y = y / y[j]
     ext = bool(getattr(op.grid, "extended", False))
+    residual = op.residual
+    if ext and rtol is not None and rtol >= 1e-12 and hasattr(op, "residual_double"):
+        ext, residual = False, op.residual_double   # a loose stop needs no extended precision
     if rtol is None:
         rtol = 1e-17 if ext else 1e-15
     E = np.longdouble(E0) if ext else float(E0)
@@ -109,7 +114,7 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
         Ef = float(E)
         if solve_bordered is None or it % 4 == 0:
             solve_bordered = _bordered_solver(op, Ef, np.asarray(yw, dtype=float), j)
-        res = np.asarray(op.residual(E, yw), dtype=float)
+        res = np.asarray(residual(E, yw), dtype=float)
         sol = solve_bordered(-res)
         dE = sol[j]
         dy = sol.copy()
@@ -122,7 +127,9 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
         stalled = step > 0.5 * prev and step <= 1e-14 * abs(float(E))
         if step <= rtol * abs(float(E)) or step == 0.0 or stalled:
             small += 1
-            if small >= 2:
+            # two small steps in a row; or one, after a step so small that the iteration contracts
+            # by 1e-6 or better (its factor is about the size of the previous step over the gap)
+            if small >= 2 or prev <= 1e-8 * abs(float(E)):
                 return Refined(float(E), np.asarray(yw, dtype=float), it, True, step)
         else:
             small = 0

@@ -56,22 +56,32 @@ log = logging.getLogger(__name__)
 
 
 def count_below(op: SymmetricOperator, E: float) -> int:
-    """N(E): the number of levels of the discrete problem below E (inertia of K(E))."""
+    """N(E): the number of levels of the discrete problem below E (inertia of K(E)).
+
+    The Bunch-Kaufman factorization K = L D L^T (LAPACK ``dsytrf``) has the
+    inertia of K in D, whose blocks are 1x1 or 2x2: a 2x2 block with negative
+    determinant holds one negative eigenvalue, one with positive determinant two
+    of the sign of its diagonal.
+    """
+    from scipy.linalg.lapack import dsytrf
+
     K = op.symmetric(E)
     d = np.sqrt(op.row_scale)
-    _, D, _ = sla.ldl(d[:, None] * K * d[None, :], lower=True, check_finite=False)
-    # D is block diagonal with 1x1 and 2x2 blocks
-    n = D.shape[0]
-    neg = 0
-    i = 0
-    while i < n:
-        if i + 1 < n and D[i + 1, i] != 0.0:
-            ev = np.linalg.eigvalsh(D[i:i + 2, i:i + 2])
-            neg += int(np.count_nonzero(ev < 0))
-            i += 2
-        else:
-            neg += int(D[i, i] < 0)
-            i += 1
+    n = K.shape[0]
+    ldu, ipiv, info = dsytrf(d[:, None] * K * d[None, :], lower=1, lwork=max(1, 64 * n), overwrite_a=1)
+    if info < 0:
+        raise RuntimeError(f"dsytrf: argument {-info} had an illegal value")
+    diag = np.diagonal(ldu).copy()
+    single = ipiv > 0
+    neg = int(np.count_nonzero(diag[single] < 0))
+    k = 0
+    pairs = np.nonzero(~single)[0]
+    while k < len(pairs):                 # 2x2 blocks: consecutive negative pivots (k, k + 1)
+        i = pairs[k]
+        a, b, c = ldu[i, i], ldu[i + 1, i], ldu[i + 1, i + 1]
+        det = a * c - b * b
+        neg += 1 if det < 0 else (2 if a < 0 else 0)
+        k += 2
     return neg
 
 

@@ -460,6 +460,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
         energies = new_energies
         break
     # 2. the ladder on a fixed layout
+    fitted = rung.located if rung is not None else None
     edges, quiet = layout(eq, pot, sample, r_min, R, energies)
     extra["r_max"] = R
     hist: list[list[float]] = []
@@ -478,7 +479,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
         return done, floor
 
     for n in degrees:
-        prev_loc = rungs[-1].located if rungs else None
+        prev_loc = rungs[-1].located if rungs else fitted   # the box-fitting rung seeds the first one
         guesses = prev_loc.energies if prev_loc is not None and len(prev_loc.energies) == want else None
         top = prev_loc.E_top if guesses is not None else None
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale, guesses,

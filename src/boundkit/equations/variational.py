@@ -101,16 +101,17 @@ class SymmetricOperator:
                 rq = sq.r
                 bq = dtype(self.gamma) * dtype(self.r_core) / (rq + dtype(self.r_core)) + self.eq.kappa_eff
                 Bs = np.zeros((len(els), m, d + 1), dtype=dtype)
-                Gs = np.zeros_like(Bs)
+                Bt = np.zeros_like(Bs)
                 W = np.zeros((len(els), m), dtype=dtype)
+                bqs = np.zeros((len(els), m), dtype=dtype)
                 for a, e in enumerate(els):
                     q = grid.quad[e]
                     me = sizes[e]
-                    sl = slice(starts[e], starts[e] + me)
-                    Bs[a, :me] = q.B.astype(dtype)
-                    Gs[a, :me] = q.Bt.astype(dtype) + bq[sl, None] * q.B.astype(dtype)
-                    W[a, :me] = q.w.astype(dtype)
-                per[dtype] = (Bs, Gs, W)
+                    Bs[a, :me] = q.B          # the reference matrix, shared by elements of one (d, m)
+                    Bt[a, :me] = q.Bt
+                    W[a, :me] = q.w
+                    bqs[a, :me] = bq[starts[e]:starts[e] + me]
+                per[dtype] = (Bs, Bt + bqs[:, :, None] * Bs, W)
             self._batches.append(dict(idx=idx, qidx=qidx, per=per, degree=d))
         for dtype in (np.float64, np.longdouble):
             sq = self._q[dtype]
@@ -272,6 +273,11 @@ class SymmetricOperator:
     def residual(self, E, y):
         f = self.expand(np.asarray(y, dtype=np.longdouble)).astype(np.longdouble)
         return self._scale_ext * self._apply(E, f, np.longdouble)[:-1]
+
+    def residual_double(self, E, y):
+        """The residual in double precision (for loose Newton stops)."""
+        f = self.expand(np.asarray(y, dtype=float))
+        return self.row_scale * self._apply(float(E), f, np.float64)[:-1]
 
     def dT_y(self, E, y):
         f = self.expand(np.asarray(y, dtype=float))
