@@ -185,3 +185,46 @@ def test_rydberg_levels_up_to_n_60(equation, channel):
         exact = {"schrodinger": lambda: -0.5 / n**2, "klein-gordon": lambda: klein_gordon_coulomb(1, n, l),
                  "dirac": lambda: dirac_coulomb(1, n, channel)}[equation]()
         assert _rel(lv.energy, exact) < TOL, (lv.label, lv.energy, exact)
+
+
+# --- the inertia count itself, against numpy's symmetric eigenvalues -----------------------------
+class _Matrix:
+    """The two things count_below reads from an operator: K(E) and the row scale."""
+
+    def __init__(self, A, scale):
+        self.A, self.row_scale = A, scale
+
+    def symmetric(self, E):
+        return self.A - E * np.eye(len(self.A))
+
+
+@pytest.mark.parametrize("n", [1, 2, 7, 60, 301])
+def test_inertia_count_matches_eigenvalues(n):
+    """N(E) from the Bunch-Kaufman D (1x1 and 2x2 blocks) equals the number of negative
+    eigenvalues (numpy.linalg.eigvalsh) of random symmetric matrices, also ones that force 2x2
+    pivots (a zero leading block) and strongly scaled rows (Sylvester: scaling keeps the inertia)."""
+    from boundkit.locator import count_below
+
+    rng = np.random.default_rng(n)
+    for trial in range(12):
+        A = rng.standard_normal((n, n))
+        A = A + A.T
+        if trial % 3 == 0 and n > 1:
+            A[: n // 2, : n // 2] = 0.0
+        scale = 10.0 ** rng.uniform(-8, 8, n) if trial % 2 else np.ones(n)
+        for E in (-1.0, 0.0, 0.7):
+            want = int(np.count_nonzero(np.linalg.eigvalsh(A - E * np.eye(n)) < 0))
+            assert count_below(_Matrix(A, scale), E) == want, (trial, E)
+
+
+def test_looser_tolerance_starts_lower_on_the_ladder():
+    """The ladder starts where the error is about tol / 10 (measured rate 10^(1 - n) at degree n)."""
+    from boundkit.ladder import DEGREES, ladder_for
+
+    firsts = [ladder_for(t)[0] for t in (1e-4, 1e-6, 1e-9, 1e-12, 1e-15)]
+    assert firsts == sorted(firsts) and firsts[0] < firsts[-1]
+    assert all(ladder_for(t)[-1] == DEGREES[-1] for t in (1e-4, 1e-15))
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=5, tol=1e-6)
+    assert res.levels[-1].resolution < boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=5,
+                                                      tol=1e-12).levels[-1].resolution
+    assert max(_rel(lv.energy, -0.5 / lv.n**2) for lv in res.levels) < 1e-6
