@@ -293,14 +293,23 @@ def _run_local(tasks, workers, on_done) -> None:
             on_done(solve_point(t))
         return
     pool = ProcessPoolExecutor(max_workers=min(workers, len(tasks)))
+    # neighbouring points go to one worker in a chunk (about four chunks per worker: fewer round
+    # trips to the pool, and progress still moves); results are handed over as chunks finish
+    size = max(1, math.ceil(len(tasks) / (4 * workers)))
     try:
-        pending = {pool.submit(solve_point, t) for t in tasks}
+        pending = {pool.submit(_solve_chunk, tasks[i:i + size]) for i in range(0, len(tasks), size)}
         while pending:
             done, pending = wait(pending, return_when=FIRST_COMPLETED)
             for fut in done:
-                on_done(fut.result())
+                for record in fut.result():
+                    on_done(record)
     finally:
         pool.shutdown(wait=True, cancel_futures=True)
+
+
+def _solve_chunk(tasks) -> list:
+    """Solve a run of points in one worker (top level: it must pickle)."""
+    return [solve_point(t) for t in tasks]
 
 
 DASK_TIMEOUT = 10.0
