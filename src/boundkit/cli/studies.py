@@ -1,8 +1,6 @@
 """Command line for the studies: ``boundkit scan``, ``boundkit critical``, ``boundkit compare``.
 
-Parse, call :mod:`boundkit.studies`, print. No numerics here. The commands
-are registered on :func:`boundkit.cli.main` when this module is imported (the
-last line of :mod:`boundkit.cli` does so).
+Parse, call :mod:`boundkit.studies`, print. No numerics here. Registered on the ``boundkit`` group by :mod:`boundkit.cli`.
 """
 from __future__ import annotations
 
@@ -11,14 +9,13 @@ import sys
 
 import click
 
-from .cli import (EXIT_BAD_INPUT, _default, _fail, build_potential, check_particle, check_plot_path,
-                  check_tol, main, potential_options, write_figure)
-from .units import ENERGY_UNITS
-from .units import energy_unit as canonical_unit
+from ..units import ENERGY_UNITS
+from ..units import energy_unit as canonical_unit
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, check_tol, fail, json_default,
+                     report_unit, write_figure)
+from .options import build_potential, potential_options
 
 __all__ = ["scan_cmd", "critical_cmd", "compare_cmd"]
-
-EXIT_NOT_CONVERGED = 3
 
 _UNITS_HELP = "Unit of reported energies: " + ", ".join(ENERGY_UNITS) + " (default hartree; MeV with --units nuclear)."
 
@@ -40,24 +37,20 @@ def _rms_rule(text: str | None, values: dict) -> None:
     """--rms-rule R0,A_PER_Z: rms_fm follows Z at every point."""
     if text is None:
         return
-    from .studies import NuclearRadius
+    from ..studies import NuclearRadius
 
     parts = [p.strip() for p in str(text).replace(":", ",").split(",")]
     try:
         r0, apz = (float(p) for p in parts)
     except ValueError:
-        _fail(f"--rms-rule {text!r}: write R0,A_PER_Z in fm and nucleons per charge, e.g. --rms-rule 1.2,2.5")
+        fail(f"--rms-rule {text!r}: write R0,A_PER_Z in fm and nucleons per charge, e.g. --rms-rule 1.2,2.5")
     if "rms_fm" in values:
-        _fail("--rms-rule sets rms_fm at every point; leave out --param rms_fm")
+        fail("--rms-rule sets rms_fm at every point; leave out --param rms_fm")
     values["rms_fm"] = NuclearRadius(r0, apz)
 
 
-def _unit(energy_unit: str | None, unit_system: str) -> str:
-    return canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
-
-
 # --- scan -----------------------------------------------------------------------------------
-@main.command("scan")
+@click.command("scan")
 @click.option("--equation", "-e", "equations", multiple=True,
               help="schrodinger, klein-gordon or dirac; repeatable (default dirac).")
 @potential_options
@@ -88,13 +81,13 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
              particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
              plot_path, energy_unit, progress, as_json):
     """Levels over a grid of one or two potential parameters, followed by label."""
-    from .studies import StudyError, parse_vary, scan
+    from ..studies import StudyError, parse_vary, scan
 
     check_tol(tol)
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
     try:
-        unit = _unit(energy_unit, unit_system)
+        unit = report_unit(energy_unit, unit_system)
         if len(varies) > 2:
             raise ValueError("--vary: give one or two parameters")
         limit = {} if max_points is None else {"max_points": max_points}
@@ -115,9 +108,9 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                    method=method, workers=workers, scheduler=scheduler, out=out, progress=progress,
                    scalar=scalar or None, units=unit_system, **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
     else:
         click.echo(res.table(unit))
         click.echo("")
@@ -128,7 +121,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         click.echo(f"boundkit: error: {problem}", err=True)
     written = None
     if plot_path:
-        from .studies.figures import scan_figure
+        from ..studies.figures import scan_figure
 
         written = write_figure(lambda p: scan_figure(res, p, unit=unit), plot_path)
         if written and not as_json:
@@ -150,11 +143,11 @@ def _bracket(text: str | None):
     try:
         a, b = (float(p) for p in parts)
     except ValueError:
-        _fail(f"--bracket {text!r}: write two numbers, e.g. --bracket 1.0,3.0")
+        fail(f"--bracket {text!r}: write two numbers, e.g. --bracket 1.0,3.0")
     return a, b
 
 
-@main.command("critical")
+@click.command("critical")
 @click.option("--equation", "-e", default="schrodinger", show_default=True,
               help="schrodinger, klein-gordon or dirac.")
 @potential_options
@@ -176,7 +169,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                  energy_tol, max_evaluations, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule,
                  as_json):
     """Parameter value where a level unbinds (E -> 0) or dives into the lower continuum."""
-    from .studies import StudyError, critical
+    from ..studies import StudyError, critical
 
     check_tol(tol)
     check_tol(energy_tol, "--energy-tol")
@@ -196,12 +189,12 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
                        scalar=scalar or None, units=unit_system, **kwargs)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     except StudyError as exc:
         click.echo(f"boundkit: failed: {exc}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if as_json:
-        click.echo(json.dumps(res.to_dict(), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(), default=json_default, indent=2))
     else:
         lo, hi = res.bracket
         click.echo(f"{res.state} ({res.equation} equation), {'unbinding' if res.kind == 'unbind' else 'diving'}")
@@ -216,7 +209,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
 
 
 # --- compare --------------------------------------------------------------------------------
-@main.command("compare")
+@click.command("compare")
 @potential_options
 @click.option("--l-max", type=int, default=1, show_default=True, help="Largest orbital l.")
 @click.option("--levels", "-n", type=int, default=2, show_default=True, help="Levels per channel.")
@@ -230,12 +223,12 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
                 table_r_unit, table_v_unit, params, unit_system, l_max, levels, tol, particle, mass_mev,
                 nucleus_mass_mev, method, order, energy_unit, splitting_unit, as_json):
     """Schrodinger, Klein-Gordon and Dirac levels side by side, with shifts and fine structure."""
-    from .studies import compare
+    from ..studies import compare
 
     check_tol(tol)
     check_particle(particle, mass_mev)
     try:
-        unit = _unit(energy_unit, unit_system)
+        unit = report_unit(energy_unit, unit_system)
         sunit = canonical_unit(splitting_unit) if splitting_unit else unit
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
@@ -244,9 +237,9 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
         res = compare(vector, values, l_max=l_max, levels=levels, particle=particle, mass_mev=mass_mev, tol=tol,
                       method=method, scalar=scalar or None, units=unit_system, **kwargs)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit, sunit), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(unit, sunit), default=json_default, indent=2))
     else:
         click.echo(res.table(unit, sunit))
     if not res.success:

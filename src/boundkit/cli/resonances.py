@@ -1,8 +1,6 @@
 """Command line for ``boundkit resonances``: complex-scaling eigenvalues in an energy window.
 
-Parse, call :func:`boundkit.resonances`, print. No numerics here. Registered
-on :func:`boundkit.cli.main` when this module is imported (the end of
-:mod:`boundkit.cli` does so).
+Parse, call :func:`boundkit.resonances`, print. No numerics here. Registered on the ``boundkit`` group by :mod:`boundkit.cli`.
 """
 from __future__ import annotations
 
@@ -10,9 +8,9 @@ import json
 
 import click
 
-from .cli import _default, _fail, _subset, build_potential, main, potential_options
-from .units import ENERGY_UNITS
-from .units import energy_unit as canonical_unit
+from ..units import ENERGY_UNITS
+from .common import fail, json_default, report_unit
+from .options import build_potential, potential_options, subset_params
 
 __all__ = ["resonances_cmd"]
 
@@ -25,11 +23,11 @@ def _numbers(option: str, text: str, count: int | None = None) -> tuple[float, .
         values = ()
     if not values or (count is not None and len(values) != count):
         want = "two numbers LO,HI" if count == 2 else "numbers separated by commas"
-        _fail(f"{option} {text!r}: write {want}, e.g. {option} {'3,4' if count == 2 else '0.25,0.35'}")
+        fail(f"{option} {text!r}: write {want}, e.g. {option} {'3,4' if count == 2 else '0.25,0.35'}")
     return values
 
 
-@main.command("resonances")
+@click.command("resonances")
 @click.option("--equation", "-e", default="schrodinger", show_default=True, help="schrodinger, klein-gordon or dirac.")
 @potential_options
 @click.option("--absorptive-expr", "absorptive", multiple=True,
@@ -57,18 +55,18 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
                    table_origin, table_r_unit, table_v_unit, params, unit_system, absorptive, l, kappa, window,
                    angles, order, r0, r_max, tol, particle, mass_mev, nucleus_mass_mev, energy_unit, as_json):
     """Resonances, bound and quasi-bound levels in an energy window (complex scaling)."""
-    from . import resonances
-    from .potentials.expression import ExpressionTerm
-    from .potentials.optical import ImaginaryPart
+    from .. import resonances
+    from ..potentials.expression import ExpressionTerm
+    from ..potentials.optical import ImaginaryPart
 
     lo, hi = _numbers("--window", window, 2)
     thetas = _numbers("--angles", angles)
     try:
-        unit = canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
+        unit = report_unit(energy_unit, unit_system)
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
-        vector = list(vector) + [ImaginaryPart(ExpressionTerm(t, _subset(t, values))) for t in absorptive]
+        vector = list(vector) + [ImaginaryPart(ExpressionTerm(t, subset_params(t, values))) for t in absorptive]
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev)) if v is not None}
         per = ENERGY_UNITS[unit]
@@ -76,9 +74,9 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
                          order=order, r0=r0, r_max=r_max, tol=tol, scalar=scalar or None, units=unit_system,
                          **kwargs)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
         return
     s = res.settings
     click.echo(f"{res.equation} equation, potential {res.potential}; {s['scaling']} complex scaling beyond "

@@ -1,8 +1,7 @@
 """Command line for the continuum: ``boundkit phases``.
 
-Parse, call :mod:`boundkit.scattering`, print. No numerics here. The command
-is registered on :func:`boundkit.cli.main` when this module is imported (the
-end of :mod:`boundkit.cli` does so).
+Parse, call :mod:`boundkit.scattering`, print. No numerics here. Registered on the
+``boundkit`` group by :mod:`boundkit.cli`.
 """
 from __future__ import annotations
 
@@ -11,20 +10,18 @@ import sys
 
 import click
 
-from .cli import _default, _fail, build_potential, main, potential_options
-from .units import ENERGY_UNITS, FM_PER_BOHR
-from .units import energy_unit as canonical_unit
+from ..units import ENERGY_UNITS, FM_PER_BOHR
+from .common import EXIT_NOT_CONVERGED, fail, json_default, report_unit
+from .options import build_potential, potential_options
 
 __all__ = ["phases_cmd"]
-
-EXIT_NOT_CONVERGED = 3
 
 
 def _energy_grid(text: str | None) -> list[float] | None:
     """--energies START:STOP:N, START:STOP:N:log or E1,E2,..."""
     if text is None:
         return None
-    from .studies.scan import parse_vary
+    from ..studies.scan import parse_vary
 
     try:
         return parse_vary(f"energies={text}")[1]
@@ -33,7 +30,7 @@ def _energy_grid(text: str | None) -> list[float] | None:
                          "(kinetic energies above threshold, N a whole number)") from None
 
 
-@main.command("phases")
+@click.command("phases")
 @click.option("--equation", "-e", default="schrodinger", show_default=True,
               help="schrodinger, klein-gordon or dirac.")
 @potential_options
@@ -60,11 +57,11 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
                want_a, want_levinson, bound_levels, particle, mass_mev, nucleus_mass_mev, plot_path, as_json):
     """Phase shifts delta(E) of one channel above threshold (absolute branch; relative to
     the Coulomb phase when the potential has a Coulomb tail)."""
-    from .scattering import levinson, phase_shifts, scattering_length
+    from ..scattering import levinson, phase_shifts, scattering_length
 
     out: dict = {}
     try:
-        unit = canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
+        unit = report_unit(energy_unit, unit_system)
         grid = _energy_grid(energies)
         if want_levinson and grid is not None:
             raise ValueError("--levinson chooses its own energy grid; leave out --energies")
@@ -88,18 +85,18 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             out["scattering_length"] = scattering_length(equation, vector, values, kappa=kappa,
                                                          scalar=scalar or None, hard_core=hard_core, **common)
         if plot_path:
-            from .scattering.figure import phase_figure
+            from ..scattering.figure import phase_figure
 
             phase_figure(res, plot_path, unit=unit)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
         record = {"phases": res.to_dict(unit)}
         if "levinson" in out:
             record["levinson"] = {k: v for k, v in out["levinson"].to_dict(unit).items() if k != "phases"}
         if "scattering_length" in out:
             record["scattering_length"] = out["scattering_length"].to_dict()
-        click.echo(json.dumps(record, default=_default, indent=2))
+        click.echo(json.dumps(record, default=json_default, indent=2))
     else:
         lunit = "fm" if unit_system == "nuclear" else "bohr"
         per = FM_PER_BOHR if unit_system == "nuclear" else 1.0

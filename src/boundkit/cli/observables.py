@@ -8,13 +8,14 @@ import sys
 
 import click
 
-from .cli import EXIT_NOT_CONVERGED, _default, _fail, build_potential, main, potential_options
+from .common import EXIT_NOT_CONVERGED, fail, json_default
+from .options import build_potential, potential_options
 
 __all__ = ["transitions_cmd", "observables_table", "add_observables", "write_states_file"]
 
 
 def _observables(res, length_unit: str):
-    from .observables import masses_of, observables
+    from ..observables import masses_of, observables
 
     mass, _ = masses_of(res)
     return [observables(lv, length_unit=length_unit, mass=mass) for lv in res.levels]
@@ -44,7 +45,7 @@ def add_observables(record: dict, res, length_unit: str) -> dict:
 
 
 def write_states_file(res, path: str, length_unit: str) -> None:
-    from .io_states import write_states
+    from ..io_states import write_states
 
     write_states(res, path, length_unit=length_unit)
     click.echo(f"wrote radial functions of {len(res.levels)} level(s) to {path} (r in {length_unit})", err=True)
@@ -75,7 +76,7 @@ def _format_lines(tr) -> str:
     return "\n".join(out)
 
 
-@main.command("transitions")
+@click.command("transitions")
 @click.option("--equation", "-e", default="schrodinger", show_default=True,
               help="schrodinger, klein-gordon or dirac.")
 @potential_options
@@ -96,7 +97,7 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
                     energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
     """Radiative lines among the levels up to --max-n: energies, line strengths, oscillator
     strengths, Einstein A, lifetimes and branching ratios."""
-    from .transitions import transitions
+    from ..transitions import transitions
 
     try:
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
@@ -107,9 +108,9 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
                          particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
                          scalar=scalar or None, units=unit_system)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(tr.to_dict(), default=_default, indent=2))
+        click.echo(json.dumps(tr.to_dict(), default=json_default, indent=2))
     else:
         click.echo(_format_lines(tr))
     if tr.status != "ok":
