@@ -7,28 +7,29 @@ import sys
 import click
 
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, fail, json_default,
-                     write_figure)
-from .options import build_potential, potential_options
+                     report_unit, write_figure)
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
+                      levels_option, method_option, order_option, particle_options, plot_option,
+                      potential_options, tol_option)
 
 __all__ = ["converge_cmd", "validate_cmd"]
 
 
 @click.command("converge")
-@click.option("--equation", "-e", default="dirac", show_default=True)
+@equation_option()
 @potential_options
-@click.option("--l", "l", type=int, default=None)
-@click.option("--kappa", type=int, default=None)
-@click.option("--levels", "-n", type=int, default=1, show_default=True)
-@click.option("--method", type=click.Choice(["both", "spectral", "finite-difference"]), default="both",
-              show_default=True)
-@click.option("--order", type=int, default=8, show_default=True, help="Finite-difference order.")
-@click.option("--particle", default=None)
-@click.option("--mass-mev", type=float, default=None)
-@click.option("--plot", "plot_path", default=None, help="Write a log-log figure (.png, .svg or .pdf).")
-@click.option("--json", "as_json", is_flag=True)
+@channel_options(j=False)
+@levels_option(1)
+@method_option(families=True)
+@order_option(8)
+@tol_option(1e-13, "Relative tolerance of the reference solve the errors are measured against.")
+@particle_options()
+@energy_unit_option()
+@plot_option("the errors against resolution on log-log axes")
+@json_option()
 def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                  table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, levels, method, order,
-                 particle, mass_mev, plot_path, as_json):
+                 tol, particle, mass_mev, nucleus_mass_mev, energy_unit, plot_path, as_json):
     """Energies against resolution for one channel, with the observed order."""
     from ..accuracy import converge
 
@@ -36,20 +37,21 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
     try:
+        unit = report_unit(energy_unit, unit_system)
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
         res = converge(equation, vector, values, l=l, kappa=kappa, levels=levels, methods=methods,
-                       order=order, particle=particle, mass_mev=mass_mev, scalar=scalar or None,
-                       units=unit_system)
+                       order=order, tol=tol, particle=particle, mass_mev=mass_mev,
+                       nucleus_mass_mev=nucleus_mass_mev, scalar=scalar or None, units=unit_system)
     except ValueError as exc:
         fail(str(exc))
     if as_json:
         click.echo(json.dumps(res.to_dict(), default=json_default, indent=2))
     else:
         click.echo(f"{res.equation} equation, potential {res.potential}; errors relative to a spectral "
-                   "solve at tol 1e-13")
-        click.echo(res.table())
+                   f"solve at tol {tol:g}")
+        click.echo(res.table(unit))
     written = None
     if plot_path:
         from ..plots import convergence_figure
@@ -67,9 +69,8 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
 
 @click.command("validate")
 @click.option("--quick", is_flag=True, help="A small subset that runs in seconds.")
-@click.option("--method", type=click.Choice(["both", "spectral", "finite-difference"]), default="both",
-              show_default=True)
-@click.option("--json", "as_json", is_flag=True)
+@method_option(families=True)
+@json_option()
 def validate_cmd(quick, method, as_json):
     """Run the exact-case catalogue; exit 1 if any case fails."""
     from ..validate import format_table, run_validation

@@ -9,7 +9,8 @@ import sys
 import click
 
 from .common import EXIT_NOT_CONVERGED, fail, json_default
-from .options import build_potential, potential_options
+from .options import (build_potential, energy_unit_option, equation_option, json_option, method_option,
+                      particle_options, potential_options, tol_option)
 
 __all__ = ["transitions_cmd", "observables_table", "add_observables", "write_states_file"]
 
@@ -77,21 +78,18 @@ def _format_lines(tr) -> str:
 
 
 @click.command("transitions")
-@click.option("--equation", "-e", default="schrodinger", show_default=True,
-              help="schrodinger, klein-gordon or dirac.")
+@equation_option()
 @potential_options
-@click.option("--max-n", type=int, default=3, show_default=True, help="Highest principal quantum number.")
+@click.option("--max-n", type=int, default=2, show_default=True, help="Highest principal quantum number.")
 @click.option("--level", "levels", multiple=True, metavar="LABEL",
               help="Keep only these levels (repeatable), e.g. --level 1s --level 2p.")
 @click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2",
               help="Multipoles (repeatable; default E1; M1 and E2 for Dirac only).")
-@click.option("--energy-unit", default="eV", show_default=True, help="Unit of line energies (eV, cm^-1, MHz, ...).")
-@click.option("--tol", type=float, default=1e-14, show_default=True, help="Tolerance of the level solves.")
-@click.option("--method", default="auto", show_default=True, help="auto, spectral or finite-difference.")
-@click.option("--particle", default=None, help="electron (default), muon, pion, ...")
-@click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2.")
-@click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass).")
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@energy_unit_option("eV", "Unit of line energies")
+@tol_option(1e-14)
+@method_option()
+@particle_options()
+@json_option()
 def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                     table_origin, table_r_unit, table_v_unit, params, unit_system, max_n, levels, multipoles,
                     energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):

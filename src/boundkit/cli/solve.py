@@ -6,15 +6,18 @@ import sys
 
 import click
 
-from ..units import ENERGY_UNITS, hartree_to
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, check_tol, clip_message,
-                     fail, json_default, levels_arg, report_unit, write_figure)
-from .options import build_potential, potential_options
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, clip_message,
+                     fail, json_default, report_unit, write_figure)
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
+                      levels_option, method_option, order_option, particle_options, plot_option,
+                      potential_options, tol_option)
 
 __all__ = ["solve_cmd"]
 
 
 def _table(res, unit: str) -> str:
+    from ..units import hartree_to
+
     s = res.settings
     head = [
         f"{res.equation} equation, potential {res.potential}, particle {s.get('particle')} "
@@ -55,46 +58,33 @@ def _table(res, unit: str) -> str:
 
 
 @click.command("solve")
-@click.option("--equation", "-e", default="dirac", show_default=True,
-              help="schrodinger, klein-gordon or dirac.")
+@equation_option()
 @potential_options
-@click.option("--l", "l", type=int, default=None, help="Orbital l (Schrodinger, Klein-Gordon).")
-@click.option("--kappa", type=int, default=None, help="Dirac kappa (-1 = s1/2, 1 = p1/2, -2 = p3/2, ...).")
-@click.option("--j", "j", type=float, default=None,
-              help="j = l +- 1/2 (Schrodinger, for a spin-orbit term such as woods-saxon spin_orbit).")
-@click.option("--levels", "-n", default="3", show_default=True,
-              help="Number of lowest levels, or 'all' for every bound level of a potential that has "
-                   "finitely many.")
-@click.option("--tol", type=float, default=1e-10, show_default=True,
-              help="Relative tolerance on binding energies.")
-@click.option("--method", default="auto", show_default=True, help="auto, spectral or finite-difference.")
-@click.option("--order", type=int, default=None, help="Finite-difference accuracy order (default 8).")
-@click.option("--particle", default=None, help="electron (default), muon, pion, kaon, proton, antiproton.")
-@click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2 (instead of --particle).")
-@click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass).")
-@click.option("--energy-unit", default=None,
-              help="Unit of reported energies: " + ", ".join(ENERGY_UNITS) + " (default hartree; MeV with --units nuclear).")
+@channel_options()
+@levels_option(1, allow_all=True)
+@tol_option(1e-10)
+@method_option()
+@order_option()
+@particle_options()
+@energy_unit_option()
 @click.option("--cross-check", is_flag=True, help="Also solve with the other discretization family.")
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@json_option()
 @click.option("--observables", "with_observables", is_flag=True,
               help="Also print <r>, r_rms, <1/r> (and g for Dirac) with error estimates.")
 @click.option("--states", "states_path", default=None, metavar="FILE.csv|FILE.npz",
               help="Write r, P, Q and the density of every level (units in the header).")
-@click.option("--plot", "plot_path", default=None, metavar="FILE",
-              help="Also draw the radial functions of the levels (.png, .svg or .pdf).")
+@plot_option("the radial functions of the levels")
 def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
               table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, j, levels, tol, method,
               order, particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json, with_observables,
               states_path, plot_path):
     """Bound levels of one channel.
 
-    Without options: the hydrogen atom (Z = 1), Dirac equation, kappa = -1,
-    three lowest levels.
+    Without options: the hydrogen atom (Z = 1), Schrodinger equation, l = 0,
+    the lowest level (the defaults of boundkit.solve).
     """
     from ..solver import solve  # lazy: `boundkit --help` need not import the solver
 
-    levels = levels_arg(levels)
-    check_tol(tol)
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
     try:

@@ -19,9 +19,10 @@ Top-level keys (all optional unless marked)::
     length_unit = "fm"                 # unit of reported lengths: bohr, fm, pm,
                                        # angstrom, nm (default bohr; fm for nuclear)
     figure_format = "png"              # png, svg or pdf
-    equations = ["dirac"]              # schrodinger, klein-gordon, dirac
+    equations = ["schrodinger"]        # schrodinger, klein-gordon, dirac
     channels = ["s1/2", "p"]           # see Channels below; default ["s"]
-    levels = 3                         # lowest levels per channel
+    levels = 1                         # lowest levels per channel (default: that of
+                                       # each study's function: solve 1, scan 3, compare 2)
     tolerance = 1e-10                  # relative tolerance on binding energies
     method = "auto"                    # auto, spectral, finite-difference
     order = 8                          # finite-difference order (finite-difference only)
@@ -64,6 +65,7 @@ array ``[[x]]`` of several::
     channel = "s1/2"                   # default: the first channel
     levels = 1
     methods = ["spectral", "finite-difference"]
+    tolerance = 1e-13                  # of the reference solve
 
     [scan]                             # levels against one parameter (boundkit.studies)
     model = "screened"                 # required

@@ -211,6 +211,7 @@ class ConvergeSection:
     levels: int
     methods: tuple[str, ...]
     order: int
+    tolerance: float = 1e-13
 
 
 @dataclass(frozen=True)
@@ -267,7 +268,7 @@ class RunSpec:
     particle: ParticleSpec
     equations: tuple[str, ...]
     channels: tuple[ChannelSpec, ...]
-    levels: int
+    levels: int | None
     tolerance: float
     method: str
     order: int | None

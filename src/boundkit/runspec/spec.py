@@ -119,7 +119,7 @@ _MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions",
 _ENTRY = ("name", "expression", "role", "params")
 _SOLVE = ("models", "equations", "channels", "levels", "tolerance", "method", "order", "figures", "radii",
           "differences", "reference", "states")
-_CONVERGE = ("model", "equation", "channel", "levels", "methods", "order")
+_CONVERGE = ("model", "equation", "channel", "levels", "methods", "order", "tolerance")
 _SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tolerance", "method", "workers",
          "differences", "max_points")
 _RANGE = ("start", "stop", "num", "spacing")
@@ -408,11 +408,12 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
 
     # defaults for the studies
     equations = tuple(_equation(rd, e, ("equations", i))
-                      for i, e in enumerate(rd.get(data, (), "equations", "list:str", ["dirac"])))
+                      for i, e in enumerate(rd.get(data, (), "equations", "list:str", ["schrodinger"])))
     if not equations:
         raise rd.error(("equations",), "give at least one equation")
     channels = _channels(rd, data, (), (ChannelSpec(l=0, text="s"),))
-    levels = _levels(rd, data, (), 3)
+    # None: each study takes the default of its API function (solve 1, scan 3, compare 2)
+    levels = _levels(rd, data, (), 1) if "levels" in data else None
     tolerance = _tolerance(rd, data, (), 1e-10)
     method, order = _method(rd, data, (), "auto", None)
 
@@ -445,7 +446,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         if ref is not None and ref not in names:
             raise rd.error(key + ("reference",), f"the reference must be one of the solved models: {', '.join(names)}")
         m, o = _method(rd, s, key, method, order)
-        solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels),
+        solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels or 1),
                                  _tolerance(rd, s, key, tolerance), m, o, figs,
                                  rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
                                  rd.get(s, key, "states", "bool", False))
@@ -461,7 +462,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         converge_secs.append(ConvergeSection(
             key, _model_name(rd, s, key, models),
             _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8)))
+            ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
 
     scan_secs = []
     for key, s in _sections(rd, data, "scan"):
@@ -514,7 +515,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         scan_secs.append(ScanSection(
             key, model, param, values,
             _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            _channels(rd, s, key, channels), _levels(rd, s, key, levels), _tolerance(rd, s, key, tolerance), m,
+            _channels(rd, s, key, channels), _levels(rd, s, key, levels or 3), _tolerance(rd, s, key, tolerance), m,
             workers, _pairs(rd, s, key), max_points))
 
     critical_secs = []
@@ -559,7 +560,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         l_max = rd.get(s, key, "l_max", "int", 1)
         if not 0 <= l_max <= MAX_L:
             raise rd.error(key + ("l_max",), f"must lie between 0 and {MAX_L}, got {l_max}")
-        compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels),
+        compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels or 2),
                                            _tolerance(rd, s, key, tolerance)))
 
     return RunSpec(path=path, text=text, title=title.strip(), description=description.strip(), units=units,

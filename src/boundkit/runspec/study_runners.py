@@ -36,7 +36,7 @@ class StudyRunners:
         spec = self.spec
         pot = spec.models[sec.model].potential(spec.units)
         (kw, cname), = sec.channel.expand(sec.equation)[:1]
-        res = converge(sec.equation, pot, None, levels=sec.levels, methods=sec.methods, order=sec.order, **kw,
+        res = converge(sec.equation, pot, None, levels=sec.levels, methods=sec.methods, order=sec.order, tol=sec.tolerance, **kw,
                        **self.particle_kwargs())
         self.write(f"convergence{suffix}.csv", _csv_text(res.rows, ["method", "size", "label", "energy", "error",
                                                                    "difference"]))
@@ -47,7 +47,7 @@ class StudyRunners:
             **_clean(res.to_dict())})
         md = [f"## Convergence{suffix}", "",
               f"Model {sec.model}, {sec.equation} equation, channel {cname}: relative error of the binding energy "
-              "against resolution, measured against a spectral solve at tol 1e-13 "
+              f"against resolution, measured against a spectral solve at tol {sec.tolerance:g} "
               f"(table `convergence{suffix}.csv`).", "", "| method | level | observed order |", "|---|---|---:|"]
         for (m, lab), v in res.orders.items():
             md.append(f"| {m} | {lab} | {_fmt(v, 3)} |")
