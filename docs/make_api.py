@@ -34,7 +34,7 @@ the names below load their modules on first use.
 
 Conventions shared with the command line and run specs: energies are binding energies (total
 minus rest energy) in hartree unless a unit is asked for; `units="nuclear"` reads potential
-parameters in MeV and fm; `tol` is a relative tolerance (`--tol`, `tolerance` in run specs);
+parameters in MeV and fm; `tol` is a relative tolerance (`--tol`, `tol` in run specs);
 `levels` the number of lowest levels per channel; `method` one of `auto`, `spectral`,
 `finite-difference`; `equation` defaults to `"schrodinger"`. The command line takes the defaults
 of the function it calls.

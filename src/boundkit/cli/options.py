@@ -7,7 +7,7 @@ the terms and parameters of the public API.
 One interface: an option has the same name, meaning and help text in every
 command, and the name of the API keyword it feeds (``--tol`` -> ``tol``,
 ``--levels`` -> ``levels``, ``--method`` -> ``method``; in run specs
-``tolerance``, ``levels``, ``method``). Defaults are the API's: a command's
+``tol``, ``levels``, ``method``). Defaults are the API's: a command's
 default is the default of the function it calls (``boundkit solve`` ->
 :func:`boundkit.solve`: Schrodinger equation, 1 level, tol 1e-10), and the
 equation defaults to Schrodinger everywhere.
@@ -78,7 +78,7 @@ def levels_option(default: int, allow_all: bool = False, what: str = "Number of 
 
 
 def tol_option(default: float, what: str = "Relative tolerance on binding energies."):
-    """``--tol``: the API's ``tol`` (run specs: ``tolerance``); checked to lie in (0, 1)."""
+    """``--tol``: the API's ``tol`` (run specs: ``tol``); checked to lie in (0, 1)."""
     def check(ctx, param, value):
         from .common import check_tol
 

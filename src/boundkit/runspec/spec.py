@@ -114,18 +114,18 @@ def _describe(value: Any) -> str:
 
 
 _TOP = ("title", "description", "units", "energy_unit", "length_unit", "figure_format", "equations", "channels",
-        "levels", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
+        "levels", "tol", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
 _MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "params", "term")
 _ENTRY = ("name", "expression", "role", "params")
-_SOLVE = ("models", "equations", "channels", "levels", "tolerance", "method", "order", "figures", "radii",
+_SOLVE = ("models", "equations", "channels", "levels", "tol", "tolerance", "method", "order", "figures", "radii",
           "differences", "reference", "states")
-_CONVERGE = ("model", "equation", "channel", "levels", "methods", "order", "tolerance")
-_SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tolerance", "method", "workers",
+_CONVERGE = ("model", "equation", "channel", "levels", "methods", "order", "tol", "tolerance")
+_SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tol", "tolerance", "method", "workers",
          "differences", "max_points")
 _RANGE = ("start", "stop", "num", "spacing")
-_CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tolerance", "energy_tolerance", "kind",
+_CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tol", "tolerance", "energy_tol", "energy_tolerance", "kind",
              "workers")
-_COMPARE = ("model", "l_max", "levels", "tolerance")
+_COMPARE = ("model", "l_max", "levels", "tol", "tolerance")
 
 
 def _equation(rd: _Reader, value: str, key: tuple) -> str:
@@ -182,10 +182,15 @@ def _levels(rd: _Reader, data: dict, key: tuple, default: int) -> int:
     return n
 
 
-def _tolerance(rd: _Reader, data: dict, key: tuple, default: float) -> float:
-    tol = rd.get(data, key, "tolerance", "number", default)
+def _tolerance(rd: _Reader, data: dict, key: tuple, default: float, name: str = "tol") -> float:
+    """``tol`` (the API's and the CLI's name), or its older spelling ``tolerance``; one of them."""
+    old = {"tol": "tolerance", "energy_tol": "energy_tolerance"}[name]
+    if name in data and old in data:
+        raise rd.error(key + (old,), f"give {name} (or its older name {old}), not both")
+    used = old if old in data else name
+    tol = rd.get(data, key, used, "number", default)
     if not 0 < tol < 1:
-        raise rd.error(key + ("tolerance",), f"must lie between 0 and 1, got {tol:g}")
+        raise rd.error(key + (used,), f"must lie between 0 and 1, got {tol:g}")
     return tol
 
 
@@ -546,9 +551,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         kind = rd.get(s, key, "kind", "str", None)
         if kind is not None and kind not in ("unbind", "dive"):
             raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
-        etol = rd.get(s, key, "energy_tolerance", "number", 1e-10)
-        if not 0 < etol < 1:
-            raise rd.error(key + ("energy_tolerance",), f"must lie between 0 and 1, got {etol:g}")
+        etol = _tolerance(rd, s, key, 1e-10, "energy_tol")
         critical_secs.append(CriticalSection(
             key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
             etol, kind, _workers(rd, s, key)))
