@@ -20,9 +20,8 @@ from .common import parse_params
 
 __all__ = ["potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
            "levels_option", "tol_option", "method_option", "order_option", "particle_options", "energy_unit_option",
-           "plot_option", "json_option", "EQUATIONS", "METHODS", "ENERGY_UNIT_NAMES"]
+           "plot_option", "json_option", "METHODS", "ENERGY_UNIT_NAMES"]
 
-EQUATIONS = ("schrodinger", "klein-gordon", "dirac")
 METHODS = ("auto", "spectral", "finite-difference")
 ENERGY_UNIT_NAMES = ("hartree", "eV", "meV", "keV", "MeV", "cm^-1", "MHz", "GHz", "THz")
 """The names of :data:`boundkit.units.ENERGY_UNITS`, for help texts (`boundkit --help` does not load
@@ -93,7 +92,8 @@ def method_option(families: bool = False):
         return click.option("--method", type=click.Choice(["both", "spectral", "finite-difference"]),
                             default="both", show_default=True,
                             help="Discretization family to run: both, spectral or finite-difference.")
-    return click.option("--method", type=click.Choice(METHODS, case_sensitive=False), default="auto", show_default=True,
+    return click.option("--method", type=click.Choice(METHODS, case_sensitive=False), default="auto",
+                        show_default=True,
                         help="Discretization: auto (the spectral family), spectral or finite-difference.")
 
 
@@ -102,15 +102,14 @@ def order_option(default: int | None = None):
                         help="Finite-difference accuracy order" + (" (default 8)." if default is None else "."))
 
 
-def particle_options(nucleus: bool = True):
+def particle_options():
     """``--particle`` or ``--mass-mev`` (one of them), and ``--nucleus-mass-mev`` for the reduced mass."""
     opts = [click.option("--particle", default=None,
                          help="electron (default), muon, pion, kaon, proton, antiproton."),
             click.option("--mass-mev", type=float, default=None,
-                         help="Particle mass in MeV/c^2 (instead of --particle).")]
-    if nucleus:
-        opts.append(click.option("--nucleus-mass-mev", type=float, default=None,
-                                 help="Nucleus mass in MeV/c^2 (reduced mass)."))
+                         help="Particle mass in MeV/c^2 (instead of --particle)."),
+            click.option("--nucleus-mass-mev", type=float, default=None,
+                         help="Nucleus mass in MeV/c^2 (reduced mass).")]
     return lambda f: _apply(f, opts)
 
 
