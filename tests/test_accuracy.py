@@ -93,7 +93,7 @@ def test_cross_check_reports_agreement_beside_estimates():
 
 def test_converge_cli_writes_a_figure(tmp_path):
     fig = tmp_path / "conv.svg"
-    out = CliRunner().invoke(main, ["converge", "--param", "Z=1", "--kappa", "-1", "--plot", str(fig)])
+    out = CliRunner().invoke(main, ["converge", "-e", "dirac", "--param", "Z=1", "--kappa", "-1", "--plot", str(fig)])
     assert out.exit_code == 0, out.output
     assert "observed order finite-difference" in out.output
     assert fig.exists() and fig.read_text().lstrip().startswith("<?xml")

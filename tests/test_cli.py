@@ -15,10 +15,13 @@ def run(*args):
 
 
 def test_default_case_runs_and_prints_a_table():
-    res = run("solve")
+    res = run("solve")   # the defaults of boundkit.solve: Schrodinger, l = 0, one level
     assert res.exit_code == 0, res.output
-    assert "1s1/2" in res.output and "2s1/2" in res.output
+    assert "schrodinger equation" in res.output and "1s " in res.output and "2s " not in res.output
     assert "status: ok" in res.output
+    res = run("solve", "-e", "dirac", "--levels", "3")   # the README quick start
+    assert res.exit_code == 0, res.output
+    assert "1s1/2" in res.output and "2s1/2" in res.output and "3s1/2" in res.output
 
 
 def test_json_keys_and_units():
@@ -56,14 +59,15 @@ def test_repeatable_potential_terms_add():
         (("--param", "Z"), "malformed; write NAME=VALUE"),
         (("--param", "Z=abc"), "is not a number"),
         (("--param", "Q=1"), "no potential term takes parameter 'Q'"),
-        (("--kappa", "0"), "kappa: must be a non-zero integer"),
+        (("-e", "dirac", "--kappa", "0"), "kappa: must be a non-zero integer"),
+        (("--kappa", "-1"), "kappa: only the Dirac equation takes kappa; give l for schrodinger"),
         (("--equation", "schrodinger", "--l", "-1"), "l: must be >= 0"),
         (("--levels", "0"), "levels: must be >= 1"),
-        (("--param", "Z=140"), "Z alpha < \\|kappa\\|"),
+        (("-e", "dirac", "--param", "Z=140"), "Z alpha < \\|kappa\\|"),
         (("--equation", "klein-gordon", "--param", "Z=70"), "Z alpha < l \\+ 1/2"),
         (("--energy-unit", "parsec"), "unknown unit 'parsec'"),
         (("--tol", "-1"), "--tol: must lie between 0 and 1"),
-        (("--method", "magic"), "unknown discretization 'magic'"),
+        (("--method", "magic"), "--method.*'magic' is not one of 'auto', 'spectral', 'finite-difference'"),
         (("--particle", "tauon"), "particle: unknown value 'tauon'"),
     ],
 )
@@ -77,7 +81,7 @@ def test_bad_input_gives_one_message_and_exit_2(args, message):
 
 
 def test_unreachable_tolerance_prints_levels_and_exits_3():
-    res = run("solve", "--tol", "1e-17", "--levels", "1")
+    res = run("solve", "-e", "dirac", "--tol", "1e-17", "--levels", "1")
     assert res.exit_code == 3
     assert "1s1/2" in res.output
     assert "tolerance-not-met" in res.output

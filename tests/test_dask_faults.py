@@ -80,7 +80,7 @@ def test_a_port_that_is_not_a_scheduler_is_reported_within_the_timeout(handler):
                                  scheduler_timeout=TIMEOUT, **ARGS), TIMEOUT + MARGIN)
         if handler is not _Garbage:
             return       # the CLI waits its default 10 s + 2 s for a silent port: covered by the API call above
-        res = bounded(lambda: CliRunner().invoke(main, ["scan", "-e", "schrodinger", "--kappa", "-1", "-n", "1",
+        res = bounded(lambda: CliRunner().invoke(main, ["scan", "-e", "schrodinger", "--l", "0", "-n", "1",
                                                         "--vary", "Z=1", "--scheduler", address]), 12 + MARGIN)
         assert res.exit_code == 2, res.output
         lines = res.stderr.strip().splitlines()

@@ -219,7 +219,7 @@ def test_converge_says_when_fewer_levels_than_asked_were_found():
 
 
 # --- item 5: an output error costs only that output ---------------------------------------------
-SCAN = ["scan", "-e", "schrodinger", "--kappa", "-1", "-n", "1", "--vary", "Z=1,2", "--workers", "1",
+SCAN = ["scan", "-e", "schrodinger", "--l", "0", "-n", "1", "--vary", "Z=1,2", "--workers", "1",
         "--no-progress"]
 
 
@@ -313,7 +313,7 @@ def _coulomb_table(path: Path, charge: float) -> Path:
 def test_scan_resume_sees_an_edited_table_file(tmp_path):
     # V = table (-c/r) + coulomb (-Z/r): E_1s = -(c + Z)^2 / 2 hartree (hydrogen-like, exact)
     table = _coulomb_table(tmp_path / "t.dat", 1.0)
-    args = ["scan", "-e", "schrodinger", "--kappa", "-1", "-n", "1", "--potential-file", table, "-p", "coulomb",
+    args = ["scan", "-e", "schrodinger", "--l", "0", "-n", "1", "--potential-file", table, "-p", "coulomb",
             "--vary", "Z=1,2", "--workers", "1", "--no-progress", "--json", "--out", tmp_path / "o"]
     first = json.loads(cli(*args).stdout)
     assert [r["energy"] for r in first["rows"]] == pytest.approx([-2.0, -4.5], rel=1e-9)

@@ -10,7 +10,7 @@ import subprocess
 import sys
 import textwrap
 
-HEAVY = ("sympy", "findiff", "matplotlib", "dask", "distributed", "mpmath")
+HEAVY = ("sympy", "findiff", "matplotlib", "dask", "distributed", "mpmath", "tqdm")
 
 
 def _loaded_after(code: str) -> list[str]:
@@ -63,3 +63,16 @@ def test_unknown_attribute_raises_attribute_error():
 
     with pytest.raises(AttributeError, match="module 'boundkit' has no attribute 'no_such_thing'"):
         boundkit.no_such_thing
+
+
+def test_cli_help_loads_neither_numpy_nor_scipy():
+    """`boundkit --help` and `boundkit solve --help` list the commands and options without the numerics."""
+    out = subprocess.run([sys.executable, "-c", textwrap.dedent("""
+        import sys
+        from click.testing import CliRunner
+        import boundkit.cli
+        for args in (["--help"], ["solve", "--help"], ["scan", "--help"]):
+            assert CliRunner().invoke(boundkit.cli.main, args).exit_code == 0
+        print([m for m in ("numpy", "scipy") if m in sys.modules])
+    """)], check=True, capture_output=True, text=True).stdout
+    assert out.strip() == "[]"

@@ -69,6 +69,15 @@ def test_progress_bar_draws_only_when_asked():
     bar.update(4)
     bar.close()
     assert quiet.getvalue() == ""
+    early = io.StringIO()
+    bar = ProgressBar(4, True, delay=60.0, stream=early)     # a quick study prints nothing
+    bar.update(3)
+    bar.close()
+    assert early.getvalue() == ""
+    calls = []
+    bar = ProgressBar(4, lambda d, t: calls.append((d, t)), stream=early)   # a hook, not drawn
+    bar.update(1)
+    assert calls == [(1, 4)] and early.getvalue() == ""
 
 
 # --- physics: a screened potential ----------------------------------------------------------

@@ -18,7 +18,7 @@ from threadpoolctl import threadpool_limits
 
 from .discretize import FiniteDifference, get_method
 from .solver import prepare_channel, setup, solve_channel
-from ._checks import check_int
+from ._checks import check_int, check_positive
 
 __all__ = ["converge", "ConvergenceResult", "observed_order"]
 
@@ -60,11 +60,16 @@ class ConvergenceResult:
     local_orders: dict
     settings: dict = field(default_factory=dict)
 
-    def table(self) -> str:
-        lines = [f"{'method':<18} {'size':>6} {'level':<8} {'energy (hartree)':>24} {'rel. error':>11} "
+    def table(self, energy_unit: str = "hartree") -> str:
+        """The rows and observed orders as text, energies in ``energy_unit``."""
+        from .units import energy_unit as canonical_unit, hartree_to
+
+        unit = canonical_unit(energy_unit)
+        head = f"energy ({unit})"
+        lines = [f"{'method':<18} {'size':>6} {'level':<8} {head:>24} {'rel. error':>11} "
                  f"{'rel. change':>11}"]
         for r in self.rows:
-            lines.append(f"{r['method']:<18} {r['size']:>6} {r['label']:<8} {r['energy']:>24.16g} "
+            lines.append(f"{r['method']:<18} {r['size']:>6} {r['label']:<8} {hartree_to(r['energy'], unit):>24.16g} "
                          f"{r['error']:>11.2e} {r['difference']:>11.2e}")
         lines.append("")
         for (m, label), order in self.orders.items():
@@ -81,25 +86,31 @@ class ConvergenceResult:
                 "settings": self.settings}
 
 
-def converge(equation: str = "dirac", potential="coulomb", params: dict | None = None, *,
+def converge(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
              l: int | None = None, kappa: int | None = None, levels: int = 1,
              methods=("spectral", "finite-difference"), order: int = 8, sizes: dict | None = None,
-             **kwargs) -> ConvergenceResult:
+             tol: float = 1e-13, **kwargs) -> ConvergenceResult:
     """Convergence study of one channel.
 
     Each level is solved on its own fixed mesh at every size of each family;
-    the reference is a spectral solve at tol 1e-13. Returns a
-    :class:`ConvergenceResult`; ``kwargs`` are passed to the argument setup
-    (particle, mass_mev, nucleus_mass_mev, scalar, units).
+    the reference is a spectral solve at relative tolerance ``tol`` (default
+    1e-13, near the rounding floor, so that the errors measured against it are
+    the discretization's). Equation, potential, params, l, kappa and levels
+    mean what they mean for :func:`boundkit.solve`; ``kwargs`` are passed to
+    the argument setup (particle, mass_mev, nucleus_mass_mev, scalar, units).
+    Returns a :class:`ConvergenceResult`.
     """
     with threadpool_limits(limits=1, user_api="blas"):
-        return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, kwargs)
+        return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs)
 
 
-def _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, kwargs):
+def _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs):
     levels = check_int("levels", levels, minimum=1)
+    tol = check_positive("tol", tol)
+    if tol >= 1:
+        raise ValueError(f"tol: a relative error below 1 (e.g. 1e-13), got {tol:g}")
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, **kwargs)
-    ref = solve_channel(eq, pot, get_method("spectral"), levels, 1e-13)
+    ref = solve_channel(eq, pot, get_method("spectral"), levels, tol)
     reference = {lv.label: lv.energy for lv in ref.levels}
     ch = prepare_channel(eq, pot, levels)
     rows, orders, local = [], {}, {}
@@ -128,5 +139,5 @@ def _converge(equation, potential, params, l, kappa, levels, methods, order, siz
             s, e = np.log(got_sizes), np.log(np.maximum(errs, 1e-300))
             local[(disc.name, label)] = [float(-(e[i + 1] - e[i]) / (s[i + 1] - s[i]))
                                          for i in range(len(s) - 1) if errs[i + 1] > 1e-13]
-    settings.update({"levels": levels, "methods": list(methods), "fd_order": order})
+    settings.update({"levels": levels, "methods": list(methods), "fd_order": order, "reference_tol": tol})
     return ConvergenceResult(eq.name, pot.name, reference, rows, orders, local, settings)

@@ -19,10 +19,11 @@ Top-level keys (all optional unless marked)::
     length_unit = "fm"                 # unit of reported lengths: bohr, fm, pm,
                                        # angstrom, nm (default bohr; fm for nuclear)
     figure_format = "png"              # png, svg or pdf
-    equations = ["dirac"]              # schrodinger, klein-gordon, dirac
+    equations = ["schrodinger"]        # schrodinger, klein-gordon, dirac
     channels = ["s1/2", "p"]           # see Channels below; default ["s"]
-    levels = 3                         # lowest levels per channel
-    tolerance = 1e-10                  # relative tolerance on binding energies
+    levels = 1                         # lowest levels per channel (default: that of
+                                       # each study's function: solve 1, scan 3, compare 2)
+    tol = 1e-10                        # relative tolerance on binding energies
     method = "auto"                    # auto, spectral, finite-difference
     order = 8                          # finite-difference order (finite-difference only)
 
@@ -52,7 +53,7 @@ array ``[[x]]`` of several::
     [solve]                            # levels of every model x equation x channel
     models = ["point", "fermi"]        # default: every model
     equations = [...]                  # default: the top-level ones; likewise
-    channels = [...]                   # channels, levels, tolerance, method
+    channels = [...]                   # channels, levels, tol, method
     figures = ["radial", "density", "levels"]   # default: all three
     radii = true                       # <r> and rms radius of every level
     differences = [["2p1/2", "2s1/2"]] # E(a) - E(b) in every model and equation
@@ -64,13 +65,14 @@ array ``[[x]]`` of several::
     channel = "s1/2"                   # default: the first channel
     levels = 1
     methods = ["spectral", "finite-difference"]
+    tol = 1e-13                        # of the reference solve
 
     [scan]                             # levels against one parameter (boundkit.studies)
     model = "screened"                 # required
     parameter = "screening_length"     # required, a shared parameter of a built-in term
     values = [100.0, 30.0, 10.0]       # or: range = { start = 1, stop = 100, num = 12,
                                        #               spacing = "log" }
-    equation, channels, levels, tolerance, method as above
+    equation, channels, levels, tol, method as above
     workers = 2                        # worker processes (default: all cores)
     differences = [["2p1/2", "2s1/2"]] # per parameter value, with the slope d/dparameter
 
@@ -80,8 +82,8 @@ array ``[[x]]`` of several::
     parameter = "screening_length"     # default screening_length
     equation = "schrodinger"           # default: the first equation
     bracket = [0.5, 20.0]              # optional: bound at one end, unbound at the other
-    tolerance = 1e-8                   # relative tolerance of the critical value
-    energy_tolerance = 1e-10           # relative tolerance of each energy on the way
+    tol = 1e-8                         # relative tolerance of the critical value
+    energy_tol = 1e-10                 # relative tolerance of each energy on the way
     kind = "unbind"                    # optional: unbind or dive (default from the potential)
     workers = 2                        # states searched in parallel (default: all cores)
 
@@ -89,7 +91,7 @@ array ``[[x]]`` of several::
     model = "point"                    # required (boundkit.studies)
     l_max = 1
     levels = 2
-    tolerance = 1e-10
+    tol = 1e-10
 
 ``differences`` entries may name the equation of each level, ``"dirac:1s1/2"``,
 to compare equations within one model.

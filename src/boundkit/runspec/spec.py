@@ -1,428 +1,31 @@
 """Reading and checking run specs (the format is described in :mod:`boundkit.runspec`)."""
 from __future__ import annotations
 
-import csv
-import datetime as _dt
-import hashlib
 import importlib
-import inspect
-import io
-import json
 import logging
 import math
 import os
 import re
-import shutil
-import tempfile
-import time
 import tomllib
-from dataclasses import dataclass, field, replace
+
+import numpy as np
 from pathlib import Path
 from typing import Any, Iterable
 
-import numpy as np
-
 from .._checks import MAX_GRID_POINTS, MAX_L
-
-from .. import __version__
-from ..observables import LENGTH_UNITS, bohr_to, length_unit as canonical_length_unit, mean_radius, rms_radius
-from ..potentials.base import Term
-from ..units import ENERGY_UNITS, FM_IN_BOHR, MEV_IN_HARTREE, constants_record, energy_unit as canonical_energy_unit
-from ..units import get_particle, hartree_to
-
+from ..observables import length_unit as canonical_length_unit
+from ..units import energy_unit as canonical_energy_unit
+from ..units import get_particle
+from .keylines import _KeyLines, _dotted
+from .objects import (_EQUATIONS, _FIGURES, _FORMATS, _LETTERS, STUDY_SECTIONS, ChannelSpec, CompareSection,
+                      ConvergeSection, CriticalSection, ModelDef, ParticleSpec, RunSpec, ScanSection, SolveSection,
+                      TermEntry)
 
 __all__ = ["load_spec", "RunSpec", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
 
 log = logging.getLogger(__name__)
 
-STUDY_SECTIONS = ("solve", "converge", "scan", "critical", "compare")
-"""Sections that ask for a study; a spec needs at least one."""
-_NEEDS_STUDIES = ("scan", "critical", "compare")
-_EQUATIONS = {"schrodinger": "schrodinger", "schroedinger": "schrodinger", "klein-gordon": "klein-gordon",
-              "kg": "klein-gordon", "dirac": "dirac"}
-_LETTERS = "spdfghiklmnoqrtuv"
-_FIGURES = ("radial", "density", "levels")
-_FORMATS = ("png", "svg", "pdf")
 
-
-# ---------------------------------------------------------------------------------------------
-# where a key stands in the TOML text
-# ---------------------------------------------------------------------------------------------
-_BARE = r"[A-Za-z0-9_\-]+"
-_QUOTED = r"\"(?:[^\"\\]|\\.)*\"|'[^']*'"
-_KEYPART = rf"(?:{_BARE}|{_QUOTED})"
-_KEY_RE = re.compile(rf"^\s*({_KEYPART}(?:\s*\.\s*{_KEYPART})*)\s*=")
-_HEADER_RE = re.compile(rf"^\s*(\[\[|\[)\s*({_KEYPART}(?:\s*\.\s*{_KEYPART})*)\s*(\]\]|\])\s*(#.*)?$")
-_INLINE_KEY_RE = re.compile(rf"[{{,]\s*({_KEYPART})\s*=")
-
-
-def _split_key(text: str) -> tuple[str, ...]:
-    parts = re.findall(_KEYPART, text)
-    return tuple(p[1:-1] if p[:1] in "\"'" else p for p in parts)
-
-
-def _strip_strings(line: str) -> str:
-    """The line without string literals and comments (for bracket counting)."""
-    line = re.sub(_QUOTED, '""', line)
-    return line.split("#", 1)[0]
-
-
-class _KeyLines:
-    """Map key paths of a TOML document to the 1-based line where they are set.
-
-    A path is a tuple of keys with integer indices for arrays of tables,
-    e.g. ``("models", "fermi", "term", 0, "params")``. Keys inside an inline
-    table on one line are found too. :meth:`find` falls back to the nearest
-    enclosing key, then to line 1.
-    """
-
-    def __init__(self, text: str) -> None:
-        self.where: dict[tuple, int] = {}
-        counts: dict[tuple, int] = {}
-        table: tuple = ()
-        depth = 0                 # open brackets of a multi-line value
-        in_string = False         # inside a multi-line string
-        for number, line in enumerate(text.splitlines(), start=1):
-            if in_string:
-                if line.count('"""') % 2 == 1 or line.count("'''") % 2 == 1:
-                    in_string = False
-                continue
-            if depth > 0:
-                bare = _strip_strings(line)
-                depth += bare.count("[") + bare.count("{") - bare.count("]") - bare.count("}")
-                continue
-            header = _HEADER_RE.match(line)
-            if header:
-                raw = _split_key(header.group(2))
-                table = self._indexed(raw, counts, is_array=header.group(1) == "[[")
-                self.where.setdefault(table, number)
-                continue
-            key = _KEY_RE.match(line)
-            if not key:
-                continue
-            path = table + _split_key(key.group(1))
-            self.where.setdefault(path, number)
-            rest = line[key.end():]
-            for inner in _INLINE_KEY_RE.finditer(_strip_strings_keep_keys(rest)):
-                self.where.setdefault(path + _split_key(inner.group(1)), number)
-            if rest.count('"""') % 2 == 1 or rest.count("'''") % 2 == 1:
-                in_string = True
-                continue
-            bare = _strip_strings(rest)
-            depth = max(0, bare.count("[") + bare.count("{") - bare.count("]") - bare.count("}"))
-
-    @staticmethod
-    def _indexed(raw: tuple, counts: dict, is_array: bool) -> tuple:
-        out: list = []
-        for i, part in enumerate(raw):
-            out.append(part)
-            prefix = tuple(raw[: i + 1])
-            last = i == len(raw) - 1
-            if last and is_array:
-                counts[prefix] = counts.get(prefix, 0) + 1
-                out.append(counts[prefix] - 1)
-            elif prefix in counts:
-                out.append(counts[prefix] - 1)
-        return tuple(out)
-
-    def find(self, path: tuple) -> int:
-        path = tuple(path)
-        while path:
-            if path in self.where:
-                return self.where[path]
-            path = path[:-1]
-        return 1
-
-
-def _strip_strings_keep_keys(rest: str) -> str:
-    """Blank out string values but keep quoted keys that are followed by '='."""
-    return re.sub(rf"({_QUOTED})(?!\s*=)", '""', rest)
-
-
-def _dotted(path: Iterable) -> str:
-    out = ""
-    for part in path:
-        if isinstance(part, int):
-            out += f"[{part}]"
-        else:
-            out += ("." if out else "") + str(part)
-    return out
-
-
-# ---------------------------------------------------------------------------------------------
-# spec objects
-# ---------------------------------------------------------------------------------------------
-@dataclass(frozen=True)
-class ChannelSpec:
-    """One channel entry of a spec: l with an optional j (as 2j), or a Dirac kappa.
-
-    ``levels`` overrides the section's number of levels for this channel.
-    """
-
-    l: int
-    two_j: int | None = None
-    kappa: int | None = None
-    levels: int | None = None
-    text: str = ""
-
-    def expand(self, equation: str) -> list[tuple[dict, str]]:
-        """(solve keywords, channel name) for ``equation``."""
-        if equation == "dirac":
-            if self.kappa is not None:
-                kappas = [self.kappa]
-            elif self.two_j is not None:
-                kappas = [-(self.l + 1) if self.two_j == 2 * self.l + 1 else self.l]
-            else:
-                kappas = [-(self.l + 1)] + ([self.l] if self.l > 0 else [])
-            out = []
-            for k in kappas:
-                l = k if k > 0 else -k - 1
-                out.append(({"kappa": k}, f"{_LETTERS[l]}{2 * abs(k) - 1}/2"))
-            return out
-        return [({"l": self.l}, _LETTERS[self.l] if self.l < len(_LETTERS) else f"l={self.l}")]
-
-
-def _channels_for(channels: Iterable[ChannelSpec], equation: str, levels: int) -> list[tuple[dict, str, int]]:
-    """Unique (solve keywords, name, levels) of a channel list for one equation."""
-    seen: dict[str, list] = {}
-    for ch in channels:
-        for kw, name in ch.expand(equation):
-            n = ch.levels or levels
-            if name in seen:
-                seen[name][2] = max(seen[name][2], n)
-            else:
-                seen[name] = [kw, name, n]
-    return [tuple(v) for v in seen.values()]
-
-
-class _AtomicAsNuclear(Term):
-    """A term in atomic units presented in MeV and fm.
-
-    ``make_potential(..., units="nuclear")`` reads a term *instance* as a
-    function of r in fm giving MeV and wraps it accordingly; this wrapper is
-    its inverse, so a term built with its own parameters (already converted to
-    atomic units) comes back unchanged.
-    """
-
-    def __init__(self, inner: Term, label: str) -> None:
-        self.inner = inner
-        self.values = {}
-        self.name = inner.name
-        self.label = label
-
-    def _evaluate(self, r):
-        return self.inner(np.asarray(r) * FM_IN_BOHR) / MEV_IN_HARTREE
-
-    @property
-    def origin_charge(self) -> float:
-        return self.inner.origin_charge / (MEV_IN_HARTREE * FM_IN_BOHR)
-
-    @property
-    def tail_charge(self) -> float:
-        return self.inner.tail_charge / (MEV_IN_HARTREE * FM_IN_BOHR)
-
-    @property
-    def origin_inverse_square(self) -> float:
-        return self.inner.origin_inverse_square / (MEV_IN_HARTREE * FM_IN_BOHR**2)
-
-    @property
-    def far(self) -> str:  # type: ignore[override]
-        return self.inner.far
-
-    def __repr__(self) -> str:
-        return repr(self.inner)
-
-
-@dataclass(frozen=True)
-class TermEntry:
-    """A ``[[models.NAME.term]]`` entry: one term with its own parameters."""
-
-    key: tuple
-    name: str | None
-    expression: str | None
-    role: str
-    params: dict
-
-    def build(self, units: str):
-        """The term as :func:`~boundkit.potentials.make_potential` should receive it."""
-        from ..potentials import _make_term
-        from ..potentials.expression import ExpressionTerm
-
-        if self.expression is not None:
-            term = ExpressionTerm(self.expression, self.params)
-            unused = sorted(set(self.params) - set(term.parameter_names))
-            if unused:
-                raise ValueError(f"params: the expression takes no parameter {unused[0]!r}")
-            return term                      # make_potential reads it in the spec's unit system
-        term = _make_term(self.name, self.params, set(), units)   # atomic units from here on
-        if units == "nuclear":
-            return _AtomicAsNuclear(term, self.name)
-        return term
-
-
-@dataclass(frozen=True)
-class ModelDef:
-    """A named potential model of a spec (``[models.NAME]``)."""
-
-    name: str
-    key: tuple
-    label: str
-    terms: tuple[str, ...] = ()
-    scalar_terms: tuple[str, ...] = ()
-    expressions: tuple[str, ...] = ()
-    scalar_expressions: tuple[str, ...] = ()
-    params: dict = field(default_factory=dict)
-    entries: tuple[TermEntry, ...] = ()
-
-    def builtin_parameters(self) -> set[str]:
-        """Parameter names of the built-in terms listed in ``terms`` and ``scalar_terms``."""
-        from ..potentials import TERMS
-
-        return {p.name for t in self.terms + self.scalar_terms for p in TERMS[t].parameters}
-
-    def arguments(self, units: str, overrides: dict | None = None) -> tuple[list, list, dict]:
-        """(vector terms, scalar terms, shared parameters) for ``solve``-like calls with ``units``."""
-        from ..potentials.expression import ExpressionTerm, parse_expression
-
-        params = {**self.params, **(overrides or {})}
-        vector: list = list(self.terms)
-        scalar: list = list(self.scalar_terms)
-        for text, into in [(t, vector) for t in self.expressions] + [(t, scalar) for t in self.scalar_expressions]:
-            names = parse_expression(text).parameter_names
-            into.append(ExpressionTerm(text, {k: v for k, v in params.items() if k in names}))
-        for entry in self.entries:
-            (scalar if entry.role == "scalar" else vector).append(entry.build(units))
-        named = {k: v for k, v in params.items() if k in self.builtin_parameters()}
-        return vector, scalar, named
-
-    def potential(self, units: str, overrides: dict | None = None):
-        """The model as a :class:`~boundkit.potentials.Potential` (atomic units inside)."""
-        from ..potentials import make_potential
-
-        vector, scalar, params = self.arguments(units, overrides)
-        pot = make_potential(vector or [], params, scalar=scalar or None, units=units)
-        return pot
-
-
-@dataclass(frozen=True)
-class ParticleSpec:
-    name: str | None = None
-    mass_mev: float | None = None
-    nucleus_mass_mev: float | None = None
-
-    def kwargs(self) -> dict:
-        return {"particle": self.name, "mass_mev": self.mass_mev, "nucleus_mass_mev": self.nucleus_mass_mev}
-
-
-@dataclass(frozen=True)
-class SolveSection:
-    key: tuple
-    models: tuple[str, ...]
-    equations: tuple[str, ...]
-    channels: tuple[ChannelSpec, ...]
-    levels: int
-    tolerance: float
-    method: str
-    order: int | None
-    figures: tuple[str, ...]
-    radii: bool
-    differences: tuple[tuple[str, str], ...]
-    reference: str | None
-    states: bool = False
-
-
-@dataclass(frozen=True)
-class ConvergeSection:
-    key: tuple
-    model: str
-    equation: str
-    channel: ChannelSpec
-    levels: int
-    methods: tuple[str, ...]
-    order: int
-
-
-@dataclass(frozen=True)
-class ScanSection:
-    key: tuple
-    model: str
-    parameter: str
-    values: tuple[float, ...]
-    equation: str
-    channels: tuple[ChannelSpec, ...]
-    levels: int
-    tolerance: float
-    method: str
-    workers: int | None
-    differences: tuple[tuple[str, str], ...]
-    max_points: int = MAX_GRID_POINTS
-
-
-@dataclass(frozen=True)
-class CriticalSection:
-    key: tuple
-    model: str
-    parameter: str
-    states: tuple[str, ...]
-    equation: str
-    bracket: tuple[float, float] | None
-    tolerance: float
-    energy_tolerance: float
-    kind: str | None
-    workers: int | None
-
-
-@dataclass(frozen=True)
-class CompareSection:
-    key: tuple
-    model: str
-    l_max: int
-    levels: int
-    tolerance: float
-
-
-@dataclass(frozen=True)
-class RunSpec:
-    """A checked run spec (see the module docstring for the format)."""
-
-    path: Path
-    text: str
-    title: str
-    description: str
-    units: str
-    energy_unit: str
-    length_unit: str
-    figure_format: str
-    particle: ParticleSpec
-    equations: tuple[str, ...]
-    channels: tuple[ChannelSpec, ...]
-    levels: int
-    tolerance: float
-    method: str
-    order: int | None
-    models: dict
-    solve: SolveSection | None = None
-    converge: tuple[ConvergeSection, ...] = ()
-    scan: tuple[ScanSection, ...] = ()
-    critical: tuple[CriticalSection, ...] = ()
-    compare: tuple[CompareSection, ...] = ()
-
-    @property
-    def name(self) -> str:
-        """Short name of the spec: the file name without suffix."""
-        return self.path.stem
-
-    def line_of(self, key: tuple) -> int:
-        return _KeyLines(self.text).find(key)
-
-    def where(self, key: tuple) -> str:
-        """``run spec FILE, line N, key 'K'`` for messages."""
-        return f"run spec {self.path}, line {self.line_of(key)}, key {_dotted(key)!r}"
-
-
-# ---------------------------------------------------------------------------------------------
-# reading and checking
-# ---------------------------------------------------------------------------------------------
 _MISSING = object()
 
 
@@ -511,18 +114,18 @@ def _describe(value: Any) -> str:
 
 
 _TOP = ("title", "description", "units", "energy_unit", "length_unit", "figure_format", "equations", "channels",
-        "levels", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
+        "levels", "tol", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
 _MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "params", "term")
 _ENTRY = ("name", "expression", "role", "params")
-_SOLVE = ("models", "equations", "channels", "levels", "tolerance", "method", "order", "figures", "radii",
+_SOLVE = ("models", "equations", "channels", "levels", "tol", "tolerance", "method", "order", "figures", "radii",
           "differences", "reference", "states")
-_CONVERGE = ("model", "equation", "channel", "levels", "methods", "order")
-_SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tolerance", "method", "workers",
+_CONVERGE = ("model", "equation", "channel", "levels", "methods", "order", "tol", "tolerance")
+_SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tol", "tolerance", "method", "workers",
          "differences", "max_points")
 _RANGE = ("start", "stop", "num", "spacing")
-_CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tolerance", "energy_tolerance", "kind",
+_CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tol", "tolerance", "energy_tol", "energy_tolerance", "kind",
              "workers")
-_COMPARE = ("model", "l_max", "levels", "tolerance")
+_COMPARE = ("model", "l_max", "levels", "tol", "tolerance")
 
 
 def _equation(rd: _Reader, value: str, key: tuple) -> str:
@@ -579,10 +182,15 @@ def _levels(rd: _Reader, data: dict, key: tuple, default: int) -> int:
     return n
 
 
-def _tolerance(rd: _Reader, data: dict, key: tuple, default: float) -> float:
-    tol = rd.get(data, key, "tolerance", "number", default)
+def _tolerance(rd: _Reader, data: dict, key: tuple, default: float, name: str = "tol") -> float:
+    """``tol`` (the API's and the CLI's name), or its older spelling ``tolerance``; one of them."""
+    old = {"tol": "tolerance", "energy_tol": "energy_tolerance"}[name]
+    if name in data and old in data:
+        raise rd.error(key + (old,), f"give {name} (or its older name {old}), not both")
+    used = old if old in data else name
+    tol = rd.get(data, key, used, "number", default)
     if not 0 < tol < 1:
-        raise rd.error(key + ("tolerance",), f"must lie between 0 and 1, got {tol:g}")
+        raise rd.error(key + (used,), f"must lie between 0 and 1, got {tol:g}")
     return tol
 
 
@@ -805,11 +413,12 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
 
     # defaults for the studies
     equations = tuple(_equation(rd, e, ("equations", i))
-                      for i, e in enumerate(rd.get(data, (), "equations", "list:str", ["dirac"])))
+                      for i, e in enumerate(rd.get(data, (), "equations", "list:str", ["schrodinger"])))
     if not equations:
         raise rd.error(("equations",), "give at least one equation")
     channels = _channels(rd, data, (), (ChannelSpec(l=0, text="s"),))
-    levels = _levels(rd, data, (), 3)
+    # None: each study takes the default of its API function (solve 1, scan 3, compare 2)
+    levels = _levels(rd, data, (), 1) if "levels" in data else None
     tolerance = _tolerance(rd, data, (), 1e-10)
     method, order = _method(rd, data, (), "auto", None)
 
@@ -842,7 +451,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         if ref is not None and ref not in names:
             raise rd.error(key + ("reference",), f"the reference must be one of the solved models: {', '.join(names)}")
         m, o = _method(rd, s, key, method, order)
-        solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels),
+        solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels or 1),
                                  _tolerance(rd, s, key, tolerance), m, o, figs,
                                  rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
                                  rd.get(s, key, "states", "bool", False))
@@ -858,7 +467,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         converge_secs.append(ConvergeSection(
             key, _model_name(rd, s, key, models),
             _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8)))
+            ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
 
     scan_secs = []
     for key, s in _sections(rd, data, "scan"):
@@ -911,7 +520,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         scan_secs.append(ScanSection(
             key, model, param, values,
             _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            _channels(rd, s, key, channels), _levels(rd, s, key, levels), _tolerance(rd, s, key, tolerance), m,
+            _channels(rd, s, key, channels), _levels(rd, s, key, levels or 3), _tolerance(rd, s, key, tolerance), m,
             workers, _pairs(rd, s, key), max_points))
 
     critical_secs = []
@@ -942,9 +551,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         kind = rd.get(s, key, "kind", "str", None)
         if kind is not None and kind not in ("unbind", "dive"):
             raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
-        etol = rd.get(s, key, "energy_tolerance", "number", 1e-10)
-        if not 0 < etol < 1:
-            raise rd.error(key + ("energy_tolerance",), f"must lie between 0 and 1, got {etol:g}")
+        etol = _tolerance(rd, s, key, 1e-10, "energy_tol")
         critical_secs.append(CriticalSection(
             key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
             etol, kind, _workers(rd, s, key)))
@@ -956,7 +563,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         l_max = rd.get(s, key, "l_max", "int", 1)
         if not 0 <= l_max <= MAX_L:
             raise rd.error(key + ("l_max",), f"must lie between 0 and {MAX_L}, got {l_max}")
-        compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels),
+        compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels or 2),
                                            _tolerance(rd, s, key, tolerance)))
 
     return RunSpec(path=path, text=text, title=title.strip(), description=description.strip(), units=units,
@@ -964,5 +571,3 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
                    equations=equations, channels=channels, levels=levels, tolerance=tolerance, method=method,
                    order=order, models=models, solve=solve_sec, converge=tuple(converge_secs),
                    scan=tuple(scan_secs), critical=tuple(critical_secs), compare=tuple(compare_secs))
-
-

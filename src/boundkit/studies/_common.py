@@ -14,7 +14,6 @@ import os
 import re
 import sys
 import tempfile
-import time
 from pathlib import Path
 from typing import Any, Callable, Mapping, Sequence
 
@@ -355,45 +354,40 @@ def write_json_atomic(path, data) -> Path:
 
 # --- progress ------------------------------------------------------------------------------
 class ProgressBar:
-    """A one-line progress bar on stderr.
+    """Progress of a long study on stderr, drawn by tqdm.
 
     ``mode`` True shows it, False hides it, None shows it only when stderr is
     a terminal; a callable is not drawn but called as ``mode(done, total)``
     after every finished item (a hook; it may raise to stop the work). The
-    bar appears only once ``delay`` seconds have passed.
+    bar appears only once ``delay`` seconds have passed, so a quick study
+    prints nothing.
     """
 
     def __init__(self, total: int, mode: bool | None | Callable = None, label: str = "scan",
                  delay: float = 2.0, stream=None) -> None:
-        self.total, self.label, self.delay = total, label, delay
-        self.stream = stream if stream is not None else sys.stderr
+        self.total = total
+        stream = stream if stream is not None else sys.stderr
         self.hook = mode if callable(mode) else None
         if mode is None:
-            isatty = getattr(self.stream, "isatty", None)
+            isatty = getattr(stream, "isatty", None)
             mode = bool(isatty and isatty())
-        self.enabled = bool(mode) and self.hook is None
-        self.start = time.monotonic()
-        self.drawn = False
+        self.bar = None
+        if bool(mode) and self.hook is None:
+            from tqdm import tqdm   # lazy: only a study that shows its progress pays for it
+
+            self.bar = tqdm(total=total, desc=label, unit="point", file=stream, delay=delay, leave=True,
+                            dynamic_ncols=True, ascii=True)
 
     def update(self, done: int) -> None:
+        """``done`` items of ``total`` are finished."""
         if self.hook is not None:
             self.hook(done, self.total)
-            return
-        elapsed = time.monotonic() - self.start
-        if not self.enabled or elapsed < self.delay:
-            return
-        width = 30
-        frac = done / self.total if self.total else 1.0
-        bar = "#" * int(round(frac * width))
-        eta = f", ~{elapsed / frac * (1 - frac):.0f} s left" if 0 < frac < 1 else ""
-        self.stream.write(f"\r{self.label} [{bar:<{width}}] {done}/{self.total}, {elapsed:.0f} s{eta}   ")
-        self.stream.flush()
-        self.drawn = True
+        elif self.bar is not None:
+            self.bar.update(done - self.bar.n)
 
     def close(self) -> None:
-        if self.drawn:
-            self.stream.write("\n")
-            self.stream.flush()
+        if self.bar is not None:
+            self.bar.close()
 
 
 # --- one level from a given seed energy ----------------------------------------------------

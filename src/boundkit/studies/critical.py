@@ -22,6 +22,7 @@ ulp of the value and never above what the found/absent bracket guarantees.
 """
 from __future__ import annotations
 
+import functools
 import logging
 import math
 import time
@@ -305,19 +306,21 @@ class _Refused(StudyError):
     """The potential refused a parameter value met during the search (outside its range)."""
 
 
-def critical(*args, **kwargs) -> "CriticalResult":
-    """Critical value of a parameter at which a level unbinds or dives (see :func:`_critical`).
+def _single_threaded_blas(func):
+    """Run ``func`` with BLAS single-threaded, as :func:`boundkit.solver.solve_channel` does: the
+    matrices are small, and two searches side by side ran five times slower with threads
+    (measured). The wrapper keeps the signature and docstring of ``func``."""
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from threadpoolctl import threadpool_limits
 
-    BLAS runs single-threaded inside, as in :func:`boundkit.solver.solve_channel`: the matrices
-    are small, and two searches side by side ran five times slower with threads (measured).
-    """
-    from threadpoolctl import threadpool_limits
-
-    with threadpool_limits(limits=1, user_api="blas"):
-        return _critical(*args, **kwargs)
+        with threadpool_limits(limits=1, user_api="blas"):
+            return func(*args, **kwargs)
+    return wrapper
 
 
-def _critical(equation: str, potential, params: Mapping[str, Any] | None, *, state: str, vary: str,
+@_single_threaded_blas
+def critical(equation: str, potential, params: Mapping[str, Any] | None, *, state: str, vary: str,
              bracket: tuple[float, float] | None = None, tol: float = 1e-8, kind: str | None = None,
              energy_tol: float = 1e-10, bracket_rtol: float = 1e-2, max_evaluations: int = 40,
              method: str = "auto", scalar=None,

@@ -485,7 +485,7 @@ def _rows_for(task, record) -> list[dict]:
 
 def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | None,
          vary: Mapping[str, Sequence[float]], *, channels: Sequence[Mapping[str, int]] | None = None,
-         levels: int = 3, tol: float = 1e-10, method: str = "auto", workers: int | None = None,
+         l: int | None = None, kappa: int | None = None, levels: int = 3, tol: float = 1e-10, method: str = "auto", workers: int | None = None,
          scheduler=None, out: str | os.PathLike | None = None,
          progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
          max_points: int = MAX_GRID_POINTS, scheduler_timeout: float = DASK_TIMEOUT,
@@ -508,7 +508,12 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     channels : sequence of dict
         E.g. ``[{"l": 0}, {"l": 1}]`` or ``[{"kappa": -1}, {"kappa": 1}]``.
         Dirac needs kappa; for Schrodinger and Klein-Gordon a kappa alone
-        stands for the l of its large component. Default: the lowest channel.
+        stands for the l of its large component (in a scan that also solves
+        the Dirac equation; without one, kappa is refused as in
+        :func:`boundkit.solve`). Default: the lowest channel.
+    l, kappa : int, optional
+        One channel, as for :func:`boundkit.solve`: ``l=1`` is
+        ``channels=[{"l": 1}]``, ``kappa=-2`` is ``channels=[{"kappa": -2}]``.
     levels : int
         Number of lowest levels followed in each channel.
     tol : float
@@ -597,8 +602,15 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     if clash:
         raise ValueError(f"vary: {sorted(clash)[0]!r} is both varied and given as a rule in params")
     varied = sorted(set(grid) | derived)
+    if l is not None or kappa is not None:
+        if channels is not None:
+            raise ValueError("channels: give either channels= or l=/kappa= (one channel), not both")
+        channels = [{k: v for k, v in (("l", l), ("kappa", kappa)) if v is not None}]
     if channels is None:
         channels = [{"kappa": -1}]
+    elif "dirac" not in equations and any(isinstance(c, Mapping) and "kappa" in c for c in channels):
+        raise ValueError(f"kappa: only the Dirac equation takes kappa; give l for {' and '.join(equations)} "
+                         "(l=0 or channels=[{'l': 0}]; CLI --l 0)")
     pairs = []
     for eq in equations:
         for ch in channels:

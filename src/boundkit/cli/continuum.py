@@ -1,8 +1,7 @@
 """Command line for the continuum: ``boundkit phases``.
 
-Parse, call :mod:`boundkit.scattering`, print. No numerics here. The command
-is registered on :func:`boundkit.cli.main` when this module is imported (the
-end of :mod:`boundkit.cli` does so).
+Parse, call :mod:`boundkit.scattering`, print. No numerics here. Registered on the
+``boundkit`` group by :mod:`boundkit.cli`.
 """
 from __future__ import annotations
 
@@ -11,20 +10,18 @@ import sys
 
 import click
 
-from .cli import _default, _fail, build_potential, main, potential_options
-from .units import ENERGY_UNITS, FM_PER_BOHR
-from .units import energy_unit as canonical_unit
+from .common import EXIT_NOT_CONVERGED, fail, json_default, report_unit
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
+                      particle_options, plot_option, potential_options, tol_option)
 
 __all__ = ["phases_cmd"]
-
-EXIT_NOT_CONVERGED = 3
 
 
 def _energy_grid(text: str | None) -> list[float] | None:
     """--energies START:STOP:N, START:STOP:N:log or E1,E2,..."""
     if text is None:
         return None
-    from .studies.scan import parse_vary
+    from ..studies.scan import parse_vary
 
     try:
         return parse_vary(f"energies={text}")[1]
@@ -33,38 +30,32 @@ def _energy_grid(text: str | None) -> list[float] | None:
                          "(kinetic energies above threshold, N a whole number)") from None
 
 
-@main.command("phases")
-@click.option("--equation", "-e", default="schrodinger", show_default=True,
-              help="schrodinger, klein-gordon or dirac.")
+@click.command("phases")
+@equation_option()
 @potential_options
-@click.option("--l", "l", type=int, default=None, help="Orbital l (Schrodinger, Klein-Gordon).")
-@click.option("--kappa", type=int, default=None, help="Dirac kappa (-1 = s1/2, 1 = p1/2, -2 = p3/2, ...).")
-@click.option("--j", "j", type=float, default=None, help="j = l +- 1/2 (Schrodinger with a spin-orbit term).")
+@channel_options()
 @click.option("--energies", default=None, metavar="START:STOP:N[:log] | E1,E2,...",
               help="Kinetic energies above threshold (total minus rest), in --energy-unit.")
-@click.option("--energy-unit", default=None,
-              help="Unit of energies: " + ", ".join(ENERGY_UNITS) + " (default hartree; MeV with --units nuclear).")
+@energy_unit_option(what="Unit of --energies and of reported energies")
 @click.option("--hard-core", type=float, default=None, help="Radius of an impenetrable core (bohr; fm with --units nuclear).")
-@click.option("--tol", type=float, default=1e-8, show_default=True, help="Target accuracy of each phase (rad).")
+@tol_option(1e-8, "Target accuracy of each phase (rad).")
 @click.option("--scattering-length", "want_a", is_flag=True, help="Also give the s-wave scattering length and effective range.")
 @click.option("--levinson", "want_levinson", is_flag=True,
               help="Check Levinson's theorem on its own energy grid (Schrodinger, short-range; no --energies).")
 @click.option("--bound-levels", type=int, default=None, help="With --levinson: number of bound levels to compare with.")
-@click.option("--particle", default=None, help="electron (default), muon, pion, kaon, proton, antiproton.")
-@click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2 (instead of --particle).")
-@click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass).")
-@click.option("--plot", "plot_path", default=None, metavar="FILE", help="Figure of delta against E (.png, .svg, .pdf).")
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@particle_options()
+@plot_option("the phase shift delta against E")
+@json_option()
 def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
                table_r_unit, table_v_unit, params, unit_system, l, kappa, j, energies, energy_unit, hard_core, tol,
                want_a, want_levinson, bound_levels, particle, mass_mev, nucleus_mass_mev, plot_path, as_json):
     """Phase shifts delta(E) of one channel above threshold (absolute branch; relative to
     the Coulomb phase when the potential has a Coulomb tail)."""
-    from .scattering import levinson, phase_shifts, scattering_length
+    from ..scattering import levinson, phase_shifts, scattering_length
 
     out: dict = {}
     try:
-        unit = canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
+        unit = report_unit(energy_unit, unit_system)
         grid = _energy_grid(energies)
         if want_levinson and grid is not None:
             raise ValueError("--levinson chooses its own energy grid; leave out --energies")
@@ -88,19 +79,21 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             out["scattering_length"] = scattering_length(equation, vector, values, kappa=kappa,
                                                          scalar=scalar or None, hard_core=hard_core, **common)
         if plot_path:
-            from .scattering.figure import phase_figure
+            from ..scattering.figure import phase_figure
 
             phase_figure(res, plot_path, unit=unit)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
         record = {"phases": res.to_dict(unit)}
         if "levinson" in out:
             record["levinson"] = {k: v for k, v in out["levinson"].to_dict(unit).items() if k != "phases"}
         if "scattering_length" in out:
             record["scattering_length"] = out["scattering_length"].to_dict()
-        click.echo(json.dumps(record, default=_default, indent=2))
+        click.echo(json.dumps(record, default=json_default, indent=2))
     else:
+        from ..units import FM_PER_BOHR
+
         lunit = "fm" if unit_system == "nuclear" else "bohr"
         per = FM_PER_BOHR if unit_system == "nuclear" else 1.0
         click.echo(res.table(unit, lunit))

@@ -8,13 +8,15 @@ import sys
 
 import click
 
-from .cli import EXIT_NOT_CONVERGED, _default, _fail, build_potential, main, potential_options
+from .common import EXIT_NOT_CONVERGED, fail, json_default
+from .options import (build_potential, energy_unit_option, equation_option, json_option, method_option,
+                      particle_options, potential_options, tol_option)
 
 __all__ = ["transitions_cmd", "observables_table", "add_observables", "write_states_file"]
 
 
 def _observables(res, length_unit: str):
-    from .observables import masses_of, observables
+    from ..observables import masses_of, observables
 
     mass, _ = masses_of(res)
     return [observables(lv, length_unit=length_unit, mass=mass) for lv in res.levels]
@@ -44,7 +46,7 @@ def add_observables(record: dict, res, length_unit: str) -> dict:
 
 
 def write_states_file(res, path: str, length_unit: str) -> None:
-    from .io_states import write_states
+    from ..io_states import write_states
 
     write_states(res, path, length_unit=length_unit)
     click.echo(f"wrote radial functions of {len(res.levels)} level(s) to {path} (r in {length_unit})", err=True)
@@ -75,28 +77,25 @@ def _format_lines(tr) -> str:
     return "\n".join(out)
 
 
-@main.command("transitions")
-@click.option("--equation", "-e", default="schrodinger", show_default=True,
-              help="schrodinger, klein-gordon or dirac.")
+@click.command("transitions")
+@equation_option()
 @potential_options
-@click.option("--max-n", type=int, default=3, show_default=True, help="Highest principal quantum number.")
+@click.option("--max-n", type=int, default=2, show_default=True, help="Highest principal quantum number.")
 @click.option("--level", "levels", multiple=True, metavar="LABEL",
               help="Keep only these levels (repeatable), e.g. --level 1s --level 2p.")
 @click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2",
               help="Multipoles (repeatable; default E1; M1 and E2 for Dirac only).")
-@click.option("--energy-unit", default="eV", show_default=True, help="Unit of line energies (eV, cm^-1, MHz, ...).")
-@click.option("--tol", type=float, default=1e-14, show_default=True, help="Tolerance of the level solves.")
-@click.option("--method", default="auto", show_default=True, help="auto, spectral or finite-difference.")
-@click.option("--particle", default=None, help="electron (default), muon, pion, ...")
-@click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2.")
-@click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass).")
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@energy_unit_option("eV", "Unit of line energies")
+@tol_option(1e-14)
+@method_option()
+@particle_options()
+@json_option()
 def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                     table_origin, table_r_unit, table_v_unit, params, unit_system, max_n, levels, multipoles,
                     energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
     """Radiative lines among the levels up to --max-n: energies, line strengths, oscillator
     strengths, Einstein A, lifetimes and branching ratios."""
-    from .transitions import transitions
+    from ..transitions import transitions
 
     try:
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
@@ -107,9 +106,9 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
                          particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
                          scalar=scalar or None, units=unit_system)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(tr.to_dict(), default=_default, indent=2))
+        click.echo(json.dumps(tr.to_dict(), default=json_default, indent=2))
     else:
         click.echo(_format_lines(tr))
     if tr.status != "ok":

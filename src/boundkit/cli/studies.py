@@ -1,8 +1,6 @@
 """Command line for the studies: ``boundkit scan``, ``boundkit critical``, ``boundkit compare``.
 
-Parse, call :mod:`boundkit.studies`, print. No numerics here. The commands
-are registered on :func:`boundkit.cli.main` when this module is imported (the
-last line of :mod:`boundkit.cli` does so).
+Parse, call :mod:`boundkit.studies`, print. No numerics here. Registered on the ``boundkit`` group by :mod:`boundkit.cli`.
 """
 from __future__ import annotations
 
@@ -11,65 +9,44 @@ import sys
 
 import click
 
-from .cli import (EXIT_BAD_INPUT, _default, _fail, build_potential, check_particle, check_plot_path,
-                  check_tol, main, potential_options, write_figure)
-from .units import ENERGY_UNITS
-from .units import energy_unit as canonical_unit
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, check_tol, fail, json_default,
+                     report_unit, write_figure)
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
+                      levels_option, method_option, order_option, particle_options, plot_option,
+                      potential_options, tol_option)
 
 __all__ = ["scan_cmd", "critical_cmd", "compare_cmd"]
-
-EXIT_NOT_CONVERGED = 3
-
-_UNITS_HELP = "Unit of reported energies: " + ", ".join(ENERGY_UNITS) + " (default hartree; MeV with --units nuclear)."
-
-
-def _particle_options(f):
-    opts = [
-        click.option("--particle", default=None, help="electron (default), muon, pion, kaon, proton, antiproton."),
-        click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2 (instead of --particle)."),
-        click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass)."),
-        click.option("--method", default="auto", show_default=True, help="auto, spectral or finite-difference."),
-        click.option("--order", type=int, default=None, help="Finite-difference accuracy order (default 8)."),
-    ]
-    for opt in reversed(opts):
-        f = opt(f)
-    return f
 
 
 def _rms_rule(text: str | None, values: dict) -> None:
     """--rms-rule R0,A_PER_Z: rms_fm follows Z at every point."""
     if text is None:
         return
-    from .studies import NuclearRadius
+    from ..studies import NuclearRadius
 
     parts = [p.strip() for p in str(text).replace(":", ",").split(",")]
     try:
         r0, apz = (float(p) for p in parts)
     except ValueError:
-        _fail(f"--rms-rule {text!r}: write R0,A_PER_Z in fm and nucleons per charge, e.g. --rms-rule 1.2,2.5")
+        fail(f"--rms-rule {text!r}: write R0,A_PER_Z in fm and nucleons per charge, e.g. --rms-rule 1.2,2.5")
     if "rms_fm" in values:
-        _fail("--rms-rule sets rms_fm at every point; leave out --param rms_fm")
+        fail("--rms-rule sets rms_fm at every point; leave out --param rms_fm")
     values["rms_fm"] = NuclearRadius(r0, apz)
 
 
-def _unit(energy_unit: str | None, unit_system: str) -> str:
-    return canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
-
-
 # --- scan -----------------------------------------------------------------------------------
-@main.command("scan")
-@click.option("--equation", "-e", "equations", multiple=True,
-              help="schrodinger, klein-gordon or dirac; repeatable (default dirac).")
+@click.command("scan")
+@equation_option(multiple=True)
 @potential_options
 @click.option("--vary", "varies", multiple=True, required=True, metavar="NAME=START:STOP:N[:log]",
               help="Parameter to vary: NAME=START:STOP:N (even steps), NAME=START:STOP:N:log, or "
                    "NAME=v1,v2,...; give one or two.")
-@click.option("--l", "ls", type=int, multiple=True, help="Orbital l of a channel (repeatable).")
-@click.option("--kappa", "kappas", type=int, multiple=True,
-              help="Dirac kappa of a channel (repeatable; for Schrodinger and Klein-Gordon it stands for its l).")
-@click.option("--levels", "-n", type=int, default=3, show_default=True, help="Levels followed per channel.")
-@click.option("--tol", type=float, default=1e-10, show_default=True, help="Relative tolerance on energies.")
-@_particle_options
+@channel_options(j=False, multiple=True)
+@levels_option(3, what="Number of lowest levels followed per channel")
+@tol_option(1e-10)
+@particle_options()
+@method_option()
+@order_option()
 @click.option("--rms-rule", default=None, metavar="R0,A_PER_Z",
               help="Set rms_fm at every point from Z: uniform sphere of radius R0 (A_PER_Z Z)^(1/3) fm.")
 @click.option("--workers", type=int, default=None, help="Local worker processes (default and most: the cores).")
@@ -79,22 +56,25 @@ def _unit(energy_unit: str | None, unit_system: str) -> str:
               help="Dask scheduler address, e.g. tcp://127.0.0.1:8786 (needs boundkit[dask]).")
 @click.option("--out", "out", default=None, type=click.Path(file_okay=False),
               help="Directory for per-point files, scan.csv and scan.json; a rerun reuses finished points.")
-@click.option("--plot", "plot_path", default=None, help="Write a figure of levels against the parameter.")
-@click.option("--energy-unit", default=None, help=_UNITS_HELP)
+@plot_option("the levels against the varied parameter")
+@energy_unit_option()
 @click.option("--progress/--no-progress", default=None, help="Progress bar on stderr (default: on a terminal).")
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of a table.")
+@json_option()
 def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
              table_origin, table_r_unit, table_v_unit, params, unit_system, varies, ls, kappas, levels, tol,
              particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
              plot_path, energy_unit, progress, as_json):
-    """Levels over a grid of one or two potential parameters, followed by label."""
-    from .studies import StudyError, parse_vary, scan
+    """Levels over a grid of one or two potential parameters.
 
-    check_tol(tol)
+    Each level is followed across the grid by its label (node count), so a
+    curve is broken only where the level is not bound.
+    """
+    from ..studies import StudyError, parse_vary, scan
+
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
     try:
-        unit = _unit(energy_unit, unit_system)
+        unit = report_unit(energy_unit, unit_system)
         if len(varies) > 2:
             raise ValueError("--vary: give one or two parameters")
         limit = {} if max_points is None else {"max_points": max_points}
@@ -111,13 +91,13 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         channels = [{"l": x} for x in ls] + [{"kappa": x} for x in kappas] or None
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
-        res = scan(list(equations) or ["dirac"], vector, values, vary, channels=channels, levels=levels, tol=tol,
+        res = scan(list(equations) or ["schrodinger"], vector, values, vary, channels=channels, levels=levels, tol=tol,
                    method=method, workers=workers, scheduler=scheduler, out=out, progress=progress,
                    scalar=scalar or None, units=unit_system, **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
     else:
         click.echo(res.table(unit))
         click.echo("")
@@ -128,7 +108,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         click.echo(f"boundkit: error: {problem}", err=True)
     written = None
     if plot_path:
-        from .studies.figures import scan_figure
+        from ..studies.figures import scan_figure
 
         written = write_figure(lambda p: scan_figure(res, p, unit=unit), plot_path)
         if written and not as_json:
@@ -150,23 +130,24 @@ def _bracket(text: str | None):
     try:
         a, b = (float(p) for p in parts)
     except ValueError:
-        _fail(f"--bracket {text!r}: write two numbers, e.g. --bracket 1.0,3.0")
+        fail(f"--bracket {text!r}: write two numbers, e.g. --bracket 1.0,3.0")
     return a, b
 
 
-@main.command("critical")
-@click.option("--equation", "-e", default="schrodinger", show_default=True,
-              help="schrodinger, klein-gordon or dirac.")
+@click.command("critical")
+@equation_option()
 @potential_options
 @click.option("--state", required=True, help="Level: 1s, 2p (Schrodinger, Klein-Gordon); 1s1/2, 2p3/2 (Dirac).")
 @click.option("--vary", required=True, metavar="NAME", help="Parameter to vary; its --param value is the start.")
 @click.option("--bracket", default=None, metavar="A,B", help="Values with the level bound at one, absent at the other.")
 @click.option("--kind", type=click.Choice(["unbind", "dive"]), default=None,
               help="unbind (E -> 0) or dive (E -> -2mc^2); default: dive with a Coulomb tail, else unbind.")
-@click.option("--tol", type=float, default=1e-8, show_default=True, help="Relative tolerance of the critical value.")
+@tol_option(1e-8, "Relative tolerance of the critical value.")
 @click.option("--energy-tol", type=float, default=1e-10, show_default=True, help="Relative tolerance of each energy.")
 @click.option("--max-evaluations", type=int, default=40, show_default=True, help="Budget of solves.")
-@_particle_options
+@particle_options()
+@method_option()
+@order_option()
 @click.option("--rms-rule", default=None, metavar="R0,A_PER_Z",
               help="Set rms_fm at every point from Z: uniform sphere of radius R0 (A_PER_Z Z)^(1/3) fm.")
 @click.option("--json", "as_json", is_flag=True,
@@ -176,9 +157,8 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                  energy_tol, max_evaluations, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule,
                  as_json):
     """Parameter value where a level unbinds (E -> 0) or dives into the lower continuum."""
-    from .studies import StudyError, critical
+    from ..studies import StudyError, critical
 
-    check_tol(tol)
     check_tol(energy_tol, "--energy-tol")
     check_particle(particle, mass_mev)
     br = _bracket(bracket)
@@ -196,12 +176,12 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
                        scalar=scalar or None, units=unit_system, **kwargs)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     except StudyError as exc:
         click.echo(f"boundkit: failed: {exc}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if as_json:
-        click.echo(json.dumps(res.to_dict(), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(), default=json_default, indent=2))
     else:
         lo, hi = res.bracket
         click.echo(f"{res.state} ({res.equation} equation), {'unbinding' if res.kind == 'unbind' else 'diving'}")
@@ -216,27 +196,28 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
 
 
 # --- compare --------------------------------------------------------------------------------
-@main.command("compare")
+@click.command("compare")
 @potential_options
 @click.option("--l-max", type=int, default=1, show_default=True, help="Largest orbital l.")
-@click.option("--levels", "-n", type=int, default=2, show_default=True, help="Levels per channel.")
-@click.option("--tol", type=float, default=1e-10, show_default=True, help="Relative tolerance on energies.")
-@_particle_options
-@click.option("--energy-unit", default=None, help=_UNITS_HELP)
+@levels_option(2)
+@tol_option(1e-10)
+@particle_options()
+@method_option()
+@order_option()
+@energy_unit_option()
 @click.option("--splitting-unit", default=None,
               help="Unit of shifts and splittings (default: the energy unit), e.g. MHz or GHz.")
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
+@json_option("Print one JSON object instead of tables.")
 def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
                 table_r_unit, table_v_unit, params, unit_system, l_max, levels, tol, particle, mass_mev,
                 nucleus_mass_mev, method, order, energy_unit, splitting_unit, as_json):
     """Schrodinger, Klein-Gordon and Dirac levels side by side, with shifts and fine structure."""
-    from .studies import compare
+    from ..studies import compare
 
-    check_tol(tol)
     check_particle(particle, mass_mev)
     try:
-        unit = _unit(energy_unit, unit_system)
-        sunit = canonical_unit(splitting_unit) if splitting_unit else unit
+        unit = report_unit(energy_unit, unit_system)
+        sunit = report_unit(splitting_unit, unit_system) if splitting_unit else unit
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
@@ -244,9 +225,9 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
         res = compare(vector, values, l_max=l_max, levels=levels, particle=particle, mass_mev=mass_mev, tol=tol,
                       method=method, scalar=scalar or None, units=unit_system, **kwargs)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit, sunit), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(unit, sunit), default=json_default, indent=2))
     else:
         click.echo(res.table(unit, sunit))
     if not res.success:

@@ -1,8 +1,6 @@
 """Command line for ``boundkit resonances``: complex-scaling eigenvalues in an energy window.
 
-Parse, call :func:`boundkit.resonances`, print. No numerics here. Registered
-on :func:`boundkit.cli.main` when this module is imported (the end of
-:mod:`boundkit.cli` does so).
+Parse, call :func:`boundkit.resonances`, print. No numerics here. Registered on the ``boundkit`` group by :mod:`boundkit.cli`.
 """
 from __future__ import annotations
 
@@ -10,9 +8,9 @@ import json
 
 import click
 
-from .cli import _default, _fail, _subset, build_potential, main, potential_options
-from .units import ENERGY_UNITS
-from .units import energy_unit as canonical_unit
+from .common import fail, json_default, report_unit
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option, particle_options,
+                      potential_options, subset_params, tol_option)
 
 __all__ = ["resonances_cmd"]
 
@@ -25,17 +23,16 @@ def _numbers(option: str, text: str, count: int | None = None) -> tuple[float, .
         values = ()
     if not values or (count is not None and len(values) != count):
         want = "two numbers LO,HI" if count == 2 else "numbers separated by commas"
-        _fail(f"{option} {text!r}: write {want}, e.g. {option} {'3,4' if count == 2 else '0.25,0.35'}")
+        fail(f"{option} {text!r}: write {want}, e.g. {option} {'3,4' if count == 2 else '0.25,0.35'}")
     return values
 
 
-@main.command("resonances")
-@click.option("--equation", "-e", default="schrodinger", show_default=True, help="schrodinger, klein-gordon or dirac.")
+@click.command("resonances")
+@equation_option()
 @potential_options
 @click.option("--absorptive-expr", "absorptive", multiple=True,
               help="Imaginary part W(r) of the potential as an expression, V = V_R + i W (W < 0 absorbs).")
-@click.option("--l", "l", type=int, default=None, help="Orbital l (Schrodinger, Klein-Gordon; default 0).")
-@click.option("--kappa", type=int, default=None, help="Dirac kappa (default -1).")
+@channel_options(j=False)
 @click.option("--window", required=True, metavar="LO,HI",
               help="Range of the real part of the binding energy, in --energy-unit.")
 @click.option("--angles", default="0.25,0.35", show_default=True, metavar="T1,T2,...",
@@ -44,31 +41,27 @@ def _numbers(option: str, text: str, count: int | None = None) -> tuple[float, .
               help="Lobatto order of the elements; the stability test also uses order - 4.")
 @click.option("--r0", type=float, default=None, help="Start of the rotated segment in bohr (default: automatic).")
 @click.option("--r-max", type=float, default=None, help="End of the mesh in bohr (default: automatic).")
-@click.option("--tol", type=float, default=1e-6, show_default=True,
-              help="Relative stability an eigenvalue must show over angles and orders.")
-@click.option("--particle", default=None, help="electron (default), muon, pion, kaon, proton, antiproton.")
-@click.option("--mass-mev", type=float, default=None, help="Particle mass in MeV/c^2 (instead of --particle).")
-@click.option("--nucleus-mass-mev", type=float, default=None, help="Nucleus mass in MeV/c^2 (reduced mass).")
-@click.option("--energy-unit", default=None,
-              help="Unit of --window and of the output: " + ", ".join(ENERGY_UNITS) + " (default hartree).")
-@click.option("--json", "as_json", is_flag=True,
-              help="Print one JSON object; each eigenvalue has separate energy and width fields.")
+@tol_option(1e-6, "Relative stability an eigenvalue must show over angles and orders.")
+@particle_options()
+@energy_unit_option(what="Unit of --window and of reported energies")
+@json_option("Print one JSON object (each eigenvalue with separate energy and width fields) instead of a table.")
 def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                    table_origin, table_r_unit, table_v_unit, params, unit_system, absorptive, l, kappa, window,
                    angles, order, r0, r_max, tol, particle, mass_mev, nucleus_mass_mev, energy_unit, as_json):
     """Resonances, bound and quasi-bound levels in an energy window (complex scaling)."""
-    from . import resonances
-    from .potentials.expression import ExpressionTerm
-    from .potentials.optical import ImaginaryPart
+    from .. import resonances
+    from ..units import ENERGY_UNITS
+    from ..potentials.expression import ExpressionTerm
+    from ..potentials.optical import ImaginaryPart
 
     lo, hi = _numbers("--window", window, 2)
     thetas = _numbers("--angles", angles)
     try:
-        unit = canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
+        unit = report_unit(energy_unit, unit_system)
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
-        vector = list(vector) + [ImaginaryPart(ExpressionTerm(t, _subset(t, values))) for t in absorptive]
+        vector = list(vector) + [ImaginaryPart(ExpressionTerm(t, subset_params(t, values))) for t in absorptive]
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev)) if v is not None}
         per = ENERGY_UNITS[unit]
@@ -76,9 +69,9 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
                          order=order, r0=r0, r_max=r_max, tol=tol, scalar=scalar or None, units=unit_system,
                          **kwargs)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=_default, indent=2))
+        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
         return
     s = res.settings
     click.echo(f"{res.equation} equation, potential {res.potential}; {s['scaling']} complex scaling beyond "

@@ -13,33 +13,33 @@ from pathlib import Path
 
 import click
 
-from .cli import EXIT_NOT_CONVERGED, _fail, main
+from .common import EXIT_NOT_CONVERGED, fail
 
 __all__ = ["run_cmd"]
 
 
-@main.command("run")
+@click.command("run")
 @click.argument("spec_path", metavar="SPEC.toml", type=click.Path(dir_okay=False))
 @click.option("--out", "out_dir", default=None, type=click.Path(file_okay=False),
               help="Output folder (default: out/<spec file name without .toml>).")
 @click.option("--force", is_flag=True, help="Replace the output folder of an earlier run.")
 def run_cmd(spec_path: str, out_dir: str | None, force: bool) -> None:
     """Run the studies of a run spec and write results.json, tables, figures and report.md."""
-    from .runspec import load_spec, run
+    from ..runspec import load_spec, run
 
     try:
         spec = load_spec(spec_path)
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     target = Path(out_dir) if out_dir else Path("out") / spec.name
     try:
         report = run(spec, target, force=force)
     except FileExistsError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     except ValueError as exc:
-        _fail(str(exc))
+        fail(str(exc))
     except OSError as exc:
-        _fail(f"cannot create the output folder {str(target)!r} ({exc.strerror or exc}); choose a writable "
+        fail(f"cannot create the output folder {str(target)!r} ({exc.strerror or exc}); choose a writable "
               "place with --out")
     click.echo(f"{spec.title}")
     for line in report.headline:

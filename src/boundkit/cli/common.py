@@ -1,0 +1,139 @@
+"""What every command shares: exit codes, the one-line error, argument checks, figure writing.
+
+No click options here (they live in :mod:`boundkit.cli.options`) and no
+numerics: these helpers check what the user typed and report failures the
+way the command group does (``boundkit: error: ...``, exit 2).
+"""
+from __future__ import annotations
+
+import math
+import os
+import re
+import sys
+import unicodedata
+from pathlib import Path
+
+import click
+
+__all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
+           "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
+           "parse_params", "report_unit"]
+
+EXIT_BAD_INPUT = 2
+EXIT_NOT_CONVERGED = 3
+EXIT_INTERRUPTED = 130
+MAX_MESSAGE = 290
+"""Longest error line (characters); long quoted values in a message are shortened."""
+
+
+def fail(message: str) -> None:
+    """One line ``boundkit: error: ...`` on stderr, exit 2."""
+    click.echo(f"boundkit: error: {clip_message(message)}", err=True)
+    sys.exit(EXIT_BAD_INPUT)
+
+
+def clip_message(message: str) -> str:
+    """``message`` on one line and at most :data:`MAX_MESSAGE` characters.
+
+    Quoted values longer than 40 characters are cut in the middle first (an
+    argument of a megabyte must not be echoed whole), then the tail.
+    """
+    text = " ".join(str(message).split())
+    if len(text) <= MAX_MESSAGE:
+        return text
+    text = re.sub(r"'[^']{41,}'|\"[^\"]{41,}\"", lambda m: m.group(0)[:24] + "..." + m.group(0)[-8:], text)
+    text = re.sub(r"\S{61,}", lambda m: m.group(0)[:40] + "..." + m.group(0)[-12:], text)
+    return text if len(text) <= MAX_MESSAGE else text[: MAX_MESSAGE - 4] + " ..."
+
+
+def parse_params(items: tuple[str, ...]) -> dict[str, float]:
+    """NAME=VALUE pairs; names are read in NFKC form, as Python and the expression parser read them."""
+    params: dict[str, float] = {}
+    given: dict[str, str] = {}
+    for item in items:
+        name, eq, value = item.partition("=")
+        name = unicodedata.normalize("NFKC", name.strip())
+        if not eq or not name or not value.strip():
+            fail(f"--param {item!r} is malformed; write NAME=VALUE, for example --param Z=1")
+        try:
+            x = float(value)
+        except ValueError:
+            fail(f"--param {item!r}: {value.strip()!r} is not a number; write NAME=VALUE, e.g. --param Z=82")
+        if not math.isfinite(x):
+            fail(f"--param {item!r}: the value must be finite")
+        if name in given and x != params[name]:
+            fail(f"--param {name} is given twice ({given[name]} and {value.strip()}); give it once")
+        params[name] = x
+        given.setdefault(name, value.strip())
+    return params
+
+
+def check_tol(tol: float | None, option: str = "--tol") -> None:
+    """The CLI's tolerances lie strictly between 0 and 1, as in run specs."""
+    if tol is not None and not 0 < tol < 1:
+        fail(f"{option}: must lie between 0 and 1, got {tol:g}; e.g. {option} 1e-10")
+
+
+def check_particle(particle: str | None, mass_mev: float | None) -> None:
+    """--particle and --mass-mev name the same thing: one of them."""
+    if particle is not None and mass_mev is not None:
+        fail(f"--particle {particle} and --mass-mev {mass_mev:g}: give one of them (a mass makes a particle "
+              "of its own)")
+
+
+_PLOT_FORMATS = (".png", ".svg", ".pdf")
+
+
+def check_plot_path(path: str | None, option: str = "--plot") -> None:
+    """Refuse a figure path that cannot be a file, before anything is computed."""
+    if path is None:
+        return
+    p = Path(path)
+    if not p.name or path.endswith(("/", os.sep)) or p.is_dir():
+        fail(f"{option} {path!r}: not a file name; write e.g. {option} levels.png")
+    if p.suffix and p.suffix.lower() not in _PLOT_FORMATS:
+        fail(f"{option} {path!r}: unsupported figure format {p.suffix!r}; use .png, .svg or .pdf")
+
+
+def write_figure(draw, path: str, option: str = "--plot") -> str | None:
+    """Draw a figure after the results are out; an error costs only the figure.
+
+    Returns the path written, or None after a one-line message on stderr.
+    """
+    try:
+        return str(draw(path))
+    except (OSError, ValueError) as exc:
+        reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
+        click.echo(f"boundkit: error: {clip_message(f'{option} {path!r}: cannot write the figure ({reason}); the results above are complete')}",
+                   err=True)
+        return None
+
+
+def json_default(x):
+    """JSON fallback for numpy scalars."""
+    try:
+        return float(x)
+    except (TypeError, ValueError):
+        return str(x)
+
+
+def levels_arg(text: str):
+    """--levels N or --levels all."""
+    if str(text).strip().lower() == "all":
+        return "all"
+    try:
+        n = int(str(text).strip())
+    except ValueError:
+        raise click.BadParameter(f"{clip_message(repr(str(text)))} is not a valid integer (or 'all')",
+                                 param_hint="'--levels'") from None
+    if n < 1:
+        raise click.BadParameter(f"levels: must be >= 1 (or 'all'), got {n}", param_hint="'--levels'")
+    return n
+
+
+
+def report_unit(energy_unit: str | None, unit_system: str) -> str:
+    """Canonical name of the unit of reported energies: ``--energy-unit``, else hartree (MeV with --units nuclear)."""
+    from ..units import energy_unit as canonical_unit
+
+    return canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))

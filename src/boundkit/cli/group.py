@@ -1,0 +1,108 @@
+"""The command group ``boundkit``: logging, and one line on stderr for whatever goes wrong.
+
+The commands themselves live in the sibling modules and are registered on
+:data:`main` by :mod:`boundkit.cli` (the package ``__init__``).
+"""
+from __future__ import annotations
+
+import errno
+import logging
+import os
+import signal
+import sys
+import warnings
+
+import click
+
+from .. import __version__
+from .common import EXIT_BAD_INPUT, EXIT_INTERRUPTED, fail
+
+__all__ = ["main", "BoundkitGroup"]
+
+
+class BoundkitGroup(click.Group):
+    """The command group. Whatever goes wrong ends in one line on stderr:
+
+    - bad input, usage errors (unknown option, bad value, missing argument):
+      ``boundkit: error: ... ; see boundkit CMD --help``, exit 2;
+    - Ctrl-C or SIGTERM: ``boundkit: interrupted``, exit 130 (143 for SIGTERM);
+    - standard output that cannot be written (a full disk, a closed pipe):
+      one line, exit 2 (a closed pipe ends quietly).
+    """
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        if not standalone_mode:
+            return super().main(args, prog_name, complete_var, standalone_mode, **extra)
+        try:   # SIGTERM unwinds like Ctrl-C (temporary files go), for this command only
+            previous = signal.signal(signal.SIGTERM, _on_sigterm)
+        except ValueError:   # not the main thread (an embedding program)
+            previous = None
+        try:
+            with warnings.catch_warnings():
+                if not any(a in ("-vv", "-vvv") for a in (args if args is not None else sys.argv[1:])):
+                    warnings.simplefilter("ignore", RuntimeWarning)   # numerical noise: see -vv
+                rv = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
+        except click.exceptions.NoArgsIsHelpError as exc:
+            click.echo(exc.ctx.get_help() if exc.ctx else "")
+            sys.exit(0)
+        except click.UsageError as exc:
+            fail(f"{_lower(exc.format_message()).rstrip('.')}; see {_command_path(exc.ctx)} --help")
+        except click.ClickException as exc:
+            fail(exc.format_message())
+        except click.exceptions.Abort:
+            click.echo("boundkit: interrupted", err=True)
+            sys.exit(EXIT_INTERRUPTED)
+        except Terminated as exc:
+            click.echo("boundkit: interrupted", err=True)
+            sys.exit(exc.code)
+        except OSError as exc:
+            _stdout_failed(exc)
+        finally:
+            if previous is not None:
+                signal.signal(signal.SIGTERM, previous)
+        sys.exit(rv if isinstance(rv, int) else 0)
+
+
+def _lower(text: str) -> str:
+    return text[:1].lower() + text[1:] if text[:2] != text[:2].upper() else text
+
+
+def _command_path(ctx) -> str:
+    names = []
+    while ctx is not None:
+        names.append(ctx.info_name if ctx.parent is not None else "boundkit")
+        ctx = ctx.parent
+    return " ".join(reversed(names)) if names else "boundkit"
+
+
+def _stdout_failed(exc: OSError) -> None:
+    """Standard output could not be written: say so on stderr (a closed pipe quietly)."""
+    try:   # nothing more may reach the broken stream, not even at interpreter exit
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError, AttributeError):
+        pass
+    if exc.errno == errno.EPIPE:
+        sys.exit(EXIT_BAD_INPUT)
+    fail(f"cannot write the output ({exc.strerror or exc}); redirect it to a writable place")
+
+
+class Terminated(SystemExit):
+    """SIGTERM: unwinds like Ctrl-C (``finally`` blocks remove temporary files), exit 128 + 15."""
+
+
+def _on_sigterm(signum, frame):  # pragma: no cover - exercised in a subprocess test
+    raise Terminated(128 + signum)
+
+
+@click.group(cls=BoundkitGroup, context_settings={"help_option_names": ["-h", "--help"]})
+@click.version_option(__version__, prog_name="boundkit")
+@click.option("-v", "--verbose", count=True, help="More log output (-v info, -vv debug).")
+def main(verbose: int) -> None:
+    """boundkit: bound states of central potentials (Schrodinger, Klein-Gordon, Dirac)."""
+    level = logging.WARNING - 10 * min(verbose, 2)
+    logging.basicConfig(level=level, format="%(levelname)s %(name)s: %(message)s")
+    if verbose >= 2:
+        warnings.simplefilter("default", RuntimeWarning)
+
+
