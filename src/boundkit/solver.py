@@ -431,17 +431,29 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
         tally.notes.append("the count of levels below the threshold is 0 on a box of "
                            f"{1e4:g} natural lengths")
         return [], tally, [], 0.0, extra
-    # 1. fit the box to the highest level sought
+    # 1. fit the box to the highest level sought; when the layout it was fitted with already matches
+    # the levels found, that rung is the first rung of the ladder
     degrees = ladder_for(tol)
+    # Newton stops at steps far below tol (its error is then the square of that); counting is done
+    # only on the rung that is reported (the certificate makes its levels exactly the lowest ones,
+    # whatever happened on the rungs below, which only feed the error estimate)
+    rtol = min(1e-6, max(tol * 1e-4, 1e-17))
     R = _initial_radius(eq, pot, want, L)
     energies = [hi if math.isfinite(hi) else 2 * scale * (2 * want + eq.l + 1.5)]
+    trusted = False
+    if pot.tail_charge > 0 and not pot.confining:     # hydrogen-like guesses for the layout
+        zt = pot.tail_charge
+        energies = [-eq.mass * zt**2 / (2 * (eq.l + 1) ** 2), -eq.mass * zt**2 / (2 * (want + eq.l) ** 2)]
+        trusted = True
     E0 = energies[0] if math.isfinite(energies[0]) else 0.0
     rung = None
+    reuse = None
     for _attempt in range(16):
         edges, quiet = layout(eq, pot, sample, r_min, R, energies)
         _check_pole(eq, sample, r_min, R, energies)
-        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, min(8, degrees[0]), want, lo, hi, E0, scale,
-                          sure=False, certify=False, rtol=1e-10)
+        degree = degrees[0] if trusted and len(degrees) > 1 else min(8, degrees[0])
+        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
+                          sure=False, certify=False, rtol=rtol)
         got = list(rung.located.energies)
         if len(got) < want:
             if R < 1e9 * L and not pot.confining and rung.size < 4000:
@@ -453,23 +465,30 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
         need = _outer_radius(eq, pot, got[-1], L)
         new_energies = [got[0], got[-1]]
         E0 = 0.5 * (got[0] + got[-1])
+        close = len(energies) == 2 and all(abs(a - b) <= 0.25 * abs(b) for a, b in zip(energies, new_energies))
         if need > 1.05 * R or need < R / 2:
             R = 1.1 * need
-            energies = new_energies
+            energies, trusted = new_energies, True
             continue
+        if close and degree == degrees[0] and len(degrees) > 1:
+            reuse = (edges, quiet, rung)
         energies = new_energies
         break
     # 2. the ladder on a fixed layout
-    fitted = rung.located if rung is not None else None
-    edges, quiet = layout(eq, pot, sample, r_min, R, energies)
     extra["r_max"] = R
-    hist: list[list[float]] = []
-    rungs = []
+    if reuse is not None:
+        edges, quiet, first = reuse
+        rungs = [first]
+        hist: list[list[float]] = [[E] for E in first.located.energies]
+        ladder = degrees[1:]
+        fitted = None
+    else:
+        fitted = rung.located if rung is not None else None
+        edges, quiet = layout(eq, pot, sample, r_min, R, energies)
+        rungs = []
+        hist = []
+        ladder = degrees
     per_level = []
-    # Newton stops at steps far below tol (its error is then the square of that); counting is done
-    # only on the rung that is reported (the certificate makes its levels exactly the lowest ones,
-    # whatever happened on the rungs below, which only feed the error estimate)
-    rtol = min(1e-6, max(tol * 1e-4, 1e-17))
     offset = 0
 
     def finished():
@@ -478,7 +497,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
                     for h in hist[:want])
         return done, floor
 
-    for n in degrees:
+    for n in ladder:
         prev_loc = rungs[-1].located if rungs else fitted   # the box-fitting rung seeds the first one
         guesses = prev_loc.energies if prev_loc is not None and len(prev_loc.energies) == want else None
         top = prev_loc.E_top if guesses is not None else None
@@ -490,7 +509,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
                 hist.append([])
             hist[k].append(E)
         done, floor = finished() if len(rung.located.energies) == want else (False, False)
-        if not (done or floor or n == degrees[-1]):
+        if not (done or floor or n == ladder[-1]):
             E0 = 0.5 * (rung.located.energies[0] + rung.located.energies[-1]) if rung.located.energies else E0
             continue
         loc = certify_levels(rung.op, rung.located, want, lo, hi, scale)
