@@ -292,6 +292,9 @@ def test_hyperfine_bohr_weisskopf_sphere_against_exact_1s():
         den = mp.gamma(2 * g - 1) / (2 * Z) ** (2 * g - 1)
         eps = float(num / den)
     assert 1 - sphere.value / point.value == pytest.approx(eps, rel=1e-8)
+    bohr_fm = sc.physical_constants["Bohr radius"][0] * 1e15
+    in_fm = hyperfine_a(lv, mu_p, 0.5, magnetization_radius=R * bohr_fm, radius_unit="fm")
+    assert in_fm.value == pytest.approx(sphere.value, rel=1e-13)
 
 
 def test_magnetic_quantities_refuse_bad_input():
@@ -299,10 +302,16 @@ def test_magnetic_quantities_refuse_bad_input():
     dirac = _levels("dirac", 1, ("kappa", -1), 1).levels[0]
     with pytest.raises(ValueError, match="level: the g-factor needs a Dirac level"):
         g_factor(schr)
-    with pytest.raises(ValueError, match="nuclear_spin: must be a positive number"):
+    with pytest.raises(ValueError, match=r"nuclear_spin: must be a positive multiple of 1/2 .* got 0$"):
         hyperfine_a(dirac, 2.79, 0)
-    with pytest.raises(ValueError, match="magnetization_radius: must be > 0"):
+    with pytest.raises(ValueError, match=r"nuclear_spin: must be a positive multiple of 1/2 .* got 1.3$"):
+        hyperfine_a(dirac, 2.79, 1.3)
+    with pytest.raises(ValueError, match="nuclear_moment: must be finite"):
+        hyperfine_a(dirac, math.nan, 0.5)
+    with pytest.raises(ValueError, match=r"magnetization_radius: must be > 0 and finite \(bohr\), got -1"):
         hyperfine_a(dirac, 2.79, 0.5, magnetization_radius=-1.0)
+    with pytest.raises(ValueError, match="length_unit: unknown unit 'mile'"):
+        hyperfine_a(dirac, 2.79, 0.5, magnetization_radius=1.0, radius_unit="mile")
 
 
 def test_observables_record_in_length_unit():
