@@ -94,6 +94,16 @@ def test_density_at_origin_of_hydrogen_s_states():
     for lv in _levels("schrodinger", 1, ("l", 0), 5).levels:
         q = density_at_origin(lv)
         assert q.value == pytest.approx(4.0 / lv.n**3, rel=1e-10)
+        assert abs(q.value - 4.0 / lv.n**3) <= q.error + 1e-14, lv.label    # the estimate covers the error
+    # Dirac 1s: P^2 + Q^2 = 2 C^2 r^(2 gamma) e^(-2Zr), 2 C^2 = (2Z)^(2 gamma + 1) / Gamma(2 gamma + 1)
+    # (the exact 1s functions, see test_hyperfine_constant_is_fermi_times_breit_factor)
+    for Z in (1, 92):
+        q = density_at_origin(_levels("dirac", Z, ("kappa", -1), 1).levels[0])
+        g = math.sqrt(1 - (Z * ALPHA) ** 2)
+        exact = (2 * Z) ** (2 * g + 1) / math.gamma(2 * g + 1)
+        assert q.value == pytest.approx(exact, rel=1e-10)
+        assert abs(q.value - exact) <= q.error + 1e-14 * exact
+        assert q.unit == f"bohr^-{1 + 2 * g:.6g}"
 
 
 def test_matrix_element_hydrogen_1s_2p_and_orthogonality():
@@ -104,7 +114,7 @@ def test_matrix_element_hydrogen_1s_2p_and_orthogonality():
     one_s, two_s, two_p = s.level("1s"), s.level("2s"), p.level("2p")
     q = boundkit.matrix_element(one_s, two_p, lambda r: r)
     assert q.value == pytest.approx(128 * math.sqrt(6) / 243, rel=1e-12)
-    assert q.error < 1e-10
+    assert abs(q.value - 128 * math.sqrt(6) / 243) <= q.error + 1e-15 and q.error < 1e-10
     assert boundkit.matrix_element(two_p, one_s, lambda r: r).value == pytest.approx(q.value, rel=1e-13)
     assert abs(boundkit.matrix_element(one_s, two_s, lambda r: np.ones_like(r)).value) < 1e-12
     with pytest.raises(ValueError, match="f: give a vectorised function of r"):
@@ -232,7 +242,9 @@ def test_dirac_1s_g_factor_is_breits(Z):
     the citation from memory)."""
     lv = _levels("dirac", Z, ("kappa", -1), 1).levels[0]
     exact = (2 / 3) * (1 + 2 * math.sqrt(1 - (Z * ALPHA) ** 2))
-    assert g_factor(lv).value == pytest.approx(exact, rel=1e-12, abs=0)
+    g = g_factor(lv)
+    assert g.value == pytest.approx(exact, rel=1e-12, abs=0)
+    assert abs(g.value - exact) <= g.error + 1e-15 and g.error < 1e-11    # estimate from the ladder
 
 
 @pytest.mark.parametrize("kappa", [1, -2, 2])
@@ -262,6 +274,7 @@ def test_hyperfine_constant_is_fermi_times_breit_factor():
         fermi = (8 / 3) * Z**3 * ALPHA**2 * (mu_p / 0.5) * (sc.m_e / sc.m_p) / 2
         A = hyperfine_a(lv, mu_p, 0.5, energy_unit="hartree")
         assert A.value == pytest.approx(fermi / (g * (2 * g - 1)), rel=1e-11)
+        assert abs(A.value - fermi / (g * (2 * g - 1))) <= A.error + 1e-15 * A.value
 
 
 def test_hydrogen_ground_state_hyperfine_splitting():

@@ -310,14 +310,19 @@ def density_at_origin(level) -> Quantity:
     c = lim P^2 / r^(2 gamma) (+ Q^2 / r^(2 gamma) for Dirac). For Schrodinger
     s states (gamma = 1) |psi(0)|^2 = c / (4 pi). Klein-Gordon: the plain
     P^2 coefficient (the charge-density weight diverges at a point charge).
+    P / r^gamma is extrapolated to r = 0 linearly from the first two nodes; the
+    error estimate is the larger of the change from the previous resolution and
+    the difference to a quadratic extrapolation from three nodes (rounding in
+    the nodal values near r_min, which both resolutions share, shows there).
     """
-    def coef(s):
-        return origin_coefficient(s, "P") ** 2 + origin_coefficient(s, "Q") ** 2
+    def coef(s, points=2):
+        return origin_coefficient(s, "P", points) ** 2 + origin_coefficient(s, "Q", points) ** 2
 
     value = coef(level.state)
     prev = None if level.previous_state is None else coef(level.previous_state)
+    error = max(_estimate(value, prev), abs(coef(level.state, 3) - value))
     g = level.state.gamma
-    return Quantity("rho/r^(2 gamma) at 0", value, _estimate(value, prev), f"bohr^-{1 + 2 * g:.6g}",
+    return Quantity("rho/r^(2 gamma) at 0", value, error, f"bohr^-{1 + 2 * g:.6g}",
                     "P^2 coefficient" if level.state.density_weight is not None else "")
 
 
