@@ -81,6 +81,13 @@ def test_states_refuse_a_bad_suffix():
     assert r.output.strip().splitlines()[-1] == ("boundkit: error: states: file 'out.txt' must end in .csv or .npz")
     with pytest.raises(ValueError, match="states: file 'x.dat' must end in .csv or .npz"):
         read_states("x.dat")
+    import dataclasses
+
+    empty = dataclasses.replace(boundkit.solve("schrodinger", "coulomb", {"Z": 1}), levels=())
+    with pytest.raises(ValueError, match="states: the result has no levels to write"):
+        write_states(empty, "unused.csv")
+    with pytest.raises(ValueError, match="states: file 'unused.txt' must end in .csv or .npz"):
+        write_states(empty, "unused.txt")
 
 
 def test_transitions_command_table_and_json():

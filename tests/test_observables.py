@@ -121,6 +121,13 @@ def test_matrix_element_hydrogen_1s_2p_and_orthogonality():
         boundkit.matrix_element(one_s, two_p, 3.0)
     with pytest.raises(ValueError, match="kind: 'PQ' needs Dirac levels"):
         boundkit.matrix_element(one_s, two_p, lambda r: r, kind="PQ")
+    with pytest.raises(ValueError, match="kind: 'dipole' is not one of 'density', 'PQ', 'P2-Q2'"):
+        boundkit.matrix_element(one_s, two_p, lambda r: r, kind="dipole")
+    nan = lambda r: np.full_like(r, np.nan)  # noqa: E731
+    with pytest.raises(ValueError, match=r"f: the integral does not converge for this level \(check the power"):
+        expectation_value(one_s, nan)
+    with pytest.raises(ValueError, match="f: the integral does not converge for this level$"):
+        expectation_value(one_s, nan, breaks=(1.0,))
 
 
 # --- Dirac hydrogen-like <r>, <1/r>, <r^2> ------------------------------------------------

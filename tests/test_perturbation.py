@@ -83,3 +83,7 @@ def test_first_order_shift_refuses_a_non_callable():
     # a constant shift moves the level by exactly that constant
     assert first_order_shift(lv, lambda r: 0 * r + 1e-3).value == pytest.approx(1e-3, rel=1e-13)
     assert math.isfinite(first_order_shift(lv, lambda r: 1 / r).error)
+    kg = boundkit.solve("klein-gordon", "coulomb", {"Z": 1}).levels[0]
+    with pytest.raises(ValueError, match="scalar: the first-order shift of a scalar term is not implemented for "
+                                         "Klein-Gordon; compare exact solves instead"):
+        first_order_shift(kg, lambda r: 0 * r, scalar=True)

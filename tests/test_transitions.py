@@ -293,6 +293,14 @@ def test_transitions_refuse_bad_input():
     p = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=1).levels[0]
     with pytest.raises(ValueError, match="upper: 1s does not lie above 2p; swap them"):
         line(s, p, equation="schrodinger")
+    with pytest.raises(ValueError, match="multipole: only E1 is computed for the schrodinger equation"):
+        line(p, s, "M1", equation="schrodinger")
+    with pytest.raises(ValueError, match="equation: 'pauli' is not one of schrodinger, klein-gordon, dirac"):
+        line(p, s, equation="pauli")
+    with pytest.raises(ValueError, match="max_n: expected an integer, got 2.5"):
+        boundkit.transitions("schrodinger", max_n=2.5)
+    with pytest.raises(ValueError, match="wigner3j: arguments do not add to integers"):
+        wigner3j(0.5, 1, 1, 0.5, 0, -0.5)
     assert tr.lines
 
 
