@@ -378,3 +378,21 @@ def test_density_figure_labels_each_equations_density(monkeypatch, equation, lab
     assert label in fig.axes[0].get_ylabel()
     import matplotlib.pyplot as plt
     plt.close(fig)
+
+
+@pytest.mark.parametrize("equation, ylabel, kg", [("schrodinger", "P(r) = r R(r)", False),
+                                                   ("dirac", "P(r), Q(r)", False),
+                                                   ("klein-gordon", "P(r) = r R(r)", True)])
+def test_radial_figure_labels_each_equations_components(monkeypatch, equation, ylabel, kg):
+    from boundkit import plots
+
+    monkeypatch.setattr(plots, "save_figure", lambda fig, path: fig)
+    res = boundkit.solve(equation, "coulomb", {"Z": 20}, levels=1)
+    fig = plots.radial_figure(res.levels, "unused.png", title="t")
+    ax = fig.axes[0]
+    assert ylabel in ax.get_ylabel()
+    assert ("Klein-Gordon: P normalised with the charge density" in ax.get_title()) is kg
+    assert [t.get_text().split()[-1] for t in ax.get_legend().get_texts()][:2] == (
+        ["P", "Q"] if equation == "dirac" else ["P"] * min(2, len(ax.get_legend().get_texts())))
+    import matplotlib.pyplot as plt
+    plt.close(fig)
