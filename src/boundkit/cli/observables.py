@@ -83,8 +83,8 @@ def _format_lines(tr) -> str:
 @click.option("--max-n", type=int, default=2, show_default=True, help="Highest principal quantum number.")
 @click.option("--level", "levels", multiple=True, metavar="LABEL",
               help="Keep only these levels (repeatable), e.g. --level 1s --level 2p.")
-@click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2",
-              help="Multipoles (repeatable; default E1; M1 and E2 for Dirac only).")
+@click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2|M2",
+              help="Multipoles (repeatable; default E1; M1, E2 and M2 for Dirac only).")
 @energy_unit_option("eV", "Unit of line energies")
 @tol_option(1e-14)
 @method_option()
