@@ -143,7 +143,7 @@ def _exact_e1(upper, lower, Z):
 def test_dirac_e1_at_z92_against_independent_integration():
     """U91+ 2p1/2 -> 1s1/2: the solver's states and quadrature against exact Dirac states
     integrated by mpmath (same multipole formula; the formula itself is checked by gauge
-    invariance)."""
+    invariance and, without any multipole expansion, by test_dirac_lyman_alpha_full_rate_against_the_dirac_current)."""
     res = {kappa: boundkit.solve("dirac", "coulomb", {"Z": 92}, kappa=kappa, levels=1, tol=1e-13).levels[0]
            for kappa in (-1, 1)}
     ln = line(res[1], res[-1], "E1", equation="dirac")
