@@ -81,6 +81,13 @@ def test_states_refuse_a_bad_suffix():
     assert r.output.strip().splitlines()[-1] == ("boundkit: error: states: file 'out.txt' must end in .csv or .npz")
     with pytest.raises(ValueError, match="states: file 'x.dat' must end in .csv or .npz"):
         read_states("x.dat")
+    import dataclasses
+
+    empty = dataclasses.replace(boundkit.solve("schrodinger", "coulomb", {"Z": 1}), levels=())
+    with pytest.raises(ValueError, match="states: the result has no levels to write"):
+        write_states(empty, "unused.csv")
+    with pytest.raises(ValueError, match="states: file 'unused.txt' must end in .csv or .npz"):
+        write_states(empty, "unused.txt")
 
 
 def test_transitions_command_table_and_json():
@@ -125,3 +132,52 @@ def test_run_spec_solve_states_option_writes_csv(tmp_path):
     # hydrogen 2s: <r> = 6 bohr (Bethe and Salpeter 1957)
     assert np.sum(cols["weight"] * cols["r"] * cols["density"]) == pytest.approx(6 * LENGTH_UNITS["angstrom"],
                                                                                   rel=1e-9)
+
+
+def test_hyperfine_command_hydrogen_json_and_table():
+    """`boundkit hyperfine`: hydrogen 1s with the proton's moment and the reduced mass. Point dipole:
+    A = A_Fermi (mu/m)^3 / (gamma (2 gamma - 1)), A_Fermi = (8/3) alpha^2 (mu_p / I)(m_e / m_p) / 2 hartree
+    (Fermi 1930; relativistic factor Breit, Phys. Rev. 35, 1447 (1930); both from memory, the formula
+    also checked in tests/test_observables.py); g from Breit's 1s formula (Breit, Nature 122, 649 (1928),
+    from memory). Constants from scipy.constants."""
+    import math
+
+    import scipy.constants as sc
+
+    from boundkit.units import hartree_to
+
+    alpha = sc.fine_structure
+    mu_p = sc.physical_constants["proton mag. mom. to nuclear magneton ratio"][0]
+    m_p = sc.physical_constants["proton mass energy equivalent in MeV"][0]
+    r = run("hyperfine", "--nuclear-moment", repr(mu_p), "--nuclear-spin", "0.5", "--nucleus-mass-mev", repr(m_p),
+            "--json")
+    assert r.exit_code == 0, r.output
+    data = json.loads(r.output)
+    assert data["units"]["hyperfine_a"] == "MHz" and data["nucleus"]["magnetization"] == "point dipole"
+    (lv,) = data["levels"]
+    g = math.sqrt(1 - alpha**2)
+    fermi = (8 / 3) * alpha**2 * (mu_p / 0.5) * (sc.m_e / sc.m_p) / 2 / (1 + sc.m_e / sc.m_p) ** 3
+    assert lv["hyperfine_a"] == pytest.approx(float(hartree_to(fermi / (g * (2 * g - 1)), "MHz")), rel=1e-10)
+    assert lv["g_factor"] == pytest.approx((2 / 3) * (1 + 2 * g), rel=1e-12)
+    assert 0 < lv["errors"]["hyperfine_a"] < 1e-9 * lv["hyperfine_a"]
+    r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--param", "Z=80", "-n", "2",
+            "--magnetized-sphere-fm", "7", "--energy-unit", "eV")
+    assert r.exit_code == 0, r.output
+    assert "uniformly magnetized sphere, R = 7 fm" in r.output and "A in eV" in r.output
+    assert [ln.split()[0] for ln in r.output.splitlines()[-2:]] == ["1s1/2", "2s1/2"]
+
+
+def test_hyperfine_command_errors():
+    r = run("hyperfine", "--nuclear-spin", "0.5")
+    assert r.exit_code == 2
+    assert r.output.strip() == "boundkit: error: missing option '--nuclear-moment'; see boundkit hyperfine --help"
+    r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.3")
+    assert r.exit_code == 2
+    assert r.output.strip() == ("boundkit: error: nuclear_spin: must be a positive multiple of 1/2 (e.g. 0.5 for "
+                                "the proton), got 0.3")
+    r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--magnetized-sphere-fm", "0")
+    assert r.exit_code == 2
+    assert r.output.strip() == "boundkit: error: magnetization_radius: must be > 0 and finite (fm), got 0"
+    r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--energy-unit", "furlong")
+    assert r.exit_code == 2 and "boundkit: error: energy_unit: unknown unit 'furlong'" in r.output
+    assert "Traceback" not in r.output

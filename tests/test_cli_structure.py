@@ -68,7 +68,8 @@ def test_each_cli_module_imports_in_a_fresh_interpreter(name):
 
 def test_every_command_is_registered():
     assert set(boundkit.cli.main.commands) >= {"solve", "converge", "potentials", "validate", "run", "scan",
-                                                "critical", "compare", "transitions", "phases", "resonances"}
+                                                "critical", "compare", "transitions", "hyperfine", "phases",
+                                                "resonances"}
 
 
 def test_python_dash_m_runs_the_group():

@@ -38,6 +38,27 @@ def test_u91_1s_finite_size_first_order_vs_exact():
     assert cmp.relative_difference == pytest.approx(-0.445, abs=0.005)   # measured -0.4448
 
 
+def test_u91_1s_uniform_sphere_exact_solve_against_shooting_and_finite_differences():
+    """The exact U91+ 1s level behind the comparison above, checked the way tests/test_finite_nucleus.py
+    checks finite nuclei (the finite-difference family agrees within the estimates) and against the
+    independent shooting integration of tests/test_locator_shooting.py, matched at the nuclear surface
+    R (where the potential has its kink). Measured: -4853.88389396 hartree, shooting agrees to 2e-13."""
+    from test_locator_shooting import _matched_energy
+
+    params = {"Z": 92, "rms_fm": U238_RMS_FM}
+    lv = boundkit.solve("dirac", "uniform-sphere", params, kappa=-1, levels=1, tol=1e-12).levels[0]
+    fd = boundkit.solve("dirac", "uniform-sphere", params, kappa=-1, levels=1, tol=1e-10,
+                        method="finite-difference").levels[0]
+    assert abs(lv.energy - fd.energy) <= 2 * (lv.error_estimate + fd.error_estimate)
+    pot = boundkit.make_potential("uniform-sphere", params)
+    (R,) = pot.breakpoints
+    shot = _matched_energy(pot, -1, 1.0, lv.energy, 1e-8 * R, R, 40 / 92)
+    assert lv.energy == pytest.approx(shot, rel=1e-11)
+    (cmp,) = compare_shift("dirac", "coulomb", "uniform-sphere", {"Z": 92}, perturbed_params=params, kappa=-1,
+                           energy_unit="hartree")
+    assert cmp.base_energy + cmp.exact_shift == pytest.approx(shot, rel=1e-11)
+
+
 def test_light_ion_first_order_close_to_exact():
     """Z = 10, rms 3 fm: first order equals (2/3) Z^4 <r^2> / n^3 to O(Z R) and the exact shift
     to 3e-4 (Schrodinger; leading-order formula as in tests/test_finite_nucleus.py)."""
@@ -62,3 +83,7 @@ def test_first_order_shift_refuses_a_non_callable():
     # a constant shift moves the level by exactly that constant
     assert first_order_shift(lv, lambda r: 0 * r + 1e-3).value == pytest.approx(1e-3, rel=1e-13)
     assert math.isfinite(first_order_shift(lv, lambda r: 1 / r).error)
+    kg = boundkit.solve("klein-gordon", "coulomb", {"Z": 1}).levels[0]
+    with pytest.raises(ValueError, match="scalar: the first-order shift of a scalar term is not implemented for "
+                                         "Klein-Gordon; compare exact solves instead"):
+        first_order_shift(kg, lambda r: 0 * r, scalar=True)

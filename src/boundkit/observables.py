@@ -310,14 +310,19 @@ def density_at_origin(level) -> Quantity:
     c = lim P^2 / r^(2 gamma) (+ Q^2 / r^(2 gamma) for Dirac). For Schrodinger
     s states (gamma = 1) |psi(0)|^2 = c / (4 pi). Klein-Gordon: the plain
     P^2 coefficient (the charge-density weight diverges at a point charge).
+    P / r^gamma is extrapolated to r = 0 linearly from the first two nodes; the
+    error estimate is the larger of the change from the previous resolution and
+    the difference to a quadratic extrapolation from three nodes (rounding in
+    the nodal values near r_min, which both resolutions share, shows there).
     """
-    def coef(s):
-        return origin_coefficient(s, "P") ** 2 + origin_coefficient(s, "Q") ** 2
+    def coef(s, points=2):
+        return origin_coefficient(s, "P", points) ** 2 + origin_coefficient(s, "Q", points) ** 2
 
     value = coef(level.state)
     prev = None if level.previous_state is None else coef(level.previous_state)
+    error = max(_estimate(value, prev), abs(coef(level.state, 3) - value))
     g = level.state.gamma
-    return Quantity("rho/r^(2 gamma) at 0", value, _estimate(value, prev), f"bohr^-{1 + 2 * g:.6g}",
+    return Quantity("rho/r^(2 gamma) at 0", value, error, f"bohr^-{1 + 2 * g:.6g}",
                     "P^2 coefficient" if level.state.density_weight is not None else "")
 
 
@@ -401,7 +406,7 @@ NUCLEAR_MAGNETON_AU: float = 0.5 * ALPHA * sc.m_e / sc.m_p
 
 def hyperfine_a(level, nuclear_moment: float, nuclear_spin: float, *, mass: float = 1.0,
                 particle_mass: float | None = None, magnetization_radius: float | None = None,
-                energy_unit: str = "MHz") -> Quantity:
+                radius_unit: str = "bohr", energy_unit: str = "MHz") -> Quantity:
     """Magnetic dipole hyperfine constant A of a Dirac level.
 
     Parameters
@@ -417,8 +422,10 @@ def hyperfine_a(level, nuclear_moment: float, nuclear_spin: float, *, mass: floa
         the orbiting particle's own mass, in electron masses. The particle's
         magnetic moment goes with its own mass, so A is scaled by mass/particle_mass.
     magnetization_radius : float, optional
-        Radius (bohr) of a uniformly magnetized sphere (Bohr-Weisskopf effect);
-        None: point dipole.
+        Radius of a uniformly magnetized sphere (Bohr-Weisskopf effect), in
+        ``radius_unit``; None: point dipole.
+    radius_unit : str
+        Length unit of ``magnetization_radius`` (bohr, fm, pm, angstrom, nm).
     energy_unit : str
         Unit of the result (MHz by default; any energy unit).
 
@@ -429,8 +436,9 @@ def hyperfine_a(level, nuclear_moment: float, nuclear_spin: float, *, mass: floa
     is A [F(F+1) - I(I+1) - j(j+1)] / 2.
     """
     _need_dirac(level, "hyperfine constant")
-    if not (nuclear_spin > 0 and math.isfinite(nuclear_spin)):
-        raise ValueError("nuclear_spin: must be a positive number (e.g. 0.5 for the proton)")
+    if not (nuclear_spin > 0 and math.isfinite(nuclear_spin)) or abs(2 * nuclear_spin - round(2 * nuclear_spin)) > 1e-12:
+        raise ValueError(f"nuclear_spin: must be a positive multiple of 1/2 (e.g. 0.5 for the proton), "
+                         f"got {nuclear_spin:g}")
     if not math.isfinite(nuclear_moment):
         raise ValueError("nuclear_moment: must be finite (nuclear magnetons)")
     j = abs(level.kappa) - 0.5
@@ -440,9 +448,10 @@ def hyperfine_a(level, nuclear_moment: float, nuclear_spin: float, *, mass: floa
         F = lambda r: r**-2.0  # noqa: E731
         note = "point magnetic dipole"
     else:
-        R = float(magnetization_radius)
-        if not R > 0:
-            raise ValueError("magnetization_radius: must be > 0 (bohr)")
+        R = float(magnetization_radius) / LENGTH_UNITS[length_unit(radius_unit)]
+        if not (R > 0 and math.isfinite(R)):
+            raise ValueError(f"magnetization_radius: must be > 0 and finite ({radius_unit}), "
+                             f"got {magnetization_radius:g}")
         F = lambda r: np.where(r < R, r / R**3, 1.0 / np.maximum(r, R) ** 2)  # noqa: E731
         note = f"uniformly magnetized sphere, R = {R:.6g} bohr"
     q = expectation_value(level, F, kind="PQ", breaks=() if magnetization_radius is None else (R,))

@@ -178,18 +178,20 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
 
     Notes
     -----
-    P = r g and Q = r f are normalised to int (P^2 + Q^2) dr = 1; in a length
-    unit L they are drawn as P / sqrt(L) so that the normalisation holds on
-    the axis. The large component is a solid line, the small one dashed (and
-    drawn only for Dirac levels); circles mark the nodes of P.
+    P = r g and Q = r f are normalised to int (P^2 + Q^2) dr = 1 (Klein-Gordon:
+    int (E + mc^2 - V)/(mc^2) P^2 dr = 1, the charge density, said in the
+    title); in a length unit L they are drawn as P / sqrt(L) so that the
+    normalisation holds on the axis. The large component is a solid line, the
+    small one dashed (and drawn only for Dirac levels); circles mark the nodes of P.
     """
     unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
     norm = 1.0 / math.sqrt(scale)
     i = 0
-    have_q = have_nodes = False
+    have_q = have_nodes = have_kg = False
     for group, lvs in groups.items():
         for lv in lvs:
             st = lv.state
+            have_kg = have_kg or st.density_weight is not None
             comps = (st.P,) if st.Q is None else (st.P, st.Q)
             fine, smooth = _smooth(st.r, *comps, r_top=r_top / scale)
             colour = _colour(i)
@@ -210,7 +212,8 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
     ax.set_xlabel(f"r ({unit})")
     comp = "P(r), Q(r)" if have_q else "P(r) = r R(r)"
     ax.set_ylabel(f"radial function {comp} ({unit}$^{{-1/2}}$)")
-    ax.set_title(title or "radial functions" + (" (solid: large P, dashed: small Q)" if have_q else ""))
+    ax.set_title((title or "radial functions" + (" (solid: large P, dashed: small Q)" if have_q else ""))
+                 + ("\nKlein-Gordon: P normalised with the charge density" if have_kg else ""))
     ax.legend(fontsize=7, ncol=2 if i > 4 else 1)
     ax.grid(True, alpha=0.25)
     return save_figure(fig, path)

@@ -117,17 +117,23 @@ def _towards_origin(rn, fn, state, r, gamma: float):
     return h * (r + rc) ** g if rc > 0 else h
 
 
-def origin_coefficient(state, component: str = "P") -> float:
-    """lim_(r -> 0) component / r^gamma (bohr^(-1/2 - gamma)), extrapolated as in
-    :func:`_towards_origin`."""
+def origin_coefficient(state, component: str = "P", points: int = 2) -> float:
+    """lim_(r -> 0) component / r^gamma (bohr^(-1/2 - gamma)): h = P / r^gamma at the first
+    ``points`` nodes extrapolated to r = 0 by the polynomial through them (2: linear, as in
+    :func:`_towards_origin`; 3: quadratic)."""
     values = state.P if component == "P" else state.Q
     if values is None:
         return 0.0
-    rn = state.r
-    fn = values / _weight(rn, state.r_core, state.gamma)
+    rn = state.r[:points]
     rc, g = state.r_core, state.gamma
-    h0, h1 = (fn[:2] * (rn[:2] + rc) ** -g) if rc > 0 else fn[:2]
-    return float(h0 - (h1 - h0) / (rn[1] - rn[0]) * rn[0])
+    fn = values[:points] / _weight(rn, rc, g)
+    h = fn * (rn + rc) ** -g if rc > 0 else fn
+    # Lagrange polynomial through (rn, h) evaluated at 0
+    total = 0.0
+    for i in range(points):
+        others = np.delete(rn, i)
+        total += h[i] * float(np.prod(others / (others - rn[i])))
+    return float(total)
 
 
 def evaluate(state, r, component: str = "P") -> np.ndarray:

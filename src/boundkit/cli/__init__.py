@@ -8,7 +8,7 @@ One module per command group; the imports run one way (no cycle)::
     cli/options.py    options shared by several commands (defined once) and ``build_potential``
     cli/solve.py      solve                      cli/convergence.py  converge, validate
     cli/catalog.py    potentials                 cli/studies.py      scan, critical, compare
-    cli/run.py        run SPEC.toml              cli/observables.py  transitions (+ solve extras)
+    cli/run.py        run SPEC.toml              cli/observables.py  transitions, hyperfine (+ solve extras)
     cli/continuum.py  phases                     cli/resonances.py   resonances
 
 A command module defines its commands with ``@click.command`` and imports only
@@ -21,7 +21,7 @@ from .catalog import potentials_cmd
 from .continuum import phases_cmd
 from .convergence import converge_cmd, validate_cmd
 from .group import main
-from .observables import transitions_cmd
+from .observables import hyperfine_cmd, transitions_cmd
 from .resonances import resonances_cmd
 from .run import run_cmd
 from .solve import solve_cmd
@@ -30,6 +30,6 @@ from .studies import compare_cmd, critical_cmd, scan_cmd
 __all__ = ["main"]
 
 for _command in (solve_cmd, converge_cmd, potentials_cmd, validate_cmd, run_cmd, scan_cmd, critical_cmd,
-                 compare_cmd, transitions_cmd, phases_cmd, resonances_cmd):
+                 compare_cmd, transitions_cmd, hyperfine_cmd, phases_cmd, resonances_cmd):
     main.add_command(_command)
 del _command

@@ -1,6 +1,6 @@
-"""Command line for what the levels mean: ``boundkit transitions`` and the
-``--observables`` / ``--states`` extras of ``boundkit solve``. Parses, calls the
-public API, prints; no numerics here."""
+"""Command line for what the levels mean: ``boundkit transitions``, ``boundkit
+hyperfine`` and the ``--observables`` / ``--states`` extras of ``boundkit solve``.
+Parses, calls the public API, prints; no numerics here."""
 from __future__ import annotations
 
 import json
@@ -8,11 +8,11 @@ import sys
 
 import click
 
-from .common import EXIT_NOT_CONVERGED, fail, json_default
-from .options import (build_potential, energy_unit_option, equation_option, json_option, method_option,
-                      particle_options, potential_options, tol_option)
+from .common import EXIT_NOT_CONVERGED, check_particle, fail, json_default
+from .options import (build_potential, energy_unit_option, equation_option, json_option, levels_option,
+                      method_option, particle_options, potential_options, tol_option)
 
-__all__ = ["transitions_cmd", "observables_table", "add_observables", "write_states_file"]
+__all__ = ["transitions_cmd", "hyperfine_cmd", "observables_table", "add_observables", "write_states_file"]
 
 
 def _observables(res, length_unit: str):
@@ -83,8 +83,8 @@ def _format_lines(tr) -> str:
 @click.option("--max-n", type=int, default=2, show_default=True, help="Highest principal quantum number.")
 @click.option("--level", "levels", multiple=True, metavar="LABEL",
               help="Keep only these levels (repeatable), e.g. --level 1s --level 2p.")
-@click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2",
-              help="Multipoles (repeatable; default E1; M1 and E2 for Dirac only).")
+@click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2|M2",
+              help="Multipoles (repeatable; default E1; M1, E2 and M2 for Dirac only).")
 @energy_unit_option("eV", "Unit of line energies")
 @tol_option(1e-14)
 @method_option()
@@ -113,4 +113,79 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
         click.echo(_format_lines(tr))
     if tr.status != "ok":
         click.echo(f"boundkit: {tr.status}: {tr.message}", err=True)
+        sys.exit(EXIT_NOT_CONVERGED)
+
+
+def _magnetic_rows(res, moment: float, spin: float, radius_fm: float | None, unit: str) -> list[dict]:
+    """g and A of every level of a Dirac result (public API calls only)."""
+    from ..observables import g_factor, hyperfine_a, masses_of
+
+    mass, particle_mass = masses_of(res)
+    rows = []
+    for lv in res.levels:
+        g = g_factor(lv, mass)
+        a = hyperfine_a(lv, moment, spin, mass=mass, particle_mass=particle_mass,
+                        magnetization_radius=radius_fm, radius_unit="fm", energy_unit=unit)
+        rows.append({"label": lv.label, "n": lv.n, "kappa": lv.kappa, "j": lv.j, "energy_hartree": lv.energy,
+                     "g_factor": g.value, "hyperfine_a": a.value,
+                     "errors": {"g_factor": g.error, "hyperfine_a": a.error}})
+    return rows
+
+
+@click.command("hyperfine")
+@potential_options
+@click.option("--kappa", type=int, default=-1, show_default=True, help="Dirac kappa (-1 = s1/2, 1 = p1/2, ...).")
+@levels_option(1, what="Number of lowest levels")
+@click.option("--nuclear-moment", type=float, required=True, metavar="MU",
+              help="Nuclear magnetic moment in nuclear magnetons (proton: 2.79284734).")
+@click.option("--nuclear-spin", type=float, required=True, metavar="I", help="Nuclear spin I (0.5, 1, 1.5, ...).")
+@click.option("--magnetized-sphere-fm", "radius_fm", type=float, default=None, metavar="R",
+              help="Spread the moment over a uniformly magnetized sphere of radius R fm (Bohr-Weisskopf); "
+                   "default a point dipole.")
+@energy_unit_option("MHz", "Unit of A")
+@tol_option(1e-12, "Tolerance of the level solves.")
+@method_option()
+@particle_options()
+@json_option()
+def hyperfine_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
+                  table_r_unit, table_v_unit, params, unit_system, kappa, levels, nuclear_moment, nuclear_spin,
+                  radius_fm, energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
+    """Bound g-factor and magnetic dipole hyperfine constant A of Dirac levels
+    (Dirac values: no QED corrections, no anomalous moment of the particle)."""
+    from ..solver import solve
+    from ..units import energy_unit as canonical_energy_unit
+
+    check_particle(particle, mass_mev)
+    try:
+        unit = canonical_energy_unit(energy_unit)
+        vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
+                                                 table_tail_charge, table_origin, table_r_unit, table_v_unit,
+                                                 params)
+        res = solve("dirac", vector, values, kappa=kappa, levels=levels, tol=tol, method=method,
+                    particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
+                    scalar=scalar or None, units=unit_system)
+        rows = _magnetic_rows(res, nuclear_moment, nuclear_spin, radius_fm, unit)
+    except ValueError as exc:
+        fail(str(exc))
+    dipole = "point dipole" if radius_fm is None else f"uniformly magnetized sphere, R = {radius_fm:g} fm"
+    if as_json:
+        click.echo(json.dumps({"equation": res.equation, "potential": res.potential,
+                               "nucleus": {"moment_nuclear_magnetons": nuclear_moment, "spin": nuclear_spin,
+                                           "magnetization": dipole},
+                               "units": {"hyperfine_a": unit, "g_factor": "1", "energy": "hartree"},
+                               "status": res.status, "message": res.message, "levels": rows},
+                              default=json_default, indent=2))
+    else:
+        out = [f"dirac equation, potential {res.potential}; nucleus mu = {nuclear_moment:g} mu_N, I = "
+               f"{nuclear_spin:g}, {dipole}",
+               f"A in {unit}: a level F lies at A [F(F+1) - I(I+1) - j(j+1)] / 2; Dirac values (no QED, "
+               "no anomalous moment); +- the change from the previous resolution", "",
+               f"{'level':<8} {'g':>24} {'A':>28}"]
+        for row in rows:
+            err = row["errors"]
+            out.append(f"{row['label']:<8} {row['g_factor']:>15.12g} +-{err['g_factor']:>7.1g} "
+                       f"{row['hyperfine_a']:>19.12g} +-{err['hyperfine_a']:>7.1g}")
+        click.echo("\n".join(out))
+    if res.status != "ok":
+        click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
