@@ -77,6 +77,7 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
         ex = np.nan_to_num(ex, nan=0.0, posinf=1e300, neginf=-1e300)
         rate = r * np.sqrt(np.abs(ex))
         rho = np.maximum(rho, _rate_for(t, ex, rate))
+    rho = np.maximum(rho, _shape_rate(t, r, s))
     cum = np.concatenate(([0.0], np.cumsum(0.5 * (rho[1:] + rho[:-1]) * np.diff(t))))
     n_el = max(1, int(math.ceil(cum[-1] / _PHASE)))
     edges = list(np.interp(np.linspace(0, cum[-1], n_el + 1), cum, t))
@@ -101,6 +102,25 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
     phase = np.interp(out, t, cum)
     quiet = [bool(b - a < 0.5 * _PHASE) for a, b in zip(phase[:-1], phase[1:])]
     return out, quiet
+
+
+def _shape_rate(t, r, s):
+    """Resolution density the potential's own shape asks for: 5 sqrt(|g''| / max |g|), g = r (V + S),
+    '' = d^2/dt^2.
+
+    A Coulomb tail (g constant) asks for nothing; a nuclear surface of thickness a at radius R (a
+    Fermi or Woods-Saxon shape) asks for elements about pi a / R long in t there, which is the
+    distance of the shape's complex poles from the real t axis. Without it the levels converge
+    slowly and unevenly near the surface, and two rungs can agree by accident (measured: Fermi
+    Z = 82, an estimate 16 times below the true error).
+    """
+    with np.errstate(all="ignore"):
+        g = np.nan_to_num(r * (s.V + s.S), nan=0.0, posinf=0.0, neginf=0.0)
+        G = float(np.max(np.abs(g)))
+        if not np.isfinite(G) or G == 0.0:
+            return np.zeros_like(t)
+        d2 = np.gradient(np.gradient(g, t), t)
+        return np.nan_to_num(5.0 * np.sqrt(np.abs(d2) / G), nan=0.0, posinf=0.0)
 
 
 def _rate_for(t, ex, rate):
