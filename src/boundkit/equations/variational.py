@@ -71,8 +71,13 @@ class SymmetricOperator:
         self._pieces = {}
         self._build_batches(grid)
         self.M = self._dense(self._blocks(None, np.float64, mass=True))
-        K = self.symmetric(E_ref)
-        self.row_scale = 1.0 / np.maximum(np.abs(np.diag(K)), 1e-300)
+        diag = np.zeros(self.n)          # the diagonal of K(E_ref) alone (no dense assembly)
+        for bt, blk in zip(self._batches, self._blocks(E_ref, np.float64)):
+            d = np.diagonal(blk, axis1=1, axis2=2)
+            for par in (0, 1):
+                diag[bt["idx"][par::2]] += d[par::2]
+        diag[0] += self._sigma(E_ref)
+        self.row_scale = 1.0 / np.maximum(np.abs(diag[:-1]), 1e-300)
         self._scale_ext = self.row_scale.astype(np.longdouble)
         self._band_scale = None
         self._factor_cache = None
