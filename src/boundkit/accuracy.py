@@ -23,7 +23,8 @@ from ._checks import check_int, check_positive
 __all__ = ["converge", "ConvergenceResult", "observed_order"]
 
 DEFAULT_SIZES = {
-    "spectral": (16, 24, 32, 40, 48, 56, 64, 80, 96, 112, 128),
+    # the spectral family's sizes are element degrees (the layout fixes the number of elements)
+    "spectral": (4, 6, 8, 10, 12, 15, 18, 21, 24, 28, 32),
     "finite-difference": (100, 141, 200, 283, 400, 566, 800, 1131, 1600),
 }
 
@@ -92,7 +93,10 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
              tol: float = 1e-13, **kwargs) -> ConvergenceResult:
     """Convergence study of one channel.
 
-    Each level is solved on its own fixed mesh at every size of each family;
+    The spectral family is the one :func:`boundkit.solve` uses (spectral
+    elements on a fixed layout; ``sizes["spectral"]`` are element degrees and
+    the rows give the number of nodes); finite differences solve each level on
+    its own fixed mesh at every size;
     the reference is a spectral solve at relative tolerance ``tol`` (default
     1e-13, near the rounding floor, so that the errors measured against it are
     the discretization's). Equation, potential, params, l, kappa and levels
@@ -102,6 +106,32 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
     """
     with threadpool_limits(limits=1, user_api="blas"):
         return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs)
+
+
+def _element_rows(eq, pot, levels, tol, degrees, reference, rows, orders, local) -> None:
+    """The spectral-element family (the one :func:`boundkit.solve` uses) on its own layout at each
+    degree: rows keyed by the number of nodes, orders from the log-log slope in that number."""
+    from .solver import _solve_elements
+
+    _, _, per_level, _, _ = _solve_elements(eq, pot, levels, tol, degrees=sorted(set(int(d) for d in degrees)))
+    for rec in per_level:
+        label = rec["label"]
+        if label not in reference:
+            continue
+        Eref = reference[label]
+        got_sizes, errs, prev = [], [], None
+        for size, E in zip(rec["sizes"], rec["energies"]):
+            err = abs(E - Eref) / abs(Eref)
+            diff = math.nan if prev is None else abs(E - prev) / abs(Eref)
+            rows.append({"method": "spectral", "size": size, "label": label, "energy": E, "error": err,
+                         "difference": diff})
+            got_sizes.append(size)
+            errs.append(err)
+            prev = E
+        orders[("spectral", label)] = observed_order(got_sizes, errs)
+        s, e = np.log(got_sizes), np.log(np.maximum(errs, 1e-300))
+        local[("spectral", label)] = [float(-(e[i + 1] - e[i]) / (s[i + 1] - s[i]))
+                                      for i in range(len(s) - 1) if errs[i + 1] > 1e-13]
 
 
 def _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs):
@@ -115,6 +145,10 @@ def _converge(equation, potential, params, l, kappa, levels, methods, order, siz
     ch = prepare_channel(eq, pot, levels)
     rows, orders, local = [], {}, {}
     for mname in methods:
+        if mname == "spectral":
+            _element_rows(eq, pot, levels, tol, (sizes or DEFAULT_SIZES)["spectral"], reference, rows, orders,
+                          local)
+            continue
         disc = FiniteDifference(order) if mname == "finite-difference" else get_method(mname)
         for k, E0 in enumerate(ch.seeds[:levels]):
             label = ch.label(k)
@@ -139,5 +173,6 @@ def _converge(equation, potential, params, l, kappa, levels, methods, order, siz
             s, e = np.log(got_sizes), np.log(np.maximum(errs, 1e-300))
             local[(disc.name, label)] = [float(-(e[i + 1] - e[i]) / (s[i + 1] - s[i]))
                                          for i in range(len(s) - 1) if errs[i + 1] > 1e-13]
-    settings.update({"levels": levels, "methods": list(methods), "fd_order": order, "reference_tol": tol})
+    settings.update({"levels": levels, "methods": list(methods), "fd_order": order, "reference_tol": tol,
+                     "spectral_sizes": "element degrees; rows give the number of nodes"})
     return ConvergenceResult(eq.name, pot.name, reference, rows, orders, local, settings)

@@ -393,8 +393,12 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     return Channel(eq, pot, gamma, lo, hi, extra["L"], extra["r_min"], seeds, tally, extra)
 
 
-def _solve_elements(eq, pot, levels: int | None, tol: float):
-    """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`)."""
+def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
+    """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`).
+
+    ``degrees``: run exactly these rungs (a convergence study), with no early stop.
+    """
+    study = degrees is not None
     from .ladder import FLOOR, far_count, ladder_for, layout, solve_rung
     from .locator import certify_levels
 
@@ -433,7 +437,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
         return [], tally, [], 0.0, extra
     # 1. fit the box to the highest level sought; when the layout it was fitted with already matches
     # the levels found, that rung is the first rung of the ladder
-    degrees = ladder_for(tol)
+    degrees = tuple(degrees) if study else ladder_for(tol)
     # Newton stops at steps far below tol (its error is then the square of that); counting is done
     # only on the rung that is reported (the certificate makes its levels exactly the lowest ones,
     # whatever happened on the rungs below, which only feed the error estimate)
@@ -470,7 +474,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
             R = 1.1 * need
             energies, trusted = new_energies, True
             continue
-        if close and degree == degrees[0] and len(degrees) > 1:
+        if close and degree == degrees[0] and len(degrees) > 1 and not study:
             reuse = (edges, quiet, rung)
         energies = new_energies
         break
@@ -509,6 +513,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float):
                 hist.append([])
             hist[k].append(E)
         done, floor = finished() if len(rung.located.energies) == want else (False, False)
+        if study:
+            done = floor = False
         if not (done or floor or n == ladder[-1]):
             E0 = 0.5 * (rung.located.energies[0] + rung.located.energies[-1]) if rung.located.energies else E0
             continue
