@@ -25,8 +25,13 @@ __all__ = [
     "Particle",
     "PARTICLES",
     "ENERGY_UNITS",
+    "LENGTH_UNITS",
     "get_particle",
     "hartree_to",
+    "bohr_to",
+    "energy_unit",
+    "length_unit",
+    "system_units",
     "constants_record",
 ]
 
@@ -126,6 +131,36 @@ def energy_unit(name: str) -> str:
 def hartree_to(value, unit: str):
     """Convert an energy (or array) from hartree to ``unit``."""
     return value * ENERGY_UNITS[energy_unit(unit)]
+
+
+LENGTH_UNITS: Mapping[str, float] = {
+    "bohr": 1.0,
+    "fm": BOHR_M * 1e15,
+    "pm": BOHR_M * 1e12,
+    "angstrom": BOHR_M * 1e10,
+    "nm": BOHR_M * 1e9,
+}
+"""Length unit -> multiply a value in bohr by this factor (Bohr radius from scipy.constants)."""
+_LENGTH_ALIASES = {u.lower(): u for u in LENGTH_UNITS} | {"a0": "bohr", "a.u.": "bohr", "å": "angstrom",
+                                                          "ang": "angstrom"}
+
+
+def length_unit(name: str) -> str:
+    """Canonical spelling of a length unit, or ValueError naming the allowed ones."""
+    key = _LENGTH_ALIASES.get(str(name).strip().lower())
+    if key is None:
+        raise ValueError(f"length_unit: unknown unit {name!r}; choose one of {', '.join(LENGTH_UNITS)}")
+    return key
+
+
+def bohr_to(value, unit: str):
+    """Convert a length (or array) from bohr to ``unit``."""
+    return value * LENGTH_UNITS[length_unit(unit)]
+
+
+def system_units(system: str = "atomic") -> tuple[str, str]:
+    """(energy unit, length unit) of a unit system: hartree and bohr, or MeV and fm."""
+    return ("MeV", "fm") if system == "nuclear" else ("hartree", "bohr")
 
 
 def constants_record() -> dict:
