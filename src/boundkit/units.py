@@ -27,6 +27,7 @@ __all__ = [
     "ENERGY_UNITS",
     "LENGTH_UNITS",
     "get_particle",
+    "particle_table",
     "hartree_to",
     "bohr_to",
     "energy_unit",
@@ -58,11 +59,17 @@ class Particle:
         Rest energy in MeV.
     source : str
         Where the mass comes from.
+    charge : float, optional
+        Electric charge in units of the elementary charge e (None: not stated).
+    spin : float, optional
+        Spin in units of hbar (None: not stated).
     """
 
     name: str
     mass_mev: float
     source: str
+    charge: float | None = None
+    spin: float | None = None
 
     def __post_init__(self) -> None:
         check_positive("mass_mev", self.mass_mev)
@@ -78,14 +85,25 @@ def _codata_mass(key: str) -> float:
 
 
 _PDG = "Particle Data Group, Review of Particle Physics (value from memory; not in CODATA)"
+_CODATA = "CODATA via scipy.constants"
+# charges in e and spins in hbar are common knowledge; the negative mesons are the ones that form atoms
 PARTICLES: Mapping[str, Particle] = {
-    "electron": Particle("electron", _codata_mass("electron mass energy equivalent in MeV"), "CODATA via scipy.constants"),
-    "muon": Particle("muon", _codata_mass("muon mass energy equivalent in MeV"), "CODATA via scipy.constants"),
-    "pion": Particle("pion", 139.57039, _PDG),
-    "kaon": Particle("kaon", 493.677, _PDG),
-    "proton": Particle("proton", _codata_mass("proton mass energy equivalent in MeV"), "CODATA via scipy.constants"),
-    "antiproton": Particle("antiproton", _codata_mass("proton mass energy equivalent in MeV"), "CODATA via scipy.constants (equal to the proton mass)"),
+    "electron": Particle("electron", _codata_mass("electron mass energy equivalent in MeV"), _CODATA, -1.0, 0.5),
+    "muon": Particle("muon", _codata_mass("muon mass energy equivalent in MeV"), _CODATA, -1.0, 0.5),
+    "pion": Particle("pion", 139.57039, _PDG + "; the negative pion", -1.0, 0.0),
+    "kaon": Particle("kaon", 493.677, _PDG + "; the negative kaon", -1.0, 0.0),
+    "proton": Particle("proton", _codata_mass("proton mass energy equivalent in MeV"), _CODATA, 1.0, 0.5),
+    "antiproton": Particle("antiproton", _codata_mass("proton mass energy equivalent in MeV"),
+                           _CODATA + " (equal to the proton mass)", -1.0, 0.5),
+    "neutron": Particle("neutron", _codata_mass("neutron mass energy equivalent in MeV"), _CODATA, 0.0, 0.5),
+    "deuteron": Particle("deuteron", _codata_mass("deuteron mass energy equivalent in MeV"), _CODATA, 1.0, 1.0),
 }
+
+
+def particle_table() -> list[dict]:
+    """Every named particle as a record: name, mass (MeV/c^2), charge (e), spin (hbar), source."""
+    return [{"name": p.name, "mass": p.mass_mev, "mass_unit": "MeV/c^2", "charge": p.charge, "charge_unit": "e",
+             "spin": p.spin, "spin_unit": "hbar", "source": p.source} for p in PARTICLES.values()]
 
 
 def get_particle(particle: str | Particle | None = None, mass_mev: float | None = None) -> Particle:

@@ -1,0 +1,69 @@
+"""Labelling conventions (atomic, nuclear, quarkonium) and the particle list."""
+from __future__ import annotations
+
+import pytest
+import scipy.constants as sc
+
+import boundkit
+from boundkit.states import level_label, parse_label
+from boundkit.units import PARTICLES, get_particle, particle_table
+
+
+@pytest.mark.parametrize("nodes, l, j, atomic, nuclear, quarkonium", [
+    # atomic n = nodes + l + 1 (Bethe & Salpeter 1957); nuclear n_r = nodes (shell-model practice);
+    # quarkonium n = nodes + 1 (heavy-quarkonium practice, 1S 2S 1P)
+    (0, 0, 0.5, "1s1/2", "0s1/2", "1S1/2"),
+    (0, 1, 1.5, "2p3/2", "0p3/2", "1P3/2"),
+    (0, 1, 0.5, "2p1/2", "0p1/2", "1P1/2"),
+    (1, 0, None, "2s", "1s", "2S"),
+    (1, 1, None, "3p", "1p", "2P"),
+    (0, 2, 2.5, "3d5/2", "0d5/2", "1D5/2"),
+])
+def test_labels_in_three_conventions_and_back(nodes, l, j, atomic, nuclear, quarkonium):
+    for conv, want in (("atomic", atomic), ("nuclear", nuclear), ("quarkonium", quarkonium)):
+        assert level_label(nodes, l, j, conv) == want
+        assert parse_label(want, conv) == (nodes, l, j)
+
+
+@pytest.mark.parametrize("label, conv, match", [
+    ("1p", "atomic", r"n >= 2 .*atomic labels: n >= l \+ 1"),
+    ("0S", "quarkonium", r"n >= 1 .*quarkonium labels"),
+    ("-1s", "nuclear", "cannot read"),
+    ("1s", "molecular", "labels: unknown labelling convention 'molecular'; choose one of atomic, nuclear, quarkonium"),
+])
+def test_bad_labels_are_refused(label, conv, match):
+    with pytest.raises(ValueError, match=match):
+        parse_label(label, conv)
+
+
+def test_result_relabels_levels_and_diagnostics():
+    res = boundkit.solve("dirac", "woods-saxon", {"depth": 50, "radius": 5, "diffuseness": 0.6},
+                         scalar=None, units="nuclear", particle="proton", kappa=1, levels=2)
+    nuc = res.with_labels("nuclear")
+    assert [lv.label for lv in res.levels] == ["2p1/2", "3p1/2"]
+    assert [lv.label for lv in nuc.levels] == ["0p1/2", "1p1/2"]
+    assert [d["label"] for d in nuc.diagnostics["levels"]] == ["0p1/2", "1p1/2"]
+    assert nuc.settings["labels"] == "nuclear"
+    assert nuc.energies("MeV") == pytest.approx(res.energies("MeV"), rel=0)
+    assert res.with_labels("quarkonium").levels[1].label == "2P1/2"
+
+
+@pytest.mark.parametrize("name, key", [
+    ("electron", "electron mass energy equivalent in MeV"),
+    ("muon", "muon mass energy equivalent in MeV"),
+    ("proton", "proton mass energy equivalent in MeV"),
+    ("neutron", "neutron mass energy equivalent in MeV"),
+    ("deuteron", "deuteron mass energy equivalent in MeV"),
+])
+def test_particle_masses_are_codata(name, key):
+    assert get_particle(name).mass_mev == sc.physical_constants[key][0]   # CODATA via scipy.constants
+
+
+def test_particle_table_lists_every_particle_with_units():
+    rows = {r["name"]: r for r in particle_table()}
+    assert set(rows) == set(PARTICLES) >= {"neutron", "deuteron"}
+    assert rows["deuteron"]["spin"] == 1.0 and rows["deuteron"]["charge"] == 1.0   # common knowledge
+    assert rows["neutron"]["charge"] == 0.0
+    for r in rows.values():
+        assert r["mass_unit"] == "MeV/c^2" and r["charge_unit"] == "e" and r["spin_unit"] == "hbar"
+        assert r["source"]
