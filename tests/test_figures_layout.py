@@ -1,0 +1,90 @@
+"""Figures fit for a talk: level-scheme labels never overlap, colours are fixed per equation,
+scan axes follow the scanned range. Checked on the matplotlib renderer's text boxes."""
+from __future__ import annotations
+
+import itertools
+
+import numpy as np
+import pytest
+
+import boundkit
+from boundkit import palette, plots
+
+
+def _boxes(fig, texts):
+    fig.canvas.draw()
+    renderer = fig.canvas.get_renderer()
+    return [t.get_window_extent(renderer) for t in texts]
+
+
+def _overlaps(boxes):
+    return [(i, j) for (i, a), (j, b) in itertools.combinations(enumerate(boxes), 2) if a.overlaps(b)]
+
+
+@pytest.fixture(scope="module")
+def hydrogen_fine_structure():
+    """Dirac hydrogen n <= 4: levels 2s1/2 and 2p1/2 are degenerate (Dirac 1928) and the rest
+    differ by ~1e-5 of their energy: every label wants the same height."""
+    groups = {"dirac": [], "schrodinger": []}
+    for kappa in (-1, 1, -2, 2, -3):
+        groups["dirac"] += boundkit.solve("dirac", "coulomb", {"Z": 1}, kappa=kappa, levels=3).levels
+    for l in (0, 1, 2):
+        groups["schrodinger"] += boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=l, levels=3).levels
+    return groups
+
+
+def test_level_scheme_labels_do_not_overlap(hydrogen_fine_structure):
+    fig, ax = plots.plt.subplots(figsize=(6.5, 5.0))
+    texts = plots.draw_level_scheme(ax, hydrogen_fine_structure, energy_unit="eV")
+    assert len(texts) == sum(len(v) for v in hydrogen_fine_structure.values())
+    boxes = _boxes(fig, texts)
+    assert _overlaps(boxes) == []
+    # every label stays inside the axes
+    inside = ax.get_window_extent()
+    assert all(inside.y0 <= b.y0 and b.y1 <= inside.y1 for b in boxes)
+    # every label names its level and carries the energy with its unit
+    assert all(t.get_text().endswith(" eV") for t in texts)
+    # columns take the equations' fixed colours
+    colours = {t.get_color() for t in texts}
+    assert colours == {palette.EQUATION_COLOURS["dirac"], palette.EQUATION_COLOURS["schrodinger"]}
+    plots.plt.close(fig)
+
+
+def test_level_diagram_writes_log_r_panel_without_overlaps(hydrogen_fine_structure, tmp_path, monkeypatch):
+    kept = {}
+    real_save = plots.save_figure
+
+    def keep(fig, path):
+        kept["fig"] = fig
+        fig.canvas.draw()
+        kept["boxes"] = _boxes(fig, fig._boundkit_labels)
+        kept["xscale"] = fig.axes[0].get_xscale()
+        kept["xlabel"] = fig.axes[0].get_xlabel()
+        return real_save(fig, path)
+
+    monkeypatch.setattr(plots, "save_figure", keep)
+    from boundkit.potentials import make_potential
+    out = plots.level_diagram(make_potential("coulomb", {"Z": 1}), hydrogen_fine_structure, tmp_path / "l.png",
+                              energy_unit="eV", length_unit="angstrom")
+    assert out.exists() and out.stat().st_size > 10_000
+    assert _overlaps(kept["boxes"]) == []
+    assert kept["xscale"] == "log" and kept["xlabel"] == "r (angstrom, logarithmic)"
+
+
+@pytest.mark.parametrize("wanted, gap", [([0, 0, 0, 0], 1.0), ([0, 0.1, 5, 5.05, 5.1], 0.5),
+                                          (list(np.random.default_rng(3).normal(size=40)), 0.2)])
+def test_spread_labels_keeps_gaps_and_stays_close(wanted, gap):
+    y = plots.spread_labels(wanted, gap)
+    order = np.argsort(wanted, kind="stable")
+    assert np.all(np.diff(y[order]) >= gap * (1 - 1e-12))
+    # optimality of the pooled solution: each pool is centred on its targets (mean shift zero)
+    assert abs(np.mean(y) - np.mean(wanted)) < 1e-9
+    # labels that do not crowd stay where they are
+    far = plots.spread_labels([0.0, 10.0, 20.0], 1.0)
+    assert far.tolist() == [0.0, 10.0, 20.0]
+
+
+def test_equation_colours_are_fixed():
+    assert palette.equation_colour("Dirac") == palette.equation_colour("dirac: 1s1/2") == "#6b2d6b"
+    assert palette.equation_colour("model A", 3) == palette.SEQUENCE[3]
+    assert len(set(palette.EQUATION_COLOURS.values()) | set(palette.SEQUENCE)) == 13
