@@ -88,3 +88,66 @@ def test_equation_colours_are_fixed():
     assert palette.equation_colour("Dirac") == palette.equation_colour("dirac: 1s1/2") == "#6b2d6b"
     assert palette.equation_colour("model A", 3) == palette.SEQUENCE[3]
     assert len(set(palette.EQUATION_COLOURS.values()) | set(palette.SEQUENCE)) == 13
+
+
+@pytest.mark.parametrize("values, want", [
+    (np.geomspace(2, 8, 5), True),          # START:STOP:N:log spacing over a factor 4
+    (np.linspace(2, 8, 5), False),
+    (np.linspace(1, 100, 5), True),         # over a factor 20
+    ([-1.0, 1.0, 10.0], False),
+    ([3.0], False),
+])
+def test_log_axis_follows_the_spacing(values, want):
+    from boundkit.studies.figures import log_spaced
+    assert log_spaced(values) is want
+
+
+def _grab(monkeypatch, module):
+    kept = {}
+
+    def keep(fig, path):
+        ax = fig.axes[0]
+        kept.update(xscale=ax.get_xscale(), title=ax.get_title(), xlabel=ax.get_xlabel(), ylabel=ax.get_ylabel(),
+                    ylim=ax.get_ylim(), colours=[ln.get_color() for ln in ax.lines if ln.get_label()[:1] != "_"])
+        plots.plt.close(fig)
+        return path
+    monkeypatch.setattr(module, "save_figure", keep)
+    return kept
+
+
+def _synthetic_scan():
+    from boundkit.studies.scan import ScanResult
+    xs = tuple(np.geomspace(1, 16, 5))
+    rows = []
+    for eq, shift in (("schrodinger", 0.0), ("dirac", -1e-5)):
+        for x in xs:
+            rows.append({"D": x, "equation": eq, "channel": "l=0" if eq == "schrodinger" else "kappa=-1",
+                         "label": "1s" if eq == "schrodinger" else "1s1/2", "energy": -0.5 + 0.1 / x + shift,
+                         "error_estimate": 1e-14, "status": "ok", "message": ""})
+    return ScanResult(parameters=("D",), values={"D": xs}, rows=tuple(rows),
+                      settings={"equations": ["schrodinger", "dirac"], "potential": "yukawa"},
+                      parameter_units={"D": "bohr"})
+
+
+def test_scan_figure_axes_title_and_equation_colours(monkeypatch):
+    from boundkit.studies import figures
+    kept = _grab(monkeypatch, figures)
+    figures.scan_figure(_synthetic_scan(), "x.png", unit="eV")
+    assert kept["xscale"] == "log"
+    assert kept["xlabel"] == "D (bohr)" and kept["ylabel"] == "binding energy (eV)"
+    assert kept["title"] == "bound levels against D: yukawa (Schrodinger, Dirac equations)"
+    assert kept["colours"] == [palette.EQUATION_COLOURS["schrodinger"], palette.EQUATION_COLOURS["dirac"]]
+
+
+def test_difference_figure_spans_the_difference(monkeypatch):
+    """A 5 meV effect on -2.5 keV levels fills the axis (the issue's invisible shift)."""
+    from boundkit.studies import figures
+    kept = _grab(monkeypatch, figures)
+    x = np.linspace(0.5, 1.5, 6)
+    d = 5.0 + 0.1 * x                                    # meV
+    figures.difference_figure(x, d, "d.png", name="E(2p1/2) - E(2s1/2)", unit="meV", parameter="rms_fm",
+                              parameter_unit="fm")
+    lo, hi = kept["ylim"]
+    assert lo > 4.5 and hi < 5.7
+    assert kept["ylabel"] == "E(2p1/2) - E(2s1/2) (meV)" and kept["xlabel"] == "rms_fm (fm)"
+    assert kept["xscale"] == "linear"
