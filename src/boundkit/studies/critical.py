@@ -35,8 +35,8 @@ from .._checks import check_int, check_positive
 from ..discretize import get_method
 from ..solver import setup, solve_channel
 from ..units import C_AU, constants_record
-from ._common import (StudyError, canonical_equation, describe, rebuild_potential, resolve_params,
-                      seeded_level, state_channel)
+from ._common import (StudyError, canonical_equation, describe, parameter_units, rebuild_potential,
+                      resolve_params, seeded_level, state_channel)
 
 __all__ = ["critical", "CriticalResult"]
 
@@ -49,6 +49,11 @@ UNCERTAINTY_MEANING = (
     "the change between fits with successive numbers of terms plus the energy errors propagated through "
     "the fit, at least 4 ulp (double precision) and at most the distance to the farther end of the "
     "bracket (the level was solved bound at one end and not found at the other)")
+
+BRACKET_MEANING = (
+    "the bracket is the pair of solved values nearest the threshold (the level bound at the first, not "
+    "found at the second); the critical value is extrapolated to the threshold from the energies of the "
+    "bound points, so it is known far more precisely than the bracket is wide")
 
 
 def _digits(value: float, uncertainty: float) -> int:
@@ -101,6 +106,9 @@ class CriticalResult:
         Every evaluation: value, found, energy (hartree), error_estimate,
         via (``continuation`` or ``solver``), r_max (outer end of the
         level's mesh, bohr), seconds.
+    parameter_unit : str
+        Unit of the parameter ('' for a charge or a parameter of unknown
+        unit); ``value``, ``uncertainty`` and ``bracket`` are in it.
     """
 
     parameter: str
@@ -115,10 +123,16 @@ class CriticalResult:
     status: str = "ok"
     message: str = ""
     points: tuple = field(default_factory=tuple)
+    parameter_unit: str = ""
 
     @property
     def success(self) -> bool:
         return self.status == "ok"
+
+    @property
+    def bracket_meaning(self) -> str:
+        """One sentence saying what ``bracket`` is, and why it is wider than ``uncertainty``."""
+        return BRACKET_MEANING
 
     @property
     def uncertainty_meaning(self) -> str:
@@ -127,21 +141,25 @@ class CriticalResult:
 
     @property
     def value_text(self) -> str:
-        """``value +- uncertainty`` with as many digits as the uncertainty supports (6 to 16)."""
-        return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}"
+        """``value +- uncertainty unit`` with as many digits as the uncertainty supports (6 to 16)."""
+        unit = f" {self.parameter_unit}" if self.parameter_unit else ""
+        return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}{unit}"
 
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready record."""
         return {"parameter": self.parameter, "value": self.value, "uncertainty": self.uncertainty,
                 "state": self.state, "equation": self.equation, "kind": self.kind,
                 "uncertainty_meaning": self.uncertainty_meaning,
-                "bracket": list(self.bracket), "evaluations": self.evaluations, "status": self.status,
+                "bracket": list(self.bracket), "bracket_meaning": self.bracket_meaning,
+                "evaluations": self.evaluations, "status": self.status,
                 "message": self.message, "settings": self.settings, "constants": constants_record(),
-                "units": {"energy": "hartree", "length": "bohr"}, "points": [dict(p) for p in self.points]}
+                "units": {"parameter": self.parameter_unit or "1", "energy": "hartree", "length": "bohr",
+                          "time": "s"},
+                "points": [dict(p) for p in self.points]}
 
     def __repr__(self) -> str:
         return (f"CriticalResult({self.state} {self.equation}, {self.kind}: {self.parameter} = "
-                f"{self.value:.12g} +- {self.uncertainty:.2g}, status={self.status!r}, "
+                f"{self.value_text}, status={self.status!r}, "
                 f"{self.evaluations} evaluations)")
 
 
@@ -788,4 +806,6 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                                                 "seconds")})
     return CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
                           equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
-                          settings=settings, status=status, message=message, points=tuple(clean))
+                          settings=settings, status=status, message=message, points=tuple(clean),
+                          parameter_unit=parameter_units(potential, scalar, [vary],
+                                                         solve_kwargs.get("units", "atomic"))[vary])
