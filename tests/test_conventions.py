@@ -67,3 +67,22 @@ def test_particle_table_lists_every_particle_with_units():
     for r in rows.values():
         assert r["mass_unit"] == "MeV/c^2" and r["charge_unit"] == "e" and r["spin_unit"] == "hbar"
         assert r["source"]
+
+
+def test_label_sort_key_puts_p12_before_p32():
+    from boundkit.states import label_sort_key
+    labels = ["3s1/2", "2p3/2", "2p1/2", "1s1/2", "dirac:2s1/2", "odd"]
+    assert sorted(labels, key=label_sort_key) == ["1s1/2", "dirac:2s1/2", "2p1/2", "2p3/2", "3s1/2", "odd"]
+    assert sorted(["0p3/2", "1s1/2", "0p1/2"], key=lambda s: label_sort_key(s, "nuclear")) == \
+        ["0p1/2", "0p3/2", "1s1/2"]
+
+
+def test_zero_differences_print_as_zero_and_others_with_supported_digits():
+    from boundkit.reporting import difference_error, format_difference
+    # two equal levels (Dirac 2s1/2 and 2p1/2 of a point nucleus are degenerate; Dirac 1928): rounding noise
+    a, b = -34.21106000000004, -34.21106
+    err = difference_error(a, b, 1e-13, 1e-13)
+    assert format_difference(a - b, err) == "0"
+    # a real shift keeps the digits its estimate supports and no more
+    assert format_difference(0.19902934567, difference_error(-132.08, -132.279, 1e-9, 1e-9)) == "0.199029346"
+    assert format_difference(-5.0, 0.0) == "-5"

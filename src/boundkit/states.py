@@ -26,7 +26,7 @@ import re
 import numpy as np
 
 __all__ = ["count_nodes", "principal_n", "normalise", "LABEL_CONVENTIONS", "level_label", "parse_label",
-           "check_convention"]
+           "check_convention", "label_sort_key"]
 
 LABEL_CONVENTIONS = ("atomic", "nuclear", "quarkonium")
 """Names of the labelling conventions (see the module docstring)."""
@@ -149,3 +149,18 @@ def normalise(w_dr: np.ndarray, *components: np.ndarray, weight=None):
     if big.size and P[big[0]] < 0:
         scale = -scale
     return tuple(c * scale for c in components), norm
+
+
+def label_sort_key(label: str, labels: str = "atomic") -> tuple:
+    """Sort key of a label: n, then l, then j (``2s`` < ``2p1/2`` < ``2p3/2`` < ``3s``).
+
+    A label that cannot be read sorts after all the others, by its text.
+    An optional equation prefix (``dirac:2p1/2``) is ignored.
+    """
+    text = str(label).rpartition(":")[2]
+    try:
+        nodes, l, j = parse_label(text, labels)
+    except ValueError:
+        return (1, 0, 0, 0.0, str(label))
+    return (0, _n_of(nodes, l, check_convention(labels)), l, 0.0 if j is None else j, str(label))
+
