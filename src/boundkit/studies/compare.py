@@ -16,6 +16,7 @@ from typing import Any, Mapping
 from .._checks import MAX_L, check_count, check_int, check_positive
 from ..equations.base import letter
 from ..solver import solve
+from ..reporting import difference_error, format_difference
 from ..units import constants_record, energy_unit, hartree_to
 from ._common import describe
 
@@ -39,7 +40,7 @@ def _pair(row, a, b):
     ea, eb = row.get(a), row.get(b)
     if ea is None or eb is None:
         return None, None
-    return ea - eb, row[a + "_error"] + row[b + "_error"]
+    return ea - eb, difference_error(ea, eb, row[a + "_error"], row[b + "_error"])
 
 
 @dataclass(frozen=True, repr=False)
@@ -117,11 +118,18 @@ class CompareResult:
         for r in self.rows:
             lines.append(f"{r['label']:<6} " + " ".join(fmt(r[k], unit) for k in _ENERGY_KEYS))
         lines += ["", f"differences in {sunit} (relativistic shifts from Schrodinger; fine structure "
-                      "E(j=l+1/2) - E(j=l-1/2); spin-1/2 minus spin-0)",
+                      "E(j=l+1/2) - E(j=l-1/2); spin-1/2 minus spin-0; 0 = within the error estimate, "
+                      "digits as the estimate supports)",
                   f"{'level':<6} {'KG - S':>18} {'D(l+1/2) - S':>18} {'D(l-1/2) - S':>18} {'fine structure':>18} "
                   f"{'D(l+1/2) - KG':>18} {'D(l-1/2) - KG':>18} {'centroid - KG':>18}"]
+        def fmt_diff(r, k, w=18):
+            if r[k] is None:
+                return f"{'-':>{w}}"
+            text = format_difference(hartree_to(r[k], sunit), hartree_to(r[k + "_error"] or 0.0, sunit))
+            return f"{text:>{w}}"
+
         for r in self.rows:
-            lines.append(f"{r['label']:<6} " + " ".join(fmt(r[k], sunit, 18) for k in _DIFF_KEYS))
+            lines.append(f"{r['label']:<6} " + " ".join(fmt_diff(r, k) for k in _DIFF_KEYS))
         bad = {k: v for k, v in self.statuses.items() if v != "ok"}
         lines += ["", "status: ok" if not bad else
                   "status: " + "; ".join(f"{k}: {v}" for k, v in bad.items())]
