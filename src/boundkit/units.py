@@ -33,6 +33,7 @@ __all__ = [
     "energy_unit",
     "length_unit",
     "system_units",
+    "column",
     "constants_record",
 ]
 
@@ -174,6 +175,16 @@ def length_unit(name: str) -> str:
 def bohr_to(value, unit: str):
     """Convert a length (or array) from bohr to ``unit``."""
     return value * LENGTH_UNITS[length_unit(unit)]
+
+
+def column(name: str, unit: str) -> str:
+    """CSV column name carrying its unit: ``energy_MeV``, ``delta_per_bohr``; ``name`` alone when unitless."""
+    unit = str(unit or "").strip()
+    if unit in ("", "1", "e"):
+        return name
+    unit = unit.replace(" ", "")
+    unit = ("per_" + unit[2:]) if unit.startswith("1/") else unit
+    return f"{name}_{unit.replace('/', '_per_')}"
 
 
 def system_units(system: str = "atomic") -> tuple[str, str]:

@@ -39,7 +39,7 @@ import numpy as np
 from .._checks import MAX_GRID_POINTS, check_count, check_int, check_positive, check_workers
 from .._checks import shorten
 from ..solver import solve
-from ..units import constants_record, hartree_to
+from ..units import column, constants_record, hartree_to
 from . import _common
 from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, describe,
                       expected_labels, parameter_units, rebuild_potential, resolve_params,
@@ -237,7 +237,8 @@ class ScanResult:
                     r[k] = float(hartree_to(r[k], unit))
             rows.append(r)
         return {"parameters": list(self.parameters), "values": {k: list(v) for k, v in self.values.items()},
-                "parameter_units": self.parameter_units, "units": {"energy": unit, "length": "bohr"},
+                "parameter_units": self.parameter_units,
+                "units": {"energy": unit, "length": "bohr", "time": "s", "parameters": self.parameter_units},
                 "settings": self.settings, "constants": constants_record(), "rows": rows,
                 "solved": self.solved, "reused": self.reused, "seconds": self.seconds}
 
@@ -245,8 +246,8 @@ class ScanResult:
         """The rows as CSV text (energies in ``unit``, empty when absent)."""
         buf = io.StringIO()
         u = "hartree" if unit == "hartree" else unit
-        cols = [*self.parameters, "equation", "channel", "label", f"energy_{u}", f"error_estimate_{u}",
-                "status", "message"]
+        cols = [*(column(p, self.parameter_units.get(p, "")) for p in self.parameters), "equation", "channel",
+                "label", column("energy", u), column("error_estimate", u), "status", "message"]
         w = csv.writer(buf, lineterminator="\n")
         w.writerow(cols)
         for r in self.rows:
