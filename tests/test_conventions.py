@@ -86,3 +86,16 @@ def test_zero_differences_print_as_zero_and_others_with_supported_digits():
     # a real shift keeps the digits its estimate supports and no more
     assert format_difference(0.19902934567, difference_error(-132.08, -132.279, 1e-9, 1e-9)) == "0.199029346"
     assert format_difference(-5.0, 0.0) == "-5"
+
+
+def test_studies_take_a_labelling_convention():
+    ws = {"depth": 50, "radius": 5, "diffuseness": 0.6}
+    sc_ = boundkit.scan("schrodinger", "woods-saxon", ws, vary={"depth": [45, 50]}, channels=[{"l": 1}],
+                        levels=1, units="nuclear", particle="proton", labels="nuclear", workers=1)
+    assert {r["label"] for r in sc_.rows} == {"0p"} and sc_.settings["labels"] == "nuclear"
+    cmp_ = boundkit.compare("coulomb", {"Z": 1}, l_max=1, levels=1, labels="quarkonium")
+    assert [r["label"] for r in cmp_.rows] == ["1S", "1P"]
+    # the Hulthen 1s (nuclear 0s) unbinds at delta = 2 Z (Flugge, Practical Quantum Mechanics, 1971)
+    crit = boundkit.critical("schrodinger", "hulthen", {"Z": 1, "delta": 1.5}, state="0s", vary="delta",
+                             labels="nuclear")
+    assert crit.state == "0s" and crit.value == pytest.approx(2.0, rel=1e-7)

@@ -26,7 +26,7 @@ import re
 import numpy as np
 
 __all__ = ["count_nodes", "principal_n", "normalise", "LABEL_CONVENTIONS", "level_label", "parse_label",
-           "check_convention", "label_sort_key"]
+           "check_convention", "label_sort_key", "convert_label"]
 
 LABEL_CONVENTIONS = ("atomic", "nuclear", "quarkonium")
 """Names of the labelling conventions (see the module docstring)."""
@@ -163,4 +163,11 @@ def label_sort_key(label: str, labels: str = "atomic") -> tuple:
     except ValueError:
         return (1, 0, 0, 0.0, str(label))
     return (0, _n_of(nodes, l, check_convention(labels)), l, 0.0 if j is None else j, str(label))
+
+
+def convert_label(label: str, to: str, frm: str = "atomic") -> str:
+    """A label written in convention ``frm`` rewritten in convention ``to`` (``2p1/2`` -> ``0p1/2``)."""
+    if check_convention(to) == check_convention(frm):
+        return str(label)
+    return level_label(*parse_label(label, frm), labels=to)
 

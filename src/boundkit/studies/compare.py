@@ -17,6 +17,7 @@ from .._checks import MAX_L, check_count, check_int, check_positive
 from ..equations.base import letter
 from ..solver import solve
 from ..reporting import difference_error, format_difference
+from ..states import check_convention, convert_label
 from ..units import constants_record, energy_unit, hartree_to
 from ._common import describe
 
@@ -141,7 +142,8 @@ class CompareResult:
 
 def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 1, levels: int = 2,
             particle: str | None = None, mass_mev: float | None = None, tol: float = 1e-10,
-            method: str = "auto", scalar=None, max_l_max: int = MAX_L, **solve_kwargs) -> CompareResult:
+            method: str = "auto", scalar=None, max_l_max: int = MAX_L, labels: str = "atomic",
+            **solve_kwargs) -> CompareResult:
     """Schrodinger, Klein-Gordon and Dirac levels of one potential side by side.
 
     Parameters
@@ -162,6 +164,9 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
         equations.
     tol : float
         Relative tolerance of each binding energy.
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        Labelling convention of the rows (``2p``, ``0p`` or ``1P``;
+        :mod:`boundkit.states`).
     method, scalar, **solve_kwargs
         As for :func:`boundkit.solve` (``nucleus_mass_mev``, ``units``, ``order``).
 
@@ -181,13 +186,15 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
         centroid = [(2l + 2) E(j = l + 1/2) + 2l E(j = l - 1/2)] / (4l + 2),
         spin difference = E_Dirac - E_Klein-Gordon.
 
-    Error estimates of differences are the sums of the two levels' estimates.
+    Error estimates of differences are the sums of the two levels' estimates
+    plus the rounding of the subtraction (:mod:`boundkit.reporting`).
     Use a frequency unit (``'MHz'``, ``'GHz'``) for small splittings.
     """
     l_max = check_count("l_max", check_int("l_max", l_max, minimum=0), check_int("max_l_max", max_l_max, minimum=0),
                         "max_l_max= (API)", "")
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
+    labels = check_convention(labels)
     common = dict(params=params, levels=levels, tol=tol, method=method, particle=particle, mass_mev=mass_mev,
                   scalar=scalar, **solve_kwargs)
     by_label: dict[str, dict] = {}
@@ -237,6 +244,8 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
         log.warning("compare: levels not found in every equation: %s", ", ".join(missing))
     settings.update({"potential": describe(potential), "scalar": describe(scalar),
                      "params": dict(params or {}), "l_max": l_max, "levels": levels, "tol": tol,
-                     "method": method, "mass_mev": mass_mev,
+                     "method": method, "mass_mev": mass_mev, "labels": labels,
                      "solve_kwargs": dict(solve_kwargs)})
+    for row in rows:
+        row["label"] = convert_label(row["label"], labels)
     return CompareResult(rows=tuple(rows), statuses=statuses, settings=settings)

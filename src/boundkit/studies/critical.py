@@ -34,6 +34,7 @@ import numpy as np
 from .._checks import check_int, check_positive
 from ..discretize import get_method
 from ..solver import setup, solve_channel
+from ..states import convert_label
 from ..units import C_AU, constants_record
 from ._common import (StudyError, canonical_equation, describe, parameter_units, rebuild_potential,
                       resolve_params, seeded_level, state_channel)
@@ -341,7 +342,7 @@ def _single_threaded_blas(func):
 def critical(equation: str, potential, params: Mapping[str, Any] | None, *, state: str, vary: str,
              bracket: tuple[float, float] | None = None, tol: float = 1e-8, kind: str | None = None,
              energy_tol: float = 1e-10, bracket_rtol: float = 1e-2, max_evaluations: int = 40,
-             method: str = "auto", scalar=None,
+             method: str = "auto", scalar=None, labels: str = "atomic",
              **solve_kwargs) -> CriticalResult:
     """Critical value of a parameter at which a level unbinds or dives.
 
@@ -378,6 +379,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         bracket is tight on both sides.
     max_evaluations : int
         Budget of parameter values solved (default 40).
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        Labelling convention of ``state`` and of the result (``2p1/2``,
+        ``0p1/2`` or ``1P1/2``; :mod:`boundkit.states`).
     method, scalar, **solve_kwargs
         As for :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
@@ -452,7 +456,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     it). Near the lower continuum a Coulomb tail keeps the level compact.
     """
     eqname = canonical_equation(equation)
-    channel, k, label = state_channel(eqname, state)
+    channel, k, label = state_channel(eqname, convert_label(state, "atomic", frm=labels))
+    label = convert_label(label, labels)
     tol = check_positive("tol", tol)
     energy_tol = check_positive("energy_tol", energy_tol)
     bracket_rtol = check_positive("bracket_rtol", bracket_rtol)

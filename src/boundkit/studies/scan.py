@@ -38,6 +38,7 @@ import numpy as np
 
 from .._checks import MAX_GRID_POINTS, check_count, check_int, check_positive, check_workers
 from .._checks import shorten
+from ..states import check_convention, convert_label
 from ..solver import solve
 from ..units import column, constants_record, hartree_to
 from . import _common
@@ -490,7 +491,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
          scheduler=None, out: str | os.PathLike | None = None,
          progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
          max_points: int = MAX_GRID_POINTS, scheduler_timeout: float = DASK_TIMEOUT,
-         **solve_kwargs) -> ScanResult:
+         labels: str = "atomic", **solve_kwargs) -> ScanResult:
     """Bound levels over a grid of one or two potential parameters.
 
     Parameters
@@ -552,6 +553,9 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         Most points (values x values x equations x channels) the scan may
         have, default 10000 (:data:`boundkit._checks.MAX_GRID_POINTS`); raise
         it for a larger grid.
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        Labelling convention of the rows (``2p1/2``, ``0p1/2`` or ``1P1/2``;
+        :mod:`boundkit.states`).
     **solve_kwargs
         Passed to :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
@@ -582,6 +586,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     equations = list(dict.fromkeys(canonical_equation(e) for e in equations))
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
+    labels = check_convention(labels)
     scheduler_timeout = check_positive("scheduler_timeout", scheduler_timeout)
     workers = check_workers(workers)
     max_points = check_int("max_points", max_points, minimum=1)
@@ -687,9 +692,11 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     rows = []
     for t in tasks:
         rows.extend(_rows_for(t, records[t["key"]]))
+    if labels != "atomic":
+        rows = [{**r, "label": convert_label(r["label"], labels)} for r in rows]
     settings = {"equations": equations, "channels": [c for _, c in pairs], "potential": describe(potential),
                 "scalar": describe(scalar), "params": {k: (repr(v) if callable(v) else v) for k, v in params.items()},
-                "levels": levels, "tol": tol, "method": method,
+                "levels": levels, "tol": tol, "method": method, "labels": labels,
                 "solve_kwargs": {k: v for k, v in solve_kwargs.items()},
                 "backend": "dask" if scheduler is not None else "local",
                 "resume": resume if outdir is not None else "off: no out folder", "code": _common.code_version()}
