@@ -99,3 +99,36 @@ def test_studies_take_a_labelling_convention():
     crit = boundkit.critical("schrodinger", "hulthen", {"Z": 1, "delta": 1.5}, state="0s", vary="delta",
                              labels="nuclear")
     assert crit.state == "0s" and crit.value == pytest.approx(2.0, rel=1e-7)
+
+
+def test_particles_command_lists_mass_charge_spin_and_source():
+    import json
+
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+    out = CliRunner().invoke(main, ["particles"])
+    assert out.exit_code == 0, out.output
+    head, *rows = out.output.splitlines()
+    assert "mass (MeV/c^2)" in head and "charge (e)" in head and "spin (hbar)" in head
+    line = next(r for r in rows if r.startswith("deuteron"))
+    # CODATA via scipy.constants, printed to 12 significant digits
+    assert float(line.split()[1]) == pytest.approx(
+        sc.physical_constants["deuteron mass energy equivalent in MeV"][0], rel=1e-11)
+    data = json.loads(CliRunner().invoke(main, ["particles", "--json"]).output)
+    assert data["units"] == {"mass": "MeV/c^2", "charge": "e", "spin": "hbar"}
+    assert {p["name"] for p in data["particles"]} >= {"neutron", "deuteron"}
+
+
+def test_solve_labels_option():
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+    out = CliRunner().invoke(main, ["solve", "-e", "dirac", "--param", "Z=1", "--kappa", "-2", "--levels", "2",
+                                    "--labels", "nuclear"])
+    assert out.exit_code == 0, out.output
+    assert "nuclear labels: n = radial nodes, counted from 0" in out.output
+    rows = [x.split()[0] for x in out.output.splitlines() if x[:1].isdigit()]
+    assert rows == ["0p3/2", "1p3/2"]
+    bad = CliRunner().invoke(main, ["solve", "--labels", "spectroscopic"])
+    assert bad.exit_code == 2 and "boundkit: error:" in bad.output and "'spectroscopic' is not one of" in bad.output

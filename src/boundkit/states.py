@@ -26,7 +26,7 @@ import re
 import numpy as np
 
 __all__ = ["count_nodes", "principal_n", "normalise", "LABEL_CONVENTIONS", "level_label", "parse_label",
-           "check_convention", "label_sort_key", "convert_label"]
+           "check_convention", "label_sort_key", "convert_label", "level_n"]
 
 LABEL_CONVENTIONS = ("atomic", "nuclear", "quarkonium")
 """Names of the labelling conventions (see the module docstring)."""
@@ -46,6 +46,11 @@ def check_convention(labels: str) -> str:
 
 def _n_of(nodes: int, l: int, convention: str) -> int:
     return {"atomic": nodes + l + 1, "nuclear": nodes, "quarkonium": nodes + 1}[convention]
+
+
+def level_n(nodes: int, l: int, labels: str = "atomic") -> int:
+    """The number n of a label in convention ``labels`` (atomic nodes + l + 1, nuclear nodes, quarkonium nodes + 1)."""
+    return _n_of(nodes, l, check_convention(labels))
 
 
 def level_label(nodes: int, l: int, j: float | None = None, labels: str = "atomic") -> str:
