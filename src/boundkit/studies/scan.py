@@ -41,6 +41,7 @@ from .._checks import shorten
 from ..states import check_convention, convert_label
 from ..solver import solve
 from ..units import column, constants_record, hartree_to
+from ..units import energy_unit as _energy_unit
 from . import _common
 from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, describe,
                       expected_labels, parameter_units, rebuild_potential, resolve_params,
@@ -491,7 +492,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
          scheduler=None, out: str | os.PathLike | None = None,
          progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
          max_points: int = MAX_GRID_POINTS, scheduler_timeout: float = DASK_TIMEOUT,
-         labels: str = "atomic", **solve_kwargs) -> ScanResult:
+         labels: str = "atomic", energy_unit: str | None = None, **solve_kwargs) -> ScanResult:
     """Bound levels over a grid of one or two potential parameters.
 
     Parameters
@@ -556,6 +557,10 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     labels : {'atomic', 'nuclear', 'quarkonium'}
         Labelling convention of the rows (``2p1/2``, ``0p1/2`` or ``1P1/2``;
         :mod:`boundkit.states`).
+    energy_unit : str, optional
+        Unit of the energies in ``scan.csv`` and ``scan.json`` under ``out``
+        (default hartree; MeV with ``units='nuclear'``); the result itself
+        keeps hartree (convert with ``series(..., unit=)``, ``to_csv(unit)``).
     **solve_kwargs
         Passed to :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
@@ -587,6 +592,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
     labels = check_convention(labels)
+    file_unit = _energy_unit(energy_unit or ("MeV" if solve_kwargs.get("units") == "nuclear" else "hartree"))
     scheduler_timeout = check_positive("scheduler_timeout", scheduler_timeout)
     workers = check_workers(workers)
     max_points = check_int("max_points", max_points, minimum=1)
@@ -705,8 +711,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
                         reused=reused, out=None if outdir is None else str(outdir),
                         seconds=time.perf_counter() - t0)
     if outdir is not None:
-        _write_or_note(problems, outdir / "scan.csv", write_atomic, result.to_csv())
-        _write_or_note(problems, outdir / "scan.json", write_json_atomic, result.to_dict())
+        _write_or_note(problems, outdir / "scan.csv", write_atomic, result.to_csv(file_unit))
+        _write_or_note(problems, outdir / "scan.json", write_json_atomic, result.to_dict(file_unit))
         result = replace(result, problems=tuple(problems))
     log.info("scan: %d point(s) solved, %d reused, %.1f s", solved, reused, result.seconds)
     return result
