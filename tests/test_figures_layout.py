@@ -151,3 +151,22 @@ def test_difference_figure_spans_the_difference(monkeypatch):
     assert lo > 4.5 and hi < 5.7
     assert kept["ylabel"] == "E(2p1/2) - E(2s1/2) (meV)" and kept["xlabel"] == "rms_fm (fm)"
     assert kept["xscale"] == "linear"
+
+
+def test_scan_figure_shows_changes_when_levels_barely_move(monkeypatch):
+    """Levels of -0.5 hartree moving by 1e-5 (the issue's 5 meV on a -2.5e6 meV axis): plot E - E(first)."""
+    from boundkit.studies import figures
+    from boundkit.studies.scan import ScanResult
+    xs = (0.8, 0.84, 0.88)
+    rows = tuple({"rms_fm": x, "equation": "dirac", "channel": "kappa=-1", "label": "2s1/2",
+                  "energy": -0.5 + 1e-5 * (x - 0.8), "error_estimate": 1e-15, "status": "ok", "message": ""}
+                 for x in xs)
+    res = ScanResult(parameters=("rms_fm",), values={"rms_fm": xs}, rows=rows,
+                     settings={"equations": ["dirac"], "potential": "uniform-sphere"},
+                     parameter_units={"rms_fm": "fm"})
+    kept = _grab(monkeypatch, figures)
+    figures.scan_figure(res, "s.png", unit="hartree", subject="finite proton")
+    assert kept["ylabel"] == "change of binding energy from rms_fm = 0.8 fm (hartree)"
+    assert kept["title"] == "change of the bound levels against rms_fm: finite proton"
+    lo, hi = kept["ylim"]
+    assert hi - lo < 1e-5

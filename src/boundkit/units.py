@@ -184,7 +184,8 @@ def column(name: str, unit: str) -> str:
         return name
     unit = unit.replace(" ", "")
     unit = ("per_" + unit[2:]) if unit.startswith("1/") else unit
-    return f"{name}_{unit.replace('/', '_per_')}"
+    suffix = f"_{unit.replace('/', '_per_')}"
+    return name if name.endswith(suffix) else name + suffix     # rms_fm stays rms_fm
 
 
 def system_units(system: str = "atomic") -> tuple[str, str]:

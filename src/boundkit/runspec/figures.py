@@ -14,7 +14,8 @@ import numpy as np
 
 from ..units import hartree_to
 from ..studies._common import umask_mode as _umask_mode
-from .files import _label_order, _slug
+from ..states import label_sort_key
+from .files import _slug
 
 log = logging.getLogger("boundkit.runspec.engine")
 
@@ -71,7 +72,7 @@ def _scan_figure(table: dict, parameter: str, unit: str, path, title: str = "", 
     from ..plots import _colour, plt, save_figure
 
     fig, ax = plt.subplots(figsize=(6.8, 4.6))
-    labels = sorted({lab for per in table.values() for lab in per}, key=_label_order)
+    labels = sorted({lab for per in table.values() for lab in per}, key=label_sort_key)
     xs = sorted(table)
     for i, lab in enumerate(labels):
         y = [hartree_to(table[x][lab], unit) if lab in table[x] else np.nan for x in xs]

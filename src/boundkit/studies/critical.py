@@ -148,7 +148,8 @@ class CriticalResult:
 
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready record."""
-        return {"parameter": self.parameter, "value": self.value, "uncertainty": self.uncertainty,
+        return {"parameter": self.parameter, "parameter_unit": self.parameter_unit, "value": self.value,
+                "uncertainty": self.uncertainty,
                 "state": self.state, "equation": self.equation, "kind": self.kind,
                 "uncertainty_meaning": self.uncertainty_meaning,
                 "bracket": list(self.bracket), "bracket_meaning": self.bracket_meaning,

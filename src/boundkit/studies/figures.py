@@ -67,7 +67,8 @@ def potential_title(settings: dict) -> str:
     return f"{pot} ({', '.join(eqs)} equation{'s' if len(eqs) > 1 else ''})" if eqs else pot
 
 
-def scan_figure(result, path, unit: str = "hartree", title: str | None = None, logx: bool | None = None) -> Path:
+def scan_figure(result, path, unit: str = "hartree", title: str | None = None, logx: bool | None = None,
+                relative: bool | None = None, subject: str | None = None) -> Path:
     """Plot each followed level's binding energy against the first varied parameter.
 
     Parameters
@@ -81,6 +82,14 @@ def scan_figure(result, path, unit: str = "hartree", title: str | None = None, l
         Figure title (default: the levels, the parameter and the potential).
     logx : bool, optional
         Logarithmic parameter axis (default: :func:`log_spaced`).
+    relative : bool, optional
+        Plot each level's change E(p) - E(p_0) from its value at the first
+        parameter value p_0 instead of E itself. Default: when no level moves
+        by more than 1 % of its energy over the scan, where the absolute
+        levels would be flat lines far apart.
+    subject : str, optional
+        What the default title names after the parameter (default: the
+        potential and the equations).
 
     Notes
     -----
@@ -100,12 +109,23 @@ def scan_figure(result, path, unit: str = "hartree", title: str | None = None, l
     # one level per equation: the equation's own colour; several levels: a colour per level, marker per equation
     by_equation = several and len(keys) == len({k[0] for k in keys})
     others = result.values[second] if second else (None,)
+    curves = []
     for (i, (eq, ch, lab)), (jdx, v) in itertools.product(enumerate(keys), enumerate(others)):
         where = {second: v} if second else None
         x, E = result.series(lab, equation=eq, channel=ch, where=where, unit=unit)
-        if np.all(np.isnan(E)):
-            continue
+        if not np.all(np.isnan(E)):
+            curves.append((i, eq, ch, lab, jdx, v, x, E))
+    if relative is None:
+        moves = [np.nanmax(E) - np.nanmin(E) for *_, E in curves]
+        sizes = [np.nanmax(np.abs(E)) for *_, E in curves]
+        relative = bool(curves) and all(m <= 1e-2 * s_ for m, s_ in zip(moves, sizes))
+    starts = set()
+    for i, eq, ch, lab, jdx, v, x, E in curves:
         order = np.argsort(x)
+        if relative:
+            first = order[np.nonzero(~np.isnan(E[order]))[0][0]]
+            starts.add(float(x[first]))
+            E = E - E[first]
         name = f"{lab} {eq}" if several else lab
         if second:
             name += f", {second} = {v:g}"
@@ -116,9 +136,16 @@ def scan_figure(result, path, unit: str = "hartree", title: str | None = None, l
     if logx if logx is not None else log_spaced(xs):
         _log_axis(ax)
     ax.axhline(0.0, color="0.5", lw=0.8, ls=":")
-    ax.set_xlabel(_axis_label(p0, result.parameter_units.get(p0, "")))
-    ax.set_ylabel(f"binding energy ({unit})")
-    ax.set_title(title or f"bound levels against {p0}: {potential_title(result.settings)}", fontsize=10)
+    p_unit = result.parameter_units.get(p0, "")
+    ax.set_xlabel(_axis_label(p0, p_unit))
+    if relative:
+        at = (f"{p0} = {starts.pop():g}" + (f" {p_unit}" if p_unit else "")) if len(starts) == 1 \
+            else "each level's first value"
+        ax.set_ylabel(f"change of binding energy from {at} ({unit})", fontsize=9)
+    else:
+        ax.set_ylabel(f"binding energy ({unit})")
+    what = "change of the bound levels" if relative else "bound levels"
+    ax.set_title(title or f"{what} against {p0}: {subject or potential_title(result.settings)}", fontsize=10)
     ax.grid(True, alpha=0.3)
     if ax.lines:
         ax.legend(fontsize=8, ncol=2 if len(ax.lines) > 8 else 1)
