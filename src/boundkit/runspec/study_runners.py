@@ -21,7 +21,7 @@ import numpy as np
 
 from .figures import _scan_figure
 from ..reporting import difference_error, format_difference
-from ..states import label_sort_key
+from ..states import convert_label, label_sort_key
 from .files import _clean, _csv_text, _csv_with_units, _fmt, _slug
 from .objects import CompareSection, ConvergeSection, CriticalSection, ScanSection, _channels_for
 
@@ -40,8 +40,8 @@ class StudyRunners:
         (kw, cname), = sec.channel.expand(sec.equation)[:1]
         res = converge(sec.equation, pot, None, levels=sec.levels, methods=sec.methods, order=sec.order, tol=sec.tolerance, **kw,
                        **self.particle_kwargs())
-        rows = [{**r, "energy": self.E(r["energy"]), "relative_error": r["error"],
-                 "relative_change": r["difference"]} for r in res.rows]
+        rows = [{**r, "label": convert_label(r["label"], spec.labels), "energy": self.E(r["energy"]),
+                 "relative_error": r["error"], "relative_change": r["difference"]} for r in res.rows]
         self.write(f"convergence{suffix}.csv", _csv_with_units(
             rows, ["method", "size", "label", "energy", "relative_error", "relative_change"], {"energy": self.e_unit}))
         self.figure(f"convergence{suffix}", f"Convergence, model {sec.model}, {sec.equation} {cname}",
@@ -53,6 +53,7 @@ class StudyRunners:
               f"against resolution, measured against a spectral solve at tol {sec.tolerance:g} "
               f"(table `convergence{suffix}.csv`).", "", "| method | level | observed order |", "|---|---|---:|"]
         for (m, lab), v in res.orders.items():
+            lab = convert_label(lab, spec.labels)
             md.append(f"| {m} | {lab} | {_fmt(v, 3)} |")
             if m != "spectral" and math.isfinite(v):
                 self.headline.append(f"observed order of {m} ({sec.model}, {sec.equation} {lab}): {v:.2f} "
