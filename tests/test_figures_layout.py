@@ -170,3 +170,12 @@ def test_scan_figure_shows_changes_when_levels_barely_move(monkeypatch):
     assert kept["title"] == "change of the bound levels against rms_fm: finite proton"
     lo, hi = kept["ylim"]
     assert hi - lo < 1e-5
+
+
+def test_radial_figures_use_shades_of_the_equation_colour(hydrogen_fine_structure, monkeypatch):
+    kept = _grab(monkeypatch, plots)
+    plots.radial_figure(hydrogen_fine_structure["dirac"][:3], "r.png")
+    want = palette.shades(palette.EQUATION_COLOURS["dirac"], 3)
+    assert want[0] == palette.EQUATION_COLOURS["dirac"]
+    solid = kept["colours"][0::2][:3]          # P solid, Q dashed, per level
+    assert solid == want

@@ -11,7 +11,8 @@ Klein-Gordon              ochre      diamond
 Dirac                     plum       square
 ========================  =========  ========
 
-Other groups (models, levels, parameter values) take colours from
+Several levels of one equation in one figure take :func:`shades` of its
+colour, darkest for the lowest level. Other groups (models, parameter values) take colours from
 :data:`SEQUENCE` in a fixed order, so the i-th group has the same colour in
 every run. The hues are our own choice: dark enough to read on white, apart
 in lightness as well as hue, so they survive a grey-scale printout.
@@ -19,7 +20,7 @@ in lightness as well as hue, so they survive a grey-scale printout.
 from __future__ import annotations
 
 __all__ = ["EQUATION_COLOURS", "EQUATION_MARKERS", "SEQUENCE", "colour", "equation_colour", "equation_marker",
-           "equation_key"]
+           "equation_key", "shades"]
 
 EQUATION_COLOURS: dict[str, str] = {
     "schrodinger": "#0b6e69",     # teal
@@ -61,3 +62,14 @@ def equation_marker(name: str, fallback: int = 0) -> str:
     """The marker of an equation; other groups cycle through circle, triangle, plus, cross."""
     key = equation_key(name)
     return EQUATION_MARKERS[key] if key else ("o", "^", "P", "X", "v")[fallback % 5]
+
+
+def shades(base: str, count: int) -> list[str]:
+    """``count`` colours from ``base`` towards white (at most 65 % white), darkest first."""
+    r, g, b = (int(base[i:i + 2], 16) for i in (1, 3, 5))
+    out = []
+    for k in range(count):
+        t = 0.65 * k / max(count - 1, 1) if count > 1 else 0.0
+        out.append("#" + "".join(f"{round(c + (255 - c) * t):02x}" for c in (r, g, b)))
+    return out
+

@@ -82,6 +82,25 @@ def _colour(i: int) -> str:
     return palette.colour(i)
 
 
+def _equation_of(lv) -> str:
+    """The equation a level came from, read off its state: Dirac has Q, Klein-Gordon a density weight."""
+    st = lv.state
+    return "dirac" if st.Q is not None else "klein-gordon" if st.density_weight is not None else "schrodinger"
+
+
+def _level_colours(groups: dict) -> list[str]:
+    """One colour per level in drawing order: shades of its equation's colour (palette), darkest lowest."""
+    every = [lv for lvs in groups.values() for lv in lvs]
+    eqs = [_equation_of(lv) for lv in every]
+    count = {e: eqs.count(e) for e in set(eqs)}
+    seen: dict[str, int] = {}
+    out = []
+    for e in eqs:
+        out.append(palette.shades(palette.EQUATION_COLOURS[e], count[e])[seen.get(e, 0)])
+        seen[e] = seen.get(e, 0) + 1
+    return out
+
+
 def _length_scale(unit: str) -> tuple[str, float]:
     from .units import LENGTH_UNITS, length_unit
 
@@ -183,6 +202,7 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
     small one dashed (and drawn only for Dirac levels); circles mark the nodes of P.
     """
     unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
+    colours = _level_colours(groups)
     norm = 1.0 / math.sqrt(scale)
     i = 0
     have_q = have_nodes = have_kg = False
@@ -192,7 +212,7 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
             have_kg = have_kg or st.density_weight is not None
             comps = (st.P,) if st.Q is None else (st.P, st.Q)
             fine, smooth = _smooth(st.r, *comps, r_top=r_top / scale)
-            colour = _colour(i)
+            colour = colours[i]
             ax.plot(fine * scale, smooth[0] * norm, color=colour, lw=1.6, label=f"{_curve_label(group, lv)}  P")
             if st.Q is not None:
                 have_q = True
@@ -239,6 +259,7 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
     from .observables import mean_radius
 
     unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
+    colours = _level_colours(groups)
     i = 0
     kinds: set = set()
     for group, lvs in groups.items():
@@ -247,7 +268,7 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
             kinds.add("kg" if st.density_weight is not None else "dirac" if st.Q is not None else "schrodinger")
             dens = st.density(st.r)
             fine, (smooth,) = _smooth(st.r, dens, r_top=r_top / scale)
-            colour = _colour(i)
+            colour = colours[i]
             mean = mean_radius(lv) * scale
             ax.plot(fine * scale, np.maximum(smooth, 0.0) / scale, color=colour, lw=1.5,
                     label=f"{_curve_label(group, lv)}  (<r> = {mean:.4g} {unit})")
