@@ -261,18 +261,23 @@ class ScanResult:
 
     def table(self, unit: str = "hartree") -> str:
         """A plain-text table (energies in ``unit``)."""
-        head = [f"{p:>16}" for p in self.parameters]
+        def named(p: str) -> str:
+            u = self.parameter_units.get(p, "")
+            return f"{p} ({u})" if u else p
+
+        width = {p: max(16, len(named(p))) for p in self.parameters}
+        head = [f"{named(p):>{width[p]}}" for p in self.parameters]
         lines = [" ".join(head + [f"{'equation':<13} {'channel':<9} {'level':<8} {'energy (' + unit + ')':>24} "
-                                  f"{'error':>9} status"])]
+                                  f"{'error (' + unit + ')':>13} status"])]
         for r in self.rows:
-            vals = [f"{r[p]:>16.10g}" for p in self.parameters]
+            vals = [f"{r[p]:>{width[p]}.10g}" for p in self.parameters]
             if r["energy"] is None:
                 e, de = "-", "-"
             else:
                 e = f"{hartree_to(r['energy'], unit):.15g}"
                 de = f"{hartree_to(r['error_estimate'], unit):.2g}"
             lines.append(" ".join(vals + [f"{r['equation']:<13} {r['channel']:<9} {r['label']:<8} {e:>24} "
-                                          f"{de:>9} {r['status']}"]))
+                                          f"{de:>13} {r['status']}"]))
         return "\n".join(lines)
 
     def __repr__(self) -> str:
