@@ -780,10 +780,12 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     unit_s = "hartree^(1/2)" if kind == "unbind" else "hartree"
     if status == "ok" and p_out is not None and not (ahead(best, p_in) >= -unc and ahead(p_out, best) >= -unc):
         status = "unverified"
+    p_unit = parameter_units(potential, scalar, [vary], solve_kwargs.get("units", "atomic"))[vary]
+    pu = f" {p_unit}" if p_unit else ""
     if status == "ok":
         message = (f"{label} {'unbinds' if kind == 'unbind' else 'dives'} at {vary} = "
-                   f"{best:.{_digits(best, unc)}g} +- {unc:.2g} (estimated error of the extrapolation); "
-                   f"bound at {p_in:.12g}, not found at {p_out:.12g}")
+                   f"{best:.{_digits(best, unc)}g} +- {unc:.2g}{pu} (estimated error of the extrapolation); "
+                   f"bound at {p_in:.12g}{pu}, not found at {p_out:.12g}{pu}")
     elif status == "lost":
         status = "unverified"
         message = (f"{label} disappears between {vary} = {p_in:.12g} (E = {near['energy']:.10g} hartree, "
@@ -795,7 +797,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                    "the level was lost before its threshold; treat the value with caution")
     else:
         message = (f"the extrapolations did not agree to tol = {tol:g} within {len(points)} evaluations; "
-                   f"best estimate {best:.12g} +- {unc:.2g}")
+                   f"best estimate {best:.12g} +- {unc:.2g}{pu}")
     if status != "ok":
         log.warning("critical %s: %s", label, message)
     mc2 = near["mc2"]
@@ -813,5 +815,4 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     return CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
                           equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
                           settings=settings, status=status, message=message, points=tuple(clean),
-                          parameter_unit=parameter_units(potential, scalar, [vary],
-                                                         solve_kwargs.get("units", "atomic"))[vary])
+                          parameter_unit=p_unit)
