@@ -161,12 +161,14 @@ def test_converge_json_units(energy):
     assert data["reference"]["1s"] == pytest.approx(-0.5 * PER_HARTREE[eu], rel=1e-12)   # exact hydrogen 1s
 
 
-def test_table_with_units_and_nuclear_system_matches_the_builtin_well(tmp_path, references):
-    """The issue's bug through the command line: a '# units: r=fm V=MeV' table with --units nuclear."""
+@pytest.mark.parametrize("header", ["# units: r=fm V=MeV\n", "", "# units: V=MeV\n"])
+def test_table_with_units_and_nuclear_system_matches_the_builtin_well(tmp_path, references, header):
+    """The issue's bug through the command line: a '# units: r=fm V=MeV' table with --units nuclear
+    (and tables whose unstated columns follow --units nuclear: fm and MeV)."""
     r = np.logspace(-3, np.log10(40.0), 3000)
     v = -50.0 / (1 + np.exp((r - 5.0) / 0.6))
     path = tmp_path / "ws.dat"
-    path.write_text("# units: r=fm V=MeV\n" + "\n".join(f"{float(a)!r} {float(b)!r}" for a, b in zip(r, v)))
+    path.write_text(header + "\n".join(f"{float(a)!r} {float(b)!r}" for a, b in zip(r, v)))
     data = json.loads(run("solve", "-e", "schrodinger", "--units", "nuclear", "--particle", "proton",
                           "--potential-file", path, "--table-tail", "zero", "--table-origin", "finite",
                           "--levels", "2", "--json"))
