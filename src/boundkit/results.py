@@ -206,7 +206,7 @@ class SolveResult:
         return {
             "equation": self.equation,
             "potential": self.potential,
-            "units": units_block(eu, lu),
+            "units": units_block(eu, lu, parameters=_SYSTEMS.get(self.system, self.system)),
             "constants": self.constants,
             "settings": self.settings,
             "status": self.status,
@@ -232,6 +232,10 @@ class SolveResult:
             lines.append(f"  (stored in hartree and bohr; parameters were read in {self.system} units: "
                          f"res.energies() and res.to_dict() give {eu} and {lu})")
         return "\n".join(lines)
+
+
+_SYSTEMS = {"atomic": "atomic (each parameter in hartree and bohr as its unit says)",
+            "nuclear": "nuclear (each parameter in MeV and fm as its unit says)"}
 
 
 def _energy(unit: str) -> str:
