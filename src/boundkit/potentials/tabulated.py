@@ -376,6 +376,7 @@ class TabulatedTerm(Term):
         self.values = {}
         self.stated_units = frozenset(stated)
         self.fixed_units = stated == {"r", "V"}
+        self._nuclear: TabulatedTerm | None = None
         self._spline = make_interp_spline(np.log(r), r * v, k=self.degree)
         self._y0 = float(r[0] * v[0])
         if tail_charge is not None and self.tail != "coulomb":
@@ -408,10 +409,12 @@ class TabulatedTerm(Term):
         """
         if system == "atomic" or self.fixed_units:
             return self
-        args = dict(self._args)
-        args["r_unit"] = args["r_unit"] or ("fm" if "r" not in self.stated_units else None)
-        args["v_unit"] = args["v_unit"] or ("MeV" if "V" not in self.stated_units else None)
-        return TabulatedTerm(args.pop("table"), **args)
+        if self._nuclear is None:        # read once, however often the term is used (a scan's points)
+            args = dict(self._args)
+            args["r_unit"] = args["r_unit"] or ("fm" if "r" not in self.stated_units else None)
+            args["v_unit"] = args["v_unit"] or ("MeV" if "V" not in self.stated_units else None)
+            self._nuclear = TabulatedTerm(args.pop("table"), **args)
+        return self._nuclear
 
     def _warn_unsteady(self, r, y, which: str, option: str) -> None:
         if abs(y[0] - y[-1]) > 1e-3 * max(float(np.max(np.abs(y))), 1e-300):
