@@ -198,3 +198,51 @@ def test_phases_and_resonances_json_units(energy):
     assert rs["units"]["energy"] == eu and rs["units"]["width"] == eu
     # the model barrier's resonance near 3.426 hartree (Moiseyev, Phys. Rep. 302, 212 (1998))
     assert rs["resonances"][0]["energy"] == pytest.approx(3.42639031 * PER_HARTREE[eu], rel=1e-7)
+
+
+SPEC = """\
+title = "Hydrogen, units test"
+description = "Exact Coulomb levels: -1/(2 n^2) hartree (Bethe & Salpeter 1957)."
+equations = ["schrodinger"]
+channels = ["s"]
+levels = 2
+{extra}
+[models.h]
+terms = ["coulomb"]
+params = {{ Z = 1 }}
+
+[solve]
+figures = []
+radii = true
+differences = [["2s", "1s"]]
+
+[converge]
+model = "h"
+equation = "schrodinger"
+channel = "s"
+levels = 1
+"""
+
+
+@pytest.mark.parametrize("energy, length", [(None, None), ("eV", "angstrom"), ("cm^-1", "pm")])
+def test_run_spec_csv_headers_and_json_carry_units(tmp_path, energy, length):
+    from boundkit.runspec import load_spec, run as run_spec
+    extra = "".join(f'{k} = "{v}"\n' for k, v in (("energy_unit", energy), ("length_unit", length)) if v)
+    path = tmp_path / "h.toml"
+    path.write_text(SPEC.format(extra=extra))
+    run_spec(load_spec(path), tmp_path / "out")
+    eu, lu = energy or "hartree", length or "bohr"
+    levels = list(csv.DictReader(io.StringIO((tmp_path / "out" / "levels.csv").read_text())))
+    col = "energy_cm^-1" if eu == "cm^-1" else f"energy_{eu}"
+    assert col in levels[0] and f"mean_radius_{lu}" in levels[0]
+    assert float(levels[0][col]) == pytest.approx(-0.5 * PER_HARTREE[eu], rel=1e-10)
+    # <r> of hydrogen 1s is 3/2 bohr (Bethe & Salpeter 1957)
+    assert float(levels[0][f"mean_radius_{lu}"]) == pytest.approx(1.5 * PER_BOHR[lu], rel=1e-9)
+    diffs = list(csv.DictReader(io.StringIO((tmp_path / "out" / "differences.csv").read_text())))
+    assert float(diffs[0][col.replace("energy", "difference")]) == pytest.approx(0.375 * PER_HARTREE[eu], rel=1e-10)
+    conv = list(csv.DictReader(io.StringIO((tmp_path / "out" / "convergence.csv").read_text())))
+    assert col in conv[0] and "relative_error" in conv[0]
+    data = json.loads((tmp_path / "out" / "results.json").read_text())
+    assert data["solve"]["columns"]["energy"] == eu and data["solve"]["columns"]["mean_radius"] == lu
+    assert data["converge"][0]["units"]["energy"] == eu
+    assert data["converge"][0]["reference"]["1s"] == pytest.approx(-0.5 * PER_HARTREE[eu], rel=1e-12)
