@@ -179,3 +179,13 @@ def test_radial_figures_use_shades_of_the_equation_colour(hydrogen_fine_structur
     assert want[0] == palette.EQUATION_COLOURS["dirac"]
     solid = kept["colours"][0::2][:3]          # P solid, Q dashed, per level
     assert solid == want
+
+
+def test_shift_figure_uses_a_log_axis_for_shifts_over_many_decades(monkeypatch):
+    kept = _grab(monkeypatch, plots)
+    rows = [{"model": "sphere", "equation": eq, "label": lab, "shift": v, "error_estimate": 1e-12}
+            for eq, lab, v in (("dirac", "1s1/2", 0.199), ("dirac", "2p1/2", 4.4e-3), ("schrodinger", "2p", 6e-9))]
+    plots.shift_figure(rows, "s.png", unit="keV", reference="point")
+    assert kept["xscale"] == "log" and kept["xlabel"] == "E(model) - E(point) (keV)"
+    lo, hi = kept["ylim"]
+    assert hi - lo > 2          # three bars

@@ -18,7 +18,7 @@ import numpy as np  # noqa: E402
 from . import palette  # noqa: E402
 
 __all__ = ["convergence_figure", "save_figure", "radial_figure", "density_figure", "level_diagram",
-           "level_scheme", "draw_level_scheme", "spread_labels"]
+           "level_scheme", "draw_level_scheme", "spread_labels", "shift_figure"]
 
 _FORMATS = (".png", ".svg", ".pdf")
 
@@ -320,15 +320,20 @@ def _same_energy(a, b) -> bool:
 
 
 def _display_order(levels) -> list:
-    """Levels by energy; degenerate ones (equal within their estimates) by l, then j (2s1/2, 2p1/2)."""
+    """Levels by energy, lowest first; degenerate ones (equal within their estimates) so that they read
+    2s1/2, 2p1/2 from the top down (the order of the tables)."""
     ordered = sorted(levels, key=lambda lv: lv.energy)
     out, run = [], []
+
+    def top_down(run):
+        return sorted(run, key=lambda x: (-x.l, -(x.j or 0.0)))
+
     for lv in ordered:
         if run and not _same_energy(run[-1], lv):
-            out += sorted(run, key=lambda x: (x.l, x.j or 0.0))
+            out += top_down(run)
             run = []
         run.append(lv)
-    return out + sorted(run, key=lambda x: (x.l, x.j or 0.0))
+    return out + top_down(run)
 
 
 def _label_targets(ordered) -> np.ndarray:
@@ -405,6 +410,11 @@ def draw_level_scheme(ax, levels, *, energy_unit: str = "hartree", fontsize: flo
             ax.plot([x1, xt - 0.02], [E, yl], color=c, lw=0.6, alpha=0.8)
             texts.append(ax.text(xt, yl, f"{lv.label}  {_energy_text(E, e_unit, digits)}", fontsize=fontsize,
                                  color=c, va="center", ha="left"))
+    # room on the right for the last column's labels (measured on the renderer)
+    renderer = fig.canvas.get_renderer()
+    right = max((ax.transData.inverted().transform(t.get_window_extent(renderer))[1][0] for t in texts),
+                default=len(groups))
+    ax.set_xlim(-0.15, max(len(groups) - 0.05, right + 0.05))
     ax.set_xticks([gi + 0.19 for gi in range(len(groups))])
     ax.set_xticklabels([g or "levels" for g in groups], fontsize=9)
     for tick, g in zip(ax.get_xticklabels(), groups):
@@ -526,3 +536,75 @@ def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", leng
     fig.suptitle(title or "potential and bound levels")
     fig._boundkit_labels = texts  # for layout checks (tests)
     return save_figure(fig, path)
+
+
+def shift_figure(rows, path, *, unit: str, reference: str, title: str | None = None) -> Path:
+    """Shifts of levels against a reference model, one horizontal bar per level and model.
+
+    Parameters
+    ----------
+    rows : sequence of dict
+        ``label``, ``model``, ``equation``, ``shift`` and ``error_estimate``
+        (already in ``unit``), in the order to draw (top to bottom).
+    path : str or Path
+        Output file (.png, .svg or .pdf).
+    unit : str
+        Energy unit of the shifts (printed on the axis).
+    reference : str
+        Name of the reference model (the axis says what is subtracted).
+    title : str, optional
+
+    Notes
+    -----
+    Shift = E(model) - E(reference) of the same level; a bar's colour is its
+    equation's (:mod:`boundkit.palette`), and the value is printed beside it
+    with the digits its error estimate supports (:mod:`boundkit.reporting`).
+    Shifts of very different size share a symmetric-log axis, so a 1e-6 shift
+    stays visible beside a large one.
+    """
+    from .reporting import format_difference
+
+    rows = list(rows)
+    if not rows:
+        raise ValueError("plot: no shifts to draw")
+    fig, ax = plt.subplots(figsize=(7.0, 0.9 + 0.34 * len(rows)))
+    y = np.arange(len(rows))[::-1]
+    vals = np.array([r["shift"] for r in rows], float)
+    for yi, r, v in zip(y, rows, vals):
+        c = palette.equation_colour(r["equation"])
+        ax.barh(yi, v, color=c, alpha=0.85, height=0.62)
+        ax.text(v, yi, "  " + format_difference(v, r["error_estimate"], 6) + "  ", va="center",
+                ha="left" if v >= 0 else "right", fontsize=7.5, color=c)
+    ax.set_yticks(y)
+    ax.set_yticklabels([f"{r['model']}, {r['equation']}: {r['label']}" for r in rows], fontsize=8)
+    nonzero = np.abs(vals[vals != 0])
+    big, small = (float(nonzero.max()), float(nonzero.min())) if nonzero.size else (0.0, 0.0)
+    name = f"E(model) - E({reference})"
+    if small and big / small > 1e3 and (np.all(vals >= 0) or np.all(vals <= 0)):
+        # one sign, many decades: a log axis of the magnitude, bars from below the smallest
+        ax.cla()
+        floor = small / 3
+        sign = "" if np.all(vals >= 0) else "-"
+        for yi, r, v in zip(y, rows, vals):
+            c = palette.equation_colour(r["equation"])
+            ax.barh(yi, max(abs(v), floor) - floor, left=floor, color=c, alpha=0.85, height=0.62)
+            ax.text(max(abs(v), floor), yi, "  " + format_difference(v, r["error_estimate"], 6), va="center",
+                    ha="left", fontsize=7.5, color=c)
+        ax.set_xscale("log")
+        ax.set_yticks(y)
+        ax.set_yticklabels([f"{r['model']}, {r['equation']}: {r['label']}" for r in rows], fontsize=8)
+        ax.set_xlim(floor, big * 30)
+        name = f"{sign}[{name}]" if sign else name
+    elif small and big / small > 1e3:
+        ax.set_xscale("symlog", linthresh=small)
+    else:
+        lo, hi = ax.get_xlim()
+        pad = 0.25 * (hi - lo)
+        ax.set_xlim(lo - (pad if lo < 0 else 0), hi + pad)
+    if ax.get_xscale() != "log":
+        ax.axvline(0.0, color="0.4", lw=0.8)
+    ax.set_xlabel(f"{name} ({unit})")
+    ax.set_title(title or f"level shifts against {reference}", fontsize=10)
+    ax.grid(True, axis="x", alpha=0.25)
+    return save_figure(fig, path)
+

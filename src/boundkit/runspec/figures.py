@@ -65,6 +65,22 @@ class FigureWriter:
                             lambda p, pot=pot, groups=groups: level_diagram(
                                 pot, groups, p, energy_unit=self.e_unit, length_unit=self.l_unit,
                                 title=f"{label}: potential and levels"))
+        if "levels" in sec.figures and len(by_model) > 1:
+            from ..plots import level_scheme
+
+            for eq in sec.equations:
+                groups = {spec.models[m].label: per_eq[eq] for m, per_eq in by_model.items() if per_eq.get(eq)}
+                if len(groups) > 1:
+                    self.figure(f"scheme-{_slug(eq)}", f"Level scheme, {eq} equation, one column per model",
+                                lambda p, groups=groups, eq=eq: level_scheme(
+                                    groups, p, energy_unit=self.e_unit, title=f"{eq} equation: levels by model"))
+
+    def _shift_figure(self, reference: str, shifts: list) -> None:
+        """Shifts of every level against the reference model (only when the spec asks for them)."""
+        from ..plots import shift_figure
+
+        self.figure("shifts", f"Level shifts against model {reference}",
+                    lambda p: shift_figure(shifts, p, unit=self.e_unit, reference=reference))
 
 
 def _scan_figure(table: dict, parameter: str, unit: str, path, title: str = "", x_unit: str = ""):

@@ -130,8 +130,10 @@ class SolveRunner:
                                                base[lv.label].error_estimate)),
                                            "shift_hartree": d})
             if shifts:
+                shifts.sort(key=lambda r: (r["model"], r["equation"], label_sort_key(r["label"], spec.labels)))
                 self.write("shifts.csv", _csv_with_units(shifts, None, units))
                 out["shifts"] = shifts
+                self._shift_figure(sec.reference, shifts)
         self.results["solve"] = out
         self._solve_figures(sec, by_model, radial_figure, density_figure, level_diagram)
         self._solve_report(sec, rows, diffs, shifts)
