@@ -246,3 +246,9 @@ def test_run_spec_csv_headers_and_json_carry_units(tmp_path, energy, length):
     assert data["solve"]["columns"]["energy"] == eu and data["solve"]["columns"]["mean_radius"] == lu
     assert data["converge"][0]["units"]["energy"] == eu
     assert data["converge"][0]["reference"]["1s"] == pytest.approx(-0.5 * PER_HARTREE[eu], rel=1e-12)
+
+
+def test_length_unit_help_names_every_length_unit():
+    from boundkit.cli.options import LENGTH_UNIT_NAMES
+    from boundkit.units import LENGTH_UNITS
+    assert tuple(LENGTH_UNITS) == LENGTH_UNIT_NAMES
