@@ -132,3 +132,12 @@ def test_solve_labels_option():
     assert rows == ["0p3/2", "1p3/2"]
     bad = CliRunner().invoke(main, ["solve", "--labels", "spectroscopic"])
     assert bad.exit_code == 2 and "boundkit: error:" in bad.output and "'spectroscopic' is not one of" in bad.output
+
+
+def test_transitions_take_a_labelling_convention():
+    # hydrogen 2p -> 1s, 0.375 hartree (Bethe & Salpeter 1957), named in the quarkonium convention
+    tr = boundkit.transitions("schrodinger", "coulomb", {"Z": 1}, max_n=2, labels="quarkonium",
+                              energy_unit="hartree")
+    ln = tr.line("1P", "1S")
+    assert ln.energy == pytest.approx(0.375, rel=1e-12)
+    assert tr.level("1P").branching == {"1S E1": 1.0}
