@@ -31,7 +31,8 @@ def test_json_keys_and_units():
     data = json.loads(res.output)
     for key in ("equation", "potential", "units", "constants", "settings", "levels", "diagnostics"):
         assert key in data
-    assert data["units"] == {"energy": "eV", "length": "bohr"}
+    assert data["units"] == {"energy": "eV", "length": "bohr", "time": "s",
+                             "parameters": "atomic (each parameter in hartree and bohr as its unit says)"}
     assert data["constants"]["alpha"] == ALPHA
     lv = data["levels"][0]
     for key in ("n", "l", "j", "kappa", "label", "energy", "error_estimate"):

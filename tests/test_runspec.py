@@ -106,6 +106,8 @@ BAD = [
     ('[solve]\ndifferences = [["2p", "2s"]]\n', '[converge]\nmodel = "hh"\n', "converge.model", 'model = "hh"',
      "no model 'hh'"),
     ('[solve]\ndifferences = [["2p", "2s"]]\n', '', "solve", None, "asks for no study"),
+    ('levels = 2', 'levels = 2\nlabels = "spectroscopic"', "labels", 'labels = "spectroscopic"',
+     "must be one of atomic, nuclear, quarkonium"),
 ]
 
 
@@ -509,3 +511,20 @@ def test_scan_points_the_solver_refuses_are_reported(tmp_path):
     assert rows[50.0]["status"] == "ok" and rows[50.0]["energy"] < 0
     assert rows[150.0]["status"] == "error"
     assert (tmp_path / "o" / "scan.png").is_file() and (tmp_path / "o" / "scan.csv").is_file()
+
+
+def test_labels_key_names_levels_in_its_convention(tmp_path):
+    """The same hydrogen levels named by nodes from 0 (nuclear) and by nodes + 1 (quarkonium)."""
+    for labels, want, diff in (("nuclear", {"0s", "1s", "0p"}, '[["0p", "1s"]]'),
+                               ("quarkonium", {"1S", "2S", "1P"}, '[["1P", "2S"]]')):
+        text = FAST.replace("levels = 2\n", f'levels = 2\nlabels = "{labels}"\n', 1).replace(
+            '[["2p", "2s"]]', diff)
+        out = tmp_path / labels
+        run(load_spec(write(tmp_path, text, f"{labels}.toml")), out)
+        data = json.loads((out / "results.json").read_text())
+        assert {r["label"] for r in data["solve"]["levels"]} == want
+        # 2p - 2s of hydrogen is 0 in the Schrodinger equation (Bethe & Salpeter 1957): printed as 0
+        (d,) = data["solve"]["differences"]
+        assert abs(d["difference"]) <= d["error_estimate"]
+        assert f"| E({json.loads(diff)[0][0]}) - E({json.loads(diff)[0][1]}) | 0 |" in (out / "report.md").read_text()
+

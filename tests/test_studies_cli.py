@@ -48,11 +48,12 @@ def test_scan_writes_files_a_figure_and_resumes(tmp_path):
     assert "2 point(s) solved, 0 reused" in res.output
     assert fig.read_text().lstrip().startswith("<?xml")
     data = json.loads((out / "scan.json").read_text())
+    assert data["units"]["energy"] == "eV"          # the files follow --energy-unit
     # the expression is the Hulthen potential, rebuilt at each D: E_n = -(Z/n - n D/2)^2/2 (Flugge 1971)
     for r in data["rows"]:
         n = int(r["label"][0])
         if r["D"] < 2 / n**2:
-            assert r["energy"] == pytest.approx(hulthen(1, r["D"], n), rel=1e-10)
+            assert r["energy"] == pytest.approx(hartree_to(hulthen(1, r["D"], n), "eV"), rel=1e-10)
         else:
             assert r["energy"] is None and r["status"] == "absent"
     again = run(*args, "--json")

@@ -300,7 +300,9 @@ def test_cli_critical_explains_its_uncertainty():
                                     "--state", "2s", "--vary", "delta"])
     assert out.exit_code == 0, out.output
     line = next(x for x in out.output.splitlines() if x.startswith("critical delta = "))
-    value, unc = (float(x) for x in line.removeprefix("critical delta = ").split(" +- "))
+    body, unit = line.removeprefix("critical delta = ").rsplit(" ", 1)
+    assert unit == "1/bohr"                     # the Hulthen delta is an inverse length
+    value, unc = (float(x) for x in body.split(" +- "))
     assert value == pytest.approx(0.75, rel=1e-10)
     assert 4 * math.ulp(0.75) <= unc < 1e-9
     assert "uncertainty: +- is the estimated error" in out.output

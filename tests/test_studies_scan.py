@@ -168,7 +168,7 @@ def test_interrupted_scan_resumes_from_its_point_files(tmp_path):
     data = json.loads((tmp_path / "scan.json").read_text())
     assert data["parameters"] == ["delta"] and len(data["rows"]) == 8
     csv = (tmp_path / "scan.csv").read_text().splitlines()
-    assert csv[0].startswith("delta,equation,channel,label,energy_hartree")
+    assert csv[0].startswith("delta_per_bohr,equation,channel,label,energy_hartree")   # Hulthen delta: 1/bohr
     assert len(csv) == 9
     # every energy in the files is the exact Hulthen level (Flugge 1971, from memory)
     for r in data["rows"]:

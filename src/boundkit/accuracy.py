@@ -81,9 +81,17 @@ class ConvergenceResult:
             lines.append(f"observed order {m:<18} {label:<8} {order:6.2f}{extra}")
         return "\n".join(lines)
 
-    def to_dict(self) -> dict:
-        return {"equation": self.equation, "potential": self.potential, "reference": self.reference,
-                "rows": self.rows, "orders": {f"{m}:{lab}": v for (m, lab), v in self.orders.items()},
+    def to_dict(self, energy_unit: str = "hartree") -> dict:
+        """JSON-ready record: energies in ``energy_unit``; ``error`` and ``difference`` are relative."""
+        from .units import energy_unit as _unit, hartree_to
+
+        eu = _unit(energy_unit)
+        rows = [{**r, "energy": float(hartree_to(r["energy"], eu))} for r in self.rows]
+        return {"equation": self.equation, "potential": self.potential,
+                "units": {"energy": eu, "error": "relative (unitless)", "difference": "relative (unitless)",
+                          "size": "nodes"},
+                "reference": {k: float(hartree_to(v, eu)) for k, v in self.reference.items()},
+                "rows": rows, "orders": {f"{m}:{lab}": v for (m, lab), v in self.orders.items()},
                 "settings": self.settings}
 
 

@@ -53,41 +53,17 @@ from typing import Callable, Mapping
 import numpy as np
 import scipy.constants as sc
 
-from .units import ALPHA, BOHR_M, C_AU, ELECTRON_MASS_MEV, hartree_to
+from .units import ALPHA, BOHR_M, C_AU, ELECTRON_MASS_MEV, LENGTH_UNITS, bohr_to, hartree_to, length_unit
 from .wavefunctions import evaluate, origin_coefficient
 
 __all__ = ["Quantity", "LevelObservables", "expectation", "expectation_value", "radial_moment",
            "mean_radius", "rms_radius", "matrix_element", "observables", "g_factor", "hyperfine_a",
            "density_at_origin", "LENGTH_UNITS", "length_unit", "bohr_to", "masses_of"]
 
-LENGTH_UNITS: Mapping[str, float] = {
-    "bohr": 1.0,
-    "fm": BOHR_M * 1e15,
-    "pm": BOHR_M * 1e12,
-    "angstrom": BOHR_M * 1e10,
-    "nm": BOHR_M * 1e9,
-}
-"""Length unit -> multiply a value in bohr by this factor (Bohr radius from scipy.constants)."""
-
-_ALIASES = {u.lower(): u for u in LENGTH_UNITS} | {"a0": "bohr", "a.u.": "bohr", "å": "angstrom",
-                                                     "ang": "angstrom"}
 _INNER_EFOLDS = 60.0
 _GL_T, _GL_W = np.polynomial.legendre.leggauss(64)
 
 KG_NOTE = "Klein-Gordon: conserved charge density (E + mc^2 - V)/(mc^2) P^2"
-
-
-def length_unit(name: str) -> str:
-    """Canonical spelling of a length unit, or ValueError naming the allowed ones."""
-    key = _ALIASES.get(str(name).strip().lower())
-    if key is None:
-        raise ValueError(f"length_unit: unknown unit {name!r}; choose one of {', '.join(LENGTH_UNITS)}")
-    return key
-
-
-def bohr_to(value, unit: str):
-    """Convert a length (or array) from bohr to ``unit``."""
-    return value * LENGTH_UNITS[length_unit(unit)]
 
 
 @dataclass(frozen=True, slots=True)

@@ -15,7 +15,10 @@ matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 
-__all__ = ["convergence_figure", "save_figure", "radial_figure", "density_figure", "level_diagram"]
+from . import palette  # noqa: E402
+
+__all__ = ["convergence_figure", "save_figure", "radial_figure", "density_figure", "level_diagram",
+           "level_scheme", "draw_level_scheme", "spread_labels", "shift_figure"]
 
 _FORMATS = (".png", ".svg", ".pdf")
 
@@ -75,17 +78,31 @@ def convergence_figure(result, path):
 
 
 # --- wave functions and level diagrams -------------------------------------------------------
-# A palette of our own (colour-blind-safe ordering of distinct hues).
-_PALETTE = ("#1f3a93", "#c0392b", "#27ae60", "#e67e22", "#8e44ad", "#6e2c00", "#d81b60", "#0097a7",
-            "#9a7d0a", "#566573")
-
-
 def _colour(i: int) -> str:
-    return _PALETTE[i % len(_PALETTE)]
+    return palette.colour(i)
+
+
+def _equation_of(lv) -> str:
+    """The equation a level came from, read off its state: Dirac has Q, Klein-Gordon a density weight."""
+    st = lv.state
+    return "dirac" if st.Q is not None else "klein-gordon" if st.density_weight is not None else "schrodinger"
+
+
+def _level_colours(groups: dict) -> list[str]:
+    """One colour per level in drawing order: shades of its equation's colour (palette), darkest lowest."""
+    every = [lv for lvs in groups.values() for lv in lvs]
+    eqs = [_equation_of(lv) for lv in every]
+    count = {e: eqs.count(e) for e in set(eqs)}
+    seen: dict[str, int] = {}
+    out = []
+    for e in eqs:
+        out.append(palette.shades(palette.EQUATION_COLOURS[e], count[e])[seen.get(e, 0)])
+        seen[e] = seen.get(e, 0) + 1
+    return out
 
 
 def _length_scale(unit: str) -> tuple[str, float]:
-    from .observables import LENGTH_UNITS, length_unit
+    from .units import LENGTH_UNITS, length_unit
 
     key = length_unit(unit)
     return key, LENGTH_UNITS[key]
@@ -185,6 +202,7 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
     small one dashed (and drawn only for Dirac levels); circles mark the nodes of P.
     """
     unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
+    colours = _level_colours(groups)
     norm = 1.0 / math.sqrt(scale)
     i = 0
     have_q = have_nodes = have_kg = False
@@ -194,7 +212,7 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
             have_kg = have_kg or st.density_weight is not None
             comps = (st.P,) if st.Q is None else (st.P, st.Q)
             fine, smooth = _smooth(st.r, *comps, r_top=r_top / scale)
-            colour = _colour(i)
+            colour = colours[i]
             ax.plot(fine * scale, smooth[0] * norm, color=colour, lw=1.6, label=f"{_curve_label(group, lv)}  P")
             if st.Q is not None:
                 have_q = True
@@ -241,6 +259,7 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
     from .observables import mean_radius
 
     unit, scale, groups, fig, ax, r_top = _level_figure(levels, length_unit)
+    colours = _level_colours(groups)
     i = 0
     kinds: set = set()
     for group, lvs in groups.items():
@@ -249,7 +268,7 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
             kinds.add("kg" if st.density_weight is not None else "dirac" if st.Q is not None else "schrodinger")
             dens = st.density(st.r)
             fine, (smooth,) = _smooth(st.r, dens, r_top=r_top / scale)
-            colour = _colour(i)
+            colour = colours[i]
             mean = mean_radius(lv) * scale
             ax.plot(fine * scale, np.maximum(smooth, 0.0) / scale, color=colour, lw=1.5,
                     label=f"{_curve_label(group, lv)}  (<r> = {mean:.4g} {unit})")
@@ -268,9 +287,173 @@ def density_figure(levels, path, *, length_unit: str = "bohr", title: str | None
     return save_figure(fig, path)
 
 
+def spread_labels(wanted, gap: float) -> np.ndarray:
+    """Label positions as close as possible to ``wanted`` with neighbours at least ``gap`` apart.
+
+    Notes
+    -----
+    Minimises sum (y_i - wanted_i)^2 subject to y_(i+1) - y_i >= gap for the
+    labels in ascending order: with z_i = y_i - i gap this is an isotonic
+    regression of wanted_i - i gap, solved by pooling adjacent violators
+    (each pool sits at the mean of its members' targets). Returns the
+    positions in the order of ``wanted``.
+    """
+    wanted = np.asarray(wanted, float)
+    order = np.argsort(wanted, kind="stable")
+    target = wanted[order] - gap * np.arange(wanted.size)
+    pools: list[list[float]] = []           # [sum, count]
+    for t in target:
+        pools.append([t, 1.0])
+        while len(pools) > 1 and pools[-2][0] / pools[-2][1] > pools[-1][0] / pools[-1][1]:
+            s_, c_ = pools.pop()
+            pools[-1][0] += s_
+            pools[-1][1] += c_
+    z = np.concatenate([np.full(int(c), s_ / c) for s_, c in pools]) if pools else np.zeros(0)
+    out = np.empty_like(wanted)
+    out[order] = z + gap * np.arange(wanted.size)
+    return out
+
+
+def _same_energy(a, b) -> bool:
+    """Two levels equal within their error estimates (and 1e-12 relative): degenerate on any plot."""
+    return abs(a.energy - b.energy) <= a.error_estimate + b.error_estimate + 1e-12 * abs(a.energy)
+
+
+def _display_order(levels) -> list:
+    """Levels by energy, lowest first; degenerate ones (equal within their estimates) so that they read
+    2s1/2, 2p1/2 from the top down (the order of the tables)."""
+    ordered = sorted(levels, key=lambda lv: lv.energy)
+    out, run = [], []
+
+    def top_down(run):
+        return sorted(run, key=lambda x: (-x.l, -(x.j or 0.0)))
+
+    for lv in ordered:
+        if run and not _same_energy(run[-1], lv):
+            out += top_down(run)
+            run = []
+        run.append(lv)
+    return out + top_down(run)
+
+
+def _label_targets(ordered) -> np.ndarray:
+    """Wanted label heights (hartree): degenerate runs share their mean, so their order stays."""
+    y = np.array([lv.energy for lv in ordered], float)
+    i = 0
+    while i < len(ordered):
+        j = i + 1
+        while j < len(ordered) and _same_energy(ordered[j - 1], ordered[j]):
+            j += 1
+        y[i:j] = y[i:j].mean()
+        i = j
+    return y
+
+
+def _energy_text(E: float, unit: str, digits: int = 7) -> str:
+    return f"{E:.{digits}g} {unit}"
+
+
+def draw_level_scheme(ax, levels, *, energy_unit: str = "hartree", fontsize: float = 8.0,
+                      digits: int = 7) -> list:
+    """Draw levels as bars in one column per group, each labelled with its name and energy.
+
+    Parameters
+    ----------
+    ax : matplotlib Axes
+    levels : sequence of Level, or mapping of group name (equation or model) to levels
+    energy_unit : str
+        Unit of the energy axis and of the printed energies.
+    fontsize : float
+        Size of the labels in points.
+    digits : int
+        Significant digits of the printed energies.
+
+    Returns
+    -------
+    list of matplotlib.text.Text
+        The label artists (for layout checks).
+
+    Notes
+    -----
+    A group named after an equation takes that equation's colour
+    (:mod:`boundkit.palette`). Labels keep at least one text height apart
+    (:func:`spread_labels` on the axis as drawn); a label moved away from its
+    bar is joined to it by a thin leader line.
+    """
+    e_unit, e_scale = _energy_scale(energy_unit)
+    groups = {k: _display_order(v) for k, v in _as_groups(levels).items()}
+    energies = np.array([lv.energy * e_scale for lvs in groups.values() for lv in lvs])
+    if not energies.size:
+        raise ValueError("plot: no levels to draw")
+    lo, hi = float(energies.min()), float(energies.max())
+    span = max(hi - lo, 0.1 * abs(lo), 1e-300)
+    ax.set_ylim(lo - 0.08 * span, max(hi + 0.08 * span, 0.0) if hi < 0 else hi + 0.08 * span)
+    ax.set_xlim(-0.15, len(groups) - 0.05)
+    fig = ax.figure
+    texts = []
+    for _round in range(3):          # the gap in data units depends on the limits, which the labels may widen
+        y0, y1 = ax.get_ylim()
+        height_px = ax.get_window_extent().height or 1.0
+        gap = 1.35 * fontsize * fig.dpi / 72.0 / height_px * (y1 - y0)
+        placed = {g: spread_labels(_label_targets(lvs) * e_scale, gap) for g, lvs in groups.items()}
+        top = max(float(p.max()) for p in placed.values() if p.size)
+        bottom = min(float(p.min()) for p in placed.values() if p.size)
+        if top + 0.6 * gap <= y1 and bottom - 0.6 * gap >= y0:
+            break
+        ax.set_ylim(min(y0, bottom - 0.8 * gap), max(y1, top + 0.8 * gap))
+    for gi, (group, lvs) in enumerate(groups.items()):
+        c = palette.equation_colour(group, gi)
+        x0, x1, xt = gi, gi + 0.38, gi + 0.46
+        for lv, yl in zip(lvs, placed[group]):
+            E = lv.energy * e_scale
+            ax.hlines(E, x0, x1, colors=c, lw=2.2)
+            ax.plot([x1, xt - 0.02], [E, yl], color=c, lw=0.6, alpha=0.8)
+            texts.append(ax.text(xt, yl, f"{lv.label}  {_energy_text(E, e_unit, digits)}", fontsize=fontsize,
+                                 color=c, va="center", ha="left"))
+    # room on the right for the last column's labels (measured on the renderer)
+    renderer = fig.canvas.get_renderer()
+    right = max((ax.transData.inverted().transform(t.get_window_extent(renderer))[1][0] for t in texts),
+                default=len(groups))
+    ax.set_xlim(-0.15, max(len(groups) - 0.05, right + 0.05))
+    ax.set_xticks([gi + 0.19 for gi in range(len(groups))])
+    ax.set_xticklabels([g or "levels" for g in groups], fontsize=9)
+    for tick, g in zip(ax.get_xticklabels(), groups):
+        tick.set_color(palette.equation_colour(g, list(groups).index(g)))
+    ax.tick_params(axis="x", length=0)
+    ax.set_ylabel(f"binding energy ({e_unit})")
+    ax.grid(True, axis="y", alpha=0.25)
+    if lo < 0 < ax.get_ylim()[1]:
+        ax.axhline(0.0, color="0.6", lw=0.7, ls=":")
+    return texts
+
+
+def level_scheme(levels, path, *, energy_unit: str = "hartree", title: str | None = None) -> Path:
+    """A level scheme: one column per group (equation or model), labelled bars, written to ``path``.
+
+    See :func:`draw_level_scheme` for the layout; the format follows the suffix.
+    """
+    groups = _as_groups(levels)
+    fig, ax = plt.subplots(figsize=(max(4.2, 2.9 * len(groups) + 1.0), 5.2))
+    draw_level_scheme(ax, groups, energy_unit=energy_unit)
+    ax.set_title(title or "bound levels")
+    return save_figure(fig, path)
+
+
+def _inner_extent(levels, lose: float = 1e-7) -> float:
+    """Smallest radius (bohr) below which some level holds the fraction ``lose`` of its density."""
+    low = math.inf
+    for lv in levels:
+        st = lv.state
+        dens = st.P**2 if st.Q is None else st.P**2 + st.Q**2
+        cum = np.cumsum(st.weights * dens)
+        if cum[-1] > 0:
+            low = min(low, float(st.r[min(int(np.searchsorted(cum / cum[-1], lose)), len(st.r) - 1)]))
+    return low if math.isfinite(low) else 1e-3
+
+
 def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", length_unit: str = "bohr",
-                  title: str | None = None, r_max: float | None = None) -> Path:
-    """The potential with its bound levels drawn as horizontal lines.
+                  title: str | None = None, r_max: float | None = None, log_r: bool = True) -> Path:
+    """The potential with its bound levels (left, against log r) beside their level scheme (right).
 
     Parameters
     ----------
@@ -279,8 +462,8 @@ def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", leng
         scalar part S and, when S is not zero, V + S are drawn) or a callable
         V(r) (r in bohr, V in hartree).
     levels : sequence of Level, or mapping of group name to levels
-        Levels to draw; groups (for example equations) get their own colour
-        and are set side by side.
+        Levels to draw; each group (an equation or a model) has one colour
+        in both panels and one column in the scheme.
     path : str or Path
         Output file (.png, .svg or .pdf).
     energy_unit, length_unit : str
@@ -289,13 +472,17 @@ def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", leng
     r_max : float, optional
         Right end of the r axis in bohr (default: beyond the outermost
         classical turning point).
+    log_r : bool
+        Logarithmic r axis (default), from where the innermost level starts
+        to where the outermost has decayed: a finite nucleus and the levels
+        that feel it show on the same axis as the outer levels.
 
     Notes
     -----
-    Each level is a horizontal line at its binding energy, drawn where the
-    level is classically allowed, E > V + S (the potential the large
-    component feels at low energy), and across the plot when that region is
-    not found on the axis.
+    Left: each level is a horizontal line at its binding energy where it is
+    classically allowed, E > V + S (the potential the large component feels
+    at low energy). Right: :func:`draw_level_scheme` with the spectroscopic
+    label and the energy of every level, labels kept apart.
     """
     e_unit, e_scale = _energy_scale(energy_unit)
     l_unit, l_scale = _length_scale(length_unit)
@@ -309,13 +496,16 @@ def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", leng
         raise ValueError("plot: potential must be a Potential or a callable V(r)")
     if r_max is None:
         r_max = _extent(every) if every else 10.0
-    r = np.linspace(r_max * 1e-4, r_max, 1500)
-    v = np.asarray(V(r), float)
-    s = np.asarray(S(r), float)
+    r_min = min(_inner_extent(every), r_max * 1e-3) if (every and log_r) else r_max * 1e-4
+    r = np.geomspace(r_min, r_max, 1500) if log_r else np.linspace(r_min, r_max, 1500)
+    with np.errstate(all="ignore"):
+        v = np.asarray(V(r), float)
+        s = np.asarray(S(r), float)
     total = v + s
     has_scalar = bool(np.any(s != 0))
     energies = np.array([lv.energy for lv in every]) if every else np.zeros(0)
-    fig, ax = plt.subplots(figsize=(7.0, 4.8))
+    fig, (ax, axs) = plt.subplots(1, 2, figsize=(7.2 + 2.6 * len(groups), 5.0),
+                                  gridspec_kw={"width_ratios": [1.35, 0.9 * max(len(groups), 1)]})
     x = r * l_scale
     if has_scalar:
         ax.plot(x, v * e_scale, color="0.45", lw=1.0, ls="--", label="vector V(r)")
@@ -323,45 +513,98 @@ def level_diagram(potential, levels, path, *, energy_unit: str = "hartree", leng
         ax.plot(x, total * e_scale, color="black", lw=1.8, label="V(r) + S(r)")
     else:
         ax.plot(x, v * e_scale, color="black", lw=1.8, label="V(r)")
-    # vertical range: the levels, with room; the well bottom if it is finite and not far below
-    if energies.size:
-        lo, hi = float(energies.min()), float(energies.max())
-        span = max(hi - lo, 0.25 * abs(lo), 1e-300)
-        y_lo = lo - 0.35 * span
-        bottom = float(np.min(total))
-        if np.isfinite(bottom) and bottom > lo - 3 * span:
-            y_lo = min(y_lo, bottom - 0.05 * span)
-        y_hi = max(hi + 0.35 * span, 0.0 + 0.05 * span) if hi < 0 else hi + 0.35 * span
-    else:
-        y_lo, y_hi = float(np.min(total)), float(np.max(total))
-    ngroups = max(len(groups), 1)
-    gap = 0.03 * (y_hi - y_lo)          # smallest vertical distance between two labels
     for gi, (group, lvs) in enumerate(groups.items()):
-        colour = _colour(gi)
-        first = True
-        text_y = -math.inf
-        for lv in sorted(lvs, key=lambda lv: lv.energy):
+        c = palette.equation_colour(group, gi)
+        for k, lv in enumerate(sorted(lvs, key=lambda lv: lv.energy)):
             inside = np.nonzero(total < lv.energy)[0]
-            if inside.size:
-                a, b = x[inside[0]], x[inside[-1]]
-            else:
-                a, b = x[0], x[-1]
-            # groups side by side inside the allowed region, so close levels stay readable
-            width = (b - a) / ngroups
-            a, b = a + gi * width, a + (gi + 1) * width
-            ax.hlines(lv.energy * e_scale, a, b, colors=colour, lw=1.6,
-                      label=(group or "levels") if first else None)
-            text_y = max(lv.energy, text_y + gap)
-            ax.annotate(lv.label, (b, lv.energy * e_scale), xytext=(b + 0.008 * x[-1], text_y * e_scale),
-                        textcoords="data",
-                        fontsize=7, color=colour, va="center", ha="left")
-            first = False
+            a, b = (x[inside[0]], x[inside[-1]]) if inside.size else (x[0], x[-1])
+            ax.hlines(lv.energy * e_scale, a, b, colors=c, lw=1.3, alpha=0.9,
+                      label=(group or "levels") if k == 0 else None)
+    if log_r:
+        ax.set_xscale("log")
+    ax.set_xlim(x[0], x[-1])
+    texts = draw_level_scheme(axs, groups, energy_unit=e_unit) if every else []
+    if energies.size:
+        ax.set_ylim(*axs.get_ylim())
     ax.axhline(0.0, color="0.6", lw=0.7)
-    ax.set_ylim(y_lo * e_scale, y_hi * e_scale)
-    ax.set_xlim(0.0, x[-1])
-    ax.set_xlabel(f"r ({l_unit})")
-    ax.set_ylabel(f"energy, binding convention ({e_unit})")
-    ax.set_title(title or "potential and bound levels")
+    ax.set_xlabel(f"r ({l_unit}, logarithmic)" if log_r else f"r ({l_unit})")
+    ax.set_ylabel(f"binding energy ({e_unit})")
     ax.legend(fontsize=7, loc="lower right")
-    ax.grid(True, alpha=0.25)
+    ax.grid(True, alpha=0.25, which="both" if not log_r else "major")
+    axs.set_ylabel("")
+    axs.set_title("levels", fontsize=10)
+    fig.suptitle(title or "potential and bound levels")
+    fig._boundkit_labels = texts  # for layout checks (tests)
     return save_figure(fig, path)
+
+
+def shift_figure(rows, path, *, unit: str, reference: str, title: str | None = None) -> Path:
+    """Shifts of levels against a reference model, one horizontal bar per level and model.
+
+    Parameters
+    ----------
+    rows : sequence of dict
+        ``label``, ``model``, ``equation``, ``shift`` and ``error_estimate``
+        (already in ``unit``), in the order to draw (top to bottom).
+    path : str or Path
+        Output file (.png, .svg or .pdf).
+    unit : str
+        Energy unit of the shifts (printed on the axis).
+    reference : str
+        Name of the reference model (the axis says what is subtracted).
+    title : str, optional
+
+    Notes
+    -----
+    Shift = E(model) - E(reference) of the same level; a bar's colour is its
+    equation's (:mod:`boundkit.palette`), and the value is printed beside it
+    with the digits its error estimate supports (:mod:`boundkit.reporting`).
+    Shifts of very different size share a symmetric-log axis, so a 1e-6 shift
+    stays visible beside a large one.
+    """
+    from .reporting import format_difference
+
+    rows = list(rows)
+    if not rows:
+        raise ValueError("plot: no shifts to draw")
+    fig, ax = plt.subplots(figsize=(7.0, 0.9 + 0.34 * len(rows)))
+    y = np.arange(len(rows))[::-1]
+    vals = np.array([r["shift"] for r in rows], float)
+    for yi, r, v in zip(y, rows, vals):
+        c = palette.equation_colour(r["equation"])
+        ax.barh(yi, v, color=c, alpha=0.85, height=0.62)
+        ax.text(v, yi, "  " + format_difference(v, r["error_estimate"], 6) + "  ", va="center",
+                ha="left" if v >= 0 else "right", fontsize=7.5, color=c)
+    ax.set_yticks(y)
+    ax.set_yticklabels([f"{r['model']}, {r['equation']}: {r['label']}" for r in rows], fontsize=8)
+    nonzero = np.abs(vals[vals != 0])
+    big, small = (float(nonzero.max()), float(nonzero.min())) if nonzero.size else (0.0, 0.0)
+    name = f"E(model) - E({reference})"
+    if small and big / small > 1e3 and (np.all(vals >= 0) or np.all(vals <= 0)):
+        # one sign, many decades: a log axis of the magnitude, bars from below the smallest
+        ax.cla()
+        floor = small / 3
+        sign = "" if np.all(vals >= 0) else "-"
+        for yi, r, v in zip(y, rows, vals):
+            c = palette.equation_colour(r["equation"])
+            ax.barh(yi, max(abs(v), floor) - floor, left=floor, color=c, alpha=0.85, height=0.62)
+            ax.text(max(abs(v), floor), yi, "  " + format_difference(v, r["error_estimate"], 6), va="center",
+                    ha="left", fontsize=7.5, color=c)
+        ax.set_xscale("log")
+        ax.set_yticks(y)
+        ax.set_yticklabels([f"{r['model']}, {r['equation']}: {r['label']}" for r in rows], fontsize=8)
+        ax.set_xlim(floor, big * 30)
+        name = f"{sign}[{name}]" if sign else name
+    elif small and big / small > 1e3:
+        ax.set_xscale("symlog", linthresh=small)
+    else:
+        lo, hi = ax.get_xlim()
+        pad = 0.25 * (hi - lo)
+        ax.set_xlim(lo - (pad if lo < 0 else 0), hi + pad)
+    if ax.get_xscale() != "log":
+        ax.axvline(0.0, color="0.4", lw=0.8)
+    ax.set_xlabel(f"{name} ({unit})")
+    ax.set_title(title or f"level shifts against {reference}", fontsize=10)
+    ax.grid(True, axis="x", alpha=0.25)
+    return save_figure(fig, path)
+

@@ -1,12 +1,26 @@
-"""Frozen result objects with readable reprs."""
+"""Frozen result objects with readable reprs.
+
+Units: a result stores binding energies in hartree and lengths in bohr (its
+``units`` record says so); every way out converts in one call:
+``Level.energy_in(unit)``, ``RadialState.r_in(unit)``,
+``SolveResult.energies(unit)`` and ``SolveResult.to_dict(energy_unit,
+length_unit)``, which convert every value of the record (diagnostics
+included) and state the units in its ``units`` block. Called with
+``units="nuclear"``, a result's defaults are MeV and fm.
+
+Labels: a level is named in the atomic convention (``2p1/2``) unless another
+convention is asked for (``labels="nuclear"`` gives ``0p1/2``,
+``"quarkonium"`` gives ``1P``; :mod:`boundkit.states`).
+"""
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
 
-from .units import hartree_to
+from .states import check_convention, level_label
+from .units import bohr_to, energy_unit, hartree_to, length_unit, system_units
 
 __all__ = ["RadialState", "Level", "SolveResult"]
 
@@ -69,6 +83,10 @@ class RadialState:
             dens = dens + evaluate(self, r, "Q") ** 2
         return dens.reshape(shape)
 
+    def r_in(self, unit: str) -> np.ndarray:
+        """The radial nodes in ``unit`` (bohr, fm, pm, angstrom, nm)."""
+        return bohr_to(self.r, unit)
+
     def __repr__(self) -> str:
         comp = "P, Q" if self.Q is not None else "P"
         return (f"RadialState({comp} on {len(self.r)} nodes, r in "
@@ -102,6 +120,10 @@ class Level:
 
     def error_in(self, unit: str) -> float:
         return float(hartree_to(self.error_estimate, unit))
+
+    def label_in(self, labels: str = "atomic") -> str:
+        """The level's label in a labelling convention (``atomic``, ``nuclear``, ``quarkonium``)."""
+        return level_label(self.nodes, self.l, self.j, labels)
 
     def __repr__(self) -> str:
         return (f"Level({self.label}: E = {self.energy:.15g} hartree "
@@ -140,7 +162,18 @@ class SolveResult:
     units: dict = field(default_factory=dict)
     diagnostics: dict = field(default_factory=dict)
 
-    def energies(self, unit: str = "hartree") -> np.ndarray:
+    @property
+    def system(self) -> str:
+        """The unit system the result was asked in (``settings['units']``, default atomic)."""
+        return str(self.settings.get("units", "atomic"))
+
+    def default_units(self) -> tuple[str, str]:
+        """(energy unit, length unit) of the system it was called with: hartree and bohr, or MeV and fm."""
+        return system_units(self.system)
+
+    def energies(self, unit: str | None = None) -> np.ndarray:
+        """Binding energies in ``unit`` (default: the unit system of the call, hartree or MeV)."""
+        unit = self.default_units()[0] if unit is None else unit
         return np.array([lv.energy_in(unit) for lv in self.levels])
 
     def level(self, label: str) -> Level:
@@ -149,12 +182,31 @@ class SolveResult:
                 return lv
         raise KeyError(f"no level {label!r}; have {', '.join(lv.label for lv in self.levels)}")
 
-    def to_dict(self, energy_unit: str = "hartree") -> dict[str, Any]:
-        """A JSON-ready record (energies in ``energy_unit``)."""
+    def with_labels(self, labels: str) -> "SolveResult":
+        """The same result with its levels named in convention ``labels`` (recorded in ``settings``)."""
+        labels = check_convention(labels)
+        levels = tuple(replace(lv, label=lv.label_in(labels)) for lv in self.levels)
+        renamed = {old.label: new.label for old, new in zip(self.levels, levels)}
+        diag = dict(self.diagnostics)
+        for key in ("levels", "cross_check"):
+            if isinstance(diag.get(key), list):
+                diag[key] = [{**rec, "label": renamed.get(rec.get("label"), rec.get("label"))} for rec in diag[key]]
+        return replace(self, levels=levels, settings={**self.settings, "labels": labels}, diagnostics=diag)
+
+    def to_dict(self, energy_unit: str | None = None, length_unit: str | None = None) -> dict[str, Any]:
+        """A JSON-ready record; every energy in ``energy_unit``, every length in ``length_unit``.
+
+        Defaults: the unit system of the call (hartree and bohr, or MeV and
+        fm). The ``units`` block names the unit of every kind of value,
+        diagnostics included (energies, lengths, times in s).
+        """
+        e_def, l_def = self.default_units()
+        eu = _energy(energy_unit or e_def)
+        lu = _length(length_unit or l_def)
         return {
             "equation": self.equation,
             "potential": self.potential,
-            "units": {"energy": energy_unit, "length": "bohr"},
+            "units": units_block(eu, lu, parameters=_SYSTEMS.get(self.system, self.system)),
             "constants": self.constants,
             "settings": self.settings,
             "status": self.status,
@@ -163,16 +215,71 @@ class SolveResult:
             "levels": [
                 {
                     "n": lv.n, "l": lv.l, "j": lv.j, "kappa": lv.kappa, "label": lv.label,
-                    "energy": lv.energy_in(energy_unit),
-                    "error_estimate": lv.error_in(energy_unit),
+                    "energy": lv.energy_in(eu),
+                    "error_estimate": lv.error_in(eu),
                     "nodes": lv.nodes, "resolution": lv.resolution,
                 }
                 for lv in self.levels
             ],
-            "diagnostics": self.diagnostics,
+            "diagnostics": diagnostics_in(self.diagnostics, eu, lu),
         }
 
     def __repr__(self) -> str:
         lines = [f"SolveResult({self.equation}, {self.potential}, status={self.status!r}: {self.message})"]
         lines += [f"  {lv!r}" for lv in self.levels]
+        if self.system != "atomic":
+            eu, lu = self.default_units()
+            lines.append(f"  (stored in hartree and bohr; parameters were read in {self.system} units: "
+                         f"res.energies() and res.to_dict() give {eu} and {lu})")
         return "\n".join(lines)
+
+
+_SYSTEMS = {"atomic": "atomic (each parameter in hartree and bohr as its unit says)",
+            "nuclear": "nuclear (each parameter in MeV and fm as its unit says)"}
+
+
+def _energy(unit: str) -> str:
+    return energy_unit(unit)
+
+
+def _length(unit: str) -> str:
+    return length_unit(unit)
+
+
+def units_block(energy: str, length: str, **more: str) -> dict[str, str]:
+    """The ``units`` block of a JSON record: the unit of every kind of value in it."""
+    return {"energy": energy, "length": length, "time": "s", **more}
+
+
+# diagnostics keys: old name -> (new name, kind); the new name carries no unit, the units block does
+_DIAG_KEYS = {"threshold_hartree": ("threshold", "energy"), "natural_length_bohr": ("natural_length", "length")}
+_PER_LEVEL = {"energies": "energy", "r_min": "length", "r_max": "length"}
+_CROSS = {"energy": "energy", "error_estimate": "energy", "other_energy": "energy",
+          "other_error_estimate": "energy", "difference": "energy"}
+
+
+def _convert(value, kind: str, eu: str, lu: str):
+    if value is None:
+        return None
+    conv = (lambda x: float(hartree_to(x, eu))) if kind == "energy" else (lambda x: float(bohr_to(x, lu)))
+    if isinstance(value, (list, tuple)):
+        return [None if x is None else conv(x) for x in value]
+    return conv(value)
+
+
+def diagnostics_in(diag: dict, eu: str, lu: str) -> dict:
+    """A solve's diagnostics with energies in ``eu`` and lengths in ``lu`` (keys without unit suffixes)."""
+    out = {}
+    for key, value in diag.items():
+        if key in _DIAG_KEYS:
+            new, kind = _DIAG_KEYS[key]
+            out[new] = _convert(value, kind, eu, lu)
+        elif key == "levels" and isinstance(value, list):
+            out[key] = [{k: (_convert(v, _PER_LEVEL[k], eu, lu) if k in _PER_LEVEL else v)
+                         for k, v in rec.items()} for rec in value]
+        elif key == "cross_check" and isinstance(value, list):
+            out[key] = [{k: (_convert(v, _CROSS[k], eu, lu) if k in _CROSS else v)
+                         for k, v in rec.items()} for rec in value]
+        else:
+            out[key] = value
+    return out

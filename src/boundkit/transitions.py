@@ -372,7 +372,8 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
                 max_n: int = 2, levels: Sequence[str] | None = None, multipoles: Sequence[str] = ("E1",),
                 energy_unit: str = "eV", tol: float = 1e-14, method: str = "auto",
                 particle: str | None = None, mass_mev: float | None = None,
-                nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic") -> TransitionResult:
+                nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
+                labels: str = "atomic") -> TransitionResult:
     """All radiative lines among the bound levels with n <= ``max_n``.
 
     Parameters
@@ -388,6 +389,9 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
         0.7 % of the 2p3/2 -> 1s1/2 rate at Z = 92).
     energy_unit : str
         Unit of line energies (any energy unit, e.g. eV, cm^-1, MHz).
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        Labelling convention of the levels, of ``levels`` and of the result
+        (:mod:`boundkit.states`); ``max_n`` stays the atomic n = nodes + l + 1.
 
     Returns
     -------
@@ -420,7 +424,7 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
     for channel, count in _channels(key, max_n):
         res = solve(key, potential, params, levels=count, tol=tol, method=method, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar, units=units,
-                    **channel)
+                    **channel).with_labels(labels)
         settings = {k: v for k, v in res.settings.items() if k not in ("l", "kappa", "j", "levels")}
         potential_name = res.potential
         if res.status == "partial":
@@ -462,5 +466,5 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
         message += "; " + "; ".join(messages)
     from .units import constants_record
     return TransitionResult(tuple(lines), tuple(decays), key, potential_name, unit,
-                            settings={**settings, "max_n": max_n, "multipoles": mults, "tol": tol},
+                            settings={**settings, "max_n": max_n, "multipoles": mults, "tol": tol, "labels": labels},
                             constants=constants_record(), status=status, message=message)

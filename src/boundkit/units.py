@@ -25,8 +25,15 @@ __all__ = [
     "Particle",
     "PARTICLES",
     "ENERGY_UNITS",
+    "LENGTH_UNITS",
     "get_particle",
+    "particle_table",
     "hartree_to",
+    "bohr_to",
+    "energy_unit",
+    "length_unit",
+    "system_units",
+    "column",
     "constants_record",
 ]
 
@@ -53,11 +60,17 @@ class Particle:
         Rest energy in MeV.
     source : str
         Where the mass comes from.
+    charge : float, optional
+        Electric charge in units of the elementary charge e (None: not stated).
+    spin : float, optional
+        Spin in units of hbar (None: not stated).
     """
 
     name: str
     mass_mev: float
     source: str
+    charge: float | None = None
+    spin: float | None = None
 
     def __post_init__(self) -> None:
         check_positive("mass_mev", self.mass_mev)
@@ -73,14 +86,25 @@ def _codata_mass(key: str) -> float:
 
 
 _PDG = "Particle Data Group, Review of Particle Physics (value from memory; not in CODATA)"
+_CODATA = "CODATA via scipy.constants"
+# charges in e and spins in hbar are common knowledge; the negative mesons are the ones that form atoms
 PARTICLES: Mapping[str, Particle] = {
-    "electron": Particle("electron", _codata_mass("electron mass energy equivalent in MeV"), "CODATA via scipy.constants"),
-    "muon": Particle("muon", _codata_mass("muon mass energy equivalent in MeV"), "CODATA via scipy.constants"),
-    "pion": Particle("pion", 139.57039, _PDG),
-    "kaon": Particle("kaon", 493.677, _PDG),
-    "proton": Particle("proton", _codata_mass("proton mass energy equivalent in MeV"), "CODATA via scipy.constants"),
-    "antiproton": Particle("antiproton", _codata_mass("proton mass energy equivalent in MeV"), "CODATA via scipy.constants (equal to the proton mass)"),
+    "electron": Particle("electron", _codata_mass("electron mass energy equivalent in MeV"), _CODATA, -1.0, 0.5),
+    "muon": Particle("muon", _codata_mass("muon mass energy equivalent in MeV"), _CODATA, -1.0, 0.5),
+    "pion": Particle("pion", 139.57039, _PDG + "; the negative pion", -1.0, 0.0),
+    "kaon": Particle("kaon", 493.677, _PDG + "; the negative kaon", -1.0, 0.0),
+    "proton": Particle("proton", _codata_mass("proton mass energy equivalent in MeV"), _CODATA, 1.0, 0.5),
+    "antiproton": Particle("antiproton", _codata_mass("proton mass energy equivalent in MeV"),
+                           _CODATA + " (equal to the proton mass)", -1.0, 0.5),
+    "neutron": Particle("neutron", _codata_mass("neutron mass energy equivalent in MeV"), _CODATA, 0.0, 0.5),
+    "deuteron": Particle("deuteron", _codata_mass("deuteron mass energy equivalent in MeV"), _CODATA, 1.0, 1.0),
 }
+
+
+def particle_table() -> list[dict]:
+    """Every named particle as a record: name, mass (MeV/c^2), charge (e), spin (hbar), source."""
+    return [{"name": p.name, "mass": p.mass_mev, "mass_unit": "MeV/c^2", "charge": p.charge, "charge_unit": "e",
+             "spin": p.spin, "spin_unit": "hbar", "source": p.source} for p in PARTICLES.values()]
 
 
 def get_particle(particle: str | Particle | None = None, mass_mev: float | None = None) -> Particle:
@@ -126,6 +150,47 @@ def energy_unit(name: str) -> str:
 def hartree_to(value, unit: str):
     """Convert an energy (or array) from hartree to ``unit``."""
     return value * ENERGY_UNITS[energy_unit(unit)]
+
+
+LENGTH_UNITS: Mapping[str, float] = {
+    "bohr": 1.0,
+    "fm": BOHR_M * 1e15,
+    "pm": BOHR_M * 1e12,
+    "angstrom": BOHR_M * 1e10,
+    "nm": BOHR_M * 1e9,
+}
+"""Length unit -> multiply a value in bohr by this factor (Bohr radius from scipy.constants)."""
+_LENGTH_ALIASES = {u.lower(): u for u in LENGTH_UNITS} | {"a0": "bohr", "a.u.": "bohr", "å": "angstrom",
+                                                          "ang": "angstrom"}
+
+
+def length_unit(name: str) -> str:
+    """Canonical spelling of a length unit, or ValueError naming the allowed ones."""
+    key = _LENGTH_ALIASES.get(str(name).strip().lower())
+    if key is None:
+        raise ValueError(f"length_unit: unknown unit {name!r}; choose one of {', '.join(LENGTH_UNITS)}")
+    return key
+
+
+def bohr_to(value, unit: str):
+    """Convert a length (or array) from bohr to ``unit``."""
+    return value * LENGTH_UNITS[length_unit(unit)]
+
+
+def column(name: str, unit: str) -> str:
+    """CSV column name carrying its unit: ``energy_MeV``, ``delta_per_bohr``; ``name`` alone when unitless."""
+    unit = str(unit or "").strip()
+    if unit in ("", "1", "e"):
+        return name
+    unit = unit.replace(" ", "")
+    unit = ("per_" + unit[2:]) if unit.startswith("1/") else unit
+    suffix = f"_{unit.replace('/', '_per_')}"
+    return name if name.endswith(suffix) else name + suffix     # rms_fm stays rms_fm
+
+
+def system_units(system: str = "atomic") -> tuple[str, str]:
+    """(energy unit, length unit) of a unit system: hartree and bohr, or MeV and fm."""
+    return ("MeV", "fm") if system == "nuclear" else ("hartree", "bohr")
 
 
 def constants_record() -> dict:

@@ -7,7 +7,7 @@ One module per command group; the imports run one way (no cycle)::
     cli/common.py     exit codes, ``fail``, argument checks, figure writing
     cli/options.py    options shared by several commands (defined once) and ``build_potential``
     cli/solve.py      solve                      cli/convergence.py  converge, validate
-    cli/catalog.py    potentials                 cli/studies.py      scan, critical, compare
+    cli/catalog.py    potentials, particles      cli/studies.py      scan, critical, compare
     cli/run.py        run SPEC.toml              cli/observables.py  transitions, hyperfine (+ solve extras)
     cli/continuum.py  phases                     cli/resonances.py   resonances
 
@@ -17,7 +17,7 @@ command: write it in its group's module (or a new one) and list it below.
 """
 from __future__ import annotations
 
-from .catalog import potentials_cmd
+from .catalog import particles_cmd, potentials_cmd
 from .continuum import phases_cmd
 from .convergence import converge_cmd, validate_cmd
 from .group import main
@@ -30,6 +30,6 @@ from .studies import compare_cmd, critical_cmd, scan_cmd
 __all__ = ["main"]
 
 for _command in (solve_cmd, converge_cmd, potentials_cmd, validate_cmd, run_cmd, scan_cmd, critical_cmd,
-                 compare_cmd, transitions_cmd, hyperfine_cmd, phases_cmd, resonances_cmd):
+                 compare_cmd, transitions_cmd, hyperfine_cmd, phases_cmd, resonances_cmd, particles_cmd):
     main.add_command(_command)
 del _command

@@ -1,11 +1,13 @@
-"""``boundkit potentials``: what the library knows (its model potentials)."""
+"""``boundkit potentials`` and ``boundkit particles``: what the library knows (model potentials, particles)."""
 from __future__ import annotations
+
+import json
 
 import click
 
-from .common import fail
+from .common import fail, json_default
 
-__all__ = ["potentials_cmd"]
+__all__ = ["potentials_cmd", "particles_cmd"]
 
 
 @click.command("potentials")
@@ -33,4 +35,21 @@ def potentials_cmd(name):
         click.echo(f"  {pname:<18} {p['unit']:>16} / {unit_label(p['unit'], 'nuclear'):<14} {default:<16} "
                    f"{p['description']}")
 
+
+@click.command("particles")
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object (a list of particles with units).")
+def particles_cmd(as_json):
+    """List the particles --particle accepts: mass, charge, spin and where the mass comes from."""
+    from ..units import particle_table
+
+    rows = particle_table()
+    if as_json:
+        click.echo(json.dumps({"units": {"mass": "MeV/c^2", "charge": "e", "spin": "hbar"}, "particles": rows},
+                              default=json_default, indent=2))
+        return
+    click.echo(f"{'name':<11} {'mass (MeV/c^2)':>17} {'charge (e)':>10} {'spin (hbar)':>11}  source")
+    for r in rows:
+        charge = "-" if r["charge"] is None else ("0" if r["charge"] == 0 else f"{r['charge']:+g}")
+        spin = "-" if r["spin"] is None else f"{r['spin']:g}"
+        click.echo(f"{r['name']:<11} {r['mass']:>17.12g} {charge:>10} {spin:>11}  {r['source']}")
 

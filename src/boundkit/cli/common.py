@@ -17,7 +17,7 @@ import click
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
            "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
-           "parse_params", "report_unit"]
+           "parse_params", "report_unit", "report_length"]
 
 EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
@@ -137,3 +137,11 @@ def report_unit(energy_unit: str | None, unit_system: str) -> str:
     from ..units import energy_unit as canonical_unit
 
     return canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
+
+
+def report_length(length_unit: str | None, unit_system: str) -> str:
+    """Canonical name of the unit of reported lengths: ``--length-unit``, else bohr (fm with --units nuclear)."""
+    from ..units import length_unit as canonical_length
+
+    return canonical_length(length_unit or ("fm" if unit_system == "nuclear" else "bohr"))
+

@@ -47,7 +47,7 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     except ValueError as exc:
         fail(str(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(), default=json_default, indent=2))
+        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
     else:
         click.echo(f"{res.equation} equation, potential {res.potential}; errors relative to a spectral "
                    f"solve at tol {tol:g}")

@@ -9,8 +9,8 @@ import sys
 import click
 
 from .common import EXIT_NOT_CONVERGED, check_particle, fail, json_default
-from .options import (build_potential, energy_unit_option, equation_option, json_option, levels_option,
-                      method_option, particle_options, potential_options, tol_option)
+from .options import (build_potential, energy_unit_option, equation_option, json_option, labels_option,
+                      levels_option, method_option, particle_options, potential_options, tol_option)
 
 __all__ = ["transitions_cmd", "hyperfine_cmd", "observables_table", "add_observables", "write_states_file"]
 
@@ -89,10 +89,11 @@ def _format_lines(tr) -> str:
 @tol_option(1e-14)
 @method_option()
 @particle_options()
+@labels_option
 @json_option()
 def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                     table_origin, table_r_unit, table_v_unit, params, unit_system, max_n, levels, multipoles,
-                    energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
+                    energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, labels, as_json):
     """Radiative lines among the levels up to --max-n: energies, line strengths, oscillator
     strengths, Einstein A, lifetimes and branching ratios."""
     from ..transitions import transitions
@@ -104,7 +105,7 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
         tr = transitions(equation, vector, values, max_n=max_n, levels=list(levels) or None,
                          multipoles=list(multipoles) or ["E1"], energy_unit=energy_unit, tol=tol, method=method,
                          particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
-                         scalar=scalar or None, units=unit_system)
+                         scalar=scalar or None, units=unit_system, labels=labels)
     except ValueError as exc:
         fail(str(exc))
     if as_json:

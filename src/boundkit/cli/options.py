@@ -20,7 +20,8 @@ from .common import parse_params
 
 __all__ = ["potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
            "levels_option", "tol_option", "method_option", "order_option", "particle_options", "energy_unit_option",
-           "plot_option", "json_option", "METHODS", "ENERGY_UNIT_NAMES"]
+           "plot_option", "json_option", "METHODS", "ENERGY_UNIT_NAMES", "length_unit_option", "labels_option",
+           "LENGTH_UNIT_NAMES"]
 
 METHODS = ("auto", "spectral", "finite-difference")
 ENERGY_UNIT_NAMES = ("hartree", "eV", "meV", "keV", "MeV", "cm^-1", "MHz", "GHz", "THz")
@@ -105,7 +106,8 @@ def order_option(default: int | None = None):
 def particle_options():
     """``--particle`` or ``--mass-mev`` (one of them), and ``--nucleus-mass-mev`` for the reduced mass."""
     opts = [click.option("--particle", default=None,
-                         help="electron (default), muon, pion, kaon, proton, antiproton."),
+                         help="electron (default), muon, pion, kaon, proton, antiproton, neutron, deuteron "
+                              "(boundkit particles)."),
             click.option("--mass-mev", type=float, default=None,
                          help="Particle mass in MeV/c^2 (instead of --particle)."),
             click.option("--nucleus-mass-mev", type=float, default=None,
@@ -148,8 +150,12 @@ def potential_options(f):
                      help="Table: charge of the Coulomb tail (default from the last point)."),
         click.option("--table-origin", type=click.Choice(["coulomb", "finite"]), default="coulomb",
                      show_default=True, help="Table: behaviour below the first point."),
-        click.option("--table-r-unit", default="bohr", show_default=True, help="Table: unit of r (bohr, angstrom, fm, nm)."),
-        click.option("--table-v-unit", default="hartree", show_default=True, help="Table: unit of V (hartree, eV, keV, MeV)."),
+        click.option("--table-r-unit", default=None,
+                     help="Table: unit of r (bohr, angstrom, fm, nm) when the file has no units line; "
+                          "default bohr, fm with --units nuclear."),
+        click.option("--table-v-unit", default=None,
+                     help="Table: unit of V (hartree, eV, keV, MeV) when the file has no units line; "
+                          "default hartree, MeV with --units nuclear."),
         click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
                      help="Potential parameter (repeatable), e.g. --param Z=1."),
         click.option("--units", "unit_system", type=click.Choice(["atomic", "nuclear"]), default="atomic",
@@ -193,4 +199,23 @@ def subset_params(text, values):
 
     names = parse_expression(text).parameter_names
     return {k: v for k, v in values.items() if k in names}
+
+
+LENGTH_UNIT_NAMES = ("bohr", "fm", "pm", "angstrom", "nm")
+"""The names of :data:`boundkit.units.LENGTH_UNITS`, for help texts (checked against it by a test)."""
+
+
+def length_unit_option(f):
+    """``--length-unit``: unit of every reported length (default bohr, fm with --units nuclear)."""
+    return click.option("--length-unit", default=None,
+                        help="Unit of reported lengths: " + ", ".join(LENGTH_UNIT_NAMES)
+                             + " (default bohr; fm with --units nuclear).")(f)
+
+
+def labels_option(f):
+    """``--labels``: the labelling convention of the levels (see boundkit.states)."""
+    return click.option("--labels", type=click.Choice(["atomic", "nuclear", "quarkonium"]), default="atomic",
+                        show_default=True,
+                        help="Level names: atomic n = nodes + l + 1 (2p1/2), nuclear n = nodes from 0 (0p1/2), "
+                             "quarkonium n = nodes + 1 (1P).")(f)
 

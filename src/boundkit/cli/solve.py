@@ -7,33 +7,43 @@ import sys
 import click
 
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, clip_message,
-                     fail, json_default, report_unit, write_figure)
+                     fail, json_default, report_length, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
-                      levels_option, method_option, order_option, particle_options, plot_option,
-                      potential_options, tol_option)
+                      labels_option, length_unit_option, levels_option, method_option, order_option,
+                      particle_options, plot_option, potential_options, tol_option)
 
 __all__ = ["solve_cmd"]
 
 
-def _table(res, unit: str) -> str:
-    from ..units import hartree_to
+_CONVENTION = {"atomic": "atomic labels: n = nodes + l + 1",
+               "nuclear": "nuclear labels: n = radial nodes, counted from 0 (0s1/2, 0p3/2, 1s1/2)",
+               "quarkonium": "quarkonium labels: n = nodes + 1 (1S, 2S, 1P)"}
+
+
+def _table(res, unit: str, length: str = "bohr") -> str:
+    from ..states import level_n
+    from ..units import bohr_to, hartree_to
 
     s = res.settings
+    labels = s.get("labels", "atomic")
+    d = res.diagnostics
     head = [
         f"{res.equation} equation, potential {res.potential}, particle {s.get('particle')} "
-        f"({s.get('particle_mass_MeV'):.9g} MeV)",
-        f"method {s['method']['method']}, tol {s['tol']:g}, alpha = {res.constants['alpha']:.13g} (CODATA)",
-        f"binding energies (total minus rest energy) in {unit}",
+        f"({s.get('particle_mass_MeV'):.9g} MeV/c^2)",
+        f"method {s['method']['method']}, tol {s['tol']:g} (relative), alpha = {res.constants['alpha']:.13g} (CODATA)",
+        f"binding energies (total minus rest energy) in {unit}; {_CONVENTION[labels]}",
+        f"natural length of the potential {bohr_to(d.get('natural_length_bohr') or 0.0, length):.6g} {length}",
         "",
-        f"{'level':<8} {'n':>3} {'l':>3} {'j':>5} {'kappa':>6} {'energy':>24} {'error estimate':>15}",
+        f"{'level':<8} {'n':>3} {'l':>3} {'j':>5} {'kappa':>6} {'energy (' + unit + ')':>24} "
+        f"{'error (' + unit + ')':>15}",
     ]
     rows = []
     for lv in res.levels:
+        n = level_n(lv.nodes, lv.l, labels)
         j = "" if lv.j is None else f"{lv.j:g}"
         kappa = "" if lv.kappa is None else str(lv.kappa)
-        rows.append(f"{lv.label:<8} {lv.n:>3} {lv.l:>3} {j:>5} {kappa:>6} "
+        rows.append(f"{lv.label:<8} {n:>3} {lv.l:>3} {j:>5} {kappa:>6} "
                     f"{lv.energy_in(unit):>24.15g} {lv.error_in(unit):>15.2g}")
-    d = res.diagnostics
     if "cross_check" in d:
         rows.append("")
         rows.append(f"cross-check against {d['cross_check'][0]['other_method'] if d['cross_check'] else '-'}:")
@@ -41,10 +51,10 @@ def _table(res, unit: str) -> str:
             if c["other_energy"] is None:
                 rows.append(f"  {c['label']:<8} not found by the other family")
                 continue
-            rows.append(f"  {c['label']:<8} other {hartree_to(c['other_energy'], unit):>24.16g}  "
-                        f"|difference| {hartree_to(c['difference'], unit):.2g}  "
+            rows.append(f"  {c['label']:<8} other {hartree_to(c['other_energy'], unit):>24.16g} {unit}  "
+                        f"|difference| {hartree_to(c['difference'], unit):.2g} {unit}  "
                         f"(estimates {hartree_to(c['error_estimate'], unit):.2g}, "
-                        f"{hartree_to(c['other_error_estimate'], unit):.2g})")
+                        f"{hartree_to(c['other_error_estimate'], unit):.2g} {unit})")
     dropped = d.get("dropped_node_mismatch", 0) + d.get("dropped_unstable", 0)
     count = d.get("bound_count")
     threshold = d.get("threshold_hartree") or 0.0
@@ -67,6 +77,8 @@ def _table(res, unit: str) -> str:
 @order_option()
 @particle_options()
 @energy_unit_option()
+@length_unit_option
+@labels_option
 @click.option("--cross-check", is_flag=True, help="Also solve with the other discretization family.")
 @json_option()
 @click.option("--observables", "with_observables", is_flag=True,
@@ -76,8 +88,8 @@ def _table(res, unit: str) -> str:
 @plot_option("the radial functions of the levels")
 def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
               table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, j, levels, tol, method,
-              order, particle, mass_mev, nucleus_mass_mev, energy_unit, cross_check, as_json, with_observables,
-              states_path, plot_path):
+              order, particle, mass_mev, nucleus_mass_mev, energy_unit, length_unit, labels, cross_check, as_json,
+              with_observables, states_path, plot_path):
     """Bound levels of one channel.
 
     Without options: the hydrogen atom (Z = 1), Schrodinger equation, l = 0,
@@ -89,16 +101,16 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     check_plot_path(plot_path)
     try:
         unit = report_unit(energy_unit, unit_system)
+        length = report_length(length_unit, unit_system)
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
         res = solve(equation=equation, potential=vector, params=values, l=l, kappa=kappa,
                     levels=levels, tol=tol, method=method, order=order, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
-                    scalar=scalar or None, units=unit_system, cross_check=cross_check, j=j)
+                    scalar=scalar or None, units=unit_system, cross_check=cross_check, j=j).with_labels(labels)
         from .observables import add_observables, observables_table, write_states_file
-        length = "fm" if unit_system == "nuclear" else "bohr"
-        record = res.to_dict(unit)
+        record = res.to_dict(unit, length)
         extra = ""
         if with_observables and res.levels:
             record = add_observables(record, res, length)
@@ -108,7 +120,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     if as_json:
         click.echo(json.dumps(record, default=json_default, indent=2))
     else:
-        click.echo(_table(res, unit) + extra)
+        click.echo(_table(res, unit, length) + extra)
     outputs_ok = True
     if states_path:
         try:

@@ -12,8 +12,8 @@ import click
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, check_tol, fail, json_default,
                      report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
-                      levels_option, method_option, order_option, particle_options, plot_option,
-                      potential_options, tol_option)
+                      labels_option, levels_option, method_option, order_option, particle_options,
+                      plot_option, potential_options, tol_option)
 
 __all__ = ["scan_cmd", "critical_cmd", "compare_cmd"]
 
@@ -59,11 +59,12 @@ def _rms_rule(text: str | None, values: dict) -> None:
 @plot_option("the levels against the varied parameter")
 @energy_unit_option()
 @click.option("--progress/--no-progress", default=None, help="Progress bar on stderr (default: on a terminal).")
+@labels_option
 @json_option()
 def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
              table_origin, table_r_unit, table_v_unit, params, unit_system, varies, ls, kappas, levels, tol,
              particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
-             plot_path, energy_unit, progress, as_json):
+             plot_path, energy_unit, progress, labels, as_json):
     """Levels over a grid of one or two potential parameters.
 
     Each level is followed across the grid by its label (node count), so a
@@ -93,7 +94,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
         res = scan(list(equations) or ["schrodinger"], vector, values, vary, channels=channels, levels=levels, tol=tol,
                    method=method, workers=workers, scheduler=scheduler, out=out, progress=progress,
-                   scalar=scalar or None, units=unit_system, **limit, **kwargs)
+                   scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit, **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
         fail(str(exc))
     if as_json:
@@ -150,12 +151,13 @@ def _bracket(text: str | None):
 @order_option()
 @click.option("--rms-rule", default=None, metavar="R0,A_PER_Z",
               help="Set rms_fm at every point from Z: uniform sphere of radius R0 (A_PER_Z Z)^(1/3) fm.")
+@labels_option
 @click.option("--json", "as_json", is_flag=True,
               help="Print one JSON object (parameter, value, uncertainty, state, equation, kind, bracket, ...).")
 def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                  table_origin, table_r_unit, table_v_unit, params, unit_system, state, vary, bracket, kind, tol,
                  energy_tol, max_evaluations, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule,
-                 as_json):
+                 labels, as_json):
     """Parameter value where a level unbinds (E -> 0) or dives into the lower continuum."""
     from ..studies import StudyError, critical
 
@@ -174,7 +176,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
         res = critical(equation, vector, values, state=state, vary=vary, bracket=br, tol=tol, kind=kind,
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
-                       scalar=scalar or None, units=unit_system, **kwargs)
+                       scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
     except ValueError as exc:
         fail(str(exc))
     except StudyError as exc:
@@ -184,12 +186,14 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         click.echo(json.dumps(res.to_dict(), default=json_default, indent=2))
     else:
         lo, hi = res.bracket
+        pu = f" {res.parameter_unit}" if res.parameter_unit else ""
         click.echo(f"{res.state} ({res.equation} equation), {'unbinding' if res.kind == 'unbind' else 'diving'}")
         click.echo(f"critical {res.parameter} = {res.value_text}")
-        click.echo(f"bracket: level found at {lo:.12g}, absent at "
-                   f"{'-' if hi is None else format(hi, '.12g')}")
+        click.echo(f"bracket: level found at {res.parameter} = {lo:.12g}{pu}, absent at "
+                   f"{'-' if hi is None else format(hi, '.12g') + pu}")
         click.echo(f"{res.evaluations} evaluations; status: {res.status} - {res.message}")
         click.echo(f"uncertainty: {res.uncertainty_meaning}")
+        click.echo(f"bracket: {res.bracket_meaning}")
     if not res.success:
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
@@ -207,10 +211,11 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
 @energy_unit_option()
 @click.option("--splitting-unit", default=None,
               help="Unit of shifts and splittings (default: the energy unit), e.g. MHz or GHz.")
+@labels_option
 @json_option("Print one JSON object instead of tables.")
 def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
                 table_r_unit, table_v_unit, params, unit_system, l_max, levels, tol, particle, mass_mev,
-                nucleus_mass_mev, method, order, energy_unit, splitting_unit, as_json):
+                nucleus_mass_mev, method, order, energy_unit, splitting_unit, labels, as_json):
     """Schrodinger, Klein-Gordon and Dirac levels side by side, with shifts and fine structure."""
     from ..studies import compare
 
@@ -223,7 +228,7 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
                                                  params)
         kwargs = {k: v for k, v in (("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
         res = compare(vector, values, l_max=l_max, levels=levels, particle=particle, mass_mev=mass_mev, tol=tol,
-                      method=method, scalar=scalar or None, units=unit_system, **kwargs)
+                      method=method, scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
     except ValueError as exc:
         fail(str(exc))
     if as_json:

@@ -26,7 +26,7 @@ def _as_list(x) -> list:
 def _make_term(spec, params: Mapping[str, float], used: set, units: str = "atomic") -> Term:
     if isinstance(spec, Term):
         used.update(getattr(spec, "values", {}))
-        return NuclearUnitsTerm(spec) if units == "nuclear" else spec
+        return spec.in_system(units)
     if isinstance(spec, type) and issubclass(spec, Term):
         cls = spec
     elif isinstance(spec, str):

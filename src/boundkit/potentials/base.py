@@ -76,9 +76,16 @@ class Term:
 
     Parameter values are checked in ``__init__``: unknown names, missing
     required values and non-finite numbers raise :class:`ValueError`.
+
+    Unit systems: a term built from numbers in atomic units reads MeV and fm
+    in the nuclear system through :meth:`in_system`. A term whose numbers
+    already carry their own units (a table with a units line, a model file
+    with ``units = ...``, a term already wrapped) sets ``fixed_units = True``
+    and is never converted again.
     """
 
     name: ClassVar[str] = "term"
+    fixed_units: bool = False
     parameters: ClassVar[tuple[Parameter, ...]] = ()
     formula: ClassVar[str] = ""
     source: ClassVar[str] = ""
@@ -108,6 +115,18 @@ class Term:
 
     def _validate(self) -> None:
         """Hook for range checks of parameter values (raise ValueError)."""
+
+    def in_system(self, system: str) -> "Term":
+        """This term read in the unit system ``system`` (``atomic`` or ``nuclear``).
+
+        In the nuclear system a term written in MeV and fm is wrapped so that it
+        reads bohr and returns hartree (:class:`NuclearUnitsTerm`); a term with
+        ``fixed_units`` comes back unchanged: its units are stated already, and
+        converting it again would convert twice.
+        """
+        if system == "atomic" or self.fixed_units:
+            return self
+        return NuclearUnitsTerm(self)
 
     def __call__(self, r) -> np.ndarray:
         return self._evaluate(np.asarray(r))
@@ -337,7 +356,10 @@ class NuclearUnitsTerm(Term):
     -----
     V_au(r) = V_nuc(r / FM_IN_BOHR) * MEV_IN_HARTREE; a charge-like coefficient
     (V ~ -Z/r) in MeV fm becomes Z * MEV_IN_HARTREE * FM_IN_BOHR in hartree bohr.
+    The wrapped term is in atomic units: it is never wrapped again.
     """
+
+    fixed_units = True
 
     def __init__(self, inner: Term) -> None:
         from ..units import FM_IN_BOHR, MEV_IN_HARTREE

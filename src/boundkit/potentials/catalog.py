@@ -61,7 +61,8 @@ class ModelSpec:
         """The term this model describes, with the file's defaults under ``params``.
 
         Returns (term, names of the parameters it took). Parameters are in the
-        file's unit system; a nuclear-units file comes back wrapped to atomic.
+        file's unit system; the term comes back in atomic units with
+        ``fixed_units`` set, so a caller's ``units=`` does not convert it again.
         """
         from . import TERMS, _make_term
         from .expression import ExpressionTerm
@@ -71,15 +72,15 @@ class ModelSpec:
             term = ExpressionTerm(self.expression, values)
             term.label = self.name
             used = set(term.parameter_names)
-            if self.units == "nuclear":
-                from .base import NuclearUnitsTerm
-                term = NuclearUnitsTerm(term)
+            term = term.in_system(self.units)
+            term.fixed_units = True
             return term, used
         if self.term not in TERMS:
             raise ValueError(f"potential file {self.path}: key 'term': unknown built-in {self.term!r}; "
                              f"built-ins are {', '.join(sorted(TERMS))}")
         used: set = set()
         term = _make_term(self.term, values, used, self.units)
+        term.fixed_units = True
         return term, used | (set(self.parameters) & set(params))
 
 

@@ -16,6 +16,12 @@ Without that line the units are the arguments of :func:`read_table`
 (default bohr and hartree); a units line wins over the default arguments, and
 one that contradicts an argument other than the default is refused.
 
+Unit systems: a unit stated in the file or by an argument is kept whatever
+unit system the rest of the problem uses. A column whose unit is stated
+nowhere is read in the caller's system: bohr and hartree by default, fm and
+MeV when the term is used with ``units="nuclear"`` (``--units nuclear``).
+The conversion happens once, when the table is read.
+
 Conversion uses :mod:`scipy.constants` only (the Bohr radius and the
 Hartree energy in eV, CODATA).
 
@@ -199,6 +205,11 @@ def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "har
         least 8 points, known units. The message names the file, the
         1-based line number and the fix.
     """
+    return _read_table(path, r_unit, v_unit, max_points)[:2]
+
+
+def _read_table(path, r_unit: str, v_unit: str, max_points: int):
+    """:func:`read_table` that also returns the set of columns the file's units line states."""
     name = os.fspath(path)
     r_default = _length_unit(r_unit, "r_unit")
     v_default = _energy_unit(v_unit, "v_unit")
@@ -265,7 +276,7 @@ def _read_lines(lines, name: str, r_default: str, v_default: str, max_points: in
                              f"{units[key]} but {arg}={given!r} was given; drop one of them")
     r_arr = np.asarray(rs) * LENGTH_UNITS[ru]
     v_arr = np.asarray(vs) * ENERGY_UNITS[vu]
-    return r_arr, v_arr
+    return r_arr, v_arr, set(units)
 
 
 def _check_arrays(r, V) -> tuple[np.ndarray, np.ndarray]:
@@ -309,8 +320,11 @@ class TabulatedTerm(Term):
         Behaviour below the first point.
     degree : {3, 5, 7}
         Degree of the interpolating spline of r V in ln r (default 5).
-    r_unit, v_unit : str
-        Units of the table (a file's own units line takes precedence).
+    r_unit, v_unit : str, optional
+        Units of the table (a file's own units line takes precedence). A unit
+        stated nowhere follows the unit system the term is used in (bohr and
+        hartree, or fm and MeV with ``units="nuclear"``; see
+        :meth:`in_system`).
     label : str, optional
         Name in reports; default the file name, or "table".
     max_points : int
@@ -327,9 +341,14 @@ class TabulatedTerm(Term):
     source = "user table"
 
     def __init__(self, table, V: Sequence[float] | None = None, *, tail: str = "coulomb",
-                 tail_charge: float | None = None, origin: str = "coulomb", r_unit: str = "bohr",
-                 v_unit: str = "hartree", degree: int = 5, label: str | None = None,
+                 tail_charge: float | None = None, origin: str = "coulomb", r_unit: str | None = None,
+                 v_unit: str | None = None, degree: int = 5, label: str | None = None,
                  max_points: int = MAX_TABLE_POINTS) -> None:
+        self._args = dict(table=table, V=V, tail=tail, tail_charge=tail_charge, origin=origin,
+                          r_unit=r_unit, v_unit=v_unit, degree=degree, label=label, max_points=max_points)
+        stated = {k for k, u in (("r", r_unit), ("V", v_unit)) if u is not None}
+        r_unit = "bohr" if r_unit is None else r_unit
+        v_unit = "hartree" if v_unit is None else v_unit
         if isinstance(degree, bool) or degree not in DEGREES:
             raise ValueError(f"degree: the spline degree must be one of 3, 5, 7, got {degree!r}")
         self.degree = int(degree)
@@ -338,7 +357,8 @@ class TabulatedTerm(Term):
         if V is None:
             if not isinstance(table, (str, os.PathLike)):
                 raise ValueError("table: give a file path, or the arrays r and V")
-            r, v = read_table(table, r_unit, v_unit, max_points)
+            r, v, in_file = _read_table(table, r_unit, v_unit, max_points)
+            stated |= in_file
             self.path: str | None = os.fspath(table)
             self.label = label or os.path.basename(self.path)
             self.source = f"table file {self.path}"  # type: ignore[misc]
@@ -354,6 +374,9 @@ class TabulatedTerm(Term):
                              f"{MAX_MAGNITUDE:g} in magnitude (or r V is); check the units of the table")
         self.r, self.V = r, v
         self.values = {}
+        self.stated_units = frozenset(stated)
+        self.fixed_units = stated == {"r", "V"}
+        self._nuclear: TabulatedTerm | None = None
         self._spline = make_interp_spline(np.log(r), r * v, k=self.degree)
         self._y0 = float(r[0] * v[0])
         if tail_charge is not None and self.tail != "coulomb":
@@ -376,6 +399,22 @@ class TabulatedTerm(Term):
             self._decay = self._fit_decay(r, v)
         if self.origin == "coulomb":
             self._warn_unsteady(r[:3], r[:3] * v[:3], "first", "origin='coulomb'")
+
+    def in_system(self, system: str) -> "TabulatedTerm":
+        """This table read in the unit system ``system``.
+
+        Columns whose unit the file or the arguments state keep it; the others
+        are read in fm and MeV for ``"nuclear"`` (the table is read again with
+        those units, so nothing is converted twice).
+        """
+        if system == "atomic" or self.fixed_units:
+            return self
+        if self._nuclear is None:        # read once, however often the term is used (a scan's points)
+            args = dict(self._args)
+            args["r_unit"] = args["r_unit"] or ("fm" if "r" not in self.stated_units else None)
+            args["v_unit"] = args["v_unit"] or ("MeV" if "V" not in self.stated_units else None)
+            self._nuclear = TabulatedTerm(args.pop("table"), **args)
+        return self._nuclear
 
     def _warn_unsteady(self, r, y, which: str, option: str) -> None:
         if abs(y[0] - y[-1]) > 1e-3 * max(float(np.max(np.abs(y))), 1e-300):

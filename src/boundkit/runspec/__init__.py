@@ -28,7 +28,7 @@ Top-level keys (all optional unless marked)::
     order = 8                          # finite-difference order (finite-difference only)
 
     [particle]                         # default: an electron
-    name = "muon"                      # electron, muon, pion, kaon, proton, antiproton
+    name = "muon"                      # electron, muon, pion, kaon, proton, antiproton, neutron, deuteron (`boundkit particles`)
     mass_mev = 1500.0                  # or a mass in MeV/c^2 (name is then a label)
     nucleus_mass_mev = 938.272         # optional: use the reduced mass
 

@@ -14,7 +14,8 @@ import numpy as np
 
 from ..units import hartree_to
 from ..studies._common import umask_mode as _umask_mode
-from .files import _label_order, _slug
+from ..states import label_sort_key
+from .files import _slug
 
 log = logging.getLogger("boundkit.runspec.engine")
 
@@ -64,6 +65,22 @@ class FigureWriter:
                             lambda p, pot=pot, groups=groups: level_diagram(
                                 pot, groups, p, energy_unit=self.e_unit, length_unit=self.l_unit,
                                 title=f"{label}: potential and levels"))
+        if "levels" in sec.figures and len(by_model) > 1:
+            from ..plots import level_scheme
+
+            for eq in sec.equations:
+                groups = {spec.models[m].label: per_eq[eq] for m, per_eq in by_model.items() if per_eq.get(eq)}
+                if len(groups) > 1:
+                    self.figure(f"scheme-{_slug(eq)}", f"Level scheme, {eq} equation, one column per model",
+                                lambda p, groups=groups, eq=eq: level_scheme(
+                                    groups, p, energy_unit=self.e_unit, title=f"{eq} equation: levels by model"))
+
+    def _shift_figure(self, reference: str, shifts: list) -> None:
+        """Shifts of every level against the reference model (only when the spec asks for them)."""
+        from ..plots import shift_figure
+
+        self.figure("shifts", f"Level shifts against model {reference}",
+                    lambda p: shift_figure(shifts, p, unit=self.e_unit, reference=reference))
 
 
 def _scan_figure(table: dict, parameter: str, unit: str, path, title: str = "", x_unit: str = ""):
@@ -71,7 +88,7 @@ def _scan_figure(table: dict, parameter: str, unit: str, path, title: str = "", 
     from ..plots import _colour, plt, save_figure
 
     fig, ax = plt.subplots(figsize=(6.8, 4.6))
-    labels = sorted({lab for per in table.values() for lab in per}, key=_label_order)
+    labels = sorted({lab for per in table.values() for lab in per}, key=label_sort_key)
     xs = sorted(table)
     for i, lab in enumerate(labels):
         y = [hartree_to(table[x][lab], unit) if lab in table[x] else np.nan for x in xs]

@@ -20,7 +20,6 @@ from pathlib import Path
 import numpy as np
 
 from ..studies._common import umask_mode as _umask_mode
-from .objects import _LETTERS
 
 def _slug(text: str) -> str:
     s = re.sub(r"[^A-Za-z0-9]+", "-", str(text)).strip("-").lower()
@@ -98,18 +97,23 @@ def _csv_value(v):
     return v
 
 
+def _csv_with_units(rows: list[dict], columns: list[str] | None, units: dict[str, str]) -> str:
+    """CSV text whose column names carry their units (``energy`` -> ``energy_MeV``); ``units`` maps
+    column -> unit, columns not in it keep their name (their unit is in the name already, or they
+    have none)."""
+    from ..units import column
+
+    if columns is None:
+        columns = list(dict.fromkeys(k for r in rows for k in r))
+    named = {c: column(c, units[c]) if c in units else c for c in columns}
+    renamed = [{named[k]: v for k, v in r.items() if k in named} for r in rows]
+    return _csv_text(renamed, [named[c] for c in columns])
+
+
 def _fmt(x: float | None, digits: int = 10) -> str:
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return "-"
     return f"{x:.{digits}g}"
-
-
-def _label_order(label: str) -> tuple:
-    """Sort key of a level label: n, then l, then j (``2s`` < ``2p1/2`` < ``2p3/2`` < ``3s``)."""
-    m = re.match(r"(\d+)([a-z])(?:(\d+)/2)?", label)
-    if not m:
-        return (math.inf, label)
-    return (int(m.group(1)), _LETTERS.find(m.group(2)), int(m.group(3) or 0), label)
 
 
 MARKER = ".boundkit-run.json"

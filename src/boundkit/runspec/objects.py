@@ -6,11 +6,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterable
 
-import numpy as np
-
 from .._checks import MAX_GRID_POINTS
-from ..potentials.base import Term
-from ..units import FM_IN_BOHR, MEV_IN_HARTREE
 from .keylines import _KeyLines, _dotted
 
 STUDY_SECTIONS = ("solve", "converge", "scan", "critical", "compare")
@@ -66,44 +62,6 @@ def _channels_for(channels: Iterable[ChannelSpec], equation: str, levels: int) -
     return [tuple(v) for v in seen.values()]
 
 
-class _AtomicAsNuclear(Term):
-    """A term in atomic units presented in MeV and fm.
-
-    ``make_potential(..., units="nuclear")`` reads a term *instance* as a
-    function of r in fm giving MeV and wraps it accordingly; this wrapper is
-    its inverse, so a term built with its own parameters (already converted to
-    atomic units) comes back unchanged.
-    """
-
-    def __init__(self, inner: Term, label: str) -> None:
-        self.inner = inner
-        self.values = {}
-        self.name = inner.name
-        self.label = label
-
-    def _evaluate(self, r):
-        return self.inner(np.asarray(r) * FM_IN_BOHR) / MEV_IN_HARTREE
-
-    @property
-    def origin_charge(self) -> float:
-        return self.inner.origin_charge / (MEV_IN_HARTREE * FM_IN_BOHR)
-
-    @property
-    def tail_charge(self) -> float:
-        return self.inner.tail_charge / (MEV_IN_HARTREE * FM_IN_BOHR)
-
-    @property
-    def origin_inverse_square(self) -> float:
-        return self.inner.origin_inverse_square / (MEV_IN_HARTREE * FM_IN_BOHR**2)
-
-    @property
-    def far(self) -> str:  # type: ignore[override]
-        return self.inner.far
-
-    def __repr__(self) -> str:
-        return repr(self.inner)
-
-
 @dataclass(frozen=True)
 class TermEntry:
     """A ``[[models.NAME.term]]`` entry: one term with its own parameters."""
@@ -126,8 +84,7 @@ class TermEntry:
                 raise ValueError(f"params: the expression takes no parameter {unused[0]!r}")
             return term                      # make_potential reads it in the spec's unit system
         term = _make_term(self.name, self.params, set(), units)   # atomic units from here on
-        if units == "nuclear":
-            return _AtomicAsNuclear(term, self.name)
+        term.fixed_units = True                                    # make_potential converts it no more
         return term
 
 
@@ -278,6 +235,7 @@ class RunSpec:
     scan: tuple[ScanSection, ...] = ()
     critical: tuple[CriticalSection, ...] = ()
     compare: tuple[CompareSection, ...] = ()
+    labels: str = "atomic"
 
     @property
     def name(self) -> str:

@@ -8,15 +8,19 @@ differences and shifts against a reference model, tables and report text.
 from __future__ import annotations
 
 import logging
-import math
 import re
 from typing import Any
 
 from ..observables import mean_radius, rms_radius
-from .files import _csv_text, _fmt
+from ..reporting import difference_error, format_difference
+from ..states import label_sort_key
+from .files import _csv_with_units, _fmt
 from .objects import _EQUATIONS, SolveSection, _channels_for
 
 log = logging.getLogger("boundkit.runspec.engine")
+
+_ZERO_RULE = ("A value within its error estimate (the two levels' estimates plus the rounding of the "
+              "subtraction) is printed as 0; others carry the digits the estimate supports.")
 
 
 class SolveRunner:
@@ -41,7 +45,7 @@ class SolveRunner:
                     log.info("solve: %s (%d levels)", tag, nlev)
                     try:
                         res = solve(eq, pot, None, levels=nlev, tol=sec.tolerance, method=sec.method,
-                                    order=sec.order, **kw, **self.particle_kwargs())
+                                    order=sec.order, **kw, **self.particle_kwargs()).with_labels(spec.labels)
                     except ValueError as exc:
                         self.problems.append(f"solve {tag}: {exc}")
                         runs.append({"model": mname, "equation": eq, "channel": cname, "status": "error",
@@ -68,15 +72,23 @@ class SolveRunner:
                         rows.append(row)
                         found.append(lv)
                 by_model[mname][eq] = sorted(found, key=lambda lv: lv.energy)
+        order = {(m, e): i for i, (m, e) in enumerate((m, e) for m in sec.models for e in sec.equations)}
+        rows.sort(key=lambda r: (order.get((r["model"], r["equation"]), 0), label_sort_key(r["label"], spec.labels)))
         cols = ["model", "equation", "channel", "label", "n", "l", "j", "kappa", "nodes", "energy", "error_estimate",
                 "energy_hartree", "error_hartree"] + (["mean_radius", "rms_radius"] if sec.radii else []) + \
                ["resolution", "status"]
-        self.write("levels.csv", _csv_text(rows, cols))
+        units = {"energy": self.e_unit, "error_estimate": self.e_unit, "mean_radius": self.l_unit,
+                 "rms_radius": self.l_unit, "difference": self.e_unit, "shift": self.e_unit}
+        self.write("levels.csv", _csv_with_units(rows, cols, units))
         out: dict[str, Any] = {"models": {m: {"label": spec.models[m].label, "potential": self._describe_model(m)}
                                           for m in sec.models},
                                "runs": runs, "levels": rows,
                                "columns": {"energy": self.e_unit, "error_estimate": self.e_unit,
-                                           "mean_radius": self.l_unit, "rms_radius": self.l_unit}}
+                                           "mean_radius": self.l_unit, "rms_radius": self.l_unit,
+                                           "difference": self.e_unit, "shift": self.e_unit,
+                                           "energy_hartree": "hartree", "error_hartree": "hartree",
+                                           "difference_hartree": "hartree", "shift_hartree": "hartree"},
+                               "labels": spec.labels}
         # differences within one model (and one equation, unless a label names its equation)
         diffs = []
         for (a, b) in sec.differences:
@@ -90,14 +102,14 @@ class SolveRunner:
                     if la is None or lb is None:
                         continue
                     d = la.energy - lb.energy
-                    err = math.hypot(la.error_estimate, lb.error_estimate)
+                    err = difference_error(la.energy, lb.energy, la.error_estimate, lb.error_estimate)
                     shown = eq if not (ea or eb) else " vs ".join(dict.fromkeys([ea or eq, eb or eq]))
                     diffs.append({"model": mname, "equation": shown, "a": a, "b": b, "difference": self.E(d),
                                   "error_estimate": self.E(err), "difference_hartree": d})
             if not any(r["a"] == a and r["b"] == b for r in diffs):
                 self.problems.append(f"difference E({a}) - E({b}): no model and equation has both levels")
         if diffs:
-            self.write("differences.csv", _csv_text(diffs))
+            self.write("differences.csv", _csv_with_units(diffs, None, units))
             out["differences"] = diffs
         # shifts against a reference model
         shifts = []
@@ -113,12 +125,15 @@ class SolveRunner:
                             d = lv.energy - base[lv.label].energy
                             shifts.append({"model": mname, "reference": sec.reference, "equation": eq,
                                            "label": lv.label, "shift": self.E(d),
-                                           "error_estimate": self.E(math.hypot(lv.error_estimate,
-                                                                               base[lv.label].error_estimate)),
+                                           "error_estimate": self.E(difference_error(
+                                               lv.energy, base[lv.label].energy, lv.error_estimate,
+                                               base[lv.label].error_estimate)),
                                            "shift_hartree": d})
             if shifts:
-                self.write("shifts.csv", _csv_text(shifts))
+                shifts.sort(key=lambda r: (r["model"], r["equation"], label_sort_key(r["label"], spec.labels)))
+                self.write("shifts.csv", _csv_with_units(shifts, None, units))
                 out["shifts"] = shifts
+                self._shift_figure(sec.reference, shifts)
         self.results["solve"] = out
         self._solve_figures(sec, by_model, radial_figure, density_figure, level_diagram)
         self._solve_report(sec, rows, diffs, shifts)
@@ -164,20 +179,23 @@ class SolveRunner:
             self.headline.append(f"{spec.models[r['model']].label}, {r['equation']}: lowest level "
                                  f"{lowest['label']} at {_fmt(lowest['energy'], 10)} {eu}{extra}")
         if diffs:
-            md += ["### Differences", "", f"| model | equation | difference | value ({eu}) | error estimate ({eu}) |",
+            md += ["### Differences", "", _ZERO_RULE, "",
+                   f"| model | equation | difference | value ({eu}) | error estimate ({eu}) |",
                    "|---|---|---|---:|---:|"]
             for d in diffs:
-                md.append(f"| {d['model']} | {d['equation']} | E({d['a']}) - E({d['b']}) | {_fmt(d['difference'], 10)} |"
+                md.append(f"| {d['model']} | {d['equation']} | E({d['a']}) - E({d['b']}) | "
+                          f"{format_difference(d['difference'], d['error_estimate'])} |"
                           f" {_fmt(d['error_estimate'], 2)} |")
                 self.headline.append(f"{spec.models[d['model']].label}, {d['equation']}: E({d['a']}) - E({d['b']}) = "
-                                     f"{_fmt(d['difference'], 8)} {eu}")
+                                     f"{format_difference(d['difference'], d['error_estimate'], 8)} {eu}")
             md.append("")
         if shifts:
-            md += [f"### Shifts against model {sec.reference}", "",
+            md += [f"### Shifts against model {sec.reference}", "", _ZERO_RULE, "",
                    f"| model | equation | level | E(model) - E({sec.reference}) ({eu}) | error estimate ({eu}) |",
                    "|---|---|---|---:|---:|"]
             for s in shifts:
-                md.append(f"| {s['model']} | {s['equation']} | {s['label']} | {_fmt(s['shift'], 8)} | "
+                md.append(f"| {s['model']} | {s['equation']} | {s['label']} | "
+                          f"{format_difference(s['shift'], s['error_estimate'], 10)} | "
                           f"{_fmt(s['error_estimate'], 2)} |")
             lowest = {}
             for s in shifts:
@@ -186,7 +204,7 @@ class SolveRunner:
                     lowest[k] = s
             for s in lowest.values():
                 self.headline.append(f"E({s['model']}) - E({sec.reference}), {s['equation']} {s['label']}: "
-                                     f"{_fmt(s['shift'], 6)} {eu}")
+                                     f"{format_difference(s['shift'], s['error_estimate'], 6)} {eu}")
             md.append("")
         self.md += md
 

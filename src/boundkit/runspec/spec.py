@@ -14,6 +14,7 @@ from typing import Any, Iterable
 
 from .._checks import MAX_GRID_POINTS, MAX_L
 from ..observables import length_unit as canonical_length_unit
+from ..states import LABEL_CONVENTIONS
 from ..units import energy_unit as canonical_energy_unit
 from ..units import get_particle
 from .keylines import _KeyLines, _dotted
@@ -113,8 +114,8 @@ def _describe(value: Any) -> str:
     return type(value).__name__
 
 
-_TOP = ("title", "description", "units", "energy_unit", "length_unit", "figure_format", "equations", "channels",
-        "levels", "tol", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
+_TOP = ("title", "description", "units", "energy_unit", "length_unit", "labels", "figure_format", "equations",
+        "channels", "levels", "tol", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
 _MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "params", "term")
 _ENTRY = ("name", "expression", "role", "params")
 _SOLVE = ("models", "equations", "channels", "levels", "tol", "tolerance", "method", "order", "figures", "radii",
@@ -388,6 +389,10 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         l_unit = canonical_length_unit(rd.get(data, (), "length_unit", "str", "fm" if nuclear else "bohr"))
     except ValueError as exc:
         raise rd.error(("length_unit",), str(exc).split(": ", 1)[-1]) from None
+    labels = rd.get(data, (), "labels", "str", "atomic")
+    if labels not in LABEL_CONVENTIONS:
+        raise rd.error(("labels",), f"must be one of {', '.join(LABEL_CONVENTIONS)} (atomic 2p1/2, nuclear 0p1/2, "
+                                    f"quarkonium 1P), got {labels!r}")
     fmt = rd.get(data, (), "figure_format", "str", "png").lower().lstrip(".")
     if fmt not in _FORMATS:
         raise rd.error(("figure_format",), f"must be one of {', '.join(_FORMATS)}, got {fmt!r}")
@@ -567,7 +572,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
                                            _tolerance(rd, s, key, tolerance)))
 
     return RunSpec(path=path, text=text, title=title.strip(), description=description.strip(), units=units,
-                   energy_unit=e_unit, length_unit=l_unit, figure_format=fmt, particle=particle,
+                   energy_unit=e_unit, length_unit=l_unit, labels=labels, figure_format=fmt, particle=particle,
                    equations=equations, channels=channels, levels=levels, tolerance=tolerance, method=method,
                    order=order, models=models, solve=solve_sec, converge=tuple(converge_secs),
                    scan=tuple(scan_secs), critical=tuple(critical_secs), compare=tuple(compare_secs))

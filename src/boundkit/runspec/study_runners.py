@@ -20,7 +20,9 @@ from typing import Any
 import numpy as np
 
 from .figures import _scan_figure
-from .files import _clean, _csv_text, _fmt, _label_order
+from ..reporting import difference_error, format_difference
+from ..states import convert_label, label_sort_key
+from .files import _clean, _csv_text, _csv_with_units, _fmt, _slug
 from .objects import CompareSection, ConvergeSection, CriticalSection, ScanSection, _channels_for
 
 log = logging.getLogger("boundkit.runspec.engine")
@@ -38,18 +40,20 @@ class StudyRunners:
         (kw, cname), = sec.channel.expand(sec.equation)[:1]
         res = converge(sec.equation, pot, None, levels=sec.levels, methods=sec.methods, order=sec.order, tol=sec.tolerance, **kw,
                        **self.particle_kwargs())
-        self.write(f"convergence{suffix}.csv", _csv_text(res.rows, ["method", "size", "label", "energy", "error",
-                                                                   "difference"]))
+        rows = [{**r, "label": convert_label(r["label"], spec.labels), "energy": self.E(r["energy"]),
+                 "relative_error": r["error"], "relative_change": r["difference"]} for r in res.rows]
+        self.write(f"convergence{suffix}.csv", _csv_with_units(
+            rows, ["method", "size", "label", "energy", "relative_error", "relative_change"], {"energy": self.e_unit}))
         self.figure(f"convergence{suffix}", f"Convergence, model {sec.model}, {sec.equation} {cname}",
                     lambda p: convergence_figure(res, p))
         self.results.setdefault("converge", []).append({
-            "model": sec.model, "equation": sec.equation, "channel": cname, "energy_unit_of_rows": "hartree",
-            **_clean(res.to_dict())})
+            "model": sec.model, "equation": sec.equation, "channel": cname, **_clean(res.to_dict(self.e_unit))})
         md = [f"## Convergence{suffix}", "",
               f"Model {sec.model}, {sec.equation} equation, channel {cname}: relative error of the binding energy "
               f"against resolution, measured against a spectral solve at tol {sec.tolerance:g} "
               f"(table `convergence{suffix}.csv`).", "", "| method | level | observed order |", "|---|---|---:|"]
         for (m, lab), v in res.orders.items():
+            lab = convert_label(lab, spec.labels)
             md.append(f"| {m} | {lab} | {_fmt(v, 3)} |")
             if m != "spectral" and math.isfinite(v):
                 self.headline.append(f"observed order of {m} ({sec.model}, {sec.equation} {lab}): {v:.2f} "
@@ -72,7 +76,7 @@ class StudyRunners:
         res = _call(studies.scan, equation=sec.equation, potential=vector, params=params,
                     vary={sec.parameter: list(sec.values)}, channels=channels, levels=levels, tol=sec.tolerance,
                     method=sec.method, workers=_workers(sec.workers), scalar=scalar or None, units=spec.units,
-                    max_points=sec.max_points * len(channels), **self.particle_kwargs())
+                    max_points=sec.max_points * len(channels), labels=spec.labels, **self.particle_kwargs())
         rows = [dict(r) for r in _rows_of(res)]
         if hasattr(res, "to_csv"):
             self.write(f"scan{suffix}.csv", res.to_csv(self.e_unit))
@@ -90,9 +94,9 @@ class StudyRunners:
         caption = f"Levels against {sec.parameter}, model {sec.model}"
         try:
             figures = importlib.import_module("boundkit.studies.figures")
-            title = f"{spec.models[sec.model].label}: levels against {sec.parameter}"
             self.figure(f"scan{suffix}", caption, lambda p: _call(figures.scan_figure, result=res, path=p,
-                                                                  unit=self.e_unit, title=title))
+                                                                  unit=self.e_unit,
+                                                                  subject=spec.models[sec.model].label))
         except ImportError:
             log.info("boundkit.studies.figures is not available; drawing the scan with the run engine's own figure")
             self.figure(f"scan{suffix}", caption,
@@ -111,7 +115,8 @@ class StudyRunners:
               f"Model {sec.model}, {sec.equation} equation, {len(sec.values)} values of {sec.parameter} from "
               f"{min(sec.values):g} to {max(sec.values):g} (table `scan{suffix}.csv`, energies in {self.e_unit}).", ""]
         if table:
-            labels = sorted({lab for per in table.values() for lab in per}, key=_label_order)
+            labels = sorted({lab for per in table.values() for lab in per},
+                            key=lambda lab: label_sort_key(lab, spec.labels))
             md += [f"| {sec.parameter} | " + " | ".join(f"{lab} ({self.e_unit})" for lab in labels) + " |",
                    "|---:|" + "---:|" * len(labels)]
             for v in sorted(table):
@@ -123,19 +128,33 @@ class StudyRunners:
                 md.append("")
         diffs = []
         p_unit = getattr(res, "parameter_units", {}).get(sec.parameter, "")
+        errors = _scan_table(rows, sec.parameter, "error_estimate")
         for a, b in sec.differences:
-            pts = [(v, table[v][a] - table[v][b]) for v in sorted(table) if a in table[v] and b in table[v]]
+            pts = [(v, table[v][a] - table[v][b],
+                    difference_error(table[v][a], table[v][b], errors.get(v, {}).get(a, 0.0),
+                                     errors.get(v, {}).get(b, 0.0)))
+                   for v in sorted(table) if a in table[v] and b in table[v]]
             if not pts:
                 self.problems.append(f"scan{suffix}: E({a}) - E({b}) not available at any value")
                 continue
             item = {"a": a, "b": b, "values": [p[0] for p in pts], "difference": [self.E(p[1]) for p in pts],
-                    "difference_hartree": [p[1] for p in pts]}
+                    "error_estimate": [self.E(p[2]) for p in pts], "difference_hartree": [p[1] for p in pts],
+                    "units": {"values": p_unit or "1", "difference": self.e_unit, "error_estimate": self.e_unit}}
+            name = f"E({a}) - E({b})"
+            self.figure(f"scan{suffix}-difference-{_slug(a)}-{_slug(b)}",
+                        f"{name} against {sec.parameter}, model {sec.model}",
+                        lambda p, pts=pts, name=name: importlib.import_module("boundkit.studies.figures")
+                        .difference_figure([q[0] for q in pts], [self.E(q[1]) for q in pts], p, name=name,
+                                           unit=self.e_unit, parameter=sec.parameter, parameter_unit=p_unit,
+                                           error=[self.E(q[2]) for q in pts],
+                                           title=f"{spec.models[sec.model].label}: {name} against {sec.parameter}"))
             if len(pts) >= 2:
-                slope = float(np.polyfit([p[0] for p in pts], [p[1] for p in pts], 1)[0])
+                slope = float(np.polyfit([p[0] for p in pts], [p[1] for p in pts], 1)[0])   # hartree per unit
                 item["slope_per_parameter"] = self.E(slope)
             diffs.append(item)
+            pu = f" {p_unit}" if p_unit else ""
             line = f"E({a}) - E({b}) ({self.e_unit}) at {sec.parameter} = " + ", ".join(
-                f"{v:g}: {_fmt(self.E(d), 8)}" for v, d in pts) + "."
+                f"{v:g}{pu}: {format_difference(self.E(d), self.E(e), 8)}" for v, d, e in pts) + "."
             if "slope_per_parameter" in item:
                 per = f"{self.e_unit}/{p_unit}" if p_unit else f"{self.e_unit} per unit of {sec.parameter}"
                 item["slope_unit"] = per
@@ -154,7 +173,7 @@ class StudyRunners:
         jobs = [dict(equation=sec.equation, potential=vector, params=params, state=state, vary=sec.parameter,
                      bracket=tuple(sec.bracket) if sec.bracket else None, tol=sec.tolerance,
                      energy_tol=sec.energy_tolerance, method=spec.method, kind=sec.kind, scalar=scalar or None,
-                     units=spec.units, **self.particle_kwargs()) for state in sec.states]
+                     units=spec.units, labels=spec.labels, **self.particle_kwargs()) for state in sec.states]
         rows = []
         for state, (ok, got) in zip(sec.states, _map_jobs(_critical_job, jobs, sec.workers)):
             if not ok:
@@ -166,14 +185,18 @@ class StudyRunners:
                 self.problems.append(f"critical {sec.parameter} of {state} ({sec.model}): {got.get('status')}: "
                                      f"{got.get('message', '')}")
         flat = [{k: v for k, v in r.items() if not isinstance(v, (dict, list))} for r in rows]
-        self.write(f"critical{suffix}.csv", _csv_text(flat))
+        p_unit = next((r.get("parameter_unit") for r in rows if r.get("parameter_unit")), "")
+        self.write(f"critical{suffix}.csv", _csv_with_units(flat, None, {"value": p_unit, "uncertainty": p_unit}))
         self.results.setdefault("critical", []).append({"model": sec.model, "equation": sec.equation,
                                                          "parameter": sec.parameter, "units": spec.units,
                                                          "states": rows})
         md = [f"## Critical {sec.parameter}{suffix}", "",
               f"Model {sec.model}, {sec.equation} equation: the value of {sec.parameter} at which each level stops "
-              f"being bound (table `critical{suffix}.csv`; parameter in {spec.units} units).", "",
-              f"| state | critical {sec.parameter} | details |", "|---|---:|---|"]
+              f"being bound (table `critical{suffix}.csv`; {sec.parameter} in {p_unit or 'units of its own'}). "
+              "The value is extrapolated to the threshold from the bound points, so its uncertainty is far "
+              "smaller than the bracket of solved values around it.", "",
+              f"| state | critical {sec.parameter}" + (f" ({p_unit})" if p_unit else "") + " | details |",
+              "|---|---:|---|"]
         for r in rows:
             value = _critical_value(r, sec.parameter)
             if "error" in r:
@@ -181,14 +204,14 @@ class StudyRunners:
             else:
                 bits = []
                 if isinstance(r.get("uncertainty"), float):
-                    bits.append(f"+- {r['uncertainty']:.2g}")
+                    bits.append(f"+- {r['uncertainty']:.2g}" + (f" {p_unit}" if p_unit else ""))
                 bits += [f"status {r['status']}"] if "status" in r else []
                 bits += [f"{r['evaluations']} evaluations"] if "evaluations" in r else []
                 details = ", ".join(bits)
             md.append(f"| {r['state']} | {_fmt(value, 8)} | {details} |")
             if value is not None:
                 self.headline.append(f"critical {sec.parameter} of {r['state']} ({sec.model}, {sec.equation}): "
-                                     f"{_fmt(value, 7)}")
+                                     f"{_fmt(value, 7)}" + (f" {p_unit}" if p_unit else ""))
         md.append("")
         self.md += md
 
@@ -198,13 +221,17 @@ class StudyRunners:
         pot = spec.models[sec.model].potential(spec.units)
         res = _call(studies.compare, potential=pot, params=None, l_max=sec.l_max, levels=sec.levels,
                     particle=spec.particle.name, mass_mev=spec.particle.mass_mev,
-                    nucleus_mass_mev=spec.particle.nucleus_mass_mev, tol=sec.tolerance, method=spec.method)
+                    nucleus_mass_mev=spec.particle.nucleus_mass_mev, tol=sec.tolerance, method=spec.method,
+                    labels=spec.labels)
         if not (hasattr(res, "to_dict") and hasattr(res, "table")):
             raise ValueError("boundkit.studies.compare returned no comparison (this installation's studies "
                              "package does not provide it yet)")
         data = _clean(res.to_dict(self.e_unit))
         rows = _rows_of_dict(data)
-        self.write(f"compare{suffix}.csv", _csv_text(rows) if rows else json.dumps(data, indent=2))
+        energy_cols = {k: self.e_unit for r in rows for k, v in r.items()
+                       if k not in ("n", "l", "label", "j_plus", "j_minus") and (v is None or isinstance(v, float))}
+        self.write(f"compare{suffix}.csv", _csv_with_units(rows, None, energy_cols) if rows
+                   else json.dumps(data, indent=2))
         self.results.setdefault("compare", []).append({"model": sec.model, "energy_unit": self.e_unit, **data})
         md = [f"## Equations compared{suffix}", "",
               f"Model {sec.model}: the same levels from the Schrodinger, Klein-Gordon and Dirac equations, "
@@ -252,13 +279,13 @@ def _rows_of_dict(data: dict) -> list[dict]:
     return []
 
 
-def _scan_table(rows: list[dict], parameter: str) -> dict[float, dict[str, float]]:
-    """{parameter value: {level label: energy in hartree}} from scan rows."""
+def _scan_table(rows: list[dict], parameter: str, key: str = "energy") -> dict[float, dict[str, float]]:
+    """{parameter value: {level label: energy (or ``key``, e.g. error_estimate) in hartree}} from scan rows."""
     out: dict[float, dict[str, float]] = {}
     for r in rows:
         value = r.get(parameter, r.get("value"))
         label = r.get("label")
-        energy = r.get("energy_hartree", r.get("energy"))
+        energy = r.get(f"{key}_hartree", r.get(key))
         if value is None or label is None or energy is None:
             continue
         try:

@@ -11,7 +11,6 @@ import json
 import logging
 import math
 import os
-import re
 import sys
 import tempfile
 from pathlib import Path
@@ -23,7 +22,7 @@ from ..equations.base import letter
 from ..equations.dirac import kappa_to_lj
 from ..potentials import TERMS, Term
 from ..solver import make_equation
-from ..states import principal_n
+from ..states import parse_label, principal_n
 
 __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
            "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
@@ -32,7 +31,6 @@ __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "p
 
 log = logging.getLogger(__name__)
 
-_LETTERS = "spdfghiklmnoqrtuv"
 
 
 class StudyError(RuntimeError):
@@ -87,32 +85,17 @@ def expected_labels(equation: str, channel: Mapping[str, int], levels: int) -> l
     return [eq.label(principal_n(k, eq.l)) for k in range(levels)]
 
 
-_STATE = re.compile(r"^\s*(\d+)\s*([a-zA-Z])\s*(?:(\d+)\s*/\s*2)?\s*$")
-
-
-def parse_state(label: str) -> tuple[int, int, float | None]:
+def parse_state(label: str, labels: str = "atomic") -> tuple[int, int, float | None]:
     """(n, l, j) of a state label such as ``1s``, ``2p``, ``2p1/2``, ``3d5/2``.
 
-    j is None when the label has no j. Raises ValueError for a malformed
-    label, n < l + 1, or j other than l +- 1/2.
+    ``n`` is the atomic principal number (nodes + l + 1) whatever convention
+    ``labels`` the label is written in (``0p3/2`` nuclear, ``1P`` quarkonium:
+    see :mod:`boundkit.states`). j is None when the label has no j. Raises
+    ValueError for a malformed label, an n below the convention's first value,
+    or j other than l +- 1/2.
     """
-    m = _STATE.match(str(label))
-    hint = "write n, the orbital letter and optionally j, e.g. 1s, 2p, 2p1/2, 3d5/2"
-    if not m:
-        raise ValueError(f"state: cannot read {label!r}; {hint}")
-    n, let, twoj = int(m.group(1)), m.group(2).lower(), m.group(3)
-    if let not in _LETTERS:
-        raise ValueError(f"state: unknown orbital letter {let!r} in {label!r}; use one of {', '.join(_LETTERS)}")
-    l = _LETTERS.index(let)
-    if n < l + 1:
-        raise ValueError(f"state: {label!r} needs n >= l + 1 = {l + 1} for an {let} level")
-    j = None
-    if twoj is not None:
-        j = int(twoj) / 2
-        if j not in (l + 0.5, l - 0.5) or j < 0.5:
-            allowed = " or ".join(f"{int(2 * x)}/2" for x in (l - 0.5, l + 0.5) if x >= 0.5)
-            raise ValueError(f"state: j = {twoj}/2 does not fit l = {l} in {label!r}; use j = {allowed}")
-    return n, l, j
+    nodes, l, j = parse_label(label, labels)
+    return principal_n(nodes, l), l, j
 
 
 def state_channel(equation: str, label: str) -> tuple[dict[str, int], int, str]:

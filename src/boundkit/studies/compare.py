@@ -16,6 +16,8 @@ from typing import Any, Mapping
 from .._checks import MAX_L, check_count, check_int, check_positive
 from ..equations.base import letter
 from ..solver import solve
+from ..reporting import difference_error, format_difference
+from ..states import check_convention, convert_label
 from ..units import constants_record, energy_unit, hartree_to
 from ._common import describe
 
@@ -39,7 +41,7 @@ def _pair(row, a, b):
     ea, eb = row.get(a), row.get(b)
     if ea is None or eb is None:
         return None, None
-    return ea - eb, row[a + "_error"] + row[b + "_error"]
+    return ea - eb, difference_error(ea, eb, row[a + "_error"], row[b + "_error"])
 
 
 @dataclass(frozen=True, repr=False)
@@ -117,11 +119,18 @@ class CompareResult:
         for r in self.rows:
             lines.append(f"{r['label']:<6} " + " ".join(fmt(r[k], unit) for k in _ENERGY_KEYS))
         lines += ["", f"differences in {sunit} (relativistic shifts from Schrodinger; fine structure "
-                      "E(j=l+1/2) - E(j=l-1/2); spin-1/2 minus spin-0)",
+                      "E(j=l+1/2) - E(j=l-1/2); spin-1/2 minus spin-0; 0 = within the error estimate, "
+                      "digits as the estimate supports)",
                   f"{'level':<6} {'KG - S':>18} {'D(l+1/2) - S':>18} {'D(l-1/2) - S':>18} {'fine structure':>18} "
                   f"{'D(l+1/2) - KG':>18} {'D(l-1/2) - KG':>18} {'centroid - KG':>18}"]
+        def fmt_diff(r, k, w=18):
+            if r[k] is None:
+                return f"{'-':>{w}}"
+            text = format_difference(hartree_to(r[k], sunit), hartree_to(r[k + "_error"] or 0.0, sunit))
+            return f"{text:>{w}}"
+
         for r in self.rows:
-            lines.append(f"{r['label']:<6} " + " ".join(fmt(r[k], sunit, 18) for k in _DIFF_KEYS))
+            lines.append(f"{r['label']:<6} " + " ".join(fmt_diff(r, k) for k in _DIFF_KEYS))
         bad = {k: v for k, v in self.statuses.items() if v != "ok"}
         lines += ["", "status: ok" if not bad else
                   "status: " + "; ".join(f"{k}: {v}" for k, v in bad.items())]
@@ -133,7 +142,8 @@ class CompareResult:
 
 def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 1, levels: int = 2,
             particle: str | None = None, mass_mev: float | None = None, tol: float = 1e-10,
-            method: str = "auto", scalar=None, max_l_max: int = MAX_L, **solve_kwargs) -> CompareResult:
+            method: str = "auto", scalar=None, max_l_max: int = MAX_L, labels: str = "atomic",
+            **solve_kwargs) -> CompareResult:
     """Schrodinger, Klein-Gordon and Dirac levels of one potential side by side.
 
     Parameters
@@ -154,6 +164,9 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
         equations.
     tol : float
         Relative tolerance of each binding energy.
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        Labelling convention of the rows (``2p``, ``0p`` or ``1P``;
+        :mod:`boundkit.states`).
     method, scalar, **solve_kwargs
         As for :func:`boundkit.solve` (``nucleus_mass_mev``, ``units``, ``order``).
 
@@ -173,13 +186,15 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
         centroid = [(2l + 2) E(j = l + 1/2) + 2l E(j = l - 1/2)] / (4l + 2),
         spin difference = E_Dirac - E_Klein-Gordon.
 
-    Error estimates of differences are the sums of the two levels' estimates.
+    Error estimates of differences are the sums of the two levels' estimates
+    plus the rounding of the subtraction (:mod:`boundkit.reporting`).
     Use a frequency unit (``'MHz'``, ``'GHz'``) for small splittings.
     """
     l_max = check_count("l_max", check_int("l_max", l_max, minimum=0), check_int("max_l_max", max_l_max, minimum=0),
                         "max_l_max= (API)", "")
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
+    labels = check_convention(labels)
     common = dict(params=params, levels=levels, tol=tol, method=method, particle=particle, mass_mev=mass_mev,
                   scalar=scalar, **solve_kwargs)
     by_label: dict[str, dict] = {}
@@ -229,6 +244,8 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
         log.warning("compare: levels not found in every equation: %s", ", ".join(missing))
     settings.update({"potential": describe(potential), "scalar": describe(scalar),
                      "params": dict(params or {}), "l_max": l_max, "levels": levels, "tol": tol,
-                     "method": method, "mass_mev": mass_mev,
+                     "method": method, "mass_mev": mass_mev, "labels": labels,
                      "solve_kwargs": dict(solve_kwargs)})
+    for row in rows:
+        row["label"] = convert_label(row["label"], labels)
     return CompareResult(rows=tuple(rows), statuses=statuses, settings=settings)

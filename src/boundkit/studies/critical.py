@@ -34,9 +34,10 @@ import numpy as np
 from .._checks import check_int, check_positive
 from ..discretize import get_method
 from ..solver import setup, solve_channel
+from ..states import convert_label
 from ..units import C_AU, constants_record
-from ._common import (StudyError, canonical_equation, describe, rebuild_potential, resolve_params,
-                      seeded_level, state_channel)
+from ._common import (StudyError, canonical_equation, describe, parameter_units, rebuild_potential,
+                      resolve_params, seeded_level, state_channel)
 
 __all__ = ["critical", "CriticalResult"]
 
@@ -49,6 +50,11 @@ UNCERTAINTY_MEANING = (
     "the change between fits with successive numbers of terms plus the energy errors propagated through "
     "the fit, at least 4 ulp (double precision) and at most the distance to the farther end of the "
     "bracket (the level was solved bound at one end and not found at the other)")
+
+BRACKET_MEANING = (
+    "the bracket is the pair of solved values nearest the threshold (the level bound at the first, not "
+    "found at the second); the critical value is extrapolated to the threshold from the energies of the "
+    "bound points, so it is known far more precisely than the bracket is wide")
 
 
 def _digits(value: float, uncertainty: float) -> int:
@@ -101,6 +107,9 @@ class CriticalResult:
         Every evaluation: value, found, energy (hartree), error_estimate,
         via (``continuation`` or ``solver``), r_max (outer end of the
         level's mesh, bohr), seconds.
+    parameter_unit : str
+        Unit of the parameter ('' for a charge or a parameter of unknown
+        unit); ``value``, ``uncertainty`` and ``bracket`` are in it.
     """
 
     parameter: str
@@ -115,10 +124,16 @@ class CriticalResult:
     status: str = "ok"
     message: str = ""
     points: tuple = field(default_factory=tuple)
+    parameter_unit: str = ""
 
     @property
     def success(self) -> bool:
         return self.status == "ok"
+
+    @property
+    def bracket_meaning(self) -> str:
+        """One sentence saying what ``bracket`` is, and why it is wider than ``uncertainty``."""
+        return BRACKET_MEANING
 
     @property
     def uncertainty_meaning(self) -> str:
@@ -127,21 +142,26 @@ class CriticalResult:
 
     @property
     def value_text(self) -> str:
-        """``value +- uncertainty`` with as many digits as the uncertainty supports (6 to 16)."""
-        return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}"
+        """``value +- uncertainty unit`` with as many digits as the uncertainty supports (6 to 16)."""
+        unit = f" {self.parameter_unit}" if self.parameter_unit else ""
+        return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}{unit}"
 
     def to_dict(self) -> dict[str, Any]:
         """A JSON-ready record."""
-        return {"parameter": self.parameter, "value": self.value, "uncertainty": self.uncertainty,
+        return {"parameter": self.parameter, "parameter_unit": self.parameter_unit, "value": self.value,
+                "uncertainty": self.uncertainty,
                 "state": self.state, "equation": self.equation, "kind": self.kind,
                 "uncertainty_meaning": self.uncertainty_meaning,
-                "bracket": list(self.bracket), "evaluations": self.evaluations, "status": self.status,
+                "bracket": list(self.bracket), "bracket_meaning": self.bracket_meaning,
+                "evaluations": self.evaluations, "status": self.status,
                 "message": self.message, "settings": self.settings, "constants": constants_record(),
-                "units": {"energy": "hartree", "length": "bohr"}, "points": [dict(p) for p in self.points]}
+                "units": {"parameter": self.parameter_unit or "1", "energy": "hartree", "length": "bohr",
+                          "time": "s"},
+                "points": [dict(p) for p in self.points]}
 
     def __repr__(self) -> str:
         return (f"CriticalResult({self.state} {self.equation}, {self.kind}: {self.parameter} = "
-                f"{self.value:.12g} +- {self.uncertainty:.2g}, status={self.status!r}, "
+                f"{self.value_text}, status={self.status!r}, "
                 f"{self.evaluations} evaluations)")
 
 
@@ -323,7 +343,7 @@ def _single_threaded_blas(func):
 def critical(equation: str, potential, params: Mapping[str, Any] | None, *, state: str, vary: str,
              bracket: tuple[float, float] | None = None, tol: float = 1e-8, kind: str | None = None,
              energy_tol: float = 1e-10, bracket_rtol: float = 1e-2, max_evaluations: int = 40,
-             method: str = "auto", scalar=None,
+             method: str = "auto", scalar=None, labels: str = "atomic",
              **solve_kwargs) -> CriticalResult:
     """Critical value of a parameter at which a level unbinds or dives.
 
@@ -360,6 +380,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         bracket is tight on both sides.
     max_evaluations : int
         Budget of parameter values solved (default 40).
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        Labelling convention of ``state`` and of the result (``2p1/2``,
+        ``0p1/2`` or ``1P1/2``; :mod:`boundkit.states`).
     method, scalar, **solve_kwargs
         As for :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
@@ -434,7 +457,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     it). Near the lower continuum a Coulomb tail keeps the level compact.
     """
     eqname = canonical_equation(equation)
-    channel, k, label = state_channel(eqname, state)
+    channel, k, label = state_channel(eqname, convert_label(state, "atomic", frm=labels))
+    label = convert_label(label, labels)
     tol = check_positive("tol", tol)
     energy_tol = check_positive("energy_tol", energy_tol)
     bracket_rtol = check_positive("bracket_rtol", bracket_rtol)
@@ -756,10 +780,12 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     unit_s = "hartree^(1/2)" if kind == "unbind" else "hartree"
     if status == "ok" and p_out is not None and not (ahead(best, p_in) >= -unc and ahead(p_out, best) >= -unc):
         status = "unverified"
+    p_unit = parameter_units(potential, scalar, [vary], solve_kwargs.get("units", "atomic"))[vary]
+    pu = f" {p_unit}" if p_unit else ""
     if status == "ok":
         message = (f"{label} {'unbinds' if kind == 'unbind' else 'dives'} at {vary} = "
-                   f"{best:.{_digits(best, unc)}g} +- {unc:.2g} (estimated error of the extrapolation); "
-                   f"bound at {p_in:.12g}, not found at {p_out:.12g}")
+                   f"{best:.{_digits(best, unc)}g} +- {unc:.2g}{pu} (estimated error of the extrapolation); "
+                   f"bound at {p_in:.12g}{pu}, not found at {p_out:.12g}{pu}")
     elif status == "lost":
         status = "unverified"
         message = (f"{label} disappears between {vary} = {p_in:.12g} (E = {near['energy']:.10g} hartree, "
@@ -771,7 +797,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                    "the level was lost before its threshold; treat the value with caution")
     else:
         message = (f"the extrapolations did not agree to tol = {tol:g} within {len(points)} evaluations; "
-                   f"best estimate {best:.12g} +- {unc:.2g}")
+                   f"best estimate {best:.12g} +- {unc:.2g}{pu}")
     if status != "ok":
         log.warning("critical %s: %s", label, message)
     mc2 = near["mc2"]
@@ -788,4 +814,5 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                                                 "seconds")})
     return CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
                           equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
-                          settings=settings, status=status, message=message, points=tuple(clean))
+                          settings=settings, status=status, message=message, points=tuple(clean),
+                          parameter_unit=p_unit)

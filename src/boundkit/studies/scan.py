@@ -38,8 +38,10 @@ import numpy as np
 
 from .._checks import MAX_GRID_POINTS, check_count, check_int, check_positive, check_workers
 from .._checks import shorten
+from ..states import check_convention, convert_label
 from ..solver import solve
-from ..units import constants_record, hartree_to
+from ..units import column, constants_record, hartree_to
+from ..units import energy_unit as _energy_unit
 from . import _common
 from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, describe,
                       expected_labels, parameter_units, rebuild_potential, resolve_params,
@@ -237,7 +239,8 @@ class ScanResult:
                     r[k] = float(hartree_to(r[k], unit))
             rows.append(r)
         return {"parameters": list(self.parameters), "values": {k: list(v) for k, v in self.values.items()},
-                "parameter_units": self.parameter_units, "units": {"energy": unit, "length": "bohr"},
+                "parameter_units": self.parameter_units,
+                "units": {"energy": unit, "length": "bohr", "time": "s", "parameters": self.parameter_units},
                 "settings": self.settings, "constants": constants_record(), "rows": rows,
                 "solved": self.solved, "reused": self.reused, "seconds": self.seconds}
 
@@ -245,8 +248,8 @@ class ScanResult:
         """The rows as CSV text (energies in ``unit``, empty when absent)."""
         buf = io.StringIO()
         u = "hartree" if unit == "hartree" else unit
-        cols = [*self.parameters, "equation", "channel", "label", f"energy_{u}", f"error_estimate_{u}",
-                "status", "message"]
+        cols = [*(column(p, self.parameter_units.get(p, "")) for p in self.parameters), "equation", "channel",
+                "label", column("energy", u), column("error_estimate", u), "status", "message"]
         w = csv.writer(buf, lineterminator="\n")
         w.writerow(cols)
         for r in self.rows:
@@ -258,18 +261,23 @@ class ScanResult:
 
     def table(self, unit: str = "hartree") -> str:
         """A plain-text table (energies in ``unit``)."""
-        head = [f"{p:>16}" for p in self.parameters]
+        def named(p: str) -> str:
+            u = self.parameter_units.get(p, "")
+            return f"{p} ({u})" if u else p
+
+        width = {p: max(16, len(named(p))) for p in self.parameters}
+        head = [f"{named(p):>{width[p]}}" for p in self.parameters]
         lines = [" ".join(head + [f"{'equation':<13} {'channel':<9} {'level':<8} {'energy (' + unit + ')':>24} "
-                                  f"{'error':>9} status"])]
+                                  f"{'error (' + unit + ')':>13} status"])]
         for r in self.rows:
-            vals = [f"{r[p]:>16.10g}" for p in self.parameters]
+            vals = [f"{r[p]:>{width[p]}.10g}" for p in self.parameters]
             if r["energy"] is None:
                 e, de = "-", "-"
             else:
                 e = f"{hartree_to(r['energy'], unit):.15g}"
                 de = f"{hartree_to(r['error_estimate'], unit):.2g}"
             lines.append(" ".join(vals + [f"{r['equation']:<13} {r['channel']:<9} {r['label']:<8} {e:>24} "
-                                          f"{de:>9} {r['status']}"]))
+                                          f"{de:>13} {r['status']}"]))
         return "\n".join(lines)
 
     def __repr__(self) -> str:
@@ -489,7 +497,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
          scheduler=None, out: str | os.PathLike | None = None,
          progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
          max_points: int = MAX_GRID_POINTS, scheduler_timeout: float = DASK_TIMEOUT,
-         **solve_kwargs) -> ScanResult:
+         labels: str = "atomic", energy_unit: str | None = None, **solve_kwargs) -> ScanResult:
     """Bound levels over a grid of one or two potential parameters.
 
     Parameters
@@ -551,6 +559,13 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         Most points (values x values x equations x channels) the scan may
         have, default 10000 (:data:`boundkit._checks.MAX_GRID_POINTS`); raise
         it for a larger grid.
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        Labelling convention of the rows (``2p1/2``, ``0p1/2`` or ``1P1/2``;
+        :mod:`boundkit.states`).
+    energy_unit : str, optional
+        Unit of the energies in ``scan.csv`` and ``scan.json`` under ``out``
+        (default hartree; MeV with ``units='nuclear'``); the result itself
+        keeps hartree (convert with ``series(..., unit=)``, ``to_csv(unit)``).
     **solve_kwargs
         Passed to :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
@@ -581,6 +596,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     equations = list(dict.fromkeys(canonical_equation(e) for e in equations))
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
+    labels = check_convention(labels)
+    file_unit = _energy_unit(energy_unit or ("MeV" if solve_kwargs.get("units") == "nuclear" else "hartree"))
     scheduler_timeout = check_positive("scheduler_timeout", scheduler_timeout)
     workers = check_workers(workers)
     max_points = check_int("max_points", max_points, minimum=1)
@@ -686,9 +703,11 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     rows = []
     for t in tasks:
         rows.extend(_rows_for(t, records[t["key"]]))
+    if labels != "atomic":
+        rows = [{**r, "label": convert_label(r["label"], labels)} for r in rows]
     settings = {"equations": equations, "channels": [c for _, c in pairs], "potential": describe(potential),
                 "scalar": describe(scalar), "params": {k: (repr(v) if callable(v) else v) for k, v in params.items()},
-                "levels": levels, "tol": tol, "method": method,
+                "levels": levels, "tol": tol, "method": method, "labels": labels,
                 "solve_kwargs": {k: v for k, v in solve_kwargs.items()},
                 "backend": "dask" if scheduler is not None else "local",
                 "resume": resume if outdir is not None else "off: no out folder", "code": _common.code_version()}
@@ -697,8 +716,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
                         reused=reused, out=None if outdir is None else str(outdir),
                         seconds=time.perf_counter() - t0)
     if outdir is not None:
-        _write_or_note(problems, outdir / "scan.csv", write_atomic, result.to_csv())
-        _write_or_note(problems, outdir / "scan.json", write_json_atomic, result.to_dict())
+        _write_or_note(problems, outdir / "scan.csv", write_atomic, result.to_csv(file_unit))
+        _write_or_note(problems, outdir / "scan.json", write_json_atomic, result.to_dict(file_unit))
         result = replace(result, problems=tuple(problems))
     log.info("scan: %d point(s) solved, %d reused, %.1f s", solved, reused, result.seconds)
     return result
