@@ -141,3 +141,16 @@ def test_transitions_take_a_labelling_convention():
     ln = tr.line("1P", "1S")
     assert ln.energy == pytest.approx(0.375, rel=1e-12)
     assert tr.level("1P").branching == {"1S E1": 1.0}
+
+
+def test_solve_takes_labels_like_the_other_studies():
+    """boundkit.solve(labels=...) names levels as with_labels does (common practice: nuclear counts
+    radial nodes from 0, quarkonium nodes + 1); an unknown convention is refused by name."""
+    import boundkit
+
+    res = boundkit.solve("dirac", "coulomb", {"Z": 1}, kappa=1, levels=2, labels="nuclear")
+    assert [lv.label for lv in res.levels] == ["0p1/2", "1p1/2"] and res.settings["labels"] == "nuclear"
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=1, levels=2, labels="quarkonium")
+    assert [lv.label for lv in res.levels] == ["1P", "2P"]
+    with pytest.raises(ValueError, match="labels: unknown labelling convention 'x'; choose one of atomic"):
+        boundkit.solve(labels="x")

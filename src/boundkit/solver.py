@@ -841,7 +841,7 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
           method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None,
           scalar=None, units: str = "atomic", cross_check: bool = False,
-          j: float | None = None) -> SolveResult:
+          j: float | None = None, labels: str = "atomic") -> SolveResult:
     """Bound levels of one channel of a central potential.
 
     Parameters
@@ -868,7 +868,8 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
         Accuracy order of the finite-difference family (default 8).
     particle, mass_mev : str, float
         Orbiting particle by name (electron, muon, pion, kaon, proton,
-        antiproton) or its mass in MeV/c^2. Default electron.
+        antiproton, neutron, deuteron; ``boundkit particles`` lists them) or
+        its mass in MeV/c^2. Default electron.
     nucleus_mass_mev : float, optional
         Nucleus mass; the reduced mass mu = m M / (m + M) is then used in
         every equation (the leading recoil correction).
@@ -884,6 +885,10 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     cross_check : bool
         Also solve with the other discretization family and put the
         per-level agreement in ``diagnostics['cross_check']``.
+    labels : {'atomic', 'nuclear', 'quarkonium'}
+        How levels are named (see :meth:`SolveResult.with_labels`): atomic
+        n = nodes + l + 1 (2p1/2), nuclear radial nodes from 0 (0p1/2),
+        quarkonium nodes + 1 (1S, 1P).
 
     Returns
     -------
@@ -907,6 +912,8 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     tol = check_positive("tol", tol)
     if tol >= 1:
         raise ValueError(f"tol: a relative error below 1 (e.g. 1e-10), got {tol:g}")
+    from .states import check_convention
+    labels = check_convention(labels)
     disc = get_method(method, order)
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
@@ -926,4 +933,4 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
                          "other_error_estimate": None if o is None else o.error_estimate,
                          "difference": None if o is None else abs(lv.energy - o.energy)})
         res = replace(res, diagnostics={**res.diagnostics, "cross_check": rows})
-    return res
+    return res if labels == "atomic" else res.with_labels(labels)
