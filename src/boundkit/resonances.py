@@ -318,7 +318,15 @@ def _edges(plan: dict, pot) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------
 # the public API
 # ---------------------------------------------------------------------------------------------
-def resonances(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+def resonances(*args, **kwargs) -> "ResonanceResult":
+    """Resonances, bound and quasi-bound levels by complex scaling (see :func:`_resonances`)."""
+    from .potentials.base import complex_values
+
+    with complex_values():          # user callables and expressions may return complex values here
+        return _resonances(*args, **kwargs)
+
+
+def _resonances(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
                window: tuple[float, float], l: int | None = None, kappa: int | None = None,
                angles: Sequence[float] = (0.25, 0.35), order: int = 12, r0: float | None = None,
                r_max: float | None = None, h: float | None = None, analytic: Callable | None = None,
