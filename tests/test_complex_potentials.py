@@ -187,3 +187,17 @@ def test_cli_complex_param_and_literal():
     assert out.exit_code == 2 and "use boundkit.resonances" in out.output and "Traceback" not in out.output
     out = runner.invoke(main, ["solve", "--expr", "-Z/r", "--param", "Z=1+zj"])
     assert out.exit_code == 2 and "boundkit: error: --param 'Z=1+zj': '1+zj' is not a number" in out.output
+
+
+# --- labels by continuity from the real limit ------------------------------------------------------
+def test_labels_count_from_the_bottom_of_the_real_limit_not_from_the_window():
+    # strong absorption W = -0.3 exp(-r/0.3) on hydrogen: in a window holding only the third s level,
+    # and in an l = 1 window, the names follow the real limit's ladder (n = k + l, the k-th level of
+    # -1/r from the bottom; exact hydrogen E_n = -1/(2 n^2)), not the order inside the window
+    W = lambda r: -0.3 * np.exp(-r / 0.3)        # noqa: E731
+    (s3,) = boundkit.resonances("schrodinger", "coulomb", {"Z": 1}, window=(-0.07, -0.04), absorptive=W).resonances
+    assert s3.label == "3s" and s3.kind == "quasi-bound" and abs(s3.energy + 1 / 18) < 1e-3
+    p = boundkit.resonances("schrodinger", "coulomb", {"Z": 1}, l=1, window=(-0.2, -0.04), absorptive=W).resonances
+    assert [r.label for r in p] == ["2p", "3p"]
+    assert [r.energy for r in p] == pytest.approx([-1 / 8, -1 / 18], abs=1e-3)
+    assert p[0].width > p[1].width > 0                  # the 2p sits closer to the absorbing core
