@@ -201,3 +201,10 @@ def test_labels_count_from_the_bottom_of_the_real_limit_not_from_the_window():
     assert [r.label for r in p] == ["2p", "3p"]
     assert [r.energy for r in p] == pytest.approx([-1 / 8, -1 / 18], abs=1e-3)
     assert p[0].width > p[1].width > 0                  # the 2p sits closer to the absorbing core
+
+
+def test_absorptive_part_must_be_real():
+    # a complex W would lose its imaginary part in i W: refused, not dropped
+    with pytest.raises(ValueError, match=r"absorptive: W\(r\) must be real"):
+        boundkit.resonances("schrodinger", "coulomb", {"Z": 1}, window=(-0.6, -0.4),
+                            absorptive=ExpressionTerm("-0.001j*exp(-r)"))

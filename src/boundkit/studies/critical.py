@@ -26,7 +26,7 @@ import functools
 import logging
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
 import numpy as np
@@ -818,9 +818,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                          f"this {label} unbinds; leave beyond out")
     if status != "ok":
         log.warning("critical %s: not followed past the critical value (status %s)", label, status)
-        return result
-    from dataclasses import replace
-
+        return replace(result, message=f"{message}; not followed past the critical value (beyond) since the "
+                       "critical value is not confirmed")
     from .supercritical import follow_dived
 
     direction = 1.0 if (p_out is not None and p_out > p_in) or (p_out is None and best > p_in) else -1.0
