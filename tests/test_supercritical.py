@@ -125,6 +125,9 @@ def test_beyond_is_refused_where_it_makes_no_sense():
     with pytest.raises(ValueError, match="beyond: a level is followed past its critical value only when it dives"):
         boundkit.critical("schrodinger", "yukawa", {"Z": 1.0, "screening_length": 2.0}, state="1s",
                           vary="screening_length", kind="unbind", beyond=(0.1,))
+    with pytest.raises(ValueError, match=r"only when it dives \(kind='dive'\); this search is kind='unbind'"):
+        boundkit.critical("dirac", "yukawa", {"Z": 1.0, "screening_length": 2.0}, state="1s1/2",
+                          vary="screening_length", beyond=(0.1,))      # short range: unbinds, refused up front
     with pytest.raises(ValueError, match=r"beyond: distances past the critical value must be finite and > 0"):
         boundkit.critical("dirac", "uniform-sphere", {"Z": 160, "rms_fm": 7.0}, state="1s1/2", vary="Z",
                           beyond=(3, -1))

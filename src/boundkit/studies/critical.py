@@ -472,9 +472,6 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         from .supercritical import check_beyond
 
         beyond = check_beyond(beyond)
-        if kind == "unbind":
-            raise ValueError("beyond: a level is followed past its critical value only when it dives "
-                             "(kind='dive'); leave beyond out for kind='unbind'")
     varied = {vary} | {n for n, v in params.items() if callable(v)}
     t0 = time.perf_counter()
 
@@ -507,6 +504,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     if kind == "unbind" and pot0.tail_charge > 0:
         raise ValueError(f"kind: a potential with a Coulomb tail (charge {pot0.tail_charge:g}) binds "
                          "infinitely many levels and none unbinds; use a screened potential or kind='dive'")
+    if beyond is not None and kind != "dive":
+        raise ValueError("beyond: a level is followed past its critical value only when it dives "
+                         f"(kind='dive'); this search is kind={kind!r}; leave beyond out")
 
     points: list[dict] = []
 
@@ -813,9 +813,6 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                             settings=settings, status=status, message=message, points=tuple(clean))
     if beyond is None:
         return result
-    if kind != "dive":
-        raise ValueError("beyond: a level is followed past its critical value only when it dives (kind='dive'); "
-                         f"this {label} unbinds; leave beyond out")
     if status != "ok":
         log.warning("critical %s: not followed past the critical value (status %s)", label, status)
         return replace(result, message=f"{message}; not followed past the critical value (beyond) since the "
