@@ -56,6 +56,7 @@ every state below -2 m c^2; for Klein-Gordon these are not validated).
 """
 from __future__ import annotations
 
+import functools
 import logging
 import math
 import time
@@ -318,15 +319,20 @@ def _edges(plan: dict, pot) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------
 # the public API
 # ---------------------------------------------------------------------------------------------
-def resonances(*args, **kwargs) -> "ResonanceResult":
-    """Resonances, bound and quasi-bound levels by complex scaling (see :func:`_resonances`)."""
-    from .potentials.base import complex_values
+def _complex_allowed(func):
+    """Run ``func`` inside :func:`boundkit.potentials.base.complex_values`: user callables and
+    expressions may return complex values there. The wrapper keeps the signature and docstring."""
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from .potentials.base import complex_values
 
-    with complex_values():          # user callables and expressions may return complex values here
-        return _resonances(*args, **kwargs)
+        with complex_values():
+            return func(*args, **kwargs)
+    return wrapper
 
 
-def _resonances(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+@_complex_allowed
+def resonances(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
                window: tuple[float, float], l: int | None = None, kappa: int | None = None,
                angles: Sequence[float] = (0.25, 0.35), order: int = 12, r0: float | None = None,
                r_max: float | None = None, h: float | None = None, analytic: Callable | None = None,
