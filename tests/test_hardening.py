@@ -120,10 +120,10 @@ def test_huge_values_of_an_expression_or_callable_are_refused():
 
 # --- item 8: complex values are refused --------------------------------------------------------
 def test_a_callable_returning_complex_values_is_refused():
-    with pytest.raises(ValueError, match="complex values .* complex potentials are not supported yet"):
+    with pytest.raises(ValueError, match="complex values .* takes real potentials only; use boundkit.resonances"):
         boundkit.solve("schrodinger", lambda r: -1 / r + 0.1j / r, levels=1)
     # only far out: found when the solver samples it, still a ValueError
-    with pytest.raises(ValueError, match="complex potentials are not supported yet"):
+    with pytest.raises(ValueError, match="takes real potentials only; use boundkit.resonances"):
         boundkit.solve("schrodinger", lambda r: -1 / r + 1j * (r > 5) * 1e-3, levels=1)
     # a complex dtype with zero imaginary part is a real potential
     res = boundkit.solve("schrodinger", lambda r: (-1 / r).astype(complex), levels=1)

@@ -70,8 +70,23 @@ def check_choice(name: str, value: str, allowed: Iterable[str]) -> str:
     return value
 
 
-def check_parameter(name: str, value) -> float:
-    """A finite potential parameter of magnitude at most :data:`MAX_MAGNITUDE`."""
+def check_parameter(name: str, value, allow_complex: bool = False) -> float | complex:
+    """A finite potential parameter of magnitude at most :data:`MAX_MAGNITUDE`.
+
+    With ``allow_complex`` a complex value (finite real and imaginary parts)
+    is returned as a complex; one with a zero imaginary part as a float.
+    """
+    if isinstance(value, complex) or "complex" in type(value).__name__:   # numpy's complex64 too
+        z = complex(value)
+        if z.imag == 0:
+            value = z.real
+        elif not allow_complex:
+            raise ValueError(f"{name}: complex value {_short(value)} is taken by expression terms and model files "
+                             "with an expression only; for a built-in term give its imaginary part as "
+                             "absorptive= (boundkit.resonances) or write the term as an expression with 1j")
+        else:
+            re_, im_ = (check_parameter(name, part) for part in (z.real, z.imag))
+            return complex(re_, im_)
     x = check_finite(name, value)
     if abs(x) > MAX_MAGNITUDE:
         raise ValueError(f"{name}: magnitude {x:.3g} is beyond {MAX_MAGNITUDE:g}, the largest boundkit accepts "

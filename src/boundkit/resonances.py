@@ -56,6 +56,7 @@ every state below -2 m c^2; for Klein-Gordon these are not validated).
 """
 from __future__ import annotations
 
+import functools
 import logging
 import math
 import time
@@ -318,6 +319,19 @@ def _edges(plan: dict, pot) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------
 # the public API
 # ---------------------------------------------------------------------------------------------
+def _complex_allowed(func):
+    """Run ``func`` inside :func:`boundkit.potentials.base.complex_values`: user callables and
+    expressions may return complex values there. The wrapper keeps the signature and docstring."""
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from .potentials.base import complex_values
+
+        with complex_values():
+            return func(*args, **kwargs)
+    return wrapper
+
+
+@_complex_allowed
 def resonances(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
                window: tuple[float, float], l: int | None = None, kappa: int | None = None,
                angles: Sequence[float] = (0.25, 0.35), order: int = 12, r0: float | None = None,

@@ -31,7 +31,8 @@ def potentials_cmd(name):
     click.echo(f"source:  {spec.source}")
     click.echo("parameters (unit with --units atomic / --units nuclear):")
     for pname, p in spec.parameters.items():
-        default = f"default {p['default']:g}" if "default" in p else "required"
+        default = ("required" if "default" not in p else f"default {p['default']}" if isinstance(p["default"], str)
+                   else f"default {p['default']:g}")      # a string default is a complex number
         click.echo(f"  {pname:<18} {p['unit']:>16} / {unit_label(p['unit'], 'nuclear'):<14} {default:<16} "
                    f"{p['description']}")
 

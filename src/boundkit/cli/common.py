@@ -58,8 +58,11 @@ def parse_params(items: tuple[str, ...]) -> dict[str, float]:
         try:
             x = float(value)
         except ValueError:
-            fail(f"--param {item!r}: {value.strip()!r} is not a number; write NAME=VALUE, e.g. --param Z=82")
-        if not math.isfinite(x):
+            try:    # a complex value, e.g. W=-0.01j or V0=50+5j (expressions and resonances only)
+                x = complex("".join(value.split()))
+            except ValueError:
+                fail(f"--param {item!r}: {value.strip()!r} is not a number; write NAME=VALUE, e.g. --param Z=82")
+        if not (math.isfinite(x.real) and math.isfinite(x.imag)):
             fail(f"--param {item!r}: the value must be finite")
         if name in given and x != params[name]:
             fail(f"--param {name} is given twice ({given[name]} and {value.strip()}); give it once")

@@ -152,12 +152,15 @@ def _bracket(text: str | None):
 @click.option("--rms-rule", default=None, metavar="R0,A_PER_Z",
               help="Set rms_fm at every point from Z: uniform sphere of radius R0 (A_PER_Z Z)^(1/3) fm.")
 @labels_option
+@click.option("--beyond", default=None, metavar="D1,D2,...",
+              help="Diving only: follow the dived level this far past the critical value (e.g. 3,5,10) as a "
+                   "resonance E + i Gamma/2 in the lower continuum (complex scaling).")
 @click.option("--json", "as_json", is_flag=True,
               help="Print one JSON object (parameter, value, uncertainty, state, equation, kind, bracket, ...).")
 def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                  table_origin, table_r_unit, table_v_unit, params, unit_system, state, vary, bracket, kind, tol,
                  energy_tol, max_evaluations, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule,
-                 labels, as_json):
+                 labels, beyond, as_json):
     """Parameter value where a level unbinds (E -> 0) or dives into the lower continuum."""
     from ..studies import StudyError, critical
 
@@ -174,6 +177,12 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         _rms_rule(rms_rule, values)
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
+        if beyond is not None:
+            try:
+                kwargs["beyond"] = tuple(float(x) for x in beyond.split(","))
+            except ValueError:
+                raise ValueError(f"--beyond {beyond!r}: write distances separated by commas, e.g. --beyond 3,5,10") \
+                    from None
         res = critical(equation, vector, values, state=state, vary=vary, bracket=br, tol=tol, kind=kind,
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
                        scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
@@ -194,6 +203,12 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         click.echo(f"{res.evaluations} evaluations; status: {res.status} - {res.message}")
         click.echo(f"uncertainty: {res.uncertainty_meaning}")
         click.echo(f"bracket: {res.bracket_meaning}")
+        if res.beyond:
+            click.echo("past the critical value, a resonance E + i Gamma/2 below -2 m c^2 (complex scaling), hartree:")
+            click.echo(f"{res.parameter:>14} {'label':<8} {'energy':>20} {'+-':>8} {'width':>14} {'+-':>8}  status")
+            for b in res.beyond:
+                click.echo(f"{b.value:>14.10g} {b.label:<8} {b.energy:>20.12g} {b.energy_error:>8.2g} "
+                           f"{b.width:>14.8g} {b.width_error:>8.2g}  {b.status}")
     if not res.success:
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)

@@ -8,6 +8,8 @@ equations). All values are in atomic units: r in bohr, V in hartree.
 """
 from __future__ import annotations
 
+import contextlib
+import contextvars
 import logging
 
 from dataclasses import dataclass, field
@@ -19,26 +21,47 @@ from .._checks import MAX_MAGNITUDE, check_parameter, shorten
 
 log = logging.getLogger(__name__)
 
-__all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "NuclearUnitsTerm", "refuse_complex"]
+__all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "NuclearUnitsTerm", "refuse_complex",
+           "complex_values"]
+
+_COMPLEX_OK: contextvars.ContextVar[bool] = contextvars.ContextVar("boundkit_complex_ok", default=False)
+
+
+@contextlib.contextmanager
+def complex_values():
+    """Inside this context, user callables and expressions may return complex values.
+
+    :func:`boundkit.resonances` evaluates its potential inside it (its dense
+    complex eigen solve takes V_R + i W); everywhere else such values are
+    refused by :func:`refuse_complex`, never silently made real.
+    """
+    token = _COMPLEX_OK.set(True)
+    try:
+        yield
+    finally:
+        _COMPLEX_OK.reset(token)
 
 
 def refuse_complex(values, label: str, r=None) -> np.ndarray:
     """``values`` as a float array; ValueError when they carry an imaginary part.
 
     Complex potentials (optical potentials, resonances) are not supported by
-    the real bound-state solver yet, and casting to float would silently drop
+    the real bound-state solver, and casting to float would silently drop
     the imaginary part. A complex array whose imaginary part is exactly zero
-    is accepted as real.
+    is accepted as real. Inside :func:`complex_values` complex values are
+    returned as they are.
     """
     arr = np.asarray(values)
     if np.iscomplexobj(arr):
         imag = np.abs(np.imag(arr))
+        if np.any(imag != 0) and _COMPLEX_OK.get():
+            return arr.astype(complex)
         if np.any(imag != 0):
             i = int(np.argmax(imag))
             at = "" if r is None or np.ndim(r) == 0 else f" at r = {np.ravel(r)[i]:.3g} bohr"
             raise ValueError(f"potential: {label} returned complex values (imaginary part {np.ravel(imag)[i]:.3g}"
-                             f"{at}); complex potentials are not supported yet by the bound-state solver; "
-                             "return real values, or use boundkit.resonances")
+                             f"{at}); the bound-state solver takes real potentials only; use boundkit.resonances "
+                             "(boundkit resonances) for complex ones, or return real values")
         arr = np.real(arr)
     try:
         return np.asarray(arr, dtype=float)
@@ -195,8 +218,8 @@ class ProbedTerm(Term):
     def _finite_probe(self, radii: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """V at ``radii``; if any value is not finite, once more at radii shifted by 4.7 %."""
         for r in (radii, radii * 1.047):
-            with np.errstate(all="ignore"):
-                v = self._evaluate(r)
+            with np.errstate(all="ignore"), complex_values():
+                v = np.real(self._evaluate(r))      # the ends of a complex term are those of its real part
             if np.all(np.isfinite(v)):
                 break
         return r, v
@@ -271,7 +294,7 @@ class CallableTerm(ProbedTerm):
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
         out = refuse_complex(self.func(r), shorten(self.label), r)
         if out.shape != np.shape(r):
-            out = np.broadcast_to(out, np.shape(r)).astype(float)
+            out = np.broadcast_to(out, np.shape(r)).astype(out.dtype)
         return out
 
     def __repr__(self) -> str:

@@ -18,11 +18,18 @@ same way with ``--potential-file my.toml``. The format is ours:
     unit = "e"
     description = "nuclear charge number"
 
+TOML has no complex numbers: a complex default is a string in Python's
+notation, ``default = "-50 - 5j"`` (spaces allowed), and only a model with an
+``expression`` takes one (the expression may also contain imaginary numbers
+such as ``0.1j``). Such a model is complex: :func:`boundkit.resonances` solves
+with it, the real bound-state solver refuses it.
+
 A file with an unknown key, a value of the wrong type or a missing field is
 refused with the file, the key and its line.
 """
 from __future__ import annotations
 
+import math
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -34,7 +41,7 @@ __all__ = ["ModelSpec", "read_model_file", "library_models", "library_model"]
 
 _TOP = {"name": str, "description": str, "source": str, "expression": str, "term": str,
         "formula": str, "units": str, "role": str, "parameters": dict}
-_PARAM = {"default": (int, float), "unit": str, "description": str}
+_PARAM = {"default": (int, float, str), "unit": str, "description": str}
 _REQUIRED = ("name", "description", "source")
 
 
@@ -54,8 +61,10 @@ class ModelSpec:
     parameters: Mapping[str, dict] = field(default_factory=dict)
 
     @property
-    def defaults(self) -> dict[str, float]:
-        return {k: float(v["default"]) for k, v in self.parameters.items() if "default" in v}
+    def defaults(self) -> dict[str, float | complex]:
+        """Default values; a string default (checked when the file is read) is a complex number."""
+        return {k: _complex_default(v["default"]) if isinstance(v["default"], str) else float(v["default"])
+                for k, v in self.parameters.items() if "default" in v}
 
     def build(self, params: Mapping[str, float]):
         """The term this model describes, with the file's defaults under ``params``.
@@ -82,6 +91,18 @@ class ModelSpec:
         term = _make_term(self.term, values, used, self.units)
         term.fixed_units = True
         return term, used | (set(self.parameters) & set(params))
+
+
+def _complex_default(text: str) -> complex:
+    """``"-50 - 5j"`` -> (-50-5j); ValueError when it is not a finite complex number."""
+    try:
+        z = complex("".join(text.split()))
+    except ValueError:
+        raise ValueError(f"{text!r} is not a number; write a number, or a complex one as a string such as "
+                         "\"-50 - 5j\"") from None
+    if not (math.isfinite(z.real) and math.isfinite(z.imag)):
+        raise ValueError(f"{text!r} is not finite")
+    return z
 
 
 def _line_of(text: str, key: str, table: str | None = None) -> int:
@@ -144,6 +165,14 @@ def read_model_file(path: str | Path, text: str | None = None) -> ModelSpec:
             if isinstance(v, bool) or not isinstance(v, _PARAM[k]):
                 want = "number" if k == "default" else "string"
                 raise bad(k, f"expected a {want}, got {type(v).__name__}", pname)
+            if k == "default" and isinstance(v, str):
+                try:
+                    _complex_default(v)
+                except ValueError as exc:
+                    raise bad(k, str(exc), pname) from None
+                if "expression" not in data:
+                    raise bad(k, "a complex default (a string) needs a model with an expression; a built-in term "
+                              "takes real parameters", pname)
         for k in ("unit", "description"):
             if k not in spec:
                 raise bad(pname, f"[parameters.{pname}] needs {k} = \"...\"")

@@ -8,7 +8,12 @@ walks with numpy, vectorised over an array of radii.
 
 Grammar
 -------
-- numbers: ``2``, ``0.5``, ``1.5e-3``;
+- numbers: ``2``, ``0.5``, ``1.5e-3``, and imaginary numbers written as in
+  Python, a number with the suffix ``j``: ``1j``, ``0.05j``, ``2.5e-3j``
+  (so ``-V0*(1 + 0.1j)*exp(-r)`` is a complex potential). The imaginary unit
+  is ``1j``: a bare ``i`` or ``j`` is an ordinary name (a parameter), so
+  existing expressions that use ``i`` as a parameter keep their meaning;
+  when ``i`` or ``j`` is left without a value the message suggests ``1j``;
 - the radius ``r`` (bohr) and named parameters (any other plain name);
 - binary ``+ - * / **``, unary ``-`` and ``+``, parentheses;
 - the functions ``exp log sqrt sin cos tan sinh cosh tanh erf erfc abs``
@@ -27,7 +32,10 @@ larger than 1000 in magnitude and power towers of literals such as
 100 levels.
 
 The values are the potential in hartree with r in bohr, like every term of
-boundkit.
+boundkit. An expression with an imaginary number or a complex parameter value
+gives complex values V_R + i W: :func:`boundkit.resonances` solves with them;
+the real bound-state solver refuses them (pointing to ``resonances``).
+Comparisons in ``where`` must compare real values.
 """
 from __future__ import annotations
 
@@ -42,7 +50,7 @@ import numpy as np
 import scipy.special
 
 from .._checks import check_parameter
-from .base import Parameter, ProbedTerm
+from .base import Parameter, ProbedTerm, refuse_complex
 
 __all__ = ["CompiledExpression", "parse_expression", "ExpressionTerm", "FUNCTIONS", "CONSTANTS",
            "MAX_LENGTH", "MAX_DEPTH", "MAX_EXPONENT"]
@@ -76,7 +84,7 @@ CONSTANTS: dict[str, float] = {"pi": math.pi, "e": math.e}
 """Named constants."""
 
 _ALLOWED = (
-    "allowed: numbers, r, names, + - * / ** (not ^), ( ), " + " ".join(FUNCTIONS) + ", where(condition, a, b) with "
+    "allowed: numbers (0.5j imaginary), r, names, + - * / ** (not ^), ( ), " + " ".join(FUNCTIONS) + ", where(condition, a, b) with "
     "< <= > >=, pi, e"
 )
 """The reminder closing every refusal (kept short: a message stays under 300 characters)."""
@@ -182,8 +190,8 @@ class CompiledExpression:
     positions: Mapping[str, int]
     _tree: tuple
 
-    def check_params(self, params: Mapping[str, float] | None) -> dict[str, float]:
-        """Return the finite values of this expression's parameters.
+    def check_params(self, params: Mapping[str, float] | None) -> dict[str, float | complex]:
+        """Return the finite values of this expression's parameters (complex ones allowed).
 
         Extra entries of ``params`` are ignored (the caller decides whether
         that is an error; compare with :attr:`parameter_names`).
@@ -199,12 +207,14 @@ class CompiledExpression:
         if missing:
             where = ", ".join(f"{n!r} at position {self.positions[n]}" for n in missing)
             example = " ".join(f"--param {n}=VALUE" for n in missing)
+            unit = ("; for the imaginary unit write 1j (e.g. 0.1j)"
+                    if any(n in ("i", "j", "I", "J") for n in missing) else "")
             raise ValueError(
                 f"expression: unknown name {where}: not r, pi, e or a function, so it is read as a "
                 f"parameter, and no value was given; give it with {example} "
-                f"(or params={{{', '.join(repr(n) + ': ...' for n in missing)}}}); {_ALLOWED}"
+                f"(or params={{{', '.join(repr(n) + ': ...' for n in missing)}}}){unit}; {_ALLOWED}"
             )
-        return {n: check_parameter(f"params[{n!r}]", params[n]) for n in self.parameter_names}
+        return {n: check_parameter(f"params[{n!r}]", params[n], allow_complex=True) for n in self.parameter_names}
 
     def evaluate(self, r, params: Mapping[str, float] | None = None) -> np.ndarray:
         """Values of the expression at radii ``r`` (vectorised).
@@ -219,15 +229,22 @@ class CompiledExpression:
         Returns
         -------
         numpy.ndarray
-            Float array of the shape of ``r``. Division by zero, overflow and
-            invalid operations give inf or nan without warnings; a solver
-            checks the values it samples.
+            Array of the shape of ``r``: float, or complex when the expression
+            has an imaginary number or a complex parameter. Division by zero,
+            overflow and invalid operations give inf or nan without warnings;
+            a solver checks the values it samples.
+
+        Raises
+        ------
+        ValueError
+            A condition of ``where`` that compares complex values.
         """
         values = self.check_params(params)
         r = np.asarray(r, dtype=float)
         with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
-            out = _eval(self._tree, r, values)
-            return np.array(np.broadcast_to(np.asarray(out, dtype=float), r.shape), dtype=float)
+            out = np.asarray(_eval(self._tree, r, values))
+            kind = complex if np.iscomplexobj(out) else float
+            return np.array(np.broadcast_to(out.astype(kind), r.shape), dtype=kind)
 
     def __call__(self, r, params: Mapping[str, float] | None = None) -> np.ndarray:
         return self.evaluate(r, params)
@@ -257,13 +274,21 @@ def _eval(node: tuple, r: np.ndarray, p: Mapping[str, float]):
                 acc = np.divide(acc, x)
         return acc
     if kind == "pow":
-        return np.power(np.asarray(_eval(node[1], r, p), dtype=float), _eval(node[2], r, p))
+        base, exponent = np.asarray(_eval(node[1], r, p)), _eval(node[2], r, p)
+        if not (np.iscomplexobj(base) or np.iscomplexobj(exponent)):
+            base = base.astype(float)        # real powers stay real: (-1)**0.5 is nan, not 1j
+        return np.power(base, exponent)
     if kind == "call":
         return FUNCTIONS[node[1]](_eval(node[2], r, p))
     if kind == "where":
         return np.where(_eval(node[1], r, p), _eval(node[2], r, p), _eval(node[3], r, p))
     if kind == "cmp":
         operands = [_eval(x, r, p) for x in node[1]]
+        for x in operands:
+            if np.iscomplexobj(x) and np.any(np.imag(x) != 0):
+                raise ValueError("expression: the condition of where() compares complex values; compare real "
+                                 "quantities (r, real parameters) and put the imaginary part in a or b")
+        operands = [np.real(x) for x in operands]
         result = True
         for i, op in enumerate(node[2]):
             result = np.logical_and(result, _CMP_FUNCS[op](operands[i], operands[i + 1]))
@@ -323,6 +348,10 @@ class _Translator:
 
     def constant(self, node: ast.Constant) -> tuple:
         value = node.value
+        if isinstance(value, complex):          # 0.5j: an imaginary literal (the real part is always 0)
+            if not math.isfinite(value.imag):
+                raise self.refuse("number", node, "numbers must be finite double-precision values (|x| < 1.8e308)")
+            return ("num", value)
         if isinstance(value, bool) or not isinstance(value, (int, float)):
             word = "string" if isinstance(value, (str, bytes)) else "constant"
             raise self.refuse(word, node, "only plain numbers are constants")
@@ -379,8 +408,8 @@ class _Translator:
             raise self.refuse("power tower of literals", node,
                               "a literal exponent may not itself contain **")
         with np.errstate(all="ignore"):
-            x = float(_eval(tree, np.zeros(()), {}))
-        if not (math.isfinite(x) and abs(x) <= MAX_EXPONENT):
+            x = abs(complex(_eval(tree, np.zeros(()), {})))
+        if not (math.isfinite(x) and x <= MAX_EXPONENT):
             raise self.refuse("exponent", node, f"literal exponents must satisfy |exponent| <= {MAX_EXPONENT:g}")
 
     def call(self, node: ast.Call, depth: int) -> tuple:
@@ -569,7 +598,7 @@ class ExpressionTerm(ProbedTerm):
         return self.compiled.parameter_names
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
-        return self.compiled.evaluate(r, self.values)
+        return refuse_complex(self.compiled.evaluate(r, self.values), f"expression {self.label!r}", r)
 
     def __repr__(self) -> str:
         args = "".join(f", {k}={v:g}" for k, v in self.values.items())

@@ -73,7 +73,13 @@ class ImaginaryPart(Term):
                              "use a term that is finite at r = 0 and short-ranged")
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
-        return 1j * np.asarray(self.inner(r), dtype=float)
+        w = np.asarray(self.inner(r))
+        if np.iscomplexobj(w):
+            if np.any(w.imag != 0):
+                raise ValueError("absorptive: W(r) must be real (it is the imaginary part, V = V_R + i W); "
+                                 "write a complex term in the potential itself instead")
+            w = w.real
+        return 1j * w.astype(float)
 
     @property
     def breakpoints(self) -> tuple[float, ...]:

@@ -26,7 +26,7 @@ import functools
 import logging
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
 import numpy as np
@@ -94,6 +94,10 @@ class CriticalResult:
         evaluated.
     evaluations : int
         Number of parameter values solved.
+    beyond : tuple of DivedResonance
+        With ``beyond=`` (diving only): the level past the diving point as a
+        resonance E + i Gamma/2 in the lower continuum at each requested
+        distance (see :mod:`boundkit.studies.supercritical`).
     settings : dict
         Potential, fixed parameters, channel, tolerances, method, particle.
     status : str
@@ -125,6 +129,7 @@ class CriticalResult:
     message: str = ""
     points: tuple = field(default_factory=tuple)
     parameter_unit: str = ""
+    beyond: tuple = field(default_factory=tuple)
 
     @property
     def success(self) -> bool:
@@ -157,12 +162,14 @@ class CriticalResult:
                 "message": self.message, "settings": self.settings, "constants": constants_record(),
                 "units": {"parameter": self.parameter_unit or "1", "energy": "hartree", "length": "bohr",
                           "time": "s"},
-                "points": [dict(p) for p in self.points]}
+                "points": [dict(p) for p in self.points],
+                "beyond": [b.to_dict() for b in self.beyond]}
 
     def __repr__(self) -> str:
-        return (f"CriticalResult({self.state} {self.equation}, {self.kind}: {self.parameter} = "
+        head = (f"CriticalResult({self.state} {self.equation}, {self.kind}: {self.parameter} = "
                 f"{self.value_text}, status={self.status!r}, "
                 f"{self.evaluations} evaluations)")
+        return "\n".join([head] + [f"  {b!r}" for b in self.beyond])
 
 
 def _exponents(kind: str, l: int, count: int) -> list[int]:
@@ -343,7 +350,8 @@ def _single_threaded_blas(func):
 def critical(equation: str, potential, params: Mapping[str, Any] | None, *, state: str, vary: str,
              bracket: tuple[float, float] | None = None, tol: float = 1e-8, kind: str | None = None,
              energy_tol: float = 1e-10, bracket_rtol: float = 1e-2, max_evaluations: int = 40,
-             method: str = "auto", scalar=None, labels: str = "atomic",
+             method: str = "auto", scalar=None, labels: str = "atomic", beyond=None,
+             beyond_angles=(0.25, 0.35), beyond_order: int = 12,
              **solve_kwargs) -> CriticalResult:
     """Critical value of a parameter at which a level unbinds or dives.
 
@@ -386,6 +394,14 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     method, scalar, **solve_kwargs
         As for :func:`boundkit.solve` (``particle``, ``mass_mev``,
         ``nucleus_mass_mev``, ``units``, ``order``).
+    beyond : sequence of float, optional
+        Diving only: distances past the critical value (in the varied
+        parameter, e.g. ``(2, 5, 10)`` units of charge) at which the dived
+        level is followed into the lower continuum as a resonance
+        E + i Gamma/2 by complex scaling (:attr:`CriticalResult.beyond`).
+    beyond_angles, beyond_order
+        Scaling angles and Lobatto order of those complex-scaling solves
+        (:func:`boundkit.resonances`).
 
     Returns
     -------
@@ -457,8 +473,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     it). Near the lower continuum a Coulomb tail keeps the level compact.
     """
     eqname = canonical_equation(equation)
-    channel, k, label = state_channel(eqname, convert_label(state, "atomic", frm=labels))
-    label = convert_label(label, labels)
+    channel, k, atomic_label = state_channel(eqname, convert_label(state, "atomic", frm=labels))
+    label = convert_label(atomic_label, labels)
     tol = check_positive("tol", tol)
     energy_tol = check_positive("energy_tol", energy_tol)
     bracket_rtol = check_positive("bracket_rtol", bracket_rtol)
@@ -477,6 +493,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     setup_kwargs = {k_: v for k_, v in solve_kwargs.items() if k_ in _SETUP_KEYS}
     if kind is not None and kind not in _KINDS:
         raise ValueError(f"kind: must be 'unbind' or 'dive', got {kind!r}")
+    if beyond is not None:
+        from .supercritical import check_beyond
+
+        beyond = check_beyond(beyond)
     varied = {vary} | {n for n, v in params.items() if callable(v)}
     t0 = time.perf_counter()
 
@@ -509,6 +529,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     if kind == "unbind" and pot0.tail_charge > 0:
         raise ValueError(f"kind: a potential with a Coulomb tail (charge {pot0.tail_charge:g}) binds "
                          "infinitely many levels and none unbinds; use a screened potential or kind='dive'")
+    if beyond is not None and kind != "dive":
+        raise ValueError("beyond: a level is followed past its critical value only when it dives "
+                         f"(kind='dive'); this search is kind={kind!r}; leave beyond out")
 
     points: list[dict] = []
 
@@ -812,7 +835,22 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     for r in points:
         clean.append({k_: r.get(k_) for k_ in ("value", "found", "energy", "error_estimate", "via", "r_max",
                                                 "seconds")})
-    return CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
-                          equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
-                          settings=settings, status=status, message=message, points=tuple(clean),
-                          parameter_unit=p_unit)
+    result = CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
+                            equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
+                            settings=settings, status=status, message=message, points=tuple(clean),
+                            parameter_unit=p_unit)
+    if beyond is None:
+        return result
+    if status != "ok":
+        log.warning("critical %s: not followed past the critical value (status %s)", label, status)
+        return replace(result, message=f"{message}; not followed past the critical value (beyond) since the "
+                       "critical value is not confirmed")
+    from .supercritical import follow_dived
+
+    direction = 1.0 if (p_out is not None and p_out > p_in) or (p_out is None and best > p_in) else -1.0
+    dived = follow_dived(eqname, potential, params, label=atomic_label, channel=channel, vary=vary,
+                         critical_value=float(best), direction=direction, points=clean, beyond=beyond,
+                         scalar=scalar, setup_kwargs=setup_kwargs, angles=beyond_angles, order=beyond_order)
+    settings["beyond"] = {"distances": list(beyond), "angles_rad": list(beyond_angles), "order": beyond_order,
+                          "method": "exterior complex scaling (boundkit.resonances)"}
+    return replace(result, beyond=dived)
