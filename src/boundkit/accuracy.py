@@ -14,8 +14,8 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from threadpoolctl import threadpool_limits
 
+from ._threads import one_blas_thread
 from .discretize import FiniteDifference, get_method
 from .solver import prepare_channel, setup, solve_channel
 from ._checks import check_int, check_positive
@@ -112,7 +112,7 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
     the argument setup (particle, mass_mev, nucleus_mass_mev, scalar, units).
     Returns a :class:`ConvergenceResult`.
     """
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs)
 
 

@@ -66,8 +66,8 @@ from typing import Any, Callable, Sequence
 
 import numpy as np
 import scipy.linalg as sla
-from threadpoolctl import threadpool_limits
 
+from ._threads import one_blas_thread
 from ._checks import check_finite, check_int, check_positive
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
 from .units import C_AU, constants_record, hartree_to
@@ -437,7 +437,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     t0 = time.perf_counter()
     spectra = {}
     # one BLAS thread: on a shared 2-core machine the threaded dense eig ran 6x slower (measured)
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         for th, o in [(th, order) for th in angles] + [(angles[0], orders[0])]:
             mesh = build_mesh(edges, o, plan["r0"], th)
             V, S = _sample(pot, mesh, analytic)
@@ -450,7 +450,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                                        eq.name, pot.name, settings, constants_record(), _UNITS, {"unknowns": size})
     found, rejected, in_window = _stable(spectra, angles, orders, (emin, emax), tol, eq)
     if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
-        with threadpool_limits(limits=1, user_api="blas"):
+        with one_blas_thread():
             found = _label_by_continuity(found, eq, edges, plan["r0"], angles, order, pot, analytic,
                                          (emin, emax), tol, spectra)
     settings.update({"window_hartree": [emin, emax], "angles_rad": list(angles), "orders": list(orders),

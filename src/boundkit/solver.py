@@ -32,8 +32,8 @@ import time
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-from threadpoolctl import threadpool_limits
 
+from ._threads import one_blas_thread
 from .discretize import Discretization, get_method
 from .eigen import dense_pencil, refine, shift_invert
 from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
@@ -672,7 +672,7 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
     matrices are small (a few hundred rows), and threads only contend, badly
     so on a shared machine.
     """
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         pot, v_inf = _with_threshold(pot)
         res = _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
         if v_inf:

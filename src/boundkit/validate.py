@@ -12,6 +12,7 @@ import time
 from dataclasses import dataclass
 from typing import Callable
 
+from ._threads import one_blas_thread
 from . import exact
 from .solver import solve
 
@@ -120,9 +121,8 @@ class _Probe:
 
 def run_validation(quick: bool = False, methods=("spectral", "finite-difference")) -> list[dict]:
     """Run the catalogue; one row per case and family."""
-    from threadpoolctl import threadpool_limits
-
-    with threadpool_limits(limits=1, user_api="blas"):
+    
+    with one_blas_thread():
         return _run(quick, methods)
 
 

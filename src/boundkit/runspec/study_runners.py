@@ -19,6 +19,7 @@ from typing import Any
 
 import numpy as np
 
+from .._threads import one_blas_thread
 from .figures import _scan_figure
 from ..reporting import difference_error, format_difference
 from ..states import convert_label, label_sort_key
@@ -303,11 +304,10 @@ def _critical_job(kwargs: dict) -> tuple[bool, Any]:
     Returns (True, the result as a JSON-ready dict) or (False, the message of
     the ValueError or StudyError that stopped it).
     """
-    from threadpoolctl import threadpool_limits
-
+    
     studies = importlib.import_module("boundkit.studies")
     try:
-        with threadpool_limits(limits=1, user_api="blas"):   # small matrices: threads only contend
+        with one_blas_thread():   # small matrices: threads only contend
             res = _call(studies.critical, **kwargs)
     except (ValueError, RuntimeError) as exc:
         return False, str(exc)

@@ -339,9 +339,9 @@ def _single_threaded_blas(func):
     (measured). The wrapper keeps the signature and docstring of ``func``."""
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
-        from threadpoolctl import threadpool_limits
+        from .._threads import one_blas_thread
 
-        with threadpool_limits(limits=1, user_api="blas"):
+        with one_blas_thread():
             return func(*args, **kwargs)
     return wrapper
 
