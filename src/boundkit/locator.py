@@ -226,8 +226,24 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
 
 def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi: float, scale: float,
                    sure: bool = True) -> Located:
-    """Count below the window, below its top and below ``loc.E_top``; mend by bisection when the
-    count disagrees (unless ``sure`` is False). Returns the certified :class:`Located`."""
+    """Certify the levels of ``loc`` by counting; mend by bisection when the count disagrees (unless
+    ``sure`` is False). Returns the certified :class:`Located`.
+
+    First one count at E_top (above the last level found, below the next): when it equals the
+    number of distinct levels found, they are the lowest ones and nothing lies below the window.
+    Otherwise count below the window (states that dived), below its top (how many the box holds)
+    and at E_top again, then bisect on the count where needed.
+    """
+    if want is not None and want > 0 and len(loc.energies) >= want:
+        # one count is enough when it agrees: `want` distinct roots below E_top and exactly `want`
+        # negative eigenvalues of K(E_top) leave no level skipped and none below the window
+        energies = list(loc.energies[:want])
+        nxt = loc.energies[want] if len(loc.energies) > want else loc.next_energy
+        E_top = _top(energies, nxt, hi)
+        if (all(b - a > 1e-12 * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
+                and E_top < hi and count_below(op, E_top) == want):
+            return Located(tuple(energies), tuple(loc.vectors[:want]), E_top, want, None, 0, True, 0,
+                           checked=True, next_energy=nxt)
     offset = count_below(op, lo) if math.isfinite(lo) else 0
     bound = count_below(op, hi) - offset if math.isfinite(hi) else None
     m = want if bound is None else min(want, bound)
