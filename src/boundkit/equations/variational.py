@@ -69,6 +69,7 @@ class SymmetricOperator:
         self.b = beta + eq.kappa_eff
         self.log_w = gamma * (np.log(r) - np.log(r + rc))
         self._pieces = {}
+        self._sigma_cache = {}
         self._build_batches(grid)
         self.M = self._dense(self._blocks(None, np.float64, mass=True))
         diag = np.zeros(self.n)          # the diagonal of K(E_ref) alone (no dense assembly)
@@ -126,7 +127,17 @@ class SymmetricOperator:
 
     # -- pieces -------------------------------------------------------------------
     def _sigma(self, E, derivative=False) -> float:
-        """Natural-boundary term at the first node (see the module docstring)."""
+        """Natural-boundary term at the first node (see the module docstring); remembered per energy
+        (Newton asks for it at the same energy for the residual, the matrix and dK/dE)."""
+        key = (float(E), derivative)
+        got = self._sigma_cache.get(key)
+        if got is None:
+            if len(self._sigma_cache) > 64:
+                self._sigma_cache.clear()
+            got = self._sigma_cache[key] = self._sigma_at(E, derivative)
+        return got
+
+    def _sigma_at(self, E, derivative=False) -> float:
         s = self.sample
         s0 = Sample(s.r[:1], s.V[:1], s.S[:1], None if s.W is None else s.W[:1])
         p = (self.eq.dp_dE if derivative else self.eq.p)(float(E), s0)[0]
