@@ -90,7 +90,8 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
     is solved in double precision (dense LU or sparse LU, refactorized every
     fourth step); the residual
     T(E) y comes from ``op.residual`` (extended precision on spectral grids;
-    ``op.residual_double`` when rtol >= 1e-12 asks for no more than double gives).
+    ``op.residual_double`` when rtol >= 1e-12 asks for no more than double gives,
+    and for the steps above 1e-10 |E| in any case).
     Iteration stops when |dE| <= rtol |E| twice in a row, or once right after a
     step below 1e-8 |E| (rtol defaults to
     1e-17 with extended-precision residuals, 1e-15 without), or after
@@ -101,8 +102,12 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
     y = y / y[j]
     ext = bool(getattr(op.grid, "extended", False))
     residual = op.residual
-    if ext and rtol is not None and rtol >= 1e-12 and hasattr(op, "residual_double"):
-        ext, residual = False, op.residual_double   # a loose stop needs no extended precision
+    coarse = None
+    if ext and hasattr(op, "residual_double"):
+        if rtol is not None and rtol >= 1e-12:
+            ext, residual = False, op.residual_double   # a loose stop needs no extended precision
+        else:
+            coarse = op.residual_double     # the first, large steps: double is as good and cheaper
     if rtol is None:
         rtol = 1e-17 if ext else 1e-15
     E = np.longdouble(E0) if ext else float(E0)
@@ -114,7 +119,9 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
         Ef = float(E)
         if solve_bordered is None or it % 4 == 0:
             solve_bordered = _bordered_solver(op, Ef, np.asarray(yw, dtype=float), j)
-        res = np.asarray(residual(E, yw), dtype=float)
+        if coarse is not None and step <= 1e-10 * abs(float(E)):
+            coarse = None                    # close: extended precision from here on
+        res = np.asarray((coarse or residual)(E, yw), dtype=float)
         sol = solve_bordered(-res)
         dE = sol[j]
         dy = sol.copy()
