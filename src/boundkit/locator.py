@@ -163,9 +163,9 @@ def _level_in_bracket(op, k: int, a: float, b: float):
 
 def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.ndarray:
     """Eigenvector guess of the level near E: inverse iteration with K(E) (no eigen-solve)."""
-    v = np.ones(op.M.shape[0])
+    v = np.ones(op.n - 1)
     for _ in range(steps):          # rows scaled (the raw ones span decades); banded LU, kept for Newton
-        v = op.solve(E, op.row_scale * (op.M @ v))
+        v = op.solve(E, op.row_scale * op.mass_apply(v))
         v /= np.max(np.abs(v))
     return v
 

@@ -41,6 +41,27 @@ from .base import RadialEquation, Sample, frobenius_slope
 
 __all__ = ["SymmetricOperator"]
 
+_PADDED: dict = {}
+
+
+def _padded_reference(d: int, me: int, m: int):
+    """(B, Bt, w) of the degree-d reference element with me Gauss points, padded to m rows with
+    zeros (extended precision; w in double)."""
+    key = (d, me, m)
+    got = _PADDED.get(key)
+    if got is None:
+        from ..discretize.elements import _reference_quadrature
+
+        _, wy, B, Bt = _reference_quadrature(d, me)
+        Bp = np.zeros((m, d + 1), dtype=np.longdouble)
+        Btp = np.zeros((m, d + 1), dtype=np.longdouble)
+        wp = np.zeros(m)
+        Bp[:me], Btp[:me], wp[:me] = B, Bt, wy
+        if len(_PADDED) > 1024:
+            _PADDED.clear()
+        got = _PADDED[key] = (Bp, Btp, wp)
+    return got
+
 
 class SymmetricOperator:
     """K(E) of an equation on a spectral-element grid; see the module docstring.
@@ -71,7 +92,8 @@ class SymmetricOperator:
         self._pieces = {}
         self._sigma_cache = {}
         self._build_batches(grid)
-        self.M = self._dense(self._blocks(None, np.float64, mass=True))
+        self._M = None
+        self._mass_blocks = None
         diag = np.zeros(self.n)          # the diagonal of K(E_ref) alone (no dense assembly)
         for bt, blk in zip(self._batches, self._blocks(E_ref, np.float64)):
             d = np.diagonal(blk, axis1=1, axis2=2)
@@ -89,41 +111,40 @@ class SymmetricOperator:
         Quadrature points are padded to the largest count of the batch with zero
         rows of B and G (padding points repeat a real point, so the potential there
         is finite); elements of one batch at even and at odd positions share no node,
-        so each parity scatters with one fancy-indexed addition.
+        so each parity scatters with one fancy-indexed addition. The reference
+        matrices come padded from a cache; only the element lengths differ.
         """
         sizes = [len(q.t) for q in grid.quad]
         starts = np.cumsum([0] + sizes[:-1])
         degs = [i1 - i0 for (i0, i1) in grid.elements]
         self.band = max(degs)
         self._batches = []
+        bq_ext = self._b_at(np.longdouble)
         for d in sorted(set(degs)):
             els = [e for e, x in enumerate(degs) if x == d]
             m = max(sizes[e] for e in els)
             qidx = np.array([[starts[e] + min(k, sizes[e] - 1) for k in range(m)] for e in els])
             idx = np.array([np.arange(grid.elements[e][0], grid.elements[e][1] + 1) for e in els])
-            per = {}
-            for dtype in (np.float64, np.longdouble):
-                sq = self._q[dtype]
-                rq = sq.r
-                bq = dtype(self.gamma) * dtype(self.r_core) / (rq + dtype(self.r_core)) + self.eq.kappa_eff
-                Bs = np.zeros((len(els), m, d + 1), dtype=dtype)
-                Bt = np.zeros_like(Bs)
-                W = np.zeros((len(els), m), dtype=dtype)
-                bqs = np.zeros((len(els), m), dtype=dtype)
-                for a, e in enumerate(els):
-                    q = grid.quad[e]
-                    me = sizes[e]
-                    Bs[a, :me] = q.B          # the reference matrix, shared by elements of one (d, m)
-                    Bt[a, :me] = q.Bt
-                    W[a, :me] = q.w
-                    bqs[a, :me] = bq[starts[e]:starts[e] + me]
-                per[dtype] = (Bs, Bt + bqs[:, :, None] * Bs, W)
+            refs = [_padded_reference(d, sizes[e], m) for e in els]
+            half = np.array([(grid.t_ext[grid.elements[e][1]] - grid.t_ext[grid.elements[e][0]]) / 2 for e in els],
+                            dtype=np.longdouble)
+            Bs = np.stack([r[0] for r in refs])
+            Bt = np.stack([r[1] for r in refs]) / half[:, None, None]
+            W = np.stack([r[2] for r in refs]) * half.astype(float)[:, None]
+            G = Bt + bq_ext[qidx][:, :, None] * Bs        # pad rows of B and Bt are zero
+            per = {np.longdouble: (Bs, G, W.astype(np.longdouble)),
+                   np.float64: (Bs.astype(float), G.astype(float), W)}
             self._batches.append(dict(idx=idx, qidx=qidx, per=per, degree=d))
         for dtype in (np.float64, np.longdouble):
             sq = self._q[dtype]
             rq = sq.r
             w2 = np.exp(2 * dtype(self.gamma) * (np.log(rq) - np.log(rq + dtype(self.r_core))))
             self._pieces[dtype] = dict(Pf=w2 / rq, Rf=w2 * rq)
+
+    def _b_at(self, dtype):
+        """b = beta + kappa at the quadrature points."""
+        rq = self._q[dtype].r
+        return dtype(self.gamma) * dtype(self.r_core) / (rq + dtype(self.r_core)) + self.eq.kappa_eff
 
     # -- pieces -------------------------------------------------------------------
     def _sigma(self, E, derivative=False) -> float:
@@ -160,6 +181,27 @@ class SymmetricOperator:
         if derivative:
             return eq.dp_dE(E, s) * pc["Pf"], (eq.dq_dE(E, s) - 1) * pc["Rf"]
         return eq.p(E, s) * pc["Pf"], (eq.q(E, s) - E) * pc["Rf"]
+
+    @property
+    def M(self) -> np.ndarray:
+        """The mass matrix on the kept nodes (dense; built on first use)."""
+        if self._M is None:
+            self._M = self._dense(self._blocks(None, np.float64, mass=True))
+        return self._M
+
+    def mass_apply(self, v) -> np.ndarray:
+        """M v on the kept nodes, from the element blocks (no dense M)."""
+        if self._mass_blocks is None:
+            self._mass_blocks = self._blocks(None, np.float64, mass=True)
+        f = np.zeros(self.n)
+        f[:-1] = v
+        out = np.zeros(self.n)
+        for bt, blk in zip(self._batches, self._mass_blocks):
+            idx = bt["idx"]
+            c = np.matmul(blk, f[idx][:, :, None])[:, :, 0]
+            for par in (0, 1):
+                out[idx[par::2]] += c[par::2]
+        return out[:-1]
 
     def _blocks(self, E, dtype, derivative=False, mass=False) -> list:
         """Element matrices of K(E) (or dK/dE, or M), one stacked array per batch."""
