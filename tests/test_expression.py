@@ -91,7 +91,7 @@ REFUSALS = [
     ("r^2", r"operator '\^' at position 2 .*write \*\* for powers"),
     ("r.__class__", r"attribute access '\.__class__' at position 2"),
     ("os.system('ls')", r"attribute access '\.system' at position 3"),
-    ("__import__('os')", r"name '__import__' at position 1 .*dunder"),
+    ("__import__('os')", r"name '__import__' at position 1 .*a name may not start with '_'"),
     ("r + __builtins__", r"name '__builtins__' at position 5"),
     ("r[0]", r"subscript 'r\[0\]' at position 1"),
     ("exp(r)[1:2]", r"subscript 'exp\(r\)\[1:2\]' at position 1"),

@@ -26,7 +26,7 @@ Everything else is refused with a :class:`ValueError` that names the
 offending token, its 1-based character position and what is allowed: ``^``
 (write ``**``), attribute access, subscripts, strings, lambdas,
 comprehensions, keyword arguments, calls of anything but a whitelisted
-function name, names starting with ``_`` (dunder names), literal exponents
+function name, names starting with ``_``, literal exponents
 larger than 1000 in magnitude and power towers of literals such as
 ``10**10**10``, input longer than 2000 characters and nesting deeper than
 100 levels.
@@ -366,7 +366,7 @@ class _Translator:
     def name(self, node: ast.Name) -> tuple:
         name = node.id
         if name.startswith("_"):
-            raise self.refuse("name", node, "names starting with '_' (dunder names) are refused")
+            raise self.refuse("name", node, "a name may not start with '_'")
         if name == "r":
             return ("r",)
         if name in CONSTANTS:
@@ -420,7 +420,7 @@ class _Translator:
             raise self.refuse("call of", func, "only the listed functions can be called, by their plain name")
         fname = func.id
         if fname.startswith("_"):
-            raise self.refuse("name", func, "names starting with '_' (dunder names) are refused")
+            raise self.refuse("name", func, "a name may not start with '_'")
         if fname not in FUNCTIONS and fname != "where":
             raise self.refuse("function", func, "it is not in the whitelist")
         if node.keywords:
