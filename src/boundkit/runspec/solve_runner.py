@@ -47,10 +47,12 @@ class SolveRunner:
                         res = solve(eq, pot, None, levels=nlev, tol=sec.tolerance, method=sec.method,
                                     order=sec.order, **kw, **self.particle_kwargs()).with_labels(spec.labels)
                     except ValueError as exc:
+                        self.tick()
                         self.problems.append(f"solve {tag}: {exc}")
                         runs.append({"model": mname, "equation": eq, "channel": cname, "status": "error",
                                      "message": str(exc), "levels": []})
                         continue
+                    self.tick()
                     if not res.success:
                         self.problems.append(f"solve {tag}: {res.status}: {res.message}")
                     runs.append({"model": mname, "equation": eq, "channel": cname, **kw, "requested": nlev,

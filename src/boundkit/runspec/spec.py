@@ -116,8 +116,10 @@ def _describe(value: Any) -> str:
 
 _TOP = ("title", "description", "units", "energy_unit", "length_unit", "labels", "figure_format", "equations",
         "channels", "levels", "tol", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
-_MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "params", "term")
-_ENTRY = ("name", "expression", "role", "params")
+_MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "files", "params", "term")
+_TABLE_OPTIONS = ("tail", "tail_charge", "origin", "r_unit", "v_unit", "degree")
+_ENTRY = ("name", "expression", "table", "model_file", "role", "params") + _TABLE_OPTIONS
+_KINDS = ("name", "expression", "table", "model_file")
 _SOLVE = ("models", "equations", "channels", "levels", "tol", "tolerance", "method", "order", "figures", "radii",
           "differences", "reference", "states")
 _CONVERGE = ("model", "equation", "channel", "levels", "methods", "order", "tol", "tolerance")
@@ -286,24 +288,39 @@ def _read_model(rd: _Reader, name: str, data: Any, key: tuple, units: str) -> Mo
     params_raw = rd.get(data, key, "params", "table", {})
     params = {p: rd.convert(v, key + ("params", p), "number") for p, v in params_raw.items()}
     entries = []
+    for i, text in enumerate(rd.get(data, key, "files", "list:str", [])):
+        entries.append(_file_entry(rd, key + ("files", i), text, params, units))
     raw_entries = data.get("term", [])
     if not isinstance(raw_entries, list) or not all(isinstance(e, dict) for e in raw_entries):
         raise rd.error(key + ("term",), "write each term with its own parameters as [[models.NAME.term]]")
     for i, e in enumerate(raw_entries):
         ekey = key + ("term", i)
         rd.keys(e, ekey, _ENTRY)
-        if ("name" in e) == ("expression" in e):
-            raise rd.error(ekey, "give exactly one of name = \"<built-in>\" or expression = \"...\"")
+        if sum(k in e for k in _KINDS) != 1:
+            raise rd.error(ekey, "give exactly one of name = \"<built-in>\", expression = \"...\", "
+                                 "table = \"FILE\" or model_file = \"FILE.toml\"")
+        for k in _TABLE_OPTIONS:
+            if k in e and "table" not in e:
+                raise rd.error(ekey + (k,), "only a table = \"FILE\" term takes this key")
         tname = rd.get(e, ekey, "name", "str", None)
         if tname is not None and tname.strip().lower() not in TERMS:
             raise rd.error(ekey + ("name",), f"unknown built-in term {tname!r}; built-ins are {', '.join(sorted(TERMS))}")
         expr = rd.get(e, ekey, "expression", "str", None)
-        role = rd.get(e, ekey, "role", "str", "vector")
-        if role not in ("vector", "scalar"):
+        role = rd.get(e, ekey, "role", "str", None)
+        if role not in (None, "vector", "scalar"):
             raise rd.error(ekey + ("role",), f"must be \"vector\" or \"scalar\", got {role!r}")
         eparams = {p: rd.convert(v, ekey + ("params", p), "number")
                    for p, v in rd.get(e, ekey, "params", "table", {}).items()}
-        entry = TermEntry(ekey, tname.strip().lower() if tname else None, expr, role, eparams)
+        if "table" in e:
+            options = _table_options(rd, e, ekey)
+            entries.append(_table_entry(rd, ekey + ("table",), rd.get(e, ekey, "table", "str"), role or "vector",
+                                        options, units, eparams))
+            continue
+        if "model_file" in e:
+            entries.append(_model_file_entry(rd, ekey + ("model_file",), rd.get(e, ekey, "model_file", "str"),
+                                             role, eparams, own=True))
+            continue
+        entry = TermEntry(ekey, tname.strip().lower() if tname else None, expr, role or "vector", eparams)
         try:
             entry.build(units)
         except ValueError as exc:
@@ -314,7 +331,7 @@ def _read_model(rd: _Reader, name: str, data: Any, key: tuple, units: str) -> Mo
     if not (model.terms or model.scalar_terms or model.expressions or model.scalar_expressions or model.entries):
         raise rd.error(key, "the model has no terms; add terms = [\"coulomb\"], expressions = [...] or a "
                             f"[[models.{name}.term]]")
-    known = model.builtin_parameters() | expr_params
+    known = model.builtin_parameters() | expr_params | model.file_parameters()
     for p in params:
         if p not in known:
             raise rd.error(key + ("params", p), f"no term of model {name!r} takes this parameter; its terms take "
@@ -324,6 +341,93 @@ def _read_model(rd: _Reader, name: str, data: Any, key: tuple, units: str) -> Mo
     except ValueError as exc:
         raise _param_error(rd, exc, key, params) from None
     return model
+
+
+def _user_path(rd: _Reader, text: str) -> Path:
+    """A file named in the spec: relative paths are relative to the spec's folder."""
+    p = Path(text).expanduser()
+    return p if p.is_absolute() else rd.path.parent / p
+
+
+def _file_error(rd: _Reader, key: tuple, path: Path, exc: Exception) -> ValueError:
+    msg = str(exc)
+    if "cannot read it" in msg and not path.exists():
+        msg += f"; a relative path is relative to the spec's folder ({rd.path.parent})"
+    return rd.error(key, msg)
+
+
+def _table_options(rd: _Reader, e: dict, key: tuple) -> dict:
+    from ..potentials.tabulated import DEGREES, ORIGINS, TAILS
+
+    out: dict = {}
+    for k, choices in (("tail", TAILS), ("origin", ORIGINS)):
+        if k in e:
+            v = rd.get(e, key, k, "str")
+            if v not in choices:
+                raise rd.error(key + (k,), f"must be one of {', '.join(choices)}, got {v!r}")
+            out[k] = v
+    if "tail_charge" in e:
+        out["tail_charge"] = rd.get(e, key, "tail_charge", "number")
+    for k in ("r_unit", "v_unit"):
+        if k in e:
+            out[k] = rd.get(e, key, k, "str")
+    if "degree" in e:
+        d = rd.get(e, key, "degree", "int")
+        if d not in DEGREES:
+            raise rd.error(key + ("degree",), f"must be one of {', '.join(map(str, DEGREES))}, got {d}")
+        out["degree"] = d
+    return out
+
+
+def _table_entry(rd: _Reader, key: tuple, text: str, role: str, options: dict, units: str,
+                 params: dict | None = None) -> TermEntry:
+    from ..potentials.tabulated import TabulatedTerm
+
+    if params:
+        raise rd.error(key[:-1] + ("params",), "a table takes no parameters; remove params")
+    path = _user_path(rd, text)
+    try:
+        term = TabulatedTerm(path, label=Path(text).name, **options)
+        term.in_system(units)            # a table read in nuclear units is read (and checked) now
+    except ValueError as exc:
+        raise _file_error(rd, key, path, exc) from None
+    return TermEntry(key[:-1] if isinstance(key[-1], str) and key[-1] == "table" else key, None, None, role, {},
+                     table=text, path=str(path), options=options, built=term)
+
+
+def _model_file_entry(rd: _Reader, key: tuple, text: str, role: str | None, params: dict,
+                      own: bool) -> TermEntry:
+    from ..potentials.catalog import read_model_file
+
+    path = _user_path(rd, text)
+    try:
+        mf = read_model_file(path)
+    except ValueError as exc:
+        raise _file_error(rd, key, path, exc) from None
+    if own:
+        unknown = sorted(set(params) - set(mf.parameters))
+        if unknown:
+            raise rd.error(key[:-1] + ("params", unknown[0]), f"the model file {text} has no parameter "
+                                                             f"{unknown[0]!r}; it has "
+                                                             f"{', '.join(mf.parameters) or 'none'}")
+    taken = {k: v for k, v in params.items() if k in mf.parameters}
+    missing = sorted(set(mf.parameters) - set(mf.defaults) - set(taken))
+    if missing:
+        raise rd.error(key, f"the model file {text} needs a value for its parameter {missing[0]!r} (it has no "
+                            "default); add it to params")
+    try:
+        term, _used = mf.build(taken)
+    except ValueError as exc:
+        raise _file_error(rd, key, path, exc) from None
+    entry_key = key[:-1] if own else key
+    return TermEntry(entry_key, None, None, role or mf.role, taken, model_file=text, path=str(path), built=term)
+
+
+def _file_entry(rd: _Reader, key: tuple, text: str, shared: dict, units: str) -> TermEntry:
+    """An item of ``files = [...]``: a model file (.toml, takes the shared parameters it declares) or a table."""
+    if text.strip().lower().endswith(".toml"):
+        return _model_file_entry(rd, key, text, None, shared, own=False)
+    return _table_entry(rd, key, text, "vector", {}, units)
 
 
 def _check_studies_available(rd: _Reader, key: tuple, section: str, function: str) -> None:
@@ -485,6 +589,11 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
                            f"a scan varies a parameter of a built-in term of model {model!r} "
                            f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); "
                            f"{param!r} is not one")
+        for entry in models[model].entries:
+            if entry.model_file and param in entry.params:
+                raise rd.error(key + ("parameter",), f"the model file {entry.model_file} of model {model!r} takes "
+                                                     f"{param!r} too and would keep its value; scan a model whose "
+                                                     "files do not take it")
         if ("values" in s) == ("range" in s):
             raise rd.error(key + ("values",), "give exactly one of values = [...] or range = {...}", at=key)
         max_points = rd.get(s, key, "max_points", "int", MAX_GRID_POINTS)

@@ -77,7 +77,8 @@ class StudyRunners:
         res = _call(studies.scan, equation=sec.equation, potential=vector, params=params,
                     vary={sec.parameter: list(sec.values)}, channels=channels, levels=levels, tol=sec.tolerance,
                     method=sec.method, workers=_workers(sec.workers), scalar=scalar or None, units=spec.units,
-                    max_points=sec.max_points * len(channels), labels=spec.labels, **self.particle_kwargs())
+                    max_points=sec.max_points * len(channels), labels=spec.labels, progress=self.progress_hook(),
+                    **self.particle_kwargs())
         rows = [dict(r) for r in _rows_of(res)]
         if hasattr(res, "to_csv"):
             self.write(f"scan{suffix}.csv", res.to_csv(self.e_unit))
@@ -176,7 +177,7 @@ class StudyRunners:
                      energy_tol=sec.energy_tolerance, method=spec.method, kind=sec.kind, scalar=scalar or None,
                      units=spec.units, labels=spec.labels, **self.particle_kwargs()) for state in sec.states]
         rows = []
-        for state, (ok, got) in zip(sec.states, _map_jobs(_critical_job, jobs, sec.workers)):
+        for state, (ok, got) in zip(sec.states, _map_jobs(_critical_job, jobs, sec.workers, self.tick)):
             if not ok:
                 self.problems.append(f"critical {sec.parameter} of {state} ({sec.model}): {got}")
                 rows.append({"state": state, "error": got})
@@ -323,22 +324,36 @@ def _workers(workers: int | None) -> int | None:
     return workers
 
 
-def _map_jobs(func, jobs: list, workers: int | None) -> list:
-    """``[func(job) for job in jobs]``, on up to ``workers`` processes (default: all cores)."""
+def _map_jobs(func, jobs: list, workers: int | None, on_done=None) -> list:
+    """``[func(job) for job in jobs]``, on up to ``workers`` processes (default: all cores);
+    ``on_done()`` is called after each finished job."""
+    on_done = on_done or (lambda: None)
+
+    def here() -> list:
+        out = []
+        for j in jobs:
+            out.append(func(j))
+            on_done()
+        return out
+
     workers = min(_workers(workers) or os.cpu_count() or 1, len(jobs))
     if workers <= 1:
-        return [func(j) for j in jobs]
+        return here()
     try:
         import pickle
 
         pickle.dumps(jobs)
     except Exception as exc:  # noqa: BLE001 - unpicklable terms: run here instead
         log.info("jobs cannot go to worker processes (%s); running them here", exc)
-        return [func(j) for j in jobs]
+        return here()
     from concurrent.futures import ProcessPoolExecutor
 
+    out = []
     with ProcessPoolExecutor(max_workers=workers) as pool:
-        return list(pool.map(func, jobs))
+        for got in pool.map(func, jobs):
+            out.append(got)
+            on_done()
+    return out
 
 
 def _critical_value(row: dict, parameter: str) -> float | None:
