@@ -124,8 +124,9 @@ _SOLVE = ("models", "equations", "channels", "levels", "tol", "tolerance", "meth
           "differences", "reference", "states")
 _CONVERGE = ("model", "equation", "channel", "levels", "methods", "order", "tol", "tolerance")
 _SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tol", "tolerance", "method", "workers",
-         "differences", "max_points")
+         "differences", "max_points", "second")
 _RANGE = ("start", "stop", "num", "spacing")
+_SECOND = ("parameter", "values", "range")
 _CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tol", "tolerance", "energy_tol", "energy_tolerance", "kind",
              "workers")
 _COMPARE = ("model", "l_max", "levels", "tol", "tolerance")
@@ -341,6 +342,60 @@ def _read_model(rd: _Reader, name: str, data: Any, key: tuple, units: str) -> Mo
     except ValueError as exc:
         raise _param_error(rd, exc, key, params) from None
     return model
+
+
+def _scan_parameter(rd: _Reader, s: dict, key: tuple, model: ModelDef) -> str:
+    """The ``parameter`` of a [scan] table (or of its ``second``): a shared parameter of a built-in term."""
+    param = rd.get(s, key, "parameter", "str")
+    if param not in model.builtin_parameters():
+        raise rd.error(key + ("parameter",),
+                       f"a scan varies a parameter of a built-in term of model {model.name!r} "
+                       f"({', '.join(sorted(model.builtin_parameters())) or 'none'}); {param!r} is not one")
+    for entry in model.entries:
+        if entry.model_file and param in entry.params:
+            raise rd.error(key + ("parameter",), f"the model file {entry.model_file} of model {model.name!r} takes "
+                                                 f"{param!r} too and would keep its value; scan a model whose "
+                                                 "files do not take it")
+    return param
+
+
+def _scan_values(rd: _Reader, s: dict, key: tuple, max_points: int, model: ModelDef, units: str,
+                 param: str) -> tuple[float, ...]:
+    """The values of one scanned parameter: ``values = [...]`` or ``range = {...}`` of a [scan] table
+    (or of its ``second`` table), each checked by building the model with it."""
+    too_many = (f"is more than the limit of {max_points}; use fewer, or raise it with max_points = N in this "
+                "[scan] section")
+    if ("values" in s) == ("range" in s):
+        raise rd.error(key + ("values",), "give exactly one of values = [...] or range = {...}", at=key)
+    if "values" in s:
+        values = tuple(rd.get(s, key, "values", "list:number"))
+        if not values:
+            raise rd.error(key + ("values",), "give at least one value")
+        if len(values) > max_points:
+            raise rd.error(key + ("values",), f"{len(values)} values {too_many}")
+    else:
+        r = rd.get(s, key, "range", "table")
+        rk = key + ("range",)
+        rd.keys(r, rk, _RANGE, required=("start", "stop", "num"))
+        start, stop = rd.get(r, rk, "start", "number"), rd.get(r, rk, "stop", "number")
+        num = rd.get(r, rk, "num", "int")
+        if num < 2:
+            raise rd.error(rk + ("num",), f"must be >= 2, got {num}")
+        if num > max_points:
+            raise rd.error(rk + ("num",), f"{num} points {too_many}")
+        spacing = rd.get(r, rk, "spacing", "str", "linear")
+        if spacing not in ("linear", "log"):
+            raise rd.error(rk + ("spacing",), f"must be \"linear\" or \"log\", got {spacing!r}")
+        if spacing == "log" and not (start > 0 and stop > 0):
+            raise rd.error(rk + ("start",), "a log range needs start > 0 and stop > 0")
+        grid = np.geomspace(start, stop, num) if spacing == "log" else np.linspace(start, stop, num)
+        values = tuple(float(v) for v in grid)
+    for v in values:
+        try:
+            model.potential(units, {param: v})
+        except ValueError as exc:
+            raise rd.error(key + ("values" if "values" in s else "range",), f"value {v:g}: {exc}") from None
+    return values
 
 
 def _user_path(rd: _Reader, text: str) -> Path:
@@ -583,59 +638,32 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         rd.keys(s, key, _SCAN, required=("model", "parameter"))
         _check_studies_available(rd, key, "scan", "scan")
         model = _model_name(rd, s, key, models)
-        param = rd.get(s, key, "parameter", "str")
-        if param not in models[model].builtin_parameters():
-            raise rd.error(key + ("parameter",),
-                           f"a scan varies a parameter of a built-in term of model {model!r} "
-                           f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); "
-                           f"{param!r} is not one")
-        for entry in models[model].entries:
-            if entry.model_file and param in entry.params:
-                raise rd.error(key + ("parameter",), f"the model file {entry.model_file} of model {model!r} takes "
-                                                     f"{param!r} too and would keep its value; scan a model whose "
-                                                     "files do not take it")
-        if ("values" in s) == ("range" in s):
-            raise rd.error(key + ("values",), "give exactly one of values = [...] or range = {...}", at=key)
+        param = _scan_parameter(rd, s, key, models[model])
         max_points = rd.get(s, key, "max_points", "int", MAX_GRID_POINTS)
         if max_points < 1:
             raise rd.error(key + ("max_points",), f"must be >= 1, got {max_points}")
-        too_many = (f"is more than the limit of {max_points}; use fewer, or raise it with max_points = N in this "
-                    "[scan] section")
-        if "values" in s:
-            values = tuple(rd.get(s, key, "values", "list:number"))
-            if not values:
-                raise rd.error(key + ("values",), "give at least one value")
-            if len(values) > max_points:
-                raise rd.error(key + ("values",), f"{len(values)} values {too_many}")
-        else:
-            r = rd.get(s, key, "range", "table")
-            rk = key + ("range",)
-            rd.keys(r, rk, _RANGE, required=("start", "stop", "num"))
-            start, stop = rd.get(r, rk, "start", "number"), rd.get(r, rk, "stop", "number")
-            num = rd.get(r, rk, "num", "int")
-            if num < 2:
-                raise rd.error(rk + ("num",), f"must be >= 2, got {num}")
-            if num > max_points:
-                raise rd.error(rk + ("num",), f"{num} points {too_many}")
-            spacing = rd.get(r, rk, "spacing", "str", "linear")
-            if spacing not in ("linear", "log"):
-                raise rd.error(rk + ("spacing",), f"must be \"linear\" or \"log\", got {spacing!r}")
-            if spacing == "log" and not (start > 0 and stop > 0):
-                raise rd.error(rk + ("start",), "a log range needs start > 0 and stop > 0")
-            grid = np.geomspace(start, stop, num) if spacing == "log" else np.linspace(start, stop, num)
-            values = tuple(float(v) for v in grid)
-        for i, v in enumerate(values):
-            try:
-                models[model].potential(units, {param: v})
-            except ValueError as exc:
-                raise rd.error(key + ("values" if "values" in s else "range",), f"value {v:g}: {exc}") from None
+        values = _scan_values(rd, s, key, max_points, models[model], units, param)
+        second = None
+        if "second" in s:
+            skey = key + ("second",)
+            s2 = rd.get(s, key, "second", "table")
+            rd.keys(s2, skey, _SECOND, required=("parameter",))
+            p2 = _scan_parameter(rd, s2, skey, models[model])
+            if p2 == param:
+                raise rd.error(skey + ("parameter",), f"{p2!r} is the first parameter already; name another")
+            values2 = _scan_values(rd, s2, skey, max_points, models[model], units, p2)
+            if len(values) * len(values2) > max_points:
+                raise rd.error(skey, f"{len(values)} x {len(values2)} = {len(values) * len(values2)} grid points "
+                                     f"is more than the limit of {max_points}; use fewer, or raise it with "
+                                     "max_points = N in this [scan] section")
+            second = (p2, values2)
         m, _o = _method(rd, s, key, method, None)
         workers = _workers(rd, s, key)
         scan_secs.append(ScanSection(
             key, model, param, values,
             _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
             _channels(rd, s, key, channels), _levels(rd, s, key, levels or 3), _tolerance(rd, s, key, tolerance), m,
-            workers, _pairs(rd, s, key), max_points))
+            workers, _pairs(rd, s, key), max_points, second))
 
     critical_secs = []
     for key, s in _sections(rd, data, "critical"):

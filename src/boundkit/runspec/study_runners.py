@@ -74,8 +74,11 @@ class StudyRunners:
         for kw, _name, _n in _channels_for(sec.channels, sec.equation, sec.levels):
             channels.append(dict(kw))
         levels = max(n for _kw, _name, n in _channels_for(sec.channels, sec.equation, sec.levels))
+        vary = {sec.parameter: list(sec.values)}
+        if sec.second is not None:
+            vary[sec.second[0]] = list(sec.second[1])
         res = _call(studies.scan, equation=sec.equation, potential=vector, params=params,
-                    vary={sec.parameter: list(sec.values)}, channels=channels, levels=levels, tol=sec.tolerance,
+                    vary=vary, channels=channels, levels=levels, tol=sec.tolerance,
                     method=sec.method, workers=_workers(sec.workers), scalar=scalar or None, units=spec.units,
                     max_points=sec.max_points * len(channels), labels=spec.labels, progress=self.progress_hook(),
                     **self.particle_kwargs())
@@ -93,6 +96,9 @@ class StudyRunners:
                 self.problems.append(f"scan{suffix} ({sec.model}): {len(bad)} level(s) with status {status} at "
                                      f"{sec.parameter} = {', '.join(f'{v:g}' for v in where)}"
                                      + (f" ({first})" if first else ""))
+        if sec.second is not None:
+            self._scan_2d(sec, suffix, res, rows)
+            return
         caption = f"Levels against {sec.parameter}, model {sec.model}"
         try:
             figures = importlib.import_module("boundkit.studies.figures")
@@ -166,6 +172,89 @@ class StudyRunners:
             md += [line, ""]
         if diffs:
             entry["differences"] = diffs
+        self.results.setdefault("scan", []).append(_clean(entry))
+        self.md += md
+
+    def _scan_2d(self, sec: ScanSection, suffix: str, res, rows: list[dict]) -> None:
+        """Table, families of curves and report of a two-parameter scan (``[scan.second]``)."""
+        figures = importlib.import_module("boundkit.studies.figures")
+        spec = self.spec
+        p1, (p2, values2) = sec.parameter, sec.second
+        punits = getattr(res, "parameter_units", {})
+        u1, u2 = punits.get(p1, ""), punits.get(p2, "")
+        grid: dict[tuple[float, float], dict[str, tuple[float, float]]] = {}
+        for r in rows:
+            if r.get("energy") is not None and r.get(p1) is not None and r.get(p2) is not None:
+                grid.setdefault((float(r[p1]), float(r[p2])), {})[str(r["label"])] = (
+                    float(r["energy"]), float(r.get("error_estimate") or 0.0))
+        labels = sorted({lab for per in grid.values() for lab in per}, key=lambda lab: label_sort_key(lab, spec.labels))
+        xs = sorted(set(sec.values))
+        seconds = sorted(set(values2))
+
+        def curves(value_of) -> list:
+            out = []
+            for v2 in seconds:
+                y = [value_of(grid.get((x, v2), {})) for x in xs]
+                y = [np.nan if v is None else v for v in y]
+                if not all(np.isnan(y)):
+                    out.append((v2, xs, y))
+            return out
+
+        subject = spec.models[sec.model].label
+        panels = [(lab, curves(lambda per, lab=lab: self.E(per[lab][0]) if lab in per else None)) for lab in labels]
+        self.figure(f"scan{suffix}", f"Levels against {p1} (one curve per {p2}), model {sec.model}",
+                    lambda p: figures.family_figure(panels, p, parameter=p1, parameter_unit=u1, second=p2,
+                                                    second_unit=u2, ylabel=f"binding energy ({self.e_unit})",
+                                                    title=f"{subject}: levels against {p1} and {p2}"))
+        pu1, pu2 = (f" ({u1})" if u1 else ""), (f" ({u2})" if u2 else "")
+        md = [f"## Scan{suffix}: levels against {p1} and {p2}", "",
+              f"Model {sec.model}, {sec.equation} equation, {len(xs)} values of {p1} from {min(xs):g} to {max(xs):g}"
+              f" x {len(seconds)} values of {p2} from {min(seconds):g} to {max(seconds):g} (table "
+              f"`scan{suffix}.csv`, one row per grid point and level; energies in {self.e_unit}).", ""]
+        if labels:
+            md += [f"| {p1}{pu1} | {p2}{pu2} | " + " | ".join(f"{lab} ({self.e_unit})" for lab in labels) + " |",
+                   "|---:|---:|" + "---:|" * len(labels)]
+            for x in xs:
+                for v2 in seconds:
+                    per = grid.get((x, v2), {})
+                    md.append(f"| {x:g} | {v2:g} | " + " | ".join(
+                        _fmt(self.E(per[lab][0]) if lab in per else None, 10) for lab in labels) + " |")
+            md += ["", "A blank (-) means the level was not found bound at that grid point.", ""]
+        entry = {"model": sec.model, "equation": sec.equation, "parameters": [p1, p2],
+                 "values": {p1: list(sec.values), p2: list(values2)}, "parameter_units": {p1: u1, p2: u2},
+                 "energy_unit_of_rows": "hartree", "rows": rows}
+        diff_rows, diffs = [], []
+        for a, b in sec.differences:
+            pts = []
+            for (x, v2), per in sorted(grid.items()):
+                if a in per and b in per:
+                    d = per[a][0] - per[b][0]
+                    err = difference_error(per[a][0], per[b][0], per[a][1], per[b][1])
+                    pts.append((x, v2, d, err))
+                    diff_rows.append({p1: x, p2: v2, "a": a, "b": b, "difference": self.E(d),
+                                      "error_estimate": self.E(err), "difference_hartree": d})
+            if not pts:
+                self.problems.append(f"scan{suffix}: E({a}) - E({b}) not available at any grid point")
+                continue
+            name = f"E({a}) - E({b})"
+            diffs.append((name, curves(lambda per, a=a, b=b: self.E(per[a][0] - per[b][0])
+                                       if a in per and b in per else None)))
+            lo, hi = min(self.E(q[2]) for q in pts), max(self.E(q[2]) for q in pts)
+            md += [f"{name} ({self.e_unit}) over the grid: from {_fmt(lo, 8)} to {_fmt(hi, 8)} at {len(pts)} grid "
+                   f"point(s) (table `scan-differences{suffix}.csv`).", ""]
+            self.headline.append(f"scan of {p1} x {p2} ({sec.model}): {name} from {_fmt(lo, 6)} to {_fmt(hi, 6)} "
+                                 f"{self.e_unit}")
+        if diff_rows:
+            self.write(f"scan-differences{suffix}.csv", _csv_with_units(
+                diff_rows, None, {p1: u1, p2: u2, "difference": self.e_unit, "error_estimate": self.e_unit,
+                                  "difference_hartree": "hartree"}))
+            entry["differences"] = diff_rows
+            entry["difference_units"] = {"difference": self.e_unit, "error_estimate": self.e_unit}
+            self.figure(f"scan{suffix}-differences", f"Differences against {p1} (one curve per {p2}), model "
+                        f"{sec.model}",
+                        lambda p: figures.family_figure(diffs, p, parameter=p1, parameter_unit=u1, second=p2,
+                                                        second_unit=u2, ylabel=f"difference ({self.e_unit})",
+                                                        title=f"{subject}: differences against {p1} and {p2}"))
         self.results.setdefault("scan", []).append(_clean(entry))
         self.md += md
 
