@@ -252,3 +252,27 @@ def test_verbose_logging_with_quiet(study, tmp_path):
                           str(tmp_path / "c"), "--quiet"], capture_output=True, text=True, timeout=120)
     assert res.returncode == 0, res.stderr
     assert "INFO boundkit.runspec" in res.stderr and "solve: model table" in res.stderr
+
+
+def test_dry_run_reports_every_error(study, tmp_path):
+    text = (study.read_text()
+            .replace('origin = "finite"', 'origin = "finite"\nflavour = 1')              # error in model 'table'
+            .replace("[solve]", '[scan]\nmodel = "builtin"\nparameter = "depth"\nvalues = [40.0, 50.0]\n'
+                                'steps = 3\n\n[[critical]]\nmodel = "table"\nstates = ["1s"]\n\n'
+                                '[[critical]]\nmodel = "builtin"\nparameter = "depth"\nstates = ["one"]\n\n[solve]')
+            .replace("tol = 1e-12", "tol = 1e-12\nradii = 3"))
+    study.write_text(text)
+    res = CliRunner().invoke(main, ["run", str(study), "--dry-run", "--out", str(tmp_path / "o")])
+    assert res.exit_code == 2
+    lines = res.output.splitlines()
+    assert all(line.startswith("boundkit: error: run spec ") for line in lines)
+    # the model's error once, the sections naming it quietly skipped, every other section's error
+    assert len(lines) == 4, res.output
+    assert f"line {line_of(text, 'flavour')}, key 'models.table.term[0].flavour': unknown key" in lines[0]
+    assert f"line {line_of(text, 'radii = 3')}, key 'solve.radii': expected true or false" in lines[1]
+    assert f"line {line_of(text, 'steps = 3')}, key 'scan.steps': unknown key" in lines[2]
+    assert "key 'critical[1].states[0]': state 'one' not understood" in lines[3]
+    # the normal path stops at the first
+    with pytest.raises(ValueError, match=r"key 'models\.table\.term\[0\]\.flavour': unknown key") as info:
+        load_spec(study)
+    assert "\n" not in str(info.value)

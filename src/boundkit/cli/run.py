@@ -17,7 +17,7 @@ from pathlib import Path
 
 import click
 
-from .common import EXIT_NOT_CONVERGED, fail
+from .common import EXIT_NOT_CONVERGED, clip_message, fail
 
 __all__ = ["run_cmd"]
 
@@ -28,16 +28,21 @@ __all__ = ["run_cmd"]
               help="Output folder (default: out/<spec file name without .toml>).")
 @click.option("--force", is_flag=True, help="Replace the output folder of an earlier run.")
 @click.option("--dry-run", is_flag=True,
-              help="Check the spec (and the output folder) and list what the run would compute: studies, models, "
-                   "equations, channels, number of solves. Solves and writes nothing.")
+              help="Check the spec (every error, one line each) and the output folder, and list what the run would "
+                   "compute: studies, models, equations, channels, number of solves. Solves and writes nothing.")
 @click.option("--quiet", "-q", is_flag=True,
               help="No progress bar on stderr (it is shown for runs longer than 2 s).")
 def run_cmd(spec_path: str, out_dir: str | None, force: bool, dry_run: bool, quiet: bool) -> None:
     """Run the studies of a run spec and write results.json, tables, figures and report.md."""
     from ..runspec import load_spec, run
+    from ..runspec.spec import SpecErrors
 
     try:
-        spec = load_spec(spec_path)
+        spec = load_spec(spec_path, all_errors=dry_run)
+    except SpecErrors as exc:       # --dry-run: every error, one line each
+        for err in exc.errors[:-1]:
+            click.echo(f"boundkit: error: {clip_message(str(err))}", err=True)
+        fail(str(exc.errors[-1]))
     except ValueError as exc:
         fail(str(exc))
     target = Path(out_dir) if out_dir else Path("out") / spec.name

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import importlib
 import logging
+from contextlib import contextmanager
 import math
 import os
 import re
@@ -22,12 +23,51 @@ from .objects import (_EQUATIONS, _FIGURES, _FORMATS, _LETTERS, STUDY_SECTIONS, 
                       ConvergeSection, CriticalSection, ModelDef, ParticleSpec, RunSpec, ScanSection, SolveSection,
                       TermEntry)
 
-__all__ = ["load_spec", "RunSpec", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
+__all__ = ["load_spec", "SpecErrors", "RunSpec", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
 
 log = logging.getLogger(__name__)
 
 
 _MISSING = object()
+
+
+class SpecErrors(ValueError):
+    """Every error :func:`load_spec` found (``all_errors=True``); ``errors`` lists them, the
+    message has one per line, each naming file, key and line."""
+
+    def __init__(self, errors: list[ValueError]) -> None:
+        self.errors = list(errors)
+        super().__init__("\n".join(str(e) for e in self.errors))
+
+
+class _Skipped(Exception):
+    """A part that names a model whose own error is already recorded: nothing more to say."""
+
+
+class _Errors:
+    """Collects the errors of independent parts of a spec (``all_errors=True``) or raises the first."""
+
+    def __init__(self, collect: bool) -> None:
+        self.collect = collect
+        self.found: list[ValueError] = []
+
+    @contextmanager
+    def attempt(self, on_error=None):
+        try:
+            yield
+        except _Skipped:
+            pass
+        except ValueError as exc:
+            if not self.collect:
+                raise
+            self.found.append(exc)
+            if on_error is not None:
+                on_error()
+
+
+def _skip_bad_model(rd: "_Reader", name: str) -> None:
+    if name in rd.bad_models:
+        raise _Skipped(name)
 
 
 class _Reader:
@@ -36,6 +76,7 @@ class _Reader:
     def __init__(self, path: Path, text: str) -> None:
         self.path = path
         self.lines = _KeyLines(text)
+        self.bad_models: set[str] = set()      # models whose error is recorded (all_errors=True)
 
     def error(self, key: tuple, msg: str, at: tuple | None = None) -> ValueError:
         line = self.lines.find(key if at is None else at)
@@ -240,6 +281,7 @@ def _pairs(rd: _Reader, data: dict, key: tuple) -> tuple[tuple[str, str], ...]:
 
 def _model_name(rd: _Reader, data: dict, key: tuple, models: dict) -> str:
     name = rd.get(data, key, "model", "str")
+    _skip_bad_model(rd, name)
     if name not in models:
         raise rd.error(key + ("model",), f"no model {name!r}; the spec defines {', '.join(models)}")
     return name
@@ -496,7 +538,7 @@ def _check_studies_available(rd: _Reader, key: tuple, section: str, function: st
                             "does not provide; remove the section")
 
 
-def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
+def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool = False) -> RunSpec:
     """Read and check a run spec.
 
     Parameters
@@ -505,6 +547,11 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         The TOML file (see the module docstring for the format).
     text : str, optional
         The file's contents, when already read.
+    all_errors : bool
+        Go on after an error in the particle, a model or a study section and
+        report every such error (:class:`SpecErrors`, one per line) instead
+        of the first; errors in the top-level settings still stop at once
+        (the rest depends on them). ``boundkit run --dry-run`` uses this.
 
     Returns
     -------
@@ -515,9 +562,10 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
     ValueError
         For an unreadable file, invalid TOML, an unknown key, a wrong type, a
         missing field or an unusable value; the message names the file, the
-        key and its line.
+        key and its line (:class:`SpecErrors`, a ValueError, with ``all_errors``).
     """
     path = Path(path)
+    errs = _Errors(all_errors)
     if text is None:
         try:
             text = path.read_text(encoding="utf-8")
@@ -557,23 +605,25 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         raise rd.error(("figure_format",), f"must be one of {', '.join(_FORMATS)}, got {fmt!r}")
 
     # particle
-    pdata = rd.get(data, (), "particle", "table", {})
-    rd.keys(pdata, ("particle",), ("name", "mass_mev", "nucleus_mass_mev"))
-    pname = rd.get(pdata, ("particle",), "name", "str", None)
-    pmass = rd.get(pdata, ("particle",), "mass_mev", "number", None)
-    nmass = rd.get(pdata, ("particle",), "nucleus_mass_mev", "number", None)
-    if pmass is not None:
-        rd.positive(pmass, ("particle", "mass_mev"))
-    if nmass is not None:
-        rd.positive(nmass, ("particle", "nucleus_mass_mev"))
-    if pmass is None and pname is not None:
-        try:
-            get_particle(pname.strip().lower())
-        except ValueError as exc:
-            raise rd.error(("particle", "name"), str(exc).split(": ", 1)[-1] +
-                           "; or give mass_mev = ... for another particle") from None
-        pname = pname.strip().lower()
-    particle = ParticleSpec(pname, pmass, nmass)
+    particle = ParticleSpec()
+    with errs.attempt():
+        pdata = rd.get(data, (), "particle", "table", {})
+        rd.keys(pdata, ("particle",), ("name", "mass_mev", "nucleus_mass_mev"))
+        pname = rd.get(pdata, ("particle",), "name", "str", None)
+        pmass = rd.get(pdata, ("particle",), "mass_mev", "number", None)
+        nmass = rd.get(pdata, ("particle",), "nucleus_mass_mev", "number", None)
+        if pmass is not None:
+            rd.positive(pmass, ("particle", "mass_mev"))
+        if nmass is not None:
+            rd.positive(nmass, ("particle", "nucleus_mass_mev"))
+        if pmass is None and pname is not None:
+            try:
+                get_particle(pname.strip().lower())
+            except ValueError as exc:
+                raise rd.error(("particle", "name"), str(exc).split(": ", 1)[-1] +
+                               "; or give mass_mev = ... for another particle") from None
+            pname = pname.strip().lower()
+        particle = ParticleSpec(pname, pmass, nmass)
 
     # defaults for the studies
     equations = tuple(_equation(rd, e, ("equations", i))
@@ -590,124 +640,137 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
     mdata = rd.get(data, (), "models", "table")
     if not mdata:
         raise rd.error(("models",), "define at least one model, e.g. [models.point] with terms = [\"coulomb\"]")
-    models = {name: _read_model(rd, name, m, ("models", name), units) for name, m in mdata.items()}
+    models = {}
+    for name, m in mdata.items():
+        with errs.attempt(lambda name=name: rd.bad_models.add(name)):
+            models[name] = _read_model(rd, name, m, ("models", name), units)
 
     if not any(s in data for s in STUDY_SECTIONS):
-        raise rd.error(("solve",), "the spec asks for no study; add at least one of "
-                                   + ", ".join(f"[{s}]" for s in STUDY_SECTIONS), at=())
+        errs.found.append(rd.error(("solve",), "the spec asks for no study; add at least one of "
+                                               + ", ".join(f"[{s}]" for s in STUDY_SECTIONS), at=()))
 
     solve_sec = None
     if "solve" in data:
-        key = ("solve",)
-        s = rd.convert(data["solve"], key, "table")
-        rd.keys(s, key, _SOLVE)
-        names = tuple(rd.get(s, key, "models", "list:str", list(models)))
-        for i, n in enumerate(names):
-            if n not in models:
-                raise rd.error(key + ("models", i), f"no model {n!r}; the spec defines {', '.join(models)}")
-        eqs = tuple(_equation(rd, e, key + ("equations", i))
-                    for i, e in enumerate(rd.get(s, key, "equations", "list:str", list(equations))))
-        figs = tuple(rd.get(s, key, "figures", "list:str", list(_FIGURES)))
-        for i, f in enumerate(figs):
-            if f not in _FIGURES:
-                raise rd.error(key + ("figures", i), f"unknown figure {f!r}; choose from {', '.join(_FIGURES)}")
-        ref = rd.get(s, key, "reference", "str", None)
-        if ref is not None and ref not in names:
-            raise rd.error(key + ("reference",), f"the reference must be one of the solved models: {', '.join(names)}")
-        m, o = _method(rd, s, key, method, order)
-        solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels or 1),
-                                 _tolerance(rd, s, key, tolerance), m, o, figs,
-                                 rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
-                                 rd.get(s, key, "states", "bool", False))
+        with errs.attempt():
+            key = ("solve",)
+            s = rd.convert(data["solve"], key, "table")
+            rd.keys(s, key, _SOLVE)
+            names = tuple(rd.get(s, key, "models", "list:str", list(models)))
+            for i, n in enumerate(names):
+                if n not in models:
+                    _skip_bad_model(rd, n)
+                    raise rd.error(key + ("models", i), f"no model {n!r}; the spec defines {', '.join(models)}")
+            eqs = tuple(_equation(rd, e, key + ("equations", i))
+                        for i, e in enumerate(rd.get(s, key, "equations", "list:str", list(equations))))
+            figs = tuple(rd.get(s, key, "figures", "list:str", list(_FIGURES)))
+            for i, f in enumerate(figs):
+                if f not in _FIGURES:
+                    raise rd.error(key + ("figures", i), f"unknown figure {f!r}; choose from {', '.join(_FIGURES)}")
+            ref = rd.get(s, key, "reference", "str", None)
+            if ref is not None and ref not in names:
+                raise rd.error(key + ("reference",),
+                               f"the reference must be one of the solved models: {', '.join(names)}")
+            m, o = _method(rd, s, key, method, order)
+            solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels or 1),
+                                     _tolerance(rd, s, key, tolerance), m, o, figs,
+                                     rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
+                                     rd.get(s, key, "states", "bool", False))
 
     converge_secs = []
     for key, s in _sections(rd, data, "converge"):
-        rd.keys(s, key, _CONVERGE, required=("model",))
-        ch = (_channel(rd, s["channel"], key + ("channel",)),) if "channel" in s else channels[:1]
-        meths = tuple(rd.get(s, key, "methods", "list:str", ["spectral", "finite-difference"]))
-        for i, mth in enumerate(meths):
-            if mth not in ("spectral", "finite-difference"):
-                raise rd.error(key + ("methods", i), f"must be spectral or finite-difference, got {mth!r}")
-        converge_secs.append(ConvergeSection(
-            key, _model_name(rd, s, key, models),
-            _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
+        with errs.attempt():
+            rd.keys(s, key, _CONVERGE, required=("model",))
+            ch = (_channel(rd, s["channel"], key + ("channel",)),) if "channel" in s else channels[:1]
+            meths = tuple(rd.get(s, key, "methods", "list:str", ["spectral", "finite-difference"]))
+            for i, mth in enumerate(meths):
+                if mth not in ("spectral", "finite-difference"):
+                    raise rd.error(key + ("methods", i), f"must be spectral or finite-difference, got {mth!r}")
+            converge_secs.append(ConvergeSection(
+                key, _model_name(rd, s, key, models),
+                _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
+                ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
 
     scan_secs = []
     for key, s in _sections(rd, data, "scan"):
-        rd.keys(s, key, _SCAN, required=("model", "parameter"))
-        _check_studies_available(rd, key, "scan", "scan")
-        model = _model_name(rd, s, key, models)
-        param = _scan_parameter(rd, s, key, models[model])
-        max_points = rd.get(s, key, "max_points", "int", MAX_GRID_POINTS)
-        if max_points < 1:
-            raise rd.error(key + ("max_points",), f"must be >= 1, got {max_points}")
-        values = _scan_values(rd, s, key, max_points, models[model], units, param)
-        second = None
-        if "second" in s:
-            skey = key + ("second",)
-            s2 = rd.get(s, key, "second", "table")
-            rd.keys(s2, skey, _SECOND, required=("parameter",))
-            p2 = _scan_parameter(rd, s2, skey, models[model])
-            if p2 == param:
-                raise rd.error(skey + ("parameter",), f"{p2!r} is the first parameter already; name another")
-            values2 = _scan_values(rd, s2, skey, max_points, models[model], units, p2)
-            if len(values) * len(values2) > max_points:
-                raise rd.error(skey, f"{len(values)} x {len(values2)} = {len(values) * len(values2)} grid points "
-                                     f"is more than the limit of {max_points}; use fewer, or raise it with "
-                                     "max_points = N in this [scan] section")
-            second = (p2, values2)
-        m, _o = _method(rd, s, key, method, None)
-        workers = _workers(rd, s, key)
-        scan_secs.append(ScanSection(
-            key, model, param, values,
-            _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            _channels(rd, s, key, channels), _levels(rd, s, key, levels or 3), _tolerance(rd, s, key, tolerance), m,
-            workers, _pairs(rd, s, key), max_points, second))
+        with errs.attempt():
+            rd.keys(s, key, _SCAN, required=("model", "parameter"))
+            _check_studies_available(rd, key, "scan", "scan")
+            model = _model_name(rd, s, key, models)
+            param = _scan_parameter(rd, s, key, models[model])
+            max_points = rd.get(s, key, "max_points", "int", MAX_GRID_POINTS)
+            if max_points < 1:
+                raise rd.error(key + ("max_points",), f"must be >= 1, got {max_points}")
+            values = _scan_values(rd, s, key, max_points, models[model], units, param)
+            second = None
+            if "second" in s:
+                skey = key + ("second",)
+                s2 = rd.get(s, key, "second", "table")
+                rd.keys(s2, skey, _SECOND, required=("parameter",))
+                p2 = _scan_parameter(rd, s2, skey, models[model])
+                if p2 == param:
+                    raise rd.error(skey + ("parameter",), f"{p2!r} is the first parameter already; name another")
+                values2 = _scan_values(rd, s2, skey, max_points, models[model], units, p2)
+                if len(values) * len(values2) > max_points:
+                    raise rd.error(skey, f"{len(values)} x {len(values2)} = {len(values) * len(values2)} grid points "
+                                         f"is more than the limit of {max_points}; use fewer, or raise it with "
+                                         "max_points = N in this [scan] section")
+                second = (p2, values2)
+            m, _o = _method(rd, s, key, method, None)
+            workers = _workers(rd, s, key)
+            scan_secs.append(ScanSection(
+                key, model, param, values,
+                _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
+                _channels(rd, s, key, channels), _levels(rd, s, key, levels or 3),
+                _tolerance(rd, s, key, tolerance), m, workers, _pairs(rd, s, key), max_points, second))
 
     critical_secs = []
     for key, s in _sections(rd, data, "critical"):
-        rd.keys(s, key, _CRITICAL, required=("model", "states"))
-        _check_studies_available(rd, key, "critical", "critical")
-        model = _model_name(rd, s, key, models)
-        param = rd.get(s, key, "parameter", "str", "screening_length")
-        if param not in models[model].builtin_parameters():
-            raise rd.error(key + ("parameter",),
-                           f"must be a parameter of a built-in term of model {model!r} "
-                           f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); got {param!r}")
-        states = tuple(x.strip() for x in rd.get(s, key, "states", "list:str"))
-        if not states:
-            raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
-        for i, st in enumerate(states):
-            if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
-                raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
-                                                    "\"2p3/2\"")
-        eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
-        for i, st in enumerate(states):
-            if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
-                raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
-                                                    f"or \"{st}3/2\"")
-        bracket = rd.get(s, key, "bracket", "list:number", None)
-        if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
-            raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
-        kind = rd.get(s, key, "kind", "str", None)
-        if kind is not None and kind not in ("unbind", "dive"):
-            raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
-        etol = _tolerance(rd, s, key, 1e-10, "energy_tol")
-        critical_secs.append(CriticalSection(
-            key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
-            etol, kind, _workers(rd, s, key)))
+        with errs.attempt():
+            rd.keys(s, key, _CRITICAL, required=("model", "states"))
+            _check_studies_available(rd, key, "critical", "critical")
+            model = _model_name(rd, s, key, models)
+            param = rd.get(s, key, "parameter", "str", "screening_length")
+            if param not in models[model].builtin_parameters():
+                raise rd.error(key + ("parameter",),
+                               f"must be a parameter of a built-in term of model {model!r} "
+                               f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); got {param!r}")
+            states = tuple(x.strip() for x in rd.get(s, key, "states", "list:str"))
+            if not states:
+                raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
+            for i, st in enumerate(states):
+                if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
+                    raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
+                                                        "\"2p3/2\"")
+            eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
+            for i, st in enumerate(states):
+                if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
+                    raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
+                                                        f"or \"{st}3/2\"")
+            bracket = rd.get(s, key, "bracket", "list:number", None)
+            if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
+                raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
+            kind = rd.get(s, key, "kind", "str", None)
+            if kind is not None and kind not in ("unbind", "dive"):
+                raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
+            etol = _tolerance(rd, s, key, 1e-10, "energy_tol")
+            critical_secs.append(CriticalSection(
+                key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
+                etol, kind, _workers(rd, s, key)))
 
     compare_secs = []
     for key, s in _sections(rd, data, "compare"):
-        rd.keys(s, key, _COMPARE, required=("model",))
-        _check_studies_available(rd, key, "compare", "compare")
-        l_max = rd.get(s, key, "l_max", "int", 1)
-        if not 0 <= l_max <= MAX_L:
-            raise rd.error(key + ("l_max",), f"must lie between 0 and {MAX_L}, got {l_max}")
-        compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels or 2),
-                                           _tolerance(rd, s, key, tolerance)))
+        with errs.attempt():
+            rd.keys(s, key, _COMPARE, required=("model",))
+            _check_studies_available(rd, key, "compare", "compare")
+            l_max = rd.get(s, key, "l_max", "int", 1)
+            if not 0 <= l_max <= MAX_L:
+                raise rd.error(key + ("l_max",), f"must lie between 0 and {MAX_L}, got {l_max}")
+            compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max,
+                                               _levels(rd, s, key, levels or 2),
+                                               _tolerance(rd, s, key, tolerance)))
 
+    if errs.found:
+        raise SpecErrors(errs.found)
     return RunSpec(path=path, text=text, title=title.strip(), description=description.strip(), units=units,
                    energy_unit=e_unit, length_unit=l_unit, labels=labels, figure_format=fmt, particle=particle,
                    equations=equations, channels=channels, levels=levels, tolerance=tolerance, method=method,
