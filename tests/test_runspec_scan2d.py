@@ -119,3 +119,22 @@ def test_second_parameter_errors(tmp_path, edit, match):
     spec.write_text(SPEC.replace(*edit))
     with pytest.raises(ValueError, match=match):
         load_spec(spec)
+
+
+def test_progress_follows_the_scan_points(tmp_path):
+    spec = tmp_path / "s.toml"
+    spec.write_text(SPEC.split("[scan.second]")[0].replace("differences = [[\"2s\", \"1s\"]]\n", ""))
+    calls = []
+    report = run(load_spec(spec), tmp_path / "out", progress=lambda done, total: calls.append((done, total)))
+    assert report.success
+    done = [c[0] for c in calls]
+    assert done == sorted(done) and calls[-1] == (3, 3) and all(t == 3 for _, t in calls)
+
+
+def test_plan_of_a_convergence_study(tmp_path):
+    spec = tmp_path / "s.toml"
+    spec.write_text('title = "t"\ndescription = "d"\n[models.h]\nterms = ["coulomb"]\nparams = { Z = 1.0 }\n'
+                    '[converge]\nmodel = "h"\nlevels = 2\nmethods = ["spectral"]\n')
+    (st,) = plan(load_spec(spec)).studies
+    assert st.section == "converge" and st.line == 6 and st.solves == 2
+    assert "convergence of model h, schrodinger s, 2 level(s)" in st.summary

@@ -109,6 +109,12 @@ def test_table_and_model_files_give_the_builtin_levels(study, tmp_path):
     assert e["own"] == pytest.approx(e["builtin"], rel=1e-12)
     # the table (400 points, quintic spline of r V in ln r) to its interpolation accuracy
     assert e["table"] == pytest.approx(e["builtin"], rel=1e-7)
+    import json
+
+    doc = json.loads((tmp_path / "out" / "results.json").read_text())
+    (own,) = doc["solve"]["models"]["table"]["potential"]["own_terms"]
+    assert own["table"] == "data/ws.txt" and own["path"] == str(study.parent / "data" / "ws.txt")
+    assert own["options"] == {"tail": "zero", "origin": "finite"}
 
 
 def test_table_without_units_line_follows_the_spec_units(tmp_path):
