@@ -282,3 +282,15 @@ def test_dry_run_reports_every_error(study, tmp_path):
     with pytest.raises(ValueError, match=r"key 'models\.table\.term\[0\]\.flavour': unknown key") as info:
         load_spec(study)
     assert "\n" not in str(info.value)
+
+
+def test_complex_model_file_is_refused_while_reading(tmp_path):
+    (tmp_path / "cx.toml").write_text('name = "cx"\ndescription = "d"\nsource = "s"\n'
+                                      'expression = "-Z/r + W*exp(-r)"\n[parameters.Z]\ndefault = 1.0\nunit = "e"\n'
+                                      'description = "z"\n[parameters.W]\ndefault = "-1 - 1j"\nunit = "hartree"\n'
+                                      'description = "w"\n')
+    spec = tmp_path / "s.toml"
+    spec.write_text('title = "t"\ndescription = "d"\n[models.c]\nfiles = ["cx.toml"]\n[solve]\nfigures = []\n')
+    with pytest.raises(ValueError, match=r"line 3, key 'models\.c': potential: expression 'cx' returned complex "
+                                         r"values .*use boundkit\.resonances"):
+        load_spec(spec)

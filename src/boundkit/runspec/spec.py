@@ -380,7 +380,10 @@ def _read_model(rd: _Reader, name: str, data: Any, key: tuple, units: str) -> Mo
             raise rd.error(key + ("params", p), f"no term of model {name!r} takes this parameter; its terms take "
                                                 f"{', '.join(sorted(known)) or 'none'}")
     try:
-        model.potential(units)
+        pot = model.potential(units)
+        probe = np.geomspace(1e-3, 1e2, 11)       # a complex term (a model file's complex default) is
+        pot.V(probe)                              # refused here, not at the first solve
+        pot.S(probe)
     except ValueError as exc:
         raise _param_error(rd, exc, key, params) from None
     return model
