@@ -105,6 +105,8 @@ def test_walkthrough_table_matches_the_run(folder, monkeypatch):
                                          "out/uranium"]).exit_code == 0
     got = {(r["model"], r["equation"], r["label"]): float(r["energy_keV"])
            for r in csv.DictReader(levels.open(encoding="utf-8"))}
+    files = re.search(r"writes (\d+) files", README)
+    assert files and len([p for p in levels.parent.iterdir() if p.is_file()]) == int(files.group(1))
     rows = re.findall(r"^\| (point nucleus|uniform sphere) \| (-[\d.]+) \| (-[\d.]+) \|$", README, re.M)
     assert len(rows) == 2
     for name, dirac, schrodinger in rows:

@@ -131,6 +131,8 @@ as it was.
 from __future__ import annotations
 
 from .engine import RunReport, _Engine, run
-from .spec import STUDY_SECTIONS, ChannelSpec, ModelDef, RunSpec, _KeyLines, load_spec
+from .plan import RunPlan, plan
+from .spec import STUDY_SECTIONS, ChannelSpec, ModelDef, RunSpec, SpecErrors, _KeyLines, load_spec
 
-__all__ = ["load_spec", "run", "RunSpec", "RunReport", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
+__all__ = ["load_spec", "run", "plan", "RunSpec", "RunReport", "RunPlan", "SpecErrors", "ChannelSpec", "ModelDef",
+           "STUDY_SECTIONS"]
