@@ -132,7 +132,8 @@ from __future__ import annotations
 
 from .engine import RunReport, _Engine, run
 from .plan import RunPlan, plan
-from .spec import STUDY_SECTIONS, ChannelSpec, ModelDef, RunSpec, SpecErrors, _KeyLines, load_spec
+from .keylines import _KeyLines  # noqa: F401 (tests use it)
+from .spec import STUDY_SECTIONS, ChannelSpec, ModelDef, RunSpec, SpecErrors, load_spec
 
 __all__ = ["load_spec", "run", "plan", "RunSpec", "RunReport", "RunPlan", "SpecErrors", "ChannelSpec", "ModelDef",
            "STUDY_SECTIONS"]
