@@ -4,8 +4,8 @@
 :class:`_Engine` runs the sections of the spec in order. The engine is put
 together from one mixin per responsibility:
 
-- :mod:`.solve_runner` ([solve]) and :mod:`.study_runners` ([converge], [scan],
-  [critical], [compare]): call the public API, gather tables, headline numbers
+- :mod:`.solve_runner` ([solve]), :mod:`.scan_runner` ([scan]) and :mod:`.study_runners`
+  ([converge], [critical], [compare]): call the public API, gather tables, headline numbers
   and report text;
 - :mod:`.figures`: draws figures into the folder (a failed figure is a problem,
   not a failure);
@@ -36,6 +36,7 @@ from .solve_runner import SolveRunner
 from .keylines import _dotted
 from .objects import RunSpec
 from .spec import load_spec
+from .scan_runner import ScanRunner
 from .study_runners import StudyRunners
 
 __all__ = ["run", "RunReport", "MARKER"]
@@ -136,7 +137,7 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
     return replace(report, out_dir=out)
 
 
-class _Engine(SolveRunner, StudyRunners, FigureWriter, ReportWriter):
+class _Engine(SolveRunner, ScanRunner, StudyRunners, FigureWriter, ReportWriter):
     """Runs the sections of one spec into one (temporary) folder."""
 
     def __init__(self, spec: RunSpec, folder: Path, progress: bool | None | Callable = False) -> None:
