@@ -550,3 +550,16 @@ def test_relativistic_effective_range_from_low_energy_phases():
         assert rel.effective_range_error < 1e-4
         assert abs(rel.effective_range / bethe.effective_range - 1) < 1e-3
         assert abs(rel.a / bethe.a - 1) < 1e-3 and rel.a != bethe.a
+
+
+def test_free_zero_count_counts_a_zero_just_below_x():
+    # x j_0(x) = sin x has floor(x / pi) zeros on (0, x) (elementary); a zero within the last grid step
+    # below x was missed, which put the phase shift on the wrong branch (a jump of pi at some energies,
+    # seen in the README's Yukawa phases command)
+    from boundkit.scattering.reference import free_zero_count
+
+    for m in (1, 2, 5, 17):
+        for eps in (1e-9, 1e-3, 0.02, 0.049, 0.3):
+            x = m * math.pi + eps
+            assert free_zero_count(0, x) == m, (m, eps)
+            assert free_zero_count(0, m * math.pi - eps) == m - 1

@@ -1,7 +1,11 @@
 """``boundkit run SPEC.toml``: run a study described in a run spec file.
 
 The spec format is documented in :mod:`boundkit.runspec` and docs/runspec.md.
-Exit codes: 0 everything as asked; 2 bad spec or output folder in the way (one
+``--dry-run`` checks the spec and the output folder and prints what the run
+would compute (:func:`boundkit.runspec.plan.plan`) without solving; ``--quiet``
+hides the progress bar (stderr, tqdm) that a run longer than 2 s shows.
+
+Exit codes: 0 everything as asked (or a valid spec with ``--dry-run``); 2 bad spec or output folder in the way (one
 message, nothing written); 3 the run finished but some levels were not found,
 a tolerance was not met or a study failed (the output is written and
 report.md lists what went wrong).
@@ -13,7 +17,7 @@ from pathlib import Path
 
 import click
 
-from .common import EXIT_NOT_CONVERGED, fail
+from .common import EXIT_NOT_CONVERGED, clip_message, fail
 
 __all__ = ["run_cmd"]
 
@@ -23,17 +27,38 @@ __all__ = ["run_cmd"]
 @click.option("--out", "out_dir", default=None, type=click.Path(file_okay=False),
               help="Output folder (default: out/<spec file name without .toml>).")
 @click.option("--force", is_flag=True, help="Replace the output folder of an earlier run.")
-def run_cmd(spec_path: str, out_dir: str | None, force: bool) -> None:
+@click.option("--dry-run", is_flag=True,
+              help="Check the spec (every error, one line each) and the output folder, and list what the run would "
+                   "compute: studies, models, equations, channels, number of solves. Solves and writes nothing.")
+@click.option("--quiet", "-q", is_flag=True,
+              help="No progress bar on stderr (it is shown for runs longer than 2 s).")
+def run_cmd(spec_path: str, out_dir: str | None, force: bool, dry_run: bool, quiet: bool) -> None:
     """Run the studies of a run spec and write results.json, tables, figures and report.md."""
     from ..runspec import load_spec, run
+    from ..runspec.spec import SpecErrors
 
     try:
-        spec = load_spec(spec_path)
+        spec = load_spec(spec_path, all_errors=dry_run)
+    except SpecErrors as exc:       # --dry-run: every error, one line each
+        for err in exc.errors[:-1]:
+            click.echo(f"boundkit: error: {clip_message(str(err))}", err=True)
+        fail(str(exc.errors[-1]))
     except ValueError as exc:
         fail(str(exc))
     target = Path(out_dir) if out_dir else Path("out") / spec.name
+    if dry_run:
+        from ..runspec.files import _check_target
+        from ..runspec.plan import plan
+
+        try:
+            _check_target(target, force)
+        except FileExistsError as exc:
+            fail(str(exc))
+        click.echo(plan(spec).text())
+        click.echo(f"output folder: {target}" + (" (would be replaced)" if target.exists() else ""))
+        return
     try:
-        report = run(spec, target, force=force)
+        report = run(spec, target, force=force, progress=not quiet)
     except FileExistsError as exc:
         fail(str(exc))
     except ValueError as exc:

@@ -37,13 +37,16 @@ Top-level keys (all optional unless marked)::
     terms = ["coulomb", "uehling"]     # built-in vector terms (they add)
     scalar_terms = []                  # built-in Lorentz-scalar terms
     expressions = ["-Z*exp(-r/D)/r"]   # vector terms as expressions in r
+    files = ["well.toml", "v.txt"]     # the user's model files (.toml) and tables of r, V;
+                                       # paths relative to the spec's folder
     scalar_expressions = []
     params = { Z = 92 }                # parameters shared by the terms above,
                                        # in the unit system of `units`
 
     [[models.NAME.term]]               # a term with parameters of its own (e.g.
     name = "woods-saxon"               # the same built-in as vector and scalar)
-    # expression = "..."               # instead of name
+    # expression = "...", table = "v.txt" (with tail, origin, r_unit, v_unit, degree)
+    # or model_file = "my.toml"        # instead of name
     role = "scalar"                    # vector (default) or scalar
     params = { depth = 420.0, radius = 6.0, diffuseness = 0.6 }
 
@@ -75,6 +78,9 @@ array ``[[x]]`` of several::
     equation, channels, levels, tol, method as above
     workers = 2                        # worker processes (default: all cores)
     differences = [["2p1/2", "2s1/2"]] # per parameter value, with the slope d/dparameter
+    [scan.second]                      # optional: a second parameter, a grid of both
+    parameter = "Z"
+    values = [1.0, 2.0]                # or range = {...}
 
     [critical]                         # where a level stops being bound (boundkit.studies)
     model = "screened"                 # required
@@ -125,6 +131,9 @@ as it was.
 from __future__ import annotations
 
 from .engine import RunReport, _Engine, run
-from .spec import STUDY_SECTIONS, ChannelSpec, ModelDef, RunSpec, _KeyLines, load_spec
+from .plan import RunPlan, plan
+from .keylines import _KeyLines  # noqa: F401 (tests use it)
+from .spec import STUDY_SECTIONS, ChannelSpec, ModelDef, RunSpec, SpecErrors, load_spec
 
-__all__ = ["load_spec", "run", "RunSpec", "RunReport", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
+__all__ = ["load_spec", "run", "plan", "RunSpec", "RunReport", "RunPlan", "SpecErrors", "ChannelSpec", "ModelDef",
+           "STUDY_SECTIONS"]

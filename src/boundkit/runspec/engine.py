@@ -4,8 +4,8 @@
 :class:`_Engine` runs the sections of the spec in order. The engine is put
 together from one mixin per responsibility:
 
-- :mod:`.solve_runner` ([solve]) and :mod:`.study_runners` ([converge], [scan],
-  [critical], [compare]): call the public API, gather tables, headline numbers
+- :mod:`.solve_runner` ([solve]), :mod:`.scan_runner` ([scan]) and :mod:`.study_runners`
+  ([converge], [critical], [compare]): call the public API, gather tables, headline numbers
   and report text;
 - :mod:`.figures`: draws figures into the folder (a failed figure is a problem,
   not a failure);
@@ -23,7 +23,7 @@ import time
 import uuid
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from .. import __version__
 from ..observables import bohr_to
@@ -36,6 +36,7 @@ from .solve_runner import SolveRunner
 from .keylines import _dotted
 from .objects import RunSpec
 from .spec import load_spec
+from .scan_runner import ScanRunner
 from .study_runners import StudyRunners
 
 __all__ = ["run", "RunReport", "MARKER"]
@@ -73,7 +74,12 @@ class RunReport:
         return not self.problems
 
 
-def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bool = False) -> RunReport:
+PROGRESS_DELAY = 2.0
+"""Seconds before a run's progress bar appears (a quick run prints none)."""
+
+
+def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bool = False,
+        progress: bool | None | Callable[[int, int], None] = None) -> RunReport:
     """Run every study of a spec and write the results into ``out_dir``.
 
     Parameters
@@ -87,6 +93,12 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
         folder, or one holding the run marker ``.boundkit-run.json`` whose run
         id matches its ``results.json`` (both written by boundkit), is ever
         removed.
+    progress : bool, None or callable
+        A progress bar on stderr (tqdm), counting the solves of
+        :func:`~boundkit.runspec.plan.plan`: True shows it, False hides it,
+        None (default) shows it when stderr is a terminal; it appears only
+        after 2 s, so a quick run prints nothing. A callable is called as
+        ``progress(done, total)`` instead.
 
     Returns
     -------
@@ -116,7 +128,7 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:
         os.chmod(tmp, _umask_mode(0o777))
-        report = _Engine(spec, tmp).run()
+        report = _Engine(spec, tmp, progress).run()
         _check_target(out, force)
         _move_into_place(tmp, out)
     except BaseException:
@@ -125,11 +137,15 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
     return replace(report, out_dir=out)
 
 
-class _Engine(SolveRunner, StudyRunners, FigureWriter, ReportWriter):
+class _Engine(SolveRunner, ScanRunner, StudyRunners, FigureWriter, ReportWriter):
     """Runs the sections of one spec into one (temporary) folder."""
 
-    def __init__(self, spec: RunSpec, folder: Path) -> None:
+    def __init__(self, spec: RunSpec, folder: Path, progress: bool | None | Callable = False) -> None:
         self.spec = spec
+        self.progress_mode = progress
+        self.done = 0
+        self.shown = 0
+        self.bar = None
         self.folder = folder
         self.files: list[str] = []
         self.problems: list[str] = []
@@ -138,6 +154,7 @@ class _Engine(SolveRunner, StudyRunners, FigureWriter, ReportWriter):
         self.figures: list[tuple[str, str]] = []
         self.taken: set[str] = set()
         self.results: dict[str, Any] = {}
+        self.planned: dict[str, int] = {}
         self.e_unit = spec.energy_unit
         self.l_unit = spec.length_unit
         self.run_id = uuid.uuid4().hex
@@ -158,15 +175,52 @@ class _Engine(SolveRunner, StudyRunners, FigureWriter, ReportWriter):
     def particle_kwargs(self) -> dict:
         return self.spec.particle.kwargs()
 
+    def tick(self, n: int = 1) -> None:
+        """``n`` more solves of the plan are finished."""
+        self.done += n
+        self._show(self.done)
+
+    def _show(self, done: int) -> None:
+        if self.bar is not None and done != self.shown:
+            self.shown = done
+            self.bar.update(done)
+
+    def progress_hook(self):
+        """A ``progress(done, total)`` hook for a study that counts its own points from here."""
+        base = self.done
+
+        def hook(done: int, _total: int) -> None:
+            self._show(base + done)
+
+        return hook
+
     # -- the run ---------------------------------------------------------------------------
     def run(self) -> RunReport:
+        from ..studies._common import ProgressBar
+        from .plan import plan
+
+        planned = plan(self.spec)
+        self.planned = {st.section: st.solves for st in planned.studies}
+        self.bar = ProgressBar(planned.solves, self.progress_mode, label=self.spec.name,
+                               delay=PROGRESS_DELAY, unit="solve")
+        try:
+            if self.bar.bar is not None:      # log lines (-v) above the bar, not through it
+                from tqdm.contrib.logging import logging_redirect_tqdm
+
+                with logging_redirect_tqdm():
+                    return self._run()
+            return self._run()
+        finally:
+            self.bar.close()
+
+    def _run(self) -> RunReport:
         t0 = time.perf_counter()
         spec = self.spec
         self.write(MARKER, json.dumps({"written_by": "boundkit", "run_id": self.run_id,
                                        "boundkit_version": __version__, "spec": str(spec.path)}) + "\n")
         self.write("spec.toml", spec.text)
         if spec.solve is not None:
-            self._solve(spec.solve)
+            self._guard_solve(spec.solve)
             log.info("[solve] done in %.1f s", time.perf_counter() - t0)
         for i, sec in enumerate(spec.converge):
             self._guard(sec.key, lambda: self._converge(sec, self._suffix(spec.converge, i)))
@@ -186,9 +240,16 @@ class _Engine(SolveRunner, StudyRunners, FigureWriter, ReportWriter):
     def _suffix(secs, i: int) -> str:
         return "" if len(secs) == 1 else f"-{i + 1}"
 
+    def _guard_solve(self, sec) -> None:
+        base = self.done
+        self._solve(sec)        # its failures are per channel, recorded as problems there
+        self.done = base
+        self.tick(self.planned.get(_dotted(sec.key), 0))
+
     def _guard(self, key: tuple, job) -> None:
         """Run one study; a ValueError from the numerics is recorded as a problem, not raised."""
         t0 = time.perf_counter()
+        base = self.done
         try:
             job()
             log.info("[%s] done in %.1f s", _dotted(key), time.perf_counter() - t0)
@@ -197,6 +258,9 @@ class _Engine(SolveRunner, StudyRunners, FigureWriter, ReportWriter):
             log.warning("%s", msg)
             self.problems.append(msg)
             self.results.setdefault("failed", []).append({"section": _dotted(key), "error": str(exc)})
+        finally:
+            self.done = base
+            self.tick(self.planned.get(_dotted(key), 0))
 
     def _settings(self) -> dict:
         spec = self.spec

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Iterable
+from typing import Any, Iterable
 
 from .._checks import MAX_GRID_POINTS
 from .keylines import _KeyLines, _dotted
@@ -64,19 +64,33 @@ def _channels_for(channels: Iterable[ChannelSpec], equation: str, levels: int) -
 
 @dataclass(frozen=True)
 class TermEntry:
-    """A ``[[models.NAME.term]]`` entry: one term with its own parameters."""
+    """A ``[[models.NAME.term]]`` entry: one term with its own parameters, or a user's file.
+
+    Exactly one of ``name`` (a built-in), ``expression``, ``table`` (a table of
+    r and V) or ``model_file`` (a model file, TOML) is set. A file's path is
+    stored as given in the spec and as resolved against the spec's folder
+    (``path``); the file is read once, while the spec is read, into ``built``.
+    """
 
     key: tuple
     name: str | None
     expression: str | None
     role: str
     params: dict
+    table: str | None = None
+    model_file: str | None = None
+    path: str | None = None
+    options: dict = field(default_factory=dict)
+    built: Any = field(default=None, compare=False, repr=False)
 
     def build(self, units: str):
         """The term as :func:`~boundkit.potentials.make_potential` should receive it."""
         from ..potentials import _make_term
         from ..potentials.expression import ExpressionTerm
 
+        if self.built is not None:
+            return self.built                # a table (make_potential reads its unstated units in `units`)
+                                             # or a model file's term (its own units, fixed)
         if self.expression is not None:
             term = ExpressionTerm(self.expression, self.params)
             unused = sorted(set(self.params) - set(term.parameter_names))
@@ -86,6 +100,12 @@ class TermEntry:
         term = _make_term(self.name, self.params, set(), units)   # atomic units from here on
         term.fixed_units = True                                    # make_potential converts it no more
         return term
+
+    def describe(self) -> str:
+        """A short readable name of the term, e.g. ``table well.txt`` or ``scalar woods-saxon``."""
+        what = (f"table {self.table}" if self.table else f"model file {self.model_file}" if self.model_file
+                else self.name or f"expression {self.expression}")
+        return ("scalar " if self.role == "scalar" else "") + what
 
 
 @dataclass(frozen=True)
@@ -101,6 +121,17 @@ class ModelDef:
     scalar_expressions: tuple[str, ...] = ()
     params: dict = field(default_factory=dict)
     entries: tuple[TermEntry, ...] = ()
+
+    def summary(self) -> str:
+        """The model's terms and parameters in one line (for ``--dry-run``)."""
+        parts = list(self.terms) + [f"scalar {t}" for t in self.scalar_terms] + list(self.expressions) + \
+            [f"scalar {t}" for t in self.scalar_expressions] + [e.describe() for e in self.entries]
+        params = ", ".join(f"{k} = {v:g}" for k, v in self.params.items())
+        return " + ".join(parts) + (f" ({params})" if params else "")
+
+    def file_parameters(self) -> set[str]:
+        """Shared parameters taken by the model files of ``files = [...]``."""
+        return {p for e in self.entries if e.model_file and "files" in e.key for p in e.params}
 
     def builtin_parameters(self) -> set[str]:
         """Parameter names of the built-in terms listed in ``terms`` and ``scalar_terms``."""
@@ -185,6 +216,8 @@ class ScanSection:
     workers: int | None
     differences: tuple[tuple[str, str], ...]
     max_points: int = MAX_GRID_POINTS
+    second: tuple[str, tuple[float, ...]] | None = None
+    """The second parameter of a two-parameter scan and its values (``[scan.second]``)."""
 
 
 @dataclass(frozen=True)

@@ -47,10 +47,12 @@ class SolveRunner:
                         res = solve(eq, pot, None, levels=nlev, tol=sec.tolerance, method=sec.method,
                                     order=sec.order, **kw, **self.particle_kwargs()).with_labels(spec.labels)
                     except ValueError as exc:
+                        self.tick()
                         self.problems.append(f"solve {tag}: {exc}")
                         runs.append({"model": mname, "equation": eq, "channel": cname, "status": "error",
                                      "message": str(exc), "levels": []})
                         continue
+                    self.tick()
                     if not res.success:
                         self.problems.append(f"solve {tag}: {res.status}: {res.message}")
                     runs.append({"model": mname, "equation": eq, "channel": cname, **kw, "requested": nlev,
@@ -143,8 +145,9 @@ class SolveRunner:
         return {"terms": list(m.terms), "scalar_terms": list(m.scalar_terms), "expressions": list(m.expressions),
                 "scalar_expressions": list(m.scalar_expressions), "params": dict(m.params),
                 "parameter_units": self.spec.units,
-                "own_terms": [{"name": e.name, "expression": e.expression, "role": e.role, "params": e.params}
-                              for e in m.entries],
+                "own_terms": [{"name": e.name, "expression": e.expression, "table": e.table,
+                               "model_file": e.model_file, "path": e.path, "options": e.options, "role": e.role,
+                               "params": e.params} for e in m.entries],
                 "built": repr(m.potential(self.spec.units))}
 
     def _solve_report(self, sec, rows, diffs, shifts) -> None:

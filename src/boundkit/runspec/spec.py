@@ -1,129 +1,44 @@
-"""Reading and checking run specs (the format is described in :mod:`boundkit.runspec`)."""
+"""Reading and checking run specs (the format is described in :mod:`boundkit.runspec`).
+
+:func:`load_spec` reads the top level, the particle and the study sections here;
+:mod:`.reader` holds the typed access with file/key/line errors, :mod:`.models` the
+potential models (built-in terms, expressions, the user's tables and model files)."""
 from __future__ import annotations
 
 import importlib
 import logging
-import math
 import os
 import re
 import tomllib
 
 import numpy as np
 from pathlib import Path
-from typing import Any, Iterable
+from typing import Any
 
 from .._checks import MAX_GRID_POINTS, MAX_L
 from ..observables import length_unit as canonical_length_unit
 from ..states import LABEL_CONVENTIONS
 from ..units import energy_unit as canonical_energy_unit
 from ..units import get_particle
-from .keylines import _KeyLines, _dotted
+from .models import _read_model
+from .reader import SpecErrors, _describe, _Errors, _Reader, _skip_bad_model  # noqa: F401 (SpecErrors)
 from .objects import (_EQUATIONS, _FIGURES, _FORMATS, _LETTERS, STUDY_SECTIONS, ChannelSpec, CompareSection,
-                      ConvergeSection, CriticalSection, ModelDef, ParticleSpec, RunSpec, ScanSection, SolveSection,
-                      TermEntry)
+                      ConvergeSection, CriticalSection, ModelDef, ParticleSpec, RunSpec, ScanSection, SolveSection)
 
-__all__ = ["load_spec", "RunSpec", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
+__all__ = ["load_spec", "SpecErrors", "RunSpec", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
 
 log = logging.getLogger(__name__)
 
 
-_MISSING = object()
-
-
-class _Reader:
-    """Typed access to the parsed TOML with file/key/line errors."""
-
-    def __init__(self, path: Path, text: str) -> None:
-        self.path = path
-        self.lines = _KeyLines(text)
-
-    def error(self, key: tuple, msg: str, at: tuple | None = None) -> ValueError:
-        line = self.lines.find(key if at is None else at)
-        return ValueError(f"run spec {self.path}, line {line}, key {_dotted(key)!r}: {msg}")
-
-    def keys(self, data: dict, key: tuple, allowed: Iterable[str], required: Iterable[str] = ()) -> None:
-        allowed = list(allowed)
-        for k in data:
-            if k not in allowed:
-                raise self.error(key + (k,), f"unknown key; allowed here: {', '.join(allowed)}")
-        for k in required:
-            if k not in data:
-                where = f"[{_dotted(key)}]" if key else "the top level"
-                raise self.error(key + (k,), f"missing; add it to {where}", at=key)
-
-    def get(self, data: dict, key: tuple, name: str, kind: str, default: Any = _MISSING) -> Any:
-        if name not in data:
-            if default is _MISSING:
-                raise self.error(key + (name,), "missing", at=key)
-            return default
-        return self.convert(data[name], key + (name,), kind)
-
-    def convert(self, value: Any, key: tuple, kind: str) -> Any:
-        def want(what: str) -> ValueError:
-            return self.error(key, f"expected {what}, got {_describe(value)}")
-
-        if kind == "str":
-            if not isinstance(value, str):
-                raise want("a string")
-            if not value.strip():
-                raise self.error(key, "must not be empty")
-            return value
-        if kind == "int":
-            if isinstance(value, bool) or not isinstance(value, int):
-                raise want("an integer")
-            return value
-        if kind == "number":
-            if isinstance(value, bool) or not isinstance(value, (int, float)):
-                raise want("a number")
-            if not math.isfinite(value):
-                raise self.error(key, "must be finite")
-            return float(value)
-        if kind == "bool":
-            if not isinstance(value, bool):
-                raise want("true or false")
-            return value
-        if kind == "table":
-            if not isinstance(value, dict):
-                raise want("a table")
-            return value
-        if kind.startswith("list:"):
-            if not isinstance(value, list):
-                raise want(f"an array ({kind[5:]} items)")
-            return [self.convert(v, key + (i,), kind[5:]) for i, v in enumerate(value)]
-        raise AssertionError(kind)  # pragma: no cover
-
-    def positive(self, value: float, key: tuple) -> float:
-        if not value > 0:
-            raise self.error(key, f"must be positive, got {value:g}")
-        return value
-
-
-def _describe(value: Any) -> str:
-    if isinstance(value, bool):
-        return f"a boolean ({str(value).lower()})"
-    if isinstance(value, str):
-        return f"a string ({value!r})"
-    if isinstance(value, int):
-        return f"an integer ({value})"
-    if isinstance(value, float):
-        return f"a number ({value:g})"
-    if isinstance(value, list):
-        return "an array"
-    if isinstance(value, dict):
-        return "a table"
-    return type(value).__name__
-
-
 _TOP = ("title", "description", "units", "energy_unit", "length_unit", "labels", "figure_format", "equations",
         "channels", "levels", "tol", "tolerance", "method", "order", "particle", "models") + STUDY_SECTIONS
-_MODEL = ("label", "terms", "scalar_terms", "expressions", "scalar_expressions", "params", "term")
-_ENTRY = ("name", "expression", "role", "params")
 _SOLVE = ("models", "equations", "channels", "levels", "tol", "tolerance", "method", "order", "figures", "radii",
           "differences", "reference", "states")
 _CONVERGE = ("model", "equation", "channel", "levels", "methods", "order", "tol", "tolerance")
 _SCAN = ("model", "parameter", "values", "range", "equation", "channels", "levels", "tol", "tolerance", "method", "workers",
-         "differences", "max_points")
+         "differences", "max_points", "second")
 _RANGE = ("start", "stop", "num", "spacing")
+_SECOND = ("parameter", "values", "range")
 _CRITICAL = ("model", "parameter", "states", "equation", "bracket", "tol", "tolerance", "energy_tol", "energy_tolerance", "kind",
              "workers")
 _COMPARE = ("model", "l_max", "levels", "tol", "tolerance")
@@ -237,6 +152,7 @@ def _pairs(rd: _Reader, data: dict, key: tuple) -> tuple[tuple[str, str], ...]:
 
 def _model_name(rd: _Reader, data: dict, key: tuple, models: dict) -> str:
     name = rd.get(data, key, "model", "str")
+    _skip_bad_model(rd, name)
     if name not in models:
         raise rd.error(key + ("model",), f"no model {name!r}; the spec defines {', '.join(models)}")
     return name
@@ -253,77 +169,58 @@ def _sections(rd: _Reader, data: dict, name: str) -> list[tuple[tuple, dict]]:
     raise rd.error((name,), f"expected a table [{name}] or an array of tables [[{name}]], got {_describe(value)}")
 
 
-def _param_error(rd: _Reader, exc: Exception, key: tuple, params: dict) -> ValueError:
-    """Point a potential-building error at the parameter it names, when it names one."""
-    msg = str(exc)
-    for name in re.findall(r"['\"]([A-Za-z_][A-Za-z0-9_]*)['\"]", msg):
-        if name in params:
-            return rd.error(key + ("params", name), msg)
-    return rd.error(key, msg)
+def _scan_parameter(rd: _Reader, s: dict, key: tuple, model: ModelDef) -> str:
+    """The ``parameter`` of a [scan] table (or of its ``second``): a shared parameter of a built-in term."""
+    param = rd.get(s, key, "parameter", "str")
+    if param not in model.builtin_parameters():
+        raise rd.error(key + ("parameter",),
+                       f"a scan varies a parameter of a built-in term of model {model.name!r} "
+                       f"({', '.join(sorted(model.builtin_parameters())) or 'none'}); {param!r} is not one")
+    for entry in model.entries:
+        if entry.model_file and param in entry.params:
+            raise rd.error(key + ("parameter",), f"the model file {entry.model_file} of model {model.name!r} takes "
+                                                 f"{param!r} too and would keep its value; scan a model whose "
+                                                 "files do not take it")
+    return param
 
 
-def _read_model(rd: _Reader, name: str, data: Any, key: tuple, units: str) -> ModelDef:
-    from ..potentials import TERMS
-    from ..potentials.expression import parse_expression
-
-    rd.convert(data, key, "table")
-    rd.keys(data, key, _MODEL)
-    lists = {}
-    for k in ("terms", "scalar_terms", "expressions", "scalar_expressions"):
-        lists[k] = tuple(rd.get(data, key, k, "list:str", []))
-    for k in ("terms", "scalar_terms"):
-        for i, t in enumerate(lists[k]):
-            if t.strip().lower() not in TERMS:
-                raise rd.error(key + (k, i), f"unknown built-in term {t!r}; built-ins are {', '.join(sorted(TERMS))}")
-        lists[k] = tuple(t.strip().lower() for t in lists[k])
-    expr_params: set = set()
-    for k in ("expressions", "scalar_expressions"):
-        for i, text in enumerate(lists[k]):
-            try:
-                expr_params |= set(parse_expression(text).parameter_names)
-            except ValueError as exc:
-                raise rd.error(key + (k, i), str(exc)) from None
-    params_raw = rd.get(data, key, "params", "table", {})
-    params = {p: rd.convert(v, key + ("params", p), "number") for p, v in params_raw.items()}
-    entries = []
-    raw_entries = data.get("term", [])
-    if not isinstance(raw_entries, list) or not all(isinstance(e, dict) for e in raw_entries):
-        raise rd.error(key + ("term",), "write each term with its own parameters as [[models.NAME.term]]")
-    for i, e in enumerate(raw_entries):
-        ekey = key + ("term", i)
-        rd.keys(e, ekey, _ENTRY)
-        if ("name" in e) == ("expression" in e):
-            raise rd.error(ekey, "give exactly one of name = \"<built-in>\" or expression = \"...\"")
-        tname = rd.get(e, ekey, "name", "str", None)
-        if tname is not None and tname.strip().lower() not in TERMS:
-            raise rd.error(ekey + ("name",), f"unknown built-in term {tname!r}; built-ins are {', '.join(sorted(TERMS))}")
-        expr = rd.get(e, ekey, "expression", "str", None)
-        role = rd.get(e, ekey, "role", "str", "vector")
-        if role not in ("vector", "scalar"):
-            raise rd.error(ekey + ("role",), f"must be \"vector\" or \"scalar\", got {role!r}")
-        eparams = {p: rd.convert(v, ekey + ("params", p), "number")
-                   for p, v in rd.get(e, ekey, "params", "table", {}).items()}
-        entry = TermEntry(ekey, tname.strip().lower() if tname else None, expr, role, eparams)
+def _scan_values(rd: _Reader, s: dict, key: tuple, max_points: int, model: ModelDef, units: str,
+                 param: str) -> tuple[float, ...]:
+    """The values of one scanned parameter: ``values = [...]`` or ``range = {...}`` of a [scan] table
+    (or of its ``second`` table), each checked by building the model with it."""
+    too_many = (f"is more than the limit of {max_points}; use fewer, or raise it with max_points = N in this "
+                "[scan] section")
+    if ("values" in s) == ("range" in s):
+        raise rd.error(key + ("values",), "give exactly one of values = [...] or range = {...}", at=key)
+    if "values" in s:
+        values = tuple(rd.get(s, key, "values", "list:number"))
+        if not values:
+            raise rd.error(key + ("values",), "give at least one value")
+        if len(values) > max_points:
+            raise rd.error(key + ("values",), f"{len(values)} values {too_many}")
+    else:
+        r = rd.get(s, key, "range", "table")
+        rk = key + ("range",)
+        rd.keys(r, rk, _RANGE, required=("start", "stop", "num"))
+        start, stop = rd.get(r, rk, "start", "number"), rd.get(r, rk, "stop", "number")
+        num = rd.get(r, rk, "num", "int")
+        if num < 2:
+            raise rd.error(rk + ("num",), f"must be >= 2, got {num}")
+        if num > max_points:
+            raise rd.error(rk + ("num",), f"{num} points {too_many}")
+        spacing = rd.get(r, rk, "spacing", "str", "linear")
+        if spacing not in ("linear", "log"):
+            raise rd.error(rk + ("spacing",), f"must be \"linear\" or \"log\", got {spacing!r}")
+        if spacing == "log" and not (start > 0 and stop > 0):
+            raise rd.error(rk + ("start",), "a log range needs start > 0 and stop > 0")
+        grid = np.geomspace(start, stop, num) if spacing == "log" else np.linspace(start, stop, num)
+        values = tuple(float(v) for v in grid)
+    for v in values:
         try:
-            entry.build(units)
+            model.potential(units, {param: v})
         except ValueError as exc:
-            raise _param_error(rd, exc, ekey, eparams) from None
-        entries.append(entry)
-    model = ModelDef(name=name, key=key, label=rd.get(data, key, "label", "str", name), params=params,
-                     entries=tuple(entries), **lists)
-    if not (model.terms or model.scalar_terms or model.expressions or model.scalar_expressions or model.entries):
-        raise rd.error(key, "the model has no terms; add terms = [\"coulomb\"], expressions = [...] or a "
-                            f"[[models.{name}.term]]")
-    known = model.builtin_parameters() | expr_params
-    for p in params:
-        if p not in known:
-            raise rd.error(key + ("params", p), f"no term of model {name!r} takes this parameter; its terms take "
-                                                f"{', '.join(sorted(known)) or 'none'}")
-    try:
-        model.potential(units)
-    except ValueError as exc:
-        raise _param_error(rd, exc, key, params) from None
-    return model
+            raise rd.error(key + ("values" if "values" in s else "range",), f"value {v:g}: {exc}") from None
+    return values
 
 
 def _check_studies_available(rd: _Reader, key: tuple, section: str, function: str) -> None:
@@ -337,7 +234,7 @@ def _check_studies_available(rd: _Reader, key: tuple, section: str, function: st
                             "does not provide; remove the section")
 
 
-def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
+def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool = False) -> RunSpec:
     """Read and check a run spec.
 
     Parameters
@@ -346,6 +243,11 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         The TOML file (see the module docstring for the format).
     text : str, optional
         The file's contents, when already read.
+    all_errors : bool
+        Go on after an error in the particle, a model or a study section and
+        report every such error (:class:`SpecErrors`, one per line) instead
+        of the first; errors in the top-level settings still stop at once
+        (the rest depends on them). ``boundkit run --dry-run`` uses this.
 
     Returns
     -------
@@ -356,9 +258,10 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
     ValueError
         For an unreadable file, invalid TOML, an unknown key, a wrong type, a
         missing field or an unusable value; the message names the file, the
-        key and its line.
+        key and its line (:class:`SpecErrors`, a ValueError, with ``all_errors``).
     """
     path = Path(path)
+    errs = _Errors(all_errors)
     if text is None:
         try:
             text = path.read_text(encoding="utf-8")
@@ -398,23 +301,25 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
         raise rd.error(("figure_format",), f"must be one of {', '.join(_FORMATS)}, got {fmt!r}")
 
     # particle
-    pdata = rd.get(data, (), "particle", "table", {})
-    rd.keys(pdata, ("particle",), ("name", "mass_mev", "nucleus_mass_mev"))
-    pname = rd.get(pdata, ("particle",), "name", "str", None)
-    pmass = rd.get(pdata, ("particle",), "mass_mev", "number", None)
-    nmass = rd.get(pdata, ("particle",), "nucleus_mass_mev", "number", None)
-    if pmass is not None:
-        rd.positive(pmass, ("particle", "mass_mev"))
-    if nmass is not None:
-        rd.positive(nmass, ("particle", "nucleus_mass_mev"))
-    if pmass is None and pname is not None:
-        try:
-            get_particle(pname.strip().lower())
-        except ValueError as exc:
-            raise rd.error(("particle", "name"), str(exc).split(": ", 1)[-1] +
-                           "; or give mass_mev = ... for another particle") from None
-        pname = pname.strip().lower()
-    particle = ParticleSpec(pname, pmass, nmass)
+    particle = ParticleSpec()
+    with errs.attempt():
+        pdata = rd.get(data, (), "particle", "table", {})
+        rd.keys(pdata, ("particle",), ("name", "mass_mev", "nucleus_mass_mev"))
+        pname = rd.get(pdata, ("particle",), "name", "str", None)
+        pmass = rd.get(pdata, ("particle",), "mass_mev", "number", None)
+        nmass = rd.get(pdata, ("particle",), "nucleus_mass_mev", "number", None)
+        if pmass is not None:
+            rd.positive(pmass, ("particle", "mass_mev"))
+        if nmass is not None:
+            rd.positive(nmass, ("particle", "nucleus_mass_mev"))
+        if pmass is None and pname is not None:
+            try:
+                get_particle(pname.strip().lower())
+            except ValueError as exc:
+                raise rd.error(("particle", "name"), str(exc).split(": ", 1)[-1] +
+                               "; or give mass_mev = ... for another particle") from None
+            pname = pname.strip().lower()
+        particle = ParticleSpec(pname, pmass, nmass)
 
     # defaults for the studies
     equations = tuple(_equation(rd, e, ("equations", i))
@@ -431,146 +336,137 @@ def load_spec(path: str | os.PathLike, text: str | None = None) -> RunSpec:
     mdata = rd.get(data, (), "models", "table")
     if not mdata:
         raise rd.error(("models",), "define at least one model, e.g. [models.point] with terms = [\"coulomb\"]")
-    models = {name: _read_model(rd, name, m, ("models", name), units) for name, m in mdata.items()}
+    models = {}
+    for name, m in mdata.items():
+        with errs.attempt(lambda name=name: rd.bad_models.add(name)):
+            models[name] = _read_model(rd, name, m, ("models", name), units)
 
     if not any(s in data for s in STUDY_SECTIONS):
-        raise rd.error(("solve",), "the spec asks for no study; add at least one of "
-                                   + ", ".join(f"[{s}]" for s in STUDY_SECTIONS), at=())
+        errs.found.append(rd.error(("solve",), "the spec asks for no study; add at least one of "
+                                               + ", ".join(f"[{s}]" for s in STUDY_SECTIONS), at=()))
 
     solve_sec = None
     if "solve" in data:
-        key = ("solve",)
-        s = rd.convert(data["solve"], key, "table")
-        rd.keys(s, key, _SOLVE)
-        names = tuple(rd.get(s, key, "models", "list:str", list(models)))
-        for i, n in enumerate(names):
-            if n not in models:
-                raise rd.error(key + ("models", i), f"no model {n!r}; the spec defines {', '.join(models)}")
-        eqs = tuple(_equation(rd, e, key + ("equations", i))
-                    for i, e in enumerate(rd.get(s, key, "equations", "list:str", list(equations))))
-        figs = tuple(rd.get(s, key, "figures", "list:str", list(_FIGURES)))
-        for i, f in enumerate(figs):
-            if f not in _FIGURES:
-                raise rd.error(key + ("figures", i), f"unknown figure {f!r}; choose from {', '.join(_FIGURES)}")
-        ref = rd.get(s, key, "reference", "str", None)
-        if ref is not None and ref not in names:
-            raise rd.error(key + ("reference",), f"the reference must be one of the solved models: {', '.join(names)}")
-        m, o = _method(rd, s, key, method, order)
-        solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels or 1),
-                                 _tolerance(rd, s, key, tolerance), m, o, figs,
-                                 rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
-                                 rd.get(s, key, "states", "bool", False))
+        with errs.attempt():
+            key = ("solve",)
+            s = rd.convert(data["solve"], key, "table")
+            rd.keys(s, key, _SOLVE)
+            names = tuple(rd.get(s, key, "models", "list:str", list(models)))
+            for i, n in enumerate(names):
+                if n not in models:
+                    _skip_bad_model(rd, n)
+                    raise rd.error(key + ("models", i), f"no model {n!r}; the spec defines {', '.join(models)}")
+            eqs = tuple(_equation(rd, e, key + ("equations", i))
+                        for i, e in enumerate(rd.get(s, key, "equations", "list:str", list(equations))))
+            figs = tuple(rd.get(s, key, "figures", "list:str", list(_FIGURES)))
+            for i, f in enumerate(figs):
+                if f not in _FIGURES:
+                    raise rd.error(key + ("figures", i), f"unknown figure {f!r}; choose from {', '.join(_FIGURES)}")
+            ref = rd.get(s, key, "reference", "str", None)
+            if ref is not None and ref not in names:
+                raise rd.error(key + ("reference",),
+                               f"the reference must be one of the solved models: {', '.join(names)}")
+            m, o = _method(rd, s, key, method, order)
+            solve_sec = SolveSection(key, names, eqs, _channels(rd, s, key, channels), _levels(rd, s, key, levels or 1),
+                                     _tolerance(rd, s, key, tolerance), m, o, figs,
+                                     rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
+                                     rd.get(s, key, "states", "bool", False))
 
     converge_secs = []
     for key, s in _sections(rd, data, "converge"):
-        rd.keys(s, key, _CONVERGE, required=("model",))
-        ch = (_channel(rd, s["channel"], key + ("channel",)),) if "channel" in s else channels[:1]
-        meths = tuple(rd.get(s, key, "methods", "list:str", ["spectral", "finite-difference"]))
-        for i, mth in enumerate(meths):
-            if mth not in ("spectral", "finite-difference"):
-                raise rd.error(key + ("methods", i), f"must be spectral or finite-difference, got {mth!r}")
-        converge_secs.append(ConvergeSection(
-            key, _model_name(rd, s, key, models),
-            _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
+        with errs.attempt():
+            rd.keys(s, key, _CONVERGE, required=("model",))
+            ch = (_channel(rd, s["channel"], key + ("channel",)),) if "channel" in s else channels[:1]
+            meths = tuple(rd.get(s, key, "methods", "list:str", ["spectral", "finite-difference"]))
+            for i, mth in enumerate(meths):
+                if mth not in ("spectral", "finite-difference"):
+                    raise rd.error(key + ("methods", i), f"must be spectral or finite-difference, got {mth!r}")
+            converge_secs.append(ConvergeSection(
+                key, _model_name(rd, s, key, models),
+                _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
+                ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
 
     scan_secs = []
     for key, s in _sections(rd, data, "scan"):
-        rd.keys(s, key, _SCAN, required=("model", "parameter"))
-        _check_studies_available(rd, key, "scan", "scan")
-        model = _model_name(rd, s, key, models)
-        param = rd.get(s, key, "parameter", "str")
-        if param not in models[model].builtin_parameters():
-            raise rd.error(key + ("parameter",),
-                           f"a scan varies a parameter of a built-in term of model {model!r} "
-                           f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); "
-                           f"{param!r} is not one")
-        if ("values" in s) == ("range" in s):
-            raise rd.error(key + ("values",), "give exactly one of values = [...] or range = {...}", at=key)
-        max_points = rd.get(s, key, "max_points", "int", MAX_GRID_POINTS)
-        if max_points < 1:
-            raise rd.error(key + ("max_points",), f"must be >= 1, got {max_points}")
-        too_many = (f"is more than the limit of {max_points}; use fewer, or raise it with max_points = N in this "
-                    "[scan] section")
-        if "values" in s:
-            values = tuple(rd.get(s, key, "values", "list:number"))
-            if not values:
-                raise rd.error(key + ("values",), "give at least one value")
-            if len(values) > max_points:
-                raise rd.error(key + ("values",), f"{len(values)} values {too_many}")
-        else:
-            r = rd.get(s, key, "range", "table")
-            rk = key + ("range",)
-            rd.keys(r, rk, _RANGE, required=("start", "stop", "num"))
-            start, stop = rd.get(r, rk, "start", "number"), rd.get(r, rk, "stop", "number")
-            num = rd.get(r, rk, "num", "int")
-            if num < 2:
-                raise rd.error(rk + ("num",), f"must be >= 2, got {num}")
-            if num > max_points:
-                raise rd.error(rk + ("num",), f"{num} points {too_many}")
-            spacing = rd.get(r, rk, "spacing", "str", "linear")
-            if spacing not in ("linear", "log"):
-                raise rd.error(rk + ("spacing",), f"must be \"linear\" or \"log\", got {spacing!r}")
-            if spacing == "log" and not (start > 0 and stop > 0):
-                raise rd.error(rk + ("start",), "a log range needs start > 0 and stop > 0")
-            grid = np.geomspace(start, stop, num) if spacing == "log" else np.linspace(start, stop, num)
-            values = tuple(float(v) for v in grid)
-        for i, v in enumerate(values):
-            try:
-                models[model].potential(units, {param: v})
-            except ValueError as exc:
-                raise rd.error(key + ("values" if "values" in s else "range",), f"value {v:g}: {exc}") from None
-        m, _o = _method(rd, s, key, method, None)
-        workers = _workers(rd, s, key)
-        scan_secs.append(ScanSection(
-            key, model, param, values,
-            _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-            _channels(rd, s, key, channels), _levels(rd, s, key, levels or 3), _tolerance(rd, s, key, tolerance), m,
-            workers, _pairs(rd, s, key), max_points))
+        with errs.attempt():
+            rd.keys(s, key, _SCAN, required=("model", "parameter"))
+            _check_studies_available(rd, key, "scan", "scan")
+            model = _model_name(rd, s, key, models)
+            param = _scan_parameter(rd, s, key, models[model])
+            max_points = rd.get(s, key, "max_points", "int", MAX_GRID_POINTS)
+            if max_points < 1:
+                raise rd.error(key + ("max_points",), f"must be >= 1, got {max_points}")
+            values = _scan_values(rd, s, key, max_points, models[model], units, param)
+            second = None
+            if "second" in s:
+                skey = key + ("second",)
+                s2 = rd.get(s, key, "second", "table")
+                rd.keys(s2, skey, _SECOND, required=("parameter",))
+                p2 = _scan_parameter(rd, s2, skey, models[model])
+                if p2 == param:
+                    raise rd.error(skey + ("parameter",), f"{p2!r} is the first parameter already; name another")
+                values2 = _scan_values(rd, s2, skey, max_points, models[model], units, p2)
+                if len(values) * len(values2) > max_points:
+                    raise rd.error(skey, f"{len(values)} x {len(values2)} = {len(values) * len(values2)} grid points "
+                                         f"is more than the limit of {max_points}; use fewer, or raise it with "
+                                         "max_points = N in this [scan] section")
+                second = (p2, values2)
+            m, _o = _method(rd, s, key, method, None)
+            workers = _workers(rd, s, key)
+            scan_secs.append(ScanSection(
+                key, model, param, values,
+                _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
+                _channels(rd, s, key, channels), _levels(rd, s, key, levels or 3),
+                _tolerance(rd, s, key, tolerance), m, workers, _pairs(rd, s, key), max_points, second))
 
     critical_secs = []
     for key, s in _sections(rd, data, "critical"):
-        rd.keys(s, key, _CRITICAL, required=("model", "states"))
-        _check_studies_available(rd, key, "critical", "critical")
-        model = _model_name(rd, s, key, models)
-        param = rd.get(s, key, "parameter", "str", "screening_length")
-        if param not in models[model].builtin_parameters():
-            raise rd.error(key + ("parameter",),
-                           f"must be a parameter of a built-in term of model {model!r} "
-                           f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); got {param!r}")
-        states = tuple(x.strip() for x in rd.get(s, key, "states", "list:str"))
-        if not states:
-            raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
-        for i, st in enumerate(states):
-            if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
-                raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
-                                                    "\"2p3/2\"")
-        eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
-        for i, st in enumerate(states):
-            if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
-                raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
-                                                    f"or \"{st}3/2\"")
-        bracket = rd.get(s, key, "bracket", "list:number", None)
-        if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
-            raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
-        kind = rd.get(s, key, "kind", "str", None)
-        if kind is not None and kind not in ("unbind", "dive"):
-            raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
-        etol = _tolerance(rd, s, key, 1e-10, "energy_tol")
-        critical_secs.append(CriticalSection(
-            key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
-            etol, kind, _workers(rd, s, key)))
+        with errs.attempt():
+            rd.keys(s, key, _CRITICAL, required=("model", "states"))
+            _check_studies_available(rd, key, "critical", "critical")
+            model = _model_name(rd, s, key, models)
+            param = rd.get(s, key, "parameter", "str", "screening_length")
+            if param not in models[model].builtin_parameters():
+                raise rd.error(key + ("parameter",),
+                               f"must be a parameter of a built-in term of model {model!r} "
+                               f"({', '.join(sorted(models[model].builtin_parameters())) or 'none'}); got {param!r}")
+            states = tuple(x.strip() for x in rd.get(s, key, "states", "list:str"))
+            if not states:
+                raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
+            for i, st in enumerate(states):
+                if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
+                    raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
+                                                        "\"2p3/2\"")
+            eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
+            for i, st in enumerate(states):
+                if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
+                    raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
+                                                        f"or \"{st}3/2\"")
+            bracket = rd.get(s, key, "bracket", "list:number", None)
+            if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
+                raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
+            kind = rd.get(s, key, "kind", "str", None)
+            if kind is not None and kind not in ("unbind", "dive"):
+                raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
+            etol = _tolerance(rd, s, key, 1e-10, "energy_tol")
+            critical_secs.append(CriticalSection(
+                key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),
+                etol, kind, _workers(rd, s, key)))
 
     compare_secs = []
     for key, s in _sections(rd, data, "compare"):
-        rd.keys(s, key, _COMPARE, required=("model",))
-        _check_studies_available(rd, key, "compare", "compare")
-        l_max = rd.get(s, key, "l_max", "int", 1)
-        if not 0 <= l_max <= MAX_L:
-            raise rd.error(key + ("l_max",), f"must lie between 0 and {MAX_L}, got {l_max}")
-        compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max, _levels(rd, s, key, levels or 2),
-                                           _tolerance(rd, s, key, tolerance)))
+        with errs.attempt():
+            rd.keys(s, key, _COMPARE, required=("model",))
+            _check_studies_available(rd, key, "compare", "compare")
+            l_max = rd.get(s, key, "l_max", "int", 1)
+            if not 0 <= l_max <= MAX_L:
+                raise rd.error(key + ("l_max",), f"must lie between 0 and {MAX_L}, got {l_max}")
+            compare_secs.append(CompareSection(key, _model_name(rd, s, key, models), l_max,
+                                               _levels(rd, s, key, levels or 2),
+                                               _tolerance(rd, s, key, tolerance)))
 
+    if errs.found:
+        raise SpecErrors(errs.found)
     return RunSpec(path=path, text=text, title=title.strip(), description=description.strip(), units=units,
                    energy_unit=e_unit, length_unit=l_unit, labels=labels, figure_format=fmt, particle=particle,
                    equations=equations, channels=channels, levels=levels, tolerance=tolerance, method=method,

@@ -1,4 +1,4 @@
-"""The [converge], [scan], [critical] and [compare] sections of a run: each calls its
+"""The [converge], [critical] and [compare] sections of a run ([scan]: :mod:`.scan_runner`): each calls its
 public study (:mod:`boundkit.accuracy`, :mod:`boundkit.studies`), writes its
 table and figure, and adds its section of the report.
 
@@ -17,20 +17,16 @@ import math
 import os
 from typing import Any
 
-import numpy as np
-
 from .._threads import one_blas_thread
-from .figures import _scan_figure
-from ..reporting import difference_error, format_difference
-from ..states import convert_label, label_sort_key
-from .files import _clean, _csv_text, _csv_with_units, _fmt, _slug
-from .objects import CompareSection, ConvergeSection, CriticalSection, ScanSection, _channels_for
+from ..states import convert_label
+from .files import _clean, _csv_with_units, _fmt
+from .objects import CompareSection, ConvergeSection, CriticalSection
 
 log = logging.getLogger("boundkit.runspec.engine")
 
 
 class StudyRunners:
-    """Runs the [converge], [scan], [critical] and [compare] sections."""
+    """Runs the [converge], [critical] and [compare] sections."""
 
     def _converge(self, sec: ConvergeSection, suffix: str) -> None:
         from ..accuracy import converge
@@ -66,108 +62,6 @@ class StudyRunners:
             md.append("")
         self.md += md
 
-    def _scan(self, sec: ScanSection, suffix: str) -> None:
-        studies = importlib.import_module("boundkit.studies")
-        spec = self.spec
-        vector, scalar, params = spec.models[sec.model].arguments(spec.units)
-        channels = []
-        for kw, _name, _n in _channels_for(sec.channels, sec.equation, sec.levels):
-            channels.append(dict(kw))
-        levels = max(n for _kw, _name, n in _channels_for(sec.channels, sec.equation, sec.levels))
-        res = _call(studies.scan, equation=sec.equation, potential=vector, params=params,
-                    vary={sec.parameter: list(sec.values)}, channels=channels, levels=levels, tol=sec.tolerance,
-                    method=sec.method, workers=_workers(sec.workers), scalar=scalar or None, units=spec.units,
-                    max_points=sec.max_points * len(channels), labels=spec.labels, **self.particle_kwargs())
-        rows = [dict(r) for r in _rows_of(res)]
-        if hasattr(res, "to_csv"):
-            self.write(f"scan{suffix}.csv", res.to_csv(self.e_unit))
-        else:
-            self.write(f"scan{suffix}.csv", _csv_text(rows))
-        table = _scan_table(rows, sec.parameter)
-        for status in ("error", "tolerance-not-met"):
-            bad = [r for r in rows if r.get("status") == status]
-            if bad:
-                where = sorted({float(r[sec.parameter]) for r in bad if sec.parameter in r})
-                first = next((r.get("message") for r in bad if r.get("message")), "")
-                self.problems.append(f"scan{suffix} ({sec.model}): {len(bad)} level(s) with status {status} at "
-                                     f"{sec.parameter} = {', '.join(f'{v:g}' for v in where)}"
-                                     + (f" ({first})" if first else ""))
-        caption = f"Levels against {sec.parameter}, model {sec.model}"
-        try:
-            figures = importlib.import_module("boundkit.studies.figures")
-            self.figure(f"scan{suffix}", caption, lambda p: _call(figures.scan_figure, result=res, path=p,
-                                                                  unit=self.e_unit,
-                                                                  subject=spec.models[sec.model].label))
-        except ImportError:
-            log.info("boundkit.studies.figures is not available; drawing the scan with the run engine's own figure")
-            self.figure(f"scan{suffix}", caption,
-                        lambda p: _scan_figure(table, sec.parameter, self.e_unit, p,
-                                               x_unit=getattr(res, "parameter_units", {}).get(sec.parameter, ""),
-                                               title=f"{spec.models[sec.model].label}: levels against "
-                                                     f"{sec.parameter}"))
-        entry = {"model": sec.model, "equation": sec.equation, "parameter": sec.parameter,
-                 "values": list(sec.values), "energy_unit_of_rows": "hartree", "rows": rows}
-        if hasattr(res, "to_dict"):
-            try:
-                entry["result"] = _clean(res.to_dict())
-            except Exception:  # noqa: BLE001 - a richer record is optional
-                pass
-        md = [f"## Scan{suffix}: levels against {sec.parameter}", "",
-              f"Model {sec.model}, {sec.equation} equation, {len(sec.values)} values of {sec.parameter} from "
-              f"{min(sec.values):g} to {max(sec.values):g} (table `scan{suffix}.csv`, energies in {self.e_unit}).", ""]
-        if table:
-            labels = sorted({lab for per in table.values() for lab in per},
-                            key=lambda lab: label_sort_key(lab, spec.labels))
-            md += [f"| {sec.parameter} | " + " | ".join(f"{lab} ({self.e_unit})" for lab in labels) + " |",
-                   "|---:|" + "---:|" * len(labels)]
-            for v in sorted(table):
-                md.append(f"| {v:g} | " + " | ".join(_fmt(self.E(table[v].get(lab)), 10) for lab in labels) + " |")
-            md.append("")
-            gone = [lab for lab in labels if any(lab not in table[v] for v in table)]
-            if gone:
-                md.append("A blank (-) means the level was not found bound at that value.")
-                md.append("")
-        diffs = []
-        p_unit = getattr(res, "parameter_units", {}).get(sec.parameter, "")
-        errors = _scan_table(rows, sec.parameter, "error_estimate")
-        for a, b in sec.differences:
-            pts = [(v, table[v][a] - table[v][b],
-                    difference_error(table[v][a], table[v][b], errors.get(v, {}).get(a, 0.0),
-                                     errors.get(v, {}).get(b, 0.0)))
-                   for v in sorted(table) if a in table[v] and b in table[v]]
-            if not pts:
-                self.problems.append(f"scan{suffix}: E({a}) - E({b}) not available at any value")
-                continue
-            item = {"a": a, "b": b, "values": [p[0] for p in pts], "difference": [self.E(p[1]) for p in pts],
-                    "error_estimate": [self.E(p[2]) for p in pts], "difference_hartree": [p[1] for p in pts],
-                    "units": {"values": p_unit or "1", "difference": self.e_unit, "error_estimate": self.e_unit}}
-            name = f"E({a}) - E({b})"
-            self.figure(f"scan{suffix}-difference-{_slug(a)}-{_slug(b)}",
-                        f"{name} against {sec.parameter}, model {sec.model}",
-                        lambda p, pts=pts, name=name: importlib.import_module("boundkit.studies.figures")
-                        .difference_figure([q[0] for q in pts], [self.E(q[1]) for q in pts], p, name=name,
-                                           unit=self.e_unit, parameter=sec.parameter, parameter_unit=p_unit,
-                                           error=[self.E(q[2]) for q in pts],
-                                           title=f"{spec.models[sec.model].label}: {name} against {sec.parameter}"))
-            if len(pts) >= 2:
-                slope = float(np.polyfit([p[0] for p in pts], [p[1] for p in pts], 1)[0])   # hartree per unit
-                item["slope_per_parameter"] = self.E(slope)
-            diffs.append(item)
-            pu = f" {p_unit}" if p_unit else ""
-            line = f"E({a}) - E({b}) ({self.e_unit}) at {sec.parameter} = " + ", ".join(
-                f"{v:g}{pu}: {format_difference(self.E(d), self.E(e), 8)}" for v, d, e in pts) + "."
-            if "slope_per_parameter" in item:
-                per = f"{self.e_unit}/{p_unit}" if p_unit else f"{self.e_unit} per unit of {sec.parameter}"
-                item["slope_unit"] = per
-                line += f" Least-squares slope: {_fmt(item['slope_per_parameter'], 5)} {per}."
-                self.headline.append(f"scan of {sec.parameter} ({sec.model}): d[E({a}) - E({b})]/d{sec.parameter} = "
-                                     f"{_fmt(item['slope_per_parameter'], 5)} {per}")
-            md += [line, ""]
-        if diffs:
-            entry["differences"] = diffs
-        self.results.setdefault("scan", []).append(_clean(entry))
-        self.md += md
-
     def _critical(self, sec: CriticalSection, suffix: str) -> None:
         spec = self.spec
         vector, scalar, params = spec.models[sec.model].arguments(spec.units)
@@ -176,7 +70,7 @@ class StudyRunners:
                      energy_tol=sec.energy_tolerance, method=spec.method, kind=sec.kind, scalar=scalar or None,
                      units=spec.units, labels=spec.labels, **self.particle_kwargs()) for state in sec.states]
         rows = []
-        for state, (ok, got) in zip(sec.states, _map_jobs(_critical_job, jobs, sec.workers)):
+        for state, (ok, got) in zip(sec.states, _map_jobs(_critical_job, jobs, sec.workers, self.tick)):
             if not ok:
                 self.problems.append(f"critical {sec.parameter} of {state} ({sec.model}): {got}")
                 rows.append({"state": state, "error": got})
@@ -280,24 +174,6 @@ def _rows_of_dict(data: dict) -> list[dict]:
     return []
 
 
-def _scan_table(rows: list[dict], parameter: str, key: str = "energy") -> dict[float, dict[str, float]]:
-    """{parameter value: {level label: energy (or ``key``, e.g. error_estimate) in hartree}} from scan rows."""
-    out: dict[float, dict[str, float]] = {}
-    for r in rows:
-        value = r.get(parameter, r.get("value"))
-        label = r.get("label")
-        energy = r.get(f"{key}_hartree", r.get(key))
-        if value is None or label is None or energy is None:
-            continue
-        try:
-            value, energy = float(value), float(energy)
-        except (TypeError, ValueError):
-            continue
-        if math.isfinite(energy):
-            out.setdefault(value, {})[str(label)] = energy
-    return out
-
-
 def _critical_job(kwargs: dict) -> tuple[bool, Any]:
     """One critical search (top level, so that worker processes can run it).
 
@@ -323,22 +199,36 @@ def _workers(workers: int | None) -> int | None:
     return workers
 
 
-def _map_jobs(func, jobs: list, workers: int | None) -> list:
-    """``[func(job) for job in jobs]``, on up to ``workers`` processes (default: all cores)."""
+def _map_jobs(func, jobs: list, workers: int | None, on_done=None) -> list:
+    """``[func(job) for job in jobs]``, on up to ``workers`` processes (default: all cores);
+    ``on_done()`` is called after each finished job."""
+    on_done = on_done or (lambda: None)
+
+    def here() -> list:
+        out = []
+        for j in jobs:
+            out.append(func(j))
+            on_done()
+        return out
+
     workers = min(_workers(workers) or os.cpu_count() or 1, len(jobs))
     if workers <= 1:
-        return [func(j) for j in jobs]
+        return here()
     try:
         import pickle
 
         pickle.dumps(jobs)
     except Exception as exc:  # noqa: BLE001 - unpicklable terms: run here instead
         log.info("jobs cannot go to worker processes (%s); running them here", exc)
-        return [func(j) for j in jobs]
+        return here()
     from concurrent.futures import ProcessPoolExecutor
 
+    out = []
     with ProcessPoolExecutor(max_workers=workers) as pool:
-        return list(pool.map(func, jobs))
+        for got in pool.map(func, jobs):
+            out.append(got)
+            on_done()
+    return out
 
 
 def _critical_value(row: dict, parameter: str) -> float | None:

@@ -196,9 +196,8 @@ def free_zero_count(l: int, x: float) -> int:
     """Number of zeros of the Riccati-Bessel function x j_l(x) on (0, x)."""
     if x <= l:
         return 0     # the first zero of j_l lies above l + 1/2
-    xs = np.arange(max(l, 1e-3), x, 0.05)
-    if not xs.size:
-        return 0
+    # the grid ends at x itself: a zero between the last step and x counts (it decides the branch)
+    xs = np.append(np.arange(max(l, 1e-3), x, 0.05), x)
     v = np.sign(spherical_jn(l, xs))
     v = v[v != 0]
     return int(np.count_nonzero(v[1:] != v[:-1]))

@@ -343,11 +343,11 @@ class ProgressBar:
     a terminal; a callable is not drawn but called as ``mode(done, total)``
     after every finished item (a hook; it may raise to stop the work). The
     bar appears only once ``delay`` seconds have passed, so a quick study
-    prints nothing.
+    prints nothing. ``unit`` names what is counted (``point``, ``solve``).
     """
 
     def __init__(self, total: int, mode: bool | None | Callable = None, label: str = "scan",
-                 delay: float = 2.0, stream=None) -> None:
+                 delay: float = 2.0, stream=None, unit: str = "point") -> None:
         self.total = total
         stream = stream if stream is not None else sys.stderr
         self.hook = mode if callable(mode) else None
@@ -358,7 +358,7 @@ class ProgressBar:
         if bool(mode) and self.hook is None:
             from tqdm import tqdm   # lazy: only a study that shows its progress pays for it
 
-            self.bar = tqdm(total=total, desc=label, unit="point", file=stream, delay=delay, leave=True,
+            self.bar = tqdm(total=total, desc=label, unit=unit, file=stream, delay=delay, leave=True,
                             dynamic_ncols=True, ascii=True)
 
     def update(self, done: int) -> None:

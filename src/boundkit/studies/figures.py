@@ -12,7 +12,7 @@ from .. import palette
 from ..plots import plt, save_figure
 from ..units import energy_unit
 
-__all__ = ["scan_figure", "difference_figure", "log_spaced", "potential_title"]
+__all__ = ["scan_figure", "difference_figure", "family_figure", "log_spaced", "potential_title"]
 
 _STYLES = ("-", "--", ":", "-.")
 
@@ -199,4 +199,79 @@ def difference_figure(x, y, path, *, name: str, unit: str, parameter: str, param
     ax.set_ylabel(f"{name} ({unit})")
     ax.set_title(title or f"{name} against {parameter}", fontsize=10)
     ax.grid(True, alpha=0.3)
+    return save_figure(fig, path)
+
+
+def family_figure(panels, path, *, parameter: str, parameter_unit: str = "", second: str,
+                  second_unit: str = "", ylabel: str, title: str | None = None, logx: bool | None = None,
+                  max_panels: int = 6) -> Path:
+    """A two-parameter scan as families of curves: one panel per quantity (a level, a difference),
+    in each one curve per value of the second parameter against the first, coloured along a
+    sequential colour map with a colour bar for the second parameter.
+
+    Parameters
+    ----------
+    panels : sequence of (str, sequence of (float, array_like, array_like))
+        ``(panel title, [(second value, x, y), ...])``; y NaN where the quantity is absent.
+    path : path
+        Output file (.png, .svg or .pdf).
+    parameter, parameter_unit : str
+        The first parameter (horizontal axis) and its unit.
+    second, second_unit : str
+        The second parameter (colour) and its unit.
+    ylabel : str
+        Vertical axis label, unit included.
+    title : str, optional
+    logx : bool, optional
+        Logarithmic first-parameter axis (default: :func:`log_spaced`).
+    max_panels : int
+        Most panels drawn (the first ones); the title says how many were left out.
+
+    Notes
+    -----
+    The colour of a curve is the value of the second parameter (log scale when its values are
+    log-spaced), so the reader follows the trend across the family without a legend per curve.
+    """
+    import matplotlib as mpl
+
+    panels = list(panels)
+    shown = panels[:max_panels]
+    n = max(1, len(shown))
+    ncols = min(3, n)
+    nrows = -(-n // ncols)
+    fig, axes = plt.subplots(nrows, ncols, figsize=(3.6 * ncols + 1.2, 3.0 * nrows + 0.9), squeeze=False,
+                             sharex=True)
+    seconds = sorted({float(v) for _name, curves in shown for v, _x, _y in curves})
+    log_second = log_spaced(seconds)
+    if seconds and len(seconds) > 1:
+        norm = (mpl.colors.LogNorm if log_second else mpl.colors.Normalize)(vmin=seconds[0], vmax=seconds[-1])
+    else:
+        norm = mpl.colors.Normalize(vmin=(seconds or [0.0])[0] - 1, vmax=(seconds or [0.0])[0] + 1)
+    cmap = mpl.colormaps["viridis"]
+    xs_all = []
+    for ax, (name, curves) in zip(axes.flat, shown):
+        for v, x, y in curves:
+            x, y = np.asarray(x, float), np.asarray(y, float)
+            order = np.argsort(x)
+            xs_all.extend(x.tolist())
+            ax.plot(x[order], y[order], "o-", ms=2.5, lw=1.3, color=cmap(norm(v)))
+        ax.set_title(name, fontsize=9)
+        ax.grid(True, alpha=0.3)
+    for ax in list(axes.flat)[len(shown):]:
+        ax.set_visible(False)
+    uselog = logx if logx is not None else log_spaced(xs_all)
+    for ax in axes.flat:
+        if ax.get_visible() and uselog:
+            _log_axis(ax)
+    for col in range(ncols):           # the lowest panel drawn in each column carries the axis
+        lowest = max(r for r in range(nrows) if r * ncols + col < n)
+        axes[lowest, col].tick_params(labelbottom=True)
+        axes[lowest, col].set_xlabel(_axis_label(parameter, parameter_unit), fontsize=9)
+    for ax in axes[:, 0]:
+        ax.set_ylabel(ylabel, fontsize=9)
+    sm = mpl.cm.ScalarMappable(norm=norm, cmap=cmap)
+    bar = fig.colorbar(sm, ax=axes.ravel().tolist(), fraction=0.04, pad=0.03)
+    bar.set_label(_axis_label(second, second_unit), fontsize=9)
+    more = f" (first {len(shown)} of {len(panels)})" if len(panels) > len(shown) else ""
+    fig.suptitle((title or f"against {parameter} and {second}") + more, fontsize=10)
     return save_figure(fig, path)
