@@ -285,3 +285,17 @@ def argvs(draw):
 
 
 test_cli_arguments, test_cli_arguments_thorough = two_profiles({"argv": argvs()})(_cli_property)
+
+
+# --- cases the thorough runs found ------------------------------------------------------------
+@pytest.mark.parametrize("argv", [["run", "\x00"], ["solve", "Z=1", "3" * 400], ["solve", "3" * 400]])
+def test_cli_found_cases(monkeypatch, argv):
+    """A NUL byte in a path argument (os.stat raised ValueError: a traceback, exit 1) and a 400-
+    character stray argument (a 307-character line) must give one short line and exit 2."""
+    _cli_property(monkeypatch, argv)
+
+
+@pytest.mark.parametrize("text", ["01", "09**9**9", "__import____import____import__"])
+def test_expression_found_cases(text):
+    """Python's own syntax message (leading zeros) and a long '_' name kept the line over 300 characters."""
+    _expression_property(text)

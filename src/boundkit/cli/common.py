@@ -22,7 +22,7 @@ __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESS
 EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
 EXIT_INTERRUPTED = 130
-MAX_MESSAGE = 290
+MAX_MESSAGE = 280      # with "boundkit: error: " the line stays under 300 characters
 """Longest error line (characters); long quoted values in a message are shortened."""
 
 

@@ -33,6 +33,9 @@ class BoundkitGroup(click.Group):
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
         if not standalone_mode:
             return super().main(args, prog_name, complete_var, standalone_mode, **extra)
+        argv = args if args is not None else sys.argv[1:]
+        if any("\x00" in str(a) for a in argv):   # os.stat and open() would raise ValueError on it
+            fail("an argument contains a NUL character (\\x00); remove it")
         try:   # SIGTERM unwinds like Ctrl-C (temporary files go), for this command only
             previous = signal.signal(signal.SIGTERM, _on_sigterm)
         except ValueError:   # not the main thread (an embedding program)

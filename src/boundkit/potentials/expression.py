@@ -159,6 +159,27 @@ class _Source:
         return i if i >= 0 else lo
 
 
+_ALLOWED_SHORT = "allowed: r, numbers (1j), names, + - * / ** ( ), functions, where(c, a, b), pi, e"
+
+
+def _error(text: str) -> ValueError:
+    """A ValueError whose one line stays under 295 characters: when too long, the list of what is
+    allowed goes short first, then goes (the specific part before it names the problem and the
+    fix), and only then is the specific part cut in the middle."""
+    text = " ".join(text.split())
+    if len(text) <= 295:
+        return ValueError(text)
+    cut = text.find("; " + _ALLOWED)
+    if cut > 0:
+        rest = text[cut + 2 + len(_ALLOWED):]
+        text = text[:cut] + "; " + _ALLOWED_SHORT + rest
+        if len(text) > 295:
+            text = text[:cut] + rest
+    if len(text) > 295:
+        text = text[:200] + "..." + text[-92:]
+    return ValueError(text)
+
+
 def _short(token: str, limit: int = 40) -> str:
     token = " ".join(token.split())
     return token if len(token) <= limit else token[: limit - 3] + "..."
@@ -166,7 +187,7 @@ def _short(token: str, limit: int = 40) -> str:
 
 def _refuse(what: str, token: str, position: int, hint: str = "") -> ValueError:
     hint = f"; {hint}" if hint else ""
-    return ValueError(f"expression: {what} {_short(token)!r} at position {position} is not allowed{hint}; "
+    return _error(f"expression: {what} {_short(token)!r} at position {position} is not allowed{hint}; "
                       f"{_ALLOWED}")
 
 
@@ -209,7 +230,7 @@ class CompiledExpression:
             example = " ".join(f"--param {n}=VALUE" for n in missing)
             unit = ("; for the imaginary unit write 1j (e.g. 0.1j)"
                     if any(n in ("i", "j", "I", "J") for n in missing) else "")
-            raise ValueError(
+            raise _error(
                 f"expression: unknown name {where}: not r, pi, e or a function, so it is read as a "
                 f"parameter, and no value was given; give it with {example} "
                 f"(or params={{{', '.join(repr(n) + ': ...' for n in missing)}}}){unit}; {_ALLOWED}"
@@ -311,7 +332,7 @@ class _Translator:
 
     def visit(self, node: ast.AST, depth: int, in_condition: bool = False) -> tuple:
         if depth > MAX_DEPTH:
-            raise ValueError(f"expression: nesting deeper than {MAX_DEPTH} levels at "
+            raise _error(f"expression: nesting deeper than {MAX_DEPTH} levels at "
                              f"{_short(self.src.segment(node))!r}, position {self.pos(node)}, is not allowed; "
                              f"simplify the expression; {_ALLOWED}")
         if isinstance(node, ast.Constant):
@@ -489,7 +510,7 @@ def _bracket_depth(text: str, lead: int) -> None:
         if ch in "([{":
             depth += 1
             if depth > MAX_DEPTH:
-                raise ValueError(f"expression: nesting deeper than {MAX_DEPTH} brackets at {ch!r}, "
+                raise _error(f"expression: nesting deeper than {MAX_DEPTH} brackets at {ch!r}, "
                                  f"position {i + lead + 1}, is not allowed; simplify the expression; {_ALLOWED}")
         elif ch in ")]}":
             depth -= 1
@@ -529,7 +550,7 @@ def parse_expression(text: str) -> CompiledExpression:
     lead = len(text) - len(stripped)
     stripped = stripped.rstrip()
     if not stripped:
-        raise ValueError(f"expression: empty input; write a formula in r, e.g. -Z/r; {_ALLOWED}")
+        raise _error(f"expression: empty input; write a formula in r, e.g. -Z/r; {_ALLOWED}")
     for i, ch in enumerate(stripped):
         if not (ch.isprintable() or ch in "\n\t"):
             raise _refuse("control character", repr(ch)[1:-1], i + lead + 1)
@@ -547,7 +568,7 @@ def parse_expression(text: str) -> CompiledExpression:
             where = f"at position {position} (near {near!r})"
         else:
             where = "(no position reported)"
-        raise ValueError(f"expression: syntax error {where}: {exc.msg}; {_ALLOWED}") from None
+        raise _error(f"expression: syntax error {where}: {_short(exc.msg, 60)}; {_ALLOWED}") from None
     except (RecursionError, MemoryError):
         raise ValueError(f"expression: too deeply nested to parse; at most {MAX_DEPTH} levels") from None
     src = _Source(stripped, lead)
