@@ -460,3 +460,21 @@ def test_files_that_are_not_utf8_name_the_file(tmp_path):
         read_model_file(bad)
     one_line_error(cli("run", bad), r"latin1.toml: not UTF-8 text")
     one_line_error(cli("solve", "--potential-file", bad), r"latin1.toml: not UTF-8 text")
+
+
+def test_a_swallowed_sigterm_is_raised_again_at_the_next_progress_update():
+    """SIGTERM raised inside a finalizer is printed and dropped by Python ("Exception ignored");
+    the recorded signal is raised again at the next safe point (a progress update)."""
+    from boundkit import _signals
+    from boundkit.studies._common import ProgressBar
+
+    bar = ProgressBar(3, mode=False)
+    bar.update(1)
+    _signals._pending["code"] = 143
+    try:
+        with pytest.raises(_signals.Terminated) as info:
+            bar.update(2)
+        assert info.value.code == 143
+    finally:
+        _signals.reset()
+    bar.update(3)

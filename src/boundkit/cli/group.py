@@ -15,6 +15,7 @@ import warnings
 import click
 
 from .. import __version__
+from .._signals import Terminated, on_sigterm as _on_sigterm
 from .common import EXIT_BAD_INPUT, EXIT_INTERRUPTED, fail
 
 __all__ = ["main", "BoundkitGroup"]
@@ -63,6 +64,11 @@ class BoundkitGroup(click.Group):
         finally:
             if previous is not None:
                 signal.signal(signal.SIGTERM, previous)
+        from .._signals import pending
+
+        if pending():          # a SIGTERM whose raise a finalizer swallowed: still an interruption
+            click.echo("boundkit: interrupted", err=True)
+            sys.exit(pending())
         sys.exit(rv if isinstance(rv, int) else 0)
 
 
@@ -90,12 +96,6 @@ def _stdout_failed(exc: OSError) -> None:
     fail(f"cannot write the output ({exc.strerror or exc}); redirect it to a writable place")
 
 
-class Terminated(SystemExit):
-    """SIGTERM: unwinds like Ctrl-C (``finally`` blocks remove temporary files), exit 128 + 15."""
-
-
-def _on_sigterm(signum, frame):  # pragma: no cover - exercised in a subprocess test
-    raise Terminated(128 + signum)
 
 
 @click.group(cls=BoundkitGroup, context_settings={"help_option_names": ["-h", "--help"]})

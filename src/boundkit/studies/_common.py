@@ -362,7 +362,11 @@ class ProgressBar:
                             dynamic_ncols=True, ascii=True)
 
     def update(self, done: int) -> None:
-        """``done`` items of ``total`` are finished."""
+        """``done`` items of ``total`` are finished (a safe point for a SIGTERM that a finalizer
+        swallowed: see :mod:`boundkit._signals`)."""
+        from .._signals import check
+
+        check()
         if self.hook is not None:
             self.hook(done, self.total)
         elif self.bar is not None:
