@@ -6,6 +6,8 @@ on first use, does it once (0.013 ms per limit).
 """
 from __future__ import annotations
 
+import functools
+
 _controller = None
 
 
@@ -17,3 +19,15 @@ def one_blas_thread():
 
         _controller = ThreadpoolController()
     return _controller.limit(limits=1, user_api="blas")
+
+
+def inside(make_context):
+    """Decorator: run the function inside ``make_context()`` (e.g. :func:`one_blas_thread`),
+    keeping its signature and docstring (``help()`` shows the real ones)."""
+    def decorate(func):
+        @functools.wraps(func)
+        def wrapper(*args, **kwargs):
+            with make_context():
+                return func(*args, **kwargs)
+        return wrapper
+    return decorate

@@ -189,10 +189,9 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     result says ``checked=False``. ``rtol`` is Newton's stopping step
     (:func:`boundkit.eigen.refine`; default: to the rounding level).
     """
-    if want is None:
-        certify = True
     bound = None
-    if certify:
+    if want is None:         # all levels: their number is the count below the top of the window
+        certify = True
         offset = count_below(op, lo) if math.isfinite(lo) else 0
         bound = count_below(op, hi) - offset if math.isfinite(hi) else None
     if guesses is not None and len(guesses) and (want is None or len(guesses) >= want):

@@ -56,7 +56,6 @@ every state below -2 m c^2; for Klein-Gordon these are not validated).
 """
 from __future__ import annotations
 
-import functools
 import logging
 import math
 import time
@@ -67,7 +66,7 @@ from typing import Any, Callable, Sequence
 import numpy as np
 import scipy.linalg as sla
 
-from ._threads import one_blas_thread
+from ._threads import inside, one_blas_thread
 from ._checks import check_finite, check_int, check_positive
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
 from .units import C_AU, constants_record, hartree_to
@@ -319,19 +318,14 @@ def _edges(plan: dict, pot) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------
 # the public API
 # ---------------------------------------------------------------------------------------------
-def _complex_allowed(func):
-    """Run ``func`` inside :func:`boundkit.potentials.base.complex_values`: user callables and
-    expressions may return complex values there. The wrapper keeps the signature and docstring."""
-    @functools.wraps(func)
-    def wrapper(*args, **kwargs):
-        from .potentials.base import complex_values
+def _complex_values():
+    """The context in which user callables and expressions may return complex values."""
+    from .potentials.base import complex_values
 
-        with complex_values():
-            return func(*args, **kwargs)
-    return wrapper
+    return complex_values()
 
 
-@_complex_allowed
+@inside(_complex_values)
 def resonances(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
                window: tuple[float, float], l: int | None = None, kappa: int | None = None,
                angles: Sequence[float] = (0.25, 0.35), order: int = 12, r0: float | None = None,

@@ -495,7 +495,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
     per_level = []
     offset = 0
 
-    def finished():
+    def finished(energies):
+        if study or len(energies) != want:
+            return False, False
         done = all(len(h) >= 3 and _spectral_done(h, tol) for h in hist[:want])
         floor = all(len(h) >= 3 and max(abs(h[-1] - h[-2]), abs(h[-2] - h[-3])) <= FLOOR * abs(h[-1])
                     for h in hist[:want])
@@ -508,13 +510,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale, guesses,
                           top, certify=False, offset=offset, rtol=rtol)
         rungs.append(rung)
-        for k, E in enumerate(rung.located.energies):
-            if k >= len(hist):
-                hist.append([])
-            hist[k].append(E)
-        done, floor = finished() if len(rung.located.energies) == want else (False, False)
-        if study:
-            done = floor = False
+        _record(hist, rung.located.energies)
+        done, floor = finished(rung.located.energies)
         if not (done or floor or n == ladder[-1]):
             E0 = 0.5 * (rung.located.energies[0] + rung.located.energies[-1]) if rung.located.energies else E0
             continue
@@ -524,18 +521,12 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
             tally.notes.append(f"degree {n}: count certificate failed (N(E_top) = {loc.count_top})")
         if loc.fallback:
             tally.notes.append(f"degree {n}: {loc.fallback} level(s) located by bisection on the count")
-        if loc.energies != rung.located.energies:
-            for k, E in enumerate(loc.energies):
-                if k >= len(hist):
-                    hist.append([])
-                if k < len(rung.located.energies):
-                    hist[k][-1] = E
-                else:
-                    hist[k].append(E)
+        if loc.energies != rung.located.energies:      # mended by bisection: this rung's entries change
+            _record(hist, loc.energies, overwrite=len(rung.located.energies))
             del hist[len(loc.energies):]
         rung.located = loc
         E0 = 0.5 * (loc.energies[0] + loc.energies[-1]) if loc.energies else E0
-        done, floor = finished() if len(loc.energies) == want else (False, False)
+        done, floor = finished(loc.energies)
         if done and tol >= FLOOR:
             break
         if floor or done:           # done below the floor: the estimate cannot go under FLOOR
@@ -570,6 +561,18 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
                         if last.located.certified else "the count certificate failed (see diagnostics)")
     return found, tally, per_level, worst, extra
+
+
+def _record(hist: list, energies, overwrite: int = 0) -> None:
+    """Add one rung's energies to the per-level histories; the first ``overwrite`` levels replace
+    that rung's entries instead (after the certificate mended them)."""
+    for k, E in enumerate(energies):
+        if k >= len(hist):
+            hist.append([])
+        if k < overwrite:
+            hist[k][-1] = E
+        else:
+            hist[k].append(E)
 
 
 def _spectral_done(h: list[float], tol: float) -> bool:

@@ -44,6 +44,13 @@ __all__ = ["SymmetricOperator"]
 _PADDED: dict = {}
 
 
+def _add_nodal(out: np.ndarray, idx: np.ndarray, values: np.ndarray) -> None:
+    """out[idx] += values for the elements of one batch: neighbouring elements share their end
+    node, so even and odd positions are added separately (no index repeats within one addition)."""
+    for par in (0, 1):
+        out[idx[par::2]] += values[par::2]
+
+
 def _padded_reference(d: int, me: int, m: int):
     """(B, Bt, w) of the degree-d reference element with me Gauss points, padded to m rows with
     zeros (extended precision; w in double)."""
@@ -96,9 +103,7 @@ class SymmetricOperator:
         self._mass_blocks = None
         diag = np.zeros(self.n)          # the diagonal of K(E_ref) alone (no dense assembly)
         for bt, blk in zip(self._batches, self._blocks(E_ref, np.float64)):
-            d = np.diagonal(blk, axis1=1, axis2=2)
-            for par in (0, 1):
-                diag[bt["idx"][par::2]] += d[par::2]
+            _add_nodal(diag, bt["idx"], np.diagonal(blk, axis1=1, axis2=2))
         diag[0] += self._sigma(E_ref)
         self.row_scale = 1.0 / np.maximum(np.abs(diag[:-1]), 1e-300)
         self._scale_ext = self.row_scale.astype(np.longdouble)
@@ -198,9 +203,7 @@ class SymmetricOperator:
         out = np.zeros(self.n)
         for bt, blk in zip(self._batches, self._mass_blocks):
             idx = bt["idx"]
-            c = np.matmul(blk, f[idx][:, :, None])[:, :, 0]
-            for par in (0, 1):
-                out[idx[par::2]] += c[par::2]
+            _add_nodal(out, idx, np.matmul(blk, f[idx][:, :, None])[:, :, 0])
         return out[:-1]
 
     def _blocks(self, E, dtype, derivative=False, mass=False) -> list:
@@ -240,9 +243,8 @@ class SymmetricOperator:
             fe = f[idx][:, :, None]
             gk = (W * kin[qidx])[:, :, None] * np.matmul(Gs, fe)
             gp = (W * pot[qidx])[:, :, None] * np.matmul(Bs, fe)
-            c = (np.matmul(Gs.transpose(0, 2, 1), gk) + np.matmul(Bs.transpose(0, 2, 1), gp))[:, :, 0]
-            for par in (0, 1):
-                out[idx[par::2]] += c[par::2]
+            c = np.matmul(Gs.transpose(0, 2, 1), gk) + np.matmul(Bs.transpose(0, 2, 1), gp)
+            _add_nodal(out, idx, c[:, :, 0])
         out[0] += dtype(self._sigma(E, derivative)) * f[0]
         return out
 

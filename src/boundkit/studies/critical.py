@@ -22,7 +22,6 @@ ulp of the value and never above what the found/absent bracket guarantees.
 """
 from __future__ import annotations
 
-import functools
 import logging
 import math
 import time
@@ -34,6 +33,7 @@ import numpy as np
 from .._checks import check_int, check_positive
 from ..discretize import get_method
 from ..solver import setup, solve_channel
+from .._threads import inside, one_blas_thread
 from ..states import convert_label
 from ..units import C_AU, constants_record
 from ._common import (StudyError, canonical_equation, describe, parameter_units, rebuild_potential,
@@ -333,20 +333,9 @@ class _Refused(StudyError):
     """The potential refused a parameter value met during the search (outside its range)."""
 
 
-def _single_threaded_blas(func):
-    """Run ``func`` with BLAS single-threaded, as :func:`boundkit.solver.solve_channel` does: the
-    matrices are small, and two searches side by side ran five times slower with threads
-    (measured). The wrapper keeps the signature and docstring of ``func``."""
-    @functools.wraps(func)
-    def wrapper(*args, **kwargs):
-        from .._threads import one_blas_thread
-
-        with one_blas_thread():
-            return func(*args, **kwargs)
-    return wrapper
-
-
-@_single_threaded_blas
+# BLAS single-threaded, as boundkit.solver.solve_channel runs: the matrices are small, and two
+# searches side by side ran five times slower with threads (measured)
+@inside(one_blas_thread)
 def critical(equation: str, potential, params: Mapping[str, Any] | None, *, state: str, vary: str,
              bracket: tuple[float, float] | None = None, tol: float = 1e-8, kind: str | None = None,
              energy_tol: float = 1e-10, bracket_rtol: float = 1e-2, max_evaluations: int = 40,
