@@ -415,7 +415,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
     n_req = 1 if levels is None else levels
     r_min = _inner_end(eq, pot, gamma, L, n_req, hi)
     r_core = L * (eq.l + 1) ** 2
-    extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0}
+    extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0, "mesh": "spectral-elements"}
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
     bound = None
@@ -686,12 +686,28 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
     if disc.family == "spectral":
-        run = _solve_elements(eq, pot, levels, tol)
+        run = _solve_laguerre(eq, pot, levels, tol) or _solve_elements(eq, pot, levels, tol)
         found, tally, per_level, worst, extra = run
     else:
         found, tally, per_level, worst, extra = _solve_collocation(eq, pot, disc, levels, tol)
     return _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst,
                    extra, t0)
+
+
+def _solve_laguerre(eq, pot, levels, tol):
+    """The one-matrix Lagrange-Laguerre path (:mod:`boundkit.laguerre_solver`), or None when the
+    channel is not one it handles or one of its checks fails."""
+    from .laguerre_solver import applies, solve_laguerre
+
+    gamma = eq.gamma(pot)
+    if not applies(eq, pot, levels, gamma, tol):
+        return None
+    a = 1.0 / (eq.mass * pot.tail_charge)
+    out = solve_laguerre(eq, pot, levels, tol, lambda r: _sample(pot, r), gamma, _inner_cut(gamma, False) * a)
+    if out is None:
+        return None
+    found, notes, per_level, worst, extra = out
+    return found, _Tally(notes=notes), per_level, worst, extra
 
 
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
@@ -729,7 +745,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "dropped_outside_window": tally.dropped_outside_window,
         "dropped_unstable_seed": tally.dropped_unstable_seed, "levels": per_level, "notes": tally.notes,
-        "seconds": time.perf_counter() - t0,
+        "mesh": extra.get("mesh"), "seconds": time.perf_counter() - t0,
     }
     return SolveResult(levels=tuple(found), success=status == "ok", status=status, message=message,
                        equation=eq.name, potential=potential_name or repr(pot), settings=dict(settings or {}),

@@ -1,0 +1,106 @@
+"""Regularized Lagrange-Laguerre mesh: one global basis on (0, inf).
+
+The Lagrange-mesh method (D. Baye and P.-H. Heenen, J. Phys. A 19, 2041
+(1986); review: D. Baye, Phys. Rep. 565, 1 (2015)) expands a radial function
+in N functions attached to the zeros x_1 < ... < x_N of the Laguerre
+polynomial L_N, each zero at one node and zero at all the others. With the
+x-regularization every basis function vanishes like x at the origin, which is
+how u(r) = r R(r) behaves for a regular potential, and decays like e^(-x/2),
+which is how a bound state decays. With the Gauss quadrature on the same
+nodes the overlap matrix is the identity and a local potential is diagonal,
+so a radial Schrodinger operator becomes one small real symmetric matrix
+whose eigenvalues are all the levels of the channel at once. For the Coulomb
+problem the method is nearly exact at small N (Baye 2015, sec. 3.4 and 5).
+
+Conventions here: r = h x with a scale h > 0; the cardinal functions
+C_j(x) = (x / x_j) L_N(x) / ((x - x_j) L_N'(x_j)) e^(-(x - x_j)/2)
+satisfy C_j(x_i) = delta_ij, so a state is given by its values at the nodes.
+With the Gauss weights lambda_j = e^(x_j) / (x_j L_N'(x_j)^2) for integrals
+over dx (the Christoffel numbers of L_N times e^(x_j); standard, e.g.
+Abramowitz and Stegun 1964, 25.4.45), the eigenvector c of the symmetric
+matrix gives u(x_j) = c_j / sqrt(lambda_j) (normalised in x).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+from scipy.special import eval_laguerre, roots_laguerre
+
+__all__ = ["LaguerreMesh", "laguerre_mesh", "cardinal_matrix", "expand"]
+
+
+@dataclass(frozen=True)
+class LaguerreMesh:
+    """Nodes, Gauss weights and the kinetic matrix of an N-point mesh (in x).
+
+    ``T`` is the matrix of -d^2/dx^2 in the Gauss approximation (computed in
+    extended precision, then rounded); ``weights`` are the lambda_j for
+    integrals over dx; ``dL`` is L_N'(x_j).
+    """
+
+    n: int
+    x: np.ndarray
+    weights: np.ndarray
+    dL: np.ndarray
+    T: np.ndarray
+
+
+@lru_cache(maxsize=48)
+def laguerre_mesh(n: int) -> LaguerreMesh:
+    """The N-point x-regularized Lagrange-Laguerre mesh (cached; arrays read-only).
+
+    Notes
+    -----
+    Kinetic matrix of -d^2/dx^2 in the Gauss approximation, T_ij = -lambda_i^(1/2) f_j''(x_i)
+    with f_j = C_j / lambda_j^(1/2) (Baye 2015, sec. 3.4; the closed form is quoted from
+    memory, and the tests check it against that definition, differentiated in 40-digit
+    arithmetic with mpmath, and by the hydrogen levels it gives, exact to rounding):
+
+        T_ii = (4 + (4N + 2) x_i - x_i^2) / (12 x_i^2),
+        T_ij = (-1)^(i-j) (x_i + x_j) / (sqrt(x_i x_j) (x_i - x_j)^2),  i != j.
+    """
+    if n < 2:
+        raise ValueError(f"n: a Laguerre mesh needs at least 2 nodes, got {n}")
+    x, _ = roots_laguerre(n)
+    X = x.astype(np.longdouble)
+    i = np.arange(n)
+    sign = np.where((i[:, None] - i[None, :]) % 2 == 0, 1, -1).astype(np.longdouble)
+    diff = X[:, None] - X[None, :]
+    diff[i, i] = 1
+    T_ext = sign * (X[:, None] + X[None, :]) / (np.sqrt(np.outer(X, X)) * diff**2)
+    T_ext[i, i] = (4 + (4 * n + 2) * X - X**2) / (12 * X**2)
+    # x L_N'(x) = N (L_N(x) - L_{N-1}(x)), and L_N(x_j) = 0
+    dL = -n * eval_laguerre(n - 1, x) / x
+    weights = np.exp(x - np.log(x) - 2 * np.log(np.abs(dL)))     # e^x overflows for N > ~180
+    out = LaguerreMesh(n, x, weights, dL, T_ext.astype(float))
+    for a in (out.x, out.weights, out.dL, out.T):
+        a.flags.writeable = False
+    return out
+
+
+def cardinal_matrix(mesh: LaguerreMesh, xs: np.ndarray) -> np.ndarray:
+    """Values C_j(xs) of the cardinal functions: shape (len(xs), N)."""
+    return expand(mesh, xs, np.eye(mesh.n))
+
+
+def expand(mesh: LaguerreMesh, xs: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """sum_j values[j] C_j(xs) for each column of ``values`` (node values): shape (len(xs), columns).
+
+    In the barycentric-like form x e^(-x/2) L_N(x) sum_j v_j e^(x_j/2) / (x_j L_N'(x_j) (x - x_j)),
+    one division per point and node. Points that fall on a node (to 1e-12 relative) take that
+    node's value.
+    """
+    xs = np.asarray(xs, dtype=float)
+    values = np.asarray(values, dtype=float)
+    xj = mesh.x
+    d = xs[:, None] - xj[None, :]
+    hit = np.abs(d) <= 1e-12 * xj[None, :]
+    with np.errstate(all="ignore"):
+        scaled = (np.exp(xj / 2) / (xj * mesh.dL))[:, None] * values
+        out = (xs * eval_laguerre(mesh.n, xs) * np.exp(-xs / 2))[:, None] * ((1.0 / d) @ scaled)
+    if np.any(hit):
+        rows, cols = np.nonzero(hit)
+        out[rows] = values[cols]
+    return out

@@ -1,0 +1,222 @@
+"""The one-matrix Lagrange-Laguerre path of the spectral family (boundkit.laguerre_solver).
+
+Checks from outside the project: the hydrogen levels -Z^2/(2 n^2) and radial
+functions (Bethe and Salpeter, Quantum Mechanics of One- and Two-Electron
+Atoms, 1957, eqs. 3.16-3.17); the kinetic matrix against its definition,
+differentiated in 40-digit arithmetic with mpmath. Potentials without a closed
+form are compared with the spectral-element path, which is itself checked
+against exact cases and independent integrations elsewhere in the suite.
+"""
+from __future__ import annotations
+
+import math
+
+import mpmath as mp
+import numpy as np
+import pytest
+from scipy.special import eval_genlaguerre, factorial
+
+import boundkit
+import boundkit.laguerre_solver as lag
+from boundkit.discretize.laguerre import cardinal_matrix, laguerre_mesh
+
+
+def _elements_only(monkeypatch):
+    monkeypatch.setattr(lag, "applies", lambda *a, **k: False)
+
+
+def _hydrogen_P(n: int, l: int, r, Z: float = 1.0):
+    """r R_nl(r) of hydrogen (Bethe and Salpeter 1957, eq. 3.17), normalised to 1 over dr."""
+    rho = 2 * Z * r / n
+    norm = math.sqrt((2 * Z / n) ** 3 * factorial(n - l - 1) / (2 * n * factorial(n + l)))
+    return norm * np.exp(-rho / 2) * rho**l * eval_genlaguerre(n - l - 1, 2 * l + 1, rho) * r
+
+
+# --- the mesh ---------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("n", [4, 7])
+def test_kinetic_matrix_is_the_collocation_second_derivative(n):
+    """T_ij = -lambda_i^(1/2) f_j''(x_i), f_j = C_j / lambda_j^(1/2), in 40-digit arithmetic."""
+    mp.mp.dps = 40
+    try:
+        mesh = laguerre_mesh(n)
+        x = [mp.findroot(lambda t: mp.laguerre(n, 0, t), mp.mpf(float(v))) for v in mesh.x]
+        # L_N in power form, then L_N(t) / (t - x_j) by synthetic division (no removable 0/0)
+        c = [(-1) ** k * mp.binomial(n, k) / mp.factorial(k) for k in range(n + 1)][::-1]
+
+        def quotient(xj):
+            q, acc = [], mp.mpf(0)
+            for ck in c[:-1]:
+                acc = acc * xj + ck
+                q.append(acc)
+            return q
+
+        dL = [mp.polyval(quotient(xj), xj) for xj in x]
+        lam = [mp.e**xj / (xj * d**2) for xj, d in zip(x, dL)]
+        T = np.empty((n, n))
+        for j in range(n):
+            q = quotient(x[j])
+
+            def f(t, j=j, q=q):
+                return (t / x[j]) * mp.polyval(q, t) / dL[j] * mp.e ** (-(t - x[j]) / 2) / mp.sqrt(lam[j])
+
+            for i in range(n):
+                T[i, j] = float(-mp.sqrt(lam[i]) * mp.diff(f, x[i], 2))
+    finally:
+        mp.mp.dps = 15
+    assert np.max(np.abs(T - mesh.T)) <= 1e-12 * np.max(np.abs(mesh.T))
+    assert np.allclose(mesh.weights, [float(v) for v in lam], rtol=1e-12, atol=0)
+
+
+def test_cardinal_functions_are_one_at_their_node_and_zero_at_the_others():
+    mesh = laguerre_mesh(9)
+    C = cardinal_matrix(mesh, mesh.x)
+    assert np.array_equal(C, np.eye(9))
+    near = cardinal_matrix(mesh, mesh.x * (1 + 1e-9))
+    assert np.max(np.abs(near - np.eye(9))) < 1e-6
+
+
+def test_mesh_rejects_fewer_than_two_nodes():
+    with pytest.raises(ValueError, match="n: a Laguerre mesh needs at least 2 nodes"):
+        laguerre_mesh(1)
+
+
+def test_weights_stay_finite_where_e_to_the_x_overflows():
+    mesh = laguerre_mesh(230)         # x_N ~ 900: e^x alone overflows
+    assert np.all(np.isfinite(mesh.weights)) and np.all(mesh.weights > 0)
+
+
+# --- hydrogen: exact levels and functions ----------------------------------------------------
+
+@pytest.mark.parametrize("l", [0, 1, 3])
+@pytest.mark.parametrize("levels", [1, 5, 12])
+@pytest.mark.parametrize("tol", [1e-6, 1e-10, 1e-13])
+def test_hydrogen_levels_exact_with_honest_estimates(l, levels, tol):
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=l, levels=levels, tol=tol)
+    assert res.diagnostics["mesh"] == "lagrange-laguerre"
+    assert res.success and len(res.levels) == levels
+    for k, lv in enumerate(res.levels):
+        n = k + l + 1
+        exact = -1 / (2 * n**2)
+        assert lv.n == n and lv.nodes == k
+        assert abs(lv.energy - exact) <= lv.error_estimate + 4e-15 * abs(exact), lv.label
+        assert lv.error_estimate <= tol * abs(exact)
+
+
+def test_scaled_charge_and_mass_follow_the_hydrogen_scaling():
+    """E = -mu Z^2 / (2 n^2) with the muon mass the solve states (CODATA, in electron masses) on Z = 6;
+    that mass agrees with scipy.constants' muon-electron mass ratio to 1e-9."""
+    import scipy.constants as sc
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 6}, l=1, levels=3, tol=1e-12, particle="muon")
+    mu = res.settings["mass_atomic_units"]
+    assert abs(mu / sc.physical_constants["muon-electron mass ratio"][0] - 1) < 1e-9
+    assert res.diagnostics["mesh"] == "lagrange-laguerre"
+    for k, lv in enumerate(res.levels):
+        exact = -mu * 36 / (2 * (k + 2) ** 2)
+        assert abs(lv.energy / exact - 1) < 1e-13
+
+
+def test_hydrogen_radial_functions_match_bethe_salpeter():
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=0, levels=5, tol=1e-12)
+    for lv in res.levels:
+        r = np.geomspace(1e-4, 4 * lv.n**2, 2000)
+        exact = _hydrogen_P(lv.n, 0, r)
+        assert np.max(np.abs(lv.state(r) - exact)) < 1e-10 * np.max(np.abs(exact)), lv.label
+        assert lv.previous_state is not None
+
+
+def test_convergence_is_geometric_in_the_number_of_nodes():
+    """log10 of the worst error of the 5 lowest s-levels falls linearly in N (spectral convergence):
+    measured slope -0.37 decades per node between N = 14 and 30."""
+    from boundkit.equations.schrodinger import Schrodinger
+    from boundkit.potentials import make_potential
+    from boundkit.solver import _sample
+
+    pot = make_potential("coulomb", {"Z": 1})
+    eq = Schrodinger(l=0)
+    exact = -1 / (2 * np.arange(1, 6) ** 2.0)
+    sizes = np.arange(14, 31, 4)
+    errs = []
+    for N in sizes:
+        mesh = laguerre_mesh(int(N))
+        E, _, _, _ = lag._levels_on(eq, lambda r: _sample(pot, r), mesh, 300 / mesh.x[-1], 5)
+        errs.append(np.max(np.abs(E / exact - 1)))
+    slope = np.polyfit(sizes, np.log10(errs), 1)[0]
+    assert slope < -0.3
+    assert errs[-1] < 1e-6          # measured 4.4e-7 at N = 30
+
+
+# --- other Coulomb-tailed potentials: the same numbers as the elements ------------------------
+
+def _both(monkeypatch, *args, **kw):
+    fast = boundkit.solve(*args, **kw)
+    with monkeypatch.context() as m:
+        _elements_only(m)
+        slow = boundkit.solve(*args, **kw)
+    assert slow.diagnostics["mesh"] == "spectral-elements"
+    return fast, slow
+
+
+@pytest.mark.parametrize("l", [0, 2])
+def test_screened_core_agrees_with_the_elements(monkeypatch, l):
+    """A Coulomb tail with a smooth, more attractive core (charge 3 inside, 1 outside)."""
+    def V(r):
+        return -(1 + 2 * np.exp(-r / 0.8)) / r
+
+    fast, slow = _both(monkeypatch, "schrodinger", V, l=l, levels=6, tol=1e-11)
+    assert fast.diagnostics["mesh"] == "lagrange-laguerre"
+    for a, b in zip(fast.levels, slow.levels):
+        assert a.label == b.label
+        assert abs(a.energy - b.energy) <= 1e-11 * abs(b.energy) + a.error_estimate + b.error_estimate
+
+
+def test_repulsive_core_widens_the_mesh_and_agrees(monkeypatch):
+    """Levels less bound than hydrogen's: the first scale is too short, and the path moves it out."""
+    def V(r):
+        return -1 / r + 3 * np.exp(-r / 2) / r
+
+    fast, slow = _both(monkeypatch, "schrodinger", V, l=0, levels=4, tol=1e-10)
+    assert fast.diagnostics["mesh"] == "lagrange-laguerre"
+    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
+    for a, b in zip(fast.levels, slow.levels):
+        assert abs(a.energy - b.energy) <= 1e-10 * abs(b.energy) + a.error_estimate + b.error_estimate
+
+
+# --- what the path must hand over to the elements --------------------------------------------
+
+def test_a_narrow_well_between_nodes_is_not_missed(monkeypatch):
+    """A deep, narrow well at r = 6 bohr binds a level of its own below the 2s; a mesh that does not
+    resolve it would report hydrogen's levels and skip that one."""
+    def V(r):
+        return -1 / r - 40 * np.exp(-(((r - 6) / 0.05) ** 2))
+
+    fast, slow = _both(monkeypatch, "schrodinger", V, l=0, levels=4, tol=1e-10)
+    assert fast.diagnostics["mesh"] == "spectral-elements"
+    assert fast.energies().tolist() == slow.energies().tolist()
+    assert slow.levels[1].energy < -0.2        # the well's own level, far below hydrogen's 2s
+
+
+def test_vacuum_polarisation_near_the_origin_goes_to_the_elements():
+    """The Uehling term lives within ~1e-3 bohr, below the first Laguerre node."""
+    res = boundkit.solve("schrodinger", ["coulomb", "uehling"], {"Z": 1}, l=0, levels=2, tol=1e-10)
+    assert res.diagnostics["mesh"] == "spectral-elements"
+
+
+@pytest.mark.parametrize("case", [
+    dict(equation="dirac", kappa=-1),
+    dict(equation="klein-gordon", l=0),
+    dict(equation="schrodinger", l=0, tol=1e-14),
+    dict(equation="schrodinger", l=0, method="finite-difference"),
+])
+def test_other_equations_tolerances_and_families_do_not_take_the_path(case):
+    kw = dict(levels=2, tol=1e-10)
+    kw.update(case)
+    equation = kw.pop("equation")
+    res = boundkit.solve(equation, "coulomb", {"Z": 1}, **kw)
+    assert res.diagnostics["mesh"] != "lagrange-laguerre"
+
+
+def test_short_range_potentials_keep_their_bound_count():
+    res = boundkit.solve("schrodinger", "yukawa", {"Z": 1, "screening_length": 5}, l=0, levels=10, tol=1e-10)
+    assert res.diagnostics["mesh"] == "spectral-elements"
+    assert res.diagnostics["bound_count"] == len(res.levels)
