@@ -30,13 +30,19 @@ give the hydrogen levels to rounding. The procedure:
    state's own element quadrature (below the first node too) differ by less
    than tol |E|. That difference is the first-order energy error of a potential
    with structure the nodes do not see (a finite nucleus, vacuum polarisation,
-   a narrow well between two nodes). A ladder that stops converging
-   geometrically, or passes N = 200, also gives up. In each of these cases the
-   caller solves the channel on spectral elements instead.
+   a narrow well between two nodes); and (d) the potential has no structure
+   narrower than the node spacing anywhere up to the last node (the element
+   layout's shape measure, taken in r on the layout's own 4001-point sampling,
+   :func:`_shape_gaps`): (c) alone would accept a narrow well far out where the
+   wanted levels have no amplitude, and skip the level the well binds (found
+   by the property test in tests/test_laguerre.py). A ladder that stops
+   converging geometrically, or whose rate would reach tol only beyond N = 200,
+   also gives up. In each of these cases the caller solves the channel on
+   spectral elements instead.
 
 The levels are the lowest eigenvalues of one symmetric matrix (their index is
 the count of eigenvalues below them), so none is skipped within the mesh;
-check (c) is what keeps a feature from hiding between or below the nodes.
+checks (c) and (d) are what keep a feature from hiding between or below the nodes.
 Tolerances below 1e-13 also go to the elements (see :func:`applies`).
 
 Wave functions are passed to the rest of boundkit as spectral-element states
@@ -66,6 +72,7 @@ log = logging.getLogger(__name__)
 FLOOR = 2e-14          # rounding floor of the extended-precision Rayleigh quotients (as for the elements)
 MAX_N = 200            # beyond this size the element family is cheaper
 _DECAY_NEEDED = 30.0   # e-folds of decay of the highest level at the last node
+_SHAPE_PER_GAP = 4.0   # check (d): shape rate in r times node spacing (a smooth screened core: 3)
 _STATE_DEGREE = 12     # degree of the state elements (between neighbouring nodes, and below the first)
 _QUIET_DT = 4.0        # their longest length in t
 
@@ -153,13 +160,24 @@ def _done(h: list[float], tol: float) -> bool:
     return len(h) >= 3 and abs(h[-1] - h[-2]) <= max(tol, FLOOR) * E and abs(h[-2] - h[-3]) <= 100 * max(tol, FLOOR) * E
 
 
-def _stalled(hist: list[list[float]]) -> bool:
-    """Two steps in a row in which the worst change between sizes fell by less than half: not the
-    geometric convergence of a potential the mesh resolves (the elements do better there)."""
-    if len(hist[0]) < 4:
+def _stalled(hist: list[list[float]], N: int, tol: float) -> bool:
+    """Whether the climb should give up: two steps in a row in which the worst change between sizes
+    fell by less than half (not the geometric convergence of a potential the mesh resolves), or a
+    rate of convergence, extrapolated linearly in N, that would reach tol only beyond MAX_N (the
+    elements do better there)."""
+    if len(hist[0]) < 3:
         return False
     d = [max(abs(h[i + 1] - h[i]) / abs(h[i + 1]) for h in hist) for i in range(len(hist[0]) - 1)]
-    return d[-1] > 0.5 * d[-2] and d[-2] > 0.5 * d[-3] and d[-1] > FLOOR
+    if d[-1] <= max(tol, FLOOR):
+        return False
+    if len(d) >= 3 and d[-1] > 0.5 * d[-2] and d[-2] > 0.5 * d[-3]:
+        return True
+    rho = d[-1] / d[-2] if d[-2] > 0 else 1.0
+    if rho >= 0.5:
+        return False                   # too early to tell: the next step decides
+    # spectral convergence: log d falls linearly in N (one step here is N -> ~1.2 N)
+    per_node = math.log(rho) / (N - N / 1.2)
+    return N + math.log(max(tol, FLOOR) / d[-1]) / per_node > MAX_N
 
 
 def _sign_changes(u: np.ndarray) -> int:
@@ -179,6 +197,35 @@ def _decay(eq, sample, r_last: float, E: float, r_lo: float) -> float:
     a = allowed[-1]
     k = np.sqrt(np.clip(k2[a:], 0, None))
     return float(np.sum(0.5 * (k[1:] + k[:-1]) * np.diff(r[a:])))
+
+
+def _shape_gaps(sample, r_nodes: np.ndarray, r_lo: float) -> float:
+    """Worst product of the potential's shape rate in r and the node spacing there (check d).
+
+    The element layout's measure of shape (:func:`boundkit.ladder._shape_rate`) taken in r, the
+    variable the Laguerre basis is smooth in: 5 sqrt(|g_rr| / max |g|), g = r (V + S), on the
+    layout's own sampling (4001 points in ln r from r_lo to the last node), times the distance
+    between the nodes around each sample (r_1 below the first node). A potential analytic in r
+    (g = g0 + g1 r + g2 r^2 + ...) gives a bounded rate; a finite nucleus, a logarithmic vacuum
+    polarisation or a narrow well gives a rate of about one over its width.
+    """
+    t = np.linspace(math.log(r_lo), math.log(r_nodes[-1]), 4001)
+    r = np.exp(t)
+    s = sample(r)
+    with np.errstate(all="ignore"):
+        g = np.nan_to_num(r * (s.V + s.S), nan=0.0, posinf=0.0, neginf=0.0)
+        G = float(np.max(np.abs(g)))
+        if not np.isfinite(G) or G == 0.0:
+            return 0.0
+        g_t = np.gradient(g, t, edge_order=2)
+        r2_grr = np.gradient(g_t, t, edge_order=2) - g_t     # r^2 g_rr
+        r2_grr[np.abs(r2_grr) < 1e-9 * G] = 0.0        # rounding of the differences, not shape
+        r2_grr[:2] = r2_grr[-2:] = 0.0                  # one-sided differences at the ends
+        rate = 5.0 * np.sqrt(np.abs(r2_grr) / G) / r
+    edges = np.concatenate(([0.0], r_nodes))
+    gap = np.diff(edges)
+    which = np.clip(np.searchsorted(edges, r, side="right") - 1, 0, len(gap) - 1)
+    return float(np.max(np.nan_to_num(rate * gap[which], nan=np.inf)))
 
 
 def _state_grid(r_lo: float, r_nodes: np.ndarray):
@@ -246,12 +293,17 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
                 moved += 1
                 r_last *= 1.6
                 continue
+            # structure that even the largest mesh could not resolve (spacing falls about like 1/N)
+            if _shape_gaps(sample, r_nodes, r_lo) > _SHAPE_PER_GAP * MAX_N / N:
+                log.info("Laguerre mesh: the potential has structure far narrower than the node spacing; "
+                         "using spectral elements")
+                return None
         runs.append((N, mesh, h, E, u, q_nodes))
         for k in range(want):
             hist[k].append(float(E[k]))
         if all(_done(hk, tol) for hk in hist):
             break
-        if _stalled(hist):
+        if _stalled(hist, N, tol):
             log.info("Laguerre mesh: the levels stopped converging geometrically at N = %d; using spectral "
                      "elements", N)
             return None
@@ -261,6 +313,11 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     N, mesh, h, E, u, q_nodes = runs[-1]
     if any(_sign_changes(u[:, k]) != k for k in range(want)):
         log.info("Laguerre mesh: a node count disagrees with the level's index; using spectral elements")
+        return None
+    shape = _shape_gaps(sample, h * mesh.x, r_lo)
+    if shape > _SHAPE_PER_GAP:
+        log.info("Laguerre mesh: the potential has structure narrower than the node spacing (shape rate x "
+                 "spacing = %.3g); using spectral elements", shape)
         return None
     r_core = a * (eq.l + 1) ** 2
     t, w, elements = _state_grid(r_lo, h * mesh.x)
