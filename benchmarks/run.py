@@ -195,7 +195,7 @@ def main(argv=None) -> int:
         err, found[n] = hydrogen_check(rn)
         worst_levels = max(worst_levels, err)
     spread = max(per.values()) / min(per.values())
-    row("time per level, H s-levels 1/5/10/20, tol 1e-10", "/".join(f"{per[n] * 1e3:.0f}" for n in per) + " ms",
+    row("time per level, H s-levels 1/5/10/20, tol 1e-10", "/".join(f"{per[n] * 1e3:.2g}" for n in per) + " ms",
         "", f"max/min {spread:.2f}", "<= 2, all found", spread <= 2 and all(found[n] == n for n in found),
         f"{worst_levels:.1e}, found " + "/".join(str(found[n]) for n in found))
 

@@ -33,7 +33,7 @@ give the hydrogen levels to rounding. The procedure:
    a narrow well between two nodes); and (d) the potential has no structure
    narrower than the node spacing anywhere up to the last node (the element
    layout's shape measure, taken in r on the layout's own 4001-point sampling,
-   :func:`_shape_gaps`): (c) alone would accept a narrow well far out where the
+   :class:`_Probe`): (c) alone would accept a narrow well far out where the
    wanted levels have no amplitude, and skip the level the well binds (found
    by the property test in tests/test_laguerre.py). A ladder that stops
    converging geometrically, or whose rate would reach tol only beyond N = 200,
@@ -55,6 +55,7 @@ from __future__ import annotations
 
 import logging
 import math
+from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
@@ -185,47 +186,62 @@ def _sign_changes(u: np.ndarray) -> int:
     return int(np.count_nonzero(np.diff(np.sign(big)) != 0))
 
 
-def _decay(eq, sample, r_last: float, E: float, r_lo: float) -> float:
-    """e-folds of WKB decay of a level at energy E from its outer turning point to r_last (check b)."""
-    r = np.geomspace(r_lo, r_last, 600)
-    s = sample(r)
-    with np.errstate(all="ignore"):
-        k2 = 2 * eq.mass * (eq.q(E, s) - E) + eq.l * (eq.l + 1) / r**2
-    allowed = np.nonzero(k2 < 0)[0]
-    if not allowed.size:
-        return 0.0
-    a = allowed[-1]
-    k = np.sqrt(np.clip(k2[a:], 0, None))
-    return float(np.sum(0.5 * (k[1:] + k[:-1]) * np.diff(r[a:])))
+@dataclass
+class _Probe:
+    """The potential on the layout's sampling (4001 points in ln r from r_lo to the last node),
+    shared by checks (b) and (d)."""
+
+    r: np.ndarray
+    s: object
+    rate: np.ndarray
+
+    @classmethod
+    def on(cls, sample, r_lo: float, r_last: float) -> "_Probe":
+        t = np.linspace(math.log(r_lo), math.log(r_last), 4001)
+        r = np.exp(t)
+        s = sample(r)
+        return cls(r, s, _shape_rate_r(t, r, s))
+
+    def decay(self, eq, E: float) -> float:
+        """e-folds of WKB decay of a level at energy E from its outer turning point to the last
+        node (check b)."""
+        r = self.r
+        with np.errstate(all="ignore"):
+            k2 = 2 * eq.mass * (eq.q(E, self.s) - E) + eq.l * (eq.l + 1) / r**2
+        allowed = np.nonzero(k2 < 0)[0]
+        if not allowed.size:
+            return 0.0
+        a = allowed[-1]
+        k = np.sqrt(np.clip(k2[a:], 0, None))
+        return float(np.sum(0.5 * (k[1:] + k[:-1]) * np.diff(r[a:])))
+
+    def shape_gaps(self, r_nodes: np.ndarray) -> float:
+        """Worst product of the shape rate and the node spacing around each sample (r_1 below the
+        first node): check (d)."""
+        edges = np.concatenate(([0.0], r_nodes))
+        gap = np.diff(edges)
+        which = np.clip(np.searchsorted(edges, self.r, side="right") - 1, 0, len(gap) - 1)
+        return float(np.max(np.nan_to_num(self.rate * gap[which], nan=np.inf)))
 
 
-def _shape_gaps(sample, r_nodes: np.ndarray, r_lo: float) -> float:
-    """Worst product of the potential's shape rate in r and the node spacing there (check d).
+def _shape_rate_r(t, r, s) -> np.ndarray:
+    """The element layout's measure of shape (:func:`boundkit.ladder._shape_rate`) taken in r, the
+    variable the Laguerre basis is smooth in: 5 sqrt(|g_rr| / max |g|), g = r (V + S).
 
-    The element layout's measure of shape (:func:`boundkit.ladder._shape_rate`) taken in r, the
-    variable the Laguerre basis is smooth in: 5 sqrt(|g_rr| / max |g|), g = r (V + S), on the
-    layout's own sampling (4001 points in ln r from r_lo to the last node), times the distance
-    between the nodes around each sample (r_1 below the first node). A potential analytic in r
-    (g = g0 + g1 r + g2 r^2 + ...) gives a bounded rate; a finite nucleus, a logarithmic vacuum
-    polarisation or a narrow well gives a rate of about one over its width.
+    A potential analytic in r (g = g0 + g1 r + g2 r^2 + ...) gives a bounded rate; a finite
+    nucleus, a logarithmic vacuum polarisation or a narrow well gives a rate of about one over its
+    width.
     """
-    t = np.linspace(math.log(r_lo), math.log(r_nodes[-1]), 4001)
-    r = np.exp(t)
-    s = sample(r)
     with np.errstate(all="ignore"):
         g = np.nan_to_num(r * (s.V + s.S), nan=0.0, posinf=0.0, neginf=0.0)
         G = float(np.max(np.abs(g)))
         if not np.isfinite(G) or G == 0.0:
-            return 0.0
+            return np.zeros_like(r)
         g_t = np.gradient(g, t, edge_order=2)
         r2_grr = np.gradient(g_t, t, edge_order=2) - g_t     # r^2 g_rr
         r2_grr[np.abs(r2_grr) < 1e-9 * G] = 0.0        # rounding of the differences, not shape
         r2_grr[:2] = r2_grr[-2:] = 0.0                  # one-sided differences at the ends
-        rate = 5.0 * np.sqrt(np.abs(r2_grr) / G) / r
-    edges = np.concatenate(([0.0], r_nodes))
-    gap = np.diff(edges)
-    which = np.clip(np.searchsorted(edges, r, side="right") - 1, 0, len(gap) - 1)
-    return float(np.max(np.nan_to_num(rate * gap[which], nan=np.inf)))
+        return 5.0 * np.sqrt(np.abs(r2_grr) / G) / r
 
 
 def _state_grid(r_lo: float, r_nodes: np.ndarray):
@@ -287,14 +303,15 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
             return None
         if not runs:
             # the highest level converges first: its decay decides the scale before the climb
-            if _decay(eq, sample, r_nodes[-1], E[-1], r_lo) < _DECAY_NEEDED:
+            probe = _Probe.on(sample, r_lo, r_nodes[-1])
+            if probe.decay(eq, E[-1]) < _DECAY_NEEDED:
                 if moved == 3:
                     return None
                 moved += 1
                 r_last *= 1.6
                 continue
             # structure that even the largest mesh could not resolve (spacing falls about like 1/N)
-            if _shape_gaps(sample, r_nodes, r_lo) > _SHAPE_PER_GAP * MAX_N / N:
+            if probe.shape_gaps(r_nodes) > _SHAPE_PER_GAP * MAX_N / N:
                 log.info("Laguerre mesh: the potential has structure far narrower than the node spacing; "
                          "using spectral elements")
                 return None
@@ -314,7 +331,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     if any(_sign_changes(u[:, k]) != k for k in range(want)):
         log.info("Laguerre mesh: a node count disagrees with the level's index; using spectral elements")
         return None
-    shape = _shape_gaps(sample, h * mesh.x, r_lo)
+    shape = probe.shape_gaps(h * mesh.x)
     if shape > _SHAPE_PER_GAP:
         log.info("Laguerre mesh: the potential has structure narrower than the node spacing (shape rate x "
                  "spacing = %.3g); using spectral elements", shape)
