@@ -1,8 +1,9 @@
-"""All levels of a Coulomb-tailed Schrodinger channel from one Lagrange-Laguerre matrix.
+"""All levels of a Schrodinger channel from one Lagrange-Laguerre matrix.
 
 The fast path of the spectral family. For a Schrodinger channel whose
-potential falls off like -Z_inf/r (Z_inf > 0) and is regular at the origin,
-the regularized Lagrange-Laguerre mesh (:mod:`boundkit.discretize.laguerre`)
+potential falls off like -Z_inf/r (Z_inf > 0) or faster (short range; its
+bound levels are counted on the far box first, as for the elements), does not
+confine and is regular at the origin, the regularized Lagrange-Laguerre mesh (:mod:`boundkit.discretize.laguerre`)
 turns the radial operator into one real symmetric N x N matrix
 
     H_ij = T_ij / (2 mu h^2) + [l(l+1) / (2 mu r_i^2) + V(r_i) + S(r_i)] delta_ij,
@@ -12,7 +13,8 @@ whose lowest eigenvalues are the lowest levels, all at once: a few dozen nodes
 give the hydrogen levels to rounding. The procedure:
 
 1. the scale h puts the last node where the highest level sought (taken
-   hydrogen-like, n = levels + l, in the tail charge) has decayed by far more
+   hydrogen-like, n = levels + l, in the tail charge or the core's natural
+   length) has decayed by far more
    than the digits asked for;
 2. N climbs a short ladder that starts where the error is about 10 tol; on
    each size one ``eigh`` gives the lowest levels, and the energies are their
@@ -25,7 +27,9 @@ give the hydrogen levels to rounding. The procedure:
 4. the result is accepted only when (a) the k-th level has k nodes at the mesh
    points (Sturm), (b) the highest level has decayed by e^-30 at the last node
    (WKB, with its energy on the first size; otherwise the scale grows by 1.6
-   and the climb starts again), and (c) every level feels the potential on the
+   and the climb starts again) and is not classically allowed anywhere beyond
+   the last node (out to 1e8 times it: a well out there, which the elements'
+   box would reach, could hold a deeper level), and (c) every level feels the potential on the
    nodes as it does on a fine grid: <V> from the mesh's Gauss rule and from the
    state's own element quadrature (below the first node too) differ by less
    than tol |E|. That difference is the first-order energy error of a potential
@@ -88,7 +92,7 @@ def applies(eq, pot, levels, gamma: float, tol: float) -> bool:
     wave-function quantities about 5e-14 (relative) off on hydrogen whatever N, measured on
     <r^-2> of the 4s, and two sizes that both sit on that floor would not see it.
     """
-    return (eq.name == "schrodinger" and levels is not None and tol >= TOL_MIN and pot.tail_charge > 0
+    return (eq.name == "schrodinger" and levels is not None and tol >= TOL_MIN and pot.tail_charge >= 0
             and not pot.confining and gamma == eq.l + 1)
 
 
@@ -215,6 +219,16 @@ class _Probe:
         k = np.sqrt(np.clip(k2[a:], 0, None))
         return float(np.sum(0.5 * (k[1:] + k[:-1]) * np.diff(r[a:])))
 
+    @staticmethod
+    def allowed_beyond(eq, sample, r_last: float, E: float) -> bool:
+        """Whether a level at energy E is classically allowed anywhere beyond the last node (out to
+        1e8 times it): a well out there could hold a level below E that the mesh never sees."""
+        r = np.geomspace(r_last, 1e8 * r_last, 800)
+        s = sample(r, scan=True)
+        with np.errstate(all="ignore"):
+            k2 = 2 * eq.mass * (eq.q(E, s) - E) + eq.l * (eq.l + 1) / r**2
+        return bool(np.any(k2 < 0))
+
     def shape_gaps(self, r_nodes: np.ndarray) -> float:
         """Worst product of the shape rate and the node spacing around each sample (r_1 below the
         first node): check (d)."""
@@ -279,15 +293,15 @@ def _states(gamma: float, r_core: float, h: float, mesh, u: np.ndarray, r, w_dr,
     return out
 
 
-def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo: float):
+def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo: float, a: float):
     """The channel on Lagrange-Laguerre meshes, or None when a check fails (see the module docstring).
 
+    ``a`` is the length the scale is taken from: the Bohr radius 1/(mu Z_inf) of a Coulomb tail,
+    or 2 L for a short-range potential (L its natural length, 1/2 bohr for hydrogen), whose levels
+    the caller has already counted (``levels`` is then at most that count).
     Returns ``(found, notes, per_level, worst, extra)`` in the form of the element solver.
     """
     want = levels
-    zt = pot.tail_charge
-    m = eq.mass
-    a = 1.0 / (m * zt)                     # Bohr radius of the tail charge
     n_top = want + eq.l
     r_last = a * _hydrogenic_reach(n_top, _DECAY_NEEDED + 2)
     sizes = _ladder(_start_size(want, eq.l, tol))
@@ -303,6 +317,9 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
             return None
         if not runs:
             # the highest level converges first: its decay decides the scale before the climb
+            if _Probe.allowed_beyond(eq, sample, r_nodes[-1], E[-1]):
+                log.info("Laguerre mesh: the potential has a well beyond the mesh; using spectral elements")
+                return None
             probe = _Probe.on(sample, r_lo, r_nodes[-1])
             if probe.decay(eq, E[-1]) < _DECAY_NEEDED:
                 if moved == 3:

@@ -393,10 +393,11 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     return Channel(eq, pot, gamma, lo, hi, extra["L"], extra["r_min"], seeds, tally, extra)
 
 
-def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
+def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known_bound: int | None = None):
     """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`).
 
     ``degrees``: run exactly these rungs (a convergence study), with no early stop.
+    ``known_bound``: the far-box count of a short-range potential, when the caller has it.
     """
     study = degrees is not None
     from .ladder import FLOOR, far_count, ladder_for, layout, solve_rung
@@ -418,8 +419,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None):
     extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0, "mesh": "spectral-elements"}
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
-    bound = None
-    if short_range:
+    bound = known_bound if short_range else None
+    if short_range and bound is None:
         r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, n_req, L))
         bound = far_count(eq, pot, sample, gamma, r_core, r_min, r_far, hi)
     elif levels is None:
@@ -686,7 +687,7 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
     if disc.family == "spectral":
-        run = _solve_laguerre(eq, pot, levels, tol) or _solve_elements(eq, pot, levels, tol)
+        run = _solve_laguerre(eq, pot, levels, tol)
         found, tally, per_level, worst, extra = run
     else:
         found, tally, per_level, worst, extra = _solve_collocation(eq, pot, disc, levels, tol)
@@ -695,18 +696,37 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
 
 
 def _solve_laguerre(eq, pot, levels, tol):
-    """The one-matrix Lagrange-Laguerre path (:mod:`boundkit.laguerre_solver`), or None when the
-    channel is not one it handles or one of its checks fails."""
+    """The one-matrix Lagrange-Laguerre path (:mod:`boundkit.laguerre_solver`), or the element
+    solver when the channel is not one it handles or one of its checks fails.
+
+    A short-range potential has its bound levels counted on the far box first (as the elements
+    do); the mesh then looks for at most that many, with the scale 2 L (L the natural length:
+    the Bohr radius for a Coulomb-like core)."""
     from .laguerre_solver import applies, solve_laguerre
 
     gamma = eq.gamma(pot)
     if not applies(eq, pot, levels, gamma, tol):
-        return None
-    a = 1.0 / (eq.mass * pot.tail_charge)
-    out = solve_laguerre(eq, pot, levels, tol, lambda r: _sample(pot, r), gamma, _inner_cut(gamma, False) * a)
+        return _solve_elements(eq, pot, levels, tol)
+    sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
+    bound = None
+    want = levels
+    if pot.tail_charge > 0:
+        a = 1.0 / (eq.mass * pot.tail_charge)
+    else:
+        from .ladder import far_count
+
+        L = _natural_length(eq, pot)
+        a = 2 * L
+        hi = eq.energy_window(pot)[1]
+        r_min = _inner_end(eq, pot, gamma, L, levels, hi)
+        r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L))
+        bound = far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
+        want = min(levels, bound)
+    out = solve_laguerre(eq, pot, want, tol, sample, gamma, _inner_cut(gamma, False) * a, a) if want else None
     if out is None:
-        return None
+        return _solve_elements(eq, pot, levels, tol, known_bound=bound)
     found, notes, per_level, worst, extra = out
+    extra["bound_count"] = bound
     return found, _Tally(notes=notes), per_level, worst, extra
 
 
