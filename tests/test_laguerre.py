@@ -315,3 +315,16 @@ def test_random_coulomb_tailed_potentials_give_the_elements_levels(monkeypatch, 
 @given(p=_CASES)
 def test_random_coulomb_tailed_potentials_give_the_elements_levels_thorough(monkeypatch, p):
     _same_levels_as_the_elements(monkeypatch, p)
+
+
+def test_cli_table_names_the_mesh_that_produced_the_levels():
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+
+    out = CliRunner().invoke(main, ["solve", "--param", "Z=1", "--levels", "2"])
+    assert out.exit_code == 0
+    assert "method spectral (Lagrange-Laguerre mesh, N = " in out.output
+    out = CliRunner().invoke(main, ["solve", "--equation", "dirac", "--kappa", "-1", "--param", "Z=1"])
+    assert out.exit_code == 0
+    assert "method spectral (spectral elements, " in out.output

@@ -710,12 +710,12 @@ def _solve_laguerre(eq, pot, levels, tol):
     sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
     bound = None
     want = levels
+    L = _natural_length(eq, pot)
     if pot.tail_charge > 0:
         a = 1.0 / (eq.mass * pot.tail_charge)
     else:
         from .ladder import far_count
 
-        L = _natural_length(eq, pot)
         a = 2 * L
         hi = eq.energy_window(pot)[1]
         r_min = _inner_end(eq, pot, gamma, L, levels, hi)
@@ -727,6 +727,7 @@ def _solve_laguerre(eq, pot, levels, tol):
         return _solve_elements(eq, pot, levels, tol, known_bound=bound)
     found, notes, per_level, worst, extra = out
     extra["bound_count"] = bound
+    extra["L"] = L
     return found, _Tally(notes=notes), per_level, worst, extra
 
 

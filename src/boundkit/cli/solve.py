@@ -20,6 +20,16 @@ _CONVENTION = {"atomic": "atomic labels: n = nodes + l + 1",
                "quarkonium": "quarkonium labels: n = nodes + 1 (1S, 2S, 1P)"}
 
 
+def _mesh(res) -> str:
+    """' (Lagrange-Laguerre mesh, N = 45)' or ' (spectral elements, 301 nodes)', from the result."""
+    mesh = res.diagnostics.get("mesh")
+    if not mesh or not res.levels:
+        return ""
+    size = res.levels[-1].resolution
+    return (f" (Lagrange-Laguerre mesh, N = {size})" if mesh == "lagrange-laguerre"
+            else f" (spectral elements, {size} nodes)")
+
+
 def _table(res, unit: str, length: str = "bohr") -> str:
     from ..states import level_n
     from ..units import bohr_to, hartree_to
@@ -30,7 +40,8 @@ def _table(res, unit: str, length: str = "bohr") -> str:
     head = [
         f"{res.equation} equation, potential {res.potential}, particle {s.get('particle')} "
         f"({s.get('particle_mass_MeV'):.9g} MeV/c^2)",
-        f"method {s['method']['method']}, tol {s['tol']:g} (relative), alpha = {res.constants['alpha']:.13g} (CODATA)",
+        f"method {s['method']['method']}{_mesh(res)}, tol {s['tol']:g} (relative), "
+        f"alpha = {res.constants['alpha']:.13g} (CODATA)",
         f"binding energies (total minus rest energy) in {unit}; {_CONVENTION[labels]}",
         f"natural length of the potential {bohr_to(d.get('natural_length_bohr') or 0.0, length):.6g} {length}",
         "",
