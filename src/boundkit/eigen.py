@@ -16,6 +16,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import math
+
 import numpy as np
 import scipy.linalg as sla
 import scipy.sparse as sp
@@ -93,7 +95,9 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
     ``op.residual_double`` when rtol >= 1e-12 asks for no more than double gives,
     and for the steps above 1e-10 |E| in any case).
     Iteration stops when |dE| <= rtol |E| twice in a row, or once right after a
-    step below 1e-8 |E| (rtol defaults to
+    step below 1e-8 |E|, or after a first step below 1e-2 sqrt(rtol) |E| (the
+    seed was so close that the next step, smaller by a factor of at most about
+    |E| / gap, would fall below rtol) (rtol defaults to
     1e-17 with extended-precision residuals, 1e-15 without), or after
     ``max_iter`` steps (then ``converged`` is False).
     """
@@ -138,6 +142,10 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
             # by 1e-6 or better (its factor is about the size of the previous step over the gap)
             if small >= 2 or prev <= 1e-8 * abs(float(E)):
                 return Refined(float(E), np.asarray(yw, dtype=float), it, True, step)
+        elif it == 1 and step <= 1e-2 * math.sqrt(rtol) * abs(float(E)):
+            # a first step so small that the next one, quadratically smaller by a factor up to
+            # |E| / gap (1e4 allowed here), would fall below rtol: the seed was already that close
+            return Refined(float(E), np.asarray(yw, dtype=float), it, True, step)
         else:
             small = 0
     return Refined(float(E), np.asarray(yw, dtype=float), max_iter, False, step)
