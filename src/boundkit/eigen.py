@@ -14,9 +14,8 @@ Three solvers, one loop each:
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import math
+from dataclasses import dataclass
 
 import numpy as np
 import scipy.linalg as sla

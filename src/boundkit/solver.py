@@ -400,7 +400,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     ``known_bound``: the far-box count of a short-range potential, when the caller has it.
     """
     study = degrees is not None
-    from .ladder import FLOOR, far_count, ladder_for, layout, solve_rung
+    from .ladder import FLOOR, ladder_for, layout, solve_rung
     from .locator import certify_levels
 
     tally = _Tally()
@@ -421,8 +421,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
     bound = known_bound if short_range else None
     if short_range and bound is None:
-        r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, n_req, L))
-        bound = far_count(eq, pot, sample, gamma, r_core, r_min, r_far, hi)
+        bound = _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi)
     elif levels is None:
         raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
                          + ("is confining" if pot.confining else "has a Coulomb tail")
@@ -695,6 +694,14 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
                    extra, t0)
 
 
+def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float) -> int:
+    """Bound levels of a short-range potential below the threshold ``hi``, counted on a far box."""
+    from .ladder import far_count
+
+    r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L))
+    return far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
+
+
 def _solve_laguerre(eq, pot, levels, tol):
     """The one-matrix Lagrange-Laguerre path (:mod:`boundkit.laguerre_solver`), or the element
     solver when the channel is not one it handles or one of its checks fails.
@@ -714,13 +721,9 @@ def _solve_laguerre(eq, pot, levels, tol):
     if pot.tail_charge > 0:
         a = 1.0 / (eq.mass * pot.tail_charge)
     else:
-        from .ladder import far_count
-
         a = 2 * L
         hi = eq.energy_window(pot)[1]
-        r_min = _inner_end(eq, pot, gamma, L, levels, hi)
-        r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L))
-        bound = far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
+        bound = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, levels, hi), levels, hi)
         want = min(levels, bound)
     out = solve_laguerre(eq, pot, want, tol, sample, gamma, _inner_cut(gamma, False) * a, a) if want else None
     if out is None:
