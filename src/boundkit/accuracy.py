@@ -101,9 +101,13 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
              tol: float = 1e-13, **kwargs) -> ConvergenceResult:
     """Convergence study of one channel.
 
-    The spectral family is the one :func:`boundkit.solve` uses (spectral
-    elements on a fixed layout; ``sizes["spectral"]`` are element degrees and
-    the rows give the number of nodes); finite differences solve each level on
+    The spectral family is studied on spectral elements on a fixed layout
+    (``sizes["spectral"]`` are element degrees and the rows give the number of
+    nodes), which is what :func:`boundkit.solve` uses for Klein-Gordon and
+    Dirac channels; a Schrodinger channel that :func:`boundkit.solve` takes to
+    one Lagrange-Laguerre matrix (:mod:`boundkit.laguerre_solver`, its
+    ``diagnostics["mesh"]``) is still studied on the elements here, and its
+    reference comes from that matrix; finite differences solve each level on
     its own fixed mesh at every size;
     the reference is a spectral solve at relative tolerance ``tol`` (default
     1e-13, near the rounding floor, so that the errors measured against it are
