@@ -22,10 +22,14 @@ from ._checks import check_int, check_positive
 
 __all__ = ["converge", "ConvergenceResult", "observed_order"]
 
+SPECTRAL_FAMILIES = ("spectral", "laguerre-mesh")   # faster than any power: local slopes, not one order
+
 DEFAULT_SIZES = {
     # the spectral family's sizes are element degrees (the layout fixes the number of elements)
     "spectral": (4, 6, 8, 10, 12, 15, 18, 21, 24, 28, 32),
     "finite-difference": (100, 141, 200, 283, 400, 566, 800, 1131, 1600),
+    # the Lagrange-Laguerre path's sizes are its numbers of nodes
+    "laguerre-mesh": (8, 12, 16, 20, 26, 32, 40, 50, 62, 78),
 }
 
 
@@ -75,7 +79,7 @@ class ConvergenceResult:
         lines.append("")
         for (m, label), order in self.orders.items():
             extra = ""
-            if m == "spectral":
+            if m in SPECTRAL_FAMILIES:
                 loc = [f"{x:.1f}" for x in self.local_orders.get((m, label), [])]
                 extra = f"  local slopes {', '.join(loc)}"
             lines.append(f"observed order {m:<18} {label:<8} {order:6.2f}{extra}")
@@ -103,11 +107,11 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
 
     The spectral family is studied on spectral elements on a fixed layout
     (``sizes["spectral"]`` are element degrees and the rows give the number of
-    nodes), which is what :func:`boundkit.solve` uses for Klein-Gordon and
-    Dirac channels; a Schrodinger channel that :func:`boundkit.solve` takes to
-    one Lagrange-Laguerre matrix (:mod:`boundkit.laguerre_solver`, its
-    ``diagnostics["mesh"]``) is still studied on the elements here, and its
-    reference comes from that matrix; finite differences solve each level on
+    nodes); when :func:`boundkit.solve` takes the channel (a Schrodinger one)
+    to one Lagrange-Laguerre matrix (:mod:`boundkit.laguerre_solver`, its
+    ``diagnostics["mesh"]``), that mesh is studied too, as method
+    ``laguerre-mesh`` with ``sizes["laguerre-mesh"]`` nodes on one scale;
+    finite differences solve each level on
     its own fixed mesh at every size;
     the reference is a spectral solve at relative tolerance ``tol`` (default
     1e-13, near the rounding floor, so that the errors measured against it are
@@ -121,11 +125,16 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
 
 
 def _element_rows(eq, pot, levels, tol, degrees, reference, rows, orders, local) -> None:
-    """The spectral-element family (the one :func:`boundkit.solve` uses) on its own layout at each
-    degree: rows keyed by the number of nodes, orders from the log-log slope in that number."""
+    """The spectral-element family on its own layout at each degree: rows keyed by the number of
+    nodes, orders from the log-log slope in that number."""
     from .solver import _solve_elements
 
     _, _, per_level, _, _ = _solve_elements(eq, pot, levels, tol, degrees=sorted(set(int(d) for d in degrees)))
+    _add_rows("spectral", per_level, reference, rows, orders, local)
+
+
+def _add_rows(method: str, per_level, reference, rows, orders, local) -> None:
+    """Rows, observed orders and local slopes of a spectral family's per-level histories."""
     for rec in per_level:
         label = rec["label"]
         if label not in reference:
@@ -135,15 +144,27 @@ def _element_rows(eq, pot, levels, tol, degrees, reference, rows, orders, local)
         for size, E in zip(rec["sizes"], rec["energies"]):
             err = abs(E - Eref) / abs(Eref)
             diff = math.nan if prev is None else abs(E - prev) / abs(Eref)
-            rows.append({"method": "spectral", "size": size, "label": label, "energy": E, "error": err,
+            rows.append({"method": method, "size": size, "label": label, "energy": E, "error": err,
                          "difference": diff})
             got_sizes.append(size)
             errs.append(err)
             prev = E
-        orders[("spectral", label)] = observed_order(got_sizes, errs)
+        orders[(method, label)] = observed_order(got_sizes, errs)
         s, e = np.log(got_sizes), np.log(np.maximum(errs, 1e-300))
-        local[("spectral", label)] = [float(-(e[i + 1] - e[i]) / (s[i + 1] - s[i]))
-                                      for i in range(len(s) - 1) if errs[i + 1] > 1e-13]
+        local[(method, label)] = [float(-(e[i + 1] - e[i]) / (s[i + 1] - s[i]))
+                                  for i in range(len(s) - 1) if errs[i + 1] > 1e-13]
+
+
+def _laguerre_rows(eq, pot, levels, sizes, reference, rows, orders, local) -> None:
+    """The Lagrange-Laguerre mesh (the one :func:`boundkit.solve` took for this Schrodinger channel) at
+    each number of nodes, on one scale: rows keyed by that number, as for the elements."""
+    from .laguerre_solver import study
+    from .solver import _sample, laguerre_scale
+
+    _, a, r_lo = laguerre_scale(eq, pot, eq.gamma(pot))
+    used, hist, _ = study(eq, lambda r, scan=False: _sample(pot, r, scan), levels, a, r_lo, sizes)
+    per_level = [{"label": eq.label(k + eq.l + 1), "sizes": used, "energies": h} for k, h in enumerate(hist)]
+    _add_rows("laguerre-mesh", per_level, reference, rows, orders, local)
 
 
 def _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs):
@@ -160,6 +181,9 @@ def _converge(equation, potential, params, l, kappa, levels, methods, order, siz
         if mname == "spectral":
             _element_rows(eq, pot, levels, tol, (sizes or DEFAULT_SIZES)["spectral"], reference, rows, orders,
                           local)
+            if ref.diagnostics.get("mesh") == "lagrange-laguerre":
+                _laguerre_rows(eq, pot, len(ref.levels), (sizes or DEFAULT_SIZES).get(
+                    "laguerre-mesh", DEFAULT_SIZES["laguerre-mesh"]), reference, rows, orders, local)
             continue
         disc = FiniteDifference(order) if mname == "finite-difference" else get_method(mname)
         for k, E0 in enumerate(ch.seeds[:levels]):

@@ -70,7 +70,7 @@ from .discretize.laguerre import expand, laguerre_mesh
 from .results import Level, RadialState
 from .states import normalise, principal_n
 
-__all__ = ["applies", "solve_laguerre"]
+__all__ = ["applies", "solve_laguerre", "study"]
 
 log = logging.getLogger(__name__)
 
@@ -291,6 +291,32 @@ def _states(gamma: float, r_core: float, h: float, mesh, u: np.ndarray, r, w_dr,
         out.append(RadialState(r=r, P=P, Q=None, weights=w_dr, gamma=gamma, r_core=r_core, elements=elements,
                                family="spectral"))
     return out
+
+
+def study(eq, sample, want: int, a: float, r_lo: float, sizes) -> tuple[list[int], list[list[float]], float]:
+    """Energies of the lowest ``want`` levels at each mesh size in ``sizes``, on one scale (a
+    convergence study): ``(sizes used, energies per level, last node radius)``.
+
+    The scale is chosen as :func:`solve_laguerre` chooses it (moved out while the highest level, on
+    the first size, has not decayed by e^-30 at the last node); sizes below want + 2 are skipped.
+    """
+    sizes = [int(n) for n in sorted(set(sizes)) if int(n) >= want + 2]
+    if not sizes:
+        raise ValueError(f"sizes: a Laguerre mesh for {want} level(s) needs at least {want + 2} nodes")
+    r_last = a * _hydrogenic_reach(want + eq.l, _DECAY_NEEDED + 2)
+    for _ in range(4):
+        mesh = laguerre_mesh(sizes[-1])
+        E = _levels_on(eq, sample, mesh, r_last / mesh.x[-1], want)[0]
+        if E[-1] < 0 and _Probe.on(sample, r_lo, r_last).decay(eq, E[-1]) >= _DECAY_NEEDED:
+            break
+        r_last *= 1.6
+    hist: list[list[float]] = [[] for _ in range(want)]
+    for N in sizes:
+        mesh = laguerre_mesh(N)
+        E = _levels_on(eq, sample, mesh, r_last / mesh.x[-1], want)[0]
+        for k in range(want):
+            hist[k].append(float(E[k]))
+    return sizes, hist, r_last
 
 
 def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo: float, a: float):

@@ -702,6 +702,14 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
     return far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
 
 
+def laguerre_scale(eq, pot, gamma: float) -> tuple[float, float, float]:
+    """(natural length L, scale length a, inner end r_lo) of the Lagrange-Laguerre path: a is the
+    Bohr radius 1/(mu Z_inf) of a Coulomb tail, else 2 L (the Bohr radius for a Coulomb-like core)."""
+    L = _natural_length(eq, pot)
+    a = 1.0 / (eq.mass * pot.tail_charge) if pot.tail_charge > 0 else 2 * L
+    return L, a, _inner_cut(gamma, False) * a
+
+
 def _solve_laguerre(eq, pot, levels, tol):
     """The one-matrix Lagrange-Laguerre path (:mod:`boundkit.laguerre_solver`), or the element
     solver when the channel is not one it handles or one of its checks fails.
@@ -717,15 +725,12 @@ def _solve_laguerre(eq, pot, levels, tol):
     sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
     bound = None
     want = levels
-    L = _natural_length(eq, pot)
-    if pot.tail_charge > 0:
-        a = 1.0 / (eq.mass * pot.tail_charge)
-    else:
-        a = 2 * L
+    L, a, r_lo = laguerre_scale(eq, pot, gamma)
+    if pot.tail_charge == 0:
         hi = eq.energy_window(pot)[1]
         bound = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, levels, hi), levels, hi)
         want = min(levels, bound)
-    out = solve_laguerre(eq, pot, want, tol, sample, gamma, _inner_cut(gamma, False) * a, a) if want else None
+    out = solve_laguerre(eq, pot, want, tol, sample, gamma, r_lo, a) if want else None
     if out is None:
         return _solve_elements(eq, pot, levels, tol, known_bound=bound)
     found, notes, per_level, worst, extra = out
