@@ -3,19 +3,19 @@
 The fast path of the spectral family. For a Schrodinger channel whose
 potential falls off like -Z_inf/r (Z_inf > 0) or faster (short range; its
 bound levels are counted on the far box first, as for the elements), does not
-confine and is regular at the origin, the regularized Lagrange-Laguerre mesh (:mod:`boundkit.discretize.laguerre`)
-turns the radial operator into one real symmetric N x N matrix
+confine and is regular at the origin, the regularized Lagrange-Laguerre mesh
+(:mod:`boundkit.discretize.laguerre`) turns the radial operator into one real
+symmetric N x N matrix
 
-    H_ij = T_ij / (2 mu h^2) + [l(l+1) / (2 mu r_i^2) + V(r_i) + S(r_i)] delta_ij,
-    r_i = h x_i,
+    H_ij = T_ij / (2 mu h^2) + [l(l+1) / (2 mu r_i^2) + q(r_i)] delta_ij,
+    r_i = h x_i,   q = V + S (+ <l.s> U with a spin-orbit term and j given),
 
 whose lowest eigenvalues are the lowest levels, all at once: a few dozen nodes
 give the hydrogen levels to rounding. The procedure:
 
 1. the scale h puts the last node where the highest level sought (taken
    hydrogen-like, n = levels + l, in the tail charge or the core's natural
-   length) has decayed by far more
-   than the digits asked for;
+   length) has decayed by far more than the digits asked for;
 2. N climbs a short ladder that starts where the error is about 10 tol; on
    each size one ``eigh`` gives the lowest levels, and the energies are their
    Rayleigh quotients v^T H v (the matrix has entries of size N^2, and the
@@ -29,8 +29,8 @@ give the hydrogen levels to rounding. The procedure:
    (WKB, with its energy on the first size; otherwise the scale grows by 1.6
    and the climb starts again) and is not classically allowed anywhere beyond
    the last node (out to 1e8 times it: a well out there, which the elements'
-   box would reach, could hold a deeper level), and (c) every level feels the potential on the
-   nodes as it does on a fine grid: <V> from the mesh's Gauss rule and from the
+   box would reach, could hold a deeper level), and (c) every level feels the
+   potential on the nodes as it does on a fine grid: <V> from the mesh's Gauss rule and from the
    state's own element quadrature (below the first node too) differ by less
    than tol |E|. That difference is the first-order energy error of a potential
    with structure the nodes do not see (a finite nucleus, vacuum polarisation,
@@ -46,7 +46,8 @@ give the hydrogen levels to rounding. The procedure:
 
 The levels are the lowest eigenvalues of one symmetric matrix (their index is
 the count of eigenvalues below them), so none is skipped within the mesh;
-checks (c) and (d) are what keep a feature from hiding between or below the nodes.
+checks (c) and (d) are what keep a feature from hiding between or below the
+nodes.
 Tolerances below 1e-13 also go to the elements (see :func:`applies`).
 
 Wave functions are passed to the rest of boundkit as spectral-element states
