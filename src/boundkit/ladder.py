@@ -28,13 +28,18 @@ import logging
 import math
 from dataclasses import dataclass
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 
 from .discretize.elements import element_grid
-from .equations.variational import SymmetricOperator
-from .locator import Located, count_below, locate_levels
 
-__all__ = ["DEGREES", "FLOOR", "far_count", "ladder_for", "layout", "make_operator", "solve_rung", "Rung"]
+if TYPE_CHECKING:       # the operator and the locator load with the first rung, not with the stop rule
+    from .equations.variational import SymmetricOperator
+    from .locator import Located
+
+__all__ = ["DEGREES", "FLOOR", "far_count", "ladder_for", "layout", "make_operator", "solve_rung", "Rung",
+           "spectral_done"]
 
 log = logging.getLogger(__name__)
 
@@ -69,11 +74,10 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
     t = np.linspace(math.log(r_min), math.log(r_max), 4001)
     r = np.exp(t)
     s = sample_fn(r, scan=True)      # overflowing (confining) values become large, not errors
-    k = eq.kappa_eff
     rho = np.full_like(r, 0.25)
     for E in energies:
         with np.errstate(all="ignore"):
-            ex = (eq.q(E, s) - E) / eq.p(E, s) + k * (k + 1) / r**2
+            ex = eq.excess(E, s)
         ex = np.nan_to_num(ex, nan=0.0, posinf=1e300, neginf=-1e300)
         rate = r * np.sqrt(np.abs(ex))
         rho = np.maximum(rho, _rate_for(t, ex, rate))
@@ -102,6 +106,13 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
     phase = np.interp(out, t, cum)
     quiet = [bool(b - a < 0.5 * _PHASE) for a, b in zip(phase[:-1], phase[1:])]
     return out, quiet
+
+
+def spectral_done(h: list[float], tol: float) -> bool:
+    """Stop rule of the spectral family (elements and the Laguerre mesh): the last change of a
+    level's energy history meets tol, and the one before it 100 tol."""
+    E = abs(h[-1])
+    return abs(h[-1] - h[-2]) <= tol * E and abs(h[-2] - h[-3]) <= 100 * tol * E
 
 
 def _shape_rate(t, r, s):
@@ -164,6 +175,8 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
     degrees = _degrees(quiet, n)
     quads = [d + 2 + int(math.ceil(0.5 * (2 * gamma + 1) * (b - a)))
              for d, a, b in zip(degrees, edges[:-1], edges[1:])]
+    from .equations.variational import SymmetricOperator
+
     grid = element_grid(edges, degrees, quads)
     sample_q = sample_fn(np.exp(grid.tq.astype(float)))
     return SymmetricOperator(eq, grid, sample_fn(grid.r), sample_q, gamma, r_core, E_ref=E0)
@@ -173,6 +186,8 @@ def solve_rung(eq, pot, sample_fn, gamma, r_core, edges, quiet, n, want, lo, hi,
                guesses=None, top_guess=None, sure: bool = True, certify: bool = True, offset: int = 0,
                rtol: float | None = None) -> Rung:
     """Build the operator at degree n and locate the levels on it (see :func:`locate_levels`)."""
+    from .locator import locate_levels
+
     op = make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0)
     grid = op.grid
     return Rung(n, grid.size, op, locate_levels(op, want, lo, hi, E0, scale, guesses, top_guess, sure,
@@ -181,6 +196,8 @@ def solve_rung(eq, pot, sample_fn, gamma, r_core, edges, quiet, n, want, lo, hi,
 
 def far_count(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi: float) -> int:
     """Bound levels below the threshold ``hi`` counted on a far box (short-range potentials)."""
+    from .locator import count_below
+
     edges, quiet = layout(eq, pot, sample_fn, r_min, r_far, [hi])
     counts = []
     for n in (11, 18):

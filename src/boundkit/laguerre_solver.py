@@ -68,14 +68,14 @@ import scipy.linalg as sla
 
 from .discretize.elements import gll
 from .discretize.laguerre import expand, laguerre_mesh
+from .ladder import FLOOR, spectral_done
 from .results import Level, RadialState
-from .states import normalise, principal_n
+from .states import count_nodes, normalise, principal_n
 
 __all__ = ["applies", "solve_laguerre", "study"]
 
 log = logging.getLogger(__name__)
 
-FLOOR = 2e-14          # rounding floor of the energies (the elements' value; Rayleigh quotients measured 4e-15)
 MAX_N = 200            # beyond this size the element family is cheaper
 _DECAY_NEEDED = 30.0   # e-folds of decay of the highest level at the last node
 _SHAPE_PER_GAP = 4.0   # check (d): shape rate in r times node spacing (a smooth screened core: 3)
@@ -161,11 +161,6 @@ def _levels_on(eq, sample, mesh, h: float, want: int):
     return rq, u, r, q
 
 
-def _done(h: list[float], tol: float) -> bool:
-    E = abs(h[-1])
-    return len(h) >= 3 and abs(h[-1] - h[-2]) <= max(tol, FLOOR) * E and abs(h[-2] - h[-3]) <= 100 * max(tol, FLOOR) * E
-
-
 def _stalled(hist: list[list[float]], N: int, tol: float) -> bool:
     """Whether the climb should give up: two steps in a row in which the worst change between sizes
     fell by less than half (not the geometric convergence of a potential the mesh resolves), or a
@@ -184,11 +179,6 @@ def _stalled(hist: list[list[float]], N: int, tol: float) -> bool:
     # spectral convergence: log d falls linearly in N (one step here is N -> ~1.2 N)
     per_node = math.log(rho) / (N - N / 1.2)
     return N + math.log(max(tol, FLOOR) / d[-1]) / per_node > MAX_N
-
-
-def _sign_changes(u: np.ndarray) -> int:
-    big = u[np.abs(u) > 1e-8 * np.max(np.abs(u))]
-    return int(np.count_nonzero(np.diff(np.sign(big)) != 0))
 
 
 @dataclass
@@ -212,7 +202,7 @@ class _Probe:
         node (check b)."""
         r = self.r
         with np.errstate(all="ignore"):
-            k2 = 2 * eq.mass * (eq.q(E, self.s) - E) + eq.l * (eq.l + 1) / r**2
+            k2 = eq.excess(E, self.s)
         allowed = np.nonzero(k2 < 0)[0]
         if not allowed.size:
             return 0.0
@@ -227,7 +217,7 @@ class _Probe:
         r = np.geomspace(r_last, 1e8 * r_last, 800)
         s = sample(r, scan=True)
         with np.errstate(all="ignore"):
-            k2 = 2 * eq.mass * (eq.q(E, s) - E) + eq.l * (eq.l + 1) / r**2
+            k2 = eq.excess(E, s)
         return bool(np.any(k2 < 0))
 
     def shape_gaps(self, r_nodes: np.ndarray) -> float:
@@ -362,7 +352,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         runs.append((N, mesh, h, E, u, q_nodes))
         for k in range(want):
             hist[k].append(float(E[k]))
-        if all(_done(hk, tol) for hk in hist):
+        if all(len(hk) >= 3 and spectral_done(hk, max(tol, FLOOR)) for hk in hist):
             break
         if _stalled(hist, N, tol):
             log.info("Laguerre mesh: the levels stopped converging geometrically at N = %d; using spectral "
@@ -372,7 +362,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         log.info("Laguerre mesh: no convergence up to N = %d; using spectral elements", MAX_N)
         return None
     N, mesh, h, E, u, q_nodes = runs[-1]
-    if any(_sign_changes(u[:, k]) != k for k in range(want)):
+    if any(count_nodes(u[:, k]) != k for k in range(want)):
         log.info("Laguerre mesh: a node count disagrees with the level's index; using spectral elements")
         return None
     shape = probe.shape_gaps(h * mesh.x)

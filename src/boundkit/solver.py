@@ -142,10 +142,8 @@ def _radii(eq: RadialEquation, pot: Potential, E: float, L: float) -> tuple[floa
     to the origin)."""
     r = np.logspace(math.log10(L * 1e-3), math.log10(L * 1e10), 6000)
     s = _sample(pot, r, scan=True)
-    k = eq.kappa_eff
     with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        p = eq.p(E, s)
-        excess = (eq.q(E, s) - E) / p + k * (k + 1) / r**2
+        excess = eq.excess(E, s)
     allowed = np.nonzero(excess < 0)[0]
     start = allowed[-1] if allowed.size else 0
     core = float(r[allowed[0]]) if allowed.size and allowed[0] > 0 else L
@@ -400,7 +398,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     ``known_bound``: the far-box count of a short-range potential, when the caller has it.
     """
     study = degrees is not None
-    from .ladder import FLOOR, ladder_for, layout, solve_rung
+    from .ladder import FLOOR, ladder_for, layout, solve_rung, spectral_done
     from .locator import certify_levels
 
     tally = _Tally()
@@ -498,7 +496,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     def finished(energies):
         if study or len(energies) != want:
             return False, False
-        done = all(len(h) >= 3 and _spectral_done(h, tol) for h in hist[:want])
+        done = all(len(h) >= 3 and spectral_done(h, tol) for h in hist[:want])
         floor = all(len(h) >= 3 and max(abs(h[-1] - h[-2]), abs(h[-2] - h[-3])) <= FLOOR * abs(h[-1])
                     for h in hist[:want])
         return done, floor
@@ -573,12 +571,6 @@ def _record(hist: list, energies, overwrite: int = 0) -> None:
             hist[k][-1] = E
         else:
             hist[k].append(E)
-
-
-def _spectral_done(h: list[float], tol: float) -> bool:
-    """Stop rule of the spectral family: the last change meets tol, and the one before it 100 tol."""
-    E = abs(h[-1])
-    return abs(h[-1] - h[-2]) <= tol * E and abs(h[-2] - h[-3]) <= 100 * tol * E
 
 
 def _pole_free_bottom(eq, sample, r_min: float, lo: float) -> float:

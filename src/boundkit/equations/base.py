@@ -94,6 +94,13 @@ class RadialEquation:
     def energy_window(self, potential) -> tuple[float, float]:
         return (-np.inf, np.inf if potential.confining else 0.0)
 
+    def excess(self, E, s: Sample):
+        """Local squared decay rate of the factorized form at energy E on the sample ``s``:
+        (q - E) / p + kappa_eff (kappa_eff + 1) / r^2. Negative where a level of energy E is
+        classically allowed; its square root integrates to the WKB decay exponent where positive."""
+        k = self.kappa_eff
+        return (self.q(E, s) - E) / self.p(E, s) + k * (k + 1) / s.r**2
+
     def label(self, n: int) -> str:  # pragma: no cover - contract
         raise NotImplementedError
 
