@@ -34,14 +34,14 @@ levels of the discrete problem below E. See :mod:`boundkit.locator`.
 """
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
-from ..discretize.elements import ElementGrid
+from ..discretize.elements import ElementGrid, _reference_quadrature
 from .base import RadialEquation, Sample, frobenius_slope
 
 __all__ = ["SymmetricOperator"]
-
-_PADDED: dict = {}
 
 
 def _add_nodal(out: np.ndarray, idx: np.ndarray, values: np.ndarray) -> None:
@@ -51,23 +51,18 @@ def _add_nodal(out: np.ndarray, idx: np.ndarray, values: np.ndarray) -> None:
         out[idx[par::2]] += values[par::2]
 
 
+@lru_cache(maxsize=1024)
 def _padded_reference(d: int, me: int, m: int):
     """(B, Bt, w) of the degree-d reference element with me Gauss points, padded to m rows with
-    zeros (extended precision; w in double)."""
-    key = (d, me, m)
-    got = _PADDED.get(key)
-    if got is None:
-        from ..discretize.elements import _reference_quadrature
-
-        _, wy, B, Bt = _reference_quadrature(d, me)
-        Bp = np.zeros((m, d + 1), dtype=np.longdouble)
-        Btp = np.zeros((m, d + 1), dtype=np.longdouble)
-        wp = np.zeros(m)
-        Bp[:me], Btp[:me], wp[:me] = B, Bt, wy
-        if len(_PADDED) > 1024:
-            _PADDED.clear()
-        got = _PADDED[key] = (Bp, Btp, wp)
-    return got
+    zeros (extended precision; w in double). Cached: shared, read-only."""
+    _, wy, B, Bt = _reference_quadrature(d, me)
+    Bp = np.zeros((m, d + 1), dtype=np.longdouble)
+    Btp = np.zeros((m, d + 1), dtype=np.longdouble)
+    wp = np.zeros(m)
+    Bp[:me], Btp[:me], wp[:me] = B, Bt, wy
+    for a in (Bp, Btp, wp):
+        a.flags.writeable = False
+    return Bp, Btp, wp
 
 
 class SymmetricOperator:
