@@ -192,8 +192,7 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     bound = None
     if want is None:         # all levels: their number is the count below the top of the window
         certify = True
-        offset = count_below(op, lo) if math.isfinite(lo) else 0
-        bound = count_below(op, hi) - offset if math.isfinite(hi) else None
+        offset, bound = _window_counts(op, lo, hi)
     if guesses is not None and len(guesses) and (want is None or len(guesses) >= want):
         g = np.asarray(guesses, dtype=float)
         nxt = top_guess if top_guess is not None else (hi if math.isfinite(hi) else g[-1] + 10 * scale)
@@ -243,8 +242,7 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
                 and E_top < hi and count_below(op, E_top) == want):
             return Located(tuple(energies), tuple(loc.vectors[:want]), E_top, want, None, 0, True, 0,
                            checked=True, next_energy=nxt)
-    offset = count_below(op, lo) if math.isfinite(lo) else 0
-    bound = count_below(op, hi) - offset if math.isfinite(hi) else None
+    offset, bound = _window_counts(op, lo, hi)
     m = want if bound is None else min(want, bound)
     energies, vectors = list(loc.energies[:m]), list(loc.vectors[:m])
     nxt = loc.energies[m] if len(loc.energies) > m else loc.next_energy
@@ -258,6 +256,12 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
         ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m + offset)
     return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok, offset,
                    checked=True, next_energy=nxt)
+
+
+def _window_counts(op: SymmetricOperator, lo: float, hi: float) -> tuple[int, int | None]:
+    """(states below the window (dived), levels inside it, None when its top is infinite)."""
+    offset = count_below(op, lo) if math.isfinite(lo) else 0
+    return offset, count_below(op, hi) - offset if math.isfinite(hi) else None
 
 
 def _top(energies, nxt: float, hi: float) -> float:
