@@ -30,6 +30,7 @@ import logging
 import math
 import time
 from dataclasses import dataclass, field, replace
+from functools import lru_cache
 
 import numpy as np
 
@@ -111,8 +112,16 @@ def _sample(pot: Potential, r: np.ndarray, scan: bool = False) -> Sample:
     return Sample(r, V, S, None if W is None else np.asarray(W, dtype=float))
 
 
-def _natural_length(eq: RadialEquation, pot: Potential) -> float:
+@lru_cache(maxsize=1)
+def _length_radii() -> np.ndarray:
+    """The radii the natural length is looked for on (read-only; built once)."""
     r = np.logspace(-14, 8, 2201)
+    r.flags.writeable = False
+    return r
+
+
+def _natural_length(eq: RadialEquation, pot: Potential) -> float:
+    r = _length_radii()
     s = _sample(pot, r, scan=True)
     # a 1/r^2 part has no length of its own (it only shifts l): leave it out
     v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
