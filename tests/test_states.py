@@ -245,3 +245,21 @@ def test_non_relativistic_limit(equation, channel, exact):
     slope = np.polyfit(np.log(Zs), np.log(deltas), 1)[0]
     assert abs(slope - 2.0) <= 0.05, slope
     assert deltas[0] < 1e-4
+
+
+def test_normalise_rows_match_one_at_a_time():
+    """Several states as the rows of one array get the norm and sign (P > 0 near the origin) that
+    each gets alone, including a row whose first large value is negative."""
+    from boundkit.states import normalise
+
+    rng = np.random.default_rng(7)
+    w = rng.uniform(0.1, 1.0, 50)
+    P = rng.normal(size=(4, 50))
+    P[1, :3] = [1e-9, -2.0, 5.0]       # first value above 1e-6 max|P| is negative: flipped
+    (rows,), norms = normalise(w, P)
+    for k in range(4):
+        (alone,), norm = normalise(w, P[k])
+        assert np.allclose(rows[k], alone, rtol=1e-14, atol=0)
+        assert norms[k] == pytest.approx(norm, rel=1e-14)
+    assert rows[1][1] > 0
+    assert np.sum(w * rows[0] ** 2) == pytest.approx(1.0, rel=1e-14)

@@ -65,9 +65,10 @@ from functools import lru_cache
 
 import numpy as np
 import scipy.linalg as sla
+from scipy.linalg import lapack
 
 from .discretize.elements import gll
-from .discretize.laguerre import expand, laguerre_mesh
+from .discretize.laguerre import cardinal_matrix, laguerre_mesh
 from .ladder import FLOOR, spectral_done
 from .results import Level, RadialState
 from .states import count_nodes, normalise, principal_n
@@ -143,6 +144,26 @@ def _ladder(n0: int) -> list[int]:
     return sizes
 
 
+@lru_cache(maxsize=64)
+def _work_sizes(n: int) -> tuple[int, int]:
+    """LAPACK's optimal workspace of dsyevr for an n x n matrix (the query scipy.linalg.eigh makes
+    on every call)."""
+    lwork, liwork, info = lapack.dsyevr_lwork(n, lower=1)
+    if info != 0:
+        raise np.linalg.LinAlgError(f"dsyevr workspace query failed (info = {info})")
+    return int(lwork), int(liwork)
+
+
+def _lowest(H: np.ndarray, want: int) -> tuple[np.ndarray, np.ndarray]:
+    """The lowest ``want`` eigenpairs of the real symmetric H: scipy.linalg.eigh(H, subset_by_index,
+    driver='evr') without its per-call checks and workspace query (same LAPACK call, same results)."""
+    lwork, liwork = _work_sizes(H.shape[0])
+    E, c, m, _, info = lapack.dsyevr(H, range="I", il=1, iu=want, lower=1, lwork=lwork, liwork=liwork)
+    if info != 0 or m != want:
+        return sla.eigh(H, subset_by_index=(0, want - 1), driver="evr")      # raises with LAPACK's message
+    return E[:want], c[:, :want]
+
+
 def _levels_on(eq, sample, mesh, h: float, want: int):
     """(energies, node values u_j normalised in r, the mesh radii, V + S there) of the lowest
     ``want`` levels."""
@@ -153,8 +174,8 @@ def _levels_on(eq, sample, mesh, h: float, want: int):
     q = eq.q(0.0, s)
     diag = eq.l * (eq.l + 1) / (2 * m * r**2) + q
     H = mesh.T / (2 * m * h * h)
-    H[np.diag_indices_from(H)] += diag
-    E, c = sla.eigh(H, subset_by_index=(0, want - 1), driver="evr", check_finite=False)
+    H.flat[:: mesh.n + 1] += diag
+    E, c = _lowest(H, want)
     # Rayleigh quotients (see the module docstring)
     rq = np.einsum("ik,ik->k", c, H @ c)
     u = c / np.sqrt(h * mesh.weights)[:, None]
@@ -195,7 +216,7 @@ class _Probe:
         t = np.linspace(math.log(r_lo), math.log(r_last), 4001)
         r = np.exp(t)
         s = sample(r)
-        return cls(r, s, _shape_rate_r(t, r, s))
+        return cls(r, s, _shape_rate_r(t[1] - t[0], r, s))
 
     def decay(self, eq, E: float) -> float:
         """e-folds of WKB decay of a level at energy E from its outer turning point to the last
@@ -214,7 +235,7 @@ class _Probe:
     def allowed_beyond(eq, sample, r_last: float, E: float) -> bool:
         """Whether a level at energy E is classically allowed anywhere beyond the last node (out to
         1e8 times it): a well out there could hold a level below E that the mesh never sees."""
-        r = np.geomspace(r_last, 1e8 * r_last, 800)
+        r = r_last * _beyond_factors()
         s = sample(r, scan=True)
         with np.errstate(all="ignore"):
             k2 = eq.excess(E, s)
@@ -225,13 +246,27 @@ class _Probe:
         first node): check (d)."""
         edges = np.concatenate(([0.0], r_nodes))
         gap = np.diff(edges)
-        which = np.clip(np.searchsorted(edges, self.r, side="right") - 1, 0, len(gap) - 1)
-        return float(np.max(np.nan_to_num(self.rate * gap[which], nan=np.inf)))
+        # gap k holds the samples edges[k] <= r < edges[k+1] (the last one also those beyond)
+        start = np.searchsorted(self.r, edges[:-1], side="left")
+        end = np.append(start[1:], len(self.r))
+        keep = end > start
+        rate = np.nan_to_num(self.rate, nan=np.inf)
+        return float(np.max(np.maximum.reduceat(rate, start[keep]) * gap[keep]))
 
 
-def _shape_rate_r(t, r, s) -> np.ndarray:
+@lru_cache(maxsize=1)
+def _beyond_factors() -> np.ndarray:
+    """800 radii from 1 to 1e8, evenly spaced in ln r (read-only; built once)."""
+    f = np.geomspace(1.0, 1e8, 800)
+    f.flags.writeable = False
+    return f
+
+
+def _shape_rate_r(dt: float, r, s) -> np.ndarray:
     """The element layout's measure of shape (:func:`boundkit.ladder._shape_rate`) taken in r, the
-    variable the Laguerre basis is smooth in: 5 sqrt(|g_rr| / max |g|), g = r (V + S).
+    variable the Laguerre basis is smooth in: 5 sqrt(|g_rr| / max |g|), g = r (V + S), from samples
+    at radii r uniformly spaced by dt in t = ln r (a scalar spacing: numpy's gradient is several
+    times slower with an array of coordinates).
 
     A potential analytic in r (g = g0 + g1 r + g2 r^2 + ...) gives a bounded rate; a finite
     nucleus, a logarithmic vacuum polarisation or a narrow well gives a rate of about one over its
@@ -242,46 +277,58 @@ def _shape_rate_r(t, r, s) -> np.ndarray:
         G = float(np.max(np.abs(g)))
         if not np.isfinite(G) or G == 0.0:
             return np.zeros_like(r)
-        g_t = np.gradient(g, t, edge_order=2)
-        r2_grr = np.gradient(g_t, t, edge_order=2) - g_t     # r^2 g_rr
+        g_t = np.gradient(g, dt, edge_order=2)
+        r2_grr = np.gradient(g_t, dt, edge_order=2) - g_t    # r^2 g_rr
         r2_grr[np.abs(r2_grr) < 1e-9 * G] = 0.0        # rounding of the differences, not shape
         r2_grr[:2] = r2_grr[-2:] = 0.0                  # one-sided differences at the ends
         return 5.0 * np.sqrt(np.abs(r2_grr) / G) / r
 
 
-def _state_grid(r_lo: float, r_nodes: np.ndarray):
-    """GLL nodes, weights in t and element index pairs on [r_lo, last node]: quiet elements up to
-    the first node, then one element between each pair of neighbouring nodes."""
-    t0, t1 = math.log(r_lo), math.log(r_nodes[0])
+@lru_cache(maxsize=24)
+def _state_grid(n: int, lo: float, n_prev: int):
+    """Spectral-element grid of the states of an n-point mesh, in x = r / h (cached, arrays read-only):
+    ``(x, weights in t, elements, C, C_prev)``.
+
+    GLL nodes of degree _STATE_DEGREE in t = ln x on [lo, x_n]: quiet elements (at most _QUIET_DT long)
+    up to the first node, then one element between each pair of neighbouring nodes. ``C`` holds the
+    values of the mesh's cardinal functions there, one row per function (a state is ``u @ C``),
+    ``C_prev`` those of the n_prev-point mesh stretched to the same last node (the previous size of
+    the ladder). With lo = r_lo / h = inner cut * x_n / reach, none of this depends on the
+    potential's length scale, so a scan or a repeated solve finds it in the cache.
+    """
+    mesh = laguerre_mesh(n)
+    xn = mesh.x
+    t0, t1 = math.log(lo), math.log(xn[0])
     pieces = max(1, int(math.ceil((t1 - t0) / _QUIET_DT)))
-    edges = list(np.linspace(t0, t1, pieces + 1)) + list(np.log(r_nodes[1:]))
-    n = _STATE_DEGREE
-    x, wref, _ = gll(n)
-    x = x.astype(float)
-    edges = np.asarray(edges)
+    edges = np.concatenate((np.linspace(t0, t1, pieces + 1), np.log(xn[1:])))
+    deg = _STATE_DEGREE
+    xg, wref, _ = gll(deg)
+    xg = xg.astype(float)
     half = 0.5 * np.diff(edges)
     m = len(half)
-    t = np.empty(m * n + 1)
-    w = np.zeros(m * n + 1)
-    t[:-1] = (edges[:-1, None] + (x[None, :-1] + 1) * half[:, None]).ravel()
+    t = np.empty(m * deg + 1)
+    w = np.zeros(m * deg + 1)
+    t[:-1] = (edges[:-1, None] + (xg[None, :-1] + 1) * half[:, None]).ravel()
     t[-1] = edges[-1]
     wl = wref[None, :] * half[:, None]
     w[:-1] = wl[:, :-1].ravel()
-    w[n::n] += wl[:, -1]
-    elements = tuple((e * n, e * n + n) for e in range(m))
-    return t, w, elements
+    w[deg::deg] += wl[:, -1]
+    elements = tuple((e * deg, e * deg + deg) for e in range(m))
+    x = np.exp(t)
+    C = np.ascontiguousarray(cardinal_matrix(mesh, x).T)
+    prev = laguerre_mesh(n_prev)
+    C_prev = np.ascontiguousarray(cardinal_matrix(prev, x * (prev.x[-1] / xn[-1])).T)
+    for arr in (x, w, C, C_prev):
+        arr.flags.writeable = False
+    return x, w, elements, C, C_prev
 
 
-def _states(gamma: float, r_core: float, h: float, mesh, u: np.ndarray, r, w_dr, elements):
-    """Spectral-element states on the grid (r, w_dr, elements) of the columns of ``u`` (node values
-    of the Laguerre expansion)."""
-    P_all = expand(mesh, r / h, u)
-    out = []
-    for k in range(u.shape[1]):
-        (P,), _ = normalise(w_dr, P_all[:, k])
-        out.append(RadialState(r=r, P=P, Q=None, weights=w_dr, gamma=gamma, r_core=r_core, elements=elements,
-                               family="spectral"))
-    return out
+def _states(gamma: float, r_core: float, P_all: np.ndarray, r, w_dr, elements):
+    """Normalised spectral-element states on the grid (r, w_dr, elements) from their values there
+    (one row per level)."""
+    (P_all,), _ = normalise(w_dr, P_all)
+    return [RadialState(r=r, P=P, Q=None, weights=w_dr, gamma=gamma, r_core=r_core, elements=elements,
+                        family="spectral") for P in P_all]
 
 
 def study(eq, sample, want: int, a: float, r_lo: float, sizes) -> tuple[list[int], list[list[float]], float]:
@@ -371,20 +418,19 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
                  "spacing = %.3g); using spectral elements", shape)
         return None
     r_core = a * (eq.l + 1) ** 2
-    t, w, elements = _state_grid(r_lo, h * mesh.x)
-    r = np.exp(t)
-    w_dr = w * r
-    states = _states(gamma, r_core, h, mesh, u, r, w_dr, elements)
-    q_grid = eq.q(0.0, sample(r))
-    for k, st in enumerate(states):
-        seen = float(np.sum(h * mesh.weights * u[:, k] ** 2 * q_nodes))
-        felt = float(np.sum(w_dr * st.P**2 * q_grid))
-        if abs(seen - felt) > max(tol, FLOOR) * abs(E[k]):
-            log.info("Laguerre mesh: the nodes see <V> = %.3g for level %d, the full grid %.3g (the potential "
-                     "has structure between or below the nodes); using spectral elements", seen, k, felt)
-            return None
     _, pmesh, ph, _, pu, _ = runs[-2]          # same last node: the same grid serves
-    prev_states = _states(gamma, r_core, ph, pmesh, pu, r, w_dr, elements)
+    x, w, elements, C, C_prev = _state_grid(N, r_lo / h, pmesh.n)
+    r = h * x
+    w_dr = w * r
+    states = _states(gamma, r_core, u.T @ C, r, w_dr, elements)
+    seen = (h * mesh.weights * q_nodes) @ u**2
+    felt = np.array([st.P for st in states]) ** 2 @ (w_dr * eq.q(0.0, sample(r)))
+    for k in range(want):
+        if abs(seen[k] - felt[k]) > max(tol, FLOOR) * abs(E[k]):
+            log.info("Laguerre mesh: the nodes see <V> = %.3g for level %d, the full grid %.3g (the potential "
+                     "has structure between or below the nodes); using spectral elements", seen[k], k, felt[k])
+            return None
+    prev_states = _states(gamma, r_core, pu.T @ C_prev, r, w_dr, elements)
     found, per_level, worst = [], [], 0.0
     sizes_used = [run[0] for run in runs]
     for k in range(want):

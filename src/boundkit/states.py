@@ -142,17 +142,31 @@ def normalise(w_dr: np.ndarray, *components: np.ndarray, weight=None):
 
     ``w_dr`` are quadrature weights for dr; the density is
     weight * P^2 (+ Q^2). The sign is fixed so that P > 0 near the origin.
-    Returns the scaled components and the norm before scaling.
+    Returns the scaled components and the norm before scaling. Components given as 2-D arrays
+    hold one state per row (norms then per row).
     """
     P = components[0]
     dens = P**2 if weight is None else weight * P**2
     for c in components[1:]:
         dens = dens + c**2
+    if P.ndim == 2:
+        return _normalise_rows(w_dr, components, dens)
     norm = float(np.sum(w_dr * dens))
     scale = 1.0 / np.sqrt(norm)
     big = np.nonzero(np.abs(P) > 1e-6 * np.max(np.abs(P)))[0]
     if big.size and P[big[0]] < 0:
         scale = -scale
+    return tuple(c * scale for c in components), norm
+
+
+def _normalise_rows(w_dr, components, dens):
+    """:func:`normalise` of many states at once, one per row (the same norm and sign rule)."""
+    P = components[0]
+    norm = dens @ w_dr
+    scale = 1.0 / np.sqrt(norm)
+    big = np.abs(P) > 1e-6 * np.max(np.abs(P), axis=1, keepdims=True)
+    first = P[np.arange(P.shape[0]), np.argmax(big, axis=1)]      # P[k, 0] where a row is all zero
+    scale = np.where(first < 0, -scale, scale)[:, None]
     return tuple(c * scale for c in components), norm
 
 
