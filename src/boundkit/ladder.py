@@ -199,10 +199,4 @@ def far_count(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi:
     from .locator import count_below
 
     edges, quiet = layout(eq, pot, sample_fn, r_min, r_far, [hi])
-    counts = []
-    for n in (11, 18):
-        op = make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, hi)
-        counts.append(count_below(op, hi))
-    if counts[0] != counts[1]:
-        log.info("bound count changed with resolution on the far box: %s", counts)
-    return counts[-1]
+    return count_below(make_operator(eq, sample_fn, gamma, r_core, edges, quiet, 18, hi), hi)

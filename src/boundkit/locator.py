@@ -56,33 +56,9 @@ log = logging.getLogger(__name__)
 
 
 def count_below(op: SymmetricOperator, E: float) -> int:
-    """N(E): the number of levels of the discrete problem below E (inertia of K(E)).
-
-    The Bunch-Kaufman factorization K = L D L^T (LAPACK ``dsytrf``) has the
-    inertia of K in D, whose blocks are 1x1 or 2x2: a 2x2 block with negative
-    determinant holds one negative eigenvalue, one with positive determinant two
-    of the sign of its diagonal.
-    """
-    from scipy.linalg.lapack import dsytrf
-
-    K = op.symmetric(E)
-    d = np.sqrt(op.row_scale)
-    n = K.shape[0]
-    ldu, ipiv, info = dsytrf(d[:, None] * K * d[None, :], lower=1, lwork=max(1, 64 * n), overwrite_a=1)
-    if info < 0:
-        raise RuntimeError(f"dsytrf: argument {-info} had an illegal value")
-    diag = np.diagonal(ldu).copy()
-    single = ipiv > 0
-    neg = int(np.count_nonzero(diag[single] < 0))
-    k = 0
-    pairs = np.nonzero(~single)[0]
-    while k < len(pairs):                 # 2x2 blocks: consecutive negative pivots (k, k + 1)
-        i = pairs[k]
-        a, b, c = ldu[i, i], ldu[i + 1, i], ldu[i + 1, i + 1]
-        det = a * c - b * b
-        neg += 1 if det < 0 else (2 if a < 0 else 0)
-        k += 2
-    return neg
+    """N(E): the number of levels of the discrete problem below E (the inertia of K(E), counted by
+    static condensation: :meth:`SymmetricOperator.count_negative`)."""
+    return op.count_negative(E)
 
 
 def _pencil(op: SymmetricOperator, E0: float) -> np.ndarray:
