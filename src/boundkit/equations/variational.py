@@ -93,6 +93,7 @@ class SymmetricOperator:
         self.log_w = gamma * (np.log(r) - np.log(r + rc))
         self._pieces = {}
         self._sigma_cache = {}
+        self._first = None
         self._build_batches(grid)
         self._M = None
         self._mass_blocks = None
@@ -158,21 +159,29 @@ class SymmetricOperator:
             got = self._sigma_cache[key] = self._sigma_at(E, derivative)
         return got
 
+    def _first_element(self):
+        """(the potential at the first node, on the first element's nodes, and that element's first
+        derivative row in double precision): what the boundary term reads, built once."""
+        if self._first is None:
+            s = self.sample
+            s0 = Sample(s.r[:1], s.V[:1], s.S[:1], None if s.W is None else s.W[:1])
+            i0, i1 = self.grid.elements[0]
+            sl = slice(i0, i1 + 1)
+            se = Sample(s.r[sl], s.V[sl], s.S[sl], None if s.W is None else s.W[sl])
+            self._first = (s0, se, self.grid.D[0][0].astype(float))
+        return self._first
+
     def _sigma_at(self, E, derivative=False) -> float:
         s = self.sample
-        s0 = Sample(s.r[:1], s.V[:1], s.S[:1], None if s.W is None else s.W[:1])
+        s0 = self._first_element()[0]
         p = (self.eq.dp_dE if derivative else self.eq.p)(float(E), s0)[0]
         w2r = np.exp(2 * self.log_w[0]) / s.r[0]
         return float(p * w2r * (self._slope(E) + self.b[0]))
 
     def _slope(self, E) -> float:
         """f'/f at the first node from f ~ 1 + c r (c from the operator itself)."""
-        s = self.sample
-        i0, i1 = self.grid.elements[0]
-        sl = slice(i0, i1 + 1)
-        se = Sample(s.r[sl], s.V[sl], s.S[sl], None if s.W is None else s.W[sl])
-        return frobenius_slope(self.eq, se, self.grid.D[0][0].astype(float), self.gamma, self.r_core,
-                               self.b[0], E)
+        _, se, d0 = self._first_element()
+        return frobenius_slope(self.eq, se, d0, self.gamma, self.r_core, self.b[0], E)
 
     def _coefficients(self, E, dtype, derivative=False):
         """(p w^2/r, (q - E) w^2 r) at the quadrature points, or their E-derivatives."""
