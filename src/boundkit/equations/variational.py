@@ -118,14 +118,17 @@ class SymmetricOperator:
         sizes = [len(q.t) for q in grid.quad]
         starts = np.cumsum([0] + sizes[:-1])
         degs = [i1 - i0 for (i0, i1) in grid.elements]
+        sizes_a = np.array(sizes)
+        first = np.array([i0 for (i0, _) in grid.elements])
         self.band = max(degs)
         self._batches = []
         bq_ext = self._b_at(np.longdouble)
         for d in sorted(set(degs)):
             els = [e for e, x in enumerate(degs) if x == d]
             m = max(sizes[e] for e in els)
-            qidx = np.array([[starts[e] + min(k, sizes[e] - 1) for k in range(m)] for e in els])
-            idx = np.array([np.arange(grid.elements[e][0], grid.elements[e][1] + 1) for e in els])
+            ev = np.array(els)
+            qidx = starts[ev][:, None] + np.minimum(np.arange(m)[None, :], sizes_a[ev][:, None] - 1)
+            idx = first[ev][:, None] + np.arange(d + 1)[None, :]
             refs = [_padded_reference(d, sizes[e], m) for e in els]
             half = np.array([(grid.t_ext[grid.elements[e][1]] - grid.t_ext[grid.elements[e][0]]) / 2 for e in els],
                             dtype=np.longdouble)
