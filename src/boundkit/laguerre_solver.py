@@ -276,8 +276,7 @@ def _beyond_factors() -> np.ndarray:
 def _shape_rate_r(dt: float, r, s) -> np.ndarray:
     """The element layout's measure of shape (:func:`boundkit.ladder._shape_rate`) taken in r, the
     variable the Laguerre basis is smooth in: 5 sqrt(|g_rr| / max |g|), g = r (V + S), from samples
-    at radii r uniformly spaced by dt in t = ln r (a scalar spacing: numpy's gradient is several
-    times slower with an array of coordinates).
+    at radii r uniformly spaced by dt in t = ln r.
 
     A potential analytic in r (g = g0 + g1 r + g2 r^2 + ...) gives a bounded rate; a finite
     nucleus, a logarithmic vacuum polarisation or a narrow well gives a rate of about one over its
@@ -299,10 +298,11 @@ def _shape_rate_r(dt: float, r, s) -> np.ndarray:
         return np.where(np.isnan(rate), np.inf, rate)   # overflowing differences count as structure
 
 
-@lru_cache(maxsize=24)
+@lru_cache(maxsize=12)
 def _state_grid(n: int, lo: float, n_prev: int):
     """Spectral-element grid of the states of an n-point mesh, in x = r / h (cached, arrays read-only):
-    ``(x, weights in t, elements, C, C_prev)``.
+    ``(x, weights in t, elements, C, C_prev)``. An entry holds about 12 n^2 doubles (7 MB at
+    n = 200, 0.7 MB at n = 60); twelve are kept.
 
     GLL nodes of degree _STATE_DEGREE in t = ln x on [lo, x_n]: quiet elements (at most _QUIET_DT long)
     up to the first node, then one element between each pair of neighbouring nodes. ``C`` holds the
@@ -433,7 +433,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
                  "spacing = %.3g); using spectral elements", shape)
         return None
     r_core = a * (eq.l + 1) ** 2
-    _, pmesh, ph, _, pu, _ = runs[-2]          # same last node: the same grid serves
+    _, pmesh, _, _, pu, _ = runs[-2]           # same last node: the same grid serves
     x, w, elements, C, C_prev = _state_grid(N, r_lo / h, pmesh.n)
     r = h * x
     w_dr = w * r
