@@ -182,6 +182,41 @@ def test_repulsive_core_widens_the_mesh_and_agrees(monkeypatch):
         assert abs(a.energy - b.energy) <= 1e-10 * abs(b.energy) + a.error_estimate + b.error_estimate
 
 
+@pytest.mark.parametrize("l,j,levels", [(0, 0.5, 2), (1, 1.5, 3)])
+def test_a_nuclear_well_tightens_the_box_and_agrees(monkeypatch, l, j, levels):
+    """A Woods-Saxon neutron well binds far more tightly than the hydrogen-like first scale assumes
+    (its top level had decayed by 100 to 230 e-folds at the last node): the box is tightened once,
+    to where that level has decayed by e^-32, and the levels agree with the elements."""
+    par = {"depth": 60.0, "radius": 7.0, "diffuseness": 0.5, "spin_orbit": 10.0} if l else \
+        {"depth": 50.0, "radius": 5.0, "diffuseness": 0.6, "spin_orbit": 20.0}
+    fast, slow = _both(monkeypatch, "schrodinger", "woods-saxon", par, l=l, j=j, levels=levels, tol=1e-10,
+                       units="nuclear", particle="neutron")
+    assert fast.diagnostics["mesh"] == "lagrange-laguerre"
+    eq, pot, _ = boundkit.solver.setup("schrodinger", "woods-saxon", par, l=l, j=j, units="nuclear",
+                                       particle="neutron")
+    L, a, _ = boundkit.solver.laguerre_scale(eq, pot, eq.gamma(pot))
+    first = a * lag._hydrogenic_reach(levels + l, lag._DECAY_NEEDED + 2)
+    assert fast.diagnostics["levels"][0]["r_max"] < 0.5 * first
+    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
+    for x, y in zip(fast.levels, slow.levels):
+        assert abs(x.energy - y.energy) <= 1e-10 * abs(y.energy) + x.error_estimate + y.error_estimate
+
+
+def test_a_box_is_tightened_only_when_far_too_large():
+    """Hydrogen's first scale already puts the top level at about e^-32: no tightening there."""
+    eq, pot, _ = boundkit.solver.setup("schrodinger", "coulomb", {"Z": 1}, l=0)
+    sample = lambda r, scan=False: boundkit.solver._sample(pot, r, scan)   # noqa: E731
+    r_last = lag._hydrogenic_reach(5, lag._DECAY_NEEDED + 2)
+    probe = lag._Probe.on(sample, 1e-9, r_last)
+    decay = probe.decay(eq, -0.5 / 25)
+    assert lag._DECAY_NEEDED < decay < lag._OVERSIZED * (lag._DECAY_NEEDED + 2)
+    assert lag._tighter_scale(probe, eq, -0.5 / 25, decay) is None
+    # the same level in a box three times larger is tightened back to about the hydrogen scale
+    big = lag._Probe.on(sample, 1e-9, 3 * r_last)
+    tighter = lag._tighter_scale(big, eq, -0.5 / 25, big.decay(eq, -0.5 / 25))
+    assert tighter == pytest.approx(r_last, rel=0.05)
+
+
 # --- what the path must hand over to the elements --------------------------------------------
 
 def test_a_narrow_well_between_nodes_is_not_missed(monkeypatch):

@@ -27,9 +27,12 @@ give the hydrogen levels to rounding. The procedure:
 4. the result is accepted only when (a) the k-th level has k nodes at the mesh
    points (Sturm), (b) the highest level has decayed by e^-30 at the last node
    (WKB, with its energy on the first size; otherwise the scale grows by 1.6
-   and the climb starts again) and is not classically allowed anywhere beyond
-   the last node (out to 1e8 times it: a well out there, which the elements'
-   box would reach, could hold a deeper level), and (c) every level feels the
+   and the climb starts again; a box where it has decayed by more than 48
+   e-folds, as in a short-range nuclear well, is tightened once to where it
+   has decayed by 32, and that size is solved again) and is not classically
+   allowed anywhere beyond the last node (out to 1e8 times it: a well out
+   there, which the elements' box would reach, could hold a deeper level),
+   and (c) every level feels the
    potential on the nodes as it does on a fine grid: <V> from the mesh's Gauss rule and from the
    state's own element quadrature (below the first node too) differ by less
    than tol |E|. That difference is the first-order energy error of a potential
@@ -79,6 +82,7 @@ log = logging.getLogger(__name__)
 
 MAX_N = 200            # beyond this size the element family is cheaper
 _DECAY_NEEDED = 30.0   # e-folds of decay of the highest level at the last node
+_OVERSIZED = 1.5       # a box giving more than this times _DECAY_NEEDED + 2 is tightened (once)
 _SHAPE_PER_GAP = 4.0   # check (d): shape rate in r times node spacing (a smooth screened core: 3)
 _STATE_DEGREE = 12     # degree of the state elements (between neighbouring nodes, and below the first)
 _QUIET_DT = 4.0        # their longest length in t
@@ -230,18 +234,34 @@ class _Probe:
         s = sample(r)
         return cls(r, s, _shape_rate_r(t[1] - t[0], r, s))
 
-    def decay(self, eq, E: float) -> float:
-        """e-folds of WKB decay of a level at energy E from its outer turning point to the last
-        node (check b)."""
+    def _decay_steps(self, eq, E: float):
+        """(index of the outer turning point, WKB decay exponent gained between neighbouring samples
+        from there on) of a level at energy E, or None when it is nowhere classically allowed."""
         r = self.r
         with np.errstate(all="ignore"):
             k2 = eq.excess(E, self.s)
         allowed = np.nonzero(k2 < 0)[0]
         if not allowed.size:
-            return 0.0
+            return None
         a = allowed[-1]
         k = np.sqrt(np.clip(k2[a:], 0, None))
-        return float(np.sum(0.5 * (k[1:] + k[:-1]) * np.diff(r[a:])))
+        return a, 0.5 * (k[1:] + k[:-1]) * np.diff(r[a:])
+
+    def decay(self, eq, E: float) -> float:
+        """e-folds of WKB decay of a level at energy E from its outer turning point to the last
+        node (check b)."""
+        got = self._decay_steps(eq, E)
+        return 0.0 if got is None else float(np.sum(got[1]))
+
+    def reach(self, eq, E: float, efolds: float) -> float | None:
+        """Radius where a level at energy E has decayed by e^-efolds beyond its outer turning point
+        (WKB), or None when that happens only beyond the probe."""
+        got = self._decay_steps(eq, E)
+        if got is None:
+            return None
+        a, steps = got
+        j = int(np.searchsorted(np.cumsum(steps), efolds))
+        return float(self.r[a + j + 1]) if j < len(steps) else None
 
     @staticmethod
     def allowed_beyond(eq, sample, r_last: float, E: float) -> bool:
@@ -346,22 +366,45 @@ def _states(gamma: float, r_core: float, P_all: np.ndarray, r, w_dr, elements):
                         family="spectral") for P in P_all]
 
 
+def _tighter_scale(probe, eq, E_top: float, decay: float) -> float | None:
+    """The last-node radius where the highest level has decayed by e^-(_DECAY_NEEDED + 2), when the
+    present box gives it more than _OVERSIZED times that (else None).
+
+    The first scale assumes a hydrogen-like level in the tail charge or in 2 L; a short-range well
+    (a nuclear Woods-Saxon well, measured 100 to 230 e-folds at the last node) binds its levels far
+    more tightly, and the nodes spread over a box that large converge slowly.
+    """
+    if decay <= _OVERSIZED * (_DECAY_NEEDED + 2):
+        return None
+    return probe.reach(eq, E_top, _DECAY_NEEDED + 2)
+
+
 def study(eq, sample, want: int, a: float, r_lo: float, sizes) -> tuple[list[int], list[list[float]], float]:
     """Energies of the lowest ``want`` levels at each mesh size in ``sizes``, on one scale (a
     convergence study): ``(sizes used, energies per level, last node radius)``.
 
     The scale is chosen as :func:`solve_laguerre` chooses it (moved out while the highest level, on
-    the first size, has not decayed by e^-30 at the last node); sizes below want + 2 are skipped.
+    the first size, has not decayed by e^-30 at the last node, or once moved in when it has decayed
+    far more); sizes below want + 2 are skipped.
     """
     sizes = [int(n) for n in sorted(set(sizes)) if int(n) >= want + 2]
     if not sizes:
         raise ValueError(f"sizes: a Laguerre mesh for {want} level(s) needs at least {want + 2} nodes")
     r_last = a * _hydrogenic_reach(want + eq.l, _DECAY_NEEDED + 2)
-    for _ in range(4):
+    moved = shrunk = False
+    for _ in range(5):
         mesh = laguerre_mesh(sizes[-1])
         E = _levels_on(eq, sample, mesh, r_last / mesh.x[-1], want)[0]
-        if E[-1] < 0 and _Probe.on(sample, r_lo, r_last).decay(eq, E[-1]) >= _DECAY_NEEDED:
-            break
+        if E[-1] < 0:
+            probe = _Probe.on(sample, r_lo, r_last)
+            decay = probe.decay(eq, E[-1])
+            if decay >= _DECAY_NEEDED:
+                tighter = None if (moved or shrunk) else _tighter_scale(probe, eq, E[-1], decay)
+                if tighter is None:
+                    break
+                shrunk, r_last = True, tighter
+                continue
+        moved = True
         r_last *= 1.6
     hist: list[list[float]] = [[] for _ in range(want)]
     for N in sizes:
@@ -387,7 +430,10 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     hist: list[list[float]] = [[] for _ in range(want)]
     runs: list = []
     moved = 0
-    for N in sizes:
+    shrunk = False
+    i = 0
+    while i < len(sizes):
+        N = sizes[i]
         mesh = laguerre_mesh(N)
         h = r_last / mesh.x[-1]
         E, u, r_nodes, q_nodes = _levels_on(eq, sample, mesh, h, want)
@@ -400,11 +446,19 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
                 log.info("Laguerre mesh: the potential has a well beyond the mesh; using spectral elements")
                 return None
             probe = _Probe.on(sample, r_lo, r_nodes[-1])
-            if probe.decay(eq, E[-1]) < _DECAY_NEEDED:
+            decay = probe.decay(eq, E[-1])
+            if decay < _DECAY_NEEDED:
                 if moved == 3:
                     return None
                 moved += 1
                 r_last *= 1.6
+                i += 1
+                continue
+            tighter = None if (moved or shrunk) else _tighter_scale(probe, eq, E[-1], decay)
+            if tighter is not None:
+                # a box far larger than the level needs (a short-range well): the same size again on
+                # the scale where it has decayed by e^-(_DECAY_NEEDED + 2)
+                shrunk, r_last = True, tighter
                 continue
             # structure that even the largest mesh could not resolve (spacing falls about like 1/N)
             if probe.shape_gaps(r_nodes) > _SHAPE_PER_GAP * MAX_N / N:
@@ -420,6 +474,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
             log.info("Laguerre mesh: the levels stopped converging geometrically at N = %d; using spectral "
                      "elements", N)
             return None
+        i += 1
     else:
         log.info("Laguerre mesh: no convergence up to N = %d; using spectral elements", MAX_N)
         return None
