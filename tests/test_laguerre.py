@@ -202,6 +202,19 @@ def test_a_nuclear_well_tightens_the_box_and_agrees(monkeypatch, l, j, levels):
         assert abs(x.energy - y.energy) <= 1e-10 * abs(y.energy) + x.error_estimate + y.error_estimate
 
 
+def test_a_level_not_yet_bound_on_the_first_size_sends_the_climb_on(monkeypatch):
+    """A nuclear d level: on the first sizes the mesh has too few nodes in the well to bind the
+    second level, which exists (the far box counts it); the climb goes on instead of handing over."""
+    par = {"depth": 50.0, "radius": 5.0, "diffuseness": 0.6, "spin_orbit": 20.0}
+    fast, slow = _both(monkeypatch, "schrodinger", "woods-saxon", par, l=2, j=2.5, levels=2, tol=1e-8,
+                       units="nuclear", particle="neutron")
+    assert fast.diagnostics["mesh"] == "lagrange-laguerre"
+    assert lag._start_size(2, 2, 1e-8) < fast.diagnostics["levels"][0]["sizes"][0]   # sizes were skipped
+    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
+    for x, y in zip(fast.levels, slow.levels):
+        assert abs(x.energy - y.energy) <= 1e-8 * abs(y.energy) + x.error_estimate + y.error_estimate
+
+
 def test_a_box_is_tightened_only_when_far_too_large():
     """Hydrogen's first scale already puts the top level at about e^-32: no tightening there."""
     eq, pot, _ = boundkit.solver.setup("schrodinger", "coulomb", {"Z": 1}, l=0)

@@ -22,6 +22,8 @@ give the hydrogen levels to rounding. The procedure:
    eigenvalues LAPACK returns carry errors of about 1e-16 ||H||, 1e-11 relative
    at N = 200 on hydrogen; the quotient of the same vectors is good to
    4e-15, as its error is quadratic in the vector's);
+   a highest level that is not yet bound below N = 40 (too few nodes in its
+   well) moves the climb on; from N = 40 it hands the channel over;
 3. the stop rule and error estimate are those of the spectral elements: the
    last change between sizes meets tol and the one before it 100 tol;
 4. the result is accepted only when (a) the k-th level has k nodes at the mesh
@@ -83,6 +85,7 @@ log = logging.getLogger(__name__)
 MAX_N = 200            # beyond this size the element family is cheaper
 _DECAY_NEEDED = 30.0   # e-folds of decay of the highest level at the last node
 _OVERSIZED = 1.5       # a box giving more than this times _DECAY_NEEDED + 2 is tightened (once)
+_UNBOUND_CLIMB = 40    # below this size, a highest level not yet bound sends the climb on, not away
 _SHAPE_PER_GAP = 4.0   # check (d): shape rate in r times node spacing (a smooth screened core: 3)
 _STATE_DEGREE = 12     # degree of the state elements (between neighbouring nodes, and below the first)
 _QUIET_DT = 4.0        # their longest length in t
@@ -438,6 +441,11 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         h = r_last / mesh.x[-1]
         E, u, r_nodes, q_nodes = _levels_on(eq, sample, mesh, h, want)
         if not E[-1] < 0:
+            if not runs and N < _UNBOUND_CLIMB:
+                # the level exists (counted on the far box, or a Coulomb tail): too few nodes in
+                # its well yet, as for a tightly bound nuclear p or d level on the first size
+                i += 1
+                continue
             log.info("Laguerre mesh: the highest level sought is not bound on N = %d; using spectral elements", N)
             return None
         if not runs:
