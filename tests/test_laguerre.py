@@ -286,6 +286,33 @@ def test_short_range_levels_are_counted_first_and_all_returned():
     assert res.success and "all 2 bound level(s)" in res.message
 
 
+def test_all_levels_of_a_short_range_well_on_the_mesh():
+    """levels='all': the far box counts the Hulthen s-levels (n^2 < 2 Z / delta: 4 of them for
+    delta = 0.1), the mesh solves all four, and each equals E_n = -(Z / n - n delta / 2)^2 / 2
+    (Flugge 1971, from memory; boundkit.exact)."""
+    from boundkit.exact import hulthen
+    res = boundkit.solve("schrodinger", "hulthen", {"Z": 1, "delta": 0.1}, l=0, levels="all", tol=1e-10)
+    assert res.diagnostics["mesh"] == "lagrange-laguerre"
+    assert res.diagnostics["bound_count"] == len(res.levels) == 4
+    assert res.success and "all 4 bound level(s)" in res.message
+    for k, lv in enumerate(res.levels):
+        exact = hulthen(1, 0.1, k + 1)
+        assert abs(lv.energy - exact) <= lv.error_estimate + 1e-10 * abs(exact), lv.label
+
+
+def test_all_levels_hand_over_to_the_elements_when_the_top_one_is_barely_bound(monkeypatch):
+    """A Yukawa well whose sixth s-level is bound by 2.3e-5 hartree only: the mesh cannot reach
+    it, the elements take the channel with the far-box count already made, and both give the
+    same six levels."""
+    fast, slow = _both(monkeypatch, "schrodinger", "yukawa", {"Z": 1, "screening_length": 30.0}, l=0,
+                       levels="all", tol=1e-10)
+    assert fast.diagnostics["mesh"] == "spectral-elements"
+    assert fast.diagnostics["bound_count"] == slow.diagnostics["bound_count"] == len(fast.levels) == 6
+    for x, y in zip(fast.levels, slow.levels):
+        assert x.label == y.label
+        assert abs(x.energy - y.energy) <= 1e-10 * abs(y.energy) + x.error_estimate + y.error_estimate
+
+
 @pytest.mark.parametrize("delta,levels", [(0.05, 3), (0.01, 5)])
 def test_hulthen_s_levels_exact(delta, levels):
     """E_n = -(Z mu / n - n delta / 2)^2 / (2 mu) (Flugge 1971, from memory; boundkit.exact)."""

@@ -99,10 +99,11 @@ def applies(eq, pot, levels, gamma: float, tol: float) -> bool:
 
     Tolerances below TOL_MIN go to the spectral elements: the Gauss approximation leaves
     wave-function quantities about 5e-14 (relative) off on hydrogen whatever N, measured on
-    <r^-2> of the 4s, and two sizes that both sit on that floor would not see it.
+    <r^-2> of the 4s, and two sizes that both sit on that floor would not see it. All levels
+    (``levels`` None) are taken for a short-range potential, whose far-box count says how many.
     """
-    return (eq.name == "schrodinger" and levels is not None and tol >= TOL_MIN and pot.tail_charge >= 0
-            and not pot.confining and gamma == eq.l + 1)
+    return (eq.name == "schrodinger" and (levels is not None or pot.tail_charge == 0) and tol >= TOL_MIN
+            and pot.tail_charge >= 0 and not pot.confining and gamma == eq.l + 1)
 
 
 def _start_size(want: int, l: int, tol: float) -> int:
@@ -457,6 +458,9 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
             decay = probe.decay(eq, E[-1])
             if decay < _DECAY_NEEDED:
                 if moved == 3:
+                    log.info("Laguerre mesh: the highest level has not decayed by e^-%g at the last node after "
+                             "moving it out three times (a level near threshold); using spectral elements",
+                             _DECAY_NEEDED)
                     return None
                 moved += 1
                 r_last *= 1.6

@@ -427,8 +427,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
     bound = known_bound if short_range else None
-    if short_range and bound is None:
-        bound = _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi)
+    if short_range:
+        if bound is None:
+            bound = _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi)
     elif levels is None:
         raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
                          + ("is confining" if pot.confining else "has a Coulomb tail")
@@ -716,8 +717,8 @@ def _solve_laguerre(eq, pot, levels, tol):
     solver when the channel is not one it handles or one of its checks fails.
 
     A short-range potential has its bound levels counted on the far box first (as the elements
-    do); the mesh then looks for at most that many, with the scale 2 L (L the natural length:
-    the Bohr radius for a Coulomb-like core)."""
+    do); the mesh then looks for at most that many (all of them for ``levels`` None), with the
+    scale 2 L (L the natural length: the Bohr radius for a Coulomb-like core)."""
     from .laguerre_solver import applies, solve_laguerre
 
     gamma = eq.gamma(pot)
@@ -729,8 +730,9 @@ def _solve_laguerre(eq, pot, levels, tol):
     L, a, r_lo = laguerre_scale(eq, pot, gamma)
     if pot.tail_charge == 0:
         hi = eq.energy_window(pot)[1]
-        bound = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, levels, hi), levels, hi)
-        want = min(levels, bound)
+        n_req = 1 if levels is None else levels          # as the elements size their box
+        bound = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, n_req, hi), n_req, hi)
+        want = bound if levels is None else min(levels, bound)
     out = solve_laguerre(eq, pot, want, tol, sample, gamma, r_lo, a) if want else None
     if out is None:
         return _solve_elements(eq, pot, levels, tol, known_bound=bound)
