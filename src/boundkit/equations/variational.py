@@ -104,6 +104,7 @@ class SymmetricOperator:
         self.row_scale = 1.0 / np.maximum(np.abs(diag[:-1]), 1e-300)
         self._scale_ext = self.row_scale.astype(np.longdouble)
         self._band_scale = None
+        self._band_index = None
         self._factor_cache = None
 
     def _build_batches(self, grid: ElementGrid) -> None:
@@ -335,13 +336,10 @@ class SymmetricOperator:
         kl = self.band
         n = self.n
         ab = np.zeros((3 * kl + 1, n))
-        for bt, blk in zip(self._batches, self._blocks(E, np.float64)):
-            idx = bt["idx"]
-            a = np.arange(bt["degree"] + 1)
-            rows = (2 * kl + a[:, None] - a[None, :])[None]
-            for par in (0, 1):
-                ii = idx[par::2]
-                ab[rows, ii[:, None, :]] += blk[par::2]
+        flat = ab.reshape(-1)
+        for places, blk in zip(self._band_places(), self._blocks(E, np.float64)):
+            for par in (0, 1):        # no two elements of one parity share a node: no repeated places
+                flat[places[par]] += blk[par::2].reshape(-1)
         ab[2 * kl, 0] += self._sigma(E)
         if self._band_scale is None:
             i = np.arange(n)[None, :] + np.arange(3 * kl + 1)[:, None] - 2 * kl
@@ -352,6 +350,19 @@ class SymmetricOperator:
         ab *= self._band_scale
         ab[2 * kl, n - 1] = 1.0
         return ab
+
+    def _band_places(self) -> list:
+        """Per batch, for even and odd elements: the flat positions in the band storage of
+        :meth:`_banded` of every element-matrix entry (row 2 kl + a - b, column node b), built once."""
+        if self._band_index is None:
+            kl, n = self.band, self.n
+            self._band_index = []
+            for bt in self._batches:
+                a = np.arange(bt["degree"] + 1)
+                rows = (2 * kl + a[:, None] - a[None, :])[None]
+                self._band_index.append(tuple((rows * n + bt["idx"][par::2][:, None, :]).reshape(-1)
+                                              for par in (0, 1)))
+        return self._band_index
 
     def factor(self, E):
         """Banded LU of the row-scaled K(E) (the last one is kept: inverse iteration and the
