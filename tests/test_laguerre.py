@@ -392,6 +392,48 @@ def test_random_coulomb_tailed_potentials_give_the_elements_levels_thorough(monk
     _same_levels_as_the_elements(monkeypatch, p)
 
 
+_WELLS = st.fixed_dictionaries({
+    "kind": st.sampled_from(["woods-saxon", "screened+gauss"]), "depth": st.floats(0.3, 30.0),
+    "R": st.floats(-0.5, 1.0), "a": st.floats(-1.5, -0.3), "A": st.floats(0.5, 8.0), "b": st.floats(-1.0, 0.8),
+    "C": st.floats(-20.0, 5.0), "c0": st.floats(-0.5, 1.2), "w": st.floats(-1.5, 0.3),
+    "l": st.integers(0, 3), "tol": st.floats(-12.0, -6.0)})
+
+
+def _all_levels_as_the_elements(monkeypatch, p):
+    """levels='all' of a short-range well (a Woods-Saxon shape, or a screened core with a Gaussian
+    well or bump; lengths in bohr): the same count and levels whichever path is taken, including
+    the box tightening and the climb past sizes that do not bind the top level yet."""
+    R, a, b, c0, w, tol = 10 ** p["R"], 10 ** p["a"], 10 ** p["b"], 10 ** p["c0"], 10 ** p["w"], 10 ** p["tol"]
+    if p["kind"] == "woods-saxon":
+        def V(r):
+            return -p["depth"] / (1 + np.exp((r - R) / a))
+    else:
+        def V(r):
+            return -p["A"] * np.exp(-r / b) / r + p["C"] * np.exp(-(((r - c0) / w) ** 2))
+    try:
+        fast, slow = _both(monkeypatch, "schrodinger", V, l=p["l"], levels="all", tol=tol)
+    except ValueError:
+        return
+    assert fast.diagnostics["bound_count"] == slow.diagnostics["bound_count"]
+    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
+    for x, e in zip(fast.levels, slow.levels):
+        assert abs(x.energy - e.energy) <= (x.error_estimate + e.error_estimate + tol * abs(e.energy)
+                                            + 3e-14 * abs(e.energy)), (x.label, x.energy, e.energy)
+
+
+@_QUICK
+@given(p=_WELLS)
+def test_all_levels_of_random_short_range_wells_are_the_elements_levels(monkeypatch, p):
+    _all_levels_as_the_elements(monkeypatch, p)
+
+
+@pytest.mark.slow
+@settings(_THOROUGH, max_examples=100)
+@given(p=_WELLS)
+def test_all_levels_of_random_short_range_wells_are_the_elements_levels_thorough(monkeypatch, p):
+    _all_levels_as_the_elements(monkeypatch, p)
+
+
 def test_cli_table_names_the_mesh_that_produced_the_levels():
     from click.testing import CliRunner
 
