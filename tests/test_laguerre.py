@@ -218,7 +218,7 @@ def test_a_level_not_yet_bound_on_the_first_size_sends_the_climb_on(monkeypatch)
 def test_a_box_is_tightened_only_when_far_too_large():
     """Hydrogen's first scale already puts the top level at about e^-32: no tightening there."""
     eq, pot, _ = boundkit.solver.setup("schrodinger", "coulomb", {"Z": 1}, l=0)
-    sample = lambda r, scan=False: boundkit.solver._sample(pot, r, scan)   # noqa: E731
+    sample = boundkit.solver.sampler(pot)
     r_last = lag._hydrogenic_reach(5, lag._DECAY_NEEDED + 2)
     probe = lag._Probe.on(sample, 1e-9, r_last)
     decay = probe.decay(eq, -0.5 / 25)
@@ -477,8 +477,8 @@ def test_converge_has_no_laguerre_rows_where_solve_uses_the_elements():
 def test_study_rejects_sizes_too_small_for_the_levels():
     from boundkit.equations.schrodinger import Schrodinger
     from boundkit.potentials import make_potential
-    from boundkit.solver import _sample
+    from boundkit.solver import sampler
 
     pot = make_potential("coulomb", {"Z": 1})
     with pytest.raises(ValueError, match=r"sizes: a Laguerre mesh for 5 level\(s\) needs at least 7 nodes"):
-        lag.study(Schrodinger(l=0), lambda r, scan=False: _sample(pot, r, scan), 5, 1.0, 1e-9, [4, 6])
+        lag.study(Schrodinger(l=0), sampler(pot), 5, 1.0, 1e-9, [4, 6])

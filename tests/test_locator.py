@@ -207,10 +207,10 @@ def test_inertia_count_matches_eigenvalues(equation, potential, params, channel)
     least, so low degrees give batches of two degrees) and energies spread over eight decades. Energies where
     K(E) is within 1e-12 of singular (relative) are skipped: there any count is right to rounding."""
     from boundkit.ladder import make_operator
-    from boundkit.solver import _sample, setup
+    from boundkit.solver import sampler, setup
 
     eq, pot, _ = setup(equation, potential, params, **channel)
-    sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
+    sample = sampler(pot)
     gamma = eq.gamma(pot)
     rng = np.random.default_rng([ord(ch) for ch in equation + potential] + [channel.get("l", 0), abs(channel.get("kappa", 0))])
     checked = 0
@@ -233,10 +233,10 @@ def test_inertia_count_of_hydrogen_between_its_levels():
     """On a box that holds hydrogen's lowest levels, the count between the exact levels -1/(2 n^2)
     (Bethe and Salpeter 1957) and -1/(2 (n + 1)^2) is n, for n = 1 .. 5."""
     from boundkit.ladder import make_operator
-    from boundkit.solver import _sample, setup
+    from boundkit.solver import sampler, setup
 
     eq, pot, _ = setup("schrodinger", "coulomb", {"Z": 1}, l=0)
-    sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
+    sample = sampler(pot)
     edges = list(np.linspace(math.log(1e-8), math.log(400.0), 25))
     op = make_operator(eq, sample, 1.0, 1.0, edges, [False] * 24, 16, -0.5)
     for n in range(1, 6):

@@ -159,11 +159,13 @@ def _laguerre_rows(eq, pot, levels, sizes, reference, rows, orders, local) -> No
     """The Lagrange-Laguerre mesh (the one :func:`boundkit.solve` took for this Schrodinger channel) at
     each number of nodes, on one scale: rows keyed by that number, as for the elements."""
     from .laguerre_solver import study
-    from .solver import _sample, laguerre_scale
+    from .solver import laguerre_scale, sampler
+    from .states import principal_n
 
     _, a, r_lo = laguerre_scale(eq, pot, eq.gamma(pot))
-    used, hist, _ = study(eq, lambda r, scan=False: _sample(pot, r, scan), levels, a, r_lo, sizes)
-    per_level = [{"label": eq.label(k + eq.l + 1), "sizes": used, "energies": h} for k, h in enumerate(hist)]
+    used, hist, _ = study(eq, sampler(pot), levels, a, r_lo, sizes)
+    per_level = [{"label": eq.label(principal_n(k, eq.l)), "sizes": used, "energies": h}
+                 for k, h in enumerate(hist)]
     _add_rows("laguerre-mesh", per_level, reference, rows, orders, local)
 
 

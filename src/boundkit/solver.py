@@ -30,7 +30,7 @@ import logging
 import math
 import time
 from dataclasses import dataclass, field, replace
-from functools import lru_cache
+from functools import lru_cache, partial
 
 import numpy as np
 
@@ -118,6 +118,12 @@ def _length_radii() -> np.ndarray:
     r = np.logspace(-14, 8, 2201)
     r.flags.writeable = False
     return r
+
+
+def sampler(pot: Potential):
+    """``sample(r, scan=False)``: :func:`_sample` of this potential, the form the ladder, the layout
+    and the Laguerre path take."""
+    return partial(_sample, pot)
 
 
 def _natural_length(eq: RadialEquation, pot: Potential) -> float:
@@ -413,7 +419,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     tally = _Tally()
     gamma = eq.gamma(pot)
     lo, hi = eq.energy_window(pot)
-    sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
+    sample = sampler(pot)
     try:
         L = _natural_length(eq, pot)
     except ValueError:
@@ -724,7 +730,7 @@ def _solve_laguerre(eq, pot, levels, tol):
     gamma = eq.gamma(pot)
     if not applies(eq, pot, levels, gamma, tol):
         return _solve_elements(eq, pot, levels, tol)
-    sample = lambda r, scan=False: _sample(pot, r, scan)   # noqa: E731
+    sample = sampler(pot)
     bound = None
     want = levels
     L, a, r_lo = laguerre_scale(eq, pot, gamma)
