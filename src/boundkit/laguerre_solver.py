@@ -67,6 +67,7 @@ import logging
 import math
 from dataclasses import dataclass
 from functools import lru_cache
+from typing import NamedTuple
 
 import numpy as np
 import scipy.linalg as sla
@@ -363,11 +364,20 @@ def _state_grid(n: int, lo: float, n_prev: int):
 
 
 def _states(gamma: float, r_core: float, P_all: np.ndarray, r, w_dr, elements):
-    """Normalised spectral-element states on the grid (r, w_dr, elements) from their values there
+    """Spectral-element states on the grid (r, w_dr, elements) from their normalised values there
     (one row per level)."""
-    (P_all,), _ = normalise(w_dr, P_all)
     return [RadialState(r=r, P=P, Q=None, weights=w_dr, gamma=gamma, r_core=r_core, elements=elements,
                         family="spectral") for P in P_all]
+
+
+class _Run(NamedTuple):
+    """One size of the climb: the mesh, its scale, the energies, the node values and V + S there."""
+
+    mesh: object
+    h: float
+    E: np.ndarray
+    u: np.ndarray
+    q: np.ndarray
 
 
 def _tighter_scale(probe, eq, E_top: float, decay: float) -> float | None:
@@ -383,6 +393,18 @@ def _tighter_scale(probe, eq, E_top: float, decay: float) -> float | None:
     return probe.reach(eq, E_top, _DECAY_NEEDED + 2)
 
 
+def _rescaled(probe, eq, E_top: float, r_last: float, settled: bool) -> tuple[str, float]:
+    """The scale decision on the first size: ``("out", 1.6 r_last)`` when the highest level has not
+    decayed by e^-_DECAY_NEEDED at the last node, ``("in", r)`` when the box is far too large
+    (:func:`_tighter_scale`; not once ``settled``, i.e. the box was already moved), else
+    ``("keep", r_last)``."""
+    decay = probe.decay(eq, E_top)
+    if decay < _DECAY_NEEDED:
+        return "out", 1.6 * r_last
+    tighter = None if settled else _tighter_scale(probe, eq, E_top, decay)
+    return ("keep", r_last) if tighter is None else ("in", tighter)
+
+
 def study(eq, sample, want: int, a: float, r_lo: float, sizes) -> tuple[list[int], list[list[float]], float]:
     """Energies of the lowest ``want`` levels at each mesh size in ``sizes``, on one scale (a
     convergence study): ``(sizes used, energies per level, last node radius)``.
@@ -395,21 +417,15 @@ def study(eq, sample, want: int, a: float, r_lo: float, sizes) -> tuple[list[int
     if not sizes:
         raise ValueError(f"sizes: a Laguerre mesh for {want} level(s) needs at least {want + 2} nodes")
     r_last = a * _hydrogenic_reach(want + eq.l, _DECAY_NEEDED + 2)
-    moved = shrunk = False
+    settled = False
     for _ in range(5):
         mesh = laguerre_mesh(sizes[-1])
         E = _levels_on(eq, sample, mesh, r_last / mesh.x[-1], want)[0]
-        if E[-1] < 0:
-            probe = _Probe.on(sample, r_lo, r_last)
-            decay = probe.decay(eq, E[-1])
-            if decay >= _DECAY_NEEDED:
-                tighter = None if (moved or shrunk) else _tighter_scale(probe, eq, E[-1], decay)
-                if tighter is None:
-                    break
-                shrunk, r_last = True, tighter
-                continue
-        moved = True
-        r_last *= 1.6
+        move, r_new = (_rescaled(_Probe.on(sample, r_lo, r_last), eq, E[-1], r_last, settled) if E[-1] < 0
+                       else ("out", 1.6 * r_last))
+        if move == "keep":
+            break
+        settled, r_last = True, r_new
     hist: list[list[float]] = [[] for _ in range(want)]
     for N in sizes:
         mesh = laguerre_mesh(N)
@@ -429,10 +445,12 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     """
     want = levels
     n_top = want + eq.l
+    tol_eff = max(tol, FLOOR)
     r_last = a * _hydrogenic_reach(n_top, _DECAY_NEEDED + 2)
     sizes = _ladder(_start_size(want, eq.l, tol))
     hist: list[list[float]] = [[] for _ in range(want)]
-    runs: list = []
+    used: list[int] = []
+    last = prev = None
     moved = 0
     shrunk = False
     i = 0
@@ -442,45 +460,44 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         h = r_last / mesh.x[-1]
         E, u, r_nodes, q_nodes = _levels_on(eq, sample, mesh, h, want)
         if not E[-1] < 0:
-            if not runs and N < _UNBOUND_CLIMB:
+            if not used and N < _UNBOUND_CLIMB:
                 # the level exists (counted on the far box, or a Coulomb tail): too few nodes in
                 # its well yet, as for a tightly bound nuclear p or d level on the first size
                 i += 1
                 continue
             log.info("Laguerre mesh: the highest level sought is not bound on N = %d; using spectral elements", N)
             return None
-        if not runs:
+        if not used:
             # the highest level converges first: its decay decides the scale before the climb
             if _Probe.allowed_beyond(eq, sample, r_nodes[-1], E[-1]):
                 log.info("Laguerre mesh: the potential has a well beyond the mesh; using spectral elements")
                 return None
             probe = _Probe.on(sample, r_lo, r_nodes[-1])
-            decay = probe.decay(eq, E[-1])
-            if decay < _DECAY_NEEDED:
+            move, r_new = _rescaled(probe, eq, E[-1], r_last, moved > 0 or shrunk)
+            if move == "out":
                 if moved == 3:
                     log.info("Laguerre mesh: the highest level has not decayed by e^-%g at the last node after "
                              "moving it out three times (a level near threshold); using spectral elements",
                              _DECAY_NEEDED)
                     return None
-                moved += 1
-                r_last *= 1.6
+                moved, r_last = moved + 1, r_new
                 i += 1
                 continue
-            tighter = None if (moved or shrunk) else _tighter_scale(probe, eq, E[-1], decay)
-            if tighter is not None:
+            if move == "in":
                 # a box far larger than the level needs (a short-range well): the same size again on
                 # the scale where it has decayed by e^-(_DECAY_NEEDED + 2)
-                shrunk, r_last = True, tighter
+                shrunk, r_last = True, r_new
                 continue
             # structure that even the largest mesh could not resolve (spacing falls about like 1/N)
             if probe.shape_gaps(r_nodes) > _SHAPE_PER_GAP * MAX_N / N:
                 log.info("Laguerre mesh: the potential has structure far narrower than the node spacing; "
                          "using spectral elements")
                 return None
-        runs.append((N, mesh, h, E, u, q_nodes))
+        prev, last = last, _Run(mesh, h, E, u, q_nodes)
+        used.append(N)
         for k in range(want):
             hist[k].append(float(E[k]))
-        if all(len(hk) >= 3 and spectral_done(hk, max(tol, FLOOR)) for hk in hist):
+        if all(len(hk) >= 3 and spectral_done(hk, tol_eff) for hk in hist):
             break
         if _stalled(hist, N, tol):
             log.info("Laguerre mesh: the levels stopped converging geometrically at N = %d; using spectral "
@@ -490,7 +507,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     else:
         log.info("Laguerre mesh: no convergence up to N = %d; using spectral elements", MAX_N)
         return None
-    N, mesh, h, E, u, q_nodes = runs[-1]
+    mesh, h, E, u = last.mesh, last.h, last.E, last.u
     if any(count_nodes(u[:, k]) != k for k in range(want)):
         log.info("Laguerre mesh: a node count disagrees with the level's index; using spectral elements")
         return None
@@ -499,35 +516,35 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         log.info("Laguerre mesh: the potential has structure narrower than the node spacing (shape rate x "
                  "spacing = %.3g); using spectral elements", shape)
         return None
-    r_core = a * (eq.l + 1) ** 2
-    _, pmesh, _, _, pu, _ = runs[-2]           # same last node: the same grid serves
-    x, w, elements, C, C_prev = _state_grid(N, r_lo / h, pmesh.n)
+    x, w, elements, C, C_prev = _state_grid(mesh.n, r_lo / h, prev.mesh.n)   # same last node, same grid
     r = h * x
     w_dr = w * r
-    states = _states(gamma, r_core, u.T @ C, r, w_dr, elements)
-    seen = (h * mesh.weights * q_nodes) @ u**2
-    felt = np.array([st.P for st in states]) ** 2 @ (w_dr * eq.q(0.0, sample(r)))
+    (P,), _ = normalise(w_dr, u.T @ C)
+    seen = (h * mesh.weights * last.q) @ u**2
+    felt = P**2 @ (w_dr * eq.q(0.0, sample(r)))
     for k in range(want):
-        if abs(seen[k] - felt[k]) > max(tol, FLOOR) * abs(E[k]):
+        if abs(seen[k] - felt[k]) > tol_eff * abs(E[k]):
             log.info("Laguerre mesh: the nodes see <V> = %.3g for level %d, the full grid %.3g (the potential "
                      "has structure between or below the nodes); using spectral elements", seen[k], k, felt[k])
             return None
-    prev_states = _states(gamma, r_core, pu.T @ C_prev, r, w_dr, elements)
+    r_core = a * (eq.l + 1) ** 2
+    states = _states(gamma, r_core, P, r, w_dr, elements)
+    (P_prev,), _ = normalise(w_dr, prev.u.T @ C_prev)
+    prev_states = _states(gamma, r_core, P_prev, r, w_dr, elements)
     found, per_level, worst = [], [], 0.0
-    sizes_used = [run[0] for run in runs]
     for k in range(want):
         hk = hist[k]
         Ek = hk[-1]
         est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek))
         worst = max(worst, est / abs(Ek))
         n = principal_n(k, eq.l)
-        per_level.append({"label": eq.label(n), "sizes": sizes_used, "energies": list(hk), "r_min": r_lo,
+        per_level.append({"label": eq.label(n), "sizes": used, "energies": list(hk), "r_min": r_lo,
                           "r_max": r_last})
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=eq.label(n), energy=Ek,
-                           error_estimate=est, nodes=k, state=states[k], resolution=N, iterations=0,
+                           error_estimate=est, nodes=k, state=states[k], resolution=mesh.n, iterations=0,
                            previous_state=prev_states[k]))
-    notes = [f"Lagrange-Laguerre mesh, N = {N}: the levels are the lowest eigenvalues of one symmetric "
+    notes = [f"Lagrange-Laguerre mesh, N = {mesh.n}: the levels are the lowest eigenvalues of one symmetric "
              "matrix, each with its index as node count"]
-    extra = {"gamma": gamma, "L": a, "r_min": r_lo, "r_max": r_last, "threshold": 0.0, "bound_count": None,
-             "certified": True, "mesh": "lagrange-laguerre"}
+    extra = {"gamma": gamma, "r_min": r_lo, "r_max": r_last, "threshold": 0.0, "certified": True,
+             "mesh": "lagrange-laguerre"}     # the caller adds the natural length and the far-box count
     return found, notes, per_level, worst, extra
