@@ -139,7 +139,7 @@ class SymmetricOperator:
             G = Bt + bq_ext[qidx][:, :, None] * Bs        # pad rows of B and Bt are zero
             per = {np.longdouble: (Bs, G, W.astype(np.longdouble)),
                    np.float64: (Bs.astype(float), G.astype(float), W)}
-            self._batches.append(dict(idx=idx, qidx=qidx, per=per, degree=d))
+            self._batches.append(dict(idx=idx, qidx=qidx, per=per, degree=d, elements=ev))
         for dtype in (np.float64, np.longdouble):
             sq = self._q[dtype]
             rq = sq.r
@@ -286,8 +286,7 @@ class SymmetricOperator:
         n = self.n
         scale = np.ones(n)
         scale[:-1] = np.sqrt(self.row_scale)
-        lefts = np.array([e[0] for e in self.grid.elements])
-        m = len(lefts)
+        m = len(self.grid.elements)
         diag = np.zeros(m + 1)
         off = np.zeros(m)
         neg = 0
@@ -302,9 +301,9 @@ class SymmetricOperator:
             w = np.where(w == 0, tiny, w)
             P = np.matmul(V.transpose(0, 2, 1), blk[:, 1:-1, ::d])
             ends = blk[:, ::d][:, :, ::d] - np.matmul(P.transpose(0, 2, 1), P / w[:, :, None])   # (elements, 2, 2)
-            pos = np.searchsorted(lefts, idx[:, 0])
-            np.add.at(diag, pos, ends[:, 0, 0])
-            np.add.at(diag, pos + 1, ends[:, 1, 1])
+            pos = bt["elements"]                         # element e joins ends e and e + 1
+            diag[pos] += ends[:, 0, 0]
+            diag[pos + 1] += ends[:, 1, 1]
             off[pos] = ends[:, 0, 1]
         diag[0] += scale[0] ** 2 * self._sigma(E)
         diag, off = diag[:-1], off[:-1]          # the last node is dropped (f = 0 there)
