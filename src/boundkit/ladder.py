@@ -27,7 +27,6 @@ from __future__ import annotations
 import logging
 import math
 from dataclasses import dataclass
-
 from typing import TYPE_CHECKING
 
 import numpy as np

@@ -15,7 +15,7 @@ import warnings
 import click
 
 from .. import __version__
-from .._signals import Terminated, on_sigterm as _on_sigterm
+from .._signals import Terminated, on_sigterm as _on_sigterm, pending
 from .common import EXIT_BAD_INPUT, EXIT_INTERRUPTED, fail
 
 __all__ = ["main", "BoundkitGroup"]
@@ -64,8 +64,6 @@ class BoundkitGroup(click.Group):
         finally:
             if previous is not None:
                 signal.signal(signal.SIGTERM, previous)
-        from .._signals import pending
-
         if pending():          # a SIGTERM whose raise a finalizer swallowed: still an interruption
             click.echo("boundkit: interrupted", err=True)
             sys.exit(pending())
@@ -94,8 +92,6 @@ def _stdout_failed(exc: OSError) -> None:
     if exc.errno == errno.EPIPE:
         sys.exit(EXIT_BAD_INPUT)
     fail(f"cannot write the output ({exc.strerror or exc}); redirect it to a writable place")
-
-
 
 
 @click.group(cls=BoundkitGroup, context_settings={"help_option_names": ["-h", "--help"]})

@@ -18,6 +18,7 @@ from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
+from .. import _signals
 from ..equations.base import letter
 from ..equations.dirac import kappa_to_lj
 from ..potentials import TERMS, Term
@@ -364,9 +365,7 @@ class ProgressBar:
     def update(self, done: int) -> None:
         """``done`` items of ``total`` are finished (a safe point for a SIGTERM that a finalizer
         swallowed: see :mod:`boundkit._signals`)."""
-        from .._signals import check
-
-        check()
+        _signals.check()
         if self.hook is not None:
             self.hook(done, self.total)
         elif self.bar is not None:
