@@ -148,6 +148,14 @@ def test_convergence_is_geometric_in_the_number_of_nodes():
 
 # --- other Coulomb-tailed potentials: the same numbers as the elements ------------------------
 
+def _agree(fast, slow, tol: float, slack: float = 0.0) -> None:
+    """Same labels, and energies equal within both estimates plus tol (and ``slack``) relative."""
+    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
+    for x, y in zip(fast.levels, slow.levels):
+        assert abs(x.energy - y.energy) <= (tol + slack) * abs(y.energy) + x.error_estimate + y.error_estimate, \
+            (x.label, x.energy, y.energy)
+
+
 def _both(monkeypatch, *args, **kw):
     fast = boundkit.solve(*args, **kw)
     with monkeypatch.context() as m:
@@ -165,9 +173,7 @@ def test_screened_core_agrees_with_the_elements(monkeypatch, l):
 
     fast, slow = _both(monkeypatch, "schrodinger", V, l=l, levels=6, tol=1e-11)
     assert fast.diagnostics["mesh"] == "lagrange-laguerre"
-    for a, b in zip(fast.levels, slow.levels):
-        assert a.label == b.label
-        assert abs(a.energy - b.energy) <= 1e-11 * abs(b.energy) + a.error_estimate + b.error_estimate
+    _agree(fast, slow, 1e-11)
 
 
 def test_repulsive_core_widens_the_mesh_and_agrees(monkeypatch):
@@ -177,9 +183,7 @@ def test_repulsive_core_widens_the_mesh_and_agrees(monkeypatch):
 
     fast, slow = _both(monkeypatch, "schrodinger", V, l=0, levels=4, tol=1e-10)
     assert fast.diagnostics["mesh"] == "lagrange-laguerre"
-    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
-    for a, b in zip(fast.levels, slow.levels):
-        assert abs(a.energy - b.energy) <= 1e-10 * abs(b.energy) + a.error_estimate + b.error_estimate
+    _agree(fast, slow, 1e-10)
 
 
 @pytest.mark.parametrize("l,j,levels", [(0, 0.5, 2), (1, 1.5, 3)])
@@ -197,9 +201,7 @@ def test_a_nuclear_well_tightens_the_box_and_agrees(monkeypatch, l, j, levels):
     L, a, _ = boundkit.solver.laguerre_scale(eq, pot, eq.gamma(pot))
     first = a * lag._hydrogenic_reach(levels + l, lag._DECAY_NEEDED + 2)
     assert fast.diagnostics["levels"][0]["r_max"] < 0.5 * first
-    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
-    for x, y in zip(fast.levels, slow.levels):
-        assert abs(x.energy - y.energy) <= 1e-10 * abs(y.energy) + x.error_estimate + y.error_estimate
+    _agree(fast, slow, 1e-10)
 
 
 def test_a_level_not_yet_bound_on_the_first_size_sends_the_climb_on(monkeypatch):
@@ -210,9 +212,7 @@ def test_a_level_not_yet_bound_on_the_first_size_sends_the_climb_on(monkeypatch)
                        units="nuclear", particle="neutron")
     assert fast.diagnostics["mesh"] == "lagrange-laguerre"
     assert lag._start_size(2, 2, 1e-8) < fast.diagnostics["levels"][0]["sizes"][0]   # sizes were skipped
-    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
-    for x, y in zip(fast.levels, slow.levels):
-        assert abs(x.energy - y.energy) <= 1e-8 * abs(y.energy) + x.error_estimate + y.error_estimate
+    _agree(fast, slow, 1e-8)
 
 
 def test_a_box_is_tightened_only_when_far_too_large():
@@ -308,9 +308,7 @@ def test_all_levels_hand_over_to_the_elements_when_the_top_one_is_barely_bound(m
                        levels="all", tol=1e-10)
     assert fast.diagnostics["mesh"] == "spectral-elements"
     assert fast.diagnostics["bound_count"] == slow.diagnostics["bound_count"] == len(fast.levels) == 6
-    for x, y in zip(fast.levels, slow.levels):
-        assert x.label == y.label
-        assert abs(x.energy - y.energy) <= 1e-10 * abs(y.energy) + x.error_estimate + y.error_estimate
+    _agree(fast, slow, 1e-10)
 
 
 @pytest.mark.parametrize("delta,levels", [(0.05, 3), (0.01, 5)])
@@ -330,9 +328,7 @@ def test_yukawa_agrees_with_the_elements(monkeypatch, D):
                        tol=1e-11)
     assert fast.diagnostics["mesh"] == "lagrange-laguerre"
     assert fast.diagnostics["bound_count"] == slow.diagnostics["bound_count"]
-    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
-    for a, b in zip(fast.levels, slow.levels):
-        assert abs(a.energy - b.energy) <= 1e-11 * abs(b.energy) + a.error_estimate + b.error_estimate
+    _agree(fast, slow, 1e-11)
 
 
 def test_a_level_near_threshold_goes_to_the_elements():
@@ -373,10 +369,7 @@ def _same_levels_as_the_elements(monkeypatch, p):
         fast, slow = _both(monkeypatch, "schrodinger", V, l=p["l"], levels=p["levels"], tol=tol)
     except ValueError:
         return
-    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
-    for a, e in zip(fast.levels, slow.levels):
-        assert abs(a.energy - e.energy) <= (a.error_estimate + e.error_estimate + tol * abs(e.energy)
-                                            + 3e-14 * abs(e.energy)), (a.label, a.energy, e.energy)
+    _agree(fast, slow, tol, slack=3e-14)
 
 
 @_QUICK
@@ -415,10 +408,7 @@ def _all_levels_as_the_elements(monkeypatch, p):
     except ValueError:
         return
     assert fast.diagnostics["bound_count"] == slow.diagnostics["bound_count"]
-    assert [lv.label for lv in fast.levels] == [lv.label for lv in slow.levels]
-    for x, e in zip(fast.levels, slow.levels):
-        assert abs(x.energy - e.energy) <= (x.error_estimate + e.error_estimate + tol * abs(e.energy)
-                                            + 3e-14 * abs(e.energy)), (x.label, x.energy, e.energy)
+    _agree(fast, slow, tol, slack=3e-14)
 
 
 @_QUICK
