@@ -341,9 +341,11 @@ class SymmetricOperator:
                 flat[places[par]] += blk[par::2].reshape(-1)
         ab[2 * kl, 0] += self._sigma(E)
         if self._band_scale is None:
-            i = np.arange(n)[None, :] + np.arange(3 * kl + 1)[:, None] - 2 * kl
-            rs = np.append(self.row_scale, 0.0)
-            scale = np.where((i >= 0) & (i < n), rs[np.clip(i, 0, n - 1)], 0.0)
+            # row i of K sits at band row 2 kl + i - j of column j: scale[k, j] = row_scale[j + k - 2 kl]
+            # (0 outside the matrix and in the dropped last column), a strided view of one padded copy
+            rs = np.zeros(n + 3 * kl + 1)
+            rs[2 * kl:2 * kl + n - 1] = self.row_scale
+            scale = np.lib.stride_tricks.sliding_window_view(rs, n)[: 3 * kl + 1].copy()
             scale[:, n - 1] = 0.0
             self._band_scale = scale
         ab *= self._band_scale
