@@ -14,10 +14,10 @@ K(E) with a positive diagonal mass matrix M. Two facts make counting possible:
    is where mu_j crosses zero.
 
 Hence N(E), the number of levels below E, equals the number of negative
-eigenvalues of K(E). By Sylvester's law of inertia that number is the number
-of negative pivots of the symmetric factorization K(E) = L D L^T (here
-``scipy.linalg.ldl``), whatever the scaling of the rows. The counting
-function gives
+eigenvalues of K(E). By Sylvester's law of inertia that number does not change
+under a congruence (a scaling of rows and columns, or an elimination), so it
+is counted by static condensation of the element interiors
+(:meth:`SymmetricOperator.count_negative`). The counting function gives
 
 * how many levels lie below the threshold (``bound_count``): N(threshold);
 * a certificate for a set of computed levels: when m distinct roots of
@@ -31,7 +31,12 @@ Schrodinger equation (K is linear in E) and good first guesses for the
 energy-dependent Klein-Gordon and Dirac operators; each guess is refined by
 Newton's method with residuals in extended precision
 (:func:`boundkit.eigen.refine`) and then certified by one count. Guesses
-never decide whether a level exists; the count does.
+never decide whether a level exists; the count does. A guess from which Newton's
+method leaves for a neighbouring level (it lands nearer a neighbouring guess, or
+on a level already found) is replaced by the level of its own index: Newton's
+method on mu_j(E) itself, one dense pencil per step (:func:`_relinearised`).
+Without that, the lower rungs of the ladder, which are not counted, could carry
+a repeated level up to the last one, where only bisection on the count mended it.
 
 The count is exact for the discrete problem. It equals the count of the
 continuous problem once the mesh resolves the levels (the same condition as
@@ -53,6 +58,8 @@ from .equations.variational import SymmetricOperator
 __all__ = ["count_below", "locate_levels", "certify_levels", "Located"]
 
 log = logging.getLogger(__name__)
+
+_SAME = 1e-9        # two energies of one channel closer than this (relative) are one level
 
 
 def count_below(op: SymmetricOperator, E: float) -> int:
@@ -146,6 +153,49 @@ def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.nd
     return v
 
 
+def _stayed(ref, lam, i: int, lo: float, hi: float, below) -> bool:
+    """Whether Newton's method, started at the guess lam[i], converged inside the window, above the
+    levels already found (by more than _SAME relative: Newton's method lands on one level from two
+    starts within about 1e-13), and nearer to its guess than halfway to the neighbouring guesses
+    (else it may have gone to a neighbouring level)."""
+    E = ref.energy
+    if not (ref.converged and lo < E < hi) or (below and E - below[-1] <= _SAME * abs(E)):
+        return False
+    g = float(lam[i])
+    down = 0.5 * (g - lam[i - 1]) if i > 0 else math.inf
+    up = 0.5 * (lam[i + 1] - g) if i + 1 < len(lam) else math.inf
+    return -down < E - g < up
+
+
+def _relinearised(op: SymmetricOperator, j: int, E: float, lo: float, hi: float, steps: int = 8):
+    """The energy of the j-th level of the grid (j counted from the bottom of its spectrum) by
+    Newton's method on mu_j(E), or None when it leaves the window or does not settle.
+
+    Notes
+    -----
+    mu_j(E) is the j-th eigenvalue of the pencil (K(E), -K'(E)) (-K' is positive definite in the
+    window; see the module docstring). It falls through zero at the j-th level, its derivative
+    there is -1 by the Hellmann-Feynman theorem, so a Newton step is E -> E + mu_j(E): the j-th
+    eigenvalue of (K(E) - E K'(E), -K'(E)). The index j, not a distance, picks the level, so the
+    iteration cannot go to a neighbour. One dense symmetric-definite eigenvalue solve per step.
+    """
+    for _ in range(steps):
+        B = -op.symmetric(E, derivative=True)
+        try:
+            # all eigenvalues, as in _pencil: bisection on only the j-th ("gvx") loses the small ones of
+            # this strongly graded pencil (the weight r^(2 gamma) is tiny near the origin)
+            lam = sla.eigh(op.symmetric(E) + E * B, B, eigvals_only=True, driver="gv", check_finite=False)
+        except (np.linalg.LinAlgError, ValueError):
+            return None
+        E_new = float(lam[j])
+        if not lo < E_new < hi:
+            return None
+        if abs(E_new - E) <= 1e-9 * abs(E_new):
+            return E_new
+        E = E_new
+    return None
+
+
 def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
                   scale: float, guesses=None, top_guess: float | None = None,
                   sure: bool = True, certify: bool = True, offset: int = 0,
@@ -173,8 +223,10 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
         g = np.asarray(guesses, dtype=float)
         nxt = top_guess if top_guess is not None else (hi if math.isfinite(hi) else g[-1] + 10 * scale)
         lam = np.concatenate((g, [2 * nxt - g[-1]]))
+        first = offset              # index of the first guess in the whole spectrum of the grid
     else:
         lam = _pencil(op, E0)
+        first = 0
     inside = np.nonzero((lam > lo) & (lam < hi))[0]
     if want is None:
         if bound is None:
@@ -188,8 +240,17 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
         # the pencil's vectors carry noise where the mass is tiny (near the origin); inverse
         # iteration at the pencil's energy gives a clean start for Newton
         ref = refine(op, lam[i], _inverse_iteration(op, lam[i]), rtol=rtol)
-        if not ref.converged or not (lo < ref.energy < hi):
-            break
+        if not _stayed(ref, lam, i, lo, hi, energies):
+            # Newton left the guess's neighbourhood (a guess between two levels, as the linearised
+            # pencil gives for the upper s levels of a heavy Klein-Gordon ion): the level of this index,
+            # by Newton's method on its own pencil eigenvalue, then Newton on the grid again
+            E = _relinearised(op, first + i, float(lam[i]), lo, hi)
+            if E is None:
+                break
+            ref = refine(op, E, _inverse_iteration(op, E), rtol=rtol)
+            if not (ref.converged and lo < ref.energy < hi
+                    and (not energies or ref.energy - energies[-1] > _SAME * abs(ref.energy))):
+                break
         energies.append(ref.energy)
         vectors.append(ref.vector)
     nxt = float(lam[inside[m]]) if len(inside) > m else hi
