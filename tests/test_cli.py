@@ -81,6 +81,16 @@ def test_bad_input_gives_one_message_and_exit_2(args, message):
     assert "Traceback" not in res.output
 
 
+def test_confining_vector_potential_in_dirac_is_one_message():
+    """A linear vector potential in the Dirac equation (Klein's paradox) used to end in a MemoryError
+    traceback from the layout."""
+    res = run("solve", "-e", "dirac", "-p", "linear", "--param", "F=1", "--levels", "3")
+    assert res.exit_code == 2
+    assert "the vector part outgrows the scalar part" in res.output and "--scalar" in res.output
+    assert " ..." not in res.output            # the whole message, with its fix, fits the line
+    assert "Traceback" not in res.output
+
+
 def test_unreachable_tolerance_prints_levels_and_exits_3():
     res = run("solve", "-e", "dirac", "--tol", "1e-17", "--levels", "1")
     assert res.exit_code == 3

@@ -53,6 +53,14 @@ BAD = [
     ("tol-zero", dict(equation="schrodinger", tol=0.0, **COULOMB), r"^tol: must be positive"),
     ("tol-negative", dict(equation="schrodinger", tol=-1e-10, **COULOMB), r"^tol: must be positive"),
     ("tol-nan", dict(equation="schrodinger", tol=float("nan"), **COULOMB), r"^tol: expected a finite number"),
+    # a vector potential that grows without bound (V - S -> +inf) binds no normalisable level of the
+    # Klein-Gordon or Dirac equation (Klein's paradox); this used to end in a MemoryError in the layout
+    ("kg-confining-vector", dict(equation="klein-gordon", potential="linear", params={"F": 1.0}, levels=3),
+     r"^potential: the vector part outgrows the scalar part"),
+    ("dirac-confining-vector", dict(equation="dirac", potential="cornell", params={"kappa_c": 0.5, "sigma": 0.2},
+                                    levels=3), r"^potential: the vector part outgrows the scalar part"),
+    ("dirac-oscillator-vector", dict(equation="dirac", potential="oscillator", params={"k": 1.0}, levels=2),
+     r"^potential: the vector part outgrows the scalar part"),
 ]
 
 
@@ -92,3 +100,15 @@ def test_critical_charges_sit_where_the_formulas_turn_imaginary():
     # a higher channel takes the same charge (Z alpha < l + 1/2 = 3/2)
     res = boundkit.solve("klein-gordon", "coulomb", {"Z": 70}, l=1, levels=1)
     _assert_kept_promise(res, klein_gordon_coulomb(70, 2, 1))
+
+
+@pytest.mark.parametrize("equation, kw", [("dirac", dict(kappa=-1)), ("klein-gordon", dict(l=0))])
+def test_confinement_in_the_scalar_part_is_not_refused(equation, kw):
+    """Equal vector and scalar linear parts (the spin-symmetric quark-model case), and a scalar part
+    alone, keep V - S bounded: those bind, and are solved."""
+    from boundkit.potentials.library import Linear
+
+    for vector in (Linear(F=0.5), None):
+        res = boundkit.solve(equation, [vector] if vector else [], scalar=Linear(F=0.5), levels=2, **kw)
+        assert res.status == "ok", res.message
+        assert len(res.levels) == 2 and res.levels[0].energy < res.levels[1].energy

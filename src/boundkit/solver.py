@@ -45,7 +45,7 @@ from .mesh import LogMap
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
 from .states import count_nodes, normalise, principal_n
-from .units import ELECTRON_MASS_MEV, constants_record, get_particle
+from .units import C_AU, ELECTRON_MASS_MEV, constants_record, get_particle
 from ._checks import check_choice, check_int, check_positive
 
 __all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation", "check_levels"]
@@ -691,8 +691,46 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
         return res
 
 
+def _check_klein(eq, pot) -> None:
+    """Refuse a Klein-Gordon or Dirac channel whose vector potential outgrows its scalar one.
+
+    Notes
+    -----
+    Far out both equations behave like u'' = -(E - V - S)(E + 2 m c^2 - V + S) u / c^2 (E the binding
+    energy). When V - S and V + S both grow without bound, that product is positive for every E and
+    the state oscillates (Klein's paradox): a vector potential that confines, with no scalar part as
+    strong, binds no normalisable level. With V + S bounded (the pseudospin case S = -V) or V - S
+    bounded (S = V, the spin-symmetric quark-model case) levels do exist, and nothing is refused here
+    (the Dirac solver's own pole check answers the pseudospin case). The test reads V - S and V + S
+    at 1e6, 1e7 and 1e8 bohr: each must rise, its rise not slowing by more than half from one decade
+    to the next (linear, quadratic and logarithmic growth; not a rise that levels off). Where V - S
+    passes 2 m c^2 only beyond 1e8 bohr the levels are bound in practice, but the box would have to
+    stop before that point, which the solver does not do (it laid elements out towards it and ran out
+    of memory).
+    """
+    if eq.name not in ("klein-gordon", "dirac") or not pot.confining:
+        return
+    r = np.array([1e6, 1e7, 1e8])
+    s = _sample(pot, r, scan=True)
+
+    def grows(f) -> bool:
+        rise, last = f[1] - f[0], f[2] - f[1]
+        return bool(rise > 0 and last >= 0.5 * rise)
+
+    d = s.V - s.S
+    if grows(d) and grows(s.V + s.S):
+        name = {"klein-gordon": "Klein-Gordon", "dirac": "Dirac"}[eq.name]
+        # one line of the command line's error (at most 280 characters), with the fix in it
+        raise ValueError(
+            f"potential: the vector part outgrows the scalar part without bound (V - S = {d[2]:.3g} "
+            f"hartree at 1e8 bohr): the {name} equation binds nothing then (Klein's paradox); put the "
+            "confinement in a Lorentz scalar at least as strong (scalar=..., --scalar) or use the Schrodinger "
+            "equation")
+
+
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
+    _check_klein(eq, pot)
     if disc.family == "spectral":
         run = _solve_laguerre(eq, pot, levels, tol)
         found, tally, per_level, worst, extra = run
