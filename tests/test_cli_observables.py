@@ -167,6 +167,24 @@ def test_hyperfine_command_hydrogen_json_and_table():
     assert [ln.split()[0] for ln in r.output.splitlines()[-2:]] == ["1s1/2", "2s1/2"]
 
 
+def test_hyperfine_command_prints_the_splitting():
+    """Beside A, the splitting of the two uppermost hyperfine sublevels, E(F) - E(F - 1) = A F with
+    F = I + j (Lande's interval rule, a textbook consequence of E(F) = A [F(F+1) - I(I+1) - j(j+1)] / 2;
+    common practice, no source needed): hydrogen's 1s doublet (I = 1/2) is split by A, a 2p3/2 level
+    of a spin-3/2 nucleus by 3 A."""
+    for spin, kappa, factor in (("0.5", "-1", 1.0), ("1.5", "-2", 3.0)):
+        r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", spin, "--kappa", kappa, "--json")
+        assert r.exit_code == 0, r.output
+        (lv,) = json.loads(r.output)["levels"]
+        assert lv["hyperfine_splitting"] == pytest.approx(factor * lv["hyperfine_a"], rel=1e-15)
+        assert lv["errors"]["hyperfine_splitting"] == pytest.approx(factor * lv["errors"]["hyperfine_a"], rel=1e-15)
+    r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "1.5", "--kappa", "-2")
+    assert r.exit_code == 0, r.output
+    assert "E(F) - E(F-1) = A F at F = I + j" in r.output
+    row = r.output.splitlines()[-1].split()
+    assert row[0] == "2p3/2" and float(row[-3]) == pytest.approx(3 * float(row[-6]), rel=1e-10)   # value +- error
+
+
 def test_hyperfine_command_errors():
     r = run("hyperfine", "--nuclear-spin", "0.5")
     assert r.exit_code == 2

@@ -127,9 +127,11 @@ def _magnetic_rows(res, moment: float, spin: float, radius_fm: float | None, uni
         g = g_factor(lv, mass)
         a = hyperfine_a(lv, moment, spin, mass=mass, particle_mass=particle_mass,
                         magnetization_radius=radius_fm, radius_unit="fm", energy_unit=unit)
+        top = spin + lv.j          # E(F) - E(F - 1) = A F (the interval rule) at the uppermost F = I + j
         rows.append({"label": lv.label, "n": lv.n, "kappa": lv.kappa, "j": lv.j, "energy_hartree": lv.energy,
-                     "g_factor": g.value, "hyperfine_a": a.value,
-                     "errors": {"g_factor": g.error, "hyperfine_a": a.error}})
+                     "g_factor": g.value, "hyperfine_a": a.value, "hyperfine_splitting": a.value * top,
+                     "errors": {"g_factor": g.error, "hyperfine_a": a.error,
+                                "hyperfine_splitting": a.error * top}})
     return rows
 
 
@@ -151,8 +153,9 @@ def _magnetic_rows(res, moment: float, spin: float, radius_fm: float | None, uni
 def hyperfine_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
                   table_r_unit, table_v_unit, params, unit_system, kappa, levels, nuclear_moment, nuclear_spin,
                   radius_fm, energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
-    """Bound g-factor and magnetic dipole hyperfine constant A of Dirac levels
-    (Dirac values: no QED corrections, no anomalous moment of the particle)."""
+    """Bound g-factor, magnetic dipole hyperfine constant A and the splitting A (I + j) of the two
+    uppermost hyperfine sublevels of Dirac levels (Dirac values: no QED corrections, no anomalous
+    moment of the particle)."""
     from ..solver import solve
     from ..units import energy_unit as canonical_energy_unit
 
@@ -173,19 +176,23 @@ def hyperfine_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, t
         click.echo(json.dumps({"equation": res.equation, "potential": res.potential,
                                "nucleus": {"moment_nuclear_magnetons": nuclear_moment, "spin": nuclear_spin,
                                            "magnetization": dipole},
-                               "units": {"hyperfine_a": unit, "g_factor": "1", "energy": "hartree"},
+                               "units": {"hyperfine_a": unit, "hyperfine_splitting": unit, "g_factor": "1",
+                                         "energy": "hartree"},
                                "status": res.status, "message": res.message, "levels": rows},
                               default=json_default, indent=2))
     else:
         out = [f"dirac equation, potential {res.potential}; nucleus mu = {nuclear_moment:g} mu_N, I = "
                f"{nuclear_spin:g}, {dipole}",
                f"A in {unit}: a level F lies at A [F(F+1) - I(I+1) - j(j+1)] / 2; Dirac values (no QED, "
-               "no anomalous moment); +- the change from the previous resolution", "",
-               f"{'level':<8} {'g':>24} {'A':>28}"]
+               "no anomalous moment); +- the change from the previous resolution",
+               f"splitting in {unit}: E(F) - E(F-1) = A F at F = I + j (the whole doublet when j = 1/2 or "
+               "I = 1/2)", "",
+               f"{'level':<8} {'g':>24} {'A':>28} {'splitting':>28}"]
         for row in rows:
             err = row["errors"]
             out.append(f"{row['label']:<8} {row['g_factor']:>15.12g} +-{err['g_factor']:>7.1g} "
-                       f"{row['hyperfine_a']:>19.12g} +-{err['hyperfine_a']:>7.1g}")
+                       f"{row['hyperfine_a']:>19.12g} +-{err['hyperfine_a']:>7.1g} "
+                       f"{row['hyperfine_splitting']:>19.12g} +-{err['hyperfine_splitting']:>7.1g}")
         click.echo("\n".join(out))
     if res.status != "ok":
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
