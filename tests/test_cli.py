@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+import re
 
 import pytest
 from click.testing import CliRunner
@@ -79,6 +80,20 @@ def test_bad_input_gives_one_message_and_exit_2(args, message):
     assert res.exit_code == 2
     assert re.search(message, res.output), res.output
     assert "Traceback" not in res.output
+
+
+def test_solve_footer_names_what_each_family_counts():
+    """The spectral family reports re-seeded guesses and levels found by bisection (it used to print
+    finite-difference counters that it never set, always 0); the finite-difference family its
+    dropped candidates, and its header names its own grid (it named the seeding spectral elements)."""
+    res = run("solve", "-e", "klein-gordon", "--param", "Z=50", "--levels", "5")
+    assert res.exit_code == 0, res.output
+    assert re.search(r"guesses re-seeded: [1-9]\d*, levels located by bisection: 0; ", res.output), res.output
+    assert "dropped candidates" not in res.output and "unstable seeds" not in res.output
+    res = run("solve", "--levels", "2", "--method", "finite-difference")
+    assert res.exit_code == 0, res.output
+    assert "dropped candidates: 0 (node mismatch or unstable); " in res.output
+    assert re.search(r"method finite-difference \(finite differences, \d+ grid points\)", res.output), res.output
 
 
 def test_confining_vector_potential_in_dirac_is_one_message():

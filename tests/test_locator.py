@@ -282,6 +282,13 @@ def test_klein_gordon_s_levels_of_a_heavy_ion_need_no_bisection(Z):
         assert _rel(lv.energy, klein_gordon_coulomb(Z, lv.n, 0)) < TOL, (lv.label, lv.energy)
     assert _rungs_distinct(res), [lv["energies"] for lv in res.diagnostics["levels"]]
     assert not any("bisection" in note for note in res.diagnostics["notes"]), res.diagnostics["notes"]
+    assert res.diagnostics["bisected_levels"] == 0
+    assert res.diagnostics["reseeded_guesses"] >= 1      # the guesses that went astray, counted
+
+
+def test_well_guessed_levels_are_not_reseeded():
+    res = boundkit.solve("dirac", "coulomb", {"Z": 92}, kappa=-1, levels=5, tol=1e-12)
+    assert res.diagnostics["reseeded_guesses"] == 0 and res.diagnostics["bisected_levels"] == 0
 
 
 @pytest.mark.parametrize("particle", ["pion", "kaon"])

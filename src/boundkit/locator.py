@@ -95,7 +95,8 @@ class Located:
     ``offset`` is N(bottom of the window): states below it (a Dirac level that
     has dived into the lower continuum) shift the node count of every level
     above by that much. ``next_energy`` is the guess of the level above the last
-    one (it places ``E_top``).
+    one (it places ``E_top``); ``reseeded`` counts guesses that Newton's method took to a neighbouring
+    level and that were replaced (:func:`_relinearised`).
     """
 
     energies: tuple
@@ -108,6 +109,7 @@ class Located:
     offset: int = 0
     checked: bool = True
     next_energy: float = math.inf
+    reseeded: int = 0
 
 
 def _bisect_level(op, k: int, lo: float, hi: float, scale: float) -> tuple[float, float]:
@@ -238,6 +240,7 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     else:
         m = want if bound is None else min(want, bound)
     energies, vectors = [], []
+    reseeded = 0
     for i in inside[:m]:
         # the pencil's vectors carry noise where the mass is tiny (near the origin); inverse
         # iteration at the pencil's energy gives a clean start for Newton
@@ -246,6 +249,7 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
             # Newton left the guess's neighbourhood (a guess between two levels, as the linearised
             # pencil gives for the upper s levels of a heavy Klein-Gordon ion): the level of this index,
             # by Newton's method on its own pencil eigenvalue, then Newton on the grid again
+            reseeded += 1
             E = _relinearised(op, first + i, float(lam[i]), lo, hi)
             if E is None:
                 break
@@ -257,7 +261,7 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
         vectors.append(ref.vector)
     nxt = float(lam[inside[m]]) if len(inside) > m else hi
     loc = Located(tuple(energies), tuple(vectors), _top(energies, nxt, hi), -1, bound, 0, False, offset,
-                  checked=False, next_energy=nxt)
+                  checked=False, next_energy=nxt, reseeded=reseeded)
     return certify_levels(op, loc, m, lo, hi, scale, sure) if certify else loc
 
 

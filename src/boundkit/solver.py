@@ -172,11 +172,10 @@ def _radii(eq: RadialEquation, pot: Potential, E: float, L: float) -> tuple[floa
 
 @dataclass
 class _Tally:
-    candidates: int = 0
-    dropped_node_mismatch: int = 0
-    dropped_unstable: int = 0
-    dropped_outside_window: int = 0
-    dropped_unstable_seed: int = 0
+    dropped_node_mismatch: int = 0      # finite differences: a refined state with the wrong node count
+    dropped_unstable: int = 0           # finite differences: a level that moved too much between sizes
+    reseeded: int = 0                   # spectral elements: guesses Newton's method took to a neighbour
+    bisected: int = 0                   # spectral elements: levels located by bisection on the count
     floor_hit: bool = False
     notes: list = field(default_factory=list)
 
@@ -472,6 +471,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         degree = degrees[0] if trusted and len(degrees) > 1 else min(8, degrees[0])
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
                           sure=False, certify=False, rtol=rtol)
+        tally.reseeded += rung.located.reseeded
         got = list(rung.located.energies)
         if len(got) < want:
             if R < 1e9 * L and not pot.confining and rung.size < 4000:
@@ -523,6 +523,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         top = prev_loc.E_top if guesses is not None else None
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale, guesses,
                           top, certify=False, offset=offset, rtol=rtol)
+        tally.reseeded += rung.located.reseeded
         rungs.append(rung)
         _record(hist, rung.located.energies)
         done, floor = finished(rung.located.energies)
@@ -534,6 +535,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         if not loc.certified:
             tally.notes.append(f"degree {n}: count certificate failed (N(E_top) = {loc.count_top})")
         if loc.fallback:
+            tally.bisected += loc.fallback
             tally.notes.append(f"degree {n}: {loc.fallback} level(s) located by bisection on the count")
         if loc.energies != rung.located.energies:      # mended by bisection: this rung's entries change
             _record(hist, loc.energies, overwrite=len(rung.located.energies))
@@ -817,10 +819,9 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
         "bound_count": bound, "threshold_hartree": extra.get("threshold", 0.0),
         "certified_by_count": extra.get("certified"),
-        "seed_candidates": tally.candidates,
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
-        "dropped_outside_window": tally.dropped_outside_window,
-        "dropped_unstable_seed": tally.dropped_unstable_seed, "levels": per_level, "notes": tally.notes,
+        "reseeded_guesses": tally.reseeded, "bisected_levels": tally.bisected,
+        "levels": per_level, "notes": tally.notes,
         "mesh": extra.get("mesh"), "seconds": time.perf_counter() - t0,
     }
     return SolveResult(levels=tuple(found), success=status == "ok", status=status, message=message,
@@ -893,6 +894,7 @@ def _solve_collocation(eq, pot, disc, levels, tol):
                            resolution=sizes[-1], iterations=ref.iterations,
                            previous_state=None if prev is None else _state(eq, prev[0], history[-2], prev[1].vector)))
     extra = dict(ch.extra)
+    extra["mesh"] = "finite-difference"        # not the seeding channel's spectral elements
     if len(found) < len(ch.seeds):
         extra["why"] = (f"{len(ch.seeds) - len(found)} located level(s) could not be refined with "
                         f"{disc.name}: unstable under a change of resolution or with the wrong node count")

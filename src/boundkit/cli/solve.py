@@ -21,13 +21,15 @@ _CONVENTION = {"atomic": "atomic labels: n = nodes + l + 1",
 
 
 def _mesh(res) -> str:
-    """' (Lagrange-Laguerre mesh, N = 45)' or ' (spectral elements, 301 nodes)', from the result."""
+    """' (Lagrange-Laguerre mesh, N = 45)', ' (spectral elements, 301 nodes)' or ' (finite differences,
+    1200 grid points)', from the result."""
     mesh = res.diagnostics.get("mesh")
     if not mesh or not res.levels:
         return ""
     size = res.levels[-1].resolution
-    return (f" (Lagrange-Laguerre mesh, N = {size})" if mesh == "lagrange-laguerre"
-            else f" (spectral elements, {size} nodes)")
+    return {"lagrange-laguerre": f" (Lagrange-Laguerre mesh, N = {size})",
+            "finite-difference": f" (finite differences, {size} grid points)"}.get(
+        mesh, f" (spectral elements, {size} nodes)")
 
 
 def _table(res, unit: str, length: str = "bohr") -> str:
@@ -72,8 +74,9 @@ def _table(res, unit: str, length: str = "bohr") -> str:
     tail = ["", f"bound levels below the threshold ({hartree_to(threshold, unit):.9g} {unit}): "
             + (str(count) if count is not None else "infinitely many (Coulomb tail or confining)"),
             f"status: {res.status} - {res.message}",
-            f"dropped candidates: {dropped} (node mismatch or unstable), {d.get('dropped_unstable_seed', 0)} "
-            f"unstable seeds; {d.get('seconds', 0):.2f} s"]
+            (f"guesses re-seeded: {d.get('reseeded_guesses', 0)}, levels located by bisection: "
+             f"{d.get('bisected_levels', 0)}" if res.settings.get("method", {}).get("family") == "spectral"
+             else f"dropped candidates: {dropped} (node mismatch or unstable)") + f"; {d.get('seconds', 0):.2f} s"]
     return "\n".join(head + rows + tail)
 
 
