@@ -322,3 +322,14 @@ def test_a_start_with_no_room_on_either_side_is_reported():
                                          r"of the start 2"):
         critical("schrodinger", "yukawa", {"Z": _OnlyTwoBohr(), "screening_length": 2.0}, state="1s",
                  vary="screening_length")
+
+
+@pytest.mark.slow
+def test_dived_level_followed_beyond_keeps_the_callers_labels():
+    """critical(..., labels='nuclear', beyond=...) searched for '0s1/2' but named the resonance past
+    diving '1s1/2' (the atomic label it was followed under); the whole result now uses one convention."""
+    res = critical("dirac", "uniform-sphere", {"Z": 150, "rms_fm": 5.8}, state="0s1/2", labels="nuclear",
+                   vary="Z", bracket=(150, 168), beyond=(3,))
+    assert res.state == "0s1/2"
+    assert [b.label for b in res.beyond] == ["0s1/2"] and res.beyond[0].status == "ok"
+    assert res.to_dict()["beyond"][0]["label"] == "0s1/2"

@@ -840,6 +840,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     dived = follow_dived(eqname, potential, params, label=atomic_label, channel=channel, vary=vary,
                          critical_value=float(best), direction=direction, points=clean, beyond=beyond,
                          scalar=scalar, setup_kwargs=setup_kwargs, angles=beyond_angles, order=beyond_order)
+    # followed under its atomic label (the one boundkit.resonances gives); reported in the caller's
+    dived = tuple(replace(b, label=convert_label(b.label, labels)) for b in dived)
     settings["beyond"] = {"distances": list(beyond), "angles_rad": list(beyond_angles), "order": beyond_order,
                           "method": "exterior complex scaling (boundkit.resonances)"}
     return replace(result, beyond=dived)
