@@ -252,8 +252,48 @@ def _initial_radius(eq, pot, levels: int, L: float) -> float:
     if pot.tail_charge > 0:
         return _outer_radius(eq, pot, -eq.mass * pot.tail_charge**2 / (2 * n_top**2), L)
     if pot.confining:
-        return _outer_radius(eq, pot, 2.0 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5), L)
+        return _outer_radius(eq, pot, _confining_top(eq, pot, levels, L), L)
     return max(L * 20.0 * n_top**2, 4 * _well_radius(pot, L))
+
+
+def _confining_top(eq, pot, levels: int, L: float) -> float:
+    """An energy above the lowest ``levels`` levels of a confining potential, to size the first box.
+
+    Notes
+    -----
+    The first guess is oscillator-like, 2 e (2 levels + l + 3/2) with e the energy scale at the
+    natural length. A well whose levels sit far below that (a Cornell potential with a strong
+    Coulomb core and a weak string: its low levels are hydrogen-like, at negative energies) would
+    then get a box and a layout for thousands of oscillations (millions of elements: the layout ran
+    out of memory). So the guess is checked by the WKB count of levels below it,
+    n(E) = (1/pi) integral of sqrt(max(-excess(E), 0)) dr, and when that exceeds 4 (levels + 1) it is
+    lowered by bisection to where n(E) = levels + 1, about one level above the top one sought.
+    """
+    E_old = 2.0 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5)
+    r = np.logspace(math.log10(L * 1e-3), math.log10(L * 1e10), 3000)
+    s = _sample(pot, r, scan=True)
+    dr = np.diff(r)
+
+    def count(E: float) -> float:
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            k = np.sqrt(np.clip(-np.nan_to_num(eq.excess(E, s), nan=0.0), 0.0, 1e300))
+        return float(np.sum(0.5 * (k[1:] + k[:-1]) * dr)) / math.pi
+
+    target = levels + 1.0
+    if not count(E_old) > 4 * target:
+        return E_old
+    lo, hi = -abs(E_old), E_old
+    while count(lo) > target and lo > -1e300:
+        lo *= 16
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if count(mid) > target:
+            hi = mid
+        else:
+            lo = mid
+        if hi - lo <= 1e-6 * max(abs(hi), abs(lo), 1e-300):
+            break
+    return hi
 
 
 def _ladder_from(disc: Discretization, start: int) -> list[int]:
@@ -428,6 +468,10 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     n_req = 1 if levels is None else levels
     r_min = _inner_end(eq, pot, gamma, L, n_req, hi)
     r_core = L * (eq.l + 1) ** 2
+    # before any box is laid out (the far count of a short-range well lays one out to 1e4 L): at
+    # E = 0, the top of the window, a pole or a Klein region there is one for every level
+    _check_pole(eq, sample, r_min, 1e4 * L, [0.0])
+    _check_klein_core(eq, sample, r_min, 1e4 * L)
     extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0, "mesh": "spectral-elements"}
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
@@ -456,7 +500,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     # whatever happened on the rungs below, which only feed the error estimate)
     rtol = min(1e-6, max(tol * 1e-4, 1e-17))
     R = _initial_radius(eq, pot, want, L)
-    energies = [hi if math.isfinite(hi) else 2 * scale * (2 * want + eq.l + 1.5)]
+    energies = [hi if math.isfinite(hi) else _confining_top(eq, pot, want, L)]
     trusted = False
     if pot.tail_charge > 0 and not pot.confining:     # hydrogen-like guesses for the layout
         zt = pot.tail_charge
@@ -619,6 +663,32 @@ def _check_pole(eq, sample, r_min: float, R: float, energies) -> None:
                 "energies in the bound-state window (strong repulsive V - S, e.g. S = -V with a confining "
                 "V): boundkit's Dirac solver eliminates the small component, and that form has a pole "
                 "there; this channel cannot be solved yet (a two-component formulation is needed)")
+
+
+def _check_klein_core(eq, sample, r_min: float, R: float) -> None:
+    """Refuse a Klein-Gordon channel with a repulsive region where V - S > 2 m c^2 and V + S > 0.
+
+    Notes
+    -----
+    There (E - V - S)(E + 2 m c^2 - V + S) > 0 at E = 0, as far out for a confining vector potential
+    (:func:`_check_klein`): the state oscillates again inside the repulsive core (Klein's paradox),
+    and the energy dependence dq/dE = (V - E)/(m c^2) > 1 breaks the monotonicity the level count
+    rests on. A molecular Morse well has such a core (V(0) = D e^(2 a r_e), 1e6 hartree and more);
+    the solver used to find spurious levels near -2 m c^2 there and then run for minutes. The Dirac
+    equation meets the same core as a pole of its eliminated form (:func:`_check_pole`).
+    """
+    if eq.name != "klein-gordon":
+        return
+    r = np.logspace(math.log10(r_min), math.log10(R), 2000)
+    s = sample(r, scan=True)
+    two_mc2 = 2 * eq.mass * C_AU**2
+    bad = (s.V - s.S > two_mc2) & (s.V + s.S > 0)
+    if np.any(bad):
+        i = int(np.argmax(bad))
+        raise ValueError(
+            f"potential: V - S = {s.V[i] - s.S[i]:.3g} hartree at r = {r[i]:.3g} bohr exceeds 2 m c^2 = "
+            f"{two_mc2:.3g} hartree: the Klein-Gordon equation has no bound-state problem with such a "
+            "repulsive core (Klein's paradox); soften the core below 2 m c^2 or use the Schrodinger equation")
 
 
 def _element_state(eq, op, E: float, y) -> RadialState:
