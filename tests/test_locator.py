@@ -286,6 +286,20 @@ def test_klein_gordon_s_levels_of_a_heavy_ion_need_no_bisection(Z):
     assert res.diagnostics["reseeded_guesses"] >= 1      # the guesses that went astray, counted
 
 
+def test_a_far_guess_that_newton_brings_home_is_kept():
+    """Klein-Gordon 1s of a uniformly charged Z = 92 nucleus (R_rms 6.9 fm): the linearised pencil put
+    its guess at -27361 hartree, twice the level (-13642), and Newton's method brought it home. A rule
+    that took 'ended nearer the neighbour's guess (-2068) than its own' for 'went to the neighbour'
+    re-seeded it, the re-seed failed (-K' is not positive definite that deep), and the solve spent
+    10 s growing its box and ended with an infinite error estimate. Only a result that lands on a
+    level already found, or passes a neighbouring guess, is re-seeded now."""
+    res = boundkit.solve("klein-gordon", "uniform-sphere", {"Z": 92, "rms_fm": 6.893263563797165}, l=0, levels=2,
+                         tol=1e-6)
+    assert res.status == "ok", res.message
+    assert res.diagnostics["reseeded_guesses"] == 0 and res.diagnostics["bisected_levels"] == 0
+    assert _rungs_distinct(res)
+
+
 def test_well_guessed_levels_are_not_reseeded():
     res = boundkit.solve("dirac", "coulomb", {"Z": 92}, kappa=-1, levels=5, tol=1e-12)
     assert res.diagnostics["reseeded_guesses"] == 0 and res.diagnostics["bisected_levels"] == 0

@@ -32,7 +32,7 @@ energy-dependent Klein-Gordon and Dirac operators; each guess is refined by
 Newton's method with residuals in extended precision
 (:func:`boundkit.eigen.refine`) and then certified by one count. Guesses
 never decide whether a level exists; the count does. A guess from which Newton's
-method leaves for a neighbouring level (it lands nearer a neighbouring guess, or
+method leaves for a neighbouring level (it passes a neighbouring guess, or lands
 on a level already found) is replaced by the level of its own index: Newton's
 method on mu_j(E) itself, one dense pencil per step (:func:`_relinearised`).
 Without that, the lower rungs of the ladder, which are not counted, could carry
@@ -158,15 +158,13 @@ def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.nd
 def _stayed(ref, lam, i: int, lo: float, hi: float, below) -> bool:
     """Whether Newton's method, started at the guess lam[i], converged inside the window, above the
     levels already found (by more than _SAME relative: Newton's method lands on one level from two
-    starts within about 1e-13), and nearer to its guess than halfway to the neighbouring guesses
-    (else it may have gone to a neighbouring level)."""
+    starts within about 1e-13), and without passing a neighbouring guess (else it may have gone to a
+    neighbouring level). Ending merely nearer a neighbour's guess than its own is allowed: a deep
+    guess far off (a Klein-Gordon 1s at twice its energy) is brought home that way."""
     E = ref.energy
     if not (ref.converged and lo < E < hi) or (below and E - below[-1] <= _SAME * abs(E)):
         return False
-    g = float(lam[i])
-    down = 0.5 * (g - lam[i - 1]) if i > 0 else math.inf
-    up = 0.5 * (lam[i + 1] - g) if i + 1 < len(lam) else math.inf
-    return -down < E - g < up
+    return (i == 0 or E > lam[i - 1]) and (i + 1 >= len(lam) or E < lam[i + 1])
 
 
 def _relinearised(op: SymmetricOperator, j: int, E: float, lo: float, hi: float, steps: int = 8):
@@ -179,18 +177,24 @@ def _relinearised(op: SymmetricOperator, j: int, E: float, lo: float, hi: float,
     window; see the module docstring). It falls through zero at the j-th level, its derivative
     there is -1 by the Hellmann-Feynman theorem, so a Newton step is E -> E + mu_j(E): the j-th
     eigenvalue of (K(E) - E K'(E), -K'(E)). The index j, not a distance, picks the level, so the
-    iteration cannot go to a neighbour. One dense symmetric-definite eigenvalue solve per step; it
+    iteration cannot go to a neighbour. Where -K'(E) is not positive definite (a Klein-Gordon E far
+    below the level), the step is the mass pencil's, E -> the j-th eigenvalue of (K(E) + E M, M): a
+    chord step on the same index. One dense symmetric-definite eigenvalue solve per step; it
     stops once a step is below 1e-4 |E| (the iterate is then good to about 1e-8, and Newton's method
     on the grid, which must land within 1e-6 of it, does the rest).
     """
     for _ in range(steps):
+        K = op.symmetric(E)
         B = -op.symmetric(E, derivative=True)
         try:
             # all eigenvalues, as in _pencil: bisection on only the j-th ("gvx") loses the small ones of
             # this strongly graded pencil (the weight r^(2 gamma) is tiny near the origin)
-            lam = sla.eigh(op.symmetric(E) + E * B, B, eigvals_only=True, driver="gv", check_finite=False)
+            lam = sla.eigh(K + E * B, B, eigvals_only=True, driver="gv", check_finite=False)
         except (np.linalg.LinAlgError, ValueError):
-            return None
+            try:        # -K' not positive definite this far from the level: the mass pencil's chord step
+                lam = sla.eigh(K + E * op.M, op.M, eigvals_only=True, driver="gv", check_finite=False)
+            except (np.linalg.LinAlgError, ValueError):
+                return None
         E_new = float(lam[j])
         if not lo < E_new < hi:
             return None
