@@ -319,3 +319,23 @@ def test_near_critical_dirac_coulomb(Z, method, levels):
         E = dirac_coulomb(Z, lv.n, -1)
         err = abs(lv.energy - E)
         assert err <= 2.0 * lv.error_estimate, (lv.label, err / abs(E), lv.error_estimate / abs(E))
+
+
+# --- a molecular Kratzer well: heavy reduced mass, so a large effective l ------------------------------
+@pytest.mark.parametrize("mass_mev", [100.0, 469.0, 1000.0])
+@pytest.mark.parametrize("l", [0, 1])
+def test_molecular_kratzer_well(mass_mev, l):
+    """V = -A/r + B/r^2 with A = 2 D r_e, B = D r_e^2 (D = 0.17 hartree, r_e = 1.4 bohr: a hydrogen-like
+    molecule) and a nuclear reduced mass: 2 m B = 60-650 makes the effective l' = 11-36. The exact
+    levels (boundkit.exact.kratzer; Flugge 1971, from memory, checked in validate) to 1e-12. The
+    hydrogen-like first guesses used the bare l (-104 hartree for the 1s-like level at 469 MeV,
+    against -0.16), the first box held only the origin's r^(2 gamma) region, and the solve stopped on
+    LAPACK's 'leading minor ... of B is not positive definite'."""
+    from boundkit.exact import kratzer
+
+    A, B = 2 * 0.17 * 1.4, 0.17 * 1.4**2
+    res = boundkit.solve("schrodinger", "kratzer", {"A": A, "B": B}, l=l, levels=3, mass_mev=mass_mev, tol=1e-12)
+    assert res.status == "ok", res.message
+    m = res.settings["mass_atomic_units"]
+    for lv in res.levels:
+        assert abs(lv.energy - kratzer(A, B, lv.nodes, l, m)) < 1e-12 * abs(lv.energy), lv.label

@@ -250,10 +250,20 @@ def _initial_radius(eq, pot, levels: int, L: float) -> float:
     natural length (or of the radius of a well away from the origin)."""
     n_top = levels + eq.l
     if pot.tail_charge > 0:
+        n_top = levels - 1 + _hydrogenic_l1(eq, pot)
         return _outer_radius(eq, pot, -eq.mass * pot.tail_charge**2 / (2 * n_top**2), L)
     if pot.confining:
         return _outer_radius(eq, pot, _confining_top(eq, pot, levels, L), L)
     return max(L * 20.0 * n_top**2, 4 * _well_radius(pot, L))
+
+
+def _hydrogenic_l1(eq, pot) -> float:
+    """l + 1 of the hydrogen-like guesses, n = nodes + l + 1; with a 1/r^2 term at the origin (Kratzer,
+    B / r^2) the effective l' + 1 = gamma instead, which makes the guesses of a Kratzer well exact:
+    E = -m A^2 / (2 (nodes + gamma)^2). Without that a molecular Kratzer well (reduced mass 918,
+    gamma = 25) was guessed at -104 hartree instead of -0.16, its first box held nothing but the
+    origin's r^(2 gamma) region, and the mass matrix there was not positive definite to rounding."""
+    return max(eq.l + 1, eq.gamma(pot)) if pot.origin_inverse_square > 0 else eq.l + 1
 
 
 def _confining_top(eq, pot, levels: int, L: float) -> float:
@@ -503,8 +513,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     energies = [hi if math.isfinite(hi) else _confining_top(eq, pot, want, L)]
     trusted = False
     if pot.tail_charge > 0 and not pot.confining:     # hydrogen-like guesses for the layout
-        zt = pot.tail_charge
-        energies = [-eq.mass * zt**2 / (2 * (eq.l + 1) ** 2), -eq.mass * zt**2 / (2 * (want + eq.l) ** 2)]
+        zt, l1 = pot.tail_charge, _hydrogenic_l1(eq, pot)
+        energies = [-eq.mass * zt**2 / (2 * l1**2), -eq.mass * zt**2 / (2 * (want - 1 + l1) ** 2)]
         trusted = True
     E0 = energies[0] if math.isfinite(energies[0]) else 0.0
     rung = None
