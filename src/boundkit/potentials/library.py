@@ -497,9 +497,22 @@ class WoodsSaxon(Term):
 
     @property
     def breakpoints(self) -> tuple[float, ...]:
-        # smooth, but it changes over a few diffuseness lengths around R: an element
-        # boundary there puts the spectral nodes where the well's edge is
-        return (self.values["radius"],)
+        """R, where the well's edge is (smooth, but it changes over a few diffuseness lengths there).
+
+        A surface sharper than a hundredth of R is narrower than the layout's sampling of the
+        potential can see (4001 points over many decades of r), and the levels stalled at 1e-8 to
+        1e-5 (a/R = 1e-3 to 1e-4). Then the edge also gets boundaries at R -+ 2a, 8a, 32a, ...
+        (up to 0.05 R): elements graded geometrically from the surface, each spanning a stretch
+        where the shape is analytic on a scale of its own length.
+        """
+        R, a = self.values["radius"], self.values["diffuseness"]
+        points = [R]
+        if a < 0.01 * R:
+            k = 2.0
+            while k * a < 0.05 * R:
+                points += [R - k * a, R + k * a]
+                k *= 4.0
+        return tuple(sorted(p for p in points if p > 0))
 
     def _evaluate(self, r):
         r = np.asarray(r, dtype=float)
