@@ -299,3 +299,65 @@ def test_cli_found_cases(monkeypatch, argv):
 def test_expression_found_cases(text):
     """Python's own syntax message (leading zeros) and a long '_' name kept the line over 300 characters."""
     _expression_property(text)
+
+
+# --- the solver on library potentials over decades of their parameters -----------------------------
+# A random sweep of this kind (1800 cases) found out-of-memory layouts (Cornell wells with a weak
+# string, confining vector potentials in the relativistic equations), solves of minutes (Klein-Gordon
+# with a Morse core) and a raw LAPACK message (a molecular Kratzer well). Property: a solve either
+# returns levels in ascending order with finite estimates, or refuses with a ValueError that names
+# its argument ('potential: ...'), within the deadline.
+def _log(lo: float, hi: float):
+    return st.floats(lo, hi).map(lambda x: 10.0**x)
+
+
+@st.composite
+def library_channels(draw):
+    eq = draw(st.sampled_from(["schrodinger", "schrodinger", "klein-gordon", "dirac"]))
+    kind = draw(st.sampled_from(["coulomb", "yukawa", "exp-cosine", "hulthen", "woods-saxon", "fermi",
+                                 "uniform-sphere", "morse", "kratzer", "linear", "cornell", "oscillator"]))
+    params = {
+        "coulomb": lambda: {"Z": draw(st.sampled_from([0.3, 1, 10, 50, 92]))},
+        "yukawa": lambda: {"Z": draw(_log(-1, 2)), "screening_length": draw(_log(-3, 2))},
+        "exp-cosine": lambda: {"Z": draw(_log(-1, 2)), "screening_length": draw(_log(-2, 2))},
+        "hulthen": lambda: {"Z": draw(_log(-1, 2)), "delta": draw(_log(-3, 1))},
+        "woods-saxon": lambda: {"depth": draw(_log(-2, 4)), "radius": draw(_log(-4, 1)),
+                                "diffuseness": draw(_log(-5, 0))},
+        "fermi": lambda: {"Z": draw(st.sampled_from([20, 82, 92, 120])), "rms_fm": draw(_log(0.3, 1))},
+        "uniform-sphere": lambda: {"Z": draw(st.sampled_from([20, 82, 92, 120])), "rms_fm": draw(_log(0.3, 1))},
+        "morse": lambda: {"D": draw(_log(-2, 1)), "a": draw(_log(-1, 1)), "r_e": draw(_log(-1, 1))},
+        "kratzer": lambda: {"A": draw(_log(-1, 1)), "B": draw(_log(-2, 1))},
+        "linear": lambda: {"F": draw(_log(-3, 2))},
+        "cornell": lambda: {"kappa_c": draw(_log(-1, 1)), "sigma": draw(_log(-3, 1))},
+        "oscillator": lambda: {"k": draw(_log(-3, 2))},
+    }[kind]()
+    kw = {"kappa": draw(st.sampled_from([-1, 1, -2, 2, -3]))} if eq == "dirac" else \
+        {"l": draw(st.sampled_from([0, 1, 2, 5]))}
+    kw["levels"] = draw(st.sampled_from([1, 2, 3, 5, "all"]))
+    kw["tol"] = draw(st.sampled_from([1e-6, 1e-10, 1e-12]))
+    kw["particle"] = draw(st.sampled_from(["electron", "muon"] + (["pion", "kaon"] if eq != "dirac" else [])))
+    return eq, kind, params, kw
+
+
+def _solve_property(case):
+    import re
+
+    import boundkit
+
+    eq, kind, params, kw = case
+    try:
+        res = boundkit.solve(eq, kind, params, **kw)
+    except ValueError as exc:
+        assert re.match(r"^[A-Za-z_][\w\[\]'\"]*: ", str(exc)), str(exc)
+        return
+    energies = [lv.energy for lv in res.levels]
+    assert energies == sorted(energies) and len(set(energies)) == len(energies), energies
+    assert all(np.isfinite(lv.error_estimate) for lv in res.levels) or res.status != "ok", res.message
+
+
+test_library_solves = QUICK.__class__(max_examples=12, deadline=20000, derandomize=True, database=None,
+                                      suppress_health_check=[HealthCheck.too_slow])(
+    given(case=library_channels())(_solve_property))
+test_library_solves_thorough = pytest.mark.slow(
+    settings(max_examples=150, deadline=30000, database=None, suppress_health_check=[HealthCheck.too_slow])(
+        given(case=library_channels())(_solve_property)))
