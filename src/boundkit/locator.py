@@ -155,16 +155,22 @@ def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.nd
     return v
 
 
-def _stayed(ref, lam, i: int, lo: float, hi: float, below) -> bool:
-    """Whether Newton's method, started at the guess lam[i], converged inside the window, above the
-    levels already found (by more than _SAME relative: Newton's method lands on one level from two
-    starts within about 1e-13), and without passing a neighbouring guess (else it may have gone to a
-    neighbouring level). Ending merely nearer a neighbour's guess than its own is allowed: a deep
-    guess far off (a Klein-Gordon 1s at twice its energy) is brought home that way."""
+def _fits(ref, lo: float, hi: float, below) -> bool:
+    """Whether Newton's method converged inside the window and above the levels already found, by
+    more than _SAME relative (Newton's method lands on one level from two starts within about
+    1e-13)."""
     E = ref.energy
-    if not (ref.converged and lo < E < hi) or (below and E - below[-1] <= _SAME * abs(E)):
-        return False
-    return (i == 0 or E > lam[i - 1]) and (i + 1 >= len(lam) or E < lam[i + 1])
+    return bool(ref.converged and lo < E < hi) and (not below or E - below[-1] > _SAME * abs(E))
+
+
+def _stayed(ref, lam, i: int, lo: float, hi: float, below) -> bool:
+    """Whether Newton's method, started at the guess lam[i], :func:`_fits` and did not pass a
+    neighbouring guess (else it may have gone to a neighbouring level). Ending merely nearer a
+    neighbour's guess than its own is allowed: a deep guess far off (a Klein-Gordon 1s at twice its
+    energy) is brought home that way."""
+    E = ref.energy
+    return (_fits(ref, lo, hi, below) and (i == 0 or E > lam[i - 1])
+            and (i + 1 >= len(lam) or E < lam[i + 1]))
 
 
 def _relinearised(op: SymmetricOperator, j: int, E: float, lo: float, hi: float, steps: int = 8):
@@ -258,8 +264,7 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
             if E is None:
                 break
             ref = refine(op, E, _inverse_iteration(op, E), rtol=rtol)
-            if not (ref.converged and lo < ref.energy < hi and abs(ref.energy - E) <= 1e-6 * abs(E)
-                    and (not energies or ref.energy - energies[-1] > _SAME * abs(ref.energy))):
+            if not (_fits(ref, lo, hi, energies) and abs(ref.energy - E) <= 1e-6 * abs(E)):
                 break
         energies.append(ref.energy)
         vectors.append(ref.vector)

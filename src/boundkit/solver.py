@@ -244,16 +244,17 @@ def _inner_wkb(eq, pot, E: float, L: float) -> float:
     return float(rr[beyond[0]]) * 0.95 if beyond.size else 0.0
 
 
-def _initial_radius(eq, pot, levels: int, L: float) -> float:
+def _initial_radius(eq, pot, levels: int, L: float, E_top: float | None = None) -> float:
     """First outer radius for seeding: hydrogen-like guess when the potential
-    has a Coulomb tail, a WKB guess for confining wells, else a multiple of the
-    natural length (or of the radius of a well away from the origin)."""
+    has a Coulomb tail, a WKB guess for confining wells (at ``E_top``, by default
+    :func:`_confining_top`), else a multiple of the natural length (or of the
+    radius of a well away from the origin)."""
     n_top = levels + eq.l
     if pot.tail_charge > 0:
         n_top = levels - 1 + _hydrogenic_l1(eq, pot)
         return _outer_radius(eq, pot, -eq.mass * pot.tail_charge**2 / (2 * n_top**2), L)
     if pot.confining:
-        return _outer_radius(eq, pot, _confining_top(eq, pot, levels, L), L)
+        return _outer_radius(eq, pot, _confining_top(eq, pot, levels, L) if E_top is None else E_top, L)
     return max(L * 20.0 * n_top**2, 4 * _well_radius(pot, L))
 
 
@@ -266,20 +267,25 @@ def _hydrogenic_l1(eq, pot) -> float:
     return max(eq.l + 1, eq.gamma(pot)) if pot.origin_inverse_square > 0 else eq.l + 1
 
 
+def _oscillator_top(eq, pot, levels: int, L: float) -> float:
+    """An oscillator-like energy above the lowest ``levels`` levels of a confining well: 2 e (2 levels
+    + l + 3/2), e the energy scale at the natural length."""
+    return 2.0 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5)
+
+
 def _confining_top(eq, pot, levels: int, L: float) -> float:
     """An energy above the lowest ``levels`` levels of a confining potential, to size the first box.
 
     Notes
     -----
-    The first guess is oscillator-like, 2 e (2 levels + l + 3/2) with e the energy scale at the
-    natural length. A well whose levels sit far below that (a Cornell potential with a strong
+    The first guess is oscillator-like (:func:`_oscillator_top`). A well whose levels sit far below that (a Cornell potential with a strong
     Coulomb core and a weak string: its low levels are hydrogen-like, at negative energies) would
     then get a box and a layout for thousands of oscillations (millions of elements: the layout ran
     out of memory). So the guess is checked by the WKB count of levels below it,
     n(E) = (1/pi) integral of sqrt(max(-excess(E), 0)) dr, and when that exceeds 4 (levels + 1) it is
     lowered by bisection to where n(E) = levels + 1, about one level above the top one sought.
     """
-    E_old = 2.0 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5)
+    E_old = _oscillator_top(eq, pot, levels, L)
     r = np.logspace(math.log10(L * 1e-3), math.log10(L * 1e10), 3000)
     s = _sample(pot, r, scan=True)
     dr = np.diff(r)
@@ -433,7 +439,7 @@ def _inner_end(eq, pot, gamma: float, L: float, levels: int, hi: float) -> float
     """Inner end of the mesh: the Frobenius cut, or further out when a repulsive core keeps every
     bound level out (WKB decay by e^-_DECAY inward from the inner turning point at the top of the
     window)."""
-    E_top = hi if math.isfinite(hi) else 2 * _energy_scale(eq, pot, L) * (2 * levels + eq.l + 1.5)
+    E_top = hi if math.isfinite(hi) else _oscillator_top(eq, pot, levels, L)
     finite_origin = pot.z_vector == 0 and pot.z_scalar == 0 and pot.origin_inverse_square == 0
     cut = _FINITE_INNER if finite_origin else _inner_cut(gamma, eq.spin == 0.5)
     return max(cut * L, _inner_wkb(eq, pot, E_top, L))
@@ -509,8 +515,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     # only on the rung that is reported (the certificate makes its levels exactly the lowest ones,
     # whatever happened on the rungs below, which only feed the error estimate)
     rtol = min(1e-6, max(tol * 1e-4, 1e-17))
-    R = _initial_radius(eq, pot, want, L)
-    energies = [hi if math.isfinite(hi) else _confining_top(eq, pot, want, L)]
+    E_top = hi if math.isfinite(hi) else _confining_top(eq, pot, want, L)   # computed once: a WKB bisection
+    R = _initial_radius(eq, pot, want, L, E_top)
+    energies = [E_top]
     trusted = False
     if pot.tail_charge > 0 and not pot.confining:     # hydrogen-like guesses for the layout
         zt, l1 = pot.tail_charge, _hydrogenic_l1(eq, pot)
