@@ -289,7 +289,19 @@ class CallableTerm(ProbedTerm):
         self.func = func
         self.label = label or getattr(func, "__name__", "callable")
         self.values = {}
+        self._breaks = None
         self._probe()
+
+    @property
+    def breakpoints(self) -> tuple[float, ...]:
+        """Radii where the callable's values jump, found once, on first use
+        (:func:`boundkit.potentials.switches.jumps`); kinks are not found."""
+        if self._breaks is None:
+            from .switches import jumps, reported
+
+            with complex_values():
+                self._breaks = reported(jumps(self._evaluate), f"callable {shorten(self.label)}")
+        return self._breaks
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
         out = refuse_complex(self.func(r), shorten(self.label), r)

@@ -270,6 +270,41 @@ class CompiledExpression:
     def __call__(self, r, params: Mapping[str, float] | None = None) -> np.ndarray:
         return self.evaluate(r, params)
 
+    def switching_radii(self, params: Mapping[str, float] | None = None) -> tuple[float, ...]:
+        """Radii (bohr, or the term's length unit) where the expression may jump or have a kink:
+        where the condition of a ``where`` changes its truth value, and where the argument of an
+        ``abs`` changes sign (see :mod:`boundkit.potentials.switches`).
+
+        A comparison of ``r`` itself with a side free of ``r`` gives that side's value; any other
+        is located numerically on 1e-12 < r < 1e8. Complex sides are skipped (a condition must
+        compare real values).
+        """
+        from .switches import reported, sign_changes
+
+        values = self.check_params(params)
+        found: list[float] = []
+        for lhs, rhs in _switches(self._tree):
+            if lhs is None or rhs is None:         # abs(x): x against 0
+                x = lhs if rhs is None else rhs
+                lhs, rhs = x, ("num", 0.0)
+            fixed = [side for side in (lhs, rhs) if not _uses_r(side)]
+            if len(fixed) == 1 and (lhs == ("r",) or rhs == ("r",)):
+                with np.errstate(all="ignore"):
+                    value = complex(np.asarray(_eval(fixed[0], np.zeros(1), values)).reshape(-1)[0])
+                if value.imag == 0:
+                    found.append(value.real)
+                continue
+            if not fixed or len(fixed) == 1:
+
+                def diff(r, lhs=lhs, rhs=rhs):
+                    out = np.asarray(_eval(lhs, r, values)) - np.asarray(_eval(rhs, r, values))
+                    return np.where(np.imag(out) == 0, np.real(out), np.nan) if np.iscomplexobj(out) else out
+                got = sign_changes(diff)
+                if got is None:
+                    return reported(None, f"expression {self.text!r}")
+                found += got
+        return reported(found, f"expression {self.text!r}")
+
 
 def _eval(node: tuple, r: np.ndarray, p: Mapping[str, float]):
     kind = node[0]
@@ -478,6 +513,37 @@ class _Translator:
         return ("cmp", [self.visit(x, depth + 1) for x in operands], ops)
 
 
+def _children(node: tuple) -> list:
+    kind = node[0]
+    if kind in ("neg", "call"):
+        return [node[-1]]
+    if kind == "chain":
+        return [node[1]] + [x for _, x in node[2]]
+    if kind == "pow":
+        return [node[1], node[2]]
+    if kind == "where":
+        return [node[1], node[2], node[3]]
+    if kind == "cmp":
+        return list(node[1])
+    return []
+
+
+def _uses_r(node: tuple) -> bool:
+    return node[0] == "r" or any(_uses_r(x) for x in _children(node))
+
+
+def _switches(node: tuple) -> list:
+    """(left, right) side pairs of every comparison, and (argument, None) of every abs call, in the tree."""
+    out = []
+    if node[0] == "cmp":
+        out += list(zip(node[1][:-1], node[1][1:]))
+    elif node[0] == "call" and node[1] == "abs":
+        out.append((node[2], None))
+    for x in _children(node):
+        out += _switches(x)
+    return out
+
+
 def _literal_only(tree: tuple) -> bool:
     kind = tree[0]
     if kind == "num":
@@ -611,12 +677,21 @@ class ExpressionTerm(ProbedTerm):
             Parameter(n, None, "", f"parameter of the expression {self.label!r}")
             for n in self.compiled.parameter_names
         )
+        self._breaks = None
         self._probe()
 
     @property
     def parameter_names(self) -> tuple[str, ...]:
         """The expression's parameter names, in order of first appearance."""
         return self.compiled.parameter_names
+
+    @property
+    def breakpoints(self) -> tuple[float, ...]:
+        """Where the expression switches (``where``) or has a kink (``abs``); found once, on first
+        use (:meth:`CompiledExpression.switching_radii`)."""
+        if self._breaks is None:
+            self._breaks = self.compiled.switching_radii(self.values)
+        return self._breaks
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
         return refuse_complex(self.compiled.evaluate(r, self.values), f"expression {self.label!r}", r)
