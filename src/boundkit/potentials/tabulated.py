@@ -463,6 +463,12 @@ class TabulatedTerm(Term):
         return self._zinf
 
     @property
+    def breakpoints(self) -> tuple[float, ...]:
+        """The first and the last point: there the spline meets the declared origin and tail
+        behaviour, and V or its slope jumps."""
+        return (float(self.r[0]), float(self.r[-1]))
+
+    @property
     def decay_length(self) -> float:
         """Decay length b of the exponential tail in bohr (inf for other tails)."""
         return self._decay
