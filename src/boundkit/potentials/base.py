@@ -294,13 +294,13 @@ class CallableTerm(ProbedTerm):
 
     @property
     def breakpoints(self) -> tuple[float, ...]:
-        """Radii where the callable's values jump, found once, on first use
-        (:func:`boundkit.potentials.switches.jumps`); kinks are not found."""
+        """Radii where the callable's values, slope or curvature jump, found once, on first use
+        (:func:`boundkit.potentials.switches.breaks`)."""
         if self._breaks is None:
-            from .switches import jumps, reported
+            from .switches import breaks, reported
 
             with complex_values():
-                self._breaks = reported(jumps(self._evaluate), f"callable {shorten(self.label)}")
+                self._breaks = reported(breaks(self._evaluate), f"callable {shorten(self.label)}")
         return self._breaks
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
