@@ -351,7 +351,13 @@ def _converged(history: list[float], disc: Discretization, tol: float, order: in
     return True
 
 
-def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi):
+def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi, reach=math.inf):
+    """(operator, refined level, its node count) of the k-node level near E_seed on one grid, or None.
+
+    Eigenvalues within ``reach`` of E_seed (half the distance to the neighbouring certified levels)
+    are the candidates; one whose vector has k nodes is preferred, else the nearest is taken: in two
+    wells apart a level's node lies in its tunnelling tail, below what :func:`count_nodes` looks at.
+    """
     grid = disc.grid(mesh, size, breaks=pot.breakpoints)
     op = FactorizedOperator(eq, grid, _sample(pot, grid.r), gamma, r_core, E_ref=E_seed)
     A, B = op.pencil(E_seed)
@@ -359,7 +365,8 @@ def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi):
         lam, vec = dense_pencil(A, B)
     else:
         lam, vec = shift_invert(A, B, E_seed, k=6)
-    pick = [i for i in range(len(lam)) if lo < lam[i] < hi and _nodes_of(op, vec[:, i]) == k]
+    near = [i for i in range(len(lam)) if lo < lam[i] < hi and abs(lam[i] - E_seed) < reach]
+    pick = [i for i in near if _nodes_of(op, vec[:, i]) == k] or (near if math.isfinite(reach) else [])
     if not pick:
         return None
     i = min(pick, key=lambda i: abs(lam[i] - E_seed))
@@ -423,16 +430,29 @@ class Channel:
             mesh_e, core_e = self.mesh(E_seed)
             mesh = mesh_e if mesh is None else mesh
             r_core = core_e if r_core is None else r_core
+        reach = self.reach(k)
         got = _level_on_grid(self.eq, self.pot, self.gamma, r_core, disc, mesh, size, E_seed, k,
-                             self.lo, self.hi)
+                             self.lo, self.hi, reach)
         if got is None:
             self.tally.notes.append(f"{self.label(k)}: no {k}-node solution at size {size}")
             return None
-        if got[2] != k:
+        if abs(got[1].energy - self.seeds[k]) >= reach if math.isfinite(reach) else got[2] != k:
+            # nearer another certified level than its own (with no neighbour known: a wrong node count)
             self.tally.dropped_node_mismatch += 1
             self.tally.notes.append(f"{self.label(k)}: refined state has {got[2]} nodes, not {k}, at size {size}")
             return None
+        if got[2] != k:
+            self.tally.notes.append(f"{self.label(k)}: {got[2]} nodes counted at size {size} (a node in a tail "
+                                    "too small to count); kept, as it is the level nearest its certified energy")
         return got[0], got[1]
+
+    def reach(self, k: int) -> float:
+        """Half the distance from the k-th certified level to its nearest certified neighbour (inf when
+        it has none): a level of a finite-difference grid nearer another one is not this one."""
+        if k >= len(self.seeds):
+            return math.inf
+        gaps = [abs(self.seeds[k] - self.seeds[j]) for j in (k - 1, k + 1) if 0 <= j < len(self.seeds)]
+        return 0.5 * min(gaps) if gaps else math.inf
 
 
 def _inner_end(eq, pot, gamma: float, L: float, levels: int, hi: float) -> float:
