@@ -29,3 +29,29 @@ def test_finite_differences_label_the_levels_of_two_wells_by_energy(D):
     assert [lv.label for lv in fd.levels] == [lv.label for lv in ref.levels] == ["1s", "2s"]
     for a, b in zip(fd.levels, ref.levels):
         assert abs(a.energy - b.energy) <= 1e-6 * abs(b.energy), (a.label, a.energy, b.energy)
+
+
+# --- near an avoided crossing: two levels closer than Newton's method can tell apart -------------
+FAR = 30.0          # the outer well: tunnelling couples the wells by far less than 1e-12 hartree
+CROSSING = 1.9699030052396658   # depth D where the outer well's level meets the inner one (solved
+                                # with each well alone at tol 1e-13, brentq in D; measured here)
+
+
+def _pair(D):
+    pot = ExpressionTerm(TWO_WELLS.replace("12", "R2"), {"D": D, "R2": FAR})
+    return boundkit.solve("schrodinger", pot, l=0, levels=2, tol=1e-10)
+
+
+@pytest.mark.parametrize("shift", [-1e-9, 1e-9, -1e-11])
+def test_levels_near_an_avoided_crossing_are_both_found(shift):
+    """Away from the crossing the two levels part linearly in D (the wells barely couple):
+    E2 - E1 = s |D - D_c|, with s measured here at |D - D_c| = 1e-6. Closer in, at 5e-10 and 5e-12
+    hartree apart, the solve used to lose the 2s on most rungs (Newton's method from either guess
+    lands on the same level), climb to the top rung and stop at 'tolerance-not-met' after 3-4 s."""
+    far = _pair(CROSSING + 1e-6)
+    s = (far.levels[1].energy - far.levels[0].energy) / 1e-6
+    res = _pair(CROSSING + shift)
+    assert res.status == "ok", res.message
+    split = res.levels[1].energy - res.levels[0].energy
+    assert split == pytest.approx(s * abs(shift), rel=2e-2 if abs(shift) > 1e-10 else 0.2)
+    assert [lv.label for lv in res.levels] == ["1s", "2s"]
