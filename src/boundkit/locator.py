@@ -59,7 +59,8 @@ __all__ = ["count_below", "locate_levels", "certify_levels", "Located"]
 
 log = logging.getLogger(__name__)
 
-_SAME = 1e-9        # two energies of one channel closer than this (relative) are one level
+_SAME = 1e-12       # two energies of one channel closer than this (relative) are one level
+_PINNED = 1e-13     # relative width to which a level is pinned by counting alone (:func:`_pinned`)
 
 
 def count_below(op: SymmetricOperator, E: float) -> int:
@@ -158,7 +159,7 @@ def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.nd
 def _fits(ref, lo: float, hi: float, below) -> bool:
     """Whether Newton's method converged inside the window and above the levels already found, by
     more than _SAME relative (Newton's method lands on one level from two starts within about
-    1e-13)."""
+    1e-13; two levels of wells that barely couple can be 1e-11 apart and more)."""
     E = ref.energy
     return bool(ref.converged and lo < E < hi) and (not below or E - below[-1] > _SAME * abs(E))
 
@@ -208,6 +209,47 @@ def _relinearised(op: SymmetricOperator, j: int, E: float, lo: float, hi: float,
             return E_new
         E = E_new
     return None
+
+
+def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol: float | None):
+    """The level of index k (in the grid's whole spectrum) near E, pinned by counting: a bracket
+    with k and k + 1 levels below its ends, closed by bisection to _PINNED relative, then Newton's
+    method from its middle with a vector from inverse iteration there. None when no such bracket is
+    found near E or Newton's method leaves it.
+
+    Notes
+    -----
+    This is for a level that Newton's method cannot tell from its neighbour: two wells that barely
+    couple give two levels closer than the guesses are accurate (5e-10 hartree apart, and less,
+    near an avoided crossing), and from either guess Newton's method goes to the same one. The
+    count separates any two levels further apart than the bracket; the middle of the bracket is
+    then so much nearer its own level that inverse iteration isolates it.
+    """
+    width = max(1e-6 * abs(E), 1e-300)
+    a, b = E - width, E + width
+    for _ in range(40):
+        if count_below(op, a) <= k or a <= lo:
+            break
+        a = E - 4 * (E - a)
+    for _ in range(40):
+        if count_below(op, b) >= k + 1 or b >= hi:
+            break
+        b = E + 4 * (b - E)
+    a, b = max(a, lo), min(b, hi)
+    if not (count_below(op, a) <= k < count_below(op, b)):
+        return None
+    for _ in range(200):
+        if b - a <= _PINNED * max(abs(a), abs(b)):
+            break
+        mid = 0.5 * (a + b)
+        if count_below(op, mid) <= k:
+            a = mid
+        else:
+            b = mid
+    mid = 0.5 * (a + b)
+    ref = refine(op, mid, _inverse_iteration(op, mid, steps=4), rtol=rtol)
+    slack = 10 * _PINNED * abs(mid)
+    return ref if ref.converged and a - slack <= ref.energy <= b + slack else None
 
 
 def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
@@ -261,11 +303,14 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
             # by Newton's method on its own pencil eigenvalue, then Newton on the grid again
             reseeded += 1
             E = _relinearised(op, first + i, float(lam[i]), lo, hi)
-            if E is None:
-                break
-            ref = refine(op, E, _inverse_iteration(op, E), rtol=rtol)
-            if not (_fits(ref, lo, hi, energies) and abs(ref.energy - E) <= 1e-6 * abs(E)):
-                break
+            if E is not None:
+                ref = refine(op, E, _inverse_iteration(op, E), rtol=rtol)
+            if E is None or not (_fits(ref, lo, hi, energies) and abs(ref.energy - E) <= 1e-6 * abs(E)):
+                # still not this index's level (two levels closer than the guesses are accurate):
+                # pinned by counting
+                ref = _pinned(op, first + i, float(lam[i]) if E is None else E, lo, hi, rtol)
+                if ref is None or not _fits(ref, lo, hi, energies):
+                    break
         energies.append(ref.energy)
         vectors.append(ref.vector)
     nxt = float(lam[inside[m]]) if len(inside) > m else hi
@@ -348,5 +393,7 @@ def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses, offse
             break
         energies.append(got[0])
         vectors.append(got[1])
-        a = got[0] + 1e-10 * max(abs(got[0]), scale)
+        # the next level lies above b_k when the bracket closed (k + 1 levels below it): starting
+        # there, not a fixed step above this one, keeps a partner 1e-10 away (two wells) in view
+        a = b_k if count_below(op, b_k) == k + offset + 1 else got[0] + 1e-10 * max(abs(got[0]), scale)
     return energies, vectors, fallback
