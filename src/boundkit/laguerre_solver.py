@@ -75,7 +75,7 @@ from scipy.linalg import lapack
 
 from .discretize.elements import gll
 from .discretize.laguerre import cardinal_matrix, laguerre_mesh
-from .ladder import FLOOR, spectral_done
+from .ladder import FLOOR, potential_floor, spectral_done
 from .results import Level, RadialState
 from .states import count_nodes, normalise, principal_n
 
@@ -521,7 +521,9 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     w_dr = w * r
     (P,), _ = normalise(w_dr, u.T @ C)
     seen = (h * mesh.weights * last.q) @ u**2
-    felt = P**2 @ (w_dr * eq.q(0.0, sample(r)))
+    q_grid = eq.q(0.0, sample(r))
+    felt = P**2 @ (w_dr * q_grid)
+    q_abs = np.abs(q_grid)
     for k in range(want):
         if abs(seen[k] - felt[k]) > tol_eff * abs(E[k]):
             log.info("Laguerre mesh: the nodes see <V> = %.3g for level %d, the full grid %.3g (the potential "
@@ -535,7 +537,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     for k in range(want):
         hk = hist[k]
         Ek = hk[-1]
-        est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek))
+        est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek), potential_floor(states[k], q_abs))
         worst = max(worst, est / abs(Ek))
         n = principal_n(k, eq.l)
         per_level.append({"label": eq.label(n), "sizes": used, "energies": list(hk), "r_min": r_lo,

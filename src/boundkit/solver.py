@@ -488,7 +488,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     ``known_bound``: the far-box count of a short-range potential, when the caller has it.
     """
     study = degrees is not None
-    from .ladder import FLOOR, ladder_for, layout, solve_rung, spectral_done
+    from .ladder import FLOOR, ladder_for, layout, potential_floor, solve_rung, spectral_done
     from .locator import certify_levels
 
     tally = _Tally()
@@ -638,9 +638,11 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     if offset:
         tally.notes.append(f"{offset} state(s) lie below the bottom of the bound-state window (dived into the "
                            "lower continuum); the levels above keep their node counts")
+    V_abs = np.abs(last.op.sample.V) + np.abs(last.op.sample.S)      # on the nodes the states live on
     for k, E in enumerate(last.located.energies):
         h = hist[k]
-        est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
+        state = _element_state(eq, last.op, E, last.located.vectors[k])
+        est = max(abs(h[-1] - h[-2]), FLOOR * abs(E), potential_floor(state, V_abs)) if len(h) >= 2 else math.inf
         if _cut_is_clipped(gamma, eq.spin == 0.5) and pot.z_vector != pot.z_scalar:
             est *= 10
         worst = max(worst, est / abs(E)) if E != 0 else worst
@@ -651,8 +653,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         if prev is not None and k < len(prev.located.energies):
             prev_state = _element_state(eq, prev.op, prev.located.energies[k], prev.located.vectors[k])
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=eq.label(n), energy=E,
-                           error_estimate=est, nodes=k + offset,
-                           state=_element_state(eq, last.op, E, last.located.vectors[k]),
+                           error_estimate=est, nodes=k + offset, state=state,
                            resolution=last.size, iterations=0, previous_state=prev_state))
     if len(found) < want:
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
