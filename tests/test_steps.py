@@ -19,6 +19,8 @@ import math
 import mpmath as mp
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, assume, given, settings
+from hypothesis import strategies as st
 
 import boundkit
 from boundkit.potentials.base import CallableTerm
@@ -226,3 +228,94 @@ def test_shallow_hulthen_levels_are_within_their_error_bars(delta):
     for lv in res.levels:
         err = abs(lv.energy - exact.hulthen(1.0, delta, lv.n))
         assert err <= lv.error_estimate, (lv.label, err, lv.error_estimate)
+
+
+# --- random wells made of steps, against the exact matching ---------------------------------------
+def _piecewise_levels(edges, depths, lo=None):
+    """Exact s levels (m = 1) of V = depths[i] on (edges[i], edges[i + 1]), 0 beyond the last edge:
+    u(0) = 0, then (u, u') carried across each region by its exact solution (sin/cos or sinh/cosh),
+    and a level where u' + q u = 0 at the last edge (u = e^(-q r) beyond; common practice). Roots
+    bracketed on 3000 energies (and 60 more towards 0) and bisected to neighbouring floats."""
+    def f(E):
+        u, du = 0.0, 1.0
+        for a, b, V in zip(edges[:-1], edges[1:], depths):
+            h, k2 = b - a, 2 * (E - V)
+            k = math.sqrt(abs(k2))
+            if k2 > 0:
+                c, s = math.cos(k * h), math.sin(k * h)
+                u, du = u * c + du * s / k, -u * k * s + du * c
+            else:
+                c, s = math.cosh(k * h), math.sinh(k * h)
+                u, du = u * c + du * s / k, u * k * s + du * c
+            n = abs(u) + abs(du)
+            u, du = u / n, du / n
+        return du + math.sqrt(-2 * E) * u
+
+    lo = min(depths) if lo is None else lo
+    grid = np.concatenate((lo + (0 - lo) * (np.arange(3000) + 0.5) / 3000,      # and geometric towards 0
+                           lo * np.geomspace(0.5 / 3000, 1e-12, 60)))
+    vals = [f(x) for x in grid]
+    roots = []
+    for a, b, fa, fb in zip(grid[:-1], grid[1:], vals[:-1], vals[1:]):
+        if fa * fb < 0:
+            while True:
+                m = 0.5 * (a + b)
+                if not a < m < b:
+                    break
+                if f(m) * fa > 0:
+                    a = m
+                else:
+                    b = m
+            roots.append(0.5 * (a + b))
+    return roots
+
+
+@st.composite
+def _step_wells(draw):
+    m = draw(st.integers(1, 4))
+    edges = sorted(set(draw(st.lists(st.floats(-1.5, 1.3), min_size=m, max_size=m))))
+    edges = [0.0] + [10.0**e for e in edges]
+    # edges closer than 1e-5 relative: a shell the layout merges away (it keeps element edges 1e-6
+    # apart in ln r), and whose weight is below the digits asked for unless it is very deep
+    assume(all(b > a * (1 + 1e-5) for a, b in zip(edges[1:-1], edges[2:])))
+    depths = [-draw(st.floats(-0.5, 2.3).map(lambda x: 10.0**x)) for _ in edges[1:]]
+    if len(depths) > 1 and draw(st.booleans()):
+        depths[draw(st.integers(0, len(depths) - 1))] = draw(st.floats(0.1, 3.0))     # a barrier
+    return edges, depths
+
+
+def _steps_agree_with_the_exact_levels(well):
+    edges, depths = well
+    exact = _piecewise_levels(edges, depths)
+    assume(exact and exact[-1] < -1e-6 * abs(min(depths)))    # every level clear of the scan's ends
+    text = " + ".join(f"where({a!r} < r, where(r < {b!r}, {V!r}, 0), 0)" for a, b, V in zip(edges[:-1], edges[1:], depths))
+    res = boundkit.solve("schrodinger", ExpressionTerm(text), l=0, levels="all", tol=1e-10)
+    assert len(res.levels) == len(exact), (text, [lv.energy for lv in res.levels], exact)
+    for lv, e in zip(res.levels, exact):
+        err = abs(lv.energy - e)
+        assert err <= max(lv.error_estimate, 1e-13 * abs(e)), (text, lv.label, err, lv.error_estimate)
+        assert res.status != "ok" or err <= 1e-10 * abs(e), (text, lv.label, err)
+
+
+_STEP_SETTINGS = dict(deadline=None, database=None, suppress_health_check=[HealthCheck.too_slow,
+                                                                             HealthCheck.filter_too_much])
+test_random_step_wells = settings(max_examples=8, derandomize=True, **_STEP_SETTINGS)(
+    given(well=_step_wells())(_steps_agree_with_the_exact_levels))
+test_random_step_wells_thorough = pytest.mark.slow(settings(max_examples=120, **_STEP_SETTINGS)(
+    given(well=_step_wells())(_steps_agree_with_the_exact_levels)))
+
+
+@pytest.mark.parametrize("width", [1e-5, 1e-7])
+def test_thin_deep_shell_is_kept(width):
+    """A shell of strength 1e-2 hartree bohr (depth 1e-2 / width) at r = 1 inside a well of -2
+    hartree out to r = 3: with width 1e-7 its two radii are closer than the 1e-6 in ln r below
+    which the layout merges element edges, and the merged layout lost the shell (levels 2e-3 and
+    1e-2 off, status 'ok', estimate 2e-14). Breakpoints now stay apart down to 1e-12."""
+    edges, depths = [0.0, 1.0, 1.0 + width, 3.0], [-2.0, -1e-2 / width, -2.0]
+    exact = _piecewise_levels(edges, depths, lo=-50.0)
+    text = " + ".join(f"where({a!r} < r, where(r < {b!r}, {V!r}, 0), 0)" for a, b, V in zip(edges[:-1], edges[1:], depths))
+    res = boundkit.solve("schrodinger", ExpressionTerm(text), l=0, levels="all", tol=1e-10)
+    assert res.status == "ok", res.message
+    assert len(res.levels) == len(exact) == 2
+    for lv, e in zip(res.levels, exact):
+        assert abs(lv.energy - e) <= 1e-12 * abs(e), (lv.label, lv.energy, e)
