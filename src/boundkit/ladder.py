@@ -96,11 +96,18 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
             else:
                 edges.append(tb)
                 pinned.add(len(edges) - 1)
+    kept = {edges[j] for j in pinned}
     edges = sorted(edges)
     out = [edges[0]]
     for e in edges[1:]:
         gap = e - out[-1]
         if gap < 1e-6:
+            # two edges closer than 1e-6 in ln r are one, unless both are breakpoints: a thin, deep
+            # shell between them (width 1e-7, strength 1e-2) moved the levels by 1e-2 when merged away
+            if e in kept and gap > 1e-12 and out[-1] in kept:
+                out.append(e)
+            elif e in kept and len(out) > 1:
+                out[-1] = e
             continue
         quiet_here = np.interp(e, t, cum) - np.interp(out[-1], t, cum) < 0.5 * _PHASE
         pieces = int(math.ceil(gap / (_MAX_DT_QUIET if quiet_here else _MAX_DT)))
