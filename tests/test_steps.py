@@ -319,3 +319,21 @@ def test_thin_deep_shell_is_kept(width):
     assert len(res.levels) == len(exact) == 2
     for lv, e in zip(res.levels, exact):
         assert abs(lv.energy - e) <= 1e-12 * abs(e), (lv.label, lv.energy, e)
+
+
+def test_the_breakpoints_are_reported():
+    """The radii the solver split the mesh at are in the diagnostics and on the command line."""
+    import json
+
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+
+    res = boundkit.solve("schrodinger", ExpressionTerm("where(r < 1, -50, 0)"), levels=1)
+    assert res.diagnostics["breakpoints_bohr"] == [1.0]
+    out = CliRunner().invoke(main, ["solve", "--expr", "where(r < R, -50, 0)", "--param", "R=0.5"])
+    assert out.exit_code == 0, out.output
+    assert "potential breakpoints (jumps or kinks): r = 0.5 bohr" in out.output
+    out = CliRunner().invoke(main, ["solve", "--expr", "where(r < R, -50, 0)", "--param", "R=0.5", "--json"])
+    assert json.loads(out.output)["diagnostics"]["breakpoints"] == [0.5]
+    assert "breakpoints" not in CliRunner().invoke(main, ["solve"]).output      # hydrogen has none

@@ -925,7 +925,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
     diagnostics = {
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
-        "bound_count": bound, "threshold_hartree": extra.get("threshold", 0.0),
+        "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound, "threshold_hartree": extra.get("threshold", 0.0),
         "certified_by_count": extra.get("certified"),
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "reseeded_guesses": tally.reseeded, "bisected_levels": tally.bisected,

@@ -46,6 +46,10 @@ def _table(res, unit: str, length: str = "bohr") -> str:
         f"alpha = {res.constants['alpha']:.13g} (CODATA)",
         f"binding energies (total minus rest energy) in {unit}; {_CONVENTION[labels]}",
         f"natural length of the potential {bohr_to(d.get('natural_length_bohr') or 0.0, length):.6g} {length}",
+        *([f"potential breakpoints (jumps or kinks): r = "
+           + ", ".join(f"{bohr_to(b, length):.10g}" for b in d["breakpoints_bohr"][:8])
+           + (f" and {len(d['breakpoints_bohr']) - 8} more" if len(d["breakpoints_bohr"]) > 8 else "")
+           + f" {length}"] if d.get("breakpoints_bohr") else []),
         "",
         f"{'level':<8} {'n':>3} {'l':>3} {'j':>5} {'kappa':>6} {'energy (' + unit + ')':>24} "
         f"{'error (' + unit + ')':>15}",
