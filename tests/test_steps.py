@@ -15,6 +15,7 @@ against boundkit's solve with the radius declared, which agreed to 2e-15).
 from __future__ import annotations
 
 import math
+import re
 
 import mpmath as mp
 import numpy as np
@@ -350,3 +351,14 @@ def test_critical_depth_of_a_square_well_expression(state, n):
     pot = ExpressionTerm("where(r < R, -V0, 0)", {"R": R, "V0": 1.2 * exact})
     res = boundkit.critical("schrodinger", pot, {"V0": 1.2 * exact}, state=state, vary="V0", tol=1e-9)
     assert abs(res.value - exact) <= 1e-9 * exact, (res.value, exact)
+
+
+def test_a_shallow_level_beyond_its_rounding_says_why():
+    """The same square well as above (depth 5000 hartree, top level at -0.46): tol 1e-12 is out of
+    reach, and the message and the notes say that the potential energy's rounding is the reason."""
+    R = (2.5 * math.pi + 0.01) / math.sqrt(2 * 5e3)
+    res = boundkit.solve("schrodinger", _square_well("expression", 5e3, R), l=0, levels=3, tol=1e-12)
+    assert res.status == "tolerance-not-met"
+    assert re.search(r"shallower than its well carries the rounding of its potential energy", res.message)
+    assert any(re.match(r"3s: the rounding of its potential energy \(\S+ relative\) lies above tol 1e-12", n)
+               for n in res.diagnostics["notes"]), res.diagnostics["notes"]

@@ -534,10 +534,16 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     (P_prev,), _ = normalise(w_dr, prev.u.T @ C_prev)
     prev_states = _states(gamma, r_core, P_prev, r, w_dr, elements)
     found, per_level, worst = [], [], 0.0
+    shallow: list[str] = []
     for k in range(want):
         hk = hist[k]
         Ek = hk[-1]
-        est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek), potential_floor(states[k], q_abs))
+        est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek))
+        floor = potential_floor(states[k], q_abs)
+        if floor > est and floor > tol * abs(Ek):
+            shallow.append(f"{eq.label(principal_n(k, eq.l))}: the rounding of its potential energy "
+                           f"({floor / abs(Ek):.2g} relative) lies above tol {tol:g}")
+        est = max(est, floor)
         worst = max(worst, est / abs(Ek))
         n = principal_n(k, eq.l)
         per_level.append({"label": eq.label(n), "sizes": used, "energies": list(hk), "r_min": r_lo,
@@ -546,7 +552,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
                            error_estimate=est, nodes=k, state=states[k], resolution=mesh.n, iterations=0,
                            previous_state=prev_states[k]))
     notes = [f"Lagrange-Laguerre mesh, N = {mesh.n}: the levels are the lowest eigenvalues of one symmetric "
-             "matrix, each with its index as node count"]
+             "matrix, each with its index as node count"] + shallow
     extra = {"gamma": gamma, "r_min": r_lo, "r_max": r_last, "threshold": 0.0, "certified": True,
-             "mesh": "lagrange-laguerre"}     # the caller adds the natural length and the far-box count
+             "mesh": "lagrange-laguerre", "potential_floor_hit": bool(shallow)}     # the caller adds the natural length and the far-box count
     return found, notes, per_level, worst, extra

@@ -177,6 +177,7 @@ class _Tally:
     reseeded: int = 0                   # spectral elements: guesses Newton's method took to a neighbour
     bisected: int = 0                   # spectral elements: levels located by bisection on the count
     floor_hit: bool = False
+    potential_floor_hit: bool = False   # a level's estimate is the rounding of its potential energy, above tol
     notes: list = field(default_factory=list)
 
 
@@ -642,7 +643,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     for k, E in enumerate(last.located.energies):
         h = hist[k]
         state = _element_state(eq, last.op, E, last.located.vectors[k])
-        est = max(abs(h[-1] - h[-2]), FLOOR * abs(E), potential_floor(state, V_abs)) if len(h) >= 2 else math.inf
+        est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
+        est = _with_potential_floor(tally, eq.label(principal_n(k + offset, eq.l)), E, est,
+                                    potential_floor(state, V_abs), tol)
         if _cut_is_clipped(gamma, eq.spin == 0.5) and pot.z_vector != pot.z_scalar:
             est *= 10
         worst = max(worst, est / abs(E)) if E != 0 else worst
@@ -659,6 +662,17 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
                         if last.located.certified else "the count certificate failed (see diagnostics)")
     return found, tally, per_level, worst, extra
+
+
+def _with_potential_floor(tally, label: str, E: float, est: float, floor: float, tol: float) -> float:
+    """The estimate raised to the rounding floor of the level's potential energy
+    (:func:`boundkit.ladder.potential_floor`); when that floor alone puts it above tol, say so."""
+    if floor > est and floor > tol * abs(E):
+        tally.potential_floor_hit = True
+        tally.notes.append(f"{label}: the rounding of its potential energy ({floor / abs(E):.2g} relative) lies "
+                           f"above tol {tol:g}: a level this shallow in this well is not resolved that far in "
+                           "double precision")
+    return max(est, floor)
 
 
 def _record(hist: list, energies, overwrite: int = 0) -> None:
@@ -893,7 +907,12 @@ def _solve_laguerre(eq, pot, levels, tol):
     found, notes, per_level, worst, extra = out
     extra["bound_count"] = bound
     extra["L"] = L
-    return found, _Tally(notes=notes), per_level, worst, extra
+    tally = _Tally(notes=notes, potential_floor_hit=extra.pop("potential_floor_hit", False))
+    return found, tally, per_level, worst, extra
+
+
+_POTENTIAL_FLOOR_WHY = ("a level far shallower than its well carries the rounding of its potential energy, "
+                        "which lies above it (see diagnostics notes)")
 
 
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
@@ -910,13 +929,16 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
         if status != "ok":
             message = f"{what}; worst estimated relative error {worst:.2g} exceeds tol = {tol:g}"
+            if tally.potential_floor_hit:
+                message += f": {_POTENTIAL_FLOOR_WHY}"
     elif wanted is not None and len(found) < wanted:
         status = "partial"
         message = (f"found {len(found)} of {wanted} requested bound levels: "
                    + (extra.get("why") or "the count certificate failed (see diagnostics)"))
     elif worst > tol:
         status = "tolerance-not-met"
-        why = (f"the rounding floor (about {disc.floor:g} relative) lies above it" if tally.floor_hit
+        why = (_POTENTIAL_FLOOR_WHY if tally.potential_floor_hit
+               else f"the rounding floor (about {disc.floor:g} relative) lies above it" if tally.floor_hit
                else f"the largest resolution ({disc.ladder()[-1]}) was reached")
         message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g}: {why}; "
                    "the values shown are the best estimates")
