@@ -294,7 +294,7 @@ class CompiledExpression:
                 if value.imag == 0:
                     found.append(value.real)
                 continue
-            if not fixed or len(fixed) == 1:
+            if len(fixed) < 2:              # both sides free of r: the condition never switches
 
                 def diff(r, lhs=lhs, rhs=rhs):
                     out = np.asarray(_eval(lhs, r, values)) - np.asarray(_eval(rhs, r, values))
