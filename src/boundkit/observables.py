@@ -48,12 +48,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Callable, Mapping
+from typing import Callable
 
 import numpy as np
 import scipy.constants as sc
 
-from .units import ALPHA, BOHR_M, C_AU, ELECTRON_MASS_MEV, LENGTH_UNITS, bohr_to, hartree_to, length_unit
+from .units import ALPHA, C_AU, ELECTRON_MASS_MEV, LENGTH_UNITS, bohr_to, hartree_to, length_unit
 from .wavefunctions import evaluate, origin_coefficient
 
 __all__ = ["Quantity", "LevelObservables", "expectation", "expectation_value", "radial_moment",

@@ -70,7 +70,6 @@ from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from typing import Sequence
 
-import numpy as np
 import scipy.constants as sc
 from scipy.special import spherical_jn
 

@@ -7,7 +7,6 @@ levels is within the family's tolerance: 1e-12 for the spectral family and
 """
 from __future__ import annotations
 
-import math
 import time
 from dataclasses import dataclass
 from typing import Callable

@@ -241,7 +241,6 @@ class FactorizedOperator:
     def matrix(self, E) -> Any:
         """T(E) on the reduced unknowns: dense array or sparse CSR."""
         eq, s, D = self.eq, self.sample, self.grid.D
-        n = self.n
         p = eq.p(E, s)
         diag = s.r**2 * (eq.q(E, s) - E)
         keep, elim = self.keep, self.elim

@@ -13,7 +13,7 @@ import contextvars
 import logging
 
 from dataclasses import dataclass, field
-from typing import Callable, ClassVar, Mapping
+from typing import Callable, ClassVar
 
 import numpy as np
 

@@ -1,8 +1,6 @@
 """Built-in potential terms with exact behaviour declared at both ends."""
 from __future__ import annotations
 
-import numpy as np
-
 from .base import Parameter, Term
 
 __all__ = ["Coulomb", "Oscillator"]
