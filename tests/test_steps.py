@@ -434,3 +434,34 @@ def test_scalar_and_vector_square_wells(equation, channel, V, S, R):
         exact = float(mp.findroot(lambda E: _mixed_residual(equation, V, S, R, E), lv.energy))
         assert abs(lv.energy - exact) <= 1e-12 * abs(exact), (lv.label, lv.energy, exact)
 
+
+
+@pytest.mark.parametrize("func, where, rel", [
+    # a finite nucleus written by hand: inside, -Z/r + Z/r cancels to rounding noise of 1e-9 of V near
+    # r = 1e-12, whose steps once read as jumps (7 spurious radii, and the solve failed to converge)
+    (lambda r: -60 / r + np.where(r < 0.1187, -60 * (3 - (r / 0.1187) ** 2) / (2 * 0.1187) + 60 / r, 0.0), 0.1187, 1e-8),
+    # a small step on the steep side of a Coulomb core: the step (0.28) is a third of one sample's change
+    (lambda r: -60 / r + np.where(r < 0.154, -0.2831, 0.0), 0.154, 4e-16),
+    # a kink hidden in the curvature of a Coulomb core
+    (lambda r: -60 / r + 51 * np.exp(-np.abs(r - 0.00143) / 0.00143), 0.00143, 1e-9),
+])
+def test_callable_breaks_on_a_coulomb_core(func, where, rel):
+    """Found by a random sweep of callables against finite differences: the first case stopped at
+    tolerance-not-met after 12 s (estimates near 1), the second missed its step."""
+    got = CallableTerm(func).breakpoints
+    assert len(got) == 1 and abs(got[0] - where) <= rel * where, got
+
+
+def test_finite_differences_keep_the_labels_when_a_level_has_dived():
+    """Klein-Gordon Z = 92 with a nucleus of 0.084 fm: the 1s has dived below the bound-state window,
+    so the levels found are the 2s, 3s and 4s. The finite-difference family labelled them 1s, 2s, 3s,
+    and cross_check then compared the spectral 2s with the finite-difference '2s' (the 3s): a
+    'difference' of 5270 hartree. Found by the random callable sweep."""
+    text = "-92/r + where(r < R, -92*(3 - (r/R)**2)/(2*R) + 92/r, 0)"
+    pot = ExpressionTerm(text, {"R": 1.5841126988855961e-06})
+    res = boundkit.solve("klein-gordon", pot, l=0, levels=3, tol=1e-9, cross_check=True)
+    fd = boundkit.solve("klein-gordon", pot, l=0, levels=3, tol=1e-6, method="fd")
+    assert [lv.label for lv in res.levels] == [lv.label for lv in fd.levels] == ["2s", "3s", "4s"]
+    assert [lv.nodes for lv in fd.levels] == [1, 2, 3]
+    for c in res.diagnostics["cross_check"]:
+        assert c["difference"] <= 1e-5 * abs(c["energy"]), c

@@ -276,7 +276,7 @@ class CompiledExpression:
         ``abs`` changes sign (see :mod:`boundkit.potentials.switches`).
 
         A comparison of ``r`` itself with a side free of ``r`` gives that side's value; any other
-        is located numerically on 1e-12 < r < 1e8. Complex sides are skipped (a condition must
+        is located numerically on 1e-9 < r < 1e8. Complex sides are skipped (a condition must
         compare real values).
         """
         from .switches import reported, sign_changes
