@@ -413,6 +413,11 @@ class Channel:
     tally: _Tally
     extra: dict = field(default_factory=dict)
 
+    def nodes(self, i: int) -> int:
+        """Node count of the i-th located level (i, or i plus the states that dived below the window)."""
+        seen = self.extra.get("seed_nodes", [])
+        return seen[i] if i < len(seen) else i
+
     def label(self, k: int) -> str:
         return self.eq.label(principal_n(k, self.eq.l))
 
@@ -421,23 +426,28 @@ class Channel:
         r_out, r_core = _radii(self.eq, self.pot, E, self.L)
         return LogMap(self.r_min, r_out), r_core
 
-    def level(self, k: int, disc: Discretization, size: int, E_seed: float, mesh=None, r_core=None):
+    def level(self, k: int, disc: Discretization, size: int, E_seed: float, mesh=None, r_core=None,
+              anchor: float | None = None, reach: float = math.inf):
         """Refine the k-node level at one size: (operator, Refined) or None.
 
         ``mesh`` and ``r_core`` default to those of :meth:`mesh` at E_seed; pass
         them when solving one level at several sizes (the WKB scan is not cheap).
+        ``anchor`` and ``reach``: the level's certified energy and half the distance to its certified
+        neighbours (:meth:`reach`); with them the level is the grid's eigenvalue nearest the anchor,
+        else the one with k nodes.
         """
         if mesh is None or r_core is None:
             mesh_e, core_e = self.mesh(E_seed)
             mesh = mesh_e if mesh is None else mesh
             r_core = core_e if r_core is None else r_core
-        reach = self.reach(k)
+        if anchor is None:
+            reach = math.inf
         got = _level_on_grid(self.eq, self.pot, self.gamma, r_core, disc, mesh, size, E_seed, k,
                              self.lo, self.hi, reach)
         if got is None:
             self.tally.notes.append(f"{self.label(k)}: no {k}-node solution at size {size}")
             return None
-        if abs(got[1].energy - self.seeds[k]) >= reach if math.isfinite(reach) else got[2] != k:
+        if abs(got[1].energy - anchor) >= reach if math.isfinite(reach) else got[2] != k:
             # nearer another certified level than its own (with no neighbour known: a wrong node count)
             self.tally.dropped_node_mismatch += 1
             self.tally.notes.append(f"{self.label(k)}: refined state has {got[2]} nodes, not {k}, at size {size}")
@@ -447,12 +457,12 @@ class Channel:
                                     "too small to count); kept, as it is the level nearest its certified energy")
         return got[0], got[1]
 
-    def reach(self, k: int) -> float:
-        """Half the distance from the k-th certified level to its nearest certified neighbour (inf when
+    def reach(self, i: int) -> float:
+        """Half the distance from the i-th certified level to its nearest certified neighbour (inf when
         it has none): a level of a finite-difference grid nearer another one is not this one."""
-        if k >= len(self.seeds):
+        if i >= len(self.seeds):
             return math.inf
-        gaps = [abs(self.seeds[k] - self.seeds[j]) for j in (k - 1, k + 1) if 0 <= j < len(self.seeds)]
+        gaps = [abs(self.seeds[i] - self.seeds[j]) for j in (i - 1, i + 1) if 0 <= j < len(self.seeds)]
         return 0.5 * min(gaps) if gaps else math.inf
 
 
@@ -477,6 +487,7 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     found = sorted(found, key=lambda lv: lv.energy)
     seeds = [lv.energy for lv in found]
     extra["seed_errors"] = [lv.error_estimate for lv in found]
+    extra["seed_nodes"] = [lv.nodes for lv in found]      # a dived state below shifts them all by one
     gamma = extra["gamma"]
     lo, hi = eq.energy_window(pot)
     return Channel(eq, pot, gamma, lo, hi, extra["L"], extra["r_min"], seeds, tally, extra)
@@ -969,7 +980,8 @@ def _solve_collocation(eq, pot, disc, levels, tol):
     worst = 0.0
     start = disc.first
     for k, E in enumerate(ch.seeds):
-        n = principal_n(k, eq.l)
+        nodes = ch.nodes(k)          # k, or more when states dived below the window
+        n = principal_n(nodes, eq.l)
         label = eq.label(n)
         mesh, r_core = ch.mesh(E)
         history, sizes, last, prev = [], [], None, None
@@ -978,7 +990,7 @@ def _solve_collocation(eq, pot, disc, levels, tol):
         kinked = any(mesh.r_min < b < mesh.r_max for b in pot.breakpoints) and not disc.family == "spectral"
         order = 2 if kinked else None
         for size in _ladder_from(disc, start):
-            got = ch.level(k, disc, size, E, mesh, r_core)
+            got = ch.level(nodes, disc, size, E, mesh, r_core, anchor=ch.seeds[k], reach=ch.reach(k))
             if got is None:
                 continue
             op, ref = got
@@ -1020,7 +1032,7 @@ def _solve_collocation(eq, pot, disc, levels, tol):
                 record["estimate_from_located_level"] = True
         worst = max(worst, est / abs(E))
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=label, energy=E,
-                           error_estimate=est, nodes=k, state=_state(eq, op, E, ref.vector),
+                           error_estimate=est, nodes=nodes, state=_state(eq, op, E, ref.vector),
                            resolution=sizes[-1], iterations=ref.iterations,
                            previous_state=None if prev is None else _state(eq, prev[0], history[-2], prev[1].vector)))
     extra = dict(ch.extra)
