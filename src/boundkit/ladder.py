@@ -38,7 +38,7 @@ if TYPE_CHECKING:       # the operator and the locator load with the first rung,
     from .locator import Located
 
 __all__ = ["DEGREES", "FLOOR", "far_count", "ladder_for", "layout", "make_operator", "potential_floor",
-           "solve_rung", "Rung", "spectral_done"]
+           "solve_rung", "Rung", "spectral_done", "with_potential_floor"]
 
 log = logging.getLogger(__name__)
 
@@ -130,6 +130,18 @@ def potential_floor(state, V_abs) -> float:
     """
     dens = state.P**2 if state.Q is None else state.P**2 + state.Q**2
     return POTENTIAL_FLOOR * float(np.sum(state.weights * dens * V_abs))
+
+
+def with_potential_floor(notes: list, label: str, E: float, est: float, floor: float, tol: float
+                         ) -> tuple[float, bool]:
+    """(the estimate raised to ``floor``, the rounding floor of the level's potential energy
+    (:func:`potential_floor`), and whether that floor alone puts it above tol; then a note says so)."""
+    hit = floor > est and floor > tol * abs(E)
+    if hit:
+        notes.append(f"{label}: the rounding of its potential energy ({floor / abs(E):.2g} relative) lies "
+                     f"above tol {tol:g}: a level this shallow in this well is not resolved that far in "
+                     "double precision")
+    return max(est, floor), hit
 
 
 def spectral_done(h: list[float], tol: float) -> bool:

@@ -75,7 +75,7 @@ from scipy.linalg import lapack
 
 from .discretize.elements import gll
 from .discretize.laguerre import cardinal_matrix, laguerre_mesh
-from .ladder import FLOOR, potential_floor, spectral_done
+from .ladder import FLOOR, potential_floor, spectral_done, with_potential_floor
 from .results import Level, RadialState
 from .states import count_nodes, normalise, principal_n
 
@@ -538,14 +538,10 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     for k in range(want):
         hk = hist[k]
         Ek = hk[-1]
-        est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek))
-        floor = potential_floor(states[k], q_abs)
-        if floor > est and floor > tol * abs(Ek):
-            shallow.append(f"{eq.label(principal_n(k, eq.l))}: the rounding of its potential energy "
-                           f"({floor / abs(Ek):.2g} relative) lies above tol {tol:g}")
-        est = max(est, floor)
-        worst = max(worst, est / abs(Ek))
         n = principal_n(k, eq.l)
+        est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek))
+        est, _ = with_potential_floor(shallow, eq.label(n), Ek, est, potential_floor(states[k], q_abs), tol)
+        worst = max(worst, est / abs(Ek))
         per_level.append({"label": eq.label(n), "sizes": used, "energies": list(hk), "r_min": r_lo,
                           "r_max": r_last})
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=eq.label(n), energy=Ek,
@@ -554,5 +550,6 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     notes = [f"Lagrange-Laguerre mesh, N = {mesh.n}: the levels are the lowest eigenvalues of one symmetric "
              "matrix, each with its index as node count"] + shallow
     extra = {"gamma": gamma, "r_min": r_lo, "r_max": r_last, "threshold": 0.0, "certified": True,
-             "mesh": "lagrange-laguerre", "potential_floor_hit": bool(shallow)}     # the caller adds the natural length and the far-box count
+             "mesh": "lagrange-laguerre", "potential_floor_hit": bool(shallow)}
+    # (the caller adds the natural length and the far-box count)
     return found, notes, per_level, worst, extra

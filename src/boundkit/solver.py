@@ -500,7 +500,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     ``known_bound``: the far-box count of a short-range potential, when the caller has it.
     """
     study = degrees is not None
-    from .ladder import FLOOR, ladder_for, layout, potential_floor, solve_rung, spectral_done
+    from .ladder import FLOOR, ladder_for, layout, potential_floor, solve_rung, spectral_done, with_potential_floor
     from .locator import certify_levels
 
     tally = _Tally()
@@ -653,14 +653,14 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     V_abs = np.abs(last.op.sample.V) + np.abs(last.op.sample.S)      # on the nodes the states live on
     for k, E in enumerate(last.located.energies):
         h = hist[k]
+        n = principal_n(k + offset, eq.l)
         state = _element_state(eq, last.op, E, last.located.vectors[k])
         est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
-        est = _with_potential_floor(tally, eq.label(principal_n(k + offset, eq.l)), E, est,
-                                    potential_floor(state, V_abs), tol)
+        est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol)
+        tally.potential_floor_hit |= hit
         if _cut_is_clipped(gamma, eq.spin == 0.5) and pot.z_vector != pot.z_scalar:
             est *= 10
         worst = max(worst, est / abs(E)) if E != 0 else worst
-        n = principal_n(k + offset, eq.l)
         per_level.append({"label": eq.label(n), "sizes": [r.size for r in rungs], "energies": list(h),
                           "r_min": r_min, "r_max": R})
         prev_state = None
@@ -673,17 +673,6 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
                         if last.located.certified else "the count certificate failed (see diagnostics)")
     return found, tally, per_level, worst, extra
-
-
-def _with_potential_floor(tally, label: str, E: float, est: float, floor: float, tol: float) -> float:
-    """The estimate raised to the rounding floor of the level's potential energy
-    (:func:`boundkit.ladder.potential_floor`); when that floor alone puts it above tol, say so."""
-    if floor > est and floor > tol * abs(E):
-        tally.potential_floor_hit = True
-        tally.notes.append(f"{label}: the rounding of its potential energy ({floor / abs(E):.2g} relative) lies "
-                           f"above tol {tol:g}: a level this shallow in this well is not resolved that far in "
-                           "double precision")
-    return max(est, floor)
 
 
 def _record(hist: list, energies, overwrite: int = 0) -> None:
@@ -958,7 +947,8 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
     diagnostics = {
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
-        "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound, "threshold_hartree": extra.get("threshold", 0.0),
+        "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound,
+        "threshold_hartree": extra.get("threshold", 0.0),
         "certified_by_count": extra.get("certified"),
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "reseeded_guesses": tally.reseeded, "bisected_levels": tally.bisected,
