@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import contextlib
 import contextvars
+import functools
 import logging
 
 from dataclasses import dataclass, field
@@ -215,6 +216,14 @@ class ProbedTerm(Term):
 
     label: str = "term"
 
+    @functools.cached_property
+    def breakpoints(self) -> tuple[float, ...]:
+        """Radii where the term jumps or has a kink, found once, on first use (:meth:`_find_breakpoints`)."""
+        return self._find_breakpoints()
+
+    def _find_breakpoints(self) -> tuple[float, ...]:
+        return ()
+
     def _finite_probe(self, radii: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """V at ``radii``; if any value is not finite, once more at radii shifted by 4.7 %."""
         for r in (radii, radii * 1.047):
@@ -289,19 +298,15 @@ class CallableTerm(ProbedTerm):
         self.func = func
         self.label = label or getattr(func, "__name__", "callable")
         self.values = {}
-        self._breaks = None
         self._probe()
 
-    @property
-    def breakpoints(self) -> tuple[float, ...]:
-        """Radii where the callable's values, slope or curvature jump, found once, on first use
+    def _find_breakpoints(self) -> tuple[float, ...]:
+        """Radii where the callable's values, slope or curvature jump
         (:func:`boundkit.potentials.switches.breaks`)."""
-        if self._breaks is None:
-            from .switches import breaks, reported
+        from .switches import breaks, reported
 
-            with complex_values():
-                self._breaks = reported(breaks(self._evaluate), f"callable {shorten(self.label)}")
-        return self._breaks
+        with complex_values():
+            return reported(breaks(self._evaluate), f"callable {shorten(self.label)}")
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
         out = refuse_complex(self.func(r), shorten(self.label), r)

@@ -677,7 +677,6 @@ class ExpressionTerm(ProbedTerm):
             Parameter(n, None, "", f"parameter of the expression {self.label!r}")
             for n in self.compiled.parameter_names
         )
-        self._breaks = None
         self._probe()
 
     @property
@@ -685,13 +684,10 @@ class ExpressionTerm(ProbedTerm):
         """The expression's parameter names, in order of first appearance."""
         return self.compiled.parameter_names
 
-    @property
-    def breakpoints(self) -> tuple[float, ...]:
-        """Where the expression switches (``where``) or has a kink (``abs``); found once, on first
-        use (:meth:`CompiledExpression.switching_radii`)."""
-        if self._breaks is None:
-            self._breaks = self.compiled.switching_radii(self.values)
-        return self._breaks
+    def _find_breakpoints(self) -> tuple[float, ...]:
+        """Where the expression switches (``where``) or has a kink (``abs``)
+        (:meth:`CompiledExpression.switching_radii`)."""
+        return self.compiled.switching_radii(self.values)
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
         return refuse_complex(self.compiled.evaluate(r, self.values), f"expression {self.label!r}", r)
