@@ -95,7 +95,7 @@ def sign_changes(fn: Callable) -> list[float] | None:
     return out
 
 
-def jumps(fn: Callable) -> tuple[float, ...]:
+def jumps(fn: Callable, v: np.ndarray | None = None) -> tuple[float, ...]:
     """Radii where the values of fn jump (see the module docstring), ascending.
 
     Notes
@@ -111,7 +111,7 @@ def jumps(fn: Callable) -> tuple[float, ...]:
     which the value must still change by half of J.
     """
     r = wide_grid()
-    v = _values(fn, r)
+    v = _values(fn, r) if v is None else v         # fn on the wide grid, when the caller has it
     d = np.diff(v)
     d = np.where(np.isfinite(d), d, 0.0)
     trend = np.zeros_like(d)
@@ -246,12 +246,10 @@ def _break_in(fn: Callable, a: float, b: float, m: int) -> float | None:
 def breaks(fn: Callable) -> list[float] | None:
     """Radii where fn jumps, has a kink or a jump of its curvature (see the module docstring),
     ascending; None when there are more than :data:`MAX_SWITCHES`."""
-    found = list(jumps(fn))
     r = wide_grid()
     v = _values(fn, r)
-    if not np.all(np.isfinite(v)):
-        ok = np.isfinite(v)
-        v = np.where(ok, v, 0.0)
+    found = list(jumps(fn, v))
+    v = np.where(np.isfinite(v), v, 0.0)
     for m in (1, 2):
         # the excess of each divided difference over the mean of those m + 2 places away (outside the
         # windows one break disturbs): a kink hidden in the curvature of a Coulomb core still stands
