@@ -113,12 +113,15 @@ class Located:
     reseeded: int = 0
 
 
-def _bisect_level(op, k: int, lo: float, hi: float, scale: float) -> tuple[float, float]:
-    """Bracket the k-th level between energies with k and k + 1 levels below (one count a step)."""
+def _bisect_level(op, k: int, lo: float, hi: float, scale: float, width: float = 0.0,
+                  counts: tuple[int, int] | None = None) -> tuple[float, float, int, int]:
+    """Bracket the k-th level between energies with k and k + 1 levels below (one count a step);
+    with ``width``, go on closing the bracket to that relative width. ``counts`` are N(lo), N(hi)
+    when the caller has them. Returns (a, b, N(a), N(b))."""
     a, b = lo, hi
-    ca, cb = count_below(op, a), count_below(op, b)
+    ca, cb = counts if counts is not None else (count_below(op, a), count_below(op, b))
     for _ in range(120):
-        if ca == k and cb == k + 1:
+        if ca == k and cb == k + 1 and (not width or b - a <= width * max(abs(a), abs(b))):
             break
         if b - a <= 1e-13 * max(abs(a), abs(b), scale):
             break
@@ -129,7 +132,7 @@ def _bisect_level(op, k: int, lo: float, hi: float, scale: float) -> tuple[float
             a, ca = mid, c
         else:
             b, cb = mid, c
-    return a, b
+    return a, b, ca, cb
 
 
 def _level_in_bracket(op, k: int, a: float, b: float):
@@ -228,24 +231,20 @@ def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol:
     width = max(1e-6 * abs(E), 1e-300)
     a, b = E - width, E + width
     for _ in range(40):
-        if count_below(op, a) <= k or a <= lo:
+        ca = count_below(op, max(a, lo))
+        if ca <= k or a <= lo:
             break
         a = E - 4 * (E - a)
     for _ in range(40):
-        if count_below(op, b) >= k + 1 or b >= hi:
+        cb = count_below(op, min(b, hi))
+        if cb >= k + 1 or b >= hi:
             break
         b = E + 4 * (b - E)
     a, b = max(a, lo), min(b, hi)
-    if not (count_below(op, a) <= k < count_below(op, b)):
+    if not ca <= k < cb:
         return None
-    for _ in range(200):
-        if b - a <= _PINNED * max(abs(a), abs(b)):
-            break
-        mid = 0.5 * (a + b)
-        if count_below(op, mid) <= k:
-            a = mid
-        else:
-            b = mid
+    # scale 0: the bisection's own floor is then _PINNED relative (both are 1e-13)
+    a, b, _, _ = _bisect_level(op, k, a, b, 0.0, width=_PINNED, counts=(ca, cb))
     mid = 0.5 * (a + b)
     ref = refine(op, mid, _inverse_iteration(op, mid, steps=4), rtol=rtol)
     slack = 10 * _PINNED * abs(mid)
@@ -335,7 +334,7 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
         energies = list(loc.energies[:want])
         nxt = loc.energies[want] if len(loc.energies) > want else loc.next_energy
         E_top = _top(energies, nxt, hi)
-        if (all(b - a > 1e-12 * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
+        if (all(b - a > _SAME * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
                 and E_top < hi and count_below(op, E_top) == want):
             return Located(tuple(energies), tuple(loc.vectors[:want]), E_top, want, None, 0, True, 0,
                            checked=True, next_energy=nxt)
@@ -344,7 +343,7 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
     energies, vectors = list(loc.energies[:m]), list(loc.vectors[:m])
     nxt = loc.energies[m] if len(loc.energies) > m else loc.next_energy
     E_top = _top(energies, nxt, hi)
-    ok = (len(energies) == m and all(b - a > 1e-12 * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
+    ok = (len(energies) == m and all(b - a > _SAME * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
           and (m == 0 or count_below(op, E_top) == m + offset))
     fallback = 0
     if not ok and sure:
@@ -385,7 +384,7 @@ def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses, offse
     a = bottom
     fallback = 0
     for k in range(m):
-        a_k, b_k = _bisect_level(op, k + offset, a, top, scale)
+        a_k, b_k, _, count_b = _bisect_level(op, k + offset, a, top, scale)
         got = _level_in_bracket(op, k + offset, a_k, b_k)
         fallback += 1
         if got is None:
@@ -395,5 +394,5 @@ def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses, offse
         vectors.append(got[1])
         # the next level lies above b_k when the bracket closed (k + 1 levels below it): starting
         # there, not a fixed step above this one, keeps a partner 1e-10 away (two wells) in view
-        a = b_k if count_below(op, b_k) == k + offset + 1 else got[0] + 1e-10 * max(abs(got[0]), scale)
+        a = b_k if count_b == k + offset + 1 else got[0] + 1e-10 * max(abs(got[0]), scale)
     return energies, vectors, fallback
