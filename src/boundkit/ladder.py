@@ -85,18 +85,16 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
     cum = np.concatenate(([0.0], np.cumsum(0.5 * (rho[1:] + rho[:-1]) * np.diff(t))))
     n_el = max(1, int(math.ceil(cum[-1] / _PHASE)))
     edges = list(np.interp(np.linspace(0, cum[-1], n_el + 1), cum, t))
-    pinned = set()          # edges already moved onto a breakpoint: a nearby one is added, not moved there
+    kept = set()            # edges on a breakpoint: a nearby breakpoint is added, not moved onto them
     for b in pot.breakpoints:
         tb = math.log(b)
         if t[0] + 1e-3 < tb < t[-1] - 1e-3:
             j = int(np.argmin([abs(e - tb) for e in edges]))
-            if abs(edges[j] - tb) < 0.05 and 0 < j < len(edges) - 1 and j not in pinned:
+            if abs(edges[j] - tb) < 0.05 and 0 < j < len(edges) - 1 and edges[j] not in kept:
                 edges[j] = tb
-                pinned.add(j)
             else:
                 edges.append(tb)
-                pinned.add(len(edges) - 1)
-    kept = {edges[j] for j in pinned}
+            kept.add(tb)
     edges = sorted(edges)
     out = [edges[0]]
     for e in edges[1:]:
