@@ -88,21 +88,23 @@ mp.mp.dps = 40
 _C = mp.mpf(C_AU)
 
 
-def _wave_numbers(equation, E, V0):
-    """(inner, outer) wave numbers of an s level at energy E (binding) in a vector well of depth V0."""
-    E = mp.mpf(E)
+def _residual(equation, V0, R, E, S=0.0):
+    """The matching condition of an s level at binding energy E (m = 1) in the vector well V = -V0
+    and the Lorentz-scalar well S (it adds to the mass) for r < R, 0 outside. Inside
+    K^2 = (E - V - S)(E + 2c^2 - V + S)/c^2 (2 (E - V) for Schrodinger), outside q^2 = -E (E + 2c^2)/c^2;
+    Schrodinger and Klein-Gordon match u'/u (u = sin(K r) inside, e^(-q r) outside: K cot KR = -q),
+    Dirac (kappa = -1) Q/P, whose factor c^2/(E + 2c^2 - V + S) jumps with V and S: with
+    j1/j0 = 1/x - cot x and k1/k0 = 1 + 1/y (derived for this file)."""
+    E, V = mp.mpf(E), -mp.mpf(V0)
     if equation == "schrodinger":
-        return mp.sqrt(2 * (V0 + E)), mp.sqrt(-2 * E)
-    return mp.sqrt((E + V0) * (E + V0 + 2 * _C**2)) / _C, mp.sqrt(-E * (E + 2 * _C**2)) / _C
-
-
-def _residual(equation, V0, R, E):
-    """The matching condition of an s level at E in V = -V0 for r < R, 0 outside (m = 1)."""
-    K, q = _wave_numbers(equation, E, V0)
-    if equation == "dirac":          # kappa = -1: Q/P continuous; j1/j0 = 1/x - cot x, k1/k0 = 1 + 1/y
-        return (K * (1 / (K * R) - mp.cot(K * R)) / (E + V0 + 2 * _C**2)
+        K, q = mp.sqrt(2 * (E - V - S)), mp.sqrt(-2 * E)
+    else:
+        K = mp.sqrt((E - V - S) * (E + 2 * _C**2 - V + S)) / _C
+        q = mp.sqrt(-E * (E + 2 * _C**2)) / _C
+    if equation == "dirac":
+        return (K * (1 / (K * R) - mp.cot(K * R)) / (E + 2 * _C**2 - V + S)
                 - q * (1 + 1 / (q * R)) / (E + 2 * _C**2))
-    return K * mp.cot(K * R) + q     # u = sin(K r) inside, e^(-q r) outside: K cot KR = -q
+    return K * mp.cot(K * R) + q
 
 
 def _square_well_level(equation, V0, R, guess):
@@ -280,6 +282,11 @@ def _piecewise_levels(edges, depths, lo=None):
     return roots
 
 
+def _steps_text(edges, depths):
+    """The expression of a well of constant pieces: depths[i] on (edges[i], edges[i + 1])."""
+    return " + ".join(f"where({a!r} < r, where(r < {b!r}, {V!r}, 0), 0)" for a, b, V in zip(edges[:-1], edges[1:], depths))
+
+
 def _zero_energy_nodes(edges, depths):
     """Number of bound s levels of the same well: the nodes of its zero-energy solution u(0) = 0 on
     r > 0, linear beyond the last edge (Sturm's oscillation theorem; common practice). Counted
@@ -326,7 +333,7 @@ def _steps_agree_with_the_exact_levels(well):
     exact = _piecewise_levels(edges, depths)
     assume(exact and exact[-1] < -1e-6 * abs(min(depths)))    # every level clear of the scan's ends
     assume(len(exact) == _zero_energy_nodes(edges, depths))   # and none missed by the scan (two in one step)
-    text = " + ".join(f"where({a!r} < r, where(r < {b!r}, {V!r}, 0), 0)" for a, b, V in zip(edges[:-1], edges[1:], depths))
+    text = _steps_text(edges, depths)
     res = boundkit.solve("schrodinger", ExpressionTerm(text), l=0, levels="all", tol=1e-10)
     assert len(res.levels) == len(exact), (text, [lv.energy for lv in res.levels], exact)
     # the inner cut (r_min = 1e-5 natural lengths, shared by every rung) leaves about 2e-17 of the
@@ -355,7 +362,7 @@ def test_thin_deep_shell_is_kept(width):
     1e-2 off, status 'ok', estimate 2e-14). Breakpoints now stay apart down to 1e-12."""
     edges, depths = [0.0, 1.0, 1.0 + width, 3.0], [-2.0, -1e-2 / width, -2.0]
     exact = _piecewise_levels(edges, depths, lo=-50.0)
-    text = " + ".join(f"where({a!r} < r, where(r < {b!r}, {V!r}, 0), 0)" for a, b, V in zip(edges[:-1], edges[1:], depths))
+    text = _steps_text(edges, depths)
     res = boundkit.solve("schrodinger", ExpressionTerm(text), l=0, levels="all", tol=1e-10)
     assert res.status == "ok", res.message
     assert len(res.levels) == len(exact) == 2
@@ -405,20 +412,6 @@ def test_a_shallow_level_beyond_its_rounding_says_why():
                for n in res.diagnostics["notes"]), res.diagnostics["notes"]
 
 
-def _mixed_residual(equation, V, S, R, E):
-    """The matching condition of an s level at binding energy E in the wells V and S (Lorentz
-    scalar: it adds to the mass) for r < R, 0 outside. Inside K^2 = (E - V - S)(E + 2c^2 - V + S)/c^2
-    (with S = 0 the vector well above); Klein-Gordon matches u'/u, Dirac (kappa = -1) Q/P, whose
-    factor c^2/(E + 2c^2 - V + S) jumps with V and S (derived here, as above)."""
-    E = mp.mpf(E)
-    K = mp.sqrt((E - V - S) * (E + 2 * _C**2 - V + S)) / _C
-    q = mp.sqrt(-E * (E + 2 * _C**2)) / _C
-    if equation == "dirac":
-        return (K * (1 / (K * R) - mp.cot(K * R)) / (E + 2 * _C**2 - V + S)
-                - q * (1 + 1 / (q * R)) / (E + 2 * _C**2))
-    return K * mp.cot(K * R) + q
-
-
 @pytest.mark.parametrize("equation, channel", [("klein-gordon", {"l": 0}), ("dirac", {"kappa": -1})])
 @pytest.mark.parametrize("V, S, R", [(0.0, -50.0, 1.0), (-30.0, -20.0, 1.0), (-60.0, 10.0, 1.0),
                                      (0.0, -5000.0, 0.06)])
@@ -431,7 +424,7 @@ def test_scalar_and_vector_square_wells(equation, channel, V, S, R):
     assert res.status == "ok", res.message
     assert res.levels
     for lv in res.levels:
-        exact = float(mp.findroot(lambda E: _mixed_residual(equation, V, S, R, E), lv.energy))
+        exact = float(mp.findroot(lambda E: _residual(equation, -V, R, E, S), lv.energy))
         assert abs(lv.energy - exact) <= 1e-12 * abs(exact), (lv.label, lv.energy, exact)
 
 
