@@ -107,3 +107,16 @@ def test_a_search_stopped_by_the_solver_exits_3_with_its_message(monkeypatch):
     assert res.exit_code == 3, res.output
     assert "boundkit: failed: the solver refused delta = 1.3: example" in res.output
     assert "Traceback" not in res.output
+
+
+def test_compare_prints_what_it_can_when_one_channel_is_refused():
+    """Z = 80 point charge: no Klein-Gordon s levels (Z alpha > 1/2). The table still comes (Dirac 1s from
+    the Sommerfeld-Dirac formula, Bethe & Salpeter 1957), the refusal is named on stderr, and the exit
+    code is that of an incomplete study (3), as for a scan with a refused point."""
+    res = run("compare", "--param", "Z=80", "--l-max", "0", "--levels", "1", "--json")
+    assert res.exit_code == 3, res.output
+    data = json.loads(res.stdout)
+    one = next(r for r in data["rows"] if r["label"] == "1s")
+    assert one["dirac_plus"] == pytest.approx(dirac_coulomb(80, 1, -1), rel=1e-10)
+    assert one["klein_gordon"] is None
+    assert "klein-gordon l=0" in res.stderr and "Z alpha < l + 1/2" in res.stderr

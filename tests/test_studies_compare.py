@@ -71,3 +71,36 @@ def test_compare_refuses_bad_input():
         compare("coulomb", {"Z": 1}, l_max=-1)
     with pytest.raises(ValueError, match="unknown potential"):
         compare("coulomb-ish", {"Z": 1})
+
+
+def test_a_channel_one_equation_refuses_leaves_the_others():
+    """A point charge Z = 80 (Z alpha = 0.584): the Klein-Gordon s levels need Z alpha < 1/2 and do not
+    exist, so that one channel is refused (as a scan refuses such a point); the Schrodinger and Dirac
+    columns and the Klein-Gordon p levels are still compared. Before: the whole comparison failed with
+    the s channel's message. Exact values: Schrodinger -Z^2/(2n^2), Sommerfeld-Dirac (Bethe & Salpeter
+    1957, eq. 14.29), spin-0 Coulomb levels (Greiner, Relativistic Quantum Mechanics; from memory)."""
+    res = compare("coulomb", {"Z": 80}, l_max=1, levels=1)
+    assert not res.success
+    assert res.statuses["klein-gordon l=0"] == "error"
+    assert "Z alpha < l + 1/2" in res.messages["klein-gordon l=0"]
+    assert all(v == "ok" for k, v in res.statuses.items() if k != "klein-gordon l=0")
+    s1 = res.row("1s")
+    assert s1["klein_gordon"] is None and s1["shift_klein_gordon"] is None and s1["spin_plus"] is None
+    assert s1["schrodinger"] == pytest.approx(schrodinger_coulomb(80, 1), rel=1e-12)
+    assert s1["dirac_plus"] == pytest.approx(dirac_coulomb(80, 1, -1), rel=1e-10)
+    assert s1["shift_dirac_plus"] == pytest.approx(s1["dirac_plus"] - s1["schrodinger"], rel=1e-12)
+    p2 = res.row("2p")
+    assert p2["klein_gordon"] == pytest.approx(klein_gordon_coulomb(80, 2, 1), rel=1e-10)
+    assert p2["fine_structure"] == pytest.approx(dirac_coulomb(80, 2, -2) - dirac_coulomb(80, 2, 1), rel=1e-9)
+    text = res.table()
+    assert "klein-gordon l=0: error (Z: for the Klein-Gordon equation" in text
+    d = res.to_dict()
+    assert d["statuses"]["klein-gordon l=0"] == "error" and "Z alpha" in d["messages"]["klein-gordon l=0"]
+    assert d["messages"]["dirac kappa=-1"] == ""
+
+
+def test_input_every_channel_refuses_is_still_an_error():
+    """A parameter the potential does not take is refused by every channel: that is bad input, raised
+    once, not a table of refusals."""
+    with pytest.raises(ValueError, match="bogus"):
+        compare("coulomb", {"Z": 1, "bogus": 2.0})

@@ -251,6 +251,5 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
     else:
         click.echo(res.table(unit, sunit))
     if not res.success:
-        bad = "; ".join(f"{k}: {v}" for k, v in res.statuses.items() if v != "ok")
-        click.echo(f"boundkit: not every level was found or met tol ({bad})", err=True)
+        click.echo(f"boundkit: not every level was found or met tol ({res.problems()})", err=True)
         sys.exit(EXIT_NOT_CONVERGED)

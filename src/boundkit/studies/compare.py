@@ -61,7 +61,11 @@ class CompareResult:
         ``spin_plus``, ``spin_minus``, ``spin_centroid`` (Dirac minus
         Klein-Gordon), each with an ``_error`` (sum of the two estimates).
     statuses : dict
-        Solver status of each channel (``'schrodinger l=1'``, ``'dirac kappa=-2'``...).
+        Solver status of each channel (``'schrodinger l=1'``, ``'dirac kappa=-2'``...), ``'error'``
+        for a channel its equation refuses (a Klein-Gordon s channel of a point charge with
+        Z alpha >= 1/2): its levels are None, the other channels are still compared.
+    messages : dict
+        The solver's message of each channel ('' when none), the refusal for an ``'error'``.
     settings : dict
         Potential, parameters, particle, l_max, levels, tol, method.
     """
@@ -69,6 +73,7 @@ class CompareResult:
     rows: tuple
     statuses: dict
     settings: dict = field(default_factory=dict)
+    messages: dict = field(default_factory=dict)
 
     @property
     def success(self) -> bool:
@@ -103,7 +108,8 @@ class CompareResult:
                     out[k] = None if r[k] is None else float(hartree_to(r[k], sunit))
             rows.append(out)
         return {"units": {"energy": unit, "differences": sunit, "length": "bohr"}, "rows": rows,
-                "statuses": self.statuses, "success": self.success, "settings": self.settings,
+                "statuses": self.statuses, "messages": self.messages, "success": self.success,
+                "settings": self.settings,
                 "constants": constants_record()}
 
     def table(self, unit: str = "hartree", splitting_unit: str | None = None) -> str:
@@ -131,10 +137,14 @@ class CompareResult:
 
         for r in self.rows:
             lines.append(f"{r['label']:<6} " + " ".join(fmt_diff(r, k) for k in _DIFF_KEYS))
-        bad = {k: v for k, v in self.statuses.items() if v != "ok"}
-        lines += ["", "status: ok" if not bad else
-                  "status: " + "; ".join(f"{k}: {v}" for k, v in bad.items())]
+        lines += ["", "status: " + (self.problems() or "ok")]
         return "\n".join(lines)
+
+    def problems(self) -> str:
+        """The channels whose status is not 'ok', each with its status ('' when there are none); a
+        refused channel ('error') with the refusal."""
+        return "; ".join(f"{k}: {v}" + (f" ({self.messages[k]})" if v == "error" and self.messages.get(k) else "")
+                         for k, v in self.statuses.items() if v != "ok")
 
     def __repr__(self) -> str:
         return f"CompareResult({len(self.rows)} levels, success={self.success})"
@@ -199,11 +209,22 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
                   scalar=scalar, **solve_kwargs)
     by_label: dict[str, dict] = {}
     statuses: dict[str, str] = {}
+    messages: dict[str, str] = {}
+    refusals: list[ValueError] = []
     settings: dict = {}
 
     def run(eq: str, key: str, orbital: int, **channel) -> None:
-        res = solve(eq, potential, **channel, **common)
-        statuses[f"{eq} {', '.join(f'{k}={v}' for k, v in channel.items())}"] = res.status
+        name = f"{eq} {', '.join(f'{k}={v}' for k, v in channel.items())}"
+        try:
+            res = solve(eq, potential, **channel, **common)
+        except ValueError as exc:
+            # a channel this equation refuses (no Klein-Gordon s levels for a point charge with
+            # Z alpha >= 1/2): its column stays empty, as a scan leaves a refused point; input that
+            # every channel refuses is raised below
+            statuses[name], messages[name] = "error", str(exc)
+            refusals.append(exc)
+            return
+        statuses[name], messages[name] = res.status, "" if res.status == "ok" else res.message
         settings.setdefault("particle", res.settings.get("particle"))
         settings.setdefault("particle_mass_MeV", res.settings.get("particle_mass_MeV"))
         for lv in res.levels:
@@ -218,6 +239,8 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
         run("dirac", "dirac_plus", l, kappa=-(l + 1))
         if l > 0:
             run("dirac", "dirac_minus", l, kappa=l)
+    if len(refusals) == len(statuses):
+        raise refusals[0]
     rows = []
     for l in range(l_max + 1):
         for n in range(l + 1, l + levels + 1):
@@ -248,4 +271,4 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
                      "solve_kwargs": dict(solve_kwargs)})
     for row in rows:
         row["label"] = convert_label(row["label"], labels)
-    return CompareResult(rows=tuple(rows), statuses=statuses, settings=settings)
+    return CompareResult(rows=tuple(rows), statuses=statuses, settings=settings, messages=messages)
