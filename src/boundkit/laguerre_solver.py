@@ -75,6 +75,7 @@ from scipy.linalg import lapack
 
 from .discretize.elements import gll
 from .discretize.laguerre import cardinal_matrix, laguerre_mesh
+from .equations.base import decay_steps
 from .ladder import FLOOR, potential_floor, spectral_done, with_potential_floor
 from .results import Level, RadialState
 from .states import count_nodes, normalise, principal_n
@@ -249,8 +250,7 @@ class _Probe:
         if not allowed.size:
             return None
         a = allowed[-1]
-        k = np.sqrt(np.clip(k2[a:], 0, None))
-        return a, 0.5 * (k[1:] + k[:-1]) * np.diff(r[a:])
+        return a, decay_steps(k2[a:], r[a:])
 
     def decay(self, eq, E: float) -> float:
         """e-folds of WKB decay of a level at energy E from its outer turning point to the last

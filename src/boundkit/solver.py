@@ -38,6 +38,7 @@ from ._threads import one_blas_thread
 from .discretize import Discretization, get_method
 from .eigen import dense_pencil, refine, shift_invert
 from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
+from .equations.base import decay_steps
 from .equations.dirac import Dirac
 from .equations.klein_gordon import KleinGordon
 from .equations.schrodinger import Schrodinger
@@ -162,8 +163,7 @@ def _radii(eq: RadialEquation, pot: Potential, E: float, L: float) -> tuple[floa
     allowed = np.nonzero(excess < 0)[0]
     start = allowed[-1] if allowed.size else 0
     core = float(r[allowed[0]]) if allowed.size and allowed[0] > 0 else L
-    kk = np.sqrt(np.clip(excess[start:], 0, None))
-    cum = np.concatenate(([0.0], np.cumsum(0.5 * (kk[1:] + kk[:-1]) * np.diff(r[start:]))))
+    cum = np.concatenate(([0.0], np.cumsum(decay_steps(excess[start:], r[start:]))))
     beyond = np.nonzero(cum >= _DECAY)[0]
     if not beyond.size:
         return float(r[-1]), core
@@ -238,9 +238,8 @@ def _inner_wkb(eq, pot, E: float, L: float) -> float:
     if not allowed.size or allowed[0] == 0:
         return 0.0
     i0 = allowed[0]
-    kk = np.sqrt(np.clip(excess[:i0 + 1], 0, None))[::-1]
     rr = r[:i0 + 1][::-1]
-    cum = np.concatenate(([0.0], np.cumsum(0.5 * (kk[1:] + kk[:-1]) * -np.diff(rr))))
+    cum = np.concatenate(([0.0], np.cumsum(-decay_steps(excess[:i0 + 1][::-1], rr))))   # inwards: r falls
     beyond = np.nonzero(cum >= _DECAY)[0]
     return float(rr[beyond[0]]) * 0.95 if beyond.size else 0.0
 

@@ -21,7 +21,7 @@ import scipy.sparse as sp
 
 from ..discretize.base import Grid
 
-__all__ = ["RadialEquation", "Sample", "FactorizedOperator"]
+__all__ = ["RadialEquation", "Sample", "FactorizedOperator", "decay_steps"]
 
 
 @dataclass(frozen=True)
@@ -37,6 +37,21 @@ class Sample:
     def cast(self, dtype) -> "Sample":
         W = None if self.W is None else self.W.astype(dtype)
         return Sample(self.r.astype(dtype), self.V.astype(dtype), self.S.astype(dtype), W)
+
+
+def decay_steps(excess: np.ndarray, r: np.ndarray) -> np.ndarray:
+    """WKB decay exponent gained between neighbouring radii ``r`` (one value per interval; negative
+    where ``r`` descends): the trapezoid rule on sqrt(max(excess, 0)), with ``excess`` a local squared
+    decay rate on those radii (:meth:`RadialEquation.excess`, or that without the centrifugal term).
+    Zero where the level is classically allowed.
+
+    Notes
+    -----
+    The exponent of the WKB solution is the integral of sqrt(excess) dr; its cumulative sum from a
+    turning point says where a level has decayed by a given number of e-folds.
+    """
+    k = np.sqrt(np.clip(excess, 0, None))
+    return 0.5 * (k[1:] + k[:-1]) * np.diff(r)
 
 
 class RadialEquation:
