@@ -96,6 +96,35 @@ def test_square_well_phase_shifts(l):
     assert np.max(res.error_estimate) < 1e-8
 
 
+def _square_well_mod_pi(l, E, V0, R, digits=40):
+    """Exact tan delta_l of a square well (the matching of square_well_tan) in mpmath, as an angle in
+    (-pi/2, pi/2]."""
+    with mpmath.workdps(digits):
+        k, K = mpmath.sqrt(2 * mpmath.mpf(E)), mpmath.sqrt(2 * (mpmath.mpf(E) + V0))
+        F = lambda x: x * mpmath.sqrt(mpmath.pi / (2 * x)) * mpmath.besselj(l + mpmath.mpf(1) / 2, x)  # noqa: E731
+        G = lambda x: x * mpmath.sqrt(mpmath.pi / (2 * x)) * mpmath.bessely(l + mpmath.mpf(1) / 2, x)  # noqa: E731
+        inside = K * mpmath.diff(F, K * R) / F(K * R)
+        return mpmath.atan((k * mpmath.diff(F, k * R) - inside * F(k * R))
+                           / (k * mpmath.diff(G, k * R) - inside * G(k * R)))
+
+
+@pytest.mark.parametrize("V0, R, l", [(200.0, 1.8, 4), (120.0, 8.8, 4), (124.0, 0.84, 2)])
+def test_error_estimate_of_a_large_phase_is_never_below_its_rounding(V0, R, l):
+    """Deep square wells near threshold: delta = 3 pi to 41 pi, where the two repeated integrations
+    (a second matching radius, a looser tolerance) agreed to the last bit and the estimate was 0,
+    while the phase is 4e-16 to 2.9e-14 rad off (about one ulp of a 129 rad phase). The estimate
+    now holds at least 4 ulp of delta (as the critical values do). Exact: the square-well matching
+    (Schiff 1968, sec. 19; from memory) in mpmath at 40 digits, compared modulo pi in mpmath."""
+    E = np.array([0.006, 0.0127])
+    res = phase_shifts(E, "schrodinger", SquareWell(V0=V0, R=R), l=l)
+    assert res.success, res.message
+    for e, d, est in zip(E, res.delta, res.error_estimate):
+        diff = mpmath.mpf(float(d)) - _square_well_mod_pi(l, e, V0, R)
+        err = float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi)))
+        assert est >= 4 * np.spacing(abs(d)) > 0
+        assert err <= est, (e, d, err, est)
+
+
 def test_square_well_scattering_length_and_effective_range():
     # a = R - tan(K R)/K (Sakurai 1994, sec. 7.8, low-energy s-wave scattering by a square well;
     # standard). r_e: checked against k cot delta_0 of the closed form, extrapolated here.

@@ -171,6 +171,10 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
     residual = [m.residual for m in matches]
     unreached = [float(e) for e, ok in zip(E, reached) if not ok]
     delta = np.array(delta)
+    if estimate:
+        # the two repeated integrations can agree to the last bit (a deep well near threshold); no
+        # estimate is below the rounding of delta itself, taken as 4 ulp (as for critical values)
+        err = np.maximum(err, 4 * np.spacing(np.abs(delta)))
     # the branch is absolute (continuous in E); the largest step along the grid is kept as a diagnostic
     max_step = float(np.max(np.abs(np.diff(delta)))) if delta.size > 1 else 0.0
     worst_residual = float(np.nanmax(residual)) if len(residual) else 0.0

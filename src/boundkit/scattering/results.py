@@ -33,7 +33,8 @@ class PhaseShifts:
         the Coulomb phase.
     error_estimate : ndarray
         Absolute error estimate of delta, radians (largest change under a
-        second matching radius and a looser integration tolerance).
+        second matching radius and a looser integration tolerance; at least
+        4 ulp of delta).
     coulomb_phase : ndarray
         Reference phase theta (radians; 0 for a free tail): the wave goes like
         sin(k r - eta ln 2kr - l pi/2 + theta + delta).
