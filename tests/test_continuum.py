@@ -144,6 +144,23 @@ def test_square_well_scattering_length_and_effective_range():
     assert abs(res.effective_range - r_e) < 1e-6
 
 
+@pytest.mark.parametrize("V0, R", [(0.028841790073955712, 0.03771159990108188),
+                                   (0.18424047780339467, 0.05939112723968177), (-72.26289290074585, 2.8625358822830442)])
+def test_scattering_length_estimate_holds_the_rounding_of_its_subtraction(V0, R):
+    """a = R1 - u(R1)/u'(R1) from the zero-energy solution. A weak well (a = -1e-6 bohr against a range of
+    0.04 bohr) loses digits in that subtraction: a was 5.5e-12 (relative) off with an estimate of 0, the
+    repeated integrations agreeing to the last bit; a barrier (V0 < 0) likewise, 3e-16 bohr off. The
+    estimate now holds at least 4 ulp of the matching radius. Exact: a = R - tan(K R)/K, K^2 = 2 V0
+    (tanh for a barrier; Sakurai 1994, sec. 7.8, from memory), in mpmath at 40 digits."""
+    res = scattering_length("schrodinger", SquareWell(V0=V0, R=R))
+    assert res.success, res.message
+    with mpmath.workdps(40):
+        K = mpmath.sqrt(2 * abs(mpmath.mpf(V0)))
+        exact = R - (mpmath.tan(K * R) if V0 > 0 else mpmath.tanh(K * R)) / K
+        err = float(abs(mpmath.mpf(res.a) - exact))
+    assert res.a_error > 0 and err <= res.a_error, (res.a, float(exact), err, res.a_error)
+
+
 def test_hard_sphere_scattering_length_and_effective_range():
     # k cot(-k a) = -1/a + (a/3) k^2 + ...: a = R and r_e = 2R/3 (expansion of cot; standard)
     res = scattering_length("schrodinger", ZERO, hard_core=0.8)

@@ -266,7 +266,9 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
         runs[key] = [_length_pair(ch, raw) for raw in raws]
     (a, re), (a2, re2) = runs["main"]
     a3, re3 = runs["loose"][0]
-    a_err = max(abs(a - a2), abs(a - a3))
+    # a = R1 - u/u' loses the digits below the ulp of R1 (a weak well: a = -1e-6 bohr at R1 = 0.04), and
+    # the repeated integrations can agree to the last bit: no estimate below 4 ulp of that subtraction
+    a_err = max(abs(a - a2), abs(a - a3), 4 * float(np.spacing(max(R1, abs(a)))))
     re_err = max(abs(re - re2), abs(re - re3)) if schr and re is not None else None
     if not schr:
         re, re_err = _effective_range_from_phases(ch, a)

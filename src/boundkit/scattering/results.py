@@ -121,7 +121,8 @@ class ScatteringLength:
 
     Convention: k cot delta_0(k) = -1/a + r_e k^2 / 2 + O(k^4), so a hard
     sphere of radius R has a = +R and a weak attraction gives a < 0. Lengths
-    in bohr.
+    in bohr. ``a_error`` is the larger change under a second matching radius and a looser
+    integration, and at least 4 ulp of the matching radius (a = R1 - u/u' is a subtraction).
     """
 
     a: float
