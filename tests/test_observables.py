@@ -106,6 +106,21 @@ def test_density_at_origin_of_hydrogen_s_states():
         assert q.unit == f"bohr^-{1 + 2 * g:.6g}"
 
 
+@pytest.mark.parametrize("Z", [1, 3, 30])
+def test_an_integral_that_cancels_to_zero_carries_its_rounding(Z):
+    """Overlaps of different s levels vanish (eigenstates of one self-adjoint problem), and so does
+    <1s| r - 3/(2Z) |1s> (<r> = 3/(2Z) for a hydrogen-like 1s; Bethe and Salpeter 1957): integrals
+    whose integrand changes sign and cancels. Their rounding is about 1e-16 of the integral of the
+    integrand's absolute value, not of the (zero) result: the estimate's floor (2e-14) was taken
+    relative to the result, and <1s|3s> at Z = 30 came back 2.8e-16 with an estimate of 1.8e-16."""
+    s = boundkit.solve("schrodinger", "coulomb", {"Z": Z}, l=0, levels=4)
+    for a, b in ((0, 1), (0, 2), (1, 3), (2, 3)):
+        q = boundkit.matrix_element(s.levels[a], s.levels[b], lambda r: np.ones_like(r))
+        assert abs(q.value) <= q.error, (a, b, q)
+    q = expectation_value(s.levels[0], lambda r: r - 1.5 / Z)
+    assert abs(q.value) <= q.error, q
+
+
 def test_matrix_element_hydrogen_1s_2p_and_orthogonality():
     """<1s|r|2p> = 128 sqrt(6) / 243 = 2^7 sqrt(6) / 3^5 (exact; Bethe and Salpeter 1957 table of
     radial integrals, checked here by hand from the closed forms of P_1s and P_2p)."""

@@ -131,10 +131,17 @@ _PANEL_T, _PANEL_W = np.polynomial.legendre.leggauss(24)
 _PANEL_WIDTH = 0.5
 
 
-def _integral_panels(sa, sb, f, kind: str, breaks) -> float:
+def _integrand(sa, sb, r, f, kind: str, absolute: bool) -> np.ndarray:
+    """:func:`_pair_integrand`, or its absolute value."""
+    g = _pair_integrand(sa, sb, r, f, kind)
+    return np.abs(g) if absolute else g
+
+
+def _integral_panels(sa, sb, f, kind: str, breaks, absolute: bool = False) -> float:
     """integral_0^r_max by composite Gauss-Legendre in t = ln r, panels split at the elements'
     ends and at ``breaks`` (radii where f has a kink the nodes do not know of), the states
-    interpolated. Panels are at most _PANEL_WIDTH long in t."""
+    interpolated. Panels are at most _PANEL_WIDTH long in t. With ``absolute``, of the
+    integrand's absolute value."""
     grid = sa if sa.r[-1] >= sb.r[-1] else sb
     t_lo = math.log(min(sa.r[0], sb.r[0])) - _INNER_EFOLDS
     t_hi = math.log(grid.r[-1])
@@ -151,16 +158,17 @@ def _integral_panels(sa, sb, f, kind: str, breaks) -> float:
             x0, x1 = a + (b - a) * i / m, a + (b - a) * (i + 1) / m
             t = 0.5 * (x0 + x1) + 0.5 * (x1 - x0) * _PANEL_T
             rr = np.exp(t)
-            total += 0.5 * (x1 - x0) * float(np.sum(_PANEL_W * rr * _pair_integrand(sa, sb, rr, f, kind)))
+            total += 0.5 * (x1 - x0) * float(np.sum(_PANEL_W * rr * _integrand(sa, sb, rr, f, kind, absolute)))
     return total
 
 
-def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
+def _integral(sa, sb, f, kind: str = "density", breaks=(), absolute: bool = False) -> float:
     """integral_0^r_max of the integrand on the nodes of the state reaching further out
-    (or by panels, see :func:`_integral_panels`, when ``breaks`` are given)."""
+    (or by panels, see :func:`_integral_panels`, when ``breaks`` are given); with ``absolute``, of
+    its absolute value (the scale of the integral's rounding)."""
     if breaks:
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            total = _integral_panels(sa, sa if sb is None else sb, f, kind, breaks)
+            total = _integral_panels(sa, sa if sb is None else sb, f, kind, breaks, absolute)
         if not math.isfinite(total):
             raise ValueError("f: the integral does not converge for this level")
         return total
@@ -168,22 +176,24 @@ def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if sb is None or sb is sa:
             g = _nodal_integrand(sa, f, kind)
+            if absolute:
+                g = np.abs(g)
             sb = sa
         else:
-            g = _pair_integrand(sa, sb, grid.r, f, kind)
+            g = _integrand(sa, sb, grid.r, f, kind, absolute)
         body = float(np.sum(grid.weights * g))
         # [0, r_min]: Gauss-Legendre in t = ln r over _INNER_EFOLDS e-folds, dr = r dt
         r0 = min(sa.r[0], sb.r[0])
         t = math.log(r0) + 0.5 * _INNER_EFOLDS * (_GL_T - 1.0)
         rr = np.exp(t)
-        inner = 0.5 * _INNER_EFOLDS * float(np.sum(_GL_W * rr * _pair_integrand(sa, sb, rr, f, kind)))
+        inner = 0.5 * _INNER_EFOLDS * float(np.sum(_GL_W * rr * _integrand(sa, sb, rr, f, kind, absolute)))
         if sa.r[0] != sb.r[0]:      # the gap between the two first nodes (interpolated)
             lo, hi = r0, grid.r[0]
             if hi > lo:
                 x = 0.5 * (math.log(hi) + math.log(lo)) + 0.5 * (math.log(hi) - math.log(lo)) * _GL_T
                 rx = np.exp(x)
                 inner += 0.5 * (math.log(hi) - math.log(lo)) * float(
-                    np.sum(_GL_W * rx * _pair_integrand(sa, sb, rx, f, kind)))
+                    np.sum(_GL_W * rx * _integrand(sa, sb, rx, f, kind, absolute)))
     total = body + inner
     if not math.isfinite(total):
         raise ValueError("f: the integral does not converge for this level (check the power of r at the "
@@ -191,11 +201,14 @@ def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
     return total
 
 
-def _estimate(value: float, other: float | None) -> float:
+def _estimate(value: float, other: float | None, scale: float | None = None) -> float:
+    """The change from the previous resolution (``other``), never below the spectral family's rounding
+    floor: 2e-14 (as for the energies) of ``scale``, the integral of the integrand's absolute value
+    (an integral that cancels, an overlap or <r - <r>>, keeps the rounding of its parts), or of
+    |value| when no scale is given."""
     if other is None:
         return math.inf
-    # never below the spectral family's rounding floor (2e-14 relative, as for the energies)
-    return max(abs(value - other), 2e-14 * abs(value))
+    return max(abs(value - other), 2e-14 * (abs(value) if scale is None else scale))
 
 
 def _check_callable(f) -> None:
@@ -240,7 +253,8 @@ def expectation_value(level, f: Callable[[np.ndarray], np.ndarray], *, name: str
     breaks = tuple(breaks)
     value = _integral(level.state, None, f, kind, breaks)
     prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind, breaks)
-    return Quantity(name, value, _estimate(value, prev), unit, _note(level))
+    scale = _integral(level.state, None, f, kind, breaks, absolute=True)
+    return Quantity(name, value, _estimate(value, prev, scale), unit, _note(level))
 
 
 def expectation(level, f: Callable[[np.ndarray], np.ndarray]) -> float:
@@ -341,7 +355,7 @@ def matrix_element(level_a, level_b, f: Callable[[np.ndarray], np.ndarray], *,
     swapped = _integral(sb, sa, f, kind) if sa.r[-1] != sb.r[-1] else value
     pa, pb = level_a.previous_state, level_b.previous_state
     prev = None if pa is None or pb is None else _integral(pa, pb, f, kind)
-    err = max(_estimate(value, prev), abs(value - swapped))
+    err = max(_estimate(value, prev, _integral(sa, sb, f, kind, absolute=True)), abs(value - swapped))
     return Quantity(f"<{level_a.label}|f|{level_b.label}>", value, err, "a.u.", _note(level_a))
 
 
