@@ -30,6 +30,8 @@ decayed by about e^-42).
 """
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 __all__ = ["barycentric_weights", "interpolate_f", "evaluate", "origin_coefficient", "derivative_t",
@@ -56,6 +58,20 @@ def barycentric_weights(x: np.ndarray) -> np.ndarray:
     sign = np.prod(np.sign(diff), axis=1)
     b = sign * np.exp(-(logabs - logabs.min()))
     return b / np.max(np.abs(b))
+
+
+@lru_cache(maxsize=8192)
+def _weights_of(nodes: bytes) -> np.ndarray:
+    """:func:`barycentric_weights` of the float64 nodes packed in ``nodes`` (read-only, cached: a
+    state's elements are interpolated on again and again, by every matrix element and line that
+    involves it, and their weights were most of the time of a transitions table)."""
+    b = barycentric_weights(np.frombuffer(nodes, dtype=float))
+    b.flags.writeable = False
+    return b
+
+
+def _weights(nodes: np.ndarray) -> np.ndarray:
+    return _weights_of(np.ascontiguousarray(nodes, dtype=float).tobytes())
 
 
 def _bary_eval(tn: np.ndarray, fn: np.ndarray, b: np.ndarray, t: np.ndarray) -> np.ndarray:
@@ -94,12 +110,12 @@ def interpolate_f(tn: np.ndarray, fn: np.ndarray, elements, family: str, t: np.n
             for s in np.unique(first):
                 sel = idx[first == s]
                 nodes = tn[s:s + m]
-                out[sel] = _bary_eval(nodes, fn[s:s + m], barycentric_weights(nodes), t[sel])
+                out[sel] = _bary_eval(nodes, fn[s:s + m], _weights(nodes), t[sel])
         else:
             nodes = tn[a:b + 1]
             inside = (t >= nodes[0]) & (t <= nodes[-1])
             if inside.any():
-                out[inside] = _bary_eval(nodes, fn[a:b + 1], barycentric_weights(nodes), t[inside])
+                out[inside] = _bary_eval(nodes, fn[a:b + 1], _weights(nodes), t[inside])
     return out
 
 
