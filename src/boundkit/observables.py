@@ -131,16 +131,15 @@ _PANEL_T, _PANEL_W = np.polynomial.legendre.leggauss(24)
 _PANEL_WIDTH = 0.5
 
 
-def _integrand(sa, sb, r, f, kind: str, absolute: bool) -> np.ndarray:
-    """:func:`_pair_integrand`, or its absolute value."""
-    g = _pair_integrand(sa, sb, r, f, kind)
-    return np.abs(g) if absolute else g
+def _sums(w: np.ndarray, g: np.ndarray) -> np.ndarray:
+    """(sum of w g, sum of w |g|): a quadrature of the integrand and of its absolute value."""
+    return np.array([float(np.sum(w * g)), float(np.sum(w * np.abs(g)))])
 
 
-def _integral_panels(sa, sb, f, kind: str, breaks, absolute: bool = False) -> float:
+def _integral_panels(sa, sb, f, kind: str, breaks) -> np.ndarray:
     """integral_0^r_max by composite Gauss-Legendre in t = ln r, panels split at the elements'
     ends and at ``breaks`` (radii where f has a kink the nodes do not know of), the states
-    interpolated. Panels are at most _PANEL_WIDTH long in t. With ``absolute``, of the
+    interpolated. Panels are at most _PANEL_WIDTH long in t. Returns the integral and that of the
     integrand's absolute value."""
     grid = sa if sa.r[-1] >= sb.r[-1] else sb
     t_lo = math.log(min(sa.r[0], sb.r[0])) - _INNER_EFOLDS
@@ -151,54 +150,56 @@ def _integral_panels(sa, sb, f, kind: str, breaks, absolute: bool = False) -> fl
             cuts.update((math.log(s.r[a]), math.log(s.r[b])))
     cuts.update(math.log(b) for b in breaks if b > 0)
     edges = sorted(c for c in cuts if t_lo <= c <= t_hi)
-    total = 0.0
+    total = np.zeros(2)
     for a, b in zip(edges[:-1], edges[1:]):
         m = max(1, math.ceil((b - a) / _PANEL_WIDTH))
         for i in range(m):
             x0, x1 = a + (b - a) * i / m, a + (b - a) * (i + 1) / m
             t = 0.5 * (x0 + x1) + 0.5 * (x1 - x0) * _PANEL_T
             rr = np.exp(t)
-            total += 0.5 * (x1 - x0) * float(np.sum(_PANEL_W * rr * _integrand(sa, sb, rr, f, kind, absolute)))
+            total += 0.5 * (x1 - x0) * _sums(_PANEL_W * rr, _pair_integrand(sa, sb, rr, f, kind))
     return total
 
 
-def _integral(sa, sb, f, kind: str = "density", breaks=(), absolute: bool = False) -> float:
-    """integral_0^r_max of the integrand on the nodes of the state reaching further out
-    (or by panels, see :func:`_integral_panels`, when ``breaks`` are given); with ``absolute``, of
-    its absolute value (the scale of the integral's rounding)."""
+def _integrals(sa, sb, f, kind: str = "density", breaks=()) -> tuple[float, float]:
+    """(integral_0^r_max of the integrand, that of its absolute value: the scale of the first one's
+    rounding), on the nodes of the state reaching further out (or by panels, see
+    :func:`_integral_panels`, when ``breaks`` are given)."""
     if breaks:
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            total = _integral_panels(sa, sa if sb is None else sb, f, kind, breaks, absolute)
-        if not math.isfinite(total):
+            total = _integral_panels(sa, sa if sb is None else sb, f, kind, breaks)
+        if not math.isfinite(total[0]):
             raise ValueError("f: the integral does not converge for this level")
-        return total
+        return float(total[0]), float(total[1])
     grid = sa if sb is None or sa.r[-1] >= sb.r[-1] else sb
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if sb is None or sb is sa:
             g = _nodal_integrand(sa, f, kind)
-            if absolute:
-                g = np.abs(g)
             sb = sa
         else:
-            g = _integrand(sa, sb, grid.r, f, kind, absolute)
-        body = float(np.sum(grid.weights * g))
+            g = _pair_integrand(sa, sb, grid.r, f, kind)
+        body = _sums(grid.weights, g)
         # [0, r_min]: Gauss-Legendre in t = ln r over _INNER_EFOLDS e-folds, dr = r dt
         r0 = min(sa.r[0], sb.r[0])
         t = math.log(r0) + 0.5 * _INNER_EFOLDS * (_GL_T - 1.0)
         rr = np.exp(t)
-        inner = 0.5 * _INNER_EFOLDS * float(np.sum(_GL_W * rr * _integrand(sa, sb, rr, f, kind, absolute)))
+        inner = 0.5 * _INNER_EFOLDS * _sums(_GL_W * rr, _pair_integrand(sa, sb, rr, f, kind))
         if sa.r[0] != sb.r[0]:      # the gap between the two first nodes (interpolated)
             lo, hi = r0, grid.r[0]
             if hi > lo:
                 x = 0.5 * (math.log(hi) + math.log(lo)) + 0.5 * (math.log(hi) - math.log(lo)) * _GL_T
                 rx = np.exp(x)
-                inner += 0.5 * (math.log(hi) - math.log(lo)) * float(
-                    np.sum(_GL_W * rx * _integrand(sa, sb, rx, f, kind, absolute)))
+                inner += 0.5 * (math.log(hi) - math.log(lo)) * _sums(_GL_W * rx, _pair_integrand(sa, sb, rx, f, kind))
     total = body + inner
-    if not math.isfinite(total):
+    if not math.isfinite(total[0]):
         raise ValueError("f: the integral does not converge for this level (check the power of r at the "
                          "origin: the integrand must vanish faster than 1/r)")
-    return total
+    return float(total[0]), float(total[1])
+
+
+def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
+    """integral_0^r_max of the integrand (:func:`_integrals`)."""
+    return _integrals(sa, sb, f, kind, breaks)[0]
 
 
 def _estimate(value: float, other: float | None, scale: float | None = None) -> float:
@@ -251,9 +252,8 @@ def expectation_value(level, f: Callable[[np.ndarray], np.ndarray], *, name: str
     """
     _check_callable(f)
     breaks = tuple(breaks)
-    value = _integral(level.state, None, f, kind, breaks)
+    value, scale = _integrals(level.state, None, f, kind, breaks)
     prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind, breaks)
-    scale = _integral(level.state, None, f, kind, breaks, absolute=True)
     return Quantity(name, value, _estimate(value, prev, scale), unit, _note(level))
 
 
@@ -351,11 +351,11 @@ def matrix_element(level_a, level_b, f: Callable[[np.ndarray], np.ndarray], *,
     sa, sb = level_a.state, level_b.state
     if sa is sb:
         return expectation_value(level_a, f, name=f"<{level_a.label}|f|{level_a.label}>", kind=kind)
-    value = _integral(sa, sb, f, kind)
+    value, scale = _integrals(sa, sb, f, kind)
     swapped = _integral(sb, sa, f, kind) if sa.r[-1] != sb.r[-1] else value
     pa, pb = level_a.previous_state, level_b.previous_state
     prev = None if pa is None or pb is None else _integral(pa, pb, f, kind)
-    err = max(_estimate(value, prev, _integral(sa, sb, f, kind, absolute=True)), abs(value - swapped))
+    err = max(_estimate(value, prev, scale), abs(value - swapped))
     return Quantity(f"<{level_a.label}|f|{level_b.label}>", value, err, "a.u.", _note(level_a))
 
 
