@@ -252,10 +252,27 @@ def _initial_radius(eq, pot, levels: int, L: float, E_top: float | None = None) 
     n_top = levels + eq.l
     if pot.tail_charge > 0:
         n_top = levels - 1 + _hydrogenic_l1(eq, pot)
-        return _outer_radius(eq, pot, -eq.mass * pot.tail_charge**2 / (2 * n_top**2), L)
+        return _outer_radius(eq, pot, _hydrogenic_guess(eq, pot, n_top), L)
     if pot.confining:
         return _outer_radius(eq, pot, _confining_top(eq, pot, levels, L) if E_top is None else E_top, L)
     return max(L * 20.0 * n_top**2, 4 * _well_radius(pot, L))
+
+
+def _hydrogenic_guess(eq, pot, n: float) -> float:
+    """Hydrogen-like energy -m Z^2 / (2 n^2) of the tail charge Z (vector plus scalar), for layouts
+    and boxes; for the relativistic equations never deeper than halfway down their window, -m c^2.
+
+    Notes
+    -----
+    A tail charge beyond sqrt(2) / alpha = 194 per unit of n (a Coulomb potential half vector and half
+    scalar, S = V = -Z/r, with Z > 97) puts -m Z^2 / 2 below -2 m c^2, where no level lies: the Dirac
+    eliminated form has its pole there (the channel was refused for that pole) and a Klein-Gordon
+    layout for that energy ran for minutes. The levels of such a potential lie within the window (for
+    S = V: E = -2 m Z^2 / (n^2 + Z^2 / c^2), tests/test_spin_symmetric_coulomb.py).
+    """
+    E = -eq.mass * pot.tail_charge**2 / (2 * n**2)
+    lo = eq.energy_window(pot)[0]
+    return max(E, 0.5 * lo) if math.isfinite(lo) else E
 
 
 def _hydrogenic_l1(eq, pot) -> float:
@@ -551,8 +568,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     energies = [E_top]
     trusted = False
     if pot.tail_charge > 0 and not pot.confining:     # hydrogen-like guesses for the layout
-        zt, l1 = pot.tail_charge, _hydrogenic_l1(eq, pot)
-        energies = [-eq.mass * zt**2 / (2 * l1**2), -eq.mass * zt**2 / (2 * (want - 1 + l1) ** 2)]
+        l1 = _hydrogenic_l1(eq, pot)
+        energies = [_hydrogenic_guess(eq, pot, l1), _hydrogenic_guess(eq, pot, want - 1 + l1)]
         trusted = True
     E0 = energies[0] if math.isfinite(energies[0]) else 0.0
     rung = None

@@ -53,8 +53,10 @@ class Dirac(RadialEquation):
         return s.r.dtype.type(C_AU)
 
     def _M(self, E, s):
+        # S - V first: with S = V (spin symmetry) it is exactly 0, where (E + 2mc^2 - V) + S lost E + 2mc^2
+        # in the rounding of |V| near a Coulomb origin (1e14 hartree at Z = 160) and left a zero divisor
         c = self._c(s)
-        return E + 2 * s.r.dtype.type(self.mass) * c * c - s.V + s.S
+        return E + 2 * s.r.dtype.type(self.mass) * c * c + (s.S - s.V)
 
     def p(self, E, s: Sample):
         c = self._c(s)

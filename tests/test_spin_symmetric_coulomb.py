@@ -1,0 +1,66 @@
+"""A Coulomb potential that is half vector, half Lorentz scalar: S = V = -Z/r.
+
+With S = V the Dirac equation's small component is Q = c (P' + kappa P / r) / (E + 2 m c^2) (no
+potential in the denominator), and the large component obeys
+
+    -(c^2 / (E + 2 m c^2)) (P'' - l (l + 1) P / r^2) + (V + S) P = E P,
+
+E the binding energy, l the orbital of P (kappa (kappa + 1) = l (l + 1)). The Klein-Gordon equation
+(E + m c^2 - V)^2 = p^2 c^2 + (m c^2 + S)^2 gives the same radial equation, since with S = V its right
+side factorises as (E - 2 V)(E + 2 m c^2). This is the Schrodinger Coulomb problem of charge 2Z with
+the energy-dependent mass m* = (E + 2 m c^2) / (2 c^2), so E = -m* (2Z)^2 / (2 n^2), which solves to
+
+    E_n = -2 m Z^2 / (n^2 + Z^2 / c^2),    n = n_r + l + 1,
+
+for every Z (nothing dives: E > -2 m c^2), the same for kappa = -(l + 1) and kappa = l. Derived here
+(the reduction is that of the spin-symmetric limit; see also exact.dirac_spin_symmetric_oscillator);
+the reference is evaluated in mpmath at 40 digits with alpha from scipy.constants (CODATA).
+
+Before: the Dirac channels with Z > 137 were refused ("E + 2mc^2 - V + S changes sign", although -V + S
+is 0 everywhere: a hydrogen-like layout guess of charge 2Z, -m (2Z)^2 / 2, lay below -2 m c^2), and the
+Klein-Gordon s channel with Z >= 150 ran for more than 30 s without an answer.
+"""
+from __future__ import annotations
+
+import mpmath
+import pytest
+import scipy.constants as sc
+
+import boundkit
+
+
+def _exact(Z: float, n: int, m: float) -> float:
+    with mpmath.workdps(40):
+        c = 1 / mpmath.mpf(sc.fine_structure)
+        return float(-2 * m * mpmath.mpf(Z) ** 2 / (n * n + mpmath.mpf(Z) ** 2 / c**2))
+
+
+CHANNELS = [("dirac", {"kappa": -1}), ("dirac", {"kappa": 1}), ("dirac", {"kappa": -3}),
+            ("klein-gordon", {"l": 0}), ("klein-gordon", {"l": 2})]
+
+
+@pytest.mark.parametrize("Z", [1, 50, 137, 160, 300])
+@pytest.mark.parametrize("equation, channel", CHANNELS, ids=[f"{e}-{list(c.values())[0]}" for e, c in CHANNELS])
+def test_spin_symmetric_coulomb_levels(equation, channel, Z):
+    res = boundkit.solve(equation, "coulomb", {"Z": Z}, scalar="coulomb", levels=3, tol=1e-12, **channel)
+    assert res.status == "ok", res.message
+    m = res.settings["mass_atomic_units"]
+    kappa = channel.get("kappa")
+    l = channel["l"] if kappa is None else (kappa if kappa > 0 else -kappa - 1)
+    assert [lv.nodes for lv in res.levels] == [0, 1, 2]
+    for lv in res.levels:
+        exact = _exact(Z, lv.nodes + l + 1, m)
+        err = abs(lv.energy - exact)
+        assert err <= 1e-12 * abs(exact), (lv.label, lv.energy, exact)
+        assert err <= 2 * lv.error_estimate, (lv.label, err, lv.error_estimate)
+
+
+@pytest.mark.parametrize("Z", [50, 160])
+def test_spin_symmetric_coulomb_doublets_are_degenerate(Z):
+    """kappa = -(l + 1) and kappa = l (here 2p3/2 and 2p1/2, 3d5/2 and 3d3/2) share their energies."""
+    for l in (1, 2):
+        a = boundkit.solve("dirac", "coulomb", {"Z": Z}, scalar="coulomb", kappa=-(l + 1), levels=2, tol=1e-12)
+        b = boundkit.solve("dirac", "coulomb", {"Z": Z}, scalar="coulomb", kappa=l, levels=2, tol=1e-12)
+        for x, y in zip(a.levels, b.levels):
+            assert x.label != y.label
+            assert abs(x.energy - y.energy) <= 2e-12 * abs(x.energy), (x.label, y.label)
