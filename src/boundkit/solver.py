@@ -268,7 +268,7 @@ def _hydrogenic_guess(eq, pot, n: float) -> float:
     scalar, S = V = -Z/r, with Z > 97) puts -m Z^2 / 2 below -2 m c^2, where no level lies: the Dirac
     eliminated form has its pole there (the channel was refused for that pole) and a Klein-Gordon
     layout for that energy ran for minutes. The levels of such a potential lie within the window (for
-    S = V: E = -2 m Z^2 / (n^2 + Z^2 / c^2), tests/test_spin_symmetric_coulomb.py).
+    S = V: E = -2 m Z^2 / (n^2 + Z^2 / c^2), tests/test_spin_symmetric.py).
     """
     E = -eq.mass * pot.tail_charge**2 / (2 * n**2)
     lo = eq.energy_window(pot)[0]
@@ -636,7 +636,12 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         rungs.append(rung)
         _record(hist, rung.located.energies)
         done, floor = finished(rung.located.energies)
-        if not (done or floor or n == ladder[-1]):
+        # a rung that located fewer levels than wanted (Newton's method did not reach a shallow level
+        # from guesses linearised far below it) is mended by counting now, so the rungs above start
+        # from every level; left to the top rung, the ladder climbed to its end and the mended level
+        # had one rung of history (an estimate of inf: Dirac S = V Hulthen, Z = 130, 8.7 s)
+        short = len(rung.located.energies) < want and not study
+        if not (done or floor or short or n == ladder[-1]):
             E0 = 0.5 * (rung.located.energies[0] + rung.located.energies[-1]) if rung.located.energies else E0
             continue
         loc = certify_levels(rung.op, rung.located, want, lo, hi, scale)
