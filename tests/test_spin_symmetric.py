@@ -104,3 +104,33 @@ def test_spin_symmetric_hulthen_all_levels(equation, channel, Z, delta):
         exact = _hulthen_exact(Z, delta, lv.nodes + 1, m)
         err = abs(lv.energy - exact)
         assert err <= 1e-12 * abs(exact) and err <= 2 * lv.error_estimate, (lv.label, lv.energy, exact)
+
+
+# --- and for a confining one: S = V = F r (a quark-model string with no Klein paradox: V - S = 0) -----
+def _linear_exact(F: float, k: int, m: float) -> float:
+    """V + S = 2 F r: the s levels of a linear well with mass M are E_k = ((2F)^2 / (2M))^(1/3) (-a_k), a_k the
+    k-th zero of Ai (Abramowitz & Stegun 10.4; boundkit.exact.linear); with M = (E + 2 m c^2) / (2 c^2) an
+    equation for E, solved in mpmath at 40 digits."""
+    with mpmath.workdps(40):
+        c = 1 / mpmath.mpf(sc.fine_structure)
+        a = -mpmath.airyaizero(k)
+        third = mpmath.mpf(1) / 3
+        f = lambda E: E - ((2 * F) ** 2 / (2 * (E + 2 * m * c**2) / (2 * c**2))) ** third * a  # noqa: E731
+        return float(mpmath.findroot(f, ((2 * F) ** 2 / (2 * m)) ** third * a))
+
+
+@pytest.mark.parametrize("equation, channel", [("dirac", {"kappa": -1}), ("klein-gordon", {"l": 0})])
+@pytest.mark.parametrize("F, particle", [(0.003, None), (2.25, "muon"), (391.0, None), (3e4, None), (3e5, None)])
+def test_spin_symmetric_linear_well(equation, channel, F, particle):
+    """From weakly relativistic (F = 0.003) to strongly (F = 3e5: the 4s at 1.7 m c^2). Before, F = 3e4
+    and 3e5 failed inside numpy ('Maximum allowed size exceeded'): the first box's WKB search for an energy
+    above the levels went below -2 m c^2, where the relativistic forms change sign and its count of levels
+    means nothing, and came back with -7.5e300 hartree."""
+    res = boundkit.solve(equation, "linear", {"F": F}, scalar="linear", levels=4, tol=1e-12, particle=particle,
+                         **channel)
+    assert res.status == "ok", res.message
+    m = res.settings["mass_atomic_units"]
+    for lv in res.levels:
+        exact = _linear_exact(F, lv.nodes + 1, m)
+        err = abs(lv.energy - exact)
+        assert err <= 1e-12 * abs(exact) and err <= 2 * lv.error_estimate, (lv.label, lv.energy, exact)

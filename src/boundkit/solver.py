@@ -315,9 +315,12 @@ def _confining_top(eq, pot, levels: int, L: float) -> float:
     target = levels + 1.0
     if not count(E_old) > 4 * target:
         return E_old
-    lo, hi = -abs(E_old), E_old
-    while count(lo) > target and lo > -1e300:
-        lo *= 16
+    # never below the window (-2 m c^2 for Klein-Gordon and Dirac): there the relativistic forms change
+    # sign, the count means nothing, and the search went on to -1e300 (a Dirac S = V linear well)
+    floor = max(eq.energy_window(pot)[0], -1e300)
+    lo, hi = max(-abs(E_old), floor), E_old
+    while count(lo) > target and lo > floor:
+        lo = max(16 * lo, floor)
     for _ in range(200):
         mid = 0.5 * (lo + hi)
         if count(mid) > target:
