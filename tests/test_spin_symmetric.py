@@ -22,6 +22,7 @@ Klein-Gordon s channel with Z >= 150 ran for more than 30 s without an answer.
 """
 from __future__ import annotations
 
+import functools
 import math
 
 import mpmath
@@ -134,3 +135,44 @@ def test_spin_symmetric_linear_well(equation, channel, F, particle):
         exact = _linear_exact(F, lv.nodes + 1, m)
         err = abs(lv.energy - exact)
         assert err <= 1e-12 * abs(exact) and err <= 2 * lv.error_estimate, (lv.label, lv.energy, exact)
+
+
+# --- a deep S = V Woods-Saxon well: the lowest level decays the slowest -----------------------------------
+@functools.lru_cache(maxsize=None)
+def _woods_saxon_shooting(depth: float, R: float, a: float, E_lo: float, E_hi: float) -> float:
+    """The s level of V = S = -depth / (1 + exp((r - R)/a)) between E_lo and E_hi (electron, atomic units):
+    u'' = 2 m* (V + S - E) u with m* = (E + 2 c^2) / (2 c^2) (the module docstring), integrated outwards
+    from u = r with scipy's DOP853 (rtol 1e-13) to r = 5 bohr, where u' + k u = 0 with k = sqrt(-2 m* E) is
+    the decaying solution; Brent's method on that mismatch. Independent of boundkit's discretizations."""
+    from scipy.integrate import solve_ivp
+    from scipy.optimize import brentq
+    from scipy.special import expit
+
+    c2 = 1 / sc.fine_structure**2
+
+    def mismatch(E):
+        m = (E + 2 * c2) / (2 * c2)
+        vs = lambda r: -2 * depth * expit((R - r) / a)  # noqa: E731
+        sol = solve_ivp(lambda r, y: [y[1], 2 * m * (vs(r) - E) * y[0]], (1e-12, 5.0), [1e-12, 1.0],
+                        method="DOP853", rtol=1e-13, atol=1e-300)
+        u, du = sol.y[:, -1]
+        return (du + math.sqrt(-2 * m * E) * u) / math.hypot(u, du)
+
+    return brentq(mismatch, E_lo, E_hi, xtol=1e-12, rtol=1e-15)
+
+
+@pytest.mark.parametrize("equation, channel", [("dirac", {"kappa": -1}), ("klein-gordon", {"l": 0})])
+def test_deep_spin_symmetric_well_box_holds_the_lowest_level(equation, channel):
+    """V = S = Woods-Saxon of depth 68568 hartree: the 1s lies 51.5 hartree above -2 m c^2, so its mass
+    (E + 2 m c^2)/(2 c^2) is 0.0014 m and it decays more slowly than the 2s. The first box was fitted to
+    the box-fitting rung's (wrong) levels, the count then found the right ones, and the box stayed: the
+    1s came back 3.7e-8 (Dirac) and 2.8e-9 (Klein-Gordon) too high, with estimates of 7.5e-10 and status
+    ok. A box the mended levels overflow is now refitted and the ladder restarted."""
+    p = {"depth": 68568.2845679413, "radius": 0.12931651687354492, "diffuseness": 0.005886451796075761}
+    res = boundkit.solve(equation, "woods-saxon", p, scalar="woods-saxon", levels=2, tol=1e-11, **channel)
+    assert res.status == "ok", res.message
+    ref = (_woods_saxon_shooting(p["depth"], p["radius"], p["diffuseness"], -37510.0, -37500.0),
+           _woods_saxon_shooting(p["depth"], p["radius"], p["diffuseness"], -37300.0, -37200.0))
+    for lv, E in zip(res.levels, ref):
+        err = abs(lv.energy - E)
+        assert err <= 1e-11 * abs(E) and err <= 2 * lv.error_estimate, (lv.label, lv.energy, E)
