@@ -907,11 +907,28 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
                    extra, t0)
 
 
+def _potential_range(eq, pot) -> float:
+    """Radius beyond which 2 m r^2 |V + S| stays below 1e-3 (the weakest strength the natural length
+    looks for): the potential cannot hold a turning point out there but of a level that shallow."""
+    r = _length_radii()
+    s = _sample(pot, r, scan=True)
+    v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
+    with np.errstate(over="ignore", invalid="ignore"):
+        strong = np.nonzero(2 * eq.mass * r**2 * np.abs(v) >= 1e-3)[0]
+    return float(r[strong[-1]]) if strong.size else 0.0
+
+
 def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float) -> int:
-    """Bound levels of a short-range potential below the threshold ``hi``, counted on a far box."""
+    """Bound levels of a short-range potential below the threshold ``hi``, counted on a far box.
+
+    The box reaches 1e4 natural lengths, and ten times the potential's range (:func:`_potential_range`):
+    a long-ranged well (a Yukawa potential screened at 3700 natural lengths) has levels that turn
+    round beyond 1e4 L, and a box that cuts them off squeezes them up to the threshold and out of the
+    count (tests/test_level_count.py)."""
     from .ladder import far_count
 
-    r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L))
+    r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L),
+                10 * _potential_range(eq, pot))
     return far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
 
 

@@ -1,0 +1,46 @@
+"""The number of bound levels of a short-range potential (levels='all'), checked by a scaling law.
+
+The Schrodinger equation with mass m in V(r) is, with s = sqrt(m) r, the equation with mass 1 in
+V(s / sqrt(m)), at the same energies (common practice: a change of length unit). A Yukawa potential
+-Z exp(-r / lambda) / r thus has the levels of -Z sqrt(m) exp(-s / (lambda sqrt(m))) / s for an electron:
+the same number of them and the same energies.
+
+Before: a muon in Yukawa(Z = 1.129, lambda = 8.2 bohr) had 44 bound s levels and the electron in the scaled
+potential 43, both with status 'ok' and 'all ... bound level(s)'. The levels were counted on a far box of
+1e4 natural lengths (22 bohr for the muon), but the top level (-0.00187 hartree) turns round at 25.8 bohr:
+the box squeezed it up to the threshold, and 2 % of difference in the two natural lengths decided which
+side of it. The far box now also reaches ten times the radius beyond which 2 m r^2 |V| < 1e-3.
+"""
+from __future__ import annotations
+
+import math
+
+import pytest
+
+import boundkit
+
+
+@pytest.mark.parametrize("potential, params, scaled", [
+    ("yukawa", {"Z": 1.128892320192634, "screening_length": 8.201338958553052},
+     lambda p, s: {"Z": p["Z"] * s, "screening_length": p["screening_length"] * s}),
+    ("hulthen", {"Z": 4.479961372072959, "delta": 0.06807964816260993},
+     lambda p, s: {"Z": p["Z"] * s, "delta": p["delta"] / s}),
+])
+def test_level_count_obeys_the_scaling_law(potential, params, scaled):
+    heavy = boundkit.solve("schrodinger", potential, params, l=0, levels="all", tol=1e-8, particle="muon")
+    s = math.sqrt(heavy.settings["mass_atomic_units"])
+    light = boundkit.solve("schrodinger", potential, scaled(params, s), l=0, levels="all", tol=1e-8)
+    assert heavy.status == light.status == "ok"
+    assert len(heavy.levels) == len(light.levels)
+    for a, b in zip(heavy.levels, light.levels):
+        assert a.label == b.label
+        assert abs(a.energy - b.energy) <= 2 * (a.error_estimate + b.error_estimate), (a.label, a.energy, b.energy)
+
+
+def test_hulthen_count_is_the_exact_one():
+    """Hulthen s levels exist for n < sqrt(2 Z m / delta) (E_n = -(Z m / n - n delta / 2)^2 / (2 m); Flugge 1971,
+    from memory): 61 levels for Z = 4.48 with a muon and delta = 0.0681."""
+    res = boundkit.solve("schrodinger", "hulthen", {"Z": 4.479961372072959, "delta": 0.06807964816260993}, l=0,
+                         levels="all", tol=1e-8, particle="muon")
+    m = res.settings["mass_atomic_units"]
+    assert len(res.levels) == math.ceil(math.sqrt(2 * 4.479961372072959 * m / 0.06807964816260993)) - 1
