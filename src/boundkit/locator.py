@@ -334,8 +334,7 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
         energies = list(loc.energies[:want])
         nxt = loc.energies[want] if len(loc.energies) > want else loc.next_energy
         E_top = _top(energies, nxt, hi)
-        if (all(b - a > _SAME * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
-                and E_top < hi and count_below(op, E_top) == want):
+        if _distinct(energies) and E_top < hi and count_below(op, E_top) == want:
             return Located(tuple(energies), tuple(loc.vectors[:want]), E_top, want, None, 0, True, 0,
                            checked=True, next_energy=nxt)
     offset, bound = _window_counts(op, lo, hi)
@@ -343,8 +342,7 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
     energies, vectors = list(loc.energies[:m]), list(loc.vectors[:m])
     nxt = loc.energies[m] if len(loc.energies) > m else loc.next_energy
     E_top = _top(energies, nxt, hi)
-    ok = (len(energies) == m and all(b - a > _SAME * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
-          and (m == 0 or count_below(op, E_top) == m + offset))
+    ok = len(energies) == m and _distinct(energies) and (m == 0 or count_below(op, E_top) == m + offset)
     fallback = 0
     if not ok and sure:
         energies, vectors, fallback = _by_bisection(op, m, lo, hi, scale, energies, offset)
@@ -352,6 +350,11 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
         ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m + offset)
     return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok, offset,
                    checked=True, next_energy=nxt)
+
+
+def _distinct(energies) -> bool:
+    """Whether ascending energies are distinct levels: neighbours more than _SAME (relative) apart."""
+    return all(b - a > _SAME * max(abs(a), abs(b)) for a, b in zip(energies, energies[1:]))
 
 
 def _window_counts(op: SymmetricOperator, lo: float, hi: float) -> tuple[int, int | None]:
