@@ -314,3 +314,41 @@ def test_mesonic_atom_levels_on_every_rung(particle):
     assert res.status == "ok", res.message
     assert _rungs_distinct(res), [lv["energies"] for lv in res.diagnostics["levels"]]
     assert not any("bisection" in note for note in res.diagnostics["notes"]), res.diagnostics["notes"]
+
+
+# --- a level the rung skipped is mended by counting around the levels it found ----------------------
+def test_a_skipped_level_is_mended_by_counting_alone(monkeypatch):
+    """A rung that located all but one of its levels: the certificate keeps the levels the count
+    confirms, brackets only the skipped one, and solves it by Newton's method from a bracket closed by
+    counting, with no dense eigen-solve. It used to bisect every level again with a Brent search on
+    the k-th eigenvalue of the dense pencil (about nine dense solves a level): a Dirac Woods-Saxon
+    well (depth 1e4 hartree, kappa = -3) with 60 levels took 46 s on one rung of 925 unknowns, and
+    116 s more on the next, whose certificate failed because the 'next level' above the mended ones
+    was the stale guess two levels up. Hydrogen levels on one grid (Bethe and Salpeter 1957:
+    E_n = -1/(2 n^2)) stand in for that well here."""
+    import scipy.linalg
+
+    from boundkit import locator
+    from boundkit.ladder import make_operator
+    from boundkit.solver import sampler, setup
+
+    eq, pot, _ = setup("schrodinger", "coulomb", {"Z": 1}, l=0)
+    edges = list(np.linspace(math.log(1e-8), math.log(400.0), 25))
+    op = make_operator(eq, sampler(pot), 1.0, 1.0, edges, [False] * 24, 16, -0.5)
+    full = locator.locate_levels(op, 8, -math.inf, 0.0, -0.5, 0.1)
+    assert full.certified and len(full.energies) == 8
+    for n, E in enumerate(full.energies[:5], start=1):
+        assert _rel(E, -0.5 / n**2) < 1e-10
+    keep = [0, 1, 3, 4, 5, 6]           # the third level skipped; six asked for
+    skipped = locator.Located(tuple(full.energies[i] for i in keep), tuple(full.vectors[i] for i in keep),
+                              math.inf, -1, None, 0, False, checked=False, next_energy=full.energies[7])
+    dense = []
+    real_eigh = scipy.linalg.eigh
+    monkeypatch.setattr(locator.sla, "eigh", lambda *a, **k: dense.append(1) or real_eigh(*a, **k))
+    loc = locator.certify_levels(op, skipped, 6, -math.inf, 0.0, 0.1)
+    assert loc.certified and loc.fallback == 1 and not dense, (loc.fallback, len(dense))
+    assert all(_rel(a, b) < 1e-14 for a, b in zip(loc.energies, full.energies[:6])), (loc.energies, full.energies)
+    assert len(loc.vectors) == 6
+    # the level above the mended ones is the seventh found, not the stale guess the rung carried
+    assert loc.next_energy == full.energies[6] and locator.count_below(op, loc.E_top) == 6
+

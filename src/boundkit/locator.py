@@ -24,7 +24,11 @@ is counted by static condensation of the element interiors
   det K(E) = 0 lie below an energy E+ and N(E+) = m, they are exactly the m
   lowest levels, none skipped and none spurious;
 * a bracket for the k-th level when the certificate fails: bisection on N
-  between energies with k and k + 1 levels below, then Brent's method on mu_k.
+  between energies with k and k + 1 levels below (starting from one count
+  between each two levels already found: those it confirms are kept), closed
+  to 1e-6 relative, then Newton's method from its middle. Each count is one
+  banded factorization; Brent's method on mu_k, a dense eigenvalue solve a
+  step, is the last resort.
 
 Fast path: the pencil (K(E0) + E0 M, M) gives every level at once for the
 Schrodinger equation (K is linear in E) and good first guesses for the
@@ -33,8 +37,9 @@ Newton's method with residuals in extended precision
 (:func:`boundkit.eigen.refine`) and then certified by one count. Guesses
 never decide whether a level exists; the count does. A guess from which Newton's
 method leaves for a neighbouring level (it passes a neighbouring guess, or lands
-on a level already found) is replaced by the level of its own index: Newton's
-method on mu_j(E) itself, one dense pencil per step (:func:`_relinearised`).
+on a level already found) is replaced by the level of its own index, pinned by
+counting (:func:`_pinned`: a bracket with j and j + 1 levels below its ends,
+closed to 1e-6 relative, Newton's method from its middle).
 Without that, the lower rungs of the ladder, which are not counted, could carry
 a repeated level up to the last one, where only bisection on the count mended it.
 
@@ -97,7 +102,7 @@ class Located:
     has dived into the lower continuum) shift the node count of every level
     above by that much. ``next_energy`` is the guess of the level above the last
     one (it places ``E_top``); ``reseeded`` counts guesses that Newton's method took to a neighbouring
-    level and that were replaced (:func:`_relinearised`).
+    level and that were replaced (:func:`_pinned`).
     """
 
     energies: tuple
@@ -136,9 +141,20 @@ def _bisect_level(op, k: int, lo: float, hi: float, scale: float, width: float =
 
 
 def _level_in_bracket(op, k: int, a: float, b: float):
-    """The k-th level inside [a, b] (N(a) = k, N(b) = k + 1): Brent on mu_k, then Newton."""
+    """The k-th level inside [a, b] (N(a) = k, N(b) = k + 1): the bracket closed by counting, then
+    Newton's method from its middle (:func:`_closed`), first at 1e-6 relative, then at _PINNED; only
+    when both leave the bracket, Brent on mu_k (one dense eigen-solve a step, about nine a level:
+    seconds a level on a grid of a thousand unknowns), then Newton."""
     from scipy.optimize import brentq   # lazy: scipy.optimize is slow to import
 
+    counts = (k, k + 1)
+    for width in (1e-6, _PINNED):
+        ref, (a, b, ca, cb) = _closed(op, k, a, b, counts, width)
+        if ref is not None:
+            return ref.energy, ref.vector
+        if (ca, cb) != (k, k + 1):
+            break
+        counts = (ca, cb)
     fa, fb = _mu(op, a, k), _mu(op, b, k)
     if fa * fb < 0:
         E = brentq(lambda E: _mu(op, E, k), a, b, xtol=1e-14 * max(abs(a), abs(b)), maxiter=200)
@@ -148,6 +164,19 @@ def _level_in_bracket(op, k: int, a: float, b: float):
     if ref.converged and a <= ref.energy <= b:
         return ref.energy, ref.vector
     return None
+
+
+def _closed(op, k: int, a: float, b: float, counts: tuple[int, int], width: float,
+            rtol: float | None = None, slack: float = 0.0):
+    """Close the bracket [a, b] of the k-th level by counting to ``width`` relative, then Newton's
+    method from its middle with a vector from inverse iteration there. Returns (the refined level,
+    or None when Newton's method does not converge within the bracket widened by ``slack`` relative;
+    the closed bracket and its counts)."""
+    a, b, ca, cb = _bisect_level(op, k, a, b, 0.0, width=width, counts=counts)
+    mid = 0.5 * (a + b)
+    ref = refine(op, mid, _inverse_iteration(op, mid, steps=4), rtol=rtol)
+    s = slack * abs(mid)
+    return (ref if ref.converged and a - s <= ref.energy <= b + s else None), (a, b, ca, cb)
 
 
 def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.ndarray:
@@ -177,52 +206,20 @@ def _stayed(ref, lam, i: int, lo: float, hi: float, below) -> bool:
             and (i + 1 >= len(lam) or E < lam[i + 1]))
 
 
-def _relinearised(op: SymmetricOperator, j: int, E: float, lo: float, hi: float, steps: int = 8):
-    """The energy of the j-th level of the grid (j counted from the bottom of its spectrum) by
-    Newton's method on mu_j(E), or None when it leaves the window or does not settle.
-
-    Notes
-    -----
-    mu_j(E) is the j-th eigenvalue of the pencil (K(E), -K'(E)) (-K' is positive definite in the
-    window; see the module docstring). It falls through zero at the j-th level, its derivative
-    there is -1 by the Hellmann-Feynman theorem, so a Newton step is E -> E + mu_j(E): the j-th
-    eigenvalue of (K(E) - E K'(E), -K'(E)). The index j, not a distance, picks the level, so the
-    iteration cannot go to a neighbour. Where -K'(E) is not positive definite (a Klein-Gordon E far
-    below the level), the step is the mass pencil's, E -> the j-th eigenvalue of (K(E) + E M, M): a
-    chord step on the same index. One dense symmetric-definite eigenvalue solve per step; it
-    stops once a step is below 1e-4 |E| (the iterate is then good to about 1e-8, and Newton's method
-    on the grid, which must land within 1e-6 of it, does the rest).
-    """
-    for _ in range(steps):
-        K = op.symmetric(E)
-        B = -op.symmetric(E, derivative=True)
-        try:
-            # all eigenvalues, as in _pencil: bisection on only the j-th ("gvx") loses the small ones of
-            # this strongly graded pencil (the weight r^(2 gamma) is tiny near the origin)
-            lam = sla.eigh(K + E * B, B, eigvals_only=True, driver="gv", check_finite=False)
-        except (np.linalg.LinAlgError, ValueError):
-            try:        # -K' not positive definite this far from the level: the mass pencil's chord step
-                lam = sla.eigh(K + E * op.M, op.M, eigvals_only=True, driver="gv", check_finite=False)
-            except (np.linalg.LinAlgError, ValueError):
-                return None
-        E_new = float(lam[j])
-        if not lo < E_new < hi:
-            return None
-        if abs(E_new - E) <= 1e-4 * abs(E_new):     # converging quadratically: E_new is good to ~1e-8
-            return E_new
-        E = E_new
-    return None
-
-
-def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol: float | None):
+def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol: float | None,
+            close_to: float = _PINNED):
     """The level of index k (in the grid's whole spectrum) near E, pinned by counting: a bracket
-    with k and k + 1 levels below its ends, closed by bisection to _PINNED relative, then Newton's
-    method from its middle with a vector from inverse iteration there. None when no such bracket is
-    found near E or Newton's method leaves it.
+    with k and k + 1 levels below its ends, closed by bisection to ``close_to`` relative, then
+    Newton's method from its middle with a vector from inverse iteration there. None when no such
+    bracket is found near E or Newton's method leaves it.
 
     Notes
     -----
-    This is for a level that Newton's method cannot tell from its neighbour: two wells that barely
+    With ``close_to`` = 1e-6 this re-seeds a guess that Newton's method took to a neighbouring
+    level: a few tens of counts, each one banded factorization (it replaced Newton's method on the
+    guess's own pencil eigenvalue, one dense eigenvalue solve a step: 13-17 s a rung for 117 levels
+    on 700-1000 unknowns). With _PINNED it is for a level that Newton's method cannot tell from
+    its neighbour even then: two wells that barely
     couple give two levels closer than the guesses are accurate (5e-10 hartree apart, and less,
     near an avoided crossing), and from either guess Newton's method goes to the same one. The
     count separates any two levels further apart than the bracket; the middle of the bracket is
@@ -244,11 +241,7 @@ def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol:
     if not ca <= k < cb:
         return None
     # scale 0: the bisection's own floor is then _PINNED relative (both are 1e-13)
-    a, b, _, _ = _bisect_level(op, k, a, b, 0.0, width=_PINNED, counts=(ca, cb))
-    mid = 0.5 * (a + b)
-    ref = refine(op, mid, _inverse_iteration(op, mid, steps=4), rtol=rtol)
-    slack = 10 * _PINNED * abs(mid)
-    return ref if ref.converged and a - slack <= ref.energy <= b + slack else None
+    return _closed(op, k, a, b, (ca, cb), close_to, rtol, slack=10 * _PINNED)[0]
 
 
 def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
@@ -299,15 +292,13 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
         if not _stayed(ref, lam, i, lo, hi, energies):
             # Newton left the guess's neighbourhood (a guess between two levels, as the linearised
             # pencil gives for the upper s levels of a heavy Klein-Gordon ion): the level of this index,
-            # by Newton's method on its own pencil eigenvalue, then Newton on the grid again
+            # in a bracket closed by counting, then Newton on the grid again from its middle
             reseeded += 1
-            E = _relinearised(op, first + i, float(lam[i]), lo, hi)
-            if E is not None:
-                ref = refine(op, E, _inverse_iteration(op, E), rtol=rtol)
-            if E is None or not (_fits(ref, lo, hi, energies) and abs(ref.energy - E) <= 1e-6 * abs(E)):
-                # still not this index's level (two levels closer than the guesses are accurate):
-                # pinned by counting
-                ref = _pinned(op, first + i, float(lam[i]) if E is None else E, lo, hi, rtol)
+            ref = _pinned(op, first + i, float(lam[i]), lo, hi, rtol, close_to=1e-6)
+            if ref is None or not _fits(ref, lo, hi, energies):
+                # still not this index's level (two levels closer than 1e-6: two wells that barely
+                # couple): the bracket closed to _PINNED
+                ref = _pinned(op, first + i, float(lam[i]), lo, hi, rtol)
                 if ref is None or not _fits(ref, lo, hi, energies):
                     break
         energies.append(ref.energy)
@@ -345,7 +336,9 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
     ok = len(energies) == m and _distinct(energies) and (m == 0 or count_below(op, E_top) == m + offset)
     fallback = 0
     if not ok and sure:
-        energies, vectors, fallback = _by_bisection(op, m, lo, hi, scale, energies, offset)
+        energies, vectors, fallback = _by_bisection(op, m, lo, hi, scale, loc.energies, offset, loc.vectors)
+        if energies:        # the level above the mended ones: the lowest found above them, if any
+            nxt = min([E for E in loc.energies if E - energies[-1] > _SAME * abs(E)] + [loc.next_energy])
         E_top = _top(energies, nxt, hi)
         ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m + offset)
     return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok, offset,
@@ -373,29 +366,59 @@ def _top(energies, nxt: float, hi: float) -> float:
     return last + 0.5 * (min(nxt, hi) - last) if math.isfinite(hi) or math.isfinite(nxt) else last
 
 
-def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses, offset: int = 0):
-    """The slow, sure path: bracket every level by counting, then solve in the bracket."""
+def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses, offset: int = 0, vectors=None):
+    """The sure path: every level of the window in a bracket by counting.
+
+    Levels already found (``guesses``, with their ``vectors``) are kept where the count confirms
+    them: one count between each two of them, and a found level alone between two points whose
+    counts differ by one is the level of that index. Only the others are bracketed (starting from
+    those points) and solved (:func:`_level_in_bracket`). Returns (energies, vectors, number of
+    levels solved in a bracket)."""
     top = hi
     if not math.isfinite(top):
-        top = (guesses[-1] if guesses else 0.0) + 10 * scale
+        top = (guesses[-1] if len(guesses) else 0.0) + 10 * scale
         while count_below(op, top) < m + offset:
             top += 10 * scale
     bottom = lo
     if not math.isfinite(bottom):
         bottom = -1e6 * scale
-    energies, vectors = [], []
-    a = bottom
+    # the found levels, distinct and inside (bottom, top), and a point between each two of them
+    found = []
+    for i, E in enumerate(guesses):
+        if bottom < E < top and (not found or E - found[-1][0] > _SAME * abs(E)):
+            found.append((float(E), None if vectors is None else vectors[i]))
+    points = [0.5 * (x[0] + y[0]) for x, y in zip(found, found[1:])]
+    if found:
+        last = found[-1][0]
+        points.append(min(last + 0.5 * (last - found[-2][0]), top) if len(found) > 1 else top)
+    counts = [count_below(op, E) for E in points]
+    energies, vectors_out = [], []
+    a, ca = bottom, count_below(op, bottom)
     fallback = 0
     for k in range(m):
-        a_k, b_k, _, count_b = _bisect_level(op, k + offset, a, top, scale)
-        got = _level_in_bracket(op, k + offset, a_k, b_k)
+        j = k + offset
+        # the lowest point counted with this level below it; when N(a) = j and N(b) = j + 1, one
+        # level lies in (a, b), and a level found there is that one
+        b, cb = min(((p, c) for p, c in zip(points, counts) if p > a and c >= j + 1), default=(top, None))
+        inside = [x for x in found if a < x[0] < b]
+        if ca == j and cb == j + 1 and len(inside) == 1 and inside[0][1] is not None:
+            energies.append(inside[0][0])
+            vectors_out.append(inside[0][1])
+            a, ca = b, cb
+            continue
+        a_k, b_k, _, count_b = _bisect_level(op, j, a, b, scale,
+                                             counts=(ca, cb) if ca is not None and cb is not None else None)
+        got = _level_in_bracket(op, j, a_k, b_k)
         fallback += 1
         if got is None:
             log.info("level %d: no root found in its bracket [%g, %g]", k, a_k, b_k)
             break
         energies.append(got[0])
-        vectors.append(got[1])
+        vectors_out.append(got[1])
         # the next level lies above b_k when the bracket closed (k + 1 levels below it): starting
         # there, not a fixed step above this one, keeps a partner 1e-10 away (two wells) in view
-        a = b_k if count_b == k + offset + 1 else got[0] + 1e-10 * max(abs(got[0]), scale)
-    return energies, vectors, fallback
+        if count_b == j + 1:
+            a, ca = b_k, count_b
+        else:
+            a, ca = got[0] + 1e-10 * max(abs(got[0]), scale), None
+    return energies, vectors_out, fallback
