@@ -525,7 +525,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     """
     study = degrees is not None
     from .ladder import FLOOR, ladder_for, layout, potential_floor, solve_rung, spectral_done, with_potential_floor
-    from .locator import certify_levels
+    from .locator import _window_counts, certify_levels
 
     tally = _Tally()
     gamma = eq.gamma(pot)
@@ -590,6 +590,18 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                           sure=False, certify=False, rtol=rtol)
         tally.reseeded += rung.located.reseeded
         got = list(rung.located.energies)
+        if len(got) < want and math.isfinite(hi) and _window_counts(rung.op, lo, hi)[1] >= want:
+            # the box holds every level sought, and the guesses missed some (a linearised pencil puts
+            # the upper levels of a deep Dirac well above the threshold): mended by counting; growing
+            # the box for them only repeated the miss (13 rungs of 1000 unknowns, 250 s, for a
+            # Woods-Saxon well of depth 1e4 hartree with 117 levels)
+            mended = certify_levels(rung.op, rung.located, want, lo, hi, scale)
+            if len(mended.energies) == want:
+                tally.bisected += mended.fallback
+                tally.notes.append(f"box fitting (degree {degree}): {mended.fallback} level(s) the guesses "
+                                   "missed located by counting")
+                rung.located = mended
+                got = list(mended.energies)
         if len(got) < want:
             if R < 1e9 * L and not pot.confining and rung.size < 4000:
                 R *= 4
