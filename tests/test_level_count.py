@@ -44,3 +44,26 @@ def test_hulthen_count_is_the_exact_one():
                          levels="all", tol=1e-8, particle="muon")
     m = res.settings["mass_atomic_units"]
     assert len(res.levels) == math.ceil(math.sqrt(2 * 4.479961372072959 * m / 0.06807964816260993)) - 1
+
+
+@pytest.mark.parametrize("l", [0, 1])
+def test_morse_well_behind_a_huge_core_is_found(l):
+    """A pion in a Morse well with a r_e = 50: the core reaches 1e43 hartree. Its strength set the
+    natural length to 1e-14 bohr, the far box and the search for the well (up to 1e10 natural
+    lengths) never reached the well at 7 bohr, and the answer was 'no bound level', status ok. The
+    natural length now starts at the well's inner edge. l = 0 against the exact Morse levels
+    E_v = -(a^2 / 2m)(lambda - v - 1/2)^2, lambda = sqrt(2 m D) / a (Morse, Phys. Rev. 34, 57, 1929; the
+    half-line correction is of order exp(-lambda e^(a r_e)), far below double precision); l = 1 has
+    the same number of levels (its centrifugal energy, 1/(m r_e^2) ~ 7e-5 hartree, is far below the top
+    level's binding)."""
+    D, a, re = 2.476938255733866, 7.079457843841379, 7.079457843841379
+    res = boundkit.solve("schrodinger", "morse", {"D": D, "a": a, "r_e": re}, l=l, levels="all", tol=1e-12,
+                         particle="pion")
+    assert res.status == "ok", res.message
+    m = res.settings["mass_atomic_units"]
+    lam = math.sqrt(2 * m * D) / a
+    exact = [-(a * a / (2 * m)) * (lam - v - 0.5) ** 2 for v in range(math.ceil(lam - 0.5))]
+    assert len(exact) == 5 and len(res.levels) == 5
+    if l == 0:
+        for lv, E in zip(res.levels, exact):
+            assert abs(lv.energy - E) <= max(lv.error_estimate, 1e-14 * abs(E)), (lv.label, lv.energy, E)

@@ -127,18 +127,28 @@ def sampler(pot: Potential):
     return partial(_sample, pot)
 
 
-def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarray]:
-    """(radii, 2 m r^2 |V + S| there) on the radii the natural length is looked for on; a 1/r^2 part
-    has no length of its own (it only shifts l) and is left out."""
+def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """(radii, 2 m r^2 |V + S| there, whether V + S < 0 there) on the radii the natural length is
+    looked for on; a 1/r^2 part has no length of its own (it only shifts l) and is left out."""
     r = _length_radii()
     s = _sample(pot, r, scan=True)
     v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
     with np.errstate(over="ignore", invalid="ignore"):
-        return r, 2 * eq.mass * r**2 * np.abs(v)
+        return r, 2 * eq.mass * r**2 * np.abs(v), v < 0
 
 
 def _natural_length(eq: RadialEquation, pot: Potential) -> float:
-    r, strength = _strength(eq, pot)
+    """The length scale of the potential: the smallest radius where 2 m r^2 |V + S| reaches 1 (the
+    Bohr radius of a Coulomb core), or where it is largest for a weak well.
+
+    A repulsive core in front of a well does not count: the levels live in the well and only decay
+    into the core. A Morse well with a r_e = 50 has a core of 1e43 hartree, which put the length at
+    1e-14 bohr, and the far box and the search for the well (up to 1e10 natural lengths) never
+    reached the well at 7 bohr: 'no bound level' where five are bound."""
+    r, strength, attractive = _strength(eq, pot)
+    well = np.nonzero(attractive & (strength >= 1e-3))[0]
+    if well.size and np.any(~attractive[:well[0]] & (strength[:well[0]] >= 1.0)):
+        r, strength = r[well[0]:], strength[well[0]:]      # from the well's inner edge outwards
     big = strength >= 1.0
     if np.any(big):
         return float(r[np.argmax(big)])
@@ -927,7 +937,7 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
 def _potential_range(eq, pot) -> float:
     """Radius beyond which 2 m r^2 |V + S| stays below 1e-3 (the weakest strength the natural length
     looks for): the potential cannot hold a turning point out there but of a level that shallow."""
-    r, strength = _strength(eq, pot)
+    r, strength, _ = _strength(eq, pot)
     strong = np.nonzero(strength >= 1e-3)[0]
     return float(r[strong[-1]]) if strong.size else 0.0
 
@@ -942,11 +952,6 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
     from .ladder import far_count
 
     reach = _potential_range(eq, pot)
-    if reach > 1e10 * L:
-        # a natural length set by a huge repulsive core (a Morse well with a r_e = 50: L = 1e-14 bohr),
-        # whose well lies beyond what the layouts here look at from L; measured: counting on the far box
-        # there made the ladder run for 84 s and end 'partial'. Left as it was (see the closing note).
-        reach = 0.0
     r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L), 10 * reach)
     return far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
 
