@@ -142,19 +142,14 @@ def _bisect_level(op, k: int, lo: float, hi: float, scale: float, width: float =
 
 def _level_in_bracket(op, k: int, a: float, b: float):
     """The k-th level inside [a, b] (N(a) = k, N(b) = k + 1): the bracket closed by counting, then
-    Newton's method from its middle (:func:`_closed`), first at 1e-6 relative, then at _PINNED; only
-    when both leave the bracket, Brent on mu_k (one dense eigen-solve a step, about nine a level:
-    seconds a level on a grid of a thousand unknowns), then Newton."""
+    Newton's method from its middle (:func:`_closing`); only when that leaves the bracket, Brent on
+    mu_k (one dense eigen-solve a step, about nine a level: seconds a level on a grid of a thousand
+    unknowns), then Newton."""
     from scipy.optimize import brentq   # lazy: scipy.optimize is slow to import
 
-    counts = (k, k + 1)
-    for width in (1e-6, _PINNED):
-        ref, (a, b, ca, cb) = _closed(op, k, a, b, counts, width)
-        if ref is not None:
-            return ref.energy, ref.vector
-        if (ca, cb) != (k, k + 1):
-            break
-        counts = (ca, cb)
+    ref, (a, b, _, _) = _closing(op, k, a, b, (k, k + 1))
+    if ref is not None:
+        return ref.energy, ref.vector
     fa, fb = _mu(op, a, k), _mu(op, b, k)
     if fa * fb < 0:
         E = brentq(lambda E: _mu(op, E, k), a, b, xtol=1e-14 * max(abs(a), abs(b)), maxiter=200)
@@ -164,6 +159,22 @@ def _level_in_bracket(op, k: int, a: float, b: float):
     if ref.converged and a <= ref.energy <= b:
         return ref.energy, ref.vector
     return None
+
+
+def _closing(op, k: int, a: float, b: float, counts: tuple[int, int], rtol: float | None = None,
+             slack: float = 0.0, accept=None):
+    """The k-th level in the bracket [a, b] by :func:`_closed`, first at 1e-6 relative and, when
+    Newton's method leaves that bracket (or ``accept`` turns its level down), on to _PINNED: the same
+    bisection, continued. Returns (the level or None, the last bracket and its counts)."""
+    for width in (1e-6, _PINNED):
+        ref, bracket = _closed(op, k, a, b, counts, width, rtol, slack)
+        if ref is not None and (accept is None or accept(ref)):
+            return ref, bracket
+        a, b, ca, cb = bracket
+        if (ca, cb) != (k, k + 1):
+            break
+        counts = (ca, cb)
+    return None, bracket
 
 
 def _closed(op, k: int, a: float, b: float, counts: tuple[int, int], width: float,
@@ -206,24 +217,23 @@ def _stayed(ref, lam, i: int, lo: float, hi: float, below) -> bool:
             and (i + 1 >= len(lam) or E < lam[i + 1]))
 
 
-def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol: float | None,
-            close_to: float = _PINNED):
+def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol: float | None, accept=None):
     """The level of index k (in the grid's whole spectrum) near E, pinned by counting: a bracket
-    with k and k + 1 levels below its ends, closed by bisection to ``close_to`` relative, then
-    Newton's method from its middle with a vector from inverse iteration there. None when no such
-    bracket is found near E or Newton's method leaves it.
+    with k and k + 1 levels below its ends, closed by bisection to 1e-6 relative and then, if need
+    be, to _PINNED (:func:`_closing`), Newton's method from its middle with a vector from inverse
+    iteration there. None when no such bracket is found near E, or Newton's method leaves it (or
+    ``accept`` turns its level down) at both widths.
 
     Notes
     -----
-    With ``close_to`` = 1e-6 this re-seeds a guess that Newton's method took to a neighbouring
-    level: a few tens of counts, each one banded factorization (it replaced Newton's method on the
-    guess's own pencil eigenvalue, one dense eigenvalue solve a step: 13-17 s a rung for 117 levels
-    on 700-1000 unknowns). With _PINNED it is for a level that Newton's method cannot tell from
-    its neighbour even then: two wells that barely
-    couple give two levels closer than the guesses are accurate (5e-10 hartree apart, and less,
-    near an avoided crossing), and from either guess Newton's method goes to the same one. The
-    count separates any two levels further apart than the bracket; the middle of the bracket is
-    then so much nearer its own level that inverse iteration isolates it.
+    This re-seeds a guess that Newton's method took to a neighbouring level: a few tens of counts,
+    each one banded factorization (it replaced Newton's method on the guess's own pencil eigenvalue,
+    one dense eigenvalue solve a step: 13-17 s a rung for 117 levels on 700-1000 unknowns). The
+    second width is for a level that Newton's method cannot tell from its neighbour even then: two
+    wells that barely couple give two levels closer than the guesses are accurate (5e-10 hartree
+    apart, and less, near an avoided crossing), and from either guess Newton's method goes to the
+    same one. The count separates any two levels further apart than the bracket; the middle of the
+    bracket is then so much nearer its own level that inverse iteration isolates it.
     """
     width = max(1e-6 * abs(E), 1e-300)
     a, b = E - width, E + width
@@ -240,8 +250,7 @@ def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol:
     a, b = max(a, lo), min(b, hi)
     if not ca <= k < cb:
         return None
-    # scale 0: the bisection's own floor is then _PINNED relative (both are 1e-13)
-    return _closed(op, k, a, b, (ca, cb), close_to, rtol, slack=10 * _PINNED)[0]
+    return _closing(op, k, a, b, (ca, cb), rtol, slack=10 * _PINNED, accept=accept)[0]
 
 
 def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
@@ -294,13 +303,10 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
             # pencil gives for the upper s levels of a heavy Klein-Gordon ion): the level of this index,
             # in a bracket closed by counting, then Newton on the grid again from its middle
             reseeded += 1
-            ref = _pinned(op, first + i, float(lam[i]), lo, hi, rtol, close_to=1e-6)
-            if ref is None or not _fits(ref, lo, hi, energies):
-                # still not this index's level (two levels closer than 1e-6: two wells that barely
-                # couple): the bracket closed to _PINNED
-                ref = _pinned(op, first + i, float(lam[i]), lo, hi, rtol)
-                if ref is None or not _fits(ref, lo, hi, energies):
-                    break
+            ref = _pinned(op, first + i, float(lam[i]), lo, hi, rtol,
+                          accept=lambda ref: _fits(ref, lo, hi, energies))
+            if ref is None:
+                break
         energies.append(ref.energy)
         vectors.append(ref.vector)
     nxt = float(lam[inside[m]]) if len(inside) > m else hi
@@ -310,14 +316,15 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
 
 
 def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi: float, scale: float,
-                   sure: bool = True) -> Located:
+                   sure: bool = True, window: tuple[int, int | None] | None = None) -> Located:
     """Certify the levels of ``loc`` by counting; mend by bisection when the count disagrees (unless
     ``sure`` is False). Returns the certified :class:`Located`.
 
     First one count at E_top (above the last level found, below the next): when it equals the
     number of distinct levels found, they are the lowest ones and nothing lies below the window.
     Otherwise count below the window (states that dived), below its top (how many the box holds)
-    and at E_top again, then bisect on the count where needed.
+    and at E_top again, then bisect on the count where needed. ``window``: those first two counts, as
+    :func:`_window_counts` gives them, when the caller has them.
     """
     if want is not None and want > 0 and len(loc.energies) >= want:
         # one count is enough when it agrees: `want` distinct roots below E_top and exactly `want`
@@ -328,7 +335,7 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
         if _distinct(energies) and E_top < hi and count_below(op, E_top) == want:
             return Located(tuple(energies), tuple(loc.vectors[:want]), E_top, want, None, 0, True, 0,
                            checked=True, next_energy=nxt)
-    offset, bound = _window_counts(op, lo, hi)
+    offset, bound = _window_counts(op, lo, hi) if window is None else window
     m = want if bound is None else min(want, bound)
     energies, vectors = list(loc.energies[:m]), list(loc.vectors[:m])
     nxt = loc.energies[m] if len(loc.energies) > m else loc.next_energy
@@ -402,7 +409,7 @@ def _by_bisection(op, m: int, lo: float, hi: float, scale: float, guesses, offse
         points.append(min(last + 0.5 * (last - found[-2][0]), top) if len(found) > 1 else top)
     counts = [count_below(op, E) for E in points]
     energies, vectors_out = [], []
-    a, ca = bottom, count_below(op, bottom)
+    a, ca = bottom, offset if math.isfinite(lo) else count_below(op, bottom)     # N(lo) is the offset
     fallback = 0
     for k in range(m):
         j = k + offset

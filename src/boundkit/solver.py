@@ -610,12 +610,13 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         seed = None
         tally.reseeded += rung.located.reseeded
         got = list(rung.located.energies)
-        if len(got) < want and math.isfinite(hi) and _window_counts(rung.op, lo, hi)[1] >= want:
+        window = _window_counts(rung.op, lo, hi) if len(got) < want and math.isfinite(hi) else None
+        if window is not None and window[1] >= want:
             # the box holds every level sought, and the guesses missed some (a linearised pencil puts
             # the upper levels of a deep Dirac well above the threshold): mended by counting; growing
             # the box for them only repeated the miss (13 rungs of 1000 unknowns, 250 s, for a
             # Woods-Saxon well of depth 1e4 hartree with 117 levels)
-            mended = certify_levels(rung.op, rung.located, want, lo, hi, scale)
+            mended = certify_levels(rung.op, rung.located, want, lo, hi, scale, window=window)
             if len(mended.energies) == want:
                 tally.bisected += mended.fallback
                 tally.notes.append(f"box fitting (degree {degree}): {mended.fallback} level(s) the guesses "
