@@ -27,7 +27,8 @@ is counted by static condensation of the element interiors
   between energies with k and k + 1 levels below (starting from one count
   between each two levels already found: those it confirms are kept), closed
   to 1e-6 relative, then Newton's method from its middle. Each count is one
-  banded factorization; Brent's method on mu_k, a dense eigenvalue solve a
+  pass of static condensation over the elements (small eigenproblems of the
+  element interiors); Brent's method on mu_k, a dense eigenvalue solve a
   step, is the last resort.
 
 Fast path: the pencil (K(E0) + E0 M, M) gives every level at once for the
@@ -227,7 +228,7 @@ def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol:
     Notes
     -----
     This re-seeds a guess that Newton's method took to a neighbouring level: a few tens of counts,
-    each one banded factorization (it replaced Newton's method on the guess's own pencil eigenvalue,
+    each one pass of static condensation (it replaced Newton's method on the guess's own pencil eigenvalue,
     one dense eigenvalue solve a step: 13-17 s a rung for 117 levels on 700-1000 unknowns). The
     second width is for a level that Newton's method cannot tell from its neighbour even then: two
     wells that barely couple give two levels closer than the guesses are accurate (5e-10 hartree

@@ -649,27 +649,33 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         break
     # 2. the ladder on a fixed layout
     extra["r_max"] = R
+    hist = _Histories()
     if reuse is not None:
         edges, quiet, first = reuse
         rungs = [first]
-        hist: list[list[float]] = [[E] for E in first.located.energies]
+        hist.record(0, first.located.energies)
         ladder = degrees[1:]
         fitted = None
     else:
         fitted = rung.located if rung is not None else None
         edges, quiet = layout(eq, pot, sample, r_min, R, energies)
         rungs = []
-        hist = []
         ladder = degrees
     per_level = []
-    offset = 0
+    offset = 0          # states below the window (dived), from the last certificate
+    # the lowest `settled` levels met the stop rule on a certified rung and are not solved again
+    # (their energy, state and estimate are those of that rung): 325 of 328 levels of a pion in a deep
+    # Woods-Saxon well met it on the third of five rungs, which went on only for the top three
+    settled = 0
+    may_settle = not study and tol >= FLOOR
+    resumed = False     # the settled levels were given up: the next rung starts from every level's last energy
 
-    def finished(energies):
-        if study or len(energies) != want:
+    def finished(n_found: int):
+        if study or n_found != want:
             return False, False
-        done = all(len(h) >= 3 and spectral_done(h, tol) for h in hist[:want])
+        done = all(len(h) >= 3 and spectral_done(h, tol) for h in hist.E[:want])
         floor = all(len(h) >= 3 and max(abs(h[-1] - h[-2]), abs(h[-2] - h[-3])) <= FLOOR * abs(h[-1])
-                    for h in hist[:want])
+                    for h in hist.E[:want])
         return done, floor
 
     step, refits = 0, 0
@@ -677,35 +683,54 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         n = ladder[step]
         step += 1
         prev_loc = rungs[-1].located if rungs else fitted   # the box-fitting rung seeds the first one
-        guesses = prev_loc.energies if prev_loc is not None and len(prev_loc.energies) == want else None
+        if settled or resumed:
+            guesses = hist.latest(settled)
+        else:
+            guesses = prev_loc.energies if prev_loc is not None and len(prev_loc.energies) == want else None
+        resumed = False
         top = prev_loc.E_top if guesses is not None else None
-        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale, guesses,
-                          top, certify=False, offset=offset, rtol=rtol)
+        # with settled levels the window starts between the last of them and the first level above
+        lo_r = 0.5 * (hist.E[settled - 1][-1] + guesses[0]) if settled else lo
+        rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want - settled, lo_r, hi, E0, scale,
+                          guesses, top, certify=False, offset=offset + settled, rtol=rtol)
         tally.reseeded += rung.located.reseeded
+        if settled:
+            if not _settled_confirmed(rung.op, rung.located, lo_r, offset, settled, want):
+                tally.notes.append(f"degree {n}: the count does not confirm the {settled} settled level(s) "
+                                   "(or a level above them was missed); every level solved again")
+                settled, may_settle, resumed = 0, False, True
+                step -= 1
+                continue
+            rung.located = replace(rung.located, count_top=offset + want, certified=True, checked=True,
+                                   offset=offset + settled)
         rungs.append(rung)
-        _record(hist, rung.located.energies)
-        done, floor = finished(rung.located.energies)
+        hist.record(len(rungs) - 1, rung.located.energies, start=settled)
+        n_found = settled + len(rung.located.energies)
+        done, floor = finished(n_found)
         # a rung that located fewer levels than wanted (Newton's method did not reach a shallow level
         # from guesses linearised far below it) is mended by counting now, so the rungs above start
         # from every level; left to the top rung, the ladder climbed to its end and the mended level
         # had one rung of history (an estimate of inf: Dirac S = V Hulthen, Z = 130, 8.7 s)
-        short = len(rung.located.energies) < want and not study
-        if not (done or floor or short or n == ladder[-1]):
-            E0 = 0.5 * (rung.located.energies[0] + rung.located.energies[-1]) if rung.located.energies else E0
+        short = n_found < want and not study
+        settling = (may_settle and not done and step < len(ladder)
+                    and hist.settled_prefix(tol) >= max(settled + 1, _SETTLE_MIN))
+        if not (done or floor or short or settling or n == ladder[-1]):
+            E0 = 0.5 * (hist.E[0][-1] + hist.E[n_found - 1][-1]) if n_found else E0
             continue
-        loc = certify_levels(rung.op, rung.located, want, lo, hi, scale)
-        offset = loc.offset
+        loc = rung.located if rung.located.checked else certify_levels(rung.op, rung.located, want, lo, hi, scale)
+        offset = loc.offset - settled
         if not loc.certified:
             tally.notes.append(f"degree {n}: count certificate failed (N(E_top) = {loc.count_top})")
         if loc.fallback:
             tally.bisected += loc.fallback
             tally.notes.append(f"degree {n}: {loc.fallback} level(s) located by bisection on the count")
         mended = loc.energies != rung.located.energies
-        if mended:      # mended by bisection: this rung's entries change
-            _record(hist, loc.energies, overwrite=len(rung.located.energies))
-            del hist[len(loc.energies):]
+        if mended:      # mended by bisection: this rung's entries change (never with settled levels)
+            hist.record(len(rungs) - 1, loc.energies, overwrite=len(rung.located.energies))
+            hist.truncate(len(loc.energies))
         rung.located = loc
-        E0 = 0.5 * (loc.energies[0] + loc.energies[-1]) if loc.energies else E0
+        n_found = settled + len(loc.energies)
+        E0 = 0.5 * (hist.E[0][-1] + hist.E[n_found - 1][-1]) if n_found else E0
         if mended and loc.energies and refits < 2 and not study and not pot.confining:
             # the box was fitted to the levels of the box-fitting rung; levels the count mended can lie
             # elsewhere and decay more slowly, even the lowest (with S = V a Dirac level near -2 m c^2 has
@@ -719,58 +744,111 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                 edges, quiet = layout(eq, pot, sample, r_min, R, [loc.energies[0], loc.energies[-1]])
                 tally.notes.append(f"degree {n}: the levels the count found overflow the box; refitted to "
                                    f"r_max = {R:.4g} bohr and the ladder restarted")
-                fitted, rungs, hist, step = loc, [], [], 0
+                fitted, rungs, hist, step, settled = loc, [], _Histories(), 0, 0
                 continue
-        done, floor = finished(loc.energies)
+        done, floor = finished(n_found)
         if done and tol >= FLOOR:
             break
         if floor or done:           # done below the floor: the estimate cannot go under FLOOR
             tally.floor_hit = True
             tally.notes.append(f"at the rounding floor; tol {tol:g} is out of reach")
             break
+        if may_settle and loc.certified and not mended and step < len(ladder):
+            ready = hist.settled_prefix(tol)
+            if ready >= max(settled + 1, _SETTLE_MIN):
+                settled = ready
     last = rungs[-1]
-    prev = rungs[-2] if len(rungs) > 1 else None
     extra["certified"] = bool(last.located.certified)
     found, worst = [], 0.0
-    offset = last.located.offset
+    offset = last.located.offset - settled
     if offset:
         tally.notes.append(f"{offset} state(s) lie below the bottom of the bound-state window (dived into the "
                            "lower continuum); the levels above keep their node counts")
-    V_abs = np.abs(last.op.sample.V) + np.abs(last.op.sample.S)      # on the nodes the states live on
-    for k, E in enumerate(last.located.energies):
-        h = hist[k]
+    if settled:
+        tally.notes.append(f"{settled} lowest level(s) met tol on degree {rungs[hist.at[settled - 1][-1][0]].degree} "
+                           "or below and were not solved on the rungs above")
+    for k in range(settled + len(last.located.energies)):
+        h = hist.E[k]
+        ri, i = hist.at[k][-1]
+        rk = rungs[ri]
+        E = rk.located.energies[i]
         n = principal_n(k + offset, eq.l)
-        state = _element_state(eq, last.op, E, last.located.vectors[k])
+        state = _element_state(eq, rk.op, E, rk.located.vectors[i])
+        V_abs = np.abs(rk.op.sample.V) + np.abs(rk.op.sample.S)      # on the nodes the state lives on
         est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
         est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol)
         tally.potential_floor_hit |= hit
         if _cut_is_clipped(gamma, eq.spin == 0.5) and pot.z_vector != pot.z_scalar:
             est *= 10
         worst = max(worst, est / abs(E)) if E != 0 else worst
-        per_level.append({"label": eq.label(n), "sizes": [r.size for r in rungs], "energies": list(h),
+        per_level.append({"label": eq.label(n), "sizes": [rungs[j].size for j, _ in hist.at[k]], "energies": list(h),
                           "r_min": r_min, "r_max": R})
         prev_state = None
-        if prev is not None and k < len(prev.located.energies):
-            prev_state = _element_state(eq, prev.op, prev.located.energies[k], prev.located.vectors[k])
+        if len(hist.at[k]) > 1:
+            pj, pi = hist.at[k][-2]
+            pr = rungs[pj]
+            prev_state = _element_state(eq, pr.op, pr.located.energies[pi], pr.located.vectors[pi])
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=eq.label(n), energy=E,
                            error_estimate=est, nodes=k + offset, state=state,
-                           resolution=last.size, iterations=0, previous_state=prev_state))
+                           resolution=rk.size, iterations=0, previous_state=prev_state))
     if len(found) < want:
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
                         if last.located.certified else "the count certificate failed (see diagnostics)")
     return found, tally, per_level, worst, extra
 
 
-def _record(hist: list, energies, overwrite: int = 0) -> None:
-    """Add one rung's energies to the per-level histories; the first ``overwrite`` levels replace
-    that rung's entries instead (after the certificate mended them)."""
-    for k, E in enumerate(energies):
-        if k >= len(hist):
-            hist.append([])
-        if k < overwrite:
-            hist[k][-1] = E
-        else:
-            hist[k].append(E)
+def _settled_confirmed(op, located, lo_r: float, dived: int, settled: int, want: int) -> bool:
+    """Whether a rung solved above ``settled`` settled levels agrees with them, by two counts: as many
+    levels below lo_r (the middle between the last settled level and the first one above) as settled
+    (plus ``dived`` below the window), and above it exactly the distinct levels just found, up to
+    their E_top."""
+    from .locator import _distinct, count_below
+
+    return (len(located.energies) == want - settled and _distinct(located.energies)
+            and count_below(op, lo_r) == dived + settled and count_below(op, located.E_top) == dived + want)
+
+
+_SETTLE_MIN = 8     # fewest settled levels worth their two counts a rung (a count costs about two Newton solves)
+
+
+class _Histories:
+    """Per-level energy histories of the ladder, and where each entry was found: (index of the rung,
+    index in that rung's located levels)."""
+
+    def __init__(self) -> None:
+        self.E: list[list[float]] = []
+        self.at: list[list[tuple[int, int]]] = []
+
+    def record(self, rung: int, energies, start: int = 0, overwrite: int = 0) -> None:
+        """Add one rung's energies, found for the levels from ``start`` on; the first ``overwrite``
+        replace that rung's entries instead (after the certificate mended them)."""
+        for i, E in enumerate(energies):
+            k = start + i
+            if k >= len(self.E):
+                self.E.append([])
+                self.at.append([])
+            if i < overwrite:
+                self.E[k][-1], self.at[k][-1] = E, (rung, i)
+            else:
+                self.E[k].append(E)
+                self.at[k].append((rung, i))
+
+    def truncate(self, n: int) -> None:
+        del self.E[n:]
+        del self.at[n:]
+
+    def latest(self, start: int = 0) -> list[float]:
+        """The last energy of each level from ``start`` on."""
+        return [h[-1] for h in self.E[start:]]
+
+    def settled_prefix(self, tol: float) -> int:
+        """How many of the lowest levels, in a row, meet the stop rule."""
+        from .ladder import spectral_done
+
+        k = 0
+        while k < len(self.E) and len(self.E[k]) >= 3 and spectral_done(self.E[k], tol):
+            k += 1
+        return k
 
 
 def _pole_free_bottom(eq, sample, r_min: float, lo: float) -> float:
