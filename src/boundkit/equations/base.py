@@ -74,6 +74,8 @@ class RadialEquation:
 
     name: ClassVar[str] = ""
     spin: ClassVar[float] = 0.0
+    # p and q do not depend on E, so K(E) = K(0) - E M (the Schrodinger equation)
+    energy_linear: ClassVar[bool] = False
     l: int
     kappa: int | None
     j: float | None

@@ -27,6 +27,7 @@ class Schrodinger(RadialEquation):
 
     name = "schrodinger"
     spin = 0.0
+    energy_linear = True
 
     def __init__(self, l: int = 0, mass: float = 1.0, j: float | None = None) -> None:
         self.l = check_int("l", l, minimum=0)

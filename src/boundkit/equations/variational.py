@@ -106,6 +106,8 @@ class SymmetricOperator:
         self._band_scale = None
         self._band_index = None
         self._factor_cache = None
+        self._derivative = None
+        self._band_parts = None
 
     def _build_batches(self, grid: ElementGrid) -> None:
         """Stack the elements of each degree so one batched product assembles them all.
@@ -204,12 +206,10 @@ class SymmetricOperator:
 
     def mass_apply(self, v) -> np.ndarray:
         """M v on the kept nodes, from the element blocks (no dense M)."""
-        if self._mass_blocks is None:
-            self._mass_blocks = self._blocks(None, np.float64, mass=True)
         f = np.zeros(self.n)
         f[:-1] = v
         out = np.zeros(self.n)
-        for bt, blk in zip(self._batches, self._mass_blocks):
+        for bt, blk in zip(self._batches, self._mass_band_blocks()):
             idx = bt["idx"]
             _add_nodal(out, idx, np.matmul(blk, f[idx][:, :, None])[:, :, 0])
         return out[:-1]
@@ -334,13 +334,28 @@ class SymmetricOperator:
         with the dropped last node kept as an identity row so the band stays regular."""
         kl = self.band
         n = self.n
-        ab = np.zeros((3 * kl + 1, n))
-        flat = ab.reshape(-1)
-        for places, blk in zip(self._band_places(), self._blocks(E, np.float64)):
-            for par in (0, 1):        # no two elements of one parity share a node: no repeated places
-                flat[places[par]] += blk[par::2].reshape(-1)
-        ab[2 * kl, 0] += self._sigma(E)
+        scale = self._row_band_scale()
+        if self.eq.energy_linear:
+            # K(E) = K(0) - E M apart from the boundary term: two scaled bands built once (the element
+            # blocks of K(E) at every energy were a sixth of a 328-level solve)
+            if self._band_parts is None:
+                self._band_parts = (self._band_of(self._blocks(0.0, np.float64)) * scale,
+                                    self._band_of(self._mass_band_blocks()) * scale)
+            K0, Mb = self._band_parts
+            ab = Mb * -float(E)
+            ab += K0
+            ab[2 * kl, 0] += self._sigma(E) * scale[2 * kl, 0]
+        else:
+            ab = self._band_of(self._blocks(E, np.float64))
+            ab[2 * kl, 0] += self._sigma(E)
+            ab *= scale
+        ab[2 * kl, n - 1] = 1.0
+        return ab
+
+    def _row_band_scale(self) -> np.ndarray:
+        """row_scale laid out as the band storage of :meth:`_banded` (built once)."""
         if self._band_scale is None:
+            kl, n = self.band, self.n
             # row i of K sits at band row 2 kl + i - j of column j: scale[k, j] = row_scale[j + k - 2 kl]
             # (0 outside the matrix and in the dropped last column), a strided view of one padded copy
             rs = np.zeros(n + 3 * kl + 1)
@@ -348,8 +363,21 @@ class SymmetricOperator:
             scale = np.lib.stride_tricks.sliding_window_view(rs, n)[: 3 * kl + 1].copy()
             scale[:, n - 1] = 0.0
             self._band_scale = scale
-        ab *= self._band_scale
-        ab[2 * kl, n - 1] = 1.0
+        return self._band_scale
+
+    def _mass_band_blocks(self) -> list:
+        """Element blocks of M (double precision; built once)."""
+        if self._mass_blocks is None:
+            self._mass_blocks = self._blocks(None, np.float64, mass=True)
+        return self._mass_blocks
+
+    def _band_of(self, blocks) -> np.ndarray:
+        """Element blocks scattered into LAPACK general-band storage (unscaled)."""
+        ab = np.zeros((3 * self.band + 1, self.n))
+        flat = ab.reshape(-1)
+        for places, blk in zip(self._band_places(), blocks):
+            for par in (0, 1):        # no two elements of one parity share a node: no repeated places
+                flat[places[par]] += blk[par::2].reshape(-1)
         return ab
 
     def _band_places(self) -> list:
@@ -414,14 +442,20 @@ class SymmetricOperator:
         return self.row_scale * self._apply(float(E), f, np.float64)[:-1]
 
     def dT_y(self, E, y):
+        if self.eq.energy_linear:           # dK/dE = -M
+            return -self.row_scale * self.mass_apply(np.asarray(y, dtype=float))
         f = self.expand(np.asarray(y, dtype=float))
         return self.row_scale * self._apply(E, f, np.float64, derivative=True)[:-1]
 
     def derivative_in_t(self, f):
         """df/dt at every node (the two one-sided values averaged at shared nodes)."""
+        if self._derivative is None:        # the blocks in double, and how many elements share each node
+            hits = np.zeros(self.n)
+            for i0, i1 in self.grid.elements:
+                hits[i0:i1 + 1] += 1
+            self._derivative = (tuple(De.astype(float) for De in self.grid.D), hits)
+        blocks, hits = self._derivative
         out = np.zeros(self.n)
-        hits = np.zeros(self.n)
-        for (i0, i1), De in zip(self.grid.elements, self.grid.D):
-            out[i0:i1 + 1] += De.astype(float) @ f[i0:i1 + 1]
-            hits[i0:i1 + 1] += 1
+        for (i0, i1), De in zip(self.grid.elements, blocks):
+            out[i0:i1 + 1] += De @ f[i0:i1 + 1]
         return out / hits
