@@ -76,8 +76,15 @@ def count_below(op: SymmetricOperator, E: float) -> int:
 
 
 def _pencil(op: SymmetricOperator, E0: float) -> np.ndarray:
-    """All eigenvalues of (K(E0) + E0 M, M), ascending (vectors come from inverse iteration:
-    the pencil's own carry noise where the mass is tiny)."""
+    """All eigenvalues of (K(E0) + E0 M, M) with M lumped on the nodes (a banded symmetric
+    eigenproblem, :meth:`SymmetricOperator.lumped_pencil_band`), or of the consistent pencil
+    (dense) when the nodal mass is not positive; ascending. They are guesses: Newton's method refines
+    each on the grid, with a vector from inverse iteration, and the count certifies the result."""
+    low = op.lumped_pencil_band(E0)
+    if low is not None:
+        lam = sla.eig_banded(low, lower=True, eigvals_only=True, check_finite=False)
+        if np.all(np.isfinite(lam)):
+            return lam
     A = op.symmetric(E0) + E0 * op.M
     return sla.eigh(A, op.M, eigvals_only=True, driver="gv", check_finite=False)
 
