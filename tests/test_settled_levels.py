@@ -1,11 +1,17 @@
 """Levels that met the stop rule are not solved again on the rungs above (spectral elements).
 
-Reference values, computed here from a closed form: hydrogen-like Dirac levels from the
-Sommerfeld-Dirac formula (Bethe and Salpeter, Quantum Mechanics of One- and Two-Electron Atoms, 1957,
-eq. 14.29), in the cancellation-free form of ``exact.dirac_coulomb``.
+Reference values, computed here from closed forms:
+
+* hydrogen-like Dirac levels from the Sommerfeld-Dirac formula (Bethe and Salpeter, Quantum
+  Mechanics of One- and Two-Electron Atoms, 1957, eq. 14.29), in the cancellation-free form of
+  ``exact.dirac_coulomb``;
+* Hulthen, l = 0: E_n = -(Z m/n - n delta/2)^2 / (2 m), bound while n^2 delta < 2 Z m (Flugge,
+  Practical Quantum Mechanics, 1971; citation from memory, formula checked by the limit delta -> 0),
+  evaluated with mpmath at 40 digits (near the threshold the difference loses digits in double).
 """
 from __future__ import annotations
 
+import mpmath
 import pytest
 
 import boundkit
@@ -78,6 +84,19 @@ def test_the_settled_check_counts_on_the_grid(monkeypatch):
     monkeypatch.setattr(solver, "_settled_confirmed", spy)
     _dirac_u()
     assert seen and all(s == (True, False, False) for s in seen)
+
+
+def test_many_hulthen_levels_settle_within_their_estimates():
+    # a pion in a Hulthen well, Z = 1, delta = 0.1: 73 s levels; 71 settle a rung before the top two
+    res = boundkit.solve("schrodinger", "hulthen", {"Z": 1, "delta": 0.1}, l=0, levels="all", tol=1e-12,
+                         particle="pion")
+    m = mpmath.mpf(res.settings["mass_atomic_units"])
+    assert res.status == "ok" and len(res.levels) == 73 == res.diagnostics["bound_count"]
+    assert any(SETTLED_NOTE in x for x in res.diagnostics["notes"])
+    with mpmath.workdps(40):
+        for lv in res.levels:
+            exact = float(-((m / lv.n - lv.n * mpmath.mpf("0.1") / 2) ** 2) / (2 * m))
+            assert abs(lv.energy - exact) <= lv.error_estimate, (lv.label, lv.energy, exact, lv.error_estimate)
 
 
 @pytest.mark.slow
