@@ -270,11 +270,16 @@ def _rungs_distinct(res) -> bool:
 
 
 @pytest.mark.parametrize("Z", [40, 50, 60])
-def test_klein_gordon_s_levels_of_a_heavy_ion_need_no_bisection(Z):
+def test_klein_gordon_s_levels_of_a_heavy_ion_need_no_bisection(Z, monkeypatch):
     """Klein-Gordon s levels at Z alpha = 0.29-0.44: the first-rung guesses of the upper levels fell
     between their neighbours, Newton's method sent two guesses to the same level, that repeated pair
     was carried up the ladder, and only the count on the last rung caught it, mending all five by
-    bisection (0.4 s to 10 s for Z = 40 to 68). Each level is now found on every rung."""
+    bisection (0.4 s to 10 s for Z = 40 to 68). Each level is now found on every rung. (A point
+    Coulomb tail is seeded by the exact levels now; the linearised pencil is what this test is about,
+    so the seed is switched off.)"""
+    from boundkit import solver
+
+    monkeypatch.setattr(solver, "_coulomb_seed", lambda *args: None)
     res = boundkit.solve("klein-gordon", "coulomb", {"Z": Z}, l=0, levels=5, tol=TOL)
     assert res.status == "ok", res.message
     assert [lv.n for lv in res.levels] == [1, 2, 3, 4, 5]
@@ -480,3 +485,49 @@ def test_pencil_falls_back_to_the_consistent_mass_when_the_nodal_mass_underflows
     except np.linalg.LinAlgError:
         pass                    # M itself is singular to rounding there; the point is which path ran
     assert dense == [1]
+
+
+# --- the first rung of a Coulomb tail starts from the point-Coulomb levels --------------------------
+
+@pytest.mark.parametrize("equation, channel, Z, exact", [
+    ("dirac", {"kappa": -1}, 92, lambda Z, n: dirac_coulomb(Z, n, -1)),
+    ("klein-gordon", {"l": 0}, 50, lambda Z, n: klein_gordon_coulomb(Z, n, 0)),
+])
+def test_point_coulomb_tail_is_seeded_without_the_pencil(equation, channel, Z, exact, monkeypatch):
+    """A vector Coulomb tail seeds the first rung with the point-Coulomb levels (Sommerfeld-Dirac,
+    Bethe and Salpeter 1957 eq. 14.29; Klein-Gordon, Greiner, Relativistic Quantum Mechanics, ch. 1):
+    no guessing pencil is solved, nothing is re-seeded, and the levels meet tol against the same
+    formulas. (The linearised pencil's guesses for the deep Dirac levels took Newton's method 4 to 9
+    steps each, and those of heavy Klein-Gordon s levels fell between two levels.)"""
+    from boundkit import locator
+
+    calls = []
+    real = locator._pencil
+    monkeypatch.setattr(locator, "_pencil", lambda *a: calls.append(1) or real(*a))
+    res = boundkit.solve(equation, "coulomb", {"Z": Z}, levels=5, tol=TOL, **channel)
+    assert res.status == "ok" and len(res.levels) == 5
+    assert not calls
+    assert res.diagnostics["reseeded_guesses"] == 0 and res.diagnostics["bisected_levels"] == 0
+    for lv in res.levels:
+        assert _rel(lv.energy, exact(Z, lv.n)) < TOL, lv.label
+
+
+def test_a_coulomb_seed_far_from_the_levels_falls_back_to_the_pencil(monkeypatch):
+    """Klein-Gordon, a Coulomb tail Z = 1 around a Woods-Saxon well 10 hartree deep: the levels lie far
+    below hydrogen's (the 1s at -8.5 hartree), so the point-Coulomb seeds lead Newton's method
+    elsewhere; the count on that rung says so, and the pencil is solved after all. The levels are
+    those of a solve that never had the seeds, within the summed estimates."""
+    from boundkit import locator, solver
+
+    args = ("klein-gordon", ["coulomb", "woods-saxon"], {"Z": 1, "depth": 10, "radius": 1, "diffuseness": 0.1})
+    calls = []
+    real = locator._pencil
+    monkeypatch.setattr(locator, "_pencil", lambda *a: calls.append(1) or real(*a))
+    res = boundkit.solve(*args, l=0, levels=5, tol=TOL)
+    assert res.status == "ok" and calls == [1]
+    monkeypatch.setattr(solver, "_coulomb_seed", lambda *a: None)
+    ref = boundkit.solve(*args, l=0, levels=5, tol=TOL)
+    assert [lv.n for lv in res.levels] == [lv.n for lv in ref.levels] == [1, 2, 3, 4, 5]
+    for a, b in zip(res.levels, ref.levels):
+        assert abs(a.energy - b.energy) <= a.error_estimate + b.error_estimate, a.label
+    assert res.levels[0].energy < -8

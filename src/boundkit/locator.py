@@ -31,9 +31,12 @@ is counted by static condensation of the element interiors
   element interiors); Brent's method on mu_k, a dense eigenvalue solve a
   step, is the last resort.
 
-Fast path: the pencil (K(E0) + E0 M, M) gives every level at once for the
+Fast path: the pencil (K(E0) + E0 M, M), with M lumped on the nodes so that it
+is one banded symmetric eigenproblem, gives every level at once for the
 Schrodinger equation (K is linear in E) and good first guesses for the
-energy-dependent Klein-Gordon and Dirac operators; each guess is refined by
+energy-dependent Klein-Gordon and Dirac operators (a vector Coulomb tail's
+first rung starts from the point-Coulomb levels instead, checked by one count,
+see :func:`boundkit.solver._coulomb_seed`); each guess is refined by
 Newton's method with residuals in extended precision
 (:func:`boundkit.eigen.refine`) and then certified by one count. Guesses
 never decide whether a level exists; the count does. A guess from which Newton's
