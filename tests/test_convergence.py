@@ -102,3 +102,45 @@ def test_spectral_convergence_is_faster_than_algebraic(level):
     a, b = above[-2], above[-1]
     local = -np.log(err[b] / err[a]) / np.log(b / a)
     assert local > 20.0, (a, b, err[a], err[b], local)
+
+
+# --- sparse pieces of the finite-difference family ------------------------------------------------
+
+@pytest.mark.parametrize("order", [2, 4, 8, 12])
+@pytest.mark.parametrize("n", [13, 14, 57])
+def test_derivative_matrix_is_exact_on_polynomials(order, n):
+    """Every row, one-sided near the ends, differentiates polynomials up to degree ``order`` exactly
+    (the definition of a stencil's accuracy order; common practice)."""
+    from boundkit.discretize.finite_difference import derivative_matrix
+
+    D = derivative_matrix(n, order)
+    x = np.arange(n, dtype=float) / n
+    for p in range(order + 1):
+        want = p * x ** (p - 1) if p else np.zeros(n)
+        got = (D @ x**p) * n
+        assert np.max(np.abs(got - want)) <= 1e-7 * max(1.0, p * p), (order, n, p)
+
+
+def test_bordered_column_matches_a_lil_assignment():
+    """eigen._with_column gives the CSC arrays of a LIL column assignment (which it replaced for speed),
+    zeros in the new column dropped, for CSR input with unsorted or sorted indices."""
+    import scipy.sparse as sp
+
+    from boundkit.eigen import _with_column
+
+    rng = np.random.default_rng(5)
+    for trial in range(20):
+        n = int(rng.integers(3, 40))
+        T = sp.random(n, n, density=0.3, random_state=rng, format="csr")
+        if trial % 2:
+            T = T[:, rng.permutation(n)][:, np.argsort(rng.permutation(n))]     # unsorted indices, same matrix
+        col = rng.standard_normal(n)
+        col[rng.random(n) < 0.3] = 0.0
+        j = int(rng.integers(0, n))
+        L = T.tolil()
+        L[:, j] = col.reshape(-1, 1)
+        want = L.tocsc()
+        got = _with_column(T, j, col)
+        assert np.array_equal(got.toarray(), want.toarray())
+        assert np.array_equal(got.indptr, want.indptr) and np.array_equal(got.indices, want.indices)
+        assert np.array_equal(got.data, want.data)

@@ -62,13 +62,26 @@ def _bordered_solver(op, E: float, y, j: int):
     col = op.dT_y(E, y)
     T = op.matrix(E)
     if sp.issparse(T):
-        T = T.tolil()
-        T[:, j] = col.reshape(-1, 1)
-        return spla.factorized(T.tocsc())
+        return spla.factorized(_with_column(T, j, col))
     T = np.array(T)
     T[:, j] = col
     lu = sla.lu_factor(T, check_finite=False)
     return lambda rhs: sla.lu_solve(lu, rhs, check_finite=False)
+
+
+def _with_column(T, j: int, col) -> sp.csc_matrix:
+    """T (sparse) with column j replaced by the nonzeros of ``col``, in CSC with sorted indices: the
+    arrays a LIL assignment gives (which cost 12 ms at n = 9600, as much as the factorization)."""
+    A = T.tocsc()
+    if not A.has_sorted_indices:
+        A = A.sorted_indices()
+    start, end = A.indptr[j], A.indptr[j + 1]
+    nz = np.nonzero(col)[0]
+    data = np.concatenate((A.data[:start], np.asarray(col, dtype=A.dtype)[nz], A.data[end:]))
+    indices = np.concatenate((A.indices[:start], nz.astype(A.indices.dtype), A.indices[end:]))
+    indptr = A.indptr.copy()
+    indptr[j + 1:] += len(nz) - (end - start)
+    return sp.csc_matrix((data, indices, indptr), shape=A.shape)
 
 
 @dataclass(frozen=True)

@@ -35,23 +35,27 @@ def derivative_matrix(n: int, order: int) -> sp.csr_matrix:
     """First-derivative matrix on n uniform unit-spaced nodes (CSR).
 
     Rows closer than half a stencil to an end use one-sided stencils with
-    ``order + 1`` points, so every row has accuracy ``order``.
+    ``order + 1`` points, so every row has accuracy ``order``. Built from index arrays (a loop over
+    the rows cost 25 ms at n = 9600, once per level and size of a finite-difference solve).
     """
     centre, half, edge = _stencils(order)
     rows, cols, vals = [], [], []
-    for i in range(n):
-        if i < half:
-            st = edge[i]
-            offs, coef = np.asarray(st["offsets"]), np.asarray(st["coefficients"], float)
-        elif i >= n - half:
-            st = edge[n - 1 - i]
-            offs, coef = -np.asarray(st["offsets"]), -np.asarray(st["coefficients"], float)
-        else:
-            offs, coef = np.asarray(centre["offsets"]), np.asarray(centre["coefficients"], float)
-        rows.extend([i] * len(offs))
-        cols.extend(i + offs)
-        vals.extend(coef)
-    return sp.csr_matrix((vals, (rows, cols)), shape=(n, n))
+
+    def add(i, offs, coef):
+        rows.append(np.repeat(i, len(offs)))
+        cols.append((i[:, None] + offs[None, :]).ravel())
+        vals.append(np.tile(coef, len(i)))
+
+    for i in range(min(half, n)):
+        st = edge[i]
+        add(np.array([i]), np.asarray(st["offsets"]), np.asarray(st["coefficients"], float))
+    inner = np.arange(half, n - half)
+    if inner.size:
+        add(inner, np.asarray(centre["offsets"]), np.asarray(centre["coefficients"], float))
+    for i in range(max(n - half, half), n):
+        st = edge[n - 1 - i]
+        add(np.array([i]), -np.asarray(st["offsets"]), -np.asarray(st["coefficients"], float))
+    return sp.csr_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=(n, n))
 
 
 class FiniteDifference(Discretization):
