@@ -531,3 +531,26 @@ def test_a_coulomb_seed_far_from_the_levels_falls_back_to_the_pencil(monkeypatch
     for a, b in zip(res.levels, ref.levels):
         assert abs(a.energy - b.energy) <= a.error_estimate + b.error_estimate, a.label
     assert res.levels[0].energy < -8
+
+
+def test_inertia_count_falls_back_to_eigenvectors_for_a_singular_interior(monkeypatch):
+    """The count takes B^T A^-1 B of each element interior from an LU solve; when that solve reports
+    a singular block (E a level of one element alone) it takes the eigenvectors instead. Forced here:
+    the count still equals the number of negative eigenvalues of the dense K(E) (numpy eigvalsh)
+    between the hydrogen levels (Bethe and Salpeter 1957)."""
+    from boundkit.ladder import make_operator
+    from boundkit.solver import sampler, setup
+
+    def singular(*args, **kwargs):
+        raise np.linalg.LinAlgError("Singular matrix")
+
+    eq, pot, _ = setup("schrodinger", "coulomb", {"Z": 1}, l=0)
+    edges = list(np.linspace(math.log(1e-8), math.log(400.0), 25))
+    op = make_operator(eq, sampler(pot), 1.0, 1.0, edges, [False] * 24, 16, -0.5)
+    energies = [-0.5 * (0.5 / n**2 + 0.5 / (n + 1) ** 2) for n in range(1, 6)]
+    plain = [op.count_negative(E) for E in energies]
+    monkeypatch.setattr(np.linalg, "solve", singular)
+    d = np.sqrt(op.row_scale)
+    for n, E in enumerate(energies, start=1):
+        dense = int(np.count_nonzero(np.linalg.eigvalsh(d[:, None] * op.symmetric(E) * d[None, :]) < 0))
+        assert op.count_negative(E) == dense == plain[n - 1] == n
