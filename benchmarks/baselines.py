@@ -42,10 +42,14 @@ the cancellation-free Sommerfeld-Dirac form
 E = -m c^2 (Z alpha)^2 / [N (N + n_r + gamma)], gamma = sqrt(kappa^2 - (Z alpha)^2),
 N = sqrt(n_r^2 + 2 n_r gamma + kappa^2) (Bethe & Salpeter eq. 14.29), in
 hartree with m = 1, c = 1/alpha, alpha from scipy.constants (CODATA).
+Hulthen, l = 0: E_n = -(Z m/n - n delta/2)^2 / (2 m), bound while n^2 delta < 2 Z m (Flugge,
+Practical Quantum Mechanics, 1971; citation from memory), evaluated in exact rational arithmetic
+from the binary values of m and delta (near the threshold the difference loses digits in double).
 """
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import numpy as np
 import scipy.constants as sc
@@ -53,7 +57,7 @@ import scipy.linalg as sla
 from scipy.special import roots_laguerre
 from threadpoolctl import threadpool_limits
 
-__all__ = ["hydrogen_exact", "dirac_coulomb_exact", "fd_hydrogen", "laguerre_hydrogen", "dense_geneig",
+__all__ = ["hydrogen_exact", "dirac_coulomb_exact", "hulthen_exact", "fd_hydrogen", "laguerre_hydrogen", "dense_geneig",
            "dense_pencil"]
 
 
@@ -72,6 +76,12 @@ def dirac_coulomb_exact(n: int, kappa: int, Z: float) -> float:
     gamma = math.sqrt(kappa**2 - (Z / c) ** 2)
     N = math.sqrt(n_r**2 + 2 * n_r * gamma + kappa**2)
     return -Z**2 / (N * (N + n_r + gamma))        # m c^2 (Z alpha)^2 = Z^2 hartree
+
+
+def hulthen_exact(n: int, m: float, Z: float, delta: float) -> float:
+    """Hulthen s-level binding energy (hartree) for reduced mass m, in exact rational arithmetic."""
+    m, Z, delta = Fraction(m), Fraction(Z), Fraction(delta)
+    return float(-((Z * m / n - n * delta / 2) ** 2) / (2 * m))
 
 
 def fd_hydrogen(N: int = 32000, R: float = 120.0, levels: int = 5, Z: float = 1.0, l: int = 0) -> np.ndarray:

@@ -33,7 +33,7 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from baselines import (dense_geneig, dense_pencil, dirac_coulomb_exact, fd_hydrogen,  # noqa: E402
-                       hydrogen_exact, laguerre_hydrogen)
+                       hulthen_exact, hydrogen_exact, laguerre_hydrogen)
 
 import boundkit  # noqa: E402
 
@@ -198,6 +198,16 @@ def main(argv=None) -> int:
     row("time per level, H s-levels 1/5/10/20, tol 1e-10", "/".join(f"{per[n] * 1e3:.2g}" for n in per) + " ms",
         "", f"max/min {spread:.2f}", "<= 2, all found", spread <= 2 and all(found[n] == n for n in found),
         f"{worst_levels:.1e}, found " + "/".join(str(found[n]) for n in found))
+
+    # 5b: many levels (no target; what levels='all' costs): every s level of a pion in a Hulthen well
+    tm, rm = best_of(lambda: boundkit.solve("schrodinger", "hulthen", {"Z": 1, "delta": 0.1}, l=0, levels="all",
+                                            tol=1e-12, particle="pion"), k_slow)
+    mu = rm.settings["mass_atomic_units"]
+    errs = [abs(lv.energy - hulthen_exact(lv.n, mu, 1, 0.1)) / abs(lv.energy) for lv in rm.levels]
+    ratio = max(abs(lv.energy - hulthen_exact(lv.n, mu, 1, 0.1)) / lv.error_estimate for lv in rm.levels)
+    row("Hulthen pion (Z=1, delta=0.1), levels='all', tol 1e-12", f"{tm:.3f} s", f"{c_time * 1e3:.1f} ms",
+        f"{tm / c_time:.1f} units of (c)", "", None,
+        f"{max(errs):.1e} vs exact, err/est <= {ratio:.2f}, {len(rm.levels)}/{rm.diagnostics['bound_count']} found")
 
     # 6: import time
     t_floor = import_time("import numpy, scipy.linalg, scipy.sparse.linalg, scipy.special, scipy.constants", k_fast)

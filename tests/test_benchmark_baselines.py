@@ -76,3 +76,16 @@ def test_dense_pencil_is_well_conditioned():
     a, b = bl.dense_pencil(50, seed=3)
     assert np.allclose(b, b.T) and np.linalg.cond(b) <= 3.0 + 1e-9
     assert np.all(np.isfinite(bl.dense_geneig(a, b)))
+
+
+def test_hulthen_exact_formula_in_rational_arithmetic():
+    """The many-level row's reference: Hulthen s levels -(Z m/n - n delta/2)^2 / (2 m) (Flugge 1971,
+    from memory), exact in rationals; against mpmath at 40 digits, and the delta -> 0 limit, hydrogen's
+    -m Z^2 / (2 n^2)."""
+    mpmath = pytest.importorskip("mpmath")
+    m = 273.13243953150706
+    with mpmath.workdps(40):
+        for n in (1, 2, 30, 73):
+            want = -((mpmath.mpf(m) / n - n * mpmath.mpf(0.1) / 2) ** 2) / (2 * mpmath.mpf(m))
+            assert bl.hulthen_exact(n, m, 1, 0.1) == pytest.approx(float(want), rel=1e-15)
+    assert bl.hulthen_exact(3, 2.0, 1.0, 1e-12) == pytest.approx(-2.0 / 18, rel=1e-10)
