@@ -486,13 +486,15 @@ class SymmetricOperator:
 
     def derivative_in_t(self, f):
         """df/dt at every node (the two one-sided values averaged at shared nodes)."""
-        if self._derivative is None:        # the blocks in double, and how many elements share each node
-            hits = np.zeros(self.n)
+        if self._derivative is None:        # the blocks in double, stacked per batch, and how many
+            hits = np.zeros(self.n)         # elements share each node
             for i0, i1 in self.grid.elements:
                 hits[i0:i1 + 1] += 1
-            self._derivative = (tuple(De.astype(float) for De in self.grid.D), hits)
-        blocks, hits = self._derivative
+            stacks = [np.stack([self.grid.D[e].astype(float) for e in bt["elements"]]) for bt in self._batches]
+            self._derivative = (stacks, hits)
+        stacks, hits = self._derivative
         out = np.zeros(self.n)
-        for (i0, i1), De in zip(self.grid.elements, blocks):
-            out[i0:i1 + 1] += De @ f[i0:i1 + 1]
+        for bt, Ds in zip(self._batches, stacks):
+            idx = bt["idx"]
+            _add_nodal(out, idx, np.matmul(Ds, f[idx][:, :, None])[:, :, 0])
         return out / hits
