@@ -554,3 +554,22 @@ def test_inertia_count_falls_back_to_eigenvectors_for_a_singular_interior(monkey
     for n, E in enumerate(energies, start=1):
         dense = int(np.count_nonzero(np.linalg.eigvalsh(d[:, None] * op.symmetric(E) * d[None, :]) < 0))
         assert op.count_negative(E) == dense == plain[n - 1] == n
+
+
+def test_pencil_falls_back_when_the_banded_solve_fails(monkeypatch):
+    """A banded eigenvalue solve that fails (LAPACK reports no convergence) hands the guesses to the
+    dense consistent pencil; the lowest hydrogen levels (Bethe and Salpeter 1957) come back all the same."""
+    from boundkit import locator
+    from boundkit.ladder import make_operator
+    from boundkit.solver import sampler, setup
+
+    def fails(*args, **kwargs):
+        raise np.linalg.LinAlgError("eig algorithm did not converge")
+
+    eq, pot, _ = setup("schrodinger", "coulomb", {"Z": 1}, l=0)
+    edges = list(np.linspace(math.log(1e-8), math.log(400.0), 25))
+    op = make_operator(eq, sampler(pot), 1.0, 1.0, edges, [False] * 24, 16, -0.5)
+    monkeypatch.setattr(locator.sla, "eig_banded", fails)
+    lam = locator._pencil(op, -0.5)
+    for n in range(1, 6):
+        assert _rel(lam[n - 1], -0.5 / n**2) < 1e-10, n

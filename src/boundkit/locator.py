@@ -85,8 +85,11 @@ def _pencil(op: SymmetricOperator, E0: float) -> np.ndarray:
     each on the grid, with a vector from inverse iteration, and the count certifies the result."""
     low = op.lumped_pencil_band(E0)
     if low is not None:
-        lam = sla.eig_banded(low, lower=True, eigvals_only=True, check_finite=False)
-        if np.all(np.isfinite(lam)):
+        try:
+            lam = sla.eig_banded(low, lower=True, eigvals_only=True, check_finite=False)
+        except np.linalg.LinAlgError:
+            lam = None
+        if lam is not None and np.all(np.isfinite(lam)):
             return lam
     A = op.symmetric(E0) + E0 * op.M
     return sla.eigh(A, op.M, eigvals_only=True, driver="gv", check_finite=False)

@@ -851,7 +851,7 @@ def _settled_confirmed(op, located, lo_r: float, dived: int, settled: int, want:
             and count_below(op, lo_r) == dived + settled and count_below(op, located.E_top) == dived + want)
 
 
-_SETTLE_MIN = 8     # fewest settled levels worth their two counts a rung (a count costs about two Newton solves)
+_SETTLE_MIN = 8     # fewest settled levels worth their two counts a rung (a count costs one to two Newton solves)
 
 
 class _Histories:

@@ -384,10 +384,11 @@ class SymmetricOperator:
         ab += E0 * self._band_of(self._mass_band_blocks())
         low = ab[2 * kl:, :m].copy()          # A[j + k, j] sits at row k of column j
         s = 1.0 / np.sqrt(d)
-        for k in range(kl + 1):
-            low[k, m - k:] = 0.0
-            low[k, :m - k] *= s[k:] * s[:m - k]
-        return low
+        with np.errstate(all="ignore"):
+            for k in range(kl + 1):
+                low[k, m - k:] = 0.0
+                low[k, :m - k] *= s[k:] * s[:m - k]
+        return low if np.all(np.isfinite(low)) else None        # a mass so tiny the scaling overflows
 
     def _row_band_scale(self) -> np.ndarray:
         """row_scale laid out as the band storage of :meth:`_banded` (built once)."""
