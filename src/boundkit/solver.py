@@ -622,6 +622,10 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     # only on the rung that is reported (the certificate makes its levels exactly the lowest ones,
     # whatever happened on the rungs below, which only feed the error estimate)
     rtol = min(1e-6, max(tol * 1e-4, 1e-17))
+    # a level's first entry (the box-fitting rungs, the first rung of the ladder) is never the value
+    # reported: it only seeds the next rung and meets the stop rule's 100 tol. Newton's method stops
+    # there at 1e-12 with double-precision residuals when that is a thousandth of 100 tol or less
+    rtol_first = max(rtol, 1e-12) if tol >= 1e-12 and not study else rtol
     E_top = hi if math.isfinite(hi) else _confining_top(eq, pot, want, L)   # computed once: a WKB bisection
     R = _initial_radius(eq, pot, want, L, E_top)
     energies = [E_top]
@@ -642,14 +646,14 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         degree = degrees[0] if trusted and len(degrees) > 1 else min(8, degrees[0])
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
                           None if seed is None else seed.energies, None if seed is None else seed.E_top,
-                          sure=False, certify=False, rtol=rtol)
+                          sure=False, certify=False, rtol=rtol_first)
         if seed is not None and not certify_levels(rung.op, rung.located, want, lo, hi, scale, sure=False).certified:
             # the seeds came from a lower degree and led Newton's method to other levels (a narrow
             # Woods-Saxon well's 1s, 0.8 % off at degree 8, went to a level 5.7 hartree above): one
             # count tells, and the dense pencil starts again
             tally.reseeded += rung.located.reseeded
             rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
-                              sure=False, certify=False, rtol=rtol)
+                              sure=False, certify=False, rtol=rtol_first)
         seed = None
         tally.reseeded += rung.located.reseeded
         got = list(rung.located.energies)
@@ -735,7 +739,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         # with settled levels the window starts between the last of them and the first level above
         lo_r = 0.5 * (hist.E[settled - 1][-1] + guesses[0]) if settled else lo
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want - settled, lo_r, hi, E0, scale,
-                          guesses, top, certify=False, offset=offset + settled, rtol=rtol)
+                          guesses, top, certify=False, offset=offset + settled,
+                          rtol=rtol_first if not rungs and len(ladder) > 1 else rtol)
         tally.reseeded += rung.located.reseeded
         if settled:
             if not _settled_confirmed(rung.op, rung.located, lo_r, offset, settled, want):
