@@ -79,8 +79,8 @@ def test_the_settled_check_counts_on_the_grid(monkeypatch):
 
     def spy(op, located, lo_r, dived, settled, want):
         ok = real(op, located, lo_r, dived, settled, want)
-        seen.append((ok, real(op, located, lo_r, dived, settled - 1, want), real(op, located, lo_r, dived + 1,
-                                                                                 settled, want)))
+        seen.append((bool(ok), bool(real(op, located, lo_r, dived, settled - 1, want)),
+                     bool(real(op, located, lo_r, dived + 1, settled, want))))
         return ok
 
     monkeypatch.setattr(solver, "_settled_confirmed", spy)

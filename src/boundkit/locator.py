@@ -87,10 +87,10 @@ def _pencil(op: SymmetricOperator, E0: float) -> np.ndarray:
     if low is not None:
         try:
             lam = sla.eig_banded(low, lower=True, eigvals_only=True, check_finite=False)
+            if np.all(np.isfinite(lam)):
+                return lam
         except np.linalg.LinAlgError:
-            lam = None
-        if lam is not None and np.all(np.isfinite(lam)):
-            return lam
+            pass
     A = op.symmetric(E0) + E0 * op.M
     return sla.eigh(A, op.M, eigvals_only=True, driver="gv", check_finite=False)
 
@@ -338,16 +338,19 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
     number of distinct levels found, they are the lowest ones and nothing lies below the window.
     Otherwise count below the window (states that dived), below its top (how many the box holds)
     and at E_top again, then bisect on the count where needed. ``window``: those first two counts, as
-    :func:`_window_counts` gives them, when the caller has them.
+    :func:`_window_counts` gives them, when the caller has them; the first count then expects the
+    known count below the window plus the levels found.
     """
     if want is not None and want > 0 and len(loc.energies) >= want:
         # one count is enough when it agrees: `want` distinct roots below E_top and exactly `want`
-        # negative eigenvalues of K(E_top) leave no level skipped and none below the window
+        # negative eigenvalues of K(E_top) (plus those known below the window) leave no level skipped
+        # and none below the window
+        below = 0 if window is None else window[0]
         energies = list(loc.energies[:want])
         nxt = loc.energies[want] if len(loc.energies) > want else loc.next_energy
         E_top = _top(energies, nxt, hi)
-        if _distinct(energies) and E_top < hi and count_below(op, E_top) == want:
-            return Located(tuple(energies), tuple(loc.vectors[:want]), E_top, want, None, 0, True, 0,
+        if _distinct(energies) and E_top < hi and count_below(op, E_top) == want + below:
+            return Located(tuple(energies), tuple(loc.vectors[:want]), E_top, want, None, 0, True, below,
                            checked=True, next_energy=nxt)
     offset, bound = _window_counts(op, lo, hi) if window is None else window
     m = want if bound is None else min(want, bound)

@@ -648,9 +648,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                           None if seed is None else seed.energies, None if seed is None else seed.E_top,
                           sure=False, certify=False, rtol=rtol_first)
         if seed is not None and not certify_levels(rung.op, rung.located, want, lo, hi, scale, sure=False).certified:
-            # the seeds came from a lower degree and led Newton's method to other levels (a narrow
-            # Woods-Saxon well's 1s, 0.8 % off at degree 8, went to a level 5.7 hartree above): one
-            # count tells, and the dense pencil starts again
+            # the seeds (point-Coulomb levels, or those of a lower degree) led Newton's method to other
+            # levels (a narrow Woods-Saxon well's 1s, 0.8 % off at degree 8, went to a level 5.7 hartree
+            # above; a deep well inside a Coulomb tail): one count tells, and the pencil is solved instead
             tally.reseeded += rung.located.reseeded
             rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
                               sure=False, certify=False, rtol=rtol_first)
@@ -743,14 +743,14 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                           rtol=rtol_first if not rungs and len(ladder) > 1 else rtol)
         tally.reseeded += rung.located.reseeded
         if settled:
-            if not _settled_confirmed(rung.op, rung.located, lo_r, offset, settled, want):
+            confirmed = _settled_confirmed(rung.op, rung.located, lo_r, offset, settled, want)
+            if not confirmed:
                 tally.notes.append(f"degree {n}: the count does not confirm the {settled} settled level(s) "
                                    "(or a level above them was missed); every level solved again")
                 settled, may_settle, resumed = 0, False, True
                 step -= 1
                 continue
-            rung.located = replace(rung.located, count_top=offset + want, certified=True, checked=True,
-                                   offset=offset + settled)
+            rung.located = confirmed
         rungs.append(rung)
         hist.record(len(rungs) - 1, rung.located.energies, start=settled)
         n_found = settled + len(rung.located.energies)
@@ -760,8 +760,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         # from every level; left to the top rung, the ladder climbed to its end and the mended level
         # had one rung of history (an estimate of inf: Dirac S = V Hulthen, Z = 130, 8.7 s)
         short = n_found < want and not study
-        settling = (may_settle and not done and step < len(ladder)
-                    and hist.settled_prefix(tol) >= max(settled + 1, _SETTLE_MIN))
+        ready = hist.settled_prefix(tol) if may_settle else 0       # levels that would settle here
+        settling = not done and step < len(ladder) and ready >= max(settled + 1, _SETTLE_MIN)
         if not (done or floor or short or settling or n == ladder[-1]):
             E0 = 0.5 * (hist.E[0][-1] + hist.E[n_found - 1][-1]) if n_found else E0
             continue
@@ -801,10 +801,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
             tally.floor_hit = True
             tally.notes.append(f"at the rounding floor; tol {tol:g} is out of reach")
             break
-        if may_settle and loc.certified and not mended and step < len(ladder):
-            ready = hist.settled_prefix(tol)
-            if ready >= max(settled + 1, _SETTLE_MIN):
-                settled = ready
+        if settling and loc.certified and not mended:
+            settled = ready
     last = rungs[-1]
     extra["certified"] = bool(last.located.certified)
     found, worst = [], 0.0
@@ -845,15 +843,18 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     return found, tally, per_level, worst, extra
 
 
-def _settled_confirmed(op, located, lo_r: float, dived: int, settled: int, want: int) -> bool:
-    """Whether a rung solved above ``settled`` settled levels agrees with them, by two counts: as many
-    levels below lo_r (the middle between the last settled level and the first one above) as settled
-    (plus ``dived`` below the window), and above it exactly the distinct levels just found, up to
-    their E_top."""
-    from .locator import _distinct, count_below
+def _settled_confirmed(op, located, lo_r: float, dived: int, settled: int, want: int):
+    """The levels of a rung solved above ``settled`` settled levels, certified, when two counts agree
+    with them (else None): as many levels below lo_r (the middle between the last settled level and
+    the first one above) as settled (plus ``dived`` below the window), and above it exactly the
+    distinct levels just found, up to their E_top (the certificate's one count, with that window)."""
+    from .locator import certify_levels, count_below
 
-    return (len(located.energies) == want - settled and _distinct(located.energies)
-            and count_below(op, lo_r) == dived + settled and count_below(op, located.E_top) == dived + want)
+    below = count_below(op, lo_r)
+    if below != dived + settled:
+        return None
+    loc = certify_levels(op, located, want - settled, lo_r, math.inf, 0.0, sure=False, window=(below, None))
+    return loc if loc.certified else None
 
 
 _SETTLE_MIN = 8     # fewest settled levels worth their two counts a rung (a count costs one to two Newton solves)

@@ -201,7 +201,7 @@ class SymmetricOperator:
     def M(self) -> np.ndarray:
         """The mass matrix on the kept nodes (dense; built on first use)."""
         if self._M is None:
-            self._M = self._dense(self._blocks(None, np.float64, mass=True))
+            self._M = self._dense(self._mass_element_blocks())
         return self._M
 
     def mass_apply(self, v) -> np.ndarray:
@@ -209,7 +209,7 @@ class SymmetricOperator:
         f = np.zeros(self.n)
         f[:-1] = v
         out = np.zeros(self.n)
-        for bt, blk in zip(self._batches, self._mass_band_blocks()):
+        for bt, blk in zip(self._batches, self._mass_element_blocks()):
             idx = bt["idx"]
             _add_nodal(out, idx, np.matmul(blk, f[idx][:, :, None])[:, :, 0])
         return out[:-1]
@@ -348,14 +348,13 @@ class SymmetricOperator:
             # blocks of K(E) at every energy were a sixth of a 328-level solve)
             if self._band_parts is None:
                 self._band_parts = (self._band_of(self._blocks(0.0, np.float64)) * scale,
-                                    self._band_of(self._mass_band_blocks()) * scale)
+                                    self._band_of(self._mass_element_blocks()) * scale)
             K0, Mb = self._band_parts
             ab = Mb * -float(E)
             ab += K0
             ab[2 * kl, 0] += self._sigma(E) * scale[2 * kl, 0]
         else:
-            ab = self._band_of(self._blocks(E, np.float64))
-            ab[2 * kl, 0] += self._sigma(E)
+            ab = self._band_of_K(E)
             ab *= scale
         ab[2 * kl, n - 1] = 1.0
         return ab
@@ -379,9 +378,8 @@ class SymmetricOperator:
             d = (self.grid.w * np.exp(2 * self.log_w) * self.sample.r)[:m]
         if not np.all(np.isfinite(d) & (d > 0)):
             return None
-        ab = self._band_of(self._blocks(E0, np.float64))
-        ab[2 * kl, 0] += self._sigma(E0)
-        ab += E0 * self._band_of(self._mass_band_blocks())
+        ab = self._band_of_K(E0)
+        ab += E0 * self._band_of(self._mass_element_blocks())
         low = ab[2 * kl:, :m].copy()          # A[j + k, j] sits at row k of column j
         s = 1.0 / np.sqrt(d)
         with np.errstate(all="ignore"):
@@ -403,11 +401,17 @@ class SymmetricOperator:
             self._band_scale = scale
         return self._band_scale
 
-    def _mass_band_blocks(self) -> list:
-        """Element blocks of M (double precision; built once)."""
+    def _mass_element_blocks(self) -> list:
+        """Element blocks of M (double precision; built once, shared by M, mass_apply and the bands)."""
         if self._mass_blocks is None:
             self._mass_blocks = self._blocks(None, np.float64, mass=True)
         return self._mass_blocks
+
+    def _band_of_K(self, E) -> np.ndarray:
+        """K(E) with its boundary term in general-band storage (unscaled)."""
+        ab = self._band_of(self._blocks(E, np.float64))
+        ab[2 * self.band, 0] += self._sigma(E)
+        return ab
 
     def _band_of(self, blocks) -> np.ndarray:
         """Element blocks scattered into LAPACK general-band storage (unscaled)."""
