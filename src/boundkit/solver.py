@@ -98,19 +98,25 @@ def _sample(pot: Potential, r: np.ndarray, scan: bool = False) -> Sample:
     with np.errstate(all="ignore"):
         V = np.asarray(pot.V(r))
         S = np.asarray(pot.S(r))
-    for name, x in (("V", V), ("S", S)):
-        if np.iscomplexobj(x) and np.any(x.imag != 0):
-            raise ValueError(f"potential: {name} has complex values (an absorptive part); the bound-state "
-                             "solver takes real potentials only; use boundkit.resonances (boundkit "
-                             "resonances) for complex potentials")
-    V, S = V.real.astype(float), S.real.astype(float)
+    if V.dtype != np.float64 or S.dtype != np.float64:
+        for name, x in (("V", V), ("S", S)):
+            if np.iscomplexobj(x) and np.any(x.imag != 0):
+                raise ValueError(f"potential: {name} has complex values (an absorptive part); the bound-state "
+                                 "solver takes real potentials only; use boundkit.resonances (boundkit "
+                                 "resonances) for complex potentials")
+        V, S = V.real.astype(float), S.real.astype(float)
     W = pot.spin_orbit(r)
-    if scan:
-        V = np.where(np.isposinf(V), 1e300, V)
-        S = np.where(np.isposinf(S), 1e300, S)
-    if not (np.all(np.isfinite(V)) and np.all(np.isfinite(S))):
-        bad = r[~(np.isfinite(V) & np.isfinite(S))][0]
-        raise ValueError(f"potential: not finite at r = {bad:.3g} bohr; check the expression or parameters")
+    # one pass decides in the usual case that every value is finite (the sum is finite then, and
+    # only then, barring an overflow of the sum itself, which the slow branch below sorts out)
+    with np.errstate(all="ignore"):
+        total = np.sum(V) + np.sum(S)
+    if not np.isfinite(total):
+        if scan:
+            V = np.where(np.isposinf(V), 1e300, V)
+            S = np.where(np.isposinf(S), 1e300, S)
+        if not (np.isfinite(V).all() and np.isfinite(S).all()):
+            bad = r[~(np.isfinite(V) & np.isfinite(S))][0]
+            raise ValueError(f"potential: not finite at r = {bad:.3g} bohr; check the expression or parameters")
     return Sample(r, V, S, None if W is None else np.asarray(W, dtype=float))
 
 
