@@ -8,8 +8,10 @@ diving charge from boundkit.critical.
 """
 from __future__ import annotations
 
+import importlib
 import json
 import math
+import os
 
 import mpmath
 import numpy as np
@@ -103,15 +105,31 @@ def test_window_without_a_resonance_says_so():
 
 
 def test_failed_eigen_solve_is_reported_not_raised(monkeypatch):
-    import scipy.linalg
-
     def broken(*args, **kwargs):
-        raise scipy.linalg.LinAlgError("eigenvalues did not converge")
+        raise np.linalg.LinAlgError("eigenvalues did not converge")
 
-    monkeypatch.setattr(scipy.linalg, "eigvals", broken)
+    # (the module, which the package's function of the same name hides as an attribute)
+    monkeypatch.setattr(importlib.import_module("boundkit.resonances"), "_eigvals", broken)
     res = boundkit.resonances("schrodinger", barrier, window=(3.0, 4.0))
     assert not res.success and res.status == "eig-failed" and res.resonances == ()
-    assert "the dense complex eigen solve failed at theta = 0.25 rad" in res.message
+    # every run failed, possibly in another order across the threads: the first run is named
+    assert "the dense complex eigen solve failed at theta = 0.25 rad, order 12" in res.message
+
+
+@pytest.mark.parametrize("absorptive", [None, "woods-saxon"])
+def test_runs_side_by_side_give_the_single_thread_result(monkeypatch, absorptive):
+    # the runs of the stability test (and of the labelling, with an absorptive part) solve on up to
+    # one thread per core; each solve is single-threaded, so one core must give the same bits
+    kw = dict(window=(3.0, 4.0)) if absorptive is None else dict(
+        window=(-0.6, -0.4), absorptive=absorptive,
+        absorptive_params={"depth": 1e-3, "radius": 1.0, "diffuseness": 0.3})
+    pot, params = (barrier, None) if absorptive is None else ("coulomb", {"Z": 1})
+    both = boundkit.resonances("schrodinger", pot, params, **kw)
+    monkeypatch.setattr(os, "cpu_count", lambda: 1)
+    one = boundkit.resonances("schrodinger", pot, params, **kw)
+    assert both.resonances and [r.runs for r in both.resonances] == [r.runs for r in one.resonances]
+    assert [r.label for r in both.resonances] == [r.label for r in one.resonances]
+    assert both.resonances[0].label == ("resonance 1" if absorptive is None else "1s")   # labelling ran
 
 
 def test_potential_not_finite_is_refused():

@@ -14,8 +14,9 @@ Method
    the library's terms accept real radii only.
 2. The scaled radial operator of the equation is discretized with the
    finite-element DVR of :mod:`boundkit.complex_scaling` (independent of the
-   bound-state solver) and solved densely with :func:`scipy.linalg.eigvals`
-   in complex arithmetic:
+   bound-state solver) and solved densely with :func:`numpy.linalg.eigvals`
+   in complex arithmetic (the runs of step 3 side by side, one per core, each
+   with one BLAS thread; see :func:`_spectra`):
 
    * Schrodinger: [-1/(2m) d^2/dz^2 + l(l+1)/(2m z^2) + V(z)] u = E u;
    * Klein-Gordon: the same with V + S + (S^2 - (E - V)^2)/(2 m c^2), a
@@ -58,8 +59,10 @@ from __future__ import annotations
 
 import logging
 import math
+import os
 import time
 import warnings
+from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
 from dataclasses import dataclass, field, replace
 from typing import Any, Callable, Sequence
 
@@ -429,19 +432,19 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         raise ValueError(f"window: the mesh for this window needs {size} unknowns (> {_MAX_SIZE}); narrow the "
                          "window, raise its lower end, or give h, r0 and r_max")
     t0 = time.perf_counter()
-    spectra = {}
-    # one BLAS thread: on a shared 2-core machine the threaded dense eig ran 6x slower (measured)
-    with one_blas_thread():
-        for th, o in [(th, order) for th in angles] + [(angles[0], orders[0])]:
-            mesh = build_mesh(edges, o, plan["r0"], th)
-            V, S = _sample(pot, mesh, analytic)
-            try:
-                spectra[(th, o)] = sla.eigvals(_operator(eq, mesh, V, S), check_finite=True)
-            except (sla.LinAlgError, ValueError) as exc:
-                log.warning("complex eigen solve failed at theta = %g, order %d: %s", th, o, exc)
-                return ResonanceResult((), False, "eig-failed", f"the dense complex eigen solve failed at theta = "
-                                       f"{th:g} rad, order {o} ({exc}); try other angles, r0 or r_max",
-                                       eq.name, pot.name, settings, constants_record(), _UNITS, {"unknowns": size})
+
+    def run(th, o):
+        mesh = build_mesh(edges, o, plan["r0"], th)
+        return _operator(eq, mesh, *_sample(pot, mesh, analytic))
+
+    runs = [(th, order) for th in angles] + [(angles[0], orders[0])]
+    spectra, failed = _spectra(runs, run)
+    if failed is not None:
+        (th, o), exc = failed
+        log.warning("complex eigen solve failed at theta = %g, order %d: %s", th, o, exc)
+        return ResonanceResult((), False, "eig-failed", f"the dense complex eigen solve failed at theta = "
+                               f"{th:g} rad, order {o} ({exc}); try other angles, r0 or r_max",
+                               eq.name, pot.name, settings, constants_record(), _UNITS, {"unknowns": size})
     found, rejected, in_window = _stable(spectra, angles, orders, (emin, emax), tol, eq)
     if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
         with one_blas_thread():
@@ -467,6 +470,48 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                                           "continuum); try larger angles or a wider window")
     return ResonanceResult(tuple(found), True, status, message, eq.name, pot.name, settings, constants_record(),
                            _UNITS, diagnostics)
+
+
+def _eigvals(M: np.ndarray) -> np.ndarray:
+    """All eigenvalues of the dense matrix M (:func:`numpy.linalg.eigvals`: LAPACK's geev, run
+    without the interpreter lock)."""
+    return np.linalg.eigvals(M)
+
+
+def _spectra(keys, build):
+    """Eigenvalues of the matrices ``build(*key)`` for each key: ``({key: eigenvalues}, None)``, or
+    ``(partial, (key, exception))`` for the first key (in order) whose eigen solve failed (errors
+    raised by ``build``, such as a potential that is not finite, propagate).
+
+    Each solve is a dense complex ``zgeev`` (:func:`numpy.linalg.eigvals`, which releases the
+    interpreter lock) with one BLAS thread; up to one solve per core runs at once, in threads. The
+    matrices are built here, in the calling thread (user callables run in its context, which lets
+    them return complex values), only as a thread becomes free, so no more than one matrix per
+    thread is held at a time. Each eigenvalue set is that of a single-threaded solve of its matrix:
+    the same whatever the number of threads.
+    """
+    workers = max(1, min(len(keys), os.cpu_count() or 1))
+    out, errors = {}, {}
+    # one BLAS thread per solve: on a shared 2-core machine a threaded dense eig ran 6x slower
+    # (measured); the parallelism is across solves instead
+    with one_blas_thread(), ThreadPoolExecutor(max_workers=workers) as pool:
+        pending, todo = {}, list(keys)
+        while todo or pending:
+            while todo and len(pending) < workers:
+                key = todo.pop(0)
+                pending[pool.submit(_eigvals, build(*key))] = key     # build's own errors propagate
+            done, _ = wait(pending, return_when=FIRST_COMPLETED)
+            for fut in done:
+                key = pending.pop(fut)
+                try:
+                    out[key] = fut.result()
+                except (np.linalg.LinAlgError, ValueError) as exc:
+                    errors[key] = exc
+    out = {key: out[key] for key in keys if key in out}          # in the order of keys, not of completion
+    for key in keys:
+        if key in errors:
+            return out, (key, errors[key])
+    return out, None
 
 
 def _pair(window) -> tuple:
@@ -498,10 +543,16 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     absorbing = bool(np.any(WV) or np.any(WS))
     V, S = _real_limit(V, S, ext)
     if absorbing:
-        E1 = sla.eigvals(_operator(eq, meshes[0], V, S), check_finite=False)
-        E2, E3 = (sla.eigvals(_operator(eq, m, *_real_limit(*_sample(pot, m, analytic), m.exterior)),
-                              check_finite=False)
-                  for m in (meshes[1], build_mesh(edges, order - 4, r0, angles[0])))
+        def build(k):
+            if k == 0:
+                return _operator(eq, meshes[0], V, S)
+            m = meshes[1] if k == 1 else build_mesh(edges, order - 4, r0, angles[0])
+            return _operator(eq, m, *_real_limit(*_sample(pot, m, analytic), m.exterior))
+
+        got, failed = _spectra([(0,), (1,), (2,)], build)
+        if failed is not None:
+            raise failed[1]
+        E1, E2, E3 = (got[(k,)] for k in range(3))
     else:
         E1, E2, E3 = spectra[(angles[0], order)], spectra[(angles[1], order)], spectra[(angles[0], order - 4)]
     scale = max(abs(window[0]), abs(window[1]))
