@@ -184,15 +184,11 @@ def _sample(pot, mesh: ScaledMesh, analytic: Callable | None) -> tuple[np.ndarra
     if analytic is not None:
         V[mesh.exterior] = np.asarray(analytic(z), dtype=complex) * np.ones_like(z)
     else:
-        V[mesh.exterior] = -_tail(pot.vector) / z
-    S[mesh.exterior] = -_tail(pot.scalar) / z
+        V[mesh.exterior] = -pot.vector_tail_charge / z
+    S[mesh.exterior] = -pot.scalar_tail_charge / z
     if not (np.all(np.isfinite(V)) and np.all(np.isfinite(S))):
         raise ValueError("potential: not finite at a node of the scaled mesh; check the expression or analytic=")
     return V, S
-
-
-def _tail(terms) -> float:
-    return float(sum(t.tail_charge for t in terms))
 
 
 def _operator(eq, mesh: ScaledMesh, V: np.ndarray, S: np.ndarray) -> np.ndarray:
@@ -240,8 +236,8 @@ def _auto_r0(pot, analytic, scale: float) -> float:
     with np.errstate(all="ignore"):
         V = np.asarray(pot.V(r), dtype=complex)
         S = np.asarray(pot.S(r), dtype=complex)
-        tailV = np.asarray(analytic(r + 0j), dtype=complex) if analytic is not None else -_tail(pot.vector) / r
-        dev = np.abs(V - tailV) + np.abs(S + _tail(pot.scalar) / r)
+        tailV = np.asarray(analytic(r + 0j), dtype=complex) if analytic is not None else -pot.vector_tail_charge / r
+        dev = np.abs(V - tailV) + np.abs(S + pot.scalar_tail_charge / r)
     bad = ~(dev <= _TAIL_TOL * scale)
     if np.any(bad[r >= 1e4]):
         raise ValueError("potential: does not reach a Coulomb tail -Z/r or zero by r = 1e5 bohr (to 1e-12 of the "
@@ -416,7 +412,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     eq, pot, settings = setup(equation, wrap(potential), params, l=l, kappa=kappa, particle=particle,
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
                               scalar=None if scalar is None else wrap(scalar), units=units)
-    if pot.spin_orbit(np.array([1.0])) is not None:
+    if pot.has_spin_orbit:
         raise ValueError("potential: spin-orbit terms are not supported by resonances; set spin_orbit = 0")
     if absorptive is not None:
         imag = make_potential(absorptive, absorptive_params, units=units)

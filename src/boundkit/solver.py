@@ -317,9 +317,8 @@ def _coulomb_seed(eq, pot, want: int) -> _Seed | None:
     from .exact import dirac_coulomb, klein_gordon_coulomb, schrodinger_coulomb
 
     Z = pot.tail_charge
-    scalar = getattr(pot, "scalar", None)
-    if (Z <= 0 or pot.confining or scalar is None or any(t.tail_charge for t in scalar)
-            or getattr(pot, "origin_inverse_square", 0.0) or pot.spin_orbit(np.array([1.0])) is not None):
+    if (Z <= 0 or pot.confining or any(t.tail_charge for t in pot.scalar)
+            or getattr(pot, "origin_inverse_square", 0.0) or pot.has_spin_orbit):
         return None
     za = Z / C_AU
     if eq.name == "dirac":

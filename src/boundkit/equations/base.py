@@ -100,7 +100,7 @@ class RadialEquation:
     @staticmethod
     def _refuse_nonrelativistic_terms(potential) -> None:
         """Relativistic equations refuse terms that only the Schrodinger equation takes."""
-        if potential.spin_orbit(np.array([1.0])) is not None:
+        if potential.has_spin_orbit:
             raise ValueError("potential: a spin-orbit term (woods-saxon spin_orbit) is for the Schrodinger "
                              "equation with j; the Dirac equation makes its own spin-orbit force and a spin-0 "
                              "particle has none; set spin_orbit = 0")

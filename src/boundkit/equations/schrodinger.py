@@ -3,8 +3,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
-
 from .._checks import check_int, check_positive
 from .base import RadialEquation, Sample, letter
 
@@ -53,7 +51,7 @@ class Schrodinger(RadialEquation):
         return s.V + s.S + s.r.dtype.type(self.ls) * s.W
 
     def gamma(self, potential) -> float:
-        if self.j is None and potential.spin_orbit(np.array([1.0])) is not None:
+        if self.j is None and potential.has_spin_orbit:
             raise ValueError("j: the potential has a spin-orbit term; give j = l +- 1/2 (e.g. --j 1.5 with --l 1)")
         return self._gamma(potential)
 

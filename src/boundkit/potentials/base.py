@@ -355,6 +355,11 @@ class Potential:
         return sum(parts) if parts else None
 
     @property
+    def has_spin_orbit(self) -> bool:
+        """Whether some term carries a spin-orbit factor (:meth:`spin_orbit` is not None)."""
+        return self.spin_orbit(np.array([1.0])) is not None
+
+    @property
     def breakpoints(self) -> tuple[float, ...]:
         """Sorted radii where some term is not smooth."""
         return tuple(sorted({float(b) for t in self.vector + self.scalar for b in t.breakpoints}))
@@ -365,7 +370,20 @@ class Potential:
 
     @property
     def tail_charge(self) -> float:
-        return float(sum(t.tail_charge for t in self.vector + self.scalar))
+        """Z_inf of the far tail -Z_inf/r, vector and scalar terms together (what the Schrodinger
+        equation sees)."""
+        return self.vector_tail_charge + self.scalar_tail_charge
+
+    @property
+    def vector_tail_charge(self) -> float:
+        """Z_inf of the vector terms' far tail -Z_inf/r."""
+        return float(sum(t.tail_charge for t in self.vector))
+
+    @property
+    def scalar_tail_charge(self) -> float:
+        """Z_inf of the scalar terms' far tail -Z_inf/r (0 for every built-in scalar well but a
+        Coulomb-like one)."""
+        return float(sum(t.tail_charge for t in self.scalar))
 
     @property
     def far_constant(self) -> float:
