@@ -365,15 +365,16 @@ def certify_levels(op: SymmetricOperator, loc: Located, want: int, lo: float, hi
             nxt = min([E for E in loc.energies if E - energies[-1] > _SAME * abs(E)] + [loc.next_energy])
         E_top = _top(energies, nxt, hi)
         ok = len(energies) == m and (m == 0 or count_below(op, E_top) == m + offset)
-        for _ in range(8 if len(energies) == m and m > 0 and not ok else 0):
+        if len(energies) == m and m > 0 and not ok:
             # the lowest level found above is not the next one (a level lies between): move E_top
-            # down towards the last level until the count agrees, and take the level above as
-            # lying twice as far (the rungs above place their E_top from it)
-            E_top = energies[-1] + 0.25 * (E_top - energies[-1])
-            nxt = 2 * E_top - energies[-1]
-            ok = count_below(op, E_top) == m + offset
-            if ok:
-                break
+            # down towards the last level until the count agrees (at most 8 times), and take the
+            # level above as lying twice as far (the rungs above place their E_top from it)
+            for _ in range(8):
+                E_top = energies[-1] + 0.25 * (E_top - energies[-1])
+                nxt = 2 * E_top - energies[-1]
+                ok = count_below(op, E_top) == m + offset
+                if ok:
+                    break
     return Located(tuple(energies), tuple(vectors), E_top, m if ok else -1, bound, fallback, ok, offset,
                    checked=True, next_energy=nxt)
 

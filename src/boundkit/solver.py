@@ -768,7 +768,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         ready = hist.settled_prefix(tol) if may_settle else 0       # levels that would settle here
         settling = not done and step < len(ladder) and ready >= max(settled + 1, _SETTLE_MIN)
         if not (done or floor or short or settling or n == ladder[-1]):
-            E0 = 0.5 * (hist.E[0][-1] + hist.E[n_found - 1][-1]) if n_found else E0
+            E0 = hist.middle(n_found, E0)
             continue
         loc = rung.located if rung.located.checked else certify_levels(rung.op, rung.located, want, lo, hi, scale)
         offset = loc.offset - settled
@@ -783,7 +783,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
             hist.truncate(len(loc.energies))
         rung.located = loc
         n_found = settled + len(loc.energies)
-        E0 = 0.5 * (hist.E[0][-1] + hist.E[n_found - 1][-1]) if n_found else E0
+        E0 = hist.middle(n_found, E0)
         if mended and loc.energies and refits < 2 and not study and not pot.confining:
             # the box was fitted to the levels of the box-fitting rung; levels the count mended can lie
             # elsewhere and decay more slowly, even the lowest (with S = V a Dirac level near -2 m c^2 has
@@ -890,6 +890,11 @@ class _Histories:
     def truncate(self, n: int) -> None:
         del self.E[n:]
         del self.at[n:]
+
+    def middle(self, n_found: int, default: float) -> float:
+        """Midway between the latest energies of the lowest and of the ``n_found``-th level (where the
+        next rung linearises its guessing pencil), or ``default`` when none was found."""
+        return 0.5 * (self.E[0][-1] + self.E[n_found - 1][-1]) if n_found else default
 
     def latest(self, start: int = 0) -> list[float]:
         """The last energy of each level from ``start`` on."""
