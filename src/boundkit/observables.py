@@ -30,7 +30,8 @@ the nodes of the level reaching further out, the other one interpolated
 
 Error estimate: the same quantity from ``level.previous_state`` (the level one
 resolution lower on the solver's ladder); the estimate is the difference,
-never below 4 ulp of the value. It is ``inf`` when the level has no previous
+never below 2e-14 of the value (of the integral of the integrand's absolute
+value instead, where that is given: see ``_estimate``). It is ``inf`` when the level has no previous
 state. The spectral family converges geometrically, so this bounds the error
 of the value at the finer resolution with a wide margin.
 

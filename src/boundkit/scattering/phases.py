@@ -12,6 +12,7 @@ from typing import Sequence
 import numpy as np
 
 from .._checks import check_int, check_positive
+from .._rounding import rounding_floor
 from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
 from ..units import energy_unit as canonical_unit
 from .radial import Channel, _start, integrate, match, matching_radius, prepare
@@ -174,7 +175,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
     if estimate:
         # the two repeated integrations can agree to the last bit (a deep well near threshold); no
         # estimate is below the rounding of delta itself, taken as 4 ulp (as for critical values)
-        err = np.maximum(err, 4 * np.spacing(np.abs(delta)))
+        err = np.maximum(err, rounding_floor(delta))
     # the branch is absolute (continuous in E); the largest step along the grid is kept as a diagnostic
     max_step = float(np.max(np.abs(np.diff(delta)))) if delta.size > 1 else 0.0
     worst_residual = float(np.nanmax(residual)) if len(residual) else 0.0
@@ -268,7 +269,7 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     a3, re3 = runs["loose"][0]
     # a = R1 - u/u' loses the digits below the ulp of R1 (a weak well: a = -1e-6 bohr at R1 = 0.04), and
     # the repeated integrations can agree to the last bit: no estimate below 4 ulp of that subtraction
-    a_err = max(abs(a - a2), abs(a - a3), 4 * float(np.spacing(max(R1, abs(a)))))
+    a_err = max(abs(a - a2), abs(a - a3), float(rounding_floor(max(R1, abs(a)))))
     re_err = max(abs(re - re2), abs(re - re3)) if schr and re is not None else None
     if not schr:
         re, re_err = _effective_range_from_phases(ch, a)

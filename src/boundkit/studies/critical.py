@@ -31,6 +31,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from .._checks import check_int, check_positive
+from .._rounding import rounding_floor
 from ..discretize import get_method
 from ..solver import setup, solve_channel
 from .._threads import inside, one_blas_thread
@@ -215,8 +216,9 @@ def _fit(s: list[float], p: list[float], exps: list[int],
 
 
 def _precision_floor(value: float, rounding: float = 0.0) -> float:
-    """Smallest honest uncertainty of a double-precision value: 4 ulp, or the fit's rounding error."""
-    return max(4.0 * math.ulp(value), rounding)
+    """Smallest honest uncertainty of a double-precision value: its rounding floor (4 ulp,
+    :func:`boundkit._rounding.rounding_floor`), or the fit's rounding error."""
+    return max(float(rounding_floor(value)), rounding)
 
 
 def _extrapolate(points: list[dict], kind: str = "unbind", l: int = 0) -> tuple[float | None, float]:
