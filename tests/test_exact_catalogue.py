@@ -321,6 +321,53 @@ def test_near_critical_dirac_coulomb(Z, method, levels):
         assert err <= 2.0 * lv.error_estimate, (lv.label, err / abs(E), lv.error_estimate / abs(E))
 
 
+# --- a Kratzer well whose inner end the WKB decay pushes out: the inner boundary term ---------------------
+@pytest.mark.parametrize("B", [0.2045, 0.205, 0.2065, 0.207])
+def test_kratzer_muon_p_levels_in_the_band_where_the_inner_slope_blew_up(B):
+    """V = -2/r + B/r^2 for a muon, l = 1: gamma = 9.82-9.87. The repulsive 1/r^2 term pushes the inner
+    end out to 0.11 r_c (r_c = 4 L), where w ~ r^gamma no longer holds; the Frobenius slope of the
+    boundary term divided by almost zero there (-80), made a spurious negative direction of K(E) near
+    -1e5 hartree, and the solve returned no level ('partial') for B in [0.2045, 0.207] only. A slope
+    beyond 0.5 is no expansion and is no longer used (f' = 0 there). Exact: boundkit.exact.kratzer
+    (Flugge 1971, from memory, checked in validate)."""
+    from boundkit.exact import kratzer
+
+    res = boundkit.solve("schrodinger", "kratzer", {"A": 2.0, "B": B}, l=1, levels=2, tol=1e-10, particle="muon")
+    assert res.status == "ok", res.message
+    m = res.settings["mass_atomic_units"]
+    assert [lv.nodes for lv in res.levels] == [0, 1]
+    for lv in res.levels:
+        assert abs(lv.energy - kratzer(2.0, B, lv.nodes, 1, m)) <= lv.error_estimate, lv.label
+
+
+# --- Kratzer wells whose inner turning point lies far out: the finite-difference weight ----------------
+@pytest.mark.parametrize("particle, l, A, B, levels", [
+    ("pion", 1, 0.14336721806595973, 4.789684240281493, 1),     # gamma = 51.7 (the exact-case sweep, seed 7)
+    ("proton", 3, 0.14170246779562629, 3.4145044912174383, 1),   # gamma = 112
+    ("proton", 3, 0.14170246779562629, 3.4145044912174383, 2),
+    ("muon", 1, 8.2, 0.203, 1),                                  # gamma = 9.8
+    ("proton", 0, 2.49, 0.593, 1),                               # gamma = 47.2
+    ("muon", 0, 1.0, 7.04, 1),                                   # gamma = 54.5
+])
+def test_finite_differences_on_a_kratzer_well_with_a_large_exponent(particle, l, A, B, levels):
+    """V = -A/r + B/r^2 with a heavy particle: u ~ r^gamma at the origin with gamma = l' + 1 = 10-112
+    (l'(l'+1) = l(l+1) + 2 m B). The finite-difference family factors u = w f with w = (r/(r + r_c))^gamma;
+    with r_c the inner turning point, w kept falling like exp(-gamma r_c / r) far beyond it, f spanned
+    ten orders more than u, and every size returned a state with 100+ sign changes ('partial', no
+    level; 18 of 60 random heavy-particle Kratzer solves). Exact levels: boundkit.exact.kratzer
+    (Flugge 1971, from memory, checked in validate)."""
+    from boundkit.exact import kratzer
+
+    res = boundkit.solve("schrodinger", "kratzer", {"A": A, "B": B}, l=l, levels=levels, tol=1e-10,
+                         particle=particle, method="finite-difference")
+    assert res.status == "ok", res.message
+    m = res.settings["mass_atomic_units"]
+    assert [lv.nodes for lv in res.levels] == list(range(levels))
+    for lv in res.levels:
+        exact = kratzer(A, B, lv.nodes, l, m)
+        assert abs(lv.energy - exact) <= max(2 * lv.error_estimate, 1e-13 * abs(exact)), lv.label
+
+
 # --- a molecular Kratzer well: heavy reduced mass, so a large effective l ------------------------------
 @pytest.mark.parametrize("mass_mev", [100.0, 469.0, 1000.0])
 @pytest.mark.parametrize("l", [0, 1])

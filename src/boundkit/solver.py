@@ -474,6 +474,9 @@ def _state(eq, op: FactorizedOperator, E: float, y) -> RadialState:
                        density_weight=None if weight is None else np.asarray(weight, dtype=float))
 
 
+_FD_CORE_GAMMA = 8.0     # exponents above this shrink the finite-difference weight's core radius (Channel.mesh)
+
+
 @dataclass
 class Channel:
     """One channel made ready: exponent, window, scales and seed energies.
@@ -502,9 +505,16 @@ class Channel:
         return self.eq.label(principal_n(k, self.eq.l))
 
     def mesh(self, E: float) -> tuple[LogMap, float]:
-        """Mesh and core radius for a level of energy E."""
+        """Mesh and core radius r_c of the weight w = (r / (r + r_c))^gamma for a level of energy E.
+
+        r_c is the level's inner turning point, divided by gamma / _FD_CORE_GAMMA when gamma exceeds
+        _FD_CORE_GAMMA: beyond r_c the weight still falls like exp(-gamma r_c / r), so with r_c at the
+        turning point and gamma = 52 (a pion in a Kratzer well, B = 4.8) w grew by 1e8 from the turning
+        point to the peak of the level, f = u / w spanned ten orders more than u, and the grid's states
+        had 100+ sign changes (no level at any size). Scaled down, w is flat by the peak.
+        """
         r_out, r_core = _radii(self.eq, self.pot, E, self.L)
-        return LogMap(self.r_min, r_out), r_core
+        return LogMap(self.r_min, r_out), r_core * min(1.0, _FD_CORE_GAMMA / self.gamma)
 
     def level(self, k: int, disc: Discretization, size: int, E_seed: float, mesh=None, r_core=None,
               anchor: float | None = None, reach: float = math.inf):

@@ -278,6 +278,9 @@ class FactorizedOperator:
         return T + E_ref * sp.diags(self.B), sp.diags(self.B).tocsr()
 
 
+_SLOPE_MAX = 0.5     # largest |df/dt| at the first node that frobenius_slope accepts as an expansion
+
+
 def frobenius_slope(eq: RadialEquation, s: Sample, d0, gamma: float, r_core: float, b0: float, E) -> float:
     """df/dt at the first node of ``s`` for f = 1 + c r near the origin (see
     :meth:`FactorizedOperator._inner_slope`); ``d0`` is the first row of a
@@ -295,7 +298,14 @@ def frobenius_slope(eq: RadialEquation, s: Sample, d0, gamma: float, r_core: flo
         ratio = T1 / Tr
     if not np.isfinite(ratio) or abs(Tr) < 1e-300:
         return 0.0
-    return float(-ratio * r0)
+    slope = float(-ratio * r0)
+    # f = 1 + c r is an expansion only while |c r0| << 1. A larger value means the first node is not
+    # in the Frobenius region at all: an inner end pushed out by the WKB decay (a repulsive 1/r^2 core),
+    # where w ~ r^gamma fails too. Tr then passes through zero as parameters change (a muon in a
+    # Kratzer well, l = 1: slope -80 at B = 0.205, +12 at B = 0.2), and a large negative slope made
+    # the boundary term a spurious negative direction of K(E) (no level found). The level has decayed
+    # by e^-27 there, so f' = 0 serves.
+    return slope if abs(slope) <= _SLOPE_MAX else 0.0
 
 
 def _solve_small(A, B):
