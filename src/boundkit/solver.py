@@ -134,14 +134,29 @@ def sampler(pot: Potential):
     return partial(_sample, pot)
 
 
+_last_strength: list = []      # [(potential, mass, result)] of the last call: see _strength
+
+
 def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """(radii, 2 m r^2 |V + S| there, whether V + S < 0 there) on the radii the natural length is
-    looked for on; a 1/r^2 part has no length of its own (it only shifts l) and is left out."""
+    looked for on; a 1/r^2 part has no length of its own (it only shifts l) and is left out.
+
+    The natural length and the potential's range both read it, once each per solve of a short-range
+    potential (and again when the Laguerre mesh hands the channel to the elements); the last result
+    is kept, for that same potential object and mass only (held, so its id cannot be reused), with
+    read-only arrays.
+    """
+    if _last_strength and _last_strength[0][0] is pot and _last_strength[0][1] == eq.mass:
+        return _last_strength[0][2]
     r = _length_radii()
     s = _sample(pot, r, scan=True)
     v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
     with np.errstate(over="ignore", invalid="ignore"):
-        return r, 2 * eq.mass * r**2 * np.abs(v), v < 0
+        out = (r, 2 * eq.mass * r**2 * np.abs(v), v < 0)
+    for a in out[1:]:
+        a.flags.writeable = False
+    _last_strength[:] = [(pot, eq.mass, out)]
+    return out
 
 
 def _natural_length(eq: RadialEquation, pot: Potential) -> float:
