@@ -35,6 +35,21 @@ def test_solver_entry_points_and_cli_load_no_heavy_package():
     """) == []
 
 
+def test_a_command_line_solve_loads_no_interpolation_or_optimisation():
+    # a table potential needs scipy.interpolate (which loads scipy.optimize): ~0.1 s that every
+    # `boundkit solve` paid while the option parser imported it up front (0.44 -> 0.33 s measured)
+    script = textwrap.dedent("""
+        import json, sys
+        from click.testing import CliRunner
+        import boundkit.cli
+        res = CliRunner().invoke(boundkit.cli.main, ["solve", "--param", "Z=1"])
+        assert res.exit_code == 0, res.output
+        print(json.dumps([m for m in ("scipy.interpolate", "scipy.optimize") if m in sys.modules]))
+    """)
+    out = subprocess.run([sys.executable, "-c", script], check=True, capture_output=True, text=True).stdout
+    assert json.loads(out.strip().splitlines()[-1]) == []
+
+
 def test_lazy_exports_and_submodules():
     import boundkit
 

@@ -172,7 +172,6 @@ def build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
     """
     from ..potentials.catalog import read_model_file
     from ..potentials.expression import ExpressionTerm
-    from ..potentials.tabulated import TabulatedTerm
 
     values = parse_params(params)
     vector, scalar = list(potentials), list(scalars)
@@ -186,6 +185,8 @@ def build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
             term, _ = spec.build(values)
             (scalar if spec.role == "scalar" else vector).append(term)
         else:
+            from ..potentials.tabulated import TabulatedTerm    # lazy: scipy.interpolate costs ~0.1 s
+
             vector.append(TabulatedTerm(path, tail=table_tail, tail_charge=table_tail_charge,
                                         origin=table_origin, r_unit=table_r_unit, v_unit=table_v_unit))
     if not vector and not scalar:
