@@ -10,6 +10,8 @@ import subprocess
 import sys
 import textwrap
 
+import pytest
+
 HEAVY = ("sympy", "findiff", "matplotlib", "dask", "distributed", "mpmath", "tqdm")
 
 
@@ -35,14 +37,19 @@ def test_solver_entry_points_and_cli_load_no_heavy_package():
     """) == []
 
 
-def test_a_command_line_solve_loads_no_interpolation_or_optimisation():
+@pytest.mark.parametrize("args", [
+    ["solve", "--param", "Z=1"],
+    ["scan", "-p", "yukawa", "--param", "Z=1", "--vary", "screening_length=5:50:3", "--workers", "1"],
+])
+def test_a_command_line_solve_loads_no_interpolation_or_optimisation(args):
     # a table potential needs scipy.interpolate (which loads scipy.optimize): ~0.1 s that every
-    # `boundkit solve` paid while the option parser imported it up front (0.44 -> 0.33 s measured)
-    script = textwrap.dedent("""
+    # `boundkit solve` paid while the option parser imported it up front (0.44 -> 0.33 s measured),
+    # and every scan while its resume key checked for a table term
+    script = textwrap.dedent(f"""
         import json, sys
         from click.testing import CliRunner
         import boundkit.cli
-        res = CliRunner().invoke(boundkit.cli.main, ["solve", "--param", "Z=1"])
+        res = CliRunner().invoke(boundkit.cli.main, {args!r})
         assert res.exit_code == 0, res.output
         print(json.dumps([m for m in ("scipy.interpolate", "scipy.optimize") if m in sys.modules]))
     """)

@@ -195,8 +195,9 @@ def identity(spec, unstable: list[str]) -> Any:
     name is appended to ``unstable`` (the caller then does not resume).
     """
     from ..potentials.expression import ExpressionTerm
-    from ..potentials.tabulated import TabulatedTerm
 
+    # a table term exists only once its module is loaded (it imports scipy.interpolate, ~0.1 s)
+    tabulated = sys.modules.get("boundkit.potentials.tabulated")
     if spec is None:
         return None
     if isinstance(spec, str):
@@ -205,7 +206,7 @@ def identity(spec, unstable: list[str]) -> Any:
         inner = getattr(spec, "inner", None)
         if isinstance(inner, Term):
             return {"wrapper": type(spec).__qualname__, "inner": identity(inner, unstable)}
-        if isinstance(spec, TabulatedTerm):
+        if tabulated is not None and isinstance(spec, tabulated.TabulatedTerm):
             digest = hashlib.sha256(np.ascontiguousarray(spec.r, float).tobytes()
                                     + np.ascontiguousarray(spec.V, float).tobytes()).hexdigest()
             return {"table_sha256": digest, "origin": spec.origin, "tail": spec.tail, "degree": spec.degree,
