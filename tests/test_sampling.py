@@ -63,3 +63,24 @@ def test_complex_values_are_refused_and_real_complex_ones_read_as_real():
         _sample(Potential((_Table(np.array([-1.0, -0.5 + 1e-3j, -0.25, -0.125])),)), R)
     s = _sample(Potential((_Table(np.array([-1.0, -0.5, -0.25, -0.125], dtype=complex)),)), R)
     assert s.V.dtype == np.float64 and s.V.tolist() == [-1.0, -0.5, -0.25, -0.125]
+
+
+def test_the_strength_kept_from_the_last_call_belongs_to_that_potential_and_mass():
+    # _strength keeps its last result (the natural length and the far-box range both read it in a
+    # solve); it must never hand one potential's or mass's values to another
+    from boundkit.equations import Schrodinger
+    from boundkit.potentials import make_potential
+    from boundkit.solver import _strength
+
+    a = make_potential("yukawa", {"Z": 1.0, "screening_length": 2.0})
+    b = make_potential("yukawa", {"Z": 3.0, "screening_length": 2.0})
+    light, heavy = Schrodinger(l=0, mass=1.0), Schrodinger(l=0, mass=273.0)
+    sa = _strength(light, a)[1]
+    assert _strength(light, a)[1] is sa                       # kept for the same object and mass
+    sb = _strength(light, b)[1]
+    normal = sa > 1e-280                                       # far out e^(-r/2) is subnormal, then 0
+    assert np.allclose(sb[normal], 3.0 * sa[normal], rtol=1e-14, atol=0)     # 2 m r^2 |V| scales with Z
+    again = _strength(light, a)[1]
+    assert again is not sb and np.array_equal(again, sa)
+    assert np.allclose(_strength(heavy, a)[1][normal], 273.0 * sa[normal], rtol=1e-14, atol=0)
+    assert not sa.flags.writeable

@@ -134,7 +134,7 @@ def sampler(pot: Potential):
     return partial(_sample, pot)
 
 
-_last_strength: list = []      # [(potential, mass, result)] of the last call: see _strength
+_last_strength = None     # (potential, mass, result) of the last call: see _strength
 
 
 def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -144,10 +144,13 @@ def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarra
     The natural length and the potential's range both read it, once each per solve of a short-range
     potential (and again when the Laguerre mesh hands the channel to the elements); the last result
     is kept, for that same potential object and mass only (held, so its id cannot be reused), with
-    read-only arrays.
+    read-only arrays. The entry is one tuple, read and replaced whole (solves may run in threads, as
+    in a Dask worker): a thread never pairs one potential with another's values.
     """
-    if _last_strength and _last_strength[0][0] is pot and _last_strength[0][1] == eq.mass:
-        return _last_strength[0][2]
+    global _last_strength
+    last = _last_strength
+    if last is not None and last[0] is pot and last[1] == eq.mass:
+        return last[2]
     r = _length_radii()
     s = _sample(pot, r, scan=True)
     v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
@@ -155,7 +158,7 @@ def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarra
         out = (r, 2 * eq.mass * r**2 * np.abs(v), v < 0)
     for a in out[1:]:
         a.flags.writeable = False
-    _last_strength[:] = [(pot, eq.mass, out)]
+    _last_strength = (pot, eq.mass, out)
     return out
 
 
