@@ -4,6 +4,10 @@ Weights come from findiff: centred stencils of the requested accuracy order
 inside, one-sided stencils of the same order near the ends. The derivative
 matrix is sparse and banded, so large grids are cheap and the eigen backend
 uses sparse shift-invert solves.
+
+A potential edge narrower than the grid's spacing (a Woods-Saxon surface of
+a/R = 1e-3) gets its nodes clustered: the grid is uniform in an analytic map
+s(t) instead (:func:`clustered_nodes`), with d/dt = (ds/dt) d/ds.
 """
 from __future__ import annotations
 
@@ -16,7 +20,7 @@ from .._checks import check_int
 from ..mesh import LogMap
 from .base import Discretization, Grid
 
-__all__ = ["FiniteDifference", "derivative_matrix"]
+__all__ = ["FiniteDifference", "clustered_nodes", "derivative_matrix"]
 
 
 @lru_cache(maxsize=16)
@@ -84,13 +88,74 @@ class FiniteDifference(Discretization):
             n *= 2
         return sizes
 
-    def grid(self, mesh: LogMap, size: int, breaks=()) -> Grid:
-        """Uniform grid in t (``breaks`` are ignored: the order drops near a kink)."""
+    def grid(self, mesh: LogMap, size: int, breaks=(), features=()) -> Grid:
+        """Uniform grid in t, or in s(t) when ``features`` are given (see :func:`clustered_nodes`).
+
+        ``breaks`` are ignored (the order drops near a kink). ``features``: (t_k, w_k) of edges of
+        width w_k (in t) narrower than the spacing of the first size; the nodes cluster there so
+        that the first size puts about :data:`POINTS_PER_WIDTH` of them across each.
+        """
         size = check_int("size", size, minimum=4 * self.order)
-        t = np.linspace(mesh.t_min, mesh.t_max, size)
-        h = t[1] - t[0]
-        D = derivative_matrix(size, self.order) / h
-        w = np.full(size, h)
-        w[0] = w[-1] = h / 2
+        if features:
+            t, ds_dt, h = clustered_nodes(mesh.t_min, mesh.t_max, features, size, self.first)
+            D = sp.diags(ds_dt) @ (derivative_matrix(size, self.order) / h)
+            w = h / ds_dt
+        else:
+            t = np.linspace(mesh.t_min, mesh.t_max, size)
+            h = t[1] - t[0]
+            D = derivative_matrix(size, self.order) / h
+            w = np.full(size, h)
+        w[0] /= 2
+        w[-1] /= 2
         return Grid(t=t, r=np.exp(t), D=D.tocsr(), D_ext=None, w=w, dense=False,
                     method=f"{self.name}", size=size, mesh=mesh)
+
+
+POINTS_PER_WIDTH = 32    # nodes across each clustered feature at the finite-difference family's first size
+
+
+def clustered_nodes(t_min: float, t_max: float, features, size: int, n_first: int):
+    """Nodes in t clustered at narrow features: ``(t, ds/dt there, spacing h in s)``.
+
+    Notes
+    -----
+    The nodes are uniform in
+
+        s(t) = t + sum_k c_k w_k arctan((t - t_k) / w_k),   ds/dt = 1 + sum_k c_k / (1 + ((t - t_k)/w_k)^2),
+
+    an analytic, increasing map, so finite differences in s keep their order for f(t(s)), and
+    d/dt = (ds/dt) d/ds. The c_k depend on the features and on ``n_first`` only, never on ``size``:
+    every size of a ladder refines the same map (its Richardson estimate needs that). They are set so
+    that ``n_first`` nodes space about w_k / POINTS_PER_WIDTH apart at t_k: with S the length of the
+    s interval, 1 + c_k = K S / ((n - 1) w_k) and S = L / (1 - K sum_k A_k / (n - 1)), A_k the
+    arctan's rise over [t_min, t_max] (at most pi), L = t_max - t_min, K = POINTS_PER_WIDTH (less
+    when the features would take more than half of the nodes). Measured on Woods-Saxon edges of
+    a/R = 1e-3 and 1e-4 (proton, R = 5 fm, tol 1e-10): K = 8, 16 and 32 give estimates of 1.9e-10,
+    4.4e-11 and 1.4e-11 for the worst level (a 4d level near threshold), against 'partial' with
+    uniform nodes; K = 32 is kept.
+    """
+    tk = np.array([f[0] for f in features], dtype=float)
+    wk = np.array([f[1] for f in features], dtype=float)
+    n1 = n_first - 1
+    A = np.arctan((t_max - tk) / wk) - np.arctan((t_min - tk) / wk)
+    # at most half of the nodes go to the features (K sum A <= n1 / 2), the rest to the smooth parts
+    K = min(float(POINTS_PER_WIDTH), 0.5 * n1 / float(np.sum(A)))
+    S = (t_max - t_min) / (1.0 - K * float(np.sum(A)) / n1)
+    ck = np.maximum(K * S / (n1 * wk) - 1.0, 0.0)
+
+    def s_of(t):
+        return t + np.sum(ck * wk * np.arctan((t[..., None] - tk) / wk), axis=-1)
+
+    def ds_dt(t):
+        return 1.0 + np.sum(ck / (1.0 + ((t[..., None] - tk) / wk) ** 2), axis=-1)
+
+    s_lo, s_hi = s_of(np.array([t_min, t_max]))
+    s = np.linspace(s_lo, s_hi, size)
+    lo, hi = np.full(size, t_min), np.full(size, t_max)
+    for _ in range(64):                      # bisection: s(t) increases; 2^-64 of the interval
+        mid = 0.5 * (lo + hi)
+        below = s_of(mid) < s
+        lo, hi = np.where(below, mid, lo), np.where(below, hi, mid)
+    t = 0.5 * (lo + hi)
+    t[0], t[-1] = t_min, t_max
+    return t, ds_dt(t), (s_hi - s_lo) / (size - 1)
