@@ -371,8 +371,9 @@ class Potential:
     @property
     def tail_charge(self) -> float:
         """Z_inf of the far tail -Z_inf/r, vector and scalar terms together (what the Schrodinger
-        equation sees)."""
-        return self.vector_tail_charge + self.scalar_tail_charge
+        equation sees): the sum of :attr:`vector_tail_charge` and :attr:`scalar_tail_charge`, added
+        term by term in one pass."""
+        return float(sum(t.tail_charge for t in self.vector + self.scalar))
 
     @property
     def vector_tail_charge(self) -> float:
