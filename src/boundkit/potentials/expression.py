@@ -273,16 +273,22 @@ class CompiledExpression:
     def switching_radii(self, params: Mapping[str, float] | None = None) -> tuple[float, ...]:
         """Radii (bohr, or the term's length unit) where the expression may jump or have a kink:
         where the condition of a ``where`` changes its truth value, and where the argument of an
-        ``abs`` changes sign (see :mod:`boundkit.potentials.switches`).
+        ``abs`` changes sign (see :mod:`boundkit.potentials.switches`); and the graded radii around
+        a smooth edge narrower than the search grid (:func:`boundkit.potentials.switches.steep_edges`).
 
         A comparison of ``r`` itself with a side free of ``r`` gives that side's value; any other
         is located numerically on 1e-9 < r < 1e8. Complex sides are skipped (a condition must
         compare real values).
         """
-        from .switches import reported, sign_changes
+        from .switches import reported, sign_changes, steep_edges
 
         values = self.check_params(params)
-        found: list[float] = []
+
+        def real_values(r):
+            out = np.asarray(self.evaluate(r, values))
+            return np.real(out) if np.iscomplexobj(out) else out
+
+        found: list[float] = list(steep_edges(real_values))
         for lhs, rhs in _switches(self._tree):
             if lhs is None or rhs is None:         # abs(x): x against 0
                 x = lhs if rhs is None else rhs
