@@ -4,7 +4,6 @@ Check values: the Woods-Saxon shape's own numbers (centre R, and the half-rise p
 give the diffuseness; common practice, from its closed form), and the graded radii the built-in term
 declares for the same edge (boundkit.potentials.library.WoodsSaxon.breakpoints).
 """
-import math
 
 import numpy as np
 import pytest
