@@ -134,7 +134,25 @@ def sampler(pot: Potential):
     return partial(_sample, pot)
 
 
-_last_strength = None     # (potential, mass, result) of the last call: see _strength
+class _LastResult:
+    """The last result of a function of one potential object (and a key), kept for that same object
+    and key only. The object is held, so its id cannot be reused; the entry is one tuple, read and
+    replaced whole, so that solves in threads (a Dask worker) never pair one potential with another's
+    result."""
+
+    def __init__(self) -> None:
+        self._entry = None
+
+    def get(self, pot, key, compute):
+        entry = self._entry
+        if entry is not None and entry[0] is pot and entry[1] == key:
+            return entry[2]
+        out = compute()
+        self._entry = (pot, key, out)
+        return out
+
+
+_last_strength = _LastResult()
 
 
 def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -142,24 +160,20 @@ def _strength(eq: RadialEquation, pot: Potential) -> tuple[np.ndarray, np.ndarra
     looked for on; a 1/r^2 part has no length of its own (it only shifts l) and is left out.
 
     The natural length and the potential's range both read it, once each per solve of a short-range
-    potential (and again when the Laguerre mesh hands the channel to the elements); the last result
-    is kept, for that same potential object and mass only (held, so its id cannot be reused), with
-    read-only arrays. The entry is one tuple, read and replaced whole (solves may run in threads, as
-    in a Dask worker): a thread never pairs one potential with another's values.
+    potential (and again when the Laguerre mesh hands the channel to the elements): the last result is
+    kept (:class:`_LastResult`, for that potential object and mass), with read-only arrays.
     """
-    global _last_strength
-    last = _last_strength
-    if last is not None and last[0] is pot and last[1] == eq.mass:
-        return last[2]
-    r = _length_radii()
-    s = _sample(pot, r, scan=True)
-    v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
-    with np.errstate(over="ignore", invalid="ignore"):
-        out = (r, 2 * eq.mass * r**2 * np.abs(v), v < 0)
-    for a in out[1:]:
-        a.flags.writeable = False
-    _last_strength = (pot, eq.mass, out)
-    return out
+    def compute():
+        r = _length_radii()
+        s = _sample(pot, r, scan=True)
+        v = s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / r**2
+        with np.errstate(over="ignore", invalid="ignore"):
+            out = (r, 2 * eq.mass * r**2 * np.abs(v), v < 0)
+        for a in out[1:]:
+            a.flags.writeable = False
+        return out
+
+    return _last_strength.get(pot, eq.mass, compute)
 
 
 def _natural_length(eq: RadialEquation, pot: Potential) -> float:
@@ -450,35 +464,31 @@ def _converged(history: list[float], disc: Discretization, tol: float, order: in
     return True
 
 
-_last_edges = None      # (potential, its edges) of the last call: see _edges
+_last_edges = _LastResult()
 
 
 def _edges(pot) -> tuple:
     """(t_k, w_k) at each of the potential's breakpoints: where the layout's shape rate
     (:func:`boundkit.ladder._shape_rate`, about one over the edge's width in t) peaks within +-0.2 in
-    t of it (8001 samples), and one over that peak. Kept for the last potential object (one tuple,
-    read and replaced whole, as for :func:`_strength`): a finite-difference solve asks for every
-    level at every size."""
+    t of it (8001 samples), and one over that peak. Kept for the last potential object
+    (:class:`_LastResult`): a finite-difference solve asks for every level at every size."""
     from .ladder import _shape_rate
 
-    global _last_edges
-    last = _last_edges
-    if last is not None and last[0] is pot:
-        return last[1]
-    out = []
-    for b in pot.breakpoints:
-        if not b > 0:
-            continue
-        tb = math.log(b)
-        t = np.linspace(tb - 0.2, tb + 0.2, 8001)
-        r = np.exp(t)
-        rate = _shape_rate(t, r, _sample(pot, r, scan=True))
-        peak = float(np.max(rate))
-        if peak > 0:
-            out.append((float(t[int(np.argmax(rate))]), 1.0 / peak))
-    out = tuple(sorted(out))
-    _last_edges = (pot, out)
-    return out
+    def compute():
+        out = []
+        for b in pot.breakpoints:
+            if not b > 0:
+                continue
+            tb = math.log(b)
+            t = np.linspace(tb - 0.2, tb + 0.2, 8001)
+            r = np.exp(t)
+            rate = _shape_rate(t, r, _sample(pot, r, scan=True))
+            peak = float(np.max(rate))
+            if peak > 0:
+                out.append((float(t[int(np.argmax(rate))]), 1.0 / peak))
+        return tuple(sorted(out))
+
+    return _last_edges.get(pot, None, compute)
 
 
 def _sharp_features(pot, mesh, n_first: int) -> tuple:
