@@ -916,6 +916,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     if settled:
         tally.notes.append(f"{settled} lowest level(s) met tol on degree {rungs[hist.at[settled - 1][-1][0]].degree} "
                            "or below and were not solved on the rungs above")
+    v_abs: dict[int, np.ndarray] = {}       # |V| + |S| on each rung's nodes, once per rung
     for k in range(settled + len(last.located.energies)):
         h = hist.E[k]
         ri, i = hist.at[k][-1]
@@ -923,7 +924,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         E = rk.located.energies[i]
         n = principal_n(k + offset, eq.l)
         state = _element_state(eq, rk.op, E, rk.located.vectors[i])
-        V_abs = np.abs(rk.op.sample.V) + np.abs(rk.op.sample.S)      # on the nodes the state lives on
+        if ri not in v_abs:                  # on the nodes the state lives on
+            v_abs[ri] = np.abs(rk.op.sample.V) + np.abs(rk.op.sample.S)
+        V_abs = v_abs[ri]
         est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
         est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol)
         tally.potential_floor_hit |= hit
