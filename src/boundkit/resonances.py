@@ -434,7 +434,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         return _operator(eq, mesh, *_sample(pot, mesh, analytic))
 
     runs = [(th, order) for th in angles] + [(angles[0], orders[0])]
-    spectra, failed = _spectra(runs, run)
+    spectra, failed = _spectra(runs, lambda key: run(*key))
     if failed is not None:
         (th, o), exc = failed
         log.warning("complex eigen solve failed at theta = %g, order %d: %s", th, o, exc)
@@ -475,7 +475,7 @@ def _eigvals(M: np.ndarray) -> np.ndarray:
 
 
 def _spectra(keys, build):
-    """Eigenvalues of the matrices ``build(*key)`` for each key: ``({key: eigenvalues}, None)``, or
+    """Eigenvalues of the matrices ``build(key)`` for each key: ``({key: eigenvalues}, None)``, or
     ``(partial, (key, exception))`` for the first key (in order) whose eigen solve failed (errors
     raised by ``build``, such as a potential that is not finite, propagate).
 
@@ -495,7 +495,7 @@ def _spectra(keys, build):
         while todo or pending:
             while todo and len(pending) < workers:
                 key = todo.pop(0)
-                pending[pool.submit(_eigvals, build(*key))] = key     # build's own errors propagate
+                pending[pool.submit(_eigvals, build(key))] = key      # build's own errors propagate
             done, _ = wait(pending, return_when=FIRST_COMPLETED)
             for fut in done:
                 key = pending.pop(fut)
@@ -545,10 +545,10 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
             m = meshes[1] if k == 1 else build_mesh(edges, order - 4, r0, angles[0])
             return _operator(eq, m, *_real_limit(*_sample(pot, m, analytic), m.exterior))
 
-        got, failed = _spectra([(0,), (1,), (2,)], build)
+        got, failed = _spectra([0, 1, 2], build)
         if failed is not None:
             raise failed[1]
-        E1, E2, E3 = (got[(k,)] for k in range(3))
+        E1, E2, E3 = (got[k] for k in range(3))
     else:
         E1, E2, E3 = spectra[(angles[0], order)], spectra[(angles[1], order)], spectra[(angles[0], order - 4)]
     scale = max(abs(window[0]), abs(window[1]))
