@@ -43,7 +43,7 @@ def test_derivative_of_a_sharp_tanh_converges_at_the_stencil_order(order):
     t0, w = EDGE
     errs = []
     for n in (600, 1200):
-        g = fd.grid(MESH, n, features=[EDGE])
+        g = fd.grid(MESH, n, edges=[EDGE])
         f = np.tanh((g.t - t0) / w)
         exact = sech2((g.t - t0) / w) / w
         errs.append(float(np.max(np.abs(g.D @ f - exact)) * w))
@@ -59,12 +59,12 @@ def test_weights_integrate_across_the_edge():
     # integral of sech^2((t - t0)/w) / w over the mesh is tanh's rise, 2 (to e^-2000)
     fd = FiniteDifference(8)
     t0, w = EDGE
-    g = fd.grid(MESH, 2400, features=[EDGE])
+    g = fd.grid(MESH, 2400, edges=[EDGE])
     assert float(g.w @ (sech2((g.t - t0) / w) / w)) == pytest.approx(2.0, rel=1e-6)
 
 
 def test_no_features_is_the_uniform_grid_bit_for_bit():
     fd = FiniteDifference(8)
-    a, b = fd.grid(MESH, 600), fd.grid(MESH, 600, features=())
+    a, b = fd.grid(MESH, 600), fd.grid(MESH, 600, edges=())
     assert np.array_equal(a.t, b.t) and np.array_equal(a.w, b.w) and (a.D != b.D).nnz == 0
     assert np.array_equal(a.t, np.linspace(MESH.t_min, MESH.t_max, 600))

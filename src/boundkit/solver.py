@@ -470,8 +470,10 @@ _last_edges = _LastResult()
 def _edges(pot) -> tuple:
     """(t_k, w_k) at each of the potential's breakpoints: where the layout's shape rate
     (:func:`boundkit.ladder._shape_rate`, about one over the edge's width in t) peaks within +-0.2 in
-    t of it (8001 samples), and one over that peak. Kept for the last potential object
-    (:class:`_LastResult`): a finite-difference solve asks for every level at every size."""
+    t of it (8001 samples), and one over that peak, for the grids that cluster their nodes at narrow
+    edges (``Discretization.uses_edges``; :func:`boundkit.discretize.finite_difference.narrow_edges`).
+    Kept for the last potential object (:class:`_LastResult`): a finite-difference solve asks for
+    every level at every size."""
     from .ladder import _shape_rate
 
     def compute():
@@ -491,32 +493,6 @@ def _edges(pot) -> tuple:
     return _last_edges.get(pot, None, compute)
 
 
-def _sharp_features(pot, mesh, n_first: int) -> tuple:
-    """(t_k, w_k) of the potential's edges (:func:`_edges`) on ``mesh`` that are narrower than the
-    spacing of a uniform n_first-node grid in t there, for the finite-difference grid to cluster its
-    nodes at (:func:`boundkit.discretize.finite_difference.clustered_nodes`).
-
-    Notes
-    -----
-    Edges within 4 widths of each other count once, the narrowest (a sharp Woods-Saxon surface
-    declares graded breakpoints around R). A uniform grid spaces its 600 first nodes 2e-3 to 3e-2
-    apart in t, so a nuclear surface of diffuseness 0.5 fm (w about a/R = 0.1) is no feature, and a
-    Woods-Saxon edge of a/R = 1e-3 is.
-    """
-    t_lo, t_hi = mesh.t_min, mesh.t_max
-    spacing = (t_hi - t_lo) / (n_first - 1)
-    merged: list = []
-    for tk, wk in _edges(pot):
-        if not (t_lo < tk < t_hi and wk < spacing):
-            continue
-        if merged and tk - merged[-1][0] < 4 * max(wk, merged[-1][1]):
-            if wk < merged[-1][1]:
-                merged[-1] = (tk, wk)
-            continue
-        merged.append((tk, wk))
-    return tuple(merged)
-
-
 def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi, reach=math.inf):
     """(operator, refined level, its node count) of the k-node level near E_seed on one grid, or None.
 
@@ -524,10 +500,7 @@ def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi, 
     are the candidates; one whose vector has k nodes is preferred, else the nearest is taken: in two
     wells apart a level's node lies in its tunnelling tail, below what :func:`count_nodes` looks at.
     """
-    if disc.family == "finite-difference":
-        grid = disc.grid(mesh, size, breaks=pot.breakpoints, features=_sharp_features(pot, mesh, disc.first))
-    else:
-        grid = disc.grid(mesh, size, breaks=pot.breakpoints)
+    grid = disc.grid(mesh, size, breaks=pot.breakpoints, edges=_edges(pot) if disc.uses_edges else ())
     op = FactorizedOperator(eq, grid, _sample(pot, grid.r), gamma, r_core, E_ref=E_seed)
     A, B = op.pencil(E_seed)
     if grid.dense:

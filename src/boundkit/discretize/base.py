@@ -88,8 +88,11 @@ class Discretization:
     floor: float = 1e-12
     first: int = 0
     cap: int = 0
+    uses_edges: ClassVar[bool] = False   # whether grid() reads ``edges`` (the caller measures them only then)
 
-    def grid(self, mesh: LogMap, size: int, breaks=()) -> Grid:  # pragma: no cover - contract
+    def grid(self, mesh: LogMap, size: int, breaks=(), edges=()) -> Grid:  # pragma: no cover - contract
+        """Nodes on ``mesh``; ``breaks`` are radii where the potential is not smooth, ``edges`` the
+        (t_k, w_k) of its measured edges (a family with ``uses_edges`` False ignores them)."""
         raise NotImplementedError
 
     def ladder(self) -> list[int]:  # pragma: no cover - contract

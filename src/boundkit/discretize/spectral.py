@@ -89,9 +89,10 @@ class Chebyshev(Discretization):
             n = int(round(n * 1.25 / 4)) * 4
         return sizes
 
-    def grid(self, mesh: LogMap, size: int, breaks=()) -> Grid:
+    def grid(self, mesh: LogMap, size: int, breaks=(), edges=()) -> Grid:
         """Chebyshev grid; with ``breaks`` inside the mesh, one element per
-        piece (sizes in proportion to their length in t, at least size/2 each)."""
+        piece (sizes in proportion to their length in t, at least size/2 each). ``edges`` are
+        not used (the breaks already place element ends there)."""
         t0, t1 = np.longdouble(mesh.t_min), np.longdouble(mesh.t_max)
         cuts = [np.longdouble(np.log(b)) for b in sorted(breaks)
                 if mesh.r_min * 1.001 < b < mesh.r_max * 0.999]
