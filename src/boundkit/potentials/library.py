@@ -505,13 +505,10 @@ class WoodsSaxon(Term):
         (up to 0.05 R): elements graded geometrically from the surface, each spanning a stretch
         where the shape is analytic on a scale of its own length.
         """
+        from .switches import graded_around
+
         R, a = self.values["radius"], self.values["diffuseness"]
-        points = [R]
-        if a < 0.01 * R:
-            k = 2.0
-            while k * a < 0.05 * R:
-                points += [R - k * a, R + k * a]
-                k *= 4.0
+        points = [R, *graded_around(R, a)] if a < 0.01 * R else [R]
         return tuple(sorted(p for p in points if p > 0))
 
     def _evaluate(self, r):

@@ -39,7 +39,8 @@ from typing import Callable
 
 import numpy as np
 
-__all__ = ["MAX_SWITCHES", "breaks", "jumps", "reported", "sign_changes", "steep_edges", "wide_grid"]
+__all__ = ["MAX_SWITCHES", "breaks", "graded_around", "jumps", "reported", "sign_changes", "steep_edges",
+           "wide_grid"]
 
 log = logging.getLogger(__name__)
 
@@ -218,12 +219,19 @@ def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=()) -> tuple[flo
         # jump has no width at all (the three crossings meet at neighbouring floating point numbers)
         if not (a < c < b and 1e-12 * c < w < 0.05 * (b - a)):
             continue
-        out.append(c)
-        k = 2.0
-        while k * w < 0.05 * c:
-            out += [c - k * w, c + k * w]
-            k *= 4.0
+        out += [c, *graded_around(c, w)]
     return tuple(sorted(x for x in out if x > 0))
+
+
+def graded_around(c: float, w: float) -> list[float]:
+    """c -+ 2w, 8w, 32w, ... up to 0.05 c: element ends graded geometrically from an edge of width w
+    at c, each element spanning a stretch where the shape is analytic on a scale of its own length
+    (the built-in Woods-Saxon term's sharp surface, and :func:`steep_edges`)."""
+    out, k = [], 2.0
+    while k * w < 0.05 * c:
+        out += [c - k * w, c + k * w]
+        k *= 4.0
+    return out
 
 
 def reported(radii, label: str) -> tuple[float, ...]:
