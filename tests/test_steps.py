@@ -73,7 +73,8 @@ def test_callable_kinks_and_curvature_jumps_are_located(func, where, rel):
 @pytest.mark.parametrize("func", [
     lambda r: -1.0 / r,
     lambda r: -np.exp(-r),
-    lambda r: -50.0 / (1.0 + np.exp((r - 1.0) / 1e-3)),       # steep but smooth: not a jump
+    lambda r: -50.0 / (1.0 + np.exp((r - 1.0) / 0.02)),       # steep but smooth: not a jump (a/R < 1e-2
+    #                                                           gets graded radii: test_steep_edges.py)
     lambda r: -50.0 / (1.0 + np.exp((r - 5.0) / 0.5)),
     lambda r: 0.5 * r**2,
     lambda r: -0.5 / r + 0.2 * r,

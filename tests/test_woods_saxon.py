@@ -154,17 +154,25 @@ def test_finite_differences_resolve_a_nearly_square_edge(V0, R, a, l):
         assert abs(a_.energy - b_.energy) <= a_.error_estimate + b_.error_estimate, (a_.label, a_.energy, b_.energy)
 
 
-@pytest.mark.parametrize("a", [5e-4, 1e-4])
-def test_a_sharp_edge_written_as_an_expression_gets_the_graded_elements_too(a):
+_PROTON = dict(units="nuclear", particle="proton")       # R = 5 fm, depth 50 MeV
+
+
+@pytest.mark.parametrize("a, l, more", [(5e-4, 0, {}), (1e-4, 0, {}), (0.0029, 1, _PROTON), (0.0022, 2, _PROTON),
+                                        (0.0057, 2, _PROTON)])
+def test_a_sharp_edge_written_as_an_expression_gets_the_graded_elements_too(a, l, more):
     """The same Woods-Saxon well (atomic units, R = 5 bohr) written as an expression, which declares
     no breakpoints: its edge (a/R = 1e-4, 2e-5) is narrower than every sampling of the potential. The
     solve ended 'ok' with estimates of 1e-12 while 35 to 37 times those off the built-in term (a = 5e-4),
     and 2.5 times off with 'tolerance-not-met' (a = 1e-4). The breakpoint search now reports a smooth
-    edge narrower than its grid, with graded radii like the built-in term's. Check: the built-in term
-    (tested against the exact condition above), within the two estimates."""
+    edge narrower than its grid, with graded radii like the built-in term's. Edges a little wider than
+    the grid's spacing but still below a/R = 1e-2, where the built-in term grades its own, slipped
+    through both searches: a/R = 5.8e-4 (l = 1) ended 'ok' with errors of 5e-10 at tol 1e-10, 7 times
+    its estimates; a/R = 4.4e-4 (l = 2) ended 'tolerance-not-met'; a/R = 1.1e-3 (l = 2) was 12 times
+    its estimates off (a proton). Check: the built-in term (tested against the exact condition above), within the
+    two estimates."""
     from boundkit.potentials.expression import ExpressionTerm
 
-    kw = dict(l=0, levels=3, tol=1e-10)
+    kw = dict(l=l, levels=3, tol=1e-10, **more)
     ref = boundkit.solve("schrodinger", "woods-saxon", {"depth": 50.0, "radius": 5.0, "diffuseness": a}, **kw)
     got = boundkit.solve("schrodinger", ExpressionTerm(f"-50/(1 + exp((r - 5)/{a!r}))"), {}, **kw)
     assert ref.status == "ok" and got.status == "ok", got.message

@@ -22,8 +22,10 @@ by the user must have them found:
   a higher derivative is not looked for;
 - for both: a smooth but steep change narrower than the grid (a Woods-Saxon edge of
   a/R = 1e-4 written by hand) fades under those searches, but shows as a step between
-  two samples; it is reported with graded radii around it, as the built-in
-  Woods-Saxon term declares its own (:func:`steep_edges`).
+  two samples; a step between two plateaus over a few samples (a/R up to 1e-2) is still
+  narrower than the layout's own sampling. Either is reported with graded radii
+  around it, as the built-in Woods-Saxon term declares its own for a < 0.01 R
+  (:func:`steep_edges`).
 
 Neither search can see a switch on an interval narrower than the grid spacing
 (0.23 %) unless it is written as ``r`` compared with a constant. More than
@@ -188,7 +190,8 @@ def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=()) -> tuple[flo
     0.05 c, the graded boundaries the built-in Woods-Saxon term declares for its sharp edges
     (:class:`boundkit.potentials.library.WoodsSaxon`), so that each element spans a stretch where
     the shape is analytic on a scale of its own length. Without them the layout's sampling never saw
-    the edge: a solve ended 'ok' with estimates 35 times below its error.
+    the edge: a solve ended 'ok' with estimates 35 times below its error. Steps wider than the grid's
+    spacing but narrower than 0.01 c are found by :func:`_sharp_steps` and graded the same way.
     """
     r = wide_grid()
     v = _values(fn, r) if v is None else v
@@ -208,19 +211,88 @@ def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=()) -> tuple[flo
         if not (math.isfinite(va) and math.isfinite(vb)) or va == vb:
             continue
 
-        def crossing(f, a=a, b=b, va=va, vb=vb):
-            target = va + f * (vb - va)
-            above = va > target
-            return _narrowed(a, b, lambda x: bool(float(_values(fn, [x])[0]) > target) == above)
-
-        c, lo, hi = crossing(0.5), crossing(0.25), crossing(0.75)
-        w = abs(hi - lo) / (2.0 * math.log(3.0))
+        c, w = _centre_and_width(fn, a, b, va, vb)
         # narrower than the grid: a change spread evenly over the interval has w = 0.23 (b - a); a
         # jump has no width at all (the three crossings meet at neighbouring floating point numbers)
         if not (a < c < b and 1e-12 * c < w < 0.05 * (b - a)):
             continue
         out += [c, *graded_around(c, w)]
+    for c, w in _sharp_steps(fn, r, v, skip=[*skip, *out]):      # (out: the narrow edges' radii)
+        out += [c, *graded_around(c, w)]
     return tuple(sorted(x for x in out if x > 0))
+
+
+def _centre_and_width(fn: Callable, a: float, b: float, va: float, vb: float) -> tuple[float, float]:
+    """(c, w) of a step of fn from va at a to vb at b: c where it crosses halfway, and
+    w = (r_75 - r_25) / (2 ln 3) from where it crosses a quarter and three quarters of the way (the
+    diffuseness of a Woods-Saxon or Fermi shape), each bisected to neighbouring floating point numbers."""
+
+    def crossing(f):
+        target = va + f * (vb - va)
+        above = va > target
+        return _narrowed(a, b, lambda x: bool(float(_values(fn, [x])[0]) > target) == above)
+
+    c, lo, hi = crossing(0.5), crossing(0.25), crossing(0.75)
+    return c, abs(hi - lo) / (2.0 * math.log(3.0))
+
+
+_STEP_REACH = 40        # most samples of the wide grid a step of width 0.01 c spreads over on each side
+_STEP_QUIET = 12        # samples beyond it that must be quiet (a plateau)
+
+
+def _sharp_steps(fn: Callable, r: np.ndarray, v: np.ndarray, skip) -> list[tuple[float, float]]:
+    """(centre c, width w) of each smooth step of fn between two plateaus, w < 0.01 c, that spreads
+    over a few samples of the wide grid (the steps narrower than one spacing are :func:`steep_edges`'
+    first search). The built-in Woods-Saxon term grades its elements around such an edge
+    (a < 0.01 R); the layout's own sampling is coarser than it, and a hand-written edge of
+    a/R = 4e-4 to 2e-3 ended 'ok' with errors 7 times its estimates, or 'tolerance-not-met'.
+
+    Notes
+    -----
+    A candidate is a local maximum of the difference between neighbouring samples. The step runs
+    outwards from it while the differences keep their sign and stay above 1 % of it, at most
+    _STEP_REACH samples each way, and must be followed by _STEP_QUIET samples whose differences stay
+    below 2 % of it on either side: a plateau, not a slope, a well's wall or a bump's far flank. The
+    values at the ends of those quiet stretches must differ by at least 90 % of the step (a bump
+    narrower than the spacing has one flank sampled and returns to where it started). Its centre and
+    width come from the crossings of a quarter, a half and three quarters of the way between those
+    ends, as for the narrow edges.
+    """
+    with np.errstate(all="ignore"):
+        d = np.diff(v)
+        d = np.where(np.isfinite(d), d, 0.0)
+    ad = np.abs(d)
+    size = np.maximum(np.abs(v[:-1]), np.abs(v[1:]))
+    size = np.where(np.isfinite(size), size, 0.0)
+    peak = ad > 1e-7 * size
+    peak[1:] &= ad[1:] >= ad[:-1]
+    peak[:-1] &= ad[:-1] > ad[1:]
+    peak[:_STEP_REACH + _STEP_QUIET] = peak[-(_STEP_REACH + _STEP_QUIET):] = False
+    cand = np.nonzero(peak)[0]
+    if len(cand) > 4 * MAX_SWITCHES:
+        return []
+    out = []
+    for i in cand:
+        top, sign = ad[i], d[i] > 0
+        lo = hi = int(i)
+        while i - lo < _STEP_REACH and (d[lo - 1] > 0) == sign and ad[lo - 1] > 0.01 * top:
+            lo -= 1
+        while hi - i < _STEP_REACH and (d[hi + 1] > 0) == sign and ad[hi + 1] > 0.01 * top:
+            hi += 1
+        if i - lo >= _STEP_REACH or hi - i >= _STEP_REACH:
+            continue                               # wider than 0.01 c, or no plateau within reach
+        if max(ad[lo - _STEP_QUIET:lo].max(), ad[hi + 1:hi + 1 + _STEP_QUIET].max()) >= 0.02 * top:
+            continue
+        # the ends: the last quiet samples, where a step of width up to 0.01 c is within 1e-5 of its
+        # plateaus; a bump (or a wall) is no step, even when its flank looks like one
+        a, b = float(r[lo - _STEP_QUIET]), float(r[hi + 1 + _STEP_QUIET])
+        va, vb = float(v[lo - _STEP_QUIET]), float(v[hi + 1 + _STEP_QUIET])
+        if not abs(vb - va) >= 0.9 * abs(float(v[hi + 1]) - float(v[lo])) or any(a <= x <= b for x in skip):
+            continue
+        c, w = _centre_and_width(fn, a, b, va, vb)
+        if a < c < b and 1e-12 * c < w < 0.01 * c:
+            out.append((c, w))
+    return out
 
 
 def graded_around(c: float, w: float) -> list[float]:
