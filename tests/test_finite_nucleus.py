@@ -64,3 +64,41 @@ def test_an_element_boundary_changes_nothing_for_a_smooth_potential(equation, ch
         exact = (boundkit.exact.schrodinger_coulomb(1, lv.n) if equation == "schrodinger"
                  else boundkit.exact.dirac_coulomb(1, lv.n, lv.kappa))
         assert abs(lv.energy - exact) <= 1e-12 * abs(exact)
+
+
+@pytest.mark.parametrize("particle", ["electron", "muon"])
+def test_a_sharp_fermi_surface_approaches_the_uniform_sphere_as_t_squared(particle):
+    """A two-parameter Fermi nucleus with a thin skin (t = 0.016 to 0.064 fm, Z = 82, rms 5.5 fm) and
+    the uniform sphere of the same rms radius differ by even powers of a/c (the Sommerfeld expansion
+    of the Fermi-Dirac integrals of the shape; common practice, no source), so the 1s1/2 level's
+    distance from the sphere's grows as t^2: doubling t multiplies it by 4, to (a/c)^2 ~ 1e-5. The
+    Fermi term declared no breakpoints: the levels ended 'tolerance-not-met' at 1e-12 with estimates
+    of 3e-9 (electron) and 3e-7 (muon), and the distances went 0.71 and -0.40 (electron), -6.1 and
+    5.6 (muon) times the one before. A surface with a < 0.05 c now gets graded element ends."""
+    kw = dict(kappa=-1, levels=1, tol=1e-12, particle=particle)
+    sphere = boundkit.solve("dirac", "uniform-sphere", {"Z": 82, "rms_fm": 5.5}, **kw).levels[0].energy
+    shifts = []
+    for t in (0.016, 0.032, 0.064):
+        res = boundkit.solve("dirac", "fermi", {"Z": 82, "rms_fm": 5.5, "t_fm": t}, **kw)
+        assert res.status == "ok", res.message
+        shifts.append(res.levels[0].energy - sphere)
+    # the electron's distances are 6e-11 to 9e-10 relative: their own rounding (2e-14) allows 1e-3
+    assert shifts[1] / shifts[0] == pytest.approx(4.0, abs=0.01)
+    assert shifts[2] / shifts[1] == pytest.approx(4.0, abs=0.01)
+
+
+def test_only_a_sharp_fermi_surface_gets_breakpoints():
+    sharp = boundkit.make_potential("fermi", {"Z": 82, "rms_fm": 5.5, "t_fm": 0.05})
+    term = sharp.vector[0]
+    assert term.c in sharp.breakpoints and len(sharp.breakpoints) > 1
+    assert boundkit.make_potential("fermi", {"Z": 82, "rms_fm": 5.5}).breakpoints == ()     # t = 2.3 fm
+
+
+def test_a_sharp_optical_density_gets_the_woods_saxon_terms_graded_radii():
+    """The t-rho optical potential has the Woods-Saxon shape (a Fermi density): the same graded radii
+    for a/c < 1e-2, none for the usual a = 0.523 fm."""
+    opt = dict(A=40, c_fm=4.0, b0_re_fm=-0.03, b0_im_fm=0.04, mu_mev=139.0)
+    sharp = boundkit.make_potential("optical-trho", {**opt, "a_fm": 0.004}, units="nuclear")
+    ws = boundkit.make_potential("woods-saxon", {"depth": 1.0, "radius": 4.0, "diffuseness": 0.004}, units="nuclear")
+    assert sharp.breakpoints == pytest.approx(ws.breakpoints, rel=1e-12)
+    assert boundkit.make_potential("optical-trho", opt, units="nuclear").breakpoints == ()

@@ -247,6 +247,11 @@ class Fermi(Term):
     Ends: V is finite and flat at the origin, V(0) = -4 pi rho0 a^2 F_2(c/a)
     (origin_charge 0); far out V = -Z/r up to terms ~ exp(-(r-c)/a)
     (tail_charge Z).
+
+    Breakpoints: none for a usual skin (t = 2.3 fm gives a/c > 0.07). V'' follows the density, which
+    falls over a few a at c; for a < 0.05 c (a skin under about 1.5 fm on a lead-sized nucleus) the
+    layout's sampling does not see that fall, and the levels stalled at estimates of 1e-9 (electron)
+    to 3e-7 (muon). Then c and graded radii around it are declared, as for a sharp Woods-Saxon edge.
     """
 
     name = "fermi"
@@ -261,6 +266,7 @@ class Fermi(Term):
 
     _GL_NODES = 24
     _SPLIT = 4.0  # r <= _SPLIT * a: enclosed charge by Gauss-Legendre on [0, r]
+    _SHARP = 0.05  # a < _SHARP c: the surface gets graded element ends (breakpoints)
 
     def _validate(self) -> None:
         rms, t = self.values["rms_fm"], self.values["t_fm"]
@@ -297,6 +303,14 @@ class Fermi(Term):
         x, w = roots_legendre(self._GL_NODES)
         self._gl_x = 0.5 * (x + 1.0)
         self._gl_w = 0.5 * w * self._gl_x**2
+
+    @property
+    def breakpoints(self) -> tuple[float, ...]:
+        """c and the graded radii around it when the surface is sharp (a < _SHARP c; see Notes); else none."""
+        from .switches import graded_around
+
+        c, a = self.c, self.a
+        return tuple(sorted(p for p in (c, *graded_around(c, a)) if p > 0)) if a < self._SHARP * c else ()
 
     @staticmethod
     def rms_of(c: float, a: float) -> float:

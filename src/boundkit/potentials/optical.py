@@ -148,6 +148,16 @@ class OpticalTRho(Term):
         return self._depth * MEV_IN_HARTREE * shape
 
     @property
+    def breakpoints(self) -> tuple[float, ...]:
+        """c and graded radii around it for a surface sharper than a hundredth of c, as the
+        Woods-Saxon term declares for the same shape (:class:`boundkit.potentials.library.WoodsSaxon`);
+        none for a usual surface (a = 0.523 fm)."""
+        from .switches import graded_around
+
+        c, a = self._c, self._a
+        return tuple(sorted(p for p in (c, *graded_around(c, a)) if p > 0)) if a < 0.01 * c else ()
+
+    @property
     def depth_mev(self) -> complex:
         """V_opt at the centre of a flat density, rho = rho0 (MeV)."""
         return complex(self._depth)
