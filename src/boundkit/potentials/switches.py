@@ -162,10 +162,15 @@ def _step_candidates(v: np.ndarray):
         trend[1:-1] = 0.5 * (d[:-2] + d[2:])
         excess = np.abs(d - trend)
         excess = np.where(np.isfinite(excess), excess, 0.0)
+        # the largest excess 3 to 14 places away on either side (one shifted maximum per offset: the
+        # same values as a sliding window's, five times faster)
         w = 12
+        n = len(excess)
         pad = np.pad(excess, w + 2)
-        win = np.lib.stride_tricks.sliding_window_view(pad, 2 * w + 5)     # window k is centred on k
-        background = np.maximum(win[:, :w].max(axis=1), win[:, w + 5:].max(axis=1))
+        background = np.zeros_like(excess)
+        for j in range(3, w + 3):
+            np.maximum(background, pad[w + 2 - j:w + 2 - j + n], out=background)
+            np.maximum(background, pad[w + 2 + j:w + 2 + j + n], out=background)
         size = np.maximum(np.abs(v[:-1]), np.abs(v[1:]))
         size = np.where(np.isfinite(size), size, 0.0)
         peak = np.ones_like(excess, dtype=bool)
