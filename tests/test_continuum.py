@@ -609,3 +609,22 @@ def test_free_zero_count_counts_a_zero_just_below_x():
             x = m * math.pi + eps
             assert free_zero_count(0, x) == m, (m, eps)
             assert free_zero_count(0, m * math.pi - eps) == m - 1
+
+
+def test_a_vanishing_phase_stays_on_the_zero_branch():
+    """Pure Coulomb has no phase relative to the Coulomb phase, and a well of 1e-15 hartree next to none
+    (Born: delta ~ 1e-15). The branch of delta came from the Pruefer angle of the matched solution
+    minus that of F, taken mod pi in [0, pi) for delta >= 0: with delta ~ 1e-16 a rounding of 1e-15 in
+    either angle put it at pi - 1e-15, and delta came back as -pi or +pi ('ok' without the estimate;
+    with it, 'tolerance-not-met' with an estimate of pi). Exact: 0 (common practice) and the
+    square-well matching in mpmath."""
+    E = np.geomspace(1e-3, 100, 16)
+    for Z, l in ((1.0, 0), (-3.0, 1), (30.0, 3)):
+        res = phase_shifts(E, "schrodinger", "coulomb", {"Z": Z}, l=l, estimate_error=False)
+        assert np.max(np.abs(res.delta)) < 1e-9, (Z, l, res.delta / np.pi)
+        res = phase_shifts(E, "schrodinger", "coulomb", {"Z": Z}, l=l)
+        assert res.status == "ok" and np.max(np.abs(res.delta)) < 1e-9, res.message
+    E = np.geomspace(1e-3, 100, 40)
+    res = phase_shifts(E, "schrodinger", SquareWell(V0=1e-15, R=1.0), l=0, estimate_error=False)
+    exact = np.array([float(_square_well_mod_pi(0, e, 1e-15, 1.0)) for e in E])
+    assert np.max(np.abs(res.delta - exact)) < 1e-9     # (tol 1e-8)

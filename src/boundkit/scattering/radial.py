@@ -304,6 +304,21 @@ class Match:
     residual: float
 
 
+def _turn(k, F0, F1, G0, G1, delta: float, lib) -> float:
+    """Pruefer angle of cos(delta) F + sin(delta) G at R minus that of F, delta in (-pi/2, pi/2]: the
+    angle from the vector (F', k F) to (cos(delta) F' + sin(delta) G', k (cos(delta) F + sin(delta) G)),
+    in [0, pi) for delta >= 0 and (-pi, 0] for delta < 0, 0 at delta = 0.
+
+    Taken as atan2 of the two vectors' cross and dot products, so that it is small with delta: the
+    difference of the two angles reduced mod pi put a delta of 1e-16 at pi - 1e-15 when one angle
+    was rounded the other way, and the phase came back as -pi or +pi. ``lib`` is math, or mpmath for
+    values outside the double range (a Coulomb tail).
+    """
+    c, s = lib.cos(delta), lib.sin(delta)
+    du, u = c * F1 + s * G1, c * F0 + s * G0
+    return float(lib.atan2(k * (F1 * u - F0 * du), F1 * du + k * k * F0 * u))
+
+
 def _wrap(x: float) -> float:
     """x into (-pi/2, pi/2]."""
     x = math.fmod(x, math.pi)
@@ -337,18 +352,14 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
             phi_num = math.atan2(k * ref_raw.u, ref_raw.du) % pi
             phi_F = float(mpmath.atan2(k * F0, F1)) % pi
             theta_F = ref_raw.nodes * pi + phi_num + math.remainder(phi_F - phi_num, pi)
-            c, s = mpmath.cos(delta), mpmath.sin(delta)
-            phi_d = float(mpmath.atan2(k * (c * F0 + s * G0), c * F1 + s * G1)) % pi
+            inc = _turn(k, F0, F1, G0, G1, delta, mpmath)
     else:
         alpha, beta = np.linalg.solve([[F0, G0], [F1, G1]], [raw.u, raw.du])
         delta = _wrap(math.atan2(beta, alpha))
         amp = alpha / math.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / math.sin(delta)
         theta_F = free_zero_count(ch.eq.l, k * raw.R) * pi + math.atan2(k * F0, F1) % pi
-        c, s = math.cos(delta), math.sin(delta)
-        phi_d = math.atan2(k * (c * F0 + s * G0), c * F1 + s * G1) % pi
+        inc = _turn(k, F0, F1, G0, G1, delta, math)
     theta_u = raw.nodes * pi + math.atan2(k * raw.u, raw.du) % pi
-    phi_0 = theta_F % pi
-    inc = (phi_d - phi_0) % pi if delta >= 0 else -((phi_0 - phi_d) % pi)
     m = (theta_u - theta_F - inc) / pi
     mi = round(m)
     return Match(delta + mi * pi, float(amp), ref, float(abs(m - mi)))
