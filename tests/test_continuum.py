@@ -611,6 +611,15 @@ def test_free_zero_count_counts_a_zero_just_below_x():
             assert free_zero_count(0, m * math.pi - eps) == m - 1
 
 
+class SquareWellClosed(SquareWell):
+    """The same well with V(R) = -V0 (r <= R): the jump's own radius on the inside."""
+
+    name = "square-well-closed-test"
+
+    def _evaluate(self, r):
+        return np.where(np.asarray(r) <= self.values["R"], -self.values["V0"], 0.0)
+
+
 def test_a_vanishing_phase_stays_on_the_zero_branch():
     """Pure Coulomb has no phase relative to the Coulomb phase, and a well of 1e-15 hartree next to none
     (Born: delta ~ 1e-15). The branch of delta came from the Pruefer angle of the matched solution
@@ -628,3 +637,35 @@ def test_a_vanishing_phase_stays_on_the_zero_branch():
     res = phase_shifts(E, "schrodinger", SquareWell(V0=1e-15, R=1.0), l=0, estimate_error=False)
     exact = np.array([float(_square_well_mod_pi(0, e, 1e-15, 1.0)) for e in E])
     assert np.max(np.abs(res.delta - exact)) < 1e-9     # (tol 1e-8)
+
+
+@pytest.mark.parametrize("well", [SquareWell, SquareWellClosed])
+@pytest.mark.parametrize("tol", [1e-10, 1e-12, 1e-13])
+def test_estimates_hold_at_tolerances_near_the_integrators_floor(well, tol):
+    """A well just short of binding (V0 = 1.2337 < pi^2/8), E = 1e-4, R = 1: delta = 1.5637. At tol
+    1e-12 the integration tolerance sat at its floor (3e-14) in the main and in the '30 times looser'
+    run alike, which then agreed to the last bits: the estimate was 2e-15 while the phase was 1.4e-12
+    off (the well written r < R) and 2e-11 off (r <= R), both 'ok'. The loose run is now looser than
+    the tolerance actually used, and each integration piece sees the potential of its own side of
+    a jump. Exact: the square-well matching in mpmath (as above)."""
+    res = phase_shifts([1e-4], "schrodinger", well(V0=1.2337, R=1.0), l=0, tol=tol)
+    exact = _square_well_mod_pi(0, 1e-4, 1.2337, 1.0)
+    diff = mpmath.mpf(float(res.delta[0])) - exact
+    err = float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi)))
+    assert err <= res.error_estimate[0], (err, res.error_estimate[0], res.status)
+    if res.status == "ok":
+        assert err <= tol * abs(res.delta[0]) or err <= tol
+
+
+@pytest.mark.parametrize("well", [SquareWell, SquareWellClosed])
+def test_scattering_length_estimate_holds_at_tight_tolerance(well):
+    """A well 1e-4 short of its third bound level, V0 = (5 pi/2)^2 (1 - 1e-4) / 2, R = 1: a = -323.2, and
+    at tol 1e-12 a came back 9e-12 (relative) off with an estimate of 1.2e-15, 'ok'. Exact:
+    a = R - tan(K R)/K (Sakurai 1994, sec. 7.8, from memory) in mpmath."""
+    V0 = (2.5 * math.pi) ** 2 / 2 * (1 - 1e-4)
+    res = scattering_length("schrodinger", well(V0=V0, R=1.0), tol=1e-12)
+    with mpmath.workdps(40):
+        K = mpmath.sqrt(2 * mpmath.mpf(V0))
+        exact = 1 - mpmath.tan(K) / K
+    err = float(abs(mpmath.mpf(res.a) - exact))
+    assert err <= res.a_error, (err, res.a_error, res.status)

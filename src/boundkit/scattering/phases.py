@@ -15,7 +15,7 @@ from .._checks import check_int, check_positive
 from .._rounding import rounding_floor
 from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
 from ..units import energy_unit as canonical_unit
-from .radial import Channel, _start, integrate, match, matching_radius, prepare
+from .radial import Channel, _start, integrate, loosened, match, matching_radius, prepare
 from .reference import wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
 
@@ -78,8 +78,8 @@ def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     err = np.zeros(len(E))
     if estimate:
         one = [[R] for R in R1]
-        loose, _ = integrate(ch, E, one, rtol * _LOOSE)
-        lrefs = integrate(ch.reference, E, one, rtol * _LOOSE)[0] if ch.reference else [[None]] * len(E)
+        loose, _ = integrate(ch, E, one, loosened(rtol, _LOOSE))
+        lrefs = integrate(ch.reference, E, one, loosened(rtol, _LOOSE))[0] if ch.reference else [[None]] * len(E)
         for i, e in enumerate(E):
             d = matches[i].delta
             err[i] = max(abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta),
@@ -262,7 +262,8 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     schr = ch.eq.name == "schrodinger"
     R1, reached = matching_radius(ch, 0.0, tol * ch.length)
     runs = {}
-    for key, rtol, radii in (("main", _rtol(tol), [R1, _SECOND_RADIUS * R1]), ("loose", _rtol(tol) * _LOOSE, [R1])):
+    for key, rtol, radii in (("main", _rtol(tol), [R1, _SECOND_RADIUS * R1]),
+                             ("loose", loosened(_rtol(tol), _LOOSE), [R1])):
         raws, _ = integrate(ch, 0.0, radii, rtol, integral=schr)
         runs[key] = [_length_pair(ch, raw) for raw in raws]
     (a, re), (a2, re2) = runs["main"]
