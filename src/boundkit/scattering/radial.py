@@ -235,8 +235,13 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
         U, Wt = np.ones(n), np.broadcast_to(eq.p(Es, ch.sample(r0)), (n,)) * (gam + kap)
     y = np.concatenate((U, Wt, np.zeros(n))) if integral else np.concatenate((U, Wt))
 
+    inside = [0.0, math.inf]     # the present piece's radii strictly inside its ends (set per piece)
+
     def rhs(t, yy):
-        r = math.exp(t)
+        # each piece sees the potential of its own side of a jump at its ends: exp(log(b)) can land on
+        # either side of b, and V(b) itself belongs to one side only (a well written r <= R was 2e-11
+        # off at tol 1e-12, 15 times the r < R one)
+        r = min(max(math.exp(t), inside[0]), inside[1])
         smp = ch.sample(r)
         p = eq.p(Es, smp)
         qE = eq.q(Es, smp) - Es
@@ -253,6 +258,7 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
     nodes, last = np.zeros(n, dtype=int), np.zeros(n)
     log_scale, integ = np.zeros(n), np.zeros(n)
     for a, b in zip(edges[:-1], edges[1:]):
+        inside[:] = math.nextafter(a, math.inf), math.nextafter(b, 0.0)
         sol = solve_ivp(rhs, (math.log(a), math.log(b)), y, method="DOP853", rtol=rtol, atol=1e-30,
                         dense_output=dense)
         if not sol.success:
