@@ -684,3 +684,24 @@ def test_each_integration_piece_sees_its_own_side_of_a_jump():
         assert abs(got[0].delta[0] - got[1].delta[0]) <= 1e-13
         diff = mpmath.mpf(float(got[0].delta[0])) - _square_well_mod_pi(0, E, 1.2337, 1.0)
         assert float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi))) <= got[0].error_estimate[0]
+
+
+def test_a_jump_whose_own_radius_has_a_third_value():
+    """np.where(r < 1, -5, 0) + np.where((r > 1) & (r < 1.5), 10, 0) is 0 at r = 1 itself; its jump
+    search reports the float next to 1, one ulp above the odd value. The pieces read the potential
+    64 ulp inside their ends. Exact (l = 0, m = 1, common practice): u = sin(K r) below 1
+    (K^2 = 2 (E + 5)), cosh and sinh of q (r - 1) in the barrier (q^2 = 2 (10 - E)), and
+    tan(1.5 k + delta) = k u / u' at 1.5, in mpmath; compared mod pi."""
+    pot = lambda r: np.where(r < 1.0, -5.0, 0.0) + np.where((r > 1.0) & (r < 1.5), 10.0, 0.0)  # noqa: E731
+    E = np.array([2.0, 8.0])
+    res = phase_shifts(E, "schrodinger", pot, l=0, tol=1e-10)
+    assert res.status == "ok", res.message
+    for e, d, est in zip(E, res.delta, res.error_estimate):
+        with mpmath.workdps(30):
+            k, K, q = mpmath.sqrt(2 * e), mpmath.sqrt(2 * (e + 5)), mpmath.sqrt(2 * (10 - e))
+            A, B = mpmath.sin(K), K * mpmath.cos(K) / q
+            u, du = A * mpmath.cosh(q / 2) + B * mpmath.sinh(q / 2), q * (A * mpmath.sinh(q / 2) + B * mpmath.cosh(q / 2))
+            diff = mpmath.mpf(float(d)) - (mpmath.atan(k * u / du) - 1.5 * k)
+            err = float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi)))
+        assert err <= est, (e, err, est)
+        assert err < 3e-13, (e, err)      # read one ulp inside the piece: 7.6e-13 at E = 8 (9e-14 now)
