@@ -670,7 +670,12 @@ def _stable(spectra, angles, orders, window, tol, eq):
             else:
                 dist_order = max(dist_order, d)
             dre, dim = max(dre, abs(other.real - e.real)), max(dim, abs(other.imag - e.imag))
-        thr = tol * max(abs(e), scale)
+        # the nearest eigenvalue of another run is e's own partner only while it is closer than e's
+        # neighbours are: in the dense rotated continuum a loose tol otherwise matched each point with
+        # a neighbour of its turned partner, and let every continuum point of small |E| through
+        near = np.abs(ref - e)
+        near = near[near > 0]
+        thr = min(tol * max(abs(e), scale), 0.25 * float(near.min()) if near.size else math.inf)
         if max(dist_theta, dist_order) > thr:
             rejected += 1
             continue
