@@ -8,7 +8,10 @@ Method
    beyond the last non-analytic feature of the potential (``breakpoints``:
    a nuclear radius, a table's end) and beyond the radius where the sampled
    potential has reached its analytic tail -Z_inf/z (or 0) to 1e-12 of the
-   energy scale. The potential is evaluated only at real r <= R0; on the
+   energy scale. Every breakpoint is an element edge; where V jumps, the
+   edge node (shared by two elements' Lobatto quadratures) holds the two
+   one-sided values weighted by the elements' Jacobians (:func:`_split_jumps`).
+   The potential is evaluated only at real r <= R0; on the
    rotated segment its tail (or the user's analytic function of complex z)
    is used. This is the choice the module makes for every potential, since
    the library's terms accept real radii only.
@@ -34,7 +37,10 @@ Method
    eigenvalue in the energy window at the first angle and the finest order is
    matched to the nearest eigenvalue at every other angle (same order) and
    at the first angle with the order lowered by 4; it is kept when all these
-   distances stay below ``tol`` times the energy scale.
+   distances stay below ``tol`` times the energy scale, and below a quarter
+   of its distance to its nearest neighbour in the same spectrum (in the
+   dense continuum the nearest eigenvalue of another run is then a
+   neighbour's partner, not its own).
    The largest distance in the real and imaginary parts gives the error
    estimates of the energy and of the width. The runs' values are kept on the
    result (the stability test, reported).
