@@ -149,13 +149,56 @@ def test_a_loose_tolerance_does_not_turn_the_rotated_continuum_into_resonances()
     scale), so at a loose tol the continuum points of small |E| moved 'little enough': 61 'resonances'
     at tol 1e-2 in (0.05, 5) hartree, 60 of them continuum; 77 at tol 0.1 in (0.5, 4), 76 of them: the
     nearest eigenvalue of the other angle's run was not the point's own turned partner but one of its
-    neighbours. A candidate's threshold is now also at most a quarter of the distance to its nearest
+    neighbours. A candidate's threshold is now also at most 2 % of the distance to its nearest
     neighbour in the same spectrum. Check: the barrier's one resonance there (published value, test
     above)."""
     res = boundkit.resonances("schrodinger", barrier, window=(0.5, 4.0), tol=0.1)
     assert res.status == "ok", res.message
     (r,) = res.resonances
     assert r.energy == pytest.approx(3.426390, abs=1e-3)
+
+
+def _siegert(V, l: int, guesses, R: float = 40.0) -> complex:
+    """Outgoing-wave eigenvalue of V for orbital l (m = 1): u ~ r^(l+1) at the origin, and at R (where
+    V is negligible) u'/u of the outgoing Riccati-Hankel function, k (i + 1/(x + i) - 1/x) for l = 1
+    (x = k R; from e^(i x) (x + i) / x, common practice); integrated along the real axis by DOP853,
+    the root found by Muller's method from rough guesses."""
+    assert l == 1
+
+    def mismatch(E):
+        E = complex(E)
+        r0 = 1e-3
+        sol = solve_ivp(lambda r, y: [y[1], (2 * (V(r) - E) + l * (l + 1) / r**2) * y[0]], (r0, R),
+                        [r0 ** (l + 1) + 0j, (l + 1) * r0**l + 0j], method="DOP853", rtol=1e-12, atol=1e-30)
+        u, du = sol.y[:, -1]
+        k = np.sqrt(2 * E)
+        x = k * R
+        return (du - k * (1j + 1 / (x + 1j) - 1 / x) * u) / (abs(u) + abs(du))
+
+    return complex(mpmath.findroot(mismatch, tuple(mpmath.mpc(g) for g in guesses), solver="muller",
+                                   tol=1e-20, verify=False))
+
+
+def test_a_broad_resonance_is_checked_one_order_finer():
+    """The barrier's l = 1 resonance, 4.6466 - 0.3253 i, is broad: its outgoing wave grows over the
+    unscaled segment out to R0 ~ 35 bohr, which the order - 4 run resolves too coarsely (order 12 is
+    right to 1e-8, order 8 off by 2e-4), and it was missed ('none-stable'). Eigenvalues stable in theta
+    but not against order - 4 are now checked against order + 4, and against R0 moved out (which
+    box states of the unscaled segment fail). Exact: the outgoing-wave shooting above."""
+    exact = _siegert(barrier, 1, (4.6 - 0.3j, 4.7 - 0.35j, 4.65 - 0.32j))
+    res = boundkit.resonances("schrodinger", barrier, window=(4.0, 5.5), l=1)
+    assert res.diagnostics["checked_finer"] == 1 and "broad" in res.message
+    _the_one_resonance_is(res, exact)
+
+
+def test_the_finer_check_lets_no_box_state_through():
+    """At tol 1e-3 over 1..10 hartree the order + 4 check alone passed twenty eigenvalues of the unscaled
+    segment (Gamma/2 of 1 to 1.5 hartree, estimates 1e-3) beside the one resonance; moving R0 rejects
+    them."""
+    res = boundkit.resonances("schrodinger", barrier, window=(1.0, 10.0), tol=1e-3)
+    assert res.status == "ok", res.message
+    (r,) = res.resonances
+    assert r.energy == pytest.approx(3.426390, abs=1e-6)
 
 
 def test_window_without_a_resonance_says_so():

@@ -37,10 +37,14 @@ Method
    eigenvalue in the energy window at the first angle and the finest order is
    matched to the nearest eigenvalue at every other angle (same order) and
    at the first angle with the order lowered by 4; it is kept when all these
-   distances stay below ``tol`` times the energy scale, and below a quarter
-   of its distance to its nearest neighbour in the same spectrum (in the
-   dense continuum the nearest eigenvalue of another run is then a
-   neighbour's partner, not its own).
+   distances stay below ``tol`` times the energy scale, and below 2 % of its
+   distance to its nearest neighbour in the same spectrum (in the dense
+   continuum the nearest eigenvalue of another run is otherwise a
+   neighbour's partner, not its own). An eigenvalue stable in theta but not
+   against order - 4 (a broad resonance, whose outgoing wave grows over the
+   unscaled segment) is checked once more against order + 4 and with R0
+   moved out by 20 % (:func:`_finer_check`), which box states of the
+   unscaled segment fail.
    The largest distance in the real and imaginary parts gives the error
    estimates of the energy and of the width. The runs' values are kept on the
    result (the stability test, reported).
@@ -199,6 +203,7 @@ def _sample(pot, mesh: ScaledMesh, analytic: Callable | None) -> tuple[np.ndarra
 
 
 _OFF_EDGE = 64   # ulp: where the one-sided values of a jump are read
+_GAP_SHARE = 0.02   # a run's spread must stay below this share of the distance to the nearest neighbour
 
 
 def _split_jumps(pot, mesh: ScaledMesh, analytic: Callable | None, V: np.ndarray, S: np.ndarray) -> None:
@@ -490,7 +495,21 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         return ResonanceResult((), False, "eig-failed", f"the dense complex eigen solve failed at theta = "
                                f"{th:g} rad, order {o} ({exc}); try other angles, r0 or r_max",
                                eq.name, pot.name, settings, constants_record(), _UNITS, {"unknowns": size})
-    found, rejected, in_window = _stable(spectra, angles, orders, (emin, emax), tol, eq)
+    found, rejected, in_window, order_only = _stable(spectra, angles, orders, (emin, emax), tol, eq)
+    broad: list[Resonance] = []
+    if order_only:
+        scale = max(abs(emin), abs(emax))
+        finer = _finer_check(eq, pot, analytic, plan, edges, angles, order, (emin, emax), tol, spectra, run)
+        broad = [r for r in finer
+                 if all(abs(r.complex_energy - f.complex_energy) > tol * max(abs(f.complex_energy), scale)
+                        for f in found)]
+        if broad:
+            rejected -= len(broad)
+            found = sorted(found + broad, key=lambda r: r.energy)
+            count: dict[str, int] = {}
+            for i, r in enumerate(found):
+                count[r.kind] = count.get(r.kind, 0) + 1
+                found[i] = replace(r, label=f"{r.kind} {count[r.kind]}")
     if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
         with one_blas_thread():
             found = _label_by_continuity(found, eq, edges, plan["r0"], angles, order, pot, analytic,
@@ -501,20 +520,74 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                      "exterior_potential": "analytic" if analytic is not None else "tail -Z_inf/z",
                      "unknowns": size})
     diagnostics = {"in_window": in_window, "stable": len(found), "rejected_as_continuum": rejected,
-                   "seconds": round(time.perf_counter() - t0, 3)}
+                   "checked_finer": len(broad), "seconds": round(time.perf_counter() - t0, 3)}
     if eq.name == "klein-gordon" and any(r.kind == "supercritical" for r in found):
         log.warning("Klein-Gordon eigenvalues below -2 m c^2 are reported but not validated")
         diagnostics["note"] = ("Klein-Gordon states below -2 m c^2 (boson pair states) are not validated; "
                                "width = 2 |Im E| there")
     if found:
         status, message = "ok", (f"{len(found)} eigenvalue(s) stable to {tol:g} over theta = "
-                                 f"{', '.join(f'{a:g}' for a in angles)} rad and orders {orders[0]}, {orders[1]}")
+                                 f"{', '.join(f'{a:g}' for a in angles)} rad and orders {orders[0]}, {orders[1]}"
+                                 + (f" ({len(broad)} broad: orders {order}, {order + 4} and R0 moved out by 20 %)"
+                                    if broad else ""))
     else:
         status, message = "none-stable", (f"no eigenvalue with Re E in [{emin:g}, {emax:g}] hartree is stable to "
                                           f"{tol:g} over the angles and orders ({in_window} moved: rotated "
                                           "continuum); try larger angles or a wider window")
     return ResonanceResult(tuple(found), True, status, message, eq.name, pot.name, settings, constants_record(),
                            _UNITS, diagnostics)
+
+
+def _finer_check(eq, pot, analytic, plan, edges, angles, order, window, tol, spectra, run):
+    """The stability test one step finer, for eigenvalues that are stable in theta but not against
+    order - 4: the resonances it finds (none when the mesh would be too large, or a solve fails).
+
+    Notes
+    -----
+    A broad resonance's outgoing wave grows over the whole unscaled segment up to R0, which order - 4
+    resolves too coarsely: the barrier 7.5 r^2 exp(-r) has its l = 1 resonance at 4.6466 - 0.3253 i
+    (order 12 right to 1e-8, order 8 off by 2e-4), and it was missed. Here order + 4 is solved at both
+    angles and compared with this order. Raising the order alone let through eigenvalues of the
+    unscaled segment [0, R0] ('box' states, stable in theta and order to 2e-3, twenty of them at tol
+    1e-3), so a candidate must also be reproduced, at this order, with R0 and r_max moved out by
+    0.2 R0: a box state's energy moves with its box, a resonance's does not. Only resonances (above
+    threshold) are taken from this check.
+    """
+    unit = (len(edges) - 1) * (1 if eq.name == "schrodinger" else 2)   # unknowns per order
+    moved = dict(plan, r0=1.2 * plan["r0"], r_max=plan["r_max"] + 0.2 * plan["r0"])
+    edges_moved = _edges(moved, pot)
+    if max(unit * (order + 4), (len(edges_moved) - 1) * order * unit // (len(edges) - 1)) > _MAX_SIZE \
+            or plan["r0"] == 0.0:
+        return []
+
+    def run_moved(th, o):
+        mesh = build_mesh(edges_moved, o, moved["r0"], th)
+        return _operator(eq, mesh, *_sample(pot, mesh, analytic))
+
+    keys = [(th, order + 4) for th in angles] + ["moved"]
+    more, failed = _spectra(keys, lambda key: run_moved(angles[0], order) if key == "moved" else run(*key))
+    if failed is not None:
+        return []
+    finer = {key: more[key] for key in keys[:-1]}
+    finer[(angles[0], order)] = spectra[(angles[0], order)]
+    found = _stable(finer, angles, (order, order + 4), window, tol, eq)[0]
+    scale = max(abs(window[0]), abs(window[1]))
+    kept = []
+    for r in found:
+        e = r.complex_energy
+        m = complex(more["moved"][np.argmin(np.abs(more["moved"] - e))])
+        near = np.abs(finer[(angles[0], order + 4)] - e)
+        near = near[near > 0]
+        thr = min(tol * max(abs(e), scale), _GAP_SHARE * float(near.min()) if near.size else math.inf)  # as _stable
+        if abs(m - e) > thr or r.kind != "resonance":
+            continue
+        # the tail beyond R0 is cut: a broad resonance grows there, and its energy moves with R0 (by
+        # 3.7e-10 for the l = 1 barrier resonance, beyond the spreads over theta and order, 5e-11). The
+        # value with R0 moved out is reported, the change as part of its estimates.
+        kept.append(replace(r, energy=m.real, width=-2 * m.imag,
+                            energy_error=max(r.energy_error, abs(m.real - e.real)),
+                            width_error=max(r.width_error, 2 * abs(m.imag - e.imag))))
+    return kept
 
 
 def _eigvals(M: np.ndarray) -> np.ndarray:
@@ -654,14 +727,15 @@ def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
 
 
 def _stable(spectra, angles, orders, window, tol, eq):
-    """Eigenvalues of the reference run that every other run reproduces (step 3 of the module)."""
+    """Eigenvalues of the reference run that every other run reproduces (step 3 of the module):
+    ``(found, rejected, candidates in the window, rejected by the lower order alone)``."""
     emin, emax = window
     ref_key = (angles[0], orders[-1])
     ref = spectra[ref_key]
     scale = max(abs(emin), abs(emax))
     mc2 = eq.mass * C_AU**2
     cand = ref[(ref.real >= emin) & (ref.real <= emax) & np.isfinite(ref)]
-    found, rejected = [], 0
+    found, rejected, order_only = [], 0, 0
     for e in sorted(cand, key=lambda v: v.real):
         runs = [(angles[0], orders[-1], complex(e))]
         dist_theta, dist_order, dre, dim = 0.0, 0.0, 0.0, 0.0
@@ -676,14 +750,17 @@ def _stable(spectra, angles, orders, window, tol, eq):
             else:
                 dist_order = max(dist_order, d)
             dre, dim = max(dre, abs(other.real - e.real)), max(dim, abs(other.imag - e.imag))
-        # the nearest eigenvalue of another run is e's own partner only while it is closer than e's
+        # the nearest eigenvalue of another run is e's own partner only while it is far closer than e's
         # neighbours are: in the dense rotated continuum a loose tol otherwise matched each point with
-        # a neighbour of its turned partner, and let every continuum point of small |E| through
+        # a neighbour of its turned partner, and let every continuum point of small |E| through (at a
+        # quarter of the distance, a few still passed by chance; a resonance's spreads are orders of
+        # magnitude below its distance to the continuum whatever tol is)
         near = np.abs(ref - e)
         near = near[near > 0]
-        thr = min(tol * max(abs(e), scale), 0.25 * float(near.min()) if near.size else math.inf)
+        thr = min(tol * max(abs(e), scale), _GAP_SHARE * float(near.min()) if near.size else math.inf)
         if max(dist_theta, dist_order) > thr:
             rejected += 1
+            order_only += dist_theta <= thr
             continue
         supercritical = eq.name != "schrodinger" and e.real < -2 * mc2
         width = 2 * abs(e.imag) if supercritical else -2 * e.imag
@@ -699,4 +776,4 @@ def _stable(spectra, angles, orders, window, tol, eq):
                                energy=float(e.real), width=float(width), energy_error=float(dre),
                                width_error=float(2 * dim), theta_spread=float(dist_theta),
                                order_spread=float(dist_order), runs=tuple(runs)))
-    return found, rejected, int(len(cand))
+    return found, rejected, int(len(cand)), order_only
