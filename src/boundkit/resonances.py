@@ -576,10 +576,7 @@ def _finer_check(eq, pot, analytic, plan, edges, angles, order, window, tol, spe
     for r in found:
         e = r.complex_energy
         m = complex(more["moved"][np.argmin(np.abs(more["moved"] - e))])
-        near = np.abs(finer[(angles[0], order + 4)] - e)
-        near = near[near > 0]
-        thr = min(tol * max(abs(e), scale), _GAP_SHARE * float(near.min()) if near.size else math.inf)  # as _stable
-        if abs(m - e) > thr or r.kind != "resonance":
+        if abs(m - e) > _threshold(finer[(angles[0], order + 4)], e, tol, scale) or r.kind != "resonance":
             continue
         # the tail beyond R0 is cut: a broad resonance grows there, and its energy moves with R0 (by
         # 3.7e-10 for the l = 1 barrier resonance, beyond the spreads over theta and order, 5e-11). The
@@ -726,6 +723,21 @@ def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
     return e
 
 
+def _threshold(ref: np.ndarray, e: complex, tol: float, scale: float) -> float:
+    """How far another run's eigenvalue may lie from the eigenvalue e of the spectrum ``ref`` for
+    e to count as stable: tol max(|e|, window scale), and at most _GAP_SHARE of e's distance to its
+    nearest neighbour in ``ref``.
+
+    The nearest eigenvalue of another run is e's own partner only while it is far closer than e's
+    neighbours are: in the dense rotated continuum a loose tol otherwise matched each point with a
+    neighbour of its turned partner, and let every continuum point of small |E| through (at a
+    quarter of the distance, a few still passed by chance; a resonance's spreads are orders of
+    magnitude below its distance to the continuum whatever tol is)."""
+    near = np.abs(ref - e)
+    near = near[near > 0]
+    return min(tol * max(abs(e), scale), _GAP_SHARE * float(near.min()) if near.size else math.inf)
+
+
 def _stable(spectra, angles, orders, window, tol, eq):
     """Eigenvalues of the reference run that every other run reproduces (step 3 of the module):
     ``(found, rejected, candidates in the window, rejected by the lower order alone)``."""
@@ -750,14 +762,7 @@ def _stable(spectra, angles, orders, window, tol, eq):
             else:
                 dist_order = max(dist_order, d)
             dre, dim = max(dre, abs(other.real - e.real)), max(dim, abs(other.imag - e.imag))
-        # the nearest eigenvalue of another run is e's own partner only while it is far closer than e's
-        # neighbours are: in the dense rotated continuum a loose tol otherwise matched each point with
-        # a neighbour of its turned partner, and let every continuum point of small |E| through (at a
-        # quarter of the distance, a few still passed by chance; a resonance's spreads are orders of
-        # magnitude below its distance to the continuum whatever tol is)
-        near = np.abs(ref - e)
-        near = near[near > 0]
-        thr = min(tol * max(abs(e), scale), _GAP_SHARE * float(near.min()) if near.size else math.inf)
+        thr = _threshold(ref, e, tol, scale)
         if max(dist_theta, dist_order) > thr:
             rejected += 1
             order_only += dist_theta <= thr
