@@ -550,8 +550,8 @@ def _finer_check(eq, pot, analytic, plan, edges, angles, order, window, tol, spe
     angles and compared with this order. Raising the order alone let through eigenvalues of the
     unscaled segment [0, R0] ('box' states, stable in theta and order to 2e-3, twenty of them at tol
     1e-3), so a candidate must also be reproduced, at this order, with R0 and r_max moved out by
-    0.2 R0: a box state's energy moves with its box, a resonance's does not. Only resonances (above
-    threshold) are taken from this check.
+    0.2 R0: a box state's energy moves with its box, a resonance's does not; that change enters the
+    estimates. Only resonances (above threshold) are taken from this check.
     """
     unit = (len(edges) - 1) * (1 if eq.name == "schrodinger" else 2)   # unknowns per order
     moved = dict(plan, r0=1.2 * plan["r0"], r_max=plan["r_max"] + 0.2 * plan["r0"])
@@ -578,11 +578,10 @@ def _finer_check(eq, pot, analytic, plan, edges, angles, order, window, tol, spe
         m = complex(more["moved"][np.argmin(np.abs(more["moved"] - e))])
         if abs(m - e) > _threshold(finer[(angles[0], order + 4)], e, tol, scale) or r.kind != "resonance":
             continue
-        # the tail beyond R0 is cut: a broad resonance grows there, and its energy moves with R0 (by
-        # 3.7e-10 for the l = 1 barrier resonance, beyond the spreads over theta and order, 5e-11). The
-        # value with R0 moved out is reported, the change as part of its estimates.
-        kept.append(replace(r, energy=m.real, width=-2 * m.imag,
-                            energy_error=max(r.energy_error, abs(m.real - e.real)),
+        # a broad resonance's energy moves with R0 (by 3.7e-10 for the l = 1 barrier resonance, beyond
+        # its spreads over theta and order, 5e-11): the change enters its estimates (the value stays
+        # the reference run's, as complex_energy and the runs say)
+        kept.append(replace(r, energy_error=max(r.energy_error, abs(m.real - e.real)),
                             width_error=max(r.width_error, 2 * abs(m.imag - e.imag))))
     return kept
 
