@@ -307,10 +307,9 @@ class Fermi(Term):
     @property
     def breakpoints(self) -> tuple[float, ...]:
         """c and the graded radii around it when the surface is sharp (a < _SHARP c; see Notes); else none."""
-        from .switches import graded_around
+        from .switches import graded_edge
 
-        c, a = self.c, self.a
-        return tuple(sorted(p for p in (c, *graded_around(c, a)) if p > 0)) if a < self._SHARP * c else ()
+        return graded_edge(self.c, self.a) if self.a < self._SHARP * self.c else ()
 
     @staticmethod
     def rms_of(c: float, a: float) -> float:
@@ -519,11 +518,10 @@ class WoodsSaxon(Term):
         (up to 0.05 R): elements graded geometrically from the surface, each spanning a stretch
         where the shape is analytic on a scale of its own length.
         """
-        from .switches import graded_around
+        from .switches import graded_edge
 
         R, a = self.values["radius"], self.values["diffuseness"]
-        points = [R, *graded_around(R, a)] if a < 0.01 * R else [R]
-        return tuple(sorted(p for p in points if p > 0))
+        return graded_edge(R, a) if a < 0.01 * R else (R,) if R > 0 else ()
 
     def _evaluate(self, r):
         r = np.asarray(r, dtype=float)

@@ -152,10 +152,9 @@ class OpticalTRho(Term):
         """c and graded radii around it for a surface sharper than a hundredth of c, as the
         Woods-Saxon term declares for the same shape (:class:`boundkit.potentials.library.WoodsSaxon`);
         none for a usual surface (a = 0.523 fm)."""
-        from .switches import graded_around
+        from .switches import graded_edge
 
-        c, a = self._c, self._a
-        return tuple(sorted(p for p in (c, *graded_around(c, a)) if p > 0)) if a < 0.01 * c else ()
+        return graded_edge(self._c, self._a) if self._a < 0.01 * self._c else ()
 
     @property
     def depth_mev(self) -> complex:

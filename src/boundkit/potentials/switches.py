@@ -41,7 +41,7 @@ from typing import Callable
 
 import numpy as np
 
-__all__ = ["MAX_SWITCHES", "breaks", "graded_around", "jumps", "reported", "sign_changes", "steep_edges",
+__all__ = ["MAX_SWITCHES", "breaks", "graded_around", "graded_edge", "jumps", "reported", "sign_changes", "steep_edges",
            "wide_grid"]
 
 log = logging.getLogger(__name__)
@@ -221,10 +221,10 @@ def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=()) -> tuple[flo
         # jump has no width at all (the three crossings meet at neighbouring floating point numbers)
         if not (a < c < b and 1e-12 * c < w < 0.05 * (b - a)):
             continue
-        out += [c, *graded_around(c, w)]
+        out += graded_edge(c, w)
     for c, w in _sharp_steps(fn, r, v, skip=[*skip, *out]):      # (out: the narrow edges' radii)
-        out += [c, *graded_around(c, w)]
-    return tuple(sorted(x for x in out if x > 0))
+        out += graded_edge(c, w)
+    return tuple(sorted(out))
 
 
 def _centre_and_width(fn: Callable, a: float, b: float, va: float, vb: float) -> tuple[float, float]:
@@ -298,6 +298,12 @@ def _sharp_steps(fn: Callable, r: np.ndarray, v: np.ndarray, skip) -> list[tuple
         if a < c < b and 1e-12 * c < w < 0.01 * c:
             out.append((c, w))
     return out
+
+
+def graded_edge(c: float, w: float) -> tuple[float, ...]:
+    """c and :func:`graded_around` (c, w), ascending: the breakpoints of a sharp edge of width w at
+    c > 0 (every radius is positive: the grading stops at 0.05 c)."""
+    return tuple(sorted((c, *graded_around(c, w))))
 
 
 def graded_around(c: float, w: float) -> list[float]:
