@@ -37,7 +37,7 @@ from __future__ import annotations
 import logging
 import math
 from functools import lru_cache
-from typing import Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 
@@ -101,7 +101,7 @@ def sign_changes(fn: Callable) -> list[float] | None:
     return out
 
 
-def jumps(fn: Callable, v: np.ndarray | None = None) -> tuple[float, ...]:
+def jumps(fn: Callable, v: np.ndarray | None = None, steps: _Steps | None = None) -> tuple[float, ...]:
     """Radii where the values of fn jump (see the module docstring), ascending.
 
     Notes
@@ -118,7 +118,8 @@ def jumps(fn: Callable, v: np.ndarray | None = None) -> tuple[float, ...]:
     """
     r = wide_grid()
     v = _values(fn, r) if v is None else v         # fn on the wide grid, when the caller has it
-    cand, excess, trend = _step_candidates(v)
+    steps = steps or _step_candidates(v)
+    cand, excess, trend = steps.cand, steps.excess, steps.trend
     if len(cand) > MAX_SWITCHES:
         log.info("potential: %d jumps or more; none reported (the solver proceeds without them)", len(cand))
         return ()
@@ -151,10 +152,22 @@ def jumps(fn: Callable, v: np.ndarray | None = None) -> tuple[float, ...]:
     return tuple(out)
 
 
-def _step_candidates(v: np.ndarray):
-    """(indices i where the wide grid's samples i, i + 1 differ far more than their neighbours, that
-    excess, the neighbours' mean difference): the candidates of :func:`jumps` and :func:`steep_edges`.
-    Values that overflow (exp(r**2) far out) count as no difference."""
+class _Steps(NamedTuple):
+    """The wide grid's neighbour differences ``d``, the larger |value| of each pair ``size``, and
+    :func:`_step_candidates`' ``cand``, ``excess`` and ``trend``: computed once per function and
+    shared by :func:`jumps`, :func:`steep_edges` and :func:`_sharp_steps`."""
+
+    d: np.ndarray
+    size: np.ndarray
+    cand: np.ndarray
+    excess: np.ndarray
+    trend: np.ndarray
+
+
+def _step_candidates(v: np.ndarray) -> _Steps:
+    """Indices i where the wide grid's samples i, i + 1 differ far more than their neighbours (with
+    that excess and the neighbours' mean difference): the candidates of :func:`jumps` and
+    :func:`steep_edges`. Values that overflow (exp(r**2) far out) count as no difference."""
     with np.errstate(all="ignore"):
         d = np.diff(v)
         d = np.where(np.isfinite(d), d, 0.0)
@@ -177,10 +190,11 @@ def _step_candidates(v: np.ndarray):
         peak[1:] &= excess[1:] >= excess[:-1]
         peak[:-1] &= excess[:-1] >= excess[1:]
         cand = np.nonzero(peak & (excess > _JUMP_RATIO * background) & (excess > 1e-7 * size) & (excess > 0))[0]
-    return cand, excess, trend
+    return _Steps(d, size, cand, excess, trend)
 
 
-def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=()) -> tuple[float, ...]:
+def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=(),
+                steps: _Steps | None = None) -> tuple[float, ...]:
     """Radii that grade the elements at each smooth edge of fn narrower than the wide grid, ascending.
 
     Notes
@@ -200,7 +214,8 @@ def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=()) -> tuple[flo
     """
     r = wide_grid()
     v = _values(fn, r) if v is None else v
-    cand, excess, _ = _step_candidates(v)
+    steps = steps or _step_candidates(v)
+    cand = steps.cand
     if len(cand) > MAX_SWITCHES:
         return ()
     out: list[float] = []
@@ -222,7 +237,7 @@ def steep_edges(fn: Callable, v: np.ndarray | None = None, skip=()) -> tuple[flo
         if not (a < c < b and 1e-12 * c < w < 0.05 * (b - a)):
             continue
         out += graded_edge(c, w)
-    for c, w in _sharp_steps(fn, r, v, skip=[*skip, *out]):      # (out: the narrow edges' radii)
+    for c, w in _sharp_steps(fn, r, v, steps, skip=[*skip, *out]):      # (out: the narrow edges' radii)
         out += graded_edge(c, w)
     return tuple(sorted(out))
 
@@ -245,7 +260,7 @@ _STEP_REACH = 40        # most samples of the wide grid a step of width 0.01 c s
 _STEP_QUIET = 12        # samples beyond it that must be quiet (a plateau)
 
 
-def _sharp_steps(fn: Callable, r: np.ndarray, v: np.ndarray, skip) -> list[tuple[float, float]]:
+def _sharp_steps(fn: Callable, r: np.ndarray, v: np.ndarray, steps: _Steps, skip) -> list[tuple[float, float]]:
     """(centre c, width w) of each smooth step of fn between two plateaus, w < 0.01 c, that spreads
     over a few samples of the wide grid (the steps narrower than one spacing are :func:`steep_edges`'
     first search). The built-in Woods-Saxon term grades its elements around such an edge
@@ -263,13 +278,9 @@ def _sharp_steps(fn: Callable, r: np.ndarray, v: np.ndarray, skip) -> list[tuple
     width come from the crossings of a quarter, a half and three quarters of the way between those
     ends, as for the narrow edges.
     """
-    with np.errstate(all="ignore"):
-        d = np.diff(v)
-        d = np.where(np.isfinite(d), d, 0.0)
+    d = steps.d
     ad = np.abs(d)
-    size = np.maximum(np.abs(v[:-1]), np.abs(v[1:]))
-    size = np.where(np.isfinite(size), size, 0.0)
-    peak = ad > 1e-7 * size
+    peak = ad > 1e-7 * steps.size
     peak[1:] &= ad[1:] >= ad[:-1]
     peak[:-1] &= ad[:-1] > ad[1:]
     peak[:_STEP_REACH + _STEP_QUIET] = peak[-(_STEP_REACH + _STEP_QUIET):] = False
@@ -406,8 +417,9 @@ def breaks(fn: Callable) -> list[float] | None:
     ascending; None when there are more than :data:`MAX_SWITCHES`."""
     r = wide_grid()
     v = _values(fn, r)
-    found = list(jumps(fn, v))
-    found += steep_edges(fn, v, skip=found)
+    steps = _step_candidates(v)
+    found = list(jumps(fn, v, steps))
+    found += steep_edges(fn, v, skip=found, steps=steps)
     v = np.where(np.isfinite(v), v, 0.0)
     for m in (1, 2):
         # the excess of each divided difference over the mean of those m + 2 places away (outside the
