@@ -4,8 +4,12 @@ Repeated computations can agree to the last bit (two integrations of a deep well
 two fits of a critical value); their difference is then no error estimate, and the rounding of the
 value itself is. boundkit takes that as ``ULPS`` units in the last place, the same wherever such a
 floor applies (critical values, phase shifts, scattering lengths).
+
+It also holds where a solver reads the two sides of a jump of the potential (:func:`beside`).
 """
 from __future__ import annotations
+
+import math
 
 import numpy as np
 
@@ -15,3 +19,14 @@ ULPS = 4
 def rounding_floor(x):
     """``ULPS`` units in the last place of |x| (elementwise for arrays)."""
     return ULPS * np.spacing(np.abs(x))
+
+
+OFF_EDGE = 64
+
+
+def beside(x: float) -> tuple[float, float]:
+    """(x - OFF_EDGE ulp, x + OFF_EDGE ulp): where the two sides of a jump at x are read. Not the next
+    floats: a callable written with ``r < a`` and ``r > a`` has a third value at a itself, and its
+    jump search may report the float next to a. A smooth potential moves by 1e-14 relative there."""
+    step = OFF_EDGE * math.ulp(x)
+    return x - step, x + step

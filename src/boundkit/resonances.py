@@ -81,6 +81,7 @@ import scipy.linalg as sla
 
 from ._threads import inside, one_blas_thread
 from ._checks import check_finite, check_int, check_positive
+from ._rounding import beside
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
 from .units import C_AU, constants_record, hartree_to
 
@@ -202,7 +203,6 @@ def _sample(pot, mesh: ScaledMesh, analytic: Callable | None) -> tuple[np.ndarra
     return V, S
 
 
-_OFF_EDGE = 64   # ulp: where the one-sided values of a jump are read
 _GAP_SHARE = 0.02   # a run's spread must stay below this share of the distance to the nearest neighbour
 
 
@@ -230,9 +230,7 @@ def _split_jumps(pot, mesh: ScaledMesh, analytic: Callable | None, V: np.ndarray
         x = float(edges[e])
         if x not in breaks or x > mesh.r0:
             continue
-        # 64 ulp off the edge: a callable written with r < a and r > a is 0 at a itself, and its jump
-        # search may report the float next to a
-        below, above = np.array([x - _OFF_EDGE * math.ulp(x)]), np.array([x + _OFF_EDGE * math.ulp(x)])
+        below, above = (np.array([y]) for y in beside(x))
         VL, SL = complex(np.asarray(pot.V(below))[0]), complex(np.asarray(pot.S(below))[0])
         if x < mesh.r0:
             VR, SR = complex(np.asarray(pot.V(above))[0]), complex(np.asarray(pot.S(above))[0])

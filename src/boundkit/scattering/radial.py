@@ -41,6 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import solve_ivp
 
+from .._rounding import beside
 from ..equations import RadialEquation, Sample
 from ..potentials import Potential
 from ..units import C_AU
@@ -52,7 +53,6 @@ __all__ = ["Channel", "prepare", "matching_radius", "integrate", "Match", "match
 
 _START = 1e-7      # inner start in units of the smallest length of the problem
 _RANGE_GRID = 4000
-_OFF_EDGE = 64          # ulp: how far inside its ends a piece samples the potential
 _RTOL_FLOOR = 3e-14   # DOP853 refuses rtol below 100 x machine epsilon
 _CHUNK = 2.0          # rescaling interval in ln r
 _FAR = 1e4            # the matching radius is sought up to this many natural lengths (or breakpoints)
@@ -236,7 +236,7 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
         U, Wt = np.ones(n), np.broadcast_to(eq.p(Es, ch.sample(r0)), (n,)) * (gam + kap)
     y = np.concatenate((U, Wt, np.zeros(n))) if integral else np.concatenate((U, Wt))
 
-    inside = [0.0, math.inf]     # the present piece's radii, _OFF_EDGE ulp inside its ends (set per piece)
+    inside = [0.0, math.inf]     # the present piece's radii, just inside its ends (_rounding.beside; per piece)
 
     def rhs(t, yy):
         # each piece sees the potential of its own side of a jump at its ends: exp(log(b)) can land on
@@ -260,7 +260,7 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
     nodes, last = np.zeros(n, dtype=int), np.zeros(n)
     log_scale, integ = np.zeros(n), np.zeros(n)
     for a, b in zip(edges[:-1], edges[1:]):
-        lo, hi = a + _OFF_EDGE * math.ulp(a), b - _OFF_EDGE * math.ulp(b)
+        lo, hi = beside(a)[1], beside(b)[0]
         inside[:] = (lo, hi) if lo < hi else (0.5 * (a + b),) * 2
         sol = solve_ivp(rhs, (math.log(a), math.log(b)), y, method="DOP853", rtol=rtol, atol=1e-30,
                         dense_output=dense)
