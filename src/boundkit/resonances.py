@@ -481,8 +481,8 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                          "window, raise its lower end, or give h, r0 and r_max")
     t0 = time.perf_counter()
 
-    def run(th, o):
-        mesh = build_mesh(edges, o, plan["r0"], th)
+    def run(th, o, edges=edges, r0=plan["r0"]):
+        mesh = build_mesh(edges, o, r0, th)
         return _operator(eq, mesh, *_sample(pot, mesh, analytic))
 
     runs = [(th, order) for th in angles] + [(angles[0], orders[0])]
@@ -503,11 +503,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                         for f in found)]
         if broad:
             rejected -= len(broad)
-            found = sorted(found + broad, key=lambda r: r.energy)
-            count: dict[str, int] = {}
-            for i, r in enumerate(found):
-                count[r.kind] = count.get(r.kind, 0) + 1
-                found[i] = replace(r, label=f"{r.kind} {count[r.kind]}")
+            found = _numbered(sorted(found + broad, key=lambda r: r.energy))
     if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
         with one_blas_thread():
             found = _label_by_continuity(found, eq, edges, plan["r0"], angles, order, pot, analytic,
@@ -551,19 +547,14 @@ def _finer_check(eq, pot, analytic, plan, edges, angles, order, window, tol, spe
     0.2 R0: a box state's energy moves with its box, a resonance's does not; that change enters the
     estimates. Only resonances (above threshold) are taken from this check.
     """
-    unit = (len(edges) - 1) * (1 if eq.name == "schrodinger" else 2)   # unknowns per order
+    per_node = 1 if eq.name == "schrodinger" else 2
     moved = dict(plan, r0=1.2 * plan["r0"], r_max=plan["r_max"] + 0.2 * plan["r0"])
     edges_moved = _edges(moved, pot)
-    if max(unit * (order + 4), (len(edges_moved) - 1) * order * unit // (len(edges) - 1)) > _MAX_SIZE \
-            or plan["r0"] == 0.0:
+    if plan["r0"] == 0.0 or per_node * max((len(edges) - 1) * (order + 4), (len(edges_moved) - 1) * order) > _MAX_SIZE:
         return []
-
-    def run_moved(th, o):
-        mesh = build_mesh(edges_moved, o, moved["r0"], th)
-        return _operator(eq, mesh, *_sample(pot, mesh, analytic))
-
     keys = [(th, order + 4) for th in angles] + ["moved"]
-    more, failed = _spectra(keys, lambda key: run_moved(angles[0], order) if key == "moved" else run(*key))
+    more, failed = _spectra(keys, lambda key: run(angles[0], order, edges_moved, moved["r0"]) if key == "moved"
+                            else run(*key))
     if failed is not None:
         return []
     finer = {key: more[key] for key in keys[:-1]}
@@ -720,6 +711,16 @@ def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
     return e
 
 
+def _numbered(found: list[Resonance]) -> list[Resonance]:
+    """The levels labelled by kind and count in the given order (``resonance 1``, ``bound 2``, ...)."""
+    count: dict[str, int] = {}
+    out = []
+    for r in found:
+        count[r.kind] = count.get(r.kind, 0) + 1
+        out.append(replace(r, label=f"{r.kind} {count[r.kind]}"))
+    return out
+
+
 def _threshold(ref: np.ndarray, e: complex, tol: float, scale: float) -> float:
     """How far another run's eigenvalue may lie from the eigenvalue e of the spectrum ``ref`` for
     e to count as stable: tol max(|e|, window scale), and at most _GAP_SHARE of e's distance to its
@@ -774,8 +775,8 @@ def _stable(spectra, angles, orders, window, tol, eq):
             kind, width = "bound", 0.0
         else:
             kind = "quasi-bound"
-        found.append(Resonance(label=f"{kind} {len([f for f in found if f.kind == kind]) + 1}", kind=kind,
+        found.append(Resonance(label=kind, kind=kind,
                                energy=float(e.real), width=float(width), energy_error=float(dre),
                                width_error=float(2 * dim), theta_spread=float(dist_theta),
                                order_spread=float(dist_order), runs=tuple(runs)))
-    return found, rejected, int(len(cand)), order_only
+    return _numbered(found), rejected, int(len(cand)), order_only
