@@ -108,6 +108,12 @@ def _square_well_mod_pi(l, E, V0, R, digits=40):
                            / (k * mpmath.diff(G, k * R) - inside * G(k * R)))
 
 
+def _off_mod_pi(delta, exact) -> float:
+    """|delta - exact| reduced mod pi to its smallest value, in mpmath (exact: an mpmath number)."""
+    diff = mpmath.mpf(float(delta)) - exact
+    return float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi)))
+
+
 @pytest.mark.parametrize("V0, R, l", [(200.0, 1.8, 4), (120.0, 8.8, 4), (124.0, 0.84, 2)])
 def test_error_estimate_of_a_large_phase_is_never_below_its_rounding(V0, R, l):
     """Deep square wells near threshold: delta = 3 pi to 41 pi, where the two repeated integrations
@@ -119,8 +125,7 @@ def test_error_estimate_of_a_large_phase_is_never_below_its_rounding(V0, R, l):
     res = phase_shifts(E, "schrodinger", SquareWell(V0=V0, R=R), l=l)
     assert res.success, res.message
     for e, d, est in zip(E, res.delta, res.error_estimate):
-        diff = mpmath.mpf(float(d)) - _square_well_mod_pi(l, e, V0, R)
-        err = float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi)))
+        err = _off_mod_pi(d, _square_well_mod_pi(l, e, V0, R))
         assert est >= 4 * np.spacing(abs(d)) > 0
         assert err <= est, (e, d, err, est)
 
@@ -649,9 +654,7 @@ def test_estimates_hold_at_tolerances_near_the_integrators_floor(well, tol):
     the tolerance actually used, and each integration piece sees the potential of its own side of
     a jump. Exact: the square-well matching in mpmath (as above)."""
     res = phase_shifts([1e-4], "schrodinger", well(V0=1.2337, R=1.0), l=0, tol=tol)
-    exact = _square_well_mod_pi(0, 1e-4, 1.2337, 1.0)
-    diff = mpmath.mpf(float(res.delta[0])) - exact
-    err = float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi)))
+    err = _off_mod_pi(res.delta[0], _square_well_mod_pi(0, 1e-4, 1.2337, 1.0))
     assert err <= res.error_estimate[0], (err, res.error_estimate[0], res.status)
     if res.status == "ok":
         assert err <= tol * abs(res.delta[0]) or err <= tol
@@ -682,8 +685,7 @@ def test_each_integration_piece_sees_its_own_side_of_a_jump():
                for well in (SquareWell, SquareWellClosed)]
         assert all(res.status == "ok" for res in got), [res.message for res in got]
         assert abs(got[0].delta[0] - got[1].delta[0]) <= 1e-13
-        diff = mpmath.mpf(float(got[0].delta[0])) - _square_well_mod_pi(0, E, 1.2337, 1.0)
-        assert float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi))) <= got[0].error_estimate[0]
+        assert _off_mod_pi(got[0].delta[0], _square_well_mod_pi(0, E, 1.2337, 1.0)) <= got[0].error_estimate[0]
 
 
 def test_a_jump_whose_own_radius_has_a_third_value():
@@ -700,8 +702,8 @@ def test_a_jump_whose_own_radius_has_a_third_value():
         with mpmath.workdps(30):
             k, K, q = mpmath.sqrt(2 * e), mpmath.sqrt(2 * (e + 5)), mpmath.sqrt(2 * (10 - e))
             A, B = mpmath.sin(K), K * mpmath.cos(K) / q
-            u, du = A * mpmath.cosh(q / 2) + B * mpmath.sinh(q / 2), q * (A * mpmath.sinh(q / 2) + B * mpmath.cosh(q / 2))
-            diff = mpmath.mpf(float(d)) - (mpmath.atan(k * u / du) - 1.5 * k)
-            err = float(abs(diff - mpmath.pi * mpmath.nint(diff / mpmath.pi)))
+            u = A * mpmath.cosh(q / 2) + B * mpmath.sinh(q / 2)
+            du = q * (A * mpmath.sinh(q / 2) + B * mpmath.cosh(q / 2))
+            err = _off_mod_pi(d, mpmath.atan(k * u / du) - 1.5 * k)
         assert err <= est, (e, err, est)
         assert err < 3e-13, (e, err)      # read one ulp inside the piece: 7.6e-13 at E = 8 (9e-14 now)

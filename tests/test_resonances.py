@@ -30,22 +30,27 @@ def barrier(r):
     return 7.5 * r**2 * np.exp(-r)
 
 
-def siegert_barrier(E_guesses) -> complex:
-    """Outgoing-wave eigenvalue of the barrier, l = 0: u(0) = 0 and u'/u = i k at R = 40 bohr
-    (where V < 6e-14 hartree), k = sqrt(2E) with Im k < 0; integrated along the real axis."""
-    R = 40.0
+def siegert(V, l: int, guesses, R: float = 40.0) -> complex:
+    """Outgoing-wave eigenvalue of V for orbital l = 0 or 1 (m = 1): u ~ r^(l+1) at the origin (u(0) = 0,
+    u'(0) = 1 for l = 0; from r = 1e-3 for l = 1), and at R (where V is negligible: 6e-14 hartree for the
+    barrier at 40 bohr) u'/u of the outgoing Riccati-Hankel function: i k for l = 0, and
+    k (i + 1/(x + i) - 1/x) for l = 1 (x = k R; from e^(i x) (x + i) / x, common practice), k = sqrt(2E)
+    with Im k < 0. Integrated along the real axis by DOP853; the root found by Muller's method from
+    rough guesses."""
+    assert l in (0, 1)
+    r0 = 0.0 if l == 0 else 1e-3
 
     def mismatch(E):
         E = complex(E)
-        sol = solve_ivp(lambda r, y: [y[1], 2 * (barrier(r) - E) * y[0]], (0.0, R), [0j, 1 + 0j],
-                        method="DOP853", rtol=1e-12, atol=1e-14)
+        sol = solve_ivp(lambda r, y: [y[1], (2 * (V(r) - E) + (l * (l + 1) / r**2 if l else 0.0)) * y[0]], (r0, R),
+                        [r0 ** (l + 1) + 0j, (l + 1) * r0**l + 0j], method="DOP853", rtol=1e-12, atol=1e-30)
         u, du = sol.y[:, -1]
         k = np.sqrt(2 * E)
-        return (du - 1j * k * u) * np.exp(-1j * k * R)
+        x = k * R
+        return (du - k * (1j + (1 / (x + 1j) - 1 / x if l else 0.0)) * u) / (abs(u) + abs(du))
 
-    root = mpmath.findroot(mismatch, tuple(mpmath.mpc(g) for g in E_guesses), solver="muller",
-                           tol=1e-20, verify=False)
-    return complex(root)
+    return complex(mpmath.findroot(mismatch, tuple(mpmath.mpc(g) for g in guesses), solver="muller",
+                                   tol=1e-20, verify=False))
 
 
 @pytest.fixture(scope="module")
@@ -69,7 +74,7 @@ def test_barrier_lowest_resonance_published_value(barrier_result):
 def test_barrier_against_siegert_shooting(barrier_result):
     (r,) = barrier_result.resonances
     # independent: outgoing-wave shooting (started from rough guesses, not from the result)
-    E = siegert_barrier((3.4 - 0.01j, 3.45 - 0.02j, 3.42 + 0j))
+    E = siegert(barrier, 0, (3.4 - 0.01j, 3.45 - 0.02j, 3.42 + 0j))
     assert r.energy == pytest.approx(E.real, abs=1e-9)
     assert r.width == pytest.approx(-2 * E.imag, abs=1e-9)
     # the error estimates are honest bounds of the actual error here
@@ -158,34 +163,13 @@ def test_a_loose_tolerance_does_not_turn_the_rotated_continuum_into_resonances()
     assert r.energy == pytest.approx(3.426390, abs=1e-3)
 
 
-def _siegert(V, l: int, guesses, R: float = 40.0) -> complex:
-    """Outgoing-wave eigenvalue of V for orbital l (m = 1): u ~ r^(l+1) at the origin, and at R (where
-    V is negligible) u'/u of the outgoing Riccati-Hankel function, k (i + 1/(x + i) - 1/x) for l = 1
-    (x = k R; from e^(i x) (x + i) / x, common practice); integrated along the real axis by DOP853,
-    the root found by Muller's method from rough guesses."""
-    assert l == 1
-
-    def mismatch(E):
-        E = complex(E)
-        r0 = 1e-3
-        sol = solve_ivp(lambda r, y: [y[1], (2 * (V(r) - E) + l * (l + 1) / r**2) * y[0]], (r0, R),
-                        [r0 ** (l + 1) + 0j, (l + 1) * r0**l + 0j], method="DOP853", rtol=1e-12, atol=1e-30)
-        u, du = sol.y[:, -1]
-        k = np.sqrt(2 * E)
-        x = k * R
-        return (du - k * (1j + 1 / (x + 1j) - 1 / x) * u) / (abs(u) + abs(du))
-
-    return complex(mpmath.findroot(mismatch, tuple(mpmath.mpc(g) for g in guesses), solver="muller",
-                                   tol=1e-20, verify=False))
-
-
 def test_a_broad_resonance_is_checked_one_order_finer():
     """The barrier's l = 1 resonance, 4.6466 - 0.3253 i, is broad: its outgoing wave grows over the
     unscaled segment out to R0 ~ 35 bohr, which the order - 4 run resolves too coarsely (order 12 is
     right to 1e-8, order 8 off by 2e-4), and it was missed ('none-stable'). Eigenvalues stable in theta
     but not against order - 4 are now checked against order + 4, and against R0 moved out (which
     box states of the unscaled segment fail). Exact: the outgoing-wave shooting above."""
-    exact = _siegert(barrier, 1, (4.6 - 0.3j, 4.7 - 0.35j, 4.65 - 0.32j))
+    exact = siegert(barrier, 1, (4.6 - 0.3j, 4.7 - 0.35j, 4.65 - 0.32j))
     res = boundkit.resonances("schrodinger", barrier, window=(4.0, 5.5), l=1)
     assert res.diagnostics["checked_finer"] == 1 and "broad" in res.message
     _the_one_resonance_is(res, exact)
