@@ -399,9 +399,26 @@ def test_workers_beyond_the_cores_are_refused(monkeypatch):
     from boundkit.studies import scan
 
     monkeypatch.setattr(os, "cpu_count", lambda: 2)
-    with pytest.raises(ValueError, match=r"workers: 40 is more than the 2 cores of this machine; use at most 2"):
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {0, 1}, raising=False)
+    with pytest.raises(ValueError, match=r"workers: 40 is more than the 2 cores this process may use; use at "
+                                         r"most 2"):
         scan("schrodinger", "coulomb", {}, {"Z": [1.0, 2.0]}, workers=40)
     one_line_error(cli("scan", "--vary", "Z=1,2", "--workers", "40"), r"workers: 40 is more than the 2 cores")
+
+
+def test_workers_count_the_cores_this_process_may_use(monkeypatch):
+    # a container or `taskset` may give the process fewer cores than the machine has: the workers
+    # are capped at those it may run on (os.sched_getaffinity), not at os.cpu_count()
+    from boundkit._threads import usable_cores
+    from boundkit.studies import scan
+
+    if not hasattr(os, "sched_getaffinity"):
+        pytest.skip("no CPU affinity on this platform")
+    monkeypatch.setattr(os, "cpu_count", lambda: 8)
+    monkeypatch.setattr(os, "sched_getaffinity", lambda pid: {3})
+    assert usable_cores() == 1
+    with pytest.raises(ValueError, match=r"workers: 2 is more than the 1 cores this process may use; use at most 1"):
+        scan("schrodinger", "coulomb", {}, {"Z": [1.0, 2.0]}, workers=2)
 
 
 def test_l_max_is_bounded_with_an_override():

@@ -11,7 +11,6 @@ from __future__ import annotations
 import importlib
 import json
 import math
-import os
 
 import mpmath
 import numpy as np
@@ -213,7 +212,7 @@ def test_runs_side_by_side_give_the_single_thread_result(monkeypatch, absorptive
         absorptive_params={"depth": 1e-3, "radius": 1.0, "diffuseness": 0.3})
     pot, params = (barrier, None) if absorptive is None else ("coulomb", {"Z": 1})
     both = boundkit.resonances("schrodinger", pot, params, **kw)
-    monkeypatch.setattr(os, "cpu_count", lambda: 1)
+    monkeypatch.setattr(importlib.import_module("boundkit.resonances"), "usable_cores", lambda: 1)
     one = boundkit.resonances("schrodinger", pot, params, **kw)
     assert both.resonances and [r.runs for r in both.resonances] == [r.runs for r in one.resonances]
     assert [r.label for r in both.resonances] == [r.label for r in one.resonances]

@@ -119,13 +119,13 @@ def check_count(name: str, count: int, limit: int, override: str, what: str = "p
 
 def check_workers(workers) -> int | None:
     """Worker processes: an integer from 1 to the number of cores (None: the caller's default)."""
-    import os
+    from ._threads import usable_cores
 
     if workers is None:
         return None
     workers = check_int("workers", workers, minimum=1)
-    cores = os.cpu_count() or 1
+    cores = usable_cores()
     if workers > cores:
-        raise ValueError(f"workers: {workers} is more than the {cores} cores of this machine; use at most {cores} "
+        raise ValueError(f"workers: {workers} is more than the {cores} cores this process may use; use at most {cores} "
                          "(each worker is a process with its own memory; more than the cores only costs memory)")
     return workers

@@ -7,8 +7,18 @@ on first use, does it once (0.013 ms per limit).
 from __future__ import annotations
 
 import functools
+import os
 
 _controller = None
+
+
+def usable_cores() -> int:
+    """The cores this process may run on: its CPU affinity where the platform has one (a container
+    or ``taskset`` may allow fewer than the machine has), else ``os.cpu_count()``; at least 1."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):
+        return os.cpu_count() or 1
 
 
 def one_blas_thread():

@@ -69,7 +69,6 @@ from __future__ import annotations
 
 import logging
 import math
-import os
 import time
 import warnings
 from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
@@ -79,7 +78,7 @@ from typing import Any, Callable, Sequence
 import numpy as np
 import scipy.linalg as sla
 
-from ._threads import inside, one_blas_thread
+from ._threads import inside, one_blas_thread, usable_cores
 from ._checks import check_finite, check_int, check_positive
 from ._rounding import beside
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
@@ -593,7 +592,7 @@ def _spectra(keys, build):
     thread is held at a time. Each eigenvalue set is that of a single-threaded solve of its matrix:
     the same whatever the number of threads.
     """
-    workers = max(1, min(len(keys), os.cpu_count() or 1))
+    workers = max(1, min(len(keys), usable_cores()))
     out, errors = {}, {}
     # one BLAS thread per solve: on a shared 2-core machine a threaded dense eig ran 6x slower
     # (measured); the parallelism is across solves instead

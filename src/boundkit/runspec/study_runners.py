@@ -14,10 +14,9 @@ import inspect
 import json
 import logging
 import math
-import os
 from typing import Any
 
-from .._threads import one_blas_thread
+from .._threads import one_blas_thread, usable_cores
 from ..states import convert_label
 from .files import _clean, _csv_with_units, _fmt
 from .objects import CompareSection, ConvergeSection, CriticalSection
@@ -191,10 +190,10 @@ def _critical_job(kwargs: dict) -> tuple[bool, Any]:
 
 
 def _workers(workers: int | None) -> int | None:
-    """A spec's workers, at most the cores of this machine (a spec may come from a larger one)."""
-    cores = os.cpu_count() or 1
+    """A spec's workers, at most the cores this process may use (a spec may come from a larger machine)."""
+    cores = usable_cores()
     if workers is not None and workers > cores:
-        log.warning("workers = %d in the spec, but this machine has %d cores: using %d", workers, cores, cores)
+        log.warning("workers = %d in the spec, but this process may use %d cores: using %d", workers, cores, cores)
         return cores
     return workers
 
@@ -211,7 +210,7 @@ def _map_jobs(func, jobs: list, workers: int | None, on_done=None) -> list:
             on_done()
         return out
 
-    workers = min(_workers(workers) or os.cpu_count() or 1, len(jobs))
+    workers = min(_workers(workers) or usable_cores(), len(jobs))
     if workers <= 1:
         return here()
     try:

@@ -38,6 +38,7 @@ import numpy as np
 
 from .._checks import MAX_GRID_POINTS, check_count, check_int, check_positive, check_workers
 from .._checks import shorten
+from .._threads import usable_cores
 from ..states import check_convention, convert_label
 from ..solver import solve
 from ..units import column, constants_record, hartree_to
@@ -697,7 +698,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         if scheduler is not None:
             _run_dask(todo, scheduler, on_done, scheduler_timeout)
         else:
-            _run_local(todo, workers or os.cpu_count() or 1, on_done)
+            _run_local(todo, workers or usable_cores(), on_done)
     finally:
         bar.close()
     rows = []
