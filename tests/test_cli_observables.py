@@ -196,6 +196,11 @@ def test_hyperfine_command_errors():
     r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--magnetized-sphere-fm", "0")
     assert r.exit_code == 2
     assert r.output.strip() == "boundkit: error: magnetization_radius: must be > 0 and finite (fm), got 0"
+    # beyond Z alpha = sqrt(3)/2 the point dipole's integral diverges: refused (it printed 2.2e12 MHz, exit 0)
+    r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--param", "Z=120")
+    assert r.exit_code == 2 and len(r.output.strip().splitlines()) == 1
+    assert ("boundkit: error: level: the point-dipole hyperfine integral of 1s1/2 diverges at the origin"
+            in r.output and "--magnetized-sphere-fm" in r.output)
     r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--energy-unit", "furlong")
     assert r.exit_code == 2 and "boundkit: error: energy_unit: unknown unit 'furlong'" in r.output
     assert "Traceback" not in r.output

@@ -70,6 +70,30 @@ def test_hydrogen_radial_moments_match_bethe_salpeter(k):
     assert worst < 1e-12
 
 
+@pytest.mark.parametrize("k", [-2.5, -2.9, -2.99])
+def test_moments_near_the_origin_divergence_keep_their_digits(k):
+    """<r^k> of the hydrogen 1s close to k = -3, where the integrand r^(k+2) of r^k P^2 barely falls
+    towards the origin: exact <r^k> = 4 Gamma(k + 3) / 2^(k + 3) (P = 2 r e^(-r); derived). A cut 60
+    e-folds below the first node left 3.5e-4 (k = -2.9) and 45 % (k = -2.99) of it out, with error
+    estimates of 1e-14: the part below the cut is now the integral of its power law."""
+    lv = _levels("schrodinger", 1, ("l", 0), 1).levels[0]
+    exact = 4 * math.gamma(k + 3) / 2 ** (k + 3)
+    q = radial_moment(lv, k)
+    assert abs(q.value / exact - 1) < 1e-12
+    assert abs(q.value - exact) <= q.error + 1e-14 * exact
+
+
+def test_dirac_moments_near_the_origin_divergence_keep_their_digits():
+    """Same for Dirac, k = -(2 gamma + 1) + 0.02 (exact: :mod:`exact_dirac_states`)."""
+    for Z, kappa in ((1, -1), (50, -1), (92, 1)):
+        lv = _levels("dirac", Z, ("kappa", kappa), 1).levels[0]
+        k = -(2 * lv.state.gamma + 1) + 0.02
+        exact = dirac_moment(lv.n, kappa, Z, ALPHA, k)
+        q = radial_moment(lv, k)
+        assert abs(q.value / exact - 1) < 1e-11, (Z, kappa)
+        assert abs(q.value - exact) <= q.error + 1e-14 * abs(exact), (Z, kappa)
+
+
 def test_expectation_value_error_estimate_is_inf_without_previous_state():
     lv = _levels("schrodinger", 1, ("l", 0), 1).levels[0]
     import dataclasses
@@ -290,7 +314,9 @@ def test_hyperfine_constant_is_fermi_times_breit_factor():
     = -C^2 Z alpha Gamma(2 gamma - 1) / (2Z)^(2 gamma - 1) = -Z^2 (Z alpha) / (gamma (2 gamma - 1)),
     which is -Z^2 (Z alpha) times the factor."""
     mu_p = sc.physical_constants["proton mag. mom. to nuclear magneton ratio"][0]
-    for Z in (1, 50):
+    # at Z = 110 and 116 (2 gamma - 1 = 0.21 and 0.065) the integrand r^(2 gamma - 2) barely falls at
+    # the origin: a cut 60 e-folds below the first node lost 2e-7 and 4e-3 of A (estimates 4e-12)
+    for Z in (1, 50, 110, 116):
         lv = _levels("dirac", Z, ("kappa", -1), 1).levels[0]
         g = math.sqrt(1 - (Z * ALPHA) ** 2)
         fermi = (8 / 3) * Z**3 * ALPHA**2 * (mu_p / 0.5) * (sc.m_e / sc.m_p) / 2
@@ -367,6 +393,13 @@ def test_magnetic_quantities_refuse_bad_input():
         hyperfine_a(dirac, 2.79, 0.5, magnetization_radius=-1.0)
     with pytest.raises(ValueError, match="length_unit: unknown unit 'mile'"):
         hyperfine_a(dirac, 2.79, 0.5, magnetization_radius=1.0, radius_unit="mile")
+    # a point dipole's integral P Q / r^2 diverges at the origin once 2 gamma - 1 <= 0 (Z alpha >= sqrt(3)/2,
+    # Z >= 119): refused, with the finite-size sphere named as the way on
+    heavy = _levels("dirac", 120, ("kappa", -1), 1).levels[0]
+    with pytest.raises(ValueError, match=r"the point-dipole hyperfine integral of 1s1/2 diverges at the origin "
+                                         r".*magnetization_radius"):
+        hyperfine_a(heavy, 2.79, 0.5)
+    assert math.isfinite(hyperfine_a(heavy, 2.79, 0.5, magnetization_radius=1e-4).value)
 
 
 def test_observables_record_in_length_unit():
