@@ -229,6 +229,19 @@ def test_solve_prints_levels_before_a_figure_that_cannot_be_written():
     one_line_error(res, r"--plot '/proc/no-such-dir/x.png': cannot write the figure .* results above are complete")
 
 
+@pytest.mark.parametrize("extra", [(), ("--json",)])
+def test_phases_print_before_a_figure_that_cannot_be_written(extra):
+    """phases drew its figure before printing: an unwritable --plot lost the table (or the JSON) and
+    the OSError reached the standard-output handler, which blamed the output instead of the figure."""
+    res = cli("phases", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2", "--energies", "0.1,1",
+              "--plot", "/proc/no-such-dir/x.png", *extra)
+    if extra:
+        assert len(json.loads(res.stdout)["phases"]["points"]) == 2
+    else:
+        assert "status: ok" in res.stdout and "0.1 " in res.stdout
+    one_line_error(res, r"--plot '/proc/no-such-dir/x.png': cannot write the figure .* results above are complete")
+
+
 def test_scan_prints_rows_before_a_figure_or_files_that_cannot_be_written(tmp_path, monkeypatch):
     res = cli(*SCAN, "--plot", "/proc/no-such-dir/x.png")
     assert "-0.5" in res.stdout and " 2 schrodinger" in res.stdout        # both rows are out

@@ -10,7 +10,7 @@ import sys
 
 import click
 
-from .common import EXIT_NOT_CONVERGED, fail, json_default, report_unit
+from .common import EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_plot_path, fail, json_default, report_unit, write_figure
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       particle_options, plot_option, potential_options, tol_option)
 
@@ -53,6 +53,7 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
     the Coulomb phase when the potential has a Coulomb tail)."""
     from ..scattering import levinson, phase_shifts, scattering_length
 
+    check_plot_path(plot_path)
     out: dict = {}
     try:
         unit = report_unit(energy_unit, unit_system)
@@ -78,10 +79,6 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
         if want_a:
             out["scattering_length"] = scattering_length(equation, vector, values, kappa=kappa,
                                                          scalar=scalar or None, hard_core=hard_core, **common)
-        if plot_path:
-            from ..scattering.figure import phase_figure
-
-            phase_figure(res, plot_path, unit=unit)
     except ValueError as exc:
         fail(str(exc))
     if as_json:
@@ -107,9 +104,16 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
                                                         f"{a.effective_range_error * per:.2g} {lunit}")
             click.echo(f"scattering length a = {a.a * per:.12g} +- {a.a_error * per:.2g} {lunit}{re_} "
                        f"({a.convention}); status: {a.status}")
-        if plot_path:
-            click.echo(f"figure: {plot_path}")
+    written = None
+    if plot_path:         # after the results are out: a figure that cannot be written costs only the figure
+        from ..scattering.figure import phase_figure
+
+        written = write_figure(lambda p: phase_figure(res, p, unit=unit), plot_path)
+        if written and not as_json:
+            click.echo(f"figure: {written}")
     bad = [x for x in (res, *out.values()) if not x.success]
     if bad:
         click.echo(f"boundkit: {bad[0].status}: {bad[0].message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
+    if plot_path and written is None:
+        sys.exit(EXIT_BAD_INPUT)
