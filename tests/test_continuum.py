@@ -568,6 +568,9 @@ def test_cli_phases_table_and_levinson():
     (["phases", "--energies", "1,2", "--levinson"], "--levinson chooses its own energy grid"),
     (["phases", "--energies", "1,2", "--bound-levels", "2"], "--bound-levels goes with --levinson"),
     (["phases", "--levinson", "--hard-core", "1"], "--levinson takes neither --hard-core nor scalar terms"),
+    # the API's scattering length is the s-wave one: with --l 1 it came back silently for l = 0
+    (["phases", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2", "--energies", "0.1",
+      "--scattering-length", "--l", "1"], "--scattering-length is the s-wave (l = 0) scattering length"),
 ])
 def test_cli_phases_errors(args, match):
     run = CliRunner().invoke(main, args)

@@ -39,7 +39,7 @@ def _energy_grid(text: str | None) -> list[float] | None:
 @energy_unit_option(what="Unit of --energies and of reported energies")
 @click.option("--hard-core", type=float, default=None, help="Radius of an impenetrable core (bohr; fm with --units nuclear).")
 @tol_option(1e-8, "Target accuracy of each phase (rad).")
-@click.option("--scattering-length", "want_a", is_flag=True, help="Also give the s-wave scattering length and effective range.")
+@click.option("--scattering-length", "want_a", is_flag=True, help="Also give the s-wave scattering length and effective range (l = 0; Dirac kappa = -1).")
 @click.option("--levinson", "want_levinson", is_flag=True,
               help="Check Levinson's theorem on its own energy grid (Schrodinger, short-range; no --energies).")
 @click.option("--bound-levels", type=int, default=None, help="With --levinson: number of bound levels to compare with.")
@@ -64,6 +64,9 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             raise ValueError("--energies is required (e.g. --energies 0.01:2:40:log), or give --levinson")
         if bound_levels is not None and not want_levinson:
             raise ValueError("--bound-levels goes with --levinson")
+        if want_a and l not in (None, 0):     # the API's scattering length takes no l: it is the s-wave one
+            raise ValueError(f"--scattering-length is the s-wave (l = 0) scattering length; leave it out with "
+                             f"--l {l} (no scattering volume for l > 0 is computed), or give --l 0")
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit, params)
         common = dict(particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, units=unit_system)
