@@ -237,6 +237,23 @@ def test_run_writes_results_tables_figures_and_report(tmp_path):
     assert csv_head.startswith("model,equation,channel,label,n,l,j,kappa,nodes,energy")
 
 
+@pytest.mark.parametrize("unit", ["hartree", "eV"])
+def test_csv_column_names_are_unique_in_any_energy_unit(tmp_path, unit):
+    """With energies in hartree, levels.csv had energy_hartree twice (the reported energy and its
+    hartree copy), and differences.csv difference_hartree twice."""
+    out = tmp_path / "o"
+    run(write(tmp_path, FAST.replace("levels = 2", f'levels = 2\nenergy_unit = "{unit}"')), out)
+    for name in ("levels.csv", "differences.csv"):
+        head = (out / name).read_text().splitlines()[0].split(",")
+        assert len(head) == len(set(head)), (name, head)
+    head = (out / "levels.csv").read_text().splitlines()[0].split(",")
+    assert {"energy_hartree", f"energy_{unit}", f"error_estimate_{unit}"} <= set(head)
+    rows = (out / "levels.csv").read_text().splitlines()[1:]
+    one = dict(zip(head, next(r for r in rows if ",1s," in r).split(",")))
+    assert float(one["energy_hartree"]) == pytest.approx(-0.5, rel=1e-12)
+    assert float(one[f"energy_{unit}"]) == pytest.approx(-0.5 * ENERGY_UNITS[unit], rel=1e-12)
+
+
 def test_units_and_figure_format_options(tmp_path):
     text = HYDROGEN.replace("levels = 2", 'levels = 2\nenergy_unit = "eV"\nlength_unit = "angstrom"\n'
                                           'figure_format = "svg"')

@@ -97,14 +97,22 @@ def _csv_value(v):
     return v
 
 
+_HARTREE_COPIES = {"energy_hartree": "energy", "error_hartree": "error_estimate",
+                   "difference_hartree": "difference", "shift_hartree": "shift"}
+"""Columns that repeat a reported column in hartree (copy -> reported column)."""
+
+
 def _csv_with_units(rows: list[dict], columns: list[str] | None, units: dict[str, str]) -> str:
     """CSV text whose column names carry their units (``energy`` -> ``energy_MeV``); ``units`` maps
     column -> unit, columns not in it keep their name (their unit is in the name already, or they
-    have none)."""
+    have none). A hartree copy (:data:`_HARTREE_COPIES`) of a column reported in hartree is left out:
+    it would repeat that column under the same name (``energy_hartree`` twice)."""
     from ..units import column
 
     if columns is None:
         columns = list(dict.fromkeys(k for r in rows for k in r))
+    columns = [c for c in columns if not (c in _HARTREE_COPIES and _HARTREE_COPIES[c] in columns
+                                          and units.get(_HARTREE_COPIES[c]) == "hartree")]
     named = {c: column(c, units[c]) if c in units else c for c in columns}
     renamed = [{named[k]: v for k, v in r.items() if k in named} for r in rows]
     return _csv_text(renamed, [named[c] for c in columns])
