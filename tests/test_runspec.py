@@ -200,6 +200,28 @@ start = 1
     assert lines.find(("scan", 1, "range", "start")) == 16
 
 
+DIRAC_150 = FAST.replace('equations = ["schrodinger"]', 'equations = ["dirac"]').replace("{ Z = 1 }", "{ Z = 150 }")
+
+
+def test_a_channel_that_solve_refuses_is_a_spec_error(tmp_path):
+    """A point charge Z = 150 (Z alpha > 1) in the Dirac equation: `boundkit solve` refuses it as bad
+    input, but the spec read as valid (--dry-run said so) and the run wrote a folder of errors."""
+    spec = write(tmp_path, DIRAC_150)
+    pattern = (rf"line {line_of(DIRAC_150, 'params')}, key 'models\.h\.params': \[solve\] dirac s1/2: Z: for the Dirac equation a point "
+               r"Coulomb charge needs Z alpha < \|kappa\|")
+    with pytest.raises(ValueError, match=pattern):
+        load_spec(spec)
+    for extra in (["--dry-run"], []):
+        res = CliRunner().invoke(main, ["run", str(spec), "--out", str(tmp_path / "o"), *extra])
+        assert res.exit_code == 2, res.output
+        assert re.fullmatch(r"boundkit: error: run spec .*" + pattern + r".*\n", res.output), res.output
+    assert sorted(os.listdir(tmp_path)) == ["spec.toml"]
+    conv = FAST.replace("{ Z = 1 }", "{ Z = 150 }") + '\n[converge]\nmodel = "h"\nequation = "dirac"\n'
+    conv = conv.replace("[solve]\ndifferences", "[solve]\nmodels = []\ndifferences")
+    with pytest.raises(ValueError, match=r"\[converge\] dirac s1/2: Z: for the Dirac equation"):
+        load_spec(write(tmp_path, conv, "conv.toml"))
+
+
 # ----------------------------------------------------------------------------------------------
 # running
 # ----------------------------------------------------------------------------------------------

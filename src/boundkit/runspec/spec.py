@@ -23,7 +23,8 @@ from ..units import get_particle
 from .models import _read_model
 from .reader import SpecErrors, _describe, _Errors, _Reader, _skip_bad_model  # noqa: F401 (SpecErrors)
 from .objects import (_EQUATIONS, _FIGURES, _FORMATS, _LETTERS, STUDY_SECTIONS, ChannelSpec, CompareSection,
-                      ConvergeSection, CriticalSection, ModelDef, ParticleSpec, RunSpec, ScanSection, SolveSection)
+                      ConvergeSection, CriticalSection, ModelDef, ParticleSpec, RunSpec, ScanSection, SolveSection,
+                      _channels_for)
 
 __all__ = ["load_spec", "SpecErrors", "RunSpec", "ChannelSpec", "ModelDef", "STUDY_SECTIONS"]
 
@@ -156,6 +157,25 @@ def _model_name(rd: _Reader, data: dict, key: tuple, models: dict) -> str:
     if name not in models:
         raise rd.error(key + ("model",), f"no model {name!r}; the spec defines {', '.join(models)}")
     return name
+
+
+def _check_channels(rd: _Reader, section: str, models: dict, mdata: dict, names, equations, channels,
+                    particle: ParticleSpec, units: str) -> None:
+    """Refuse now what :func:`boundkit.solve` refuses before it solves: the equation's exponent at the
+    origin (a point charge beyond Z alpha < |kappa| in the Dirac equation, < l + 1/2 in Klein-Gordon; a
+    term the equation does not take), for every model x equation x channel of a section."""
+    from ..solver import setup
+
+    for name in names:
+        pot = models[name].potential(units)
+        for eq in equations:
+            for kw, cname, _n in _channels_for(channels, eq, 1):
+                try:
+                    equation, potential, _settings = setup(eq, pot, None, **kw, **particle.kwargs())
+                    equation.gamma(potential)
+                except ValueError as exc:
+                    key = ("models", name, "params") if "params" in (mdata.get(name) or {}) else ("models", name)
+                    raise rd.error(key, f"[{section}] {eq} {cname}: {exc}") from None
 
 
 def _sections(rd: _Reader, data: dict, name: str) -> list[tuple[tuple, dict]]:
@@ -371,6 +391,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
                                      _tolerance(rd, s, key, tolerance), m, o, figs,
                                      rd.get(s, key, "radii", "bool", True), _pairs(rd, s, key), ref,
                                      rd.get(s, key, "states", "bool", False))
+            _check_channels(rd, "solve", models, mdata, names, eqs, solve_sec.channels, particle, units)
 
     converge_secs = []
     for key, s in _sections(rd, data, "converge"):
@@ -381,10 +402,11 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
             for i, mth in enumerate(meths):
                 if mth not in ("spectral", "finite-difference"):
                     raise rd.error(key + ("methods", i), f"must be spectral or finite-difference, got {mth!r}")
-            converge_secs.append(ConvergeSection(
-                key, _model_name(rd, s, key, models),
-                _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",)),
-                ch[0], _levels(rd, s, key, 1), meths, rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
+            model = _model_name(rd, s, key, models)
+            eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
+            _check_channels(rd, "converge", models, mdata, (model,), (eq,), ch[:1], particle, units)
+            converge_secs.append(ConvergeSection(key, model, eq, ch[0], _levels(rd, s, key, 1), meths,
+                                                 rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
 
     scan_secs = []
     for key, s in _sections(rd, data, "scan"):
