@@ -9,6 +9,7 @@ the argument (API).
 from __future__ import annotations
 
 import json
+import re
 import os
 import signal
 import subprocess
@@ -98,6 +99,34 @@ def test_force_replaces_a_folder_boundkit_wrote_and_a_copied_marker_is_not_enoug
     with pytest.raises(FileExistsError, match="does not match"):
         run(spec, other, force=True)
     assert (other / "notes.txt").read_text() == "mine"
+
+
+def test_force_keeps_the_earlier_run_when_the_new_one_computes_nothing(tmp_path, monkeypatch):
+    """A run whose every solve was refused replaced a good earlier run with a folder of errors."""
+    import importlib
+
+    from boundkit.runspec import run
+
+    spec = write(tmp_path, HYDROGEN)
+    out = tmp_path / "o"
+    assert cli("run", spec, "--out", out).exit_code == 0
+    before = {p.name: p.read_bytes() for p in out.iterdir()}
+
+    def refuse(*args, **kwargs):
+        raise ValueError("Z: refused for this test")
+
+    monkeypatch.setattr(importlib.import_module("boundkit.solver"), "solve", refuse)
+    res = cli("run", spec, "--out", out, "--force")
+    assert res.exit_code == 3, res.output
+    assert "problem: solve model h, schrodinger, channel s: Z: refused for this test" in res.stderr
+    assert re.search(r"the run computed nothing; the earlier run in \S+ is kept as it was", res.stderr)
+    assert "wrote" not in res.stdout
+    report = run(spec, out, force=True)
+    assert report.kept_earlier and not report.success and report.files == ()
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+    assert sorted(os.listdir(tmp_path)) == ["o", "spec.toml"]
+    report = run(spec, tmp_path / "new")          # no earlier run: the failed one is written, report and all
+    assert not report.kept_earlier and (tmp_path / "new" / "report.md").is_file()
 
 
 # --- item 7: overflow refused at the edge ------------------------------------------------------

@@ -8,7 +8,8 @@ hides the progress bar (stderr, tqdm) that a run longer than 2 s shows.
 Exit codes: 0 everything as asked (or a valid spec with ``--dry-run``); 2 bad spec or output folder in the way (one
 message, nothing written); 3 the run finished but some levels were not found,
 a tolerance was not met or a study failed (the output is written and
-report.md lists what went wrong).
+report.md lists what went wrong; with ``--force``, a run that computed nothing
+keeps the earlier run and writes nothing).
 """
 from __future__ import annotations
 
@@ -26,7 +27,9 @@ __all__ = ["run_cmd"]
 @click.argument("spec_path", metavar="SPEC.toml", type=click.Path(dir_okay=False))
 @click.option("--out", "out_dir", default=None, type=click.Path(file_okay=False),
               help="Output folder (default: out/<spec file name without .toml>).")
-@click.option("--force", is_flag=True, help="Replace the output folder of an earlier run.")
+@click.option("--force", is_flag=True,
+              help="Replace the output folder of an earlier run, once the new run has finished; a run that "
+                   "computed nothing (every solve and study refused or failed) keeps the earlier one.")
 @click.option("--dry-run", is_flag=True,
               help="Check the spec (every error, one line each) and the output folder, and list what the run would "
                    "compute: studies, models, equations, channels, number of solves. Solves and writes nothing.")
@@ -66,6 +69,12 @@ def run_cmd(spec_path: str, out_dir: str | None, force: bool, dry_run: bool, qui
     except OSError as exc:
         fail(f"cannot create the output folder {str(target)!r} ({exc.strerror or exc}); choose a writable "
               "place with --out")
+    if report.kept_earlier:
+        for p in report.problems:
+            click.echo(f"boundkit: problem: {clip_message(p)}", err=True)
+        click.echo(f"boundkit: the run computed nothing; the earlier run in {clip_message(str(target))} is kept as "
+                   "it was", err=True)
+        sys.exit(EXIT_NOT_CONVERGED)
     click.echo(f"{spec.title}")
     for line in report.headline:
         click.echo(f"  {line}")

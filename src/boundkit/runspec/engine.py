@@ -61,6 +61,10 @@ class RunReport:
         everything went as asked).
     headline : tuple of str
         The headline numbers of ``report.md``, one line each.
+    kept_earlier : bool
+        The run computed nothing (every solve and every study was refused or failed) and
+        ``out_dir`` held an earlier run (``force=True``): that run was kept as it was, and
+        nothing was written (``files`` is empty; ``problems`` say why).
     """
 
     out_dir: Path
@@ -68,6 +72,7 @@ class RunReport:
     seconds: float
     problems: tuple[str, ...]
     headline: tuple[str, ...]
+    kept_earlier: bool = False
 
     @property
     def success(self) -> bool:
@@ -92,7 +97,9 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
         Replace an existing output folder of an earlier run: only an empty
         folder, or one holding the run marker ``.boundkit-run.json`` whose run
         id matches its ``results.json`` (both written by boundkit), is ever
-        removed.
+        removed, and only by a run that computed something: when every solve
+        and study of the new run is refused or fails, the earlier run stays
+        (``RunReport.kept_earlier``).
     progress : bool, None or callable
         A progress bar on stderr (tqdm), counting the solves of
         :func:`~boundkit.runspec.plan.plan`: True shows it, False hides it,
@@ -118,7 +125,8 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
     through a temporary name and :func:`os.replace`); only when the run has
     finished is that folder renamed to ``out_dir`` (an existing one is moved
     aside first and deleted after the rename). A run that fails on the way
-    leaves ``out_dir`` as it was and no temporary folder behind.
+    leaves ``out_dir`` as it was and no temporary folder behind, and so does
+    a run that computed nothing when ``out_dir`` holds an earlier run.
     """
     if not isinstance(spec, RunSpec):
         spec = load_spec(spec)
@@ -128,8 +136,12 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
     tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.partial-", dir=out.parent))
     try:
         os.chmod(tmp, _umask_mode(0o777))
-        report = _Engine(spec, tmp, progress).run()
+        engine = _Engine(spec, tmp, progress)
+        report = engine.run()
         _check_target(out, force)
+        if not engine.computed and os.path.lexists(out) and any(out.iterdir()):
+            shutil.rmtree(tmp, ignore_errors=True)      # a run of errors does not replace a run of results
+            return replace(report, out_dir=out, files=(), kept_earlier=True)
         _move_into_place(tmp, out)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
@@ -158,6 +170,7 @@ class _Engine(SolveRunner, ScanRunner, StudyRunners, FigureWriter, ReportWriter)
         self.e_unit = spec.energy_unit
         self.l_unit = spec.length_unit
         self.run_id = uuid.uuid4().hex
+        self.computed = 0       # solves that returned and studies that finished (0: nothing to show)
 
     # -- helpers ---------------------------------------------------------------------------
     def write(self, name: str, data: str | bytes) -> None:
@@ -252,6 +265,7 @@ class _Engine(SolveRunner, ScanRunner, StudyRunners, FigureWriter, ReportWriter)
         base = self.done
         try:
             job()
+            self.computed += 1
             log.info("[%s] done in %.1f s", _dotted(key), time.perf_counter() - t0)
         except (ValueError, RuntimeError) as exc:   # bad values met on the way; StudyError is a RuntimeError
             msg = f"[{_dotted(key)}] (line {self.spec.line_of(key)}) failed: {exc}"

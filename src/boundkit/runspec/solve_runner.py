@@ -53,6 +53,7 @@ class SolveRunner:
                                      "message": str(exc), "levels": []})
                         continue
                     self.tick()
+                    self.computed += 1
                     if not res.success:
                         self.problems.append(f"solve {tag}: {res.status}: {res.message}")
                     runs.append({"model": mname, "equation": eq, "channel": cname, **kw, "requested": nlev,
