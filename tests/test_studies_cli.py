@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+import logging
 
 import pytest
 from click.testing import CliRunner
@@ -120,3 +121,17 @@ def test_compare_prints_what_it_can_when_one_channel_is_refused():
     assert one["dirac_plus"] == pytest.approx(dirac_coulomb(80, 1, -1), rel=1e-10)
     assert one["klein_gordon"] is None
     assert "klein-gordon l=0" in res.stderr and "Z alpha < l + 1/2" in res.stderr
+
+
+def test_compare_with_its_relativistic_channels_refused_says_it_in_one_short_line(caplog):
+    """Z = 200 point charge: every Klein-Gordon and Dirac channel asked for is refused. stderr had a
+    WARNING log line and then one of 577 characters with the three refusals in full."""
+    res = run("compare", "--param", "Z=200")
+    assert res.exit_code == 3, res.output
+    assert "-20000" in res.stdout                       # the Schrodinger levels are still there
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and len(lines[0]) < 300, res.stderr
+    assert lines[0].startswith("boundkit: not every channel was solved: klein-gordon l=0 error: Z: for the "
+                               "Klein-Gordon equation a point Coulomb charge needs Z alpha < l + 1/2"), lines[0]
+    assert lines[0].endswith("; 2 more: dirac kappa=-1 error, dirac kappa=1 error"), lines[0]
+    assert not [r.getMessage() for r in caplog.records if r.levelno >= logging.WARNING]   # no second line

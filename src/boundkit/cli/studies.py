@@ -9,8 +9,8 @@ import sys
 
 import click
 
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, check_tol, fail, json_default,
-                     report_unit, write_figure)
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, check_tol, clip_message,
+                     fail, json_default, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
                       plot_option, potential_options, tol_option)
@@ -250,6 +250,11 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
         click.echo(json.dumps(res.to_dict(unit, sunit), default=json_default, indent=2))
     else:
         click.echo(res.table(unit, sunit))
-    if not res.success:
-        click.echo(f"boundkit: not every level was found or met tol ({res.problems()})", err=True)
+    if not res.success:    # one line: the first channel with its reason, then the others by name
+        bad = [(k, v) for k, v in res.statuses.items() if v != "ok"]
+        (first, status), rest = bad[0], bad[1:]
+        reason = f": {res.messages[first]}" if res.messages.get(first) else ""
+        more = f"; {len(rest)} more: " + ", ".join(f"{k} {v}" for k, v in rest) if rest else ""
+        click.echo(f"boundkit: {clip_message(f'not every channel was solved: {first} {status}{reason}{more}')}",
+                   err=True)
         sys.exit(EXIT_NOT_CONVERGED)

@@ -263,8 +263,9 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
                 row[key], row[key + "_error"] = _pair(row, a, b)
             rows.append(row)
     missing = [r["label"] for r in rows if any(r[k] is None for k in _ENERGY_KEYS[:3])]
-    if missing:
-        log.warning("compare: levels not found in every equation: %s", ", ".join(missing))
+    if missing:   # a channel that was refused or failed says so in statuses and messages already
+        refused = any(v != "ok" for v in statuses.values())
+        (log.info if refused else log.warning)("compare: levels not found in every equation: %s", ", ".join(missing))
     settings.update({"potential": describe(potential), "scalar": describe(scalar),
                      "params": dict(params or {}), "l_max": l_max, "levels": levels, "tol": tol,
                      "method": method, "mass_mev": mass_mev, "labels": labels,
