@@ -57,8 +57,10 @@ def ladder_for(tol: float) -> tuple:
     faster but left the wave functions short: the energy error is about the square
     of theirs, and transition rates at Z = 92 moved by 1.2e-10 (measured against
     an independent integration at tol 1e-13).
+    A tol below the rounding floor starts where the floor would: a start beyond the last degree
+    left one rung, no change between rungs, and an infinite error estimate (tol 1e-100).
     """
-    start = max(4.0, _START - math.log10(tol))
+    start = max(4.0, _START - math.log10(max(tol, FLOOR)))
     return tuple(n for n in DEGREES if n >= start) or DEGREES[-1:]
 FLOOR = 2e-14        # rounding floor of refined energies (extended-precision residuals)
 POTENTIAL_FLOOR = 6e-15  # ... and of a level's potential energy (see potential_floor)
