@@ -247,6 +247,32 @@ def test_converge_says_when_fewer_levels_than_asked_were_found():
     assert "partial: found 1 of 4 requested levels" in res.stderr
 
 
+def test_a_tolerance_below_the_rounding_floor_is_reported_by_solve_and_converge():
+    """solve took tol = 1e-100 to one rung of the largest degree and reported an infinite error
+    estimate; converge accepted tol = 1e-300 and labelled its table 'reference solve at tol 1e-300'
+    with exit 0, its reference's status unread. Both now say the tolerance is out of reach, exit 3."""
+    res = cli("solve", "--tol", "1e-100")
+    assert res.exit_code == 3, res.output
+    assert re.search(r"1s .* -0\.5 +[0-9.]+e-1[45]\n", res.stdout), res.stdout      # a finite estimate
+    assert "the rounding floor (about 2e-14 relative) lies above it" in res.stdout
+    res = cli("converge", "--tol", "1e-300", "--method", "spectral")
+    assert res.exit_code == 3, res.output
+    assert "errors relative to a spectral solve at tol 1e-300, which it did not meet" in res.stdout
+    assert re.fullmatch(r"boundkit: tolerance-not-met: reference solve: .*the rounding floor \(about 2e-14 "
+                        r"relative\) lies above it.*\n", res.stderr), res.stderr
+    assert cli("converge", "--method", "spectral").exit_code == 0           # the default tol 1e-13 is met
+
+
+def test_a_run_spec_converge_below_the_rounding_floor_is_a_problem(tmp_path):
+    from boundkit.runspec import run
+
+    spec = write(tmp_path, HYDROGEN.replace("[solve]\nfigures = []\n", '[converge]\nmodel = "h"\nmethods = '
+                                           '["spectral"]\ntol = 1e-30\n'))
+    report = run(spec, tmp_path / "o")
+    assert len(report.problems) == 1 and re.match(
+        r"converge \(h, schrodinger s\): reference solve: tolerance-not-met: .*rounding floor", report.problems[0])
+
+
 # --- item 5: an output error costs only that output ---------------------------------------------
 SCAN = ["scan", "-e", "schrodinger", "--l", "0", "-n", "1", "--vary", "Z=1,2", "--workers", "1",
         "--no-progress"]

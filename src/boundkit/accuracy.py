@@ -54,7 +54,8 @@ class ConvergenceResult:
     the previous size). ``orders`` maps (method, label) to the observed order
     (log-log slope); for the spectral family ``local_orders`` lists the local
     slopes between successive sizes, which grow when convergence is faster
-    than any power.
+    than any power. ``reference_status`` and ``reference_message`` are those of the
+    reference solve (``'tolerance-not-met'`` when ``tol`` lies below what it can reach).
     """
 
     equation: str
@@ -64,6 +65,8 @@ class ConvergenceResult:
     orders: dict
     local_orders: dict
     settings: dict = field(default_factory=dict)
+    reference_status: str = "ok"
+    reference_message: str = ""
 
     def table(self, energy_unit: str = "hartree") -> str:
         """The rows and observed orders as text, energies in ``energy_unit``."""
@@ -96,7 +99,8 @@ class ConvergenceResult:
                           "size": "nodes"},
                 "reference": {k: float(hartree_to(v, eu)) for k, v in self.reference.items()},
                 "rows": rows, "orders": {f"{m}:{lab}": v for (m, lab), v in self.orders.items()},
-                "settings": self.settings}
+                "settings": self.settings,
+                "reference_status": self.reference_status, "reference_message": self.reference_message}
 
 
 def converge(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
@@ -115,7 +119,8 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
     its own fixed mesh at every size;
     the reference is a spectral solve at relative tolerance ``tol`` (default
     1e-13, near the rounding floor, so that the errors measured against it are
-    the discretization's). Equation, potential, params, l, kappa and levels
+    the discretization's; a tol the reference cannot reach is reported in
+    ``reference_status``, as :func:`boundkit.solve` reports it). Equation, potential, params, l, kappa and levels
     mean what they mean for :func:`boundkit.solve`; ``kwargs`` are passed to
     the argument setup (particle, mass_mev, nucleus_mass_mev, scalar, units).
     Returns a :class:`ConvergenceResult`.
@@ -213,4 +218,4 @@ def _converge(equation, potential, params, l, kappa, levels, methods, order, siz
                                          for i in range(len(s) - 1) if errs[i + 1] > 1e-13]
     settings.update({"levels": levels, "methods": list(methods), "fd_order": order, "reference_tol": tol,
                      "spectral_sizes": "element degrees; rows give the number of nodes"})
-    return ConvergenceResult(eq.name, pot.name, reference, rows, orders, local, settings)
+    return ConvergenceResult(eq.name, pot.name, reference, rows, orders, local, settings, ref.status, ref.message)

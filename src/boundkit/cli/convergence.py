@@ -49,8 +49,9 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     if as_json:
         click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
     else:
+        missed = "" if res.reference_status == "ok" else f", which it did not meet ({res.reference_status})"
         click.echo(f"{res.equation} equation, potential {res.potential}; errors relative to a spectral "
-                   f"solve at tol {tol:g}")
+                   f"solve at tol {tol:g}{missed}")
         click.echo(res.table(unit))
     written = None
     if plot_path:
@@ -62,6 +63,9 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     if len(res.reference) < levels:
         click.echo(f"boundkit: partial: found {len(res.reference)} of {levels} requested levels; the table "
                    "shows those found", err=True)
+        sys.exit(EXIT_NOT_CONVERGED)
+    if res.reference_status != "ok":     # as solve reports a tol it cannot reach: the table stands, exit 3
+        click.echo(f"boundkit: {res.reference_status}: reference solve: {res.reference_message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if plot_path and written is None:
         sys.exit(EXIT_BAD_INPUT)
