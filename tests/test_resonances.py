@@ -128,6 +128,103 @@ def _the_one_resonance_is(res, exact: complex) -> None:
     assert abs(r.complex_energy - exact) < 1e-9
 
 
+def siegert_rotated(V, l: int, guess: complex, theta: float, R: float = 50.0, Rm: float = 3.0) -> complex:
+    """Outgoing-wave eigenvalue of an analytic V for any l (m = 1), by shooting along the ray z = r e^(i theta):
+    from u ~ z^(l+1) at the origin out to |z| = Rm, and in from |z| = R, where the outgoing Riccati-Hankel
+    function e^(i x) sum_m (l + m)! / (m! (l - m)!) (i / 2x)^m (common practice) decays (V there: 2e-14 hartree
+    at theta = 0.6), to Rm; the two log
+    derivatives are matched by the secant method (a start from z^(l+1) alone, 1e-3 out, moved the l = 0 pole by
+    4e-9 between angles). Along the ray a broad resonance's wave decays outwards
+    instead of growing as on the real axis (where the shooting above fails for Gamma/2 ~ 1 hartree)."""
+    ph = np.exp(1j * theta)
+    r0 = 1e-3
+
+    def hankel(x):
+        terms = [math.factorial(l + m) / (math.factorial(m) * math.factorial(l - m)) for m in range(l + 1)]
+        s = sum(c * (1j / (2 * x)) ** m for m, c in enumerate(terms))
+        ds = sum(-m * c * (1j / 2) ** m * x ** (-m - 1) for m, c in enumerate(terms))
+        return np.exp(1j * x) * s, np.exp(1j * x) * (1j * s + ds)
+
+    def mismatch(E):
+        E = complex(E)
+
+        def rhs(r, y):
+            z = r * ph
+            return [y[1], ph * ph * (2 * (V(z) - E) + l * (l + 1) / z**2) * y[0]]
+
+        z0 = r0 * ph
+        a2 = -2 * E / (4 * l + 6)          # u = z^(l+1) (1 + a2 z^2 + ...) where V ~ 7.5 z^2 is still negligible
+        start = [z0 ** (l + 1) * (1 + a2 * z0**2), ph * ((l + 1) * z0**l + (l + 3) * a2 * z0 ** (l + 2))]
+        u, du = solve_ivp(rhs, (r0, Rm), [complex(v) for v in start], method="DOP853", rtol=1e-13,
+                          atol=1e-60).y[:, -1]
+        k = np.sqrt(2 * E)
+        h, dh = hankel(k * R * ph)
+        w, dw = solve_ivp(rhs, (R, Rm), [complex(h), complex(ph * k * dh)], method="DOP853", rtol=1e-13,
+                          atol=1e-60).y[:, -1]
+        return (du * w - dw * u) / (abs(du * w) + abs(dw * u))
+
+    return complex(mpmath.findroot(mismatch, mpmath.mpc(guess), solver="secant", tol=1e-26, verify=False))
+
+
+@pytest.mark.parametrize("l, guess", [(0, 4.83 - 1.1j), pytest.param(2, 5.5 - 1.05j, marks=pytest.mark.slow),
+                                      pytest.param(3, 6.13 - 2.03j, marks=pytest.mark.slow)])
+def test_broad_resonances_are_found_by_continuing_the_potential(l, guess):
+    """Broad poles of the barrier (Gamma/2 of 1 to 2 hartree) were missed by the default contour: their
+    outgoing wave grows by e^(|Im k| R0) ~ e^12 over the unscaled segment out to R0 = 35 bohr. With
+    analytic=True the expression itself is continued and r0 defaults to 0 (uniform scaling, no unscaled
+    segment). Exact: the rotated-ray shooting above, at two angles (they agree to 3e-14; that spread is
+    allowed on top of the estimates)."""
+    from boundkit.potentials.expression import ExpressionTerm
+
+    exact = siegert_rotated(barrier, l, guess, 0.4)
+    spread = abs(siegert_rotated(barrier, l, guess, 0.6) - exact)      # the reference's own uncertainty
+    assert spread < 1e-12
+    default = boundkit.resonances("schrodinger", barrier, l=l, window=(4.0, 7.0))
+    assert not any(abs(r.complex_energy - exact) < 1e-3 for r in default.resonances)
+    assert "broad resonances" in default.message and "analytic=True (--analytic)" in default.message
+    res = boundkit.resonances("schrodinger", ExpressionTerm("7.5*r**2*exp(-r)"), l=l, window=(4.0, 7.0),
+                              analytic=True)
+    assert res.settings["scaling"] == "uniform" and res.settings["r0_bohr"] == 0.0
+    assert "broad resonances" not in res.message
+    (r,) = [r for r in res.resonances if abs(r.complex_energy - exact) < 1e-3]
+    assert abs(r.energy - exact.real) <= r.energy_error + spread
+    assert abs(r.width + 2 * exact.imag) <= r.width_error + 2 * spread
+    assert abs(r.complex_energy - exact) < 1e-6
+
+
+def test_analytic_true_refuses_what_it_cannot_continue():
+    from boundkit.potentials.expression import ExpressionTerm
+
+    with pytest.raises(ValueError, match=r"analytic: the term 'woods-saxon' has no analytic continuation to complex "
+                                         r"r here .*write it as an expression \(--expr\)"):
+        boundkit.resonances("schrodinger", "woods-saxon", {"depth": 1, "radius": 2, "diffuseness": 0.5},
+                            window=(4, 7), analytic=True)
+    with pytest.raises(ValueError, match=r"analytic: the expression 'where\(r < 1, 10, 0\)' uses where\(\) \(a "
+                                         r"switch\), which has no analytic continuation"):
+        boundkit.resonances("schrodinger", ExpressionTerm("where(r < 1, 10, 0)"), window=(4, 7), analytic=True)
+    with pytest.raises(ValueError, match=r"analytic: the expression 'abs\(r - 1\)\*exp\(-r\)' uses abs\(\)"):
+        boundkit.resonances("schrodinger", ExpressionTerm("abs(r - 1)*exp(-r)"), window=(4, 7), analytic=True)
+    with pytest.raises(ValueError, match=r"analytic: expected a callable V\(z\) of complex z, or True"):
+        boundkit.resonances("schrodinger", barrier, window=(4, 7), analytic="yes")
+    # a Coulomb term continues as -Z/z: the 1s of hydrogen, a real eigenvalue, from uniform scaling
+    res = boundkit.resonances("schrodinger", "coulomb", {"Z": 1}, window=(-0.6, -0.4), analytic=True)
+    (one_s,) = res.resonances
+    assert res.settings["scaling"] == "uniform" and one_s.energy == pytest.approx(-0.5, abs=1e-9)
+
+
+def test_cli_analytic_flag():
+    out = CliRunner().invoke(main, ["resonances", "--expr", "7.5*r**2*exp(-r)", "--l", "2", "--window", "4,7",
+                                    "--analytic", "--json"])
+    assert out.exit_code == 0, out.output
+    data = json.loads(out.output)
+    assert data["settings"]["scaling"] == "uniform"
+    (res,) = data["resonances"]
+    assert res["energy"] == pytest.approx(5.4913453119, abs=1e-8)     # the shooting value, test above
+    out = CliRunner().invoke(main, ["resonances", "--expr", "where(r < 1, 10, 0)", "--window", "4,7", "--analytic"])
+    assert out.exit_code == 2 and "Traceback" not in out.output
+    assert "boundkit: error: analytic: the expression 'where(r < 1, 10, 0)' uses where() (a switch)" in out.output
+
+
 def test_a_jump_in_the_potential_is_split_between_its_two_elements():
     """The FEM-DVR's Lobatto quadrature has a node on each element edge, shared by the two elements;
     at a jump of V the node took V from one side only (as the potential returns it there), so the

@@ -401,9 +401,17 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     r0, r_max, h : float, optional
         Start of the rotated segment, end of the mesh and element size (bohr);
         chosen from the potential and the window when omitted.
-    analytic : callable, optional
+    analytic : callable or True, optional
         V(z) for complex z (bohr -> hartree) used on the rotated segment
         instead of the tail -Z_inf/z; with ``r0=0`` this is uniform scaling.
+        ``True`` continues the potential itself, when every term is an
+        expression free of ``abs`` and ``where`` or a Coulomb term (r0 then
+        defaults to the last breakpoint, or 0: uniform scaling). Broad
+        resonances (Gamma/2 of the order of E) need it: their outgoing wave
+        grows like e^(|Im k| r) over an unscaled segment, which then has to
+        reach as far as the potential does. The rotation sweeps the sector
+        between the real axis and the rotated ray: V must have no poles or
+        branch cuts there (a Woods-Saxon form has poles at R +- i pi a).
     absorptive, absorptive_params : optional
         Imaginary part W(r) of the vector potential, V = V_R + i W, given like
         ``potential`` (names, callables, terms) with its own parameters.
@@ -452,8 +460,8 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         raise ValueError(f"r0: must be >= 0 bohr, got {r0:g}")
     if r0 == 0 and analytic is None:
         raise ValueError("r0: r0 = 0 (uniform scaling) needs analytic=, the potential as a function of complex r")
-    if analytic is not None and not callable(analytic):
-        raise ValueError("analytic: expected a callable V(z) of complex z")
+    if analytic is not None and analytic is not True and not callable(analytic):
+        raise ValueError("analytic: expected a callable V(z) of complex z, or True (continue the potential itself)")
 
     def wrap(spec):
         items = spec if isinstance(spec, (list, tuple)) else [spec]
@@ -469,6 +477,11 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         imag = make_potential(absorptive, absorptive_params, units=units)
         pot = type(pot)(tuple(pot.vector) + tuple(ImaginaryPart(t) for t in imag.vector), pot.scalar)
         settings["absorptive"] = repr(imag)
+    if analytic is True:
+        pot.continued(np.array([1.0 + 1.0j]))      # refuses a term without a continuation, with its name
+        analytic = pot.continued
+        if r0 is None:
+            r0 = max(pot.breakpoints, default=0.0)
     plan = _mesh_plan(eq, pot, (emin, emax), angles, analytic, r0, r_max, h)
     if plan["r_max"] <= plan["r0"]:
         raise ValueError(f"r_max: must exceed r0 = {plan['r0']:.4g} bohr")
@@ -527,6 +540,11 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         status, message = "none-stable", (f"no eigenvalue with Re E in [{emin:g}, {emax:g}] hartree is stable to "
                                           f"{tol:g} over the angles and orders ({in_window} moved: rotated "
                                           "continuum); try larger angles or a wider window")
+    if analytic is None and plan["r0"] * _wavenumber(eq, max(emax, 0.0)) > 20:
+        # an unscaled segment of several wavelengths: on 7.5 r^2 exp(-r) (R0 = 35 bohr, k R0 = 130) the
+        # resonances with Gamma/2 = 1.1 (l = 0), 1.05 (l = 2) and 2.0 hartree (l = 3) were missed
+        message += (f"; broad resonances, whose outgoing wave grows over the unscaled segment (to R0 = "
+                    f"{plan['r0']:.3g} bohr), can be missed: for an analytic potential use analytic=True (--analytic)")
     return ResonanceResult(tuple(found), True, status, message, eq.name, pot.name, settings, constants_record(),
                            _UNITS, diagnostics)
 

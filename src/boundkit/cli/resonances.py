@@ -41,13 +41,18 @@ def _numbers(option: str, text: str, count: int | None = None) -> tuple[float, .
               help="Lobatto order of the elements; the stability test also uses order - 4.")
 @click.option("--r0", type=float, default=None, help="Start of the rotated segment in bohr (default: automatic).")
 @click.option("--r-max", type=float, default=None, help="End of the mesh in bohr (default: automatic).")
+@click.option("--analytic", is_flag=True, default=False,
+              help="Continue the potential itself to complex r on the rotated segment (expressions without abs "
+                   "and where, and coulomb terms); --r0 then defaults to 0, uniform scaling. Finds broad "
+                   "resonances the default contour misses; V must have no poles in the swept sector.")
 @tol_option(1e-6, "Relative stability an eigenvalue must show over angles and orders.")
 @particle_options()
 @energy_unit_option(what="Unit of --window and of reported energies")
 @json_option("Print one JSON object (each eigenvalue with separate energy and width fields) instead of a table.")
 def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                    table_origin, table_r_unit, table_v_unit, params, unit_system, absorptive, l, kappa, window,
-                   angles, order, r0, r_max, tol, particle, mass_mev, nucleus_mass_mev, energy_unit, as_json):
+                   angles, order, r0, r_max, analytic, tol, particle, mass_mev, nucleus_mass_mev, energy_unit,
+                   as_json):
     """Resonances, bound and quasi-bound levels in an energy window (complex scaling)."""
     from .. import resonances
     from ..units import ENERGY_UNITS
@@ -67,7 +72,7 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
         per = ENERGY_UNITS[unit]
         res = resonances(equation, vector, values, window=(lo / per, hi / per), l=l, kappa=kappa, angles=thetas,
                          order=order, r0=r0, r_max=r_max, tol=tol, scalar=scalar or None, units=unit_system,
-                         **kwargs)
+                         analytic=True if analytic else None, **kwargs)
     except ValueError as exc:
         fail(str(exc))
     if as_json:

@@ -175,6 +175,12 @@ class Term:
         """Radial factor U(r) of a spin-orbit term V_ls = U(r) <l.s> (hartree), or None."""
         return None
 
+    def continued(self, z: np.ndarray) -> np.ndarray | None:
+        """The term at complex radii ``z`` (bohr), continued analytically off the real axis, or None
+        when the term does not know its continuation (the default; the library's terms are written for
+        real r). Complex scaling with ``analytic=True`` uses it on the rotated segment."""
+        return None
+
     @property
     def breakpoints(self) -> tuple[float, ...]:
         """Radii (bohr) where V or a low derivative jumps, or where V changes
@@ -341,6 +347,30 @@ class Potential:
         r = np.asarray(r)
         return sum((t(r) for t in self.scalar), np.zeros_like(r, dtype=float))
 
+    def continued(self, z) -> np.ndarray:
+        """V at complex radii ``z`` (bohr): the sum of the vector terms' analytic continuations
+        (:meth:`Term.continued`).
+
+        Raises
+        ------
+        ValueError
+            When a term has none, or the potential has scalar terms (complex scaling continues V only).
+        """
+        z = np.asarray(z, dtype=complex)
+        if self.scalar:
+            raise ValueError("analytic: analytic=True (--analytic) continues the vector potential only; this "
+                             "potential has scalar terms: give analytic= a function of complex r, or solve without them")
+        total = np.zeros_like(z)
+        for t in self.vector:
+            w = t.continued(z)
+            if w is None:
+                raise ValueError(f"analytic: the term {getattr(t, 'label', t.name)!r} has no analytic continuation "
+                                 "to complex r here (analytic=True, --analytic, continues expressions and coulomb "
+                                 "terms); write it as an expression (--expr), or give analytic= a function of "
+                                 "complex r")
+            total = total + w
+        return total
+
     @property
     def z_vector(self) -> float:
         return float(sum(t.origin_charge for t in self.vector))
@@ -455,6 +485,10 @@ class NuclearUnitsTerm(Term):
     def spin_orbit(self, r):
         u = self.inner.spin_orbit(np.asarray(r) / self._r)
         return None if u is None else u * self._v
+
+    def continued(self, z):
+        w = self.inner.continued(np.asarray(z) / self._r)
+        return None if w is None else w * self._v
 
     @property
     def far(self) -> str:  # type: ignore[override]

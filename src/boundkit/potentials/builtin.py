@@ -1,6 +1,8 @@
 """Built-in potential terms with exact behaviour declared at both ends."""
 from __future__ import annotations
 
+import numpy as np
+
 from .base import Parameter, Term
 
 __all__ = ["Coulomb", "Oscillator"]
@@ -21,6 +23,9 @@ class Coulomb(Term):
 
     def _evaluate(self, r):
         return -self.values["Z"] / r
+
+    def continued(self, z):
+        return -self.values["Z"] / np.asarray(z, dtype=complex)
 
     @property
     def origin_charge(self) -> float:

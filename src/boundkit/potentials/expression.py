@@ -49,7 +49,7 @@ from typing import Any, Mapping
 import numpy as np
 import scipy.special
 
-from .._checks import check_parameter
+from .._checks import check_parameter, shorten
 from .base import Parameter, ProbedTerm, refuse_complex
 
 __all__ = ["CompiledExpression", "parse_expression", "ExpressionTerm", "FUNCTIONS", "CONSTANTS",
@@ -269,6 +269,40 @@ class CompiledExpression:
 
     def __call__(self, r, params: Mapping[str, float] | None = None) -> np.ndarray:
         return self.evaluate(r, params)
+
+    def not_analytic(self) -> str | None:
+        """What keeps the expression from being an analytic function of r (``where(...)``, a
+        comparison, ``abs(...)``), or None when nothing does."""
+        def find(node):
+            if node[0] in ("where", "cmp"):
+                return "where() (a switch)"
+            if node[0] == "call" and node[1] == "abs":
+                return "abs()"
+            for child in _children(node):
+                got = find(child)
+                if got:
+                    return got
+            return None
+        return find(self._tree)
+
+    def continued(self, z, params: Mapping[str, float] | None = None) -> np.ndarray:
+        """The expression at complex radii ``z`` (bohr): its analytic continuation off the real axis.
+
+        Raises
+        ------
+        ValueError
+            When the expression has a part that is not analytic (:meth:`not_analytic`).
+        """
+        bad = self.not_analytic()
+        if bad:
+            raise ValueError(f"analytic: the expression {shorten(self.text)!r} uses {bad}, which has no analytic "
+                             "continuation to complex r (analytic=True, --analytic); write it without, or give "
+                             "analytic= a function of complex r")
+        values = self.check_params(params)
+        z = np.asarray(z, dtype=complex)
+        with np.errstate(divide="ignore", over="ignore", under="ignore", invalid="ignore"):
+            out = np.asarray(_eval(self._tree, z, values), dtype=complex)
+        return np.array(np.broadcast_to(out, z.shape))
 
     def switching_radii(self, params: Mapping[str, float] | None = None) -> tuple[float, ...]:
         """Radii (bohr, or the term's length unit) where the expression may jump or have a kink:
@@ -697,6 +731,9 @@ class ExpressionTerm(ProbedTerm):
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
         return refuse_complex(self.compiled.evaluate(r, self.values), f"expression {self.label!r}", r)
+
+    def continued(self, z: np.ndarray) -> np.ndarray:
+        return self.compiled.continued(z, self.values)
 
     def __repr__(self) -> str:
         args = "".join(f", {k}={v:g}" for k, v in self.values.items())

@@ -81,6 +81,10 @@ class ImaginaryPart(Term):
             w = w.real
         return 1j * w.astype(float)
 
+    def continued(self, z):
+        w = self.inner.continued(z)
+        return None if w is None else 1j * w
+
     @property
     def breakpoints(self) -> tuple[float, ...]:
         return self.inner.breakpoints
