@@ -563,3 +563,15 @@ def test_a_swallowed_sigterm_is_raised_again_at_the_next_progress_update():
     finally:
         _signals.reset()
     bar.update(3)
+
+
+# --- inputs that ran for minutes with no output, and messages that did not name the problem ---------
+def test_a_nuclear_radius_beyond_the_bohr_radius_is_refused():
+    # 1e20 fm (a sphere 1e15 bohr wide) ran for minutes; the largest nuclei have about 6 fm
+    for term in ("uniform-sphere", "fermi"):
+        with pytest.raises(ValueError, match=rf"params\['rms_fm'\]: an rms radius of 1e\+20 fm is larger than the "
+                                             rf"Bohr radius \(52917.7 fm\), the limit of the {term} term.*--expr"):
+            boundkit.make_potential(term, {"Z": 92, "rms_fm": 1e20})
+    assert boundkit.make_potential("uniform-sphere", {"Z": 92, "rms_fm": 5e4}).vector[0].radius > 0
+    one_line_error(cli("solve", "-p", "uniform-sphere", "--param", "Z=92", "--param", "rms_fm=1e20"),
+                   r"params\['rms_fm'\]: an rms radius of 1e\+20 fm is larger than the Bohr radius")

@@ -152,6 +152,20 @@ def fermi_dirac(s: int, y) -> np.ndarray:
 # ---------------------------------------------------------------------------------------------
 # Finite nuclei
 # ---------------------------------------------------------------------------------------------
+MAX_RMS_FM = FM_PER_BOHR
+"""Largest rms radius of a finite-nucleus term: the Bohr radius, 52917.7 fm (the largest nuclei
+have about 6 fm). A radius of 1e20 fm made a well 1e15 bohr wide whose solve never finished."""
+
+
+def _need_nuclear_size(term: Term) -> None:
+    rms = term.values["rms_fm"]
+    if rms > MAX_RMS_FM:
+        raise ValueError(
+            f"params['rms_fm']: an rms radius of {rms:g} fm is larger than the Bohr radius ({MAX_RMS_FM:.6g} fm), "
+            f"the limit of the {term.name} term: no nucleus is that large (the largest have about 6 fm); for a "
+            "larger charged sphere write its potential as an expression (--expr, lengths in bohr)")
+
+
 class UniformSphere(Term):
     """Potential of a uniformly charged sphere of charge Z.
 
@@ -189,6 +203,7 @@ class UniformSphere(Term):
                 f"params['rms_fm']: the uniform-sphere term needs an rms radius > 0 fm, "
                 f"got {self.values['rms_fm']:g}"
             )
+        _need_nuclear_size(self)
         self.radius = math.sqrt(5.0 / 3.0) * self.values["rms_fm"] / FM_PER_BOHR
         """Sphere radius R in bohr."""
 
@@ -274,6 +289,7 @@ class Fermi(Term):
             raise ValueError(f"params['rms_fm']: the fermi term needs an rms radius > 0 fm, got {rms:g}")
         if not t > 0:
             raise ValueError(f"params['t_fm']: the fermi term needs a skin thickness t_fm > 0 fm, got {t:g}")
+        _need_nuclear_size(self)
         a_fm = t / (4.0 * _LN3)
         rms_min = self.rms_of(0.0, a_fm)
         if rms < rms_min:
