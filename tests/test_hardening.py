@@ -575,3 +575,11 @@ def test_a_nuclear_radius_beyond_the_bohr_radius_is_refused():
     assert boundkit.make_potential("uniform-sphere", {"Z": 92, "rms_fm": 5e4}).vector[0].radius > 0
     one_line_error(cli("solve", "-p", "uniform-sphere", "--param", "Z=92", "--param", "rms_fm=1e20"),
                    r"params\['rms_fm'\]: an rms radius of 1e\+20 fm is larger than the Bohr radius")
+
+
+def test_max_n_of_transitions_is_bounded_with_an_override():
+    with pytest.raises(ValueError, match=r"max_n: 21 is more than the limit of 20; .*max_n_limit="):
+        boundkit.transitions(max_n=21)
+    with pytest.raises(ValueError, match=r"max_n: 3 is more than the limit of 2; .*max_n_limit="):
+        boundkit.transitions(max_n=3, max_n_limit=2)
+    one_line_error(cli("transitions", "--max-n", "100000"), r"max_n: 100000 is more than the limit of 20")

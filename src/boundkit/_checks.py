@@ -9,7 +9,8 @@ import math
 from typing import Iterable
 
 __all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "check_count",
-           "check_workers", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_TABLE_POINTS"]
+           "check_workers", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
+           "MAX_TABLE_POINTS"]
 
 MAX_GRID_POINTS = 10_000
 """Most points of a scan grid (values x values x equations x channels), or of one
@@ -18,6 +19,11 @@ range in a run spec. Override: ``max_points=`` (API), ``--max-points`` (CLI),
 
 MAX_L = 20
 """Largest l_max of a comparison. Override: ``compare(..., max_l_max=...)``."""
+
+MAX_N = 20
+"""Largest max_n of :func:`boundkit.transitions.transitions`: every channel l < max_n is solved for
+its levels up to max_n, and the lines grow as max_n^4 (max_n = 20: 210 levels, about 40 s for
+hydrogen). Override: ``transitions(..., max_n_limit=...)``."""
 
 MAX_TABLE_POINTS = 200_000
 """Most points of a potential table. Override: ``read_table(..., max_points=...)``

@@ -73,6 +73,7 @@ from typing import Sequence
 import scipy.constants as sc
 from scipy.special import spherical_jn
 
+from ._checks import MAX_N, check_count, check_int
 from .observables import _integral, matrix_element
 from .units import C_AU, ELECTRON_MASS_MEV, hartree_to
 from .wavefunctions import radial_derivative_state
@@ -372,7 +373,7 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
                 energy_unit: str = "eV", tol: float = 1e-14, method: str = "auto",
                 particle: str | None = None, mass_mev: float | None = None,
                 nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
-                labels: str = "atomic") -> TransitionResult:
+                labels: str = "atomic", max_n_limit: int = MAX_N) -> TransitionResult:
     """All radiative lines among the bound levels with n <= ``max_n``.
 
     Parameters
@@ -380,7 +381,7 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
     equation, potential, params, particle, mass_mev, nucleus_mass_mev, scalar, units, method, tol
         As for :func:`boundkit.solve` (every channel with l < max_n is solved).
     max_n : int
-        Highest principal quantum number included (>= 2).
+        Highest principal quantum number included (>= 2), at most ``max_n_limit``.
     levels : sequence of str, optional
         Keep only these level labels (e.g. ``["1s", "2p"]``).
     multipoles : sequence of {'E1', 'M1', 'E2', 'M2'}
@@ -391,6 +392,9 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
     labels : {'atomic', 'nuclear', 'quarkonium'}
         Labelling convention of the levels, of ``levels`` and of the result
         (:mod:`boundkit.states`); ``max_n`` stays the atomic n = nodes + l + 1.
+    max_n_limit : int
+        Limit on ``max_n`` (default 20, :data:`boundkit._checks.MAX_N`): every
+        channel l < max_n is solved and the lines grow as max_n^4.
 
     Returns
     -------
@@ -404,11 +408,10 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
     """
     from .solver import solve  # the public entry point
     from .units import energy_unit as canonical_energy_unit
-    from ._checks import check_int
-
     max_n = check_int("max_n", max_n, minimum=1)
     if max_n < 2:
         raise ValueError("max_n: needs at least 2 (no lines among n = 1 levels alone)")
+    check_count("max_n", max_n, check_int("max_n_limit", max_n_limit, minimum=2), "max_n_limit= (API)", "")
     unit = canonical_energy_unit(energy_unit)
     key = str(equation).lower().replace("_", "-")
     key = {"kg": "klein-gordon"}.get(key, key)
