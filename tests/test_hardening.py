@@ -583,3 +583,28 @@ def test_max_n_of_transitions_is_bounded_with_an_override():
     with pytest.raises(ValueError, match=r"max_n: 3 is more than the limit of 2; .*max_n_limit="):
         boundkit.transitions(max_n=3, max_n_limit=2)
     one_line_error(cli("transitions", "--max-n", "100000"), r"max_n: 100000 is more than the limit of 20")
+
+
+def test_phase_shifts_refuse_more_nodes_than_the_integration_can_follow():
+    from boundkit.scattering import continuum_state, phase_shifts
+
+    yukawa = dict(potential="yukawa", params={"Z": 1, "screening_length": 2})
+    t0 = time.perf_counter()
+    with pytest.raises(ValueError, match=r"hard_core: at E = 1 hartree the solution has about 2.3e\+09 nodes "
+                                         r"between r = 1e\+10 and 1.5e\+10 bohr, more than the limit of 10000 .*"
+                                         r"smaller hard core.*max_nodes="):
+        phase_shifts([0.1, 1], hard_core=1e10, **yukawa)
+    with pytest.raises(ValueError, match=r"energies: at E = 1e\+300 hartree the solution has about 1.3e\+150 "
+                                         r"nodes .*use lower energies"):
+        phase_shifts([1e300], **yukawa)
+    with pytest.raises(ValueError, match=r"energies: at E = 1e\+300 hartree the solution has more than 1e308 nodes"):
+        phase_shifts([1e300], "dirac", kappa=-1, **yukawa)
+    with pytest.raises(ValueError, match=r"energies: at E = 1 hartree .* more than the limit of 10 the"):
+        phase_shifts([1.0], max_nodes=10, **yukawa)                 # about 18 nodes: the override
+    with pytest.raises(ValueError, match=r"energies: at E = 1 hartree .* nodes between r = .* and 1e\+08 bohr"):
+        continuum_state(1.0, r=[1.0, 1e8], **yukawa)
+    assert time.perf_counter() - t0 < 5
+    one_line_error(cli("phases", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2",
+                       "--energies", "0.1,1", "--hard-core", "1e10"), r"hard_core: at E = 1 hartree")
+    one_line_error(cli("phases", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2",
+                       "--energies", "1e300"), r"energies: at E = 1e\+300 hartree .* nodes")

@@ -10,7 +10,7 @@ from typing import Iterable
 
 __all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "check_count",
            "check_workers", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
-           "MAX_TABLE_POINTS"]
+           "MAX_TABLE_POINTS", "MAX_PHASE_NODES"]
 
 MAX_GRID_POINTS = 10_000
 """Most points of a scan grid (values x values x equations x channels), or of one
@@ -24,6 +24,11 @@ MAX_N = 20
 """Largest max_n of :func:`boundkit.transitions.transitions`: every channel l < max_n is solved for
 its levels up to max_n, and the lines grow as max_n^4 (max_n = 20: 210 levels, about 40 s for
 hydrogen). Override: ``transitions(..., max_n_limit=...)``."""
+
+MAX_PHASE_NODES = 10_000
+"""Most nodes (half wavelengths) the outward integration of a phase shift or continuum state
+follows from its start to the matching radius, at about 100 per second. Override:
+``phase_shifts(..., max_nodes=...)``, ``continuum_state(..., max_nodes=...)``."""
 
 MAX_TABLE_POINTS = 200_000
 """Most points of a potential table. Override: ``read_table(..., max_points=...)``

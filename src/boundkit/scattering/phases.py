@@ -11,7 +11,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .._checks import check_int, check_positive
+from .._checks import MAX_PHASE_NODES, check_int, check_positive
 from .._rounding import rounding_floor
 from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
 from ..units import energy_unit as canonical_unit
@@ -61,6 +61,29 @@ def _energies(energies, unit: str) -> np.ndarray:
     return np.sort(E / ENERGY_UNITS[unit])
 
 
+def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, reach: float = 0.0) -> None:
+    """Refuse energies (or a hard core) for which the outward integration would follow more than
+    ``max_nodes`` nodes of the solution, about k (R - r_start) / pi up to the matching radius R (or
+    ``reach``, the largest radius asked for): DOP853 follows about 100 a second, and 1e150 of them
+    (E = 1e300 hartree) or 1e9 (a hard core at 1e10 bohr) never finish."""
+    max_nodes = check_int("max_nodes", max_nodes, minimum=1)
+    for e in E[::-1]:
+        with np.errstate(over="ignore", invalid="ignore"):     # k of 1e300 hartree (Dirac) is inf
+            k = float(wave_number(ch.eq.name, float(e), ch.eq.mass))
+            R = max(matching_radius(ch, float(e), tol)[0], reach)
+            r0 = _start(ch, k)
+            nodes = k * (R - r0) / math.pi
+        if not nodes > max_nodes:
+            continue
+        shown = f"{e * ENERGY_UNITS[unit]:.4g} {unit}"
+        count = f"about {nodes:.2g}" if math.isfinite(nodes) else "more than 1e308"
+        core = bool(ch.hard_core) and R <= 1.5 * ch.hard_core * (1 + 1e-12)   # the core set the radius
+        name, fix = ("hard_core", "use a smaller hard core") if core else ("energies", "use lower energies")
+        raise ValueError(f"{name}: at E = {shown} the solution has {count} nodes between r = {r0:.3g} and "
+                         f"{R:.3g} bohr, more than the limit of {max_nodes} the integration follows; {fix}, "
+                         "or raise the limit with max_nodes= (API)")
+
+
 def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     """Matches at R1 for a batch of energies sharing the integration steps.
 
@@ -105,7 +128,8 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
                  particle: str | None = None, mass_mev: float | None = None,
                  nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
                  j: float | None = None, hard_core: float | None = None, energy_unit: str = "hartree",
-                 tol: float = 1e-8, estimate_error: bool = True) -> PhaseShifts:
+                 tol: float = 1e-8, estimate_error: bool = True,
+                 max_nodes: int = MAX_PHASE_NODES) -> PhaseShifts:
     """Phase shifts of one channel at kinetic energies above threshold.
 
     Parameters
@@ -125,6 +149,10 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     estimate_error : bool
         Repeat each integration with a second matching radius and a looser
         tolerance to estimate the error (default True).
+    max_nodes : int
+        Limit on the nodes of the solution the integration follows up to the
+        matching radius, about k (R - r_start) / pi (default 10000,
+        :data:`boundkit._checks.MAX_PHASE_NODES`; about 100 a second).
 
     Returns
     -------
@@ -157,6 +185,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, j, hard_core)
+    _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit))
     return _tabulate(ch, E, tol, estimate_error, settings, t0)
 
 
@@ -453,7 +482,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
                     nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
                     j: float | None = None, hard_core: float | None = None, r=None,
                     normalisation: str = "unit-amplitude", energy_unit: str = "hartree",
-                    tol: float = 1e-8) -> ContinuumState:
+                    tol: float = 1e-8, max_nodes: int = MAX_PHASE_NODES) -> ContinuumState:
     """The regular solution at one energy above threshold, normalised.
 
     Parameters
@@ -466,7 +495,8 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     normalisation : {'unit-amplitude', 'energy'}
         Unit amplitude: P ~ sin(k r - eta ln 2kr - l pi/2 + theta + delta).
         Energy: integral P_E P_E' (x charge weight) dr = delta(E - E').
-    Other parameters as in :func:`phase_shifts`.
+    Other parameters as in :func:`phase_shifts` (``max_nodes`` counts the
+    nodes up to the largest of ``r`` too).
 
     Notes
     -----
@@ -487,6 +517,8 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
                      hard_core)
     eq = ch.eq
+    _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit),
+                 0.0 if r is None else float(r.max()))
     R1, _ = matching_radius(ch, E, tol)
     k = float(wave_number(eq.name, E, eq.mass))
     r0 = _start(ch, k)
