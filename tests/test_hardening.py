@@ -608,3 +608,21 @@ def test_phase_shifts_refuse_more_nodes_than_the_integration_can_follow():
                        "--energies", "0.1,1", "--hard-core", "1e10"), r"hard_core: at E = 1 hartree")
     one_line_error(cli("phases", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2",
                        "--energies", "1e300"), r"energies: at E = 1e\+300 hartree .* nodes")
+
+
+def test_resonances_refuse_a_mesh_too_large_before_laying_it():
+    from boundkit.resonances import resonances
+
+    well = boundkit.potentials.expression.ExpressionTerm("7.5*r**2*exp(-r)")
+    t0 = time.perf_counter()
+    with pytest.raises(ValueError, match=r"r_max: the scaled mesh out to r_max = 1e\+12 bohr needs at least .* "
+                                         r"unknowns, more than the limit of 2400 .*give a smaller r_max"):
+        resonances("schrodinger", well, window=(3, 4), r_max=1e12)
+    with pytest.raises(ValueError, match=r"window: the mesh for this window needs at least .* unknowns, more than the "
+                                         r"limit of 2400 of a dense eigenproblem; narrow the window"):
+        resonances("schrodinger", well, window=(1e-300, 1e300))
+    assert time.perf_counter() - t0 < 5
+    one_line_error(cli("resonances", "--window", "3,4", "--expr", "7.5*r**2*exp(-r)", "--r-max", "1e12"),
+                   r"r_max: the scaled mesh out to r_max = 1e\+12 bohr")
+    one_line_error(cli("resonances", "--window", "1e-300,1e300", "--expr", "7.5*r**2*exp(-r)"),
+                   r"window: the mesh for this window needs at least")

@@ -346,6 +346,31 @@ def _mesh_plan(eq, pot, window, angles, analytic, r0, r_max, h) -> dict:
             "inner": inner, "natural_length": L}
 
 
+def _check_size(plan: dict, per_element: int, r_max_given: bool) -> None:
+    """Refuse, before any edge is laid, a mesh that cannot stay within _MAX_SIZE unknowns: the real
+    segment needs at least R0 / h - 1 elements and the rotated one (r_max - R0) / h_out, which
+    :func:`_edges` would lay one by one (4e11 of them for r_max = 1e12 bohr; an energy of 1e300
+    hartree made h 1e-150 bohr and numpy's linspace gave up with 'Maximum allowed size exceeded')."""
+    r0, r_max = plan["r0"], plan["r_max"]
+    inner = r0 / plan["h"] - 1 if r0 > 0 else 0.0
+    outer = (r_max - r0) / plan["h_out"]
+    least = (max(inner, 0.0) + outer) * per_element
+    if not least > _MAX_SIZE:
+        return
+    count = f"at least {least:.3g}" if math.isfinite(least) else "more than 1e308"
+    if r_max_given and outer * per_element > _MAX_SIZE:
+        raise ValueError(f"r_max: the scaled mesh out to r_max = {r_max:.4g} bohr needs {count} unknowns, more "
+                         f"than the limit of {_MAX_SIZE} of a dense eigenproblem; give a smaller r_max (or none: "
+                         "it is then set by the window)")
+    raise _window_too_big(count)
+
+
+def _window_too_big(count) -> ValueError:
+    return ValueError(f"window: the mesh for this window needs {count} unknowns, more than the limit of "
+                      f"{_MAX_SIZE} of a dense eigenproblem; narrow the window, raise its lower end, or give h, "
+                      "r0 and r_max")
+
+
 def _edges(plan: dict, pot) -> np.ndarray:
     r0, r_max = plan["r0"], plan["r_max"]
     h, h_out = plan["h"], plan["h_out"]
@@ -485,12 +510,13 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     plan = _mesh_plan(eq, pot, (emin, emax), angles, analytic, r0, r_max, h)
     if plan["r_max"] <= plan["r0"]:
         raise ValueError(f"r_max: must exceed r0 = {plan['r0']:.4g} bohr")
+    per_node = 1 if eq.name == "schrodinger" else 2
+    _check_size(plan, order * per_node, r_max is not None)
     edges = _edges(plan, pot)
     orders = (order - 4, order)
-    size = (len(edges) - 1) * order * (1 if eq.name == "schrodinger" else 2)
+    size = (len(edges) - 1) * order * per_node
     if size > _MAX_SIZE:
-        raise ValueError(f"window: the mesh for this window needs {size} unknowns (> {_MAX_SIZE}); narrow the "
-                         "window, raise its lower end, or give h, r0 and r_max")
+        raise _window_too_big(size)
     t0 = time.perf_counter()
 
     def run(th, o, edges=edges, r0=plan["r0"]):
