@@ -626,3 +626,12 @@ def test_resonances_refuse_a_mesh_too_large_before_laying_it():
                    r"r_max: the scaled mesh out to r_max = 1e\+12 bohr")
     one_line_error(cli("resonances", "--window", "1e-300,1e300", "--expr", "7.5*r**2*exp(-r)"),
                    r"window: the mesh for this window needs at least")
+
+
+def test_a_mass_beyond_1e30_electron_masses_is_refused():
+    # 1e300 MeV made infinities in the matrices: 'array must not contain infs or NaNs'
+    with pytest.raises(ValueError, match=r"mass_mev: 1e\+300 MeV is beyond 5.11e\+29 MeV \(1e\+30 electron masses\)"):
+        boundkit.solve("schrodinger", "coulomb", {"Z": 1}, mass_mev=1e300)
+    with pytest.raises(ValueError, match=r"nucleus_mass_mev: 1e\+300 MeV is beyond 5.11e\+29 MeV"):
+        boundkit.solve("schrodinger", "coulomb", {"Z": 1}, nucleus_mass_mev=1e300)
+    one_line_error(cli("solve", "--mass-mev", "1e300"), r"mass_mev: 1e\+300 MeV is beyond .*give a smaller mass")

@@ -47,7 +47,7 @@ from .mesh import LogMap
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
 from .states import count_nodes, normalise, principal_n
-from .units import C_AU, ELECTRON_MASS_MEV, constants_record, get_particle
+from .units import C_AU, ELECTRON_MASS_MEV, check_mass, constants_record, get_particle
 from ._checks import check_choice, check_int, check_positive
 
 __all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation", "check_levels"]
@@ -1362,7 +1362,7 @@ def setup(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     part = get_particle(particle, mass_mev)
     mass = part.mass_au
     if nucleus_mass_mev is not None:
-        M = check_positive("nucleus_mass_mev", nucleus_mass_mev) / ELECTRON_MASS_MEV
+        M = check_mass("nucleus_mass_mev", nucleus_mass_mev) / ELECTRON_MASS_MEV
         mass = mass * M / (mass + M)
     eq = make_equation(equation, l=l, kappa=kappa, mass=mass, j=j)
     if scalar is not None and eq.name == "schrodinger":

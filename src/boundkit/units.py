@@ -14,7 +14,7 @@ from typing import Mapping
 import scipy
 import scipy.constants as sc
 
-from ._checks import check_choice, check_positive
+from ._checks import MAX_MAGNITUDE, check_choice, check_positive
 
 __all__ = [
     "ALPHA",
@@ -73,12 +73,24 @@ class Particle:
     spin: float | None = None
 
     def __post_init__(self) -> None:
-        check_positive("mass_mev", self.mass_mev)
+        check_mass("mass_mev", self.mass_mev)
 
     @property
     def mass_au(self) -> float:
         """Mass in units of the electron mass (the atomic unit of mass)."""
         return self.mass_mev / ELECTRON_MASS_MEV
+
+
+def check_mass(name: str, mass_mev) -> float:
+    """A positive mass in MeV/c^2 of at most MAX_MAGNITUDE electron masses (the bound of every
+    parameter in atomic units): 2 m r^2 V and (m c^2)^2 then stay inside the floating-point range,
+    where a mass of 1e300 MeV made infinities and a bare 'array must not contain infs or NaNs'."""
+    m = check_positive(name, mass_mev)
+    top = MAX_MAGNITUDE * ELECTRON_MASS_MEV
+    if m > top:
+        raise ValueError(f"{name}: {m:.3g} MeV is beyond {top:.3g} MeV ({MAX_MAGNITUDE:g} electron masses), the "
+                         "largest mass boundkit accepts (no particle or nucleus is near it); give a smaller mass")
+    return m
 
 
 def _codata_mass(key: str) -> float:
@@ -110,7 +122,7 @@ def particle_table() -> list[dict]:
 def get_particle(particle: str | Particle | None = None, mass_mev: float | None = None) -> Particle:
     """Return the particle named ``particle`` or one of mass ``mass_mev`` (MeV/c^2)."""
     if mass_mev is not None:
-        check_positive("mass_mev", mass_mev)
+        check_mass("mass_mev", mass_mev)
         name = particle if isinstance(particle, str) else "custom"
         return Particle(name, float(mass_mev), "given by the user")
     if particle is None:
