@@ -635,3 +635,15 @@ def test_a_mass_beyond_1e30_electron_masses_is_refused():
     with pytest.raises(ValueError, match=r"nucleus_mass_mev: 1e\+300 MeV is beyond 5.11e\+29 MeV"):
         boundkit.solve("schrodinger", "coulomb", {"Z": 1}, nucleus_mass_mev=1e300)
     one_line_error(cli("solve", "--mass-mev", "1e300"), r"mass_mev: 1e\+300 MeV is beyond .*give a smaller mass")
+
+
+def test_a_bad_parameter_in_nuclear_units_is_quoted_as_given():
+    ws = {"depth": 50, "radius": -5, "diffuseness": 0.6}
+    with pytest.raises(ValueError, match=r"params\['radius'\]: the woods-saxon term needs radius >= 0, got -5 fm$"):
+        boundkit.make_potential("woods-saxon", ws, units="nuclear")
+    with pytest.raises(ValueError, match=r"params\['radius'\]: the woods-saxon term needs radius >= 0, got -5$"):
+        boundkit.make_potential("woods-saxon", ws)
+    with pytest.raises(ValueError, match=r"params\['k'\]: the oscillator needs k > 0, got -2 MeV/fm\^2$"):
+        boundkit.make_potential("oscillator", {"k": -2}, units="nuclear")
+    one_line_error(cli("solve", "-p", "woods-saxon", "--units", "nuclear", "--param", "radius=-5", "--param",
+                       "depth=50", "--param", "diffuseness=0.6"), r"needs radius >= 0, got -5 fm$")

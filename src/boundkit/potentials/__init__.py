@@ -3,7 +3,6 @@ from __future__ import annotations
 
 from typing import Callable, Mapping, Sequence
 
-from ..units import to_atomic
 from .base import CallableTerm, NuclearUnitsTerm, Parameter, Potential, Term
 from .builtin import Coulomb, Oscillator
 from .library import LIBRARY
@@ -46,17 +45,7 @@ def _make_term(spec, params: Mapping[str, float], used: set, units: str = "atomi
     units_of = {p.name: p.unit for p in cls.parameters}
     mine = {k: v for k, v in params.items() if k in units_of}
     used.update(mine)
-    return cls(**{k: to_atomic(float(v), units_of[k], units) if _is_number(v) else v for k, v in mine.items()})
-
-
-def _is_number(v) -> bool:
-    if isinstance(v, (bool, str, bytes)):   # left for the term's check, which refuses them
-        return False
-    try:
-        float(v)
-    except (TypeError, ValueError):
-        return False
-    return True
+    return cls(units, **mine)     # the term converts its parameters (and quotes them as given)
 
 
 def make_potential(

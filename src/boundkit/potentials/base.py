@@ -71,6 +71,16 @@ def refuse_complex(values, label: str, r=None) -> np.ndarray:
                          "floats") from None
 
 
+def _is_number(v) -> bool:
+    if isinstance(v, (bool, str, bytes)):   # left for the term's check, which refuses them
+        return False
+    try:
+        float(v)
+    except (TypeError, ValueError):
+        return False
+    return True
+
+
 @dataclass(frozen=True, slots=True)
 class Parameter:
     """A named parameter of a term: default (None if required), unit, meaning."""
@@ -115,7 +125,9 @@ class Term:
     source: ClassVar[str] = ""
     far: ClassVar[str] = "zero"
 
-    def __init__(self, **params: float) -> None:
+    def __init__(self, units: str = "atomic", **params: float) -> None:
+        from ..units import to_atomic, unit_label
+
         known = {p.name for p in self.parameters}
         unknown = sorted(set(params) - known)
         if unknown:
@@ -123,10 +135,15 @@ class Term:
                 f"params: term {self.name!r} has no parameter {unknown[0]!r}; "
                 f"its parameters are {', '.join(sorted(known)) or 'none'}"
             )
-        values = {}
+        values, self.given = {}, {}
         for p in self.parameters:
             if p.name in params:
-                values[p.name] = check_parameter(f"params[{p.name!r}]", params[p.name])
+                value = params[p.name]
+                if units != "atomic" and _is_number(value):
+                    shown = "" if p.unit in ("", "1", "e") else " " + unit_label(p.unit, units)
+                    self.given[p.name] = f"{float(value):g}{shown}"
+                    value = to_atomic(float(value), p.unit, units)
+                values[p.name] = check_parameter(f"params[{p.name!r}]", value)
             elif p.default is not None:
                 values[p.name] = float(p.default)
             else:
@@ -138,7 +155,12 @@ class Term:
         self._validate()
 
     def _validate(self) -> None:
-        """Hook for range checks of parameter values (raise ValueError)."""
+        """Hook for range checks of parameter values (raise ValueError; quote values with :meth:`quote`)."""
+
+    def quote(self, name: str) -> str:
+        """Parameter ``name`` for a message: as the user gave it, with its unit when it was read in
+        another unit system than atomic units (the radius -5 fm, not the -9.45e-05 bohr it became)."""
+        return self.given.get(name) or f"{self.values[name]:g}"
 
     def in_system(self, system: str) -> "Term":
         """This term read in the unit system ``system`` (``atomic`` or ``nuclear``).

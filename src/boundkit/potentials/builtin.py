@@ -54,7 +54,7 @@ class Oscillator(Term):
 
     def _validate(self) -> None:
         if self.values["k"] <= 0:
-            raise ValueError(f"params['k']: the oscillator needs k > 0, got {self.values['k']:g}")
+            raise ValueError(f"params['k']: the oscillator needs k > 0, got {self.quote('k')}")
 
     def _evaluate(self, r):
         return 0.5 * self.values["k"] * r**2

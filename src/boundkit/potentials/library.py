@@ -48,14 +48,14 @@ def _need_positive(term: Term, *names: str) -> None:
     for n in names:
         v = term.values[n]
         if not v > 0:
-            raise ValueError(f"params[{n!r}]: the {term.name} term needs {n} > 0, got {v:g}")
+            raise ValueError(f"params[{n!r}]: the {term.name} term needs {n} > 0, got {term.quote(n)}")
 
 
 def _need_nonnegative(term: Term, *names: str) -> None:
     for n in names:
         v = term.values[n]
         if v < 0:
-            raise ValueError(f"params[{n!r}]: the {term.name} term needs {n} >= 0, got {v:g}")
+            raise ValueError(f"params[{n!r}]: the {term.name} term needs {n} >= 0, got {term.quote(n)}")
 
 
 # ---------------------------------------------------------------------------------------------

@@ -136,7 +136,7 @@ class OpticalTRho(Term):
     def _validate(self) -> None:
         for key in ("A", "c_fm", "a_fm", "mu_mev"):
             if not self.values[key] > 0:
-                raise ValueError(f"params[{key!r}]: the optical-trho term needs {key} > 0, got {self.values[key]:g}")
+                raise ValueError(f"params[{key!r}]: the optical-trho term needs {key} > 0, got {self.quote(key)}")
         v = self.values
         a, c = v["a_fm"], v["c_fm"]
         rho0 = v["A"] / (8 * math.pi * a**3 * float(fermi_dirac(3, c / a)))       # fm^-3
