@@ -647,3 +647,17 @@ def test_a_bad_parameter_in_nuclear_units_is_quoted_as_given():
         boundkit.make_potential("oscillator", {"k": -2}, units="nuclear")
     one_line_error(cli("solve", "-p", "woods-saxon", "--units", "nuclear", "--param", "radius=-5", "--param",
                        "depth=50", "--param", "diffuseness=0.6"), r"needs radius >= 0, got -5 fm$")
+
+
+@pytest.mark.parametrize("args", [("--param", "Z=-1"), ("--expr", "1/r"), ("--param", "Z=-1", "--levels", "all")])
+def test_a_potential_repulsive_everywhere_binds_nothing_at_once(args):
+    # a repulsive Coulomb field took 5 s and exited 3 ('the box could not be made to hold them'); like
+    # a repulsive short-range potential (tests/test_locator.py) it is a result with no level
+    t0 = time.perf_counter()
+    res = cli("solve", *args)
+    assert res.exit_code == 0, res.output
+    assert "binds no level: it is nowhere attractive" in res.stdout
+    assert "status: ok" in res.stdout
+    out = boundkit.solve("schrodinger", "coulomb", {"Z": -1}, l=1, levels=2)
+    assert out.status == "ok" and out.levels == () and out.diagnostics["bound_count"] == 0
+    assert time.perf_counter() - t0 < 3

@@ -1149,9 +1149,33 @@ def _check_klein(eq, pot) -> None:
             "equation")
 
 
+def _repulsive_everywhere(eq, pot) -> bool:
+    """A Schrodinger channel whose potential (less a 1/r^2 part, which only shifts l) is nowhere below its
+    threshold on the natural length's radii (1e-14 to 1e8 bohr), and neither confines nor has an attractive
+    Coulomb tail: the kinetic and centrifugal energies are not negative either (for a real gamma), so no
+    level lies below the threshold. A repulsive Coulomb field took 5 s to say 'partial' without this."""
+    if eq.name != "schrodinger" or pot.confining or pot.tail_charge > 0:
+        return False
+    _, strength, attractive = _strength(eq, pot)
+    if np.any(attractive) or not np.any(strength >= 1e-3):    # V = 0: _natural_length's refusal
+        return False
+    edges = np.array([b for b in pot.breakpoints if b > 0])    # a narrow well declares its radii
+    if edges.size:
+        s = _sample(pot, edges, scan=True)
+        return not np.any(s.V + s.S - getattr(pot, "origin_inverse_square", 0.0) / edges**2 < 0)
+    return True
+
+
+_REPULSIVE = ("this potential binds no level: it is nowhere attractive (V >= 0 at every radius from 1e-14 to "
+              "1e8 bohr)")
+
+
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
     _check_klein(eq, pot)
+    if _repulsive_everywhere(eq, pot):
+        return _result(eq, pot, disc, levels, tol, settings, potential_name, [], _Tally(), [], 0.0,
+                       {"bound_count": 0, "no_level_why": _REPULSIVE}, t0)
     if disc.family == "spectral":
         run = _solve_laguerre(eq, pot, levels, tol)
         found, tally, per_level, worst, extra = run
@@ -1233,8 +1257,9 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
     wanted = levels if levels is not None else bound
     if bound is not None and (levels is None or levels > bound) and len(found) == bound:
         status = "ok" if worst <= tol else "tolerance-not-met"
-        what = ("this potential binds no level in this channel (the count of levels below the threshold "
-                "is 0)" if bound == 0 else f"all {bound} bound level(s) of this channel")
+        what = (extra.get("no_level_why", "this potential binds no level in this channel (the count of levels "
+                                           "below the threshold is 0)")
+                if bound == 0 else f"all {bound} bound level(s) of this channel")
         if levels is not None and levels > bound:
             what += f" ({levels} requested)"
         message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
