@@ -172,7 +172,11 @@ def _both(monkeypatch, *args, **kw):
     with monkeypatch.context() as m:
         _elements_only(m)
         slow = boundkit.solve(*args, **kw)
-    assert slow.diagnostics["mesh"] == "spectral-elements"
+    if slow.diagnostics["mesh"] is None:      # a Schrodinger potential repulsive everywhere: no solve at all
+        assert slow.diagnostics["bound_count"] == 0 and not slow.levels and not fast.levels
+        assert "nowhere attractive" in slow.message and "nowhere attractive" in fast.message
+    else:
+        assert slow.diagnostics["mesh"] == "spectral-elements"
     return fast, slow
 
 
@@ -377,6 +381,18 @@ def _same_levels_as_the_elements(monkeypatch, p):
         return -p["Zt"] / r - p["A"] * np.exp(-r / b) / r + p["C"] * np.exp(-(((r - c0) / w) ** 2))
 
     _agree_when_solvable(monkeypatch, V, tol, l=p["l"], levels=p["levels"])
+
+
+@pytest.mark.xfail(strict=True, reason="known: a bump 1e-7 hartree high and 0.03 bohr wide at r = 17 bohr escapes the "
+                                       "Laguerre path's checks (c) and (d); its 4s is 2.3e-10 off at tol 1e-10")
+def test_a_faint_narrow_bump_far_out(monkeypatch):
+    """Found by the thorough search below (2026-12-04): V = -2.5/r + 1e-7 exp(-((r - 17.14)/0.0316)^2), l = 0,
+    4 levels, tol 1e-10. The elements give the 4s 4.4e-11 hartree (2.3e-10 relative) above -2.5^2/32, the
+    first-order shift C w sqrt(pi) u(17.1)^2 of the bump; the Laguerre mesh gives -2.5^2/32 itself, with an
+    estimate of 4e-15. The bump is too faint for the shape measure (d), relative to max |r V|, and too narrow
+    for the state grid of (c) (points 0.1 bohr apart there). Not fixed yet."""
+    p = {"Zt": 2.5, "A": 0.0, "b": 0.0, "C": 1e-7, "c0": 1.234375, "w": -1.5, "l": 0, "levels": 4, "tol": -10.0}
+    _same_levels_as_the_elements(monkeypatch, p)
 
 
 @_QUICK
