@@ -610,6 +610,31 @@ def test_phase_shifts_refuse_more_nodes_than_the_integration_can_follow():
                        "--energies", "1e300"), r"energies: at E = 1e\+300 hartree .* nodes")
 
 
+def test_phase_shifts_refuse_energies_deep_under_a_repulsive_coulomb_barrier():
+    """A tester's hang: a muon at 1e-4 hartree on a Z = -2 tail (eta = +2033) ran for minutes in the
+    irregular Coulomb function (measured here: 3.5 s at eta = 300, 16 s at 500, 47 s at 800 for one
+    energy), to return delta = 0: the phase relative to the Coulomb waves is of order e^(-2 pi eta)."""
+    from boundkit.scattering import continuum_state, phase_shifts
+
+    t0 = time.perf_counter()
+    with pytest.raises(ValueError, match=r"energies: at E = 0.0001 hartree the repulsive Coulomb tail gives eta = "
+                                         r"2\.03e\+03, more than the limit of 300: .*e\^\(-2 pi eta\).*use "
+                                         r"higher energies, or raise the limit with max_eta= \(API\)"):
+        phase_shifts([1e-4, 1.0], "schrodinger", "coulomb", {"Z": -2}, particle="muon")
+    with pytest.raises(ValueError, match=r"energies: at E = 0.0008 hartree .* eta = 50, more than the limit of 10: "):
+        phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=10)     # the override, both ways
+    with pytest.raises(ValueError, match=r"energies: at E = 1e-06 hartree the repulsive Coulomb tail gives eta"):
+        continuum_state(1e-6, "schrodinger", "coulomb", {"Z": -2})
+    assert time.perf_counter() - t0 < 5
+    assert phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=60).status == "ok"
+    with pytest.raises(ValueError, match=r"energies: at E = 1e-06 hartree the repulsive Coulomb tail gives eta"):
+        phase_shifts([1e-6], "klein-gordon", "coulomb", {"Z": -2})          # the same functions: also slow
+    # attraction is not limited: eta < 0 (no barrier); nor is Dirac (its functions come from 1F1, fast)
+    assert phase_shifts([1e-4], "schrodinger", "coulomb", {"Z": 1}, estimate_error=False).status in ("ok",)
+    one_line_error(cli("phases", "--param", "Z=-2", "--energies", "1e-6"),
+                   r"energies: at E = 1e-06 hartree the repulsive Coulomb tail gives eta = 1\.41e\+03")
+
+
 def test_resonances_refuse_a_mesh_too_large_before_laying_it():
     from boundkit.resonances import resonances
 

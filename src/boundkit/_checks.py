@@ -10,7 +10,7 @@ from typing import Iterable
 
 __all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "check_count",
            "check_workers", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
-           "MAX_TABLE_POINTS", "MAX_PHASE_NODES"]
+           "MAX_TABLE_POINTS", "MAX_PHASE_NODES", "MAX_REPULSIVE_ETA"]
 
 MAX_GRID_POINTS = 10_000
 """Most points of a scan grid (values x values x equations x channels), or of one
@@ -29,6 +29,13 @@ MAX_PHASE_NODES = 10_000
 """Most nodes (half wavelengths) the outward integration of a phase shift or continuum state
 follows from its start to the matching radius, at about 100 per second. Override:
 ``phase_shifts(..., max_nodes=...)``, ``continuum_state(..., max_nodes=...)``."""
+
+MAX_REPULSIVE_ETA = 300.0
+"""Largest Sommerfeld parameter of a repulsive Coulomb tail a Schrodinger or Klein-Gordon phase shift or
+continuum state is computed at: mpmath's irregular Coulomb function deep under the barrier costs about
+eta^2 (3.5 s for one energy at 300, 47 s at 800, measured), and the phase relative to the Coulomb waves
+is of order e^(-2 pi eta) there.
+Override: ``phase_shifts(..., max_eta=...)``, ``continuum_state(..., max_eta=...)``."""
 
 MAX_TABLE_POINTS = 200_000
 """Most points of a potential table. Override: ``read_table(..., max_points=...)``

@@ -11,12 +11,12 @@ from typing import Sequence
 
 import numpy as np
 
-from .._checks import MAX_PHASE_NODES, check_int, check_positive
+from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, check_finite, check_int, check_positive
 from .._rounding import rounding_floor
 from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
 from ..units import energy_unit as canonical_unit
 from .radial import Channel, _start, integrate, loosened, match, matching_radius, prepare
-from .reference import wave_number
+from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
 
 log = logging.getLogger(__name__)
@@ -84,6 +84,25 @@ def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, r
                          "or raise the limit with max_nodes= (API)")
 
 
+def _check_barrier(ch: Channel, E: np.ndarray, max_eta, unit: str) -> None:
+    """Refuse energies where a repulsive Coulomb tail's Sommerfeld parameter exceeds ``max_eta``
+    (:data:`boundkit._checks.MAX_REPULSIVE_ETA`): deep under the barrier the irregular Coulomb function
+    takes minutes (eta = 2033: more than 150 s for one energy), for a phase of order e^(-2 pi eta).
+    Schrodinger and Klein-Gordon only: the Dirac reference is built from 1F1 directly (0.6 s at eta =
+    1100, measured)."""
+    max_eta = check_finite("max_eta", max_eta)
+    if ch.tail_charge >= 0 or ch.eq.name == "dirac":
+        return                                   # no tail, an attractive one, or the fast Dirac functions
+    e = float(E[0])                              # the lowest energy has the largest eta
+    with np.errstate(over="ignore", divide="ignore"):
+        eta = float(sommerfeld(ch.eq.name, e, ch.eq.mass, ch.tail_charge))
+    if eta > max_eta:
+        raise ValueError(f"energies: at E = {e * ENERGY_UNITS[unit]:.4g} {unit} the repulsive Coulomb tail gives "
+                         f"eta = {eta:.3g}, more than the limit of {max_eta:g}: so deep under the barrier the phase "
+                         "relative to the Coulomb waves is of order e^(-2 pi eta) and the Coulomb functions take "
+                         "minutes; use higher energies, or raise the limit with max_eta= (API)")
+
+
 def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     """Matches at R1 for a batch of energies sharing the integration steps.
 
@@ -129,7 +148,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
                  nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
                  j: float | None = None, hard_core: float | None = None, energy_unit: str = "hartree",
                  tol: float = 1e-8, estimate_error: bool = True,
-                 max_nodes: int = MAX_PHASE_NODES) -> PhaseShifts:
+                 max_nodes: int = MAX_PHASE_NODES, max_eta: float = MAX_REPULSIVE_ETA) -> PhaseShifts:
     """Phase shifts of one channel at kinetic energies above threshold.
 
     Parameters
@@ -153,6 +172,11 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
         Limit on the nodes of the solution the integration follows up to the
         matching radius, about k (R - r_start) / pi (default 10000,
         :data:`boundkit._checks.MAX_PHASE_NODES`; about 100 a second).
+    max_eta : float
+        Limit on the Sommerfeld parameter of a repulsive Coulomb tail (default
+        300, :data:`boundkit._checks.MAX_REPULSIVE_ETA`): deeper under the
+        barrier the Coulomb functions cost minutes, for a phase of order
+        e^(-2 pi eta).
 
     Returns
     -------
@@ -186,6 +210,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, j, hard_core)
     _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit))
+    _check_barrier(ch, E, max_eta, canonical_unit(energy_unit))
     return _tabulate(ch, E, tol, estimate_error, settings, t0)
 
 
@@ -482,7 +507,8 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
                     nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
                     j: float | None = None, hard_core: float | None = None, r=None,
                     normalisation: str = "unit-amplitude", energy_unit: str = "hartree",
-                    tol: float = 1e-8, max_nodes: int = MAX_PHASE_NODES) -> ContinuumState:
+                    tol: float = 1e-8, max_nodes: int = MAX_PHASE_NODES,
+                    max_eta: float = MAX_REPULSIVE_ETA) -> ContinuumState:
     """The regular solution at one energy above threshold, normalised.
 
     Parameters
@@ -496,7 +522,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
         Unit amplitude: P ~ sin(k r - eta ln 2kr - l pi/2 + theta + delta).
         Energy: integral P_E P_E' (x charge weight) dr = delta(E - E').
     Other parameters as in :func:`phase_shifts` (``max_nodes`` counts the
-    nodes up to the largest of ``r`` too).
+    nodes up to the largest of ``r`` too; ``max_eta`` as there).
 
     Notes
     -----
@@ -519,6 +545,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     eq = ch.eq
     _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit),
                  0.0 if r is None else float(r.max()))
+    _check_barrier(ch, np.array([E]), max_eta, canonical_unit(energy_unit))
     R1, _ = matching_radius(ch, E, tol)
     k = float(wave_number(eq.name, E, eq.mass))
     r0 = _start(ch, k)
