@@ -185,7 +185,7 @@ def _integral_panels(sa, sb, f, kind: str, breaks) -> np.ndarray:
     edges = sorted(c for c in cuts if t_lo <= c <= t_hi)
     t_min = math.log(min(sa.r[0], sb.r[0]))
     total = _origin_tail(sa, sb, f, kind, t_lo)
-    below = abs(total[1])
+    below = total[1]
     for a, b in zip(edges[:-1], edges[1:]):
         m = max(1, math.ceil((b - a) / _PANEL_WIDTH))
         for i in range(m):
@@ -199,7 +199,7 @@ def _integral_panels(sa, sb, f, kind: str, breaks) -> np.ndarray:
     return np.array([total[0], total[1], below])
 
 
-def _integrals(sa, sb, f, kind: str = "density", breaks=()) -> tuple[float, float]:
+def _integrals(sa, sb, f, kind: str = "density", breaks=()) -> tuple[float, float, float]:
     """(integral_0^r_max of the integrand, that of its absolute value: the scale of the first one's
     rounding, and that of its absolute value below the first node: the part read from the states'
     extrapolation to the origin), on the nodes of the state reaching further out (or by panels, see

@@ -145,6 +145,15 @@ def _origin_nodes(rn: np.ndarray, points: int) -> np.ndarray:
     return idx
 
 
+def _over_r_gamma(state, values: np.ndarray, idx) -> np.ndarray:
+    """h = component / r^gamma at the nodes ``idx`` (an index array or slice), the smooth power series
+    the origin extrapolations read."""
+    rn = state.r[idx]
+    rc, g = state.r_core, state.gamma
+    fn = values[idx] / _weight(rn, rc, g)
+    return fn * (rn + rc) ** -g if rc > 0 else fn
+
+
 def _towards_origin(rn, fn, state, r, gamma: float):
     """f below the first node. At a Coulomb-like origin P / r^gamma = h(r), a power series
     in r, with h = f (r + r_core)^-gamma; h is extrapolated linearly in r from the first node and
@@ -165,10 +174,7 @@ def origin_coefficient(state, component: str = "P", points: int = 2) -> float:
         return 0.0
     idx = _origin_nodes(state.r, points)
     rn = state.r[idx]
-    values = values[idx]
-    rc, g = state.r_core, state.gamma
-    fn = values / _weight(rn, rc, g)
-    h = fn * (rn + rc) ** -g if rc > 0 else fn
+    h = _over_r_gamma(state, values, idx)
     # Lagrange polynomial through (rn, h) evaluated at 0
     total = 0.0
     for i in range(points):
@@ -187,13 +193,11 @@ def origin_noise(state) -> float:
     if j < 2:
         return 0.0
     rn = state.r[: j + 1]
-    rc, g = state.r_core, state.gamma
     worst = 0.0
     for values in (state.P, state.Q):
         if values is None:
             continue
-        h = values[: j + 1] / _weight(rn, rc, g)
-        h = h * (rn + rc) ** -g if rc > 0 else h
+        h = _over_r_gamma(state, values, slice(0, j + 1))
         scale = abs(float(np.mean(h)))
         if scale == 0.0 or not np.all(np.isfinite(h)):
             continue
