@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 
 import boundkit
+from boundkit.states import count_nodes, count_nodes_each
 
 from exact import (ALPHA, C, Case, dirac_coulomb, kappa_to_l, klein_gordon_coulomb,
                    schrodinger_coulomb, solve_case)
@@ -263,3 +264,19 @@ def test_normalise_rows_match_one_at_a_time():
         assert norms[k] == pytest.approx(norm, rel=1e-14)
     assert rows[1][1] > 0
     assert np.sum(w * rows[0] ** 2) == pytest.approx(1.0, rel=1e-14)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_count_nodes_each_counts_every_column_as_count_nodes_does(seed):
+    """The vectorised count (the Laguerre path's node check) against the one-column rule, on random
+    columns with values over nine decades, all-zero columns and decayed tails (where the tail and
+    floor cut-offs decide)."""
+    rng = np.random.default_rng(seed)
+    for _ in range(300):
+        n, m = int(rng.integers(1, 60)), int(rng.integers(1, 6))
+        u = rng.standard_normal((n, m)) * 10.0 ** rng.integers(-8, 2, size=(n, m))
+        if rng.random() < 0.2:
+            u[:, 0] = 0.0
+        if rng.random() < 0.3:
+            u[int(rng.integers(0, n)):, :] *= 1e-7
+        assert list(count_nodes_each(u)) == [count_nodes(u[:, k]) for k in range(m)]

@@ -76,9 +76,9 @@ from scipy.linalg import lapack
 from .discretize.elements import gll
 from .discretize.laguerre import cardinal_matrix, laguerre_mesh
 from .equations.base import decay_steps
-from .ladder import FLOOR, potential_floor, spectral_done, with_potential_floor
+from .ladder import FLOOR, POTENTIAL_FLOOR, spectral_done, with_potential_floor
 from .results import Level, RadialState
-from .states import count_nodes, normalise, principal_n
+from .states import count_nodes_each, normalise, principal_n
 
 __all__ = ["applies", "solve_laguerre", "study"]
 
@@ -510,7 +510,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         log.info("Laguerre mesh: no convergence up to N = %d; using spectral elements", MAX_N)
         return None
     mesh, h, E, u = last.mesh, last.h, last.E, last.u
-    if any(count_nodes(u[:, k]) != k for k in range(want)):
+    if np.any(count_nodes_each(u) != np.arange(want)):
         log.info("Laguerre mesh: a node count disagrees with the level's index; using spectral elements")
         return None
     shape = probe.shape_gaps(h * mesh.x)
@@ -525,7 +525,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
     seen = (h * mesh.weights * last.q) @ u**2
     q_grid = eq.q(0.0, sample(r))
     felt = P**2 @ (w_dr * q_grid)
-    q_abs = np.abs(q_grid)
+    floors = POTENTIAL_FLOOR * (P**2 @ (w_dr * np.abs(q_grid)))     # potential_floor of each level
     for k in range(want):
         if abs(seen[k] - felt[k]) > tol_eff * abs(E[k]):
             log.info("Laguerre mesh: the nodes see <V> = %.3g for level %d, the full grid %.3g (the potential "
@@ -542,7 +542,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         Ek = hk[-1]
         n = principal_n(k, eq.l)
         est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek))
-        est, _ = with_potential_floor(shallow, eq.label(n), Ek, est, potential_floor(states[k], q_abs), tol)
+        est, _ = with_potential_floor(shallow, eq.label(n), Ek, est, float(floors[k]), tol)
         worst = max(worst, est / abs(Ek))
         per_level.append({"label": eq.label(n), "sizes": used, "energies": list(hk), "r_min": r_lo,
                           "r_max": r_last})

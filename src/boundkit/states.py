@@ -25,7 +25,7 @@ import re
 
 import numpy as np
 
-__all__ = ["count_nodes", "principal_n", "normalise", "LABEL_CONVENTIONS", "level_label", "parse_label",
+__all__ = ["count_nodes", "count_nodes_each", "principal_n", "normalise", "LABEL_CONVENTIONS", "level_label", "parse_label",
            "check_convention", "label_sort_key", "convert_label", "level_n"]
 
 LABEL_CONVENTIONS = ("atomic", "nuclear", "quarkonium")
@@ -130,6 +130,26 @@ def count_nodes(u: np.ndarray, tail: float = 1e-4, floor: float = 1e-6) -> int:
     head = u[: last + 1]
     s = np.sign(head[np.abs(head) > floor * top])
     return int(np.count_nonzero(s[1:] != s[:-1]))
+
+
+def count_nodes_each(u: np.ndarray, tail: float = 1e-4, floor: float = 1e-6) -> np.ndarray:
+    """:func:`count_nodes` of every column of ``u`` (one state per column, ascending r), at once.
+
+    The same rule per column: values beyond the last one above ``tail`` max|u| are left out, and
+    values below ``floor`` max|u| are skipped, so a sign change is counted between neighbouring
+    kept values.
+    """
+    u = np.asarray(u, dtype=float)
+    a = np.abs(u)
+    top = np.max(a, axis=0)
+    rows = np.arange(u.shape[0])[:, None]
+    last = u.shape[0] - 1 - np.argmax((a > tail * top)[::-1], axis=0)
+    keep = (a > floor * top) & (rows <= last)
+    # index of the last kept value at or before each row (-1 before the first), carried down
+    prev = np.maximum.accumulate(np.where(keep, rows, -1), axis=0)[:-1]
+    cols = np.arange(u.shape[1])[None, :]
+    flips = keep[1:] & (prev >= 0) & (np.sign(u[1:]) != np.sign(u[np.maximum(prev, 0), cols]))
+    return np.count_nonzero(flips, axis=0)
 
 
 def principal_n(nodes: int, l: int) -> int:
