@@ -557,3 +557,16 @@ def test_cli_errors(args, match):
     assert out.exit_code == 2
     assert match in out.output
     assert "Traceback" not in out.output
+
+
+def test_an_analytic_form_equal_to_the_potential_everywhere_scales_from_the_origin(barrier_result):
+    """analytic= a callable that is the potential itself (no deviation at any radius sampled) and no
+    r0: the exterior starts at 0 (uniform scaling), not at the first radius the search samples
+    (1e-8 bohr before). Same resonance as the exterior-scaled solve (published values in
+    barrier_result's test)."""
+    (r,) = barrier_result.resonances
+    uni = boundkit.resonances("schrodinger", barrier, window=(3.0, 4.0), analytic=barrier, r_max=60.0)
+    assert uni.settings["r0_bohr"] == 0.0 and uni.settings["scaling"] == "uniform"
+    (u,) = uni.resonances
+    assert u.energy == pytest.approx(r.energy, abs=1e-8)
+    assert u.width == pytest.approx(r.width, abs=1e-8)

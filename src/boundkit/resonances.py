@@ -7,8 +7,9 @@ Method
    R0 = 0 and an analytic form of the potential is given). R0 is chosen
    beyond the last non-analytic feature of the potential (``breakpoints``:
    a nuclear radius, a table's end) and beyond the radius where the sampled
-   potential has reached its analytic tail -Z_inf/z (or 0) to 1e-12 of the
-   energy scale. Every breakpoint is an element edge; where V jumps, the
+   potential has reached its analytic tail -Z_inf/z (or 0, or the user's
+   analytic function) to 1e-12 of the energy scale; R0 = 0 when it has that
+   form at every radius sampled and no breakpoint. Every breakpoint is an element edge; where V jumps, the
    edge node (shared by two elements' Lobatto quadratures) holds the two
    one-sided values weighted by the elements' Jacobians (:func:`_split_jumps`).
    The potential is evaluated only at real r <= R0; on the
@@ -282,7 +283,8 @@ def _wavenumber(eq, T: float) -> float:
 
 
 def _auto_r0(pot, analytic, scale: float) -> float:
-    """Smallest radius beyond every breakpoint where V has reached its exterior form."""
+    """Smallest radius beyond every breakpoint where V has reached its exterior form (0 when it has
+    that form at every radius sampled, from 1e-8 bohr on, and no breakpoint)."""
     r = np.geomspace(1e-8, 1e5, 3000)
     with np.errstate(all="ignore"):
         V = np.asarray(pot.V(r), dtype=complex)
@@ -293,10 +295,14 @@ def _auto_r0(pot, analytic, scale: float) -> float:
     if np.any(bad[r >= 1e4]):
         raise ValueError("potential: does not reach a Coulomb tail -Z/r or zero by r = 1e5 bohr (to 1e-12 of the "
                          "energy scale) from r = 1e4 bohr on; give r0 and analytic=, a function of complex r for the exterior")
-    k = int(np.nonzero(bad)[0][-1]) + 1 if np.any(bad) else 0
-    r0 = float(r[k])
     bps = pot.breakpoints
-    if bps and max(bps) >= (r[k - 1] if k > 0 else 0.0):
+    if not np.any(bad):
+        # V is its exterior form at every radius sampled: scale from the origin (uniform scaling)
+        # unless a breakpoint says where it is not analytic
+        return float(max(bps, default=0.0))
+    k = int(np.nonzero(bad)[0][-1]) + 1
+    r0 = float(r[k])
+    if bps and max(bps) >= r[k - 1]:
         r0 = float(max(bps))
     return r0
 
