@@ -130,3 +130,33 @@ def test_hydrogen_line_strength_errors_up_to_n_15():
     above it, at most 1.6 times (the rounding of the states themselves, see the <r^-k> test below)."""
     worst, where = _worst_line(15)
     assert worst <= 2.0, where
+
+
+def _inverse_power(n: int, l: int, k: int) -> float:
+    """<r^-2>, <r^-3> of hydrogen (Z = 1; standard, Bethe and Salpeter 1957 sec. 3)."""
+    return 1.0 / (n**3 * (l + 0.5)) if k == -2 else 1.0 / (n**3 * l * (l + 0.5) * (l + 1))
+
+
+@pytest.mark.xfail(strict=True, reason=(
+    "the states carry rounding of the discretized Hamiltonian amplified by 1 / (gap to the neighbouring "
+    "levels): admixtures of the neighbours of 1e-14..6e-14, independent between resolutions, grow like n; "
+    "the estimate's 2e-14 floor does not grow with them and the change between resolutions sees them only "
+    "by chance. Bounding them needs the solver's matrix (not kept with a level)."))
+def test_inverse_power_moments_of_high_hydrogen_levels():
+    """<r^-2> and <r^-3> of the hydrogen levels n = 20..40, l = 1..5 (default tolerance: the
+    Lagrange-Laguerre path). Measured: true errors up to 2.3e-13 (relative), 5.7 times the estimate
+    (40f <r^-2>), 60 of 210 above it."""
+    worst, where = 0.0, ""
+    for l in range(1, 6):
+        res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=l, levels=40 - l)
+        for lv in res.levels:
+            if lv.n < 20:
+                continue
+            for k in (-2, -3):
+                exact = _inverse_power(lv.n, l, k)
+                q = radial_moment(lv, k)
+                assert abs(q.value / exact - 1) < 1e-12, (lv.label, k)
+                ratio = abs(q.value - exact) / q.error
+                if ratio > worst:
+                    worst, where = ratio, f"{lv.label} <r^{k}>: {abs(q.value / exact - 1):.2e} vs {q.error / exact:.2e}"
+    assert worst <= 2.0, where
