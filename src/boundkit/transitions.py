@@ -151,9 +151,12 @@ class Line:
     absorption f of lower -> upper. ``line_strength_velocity`` holds the line
     strength in the second gauge (velocity form) and ``long_wavelength_a`` the
     rate in the long-wavelength limit (Dirac), both for comparison;
-    ``line_strength_error`` the change of S when both levels are taken one
-    resolution lower (inf when a level has no previous state). A, f and S share
-    the same relative error.
+    ``line_strength_error`` the error of S: for the spinless equations that of
+    the radial integral R (:func:`boundkit.observables.matrix_element`: its
+    change one resolution lower, never below the rounding of the integral of
+    |r P_a P_b|) carried to S = l_> R^2; for Dirac the change of S when both
+    levels are taken one resolution lower (inf when a level has no previous
+    state). A, f and S share the same relative error.
     """
 
     upper: str
@@ -250,15 +253,17 @@ class TransitionResult:
 
 # --- radial integrals ------------------------------------------------------------------
 
-def _spinless_e1(a, b, mass: float, omega: float) -> tuple[float, float]:
-    """(R_length, R_velocity) of the E1 radial integral between spinless levels a (upper), b."""
-    RL = matrix_element(a, b, lambda r: r).value
+def _spinless_e1(a, b, mass: float, omega: float) -> tuple[float, float, float]:
+    """(R_length, R_velocity, error of R_length) of the E1 radial integral between spinless levels
+    a (upper), b; the error is that of :func:`boundkit.observables.matrix_element`."""
+    q = matrix_element(a, b, lambda r: r)
+    RL = q.value
     hi, lo = (a, b) if a.l > b.l else (b, a)
     d = radial_derivative_state(hi.state)
     # integral P_lo (P_hi' + c P_hi / r) dr with c = l_hi (l_lo = l_hi - 1)
     G = (_integral(lo.state, d, lambda r: 1.0 / r, "plain")
          + hi.l * _integral(lo.state, hi.state, lambda r: 1.0 / r, "plain"))
-    return RL, G / (mass * omega)
+    return RL, G / (mass * omega), q.error
 
 
 def _dirac_q(a, b, J: int, k: float, kind: str) -> float:
@@ -318,10 +323,12 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
             raise ValueError(f"multipole: only E1 is computed for the {equation} equation")
         if abs(upper.l - lower.l) != 1:
             return None
-        RL, RV = _spinless_e1(upper, lower, mass, omega)
+        RL, RV, dR = _spinless_e1(upper, lower, mass, omega)
         lmax = max(upper.l, lower.l)
         S, SV = lmax * RL**2, lmax * RV**2
-        S_prev = None if None in lower_res else lmax * _spinless_e1(*lower_res, mass, omega)[0] ** 2
+        # the error of R (previous resolution, and the rounding floor taken on the integral of |r P P|,
+        # not on R: the dipole integral of two distant levels cancels to 1 % of it) carried to R^2
+        S_err = lmax * (2 * abs(RL) + dR) * dR
         gu, gl = 2 * upper.l + 1, 2 * lower.l + 1
         J = 1
     elif equation == "dirac":
@@ -332,6 +339,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
                 return None
             S = q * q
             S_prev = None if None in lower_res else _dirac_q(*lower_res, J, k, "E-length") ** 2
+            S_err = math.inf if S_prev is None else max(abs(S - S_prev), 2e-14 * S)
             SV = _dirac_q(upper, lower, J, k, "E-velocity") ** 2
             long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k, "E-long") ** 2
         else:
@@ -340,6 +348,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
                 return None
             S = q * q
             S_prev = None if None in lower_res else _dirac_q(*lower_res, J, k, "M") ** 2
+            S_err = math.inf if S_prev is None else max(abs(S - S_prev), 2e-14 * S)
             long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k * 1e-6, "M") ** 2
         gu, gl = 2 * abs(upper.kappa), 2 * abs(lower.kappa)
         long_a = long_a / gu / AU_TIME_S
@@ -351,7 +360,7 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
                 energy=float(hartree_to(omega, energy_unit)), energy_unit=energy_unit, energy_hartree=omega,
                 wavelength_nm=NM_HARTREE / omega, line_strength=S, oscillator_strength=f,
                 einstein_a=A_au / AU_TIME_S, line_strength_velocity=SV, long_wavelength_a=long_a,
-                line_strength_error=math.inf if S_prev is None else max(abs(S - S_prev), 2e-14 * S))
+                line_strength_error=S_err)
 
 
 def _channels(equation: str, max_n: int):
