@@ -8,6 +8,7 @@ from __future__ import annotations
 import dataclasses
 import json
 import math
+import re
 
 import mpmath
 import numpy as np
@@ -17,6 +18,7 @@ from scipy.integrate import solve_ivp
 from scipy.special import loggamma, spherical_jn, spherical_yn
 
 import boundkit
+from boundkit._checks import LimitError
 from boundkit.cli import main
 from boundkit.potentials import Parameter, Term
 from boundkit.scattering import (LevinsonCheck, PhaseShifts, continuum_state, levinson, phase_shifts,
@@ -577,6 +579,49 @@ def test_cli_phases_errors(args, match):
     assert run.exit_code == 2
     assert run.output.startswith("boundkit: error: ") and match in run.output
     assert "Traceback" not in run.output and len(run.output.strip().splitlines()) == 1
+
+
+def one_line_error(run, pattern):
+    """Exit 2, one line ``boundkit: error: ...`` matching ``pattern``, no traceback."""
+    assert run.exit_code == 2, run.output
+    lines = run.output.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("boundkit: error: ") and "Traceback" not in run.output, run.output
+    assert re.search(pattern, lines[0]), lines[0]
+
+
+def test_phase_limits_are_options_named_in_the_refusals():
+    """max_nodes= and max_eta= of phase_shifts are --max-nodes and --max-eta of `boundkit phases`; a
+    refusal names the option on the command line and the keyword in the API."""
+    yukawa = ["phases", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2", "--energies", "1"]
+    # E = 1 hartree, k = sqrt(2): about k R / pi = 18 nodes up to the matching radius R = 40.6 bohr
+    one_line_error(CliRunner().invoke(main, yukawa + ["--max-nodes", "10"]),
+                   r"energies: at E = 1 hartree .* more than the limit of 10 the integration follows; use lower "
+                   r"energies, or raise the limit with --max-nodes$")
+    assert CliRunner().invoke(main, yukawa + ["--max-nodes", "20"]).exit_code == 0     # passed through
+    with pytest.raises(LimitError, match=r"more than the limit of 10 the integration follows; use lower energies, "
+                                         r"or raise the limit with max_nodes= \(API\)$") as info:
+        phase_shifts([1.0], "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, max_nodes=10)
+    assert info.value.keyword == "max_nodes"
+    # Z = -2, E = 8e-4 hartree: eta = 2 / sqrt(1.6e-3) = 50 (eta = -Z m / k, standard)
+    barrier = ["phases", "--param", "Z=-2", "--energies", "8e-4"]
+    one_line_error(CliRunner().invoke(main, barrier + ["--max-eta", "10"]),
+                   r"eta = 50, more than the limit of 10: .*use higher energies, or raise the limit with --max-eta$")
+    assert CliRunner().invoke(main, barrier + ["--max-eta", "60"]).exit_code == 0
+    with pytest.raises(LimitError, match=r"eta = 50, more than the limit of 10: .*raise the limit with "
+                                         r"max_eta= \(API\)$"):
+        phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=10)
+    # the limits themselves: a count of at least 1, a positive eta (-1 refused every repulsive tail
+    # with "more than the limit of -1")
+    one_line_error(CliRunner().invoke(main, yukawa + ["--max-nodes", "0"]), r"max_nodes: must be >= 1, got 0")
+    one_line_error(CliRunner().invoke(main, barrier + ["--max-eta", "-1"]), r"max_eta: must be positive, got -1")
+    with pytest.raises(ValueError, match=r"max_eta: must be positive, got -1"):
+        phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=-1)
+    with pytest.raises(ValueError, match=r"max_eta: must be positive, got 0"):
+        continuum_state(0.5, "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, max_eta=0)
+    # Levinson's grid is its own: the limits of the phase shifts do not apply there
+    one_line_error(CliRunner().invoke(main, ["phases", "-p", "hulthen", "--param", "Z=1", "--param", "delta=1",
+                                             "--levinson", "--max-eta", "10"]),
+                   r"--max-eta goes with --energies \(the phase shifts\); --levinson chooses its own energy grid")
 
 
 @pytest.mark.slow

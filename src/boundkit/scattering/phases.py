@@ -11,7 +11,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, check_finite, check_int, check_positive
+from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int, check_positive
 from .._rounding import rounding_floor
 from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
 from ..units import energy_unit as canonical_unit
@@ -79,9 +79,9 @@ def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, r
         count = f"about {nodes:.2g}" if math.isfinite(nodes) else "more than 1e308"
         core = bool(ch.hard_core) and R <= 1.5 * ch.hard_core * (1 + 1e-12)   # the core set the radius
         name, fix = ("hard_core", "use a smaller hard core") if core else ("energies", "use lower energies")
-        raise ValueError(f"{name}: at E = {shown} the solution has {count} nodes between r = {r0:.3g} and "
+        raise LimitError(f"{name}: at E = {shown} the solution has {count} nodes between r = {r0:.3g} and "
                          f"{R:.3g} bohr, more than the limit of {max_nodes} the integration follows; {fix}, "
-                         "or raise the limit with max_nodes= (API)")
+                         "or raise the limit with ", "max_nodes")
 
 
 def _check_barrier(ch: Channel, E: np.ndarray, max_eta, unit: str) -> None:
@@ -90,17 +90,17 @@ def _check_barrier(ch: Channel, E: np.ndarray, max_eta, unit: str) -> None:
     takes minutes (eta = 2033: more than 150 s for one energy), for a phase of order e^(-2 pi eta).
     Schrodinger and Klein-Gordon only: the Dirac reference is built from 1F1 directly (0.6 s at eta =
     1100, measured)."""
-    max_eta = check_finite("max_eta", max_eta)
+    max_eta = check_positive("max_eta", max_eta)
     if ch.tail_charge >= 0 or ch.eq.name == "dirac":
         return                                   # no tail, an attractive one, or the fast Dirac functions
     e = float(E[0])                              # the lowest energy has the largest eta
     with np.errstate(over="ignore", divide="ignore"):
         eta = float(sommerfeld(ch.eq.name, e, ch.eq.mass, ch.tail_charge))
     if eta > max_eta:
-        raise ValueError(f"energies: at E = {e * ENERGY_UNITS[unit]:.4g} {unit} the repulsive Coulomb tail gives "
-                         f"eta = {eta:.3g}, more than the limit of {max_eta:g}: so deep under the barrier the phase "
-                         "relative to the Coulomb waves is of order e^(-2 pi eta) and the Coulomb functions take "
-                         "minutes; use higher energies, or raise the limit with max_eta= (API)")
+        raise LimitError(f"energies: at E = {e * ENERGY_UNITS[unit]:.4g} {unit} the repulsive Coulomb tail gives "
+                         f"eta = {eta:.3g}, more than the limit of {max_eta:g}: the phase shift is of order "
+                         "e^(-2 pi eta) and the Coulomb functions take minutes; use higher energies, or raise the "
+                         "limit with ", "max_eta")
 
 
 def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
@@ -173,10 +173,11 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
         matching radius, about k (R - r_start) / pi (default 10000,
         :data:`boundkit._checks.MAX_PHASE_NODES`; about 100 a second).
     max_eta : float
-        Limit on the Sommerfeld parameter of a repulsive Coulomb tail (default
-        300, :data:`boundkit._checks.MAX_REPULSIVE_ETA`): deeper under the
-        barrier the Coulomb functions cost minutes, for a phase of order
-        e^(-2 pi eta).
+        Limit on the Sommerfeld parameter of a repulsive Coulomb tail, > 0
+        (default 300, :data:`boundkit._checks.MAX_REPULSIVE_ETA`): deeper under
+        the barrier the Coulomb functions cost minutes, for a phase of order
+        e^(-2 pi eta). Schrodinger and Klein-Gordon only (the Dirac functions
+        are fast there).
 
     Returns
     -------
@@ -188,6 +189,9 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     ValueError
         Bad energies, channel or potential (confining, scalar Coulomb tail,
         point charge too strong for the equation).
+    boundkit._checks.LimitError
+        A ValueError: energies (or a hard core) beyond ``max_nodes`` or
+        ``max_eta``; its message names the keyword that raises the limit.
 
     Notes
     -----
