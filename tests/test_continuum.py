@@ -624,6 +624,30 @@ def test_phase_limits_are_options_named_in_the_refusals():
                    r"--max-eta goes with --energies \(the phase shifts\); --levinson chooses its own energy grid")
 
 
+def test_node_limit_refusal_quotes_radii_in_the_units_of_the_call():
+    """With units='nuclear' (--units nuclear) lengths are fm, as the hard core is given: the refusal
+    quoted the radii in bohr (18.9 and 28.3 bohr for a hard core of 1e6 fm)."""
+    from scipy.constants import physical_constants as pc
+
+    # a neutron at E = 10 MeV outside a hard core a = 1e6 fm: k = sqrt(2 m c^2 E) / (hbar c) (standard,
+    # CODATA through scipy.constants); the integration runs from a to the matching radius 1.5 a
+    mc2 = pc["neutron mass energy equivalent in MeV"][0]
+    k = math.sqrt(2 * mc2 * 10.0) / pc["reduced Planck constant times c in MeV fm"][0]
+    nodes = f"{k * 0.5e6 / math.pi:.2g}".replace("+", r"\+")
+    expect = (rf"hard_core: at E = 10 MeV the solution has about {nodes} nodes between r = 1e\+06 and 1.5e\+06 fm, "
+              r"more than the limit of 10000 the integration follows; use a smaller hard core, or raise the limit "
+              r"with ")
+    with pytest.raises(LimitError, match=expect + r"max_nodes= \(API\)$"):
+        phase_shifts([10.0], "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, units="nuclear",
+                     particle="neutron", hard_core=1e6, energy_unit="MeV")
+    one_line_error(CliRunner().invoke(main, ["phases", "--units", "nuclear", "--particle", "neutron", "-p", "yukawa",
+                                             "--param", "Z=1", "--param", "screening_length=2", "--energies", "10",
+                                             "--hard-core", "1e6"]), expect + "--max-nodes$")
+    # atomic units: bohr, as before (1e6 bohr, 1.5e6 bohr)
+    with pytest.raises(LimitError, match=r"between r = 1e\+06 and 1.5e\+06 bohr, more than the limit"):
+        phase_shifts([10.0], "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, hard_core=1e6)
+
+
 @pytest.mark.slow
 def test_a_long_tail_is_reported_not_hidden():
     # V ~ -1/r^3 far out: the first-order bound on the phase change beyond R stays above tol/100 up to

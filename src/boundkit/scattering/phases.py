@@ -13,7 +13,7 @@ import numpy as np
 
 from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int, check_positive
 from .._rounding import rounding_floor
-from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
+from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, bohr_to, constants_record
 from ..units import energy_unit as canonical_unit
 from .radial import Channel, _start, integrate, loosened, match, matching_radius, prepare
 from .reference import sommerfeld, wave_number
@@ -43,6 +43,11 @@ def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_
     return prepare(eq, pot, hard_core), settings
 
 
+def _length_unit(units: str) -> str:
+    """The unit of lengths in a call with ``units`` (the unit system): fm in the nuclear one, as ``hard_core``."""
+    return "fm" if units == "nuclear" else "bohr"
+
+
 def _rtol(tol: float) -> float:
     return min(1e-6, tol * 1e-3)
 
@@ -61,11 +66,13 @@ def _energies(energies, unit: str) -> np.ndarray:
     return np.sort(E / ENERGY_UNITS[unit])
 
 
-def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, reach: float = 0.0) -> None:
+def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, length: str,
+                 reach: float = 0.0) -> None:
     """Refuse energies (or a hard core) for which the outward integration would follow more than
     ``max_nodes`` nodes of the solution, about k (R - r_start) / pi up to the matching radius R (or
-    ``reach``, the largest radius asked for): DOP853 follows about 100 a second, and 1e150 of them
-    (E = 1e300 hartree) or 1e9 (a hard core at 1e10 bohr) never finish."""
+    ``reach``, the largest radius asked for, bohr): DOP853 follows about 100 a second, and 1e150 of them
+    (E = 1e300 hartree) or 1e9 (a hard core at 1e10 bohr) never finish. The message quotes energies
+    in ``unit`` and radii in ``length``, the units of the call."""
     max_nodes = check_int("max_nodes", max_nodes, minimum=1)
     for e in E[::-1]:
         with np.errstate(over="ignore", invalid="ignore"):     # k of 1e300 hartree (Dirac) is inf
@@ -79,9 +86,9 @@ def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, r
         count = f"about {nodes:.2g}" if math.isfinite(nodes) else "more than 1e308"
         core = bool(ch.hard_core) and R <= 1.5 * ch.hard_core * (1 + 1e-12)   # the core set the radius
         name, fix = ("hard_core", "use a smaller hard core") if core else ("energies", "use lower energies")
-        raise LimitError(f"{name}: at E = {shown} the solution has {count} nodes between r = {r0:.3g} and "
-                         f"{R:.3g} bohr, more than the limit of {max_nodes} the integration follows; {fix}, "
-                         "or raise the limit with ", "max_nodes")
+        raise LimitError(f"{name}: at E = {shown} the solution has {count} nodes between r = "
+                         f"{bohr_to(r0, length):.3g} and {bohr_to(R, length):.3g} {length}, more than the limit of "
+                         f"{max_nodes} the integration follows; {fix}, or raise the limit with ", "max_nodes")
 
 
 def _check_barrier(ch: Channel, E: np.ndarray, max_eta, unit: str) -> None:
@@ -213,7 +220,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, j, hard_core)
-    _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit))
+    _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit), _length_unit(units))
     _check_barrier(ch, E, max_eta, canonical_unit(energy_unit))
     return _tabulate(ch, E, tol, estimate_error, settings, t0)
 
@@ -547,7 +554,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
                      hard_core)
     eq = ch.eq
-    _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit),
+    _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit), _length_unit(units),
                  0.0 if r is None else float(r.max()))
     _check_barrier(ch, np.array([E]), max_eta, canonical_unit(energy_unit))
     R1, _ = matching_radius(ch, E, tol)
