@@ -413,6 +413,29 @@ def test_dirac_coulomb_phase_tends_to_schrodinger_at_low_z():
     assert abs(mod_pi(res.coulomb_phase[0] - np.imag(loggamma(1 + 1j * eta)))) < 1e-6
 
 
+@pytest.mark.parametrize("kappa", [-1, 1, -2, 2])
+@pytest.mark.parametrize("sign", [1, -1])
+def test_dirac_coulomb_phase_tends_to_sigma_l_itself_not_mod_pi(kappa, sign):
+    """The Dirac Coulomb phase theta depends on Z and k only through y = Z alpha, p = k/(m c) and W,
+    so shrinking Z and k together at fixed eta = -Z m / k is the limit c -> infinity at fixed Z, k.
+    There theta tends to sigma_l = arg Gamma(l + 1 + i eta), l the orbital of the large component
+    (standard: Messiah, Quantum Mechanics, 1961, the Coulomb phase), modulo 2 pi, not pi: for
+    kappa > 0 and an attractive tail it came out sigma_l + pi."""
+    l = kappa if kappa > 0 else -kappa - 1
+    eta = -sign * 1.0                                 # sign +1 attractive (Z > 0), -1 repulsive
+    with mpmath.workdps(30):
+        sigma = float(mpmath.arg(mpmath.gamma(l + 1 + 1j * eta)))
+    gaps = []
+    for s in (1.0, 0.1, 0.01):
+        Z, k = sign * s, s
+        E = k * k / (1 + math.sqrt(1 + (k / C_AU) ** 2))       # k^2 c^2 = E (E + 2 c^2), m = 1
+        res = phase_shifts([E], "dirac", "coulomb", {"Z": Z}, kappa=kappa, estimate_error=False)
+        assert abs(res.delta[0]) < 1e-9                        # pure Coulomb: theta is the whole phase
+        gaps.append(abs(math.remainder(float(res.coulomb_phase[0]) - sigma, 2 * math.pi)))
+    # relativistic corrections of order (Z alpha)^2: 100 times smaller at each step
+    assert gaps[2] < 1e-7 and gaps[2] < gaps[1] < gaps[0] < 1e-3, gaps
+
+
 # --- Levinson's theorem -----------------------------------------------------------------------
 def hulthen_levels(Z, delta):
     """s levels of the Hulthen well: bound while n^2 delta < 2 Z (Fluegge, Practical Quantum

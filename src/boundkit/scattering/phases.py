@@ -206,7 +206,9 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     eta = 0, theta = 0 for a short-range potential (then delta is the
     absolute phase shift) and eta, theta the Sommerfeld parameter and
     Coulomb phase of the tail V ~ -Z_t/r otherwise (then delta is relative
-    to the Coulomb phase). See :mod:`boundkit.scattering`.
+    to the Coulomb phase; theta in (-pi, pi], for Dirac on the branch that
+    tends to sigma_l = arg Gamma(l + 1 + i eta) as c -> infinity, see
+    ``PhaseShifts.coulomb_phase``). See :mod:`boundkit.scattering`.
 
     Examples
     --------
