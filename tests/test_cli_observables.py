@@ -114,6 +114,21 @@ def test_transitions_command_errors():
     assert "Traceback" not in r.output
 
 
+def test_transitions_max_n_limit_is_an_option_named_in_the_refusal():
+    """transitions(max_n_limit=) is --max-n-limit; the refusal names the option on the command line
+    (the API names the keyword: tests/test_transitions.py)."""
+    r = run("transitions", "--max-n", "3", "--max-n-limit", "2")
+    assert r.exit_code == 2 and "Traceback" not in r.output
+    assert r.output.strip() == ("boundkit: error: max_n: 3 is more than the limit of 2; use fewer, or raise the "
+                                "limit with --max-n-limit")
+    r = run("transitions", "--max-n", "21")            # the default limit, 20
+    assert r.exit_code == 2 and r.output.strip().endswith("more than the limit of 20; use fewer, or raise the "
+                                                          "limit with --max-n-limit")
+    r = run("transitions", "--max-n", "2", "--max-n-limit", "1")
+    assert r.exit_code == 2 and r.output.strip() == "boundkit: error: max_n_limit: must be >= 2, got 1"
+    assert run("transitions", "--max-n", "2", "--max-n-limit", "2").exit_code == 0
+
+
 def test_run_spec_solve_states_option_writes_csv(tmp_path):
     """[solve] states = true writes one CSV per model, equation and channel (length_unit of the spec)."""
     from boundkit.runspec import load_spec, run as run_spec

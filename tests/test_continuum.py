@@ -8,6 +8,7 @@ from __future__ import annotations
 import dataclasses
 import json
 import math
+import re
 
 import mpmath
 import numpy as np
@@ -17,6 +18,7 @@ from scipy.integrate import solve_ivp
 from scipy.special import loggamma, spherical_jn, spherical_yn
 
 import boundkit
+from boundkit._checks import LimitError
 from boundkit.cli import main
 from boundkit.potentials import Parameter, Term
 from boundkit.scattering import (LevinsonCheck, PhaseShifts, continuum_state, levinson, phase_shifts,
@@ -411,6 +413,29 @@ def test_dirac_coulomb_phase_tends_to_schrodinger_at_low_z():
     assert abs(mod_pi(res.coulomb_phase[0] - np.imag(loggamma(1 + 1j * eta)))) < 1e-6
 
 
+@pytest.mark.parametrize("kappa", [-1, 1, -2, 2])
+@pytest.mark.parametrize("sign", [1, -1])
+def test_dirac_coulomb_phase_tends_to_sigma_l_itself_not_mod_pi(kappa, sign):
+    """The Dirac Coulomb phase theta depends on Z and k only through y = Z alpha, p = k/(m c) and W,
+    so shrinking Z and k together at fixed eta = -Z m / k is the limit c -> infinity at fixed Z, k.
+    There theta tends to sigma_l = arg Gamma(l + 1 + i eta), l the orbital of the large component
+    (standard: Messiah, Quantum Mechanics, 1961, the Coulomb phase), modulo 2 pi, not pi: for
+    kappa > 0 and an attractive tail it came out sigma_l + pi."""
+    l = kappa if kappa > 0 else -kappa - 1
+    eta = -sign * 1.0                                 # sign +1 attractive (Z > 0), -1 repulsive
+    with mpmath.workdps(30):
+        sigma = float(mpmath.arg(mpmath.gamma(l + 1 + 1j * eta)))
+    gaps = []
+    for s in (1.0, 0.1, 0.01):
+        Z, k = sign * s, s
+        E = k * k / (1 + math.sqrt(1 + (k / C_AU) ** 2))       # k^2 c^2 = E (E + 2 c^2), m = 1
+        res = phase_shifts([E], "dirac", "coulomb", {"Z": Z}, kappa=kappa, estimate_error=False)
+        assert abs(res.delta[0]) < 1e-9                        # pure Coulomb: theta is the whole phase
+        gaps.append(abs(math.remainder(float(res.coulomb_phase[0]) - sigma, 2 * math.pi)))
+    # relativistic corrections of order (Z alpha)^2: 100 times smaller at each step
+    assert gaps[2] < 1e-7 and gaps[2] < gaps[1] < gaps[0] < 1e-3, gaps
+
+
 # --- Levinson's theorem -----------------------------------------------------------------------
 def hulthen_levels(Z, delta):
     """s levels of the Hulthen well: bound while n^2 delta < 2 Z (Fluegge, Practical Quantum
@@ -577,6 +602,73 @@ def test_cli_phases_errors(args, match):
     assert run.exit_code == 2
     assert run.output.startswith("boundkit: error: ") and match in run.output
     assert "Traceback" not in run.output and len(run.output.strip().splitlines()) == 1
+
+
+def one_line_error(run, pattern):
+    """Exit 2, one line ``boundkit: error: ...`` matching ``pattern``, no traceback."""
+    assert run.exit_code == 2, run.output
+    lines = run.output.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("boundkit: error: ") and "Traceback" not in run.output, run.output
+    assert re.search(pattern, lines[0]), lines[0]
+
+
+def test_phase_limits_are_options_named_in_the_refusals():
+    """max_nodes= and max_eta= of phase_shifts are --max-nodes and --max-eta of `boundkit phases`; a
+    refusal names the option on the command line and the keyword in the API."""
+    yukawa = ["phases", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2", "--energies", "1"]
+    # E = 1 hartree, k = sqrt(2): about k R / pi = 18 nodes up to the matching radius R = 40.6 bohr
+    one_line_error(CliRunner().invoke(main, yukawa + ["--max-nodes", "10"]),
+                   r"energies: at E = 1 hartree .* more than the limit of 10 the integration follows; use lower "
+                   r"energies, or raise the limit with --max-nodes$")
+    assert CliRunner().invoke(main, yukawa + ["--max-nodes", "20"]).exit_code == 0     # passed through
+    with pytest.raises(LimitError, match=r"more than the limit of 10 the integration follows; use lower energies, "
+                                         r"or raise the limit with max_nodes= \(API\)$") as info:
+        phase_shifts([1.0], "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, max_nodes=10)
+    assert info.value.keyword == "max_nodes"
+    # Z = -2, E = 8e-4 hartree: eta = 2 / sqrt(1.6e-3) = 50 (eta = -Z m / k, standard)
+    barrier = ["phases", "--param", "Z=-2", "--energies", "8e-4"]
+    one_line_error(CliRunner().invoke(main, barrier + ["--max-eta", "10"]),
+                   r"eta = 50, more than the limit of 10: .*use higher energies, or raise the limit with --max-eta$")
+    assert CliRunner().invoke(main, barrier + ["--max-eta", "60"]).exit_code == 0
+    with pytest.raises(LimitError, match=r"eta = 50, more than the limit of 10: .*raise the limit with "
+                                         r"max_eta= \(API\)$"):
+        phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=10)
+    # the limits themselves: a count of at least 1, a positive eta (-1 refused every repulsive tail
+    # with "more than the limit of -1")
+    one_line_error(CliRunner().invoke(main, yukawa + ["--max-nodes", "0"]), r"max_nodes: must be >= 1, got 0")
+    one_line_error(CliRunner().invoke(main, barrier + ["--max-eta", "-1"]), r"max_eta: must be positive, got -1")
+    with pytest.raises(ValueError, match=r"max_eta: must be positive, got -1"):
+        phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=-1)
+    with pytest.raises(ValueError, match=r"max_eta: must be positive, got 0"):
+        continuum_state(0.5, "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, max_eta=0)
+    # Levinson's grid is its own: the limits of the phase shifts do not apply there
+    one_line_error(CliRunner().invoke(main, ["phases", "-p", "hulthen", "--param", "Z=1", "--param", "delta=1",
+                                             "--levinson", "--max-eta", "10"]),
+                   r"--max-eta goes with --energies \(the phase shifts\); --levinson chooses its own energy grid")
+
+
+def test_node_limit_refusal_quotes_radii_in_the_units_of_the_call():
+    """With units='nuclear' (--units nuclear) lengths are fm, as the hard core is given: the refusal
+    quoted the radii in bohr (18.9 and 28.3 bohr for a hard core of 1e6 fm)."""
+    from scipy.constants import physical_constants as pc
+
+    # a neutron at E = 10 MeV outside a hard core a = 1e6 fm: k = sqrt(2 m c^2 E) / (hbar c) (standard,
+    # CODATA through scipy.constants); the integration runs from a to the matching radius 1.5 a
+    mc2 = pc["neutron mass energy equivalent in MeV"][0]
+    k = math.sqrt(2 * mc2 * 10.0) / pc["reduced Planck constant times c in MeV fm"][0]
+    nodes = f"{k * 0.5e6 / math.pi:.2g}".replace("+", r"\+")
+    expect = (rf"hard_core: at E = 10 MeV the solution has about {nodes} nodes between r = 1e\+06 and 1.5e\+06 fm, "
+              r"more than the limit of 10000 the integration follows; use a smaller hard core, or raise the limit "
+              r"with ")
+    with pytest.raises(LimitError, match=expect + r"max_nodes= \(API\)$"):
+        phase_shifts([10.0], "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, units="nuclear",
+                     particle="neutron", hard_core=1e6, energy_unit="MeV")
+    one_line_error(CliRunner().invoke(main, ["phases", "--units", "nuclear", "--particle", "neutron", "-p", "yukawa",
+                                             "--param", "Z=1", "--param", "screening_length=2", "--energies", "10",
+                                             "--hard-core", "1e6"]), expect + "--max-nodes$")
+    # atomic units: bohr, as before (1e6 bohr, 1.5e6 bohr)
+    with pytest.raises(LimitError, match=r"between r = 1e\+06 and 1.5e\+06 bohr, more than the limit"):
+        phase_shifts([10.0], "schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, hard_core=1e6)
 
 
 @pytest.mark.slow

@@ -399,6 +399,21 @@ def test_transitions_refuse_bad_input():
     assert tr.lines
 
 
+def test_max_n_limit_refusal_names_the_keyword():
+    """From the API the refusal names max_n_limit= (the command line names --max-n-limit:
+    tests/test_cli_observables.py); the error survives pickling (worker processes)."""
+    import pickle
+
+    from boundkit._checks import LimitError
+
+    with pytest.raises(LimitError, match=r"^max_n: 3 is more than the limit of 2; use fewer, or raise the limit "
+                                         r"with max_n_limit= \(API\)$") as info:
+        boundkit.transitions("schrodinger", max_n=3, max_n_limit=2)
+    assert info.value.keyword == "max_n_limit"
+    back = pickle.loads(pickle.dumps(info.value))
+    assert str(back) == str(info.value) and back.keyword == "max_n_limit"
+
+
 def test_line_strength_error_estimate_covers_the_exact_value():
     """Hydrogen Lyman-alpha S = |<1s|r|2p>|^2 = 2^15 / 3^9 (exact; Bethe and Salpeter 1957)."""
     ln = _tr("schrodinger").line("2p", "1s")

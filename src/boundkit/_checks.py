@@ -9,7 +9,7 @@ import math
 from typing import Iterable
 
 __all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "check_count",
-           "check_workers", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
+           "check_workers", "LimitError", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
            "MAX_TABLE_POINTS", "MAX_PHASE_NODES", "MAX_REPULSIVE_ETA"]
 
 MAX_GRID_POINTS = 10_000
@@ -23,19 +23,21 @@ MAX_L = 20
 MAX_N = 20
 """Largest max_n of :func:`boundkit.transitions.transitions`: every channel l < max_n is solved for
 its levels up to max_n, and the lines grow as max_n^4 (max_n = 20: 210 levels, about 40 s for
-hydrogen). Override: ``transitions(..., max_n_limit=...)``."""
+hydrogen). Override: ``transitions(..., max_n_limit=...)`` (API), ``--max-n-limit`` (CLI)."""
 
 MAX_PHASE_NODES = 10_000
 """Most nodes (half wavelengths) the outward integration of a phase shift or continuum state
 follows from its start to the matching radius, at about 100 per second. Override:
-``phase_shifts(..., max_nodes=...)``, ``continuum_state(..., max_nodes=...)``."""
+``phase_shifts(..., max_nodes=...)``, ``continuum_state(..., max_nodes=...)`` (API),
+``boundkit phases --max-nodes`` (CLI)."""
 
 MAX_REPULSIVE_ETA = 300.0
 """Largest Sommerfeld parameter of a repulsive Coulomb tail a Schrodinger or Klein-Gordon phase shift or
 continuum state is computed at: mpmath's irregular Coulomb function deep under the barrier costs about
 eta^2 (3.5 s for one energy at 300, 47 s at 800, measured), and the phase relative to the Coulomb waves
 is of order e^(-2 pi eta) there.
-Override: ``phase_shifts(..., max_eta=...)``, ``continuum_state(..., max_eta=...)``."""
+Override: ``phase_shifts(..., max_eta=...)``, ``continuum_state(..., max_eta=...)`` (API),
+``boundkit phases --max-eta`` (CLI)."""
 
 MAX_TABLE_POINTS = 200_000
 """Most points of a potential table. Override: ``read_table(..., max_points=...)``
@@ -127,11 +129,45 @@ def _short(value, limit: int = 60) -> str:
     return shorten(repr(value), limit)
 
 
-def check_count(name: str, count: int, limit: int, override: str, what: str = "points") -> int:
-    """Refuse ``count`` above ``limit``; the message names the override."""
+class LimitError(ValueError):
+    """Input beyond a limit that a keyword of the function raises.
+
+    The message ends with the fix, ``override`` (by default ``'<keyword>= (API)'``);
+    :meth:`naming` gives the same message ending with another name of the fix, so
+    that a caller that feeds ``keyword`` from an option of its own (the command line)
+    names that option instead.
+
+    Parameters
+    ----------
+    lead : str
+        The message up to the name of the fix, e.g. ``"max_n: 30 is more than the
+        limit of 20; use fewer, or raise the limit with "``.
+    keyword : str or None
+        The keyword that raises the limit (None: no keyword; ``override`` says what to do).
+    override : str, optional
+        The fix as the function's caller names it (default ``f"{keyword}= (API)"``).
+    """
+
+    def __init__(self, lead: str, keyword: str | None, override: str | None = None):
+        self.lead, self.keyword = lead, keyword
+        self.override = override if override is not None else f"{keyword}= (API)"
+        super().__init__(lead + self.override)
+
+    def naming(self, fix: str) -> str:
+        """The message with ``fix`` (e.g. ``"--max-nodes"``) as the name of the fix."""
+        return self.lead + fix
+
+    def __reduce__(self):      # picklable across worker processes, whatever the arguments
+        return type(self), (self.lead, self.keyword, self.override)
+
+
+def check_count(name: str, count: int, limit: int, override: str, what: str = "points", *,
+                keyword: str | None = None) -> int:
+    """Refuse ``count`` above ``limit`` with a :class:`LimitError`; the message names the override
+    (``keyword``: the keyword that raises ``limit``, for callers that name it otherwise)."""
     if count > limit:
-        raise ValueError(f"{name}: {count}{' ' + what if what else ''} is more than the limit of {limit}; use fewer, or raise the "
-                         f"limit with {override}")
+        raise LimitError(f"{name}: {count}{' ' + what if what else ''} is more than the limit of {limit}; use "
+                         "fewer, or raise the limit with ", keyword, override)
     return count
 
 

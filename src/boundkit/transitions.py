@@ -420,7 +420,8 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
     max_n = check_int("max_n", max_n, minimum=1)
     if max_n < 2:
         raise ValueError("max_n: needs at least 2 (no lines among n = 1 levels alone)")
-    check_count("max_n", max_n, check_int("max_n_limit", max_n_limit, minimum=2), "max_n_limit= (API)", "")
+    check_count("max_n", max_n, check_int("max_n_limit", max_n_limit, minimum=2), "max_n_limit= (API)", "",
+                keyword="max_n_limit")
     unit = canonical_energy_unit(energy_unit)
     key = str(equation).lower().replace("_", "-")
     key = {"kg": "klein-gordon"}.get(key, key)

@@ -17,7 +17,7 @@ import click
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
            "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
-           "parse_params", "report_unit", "report_length"]
+           "parse_params", "report_unit", "report_length", "api_message"]
 
 EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
@@ -30,6 +30,21 @@ def fail(message: str) -> None:
     """One line ``boundkit: error: ...`` on stderr, exit 2."""
     click.echo(f"boundkit: error: {clip_message(message)}", err=True)
     sys.exit(EXIT_BAD_INPUT)
+
+
+def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
+    """The message of an error from the public API, with its fix named the way the command names it.
+
+    A :class:`boundkit._checks.LimitError` names the keyword that raises its limit
+    (``max_nodes= (API)``); when the command feeds that keyword from an option of
+    its own (``options``: keyword -> option, e.g. ``{"max_nodes": "--max-nodes"}``)
+    the message names the option instead. Any other error is its own message.
+    """
+    from .._checks import LimitError
+
+    if isinstance(exc, LimitError) and options and exc.keyword in options:
+        return exc.naming(options[exc.keyword])
+    return str(exc)
 
 
 def clip_message(message: str) -> str:

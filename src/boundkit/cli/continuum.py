@@ -10,11 +10,16 @@ import sys
 
 import click
 
-from .common import EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_plot_path, fail, json_default, report_unit, write_figure
+from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_plot_path, fail, json_default, report_unit,
+                     write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       particle_options, plot_option, potential_options, tol_option)
 
 __all__ = ["phases_cmd"]
+
+_LIMITS = {"max_nodes": "--max-nodes", "max_eta": "--max-eta"}
+"""The API keywords of the limits of :func:`boundkit.scattering.phase_shifts` -> the options that feed them."""
 
 
 def _energy_grid(text: str | None) -> list[float] | None:
@@ -43,12 +48,19 @@ def _energy_grid(text: str | None) -> list[float] | None:
 @click.option("--levinson", "want_levinson", is_flag=True,
               help="Check Levinson's theorem on its own energy grid (Schrodinger, short-range; no --energies).")
 @click.option("--bound-levels", type=int, default=None, help="With --levinson: number of bound levels to compare with.")
+@click.option("--max-nodes", type=int, default=None,
+              help=f"Most nodes of the solution the integration follows up to the matching radius (default "
+                   f"{MAX_PHASE_NODES}; about 100 a second); higher energies or a larger --hard-core need more.")
+@click.option("--max-eta", type=float, default=None,
+              help=f"Largest Sommerfeld parameter eta of a repulsive Coulomb tail (default {MAX_REPULSIVE_ETA:g}; "
+                   "Schrodinger, Klein-Gordon): deeper under the barrier the Coulomb functions take minutes.")
 @particle_options()
 @plot_option("the phase shift delta against E")
 @json_option()
 def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
                table_r_unit, table_v_unit, params, unit_system, l, kappa, j, energies, energy_unit, hard_core, tol,
-               want_a, want_levinson, bound_levels, particle, mass_mev, nucleus_mass_mev, plot_path, as_json):
+               want_a, want_levinson, bound_levels, max_nodes, max_eta, particle, mass_mev, nucleus_mass_mev, plot_path,
+               as_json):
     """Phase shifts delta(E) of one channel above threshold (absolute branch; relative to
     the Coulomb phase when the potential has a Coulomb tail)."""
     from ..scattering import levinson, phase_shifts, scattering_length
@@ -64,6 +76,10 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             raise ValueError("--energies is required (e.g. --energies 0.01:2:40:log), or give --levinson")
         if bound_levels is not None and not want_levinson:
             raise ValueError("--bound-levels goes with --levinson")
+        limits = {k: v for k, v in (("max_nodes", max_nodes), ("max_eta", max_eta)) if v is not None}
+        if want_levinson and limits:
+            raise ValueError(f"{_LIMITS[next(iter(limits))]} goes with --energies (the phase shifts); --levinson "
+                             "chooses its own energy grid: leave it out")
         if want_a and l not in (None, 0):     # the API's scattering length takes no l: it is the s-wave one
             raise ValueError(f"--scattering-length is the s-wave (l = 0) scattering length; leave it out with "
                              f"--l {l} (no scattering volume for l > 0 is computed), or give --l 0")
@@ -78,12 +94,12 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             out["levinson"] = check
         else:
             res = phase_shifts(grid, equation, vector, values, l=l, kappa=kappa, j=j, scalar=scalar or None,
-                               hard_core=hard_core, energy_unit=unit, tol=tol, **common)
+                               hard_core=hard_core, energy_unit=unit, tol=tol, **limits, **common)
         if want_a:
             out["scattering_length"] = scattering_length(equation, vector, values, kappa=kappa,
                                                          scalar=scalar or None, hard_core=hard_core, **common)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc, _LIMITS))
     if as_json:
         record = {"phases": res.to_dict(unit)}
         if "levinson" in out:

@@ -8,7 +8,8 @@ import sys
 
 import click
 
-from .common import EXIT_NOT_CONVERGED, check_particle, fail, json_default
+from .._checks import MAX_N
+from .common import EXIT_NOT_CONVERGED, api_message, check_particle, fail, json_default
 from .options import (build_potential, energy_unit_option, equation_option, json_option, labels_option,
                       levels_option, method_option, particle_options, potential_options, tol_option)
 
@@ -81,6 +82,9 @@ def _format_lines(tr) -> str:
 @equation_option()
 @potential_options
 @click.option("--max-n", type=int, default=2, show_default=True, help="Highest principal quantum number.")
+@click.option("--max-n-limit", type=int, default=None,
+              help=f"Largest --max-n accepted (default {MAX_N}; every channel l < max_n is solved and the lines "
+                   "grow as max_n^4).")
 @click.option("--level", "levels", multiple=True, metavar="LABEL",
               help="Keep only these levels (repeatable), e.g. --level 1s --level 2p.")
 @click.option("--multipole", "multipoles", multiple=True, metavar="E1|M1|E2|M2",
@@ -92,8 +96,8 @@ def _format_lines(tr) -> str:
 @labels_option
 @json_option()
 def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
-                    table_origin, table_r_unit, table_v_unit, params, unit_system, max_n, levels, multipoles,
-                    energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, labels, as_json):
+                    table_origin, table_r_unit, table_v_unit, params, unit_system, max_n, max_n_limit, levels,
+                    multipoles, energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, labels, as_json):
     """Radiative lines among the levels up to --max-n: energies, line strengths, oscillator
     strengths, Einstein A, lifetimes and branching ratios."""
     from ..transitions import transitions
@@ -102,12 +106,13 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
+        limit = {} if max_n_limit is None else {"max_n_limit": max_n_limit}
         tr = transitions(equation, vector, values, max_n=max_n, levels=list(levels) or None,
                          multipoles=list(multipoles) or ["E1"], energy_unit=energy_unit, tol=tol, method=method,
                          particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
-                         scalar=scalar or None, units=unit_system, labels=labels)
+                         scalar=scalar or None, units=unit_system, labels=labels, **limit)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc, {"max_n_limit": "--max-n-limit"}))
     if as_json:
         click.echo(json.dumps(tr.to_dict(), default=json_default, indent=2))
     else:

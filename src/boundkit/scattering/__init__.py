@@ -18,8 +18,9 @@ Far out, V -> 0 or V -> -Z_t/r, and
 
 with eta the Sommerfeld parameter and theta the Coulomb phase of the tail
 (eta = theta = 0 for a short-range potential; for Schrodinger
-theta = sigma_l = arg Gamma(l + 1 + i eta)); delta is the phase shift,
-relative to the Coulomb one when there is a Coulomb tail.
+theta = sigma_l = arg Gamma(l + 1 + i eta), for Klein-Gordon and Dirac the
+relativistic phase that tends to it as c -> infinity); delta is the phase
+shift, relative to the Coulomb one when there is a Coulomb tail.
 
 Method.
 

@@ -11,9 +11,9 @@ from typing import Sequence
 
 import numpy as np
 
-from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, check_finite, check_int, check_positive
+from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int, check_positive
 from .._rounding import rounding_floor
-from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, constants_record
+from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, bohr_to, constants_record
 from ..units import energy_unit as canonical_unit
 from .radial import Channel, _start, integrate, loosened, match, matching_radius, prepare
 from .reference import sommerfeld, wave_number
@@ -43,6 +43,11 @@ def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_
     return prepare(eq, pot, hard_core), settings
 
 
+def _length_unit(units: str) -> str:
+    """The unit of lengths in a call with ``units`` (the unit system): fm in the nuclear one, as ``hard_core``."""
+    return "fm" if units == "nuclear" else "bohr"
+
+
 def _rtol(tol: float) -> float:
     return min(1e-6, tol * 1e-3)
 
@@ -61,11 +66,13 @@ def _energies(energies, unit: str) -> np.ndarray:
     return np.sort(E / ENERGY_UNITS[unit])
 
 
-def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, reach: float = 0.0) -> None:
+def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, length: str,
+                 reach: float = 0.0) -> None:
     """Refuse energies (or a hard core) for which the outward integration would follow more than
     ``max_nodes`` nodes of the solution, about k (R - r_start) / pi up to the matching radius R (or
-    ``reach``, the largest radius asked for): DOP853 follows about 100 a second, and 1e150 of them
-    (E = 1e300 hartree) or 1e9 (a hard core at 1e10 bohr) never finish."""
+    ``reach``, the largest radius asked for, bohr): DOP853 follows about 100 a second, and 1e150 of them
+    (E = 1e300 hartree) or 1e9 (a hard core at 1e10 bohr) never finish. The message quotes energies
+    in ``unit`` and radii in ``length``, the units of the call."""
     max_nodes = check_int("max_nodes", max_nodes, minimum=1)
     for e in E[::-1]:
         with np.errstate(over="ignore", invalid="ignore"):     # k of 1e300 hartree (Dirac) is inf
@@ -79,9 +86,9 @@ def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, r
         count = f"about {nodes:.2g}" if math.isfinite(nodes) else "more than 1e308"
         core = bool(ch.hard_core) and R <= 1.5 * ch.hard_core * (1 + 1e-12)   # the core set the radius
         name, fix = ("hard_core", "use a smaller hard core") if core else ("energies", "use lower energies")
-        raise ValueError(f"{name}: at E = {shown} the solution has {count} nodes between r = {r0:.3g} and "
-                         f"{R:.3g} bohr, more than the limit of {max_nodes} the integration follows; {fix}, "
-                         "or raise the limit with max_nodes= (API)")
+        raise LimitError(f"{name}: at E = {shown} the solution has {count} nodes between r = "
+                         f"{bohr_to(r0, length):.3g} and {bohr_to(R, length):.3g} {length}, more than the limit of "
+                         f"{max_nodes} the integration follows; {fix}, or raise the limit with ", "max_nodes")
 
 
 def _check_barrier(ch: Channel, E: np.ndarray, max_eta, unit: str) -> None:
@@ -90,17 +97,17 @@ def _check_barrier(ch: Channel, E: np.ndarray, max_eta, unit: str) -> None:
     takes minutes (eta = 2033: more than 150 s for one energy), for a phase of order e^(-2 pi eta).
     Schrodinger and Klein-Gordon only: the Dirac reference is built from 1F1 directly (0.6 s at eta =
     1100, measured)."""
-    max_eta = check_finite("max_eta", max_eta)
+    max_eta = check_positive("max_eta", max_eta)
     if ch.tail_charge >= 0 or ch.eq.name == "dirac":
         return                                   # no tail, an attractive one, or the fast Dirac functions
     e = float(E[0])                              # the lowest energy has the largest eta
     with np.errstate(over="ignore", divide="ignore"):
         eta = float(sommerfeld(ch.eq.name, e, ch.eq.mass, ch.tail_charge))
     if eta > max_eta:
-        raise ValueError(f"energies: at E = {e * ENERGY_UNITS[unit]:.4g} {unit} the repulsive Coulomb tail gives "
-                         f"eta = {eta:.3g}, more than the limit of {max_eta:g}: so deep under the barrier the phase "
-                         "relative to the Coulomb waves is of order e^(-2 pi eta) and the Coulomb functions take "
-                         "minutes; use higher energies, or raise the limit with max_eta= (API)")
+        raise LimitError(f"energies: at E = {e * ENERGY_UNITS[unit]:.4g} {unit} the repulsive Coulomb tail gives "
+                         f"eta = {eta:.3g}, more than the limit of {max_eta:g}: the phase shift is of order "
+                         "e^(-2 pi eta) and the Coulomb functions take minutes; use higher energies, or raise the "
+                         "limit with ", "max_eta")
 
 
 def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
@@ -173,10 +180,11 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
         matching radius, about k (R - r_start) / pi (default 10000,
         :data:`boundkit._checks.MAX_PHASE_NODES`; about 100 a second).
     max_eta : float
-        Limit on the Sommerfeld parameter of a repulsive Coulomb tail (default
-        300, :data:`boundkit._checks.MAX_REPULSIVE_ETA`): deeper under the
-        barrier the Coulomb functions cost minutes, for a phase of order
-        e^(-2 pi eta).
+        Limit on the Sommerfeld parameter of a repulsive Coulomb tail, > 0
+        (default 300, :data:`boundkit._checks.MAX_REPULSIVE_ETA`): deeper under
+        the barrier the Coulomb functions cost minutes, for a phase of order
+        e^(-2 pi eta). Schrodinger and Klein-Gordon only (the Dirac functions
+        are fast there).
 
     Returns
     -------
@@ -188,6 +196,9 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     ValueError
         Bad energies, channel or potential (confining, scalar Coulomb tail,
         point charge too strong for the equation).
+    boundkit._checks.LimitError
+        A ValueError: energies (or a hard core) beyond ``max_nodes`` or
+        ``max_eta``; its message names the keyword that raises the limit.
 
     Notes
     -----
@@ -195,7 +206,9 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     eta = 0, theta = 0 for a short-range potential (then delta is the
     absolute phase shift) and eta, theta the Sommerfeld parameter and
     Coulomb phase of the tail V ~ -Z_t/r otherwise (then delta is relative
-    to the Coulomb phase). See :mod:`boundkit.scattering`.
+    to the Coulomb phase; theta in (-pi, pi], for Dirac on the branch that
+    tends to sigma_l = arg Gamma(l + 1 + i eta) as c -> infinity, see
+    ``PhaseShifts.coulomb_phase``). See :mod:`boundkit.scattering`.
 
     Examples
     --------
@@ -209,7 +222,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, j, hard_core)
-    _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit))
+    _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit), _length_unit(units))
     _check_barrier(ch, E, max_eta, canonical_unit(energy_unit))
     return _tabulate(ch, E, tol, estimate_error, settings, t0)
 
@@ -543,7 +556,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
                      hard_core)
     eq = ch.eq
-    _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit),
+    _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit), _length_unit(units),
                  0.0 if r is None else float(r.max()))
     _check_barrier(ch, np.array([E]), max_eta, canonical_unit(energy_unit))
     R1, _ = matching_radius(ch, E, tol)

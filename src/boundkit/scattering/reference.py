@@ -43,7 +43,14 @@ Tails:
   c_g = sqrt(W + 1) Gamma(2 g + 1) e^(-pi eta_D / 2) / |Gamma(g + i eta_D)|
   e^(i [(l + 1) pi/2 + xi_g - pi g/2 - arg Gamma(g + i eta_D)]).
   (Derived here from the standard 1F1 asymptotics; the ODE and the
-  asymptotic phase are checked with mpmath in the tests.)
+  asymptotic phase are checked with mpmath in the tests.) e^(2 i xi_g)
+  fixes xi_g only modulo pi, and the other branch flips the sign of the
+  solution and moves its phase by pi; the branch taken is the one
+  continuous with the Schrodinger phase: theta -> sigma_l =
+  arg Gamma(l + 1 + i eta) as c -> infinity, for either sign of kappa and
+  of the charge (:func:`_xi`).
+
+The reference phase returned, theta = arg c_F, is reduced to (-pi, pi].
 
 From F and G the module forms F^ ~ sin(Theta + theta_F) and
 G^ ~ cos(Theta + theta_F), theta_F = arg c_F the reference (Coulomb) phase.
@@ -178,7 +185,7 @@ def _dirac_coulomb(kappa: int, l: int, E: float, m: float, Z: float, R: float, p
     x = mpmath.mpf(m * c) * R
     out, coef = [], []
     for g in (gamma, -gamma):
-        xi = mpmath.arg(-(kappa - 1j * y / p) / (g + 1j * etaD)) / 2
+        xi = _xi(kappa, y, p, g, etaD)
         Phi = ((2 * p * x) ** g * mpmath.exp(-1j * p * x + 1j * xi) * (g + 1j * etaD)
                * mpmath.hyp1f1(g + 1 + 1j * etaD, 2 * g + 1, 2j * p * x))
         P = mpmath.sqrt(W + 1) * mpmath.re(Phi)
@@ -190,6 +197,23 @@ def _dirac_coulomb(kappa: int, l: int, E: float, m: float, Z: float, R: float, p
         phase = (l + 1) * mpmath.pi / 2 + xi - mpmath.pi * g / 2 - mpmath.im(lg)
         coef.append(amp * mpmath.expj(phase))
     return out[0], out[1], coef[0], coef[1]
+
+
+def _xi(kappa: int, y, p, g, etaD):
+    """xi with e^(2 i xi) = -(kappa - i y/p) / (g + i etaD), on the branch that makes the Coulomb phase
+    tend to sigma_l as c -> infinity.
+
+    e^(2 i xi) fixes xi only modulo pi, and xi + pi flips the sign of the solution and moves its phase
+    by pi (delta and e^(2 i theta) do not change). Half the principal argument gave theta = sigma_l + pi
+    for kappa > 0 and an attractive tail (and sigma_l for a repulsive one). Here
+    2 xi = arg(-kappa + i y/p) - arg(g + i etaD), the second argument principal and the first taken in
+    (-pi/2, pi/2) for kappa < 0 and as -pi - atan(y / (p kappa)) for kappa > 0: as c -> infinity
+    (y/p -> etaD, g -> |kappa|) xi -> 0 for kappa < 0 and -pi/2 - atan(etaD / kappa) for kappa > 0,
+    which make theta = sigma_l (and theta -> 0 as Z -> 0 from either side).
+    """
+    import mpmath  # lazy: only Coulomb-tail references need it
+    first = mpmath.atan(y / (p * -kappa)) - (mpmath.pi if kappa > 0 else 0)
+    return (first - mpmath.arg(g + 1j * etaD)) / 2
 
 
 def free_zero_count(l: int, x: float) -> int:

@@ -36,8 +36,12 @@ class PhaseShifts:
         second matching radius and a looser integration tolerance; at least
         4 ulp of delta).
     coulomb_phase : ndarray
-        Reference phase theta (radians; 0 for a free tail): the wave goes like
-        sin(k r - eta ln 2kr - l pi/2 + theta + delta).
+        Reference phase theta (radians, in (-pi, pi]; 0 for a free tail): the
+        wave goes like sin(k r - eta ln 2kr - l pi/2 + theta + delta), l the
+        orbital of the (large) component. Schrodinger: sigma_l = arg Gamma(l +
+        1 + i eta); Klein-Gordon: sigma_L + (l - L) pi/2; Dirac: the phase of
+        the Mott-problem solution on the branch that tends to sigma_l as
+        c -> infinity, for every kappa (see :mod:`boundkit.scattering.reference`).
     eta : ndarray
         Sommerfeld parameter (0 for a free tail; < 0 for attraction).
     matching_radius : ndarray
