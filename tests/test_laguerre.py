@@ -492,3 +492,35 @@ def test_study_rejects_sizes_too_small_for_the_levels():
     pot = make_potential("coulomb", {"Z": 1})
     with pytest.raises(ValueError, match=r"sizes: a Laguerre mesh for 5 level\(s\) needs at least 7 nodes"):
         lag.study(Schrodinger(l=0), sampler(pot), 5, 1.0, 1e-9, [4, 6])
+
+
+# Yukawa V = -exp(-r/10)/r (Z = 1, screening length 10 bohr), l = 0: the two lowest levels from a
+# shooting written for this check (scipy solve_ivp DOP853, rtol 1e-13, from u = r - r^2 at 1e-6 bohr to
+# u(80 bohr) = 0, brentq in E; 2026-12-04); boundkit's finite-difference family agrees to 1e-13. A tail
+# of charge q shifts them by about q <1/r>, 1e-12 here at most.
+_YUKAWA_10 = (-0.4070580306134, -0.0499282713319)
+
+
+@pytest.mark.parametrize("q", [1e-16, 1e-12])
+def test_a_faint_coulomb_tail_does_not_hide_the_core_levels(q):
+    """A short-range well plus a Coulomb tail of tiny charge q (a table's default tail read off its last
+    point gives 1e-16 .. 1e-18): the tail's Bohr radius 1/q set the mesh scale and the inner end of the
+    checks, 1e-9 of it, lay beyond the well; the Laguerre path returned the tail's hydrogen levels
+    -q^2 / (2 n^2) (-5e-33 hartree) with status ok. Found by a tester."""
+    from boundkit.potentials import TERMS
+
+    pot = [TERMS["yukawa"]("atomic", Z=1.0, screening_length=10.0), TERMS["coulomb"]("atomic", Z=q)]
+    res = boundkit.solve("schrodinger", pot, l=0, levels=2, tol=1e-10)
+    assert res.success
+    assert [lv.energy for lv in res.levels] == pytest.approx(_YUKAWA_10, rel=1e-9)
+
+
+def test_a_table_with_its_default_coulomb_tail_keeps_the_well_levels():
+    """The same through a table: Yukawa tabulated on 400 points from 1e-4 to 400 bohr, tail 'coulomb'
+    (the default) read off the last point: charge e^-40 = 4e-18."""
+    from boundkit.potentials.tabulated import TabulatedTerm
+
+    r = np.geomspace(1e-4, 400, 400)
+    res = boundkit.solve("schrodinger", TabulatedTerm(r, -np.exp(-r / 10) / r), None, l=0, levels=2, tol=1e-8)
+    assert res.success
+    assert [lv.energy for lv in res.levels] == pytest.approx(_YUKAWA_10, rel=1e-6)   # a 400-point table

@@ -1209,10 +1209,18 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
 
 def laguerre_scale(eq, pot, gamma: float) -> tuple[float, float, float]:
     """(natural length L, scale length a, inner end r_lo) of the Lagrange-Laguerre path: a is the
-    Bohr radius 1/(mu Z_inf) of a Coulomb tail, else 2 L (the Bohr radius for a Coulomb-like core)."""
+    Bohr radius 1/(mu Z_inf) of a Coulomb tail, else 2 L (the Bohr radius for a Coulomb-like core).
+
+    The inner end, where the states and the checks on the potential start, is the inner cut times the
+    smaller of a and 2 L: a faint tail (a table's tail charge read off its last point, 1e-16) has a
+    Bohr radius of 1e16 bohr, and 1e-9 of it lay beyond a well of a few bohr, which the checks then
+    never saw: the mesh returned the tail's hydrogen levels instead of the well's (found by a tester).
+    From below the well, the shape check sees it narrower than the node spacing and hands the channel
+    to the elements. A Coulomb potential has 2 L >= a (L is the first sampled radius past 1/(2 mu Z)).
+    """
     L = _natural_length(eq, pot)
     a = 1.0 / (eq.mass * pot.tail_charge) if pot.tail_charge > 0 else 2 * L
-    return L, a, _inner_cut(gamma, False) * a
+    return L, a, _inner_cut(gamma, False) * min(a, 2 * L)
 
 
 def _solve_laguerre(eq, pot, levels, tol):
