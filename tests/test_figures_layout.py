@@ -189,3 +189,20 @@ def test_shift_figure_uses_a_log_axis_for_shifts_over_many_decades(monkeypatch):
     assert kept["xscale"] == "log" and kept["xlabel"] == "E(model) - E(point) (keV)"
     lo, hi = kept["ylim"]
     assert hi - lo > 2          # three bars
+
+
+def test_a_scan_where_every_point_failed_draws_no_empty_legend(tmp_path):
+    """Every point of the scan failed (a point Dirac charge beyond Z alpha = 1): the figure says so, and
+    matplotlib's 'no artists with labels' warning does not reach the user (found by a tester)."""
+    import warnings
+
+    from boundkit.studies import figures
+    from boundkit.studies.scan import ScanResult
+    rows = tuple({"Z": z, "equation": "dirac", "channel": "kappa=-1", "label": "1s1/2", "energy": float("nan"),
+                  "error_estimate": float("nan"), "status": "error", "message": "Z: ..."} for z in (140.0, 150.0))
+    res = ScanResult(parameters=("Z",), values={"Z": (140.0, 150.0)}, rows=rows,
+                     settings={"equations": ["dirac"], "potential": "coulomb"}, parameter_units={"Z": ""})
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        path = figures.scan_figure(res, tmp_path / "all_failed.png", unit="hartree")
+    assert path.exists()

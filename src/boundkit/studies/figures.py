@@ -147,8 +147,11 @@ def scan_figure(result, path, unit: str = "hartree", title: str | None = None, l
     what = "change of the bound levels" if relative else "bound levels"
     ax.set_title(title or f"{what} against {p0}: {subject or potential_title(result.settings)}", fontsize=10)
     ax.grid(True, alpha=0.3)
-    if ax.lines:
-        ax.legend(fontsize=8, ncol=2 if len(ax.lines) > 8 else 1)
+    if curves:
+        ax.legend(fontsize=8, ncol=2 if len(curves) > 8 else 1)
+    else:       # the zero line alone: matplotlib would warn of a legend without labels
+        ax.text(0.5, 0.5, "no bound level at any point (see the table's status column)", transform=ax.transAxes,
+                ha="center", va="center", fontsize=9, color="0.4")
     return save_figure(fig, path)
 
 
