@@ -47,7 +47,7 @@ from .mesh import LogMap
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
 from .states import count_nodes, normalise, principal_n
-from .units import C_AU, ELECTRON_MASS_MEV, check_mass, constants_record, get_particle
+from .units import C_AU, ELECTRON_MASS_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to
 from ._checks import check_choice, check_int, check_positive
 
 __all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation", "check_levels"]
@@ -648,7 +648,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`).
 
     ``degrees``: run exactly these rungs (a convergence study), with no early stop.
-    ``known_bound``: the far-box count of a short-range potential, when the caller has it.
+    ``known_bound``: the far-box count of a short-range potential and the box radius
+    (:func:`_far_bound`), when the caller has them.
     """
     study = degrees is not None
     from .ladder import FLOOR, ladder_for, layout, potential_floor, solve_rung, spectral_done, with_potential_floor
@@ -674,10 +675,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0, "mesh": "spectral-elements"}
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
-    bound = known_bound if short_range else None
+    bound = None
     if short_range:
-        if bound is None:
-            bound = _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi)
+        bound, extra["count_box"] = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi)
     elif levels is None:
         raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
                          + ("is confining" if pot.confining else "has a Coulomb tail")
@@ -1193,8 +1193,11 @@ def _potential_range(eq, pot) -> float:
     return float(r[strong[-1]]) if strong.size else 0.0
 
 
-def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float) -> int:
-    """Bound levels of a short-range potential below the threshold ``hi``, counted on a far box.
+def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float
+               ) -> tuple[int, float]:
+    """(bound levels of a short-range potential below the threshold ``hi``, counted on a far box; the
+    box's radius in bohr). A level bound by less than about 1/(2 m R^2) on a box of radius R is not
+    counted: its zero-energy solution has no node inside the box yet.
 
     The box reaches 1e4 natural lengths, and ten times the potential's range (:func:`_potential_range`):
     a long-ranged well (a Yukawa potential screened at 3700 natural lengths) has levels that turn
@@ -1204,7 +1207,7 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
 
     reach = _potential_range(eq, pot)
     r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L), 10 * reach)
-    return far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
+    return far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi), float(r_far)
 
 
 def laguerre_scale(eq, pot, gamma: float) -> tuple[float, float, float]:
@@ -1236,19 +1239,22 @@ def _solve_laguerre(eq, pot, levels, tol):
     if not applies(eq, pot, levels, gamma, tol):
         return _solve_elements(eq, pot, levels, tol)
     sample = sampler(pot)
-    bound = None
+    bound = counted = None
     want = levels
     L, a, r_lo = laguerre_scale(eq, pot, gamma)
     if pot.tail_charge == 0:
         hi = eq.energy_window(pot)[1]
         n_req = 1 if levels is None else levels          # as the elements size their box
-        bound = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, n_req, hi), n_req, hi)
+        counted = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, n_req, hi), n_req, hi)
+        bound = counted[0]
         want = bound if levels is None else min(levels, bound)
     out = solve_laguerre(eq, pot, want, tol, sample, gamma, r_lo, a) if want else None
     if out is None:
-        return _solve_elements(eq, pot, levels, tol, known_bound=bound)
+        return _solve_elements(eq, pot, levels, tol, known_bound=counted)
     found, notes, per_level, worst, extra = out
     extra["bound_count"] = bound
+    if counted is not None:
+        extra["count_box"] = counted[1]
     extra["L"] = L
     tally = _Tally(notes=notes, potential_floor_hit=extra.pop("potential_floor_hit", False))
     return found, tally, per_level, worst, extra
@@ -1270,6 +1276,11 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
                 if bound == 0 else f"all {bound} bound level(s) of this channel")
         if levels is not None and levels > bound:
             what += f" ({levels} requested)"
+        if "count_box" in extra:
+            R = extra["count_box"]
+            eu, lu = ("MeV", "fm") if (settings or {}).get("units") == "nuclear" else ("hartree", "bohr")
+            what += (f"; a level bound by less than about {hartree_to(1 / (2 * eq.mass * R * R), eu):.1g} {eu} "
+                     f"(1/(2 m R^2) on the counting box, R = {bohr_to(R, lu):.3g} {lu}) is not counted")
         message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
         if status != "ok":
             message = f"{what}; worst estimated relative error {worst:.2g} exceeds tol = {tol:g}"
@@ -1292,7 +1303,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
     diagnostics = {
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
         "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound,
-        "threshold_hartree": extra.get("threshold", 0.0),
+        "threshold_hartree": extra.get("threshold", 0.0), "count_box_bohr": extra.get("count_box"),
         "certified_by_count": extra.get("certified"),
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "reseeded_guesses": tally.reseeded, "bisected_levels": tally.bisected,
