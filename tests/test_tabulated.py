@@ -280,6 +280,30 @@ def test_a_coarse_table_says_its_interpolation_spread_and_the_levels_stay_within
         exact = -(1 / k - k * 0.2 / 2) ** 2 / 2
         inverse_r = observables.expectation_value(lv, lambda x: 1.0 / x).value
         assert abs(lv.energy - exact) <= term.interpolation_spread * 1.0 * inverse_r
+        if n == 30:     # the estimate takes the interpolation error in (12 points: beyond first order)
+            assert abs(lv.energy - exact) <= lv.error_estimate
+    assert res.status == "tolerance-not-met"
+    assert re.search(r"the table's interpolation error lies above it .* give the table more points", res.message)
+
+
+@pytest.mark.parametrize("n, tol, status", [(400, 1e-12, "tolerance-not-met"), (1600, 1e-12, "ok")])
+def test_a_resolved_table_s_estimate_covers_its_interpolation_error(n, tol, status):
+    """A neutron in a Woods-Saxon well (50 MeV, 5 fm, 0.6 fm) tabulated on n log-spaced points from 1e-3
+    to 30 fm: 400 points put the 1s 1.4e-11 (relative) off the built-in term's (solved at tol 1e-13; a
+    tester's DOP853 shooting agreed with the built-in term to 1e-12 on this well), above tol 1e-12, and
+    the old estimate said ok; the estimate now holds the interpolation error (twice the signed first-order
+    shift between splines of degree 5 and 7, the table being within the spread limit) and says so."""
+    r = np.geomspace(1e-3, 30.0, n)
+    term = TabulatedTerm(r, -50.0 / (1 + np.exp((r - 5.0) / 0.6)), tail="zero", origin="finite", r_unit="fm",
+                         v_unit="MeV")
+    assert term.interpolation_spread <= 1e-8
+    res = boundkit.solve("schrodinger", term, None, l=0, levels=1, tol=tol, particle="neutron")
+    ref = boundkit.solve("schrodinger", "woods-saxon", {"depth": 50, "radius": 5, "diffuseness": 0.6},
+                         units="nuclear", l=0, levels=1, tol=1e-13, particle="neutron")
+    (lv,), (exact,) = res.levels, ref.levels
+    assert abs(lv.energy - exact.energy) <= lv.error_estimate
+    assert res.status == status
+    assert "interpolation error" in res.diagnostics["notes"][-1]
 
 
 def test_a_fine_table_is_not_called_coarse(caplog):

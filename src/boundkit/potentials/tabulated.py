@@ -44,12 +44,15 @@ Data that are not smooth (steps, kinks) ring more with a higher degree; use
 The interpolant is itself uncertain between the points: a spline of degree + 2
 is built on the same points and the largest difference of the two at the
 midpoints, over max |r V|, is kept as ``interpolation_spread``; above
-SPREAD_WARN (1e-8) a warning names it and the radius. The levels' error
-estimates are those of solving the interpolated potential: they do not
-include the table's own interpolation error, which is up to about that
-spread times max |r V| <1/r> for a level (the potential error bounded by
-spread max |r V| / r, to first order), so far more than the spread relative
-to the energy of a level much shallower than its well.
+SPREAD_WARN (1e-8) a warning names it and the radius. A level's error
+estimate takes the interpolant's error in to first order, from the
+difference of the two splines over r
+(:meth:`TabulatedTerm.interpolation_difference`) weighted by the level's
+density (twice its signed integral for a table within SPREAD_WARN, the
+integral of its absolute value for a coarser one; see
+``boundkit.solver._table_error``), added to the solver's own estimate; a note
+says so. For a level much shallower than its well that is far more,
+relative to its energy, than the spread.
 
 Below the first point r_0 (``origin``):
 
@@ -398,8 +401,8 @@ class TabulatedTerm(Term):
         if self.interpolation_spread > SPREAD_WARN:
             log.warning("%s: the interpolant of r V is uncertain by %.2g of max |r V| (splines of degree %d and %d "
                         "differ by that at r = %.4g bohr); a level can be off by up to about that fraction of max |r V| <1/r>, "
-                        "far more than that fraction of a shallow level's energy, and its error estimate does not "
-                        "include it: give the table more points there",
+                        "far more than that fraction of a shallow level's energy (its error estimate includes it, "
+                        "to first order): give the table more points there",
                         self.label, self.interpolation_spread, self.degree, self._other_degree(len(r)), where)
         self._y0 = float(r[0] * v[0])
         if tail_charge is not None and self.tail != "coulomb":
@@ -447,13 +450,24 @@ class TabulatedTerm(Term):
         it) at the midpoints of the table's intervals in ln r, over max |r V|; the radius where it is)."""
         x = np.log(r)
         mid = 0.5 * (x[1:] + x[:-1])
-        other = make_interp_spline(x, y, k=self._other_degree(len(r)))
+        self._other = other = make_interp_spline(x, y, k=self._other_degree(len(r)))
         d = np.abs(self._spline(mid) - other(mid))
         top = float(np.max(np.abs(y)))
         if top == 0.0 or not d.size:
             return 0.0, float(r[0])
         i = int(np.argmax(d))
         return float(d[i]) / top, float(np.exp(mid[i]))
+
+    def interpolation_difference(self, r) -> np.ndarray:
+        """(spline of the other degree - this spline) / r at radii ``r`` (bohr) between the first and the
+        last point, 0 elsewhere (hartree): the estimate of the interpolant's error that a level's error
+        estimate takes in, to first order (see the module docstring)."""
+        r = np.asarray(r, dtype=float)
+        out = np.zeros(r.shape)
+        inside = (r >= self.r[0]) & (r <= self.r[-1])
+        x = np.log(r[inside])
+        out[inside] = (self._other(x) - self._spline(x)) / r[inside]
+        return out
 
     def _warn_unsteady(self, r, y, which: str, option: str) -> None:
         if abs(y[0] - y[-1]) > 1e-3 * max(float(np.max(np.abs(y))), 1e-300):
