@@ -686,3 +686,92 @@ def test_a_potential_repulsive_everywhere_binds_nothing_at_once(args):
     out = boundkit.solve("schrodinger", "coulomb", {"Z": -1}, l=1, levels=2)
     assert out.status == "ok" and out.levels == () and out.diagnostics["bound_count"] == 0
     assert time.perf_counter() - t0 < 3
+
+
+# A section whose every state or point failed computed nothing (a tester's report: a 10-file run was
+# replaced by a 4-file failed one when every [critical] state or every [scan] point failed).
+_HEAD = 'title = "t"\ndescription = "t"\n'
+_FAILING_SECTIONS = {
+    "critical": _HEAD + '[models.y]\nterms = ["yukawa"]\nparams = { Z = 1.0, screening_length = 5.0 }\n'
+                        '[critical]\nmodel = "y"\nstates = ["1s"]\nbracket = [2.0, 3.0]\n',
+    "scan": _HEAD + 'equations = ["dirac"]\nchannels = ["s1/2"]\n[models.c]\nterms = ["coulomb"]\n'
+                    'params = { Z = 1.0 }\n[scan]\nmodel = "c"\nparameter = "Z"\nvalues = [140.0, 150.0]\n'
+                    'workers = 1\n',
+}
+_SUCCEEDING_ONCE = {
+    "critical": _HEAD + 'levels = 2\n[models.h]\nterms = ["hulthen"]\nparams = { Z = 1.0, delta = 0.1 }\n'
+                        '[critical]\nmodel = "h"\nparameter = "delta"\nstates = ["1s", "2s"]\n'
+                        'bracket = [0.3, 1.5]\nworkers = 1\n',
+    "scan": _FAILING_SECTIONS["scan"].replace("[140.0, 150.0]", "[1.0, 140.0]"),
+}
+
+
+def _earlier_run(tmp_path):
+    out = tmp_path / "o"
+    assert cli("run", write(tmp_path, HYDROGEN, "good.toml"), "--out", out).exit_code == 0
+    return out, {p.name: p.read_bytes() for p in out.iterdir()}
+
+
+@pytest.mark.parametrize("section", sorted(_FAILING_SECTIONS))
+def test_force_keeps_the_earlier_run_when_every_state_or_point_of_a_study_failed(tmp_path, section):
+    from boundkit.runspec import run
+
+    out, before = _earlier_run(tmp_path)
+    spec = write(tmp_path, _FAILING_SECTIONS[section])
+    res = cli("run", spec, "--out", out, "--force")
+    assert res.exit_code == 3, res.output
+    assert re.search(r"the run computed nothing; the earlier run in \S+ is kept as it was", res.stderr)
+    assert "wrote" not in res.stdout
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+    report = run(spec, out, force=True)
+    assert report.kept_earlier and report.files == () and report.problems
+    assert sorted(os.listdir(tmp_path)) == ["good.toml", "o", "spec.toml"]
+
+
+@pytest.mark.parametrize("section", sorted(_SUCCEEDING_ONCE))
+def test_force_replaces_the_earlier_run_when_one_state_or_point_succeeded(tmp_path, section):
+    from boundkit.runspec import run
+
+    out, _ = _earlier_run(tmp_path)
+    report = run(write(tmp_path, _SUCCEEDING_ONCE[section]), out, force=True)
+    assert not report.kept_earlier and not report.success         # one failed, one stands: written
+    assert f"{section}.csv" in report.files and (out / f"{section}.csv").is_file()
+    assert json.loads((out / "results.json").read_text())["spec"]["title"] == "t"
+
+
+def _nothing_found(monkeypatch):
+    """Make every solve return as the solver does when it finds no level it was asked for."""
+    import importlib
+    from dataclasses import replace
+
+    real = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=1)
+
+    def found_nothing(*args, **kwargs):
+        return replace(real, levels=(), success=False, status="partial",
+                       message="found 0 of 1 requested bound levels: refused for this test")
+
+    monkeypatch.setattr(importlib.import_module("boundkit.solver"), "solve", found_nothing)
+    monkeypatch.setattr(importlib.import_module("boundkit.studies.compare"), "solve", found_nothing)
+
+    def converged_nothing(*args, **kwargs):
+        from boundkit.accuracy import ConvergenceResult
+
+        return ConvergenceResult(equation="schrodinger", potential="coulomb", reference={}, rows=[], orders={},
+                                 local_orders={}, reference_status="partial",
+                                 reference_message="found 0 of 1 requested bound levels: refused for this test")
+
+    monkeypatch.setattr(importlib.import_module("boundkit.accuracy"), "converge", converged_nothing)
+
+
+@pytest.mark.parametrize("section", ["solve", "converge", "compare"])
+def test_force_keeps_the_earlier_run_when_every_solve_of_a_section_found_nothing(tmp_path, monkeypatch, section):
+    from boundkit.runspec import run
+
+    out, before = _earlier_run(tmp_path)
+    spec = write(tmp_path, HYDROGEN.replace("[solve]\nfigures = []\n", f'[{section}]\n'
+                                            + ('model = "h"\n' if section != "solve" else "")))
+    _nothing_found(monkeypatch)
+    report = run(spec, out, force=True)
+    assert report.kept_earlier and report.files == ()
+    assert any(": partial" in p for p in report.problems), report.problems     # each says what failed
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
