@@ -63,8 +63,9 @@ class RunReport:
         The headline numbers of ``report.md``, one line each.
     kept_earlier : bool
         The run computed nothing (every solve was refused or found no level, and every study
-        failed or failed at each of its states or points) and ``out_dir`` held an earlier run (``force=True``): that run was kept as it was, and
-        nothing was written (``files`` is empty; ``problems`` say why).
+        failed or failed at each of its states or points) and ``out_dir`` held an earlier run
+        (``force=True``): that run was kept as it was, and nothing was written (``files`` is
+        empty; ``problems`` say why).
     """
 
     out_dir: Path
