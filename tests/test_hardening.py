@@ -775,3 +775,46 @@ def test_force_keeps_the_earlier_run_when_every_solve_of_a_section_found_nothing
     assert report.kept_earlier and report.files == ()
     assert any(": partial" in p for p in report.problems), report.problems     # each says what failed
     assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+
+
+# --- --levels had no upper limit: 10^8 levels grew to 3.6 GB in 15 s and never finished -----------
+def test_levels_are_bounded_with_an_override(monkeypatch):
+    import importlib
+
+    from boundkit._checks import MAX_LEVELS, LimitError
+    from boundkit.studies import compare, scan
+
+    limit = r"is more than the limit of 1000; use fewer, or raise the limit with max_levels= \(API\)"
+    assert MAX_LEVELS == 1000
+    hulthen = ("schrodinger", "hulthen", {"Z": 1, "delta": 0.3})      # two bound s levels (delta < 2/n^2)
+    with pytest.raises(LimitError, match=r"^levels: 3 is more than the limit of 2; use fewer, or raise the limit "
+                                         r"with max_levels= \(API\)$"):
+        boundkit.solve(*hulthen, levels=3, max_levels=2)
+    assert len(boundkit.solve(*hulthen, levels=2, max_levels=2).levels) == 2
+    assert len(boundkit.solve(*hulthen, levels="all", max_levels=1).levels) == 2    # 'all' is not limited
+    with pytest.raises(ValueError, match=r"max_levels: must be >= 1, got 0"):
+        boundkit.solve(*hulthen, max_levels=0)
+    t0 = time.perf_counter()
+    for n in (100_000_000, 100_000, MAX_LEVELS + 1):
+        with pytest.raises(LimitError, match=rf"^levels: {n} {limit}$"):
+            boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=n)
+        with pytest.raises(LimitError, match=rf"^levels: {n} {limit}$"):
+            scan("schrodinger", "coulomb", {}, {"Z": [1.0, 2.0]}, levels=n, workers=1)
+        with pytest.raises(LimitError, match=rf"^levels: {n} {limit}$"):
+            compare("coulomb", {"Z": 1}, levels=n)
+    with pytest.raises(LimitError, match=r"^levels: 3 is more than the limit of 2"):
+        compare(hulthen[1], hulthen[2], levels=3, max_levels=2)          # compare passes it to solve
+    assert time.perf_counter() - t0 < 5
+    # scan's override reaches the solve of every point (recorded by a stand-in; 1001 real levels take a minute)
+    seen = []
+    real = importlib.import_module("boundkit.studies.scan").solve
+
+    def record(*args, **kwargs):
+        seen.append((kwargs["levels"], kwargs["max_levels"]))
+        return real(*args, **{**kwargs, "levels": 1, "max_levels": MAX_LEVELS})
+
+    monkeypatch.setattr(importlib.import_module("boundkit.studies.scan"), "solve", record)
+    res = scan("schrodinger", "coulomb", {}, {"Z": [1.0]}, levels=MAX_LEVELS + 1, max_levels=MAX_LEVELS + 1,
+               workers=1)
+    assert seen == [(MAX_LEVELS + 1, MAX_LEVELS + 1)]
+    assert res.rows[0]["status"] == "ok" and len(res.rows) == MAX_LEVELS + 1
