@@ -818,3 +818,14 @@ def test_levels_are_bounded_with_an_override(monkeypatch):
                workers=1)
     assert seen == [(MAX_LEVELS + 1, MAX_LEVELS + 1)]
     assert res.rows[0]["status"] == "ok" and len(res.rows) == MAX_LEVELS + 1
+
+
+@pytest.mark.parametrize("command", [["solve"], ["scan", "--vary", "Z=1,2", "--workers", "1"], ["converge"],
+                                     ["compare"], ["hyperfine"]])
+def test_levels_beyond_the_limit_are_one_line_on_every_command(command):
+    t0 = time.perf_counter()
+    for n in ("100000000", "1001"):
+        one_line_error(cli(*command, "--levels", n), rf"invalid value for '--levels': levels: {n} is more than the "
+                                                     r"limit of 1000; use fewer, .*see boundkit \w+ --help")
+    assert time.perf_counter() - t0 < 5
+    assert cli("solve", "-p", "hulthen", "--param", "Z=1", "--param", "delta=0.3", "--levels", "all").exit_code == 0
