@@ -829,3 +829,28 @@ def test_levels_beyond_the_limit_are_one_line_on_every_command(command):
                                                      r"limit of 1000; use fewer, .*see boundkit \w+ --help")
     assert time.perf_counter() - t0 < 5
     assert cli("solve", "-p", "hulthen", "--param", "Z=1", "--param", "delta=0.3", "--levels", "all").exit_code == 0
+
+
+@pytest.mark.parametrize("where,text", [
+    ("top", "levels = 100000000\n" + HYDROGEN.replace("levels = 1\n", "")),
+    ("section", HYDROGEN.replace("[solve]\n", "[solve]\nlevels = 100000000\n")),
+    ("channel", HYDROGEN.replace('channels = ["s"]', 'channels = [{ l = 0, levels = 100000000 }]')),
+    ("compare", HYDROGEN + '\n[compare]\nmodel = "h"\nlevels = 100000000\n'),
+    ("converge", HYDROGEN + '\n[converge]\nmodel = "h"\nlevels = 100000000\n'),
+    ("scan", HYDROGEN + '\n[scan]\nmodel = "h"\nparameter = "Z"\nvalues = [1.0]\nlevels = 100000000\n'),
+])
+def test_a_spec_with_too_many_levels_is_refused_at_load(tmp_path, where, text):
+    from boundkit.runspec import load_spec
+
+    spec = write(tmp_path, text)
+    line = next(i for i, ln in enumerate(text.splitlines(), 1) if "100000000" in ln)
+    message = (rf"line {line}, key '[\w.\[\]]*levels': 100000000 is more than the limit of 1000 levels per channel; "
+               r"use fewer \(1000 hydrogen levels already take 40 s and 1.2 GB\)")
+    t0 = time.perf_counter()
+    with pytest.raises(ValueError, match=message):
+        load_spec(spec)
+    one_line_error(cli("run", spec, "--dry-run"), message)
+    one_line_error(cli("run", spec, "--out", tmp_path / "o"), message)
+    assert sorted(os.listdir(tmp_path)) == ["spec.toml"]           # nothing written
+    assert time.perf_counter() - t0 < 5
+    assert load_spec(write(tmp_path, text.replace("100000000", "1000"), "ok.toml")) is not None
