@@ -686,3 +686,171 @@ def test_a_potential_repulsive_everywhere_binds_nothing_at_once(args):
     out = boundkit.solve("schrodinger", "coulomb", {"Z": -1}, l=1, levels=2)
     assert out.status == "ok" and out.levels == () and out.diagnostics["bound_count"] == 0
     assert time.perf_counter() - t0 < 3
+
+
+# A section whose every state or point failed computed nothing (a tester's report: a 10-file run was
+# replaced by a 4-file failed one when every [critical] state or every [scan] point failed).
+_HEAD = 'title = "t"\ndescription = "t"\n'
+_FAILING_SECTIONS = {
+    "critical": _HEAD + '[models.y]\nterms = ["yukawa"]\nparams = { Z = 1.0, screening_length = 5.0 }\n'
+                        '[critical]\nmodel = "y"\nstates = ["1s"]\nbracket = [2.0, 3.0]\n',
+    "scan": _HEAD + 'equations = ["dirac"]\nchannels = ["s1/2"]\n[models.c]\nterms = ["coulomb"]\n'
+                    'params = { Z = 1.0 }\n[scan]\nmodel = "c"\nparameter = "Z"\nvalues = [140.0, 150.0]\n'
+                    'workers = 1\n',
+}
+_SUCCEEDING_ONCE = {
+    "critical": _HEAD + 'levels = 2\n[models.h]\nterms = ["hulthen"]\nparams = { Z = 1.0, delta = 0.1 }\n'
+                        '[critical]\nmodel = "h"\nparameter = "delta"\nstates = ["1s", "2s"]\n'
+                        'bracket = [0.3, 1.5]\nworkers = 1\n',
+    "scan": _FAILING_SECTIONS["scan"].replace("[140.0, 150.0]", "[1.0, 140.0]"),
+}
+
+
+def _earlier_run(tmp_path):
+    out = tmp_path / "o"
+    assert cli("run", write(tmp_path, HYDROGEN, "good.toml"), "--out", out).exit_code == 0
+    return out, {p.name: p.read_bytes() for p in out.iterdir()}
+
+
+@pytest.mark.parametrize("section", sorted(_FAILING_SECTIONS))
+def test_force_keeps_the_earlier_run_when_every_state_or_point_of_a_study_failed(tmp_path, section):
+    from boundkit.runspec import run
+
+    out, before = _earlier_run(tmp_path)
+    spec = write(tmp_path, _FAILING_SECTIONS[section])
+    res = cli("run", spec, "--out", out, "--force")
+    assert res.exit_code == 3, res.output
+    assert re.search(r"the run computed nothing; the earlier run in \S+ is kept as it was", res.stderr)
+    assert "wrote" not in res.stdout
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+    report = run(spec, out, force=True)
+    assert report.kept_earlier and report.files == () and report.problems
+    assert sorted(os.listdir(tmp_path)) == ["good.toml", "o", "spec.toml"]
+
+
+@pytest.mark.parametrize("section", sorted(_SUCCEEDING_ONCE))
+def test_force_replaces_the_earlier_run_when_one_state_or_point_succeeded(tmp_path, section):
+    from boundkit.runspec import run
+
+    out, _ = _earlier_run(tmp_path)
+    report = run(write(tmp_path, _SUCCEEDING_ONCE[section]), out, force=True)
+    assert not report.kept_earlier and not report.success         # one failed, one stands: written
+    assert f"{section}.csv" in report.files and (out / f"{section}.csv").is_file()
+    assert json.loads((out / "results.json").read_text())["spec"]["title"] == "t"
+
+
+def _nothing_found(monkeypatch):
+    """Make every solve return as the solver does when it finds no level it was asked for."""
+    import importlib
+    from dataclasses import replace
+
+    real = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=1)
+
+    def found_nothing(*args, **kwargs):
+        return replace(real, levels=(), success=False, status="partial",
+                       message="found 0 of 1 requested bound levels: refused for this test")
+
+    monkeypatch.setattr(importlib.import_module("boundkit.solver"), "solve", found_nothing)
+    monkeypatch.setattr(importlib.import_module("boundkit.studies.compare"), "solve", found_nothing)
+
+    def converged_nothing(*args, **kwargs):
+        from boundkit.accuracy import ConvergenceResult
+
+        return ConvergenceResult(equation="schrodinger", potential="coulomb", reference={}, rows=[], orders={},
+                                 local_orders={}, reference_status="partial",
+                                 reference_message="found 0 of 1 requested bound levels: refused for this test")
+
+    monkeypatch.setattr(importlib.import_module("boundkit.accuracy"), "converge", converged_nothing)
+
+
+@pytest.mark.parametrize("section", ["solve", "converge", "compare"])
+def test_force_keeps_the_earlier_run_when_every_solve_of_a_section_found_nothing(tmp_path, monkeypatch, section):
+    from boundkit.runspec import run
+
+    out, before = _earlier_run(tmp_path)
+    spec = write(tmp_path, HYDROGEN.replace("[solve]\nfigures = []\n", f'[{section}]\n'
+                                            + ('model = "h"\n' if section != "solve" else "")))
+    _nothing_found(monkeypatch)
+    report = run(spec, out, force=True)
+    assert report.kept_earlier and report.files == ()
+    assert any(": partial" in p for p in report.problems), report.problems     # each says what failed
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+
+
+# --- --levels had no upper limit: 10^8 levels grew to 3.6 GB in 15 s and never finished -----------
+def test_levels_are_bounded_with_an_override(monkeypatch):
+    import importlib
+
+    from boundkit._checks import MAX_LEVELS, LimitError
+    from boundkit.studies import compare, scan
+
+    limit = r"is more than the limit of 1000; use fewer, or raise the limit with max_levels= \(API\)"
+    assert MAX_LEVELS == 1000
+    hulthen = ("schrodinger", "hulthen", {"Z": 1, "delta": 0.3})      # two bound s levels (delta < 2/n^2)
+    with pytest.raises(LimitError, match=r"^levels: 3 is more than the limit of 2; use fewer, or raise the limit "
+                                         r"with max_levels= \(API\)$"):
+        boundkit.solve(*hulthen, levels=3, max_levels=2)
+    assert len(boundkit.solve(*hulthen, levels=2, max_levels=2).levels) == 2
+    assert len(boundkit.solve(*hulthen, levels="all", max_levels=1).levels) == 2    # 'all' is not limited
+    with pytest.raises(ValueError, match=r"max_levels: must be >= 1, got 0"):
+        boundkit.solve(*hulthen, max_levels=0)
+    t0 = time.perf_counter()
+    for n in (100_000_000, 100_000, MAX_LEVELS + 1):
+        with pytest.raises(LimitError, match=rf"^levels: {n} {limit}$"):
+            boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=n)
+        with pytest.raises(LimitError, match=rf"^levels: {n} {limit}$"):
+            scan("schrodinger", "coulomb", {}, {"Z": [1.0, 2.0]}, levels=n, workers=1)
+        with pytest.raises(LimitError, match=rf"^levels: {n} {limit}$"):
+            compare("coulomb", {"Z": 1}, levels=n)
+    with pytest.raises(LimitError, match=r"^levels: 3 is more than the limit of 2"):
+        compare(hulthen[1], hulthen[2], levels=3, max_levels=2)          # compare passes it to solve
+    assert time.perf_counter() - t0 < 5
+    # scan's override reaches the solve of every point (recorded by a stand-in; 1001 real levels take a minute)
+    seen = []
+    real = importlib.import_module("boundkit.studies.scan").solve
+
+    def record(*args, **kwargs):
+        seen.append((kwargs["levels"], kwargs["max_levels"]))
+        return real(*args, **{**kwargs, "levels": 1, "max_levels": MAX_LEVELS})
+
+    monkeypatch.setattr(importlib.import_module("boundkit.studies.scan"), "solve", record)
+    res = scan("schrodinger", "coulomb", {}, {"Z": [1.0]}, levels=MAX_LEVELS + 1, max_levels=MAX_LEVELS + 1,
+               workers=1)
+    assert seen == [(MAX_LEVELS + 1, MAX_LEVELS + 1)]
+    assert res.rows[0]["status"] == "ok" and len(res.rows) == MAX_LEVELS + 1
+
+
+@pytest.mark.parametrize("command", [["solve"], ["scan", "--vary", "Z=1,2", "--workers", "1"], ["converge"],
+                                     ["compare"], ["hyperfine"]])
+def test_levels_beyond_the_limit_are_one_line_on_every_command(command):
+    t0 = time.perf_counter()
+    for n in ("100000000", "1001"):
+        one_line_error(cli(*command, "--levels", n), rf"invalid value for '--levels': levels: {n} is more than the "
+                                                     r"limit of 1000; use fewer, .*see boundkit \w+ --help")
+    assert time.perf_counter() - t0 < 5
+    assert cli("solve", "-p", "hulthen", "--param", "Z=1", "--param", "delta=0.3", "--levels", "all").exit_code == 0
+
+
+@pytest.mark.parametrize("where,text", [
+    ("top", "levels = 100000000\n" + HYDROGEN.replace("levels = 1\n", "")),
+    ("section", HYDROGEN.replace("[solve]\n", "[solve]\nlevels = 100000000\n")),
+    ("channel", HYDROGEN.replace('channels = ["s"]', 'channels = [{ l = 0, levels = 100000000 }]')),
+    ("compare", HYDROGEN + '\n[compare]\nmodel = "h"\nlevels = 100000000\n'),
+    ("converge", HYDROGEN + '\n[converge]\nmodel = "h"\nlevels = 100000000\n'),
+    ("scan", HYDROGEN + '\n[scan]\nmodel = "h"\nparameter = "Z"\nvalues = [1.0]\nlevels = 100000000\n'),
+])
+def test_a_spec_with_too_many_levels_is_refused_at_load(tmp_path, where, text):
+    from boundkit.runspec import load_spec
+
+    spec = write(tmp_path, text)
+    line = next(i for i, ln in enumerate(text.splitlines(), 1) if "100000000" in ln)
+    message = (rf"line {line}, key '[\w.\[\]]*levels': 100000000 is more than the limit of 1000 levels per channel; "
+               r"use fewer \(1000 hydrogen levels already take 40 s and 1.2 GB\)")
+    t0 = time.perf_counter()
+    with pytest.raises(ValueError, match=message):
+        load_spec(spec)
+    one_line_error(cli("run", spec, "--dry-run"), message)
+    one_line_error(cli("run", spec, "--out", tmp_path / "o"), message)
+    assert sorted(os.listdir(tmp_path)) == ["spec.toml"]           # nothing written
+    assert time.perf_counter() - t0 < 5
+    assert load_spec(write(tmp_path, text.replace("100000000", "1000"), "ok.toml")) is not None

@@ -10,7 +10,7 @@ from typing import Iterable
 
 __all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "check_count",
            "check_workers", "LimitError", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
-           "MAX_TABLE_POINTS", "MAX_PHASE_NODES", "MAX_REPULSIVE_ETA"]
+           "MAX_LEVELS", "MAX_TABLE_POINTS", "MAX_PHASE_NODES", "MAX_REPULSIVE_ETA"]
 
 MAX_GRID_POINTS = 10_000
 """Most points of a scan grid (values x values x equations x channels), or of one
@@ -24,6 +24,15 @@ MAX_N = 20
 """Largest max_n of :func:`boundkit.transitions.transitions`: every channel l < max_n is solved for
 its levels up to max_n, and the lines grow as max_n^4 (max_n = 20: 210 levels, about 40 s for
 hydrogen). Override: ``transitions(..., max_n_limit=...)`` (API), ``--max-n-limit`` (CLI)."""
+
+MAX_LEVELS = 1000
+"""Most levels asked of one channel (``levels=N``; ``'all'`` is not limited by it): time and memory grow
+faster than the count (hydrogen s levels, measured on a shared 2-core machine: Schrodinger 100 levels
+1.2 s and 90 MB, 500 levels 12 s and 0.4 GB, 1000 levels 40 s and 1.2 GB; Dirac 1000 levels 65 s and
+1.3 GB), so that 10^5 levels would never finish and eat the memory on the way.
+Override: ``solve(..., max_levels=...)``, ``scan(..., max_levels=...)``, ``compare(..., max_levels=...)``
+(API; compare passes it to solve). The command line's ``--levels`` and a run spec's ``levels`` are held
+to this limit (a spec at load, dry run too)."""
 
 MAX_PHASE_NODES = 10_000
 """Most nodes (half wavelengths) the outward integration of a phase shift or continuum state

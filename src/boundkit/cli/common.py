@@ -17,7 +17,7 @@ import click
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
            "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
-           "parse_params", "report_unit", "report_length", "api_message"]
+           "level_count", "parse_params", "report_unit", "report_length", "api_message"]
 
 EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
@@ -146,7 +146,18 @@ def levels_arg(text: str):
                                  param_hint="'--levels'") from None
     if n < 1:
         raise click.BadParameter(f"levels: must be >= 1 (or 'all'), got {n}", param_hint="'--levels'")
-    return n
+    return level_count(n)
+
+
+def level_count(n: int) -> int:
+    """--levels N at most :data:`boundkit._checks.MAX_LEVELS`, refused before anything is read or solved
+    (every command that takes --levels, also those whose study does not check it itself)."""
+    from ..solver import check_levels
+
+    try:
+        return check_levels(n)
+    except ValueError as exc:
+        raise click.BadParameter(str(exc), param_hint="'--levels'") from None
 
 
 

@@ -73,8 +73,10 @@ def levels_option(default: int, allow_all: bool = False, what: str = "Number of 
         return click.option("--levels", "-n", default=str(default), show_default=True, metavar="N|all",
                             callback=lambda ctx, param, value: levels_arg(value),
                             help=f"{what}, or 'all' for every bound level of a potential that has finitely many.")
+    from .common import level_count
+
     return click.option("--levels", "-n", type=int, default=default, show_default=True,
-                        help=f"{what}.")
+                        callback=lambda ctx, param, value: level_count(value), help=f"{what}.")
 
 
 def tol_option(default: float, what: str = "Relative tolerance on binding energies."):

@@ -62,9 +62,10 @@ class RunReport:
     headline : tuple of str
         The headline numbers of ``report.md``, one line each.
     kept_earlier : bool
-        The run computed nothing (every solve and every study was refused or failed) and
-        ``out_dir`` held an earlier run (``force=True``): that run was kept as it was, and
-        nothing was written (``files`` is empty; ``problems`` say why).
+        The run computed nothing (every solve was refused or found no level, and every study
+        failed or failed at each of its states or points) and ``out_dir`` held an earlier run
+        (``force=True``): that run was kept as it was, and nothing was written (``files`` is
+        empty; ``problems`` say why).
     """
 
     out_dir: Path
@@ -98,7 +99,8 @@ def run(spec: RunSpec | str | os.PathLike, out_dir: str | os.PathLike, force: bo
         folder, or one holding the run marker ``.boundkit-run.json`` whose run
         id matches its ``results.json`` (both written by boundkit), is ever
         removed, and only by a run that computed something: when every solve
-        and study of the new run is refused or fails, the earlier run stays
+        of the new run is refused or finds no level and every study fails, or
+        fails at each of its states or points, the earlier run stays
         (``RunReport.kept_earlier``).
     progress : bool, None or callable
         A progress bar on stderr (tqdm), counting the solves of
@@ -170,7 +172,7 @@ class _Engine(SolveRunner, ScanRunner, StudyRunners, FigureWriter, ReportWriter)
         self.e_unit = spec.energy_unit
         self.l_unit = spec.length_unit
         self.run_id = uuid.uuid4().hex
-        self.computed = 0       # solves that returned and studies that finished (0: nothing to show)
+        self.computed = 0       # solves that found levels and studies with a result (0: nothing to show)
 
     # -- helpers ---------------------------------------------------------------------------
     def write(self, name: str, data: str | bytes) -> None:
@@ -260,13 +262,19 @@ class _Engine(SolveRunner, ScanRunner, StudyRunners, FigureWriter, ReportWriter)
         self.tick(self.planned.get(_dotted(sec.key), 0))
 
     def _guard(self, key: tuple, job) -> None:
-        """Run one study; a ValueError from the numerics is recorded as a problem, not raised."""
+        """Run one study; a ValueError from the numerics is recorded as a problem, not raised.
+
+        ``job()`` returns whether the study computed anything: a study whose every state or point
+        failed (each recorded as a problem where it failed) computed nothing, as one that raised."""
         t0 = time.perf_counter()
         base = self.done
         try:
-            job()
-            self.computed += 1
-            log.info("[%s] done in %.1f s", _dotted(key), time.perf_counter() - t0)
+            if job():
+                self.computed += 1
+                log.info("[%s] done in %.1f s", _dotted(key), time.perf_counter() - t0)
+            else:
+                log.info("[%s] computed nothing: every state or point failed (%.1f s)", _dotted(key),
+                         time.perf_counter() - t0)
         except (ValueError, RuntimeError) as exc:   # bad values met on the way; StudyError is a RuntimeError
             msg = f"[{_dotted(key)}] (line {self.spec.line_of(key)}) failed: {exc}"
             log.warning("%s", msg)

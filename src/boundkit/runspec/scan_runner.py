@@ -26,7 +26,8 @@ log = logging.getLogger("boundkit.runspec.engine")
 class ScanRunner:
     """Runs the [scan] sections."""
 
-    def _scan(self, sec: ScanSection, suffix: str) -> None:
+    def _scan(self, sec: ScanSection, suffix: str) -> bool:
+        """Run one [scan] section; returns whether any point was solved (not every row an error)."""
         studies = importlib.import_module("boundkit.studies")
         spec = self.spec
         vector, scalar, params = spec.models[sec.model].arguments(spec.units)
@@ -56,9 +57,10 @@ class ScanRunner:
                 self.problems.append(f"scan{suffix} ({sec.model}): {len(bad)} level(s) with status {status} at "
                                      f"{sec.parameter} = {', '.join(f'{v:g}' for v in where)}"
                                      + (f" ({first})" if first else ""))
+        solved = any(r.get("status") != "error" for r in rows)
         if sec.second is not None:
             self._scan_2d(sec, suffix, res, rows)
-            return
+            return solved
         caption = f"Levels against {sec.parameter}, model {sec.model}"
         try:
             figures = importlib.import_module("boundkit.studies.figures")
@@ -134,6 +136,7 @@ class ScanRunner:
             entry["differences"] = diffs
         self.results.setdefault("scan", []).append(_clean(entry))
         self.md += md
+        return solved
 
     def _scan_2d(self, sec: ScanSection, suffix: str, res, rows: list[dict]) -> None:
         """Table, families of curves and report of a two-parameter scan (``[scan.second]``)."""

@@ -53,7 +53,8 @@ class SolveRunner:
                                      "message": str(exc), "levels": []})
                         continue
                     self.tick()
-                    self.computed += 1
+                    if res.levels or res.success:   # levels, or all there are (none): a result
+                        self.computed += 1
                     if not res.success:
                         self.problems.append(f"solve {tag}: {res.status}: {res.message}")
                     runs.append({"model": mname, "equation": eq, "channel": cname, **kw, "requested": nlev,

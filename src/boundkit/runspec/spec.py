@@ -15,7 +15,7 @@ import numpy as np
 from pathlib import Path
 from typing import Any
 
-from .._checks import MAX_GRID_POINTS, MAX_L
+from .._checks import MAX_GRID_POINTS, MAX_L, MAX_LEVELS
 from ..observables import length_unit as canonical_length_unit
 from ..states import LABEL_CONVENTIONS
 from ..units import energy_unit as canonical_energy_unit
@@ -68,8 +68,8 @@ def _channel(rd: _Reader, value: Any, key: tuple) -> ChannelSpec:
         if ("l" in value) == ("kappa" in value):
             raise rd.error(key, "a channel table needs exactly one of l = ... or kappa = ...")
         levels = rd.get(value, key, "levels", "int", None)
-        if levels is not None and levels < 1:
-            raise rd.error(key + ("levels",), f"must be >= 1, got {levels}")
+        if levels is not None:
+            _level_count(rd, key, levels)
         if "l" in value:
             l = rd.get(value, key, "l", "int")
             if l < 0:
@@ -93,9 +93,17 @@ def _channels(rd: _Reader, data: dict, key: tuple, default) -> tuple[ChannelSpec
 
 
 def _levels(rd: _Reader, data: dict, key: tuple, default: int) -> int:
-    n = rd.get(data, key, "levels", "int", default)
+    return _level_count(rd, key, rd.get(data, key, "levels", "int", default))
+
+
+def _level_count(rd: _Reader, key: tuple, n: int) -> int:
+    """``levels = n`` under ``key``: from 1 to :data:`boundkit._checks.MAX_LEVELS` (checked at load, so that a
+    dry run refuses what the run could never finish)."""
     if n < 1:
         raise rd.error(key + ("levels",), f"must be >= 1, got {n}")
+    if n > MAX_LEVELS:
+        raise rd.error(key + ("levels",), f"{n} is more than the limit of {MAX_LEVELS} levels per channel; use "
+                                          "fewer (1000 hydrogen levels already take 40 s and 1.2 GB)")
     return n
 
 

@@ -23,11 +23,15 @@ from .objects import CompareSection, ConvergeSection, CriticalSection
 
 log = logging.getLogger("boundkit.runspec.engine")
 
+_COMPARE_ENERGIES = ("schrodinger", "klein_gordon", "dirac_plus", "dirac_minus")   # the levels of a compare row
+
 
 class StudyRunners:
     """Runs the [converge], [critical] and [compare] sections."""
 
-    def _converge(self, sec: ConvergeSection, suffix: str) -> None:
+    def _converge(self, sec: ConvergeSection, suffix: str) -> bool:
+        """Run one [converge] section; returns whether it computed anything (rows, or a reference solve
+        that found all the levels there are)."""
         from ..accuracy import converge
         from ..plots import convergence_figure
 
@@ -63,8 +67,10 @@ class StudyRunners:
                       "order; the figure shows the errors themselves.")
             md.append("")
         self.md += md
+        return bool(res.rows) or res.reference_status == "ok"
 
-    def _critical(self, sec: CriticalSection, suffix: str) -> None:
+    def _critical(self, sec: CriticalSection, suffix: str) -> bool:
+        """Run one [critical] section; returns whether the search of any state returned a result."""
         spec = self.spec
         vector, scalar, params = spec.models[sec.model].arguments(spec.units)
         jobs = [dict(equation=sec.equation, potential=vector, params=params, state=state, vary=sec.parameter,
@@ -111,8 +117,10 @@ class StudyRunners:
                                      f"{_fmt(value, 7)}" + (f" {p_unit}" if p_unit else ""))
         md.append("")
         self.md += md
+        return any("error" not in r for r in rows)
 
-    def _compare(self, sec: CompareSection, suffix: str) -> None:
+    def _compare(self, sec: CompareSection, suffix: str) -> bool:
+        """Run one [compare] section; returns whether any channel found a level, or all there are."""
         studies = importlib.import_module("boundkit.studies")
         spec = self.spec
         pot = spec.models[sec.model].potential(spec.units)
@@ -146,6 +154,8 @@ class StudyRunners:
             if parts:
                 self.headline.append(f"compare ({sec.model}), {row.get('label')}: shift from Schrodinger: "
                                      + ", ".join(parts) + f" {self.e_unit}")
+        return (any(s == "ok" for s in getattr(res, "statuses", {}).values())
+                or any(r.get(k) is not None for r in res.rows for k in _COMPARE_ENERGIES))
 
 
 def _call(func, **kwargs):

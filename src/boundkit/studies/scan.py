@@ -36,11 +36,11 @@ from typing import Any, Callable, Mapping, Sequence
 
 import numpy as np
 
-from .._checks import MAX_GRID_POINTS, check_count, check_int, check_positive, check_workers
+from .._checks import MAX_GRID_POINTS, MAX_LEVELS, check_count, check_int, check_positive, check_workers
 from .._checks import shorten
 from .._threads import usable_cores
 from ..states import check_convention, convert_label
-from ..solver import solve
+from ..solver import check_levels, solve
 from ..units import column, constants_record, hartree_to
 from ..units import energy_unit as _energy_unit
 from . import _common
@@ -115,7 +115,8 @@ def solve_point(task: Mapping[str, Any]) -> dict:
     params = task["params"]
     try:
         res = solve(task["equation"], rebuild_potential(task["potential"], params, varied), params,
-                    levels=task["levels"], tol=task["tol"], method=task["method"],
+                    levels=task["levels"], max_levels=task.get("max_levels", MAX_LEVELS), tol=task["tol"],
+                    method=task["method"],
                     scalar=rebuild_potential(task["scalar"], params, varied), **task["channel"],
                     **task["solve_kwargs"])
     except ValueError as exc:
@@ -498,7 +499,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
          scheduler=None, out: str | os.PathLike | None = None,
          progress: bool | None | Callable[[int, int], None] = None, scalar=None, resume_key: str | None = None,
          max_points: int = MAX_GRID_POINTS, scheduler_timeout: float = DASK_TIMEOUT,
-         labels: str = "atomic", energy_unit: str | None = None, **solve_kwargs) -> ScanResult:
+         labels: str = "atomic", energy_unit: str | None = None, max_levels: int = MAX_LEVELS,
+         **solve_kwargs) -> ScanResult:
     """Bound levels over a grid of one or two potential parameters.
 
     Parameters
@@ -524,7 +526,10 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         One channel, as for :func:`boundkit.solve`: ``l=1`` is
         ``channels=[{"l": 1}]``, ``kappa=-2`` is ``channels=[{"kappa": -2}]``.
     levels : int
-        Number of lowest levels followed in each channel.
+        Number of lowest levels followed in each channel, at most ``max_levels``.
+    max_levels : int
+        Limit on ``levels`` (default 1000, :data:`boundkit._checks.MAX_LEVELS`, as for
+        :func:`boundkit.solve`); raise it deliberately: every point solves that many.
     tol : float
         Relative tolerance of each binding energy.
     method : str
@@ -595,7 +600,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     if not equations:
         raise ValueError("equation: give at least one equation")
     equations = list(dict.fromkeys(canonical_equation(e) for e in equations))
-    levels = check_int("levels", levels, minimum=1)
+    levels = check_levels(check_int("levels", levels, minimum=1), max_levels)   # an int: no 'all' here
     tol = check_positive("tol", tol)
     labels = check_convention(labels)
     file_unit = _energy_unit(energy_unit or ("MeV" if solve_kwargs.get("units") == "nuclear" else "hartree"))
@@ -649,7 +654,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
             task = {"params": resolved, "point": point, "vary_order": names, "varied": varied,
                     "equation": eq, "channel": c, "levels": levels, "tol": tol, "method": method,
                     "solve_kwargs": dict(solve_kwargs), "potential": potential, "scalar": scalar,
-                    "labels": expected_labels(eq, c, levels)}
+                    "labels": expected_labels(eq, c, levels), "max_levels": max_levels}   # not in the key
             task["key"] = _point_key(task, potential_id)
             tasks.append(task)
     units = solve_kwargs.get("units", "atomic")
