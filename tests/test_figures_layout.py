@@ -206,3 +206,16 @@ def test_a_scan_where_every_point_failed_draws_no_empty_legend(tmp_path):
         warnings.simplefilter("error")
         path = figures.scan_figure(res, tmp_path / "all_failed.png", unit="hartree")
     assert path.exists()
+
+
+def test_a_convergence_study_without_rows_draws_no_empty_legend(tmp_path):
+    """A convergence study whose every solve found nothing (seen in a run spec's [converge] that failed):
+    no matplotlib 'no artists with labels' warning."""
+    import types
+    import warnings
+
+    result = types.SimpleNamespace(rows=(), orders={}, equation="schrodinger", potential="hulthen")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        path = plots.convergence_figure(result, tmp_path / "conv.png")
+    assert path.exists()

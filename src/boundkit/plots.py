@@ -73,7 +73,11 @@ def convergence_figure(result, path):
     ax.set_xlabel("resolution (nodes)")
     ax.set_ylabel("relative error of the binding energy")
     ax.set_title(f"{result.equation}: {result.potential}")
-    ax.legend(fontsize=8)
+    if keys:
+        ax.legend(fontsize=8)
+    else:       # no size gave a level: say so (matplotlib would warn of a legend without labels)
+        ax.text(0.5, 0.5, "no level at any resolution (see the table's status)", transform=ax.transAxes,
+                ha="center", va="center", fontsize=9, color="0.4")
     ax.grid(True, which="both", alpha=0.3)
     return save_figure(fig, path)
 
