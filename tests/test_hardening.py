@@ -854,3 +854,14 @@ def test_a_spec_with_too_many_levels_is_refused_at_load(tmp_path, where, text):
     assert sorted(os.listdir(tmp_path)) == ["spec.toml"]           # nothing written
     assert time.perf_counter() - t0 < 5
     assert load_spec(write(tmp_path, text.replace("100000000", "1000"), "ok.toml")) is not None
+
+
+def test_converge_api_refuses_a_levels_count_beyond_the_limit():
+    """The CLI and run specs refused levels above MAX_LEVELS, the converge API did not (it ran on)."""
+    from boundkit.accuracy import converge
+
+    with pytest.raises(ValueError, match=r"levels: 100000000 is more than the limit of 1000; use fewer, or raise "
+                                         r"the limit with max_levels= \(API\)"):
+        converge("schrodinger", "coulomb", {"Z": 1}, l=0, levels=10**8)
+    with pytest.raises(ValueError, match=r"levels: 5 is more than the limit of 2"):
+        converge("schrodinger", "coulomb", {"Z": 1}, l=0, levels=5, max_levels=2)

@@ -18,7 +18,7 @@ import numpy as np
 from ._threads import one_blas_thread
 from .discretize import FiniteDifference, get_method
 from .solver import prepare_channel, setup, solve_channel
-from ._checks import check_int, check_positive
+from ._checks import MAX_LEVELS, check_count, check_int, check_positive
 
 __all__ = ["converge", "ConvergenceResult", "observed_order"]
 
@@ -106,7 +106,7 @@ class ConvergenceResult:
 def converge(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
              l: int | None = None, kappa: int | None = None, levels: int = 1,
              methods=("spectral", "finite-difference"), order: int = 8, sizes: dict | None = None,
-             tol: float = 1e-13, **kwargs) -> ConvergenceResult:
+             tol: float = 1e-13, max_levels: int = MAX_LEVELS, **kwargs) -> ConvergenceResult:
     """Convergence study of one channel.
 
     The spectral family is studied on spectral elements on a fixed layout
@@ -123,8 +123,11 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
     ``reference_status``, as :func:`boundkit.solve` reports it). Equation, potential, params, l, kappa and levels
     mean what they mean for :func:`boundkit.solve`; ``kwargs`` are passed to
     the argument setup (particle, mass_mev, nucleus_mass_mev, scalar, units).
-    Returns a :class:`ConvergenceResult`.
+    ``levels`` is at most ``max_levels`` (:data:`boundkit._checks.MAX_LEVELS`, as for
+    :func:`boundkit.solve`). Returns a :class:`ConvergenceResult`.
     """
+    check_count("levels", check_int("levels", levels, minimum=1), check_int("max_levels", max_levels, minimum=1),
+                "max_levels= (API)", "", keyword="max_levels")
     with one_blas_thread():
         return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs)
 
