@@ -227,3 +227,21 @@ def test_unreachable_dask_scheduler_is_a_clear_error():
         with pytest.raises(ValueError, match="cannot reach the Dask scheduler"):
             scan("schrodinger", "yukawa", {"Z": 1}, {"screening_length": [5.0]}, scheduler="tcp://127.0.0.1:9",
                  scheduler_timeout=1)
+
+
+def test_a_level_the_solve_could_not_certify_is_missing_not_absent():
+    """A point whose solve came back partial (found 0 of 2: its count certificate failed) says nothing
+    about whether the levels are bound; its rows were 'absent', as for a level that is not bound (a
+    helper). Now 'missing', with the solve's message; absent stays for a certified count."""
+    from boundkit.studies.scan import _rows_for
+
+    task = {"labels": ["1s", "2s"], "point": {"Z": 1.0}, "vary_order": ["Z"], "equation": "schrodinger",
+            "channel": {"l": 0}, "tol": 1e-10}
+    partial = {"status": "partial", "message": "found 0 of 2 requested bound levels: the count certificate failed",
+               "levels": []}
+    rows = _rows_for(task, partial)
+    assert [r["status"] for r in rows] == ["missing", "missing"]
+    assert all(r["message"].startswith("found 0 of 2") and r["energy"] is None for r in rows)
+    certified = {"status": "ok", "message": "all 1 bound level(s) of this channel (2 requested)",
+                 "levels": [{"label": "1s", "energy": -0.5, "error_estimate": 1e-15}]}
+    assert [r["status"] for r in _rows_for(task, certified)] == ["ok", "absent"]

@@ -114,9 +114,9 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         written = write_figure(lambda p: scan_figure(res, p, unit=unit), plot_path)
         if written and not as_json:
             click.echo(f"figure: {written}")
-    bad = [r for r in res.rows if r["status"] in ("error", "tolerance-not-met")]
+    bad = [r for r in res.rows if r["status"] in ("error", "tolerance-not-met", "missing")]
     if bad:
-        click.echo(f"boundkit: {len(bad)} row(s) with status error or tolerance-not-met; first: "
+        click.echo(f"boundkit: {len(bad)} row(s) with status error, tolerance-not-met or missing; first: "
                    f"{bad[0]['label']} ({bad[0]['status']}: {bad[0]['message']})", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if res.problems or (plot_path and written is None):

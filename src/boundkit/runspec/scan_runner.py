@@ -49,7 +49,7 @@ class ScanRunner:
         else:
             self.write(f"scan{suffix}.csv", _csv_text(rows))
         table = _scan_table(rows, sec.parameter)
-        for status in ("error", "tolerance-not-met"):
+        for status in ("error", "tolerance-not-met", "missing"):
             bad = [r for r in rows if r.get("status") == status]
             if bad:
                 where = sorted({float(r[sec.parameter]) for r in bad if sec.parameter in r})
@@ -57,7 +57,7 @@ class ScanRunner:
                 self.problems.append(f"scan{suffix} ({sec.model}): {len(bad)} level(s) with status {status} at "
                                      f"{sec.parameter} = {', '.join(f'{v:g}' for v in where)}"
                                      + (f" ({first})" if first else ""))
-        solved = any(r.get("status") != "error" for r in rows)
+        solved = any(r.get("status") not in ("error", "missing") for r in rows)
         if sec.second is not None:
             self._scan_2d(sec, suffix, res, rows)
             return solved

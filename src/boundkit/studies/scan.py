@@ -5,8 +5,9 @@ independent solve, run in parallel on local cores (processes) or on a Dask
 cluster. Each level is followed by its *label*: the solver labels a level
 by the node count of its (large-component) radial function, so a label
 names the same physical level at every point, and a level that is not found
-at a point (it has unbound, or the solver could not seed it) is recorded as
-absent, never replaced by another level.
+at a point is recorded as absent (the solve certified that it found every
+level there is) or missing (it could not: status partial), never replaced by
+another level.
 
 With an ``out`` directory every finished point is written at once, as its
 own small JSON file (temporary file + rename, so a file is either whole or
@@ -172,7 +173,10 @@ class ScanResult:
         ``equation``, ``channel`` (``'l=0'`` or ``'kappa=-1'``), ``label``,
         ``energy`` (binding energy, hartree; None when absent),
         ``error_estimate`` (hartree), ``status`` (``ok``,
-        ``tolerance-not-met``, ``absent`` or ``error``) and ``message``.
+        ``tolerance-not-met``, ``absent`` (the solve found every level there
+        is, and not this one), ``missing`` (not found, but the solve could not
+        certify its count: status partial, its message kept) or ``error``)
+        and ``message``.
     settings : dict
         Everything that produced the numbers (potential, fixed parameters,
         levels, tol, method, channels, equations, particle).
@@ -482,8 +486,10 @@ def _rows_for(task, record) -> list[dict]:
         row.update({"equation": task["equation"], "channel": channel_name(task["channel"]), "label": lab})
         lv = found.get(lab)
         if lv is None:
-            status = "error" if record["status"] == "error" else "absent"
-            msg = record["message"] if status == "error" else "not found at this point"
+            # absent: the solve found every level there is (fewer than asked); missing: it could not
+            # tell (status partial, a count certificate that failed), so the level may well be bound
+            status = {"error": "error", "partial": "missing"}.get(record["status"], "absent")
+            msg = "not found at this point" if status == "absent" else record["message"]
             row.update({"energy": None, "error_estimate": None, "status": status, "message": msg})
         else:
             ok = lv["error_estimate"] <= task["tol"] * abs(lv["energy"])
