@@ -15,7 +15,7 @@ import numpy as np
 from pathlib import Path
 from typing import Any
 
-from .._checks import MAX_GRID_POINTS, MAX_L, MAX_LEVELS
+from .._checks import MAX_GRID_POINTS, MAX_L, MAX_LEVELS, MAX_SPEC_BYTES, check_int
 from ..observables import length_unit as canonical_length_unit
 from ..states import LABEL_CONVENTIONS
 from ..units import energy_unit as canonical_energy_unit
@@ -262,7 +262,8 @@ def _check_studies_available(rd: _Reader, key: tuple, section: str, function: st
                             "does not provide; remove the section")
 
 
-def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool = False) -> RunSpec:
+def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool = False,
+              max_bytes: int = MAX_SPEC_BYTES) -> RunSpec:
     """Read and check a run spec.
 
     Parameters
@@ -276,6 +277,8 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
         report every such error (:class:`SpecErrors`, one per line) instead
         of the first; errors in the top-level settings still stop at once
         (the rest depends on them). ``boundkit run --dry-run`` uses this.
+    max_bytes : int
+        Largest file (or ``text``) accepted, in bytes (:data:`boundkit._checks.MAX_SPEC_BYTES`).
 
     Returns
     -------
@@ -290,6 +293,15 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
     """
     path = Path(path)
     errs = _Errors(all_errors)
+    max_bytes = check_int("max_bytes", max_bytes, minimum=1)
+    try:
+        size = path.stat().st_size if text is None else len(text.encode("utf-8"))
+    except OSError as exc:
+        raise ValueError(f"run spec {path}: cannot read it ({exc.strerror or exc})") from None
+    if size > max_bytes:
+        raise ValueError(f"run spec {path}: {size} bytes, more than the limit of {max_bytes} for a spec (a few kB of "
+                         "settings in practice); keep long notes in a file of their own, or raise the limit with "
+                         "max_bytes= (API)")
     if text is None:
         try:
             text = path.read_text(encoding="utf-8")
