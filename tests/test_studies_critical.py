@@ -389,6 +389,18 @@ def test_sign_probe_of_an_expression_logs_no_warning(caplog):
     assert all(p["value"] > 0 for p in res.points)
 
 
+def test_a_partial_solve_is_not_counted_as_absent():
+    """Finite differences miss the square-well 2s at V0 = 11.11 (status partial: the count certificate
+    failed), where it is bound (threshold 9 pi^2 / 8 = 11.1033 for R = 1, mu = 1: sqrt(2 V0) R = 3 pi / 2;
+    standard). Counting that as 'absent' closed a false bracket."""
+    from boundkit.potentials.expression import ExpressionTerm
+
+    assert 9 * math.pi**2 / 8 < 11.11
+    with pytest.raises(ValueError, match=r"bound at both of V0 = 11.2 and 11.11"):
+        critical("schrodinger", ExpressionTerm("where(r<1,-V0,0)", {"V0": 20}), {"V0": 20}, state="2s",
+                 vary="V0", bracket=(11.2, 11.11), method="finite-difference", max_evaluations=4)
+
+
 def test_critical_value_beyond_a_value_the_solver_refuses_is_reported():
     # 0*sqrt(D - 1) makes V not a number for D < 1, which the solver refuses; the 1s unbinds at D ~ 0.84
     # (above), beyond that wall: the search closes in on it and says so
@@ -399,3 +411,26 @@ def test_critical_value_beyond_a_value_the_solver_refuses_is_reported():
         critical("schrodinger", ExpressionTerm("-Z*exp(-r/D)/r + 0*sqrt(D-1)", {"Z": 1, "D": 2}),
                  {"Z": 1, "D": 2}, state="1s", vary="D")
 
+
+def test_a_point_neither_method_can_decide_stops_the_search(monkeypatch):
+    import dataclasses
+    import sys
+
+    crit = sys.modules["boundkit.studies.critical"]       # the package's name 'critical' is the function
+
+    real = crit.solve_channel
+    calls = []
+
+    def partial(eq, pot, disc, levels, tol):      # a solve whose count certificate failed, level missing
+        calls.append(disc.family)
+        res = real(eq, pot, disc, levels, tol)
+        return dataclasses.replace(res, levels=(), status="partial",
+                                   message=f"found 0 of {levels} requested bound levels: example")
+
+    monkeypatch.setattr(crit, "solve_channel", partial)
+    with pytest.raises(StudyError, match=r"neither method can tell whether 1s is bound at screening_length = 5: "
+                                         r"the spectral solve is partial \(found 0 of 1 requested bound levels: "
+                                         r"example\), and so is the finite-difference one .* the search stops "
+                                         r"rather than count it as absent. Give a bracket"):
+        critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 5}, state="1s", vary="screening_length")
+    assert calls == ["spectral", "finite-difference"]

@@ -6,11 +6,14 @@ with the energy predicted from the points already found, and refined with
 the solver's own per-level machinery (see
 :func:`boundkit.studies._common.seeded_level`); when that fails the plain
 solver is tried too. A point where neither finds the level counts as one
-where the level does not exist. The critical value comes from inverse
-polynomial extrapolation of the parameter against a threshold variable that
-vanishes linearly (or, for l > 0, quadratically) at the critical point, and
-is accepted only when successive extrapolations agree to ``tol`` and a
-point just past it has no level.
+where the level does not exist -- unless the solver's answer is ``partial``
+(its count of levels could not be certified): that is no evidence of
+absence, so the point is solved again with the other method family, and the
+search stops with a message if that cannot tell either. The critical value
+comes from inverse polynomial extrapolation of the parameter against a
+threshold variable that vanishes linearly (or, for l > 0, quadratically) at
+the critical point, and is accepted only when successive extrapolations
+agree to ``tol`` and a point just past it has no level.
 
 The search runs in a coordinate that respects the parameter's range: a
 parameter the potential accepts only with one sign (a screening length, a
@@ -387,6 +390,10 @@ class _SolverRefused(StudyError):
     """The solver refused a parameter value met during the search (the potential was built)."""
 
 
+class _Undecided(StudyError):
+    """Neither method family could decide whether the level is bound at a parameter value."""
+
+
 # BLAS single-threaded, as boundkit.solver.solve_channel runs: the matrices are small, and two
 # searches side by side ran five times slower with threads (measured)
 @inside(one_blas_thread)
@@ -457,7 +464,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         (or absent) at both ends, a start value where the level is absent.
     StudyError
         The solver refused the start value (or a bracket end); the critical
-        value lies beyond a value the potential or the solver refuses.
+        value lies beyond a value the potential or the solver refuses;
+        neither method family can tell whether the level is bound at a
+        value met during the search.
 
     Notes
     -----
@@ -483,6 +492,13 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     nearest bound value and the wall. When the estimate still lies beyond a
     setup refusal, or beyond a solver refusal closer than 1e-3 of the way
     to it, the search stops with a StudyError naming the refused value.
+
+    Undecided points. A solver answer ``partial`` (the count certificate
+    failed, so fewer levels came back than are bound) without the level is
+    not taken as "absent": the point is solved again with the other method
+    family (spectral for finite differences, and the reverse), whose result
+    is used (``points[i]['via']`` says so, as does the message); if that is
+    partial too, the search stops with a StudyError.
 
     Start. At a start where the level is bound, a step of 2 per cent of x
     on either side gives the direction in which s falls. At a start where it
@@ -584,6 +600,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                          f"(kind='dive'); this search is kind={kind!r}; leave beyond out")
 
     points: list[dict] = []
+    # the other method family, asked where a solve is partial (its count certificate failed)
+    other = get_method("finite-difference" if disc.family == "spectral" else "spectral")
+    retried_at: list[float] = []       # values solved again with it
 
     def evaluate(p: float, seeds: tuple = (), plain: bool = True) -> dict:
         """Solve at p: from each seed energy in turn, then (if ``plain``) with the plain solver."""
@@ -610,10 +629,25 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             if got is None and (plain or not tried):
                 res = solve_channel(eq, pot, disc, k + 1, energy_tol)
                 lv = next((x for x in res.levels if x.nodes == k), None)
+                via = "solver"
+                if lv is None and res.status == "partial":
+                    # the count certificate failed: no evidence that the level is absent. Ask the
+                    # other method family; if it cannot tell either, the point is undecided.
+                    res2 = solve_channel(eq, pot, other, k + 1, energy_tol)
+                    retried_at.append(float(p))
+                    lv = next((x for x in res2.levels if x.nodes == k), None)
+                    via = f"solver ({other.name}, after {disc.name} was partial)"
+                    log.info("critical %s: %s = %.15g: %s solve partial (%s); %s: %s", label, vary, p, disc.name,
+                             res.message, other.name, res2.message)
+                    if lv is None and res2.status == "partial":
+                        raise _Undecided(
+                            f"neither method can tell whether {label} is bound at {vary} = {p:.12g}: the "
+                            f"{disc.name} solve is partial ({res.message}), and so is the {other.name} one "
+                            f"({res2.message}); the search stops rather than count it as absent. Give a "
+                            "bracket (bracket=, --bracket) whose ends avoid this value, or a looser energy_tol")
                 if lv is not None:
                     got = {"energy": lv.energy, "error_estimate": lv.error_estimate,
                            "r_max": float(lv.state.r[-1])}
-                    via = "solver"
         except ValueError as exc:
             last = min((r for r in points if r["found"]), key=lambda r: r["s"], default=None)
             where = (f"; the level was last found at {vary} = {last['value']:.12g} with E = "
@@ -882,6 +916,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     else:
         message = (f"the extrapolations did not agree to tol = {tol:g} within {len(points)} evaluations; "
                    f"best estimate {best:.12g} +- {unc:.2g}{pu}")
+    retried = len(retried_at)
+    if retried:
+        message += (f"; {retried} point(s) solved with {other.name} where the {disc.name} solve was partial "
+                    "(its count of levels not certified)")
     if status != "ok":
         log.warning("critical %s: %s", label, message)
     mc2 = near["mc2"]
@@ -892,6 +930,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                 "threshold_variable": "sqrt(-E)" if kind == "unbind" else "E + 2 m c^2",
                 "seconds": time.perf_counter() - t0}
     settings.pop("terms", None)
+    if retried_at:
+        settings["partial_solves_retried"] = {"method": other.name, "values": retried_at}
     clean = []
     for r in points:
         clean.append({k_: r.get(k_) for k_ in ("value", "found", "energy", "error_estimate", "via", "r_max",
