@@ -135,3 +135,18 @@ def test_compare_with_its_relativistic_channels_refused_says_it_in_one_short_lin
                                "Klein-Gordon equation a point Coulomb charge needs Z alpha < l + 1/2"), lines[0]
     assert lines[0].endswith("; 2 more: dirac kappa=-1 error, dirac kappa=1 error"), lines[0]
     assert not [r.getMessage() for r in caplog.records if r.levelno >= logging.WARNING]   # no second line
+
+
+def test_critical_range_of_an_expression_is_searched_without_warnings():
+    """--vary D of an --expr used to step D linearly below 0, where the solver refused it: exit 3. The
+    1s of -exp(-r/D)/r unbinds at D = 0.8399038867 bohr (built-in yukawa term; the independent
+    integration in test_studies_critical.py), also from the bracket 5,0.5, whose sign probe at D = -5
+    warned 'not finite ... taken as V -> 0'."""
+    for extra in ((), ("--bracket", "5,0.5")):
+        res = run("critical", "--expr", "-Z*exp(-r/D)/r", "--param", "Z=1", "--param", "D=5", "--state", "1s",
+                  "--vary", "D", "--json", *extra)
+        assert res.exit_code == 0, res.output
+        assert "not finite" not in res.output
+        data = json.loads(res.stdout)
+        assert data["value"] == pytest.approx(0.83990388669824, abs=1e-10)
+        assert all(p["value"] > 0 for p in data["points"])

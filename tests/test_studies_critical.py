@@ -333,3 +333,104 @@ def test_dived_level_followed_beyond_keeps_the_callers_labels():
     assert res.state == "0s1/2"
     assert [b.label for b in res.beyond] == ["0s1/2"] and res.beyond[0].status == "ok"
     assert res.to_dict()["beyond"][0]["label"] == "0s1/2"
+
+
+# --- range parameters of expressions; solver refusals; undecided points ----------------------
+def test_expression_screening_length_is_searched_geometrically():
+    """An expression's range parameter was stepped linearly, past 0, into a value the solver refused
+    (D = -1.4: V not finite far out), and the refusal aborted the search."""
+    from boundkit.potentials.expression import ExpressionTerm
+
+    ref = _yukawa_1s_critical_screening_length()     # independent zero-energy integration (above)
+    res = critical("schrodinger", ExpressionTerm("-Z*exp(-r/D)/r", {"Z": 1, "D": 5}), {"Z": 1, "D": 5},
+                   state="1s", vary="D")
+    assert res.status == "ok", res.message
+    assert abs(res.value - ref) <= 1e-9
+    assert all(p["value"] > 0 for p in res.points)
+
+
+def test_expression_exponential_well_range_unbinds_at_the_bessel_zero():
+    # V = -V0 exp(-r/a), mu = 1: the s-wave zero-energy solution is J_0(2 a sqrt(2 V0) exp(-r/(2a))), so the
+    # 1s unbinds where 2 a sqrt(2 V0) = j_{0,1}, the first zero of J_0 (standard; scipy.special.jn_zeros)
+    from scipy.special import jn_zeros
+
+    from boundkit.potentials.expression import ExpressionTerm
+
+    V0 = 1.0
+    a_c = float(jn_zeros(0, 1)[0]) / (2 * math.sqrt(2 * V0))
+    res = critical("schrodinger", ExpressionTerm("-V0*exp(-r/a)", {"V0": V0, "a": 5}), {"V0": V0, "a": 5},
+                   state="1s", vary="a")
+    assert res.status == "ok", res.message
+    assert res.value == pytest.approx(a_c, rel=1e-8)
+    assert all(p["value"] > 0 for p in res.points)
+
+
+def test_solver_refusal_during_the_search_is_a_wall_not_an_abort():
+    # square well, mu = 1: the 2p appears where sqrt(2 V0) R = pi (zero of j_0; standard). The radius R is
+    # stepped linearly (V = 0 at R < 0 is a valid potential), the search reaches R < 0 and the solver
+    # refuses it ("too weak to bind anything"): that value is a wall, and the search narrows from R > 0.
+    from boundkit.potentials.expression import ExpressionTerm
+
+    V0 = 5.0
+    res = critical("schrodinger", ExpressionTerm("where(r<R,-V0,0)", {"V0": V0, "R": 3}), {"V0": V0, "R": 3},
+                   state="2p", vary="R")
+    assert res.status == "ok", res.message
+    assert res.value == pytest.approx(math.pi / math.sqrt(2 * V0), abs=1e-9)
+
+
+def test_sign_probe_of_an_expression_logs_no_warning(caplog):
+    # the search never visits D < 0; the probe that decides so must not warn about V at D = -5
+    from boundkit.potentials.expression import ExpressionTerm
+
+    with caplog.at_level("WARNING"):
+        res = critical("schrodinger", ExpressionTerm("-Z*exp(-r/D)/r", {"Z": 1, "D": 5}), {"Z": 1, "D": 5},
+                       state="1s", vary="D", bracket=(5, 0.5), max_evaluations=4)
+    assert not [r for r in caplog.records if "not finite" in r.getMessage()]
+    assert all(p["value"] > 0 for p in res.points)
+
+
+def test_a_partial_solve_is_not_counted_as_absent():
+    """Finite differences miss the square-well 2s at V0 = 11.11 (status partial: the count certificate
+    failed), where it is bound (threshold 9 pi^2 / 8 = 11.1033 for R = 1, mu = 1: sqrt(2 V0) R = 3 pi / 2;
+    standard). Counting that as 'absent' closed a false bracket."""
+    from boundkit.potentials.expression import ExpressionTerm
+
+    assert 9 * math.pi**2 / 8 < 11.11
+    with pytest.raises(ValueError, match=r"bound at both of V0 = 11.2 and 11.11"):
+        critical("schrodinger", ExpressionTerm("where(r<1,-V0,0)", {"V0": 20}), {"V0": 20}, state="2s",
+                 vary="V0", bracket=(11.2, 11.11), method="finite-difference", max_evaluations=4)
+
+
+def test_critical_value_beyond_a_value_the_solver_refuses_is_reported():
+    # 0*sqrt(D - 1) makes V not a number for D < 1, which the solver refuses; the 1s unbinds at D ~ 0.84
+    # (above), beyond that wall: the search closes in on it and says so
+    from boundkit.potentials.expression import ExpressionTerm
+
+    with pytest.raises(StudyError, match=r"1s is still bound at D = 1\.000\d* and would unbind near 0\.8\d*, "
+                                         r"beyond D = 0\.99\d*, which the solver refuses \(potential: not finite"):
+        critical("schrodinger", ExpressionTerm("-Z*exp(-r/D)/r + 0*sqrt(D-1)", {"Z": 1, "D": 2}),
+                 {"Z": 1, "D": 2}, state="1s", vary="D")
+
+
+def test_a_point_neither_method_can_decide_stops_the_search(monkeypatch):
+    import dataclasses
+    import sys
+
+    crit = sys.modules["boundkit.studies.critical"]       # the package's name 'critical' is the function
+
+    real = crit.solve_channel
+    calls = []
+
+    def partial(eq, pot, disc, levels, tol):      # a solve whose count certificate failed, level missing
+        calls.append(disc.family)
+        res = real(eq, pot, disc, levels, tol)
+        return dataclasses.replace(res, levels=(), status="partial",
+                                   message=f"found 0 of {levels} requested bound levels: example")
+
+    monkeypatch.setattr(crit, "solve_channel", partial)
+    with pytest.raises(StudyError, match=r"neither method can tell whether 1s is bound at screening_length = 5: "
+                                         r"the spectral solve is partial \(found 0 of 1 requested bound levels: "
+                                         r"example\), and so is the finite-difference one .* the search stops "
+                                         r"rather than count it as absent. Give a bracket"):
+        critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 5}, state="1s", vary="screening_length")
+    assert calls == ["spectral", "finite-difference"]

@@ -6,25 +6,34 @@ with the energy predicted from the points already found, and refined with
 the solver's own per-level machinery (see
 :func:`boundkit.studies._common.seeded_level`); when that fails the plain
 solver is tried too. A point where neither finds the level counts as one
-where the level does not exist. The critical value comes from inverse
-polynomial extrapolation of the parameter against a threshold variable that
-vanishes linearly (or, for l > 0, quadratically) at the critical point, and
-is accepted only when successive extrapolations agree to ``tol`` and a
-point just past it has no level.
+where the level does not exist -- unless the solver's answer is ``partial``
+(its count of levels could not be certified): that is no evidence of
+absence, so the point is solved again with the other method family, and the
+search stops with a message if that cannot tell either. The critical value
+comes from inverse polynomial extrapolation of the parameter against a
+threshold variable that vanishes linearly (or, for l > 0, quadratically) at
+the critical point, and is accepted only when successive extrapolations
+agree to ``tol`` and a point just past it has no level.
 
 The search runs in a coordinate that respects the parameter's range: a
 parameter the potential accepts only with one sign (a screening length, a
 range) is stepped geometrically, x = ln|p|, so that no step reaches 0 or
-crosses it; others linearly, x = p. From a start where the level is absent
-the search looks on both sides in growing steps for a value where it is
-bound. The reported uncertainty is the extrapolation's, never below a few
-ulp of the value and never above what the found/absent bracket guarantees.
+crosses it; others linearly, x = p. A parameter keeps its sign when the
+potential refuses -p, or when -p makes it not finite far out where p does
+not (a range in an expression, exp(-r/a) with a < 0). A value that the
+potential or the solver refuses during the search is a wall the search does
+not cross; it narrows from the side where the level is bound. From a start
+where the level is absent the search looks on both sides in growing steps
+for a value where it is bound. The reported uncertainty is the
+extrapolation's, never below a few ulp of the value and never above what the
+found/absent bracket guarantees.
 """
 from __future__ import annotations
 
 import logging
 import math
 import time
+import warnings
 from dataclasses import dataclass, field, replace
 from typing import Any, Mapping
 
@@ -291,13 +300,21 @@ class _Axis:
 
     @classmethod
     def probe(cls, build, p: float) -> "_Axis":
-        """The axis of a parameter whose value p is accepted: geometric if -p is refused."""
+        """The axis of a parameter whose value p is accepted: geometric if the potential refuses -p,
+        or if -p makes it not finite far out (r = 1e3..1e5 bohr) where p does not (a range or a
+        screening length in an expression: exp(-r/D) overflows for D < 0). The potential's own
+        warnings about the trial value -p, which the search never visits, are kept out of the log."""
         if p == 0:
             return cls(0)
-        try:
-            build(-p)
-        except ValueError:
-            return cls(1 if p > 0 else -1)
+        keep = cls(1 if p > 0 else -1)
+        quiet = _Quiet()
+        with quiet:
+            try:
+                _, pot_minus, _ = build(-p)
+            except ValueError:
+                return keep
+        if not _finite_far(pot_minus) and _finite_far(build(p)[1]):
+            return keep
         return cls(0)
 
     @property
@@ -331,8 +348,50 @@ class _Axis:
         return [h * 4**j for j in range(6)]
 
 
+_FAR_RADII = np.array([1e3, 1e4, 1e5])
+
+
+def _finite_far(pot) -> bool:
+    """Whether the potential (vector and scalar) is finite at r = 1e3, 1e4, 1e5 bohr."""
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        try:
+            values = np.concatenate([np.ravel(pot.V(_FAR_RADII)), np.ravel(pot.S(_FAR_RADII))])
+        except (ValueError, ArithmeticError):
+            return False
+    return bool(np.all(np.isfinite(values)))
+
+
+class _Quiet(logging.Filter):
+    """Context manager: drops the potentials' log records while a trial value is built."""
+
+    _name = "boundkit.potentials"
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        return not record.name.startswith(self._name)
+
+    def __enter__(self) -> "_Quiet":
+        self._loggers = [logging.getLogger(n) for n in list(logging.root.manager.loggerDict)
+                         if n == self._name or n.startswith(self._name + ".")]
+        for lg in self._loggers:
+            lg.addFilter(self)
+        return self
+
+    def __exit__(self, *exc) -> None:
+        for lg in self._loggers:
+            lg.removeFilter(self)
+
+
 class _Refused(StudyError):
     """The potential refused a parameter value met during the search (outside its range)."""
+
+
+class _SolverRefused(StudyError):
+    """The solver refused a parameter value met during the search (the potential was built)."""
+
+
+class _Undecided(StudyError):
+    """Neither method family could decide whether the level is bound at a parameter value."""
 
 
 # BLAS single-threaded, as boundkit.solver.solve_channel runs: the matrices are small, and two
@@ -404,7 +463,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         Bad input: a malformed state label, a bracket with the level bound
         (or absent) at both ends, a start value where the level is absent.
     StudyError
-        The solver refused a parameter value met during the search.
+        The solver refused the start value (or a bracket end); the critical
+        value lies beyond a value the potential or the solver refuses;
+        neither method family can tell whether the level is bound at a
+        value met during the search.
 
     Notes
     -----
@@ -419,11 +481,24 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     vanishes linearly at the critical charge, p - p_c = a_1 s + a_2 s^2 + ...
 
     Search coordinate. A parameter whose opposite value the potential
-    refuses (a screening length, a range: it must keep its sign) is
-    searched in x = ln(p / sign p), so steps are factors and never reach 0;
-    any other parameter in x = p. Targets, steps and bisections are taken in
-    x; a value the potential refuses during the search becomes a wall that
-    the search does not cross.
+    refuses, or makes not finite at r = 1e3..1e5 bohr where the start value
+    does not (a screening length, a range, also in an expression or a model
+    file: it must keep its sign), is searched in x = ln(p / sign p), so
+    steps are factors and never reach 0; any other parameter in x = p.
+    Targets, steps and bisections are taken in x. A value that the
+    potential (at setup) or the solver refuses during the search (say a
+    well radius R < 0, a potential that binds nothing) becomes a wall that
+    the search does not cross: the next value is halfway between the
+    nearest bound value and the wall. When the estimate still lies beyond a
+    setup refusal, or beyond a solver refusal closer than 1e-3 of the way
+    to it, the search stops with a StudyError naming the refused value.
+
+    Undecided points. A solver answer ``partial`` (the count certificate
+    failed, so fewer levels came back than are bound) without the level is
+    not taken as "absent": the point is solved again with the other method
+    family (spectral for finite differences, and the reverse), whose result
+    is used (``points[i]['via']`` says so, as does the message); if that is
+    partial too, the search stops with a StudyError.
 
     Start. At a start where the level is bound, a step of 2 per cent of x
     on either side gives the direction in which s falls. At a start where it
@@ -525,6 +600,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                          f"(kind='dive'); this search is kind={kind!r}; leave beyond out")
 
     points: list[dict] = []
+    # the other method family, asked where a solve is partial (its count certificate failed)
+    other = get_method("finite-difference" if disc.family == "spectral" else "spectral")
+    retried_at: list[float] = []       # values solved again with it
 
     def evaluate(p: float, seeds: tuple = (), plain: bool = True) -> dict:
         """Solve at p: from each seed energy in turn, then (if ``plain``) with the plain solver."""
@@ -551,17 +629,33 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             if got is None and (plain or not tried):
                 res = solve_channel(eq, pot, disc, k + 1, energy_tol)
                 lv = next((x for x in res.levels if x.nodes == k), None)
+                via = "solver"
+                if lv is None and res.status == "partial":
+                    # the count certificate failed: no evidence that the level is absent. Ask the
+                    # other method family; if it cannot tell either, the point is undecided.
+                    res2 = solve_channel(eq, pot, other, k + 1, energy_tol)
+                    retried_at.append(float(p))
+                    lv = next((x for x in res2.levels if x.nodes == k), None)
+                    via = f"solver ({other.name}, after {disc.name} was partial)"
+                    log.info("critical %s: %s = %.15g: %s solve partial (%s); %s: %s", label, vary, p, disc.name,
+                             res.message, other.name, res2.message)
+                    if lv is None and res2.status == "partial":
+                        raise _Undecided(
+                            f"neither method can tell whether {label} is bound at {vary} = {p:.12g}: the "
+                            f"{disc.name} solve is partial ({res.message}), and so is the {other.name} one "
+                            f"({res2.message}); the search stops rather than count it as absent. Give a "
+                            "bracket (bracket=, --bracket) whose ends avoid this value, or a looser energy_tol")
                 if lv is not None:
                     got = {"energy": lv.energy, "error_estimate": lv.error_estimate,
                            "r_max": float(lv.state.r[-1])}
-                    via = "solver"
         except ValueError as exc:
             last = min((r for r in points if r["found"]), key=lambda r: r["s"], default=None)
             where = (f"; the level was last found at {vary} = {last['value']:.12g} with E = "
                      f"{last['energy']:.6g} hartree" if last else "")
-            err = StudyError(f"the solver refused {vary} = {p:.12g}: {exc}{where}. The critical value "
-                             "cannot be reached through this point")
+            err = _SolverRefused(f"the solver refused {vary} = {p:.12g}: {exc}{where}. The critical value "
+                                 "cannot be reached through this point")
             err.reason = f"the solver refused {vary} = {p:.6g} ({exc})"
+            err.short = f"{vary} = {p:.6g}, which the solver refuses ({exc})"
             raise err from None
         if got is not None:
             E = float(got["energy"])
@@ -616,10 +710,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     wall = None        # nearest x in the search direction where the potential refused the value
 
     def try_evaluate(x: float, **kw) -> dict | None:
-        """evaluate at p(x); None when the potential refuses the value."""
+        """evaluate at p(x); None when the potential or the solver refuses the value."""
         try:
             return evaluate(p_of(x), **kw)
-        except _Refused:
+        except (_Refused, _SolverRefused):
             return None
 
     if bracket is not None:
@@ -779,6 +873,16 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                 raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would unbind near "
                                  f"{best:.6g}, beyond the parameter's range: {exc}") from None
             continue
+        except _SolverRefused as exc:
+            # a value the solver refuses (e.g. a potential that binds nothing, or is not finite where the
+            # mesh reaches): a wall too; the search narrows from the side where the level is bound, and
+            # gives up only once it has closed in on the wall with the estimate still beyond it
+            wall = tx
+            if x_best is not None and (x_best - wall) * direction >= 0 and \
+                    abs(wall - x_in) <= 1e-3 * abs(x_best - x_in):
+                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would unbind near "
+                                 f"{best:.6g}, beyond {exc.short}") from None
+            continue
         if not rec["found"] and (p_out is None or ahead(p_out, target) > 0):
             p_out = target
     fp = found_points()
@@ -812,6 +916,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     else:
         message = (f"the extrapolations did not agree to tol = {tol:g} within {len(points)} evaluations; "
                    f"best estimate {best:.12g} +- {unc:.2g}{pu}")
+    retried = len(retried_at)
+    if retried:
+        message += (f"; {retried} point(s) solved with {other.name} where the {disc.name} solve was partial "
+                    "(its count of levels not certified)")
     if status != "ok":
         log.warning("critical %s: %s", label, message)
     mc2 = near["mc2"]
@@ -822,6 +930,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                 "threshold_variable": "sqrt(-E)" if kind == "unbind" else "E + 2 m c^2",
                 "seconds": time.perf_counter() - t0}
     settings.pop("terms", None)
+    if retried_at:
+        settings["partial_solves_retried"] = {"method": other.name, "values": retried_at}
     clean = []
     for r in points:
         clean.append({k_: r.get(k_) for k_ in ("value", "found", "energy", "error_estimate", "via", "r_max",
