@@ -312,3 +312,18 @@ def test_a_fine_table_is_not_called_coarse(caplog):
         term = TabulatedTerm(r, _hulthen(r), tail="exponential")
     assert term.interpolation_spread < 1e-10
     assert not any("uncertain by" in m for m in caplog.messages)
+
+
+def test_a_table_of_zeros_is_named_in_the_refusal():
+    """V = 0 at every point: the refusal said 'check the parameters', which a table has none of (a tester)."""
+    r = np.geomspace(1e-3, 10, 50)
+    with pytest.raises(ValueError, match=r"too weak to bind anything .* V = 0 everywhere binds nothing\); check the "
+                                         r"parameters or the table's values"):
+        boundkit.solve("schrodinger", TabulatedTerm(r, np.zeros_like(r), tail="zero"), None, l=0)
+
+
+def test_the_unsteady_tail_warning_gives_its_unit(caplog):
+    r = np.geomspace(1e-3, 10, 50)
+    with caplog.at_level(logging.WARNING, logger="boundkit.potentials.tabulated"):
+        TabulatedTerm(r, -np.exp(-r) / r)          # tail 'coulomb' on a screened tail: r V falls off there
+    assert any(re.search(r"r V is not steady over the last three points \(.* hartree bohr\)", m) for m in caplog.messages)

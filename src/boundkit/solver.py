@@ -195,7 +195,8 @@ def _natural_length(eq: RadialEquation, pot: Potential) -> float:
     if np.max(strength) >= 1e-3:
         return float(r[np.argmax(strength)])
     raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr "
-                     "(2 m r^2 |V| stays below 1e-3); check the parameters")
+                     "(2 m r^2 |V| stays below 1e-3; V = 0 everywhere binds nothing); check the parameters or the "
+                     "table's values")
 
 
 def _outer_radius(eq: RadialEquation, pot: Potential, E: float, L: float) -> float:

@@ -471,7 +471,7 @@ class TabulatedTerm(Term):
 
     def _warn_unsteady(self, r, y, which: str, option: str) -> None:
         if abs(y[0] - y[-1]) > 1e-3 * max(float(np.max(np.abs(y))), 1e-300):
-            log.warning("%s: r V is not steady over the %s three points (%s); %s assumes it is",
+            log.warning("%s: r V is not steady over the %s three points (%s hartree bohr); %s assumes it is",
                         self.label, which, ", ".join(f"{x:.6g}" for x in y), option)
 
     def _fit_decay(self, r: np.ndarray, v: np.ndarray) -> float:
