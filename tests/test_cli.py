@@ -60,6 +60,7 @@ def test_repeatable_potential_terms_add():
         (("--potential", "bar"), "unknown potential 'bar'"),
         (("--param", "Z"), "malformed; write NAME=VALUE"),
         (("--param", "Z=abc"), "is not a number"),
+        (("--param", "Z=1_0"), "'1_0' has an underscore in the number; write the digits without it"),   # read as 10
         (("--param", "Q=1"), "no potential term takes parameter 'Q'"),
         (("-e", "dirac", "--kappa", "0"), "kappa: must be a non-zero integer"),
         (("--kappa", "-1"), "kappa: only the Dirac equation takes kappa; give l for schrodinger"),

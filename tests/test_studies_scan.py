@@ -15,6 +15,12 @@ from boundkit.studies.figures import scan_figure
 
 
 # --- grid helpers and channels --------------------------------------------------------------
+def test_parse_vary_refuses_underscores_in_numbers():
+    """Python's float reads 1_0 as 10; a tester's --vary Z=1_0 scanned Z = 10 without a word."""
+    with pytest.raises(ValueError, match=r"vary: 'Z=1_0,2' has an underscore in a number; write the digits"):
+        parse_vary("Z=1_0,2")
+
+
 def test_parse_vary_forms():
     assert parse_vary("D=1:3:3") == ("D", [1.0, 2.0, 3.0])
     name, vals = parse_vary("D=1:100:3:log")

@@ -70,6 +70,8 @@ def parse_params(items: tuple[str, ...]) -> dict[str, float]:
         name = unicodedata.normalize("NFKC", name.strip())
         if not eq or not name or not value.strip():
             fail(f"--param {item!r} is malformed; write NAME=VALUE, for example --param Z=1")
+        if "_" in value:    # Python reads 1_0 as 10: a typo would pass unseen
+            fail(f"--param {item!r}: {value.strip()!r} has an underscore in the number; write the digits without it")
         try:
             x = float(value)
         except ValueError:

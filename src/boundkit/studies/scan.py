@@ -81,6 +81,8 @@ def parse_vary(text: str, max_points: int = MAX_GRID_POINTS) -> tuple[str, list[
     hint = "write NAME=START:STOP:N, NAME=START:STOP:N:log or NAME=v1,v2,v3"
     if not eq or not name or not rhs:
         raise ValueError(f"vary: {text!r} is malformed; {hint}")
+    if "_" in rhs:      # Python reads 1_0 as 10: a typo would pass unseen
+        raise ValueError(f"vary: {text!r} has an underscore in a number; write the digits without it")
     try:
         if ":" in rhs:
             parts = [p.strip() for p in rhs.split(":")]
