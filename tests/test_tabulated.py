@@ -327,3 +327,12 @@ def test_the_unsteady_tail_warning_gives_its_unit(caplog):
     with caplog.at_level(logging.WARNING, logger="boundkit.potentials.tabulated"):
         TabulatedTerm(r, -np.exp(-r) / r)          # tail 'coulomb' on a screened tail: r V falls off there
     assert any(re.search(r"r V is not steady over the last three points \(.* hartree bohr\)", m) for m in caplog.messages)
+
+
+def test_a_binary_file_is_called_binary_not_one_column(tmp_path):
+    """A binary file read as a table was told 'expected 2 columns, found 1' (a tester)."""
+    f = tmp_path / "data.bin"
+    f.write_bytes(bytes(range(256)) * 4)
+    with pytest.raises(ValueError, match=r"line 1: not UTF-8 text \(a binary file, or another encoding: save it as "
+                                         r"UTF-8\); a table is plain"):
+        read_table(f)

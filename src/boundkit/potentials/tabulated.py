@@ -190,6 +190,9 @@ def _lines(fh, name: str):
         if len(raw) > MAX_LINE and not raw.endswith("\n"):
             raise ValueError(f"potential file {name!r}, line {lineno} is longer than {MAX_LINE} characters; a data "
                              "line holds two numbers, r and V")
+        if "\ufffd" in raw or "\x00" in raw:      # bytes that are not UTF-8 (read with errors='replace'), or NUL
+            raise ValueError(f"potential file {name!r}, line {lineno}: not UTF-8 text (a binary file, or another "
+                             "encoding: save it as UTF-8); a table is plain text, one point 'r V' per line")
         yield lineno, raw.rstrip("\r\n")
 
 
