@@ -150,3 +150,22 @@ def test_critical_range_of_an_expression_is_searched_without_warnings():
         data = json.loads(res.stdout)
         assert data["value"] == pytest.approx(0.83990388669824, abs=1e-10)
         assert all(p["value"] > 0 for p in data["points"])
+
+
+# --- one-line messages for input with no critical value -------------------------------------
+def _one_line_error(res, pattern):
+    import re
+
+    assert res.exit_code == 2, res.output
+    assert "Traceback" not in res.output
+    assert res.exception is None or isinstance(res.exception, SystemExit)
+    lines = res.output.strip().splitlines()
+    assert len(lines) == 1, res.output
+    assert re.search(pattern, lines[0]), lines[0]
+
+
+def test_critical_names_the_parameters_when_no_term_takes_the_varied_one():
+    res = run("critical", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=5", "--state", "1s",
+              "--vary", "Q")
+    _one_line_error(res, r"^boundkit: error: vary: no term of the potential takes 'Q'; its terms take Z, "
+                         r"screening_length$")

@@ -434,3 +434,20 @@ def test_a_point_neither_method_can_decide_stops_the_search(monkeypatch):
                                          r"rather than count it as absent. Give a bracket"):
         critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 5}, state="1s", vary="screening_length")
     assert calls == ["spectral", "finite-difference"]
+
+
+# --- messages for input that has no critical value ------------------------------------------
+@pytest.mark.parametrize("bracket", [None, (1.0, 2.0)])
+def test_a_parameter_that_no_term_takes_is_named_with_those_the_terms_take(bracket):
+    with pytest.raises(ValueError, match=r"^vary: no term of the potential takes 'Q'; its terms take Z, "
+                                         r"screening_length$"):
+        critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 5}, state="1s", vary="Q",
+                 bracket=bracket)
+
+
+def test_a_parameter_that_no_expression_takes_is_named():
+    from boundkit.potentials.expression import ExpressionTerm
+
+    term = ExpressionTerm("-Z*exp(-r/a)/r", {"Z": 1.0, "a": 5.0})
+    with pytest.raises(ValueError, match=r"no term of the potential takes 'b'; its terms take Z, a$"):
+        critical("schrodinger", term, {}, state="1s", vary="b")
