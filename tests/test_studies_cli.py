@@ -169,3 +169,9 @@ def test_critical_names_the_parameters_when_no_term_takes_the_varied_one():
               "--vary", "Q")
     _one_line_error(res, r"^boundkit: error: vary: no term of the potential takes 'Q'; its terms take Z, "
                          r"screening_length$")
+
+
+def test_critical_of_a_schrodinger_coulomb_level_says_it_never_unbinds():
+    res = run("critical", "--param", "Z=1", "--state", "1s", "--vary", "Z")
+    _one_line_error(res, r"stays bound for any charge > 0, down to 0\+: 1s never unbinds, there is no critical Z")
+    assert "diving" not in res.output

@@ -590,6 +590,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         p_start = float(params[vary])
     eq0, pot0, settings0 = build(p_start)          # bad input surfaces here as ValueError
     l_channel = eq0.l                              # orbital l of the (large) component
+    if kind is None and eqname == "schrodinger" and pot0.tail_charge > 0:
+        raise ValueError(f"potential: with a Coulomb tail (charge {pot0.tail_charge:g}) a Schrodinger level stays "
+                         f"bound for any charge > 0, down to 0+: {label} never unbinds, there is no critical {vary}; "
+                         "screen the potential (e.g. yukawa) or use the Dirac equation, whose levels dive")
     if kind is None:
         kind = "dive" if pot0.tail_charge > 0 else "unbind"
     if pot0.confining:
