@@ -175,3 +175,17 @@ def test_critical_of_a_schrodinger_coulomb_level_says_it_never_unbinds():
     res = run("critical", "--param", "Z=1", "--state", "1s", "--vary", "Z")
     _one_line_error(res, r"stays bound for any charge > 0, down to 0\+: 1s never unbinds, there is no critical Z")
     assert "diving" not in res.output
+
+
+@pytest.mark.parametrize("args", [
+    ("critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--state", "1s", "--vary", "rms_fm",
+     "--bracket", "1,5"),
+    ("critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--state", "1s", "--vary", "rms_fm"),
+    ("scan", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--vary", "rms_fm=1,2", "-n", "1",
+     "--workers", "1"),
+])
+def test_varying_rms_fm_under_an_rms_rule_names_the_real_conflict(args):
+    res = run(*args, "--rms-rule", "1.2,2.5")
+    _one_line_error(res, r"^boundkit: error: --vary rms_fm: --rms-rule computes rms_fm from Z at every point, so "
+                         r"rms_fm cannot be varied; drop --rms-rule, or vary Z$")
+    assert "--param" not in res.output
