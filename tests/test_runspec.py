@@ -586,3 +586,40 @@ def test_a_spec_larger_than_the_limit_is_refused_before_it_is_read(tmp_path):
     assert load_spec(spec, max_bytes=2_000_000).title == "big"
     res = CliRunner().invoke(main, ["run", str(spec), "--dry-run"])
     assert res.exit_code == 2 and "more than the limit of 1000000" in res.output and "Traceback" not in res.output
+
+
+# ----------------------------------------------------------------------------------------------
+# [critical]: bracket order, repeated entries, the unit in the report
+# ----------------------------------------------------------------------------------------------
+_HULTHEN_1S = """\
+title = "t"
+description = "d"
+[models.h]
+terms = ["hulthen"]
+params = { Z = 1.0, delta = 0.5 }
+[critical]
+model = "h"
+parameter = "delta"
+states = ["1s"]
+bracket = BRACKET
+workers = 1
+"""
+
+
+@pytest.mark.parametrize("bracket", ["[1.0, 3.0]", "[3.0, 1.0]"])
+def test_critical_bracket_in_either_order_as_the_api_takes_it(tmp_path, bracket):
+    # Hulthen 1s (Z = 1) unbinds at delta = 2 Z / n^2 = 2 (Flugge 1971, from memory)
+    path = write(tmp_path, _HULTHEN_1S.replace("BRACKET", bracket))
+    spec = load_spec(path)
+    assert spec.critical[0].bracket == tuple(json.loads(bracket))
+    report = run(path, tmp_path / "o")
+    assert report.success, report.problems
+    data = json.loads((tmp_path / "o" / "results.json").read_text())
+    assert data["critical"][0]["states"][0]["value"] == pytest.approx(2.0, rel=1e-7)
+
+
+def test_critical_bracket_of_two_equal_values_is_refused(tmp_path):
+    text = _HULTHEN_1S.replace("BRACKET", "[2.0, 2.0]")
+    with pytest.raises(ValueError, match=rf"line {line_of(text, 'bracket')}, key 'critical.bracket': write two "
+                                         r"different numbers, e.g. \[0.5, 20.0\] \(either order\)$"):
+        load_spec(write(tmp_path, text))

@@ -485,8 +485,8 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
                     raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
                                                         f"or \"{st}3/2\"")
             bracket = rd.get(s, key, "bracket", "list:number", None)
-            if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
-                raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
+            if bracket is not None and (len(bracket) != 2 or bracket[0] == bracket[1]):
+                raise rd.error(key + ("bracket",), "write two different numbers, e.g. [0.5, 20.0] (either order)")
             kind = rd.get(s, key, "kind", "str", None)
             if kind is not None and kind not in ("unbind", "dive"):
                 raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
