@@ -623,3 +623,35 @@ def test_critical_bracket_of_two_equal_values_is_refused(tmp_path):
     with pytest.raises(ValueError, match=rf"line {line_of(text, 'bracket')}, key 'critical.bracket': write two "
                                          r"different numbers, e.g. \[0.5, 20.0\] \(either order\)$"):
         load_spec(write(tmp_path, text))
+
+
+@pytest.mark.parametrize("equations, states, key, message", [
+    ('["schrodinger"]', '["1s", "2s", "1s"]', "critical.states[2]", r"'1s' is listed twice \(first at line 8\)"),
+    ('["dirac"]', '["1s", "1s1/2"]', "critical.states[1]", r"'1s1/2' is the same dirac level as '1s' \(line 8\)"),
+    ('["schrodinger"]', '["2p1/2", "2p3/2"]', "critical.states[1]",
+     r"'2p3/2' is the same schrodinger level as '2p1/2' \(line 8; the schrodinger equation has no j\)"),
+])
+def test_a_critical_state_listed_twice_is_refused_at_load(tmp_path, equations, states, key, message):
+    text = ('title = "t"\ndescription = "d"\nequations = EQ\n[models.y]\nterms = ["yukawa"]\n'
+            'params = { Z = 1.0, screening_length = 50.0 }\n[critical]\nstates = STATES\nmodel = "y"\n'
+            ).replace("EQ", equations).replace("STATES", states)
+    assert line_of(text, "states =") == 8
+    with pytest.raises(ValueError, match=rf"^run spec \S+, line 8, key '{re.escape(key)}': {message}.*list it once$"):
+        load_spec(write(tmp_path, text))
+    res = CliRunner().invoke(main, ["run", str(tmp_path / "spec.toml"), "--dry-run"])
+    assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1, res.output
+    assert key in res.output
+
+
+@pytest.mark.parametrize("old, new, key", [
+    ("[solve]\n", '[solve]\nmodels = ["h", "h"]\n', "solve.models[1]"),
+    ("[solve]\n", '[solve]\nequations = ["dirac", "Dirac"]\n', "solve.equations[1]"),
+    ('equations = ["schrodinger"]', 'equations = ["schrodinger", "schrodinger"]', "equations[1]"),
+    ('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s", { l = 1 }, "p"]', "channels[2]"),
+])
+def test_an_entry_listed_twice_in_other_lists_is_refused_at_load(tmp_path, old, new, key):
+    assert old in HYDROGEN
+    text = HYDROGEN.replace(old, new)
+    with pytest.raises(ValueError, match=rf"key '{re.escape(key)}': .*(listed twice|the same channel as).*"
+                                         r"list it once$"):
+        load_spec(write(tmp_path, text))
