@@ -655,3 +655,16 @@ def test_an_entry_listed_twice_in_other_lists_is_refused_at_load(tmp_path, old, 
     with pytest.raises(ValueError, match=rf"key '{re.escape(key)}': .*(listed twice|the same channel as).*"
                                          r"list it once$"):
         load_spec(write(tmp_path, text))
+
+
+def test_report_names_the_parameter_unit_when_every_critical_state_failed(tmp_path):
+    # a bracket with 1s bound at both ends: the only state fails before any result
+    text = ('title = "t"\ndescription = "d"\n[models.y]\nterms = ["yukawa"]\n'
+            'params = { Z = 1.0, screening_length = 5.0 }\n[critical]\nmodel = "y"\nstates = ["1s"]\n'
+            'bracket = [2.0, 3.0]\nworkers = 1\n')
+    report = run(write(tmp_path, text), tmp_path / "o")
+    assert not report.success
+    md = (tmp_path / "o" / "report.md").read_text()
+    assert "units of its own" not in md
+    assert "(table `critical.csv`; screening_length in bohr)" in md
+    assert "| state | critical screening_length (bohr) | details |" in md
