@@ -586,3 +586,85 @@ def test_a_spec_larger_than_the_limit_is_refused_before_it_is_read(tmp_path):
     assert load_spec(spec, max_bytes=2_000_000).title == "big"
     res = CliRunner().invoke(main, ["run", str(spec), "--dry-run"])
     assert res.exit_code == 2 and "more than the limit of 1000000" in res.output and "Traceback" not in res.output
+
+
+# ----------------------------------------------------------------------------------------------
+# [critical]: bracket order, repeated entries, the unit in the report
+# ----------------------------------------------------------------------------------------------
+_HULTHEN_1S = """\
+title = "t"
+description = "d"
+[models.h]
+terms = ["hulthen"]
+params = { Z = 1.0, delta = 0.5 }
+[critical]
+model = "h"
+parameter = "delta"
+states = ["1s"]
+bracket = BRACKET
+workers = 1
+"""
+
+
+@pytest.mark.parametrize("bracket", ["[1.0, 3.0]", "[3.0, 1.0]"])
+def test_critical_bracket_in_either_order_as_the_api_takes_it(tmp_path, bracket):
+    # Hulthen 1s (Z = 1) unbinds at delta = 2 Z / n^2 = 2 (Flugge 1971, from memory)
+    path = write(tmp_path, _HULTHEN_1S.replace("BRACKET", bracket))
+    spec = load_spec(path)
+    assert spec.critical[0].bracket == tuple(json.loads(bracket))
+    report = run(path, tmp_path / "o")
+    assert report.success, report.problems
+    data = json.loads((tmp_path / "o" / "results.json").read_text())
+    assert data["critical"][0]["states"][0]["value"] == pytest.approx(2.0, rel=1e-7)
+
+
+def test_critical_bracket_of_two_equal_values_is_refused(tmp_path):
+    text = _HULTHEN_1S.replace("BRACKET", "[2.0, 2.0]")
+    with pytest.raises(ValueError, match=rf"line {line_of(text, 'bracket')}, key 'critical.bracket': write two "
+                                         r"different numbers, e.g. \[0.5, 20.0\] \(either order\)$"):
+        load_spec(write(tmp_path, text))
+
+
+@pytest.mark.parametrize("equations, states, key, message", [
+    ('["schrodinger"]', '["1s", "2s", "1s"]', "critical.states[2]", r"'1s' is listed twice \(first at line 8\)"),
+    ('["dirac"]', '["1s", "1s1/2"]', "critical.states[1]", r"'1s1/2' is the same dirac level as '1s' \(line 8\)"),
+    ('["schrodinger"]', '["2p1/2", "2p3/2"]', "critical.states[1]",
+     r"'2p3/2' is the same schrodinger level as '2p1/2' \(line 8; the schrodinger equation has no j\)"),
+])
+def test_a_critical_state_listed_twice_is_refused_at_load(tmp_path, equations, states, key, message):
+    text = ('title = "t"\ndescription = "d"\nequations = EQ\n[models.y]\nterms = ["yukawa"]\n'
+            'params = { Z = 1.0, screening_length = 50.0 }\n[critical]\nstates = STATES\nmodel = "y"\n'
+            ).replace("EQ", equations).replace("STATES", states)
+    assert line_of(text, "states =") == 8
+    with pytest.raises(ValueError, match=rf"^run spec \S+, line 8, key '{re.escape(key)}': {message}.*list it once$"):
+        load_spec(write(tmp_path, text))
+    res = CliRunner().invoke(main, ["run", str(tmp_path / "spec.toml"), "--dry-run"])
+    assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1, res.output
+    assert key in res.output
+
+
+@pytest.mark.parametrize("old, new, key", [
+    ("[solve]\n", '[solve]\nmodels = ["h", "h"]\n', "solve.models[1]"),
+    ("[solve]\n", '[solve]\nequations = ["dirac", "Dirac"]\n', "solve.equations[1]"),
+    ('equations = ["schrodinger"]', 'equations = ["schrodinger", "schrodinger"]', "equations[1]"),
+    ('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s", { l = 1 }, "p"]', "channels[2]"),
+])
+def test_an_entry_listed_twice_in_other_lists_is_refused_at_load(tmp_path, old, new, key):
+    assert old in HYDROGEN
+    text = HYDROGEN.replace(old, new)
+    with pytest.raises(ValueError, match=rf"key '{re.escape(key)}': .*(listed twice|the same channel as).*"
+                                         r"list it once$"):
+        load_spec(write(tmp_path, text))
+
+
+def test_report_names_the_parameter_unit_when_every_critical_state_failed(tmp_path):
+    # a bracket with 1s bound at both ends: the only state fails before any result
+    text = ('title = "t"\ndescription = "d"\n[models.y]\nterms = ["yukawa"]\n'
+            'params = { Z = 1.0, screening_length = 5.0 }\n[critical]\nmodel = "y"\nstates = ["1s"]\n'
+            'bracket = [2.0, 3.0]\nworkers = 1\n')
+    report = run(write(tmp_path, text), tmp_path / "o")
+    assert not report.success
+    md = (tmp_path / "o" / "report.md").read_text()
+    assert "units of its own" not in md
+    assert "(table `critical.csv`; screening_length in bohr)" in md
+    assert "| state | critical screening_length (bohr) | details |" in md

@@ -150,3 +150,42 @@ def test_critical_range_of_an_expression_is_searched_without_warnings():
         data = json.loads(res.stdout)
         assert data["value"] == pytest.approx(0.83990388669824, abs=1e-10)
         assert all(p["value"] > 0 for p in data["points"])
+
+
+# --- one-line messages for input with no critical value -------------------------------------
+def _one_line_error(res, pattern):
+    import re
+
+    assert res.exit_code == 2, res.output
+    assert "Traceback" not in res.output
+    assert res.exception is None or isinstance(res.exception, SystemExit)
+    lines = res.output.strip().splitlines()
+    assert len(lines) == 1, res.output
+    assert re.search(pattern, lines[0]), lines[0]
+
+
+def test_critical_names_the_parameters_when_no_term_takes_the_varied_one():
+    res = run("critical", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=5", "--state", "1s",
+              "--vary", "Q")
+    _one_line_error(res, r"^boundkit: error: vary: no term of the potential takes 'Q'; its terms take Z, "
+                         r"screening_length$")
+
+
+def test_critical_of_a_schrodinger_coulomb_level_says_it_never_unbinds():
+    res = run("critical", "--param", "Z=1", "--state", "1s", "--vary", "Z")
+    _one_line_error(res, r"stays bound for any charge > 0, down to 0\+: 1s never unbinds, there is no critical Z")
+    assert "diving" not in res.output
+
+
+@pytest.mark.parametrize("args", [
+    ("critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--state", "1s", "--vary", "rms_fm",
+     "--bracket", "1,5"),
+    ("critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--state", "1s", "--vary", "rms_fm"),
+    ("scan", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=150", "--vary", "rms_fm=1,2", "-n", "1",
+     "--workers", "1"),
+])
+def test_varying_rms_fm_under_an_rms_rule_names_the_real_conflict(args):
+    res = run(*args, "--rms-rule", "1.2,2.5")
+    _one_line_error(res, r"^boundkit: error: --vary rms_fm: --rms-rule computes rms_fm from Z at every point, so "
+                         r"rms_fm cannot be varied; drop --rms-rule, or vary Z$")
+    assert "--param" not in res.output

@@ -160,7 +160,7 @@ def test_critical_refuses_bad_input():
     with pytest.raises(ValueError, match="Coulomb tail"):
         critical("schrodinger", "coulomb", {"Z": 1}, state="1s", vary="Z", kind="unbind")
     with pytest.raises(ValueError, match="Dirac or Klein-Gordon"):
-        critical("schrodinger", "uniform-sphere", {"Z": 100, "rms_fm": 6.0}, state="1s", vary="Z")
+        critical("schrodinger", "uniform-sphere", {"Z": 100, "rms_fm": 6.0}, state="1s", vary="Z", kind="dive")
     with pytest.raises(ValueError, match="start value"):
         critical("schrodinger", "yukawa", {"Z": 1}, state="1s", vary="screening_length")
     with pytest.raises(ValueError, match="kind: must be"):
@@ -434,3 +434,31 @@ def test_a_point_neither_method_can_decide_stops_the_search(monkeypatch):
                                          r"rather than count it as absent. Give a bracket"):
         critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 5}, state="1s", vary="screening_length")
     assert calls == ["spectral", "finite-difference"]
+
+
+# --- messages for input that has no critical value ------------------------------------------
+@pytest.mark.parametrize("bracket", [None, (1.0, 2.0)])
+def test_a_parameter_that_no_term_takes_is_named_with_those_the_terms_take(bracket):
+    with pytest.raises(ValueError, match=r"^vary: no term of the potential takes 'Q'; its terms take Z, "
+                                         r"screening_length$"):
+        critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 5}, state="1s", vary="Q",
+                 bracket=bracket)
+
+
+def test_a_parameter_that_no_expression_takes_is_named():
+    from boundkit.potentials.expression import ExpressionTerm
+
+    term = ExpressionTerm("-Z*exp(-r/a)/r", {"Z": 1.0, "a": 5.0})
+    with pytest.raises(ValueError, match=r"no term of the potential takes 'b'; its terms take Z, a$"):
+        critical("schrodinger", term, {}, state="1s", vary="b")
+
+
+@pytest.mark.parametrize("potential, params", [("coulomb", {"Z": 1}),
+                                               ("uniform-sphere", {"Z": 100, "rms_fm": 6.0})])
+def test_a_schrodinger_level_with_a_coulomb_tail_never_unbinds(potential, params):
+    # the Schrodinger equation has no lower continuum: say that a Coulomb level stays bound down to
+    # Z -> 0+, not that diving needs a relativistic equation
+    with pytest.raises(ValueError, match=r"a Schrodinger level stays bound for any charge > 0, down to 0\+: "
+                                         r"1s never unbinds, there is no critical Z; screen the potential") as err:
+        critical("schrodinger", potential, params, state="1s", vary="Z")
+    assert "diving" not in str(err.value)

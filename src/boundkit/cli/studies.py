@@ -18,11 +18,15 @@ from .options import (build_potential, channel_options, energy_unit_option, equa
 __all__ = ["scan_cmd", "critical_cmd", "compare_cmd"]
 
 
-def _rms_rule(text: str | None, values: dict) -> None:
-    """--rms-rule R0,A_PER_Z: rms_fm follows Z at every point."""
+def _rms_rule(text: str | None, values: dict, varied=()) -> None:
+    """--rms-rule R0,A_PER_Z: rms_fm follows Z at every point (so it cannot be one of ``varied``)."""
     if text is None:
         return
     from ..studies import NuclearRadius
+
+    if "rms_fm" in varied:
+        fail("--vary rms_fm: --rms-rule computes rms_fm from Z at every point, so rms_fm cannot be varied; "
+             "drop --rms-rule, or vary Z")
 
     parts = [p.strip() for p in str(text).replace(":", ",").split(",")]
     try:
@@ -88,7 +92,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  tuple(params) + first)
-        _rms_rule(rms_rule, values)
+        _rms_rule(rms_rule, values, vary)
         channels = [{"l": x} for x in ls] + [{"kappa": x} for x in kappas] or None
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
@@ -174,7 +178,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  tuple(params) + extra)
-        _rms_rule(rms_rule, values)
+        _rms_rule(rms_rule, values, (vary,))
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
         if beyond is not None:

@@ -89,7 +89,9 @@ def _channels(rd: _Reader, data: dict, key: tuple, default) -> tuple[ChannelSpec
     value = data["channels"]
     if not isinstance(value, list) or not value:
         raise rd.error(key + ("channels",), f"expected a non-empty array of channels, got {_describe(value)}")
-    return tuple(_channel(rd, v, key + ("channels", i)) for i, v in enumerate(value))
+    out = tuple(_channel(rd, v, key + ("channels", i)) for i, v in enumerate(value))
+    _once(rd, key + ("channels",), out, lambda c: (c.l, c.two_j), "channel")
+    return out
 
 
 def _levels(rd: _Reader, data: dict, key: tuple, default: int) -> int:
@@ -157,6 +159,36 @@ def _pairs(rd: _Reader, data: dict, key: tuple) -> tuple[tuple[str, str], ...]:
                                                           "write e.g. \"dirac:1s1/2\"")
         out.append((pair[0].strip(), pair[1].strip()))
     return tuple(out)
+
+
+def _once(rd: _Reader, key: tuple, items, same=lambda x: x, what: str = "entry", note: str = "") -> None:
+    """Refuse an entry of the array ``key`` listed twice (by ``same``): it would be solved twice."""
+    seen: dict = {}
+    for i, item in enumerate(items):
+        k = same(item)
+        if k in seen:
+            j = seen[k]
+            first = rd.lines.find(key + (j,))
+            text = getattr(item, "text", item)
+            other = getattr(items[j], "text", items[j])
+            if text == other:
+                raise rd.error(key + (i,), f"{text!r} is listed twice (first at line {first}); list it once")
+            raise rd.error(key + (i,), f"{text!r} is the same {what} as {other!r} (line {first}{note}); "
+                                       "list it once")
+        seen[k] = i
+
+
+def _state_key(state: str, equation: str, labels: str):
+    """The level a [critical] state names: (nodes, l, j), j only for Dirac (an s state's is 1/2)."""
+    from ..states import parse_label
+
+    try:
+        nodes, l, j = parse_label(state, labels)
+    except ValueError:
+        return state
+    if equation != "dirac":
+        return nodes, l, None
+    return nodes, l, 0.5 if j is None and l == 0 else j
 
 
 def _model_name(rd: _Reader, data: dict, key: tuple, models: dict) -> str:
@@ -364,6 +396,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
     # defaults for the studies
     equations = tuple(_equation(rd, e, ("equations", i))
                       for i, e in enumerate(rd.get(data, (), "equations", "list:str", ["schrodinger"])))
+    _once(rd, ("equations",), equations)
     if not equations:
         raise rd.error(("equations",), "give at least one equation")
     channels = _channels(rd, data, (), (ChannelSpec(l=0, text="s"),))
@@ -396,8 +429,11 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
                 if n not in models:
                     _skip_bad_model(rd, n)
                     raise rd.error(key + ("models", i), f"no model {n!r}; the spec defines {', '.join(models)}")
+            _once(rd, key + ("models",), names)
             eqs = tuple(_equation(rd, e, key + ("equations", i))
                         for i, e in enumerate(rd.get(s, key, "equations", "list:str", list(equations))))
+            if "equations" in s:
+                _once(rd, key + ("equations",), eqs)
             figs = tuple(rd.get(s, key, "figures", "list:str", list(_FIGURES)))
             for i, f in enumerate(figs):
                 if f not in _FIGURES:
@@ -484,9 +520,11 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
                 if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
                     raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
                                                         f"or \"{st}3/2\"")
+            _once(rd, key + ("states",), states, lambda st: _state_key(st, eq, labels), f"{eq} level",
+                  "" if eq == "dirac" else f"; the {eq} equation has no j")
             bracket = rd.get(s, key, "bracket", "list:number", None)
-            if bracket is not None and (len(bracket) != 2 or not bracket[0] < bracket[1]):
-                raise rd.error(key + ("bracket",), "write two increasing numbers, e.g. [0.5, 20.0]")
+            if bracket is not None and (len(bracket) != 2 or bracket[0] == bracket[1]):
+                raise rd.error(key + ("bracket",), "write two different numbers, e.g. [0.5, 20.0] (either order)")
             kind = rd.get(s, key, "kind", "str", None)
             if kind is not None and kind not in ("unbind", "dive"):
                 raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")

@@ -89,13 +89,19 @@ class StudyRunners:
                                      f"{got.get('message', '')}")
         flat = [{k: v for k, v in r.items() if not isinstance(v, (dict, list))} for r in rows]
         p_unit = next((r.get("parameter_unit") for r in rows if r.get("parameter_unit")), "")
+        if not p_unit and not any("error" not in r for r in rows):
+            # every search failed: the unit from the model's own declaration of the parameter
+            from ..studies._common import parameter_units
+
+            p_unit = parameter_units(vector, scalar, [sec.parameter], spec.units)[sec.parameter]
         self.write(f"critical{suffix}.csv", _csv_with_units(flat, None, {"value": p_unit, "uncertainty": p_unit}))
         self.results.setdefault("critical", []).append({"model": sec.model, "equation": sec.equation,
                                                          "parameter": sec.parameter, "units": spec.units,
                                                          "states": rows})
         md = [f"## Critical {sec.parameter}{suffix}", "",
               f"Model {sec.model}, {sec.equation} equation: the value of {sec.parameter} at which each level stops "
-              f"being bound (table `critical{suffix}.csv`; {sec.parameter} in {p_unit or 'units of its own'}). "
+              f"being bound (table `critical{suffix}.csv`" + (f"; {sec.parameter} in {p_unit}" if p_unit else "")
+              + "). "
               "The value is extrapolated to the threshold from the bound points, so its uncertainty is far "
               "smaller than the bracket of solved values around it.", "",
               f"| state | critical {sec.parameter}" + (f" ({p_unit})" if p_unit else "") + " | details |",

@@ -28,7 +28,7 @@ from ..states import parse_label, principal_n
 __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
            "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
            "write_json_atomic", "umask_mode", "identity", "code_version", "ProgressBar", "seeded_level", "expected_labels", "NuclearRadius",
-           "parameter_units"]
+           "parameter_units", "term_parameters"]
 
 log = logging.getLogger(__name__)
 
@@ -244,6 +244,28 @@ def code_version() -> str:
         h.update(str(f.relative_to(root)).encode())
         h.update(f.read_bytes())
     return f"{__version__}+{h.hexdigest()[:16]}"
+
+
+def term_parameters(potential, scalar=None) -> list[str] | None:
+    """Names of the parameters the terms of a potential spec take, sorted; None when that cannot be
+    told (a prebuilt :class:`~boundkit.potentials.Potential`). A built-in name takes its declared
+    parameters, a prebuilt term (an expression too) the values it holds, a Python callable none."""
+    from ..potentials import Potential, _as_list
+
+    names: set = set()
+    for spec in _as_list(potential) + _as_list(scalar):
+        if isinstance(spec, Potential):
+            return None
+        if isinstance(spec, Term):
+            names.update(getattr(spec, "values", {}) or {})
+            continue
+        cls = spec if isinstance(spec, type) and issubclass(spec, Term) else (
+            TERMS.get(spec.strip().lower()) if isinstance(spec, str) else None)
+        if cls is not None:
+            names.update(p.name for p in getattr(cls, "parameters", ()))
+        elif isinstance(spec, str):
+            return None          # an unknown name: the potential's own check says so
+    return sorted(names)
 
 
 def parameter_units(potential, scalar, names: Sequence[str], units: str = "atomic") -> dict[str, str]:

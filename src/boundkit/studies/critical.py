@@ -47,7 +47,7 @@ from .._threads import inside, one_blas_thread
 from ..states import convert_label
 from ..units import C_AU, constants_record
 from ._common import (StudyError, canonical_equation, describe, parameter_units, rebuild_potential,
-                      resolve_params, seeded_level, state_channel)
+                      resolve_params, seeded_level, state_channel, term_parameters)
 
 __all__ = ["critical", "CriticalResult"]
 
@@ -571,6 +571,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         return setup(eqname, rebuild_potential(potential, values, varied), values,
                      scalar=rebuild_potential(scalar, values, varied), **channel, **setup_kwargs)
 
+    taken = term_parameters(potential, scalar)
+    if taken is not None and vary not in taken:
+        raise ValueError(f"vary: no term of the potential takes {vary!r}; its terms take "
+                         f"{', '.join(taken) or 'no parameters'}")
     if bracket is not None:
         try:
             a, b = (float(x) for x in bracket)
@@ -586,6 +590,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         p_start = float(params[vary])
     eq0, pot0, settings0 = build(p_start)          # bad input surfaces here as ValueError
     l_channel = eq0.l                              # orbital l of the (large) component
+    if kind is None and eqname == "schrodinger" and pot0.tail_charge > 0:
+        raise ValueError(f"potential: with a Coulomb tail (charge {pot0.tail_charge:g}) a Schrodinger level stays "
+                         f"bound for any charge > 0, down to 0+: {label} never unbinds, there is no critical {vary}; "
+                         "screen the potential (e.g. yukawa) or use the Dirac equation, whose levels dive")
     if kind is None:
         kind = "dive" if pot0.tail_charge > 0 else "unbind"
     if pot0.confining:
