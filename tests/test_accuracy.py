@@ -109,3 +109,36 @@ def test_validate_quick_passes_and_speaks_json():
     assert all(r["source"] for r in data["cases"])
     orders = [r["observed_order"] for r in data["cases"] if r["method"] == "finite-difference"]
     assert all(abs(o - 8) < 1 for o in orders)
+
+
+def _faulty_solve(kind):
+    """boundkit.solve with one fault planted: a skipped level, estimates of 0, or a status that is not ok."""
+    from dataclasses import replace
+
+    real = boundkit.solve
+
+    def solve(*args, levels=1, **kwargs):
+        if kind == "skip":          # the second level of each channel silently left out
+            res = real(*args, levels=levels + 1, **kwargs)
+            return replace(res, levels=res.levels[:1] + res.levels[2:])
+        res = real(*args, levels=levels, **kwargs)
+        if kind == "estimates":
+            return replace(res, levels=tuple(replace(lv, error_estimate=0.0) for lv in res.levels))
+        return replace(res, status="tolerance-not-met", success=False)
+    return solve
+
+
+@pytest.mark.parametrize("kind, field", [("skip", "out_of_order"), ("estimates", "estimate_misses"),
+                                         ("status", "not_ok")])
+def test_validation_fails_a_solver_that_skips_levels_or_misstates_its_errors(monkeypatch, kind, field):
+    """The validator compared each level with the exact value of its own label and counted only how many
+    came back: a solver that drops the second level of every channel, or reports estimates of 0 and
+    status tolerance-not-met, passed (a tester). Now the k-th level must be the exact k-th one, its
+    true error within twice its estimate, and the status ok."""
+    import boundkit.validate as validate
+
+    monkeypatch.setattr(validate, "solve", _faulty_solve(kind))
+    rows = [r for r in validate.run_validation(quick=True, methods=("spectral",))
+            if r["case"] in ("Schrodinger Coulomb Z=1", "Dirac Coulomb Z=1")]
+    assert rows and not any(r["passed"] for r in rows)
+    assert all(r[field] > 0 for r in rows)

@@ -1,9 +1,14 @@
 """The validator: the exact-case catalogue run with each discretization family.
 
 Each case names its exact formula and where it comes from (see
-:mod:`boundkit.exact`). A case passes when the worst relative error of its
-levels is within the family's tolerance: 1e-12 for the spectral family and
-1e-9 for finite differences (order 8), at the default solver settings.
+:mod:`boundkit.exact`). A case passes when, in every channel, all the levels
+asked for come back, the k-th lowest is the exact k-th level (its error is
+measured against that, not against the level its own label names, so a
+skipped level shows), the worst relative error is within the family's
+tolerance (1e-12 for the spectral family and 1e-9 for finite differences,
+order 8, at the default solver settings), every true error is within
+ESTIMATE_FACTOR times the level's error estimate, and the solve's status
+is ok.
 """
 from __future__ import annotations
 
@@ -18,6 +23,9 @@ from .solver import solve
 __all__ = ["Case", "catalogue", "run_validation"]
 
 TOLERANCE = {"spectral": 1e-12, "finite-difference": 1e-9}
+ESTIMATE_FACTOR = 2.0
+"""A true error may be at most this many times the level's estimate: on the whole catalogue (default
+tol) the worst was 1.14 (spectral, linear potential) and 1.03 (finite differences), measured."""
 
 
 @dataclass(frozen=True)
@@ -131,22 +139,31 @@ def _run(quick, methods) -> list[dict]:
         for method in methods:
             t0 = time.perf_counter()
             worst, resolution, count, missing = 0.0, 0, 0, 0
+            out_of_order = estimate_misses = not_ok = 0
             for channel, levels in case.channels:
                 res = solve(case.equation, case.potential, case.params, levels=levels, method=method,
                             scalar=case.scalar, **channel)
                 missing += levels - len(res.levels)
-                for lv in res.levels:
-                    ex = case.exact(lv)
-                    worst = max(worst, abs(lv.energy - ex) / abs(ex))
+                not_ok += res.status != "ok"
+                for k, lv in enumerate(sorted(res.levels, key=lambda x: x.energy)):
+                    # the k-th lowest against the exact k-th level, whatever its label says
+                    ex = case.exact(_Probe(n=k + lv.l + 1, l=lv.l, kappa=lv.kappa, nodes=k, energy=lv.energy))
+                    err = abs(lv.energy - ex)
+                    out_of_order += lv.nodes != k
+                    estimate_misses += not err <= ESTIMATE_FACTOR * lv.error_estimate
+                    worst = max(worst, err / abs(ex))
                     resolution = max(resolution, lv.resolution)
                     count += 1
             tol = TOLERANCE[method]
             order = _measured_order(case, method)
             rows.append({
                 "case": case.name, "method": method, "levels": count, "missing": missing,
+                "out_of_order": out_of_order, "estimate_misses": estimate_misses, "not_ok": not_ok,
                 "resolution": resolution, "worst_relative_error": worst,
                 "observed_order": order,
-                "tolerance": tol, "passed": bool(worst <= tol and missing == 0),
+                "tolerance": tol,
+                "passed": bool(worst <= tol and missing == 0 and out_of_order == 0 and estimate_misses == 0
+                               and not_ok == 0),
                 "source": case.source, "seconds": round(time.perf_counter() - t0, 2),
             })
     return rows
@@ -154,14 +171,20 @@ def _run(quick, methods) -> list[dict]:
 
 def format_table(rows: list[dict]) -> str:
     head = (f"{'case':<28} {'method':<18} {'levels':>6} {'max N':>6} {'worst rel. err':>14} "
-            f"{'order':>8} {'tol':>7} {'result':>6}")
+            f"{'order':>8} {'tol':>7} {'result':>6}  why")
     lines = [head]
     for r in rows:
         order = r["observed_order"]
         order = f"{order:.1f}" if isinstance(order, float) else ("exp." if order == "spectral" else "-")
+        why = ", ".join(f"{r[key]} {text}" for key, text in (
+            ("missing", "missing"), ("out_of_order", "not the k-th level"),
+            ("estimate_misses", f"error > {ESTIMATE_FACTOR:g} x estimate"), ("not_ok", "status not ok"))
+            if r.get(key))
+        if r["worst_relative_error"] > r["tolerance"]:
+            why = ", ".join(filter(None, ["error above tol", why]))
         lines.append(f"{r['case']:<28} {r['method']:<18} {r['levels']:>6} {r['resolution']:>6} "
                      f"{r['worst_relative_error']:>14.2e} {order:>8} {r['tolerance']:>7.0e} "
-                     f"{'pass' if r['passed'] else 'FAIL':>6}")
+                     f"{'pass' if r['passed'] else 'FAIL':>6}  {why}".rstrip())
     lines.append("")
     lines.append("sources:")
     for src in dict.fromkeys(r["source"] for r in rows):
