@@ -219,3 +219,13 @@ def test_hyperfine_command_errors():
     r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--energy-unit", "furlong")
     assert r.exit_code == 2 and "boundkit: error: energy_unit: unknown unit 'furlong'" in r.output
     assert "Traceback" not in r.output
+
+
+def test_a_states_file_named_with_an_upper_case_suffix_is_written_under_that_name(tmp_path):
+    """--states H.NPZ wrote H.NPZ.npz (numpy appends .npz to a name not ending in lower-case .npz) and
+    said it wrote H.NPZ, which then could not be read back (a tester)."""
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=0, levels=1)
+    path = write_states(res, tmp_path / "H.NPZ")
+    assert path.exists() and not (tmp_path / "H.NPZ.npz").exists()
+    meta, levels = read_states(path)
+    assert meta["levels"][0]["label"] == "1s"

@@ -63,7 +63,8 @@ def write_states(result, path, length_unit: str = "bohr") -> Path:
         for lv in result.levels:
             for name, col in zip(("r", "P", "Q", "density", "weight"), _columns(lv, unit)):
                 arrays[f"{lv.label}/{name}"] = col
-        np.savez(path, meta=np.array(json.dumps(meta)), **arrays)
+        with open(path, "wb") as fh:     # a file object: np.savez would append .npz to a name ending in .NPZ
+            np.savez(fh, meta=np.array(json.dumps(meta)), **arrays)
         return path
     path.write_text(states_csv_text(result, unit, meta))
     return path
