@@ -114,3 +114,12 @@ def test_unreachable_tolerance_prints_levels_and_exits_3():
     assert res.exit_code == 3
     assert "1s1/2" in res.output
     assert "tolerance-not-met" in res.output
+
+
+def test_a_plot_name_too_long_for_the_file_system_is_named_as_the_problem(tmp_path):
+    """--plot with a 300-character name was reported as 'cannot write the output ... redirect it', blaming
+    standard output (a tester): the option and the reason are named, exit 2, nothing computed."""
+    res = run("solve", "--plot", str(tmp_path / ("x" * 300 + ".png")))
+    assert res.exit_code == 2
+    assert re.search(r"--plot '.*': cannot be a file here \(File name too long\); choose a shorter name", res.output)
+    assert "Traceback" not in res.output and "redirect" not in res.output

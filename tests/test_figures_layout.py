@@ -219,3 +219,12 @@ def test_a_convergence_study_without_rows_draws_no_empty_legend(tmp_path):
         warnings.simplefilter("error")
         path = plots.convergence_figure(result, tmp_path / "conv.png")
     assert path.exists()
+
+
+def test_a_title_with_dollar_signs_is_drawn_as_text(tmp_path):
+    """A table file named w$x_\\frac$.txt put its name in the title and matplotlib's math parser failed:
+    the figure was lost (a tester). Titles are plain text now."""
+    import types
+
+    result = types.SimpleNamespace(rows=(), orders={}, equation="schrodinger", potential="table w$x_\\frac$.txt")
+    assert plots.convergence_figure(result, tmp_path / "conv.png").exists()

@@ -35,7 +35,14 @@ def _level_figure(levels, length_unit: str):
 
 
 def save_figure(fig, path) -> Path:
-    """Write ``fig`` atomically (temporary file, then rename) and close it."""
+    """Write ``fig`` atomically (temporary file, then rename) and close it.
+
+    Titles are drawn as plain text: they carry the user's names (a table file called w$x_\\frac$.txt
+    made matplotlib's math parser fail and the figure was lost; a tester). Axis labels keep their math.
+    """
+    titles = [ax.title for ax in fig.axes] + [t for t in (getattr(fig, "_suptitle", None),) if t is not None]
+    for t in titles:
+        t.set_parse_math(False)
     path = Path(path)
     suffix = path.suffix.lower() or ".png"
     if suffix not in _FORMATS:

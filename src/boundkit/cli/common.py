@@ -15,6 +15,8 @@ from pathlib import Path
 
 import click
 
+from .._checks import shorten
+
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
            "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
            "level_count", "parse_params", "report_unit", "report_length", "api_message"]
@@ -109,7 +111,12 @@ def check_plot_path(path: str | None, option: str = "--plot") -> None:
     if path is None:
         return
     p = Path(path)
-    if not p.name or path.endswith(("/", os.sep)) or p.is_dir():
+    try:
+        is_dir = p.is_dir()
+    except OSError as exc:      # a name too long for the file system, say
+        fail(f"{option} {shorten(path, 80)!r}: cannot be a file here ({exc.strerror or exc}); choose a shorter "
+             "name or another folder")
+    if not p.name or path.endswith(("/", os.sep)) or is_dir:
         fail(f"{option} {path!r}: not a file name; write e.g. {option} levels.png")
     if p.suffix and p.suffix.lower() not in _PLOT_FORMATS:
         fail(f"{option} {path!r}: unsupported figure format {p.suffix!r}; use .png, .svg or .pdf")
