@@ -229,3 +229,15 @@ def test_a_states_file_named_with_an_upper_case_suffix_is_written_under_that_nam
     assert path.exists() and not (tmp_path / "H.NPZ.npz").exists()
     meta, levels = read_states(path)
     assert meta["levels"][0]["label"] == "1s"
+
+
+def test_json_and_states_file_give_n_in_the_labels_convention(tmp_path):
+    """--labels nuclear: the JSON said label '0s' with n = 1 (the atomic n) while the table showed n = 0;
+    the states file's metadata likewise (a tester). n follows the label's convention in both."""
+    res = CliRunner().invoke(main, ["solve", "--labels", "nuclear", "--levels", "2", "--json",
+                                    "--states", str(tmp_path / "h.csv")])
+    assert res.exit_code == 0, res.output
+    data, _ = json.JSONDecoder().raw_decode(res.output[res.output.index("{"):])     # stderr's line follows
+    assert [(lv["label"], lv["n"]) for lv in data["levels"]] == [("0s", 0), ("1s", 1)]
+    meta, _ = read_states(tmp_path / "h.csv")
+    assert [(lv["label"], lv["n"]) for lv in meta["levels"]] == [("0s", 0), ("1s", 1)]

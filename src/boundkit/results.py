@@ -19,7 +19,7 @@ from typing import Any
 
 import numpy as np
 
-from .states import check_convention, level_label
+from .states import check_convention, level_label, level_n
 from .units import bohr_to, energy_unit, hartree_to, length_unit, system_units
 
 __all__ = ["RadialState", "Level", "SolveResult"]
@@ -198,7 +198,9 @@ class SolveResult:
 
         Defaults: the unit system of the call (hartree and bohr, or MeV and
         fm). The ``units`` block names the unit of every kind of value,
-        diagnostics included (energies, lengths, times in s).
+        diagnostics included (energies, lengths, times in s). A level's ``n``
+        is that of its label's convention (``settings['labels']``; the
+        principal n for atomic labels), as the printed table shows it.
         """
         e_def, l_def = self.default_units()
         eu = _energy(energy_unit or e_def)
@@ -214,7 +216,8 @@ class SolveResult:
             "message": self.message,
             "levels": [
                 {
-                    "n": lv.n, "l": lv.l, "j": lv.j, "kappa": lv.kappa, "label": lv.label,
+                    "n": level_n(lv.nodes, lv.l, self.settings.get("labels", "atomic")), "l": lv.l, "j": lv.j,
+                    "kappa": lv.kappa, "label": lv.label,
                     "energy": lv.energy_in(eu),
                     "error_estimate": lv.error_in(eu),
                     "nodes": lv.nodes, "resolution": lv.resolution,

@@ -9,6 +9,7 @@ import sys
 import click
 
 from .._checks import MAX_N
+from ..states import level_n
 from .common import EXIT_NOT_CONVERGED, api_message, check_particle, fail, json_default
 from .options import (build_potential, energy_unit_option, equation_option, json_option, labels_option,
                       levels_option, method_option, particle_options, potential_options, tol_option)
@@ -133,7 +134,8 @@ def _magnetic_rows(res, moment: float, spin: float, radius_fm: float | None, uni
         a = hyperfine_a(lv, moment, spin, mass=mass, particle_mass=particle_mass,
                         magnetization_radius=radius_fm, radius_unit="fm", energy_unit=unit)
         top = spin + lv.j          # E(F) - E(F - 1) = A F (the interval rule) at the uppermost F = I + j
-        rows.append({"label": lv.label, "n": lv.n, "kappa": lv.kappa, "j": lv.j, "energy_hartree": lv.energy,
+        rows.append({"label": lv.label, "n": level_n(lv.nodes, lv.l, res.settings.get("labels", "atomic")),
+                     "kappa": lv.kappa, "j": lv.j, "energy_hartree": lv.energy,
                      "g_factor": g.value, "hyperfine_a": a.value, "hyperfine_splitting": a.value * top,
                      "errors": {"g_factor": g.error, "hyperfine_a": a.error,
                                 "hyperfine_splitting": a.error * top}})

@@ -13,7 +13,7 @@ from typing import Any
 
 from ..observables import mean_radius, rms_radius
 from ..reporting import difference_error, format_difference
-from ..states import label_sort_key
+from ..states import label_sort_key, level_n
 from .files import _csv_with_units, _fmt
 from .objects import _EQUATIONS, SolveSection, _channels_for
 
@@ -65,7 +65,8 @@ class SolveRunner:
                         stem = re.sub(r"[^A-Za-z0-9.=+-]+", "_", f"states-{mname}-{eq}-{cname}")
                         self.write(f"{stem}.csv", states_csv_text(res, self.l_unit))
                     for lv in res.levels:
-                        row = {"model": mname, "equation": eq, "channel": cname, "label": lv.label, "n": lv.n,
+                        row = {"model": mname, "equation": eq, "channel": cname, "label": lv.label,
+                               "n": level_n(lv.nodes, lv.l, spec.labels),
                                "l": lv.l, "j": lv.j, "kappa": lv.kappa, "nodes": lv.nodes,
                                "energy": self.E(lv.energy), "error_estimate": self.E(lv.error_estimate),
                                "energy_hartree": lv.energy, "error_hartree": lv.error_estimate,
