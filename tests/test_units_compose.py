@@ -93,3 +93,15 @@ def test_model_file_units_win_over_the_system(tmp_path, builtin_1s, file_units, 
     term, _ = read_model_file(str(path)).build({})
     E = boundkit.solve("schrodinger", term, units=system, particle="proton").levels[0].energy
     assert E == pytest.approx(builtin_1s, rel=1e-8)
+
+
+@pytest.mark.parametrize("name", ["mev", "MEV", "Mev"])
+def test_an_energy_unit_only_the_case_tells_apart_is_refused(name):
+    """--energy-unit mev meant MeV, a factor 1e9 from meV (a tester): a spelling that could be either is
+    refused; the exact ones stay."""
+    from boundkit.units import energy_unit
+
+    with pytest.raises(ValueError, match=rf"energy_unit: '{name}' could be meV or MeV \(a factor 1e\+09 apart\); "
+                                         "write it with its exact case"):
+        energy_unit(name)
+    assert energy_unit("meV") == "meV" and energy_unit("MeV") == "MeV" and energy_unit("ev") == "eV"

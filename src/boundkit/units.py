@@ -146,12 +146,21 @@ ENERGY_UNITS: Mapping[str, float] = {
     "THz": HARTREE_J / sc.h / 1e12,
 }
 _UNIT_ALIASES = {u.lower(): u for u in ENERGY_UNITS} | {"ha": "hartree", "hartrees": "hartree", "cm-1": "cm^-1", "1/cm": "cm^-1"}
+_AMBIGUOUS = {low: tuple(u for u in ENERGY_UNITS if u.lower() == low) for low in _UNIT_ALIASES
+              if sum(u.lower() == low for u in ENERGY_UNITS) > 1}
+"""Spellings that only the case tells apart (mev: meV or MeV, a factor 1e9): refused unless exact."""
 
 
 def energy_unit(name: str) -> str:
     """Return the canonical spelling of an energy unit, or raise ValueError."""
     # exact spelling first: "meV" and "MeV" differ only in case
-    key = str(name) if str(name) in ENERGY_UNITS else _UNIT_ALIASES.get(str(name).lower())
+    if str(name) in ENERGY_UNITS:
+        return str(name)
+    both = _AMBIGUOUS.get(str(name).lower())
+    if both:
+        raise ValueError(f"energy_unit: {name!r} could be {' or '.join(both)} (a factor "
+                         f"{ENERGY_UNITS[both[0]] / ENERGY_UNITS[both[1]]:.0e} apart); write it with its exact case")
+    key = _UNIT_ALIASES.get(str(name).lower())
     if key is None:
         raise ValueError(
             f"energy_unit: unknown unit {name!r}; choose one of {', '.join(ENERGY_UNITS)}"

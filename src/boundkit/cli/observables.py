@@ -9,7 +9,6 @@ import sys
 import click
 
 from .._checks import MAX_N
-from ..states import level_n
 from .common import EXIT_NOT_CONVERGED, api_message, check_particle, fail, json_default
 from .options import (build_potential, energy_unit_option, equation_option, json_option, labels_option,
                       levels_option, method_option, particle_options, potential_options, tol_option)
@@ -126,6 +125,8 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
 def _magnetic_rows(res, moment: float, spin: float, radius_fm: float | None, unit: str) -> list[dict]:
     """g and A of every level of a Dirac result (public API calls only)."""
     from ..observables import g_factor, hyperfine_a, masses_of
+
+    from ..states import level_n
 
     mass, particle_mass = masses_of(res)
     rows = []
