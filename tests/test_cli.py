@@ -123,3 +123,18 @@ def test_a_plot_name_too_long_for_the_file_system_is_named_as_the_problem(tmp_pa
     assert res.exit_code == 2
     assert re.search(r"--plot '.*': cannot be a file here \(File name too long\); choose a shorter name", res.output)
     assert "Traceback" not in res.output and "redirect" not in res.output
+
+
+def test_a_plot_path_under_a_file_and_a_name_without_suffix(tmp_path, monkeypatch):
+    """--plot a.png/x.png with a.png a file said '(File exists)' after solving; a name without a suffix was
+    written as name.png without a word (a tester). The first is refused before solving (exit 2, one line),
+    the second names the file written."""
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "a.png").write_text("not a folder")
+    res = run("solve", "--plot", "a.png/x.png")
+    assert res.exit_code == 2
+    assert re.search(r"--plot 'a.png/x.png': 'a.png' is a file, not a folder; choose another folder", res.output)
+    assert "level" not in res.output              # nothing solved
+    res = run("solve", "--plot", "fig")
+    assert res.exit_code == 0, res.output
+    assert "figure: fig.png" in res.output and (tmp_path / "fig.png").exists()

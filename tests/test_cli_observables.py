@@ -35,7 +35,7 @@ def test_solve_observables_json_has_the_keys_and_values():
 def test_solve_observables_dirac_table_shows_g():
     r = run("solve", "-e", "dirac", "-p", "coulomb", "--param", "Z=20", "-n", "1", "--observables")
     assert r.exit_code == 0, r.output
-    assert "expectation values (lengths in bohr" in r.output
+    assert "expectation values (<r>, r_rms in bohr, <1/r> in 1/bohr;" in r.output
     assert "g" in r.output.splitlines()[-2]
     r = run("solve", "-e", "dirac", "-n", "1", "--observables", "--json")
     assert "g_factor" in json.loads(r.output)["levels"][0]["observables"]
@@ -241,3 +241,16 @@ def test_json_and_states_file_give_n_in_the_labels_convention(tmp_path):
     assert [(lv["label"], lv["n"]) for lv in data["levels"]] == [("0s", 0), ("1s", 1)]
     meta, _ = read_states(tmp_path / "h.csv")
     assert [(lv["label"], lv["n"]) for lv in meta["levels"]] == [("0s", 0), ("1s", 1)]
+
+
+def test_the_header_says_when_the_reduced_mass_is_used():
+    """With --nucleus-mass-mev the header named only the particle's mass (a tester); it now gives the reduced
+    mass m M / (m + M) too (standard), here electron and proton (CODATA, scipy.constants)."""
+    import scipy.constants as sc
+
+    me, mp = (sc.physical_constants[k][0] for k in ("electron mass energy equivalent in MeV",
+                                                     "proton mass energy equivalent in MeV"))
+    r = CliRunner().invoke(main, ["solve", "--nucleus-mass-mev", repr(mp)])
+    assert r.exit_code == 0, r.output
+    first = r.output.splitlines()[0]
+    assert f"reduced mass {me * mp / (me + mp):.9g} MeV/c^2 with a nucleus of {mp:.9g} MeV/c^2" in first

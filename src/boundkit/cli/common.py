@@ -118,6 +118,9 @@ def check_plot_path(path: str | None, option: str = "--plot") -> None:
              "name or another folder")
     if not p.name or path.endswith(("/", os.sep)) or is_dir:
         fail(f"{option} {path!r}: not a file name; write e.g. {option} levels.png")
+    blocking = next((a for a in p.parents if a.exists() and not a.is_dir()), None)
+    if blocking is not None:
+        fail(f"{option} {path!r}: {str(blocking)!r} is a file, not a folder; choose another folder")
     if p.suffix and p.suffix.lower() not in _PLOT_FORMATS:
         fail(f"{option} {path!r}: unsupported figure format {p.suffix!r}; use .png, .svg or .pdf")
 

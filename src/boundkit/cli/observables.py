@@ -27,7 +27,8 @@ def observables_table(res, length_unit: str) -> str:
     """Rows of <r>, r_rms, <1/r> (and g for Dirac) with their error estimates."""
     obs = _observables(res, length_unit)
     dirac = any(o.g_factor is not None for o in obs)
-    head = [f"expectation values (lengths in {length_unit}; +- the change from the previous resolution)"]
+    head = [f"expectation values (<r>, r_rms in {length_unit}, <1/r> in 1/{length_unit}; +- the change from the "
+            "previous resolution)"]
     if any(o.note for o in obs):
         head.append(f"density: {obs[0].note}")
     cols = f"{'level':<8} {'<r>':>22} {'r_rms':>22} {'<1/r>':>22}" + (f" {'g':>22}" if dirac else "")

@@ -34,14 +34,16 @@ def _mesh(res) -> str:
 
 def _table(res, unit: str, length: str = "bohr") -> str:
     from ..states import level_n
-    from ..units import bohr_to, hartree_to
+    from ..units import ELECTRON_MASS_MEV, bohr_to, hartree_to
 
     s = res.settings
     labels = s.get("labels", "atomic")
     d = res.diagnostics
     head = [
         f"{res.equation} equation, potential {res.potential}, particle {s.get('particle')} "
-        f"({s.get('particle_mass_MeV'):.9g} MeV/c^2)",
+        f"({s.get('particle_mass_MeV'):.9g} MeV/c^2)"
+        + (f", reduced mass {s['mass_atomic_units'] * ELECTRON_MASS_MEV:.9g} MeV/c^2 with a nucleus of "
+           f"{s['nucleus_mass_MeV']:.9g} MeV/c^2" if s.get("nucleus_mass_MeV") is not None else ""),
         f"method {s['method']['method']}{_mesh(res)}, tol {s['tol']:g} (relative), "
         f"alpha = {res.constants['alpha']:.13g} (CODATA)",
         f"binding energies (total minus rest energy) in {unit}; {_CONVENTION[labels]}",
@@ -151,9 +153,11 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     if plot_path and res.levels:
         from ..plots import radial_figure
 
-        outputs_ok = write_figure(lambda p: radial_figure(
-            res.levels, p, length_unit=length, title=f"{res.equation}: {res.potential}"), plot_path) is not None \
-            and outputs_ok
+        written = write_figure(lambda p: radial_figure(
+            res.levels, p, length_unit=length, title=f"{res.equation}: {res.potential}"), plot_path)
+        if written is not None:
+            click.echo(f"figure: {written}", err=True)      # the name may have gained .png
+        outputs_ok = written is not None and outputs_ok
     if not res.success:
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
