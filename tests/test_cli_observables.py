@@ -22,7 +22,7 @@ def test_solve_observables_json_has_the_keys_and_values():
     r = run("solve", "-e", "schrodinger", "--l", "1", "-n", "2", "--tol", "1e-13", "--observables", "--json")
     assert r.exit_code == 0, r.output
     data = json.loads(r.output)
-    assert data["units"]["length"] == "bohr"
+    assert data["units"]["length"] == "bohr" and data["units"]["inverse_length"] == "1/bohr"   # <1/r>
     for lv in data["levels"]:
         n = lv["n"]
         obs = lv["observables"]

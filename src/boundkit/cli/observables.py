@@ -40,8 +40,10 @@ def observables_table(res, length_unit: str) -> str:
 
 
 def add_observables(record: dict, res, length_unit: str) -> dict:
-    """Give each level of a JSON record its ``observables`` (values in ``units.length``)."""
+    """Give each level of a JSON record its ``observables`` (<r>, r_rms in ``units.length``, <1/r> in
+    ``units.inverse_length``)."""
     record.setdefault("units", {})["length"] = length_unit
+    record["units"]["inverse_length"] = f"1/{length_unit}"
     for entry, o in zip(record["levels"], _observables(res, length_unit)):
         entry["observables"] = o.to_dict()
     return record
