@@ -802,3 +802,13 @@ def test_a_jump_whose_own_radius_has_a_third_value():
             err = _off_mod_pi(d, mpmath.atan(k * u / du) - 1.5 * k)
         assert err <= est, (e, err, est)
         assert err < 3e-13, (e, err)      # read one ulp inside the piece: 7.6e-13 at E = 8 (9e-14 now)
+
+
+def test_a_phase_shift_status_message_quotes_energies_in_the_unit_of_the_call():
+    """Status messages (not refusals) gave energies in hartree whatever energy_unit the call used (a helper):
+    a neutron at 10 MeV on a Woods-Saxon well, tol far below rounding, says 'E = 10 MeV'."""
+    res = boundkit.scattering.phase_shifts([10.0], "schrodinger", "woods-saxon",
+                                           {"depth": 50, "radius": 4, "diffuseness": 0.6}, l=0, particle="neutron",
+                                           units="nuclear", energy_unit="MeV", tol=1e-16)
+    assert res.status == "tolerance-not-met"
+    assert re.search(r"error estimate \S+ rad at E = 10 MeV exceeds tol = 1e-16", res.message)

@@ -224,14 +224,17 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
                             units, j, hard_core)
     _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit), _length_unit(units))
     _check_barrier(ch, E, max_eta, canonical_unit(energy_unit))
-    return _tabulate(ch, E, tol, estimate_error, settings, t0)
+    return _tabulate(ch, E, tol, estimate_error, settings, t0, canonical_unit(energy_unit))
 
 
-def _tabulate(ch: Channel, E: np.ndarray, tol: float, estimate: bool, settings: dict, t0: float) -> PhaseShifts:
-    return _assemble(ch, E, *_phases_at(ch, E, tol, estimate), tol, estimate, settings, t0)
+def _tabulate(ch: Channel, E: np.ndarray, tol: float, estimate: bool, settings: dict, t0: float,
+              unit: str = "hartree") -> PhaseShifts:
+    return _assemble(ch, E, *_phases_at(ch, E, tol, estimate), tol, estimate, settings, t0, unit)
 
 
-def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings, t0) -> PhaseShifts:
+def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings, t0,
+              unit: str = "hartree") -> PhaseShifts:
+    """The result; energies in its messages in ``unit`` (the caller's)."""
     eq = ch.eq
     delta = [m.delta for m in matches]
     theta = [m.ref.theta for m in matches]
@@ -249,10 +252,11 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
     if unreached:
         status, msg = "range-not-reached", (
             f"the short-range part of the potential is still not negligible at the largest radius tried "
-            f"(first energy affected: {unreached[0]:.4g} hartree); the tail was cut there")
+            f"(first energy affected: {unreached[0] * ENERGY_UNITS[unit]:.4g} {unit}); the tail was cut there")
     elif estimate and np.any(err > tol):
         i = int(np.argmax(err))
-        status, msg = "tolerance-not-met", (f"error estimate {err[i]:.2g} rad at E = {E[i]:.4g} hartree "
+        status, msg = "tolerance-not-met", (f"error estimate {err[i]:.2g} rad at "
+                                            f"E = {E[i] * ENERGY_UNITS[unit]:.4g} {unit} "
                                             f"exceeds tol = {tol:g}")
     elif worst_residual > 0.05:
         status, msg = "branch-uncertain", (f"the node count and the matched phase disagree by "
