@@ -17,8 +17,8 @@ import numpy as np
 
 from ._threads import one_blas_thread
 from .discretize import FiniteDifference, get_method
-from .solver import prepare_channel, setup, solve_channel
-from ._checks import MAX_LEVELS, check_count, check_int, check_positive
+from .solver import check_levels, prepare_channel, setup, solve_channel
+from ._checks import MAX_LEVELS, check_int, check_positive
 
 __all__ = ["converge", "ConvergenceResult", "observed_order"]
 
@@ -126,8 +126,7 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
     ``levels`` is at most ``max_levels`` (:data:`boundkit._checks.MAX_LEVELS`, as for
     :func:`boundkit.solve`). Returns a :class:`ConvergenceResult`.
     """
-    check_count("levels", check_int("levels", levels, minimum=1), check_int("max_levels", max_levels, minimum=1),
-                "max_levels= (API)", "", keyword="max_levels")
+    check_levels(check_int("levels", levels, minimum=1), max_levels)     # a number: no 'all' here
     with one_blas_thread():
         return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs)
 

@@ -77,7 +77,8 @@ def _meta(result, unit: str) -> dict:
         "units": {"r": unit, "P": f"{unit}^-1/2", "Q": f"{unit}^-1/2", "density": f"1/{unit}",
                   "weight": unit, "energy": "hartree"},
         "density": _density_note(result.equation),
-        "levels": [{"label": lv.label, "n": level_n(lv.nodes, lv.l, result.settings.get("labels", "atomic")), "l": lv.l, "kappa": lv.kappa, "energy_hartree": lv.energy,
+        "levels": [{"label": lv.label, "n": level_n(lv.nodes, lv.l, result.settings.get("labels", "atomic")),
+                    "l": lv.l, "kappa": lv.kappa, "energy_hartree": lv.energy,
                     "gamma": lv.state.gamma} for lv in result.levels],
         "note": "P = r x (large radial component), Q = r x (small component, Dirac); values on the solver's "
                 "nodes; weight integrates over r",

@@ -64,6 +64,12 @@ def save_figure(fig, path) -> Path:
     return path
 
 
+def say_empty(ax, text: str) -> None:
+    """Write ``text`` across axes that have no curve to show, in place of a legend (matplotlib warns
+    of a legend without labels)."""
+    ax.text(0.5, 0.5, text, transform=ax.transAxes, ha="center", va="center", fontsize=9, color="0.4")
+
+
 def convergence_figure(result, path):
     """Log-log plot of relative error against resolution for each level and family."""
     fig, ax = plt.subplots(figsize=(6.4, 4.4))
@@ -82,9 +88,8 @@ def convergence_figure(result, path):
     ax.set_title(f"{result.equation}: {result.potential}")
     if keys:
         ax.legend(fontsize=8)
-    else:       # no size gave a level: say so (matplotlib would warn of a legend without labels)
-        ax.text(0.5, 0.5, "no level at any resolution (see the table's status)", transform=ax.transAxes,
-                ha="center", va="center", fontsize=9, color="0.4")
+    else:
+        say_empty(ax, "no level at any resolution (see the table's status)")
     ax.grid(True, which="both", alpha=0.3)
     return save_figure(fig, path)
 

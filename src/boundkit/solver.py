@@ -47,7 +47,8 @@ from .mesh import LogMap
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
 from .states import count_nodes, normalise, principal_n
-from .units import C_AU, ELECTRON_MASS_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to
+from .units import (C_AU, ELECTRON_MASS_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to,
+                    system_units)
 from ._checks import MAX_LEVELS, check_choice, check_count, check_int, check_positive
 
 __all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation", "check_levels"]
@@ -1355,7 +1356,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
             what += f" ({levels} requested)"
         if "count_box" in extra:
             R = extra["count_box"]
-            eu, lu = ("MeV", "fm") if (settings or {}).get("units") == "nuclear" else ("hartree", "bohr")
+            eu, lu = system_units((settings or {}).get("units", "atomic"))
             what += (f"; a level bound by less than about {hartree_to(1 / (2 * eq.mass * R * R), eu):.1g} {eu} "
                      f"(1/(2 m R^2) on the counting box, R = {bohr_to(R, lu):.3g} {lu}) is not counted")
         message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"

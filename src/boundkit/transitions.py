@@ -317,7 +317,6 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
     m_f = mass if particle_mass is None else particle_mass
     k = omega / C_AU
     SV = long_a = None
-    lower_res = _previous(upper), _previous(lower)
     if equation in ("schrodinger", "klein-gordon"):
         if multipole != "E1":
             raise ValueError(f"multipole: only E1 is computed for the {equation} equation")
@@ -333,22 +332,18 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
         J = 1
     elif equation == "dirac":
         J = int(multipole[1])
-        if multipole[0] == "E":
-            q = _dirac_q(upper, lower, J, k, "E-length")
-            if q == 0.0:
-                return None
-            S = q * q
-            S_prev = None if None in lower_res else _dirac_q(*lower_res, J, k, "E-length") ** 2
-            S_err = math.inf if S_prev is None else max(abs(S - S_prev), 2e-14 * S)
+        kind = "E-length" if multipole[0] == "E" else "M"
+        q = _dirac_q(upper, lower, J, k, kind)
+        if q == 0.0:
+            return None
+        S = q * q
+        lower_res = _previous(upper), _previous(lower)
+        S_prev = None if None in lower_res else _dirac_q(*lower_res, J, k, kind) ** 2
+        S_err = math.inf if S_prev is None else max(abs(S - S_prev), 2e-14 * S)
+        if kind == "E-length":
             SV = _dirac_q(upper, lower, J, k, "E-velocity") ** 2
             long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k, "E-long") ** 2
         else:
-            q = _dirac_q(upper, lower, J, k, "M")
-            if q == 0.0:
-                return None
-            S = q * q
-            S_prev = None if None in lower_res else _dirac_q(*lower_res, J, k, "M") ** 2
-            S_err = math.inf if S_prev is None else max(abs(S - S_prev), 2e-14 * S)
             long_a = _rate_factor(J) * k ** (2 * J + 1) * _dirac_q(upper, lower, J, k * 1e-6, "M") ** 2
         gu, gl = 2 * abs(upper.kappa), 2 * abs(lower.kappa)
         long_a = long_a / gu / AU_TIME_S

@@ -40,6 +40,7 @@ Comparisons in ``where`` must compare real values.
 from __future__ import annotations
 
 import ast
+import functools
 import logging
 import math
 import warnings
@@ -273,6 +274,11 @@ class CompiledExpression:
     def not_analytic(self) -> str | None:
         """What keeps the expression from being an analytic function of r (``where(...)``, a
         comparison, ``abs(...)``), or None when nothing does."""
+        return self._not_analytic
+
+    @functools.cached_property
+    def _not_analytic(self) -> str | None:
+        """:meth:`not_analytic`, found once (a walk of the tree; the expression never changes)."""
         def find(node):
             if node[0] in ("where", "cmp"):
                 return "where() (a switch)"

@@ -13,7 +13,7 @@ import numpy as np
 
 from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int, check_positive
 from .._rounding import rounding_floor
-from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, bohr_to, constants_record
+from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, bohr_to, constants_record, system_units
 from ..units import energy_unit as canonical_unit
 from .radial import Channel, _start, integrate, loosened, match, matching_radius, prepare
 from .reference import sommerfeld, wave_number
@@ -41,11 +41,6 @@ def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_
     settings["hard_core_bohr"] = hard_core
     settings["potential_name"] = pot.name
     return prepare(eq, pot, hard_core), settings
-
-
-def _length_unit(units: str) -> str:
-    """The unit of lengths in a call with ``units`` (the unit system): fm in the nuclear one, as ``hard_core``."""
-    return "fm" if units == "nuclear" else "bohr"
 
 
 def _rtol(tol: float) -> float:
@@ -222,9 +217,10 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, j, hard_core)
-    _check_nodes(ch, E, tol, max_nodes, canonical_unit(energy_unit), _length_unit(units))
-    _check_barrier(ch, E, max_eta, canonical_unit(energy_unit))
-    return _tabulate(ch, E, tol, estimate_error, settings, t0, canonical_unit(energy_unit))
+    unit = canonical_unit(energy_unit)
+    _check_nodes(ch, E, tol, max_nodes, unit, system_units(units)[1])
+    _check_barrier(ch, E, max_eta, unit)
+    return _tabulate(ch, E, tol, estimate_error, settings, t0, unit)
 
 
 def _tabulate(ch: Channel, E: np.ndarray, tol: float, estimate: bool, settings: dict, t0: float,
@@ -560,7 +556,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
                      hard_core)
     eq = ch.eq
-    _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit), _length_unit(units),
+    _check_nodes(ch, np.array([E]), tol, max_nodes, canonical_unit(energy_unit), system_units(units)[1],
                  0.0 if r is None else float(r.max()))
     _check_barrier(ch, np.array([E]), max_eta, canonical_unit(energy_unit))
     R1, _ = matching_radius(ch, E, tol)

@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 
 from .. import palette
-from ..plots import plt, save_figure
+from ..plots import plt, save_figure, say_empty
 from ..units import energy_unit
 
 __all__ = ["scan_figure", "difference_figure", "family_figure", "log_spaced", "potential_title"]
@@ -149,9 +149,8 @@ def scan_figure(result, path, unit: str = "hartree", title: str | None = None, l
     ax.grid(True, alpha=0.3)
     if curves:
         ax.legend(fontsize=8, ncol=2 if len(curves) > 8 else 1)
-    else:       # the zero line alone: matplotlib would warn of a legend without labels
-        ax.text(0.5, 0.5, "no bound level at any point (see the table's status column)", transform=ax.transAxes,
-                ha="center", va="center", fontsize=9, color="0.4")
+    else:       # the zero line alone
+        say_empty(ax, "no bound level at any point (see the table's status column)")
     return save_figure(fig, path)
 
 
