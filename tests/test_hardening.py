@@ -831,6 +831,35 @@ def test_levels_beyond_the_limit_are_one_line_on_every_command(command):
     assert cli("solve", "-p", "hulthen", "--param", "Z=1", "--param", "delta=0.3", "--levels", "all").exit_code == 0
 
 
+@pytest.mark.parametrize("command", [["solve"], ["scan", "--vary", "Z=1,2", "--workers", "1"], ["converge"],
+                                     ["compare"], ["hyperfine"]])
+def test_the_levels_limit_is_named_and_raised_from_the_command_line(command):
+    """The limit's message named max_levels= (API), which a command-line user cannot give."""
+    one_line_error(cli(*command, "--levels", "3", "--max-levels", "2"),
+                   r"invalid value for '--levels': levels: 3 is more than the limit of 2; use fewer, or raise the "
+                   r"limit with --max-levels; see boundkit \w+ --help")
+    one_line_error(cli(*command, "--levels", "1", "--max-levels", "0"),
+                   r"invalid value for '--max-levels': max_levels: must be >= 1, got 0")
+
+
+def test_the_levels_limit_raised_from_the_command_line_reaches_the_solve():
+    res = cli("solve", "-p", "coulomb", "--param", "Z=1", "--levels", "3", "--max-levels", "3", "--tol", "1e-8")
+    assert res.exit_code == 0, res.output
+    assert "3s" in res.output
+    # compare passes it on to each solve (checked there as well)
+    res = cli("compare", "-p", "coulomb", "--param", "Z=1", "--levels", "3", "--max-levels", "3", "--l-max", "0",
+              "--json")
+    assert res.exit_code == 0, res.output
+    assert len(json.loads(res.output)["rows"]) >= 3
+
+
+def test_the_l_max_limit_of_compare_is_named_and_raised_from_the_command_line():
+    one_line_error(cli("compare", "-p", "coulomb", "--param", "Z=1", "--l-max", "2", "--max-l-max", "1"),
+                   r"l_max: 2 is more than the limit of 1; use fewer, or raise the limit with --max-l-max$")
+    res = cli("compare", "-p", "coulomb", "--param", "Z=1", "--l-max", "1", "--max-l-max", "1", "--levels", "1")
+    assert res.exit_code == 0, res.output
+
+
 @pytest.mark.parametrize("where,text", [
     ("top", "levels = 100000000\n" + HYDROGEN.replace("levels = 1\n", "")),
     ("section", HYDROGEN.replace("[solve]\n", "[solve]\nlevels = 100000000\n")),

@@ -147,7 +147,23 @@ def json_default(x):
         return str(x)
 
 
-def levels_arg(text: str):
+MAX_LEVELS_KEY = "boundkit.max_levels"
+"""Key of ``--max-levels`` in the click context's ``meta``, where ``--levels`` reads it."""
+
+
+def check_max_levels(ctx, param, value: int) -> int:
+    """Callback of ``--max-levels`` (eager): at least 1, kept in ``ctx.meta`` for ``--levels``."""
+    from .._checks import check_int
+
+    try:
+        value = check_int("max_levels", value, minimum=1)
+    except ValueError as exc:
+        raise click.BadParameter(str(exc), param_hint="'--max-levels'") from None
+    ctx.meta[MAX_LEVELS_KEY] = value
+    return value
+
+
+def levels_arg(text: str, max_levels: int | None = None):
     """--levels N or --levels all."""
     if str(text).strip().lower() == "all":
         return "all"
@@ -158,19 +174,20 @@ def levels_arg(text: str):
                                  param_hint="'--levels'") from None
     if n < 1:
         raise click.BadParameter(f"levels: must be >= 1 (or 'all'), got {n}", param_hint="'--levels'")
-    return level_count(n)
+    return level_count(n, max_levels)
 
 
-def level_count(n: int) -> int:
-    """--levels N at most :data:`boundkit._checks.MAX_LEVELS`, refused before anything is read or solved
-    (every command that takes --levels, also those whose study does not check it itself)."""
+def level_count(n: int, max_levels: int | None = None) -> int:
+    """--levels N at most ``--max-levels`` (default :data:`boundkit._checks.MAX_LEVELS`), refused before
+    anything is read or solved (every command that takes --levels, also those whose study does not check
+    it itself)."""
+    from .._checks import MAX_LEVELS
     from ..solver import check_levels
 
     try:
-        return check_levels(n)
+        return check_levels(n, MAX_LEVELS if max_levels is None else max_levels)
     except ValueError as exc:
-        raise click.BadParameter(str(exc), param_hint="'--levels'") from None
-
+        raise click.BadParameter(api_message(exc, {"max_levels": "--max-levels"}), param_hint="'--levels'") from None
 
 
 def report_unit(energy_unit: str | None, unit_system: str) -> str:

@@ -6,8 +6,8 @@ import sys
 
 import click
 
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, fail, json_default,
-                     report_unit, write_figure)
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_particle, check_plot_path, fail,
+                     json_default, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       levels_option, method_option, order_option, particle_options, plot_option,
                       potential_options, tol_option)
@@ -28,8 +28,8 @@ __all__ = ["converge_cmd", "validate_cmd"]
 @plot_option("the errors against resolution on log-log axes")
 @json_option()
 def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
-                 table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, levels, method, order,
-                 tol, particle, mass_mev, nucleus_mass_mev, energy_unit, plot_path, as_json):
+                 table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, levels, max_levels, method,
+                 order, tol, particle, mass_mev, nucleus_mass_mev, energy_unit, plot_path, as_json):
     """Energies against resolution for one channel, with the observed order."""
     from ..accuracy import converge
 
@@ -41,11 +41,11 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
-        res = converge(equation, vector, values, l=l, kappa=kappa, levels=levels, methods=methods,
-                       order=order, tol=tol, particle=particle, mass_mev=mass_mev,
+        res = converge(equation, vector, values, l=l, kappa=kappa, levels=levels, max_levels=max_levels,
+                       methods=methods, order=order, tol=tol, particle=particle, mass_mev=mass_mev,
                        nucleus_mass_mev=nucleus_mass_mev, scalar=scalar or None, units=unit_system)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc, {"max_levels": "--max-levels"}))
     if as_json:
         click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
     else:

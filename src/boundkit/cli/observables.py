@@ -162,8 +162,8 @@ def _magnetic_rows(res, moment: float, spin: float, radius_fm: float | None, uni
 @particle_options()
 @json_option()
 def hyperfine_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
-                  table_r_unit, table_v_unit, params, unit_system, kappa, levels, nuclear_moment, nuclear_spin,
-                  radius_fm, energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
+                  table_r_unit, table_v_unit, params, unit_system, kappa, levels, max_levels, nuclear_moment,
+                  nuclear_spin, radius_fm, energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, as_json):
     """Bound g-factor, magnetic dipole hyperfine constant A and the splitting A (I + j) of the two
     uppermost hyperfine sublevels of Dirac levels (Dirac values: no QED corrections, no anomalous
     moment of the particle)."""
@@ -176,12 +176,12 @@ def hyperfine_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, t
         vector, scalar, values = build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
-        res = solve("dirac", vector, values, kappa=kappa, levels=levels, tol=tol, method=method,
+        res = solve("dirac", vector, values, kappa=kappa, levels=levels, max_levels=max_levels, tol=tol, method=method,
                     particle=particle, mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
                     scalar=scalar or None, units=unit_system)
         rows = _magnetic_rows(res, nuclear_moment, nuclear_spin, radius_fm, unit)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc, {"max_levels": "--max-levels"}))
     dipole = "point dipole" if radius_fm is None else f"uniformly magnetized sphere, R = {radius_fm:g} fm"
     if as_json:
         click.echo(json.dumps({"equation": res.equation, "potential": res.potential,

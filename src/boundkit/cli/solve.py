@@ -6,7 +6,7 @@ import sys
 
 import click
 
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, clip_message,
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_particle, check_plot_path, clip_message,
                      fail, json_default, report_length, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, length_unit_option, levels_option, method_option, order_option,
@@ -107,9 +107,9 @@ def _table(res, unit: str, length: str = "bohr") -> str:
               help="Write r, P, Q and the density of every level (units in the header).")
 @plot_option("the radial functions of the levels")
 def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
-              table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, j, levels, tol, method,
-              order, particle, mass_mev, nucleus_mass_mev, energy_unit, length_unit, labels, cross_check, as_json,
-              with_observables, states_path, plot_path):
+              table_origin, table_r_unit, table_v_unit, params, unit_system, l, kappa, j, levels, max_levels, tol,
+              method, order, particle, mass_mev, nucleus_mass_mev, energy_unit, length_unit, labels, cross_check,
+              as_json, with_observables, states_path, plot_path):
     """Bound levels of one channel.
 
     Without options: the hydrogen atom (Z = 1), Schrodinger equation, l = 0,
@@ -126,7 +126,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
         res = solve(equation=equation, potential=vector, params=values, l=l, kappa=kappa,
-                    levels=levels, tol=tol, method=method, order=order, particle=particle,
+                    levels=levels, max_levels=max_levels, tol=tol, method=method, order=order, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
                     scalar=scalar or None, units=unit_system, cross_check=cross_check, j=j).with_labels(labels)
         from .observables import add_observables, observables_table, write_states_file
@@ -136,7 +136,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
             record = add_observables(record, res, length)
             extra = observables_table(res, length)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc, {"max_levels": "--max-levels"}))
     if as_json:
         click.echo(json.dumps(record, default=json_default, indent=2))
     else:

@@ -9,8 +9,9 @@ import sys
 
 import click
 
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, check_particle, check_plot_path, check_tol, clip_message,
-                     fail, json_default, report_unit, write_figure)
+from .._checks import MAX_L
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_particle, check_plot_path, check_tol,
+                     clip_message, fail, json_default, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
                       plot_option, potential_options, tol_option)
@@ -66,8 +67,8 @@ def _rms_rule(text: str | None, values: dict, varied=()) -> None:
 @labels_option
 @json_option()
 def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
-             table_origin, table_r_unit, table_v_unit, params, unit_system, varies, ls, kappas, levels, tol,
-             particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
+             table_origin, table_r_unit, table_v_unit, params, unit_system, varies, ls, kappas, levels, max_levels,
+             tol, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
              plot_path, energy_unit, progress, labels, as_json):
     """Levels over a grid of one or two potential parameters.
 
@@ -96,11 +97,12 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         channels = [{"l": x} for x in ls] + [{"kappa": x} for x in kappas] or None
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
-        res = scan(list(equations) or ["schrodinger"], vector, values, vary, channels=channels, levels=levels, tol=tol,
-                   method=method, workers=workers, scheduler=scheduler, out=out, progress=progress,
-                   scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit, **limit, **kwargs)
+        res = scan(list(equations) or ["schrodinger"], vector, values, vary, channels=channels, levels=levels,
+                   max_levels=max_levels, tol=tol, method=method, workers=workers, scheduler=scheduler, out=out,
+                   progress=progress, scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit,
+                   **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
-        fail(str(exc))
+        fail(api_message(exc, {"max_levels": "--max-levels"}))
     if as_json:
         click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
     else:
@@ -222,6 +224,8 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
 @click.command("compare")
 @potential_options
 @click.option("--l-max", type=int, default=1, show_default=True, help="Largest orbital l.")
+@click.option("--max-l-max", type=int, default=MAX_L, show_default=True,
+              help="Largest --l-max accepted (each l is three equations' solves).")
 @levels_option(2)
 @tol_option(1e-10)
 @particle_options()
@@ -233,8 +237,8 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
 @labels_option
 @json_option("Print one JSON object instead of tables.")
 def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge, table_origin,
-                table_r_unit, table_v_unit, params, unit_system, l_max, levels, tol, particle, mass_mev,
-                nucleus_mass_mev, method, order, energy_unit, splitting_unit, labels, as_json):
+                table_r_unit, table_v_unit, params, unit_system, l_max, max_l_max, levels, max_levels, tol, particle,
+                mass_mev, nucleus_mass_mev, method, order, energy_unit, splitting_unit, labels, as_json):
     """Schrodinger, Klein-Gordon and Dirac levels side by side, with shifts and fine structure."""
     from ..studies import compare
 
@@ -246,10 +250,11 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
         kwargs = {k: v for k, v in (("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
-        res = compare(vector, values, l_max=l_max, levels=levels, particle=particle, mass_mev=mass_mev, tol=tol,
-                      method=method, scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
+        res = compare(vector, values, l_max=l_max, max_l_max=max_l_max, levels=levels, max_levels=max_levels,
+                      particle=particle, mass_mev=mass_mev, tol=tol, method=method, scalar=scalar or None,
+                      units=unit_system, labels=labels, **kwargs)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc, {"max_levels": "--max-levels", "max_l_max": "--max-l-max"}))
     if as_json:
         click.echo(json.dumps(res.to_dict(unit, sunit), default=json_default, indent=2))
     else:

@@ -201,7 +201,7 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
     Use a frequency unit (``'MHz'``, ``'GHz'``) for small splittings.
     """
     l_max = check_count("l_max", check_int("l_max", l_max, minimum=0), check_int("max_l_max", max_l_max, minimum=0),
-                        "max_l_max= (API)", "")
+                        "max_l_max= (API)", "", keyword="max_l_max")
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
     labels = check_convention(labels)
