@@ -668,3 +668,54 @@ def test_report_names_the_parameter_unit_when_every_critical_state_failed(tmp_pa
     assert "units of its own" not in md
     assert "(table `critical.csv`; screening_length in bohr)" in md
     assert "| state | critical screening_length (bohr) | details |" in md
+
+
+# --- a Schrodinger channel of a spin-orbit model: the spec dropped the channel's j, and the load refused
+#     every such spec ("give j = l +- 1/2 (e.g. --j 1.5 with --l 1)"), so no spec could split p3/2 from p1/2
+SPIN_ORBIT = """\
+title = "Neutron in a spin-orbit Woods-Saxon well"
+description = "Demonstration values (not a fit): depth 50 MeV, radius 4 fm, diffuseness 0.6 fm."
+units = "nuclear"
+particle = { name = "neutron" }
+equations = ["schrodinger"]
+channels = CHANNELS
+levels = 1
+
+[models.ws]
+terms = ["woods-saxon"]
+params = { depth = 50, radius = 4, diffuseness = 0.6, spin_orbit = 20 }
+
+[solve]
+"""
+
+
+@pytest.mark.parametrize("channels,expected", [
+    ('["p3/2", "p1/2"]', {"p3/2": (1, 1.5), "p1/2": (1, 0.5)}),
+    ('[{ kappa = -2 }]', {"p3/2": (1, 1.5)}),
+    ('["s", "p"]', {"s1/2": (0, 0.5), "p3/2": (1, 1.5), "p1/2": (1, 0.5)}),   # both j of an l, as for Dirac
+])
+def test_a_spin_orbit_model_solves_each_j_of_a_schrodinger_channel(tmp_path, channels, expected):
+    spec = write(tmp_path, SPIN_ORBIT.replace("CHANNELS", channels))
+    report = run(load_spec(spec), tmp_path / "out")
+    assert report.success, report.problems
+    data = json.loads((tmp_path / "out" / "results.json").read_text())
+    got = {r["channel"]: r for r in data["solve"]["levels"]}
+    assert set(got) == set(expected) and data["units"]["energy"] == "MeV"
+    for name, (l, j) in expected.items():
+        # the same channel solved directly (the API takes j for a spin-orbit term)
+        ref = boundkit.solve("schrodinger", "woods-saxon", {"depth": 50, "radius": 4, "diffuseness": 0.6,
+                                                             "spin_orbit": 20}, l=l, j=j, particle="neutron",
+                             units="nuclear")
+        assert got[name]["j"] == j and got[name]["l"] == l
+        assert got[name]["energy"] == pytest.approx(ref.levels[0].energy_in("MeV"), rel=1e-12)
+    if "p1/2" in got and "p3/2" in got:      # a positive spin-orbit strength lowers j = l + 1/2
+        assert got["p3/2"]["energy"] < got["p1/2"]["energy"]
+
+
+def test_without_spin_orbit_a_schrodinger_channel_keeps_its_plain_name(tmp_path):
+    """Models without a spin-orbit term are unchanged: "p1/2" is the Schrodinger channel p, solved once."""
+    text = HYDROGEN.replace('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s1/2", "p1/2", "p"]')
+    assert text != HYDROGEN
+    report = run(load_spec(write(tmp_path, text)), tmp_path / "out")
+    data = json.loads((tmp_path / "out" / "results.json").read_text())
+    assert sorted(r["channel"] for r in data["solve"]["runs"]) == ["p", "s"], report.problems

@@ -32,28 +32,36 @@ class ChannelSpec:
     levels: int | None = None
     text: str = ""
 
-    def expand(self, equation: str) -> list[tuple[dict, str]]:
-        """(solve keywords, channel name) for ``equation``."""
-        if equation == "dirac":
-            if self.kappa is not None:
-                kappas = [self.kappa]
-            elif self.two_j is not None:
-                kappas = [-(self.l + 1) if self.two_j == 2 * self.l + 1 else self.l]
-            else:
-                kappas = [-(self.l + 1)] + ([self.l] if self.l > 0 else [])
+    def expand(self, equation: str, spin_orbit: bool = False) -> list[tuple[dict, str]]:
+        """(solve keywords, channel name) for ``equation``.
+
+        Dirac: the kappa of each j the entry names (both j of an l given alone). Schrodinger with
+        ``spin_orbit`` (a model with a spin-orbit term, which needs j): likewise each j, as l and j;
+        otherwise the channel l, whatever j the entry names (it does not change the solve).
+        """
+        if self.kappa is not None:
+            kappas = [self.kappa]
+        elif self.two_j is not None:
+            kappas = [-(self.l + 1) if self.two_j == 2 * self.l + 1 else self.l]
+        else:
+            kappas = [-(self.l + 1)] + ([self.l] if self.l > 0 else [])
+        if equation == "dirac" or (spin_orbit and equation == "schrodinger"):
             out = []
             for k in kappas:
                 l = k if k > 0 else -k - 1
-                out.append(({"kappa": k}, f"{_LETTERS[l]}{2 * abs(k) - 1}/2"))
+                name = f"{_LETTERS[l]}{2 * abs(k) - 1}/2"
+                out.append(({"kappa": k} if equation == "dirac" else {"l": l, "j": abs(k) - 0.5}, name))
             return out
         return [({"l": self.l}, _LETTERS[self.l] if self.l < len(_LETTERS) else f"l={self.l}")]
 
 
-def _channels_for(channels: Iterable[ChannelSpec], equation: str, levels: int) -> list[tuple[dict, str, int]]:
-    """Unique (solve keywords, name, levels) of a channel list for one equation."""
+def _channels_for(channels: Iterable[ChannelSpec], equation: str, levels: int,
+                  spin_orbit: bool = False) -> list[tuple[dict, str, int]]:
+    """Unique (solve keywords, name, levels) of a channel list for one equation (``spin_orbit``: of a
+    model with a spin-orbit term, see :meth:`ChannelSpec.expand`)."""
     seen: dict[str, list] = {}
     for ch in channels:
-        for kw, name in ch.expand(equation):
+        for kw, name in ch.expand(equation, spin_orbit):
             n = ch.levels or levels
             if name in seen:
                 seen[name][2] = max(seen[name][2], n)
@@ -161,6 +169,10 @@ class ModelDef:
         vector, scalar, params = self.arguments(units, overrides)
         pot = make_potential(vector or [], params, scalar=scalar or None, units=units)
         return pot
+
+    def spin_orbit(self, units: str) -> bool:
+        """Whether the model has a spin-orbit term (its Schrodinger channels then need j)."""
+        return self.potential(units).has_spin_orbit
 
 
 @dataclass(frozen=True)

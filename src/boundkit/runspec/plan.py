@@ -98,9 +98,12 @@ def plan(spec: RunSpec) -> RunPlan:
         sec = spec.solve
         details, n = [], 0
         for eq in sec.equations:
-            chans = _channels_for(sec.channels, eq, sec.levels)
-            details.append(f"{eq}: {_channel_text(chans)}")
-            n += len(chans) * len(sec.models)
+            per_model = [_channels_for(sec.channels, eq, sec.levels, spec.models[m].spin_orbit(spec.units))
+                         for m in sec.models]
+            n += sum(len(chans) for chans in per_model)
+            # each model's channels (they differ only where one model has a spin-orbit term and j splits them)
+            texts = list(dict.fromkeys(_channel_text(chans) for chans in per_model))
+            details.append(f"{eq}: {' / '.join(texts)}")
         extra = []
         if sec.differences:
             extra.append("differences " + ", ".join(f"E({a}) - E({b})" for a, b in sec.differences))
@@ -113,14 +116,14 @@ def plan(spec: RunSpec) -> RunPlan:
                                 f"levels of models {', '.join(sec.models)} x equations {', '.join(sec.equations)}: "
                                 f"{n} solve(s), tol {sec.tolerance:g}, method {sec.method}", tuple(details), n))
     for sec in spec.converge:
-        (kw, cname), = sec.channel.expand(sec.equation)[:1]
+        (kw, cname), = sec.channel.expand(sec.equation, spec.models[sec.model].spin_orbit(spec.units))[:1]
         n = len(sec.methods) + 1
         out.append(PlannedStudy(_dotted(sec.key), spec.line_of(sec.key),
                                 f"convergence of model {sec.model}, {sec.equation} {cname}, {sec.levels} level(s)",
                                 (f"methods {', '.join(sec.methods)} (a resolution ladder each), reference solve at "
                                  f"tol {sec.tolerance:g}",), n))
     for sec in spec.scan:
-        chans = _channels_for(sec.channels, sec.equation, sec.levels)
+        chans = _channels_for(sec.channels, sec.equation, sec.levels, spec.models[sec.model].spin_orbit(spec.units))
         grid = [f"{sec.parameter}: {len(sec.values)} value(s) from {min(sec.values):g} to {max(sec.values):g}"]
         points = len(sec.values)
         if sec.second is not None:

@@ -31,10 +31,9 @@ class ScanRunner:
         studies = importlib.import_module("boundkit.studies")
         spec = self.spec
         vector, scalar, params = spec.models[sec.model].arguments(spec.units)
-        channels = []
-        for kw, _name, _n in _channels_for(sec.channels, sec.equation, sec.levels):
-            channels.append(dict(kw))
-        levels = max(n for _kw, _name, n in _channels_for(sec.channels, sec.equation, sec.levels))
+        chans = _channels_for(sec.channels, sec.equation, sec.levels, spec.models[sec.model].spin_orbit(spec.units))
+        channels = [dict(kw) for kw, _name, _n in chans]
+        levels = max(n for _kw, _name, n in chans)
         vary = {sec.parameter: list(sec.values)}
         if sec.second is not None:
             vary[sec.second[0]] = list(sec.second[1])

@@ -40,7 +40,7 @@ class SolveRunner:
             by_model[mname] = {}
             for eq in sec.equations:
                 found = []
-                for kw, cname, nlev in _channels_for(sec.channels, eq, sec.levels):
+                for kw, cname, nlev in _channels_for(sec.channels, eq, sec.levels, pot.has_spin_orbit):
                     tag = f"model {mname}, {eq}, channel {cname}"
                     log.info("solve: %s (%d levels)", tag, nlev)
                     try:

@@ -209,7 +209,7 @@ def _check_channels(rd: _Reader, section: str, models: dict, mdata: dict, names,
     for name in names:
         pot = models[name].potential(units)
         for eq in equations:
-            for kw, cname, _n in _channels_for(channels, eq, 1):
+            for kw, cname, _n in _channels_for(channels, eq, 1, pot.has_spin_orbit):
                 try:
                     equation, potential, _settings = setup(eq, pot, None, **kw, **particle.kwargs())
                     equation.gamma(potential)

@@ -37,7 +37,7 @@ class StudyRunners:
 
         spec = self.spec
         pot = spec.models[sec.model].potential(spec.units)
-        (kw, cname), = sec.channel.expand(sec.equation)[:1]
+        (kw, cname), = sec.channel.expand(sec.equation, pot.has_spin_orbit)[:1]
         res = converge(sec.equation, pot, None, levels=sec.levels, methods=sec.methods, order=sec.order, tol=sec.tolerance, **kw,
                        **self.particle_kwargs())
         if res.reference_status != "ok":      # as for a solve that misses its tol: a problem, the table stands
