@@ -719,3 +719,14 @@ def test_without_spin_orbit_a_schrodinger_channel_keeps_its_plain_name(tmp_path)
     report = run(load_spec(write(tmp_path, text)), tmp_path / "out")
     data = json.loads((tmp_path / "out" / "results.json").read_text())
     assert sorted(r["channel"] for r in data["solve"]["runs"]) == ["p", "s"], report.problems
+
+
+def test_a_scan_of_a_spin_orbit_model_follows_each_j(tmp_path):
+    text = SPIN_ORBIT.replace("CHANNELS", '["p"]').replace("[solve]\n", "") + (
+        '\n[scan]\nmodel = "ws"\nparameter = "spin_orbit"\nvalues = [10.0, 20.0]\nworkers = 1\n')
+    report = run(load_spec(write(tmp_path, text)), tmp_path / "out")
+    assert report.success, report.problems
+    data = json.loads((tmp_path / "out" / "results.json").read_text())
+    (scan_run,) = data["scan"]
+    rows = scan_run["rows"]
+    assert sorted({r["label"] for r in rows}) == ["2p1/2", "2p3/2"] and all(r["status"] == "ok" for r in rows)

@@ -104,3 +104,14 @@ def test_input_every_channel_refuses_is_still_an_error():
     once, not a table of refusals."""
     with pytest.raises(ValueError, match="bogus"):
         compare("coulomb", {"Z": 1, "bogus": 2.0})
+
+
+def test_a_spin_orbit_term_is_refused_with_what_to_do():
+    """compare solved the Schrodinger channels without j and failed with "give j ... (e.g. --j 1.5 with
+    --l 1)", an option compare does not have."""
+    ws = {"depth": 50, "radius": 4, "diffuseness": 0.6, "spin_orbit": 20}
+    with pytest.raises(ValueError, match=r"potential: compare sets the three equations side by side, and a spin-orbit "
+                                         r"term .* belongs to the Schrodinger equation alone, with j; set spin_orbit = 0"):
+        compare("woods-saxon", ws, units="nuclear", particle="neutron")
+    res = compare("woods-saxon", {**ws, "spin_orbit": 0}, units="nuclear", particle="neutron", l_max=0, levels=1)
+    assert res.success

@@ -8,6 +8,8 @@ import math
 import numpy as np
 import pytest
 
+import boundkit
+
 from boundkit.exact import hulthen
 from boundkit.studies import NuclearRadius, ScanResult, linspace, logspace, parse_vary, scan
 from boundkit.studies._common import ProgressBar, channel_for
@@ -51,6 +53,29 @@ def test_channels_map_kappa_to_l_and_refuse_l_for_dirac():
         channel_for("schrodinger", {"l": 0, "kappa": 1})
     with pytest.raises(ValueError, match="unknown key"):
         channel_for("schrodinger", {"n": 1})
+
+
+def test_a_schrodinger_channel_takes_j_for_a_spin_orbit_term():
+    """A scan could not follow a spin-orbit split level: the channel refused 'j', and without it every
+    point of a spin-orbit Woods-Saxon well was an error ("give j = l +- 1/2")."""
+    assert channel_for("schrodinger", {"l": 1, "j": 1.5}) == {"l": 1, "j": 1.5}
+    with pytest.raises(ValueError, match=r"j: for l = 1 a spin-1/2 particle has j = l \+- 1/2 \(0.5, 1.5\), got 2.5"):
+        channel_for("schrodinger", {"l": 1, "j": 2.5})
+    for eq, ch in (("dirac", {"l": 1, "j": 1.5}), ("klein-gordon", {"l": 1, "j": 1.5}),
+                   ("schrodinger", {"kappa": -2, "j": 1.5})):
+        with pytest.raises(ValueError, match=r"'j' goes with 'l' in a Schrodinger channel"):
+            channel_for(eq, ch)
+    ws = {"depth": 50, "radius": 4, "diffuseness": 0.6}              # demonstration values, neutron, MeV and fm
+    res = scan("schrodinger", "woods-saxon", ws, {"spin_orbit": [10.0, 20.0]},
+               channels=[{"l": 1, "j": 1.5}, {"l": 1, "j": 0.5}], levels=1, units="nuclear", particle="neutron",
+               workers=1)
+    assert [r["status"] for r in res.rows] == ["ok"] * 4
+    for r in res.rows:      # each row is the direct solve of its channel
+        j = {"l=1, j=1.5": 1.5, "l=1, j=0.5": 0.5}[r["channel"]]
+        direct = boundkit.solve("schrodinger", "woods-saxon", {**ws, "spin_orbit": r["spin_orbit"]}, l=1, j=j,
+                                units="nuclear", particle="neutron")
+        assert r["label"] == direct.levels[0].label
+        assert r["energy"] == pytest.approx(direct.levels[0].energy, rel=1e-12)
 
 
 def test_scan_refuses_bad_input_before_solving():

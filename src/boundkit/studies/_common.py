@@ -45,7 +45,8 @@ def canonical_equation(name: str) -> str:
 
 
 def channel_for(equation: str, channel: Mapping[str, int]) -> dict[str, int]:
-    """The channel of ``equation`` described by ``channel`` ({"l": ..} or {"kappa": ..}).
+    """The channel of ``equation`` described by ``channel`` ({"l": ..} or {"kappa": ..}; Schrodinger
+    also {"l": .., "j": ..} for a potential with a spin-orbit term).
 
     Schrodinger and Klein-Gordon take l; a kappa alone is mapped to the l of
     its large component (kappa = -(l+1) or kappa = l). Dirac needs kappa.
@@ -54,9 +55,17 @@ def channel_for(equation: str, channel: Mapping[str, int]) -> dict[str, int]:
     if not isinstance(channel, Mapping):
         raise ValueError(f"channels: each channel is a dict such as {{'l': 0}} or {{'kappa': -1}}, "
                          f"got {channel!r}")
-    extra = sorted(set(channel) - {"l", "kappa"})
+    extra = sorted(set(channel) - {"l", "kappa", "j"})
     if extra:
-        raise ValueError(f"channels: unknown key {extra[0]!r} in {dict(channel)!r}; use 'l' or 'kappa'")
+        raise ValueError(f"channels: unknown key {extra[0]!r} in {dict(channel)!r}; use 'l' or 'kappa' (and 'j' "
+                         "with 'l' for a Schrodinger spin-orbit term)")
+    if "j" in channel:
+        eq = canonical_equation(equation)
+        if eq != "schrodinger" or "l" not in channel or "kappa" in channel:
+            raise ValueError(f"channels: {dict(channel)!r}: 'j' goes with 'l' in a Schrodinger channel (for a "
+                             "spin-orbit term); a Dirac channel is its kappa, and a spin-0 particle has j = l")
+        made = make_equation(eq, l=channel["l"], j=channel["j"])       # checks j = l +- 1/2
+        return {"l": made.l, "j": made.j}
     l, kappa = channel.get("l"), channel.get("kappa")
     if l is None and kappa is None:
         raise ValueError("channels: a channel needs 'l' (Schrodinger, Klein-Gordon) or 'kappa' (Dirac)")

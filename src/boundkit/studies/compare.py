@@ -205,6 +205,12 @@ def compare(potential, params: Mapping[str, Any] | None = None, *, l_max: int = 
     levels = check_int("levels", levels, minimum=1)
     tol = check_positive("tol", tol)
     labels = check_convention(labels)
+    from ..potentials import make_potential
+
+    if make_potential(potential, params, scalar=scalar, units=solve_kwargs.get("units", "atomic")).has_spin_orbit:
+        raise ValueError("potential: compare sets the three equations side by side, and a spin-orbit term "
+                         "(woods-saxon spin_orbit) belongs to the Schrodinger equation alone, with j; set spin_orbit "
+                         "= 0, or solve the Schrodinger channels one j at a time (solve(..., j=), boundkit solve --j)")
     common = dict(params=params, levels=levels, tol=tol, method=method, particle=particle, mass_mev=mass_mev,
                   scalar=scalar, **solve_kwargs)
     by_label: dict[str, dict] = {}

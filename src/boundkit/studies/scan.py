@@ -529,7 +529,9 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         Dirac needs kappa; for Schrodinger and Klein-Gordon a kappa alone
         stands for the l of its large component (in a scan that also solves
         the Dirac equation; without one, kappa is refused as in
-        :func:`boundkit.solve`). Default: the lowest channel.
+        :func:`boundkit.solve`). A Schrodinger channel of a potential with a
+        spin-orbit term also takes j: ``{"l": 1, "j": 1.5}``. Default: the
+        lowest channel.
     l, kappa : int, optional
         One channel, as for :func:`boundkit.solve`: ``l=1`` is
         ``channels=[{"l": 1}]``, ``kappa=-2`` is ``channels=[{"kappa": -2}]``.
