@@ -648,6 +648,10 @@ def test_a_critical_state_listed_twice_is_refused_at_load(tmp_path, equations, s
     ("[solve]\n", '[solve]\nequations = ["dirac", "Dirac"]\n', "solve.equations[1]"),
     ('equations = ["schrodinger"]', 'equations = ["schrodinger", "schrodinger"]', "equations[1]"),
     ('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s", { l = 1 }, "p"]', "channels[2]"),
+    ('differences = [["2p", "2s"]]', 'differences = [["2p", "2s"], ["1s", "2s"], ["2p", "2s"]]',
+     "solve.differences[2]"),
+    ('differences = [["2p", "2s"]]\n', 'differences = [["2p", "2s"]]\n[converge]\nmodel = "h"\n'
+                                        'methods = ["spectral", "spectral"]\n', "converge.methods[1]"),
 ])
 def test_an_entry_listed_twice_in_other_lists_is_refused_at_load(tmp_path, old, new, key):
     assert old in HYDROGEN

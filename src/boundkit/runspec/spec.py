@@ -158,6 +158,7 @@ def _pairs(rd: _Reader, data: dict, key: tuple) -> tuple[tuple[str, str], ...]:
                 raise rd.error(key + ("differences", i), f"{text!r}: unknown equation {eq.strip()!r} before ':'; "
                                                           "write e.g. \"dirac:1s1/2\"")
         out.append((pair[0].strip(), pair[1].strip()))
+    _once(rd, key + ("differences",), [f'["{a}", "{b}"]' for a, b in out])
     return tuple(out)
 
 
@@ -458,6 +459,7 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
             for i, mth in enumerate(meths):
                 if mth not in ("spectral", "finite-difference"):
                     raise rd.error(key + ("methods", i), f"must be spectral or finite-difference, got {mth!r}")
+            _once(rd, key + ("methods",), meths)
             model = _model_name(rd, s, key, models)
             eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
             _check_channels(rd, "converge", models, mdata, (model,), (eq,), ch[:1], particle, units)
