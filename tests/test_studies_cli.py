@@ -189,3 +189,26 @@ def test_varying_rms_fm_under_an_rms_rule_names_the_real_conflict(args):
     _one_line_error(res, r"^boundkit: error: --vary rms_fm: --rms-rule computes rms_fm from Z at every point, so "
                          r"rms_fm cannot be varied; drop --rms-rule, or vary Z$")
     assert "--param" not in res.output
+
+
+def test_scan_pairs_each_j_with_its_l_for_a_spin_orbit_term():
+    """scan had no --j, and every point of a spin-orbit Woods-Saxon well was an error row asking for one."""
+    import boundkit
+
+    ws = ["-p", "woods-saxon", "--param", "depth=50", "--param", "radius=4", "--param", "diffuseness=0.6",
+          "--units", "nuclear", "--particle", "neutron", "--levels", "1", "--workers", "1"]     # demonstration values
+    res = run("scan", *ws, "--vary", "spin_orbit=20", "--l", "1", "--j", "1.5", "--l", "1", "--j", "0.5", "--json")
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.stdout)
+    # the record's units are those of --units nuclear (it said length bohr)
+    assert data["units"]["energy"] == "MeV" and data["units"]["length"] == "fm"
+    rows = {r["label"]: r for r in data["rows"]}
+    assert set(rows) == {"2p3/2", "2p1/2"} and all(r["status"] == "ok" for r in rows.values())
+    for label, j in (("2p3/2", 1.5), ("2p1/2", 0.5)):
+        direct = boundkit.solve("schrodinger", "woods-saxon", {"depth": 50, "radius": 4, "diffuseness": 0.6,
+                                                               "spin_orbit": 20}, l=1, j=j, units="nuclear",
+                                particle="neutron")
+        assert rows[label]["energy"] == pytest.approx(direct.levels[0].energy_in("MeV"), rel=1e-12)
+    bad = run("scan", *ws, "--vary", "spin_orbit=20", "--l", "1", "--j", "1.5", "--l", "1")
+    assert bad.exit_code == 2 and "Traceback" not in bad.output
+    assert bad.stderr.strip() == "boundkit: error: --j: give one --j per --l, in the same order (got 1 --j for 2 --l)"

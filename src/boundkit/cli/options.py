@@ -58,7 +58,11 @@ def channel_options(j: bool = True, multiple: bool = False):
                              help="Orbital l (Schrodinger, Klein-Gordon; default 0)."),
                 click.option("--kappa", type=int, default=None,
                              help="Dirac kappa (default -1): -1 = s1/2, 1 = p1/2, -2 = p3/2, ...")]
-    if j:
+    if j and multiple:
+        opts.append(click.option("--j", "js", type=float, multiple=True,
+                                 help="j = l +- 1/2 of each --l, in the same order (Schrodinger, for a spin-orbit "
+                                      "term such as woods-saxon spin_orbit; one per --l)."))
+    elif j:
         opts.append(click.option("--j", "j", type=float, default=None,
                                  help="j = l +- 1/2 (Schrodinger, for a spin-orbit term such as woods-saxon "
                                       "spin_orbit)."))

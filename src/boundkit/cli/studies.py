@@ -46,7 +46,7 @@ def _rms_rule(text: str | None, values: dict, varied=()) -> None:
 @click.option("--vary", "varies", multiple=True, required=True, metavar="NAME=START:STOP:N[:log]",
               help="Parameter to vary: NAME=START:STOP:N (even steps), NAME=START:STOP:N:log, or "
                    "NAME=v1,v2,...; give one or two.")
-@channel_options(j=False, multiple=True)
+@channel_options(multiple=True)
 @levels_option(3, what="Number of lowest levels followed per channel")
 @tol_option(1e-10)
 @particle_options()
@@ -67,7 +67,7 @@ def _rms_rule(text: str | None, values: dict, varied=()) -> None:
 @labels_option
 @json_option()
 def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
-             table_origin, table_r_unit, table_v_unit, params, unit_system, varies, ls, kappas, levels, max_levels,
+             table_origin, table_r_unit, table_v_unit, params, unit_system, varies, ls, kappas, js, levels, max_levels,
              tol, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule, workers, max_points, scheduler, out,
              plot_path, energy_unit, progress, labels, as_json):
     """Levels over a grid of one or two potential parameters.
@@ -94,7 +94,10 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  tuple(params) + first)
         _rms_rule(rms_rule, values, vary)
-        channels = [{"l": x} for x in ls] + [{"kappa": x} for x in kappas] or None
+        if js and len(js) != len(ls):
+            raise ValueError(f"--j: give one --j per --l, in the same order (got {len(js)} --j for {len(ls)} --l)")
+        channels = ([{"l": x, "j": y} for x, y in zip(ls, js)] if js else [{"l": x} for x in ls]) + \
+            [{"kappa": x} for x in kappas] or None
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev), ("order", order)) if v is not None}
         res = scan(list(equations) or ["schrodinger"], vector, values, vary, channels=channels, levels=levels,

@@ -237,6 +237,12 @@ class ScanResult:
         E = np.array([np.nan if r["energy"] is None else hartree_to(r["energy"], unit) for r in rows])
         return x, E
 
+    def _length_unit(self) -> str:
+        """The length unit of the scan's unit system (bohr, or fm with units='nuclear')."""
+        from ..units import system_units
+
+        return system_units((self.settings.get("solve_kwargs") or {}).get("units", "atomic"))[1]
+
     def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
         """A JSON-ready record (energies in ``unit``; absent levels as null)."""
         rows = []
@@ -248,7 +254,8 @@ class ScanResult:
             rows.append(r)
         return {"parameters": list(self.parameters), "values": {k: list(v) for k, v in self.values.items()},
                 "parameter_units": self.parameter_units,
-                "units": {"energy": unit, "length": "bohr", "time": "s", "parameters": self.parameter_units},
+                "units": {"energy": unit, "length": self._length_unit(), "time": "s",
+                          "parameters": self.parameter_units},
                 "settings": self.settings, "constants": constants_record(), "rows": rows,
                 "solved": self.solved, "reused": self.reused, "seconds": self.seconds}
 
