@@ -3,6 +3,7 @@ Dirac gauge invariance and an independent mpmath integration at Z = 92, lifetime
 from __future__ import annotations
 
 import functools
+import json
 import math
 
 import mpmath as mp
@@ -431,3 +432,36 @@ def test_klein_gordon_gauges_agree_at_high_z():
     ln = tr.line("2p", "1s")
     assert ln.gauge_agreement < 1e-10
     assert 0 < ln.line_strength_error < 1e-9 * ln.line_strength
+
+
+def test_a_level_filter_keeps_the_lifetimes_of_all_decays():
+    """With levels=['3p', '1s'] the 3p lifetime counted only its decay to 1s (5.98 ns, branching 1, status
+    ok); it decays to 2s as well (A = 1.6725e8 and 2.2449e7 /s, NIST ASD, recalled from memory): 5.27 ns."""
+    full = _tr("schrodinger", max_n=3, nucleus=PROTON_MASS_MEV)
+    kept = boundkit.transitions("schrodinger", "coulomb", {"Z": 1}, max_n=3, levels=["3p", "1s"],
+                                nucleus_mass_mev=PROTON_MASS_MEV)
+    assert [(ln.upper, ln.lower) for ln in kept.lines] == [("3p", "1s")]       # lines among the kept levels
+    assert [lv.label for lv in kept.levels] == ["1s", "3p"]
+    assert kept.level("3p").lifetime_s == full.level("3p").lifetime_s
+    assert kept.level("3p").lifetime_s == pytest.approx(1 / (1.6725e8 + 2.2449e7), rel=1e-3)
+    assert kept.level("3p").branching == full.level("3p").branching
+    assert "lifetimes count the decays to every lower level" in kept.message
+
+
+def test_transitions_json_is_strict_json_and_stable_levels_say_why():
+    """`--json` wrote "lifetime_s": Infinity (not JSON; strict parsers refuse it), and every level without
+    lines was "(stable: no lower level in the list)", also 2s above 1s (it has no E1 line down)."""
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+
+    res = CliRunner().invoke(main, ["transitions", "--max-n", "2", "--json"])
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.stdout, parse_constant=lambda c: pytest.fail(f"not JSON: {c}"))
+    life = {lv["label"]: lv["lifetime_s"] for lv in data["levels"]}
+    assert life["1s"] is None and life["2s"] is None and life["2p"] > 0
+    assert "null" in data["units"]["lifetime"]
+    text = CliRunner().invoke(main, ["transitions", "--max-n", "2"]).stdout
+    rows = {ln.split()[0]: ln for ln in text.splitlines()[-3:]}
+    assert rows["1s"].endswith("(stable: no lower level)")
+    assert rows["2s"].endswith("(no E1 line to the 1 lower level)")

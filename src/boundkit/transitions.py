@@ -203,10 +203,16 @@ class LevelDecay:
     lifetime_s: float
     total_rate: float
     branching: dict = field(default_factory=dict)
+    lower_levels: int = 0
+    """Number of bound levels below it with n <= max_n, degenerate ones left out (those its lifetime could
+    decay to)."""
 
     def to_dict(self) -> dict:
-        return {"label": self.label, "energy": self.energy, "lifetime_s": self.lifetime_s,
-                "total_rate_per_s": self.total_rate, "branching": dict(self.branching)}
+        """JSON-ready; a stable level's lifetime is None (null: JSON has no infinity)."""
+        return {"label": self.label, "energy": self.energy,
+                "lifetime_s": self.lifetime_s if math.isfinite(self.lifetime_s) else None,
+                "total_rate_per_s": self.total_rate, "branching": dict(self.branching),
+                "lower_levels": self.lower_levels}
 
     def __repr__(self) -> str:
         return f"LevelDecay({self.label}: lifetime {self.lifetime_s:.6g} s)"
@@ -241,7 +247,8 @@ class TransitionResult:
     def to_dict(self) -> dict:
         return {"equation": self.equation, "potential": self.potential,
                 "units": {"energy": self.energy_unit, "wavelength": "nm", "einstein_a": "1/s",
-                          "line_strength": "atomic units (e^2 bohr^(2J) for EJ)", "lifetime": "s"},
+                          "line_strength": "atomic units (e^2 bohr^(2J) for EJ)",
+                          "lifetime": "s (null: no line down, stable here)"},
                 "status": self.status, "message": self.message, "constants": self.constants,
                 "settings": self.settings, "lines": [ln.to_dict() for ln in self.lines],
                 "levels": [lv.to_dict() for lv in self.levels]}
@@ -438,37 +445,50 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
             status = "partial"
             messages.append(f"{channel}: {res.message}")
         found.extend(lv for lv in res.levels if lv.n <= max_n)
+    kept = {lv.label for lv in found}
     if levels is not None:
         wanted = [str(x) for x in levels]
-        have = {lv.label for lv in found}
-        missing = [x for x in wanted if x not in have]
+        missing = [x for x in wanted if x not in kept]
         if missing:
             raise ValueError(f"levels: {', '.join(missing)} not found; bound levels with n <= {max_n}: "
-                             f"{', '.join(sorted(have))}")
-        found = [lv for lv in found if lv.label in wanted]
+                             f"{', '.join(sorted(kept))}")
+        kept = set(wanted)
     mass = float(settings.get("mass_atomic_units", 1.0))
     pm = settings.get("particle_mass_MeV")
     particle_mass = mass if pm is None else float(pm) / ELECTRON_MASS_MEV
     found.sort(key=lambda lv: lv.energy)
-    lines = []
+    # every line down from a kept level (its lifetime counts them all), reported among kept levels only
+    down_from: dict[str, list] = {}
+    below: dict[str, int] = {}
     for i, up in enumerate(found):
+        if up.label not in kept:
+            continue
+        down_from[up.label] = []
+        below[up.label] = 0
         for low in found[:i]:
             # degenerate within the error estimates (2s and 2p of hydrogen): no line
             if up.energy - low.energy <= 10 * (up.error_estimate + low.error_estimate) + 1e-14 * abs(up.energy):
                 continue
+            below[up.label] += 1
             for m in mults:
                 ln = line(up, low, m, equation=key, mass=mass, particle_mass=particle_mass, energy_unit=unit)
                 if ln is not None:
-                    lines.append(ln)
+                    down_from[up.label].append(ln)
+    lines = [ln for down in down_from.values() for ln in down if ln.lower in kept]
     decays = []
     for lv in found:
-        down = [ln for ln in lines if ln.upper == lv.label]
+        if lv.label not in kept:
+            continue
+        down = down_from[lv.label]
         total = sum(ln.einstein_a for ln in down)
         decays.append(LevelDecay(lv.label, float(hartree_to(lv.energy, unit)),
                                  math.inf if total == 0 else 1.0 / total, total,
                                  {f"{ln.lower} {ln.multipole}": ln.einstein_a / total for ln in down}
-                                 if total > 0 else {}))
-    message = f"{len(lines)} line(s) among {len(found)} level(s) with n <= {max_n}"
+                                 if total > 0 else {}, lower_levels=below[lv.label]))
+    message = f"{len(lines)} line(s) among {len(kept)} level(s) with n <= {max_n}"
+    if levels is not None:
+        message += (f"; lifetimes count the decays to every lower level with n <= {max_n} (of {len(found)} bound "
+                    "there), listed or not")
     if messages:
         message += "; " + "; ".join(messages)
     from .units import constants_record

@@ -75,9 +75,13 @@ def _format_lines(tr) -> str:
             "       'lw': long-wavelength A / A - 1 (large for M1 between s levels: that rate comes from retardation)",
             "",
             f"{'level':<8} {'lifetime (s)':>14}  branching ratios"]
+    mults = "/".join(tr.settings.get("multipoles", ["E1"]))
     for lv in tr.levels:
         br = ", ".join(f"{k} {v:.4g}" for k, v in sorted(lv.branching.items(), key=lambda kv: -kv[1]))
-        out.append(f"{lv.label:<8} {lv.lifetime_s:>14.6g}  {br or '(stable: no lower level in the list)'}")
+        if not br:
+            br = ("(stable: no lower level)" if lv.lower_levels == 0 else
+                  f"(no {mults} line to the {lv.lower_levels} lower level{'s' if lv.lower_levels > 1 else ''})")
+        out.append(f"{lv.label:<8} {lv.lifetime_s:>14.6g}  {br}")
     return "\n".join(out)
 
 
