@@ -894,3 +894,16 @@ def test_converge_api_refuses_a_levels_count_beyond_the_limit():
         converge("schrodinger", "coulomb", {"Z": 1}, l=0, levels=10**8)
     with pytest.raises(ValueError, match=r"levels: 5 is more than the limit of 2"):
         converge("schrodinger", "coulomb", {"Z": 1}, l=0, levels=5, max_levels=2)
+
+
+@pytest.mark.parametrize("expr", ["2", "-2", "0.5*r**0"])
+def test_a_constant_potential_is_named_as_such(expr):
+    """A constant V = 2 was 'too weak to bind anything ... V = 0 everywhere binds nothing' (it is neither weak
+    nor zero: the solver measures it from its threshold, its own value)."""
+    message = (r"potential: V is the same constant \(-?[0-9.]+ hartree\) at every radius; a constant only moves the "
+               r"threshold to its value and binds nothing: add a well")
+    one_line_error(cli("solve", "--expr", expr), message)
+    with pytest.raises(ValueError, match=message):
+        boundkit.solve("schrodinger", lambda r: 2.0 + 0.0 * r)
+    with pytest.raises(ValueError, match=r"too weak to bind anything"):      # a zero potential keeps its message
+        boundkit.solve("schrodinger", lambda r: 0.0 * r)

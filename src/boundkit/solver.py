@@ -196,6 +196,10 @@ def _natural_length(eq: RadialEquation, pot: Potential) -> float:
     # a weak well (a short-range potential near its binding threshold): its strongest scale
     if np.max(strength) >= 1e-3:
         return float(r[np.argmax(strength)])
+    v_inf = pot._v if isinstance(pot, _Shifted) else 0.0
+    if v_inf and not np.any(strength):
+        raise ValueError(f"potential: V is the same constant ({v_inf:.6g} hartree) at every radius; a constant only "
+                         "moves the threshold to its value and binds nothing: add a well (a term that varies with r)")
     raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr "
                      "(2 m r^2 |V| stays below 1e-3; V = 0 everywhere binds nothing); check the parameters or the "
                      "table's values")
