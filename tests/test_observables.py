@@ -458,3 +458,21 @@ def test_radial_figure_labels_each_equations_components(monkeypatch, equation, y
         ["P", "Q"] if equation == "dirac" else ["P"] * min(2, len(ax.get_legend().get_texts())))
     import matplotlib.pyplot as plt
     plt.close(fig)
+
+
+def test_a_complex_function_is_refused_not_cast_to_real():
+    """<1 + i r> came out 1, <1s|i r|2s> 0 and the first-order shift of -1e-3 i / r 0 +- 0: numpy cast the
+    values to float and dropped the imaginary part with only a ComplexWarning."""
+    from boundkit.observables import expectation_value, matrix_element
+    from boundkit.perturbation import first_order_shift
+
+    s1, s2 = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=2).levels
+    msg = r"returned complex values \(imaginary part up to [0-9.e+-]+\); this integral is of a real function: "
+    with pytest.raises(ValueError, match=r"^f: " + msg + "take the real and the imaginary part in two calls$"):
+        expectation_value(s1, lambda r: 1 + 1j * r)
+    with pytest.raises(ValueError, match=r"^f: " + msg):
+        matrix_element(s1, s2, lambda r: 1j * r)
+    with pytest.raises(ValueError, match=r"^delta: " + msg + "pass the real part for the shift"):
+        first_order_shift(s1, lambda r: -1e-3j / r)
+    # a complex array with zero imaginary part is real: <r> of 1s is 3/2 (Bethe & Salpeter 1957, eq. 3.24)
+    assert expectation_value(s1, lambda r: r + 0j).value == pytest.approx(1.5, rel=1e-12)

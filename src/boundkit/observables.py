@@ -261,9 +261,23 @@ def _origin_error(below: float, *states) -> float:
     return 2.0 * max(origin_noise(s) for s in states) * below if below > 0 else 0.0
 
 
-def _check_callable(f) -> None:
+def _real_function(f, name: str = "f", fix: str = "") -> Callable[[np.ndarray], np.ndarray]:
+    """``f`` checked to be callable, wrapped so that its values are real: an imaginary part is refused
+    (casting would drop it without a word), naming ``name`` and the ``fix``."""
     if not callable(f):
-        raise ValueError("f: give a vectorised function of r in bohr, e.g. lambda r: r**2")
+        raise ValueError(f"{name}: give a vectorised function of r in bohr, e.g. lambda r: r**2")
+    fix = fix or "take the real and the imaginary part in two calls"
+
+    def real(r):
+        v = np.asarray(f(r))
+        if np.iscomplexobj(v):
+            imag = np.abs(np.imag(v))
+            if np.any(imag != 0):
+                raise ValueError(f"{name}: returned complex values (imaginary part up to {np.max(imag):.3g}); this "
+                                 f"integral is of a real function: {fix}")
+            v = np.real(v)
+        return v
+    return real
 
 
 # --- expectation values --------------------------------------------------------------------
@@ -299,7 +313,7 @@ def expectation_value(level, f: Callable[[np.ndarray], np.ndarray], *, name: str
     <f> = integral f(r) rho(r) dr with rho = P^2 (Schrodinger), P^2 + Q^2
     (Dirac) or the Klein-Gordon charge density (E + mc^2 - V)/(mc^2) P^2.
     """
-    _check_callable(f)
+    f = _real_function(f)
     breaks = tuple(breaks)
     value, scale, below = _integrals(level.state, None, f, kind, breaks)
     prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind, breaks)
@@ -395,7 +409,7 @@ def matrix_element(level_a, level_b, f: Callable[[np.ndarray], np.ndarray], *,
     -----
     See the module docstring for the Klein-Gordon weight and the quadrature.
     """
-    _check_callable(f)
+    f = _real_function(f)
     if kind not in ("density", "PQ", "P2-Q2"):
         raise ValueError(f"kind: {kind!r} is not one of 'density', 'PQ', 'P2-Q2'")
     if kind != "density" and (level_a.state.Q is None or level_b.state.Q is None):

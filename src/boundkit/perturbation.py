@@ -24,7 +24,7 @@ from typing import Callable
 
 import numpy as np
 
-from .observables import Quantity, expectation_value
+from .observables import Quantity, _real_function, expectation_value
 from .units import hartree_to
 
 __all__ = ["first_order_shift", "ShiftComparison", "compare_shift"]
@@ -39,8 +39,8 @@ def first_order_shift(level, delta: Callable[[np.ndarray], np.ndarray], *, scala
     the integral is split there (the level's own nodes do not know of them).
     See the module docstring for the densities.
     """
-    if not callable(delta):
-        raise ValueError("delta: give a vectorised function of r in bohr returning hartree")
+    delta = _real_function(delta, "delta", "pass the real part for the shift; the expectation value of an "
+                                           "absorptive part -W(r) is minus half the width (a second call)")
     kind = "P2-Q2" if scalar and level.state.Q is not None else "density"
     if scalar and level.state.density_weight is not None:
         raise ValueError("scalar: the first-order shift of a scalar term is not implemented for Klein-Gordon; "
