@@ -78,7 +78,9 @@ def test_exported_states_in_angstrom_keep_the_normalisation(tmp_path):
 def test_states_refuse_a_bad_suffix():
     r = run("solve", "-e", "schrodinger", "-n", "1", "--states", "out.txt")
     assert r.exit_code == 2
-    assert r.output.strip().splitlines()[-1] == ("boundkit: error: states: file 'out.txt' must end in .csv or .npz")
+    # refused before solving (it printed every level first)
+    assert r.output.strip().splitlines() == ["boundkit: error: --states 'out.txt': unsupported states format '.txt'; "
+                                             "use .csv or .npz"]
     with pytest.raises(ValueError, match="states: file 'x.dat' must end in .csv or .npz"):
         read_states("x.dat")
     import dataclasses

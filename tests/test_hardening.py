@@ -907,3 +907,26 @@ def test_a_constant_potential_is_named_as_such(expr):
         boundkit.solve("schrodinger", lambda r: 2.0 + 0.0 * r)
     with pytest.raises(ValueError, match=r"too weak to bind anything"):      # a zero potential keeps its message
         boundkit.solve("schrodinger", lambda r: 0.0 * r)
+
+
+def test_an_unwritable_states_path_is_refused_before_solving(tmp_path):
+    """--states st.txt printed all the levels and only then failed; the format is known before solving."""
+    for name, shown in (("st.txt", "'.txt'"), ("x", "'(none)'")):
+        res = cli("solve", "--states", tmp_path / name)
+        one_line_error(res, rf"--states '.*{name}': unsupported states format {re.escape(shown)}; use .csv or .npz$")
+        assert res.stdout == ""                                   # nothing solved, nothing printed
+    one_line_error(cli("solve", "--states", tmp_path), r"--states '.*': not a file name; write e.g. --states levels.csv")
+
+
+def test_states_and_figures_both_create_a_missing_folder(tmp_path):
+    """--plot created a missing folder, --states refused it after solving ('No such file or directory')."""
+    res = cli("solve", "--states", tmp_path / "a" / "b" / "h.csv", "--plot", tmp_path / "c" / "h.png")
+    assert res.exit_code == 0, res.output
+    assert (tmp_path / "a" / "b" / "h.csv").is_file() and (tmp_path / "c" / "h.png").is_file()
+
+
+def test_a_figure_with_no_level_to_draw_says_so(tmp_path):
+    """--plot with no bound level wrote nothing and said nothing (exit 0); --states says it, so does --plot."""
+    res = cli("solve", "--expr", "0.1*exp(-r)", "--plot", tmp_path / "never.png")
+    one_line_error(res, r"no figure written to '.*never.png': there is no level to draw$")
+    assert os.listdir(tmp_path) == []

@@ -59,6 +59,7 @@ def write_states(result, path, length_unit: str = "bohr") -> Path:
     if not result.levels:
         raise ValueError("states: the result has no levels to write")
     meta = _meta(result, unit)
+    path.parent.mkdir(parents=True, exist_ok=True)       # as figures are written
     if suffix == ".npz":
         arrays = {}
         for lv in result.levels:

@@ -18,7 +18,7 @@ import click
 from .._checks import shorten
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
-           "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
+           "check_output_path", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
            "level_count", "parse_params", "report_unit", "report_length", "api_message"]
 
 EXIT_BAD_INPUT = 2
@@ -108,6 +108,13 @@ _PLOT_FORMATS = (".png", ".svg", ".pdf")
 
 def check_plot_path(path: str | None, option: str = "--plot") -> None:
     """Refuse a figure path that cannot be a file, before anything is computed."""
+    check_output_path(path, option, _PLOT_FORMATS, "levels.png", "figure format", optional_suffix=True)
+
+
+def check_output_path(path: str | None, option: str, formats: tuple[str, ...], example: str,
+                      what: str = "format", optional_suffix: bool = False) -> None:
+    """Refuse an output path that cannot be a file of one of ``formats`` (suffixes; any case), before
+    anything is computed. A missing folder is fine (it is created when the file is written)."""
     if path is None:
         return
     p = Path(path)
@@ -117,12 +124,13 @@ def check_plot_path(path: str | None, option: str = "--plot") -> None:
         fail(f"{option} {shorten(path, 80)!r}: cannot be a file here ({exc.strerror or exc}); choose a shorter "
              "name or another folder")
     if not p.name or path.endswith(("/", os.sep)) or is_dir:
-        fail(f"{option} {path!r}: not a file name; write e.g. {option} levels.png")
+        fail(f"{option} {path!r}: not a file name; write e.g. {option} {example}")
     blocking = next((a for a in p.parents if a.exists() and not a.is_dir()), None)
     if blocking is not None:
         fail(f"{option} {path!r}: {str(blocking)!r} is a file, not a folder; choose another folder")
-    if p.suffix and p.suffix.lower() not in _PLOT_FORMATS:
-        fail(f"{option} {path!r}: unsupported figure format {p.suffix!r}; use .png, .svg or .pdf")
+    if (p.suffix or not optional_suffix) and p.suffix.lower() not in formats:
+        fail(f"{option} {path!r}: unsupported {what} {p.suffix or '(none)'!r}; use {', '.join(formats[:-1])} or "
+             f"{formats[-1]}")
 
 
 def write_figure(draw, path: str, option: str = "--plot") -> str | None:

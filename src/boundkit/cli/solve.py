@@ -6,8 +6,8 @@ import sys
 
 import click
 
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_particle, check_plot_path, clip_message,
-                     fail, json_default, report_length, report_unit, write_figure)
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_output_path, check_particle,
+                     check_plot_path, clip_message, fail, json_default, report_length, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, length_unit_option, levels_option, method_option, order_option,
                       particle_options, plot_option, potential_options, tol_option)
@@ -119,6 +119,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
 
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
+    check_output_path(states_path, "--states", (".csv", ".npz"), "levels.csv", "states format")
     try:
         unit = report_unit(energy_unit, unit_system)
         length = report_length(length_unit, unit_system)
@@ -150,6 +151,9 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
                 f"--states {states_path!r}: cannot write it ({exc.strerror or exc})"
             click.echo(f"boundkit: error: {clip_message(text)}", err=True)
             outputs_ok = False
+    if plot_path and not res.levels:
+        click.echo(f"boundkit: error: no figure written to {plot_path!r}: there is no level to draw", err=True)
+        outputs_ok = False
     if plot_path and res.levels:
         from ..plots import radial_figure
 
