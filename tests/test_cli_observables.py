@@ -127,7 +127,7 @@ def test_transitions_max_n_limit_is_an_option_named_in_the_refusal():
     assert r.exit_code == 2 and r.output.strip().endswith("more than the limit of 20; use fewer, or raise the "
                                                           "limit with --max-n-limit")
     r = run("transitions", "--max-n", "2", "--max-n-limit", "1")
-    assert r.exit_code == 2 and r.output.strip() == "boundkit: error: max_n_limit: must be >= 2, got 1"
+    assert r.exit_code == 2 and r.output.strip() == "boundkit: error: --max-n-limit: must be >= 2, got 1"
     assert run("transitions", "--max-n", "2", "--max-n-limit", "2").exit_code == 0
 
 
@@ -208,11 +208,11 @@ def test_hyperfine_command_errors():
     assert r.output.strip() == "boundkit: error: missing option '--nuclear-moment'; see boundkit hyperfine --help"
     r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.3")
     assert r.exit_code == 2
-    assert r.output.strip() == ("boundkit: error: nuclear_spin: must be a positive multiple of 1/2 (e.g. 0.5 for "
+    assert r.output.strip() == ("boundkit: error: --nuclear-spin: must be a positive multiple of 1/2 (e.g. 0.5 for "
                                 "the proton), got 0.3")
     r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--magnetized-sphere-fm", "0")
     assert r.exit_code == 2
-    assert r.output.strip() == "boundkit: error: magnetization_radius: must be > 0 and finite (fm), got 0"
+    assert r.output.strip() == "boundkit: error: --magnetized-sphere-fm: must be > 0 and finite (fm), got 0"
     # beyond Z alpha = sqrt(3)/2 the point dipole's integral diverges: refused (it printed 2.2e12 MHz, exit 0)
     r = run("hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--param", "Z=120")
     assert r.exit_code == 2 and len(r.output.strip().splitlines()) == 1

@@ -635,8 +635,8 @@ def test_phase_limits_are_options_named_in_the_refusals():
         phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=10)
     # the limits themselves: a count of at least 1, a positive eta (-1 refused every repulsive tail
     # with "more than the limit of -1")
-    one_line_error(CliRunner().invoke(main, yukawa + ["--max-nodes", "0"]), r"max_nodes: must be >= 1, got 0")
-    one_line_error(CliRunner().invoke(main, barrier + ["--max-eta", "-1"]), r"max_eta: must be positive, got -1")
+    one_line_error(CliRunner().invoke(main, yukawa + ["--max-nodes", "0"]), r"--max-nodes: must be >= 1, got 0")
+    one_line_error(CliRunner().invoke(main, barrier + ["--max-eta", "-1"]), r"--max-eta: must be positive, got -1")
     with pytest.raises(ValueError, match=r"max_eta: must be positive, got -1"):
         phase_shifts([8e-4], "schrodinger", "coulomb", {"Z": -2}, max_eta=-1)
     with pytest.raises(ValueError, match=r"max_eta: must be positive, got 0"):

@@ -930,3 +930,24 @@ def test_a_figure_with_no_level_to_draw_says_so(tmp_path):
     res = cli("solve", "--expr", "0.1*exp(-r)", "--plot", tmp_path / "never.png")
     one_line_error(res, r"no figure written to '.*never.png': there is no level to draw$")
     assert os.listdir(tmp_path) == []
+
+
+@pytest.mark.parametrize("args, message", [
+    (["phases", "--hard-core", "-1", "--energies", "0.1"], r"--hard-core: must be positive, got -1"),
+    (["phases", "--max-nodes", "0", "--energies", "0.1"], r"--max-nodes: must be >= 1, got 0"),
+    (["hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.3"],
+     r"--nuclear-spin: must be a positive multiple of 1/2"),
+    (["hyperfine", "--nuclear-moment", "2.79", "--nuclear-spin", "0.5", "--magnetized-sphere-fm", "0"],
+     r"--magnetized-sphere-fm: must be > 0 and finite \(fm\), got 0"),
+])
+def test_command_errors_name_the_option_not_the_api_keyword(args, message):
+    """The messages began with the API's keyword (hard_core:, max_nodes:, nuclear_spin:, and
+    magnetization_radius:, a name the command line does not have)."""
+    one_line_error(cli(*args), "^boundkit: error: " + message)
+
+
+def test_a_table_point_at_the_origin_names_the_option(tmp_path):
+    table = tmp_path / "t.dat"
+    table.write_text("0 -1\n1 -0.5\n2 -0.2\n")
+    one_line_error(cli("solve", "--potential-file", table), r"r must be > 0; drop the point at r <= 0 \(the behaviour at the "
+                                                  r"origin is set by origin=, --table-origin on the command line\)")

@@ -35,18 +35,23 @@ def fail(message: str) -> None:
 
 
 def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
-    """The message of an error from the public API, with its fix named the way the command names it.
+    """The message of an error from the public API, with the keywords named the way the command names them.
 
+    ``options``: keyword -> option of the command that feeds it, e.g. ``{"max_nodes": "--max-nodes"}``.
     A :class:`boundkit._checks.LimitError` names the keyword that raises its limit
-    (``max_nodes= (API)``); when the command feeds that keyword from an option of
-    its own (``options``: keyword -> option, e.g. ``{"max_nodes": "--max-nodes"}``)
-    the message names the option instead. Any other error is its own message.
+    (``max_nodes= (API)``); the message then names the option instead. A message that starts with a
+    keyword (``hard_core: must be positive``) starts with its option. Any other error is its own message.
     """
     from .._checks import LimitError
 
-    if isinstance(exc, LimitError) and options and exc.keyword in options:
+    options = options or {}
+    if isinstance(exc, LimitError) and exc.keyword in options:
         return exc.naming(options[exc.keyword])
-    return str(exc)
+    text = str(exc)
+    head, sep, rest = text.partition(":")
+    if sep and head in options:
+        return f"{options[head]}:{rest}"
+    return text
 
 
 def clip_message(message: str) -> str:

@@ -18,7 +18,7 @@ from .options import (build_potential, channel_options, energy_unit_option, equa
 
 __all__ = ["phases_cmd"]
 
-_LIMITS = {"max_nodes": "--max-nodes", "max_eta": "--max-eta"}
+_LIMITS = {"max_nodes": "--max-nodes", "max_eta": "--max-eta", "hard_core": "--hard-core", "tol": "--tol"}
 """The API keywords of the limits of :func:`boundkit.scattering.phase_shifts` -> the options that feed them."""
 
 

@@ -185,7 +185,8 @@ def hyperfine_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, t
                     scalar=scalar or None, units=unit_system)
         rows = _magnetic_rows(res, nuclear_moment, nuclear_spin, radius_fm, unit)
     except ValueError as exc:
-        fail(api_message(exc, {"max_levels": "--max-levels"}))
+        fail(api_message(exc, {"max_levels": "--max-levels", "nuclear_spin": "--nuclear-spin",
+                               "nuclear_moment": "--nuclear-moment", "magnetization_radius": "--magnetized-sphere-fm"}))
     dipole = "point dipole" if radius_fm is None else f"uniformly magnetized sphere, R = {radius_fm:g} fm"
     if as_json:
         click.echo(json.dumps({"equation": res.equation, "potential": res.potential,

@@ -276,7 +276,7 @@ def _read_lines(lines, name: str, r_default: str, v_default: str, max_points: in
         v = _number(fields[1], "V", where)
         if r <= 0:
             raise ValueError(f"{where}: r = {fields[0]} but r must be > 0; drop the point at r <= 0 "
-                             "(the origin behaviour is set by the option origin=)")
+                             "(the behaviour at the origin is set by origin=, --table-origin on the command line)")
         if rs and r <= rs[-1]:
             raise ValueError(f"{where}: r = {fields[0]} is not larger than r on line {last_line}; "
                              "r must be strictly increasing: sort the points and remove duplicates")
