@@ -462,3 +462,23 @@ def test_a_schrodinger_level_with_a_coulomb_tail_never_unbinds(potential, params
                                          r"1s never unbinds, there is no critical Z; screen the potential") as err:
         critical("schrodinger", potential, params, state="1s", vary="Z")
     assert "diving" not in str(err.value)
+
+
+def test_the_prediction_from_nearest_points_skips_a_value_solved_twice():
+    """A value solved twice (seeded, then by the plain solver) put x_j - x_i = 0 in the Lagrange weights:
+    `critical` ended in a ZeroDivisionError traceback (a tester's Dirac dive of a 100 fm Woods-Saxon well)."""
+    from boundkit.studies.critical import _predict_s
+
+    # s = 2 - p on three distinct values, one of them twice: the line's value at p = 0.5 is 1.5
+    points = [{"value": 1.0, "s": 1.0}, {"value": 1.0, "s": 1.0}, {"value": 1.5, "s": 0.5},
+              {"value": 0.0, "s": 2.0}]
+    assert _predict_s(points, 0.5) == pytest.approx(1.5, rel=1e-14)
+
+
+@pytest.mark.slow
+def test_a_dive_search_from_below_binding_ends_in_a_status_not_a_traceback():
+    res = CliRunner().invoke(main, ["critical", "-e", "dirac", "--units", "nuclear", "-p", "woods-saxon",
+                                    "--param", "depth=4", "--param", "radius=100", "--param", "diffuseness=2",
+                                    "--state", "1s1/2", "--vary", "depth", "--kind", "dive"])
+    assert res.exception is None or isinstance(res.exception, SystemExit), res.exception
+    assert "Traceback" not in res.output and res.exit_code in (0, 3)

@@ -281,8 +281,14 @@ def _lagrange_at_zero(x: list[float], y: list[float]) -> float:
 
 
 def _predict_s(points: list[dict], p: float) -> float:
-    """Threshold variable at p predicted from the (up to) three nearest points."""
-    near = sorted(points, key=lambda r: r["s"])[:3]
+    """Threshold variable at p predicted from the (up to) three nearest points at distinct values (a value
+    solved twice, by a seed and again by the plain solver, would put a zero in the Lagrange weights)."""
+    near: list[dict] = []
+    for r in sorted(points, key=lambda r: r["s"]):
+        if all(r["value"] != q["value"] for q in near):
+            near.append(r)
+        if len(near) == 3:
+            break
     return _lagrange_at_zero([r["value"] - p for r in near], [r["s"] for r in near])
 
 
