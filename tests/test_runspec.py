@@ -650,6 +650,8 @@ def test_a_critical_state_listed_twice_is_refused_at_load(tmp_path, equations, s
     ('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s", { l = 1 }, "p"]', "channels[2]"),
     ('differences = [["2p", "2s"]]', 'differences = [["2p", "2s"], ["1s", "2s"], ["2p", "2s"]]',
      "solve.differences[2]"),
+    ('differences = [["2p", "2s"]]\n', 'differences = [["2p", "2s"]]\n[scan]\nmodel = "h"\nparameter = "Z"\n'
+                                        'values = [1.0, 2.0, 1.0]\n', "scan.values[2]"),
     ('differences = [["2p", "2s"]]\n', 'differences = [["2p", "2s"]]\n[converge]\nmodel = "h"\n'
                                         'methods = ["spectral", "spectral"]\n', "converge.methods[1]"),
 ])

@@ -259,6 +259,7 @@ def _scan_values(rd: _Reader, s: dict, key: tuple, max_points: int, model: Model
             raise rd.error(key + ("values",), "give at least one value")
         if len(values) > max_points:
             raise rd.error(key + ("values",), f"{len(values)} values {too_many}")
+        _once(rd, key + ("values",), values)
     else:
         r = rd.get(s, key, "range", "table")
         rk = key + ("range",)
