@@ -256,3 +256,12 @@ def test_the_header_says_when_the_reduced_mass_is_used():
     assert r.exit_code == 0, r.output
     first = r.output.splitlines()[0]
     assert f"reduced mass {me * mp / (me + mp):.9g} MeV/c^2 with a nucleus of {mp:.9g} MeV/c^2" in first
+
+
+def test_the_header_does_not_call_a_smooth_surface_a_kink():
+    """A Woods-Saxon well is smooth everywhere; the header listed its radius as a 'jump or kink'."""
+    r = CliRunner().invoke(main, ["solve", "--units", "nuclear", "--particle", "neutron", "-p", "woods-saxon",
+                                  "--param", "depth=50", "--param", "radius=5", "--param", "diffuseness=0.6"])
+    assert r.exit_code == 0, r.output
+    line = next(x for x in r.output.splitlines() if x.startswith("potential breakpoints"))
+    assert line == "potential breakpoints (jumps, kinks or surfaces, where the mesh puts an edge): r = 5 fm"

@@ -383,7 +383,7 @@ def test_the_breakpoints_are_reported():
     assert res.diagnostics["breakpoints_bohr"] == [1.0]
     out = CliRunner().invoke(main, ["solve", "--expr", "where(r < R, -50, 0)", "--param", "R=0.5"])
     assert out.exit_code == 0, out.output
-    assert "potential breakpoints (jumps or kinks): r = 0.5 bohr" in out.output
+    assert "potential breakpoints (jumps, kinks or surfaces, where the mesh puts an edge): r = 0.5 bohr" in out.output
     out = CliRunner().invoke(main, ["solve", "--expr", "where(r < R, -50, 0)", "--param", "R=0.5", "--json"])
     assert json.loads(out.output)["diagnostics"]["breakpoints"] == [0.5]
     assert "breakpoints" not in CliRunner().invoke(main, ["solve"]).output      # hydrogen has none

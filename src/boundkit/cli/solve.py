@@ -48,7 +48,7 @@ def _table(res, unit: str, length: str = "bohr") -> str:
         f"alpha = {res.constants['alpha']:.13g} (CODATA)",
         f"binding energies (total minus rest energy) in {unit}; {_CONVENTION[labels]}",
         f"natural length of the potential {bohr_to(d.get('natural_length_bohr') or 0.0, length):.6g} {length}",
-        *(["potential breakpoints (jumps or kinks): r = "
+        *(["potential breakpoints (jumps, kinks or surfaces, where the mesh puts an edge): r = "
            + ", ".join(f"{bohr_to(b, length):.10g}" for b in d["breakpoints_bohr"][:8])
            + (f" and {len(d['breakpoints_bohr']) - 8} more" if len(d["breakpoints_bohr"]) > 8 else "")
            + f" {length}"] if d.get("breakpoints_bohr") else []),
