@@ -951,3 +951,15 @@ def test_a_table_point_at_the_origin_names_the_option(tmp_path):
     table.write_text("0 -1\n1 -0.5\n2 -0.2\n")
     one_line_error(cli("solve", "--potential-file", table), r"r must be > 0; drop the point at r <= 0 \(the behaviour at the "
                                                   r"origin is set by origin=, --table-origin on the command line\)")
+
+
+@pytest.mark.parametrize("method", ["spectral", "finite-difference"])
+def test_a_repulsive_point_charge_binds_no_dirac_level_of_the_particle(method):
+    """The Dirac equation refused Z = -1 with a message about a pole of its eliminated form and 'S = -V with a
+    confining V' (neither is the user's case), where Schrodinger says it binds no level. A repulsive vector
+    potential holds only antiparticle states in the gap (common practice: charge conjugation)."""
+    res = boundkit.solve("dirac", "coulomb", {"Z": -1}, method=method)
+    assert res.status == "ok" and res.levels == () and res.diagnostics["bound_count"] == 0
+    assert "binds no level of the particle: it is nowhere attractive" in res.message
+    res_cli = cli("solve", "-e", "dirac", "--param", "Z=-1", "--method", method)
+    assert res_cli.exit_code == 0 and "binds no level of the particle" in res_cli.stdout

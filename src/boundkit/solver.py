@@ -1186,8 +1186,15 @@ def _repulsive_everywhere(eq, pot) -> bool:
     """A Schrodinger channel whose potential (less a 1/r^2 part, which only shifts l) is nowhere below its
     threshold on the natural length's radii (1e-14 to 1e8 bohr), and neither confines nor has an attractive
     Coulomb tail: the kinetic and centrifugal energies are not negative either (for a real gamma), so no
-    level lies below the threshold. A repulsive Coulomb field took 5 s to say 'partial' without this."""
-    if eq.name != "schrodinger" or pot.confining or pot.tail_charge > 0:
+    level lies below the threshold. A repulsive Coulomb field took 5 s to say 'partial' without this.
+
+    A Dirac channel with vector terms only (no scalar) that are nowhere attractive binds no level of the
+    particle either: the states a repulsive V holds inside the gap are those of the antiparticle (a
+    repulsive Coulomb field's lie just above E = -2 m c^2, hydrogen's levels mirrored). Before this, a
+    repulsive point charge was refused with a message about a pole of the eliminated form and S = -V."""
+    if eq.name not in ("schrodinger", "dirac") or pot.confining or pot.tail_charge > 0:
+        return False
+    if eq.name == "dirac" and pot.scalar:       # only a repulsive vector potential: see _REPULSIVE_DIRAC
         return False
     _, strength, attractive = _strength(eq, pot)
     if np.any(attractive) or not np.any(strength >= 1e-3):    # V = 0: _natural_length's refusal
@@ -1201,6 +1208,9 @@ def _repulsive_everywhere(eq, pot) -> bool:
 
 _REPULSIVE = ("this potential binds no level: it is nowhere attractive (V >= 0 at every radius from 1e-14 to "
               "1e8 bohr)")
+_REPULSIVE_DIRAC = ("this potential binds no level of the particle: it is nowhere attractive (V >= 0 at every "
+                    "radius from 1e-14 to 1e8 bohr, no scalar term); the states a repulsive V holds in the gap are "
+                    "the antiparticle's")
 
 
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
@@ -1208,7 +1218,8 @@ def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> Solv
     _check_klein(eq, pot)
     if _repulsive_everywhere(eq, pot):
         return _result(eq, pot, disc, levels, tol, settings, potential_name, [], _Tally(), [], 0.0,
-                       {"bound_count": 0, "no_level_why": _REPULSIVE}, t0)
+                       {"bound_count": 0, "no_level_why": _REPULSIVE_DIRAC if eq.name == "dirac" else _REPULSIVE},
+                       t0)
     if disc.family == "spectral":
         run = _solve_laguerre(eq, pot, levels, tol)
         found, tally, per_level, worst, extra = run
