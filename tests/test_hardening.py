@@ -963,3 +963,27 @@ def test_a_repulsive_point_charge_binds_no_dirac_level_of_the_particle(method):
     assert "binds no level of the particle: it is nowhere attractive" in res.message
     res_cli = cli("solve", "-e", "dirac", "--param", "Z=-1", "--method", method)
     assert res_cli.exit_code == 0 and "binds no level of the particle" in res_cli.stdout
+
+
+def test_a_coulomb_term_pulling_a_positive_or_neutral_particle_is_warned_once(caplog, monkeypatch):
+    """A proton in a nucleus was bound deeper by the attractive Coulomb term, a neutron bound by Z = 1, with no
+    word (a tester): the potential is the particle's potential energy as written, whatever its charge."""
+    import logging
+
+    from boundkit import solver
+
+    monkeypatch.setattr(solver, "_CHARGE_WARNED", set())
+    with caplog.at_level(logging.WARNING, logger="boundkit.solver"):
+        for _ in range(2):
+            boundkit.solve("schrodinger", "coulomb", {"Z": 1}, particle="proton")
+        boundkit.solve("schrodinger", "coulomb", {"Z": -1}, particle="proton")      # repulsive: as meant
+        boundkit.solve("schrodinger", "coulomb", {"Z": 1}, particle="muon")         # negative: as meant
+        boundkit.solve("schrodinger", "yukawa", {"Z": 1, "screening_length": 2.0}, particle="neutron")
+    texts = [r.getMessage() for r in caplog.records if "not multiplied by its charge" in r.getMessage()]
+    assert texts == [
+        "particle proton has charge 1 e, and the potential's Coulomb part (charge 1) attracts it: V is used as "
+        "written, the particle's potential energy, not multiplied by its charge; write the repulsion a positive "
+        "particle feels as Z < 0",
+        "particle neutron has charge 0 e, and the potential's Coulomb part (charge 1) acts on it: V is used as "
+        "written, the particle's potential energy, not multiplied by its charge; a neutral particle feels no "
+        "Coulomb force: leave the Coulomb term out"]

@@ -1494,6 +1494,28 @@ def check_levels(levels, max_levels: int = MAX_LEVELS) -> int | None:
                        keyword="max_levels")
 
 
+_CHARGE_WARNED: set = set()
+
+
+def _check_charge(part, pot) -> None:
+    """Warn (once per particle and sign, per process) when the potential's Coulomb part attracts a particle
+    of positive charge or acts on a neutral one: V is used as written, the particle's potential energy, and is
+    not multiplied by the particle's charge (a tester's proton in a nucleus was pulled in by its Coulomb term)."""
+    z = pot.tail_charge or pot.z_vector
+    charge = part.charge
+    if charge is None or z == 0 or charge < 0 or (charge > 0 and z < 0):
+        return
+    key = (part.name, charge > 0)
+    if key in _CHARGE_WARNED:
+        return
+    _CHARGE_WARNED.add(key)
+    fix = ("write the repulsion a positive particle feels as Z < 0" if charge > 0 else
+           "a neutral particle feels no Coulomb force: leave the Coulomb term out")
+    log.warning("particle %s has charge %g e, and the potential's Coulomb part (charge %g) %s it: V is used as "
+                "written, the particle's potential energy, not multiplied by its charge; %s",
+                part.name, charge, z, "attracts" if charge > 0 else "acts on", fix)
+
+
 def setup(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
           l: int | None = None, kappa: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None, scalar=None,
@@ -1511,6 +1533,7 @@ def setup(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     if scalar is not None and eq.name == "schrodinger":
         log.info("Schrodinger equation: scalar terms are added to the vector potential")
     pot = make_potential(potential, params, scalar=scalar, units=units)
+    _check_charge(part, pot)
     settings = {
         "equation": eq.name, "l": eq.l, "kappa": eq.kappa, "j": eq.j, "particle": part.name,
         "particle_mass_MeV": part.mass_mev, "nucleus_mass_MeV": nucleus_mass_mev,
