@@ -306,6 +306,35 @@ def test_a_resolved_table_s_estimate_covers_its_interpolation_error(n, tol, stat
     assert "interpolation error" in res.diagnostics["notes"][-1]
 
 
+@pytest.mark.parametrize("method", [pytest.param("spectral", marks=pytest.mark.slow), "finite-difference"])
+@pytest.mark.parametrize("n", [30, 400])
+def test_a_seeded_level_of_a_table_carries_the_table_s_error(method, n):
+    """The studies refine one level from a seed energy (:func:`boundkit.studies._common.seeded_level`, the
+    critical search's continuation) through ``Channel.level``, beside the solve that adds the tables'
+    error: on the Hulthen table above (Z = 1, delta = 0.2, 30 points) the seeded 1s-3s came back 5e-7 to
+    4e-6 hartree off the exact E_n = -(1/n - n delta/2)^2 / 2 (Flugge, Practical Quantum Mechanics, 1971;
+    from memory, and boundkit.exact.hulthen) with estimates of 4e-14 to 4e-11, the finite differences all
+    'ok' at tol 1e-10. The estimate now holds the table's error as a solve's does (400 points, resolved:
+    the 1s still ok at tol 1e-10, as the solve says)."""
+    from boundkit.discretize import get_method
+    from boundkit.exact import hulthen
+    from boundkit.solver import setup
+    from boundkit.studies._common import seeded_level
+
+    r = np.geomspace(1e-5, 150, n)
+    term = TabulatedTerm(r, _hulthen(r), tail="exponential")
+    eq, pot, _ = setup("schrodinger", term, None, l=0)
+    for k in range(3):
+        exact = hulthen(1.0, 0.2, k + 1)
+        got = seeded_level(eq, pot, get_method(method), k, exact * 1.01, 1e-10)
+        assert abs(got["energy"] - exact) <= got["error_estimate"]
+        assert got["table_error"] <= got["error_estimate"]
+        if n == 30:
+            assert got["table_error"] > 1e-10 * abs(exact) and got["status"] == "tolerance-not-met"
+        elif k == 0:
+            assert got["status"] == "ok" and 0 < got["table_error"] < 1e-12
+
+
 def test_a_fine_table_is_not_called_coarse(caplog):
     r = np.geomspace(1e-5, 150, 400)
     with caplog.at_level(logging.WARNING, logger="boundkit.potentials.tabulated"):

@@ -120,7 +120,9 @@ def converge(equation: str = "schrodinger", potential="coulomb", params: dict | 
     the reference is a spectral solve at relative tolerance ``tol`` (default
     1e-13, near the rounding floor, so that the errors measured against it are
     the discretization's; a tol the reference cannot reach is reported in
-    ``reference_status``, as :func:`boundkit.solve` reports it). Equation, potential, params, l, kappa and levels
+    ``reference_status``, as :func:`boundkit.solve` reports it; with a table in the potential the errors
+    are those of solving its interpolant, and the reference's estimate, status and message hold the
+    table's own interpolation error). Equation, potential, params, l, kappa and levels
     mean what they mean for :func:`boundkit.solve`; ``kwargs`` are passed to
     the argument setup (particle, mass_mev, nucleus_mass_mev, scalar, units).
     ``levels`` is at most ``max_levels`` (:data:`boundkit._checks.MAX_LEVELS`, as for

@@ -50,8 +50,9 @@ difference of the two splines over r
 (:meth:`TabulatedTerm.interpolation_difference`) weighted by the level's
 density (twice its signed integral for a table within SPREAD_WARN, the
 integral of its absolute value for a coarser one; see
-``boundkit.solver._table_error``), added to the solver's own estimate; a note
-says so. For a level much shallower than its well that is far more,
+``boundkit.solver.table_error``), added to the solver's own estimate; a note
+says so. A critical value adds it too, converted to the parameter (see
+:func:`boundkit.studies.critical`). For a level much shallower than its well that is far more,
 relative to its energy, than the spread.
 
 Below the first point r_0 (``origin``):

@@ -42,7 +42,7 @@ import numpy as np
 from .._checks import check_int, check_positive
 from .._rounding import rounding_floor
 from ..discretize import get_method
-from ..solver import setup, solve_channel
+from ..solver import setup, solve_channel, table_error
 from .._threads import inside, one_blas_thread
 from ..states import convert_label
 from ..units import C_AU, constants_record
@@ -59,7 +59,9 @@ UNCERTAINTY_MEANING = (
     "+- is the estimated error of the critical value, extrapolated to threshold from the solved points: "
     "the change between fits with successive numbers of terms plus the energy errors propagated through "
     "the fit, at least 4 ulp (double precision) and at most the distance to the farther end of the "
-    "bracket (the level was solved bound at one end and not found at the other)")
+    "bracket (the level was solved bound at one end and not found at the other); with a table in the "
+    "potential, plus the table's interpolation error of the level nearest threshold converted to the "
+    "parameter (the slope dp/ds there), which no bracket bounds")
 
 BRACKET_MEANING = (
     "the bracket is the pair of solved values nearest the threshold (the level bound at the first, not "
@@ -92,7 +94,9 @@ class CriticalResult:
         the energies' error estimates propagated through the fit; never below
         what double precision supports (4 ulp of the value, or the rounding
         error of the fit) and never above the distance from the value to the
-        farther end of ``bracket`` (see :attr:`uncertainty_meaning`).
+        farther end of ``bracket``; a potential with a table adds its
+        interpolation error, converted to the parameter (see
+        :attr:`uncertainty_meaning` and the Notes of :func:`critical`).
     state : str
         The level's label (``1s``, ``2p3/2``, ...).
     equation : str
@@ -112,15 +116,18 @@ class CriticalResult:
         Potential, fixed parameters, channel, tolerances, method, particle.
     status : str
         ``'ok'``; ``'tolerance-not-met'`` (the extrapolations did not agree
-        to ``tol`` within the evaluation budget); or ``'unverified'`` (the
+        to ``tol`` within the evaluation budget, or a table's interpolation
+        error alone exceeds ``tol`` |value|); or ``'unverified'`` (the
         value lies outside the bracket: the level was lost before the
         extrapolated threshold).
     message : str
         One line saying what happened.
     points : tuple of dict
-        Every evaluation: value, found, energy (hartree), error_estimate,
-        via (``continuation`` or ``solver``), r_max (outer end of the
-        level's mesh, bohr), seconds.
+        Every evaluation: value, found, energy (hartree), error_estimate
+        (hartree; it holds table_error), table_error (hartree: the part of
+        the estimate from the interpolation of the potential's tables, 0
+        without tables), via (``continuation`` or ``solver``), r_max (outer
+        end of the level's mesh, bohr), seconds.
     parameter_unit : str
         Unit of the parameter ('' for a charge or a parameter of unknown
         unit); ``value``, ``uncertainty`` and ``bracket`` are in it.
@@ -266,6 +273,20 @@ def _extrapolate(points: list[dict], kind: str = "unbind", l: int = 0) -> tuple[
     i = int(np.argmin(diffs))
     value, propagated, rounding = est[i + 1]
     return value, max(diffs[i] + propagated, _precision_floor(value, rounding))
+
+
+def _table_uncertainty(found: list[dict]) -> float:
+    """The tables' interpolation error of a critical value: the error ``s_table`` of the threshold variable
+    at the point nearest threshold times the slope |dp/ds| of the two points nearest threshold (see the
+    Notes of :func:`critical`); 0 without tables."""
+    near = sorted(found, key=lambda r: r["s"])
+    if not near or not near[0].get("s_table"):
+        return 0.0
+    n0 = near[0]
+    n1 = next((r for r in near[1:] if abs(r["s"] - n0["s"]) > 1e-9 * r["s"] and r["value"] != n0["value"]), None)
+    if n1 is None:
+        return math.inf
+    return abs((n1["value"] - n0["value"]) / (n1["s"] - n0["s"])) * n0["s_table"]
 
 
 def _lagrange_at_zero(x: list[float], y: list[float]) -> float:
@@ -538,6 +559,22 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     once more (from a shallower seed) when the extrapolation keeps pointing
     past it, since a level can be missed by a solve.
 
+    Tables. A tabulated potential is solved as its interpolant, and each
+    point's energy carries the table's interpolation error (first order in
+    the difference of the splines of two degrees, as in a solve:
+    :func:`boundkit.solver.table_error`). That error is systematic: it moves
+    the interpolant's whole curve p(s), not one point at random, so it is
+    kept out of the fit's propagated error (which would never let the
+    extrapolation settle, and which the fit's alternating weights would
+    inflate) and added once to the result: the table's error of the point
+    nearest threshold, converted to s (dE / (2 s) when unbinding, dE when
+    diving) and to the parameter by the slope dp/ds of the two points
+    nearest threshold. For an s level dE falls like s near threshold, and
+    for l > 0 p - p_c ~ s^2, so in both cases the converted error tends to
+    a constant there. The bracket, which bounds the interpolant's critical
+    value, does not cap it. When it alone exceeds ``tol`` |p_c|, the status
+    is ``'tolerance-not-met'`` and the message names the table.
+
     Mesh. The solver sizes each level's mesh from its energy: the outer end
     is where the WKB estimate of the radial function has fallen by e^-42,
     about r_t + 42/sqrt(2 m |E|) near E = 0, so the domain grows
@@ -621,7 +658,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     def evaluate(p: float, seeds: tuple = (), plain: bool = True) -> dict:
         """Solve at p: from each seed energy in turn, then (if ``plain``) with the plain solver."""
         rec: dict[str, Any] = {"value": float(p), "found": False, "energy": None, "error_estimate": None,
-                               "via": None, "r_max": None}
+                               "table_error": None, "via": None, "r_max": None}
         t_start = time.perf_counter()
         try:
             eq, pot, _ = build(p)
@@ -660,8 +697,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                             f"({res2.message}); the search stops rather than count it as absent. Give a "
                             "bracket (bracket=, --bracket) whose ends avoid this value, or a looser energy_tol")
                 if lv is not None:
+                    # the solve's estimate holds the table's error: kept apart as a continuation's is
                     got = {"energy": lv.energy, "error_estimate": lv.error_estimate,
-                           "r_max": float(lv.state.r[-1])}
+                           "table_error": table_error(pot, lv.state), "r_max": float(lv.state.r[-1])}
         except ValueError as exc:
             last = min((r for r in points if r["found"]), key=lambda r: r["s"], default=None)
             where = (f"; the level was last found at {vary} = {last['value']:.12g} with E = "
@@ -674,10 +712,15 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         if got is not None:
             E = float(got["energy"])
             s_ = math.sqrt(max(-E, 0.0)) if kind == "unbind" else E + 2 * mc2
-            ds = (got["error_estimate"] / (2 * s_) if s_ > 0 else math.inf) if kind == "unbind" else \
-                got["error_estimate"]
-            rec.update(found=s_ > 0, energy=E, error_estimate=float(got["error_estimate"]), via=via,
-                       r_max=got.get("r_max"), s=s_, s_error=ds, mc2=mc2)
+            dt = float(got["table_error"])
+
+            def to_s(dE: float) -> float:
+                return (dE / (2 * s_) if s_ > 0 else math.inf) if kind == "unbind" else dE
+
+            # the fit propagates the solver's own error; the table's, systematic, is added at the end
+            rec.update(found=s_ > 0, energy=E, error_estimate=float(got["error_estimate"]), table_error=dt,
+                       via=via, r_max=got.get("r_max"), s=s_,
+                       s_error=to_s(max(float(got["error_estimate"]) - dt, 0.0)), s_table=to_s(dt), mc2=mc2)
         rec["seconds"] = time.perf_counter() - t_start
         points.append(rec)
         log.info("critical %s: %s = %.15g -> %s", label, vary, p,
@@ -912,18 +955,28 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     unit_s = "hartree^(1/2)" if kind == "unbind" else "hartree"
     if status == "ok" and p_out is not None and not (ahead(best, p_in) >= -unc and ahead(p_out, best) >= -unc):
         status = "unverified"
+    # the tables' error moves the interpolant's critical value itself, which the bracket is of: added after
+    # the checks against the bracket, and not bounded by it
+    table_unc = _table_uncertainty(fp)
+    fit_unc, unc = unc, unc + table_unc
     p_unit = parameter_units(potential, scalar, [vary], solve_kwargs.get("units", "atomic"))[vary]
     pu = f" {p_unit}" if p_unit else ""
     if status == "ok":
+        what = ("estimated error of the extrapolation" if not table_unc else
+                f"estimated error of the extrapolation and {table_unc:.2g}{pu} of the table's interpolation")
         message = (f"{label} {'unbinds' if kind == 'unbind' else 'dives'} at {vary} = "
-                   f"{best:.{_digits(best, unc)}g} +- {unc:.2g}{pu} (estimated error of the extrapolation); "
+                   f"{best:.{_digits(best, unc)}g} +- {unc:.2g}{pu} ({what}); "
                    f"bound at {p_in:.12g}{pu}, not found at {p_out:.12g}{pu}")
+        if table_unc > tol * abs(best):
+            status = "tolerance-not-met"
+            message += (f"; the table's interpolation error ({table_unc:.2g}{pu}) lies above tol = {tol:g} "
+                        f"(relative): give the table more points where the potential bends")
     elif status == "lost":
         status = "unverified"
         message = (f"{label} disappears between {vary} = {p_in:.12g} (E = {near['energy']:.10g} hartree, "
                    f"{near['s']:.4g} {unit_s} from threshold) and {p_out:.12g}, before its threshold; "
                    f"extrapolating to the threshold gives {best:.12g}, which is not confirmed")
-    elif status == "unverified" or (p_out is not None and ahead(best, p_out) > unc):
+    elif status == "unverified" or (p_out is not None and ahead(best, p_out) > fit_unc):
         status = "unverified"
         message = (f"the extrapolated value {best:.12g} lies outside the bracket ({p_in:.12g}, {p_out:.12g}): "
                    "the level was lost before its threshold; treat the value with caution")
@@ -948,8 +1001,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         settings["partial_solves_retried"] = {"method": other.name, "values": retried_at}
     clean = []
     for r in points:
-        clean.append({k_: r.get(k_) for k_ in ("value", "found", "energy", "error_estimate", "via", "r_max",
-                                                "seconds")})
+        clean.append({k_: r.get(k_) for k_ in ("value", "found", "energy", "error_estimate", "table_error", "via",
+                                                "r_max", "seconds")})
     result = CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
                             equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
                             settings=settings, status=status, message=message, points=tuple(clean),
