@@ -37,7 +37,7 @@ if TYPE_CHECKING:       # the operator and the locator load with the first rung,
     from .equations.variational import SymmetricOperator
     from .locator import Located
 
-__all__ = ["DEGREES", "FLOOR", "far_count", "ladder_for", "layout", "make_operator", "potential_floor",
+__all__ = ["DEGREES", "FLOOR", "far_operator", "ladder_for", "layout", "make_operator", "potential_floor",
            "solve_rung", "Rung", "spectral_done", "with_potential_floor"]
 
 log = logging.getLogger(__name__)
@@ -220,19 +220,17 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
 
 def solve_rung(eq, pot, sample_fn, gamma, r_core, edges, quiet, n, want, lo, hi, E0, scale,
                guesses=None, top_guess=None, sure: bool = True, certify: bool = True, offset: int = 0,
-               rtol: float | None = None) -> Rung:
+               rtol: float | None = None, guess_lo: float | None = None) -> Rung:
     """Build the operator at degree n and locate the levels on it (see :func:`locate_levels`)."""
     from .locator import locate_levels
 
     op = make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0)
     grid = op.grid
     return Rung(n, grid.size, op, locate_levels(op, want, lo, hi, E0, scale, guesses, top_guess, sure,
-                                                certify, offset, rtol))
+                                                certify, offset, rtol, guess_lo))
 
 
-def far_count(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi: float) -> int:
-    """Bound levels below the threshold ``hi`` counted on a far box (short-range potentials)."""
-    from .locator import count_below
-
+def far_operator(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi: float):
+    """The operator of the far box (short-range potentials: their levels are counted on it), degree 18."""
     edges, quiet = layout(eq, pot, sample_fn, r_min, r_far, [hi])
-    return count_below(make_operator(eq, sample_fn, gamma, r_core, edges, quiet, 18, hi), hi)
+    return make_operator(eq, sample_fn, gamma, r_core, edges, quiet, 18, hi)

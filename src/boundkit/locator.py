@@ -9,7 +9,10 @@ K(E) with a positive diagonal mass matrix M. Two facts make counting possible:
 
 1. dK/dE is negative definite (dp/dE <= 0 and dq/dE < 1 in the bound-state
    window), so every eigenvalue mu_j(E) of the pencil (K(E), M) decreases
-   strictly as E rises;
+   strictly as E rises (for Klein-Gordon, whose dK/dE is negative definite only
+   where E + m c^2 - V > 0, the window starts at its particle floor, where K(E)
+   is positive definite: above it every root is a particle level and is counted
+   once, below it every root is an antiparticle level; :func:`particle_floor`);
 2. a level is an energy where K(E) is singular, and the j-th level (j nodes)
    is where mu_j crosses zero.
 
@@ -64,7 +67,7 @@ import scipy.linalg as sla
 from .eigen import refine
 from .equations.variational import SymmetricOperator
 
-__all__ = ["count_below", "locate_levels", "certify_levels", "Located"]
+__all__ = ["count_below", "locate_levels", "certify_levels", "particle_floor", "Located"]
 
 log = logging.getLogger(__name__)
 
@@ -76,6 +79,39 @@ def count_below(op: SymmetricOperator, E: float) -> int:
     """N(E): the number of levels of the discrete problem below E (the inertia of K(E), counted by
     static condensation: :meth:`SymmetricOperator.count_negative`)."""
     return op.count_negative(E)
+
+
+def particle_floor(op: SymmetricOperator, lo: float, top: float, start: float) -> tuple[float, int]:
+    """Klein-Gordon: an energy E* in [lo, top] where K(E*) is positive definite (N(E*) = 0), tried at
+    ``start`` first, then on grids over [lo, top] zoomed four times on the smallest count; (E*, N(E*)),
+    with the smallest count found when no such energy is (a particle level merged with its antiparticle
+    partner: their energies are complex, and that eigenvalue of K(E) stays negative across the window).
+
+    Notes
+    -----
+    With the total energy W = E + m c^2, K(E) = A - D^2 / (2 m c^2) where A (kinetic, centrifugal and
+    (m c^2 + S)^2 / (2 m c^2) terms) does not depend on E and D = W - V: for every vector u,
+    u^T K u is a concave parabola in E. Where u^T K(E*) u > 0, a root E_k of it above E* is its upper
+    root, where the parabola falls: u^T dK/dE u < 0, the charge int (W - V) P^2 dr is positive (a
+    particle level); below E* it is the lower root (negative charge, an antiparticle level). So when
+    K(E*) is positive definite, every root above E* is a particle level and N(E) (E > E*) counts
+    them exactly: the counting argument of this module holds on (E*, threshold) although dK/dE is not
+    negative definite there (a deep vector well's particle 1s lies below W = 0), and no root lies in
+    the interval where K is positive definite. With a Lorentz-scalar potential alone (V = 0) every
+    particle level W has its mirror -W (the antiparticle) in the window (-2 m c^2, 0), and E* is W = 0.
+    """
+    best = (count_below(op, start), start)
+    a, b = lo, top
+    for _ in range(4):
+        if best[0] == 0:
+            break
+        h = (b - a) / 33
+        for E in np.linspace(a, b, 34)[1:-1]:
+            best = min(best, (count_below(op, float(E)), float(E)))
+            if best[0] == 0:
+                break
+        a, b = max(lo, best[1] - h), min(top, best[1] + h)
+    return best[1], best[0]
 
 
 def _pencil(op: SymmetricOperator, E0: float) -> np.ndarray:
@@ -270,7 +306,7 @@ def _pinned(op: SymmetricOperator, k: int, E: float, lo: float, hi: float, rtol:
 def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float, E0: float,
                   scale: float, guesses=None, top_guess: float | None = None,
                   sure: bool = True, certify: bool = True, offset: int = 0,
-                  rtol: float | None = None) -> Located:
+                  rtol: float | None = None, guess_lo: float | None = None) -> Located:
     """The lowest ``want`` levels (all below ``hi`` when None) of one grid.
 
     ``lo``, ``hi``: the bound-state window (hi may be inf for confining
@@ -284,7 +320,10 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     size the box). Without ``certify`` nothing is counted (``offset``, the count
     below the window known from an earlier grid, labels the levels) and the
     result says ``checked=False``. ``rtol`` is Newton's stopping step
-    (:func:`boundkit.eigen.refine`; default: to the rounding level).
+    (:func:`boundkit.eigen.refine`; default: to the rounding level). ``guess_lo``: guesses of the
+    pencil down to there are tried (a Klein-Gordon window starts at its particle floor,
+    :func:`particle_floor`, and the linearised pencil can put a deep 1s guess below it, at twice the
+    level: Newton's method brings it home), while levels are accepted in (lo, hi) only.
     """
     bound = None
     if want is None:         # all levels: their number is the count below the top of the window
@@ -298,7 +337,7 @@ def locate_levels(op: SymmetricOperator, want: int | None, lo: float, hi: float,
     else:
         lam = _pencil(op, E0)
         first = 0
-    inside = np.nonzero((lam > lo) & (lam < hi))[0]
+    inside = np.nonzero((lam > (lo if guess_lo is None else min(lo, guess_lo))) & (lam < hi))[0]
     if want is None:
         if bound is None:
             raise ValueError("levels: this channel has infinitely many bound levels (a confining "

@@ -684,6 +684,7 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     extra["seed_nodes"] = [lv.nodes for lv in found]      # a dived state below shifts them all by one
     gamma = extra["gamma"]
     lo, hi = eq.energy_window(pot)
+    lo = extra.get("window_bottom", lo)     # a Klein-Gordon channel's particle floor
     return Channel(eq, pot, gamma, lo, hi, extra["L"], extra["r_min"], seeds, tally, extra)
 
 
@@ -717,15 +718,24 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     _check_klein_core(eq, sample, r_min, 1e4 * L)
     extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0, "mesh": "spectral-elements"}
     lo = _pole_free_bottom(eq, sample, r_min, lo)
+    guess_lo = lo       # the pencil's guesses are tried down to here (a Klein-Gordon floor lies above it)
+    lo, floor_start = _particle_floor_by_bound(eq, sample, r_min, lo)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
     bound = None
     if short_range:
-        bound, extra["count_box"] = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi)
+        far = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi, lo, floor_start)
+        bound, extra["count_box"], lo, floor_start = far.bound, far.box, far.lo, None
+        if far.below:       # dived (Dirac) or merged (Klein-Gordon) states: not bound levels
+            extra["no_level_why"] = ("this potential binds no level in this channel: "
+                                     + _below_window(eq, far.below))
+            if eq.name == "klein-gordon":
+                tally.notes.append(_below_window(eq, far.below))
     elif levels is None:
         raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
                          + ("is confining" if pot.confining else "has a Coulomb tail")
                          + " and binds infinitely many; give a number of levels")
     extra["bound_count"] = bound
+    extra["window_bottom"] = lo
     want = n_req if levels is not None else bound
     if bound is not None:
         want = min(want, bound)
@@ -733,6 +743,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         extra["certified"] = True
         tally.notes.append("the count of levels below the threshold is 0 on a box of "
                            f"{1e4:g} natural lengths")
+        if "no_level_why" in extra and eq.name != "klein-gordon":
+            tally.notes.append(extra["no_level_why"])
         return [], tally, [], 0.0, extra
     # 1. fit the box to the highest level sought; when the layout it was fitted with already matches
     # the levels found, that rung is the first rung of the ladder
@@ -754,6 +766,18 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         energies = [_hydrogenic_guess(eq, pot, l1), _hydrogenic_guess(eq, pot, want - 1 + l1)]
         trusted = True
     E0 = energies[0] if math.isfinite(energies[0]) else 0.0
+    if floor_start is not None:
+        # a Klein-Gordon Coulomb tail (or confining potential) whose particle floor the pointwise bound
+        # did not settle (a finite nucleus: V + S far below -m c^2 inside it): counts on this box
+        from .ladder import make_operator
+        from .locator import particle_floor
+
+        op = make_operator(eq, sample, gamma, r_core, *layout(eq, pot, sample, r_min, R, energies),
+                           min(8, degrees[0]), E0)
+        lo, below = particle_floor(op, lo, min(hi, 0.0), floor_start)
+        extra["window_bottom"] = lo
+        if below:
+            tally.notes.append(_below_window(eq, below))
     rung = None
     reuse = None
     # guesses for the first rung: the levels of the last attempt when the box was refitted to them; on
@@ -765,14 +789,14 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         degree = degrees[0] if trusted and len(degrees) > 1 else min(8, degrees[0])
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
                           None if seed is None else seed.energies, None if seed is None else seed.E_top,
-                          sure=False, certify=False, rtol=rtol_first)
+                          sure=False, certify=False, rtol=rtol_first, guess_lo=guess_lo)
         if seed is not None and not certify_levels(rung.op, rung.located, want, lo, hi, scale, sure=False).certified:
             # the seeds (point-Coulomb levels, or those of a lower degree) led Newton's method to other
             # levels (a narrow Woods-Saxon well's 1s, 0.8 % off at degree 8, went to a level 5.7 hartree
             # above; a deep well inside a Coulomb tail): one count tells, and the pencil is solved instead
             tally.reseeded += rung.located.reseeded
             rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
-                              sure=False, certify=False, rtol=rtol_first)
+                              sure=False, certify=False, rtol=rtol_first, guess_lo=guess_lo)
         seed = None
         tally.reseeded += rung.located.reseeded
         got = list(rung.located.energies)
@@ -859,7 +883,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         lo_r = 0.5 * (hist.E[settled - 1][-1] + guesses[0]) if settled else lo
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, n, want - settled, lo_r, hi, E0, scale,
                           guesses, top, certify=False, offset=offset + settled,
-                          rtol=rtol_first if not rungs and len(ladder) > 1 else rtol)
+                          rtol=rtol_first if not rungs and len(ladder) > 1 else rtol,
+                          guess_lo=None if settled else guess_lo)
         tally.reseeded += rung.located.reseeded
         if settled:
             confirmed = _settled_confirmed(rung.op, rung.located, lo_r, offset, settled, want)
@@ -926,7 +951,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     extra["certified"] = bool(last.located.certified)
     found, worst = [], 0.0
     offset = last.located.offset - settled
-    if offset:
+    if offset and eq.name != "klein-gordon":       # (merged Klein-Gordon pairs were noted above)
         tally.notes.append(f"{offset} state(s) lie below the bottom of the bound-state window (dived into the "
                            "lower continuum); the levels above keep their node counts")
     if settled:
@@ -940,6 +965,11 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         E = rk.located.energies[i]
         n = principal_n(k + offset, eq.l)
         state = _element_state(eq, rk.op, E, rk.located.vectors[i])
+        if state is None:       # a root of negative Klein-Gordon charge: an antiparticle state, not a level
+            tally.notes.append(f"{eq.label(n)}: E = {E:.10g} hartree has negative charge int (E + m c^2 - V) "
+                               "P^2 dr / (m c^2) (an antiparticle state); dropped")
+            extra["why"] = "a root of negative charge (an antiparticle state) was dropped (see diagnostics)"
+            continue
         if ri not in v_abs:                  # on the nodes the state lives on
             v_abs[ri] = np.abs(rk.op.sample.V) + np.abs(rk.op.sample.S)
         V_abs = v_abs[ri]
@@ -959,7 +989,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=eq.label(n), energy=E,
                            error_estimate=est, nodes=k + offset, state=state,
                            resolution=rk.size, iterations=0, previous_state=prev_state))
-    if len(found) < want:
+    if len(found) < want and "why" not in extra:
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
                         if last.located.certified else "the count certificate failed (see diagnostics)")
     return found, tally, per_level, worst, extra
@@ -1027,6 +1057,42 @@ class _Histories:
         return k
 
 
+def _particle_floor_by_bound(eq, sample, r_min: float, lo: float) -> tuple[float, float | None]:
+    """(bottom of the window, None) for a Klein-Gordon channel whose particle floor a pointwise bound
+    settles, else (lo, where :func:`boundkit.locator.particle_floor` should start counting); other
+    equations keep lo.
+
+    Notes
+    -----
+    Below the particle floor E* (where K(E*) is positive definite, see
+    :func:`boundkit.locator.particle_floor`) every root of K(E) is an antiparticle level, of negative
+    charge: with a Lorentz-scalar Coulomb term alone (Z = 300) the solver reported the mirror of the 1s,
+    total energy -W, as the 1s with status ok. At W = 0 (E = -m c^2), 2 m K is the form of
+    -u'' + l(l+1)/r^2 + ((m c^2 + S)^2 - V^2)/c^2, positive definite when
+    (l + 1/2)^2 + r^2 ((m c^2 + S)^2 - V^2) / c^2 > 0 everywhere (Hardy's inequality, int u'^2 >=
+    int u^2 / (4 r^2)); a margin of 0.05 keeps it clear of the discrete form's rounding.
+    """
+    if eq.name != "klein-gordon":
+        return lo, None
+    mc2 = eq.mass * C_AU**2
+    r = np.logspace(math.log10(r_min), 8, 3000)
+    s = sample(r, scan=True)
+    with np.errstate(all="ignore"):
+        margin = (eq.l + 0.5) ** 2 + r * r * ((mc2 + s.S) ** 2 - s.V**2) / C_AU**2
+    if np.all(margin > 0.05):
+        return -mc2, None
+    return lo, -mc2
+
+
+def _below_window(eq, below: int) -> str:
+    """Why ``below`` states under the bottom of the window are not bound levels."""
+    if eq.name == "klein-gordon":
+        return (f"{below} particle level(s) merged with their antiparticle partners (complex energies: the "
+                "count N(E) stays above 0 across the window); they are not bound levels")
+    return (f"{below} state(s) lie below the bottom of the bound-state window (dived into the lower continuum); "
+            "they are not bound levels")
+
+
 def _pole_free_bottom(eq, sample, r_min: float, lo: float) -> float:
     """Bottom of the Dirac window where E + 2mc^2 - V + S > 0 everywhere: below it the eliminated
     form has a pole (a strong repulsive V - S), and counts there mean nothing."""
@@ -1083,8 +1149,9 @@ def _check_klein_core(eq, sample, r_min: float, R: float) -> None:
             "repulsive core (Klein's paradox); soften the core below 2 m c^2 or use the Schrodinger equation")
 
 
-def _element_state(eq, op, E: float, y) -> RadialState:
-    """Normalised radial functions of a level on a spectral-element grid."""
+def _element_state(eq, op, E: float, y) -> RadialState | None:
+    """Normalised radial functions of a level on a spectral-element grid; None for a Klein-Gordon root
+    of negative (or zero) charge, which no normalisation makes a particle level."""
     grid, s = op.grid, op.sample
     f = op.expand(np.asarray(y, dtype=float))
     r = s.r
@@ -1095,6 +1162,8 @@ def _element_state(eq, op, E: float, y) -> RadialState:
     Q = eq.small_component(E, s, g)
     weight = eq.density_weight(E, s)
     comps = (P,) if Q is None else (P, Q)
+    if weight is not None and Q is None and not float(np.sum(w_dr * weight * P * P)) > 0:
+        return None     # Klein-Gordon: negative (or zero) charge, not a particle level
     comps, _ = normalise(w_dr, *comps, weight=weight)
     return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma,
                        r_core=op.r_core, elements=grid.elements, family="spectral",
@@ -1309,21 +1378,40 @@ def _potential_range(eq, pot) -> float:
     return float(r[strong[-1]]) if strong.size else 0.0
 
 
-def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float
-               ) -> tuple[int, float]:
-    """(bound levels of a short-range potential below the threshold ``hi``, counted on a far box; the
-    box's radius in bohr). A level bound by less than about 1/(2 m R^2) on a box of radius R is not
-    counted: its zero-energy solution has no node inside the box yet.
+class _FarCount(NamedTuple):
+    """The far-box count of a short-range potential (:func:`_far_bound`)."""
+
+    bound: int          # levels in the window (lo, threshold)
+    box: float          # the box's radius, bohr
+    lo: float           # the bottom of the window (a Klein-Gordon channel's particle floor)
+    below: int          # states below it: dived (Dirac), or particle levels merged with their antiparticles
+
+
+def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float,
+               lo: float = -math.inf, floor_start: float | None = None) -> _FarCount:
+    """Bound levels of a short-range potential in the window (lo, hi), counted on a far box: N(hi) -
+    N(lo). A level bound by less than about 1/(2 m R^2) on a box of radius R is not counted: its
+    zero-energy solution has no node inside the box yet. States below lo are not bound levels: a Dirac
+    level that dived into the lower continuum is still counted by N(hi), and was reported as a bound
+    level that could not be found (status 'partial' for a square well whose only level had dived).
+    ``floor_start``: a Klein-Gordon channel's particle floor is looked for on this box, from there
+    (:func:`boundkit.locator.particle_floor`), and becomes lo.
 
     The box reaches 1e4 natural lengths, and ten times the potential's range (:func:`_potential_range`):
     a long-ranged well (a Yukawa potential screened at 3700 natural lengths) has levels that turn
     round beyond 1e4 L, and a box that cuts them off squeezes them up to the threshold and out of the
     count (tests/test_level_count.py)."""
-    from .ladder import far_count
+    from .ladder import far_operator
+    from .locator import count_below, particle_floor
 
     reach = _potential_range(eq, pot)
     r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L), 10 * reach)
-    return far_count(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi), float(r_far)
+    op = far_operator(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
+    if floor_start is not None:
+        lo, below = particle_floor(op, lo, min(hi, 0.0), floor_start)
+    else:
+        below = count_below(op, lo) if math.isfinite(lo) else 0
+    return _FarCount(count_below(op, hi) - below, float(r_far), lo, below)
 
 
 def laguerre_scale(eq, pot, gamma: float) -> tuple[float, float, float]:
@@ -1362,7 +1450,7 @@ def _solve_laguerre(eq, pot, levels, tol):
         hi = eq.energy_window(pot)[1]
         n_req = 1 if levels is None else levels          # as the elements size their box
         counted = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, n_req, hi), n_req, hi)
-        bound = counted[0]
+        bound = counted.bound
         want = bound if levels is None else min(levels, bound)
     out = solve_laguerre(eq, pot, want, tol, sample, gamma, r_lo, a) if want else None
     if out is None:
