@@ -515,6 +515,140 @@ def test_continuum_state_energy_normalisation_and_dirac_small_component():
     assert abs(np.max(np.abs(st.Q)) / np.max(np.abs(st.P)) - math.sqrt(E / (E + 2 * C_AU**2))) < 1e-3
 
 
+def _well_outside(l, k, K, R, p_in=1.0, p_out=1.0, kap=0):
+    """(a, b) of the outside solution u = a F^(k r) + b G^(k r) (F^ = x j_l(x) ~ sin(x - l pi/2),
+    G^ = -x y_l(x) ~ cos(x - l pi/2)) joined at R to the inside solution K r j_l(K r), which is
+    positive near the origin: u and p (u' + kap u / r) continuous at R (the matching of
+    square_well_tan, kept as coefficients so that their signs say which way u goes far out)."""
+    Fi, dFi, _, _ = rb(l, K * R)
+    F, dF, Y, dY = rb(l, k * R)
+    G, dG = -Y, -dY
+    w_in = p_in * (K * dFi + kap * Fi / R)
+    wF, wG = p_out * (k * dF + kap * F / R), p_out * (k * dG + kap * G / R)
+    det = F * wG - G * wF
+    return (Fi * wG - G * w_in) / det, (F * w_in - Fi * wF) / det
+
+
+def _well_state(l, k, K, R, r, **join):
+    """Exact u of the square well at radii r, on the scale of the inside solution K r j_l(K r)."""
+    a, b = _well_outside(l, k, K, R, **join)
+    inside = r < R
+    x = np.where(inside, K * r, k * r)
+    F, _, Y, _ = rb(l, x)
+    return np.where(inside, F, a * F - b * Y)
+
+
+def _absolute_well_phase(l, E, V0, R):
+    """The absolute phase shift of a Schrodinger square well at E, independently of boundkit: far out
+    u ~ rho sin(k r - l pi/2 + phi) with phi = atan2(b, a) (rho > 0 because u is taken positive near
+    the origin), so phi is delta modulo 2 pi; phi is followed continuously (np.unwrap) down from
+    k = 400 K0, where it is taken on the branch nearest 0 (delta -> 0 at high energy)."""
+    k_top = 400 * math.sqrt(2 * (E + V0))
+    k = np.geomspace(k_top, math.sqrt(2 * E), 20000)
+    a, b = _well_outside(l, k, np.sqrt(k * k + 2 * V0), R)
+    phi = np.unwrap(np.arctan2(b, a))
+    phi -= 2 * np.pi * round(phi[0] / (2 * np.pi))
+    assert abs(phi[0]) < 0.1 and np.max(np.abs(np.diff(phi))) < 0.1      # anchored, and finely followed
+    return float(phi[-1])
+
+
+@pytest.mark.parametrize("l, E, V0, R, norm", [
+    (0, 0.3, 0.3, 2.0, "unit-amplitude"),     # no bound level: delta/pi rounds to 0
+    (0, 0.3, 1.0, 2.0, "unit-amplitude"),     # the tester's well: delta = 1.632, rounds to 1
+    (0, 0.3, 1.0, 2.0, "energy"),
+    (0, 0.05, 4.0, 2.0, "unit-amplitude"),    # two bound levels, near threshold: rounds to 2
+    (0, 0.3, 8.0, 2.0, "energy"),
+    (1, 0.2, 3.0, 2.0, "unit-amplitude"),
+])
+def test_continuum_state_sign_follows_its_phase_on_every_branch(l, E, V0, R, norm):
+    """P ~ sin(k r - l pi/2 + delta) far out with the delta returned, and P > 0 near the origin, for
+    every integer part of delta/pi. The state came out as minus that (and negative near the origin)
+    whenever round(delta/pi) was odd: the amplitude belonged to delta folded into (-pi/2, pi/2] while
+    the returned delta was on the node-count branch. Exact: the square well's inside and outside
+    solutions joined at R (Schiff, Quantum Mechanics, 3rd ed. 1968, sec. 19; from memory) and its
+    absolute phase followed down from high energy (_absolute_well_phase); energy normalisation
+    sqrt(2 m / (pi k)) (common practice)."""
+    k, K = math.sqrt(2 * E), math.sqrt(2 * (E + V0))
+    exact = _absolute_well_phase(l, E, V0, R)
+    r = np.array([0.02, 0.5 * R, 0.9 * R, 1.3 * R, 11.0, 37.7])
+    st = continuum_state(E, "schrodinger", SquareWell(V0=V0, R=R), l=l, r=r, normalisation=norm)
+    assert abs(st.delta - exact) < 1e-8, (st.delta, exact)
+    a, b = _well_outside(l, k, K, R)
+    P = _well_state(l, k, K, R, r) / math.hypot(a, b)
+    if norm == "energy":
+        P = P * math.sqrt(2 / (math.pi * k))
+    assert np.allclose(st.P, P, rtol=1e-7, atol=1e-9 * np.max(np.abs(P))), (st.P, P)
+    assert st.P[0] > 0
+
+
+def test_continuum_state_branches_covered():
+    """The cases above reach delta/pi = 0, 1 and 2 (from the exact phase, not boundkit's)."""
+    got = {round(_absolute_well_phase(0, E, V0, 2.0) / math.pi) for E, V0 in ((0.3, 0.3), (0.3, 1.0), (0.05, 4.0))}
+    assert got == {0, 1, 2}
+
+
+def test_continuum_state_of_a_yukawa_well_is_positive_near_the_origin():
+    """The tester's second case (Yukawa Z = 1, screening length 2, E = 0.3, delta/pi about 0.58): P
+    positive near the origin and, far out where the tail is negligible, sin(k r + delta). Exact form:
+    the unit-amplitude definition of the docstring."""
+    E = 0.3
+    k = math.sqrt(2 * E)
+    r = np.array([0.01, 0.3, 90.0, 97.7, 101.1])
+    st = continuum_state(E, "schrodinger", "yukawa", {"Z": 1.0, "screening_length": 2.0}, l=0, r=r)
+    assert round(st.delta / math.pi) == 1
+    assert np.all(st.P[:2] > 0)
+    assert np.allclose(st.P[2:], np.sin(k * r[2:] + st.delta), atol=1e-7)
+
+
+@pytest.mark.parametrize("V0", [0.5, 3.0])
+def test_continuum_state_with_a_coulomb_tail_follows_its_phase(V0):
+    """V = -1/r - V0 for r < R, -1/r outside: inside the regular Coulomb function of the energy
+    E + V0, F_l(eta_in, k_in r) (positive near the origin), outside a F_l(eta, k r) + b G_l(eta, k r),
+    joined with u and u' continuous (mpmath coulombf / coulombg, derivatives by mpmath.diff); far out
+    F ~ sin(Theta + sigma_l), G ~ cos(Theta + sigma_l) (Abramowitz & Stegun ch. 14, 1964), so the
+    unit-amplitude state is u / hypot(a, b) and delta = atan2(b, a) mod 2 pi. V0 = 3 puts delta/pi
+    near 1 (odd: the case that came out with the wrong sign)."""
+    l, E, R, Z = 0, 0.3, 2.0, 1.0
+    k, kin = math.sqrt(2 * E), math.sqrt(2 * (E + V0))
+    eta, eta_in = -Z / k, -Z / kin
+    r = np.array([0.05, 1.0, 1.9, 3.0, 25.0])
+    st = continuum_state(E, "schrodinger", ["coulomb", SquareWell(V0=V0, R=R)], {"Z": Z}, l=l, r=r)
+    with mpmath.workdps(25):
+        fin = lambda x: mpmath.coulombf(l, eta_in, x)     # noqa: E731
+        f = lambda x: mpmath.coulombf(l, eta, x)          # noqa: E731
+        g = lambda x: mpmath.coulombg(l, eta, x)          # noqa: E731
+        u, du = fin(kin * R), kin * mpmath.diff(fin, kin * R)
+        F, dF, G, dG = f(k * R), k * mpmath.diff(f, k * R), g(k * R), k * mpmath.diff(g, k * R)
+        det = F * dG - G * dF
+        a, b = float((u * dG - G * du) / det), float((F * du - u * dF) / det)
+        exact = np.array([float(fin(kin * x)) if x < R else a * float(f(k * x)) + b * float(g(k * x)) for x in r])
+    rho, phi = math.hypot(a, b), math.atan2(b, a)
+    if V0 == 3.0:
+        assert round(st.delta / math.pi) % 2 == 1
+    assert abs(math.remainder(st.delta - phi, 2 * math.pi)) < 1e-8, (st.delta, phi)
+    assert np.allclose(st.P, exact / rho, rtol=1e-7, atol=1e-9), (st.P, exact / rho)
+
+
+@pytest.mark.parametrize("equation, kappa, l, V0", [("dirac", -1, 0, 40000.0), ("dirac", 1, 1, 150000.0),
+                                                    ("klein-gordon", None, 0, 40000.0)])
+def test_relativistic_continuum_state_follows_its_phase(equation, kappa, l, V0):
+    """Klein-Gordon and Dirac square wells deep enough for an odd delta/pi (1, 3, 1): P is the inside Riccati-
+    Bessel function K r j_l(K r) (positive near the origin) joined at R, P ~ sin(k r - l pi/2 + delta)
+    far out. Matching as in test_dirac_square_well (u and p (u' + kappa u / r) continuous, p = c^2 /
+    (E + 2 m c^2 - V) for Dirac; u and u' for Klein-Gordon; derived from the radial equations here)."""
+    E, R = 2000.0, 0.01
+    c2 = C_AU**2
+    k = math.sqrt(E * (E + 2 * c2)) / C_AU
+    K = math.sqrt((E + V0) * (E + V0 + 2 * c2)) / C_AU
+    join = {"p_in": c2 / (E + V0 + 2 * c2), "p_out": c2 / (E + 2 * c2), "kap": kappa} if equation == "dirac" else {}
+    r = np.array([0.001, 0.008, 0.02, 0.05])
+    st = continuum_state(E, equation, SquareWell(V0=V0, R=R), l=l if kappa is None else None, kappa=kappa, r=r)
+    a, b = _well_outside(l, k, K, R, **join)
+    assert round(st.delta / math.pi) % 2 == 1, st.delta
+    assert abs(math.remainder(st.delta - math.atan2(b, a), 2 * math.pi)) < 1e-7
+    assert np.allclose(st.P, _well_state(l, k, K, R, r, **join) / math.hypot(a, b), rtol=1e-6, atol=1e-8)
+
+
 # --- result objects ---------------------------------------------------------------------------
 def test_phase_shifts_result_is_frozen_and_serialises_with_units():
     res = phase_shifts([1.0, 0.1], "schrodinger", "yukawa", {"Z": 1.0, "screening_length": 1.0}, energy_unit="eV")

@@ -281,6 +281,24 @@ def test_the_finer_check_lets_no_box_state_through():
     assert r.energy == pytest.approx(3.426390, abs=1e-6)
 
 
+def test_angles_closer_than_the_minimum_spread_are_refused():
+    """Two equal (or nearly equal) angles make the theta test empty: the rotated continuum, which moves
+    by about 2 |E| dtheta (measured 1.9 to 2.1 |E| dtheta on the barrier, Coulomb and Yukawa spectra),
+    stayed within the stability threshold, and angles 0.3, 0.3 (or 0.3, 0.3000001) gave 17
+    'resonances' in (0.5, 6) hartree, 16 of them continuum points at 0.50 to 0.94 hartree, with status
+    ok. At spreads down to 0.03 rad a continuum point next to threshold still passed (window (-0.5,
+    3.5), angles 0.15 and 0.18); from 0.05 rad on none did in the windows measured. The minimum spread
+    of 0.05 rad is accepted and finds the barrier's one resonance (published value: Moiseyev, Certain
+    and Weinhold, Mol. Phys. 36, 1613 (1978), E = 3.426390 - 0.012774 i; from memory)."""
+    with pytest.raises(ValueError, match=r"angles: .* farthest other angle, 0.3 rad, is only 0 rad"):
+        boundkit.resonances("schrodinger", barrier, window=(0.5, 6.0), angles=(0.3, 0.3))
+    res = boundkit.resonances("schrodinger", barrier, window=(0.5, 6.0), angles=(0.3, 0.35))
+    assert res.status == "ok", res.message
+    (r,) = res.resonances
+    assert r.energy == pytest.approx(3.426390, abs=1.5e-6)
+    assert r.width / 2 == pytest.approx(0.012774, abs=1.5e-6)
+
+
 def test_window_without_a_resonance_says_so():
     res = boundkit.resonances("schrodinger", barrier, window=(0.5, 1.0))
     assert res.success and res.status == "none-stable" and res.resonances == ()
@@ -485,6 +503,9 @@ def test_supercritical_1s_width_grows_from_zero_beyond_diving():
     ({"window": 3.0}, r"window: expected \(lower, upper\)"),
     ({"window": (3, 4), "angles": (0.3,)}, "angles: give at least two scaling angles"),
     ({"window": (3, 4), "angles": (0.3, 2.0)}, "angles: give at least two scaling angles"),
+    ({"window": (3, 4), "angles": (0.3, 0.3)}, r"angles: .* only 0 rad from it.* at least 0.05 rad from the first"),
+    ({"window": (3, 4), "angles": (0.3, 0.3000001)}, r"angles: .* only 1e-07 rad from it"),
+    ({"window": (3, 4), "angles": (0.3, 0.33, 0.28)}, r"angles: .* farthest other angle, 0.33 rad, is only 0.03 rad"),
     ({"window": (3, 4), "order": 3}, "order: must be >= 6"),
     ({"window": (3, 4), "tol": 0}, "tol: must be positive"),
     ({"window": (3, 4), "r0": -1.0}, "r0: must be >= 0"),
@@ -549,6 +570,7 @@ def test_cli_tabulated_barrier(tmp_path, barrier_result):
 @pytest.mark.parametrize("args, match", [
     (["--window", "3"], "boundkit: error: --window '3': write two numbers LO,HI"),
     (["--window", "3,4", "--angles", "x"], "boundkit: error: --angles 'x': write numbers"),
+    (["--window", "0.5,6", "--angles", "0.3,0.3"], "boundkit: error: angles: the stability test compares"),
     (["--window", "4,3"], "boundkit: error: window: need lower < upper"),
     (["--window", "3,4", "--energy-unit", "furlong"], "boundkit: error: energy_unit: unknown unit"),
 ])

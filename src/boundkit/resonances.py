@@ -34,7 +34,8 @@ Method
 
    E is always the binding energy (total minus rest energy).
 3. Bound states and resonances do not move with theta; the rotated
-   continuum, E ~ e^{-2 i theta} |E| above threshold, does. Every
+   continuum, E ~ e^{-2 i theta} |E| above threshold, does (so one angle
+   must lie at least 0.05 rad from the first: ``_MIN_SPREAD``). Every
    eigenvalue in the energy window at the first angle and the finest order is
    matched to the nearest eigenvalue at every other angle (same order) and
    at the first angle with the order lowered by 4; it is kept when all these
@@ -204,6 +205,12 @@ def _sample(pot, mesh: ScaledMesh, analytic: Callable | None) -> tuple[np.ndarra
 
 
 _GAP_SHARE = 0.02   # a run's spread must stay below this share of the distance to the nearest neighbour
+# the least angle (rad) between the first scaling angle and the farthest other one: the rotated continuum
+# moves by about 2 |E| dtheta (measured 1.9 to 2.1 |E| dtheta on barrier, Coulomb and Yukawa spectra),
+# and equal angles passed 16 continuum points of (0.5, 6) hartree as resonances; at 0.01 to 0.03 rad a
+# point next to threshold still passed (|E| ~ 1e-4 hartree, where the threshold is tol x the window's
+# scale), from 0.05 rad on none did in the windows measured (tests/test_resonances.py)
+_MIN_SPREAD = 0.05
 
 
 def _split_jumps(pot, mesh: ScaledMesh, analytic: Callable | None, V: np.ndarray, S: np.ndarray) -> None:
@@ -425,7 +432,9 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         Range of the real part of the binding energy, hartree.
     angles : sequence of float
         Scaling angles theta in radians, 0 < theta < pi/2, at least two
-        (default 0.25 and 0.35).
+        (default 0.25 and 0.35), one of them at least 0.05 rad from the
+        first (the rotated continuum moves by about 2 |E| dtheta; closer
+        angles let it pass the stability test).
     order : int
         Lobatto order of the elements (>= 6); the stability test also runs
         at ``order - 4`` (first angle only).
@@ -482,6 +491,12 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     angles = tuple(check_finite("angles", a) for a in angles)
     if len(angles) < 2 or not all(0 < a < math.pi / 2 for a in angles):
         raise ValueError(f"angles: give at least two scaling angles in (0, pi/2) radians, got {angles}")
+    far = max(angles[1:], key=lambda a: abs(a - angles[0]))
+    if not abs(far - angles[0]) >= _MIN_SPREAD - 1e-12:      # 0.35 - 0.3 is 0.04999999999999999
+        raise ValueError(f"angles: the stability test compares every run with the first angle, {angles[0]:.10g} rad, "
+                         f"and the farthest other angle, {far:.10g} rad, is only {abs(far - angles[0]):.3g} rad from it: "
+                         "the rotated continuum then hardly moves and passes as resonances; give an angle at least "
+                         f"{_MIN_SPREAD:g} rad from the first (e.g. 0.25,0.35)")
     order = check_int("order", order, minimum=6)
     tol = check_positive("tol", tol)
     for name, v in (("r0", r0), ("r_max", r_max), ("h", h)):

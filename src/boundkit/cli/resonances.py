@@ -36,7 +36,7 @@ def _numbers(option: str, text: str, count: int | None = None) -> tuple[float, .
 @click.option("--window", required=True, metavar="LO,HI",
               help="Range of the real part of the binding energy, in --energy-unit.")
 @click.option("--angles", default="0.25,0.35", show_default=True, metavar="T1,T2,...",
-              help="Complex-scaling angles in radians (at least two).")
+              help="Complex-scaling angles in radians (at least two, one at least 0.05 rad from the first).")
 @click.option("--order", type=int, default=12, show_default=True,
               help="Lobatto order of the elements; the stability test also uses order - 4.")
 @click.option("--r0", type=float, default=None, help="Start of the rotated segment in bohr (default: automatic).")

@@ -379,4 +379,6 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     theta_u = raw.nodes * pi + math.atan2(k * raw.u, raw.du) % pi
     m = (theta_u - theta_F - inc) / pi
     mi = round(m)
-    return Match(delta + mi * pi, float(amp), ref, float(abs(m - mi)))
+    # C sin(x + delta) = (-1)^mi C sin(x + delta + mi pi): the amplitude found for the folded delta
+    # changes sign with each pi added (the state came out as minus sin(... + delta) for odd mi)
+    return Match(delta + mi * pi, float(-amp if mi % 2 else amp), ref, float(abs(m - mi)))
