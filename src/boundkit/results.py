@@ -40,6 +40,9 @@ class RadialState:
     discretization family (``"spectral"`` or ``"finite-difference"``).
     ``density_weight`` is the weight of P^2 in the normalised density (the
     Klein-Gordon charge density (E + mc^2 - V)/(mc^2)), None when it is 1.
+    ``order`` is the algebraic order p of the nodal values' convergence (finite differences: the
+    stencil's accuracy order, 2 across a kink of the potential), None where it is geometric; error
+    estimates from two resolutions divide their change by q^p - 1 (q the ratio of their spacings).
     """
 
     r: np.ndarray
@@ -51,6 +54,7 @@ class RadialState:
     elements: tuple = ()
     family: str = ""
     density_weight: np.ndarray | None = None
+    order: int | None = None
 
     def __call__(self, r) -> np.ndarray:
         """Normalised radial function(s) at radii ``r`` (bohr).
