@@ -476,3 +476,18 @@ def test_a_complex_function_is_refused_not_cast_to_real():
         first_order_shift(s1, lambda r: -1e-3j / r)
     # a complex array with zero imaginary part is real: <r> of 1s is 3/2 (Bethe & Salpeter 1957, eq. 3.24)
     assert expectation_value(s1, lambda r: r + 0j).value == pytest.approx(1.5, rel=1e-12)
+
+
+def test_a_function_of_the_wrong_shape_is_named():
+    """f returning 3 values (or two columns) for 325 radii gave numpy's 'operands could not be broadcast
+    together with shapes (3,) (325,)'."""
+    from boundkit.observables import expectation_value, matrix_element
+
+    s1, s2 = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, levels=2).levels
+    for f in (lambda r: np.ones(3), lambda r: np.ones((len(r), 2))):
+        with pytest.raises(ValueError, match=r"^f: returned an array of shape \(\d+(, 2)?,?\) for radii of shape "
+                                             r"\(\d+,\); return one value per radius"):
+            expectation_value(s1, f)
+        with pytest.raises(ValueError, match=r"^f: returned an array of shape"):
+            matrix_element(s1, s2, f)
+    assert expectation_value(s1, lambda r: 2.0).value == pytest.approx(2.0, rel=1e-13)   # a constant: its norm

@@ -427,6 +427,11 @@ def _real_function(f, name: str = "f", fix: str = "") -> Callable[[np.ndarray], 
 
     def real(r):
         v = np.asarray(f(r))
+        if v.shape != np.shape(r):
+            if v.ndim:
+                raise ValueError(f"{name}: returned an array of shape {v.shape} for radii of shape {np.shape(r)}; "
+                                 "return one value per radius (a vectorised function of r, e.g. lambda r: r**2)")
+            v = np.full(np.shape(r), v)         # a constant
         if np.iscomplexobj(v):
             imag = np.abs(np.imag(v))
             if np.any(imag != 0):
