@@ -26,7 +26,8 @@ BAD = [
     ("unknown-parameter", dict(equation="schrodinger", potential="coulomb", params={"Z": 1, "Zeta": 2}),
      r"^params: no potential term takes parameter 'Zeta'"),
     ("missing-Z", dict(equation="schrodinger", potential="coulomb", params={}),
-     r"^params: term 'coulomb' needs parameter 'Z'"),
+     r"^params: term 'coulomb' needs parameter 'Z' \(nuclear charge number, e\); give it, e.g. params=\{'Z': 1\} "
+     r"\(--param Z=1 on the command line\)$"),
     ("kappa-zero", dict(equation="dirac", kappa=0, **COULOMB), r"^kappa: must be a non-zero integer"),
     ("l-negative-schrodinger", dict(equation="schrodinger", l=-1, **COULOMB), r"^l: must be >= 0, got -1"),
     ("l-negative-kg", dict(equation="klein-gordon", l=-2, **COULOMB), r"^l: must be >= 0, got -2"),

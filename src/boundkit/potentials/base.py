@@ -149,7 +149,7 @@ class Term:
             else:
                 raise ValueError(
                     f"params: term {self.name!r} needs parameter {p.name!r} ({p.doc}, {p.unit}); "
-                    f"give it, e.g. --param {p.name}=1"
+                    f"give it, e.g. params={{{p.name!r}: 1}} (--param {p.name}=1 on the command line)"
                 )
         self.values: dict[str, float] = values
         self._validate()
