@@ -62,11 +62,13 @@ def test_closed_forms_agree_with_the_gamma_sums():
         assert hydrogen_integral(n, l, n, l, -1) == pytest.approx(1 / n**2, rel=1e-14)
 
 
-@pytest.mark.parametrize("tol, pessimism", [(1e-8, 30), (1e-14, 60)])
+@pytest.mark.parametrize("tol, pessimism", [(1e-8, 1000), (1e-14, 60)])
 def test_hydrogen_moment_estimates_bound_the_error_and_are_not_far_above_it(tol, pessimism):
-    """Before: median estimate / error 250 at tol 1e-8 (the change itself), and 15 of these 28 values
-    outside their estimates at tol 1e-14. At the rounding floor (tol 1e-14) the estimate is the rounding
-    term, measured a median 32 times the error here (22 over hydrogen n <= 6, k in -2..20)."""
+    """Before: 15 of these 28 values outside their estimates at tol 1e-14. At the rounding floor (tol
+    1e-14) the estimate is the rounding term, measured a median 32 times the error here (22 over hydrogen
+    n <= 6, k in -2..20). At tol 1e-8 the estimate is the change between sizes, a median 250 times the
+    error (order 8, sizes in ratio 2: 2^8 - 1); scaling it down by that ratio failed on the Dirac 1s (see
+    below), so it stays pessimistic there."""
     ratios = _hydrogen_ratios(tol)
     short = [(label, k, f"{r:.3g}") for label, k, r in ratios if r < 1]
     assert not short, short
@@ -92,3 +94,16 @@ def test_spectral_states_keep_the_change_as_their_estimate():
     q = radial_moment(lv, 1)
     prev = expectation(replace(lv, state=lv.previous_state, previous_state=None), lambda r: r)
     assert q.error >= abs(q.value - prev)
+
+
+@pytest.mark.parametrize("Z", [50, 80])
+def test_dirac_1s_moments_are_within_their_estimates_at_the_default_tolerance(Z):
+    """A tester: with the change between sizes scaled by 16 / (2^8 - 1) (the order-8 Richardson factor),
+    <r^-2> of the Dirac 1s at Z = 80 was 1.0e-6 off with an estimate of 2.0e-7: near the origin, where
+    P ~ r^gamma with gamma not an integer, the two sizes are not yet in the asymptotic regime (their change
+    was only 3.2 times the finer one's error). The change itself is the estimate again."""
+    lv = boundkit.solve("dirac", "coulomb", {"Z": Z}, kappa=-1, method="finite-difference").levels[0]
+    for k in (-2, -1, 1, 2):
+        exact = dirac_moment(1, -1, Z, sc.fine_structure, k)
+        q = radial_moment(lv, k)
+        assert abs(q.value - exact) <= q.error, (k, q.value / exact - 1, q.error / abs(exact))

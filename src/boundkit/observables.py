@@ -337,44 +337,16 @@ def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
 
 
 def _estimate(value: float, other: float | None, scale: float | None = None, origin: float = 0.0,
-              factor: float = 1.0, noise: float = 0.0) -> float:
-    """The change from the previous resolution (``other``) times ``factor`` (:func:`_richardson`),
-    never below ``noise`` (:func:`_state_noise`) nor the spectral family's rounding
+              noise: float = 0.0) -> float:
+    """The change from the previous resolution (``other``), never below ``noise`` (:func:`_state_noise`)
+    nor the spectral family's rounding
     floor: 2e-14 (as for the energies) of ``scale``, the integral of the integrand's absolute value
     (an integral that cancels, an overlap or <r - <r>>, keeps the rounding of its parts), or of
     |value| when no scale is given; plus ``origin``, the rounding read from below the first node
     (:func:`_origin_error`), which both resolutions can share."""
     if other is None:
         return math.inf
-    return max(factor * abs(value - other), noise, 2e-14 * (abs(value) if scale is None else scale)) + origin
-
-
-RICHARDSON_SAFETY = 16.0
-"""Margin on the Richardson error of a family converging at an algebraic order (:func:`_richardson`)."""
-
-
-def _richardson(*pairs) -> float:
-    """Factor from the change between two resolutions to the error of the finer one, for states
-    whose nodal values converge at an algebraic order p (``RadialState.order``, finite differences):
-    RICHARDSON_SAFETY / (q^p - 1), q the ratio of the node spacings (2 on the family's ladder), at
-    most 1; 1 where the convergence is geometric (the spectral family: the change itself).
-    ``pairs`` are (state, previous state); the least favourable pair counts.
-
-    Measured on hydrogen n <= 6 and Dirac Z = 50 levels (order 8, tol 1e-8 and 1e-10): the change
-    of <r^k>, k in -2..20, was a median 250 = 2^8 - 1 times the true error of the finer state, so the
-    change alone was 250 times pessimistic. The safety covers a coarser state not yet in the
-    asymptotic regime: <r^-2> of the Dirac Z = 50 1s changed 21 times its error from 600 to 1200
-    nodes (8 left a margin of 1.1 there, with the rounding term of :func:`_state_noise`)."""
-    factor = 0.0
-    for s, prev in pairs:
-        p = getattr(s, "order", None)
-        if not p or prev is None or len(prev.r) < 2:
-            return 1.0
-        q = (len(s.r) - 1) / (len(prev.r) - 1)
-        if q <= 1.0:
-            return 1.0
-        factor = max(factor, min(1.0, RICHARDSON_SAFETY / (q**p - 1.0)))
-    return factor or 1.0
+    return max(abs(value - other), noise, 2e-14 * (abs(value) if scale is None else scale)) + origin
 
 
 FD_NOISE = 3e-16
@@ -393,8 +365,9 @@ def _state_noise(sa, sb, f, kind: str) -> float:
     of a slightly different charge would (their energies move by about 2 delta); successive sizes
     differed by less than that (<r^20> of 4f: 7.8e-13 relative error, change 2e-14). Measured on
     hydrogen n <= 6 and Dirac Z = 50 levels (<r^k>, k in -2..20, tol 1e-8 to 1e-14), the delta needed
-    to cover the errors the Richardson estimate missed grew with the grid: at most 3.3e-13 at 1200 nodes,
-    2.8e-13 at 2400 and 4800, 1e-12 at 9600 (the rounding of a derivative on a finer grid is larger)."""
+    to cover the errors that even the change between sizes divided by (2^8 - 1) / 16 missed grew with the
+    grid: at most 3.3e-13 at 1200 nodes, 2.8e-13 at 2400 and 4800, 1e-12 at 9600 (the rounding of a
+    derivative on a finer grid is larger)."""
     if "finite-difference" not in (sa.family, sb.family):
         return 0.0
     grid = sa if sa.r[-1] >= sb.r[-1] else sb
@@ -498,8 +471,8 @@ def _expectation(level, f, name: str, unit: str, kind: str, breaks: tuple,
     value, scale, below = _integrals(s, None, f, kind, breaks)
     _refuse_far(tail, scale, R, refusal)
     prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind, breaks)
-    error = _estimate(value, prev, scale, _origin_error(below, s), _richardson((s, level.previous_state)),
-                      _state_noise(s, s, f, kind)) + (tail if tail > 0 else 0.0)
+    error = _estimate(value, prev, scale, _origin_error(below, s), _state_noise(s, s, f, kind)) + \
+        (tail if tail > 0 else 0.0)
     return Quantity(name, value, error, unit, _note(level))
 
 
@@ -616,8 +589,8 @@ def matrix_element(level_a, level_b, f: Callable[[np.ndarray], np.ndarray], *,
     swapped = _integral(sb, sa, f, kind) if sa.r[-1] != sb.r[-1] else value
     pa, pb = level_a.previous_state, level_b.previous_state
     prev = None if pa is None or pb is None else _integral(pa, pb, f, kind)
-    err = max(_estimate(value, prev, scale, _origin_error(below, sa, sb), _richardson((sa, pa), (sb, pb)),
-                        _state_noise(sa, sb, f, kind)), abs(value - swapped))
+    err = max(_estimate(value, prev, scale, _origin_error(below, sa, sb), _state_noise(sa, sb, f, kind)),
+              abs(value - swapped))
     return Quantity(name, value, err + (tail if tail > 0 else 0.0), "a.u.", _note(level_a))
 
 

@@ -41,8 +41,9 @@ class RadialState:
     ``density_weight`` is the weight of P^2 in the normalised density (the
     Klein-Gordon charge density (E + mc^2 - V)/(mc^2)), None when it is 1.
     ``order`` is the algebraic order p of the nodal values' convergence (finite differences: the
-    stencil's accuracy order, 2 across a kink of the potential), None where it is geometric; error
-    estimates from two resolutions divide their change by q^p - 1 (q the ratio of their spacings).
+    stencil's accuracy order, 2 across a kink of the potential), None where it is geometric. Observables
+    do not scale their change between resolutions by it: near the origin, where P ~ r^gamma, two sizes
+    need not be in the asymptotic regime (the Dirac Z = 80 1s <r^-2>).
     """
 
     r: np.ndarray

@@ -1585,7 +1585,7 @@ def _solve_collocation(eq, pot, disc, levels, tol):
                 est = gap
                 record["estimate_from_located_level"] = True
         worst = max(worst, est / abs(E))
-        p = order or disc.order        # the observables' Richardson estimate (RadialState.order)
+        p = order or disc.order        # RadialState.order: the stencil's order (2 across a kink)
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=label, energy=E,
                            error_estimate=est, nodes=nodes, state=_state(eq, op, E, ref.vector, p),
                            resolution=sizes[-1], iterations=ref.iterations,
