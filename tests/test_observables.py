@@ -491,3 +491,29 @@ def test_a_function_of_the_wrong_shape_is_named():
         with pytest.raises(ValueError, match=r"^f: returned an array of shape"):
             matrix_element(s1, s2, f)
     assert expectation_value(s1, lambda r: 2.0).value == pytest.approx(2.0, rel=1e-13)   # a constant: its norm
+
+
+def test_klein_gordon_weight_at_a_finite_nucleus_stays_finite_below_the_first_node():
+    """A tester: <r^-2> of a pionic level with a finite nucleus was refused as divergent at the origin. The
+    weight (E + mc^2 - V)/mc^2, finite there, was extrapolated as for a point charge (a + b/r below the first
+    node), and the rounding of a turned into a weight of 2e15 at 1e-26 r_min."""
+    from boundkit.observables import radial_moment
+    from boundkit.wavefunctions import evaluate
+
+    lv = boundkit.solve("klein-gordon", "uniform-sphere", {"Z": 60, "rms_fm": 5.0}, l=0, particle="pion").levels[0]
+    s = lv.state
+    w = evaluate(s, s.r[0] * np.array([1e-26, 1e-3, 0.5]), "weight")
+    assert w == pytest.approx(np.full(3, s.density_weight[0]), rel=1e-10)     # (rounding of the line)
+    q = radial_moment(lv, -2)
+    # the nodes' own quadrature, plus the part below the first node, where u = P is linear in r (a potential
+    # finite at the origin: u ~ r^(l+1), common practice): w0 (P0 / r0)^2 r0
+    own = float(np.sum(s.weights * s.density_weight * s.P**2 / s.r**2))
+    below = s.density_weight[0] * (s.P[0] / s.r[0]) ** 2 * s.r[0]
+    assert q.value == pytest.approx(own + below, rel=1e-12)
+    assert abs(q.value - (own + below)) <= q.error
+    # a point charge keeps its 1/r weight, and <r^-2> of its s level does diverge (density ~ r^(2 gamma - 1))
+    pt = boundkit.solve("klein-gordon", "coulomb", {"Z": 60}, l=0, particle="pion").levels[0]
+    assert evaluate(pt.state, pt.state.r[0] * 1e-3, "weight")[0] == pytest.approx(
+        1e3 * pt.state.density_weight[0], rel=1e-3)
+    with pytest.raises(ValueError, match="the integral diverges at the origin"):
+        radial_moment(pt, -2)

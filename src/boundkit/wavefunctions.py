@@ -218,8 +218,9 @@ def evaluate(state, r, component: str = "P") -> np.ndarray:
     rn = state.r
     tn = np.log(rn)
     # the Klein-Gordon weight (E + mc^2 - V)/mc^2 grows like 1/r at a point charge: it is
-    # interpolated as weight * r / (r + r_core), bounded at both ends (exponent -1 below)
-    gamma = -1.0 if component == "weight" else state.gamma
+    # interpolated as weight * r / (r + r_core), bounded at both ends (exponent -1 below); at a finite
+    # nucleus it tends to a constant, and is taken as it is (exponent 0)
+    gamma = _weight_exponent(rn, values) if component == "weight" else state.gamma
     fn = values / _weight(rn, state.r_core, gamma)
     out = np.zeros_like(r)
     mid = (r >= rn[0]) & (r <= rn[-1])
@@ -233,6 +234,20 @@ def evaluate(state, r, component: str = "P") -> np.ndarray:
     if component == "weight" and (r > rn[-1]).any():
         out[r > rn[-1]] = values[-1]
     return out
+
+
+def _weight_exponent(rn: np.ndarray, w: np.ndarray) -> float:
+    """-1 when the Klein-Gordon weight w grows like 1/r towards the origin (a point charge: w r is the
+    flatter of w and w r between the nodes the origin extrapolation reads), else 0 (a potential finite
+    at the origin: w is the flatter).
+
+    With -1 always, w r of a finite nucleus was extrapolated as a line whose intercept is the rounding
+    of w r_min, which the factor 1/r below the first node turned into a weight of 1e15 at 1e-26 r_min:
+    <r^-2> of a pionic level was refused as divergent at the origin (a tester)."""
+    i, j = _origin_nodes(rn, 2)
+    flat_w = abs(w[j] / w[i] - 1.0)
+    flat_wr = abs(w[j] * rn[j] / (w[i] * rn[i]) - 1.0)
+    return 0.0 if flat_w <= flat_wr else -1.0
 
 
 def _diff_matrix(x: np.ndarray) -> np.ndarray:
