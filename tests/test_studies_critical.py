@@ -409,8 +409,8 @@ def test_critical_value_beyond_a_value_the_solver_refuses_is_reported():
     # (above), beyond that wall: the search closes in on it and says so
     from boundkit.potentials.expression import ExpressionTerm
 
-    with pytest.raises(StudyError, match=r"1s is still bound at D = 1\.000\d* and would unbind near 0\.8\d*, "
-                                         r"beyond D = 0\.99\d*, which the solver refuses "
+    with pytest.raises(StudyError, match=r"1s is still bound at D = 1\.000\d* and would unbind near 0\.8\d* "
+                                         r"\(extrapolated\), beyond D = 0\.99\d*, which the solver refuses "
                                          r"\(potential: not finite"):
         critical("schrodinger", ExpressionTerm("-Z*exp(-r/D)/r + 0*sqrt(D-1)", {"Z": 1, "D": 2}),
                  {"Z": 1, "D": 2}, state="1s", vary="D")
@@ -626,3 +626,36 @@ def test_dirac_1s_dives_in_a_woods_saxon_well_within_its_uncertainty():
                    vary="depth", kind="dive", units="nuclear")
     assert res.status == "ok", res.message
     assert abs(res.value - ref) <= res.uncertainty < 1e-8 * ref
+
+
+# --- a point charge never dives ------------------------------------------------------------------
+@pytest.mark.parametrize("equation, state, limit", [("dirac", "1s1/2", r"Z alpha < \|kappa\| = 1"),
+                                                     ("dirac", "2p3/2", r"Z alpha < \|kappa\| = 2"),
+                                                     ("klein-gordon", "1s", r"Z alpha < l \+ 1/2 = 0\.5")])
+def test_a_point_charge_is_refused_for_diving_at_once(equation, state, limit):
+    """A tester: the Dirac 1s1/2 of a point charge searched for 2 minutes and reported 'critical Z = 56.4
+    +- 2.3e+02' (below a Z where the level was found bound); the Klein-Gordon 1s 'would unbind near 498'.
+    By Sommerfeld's formula a point-charge level keeps a total energy above 0 for every Z alpha the point
+    charge allows (Dirac: E_total = m c^2 / sqrt(1 + (Z alpha / (n_r + gamma))^2); Bjorken & Drell,
+    Relativistic Quantum Mechanics, 1964, from memory), far above the lower continuum at -m c^2."""
+    with pytest.raises(ValueError, match=r"^potential: a point Coulomb charge never makes .* dive: .*"
+                                         + limit + r".* use a finite nucleus: the uniform-sphere or fermi term"):
+        critical(equation, "coulomb", {"Z": 100 if equation == "dirac" else 50}, state=state, vary="Z")
+
+
+def test_cli_refuses_a_point_charge_dive_in_one_line():
+    out = CliRunner().invoke(main, ["critical", "-e", "dirac", "--param", "Z=100", "--state", "1s1/2",
+                                    "--vary", "Z"])
+    assert out.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: potential: a point Coulomb charge never makes 1s1/2 dive: .*\n",
+                        out.output)
+
+
+def test_a_point_charge_with_more_terms_stops_at_its_limit_saying_dive():
+    """Not a bare point charge (a Yukawa term adds to it; origin charge 2 Z), so the search runs, and stops
+    where the Klein-Gordon equation refuses the point charge (2 Z alpha = 1/2): the message said 'would
+    unbind' of a dive."""
+    with pytest.raises(StudyError, match=r"^1s is still bound at Z = 34\.25\d* and would dive near \S+ "
+                                         r"\(extrapolated\), beyond Z = 34\.25\d*, which the solver refuses "
+                                         r"\(Z: for the Klein-Gordon equation a point Coulomb charge needs"):
+        critical("klein-gordon", ["coulomb", "yukawa"], {"Z": 20, "screening_length": 1.0}, state="1s", vary="Z")

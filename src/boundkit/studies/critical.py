@@ -417,6 +417,25 @@ def _finite_far(pot) -> bool:
     return bool(np.all(np.isfinite(values)))
 
 
+_POINT_RADII = np.geomspace(1e-8, 1e4, 13)
+
+
+def _bare_point_charge(pot) -> bool:
+    """Whether the potential is an attractive point Coulomb charge and nothing else: V = -Z/r with Z > 0
+    at r = 1e-8..1e4 bohr (a term or an expression), no scalar part."""
+    zv = pot.z_vector
+    if not zv > 0 or pot.z_scalar != 0:
+        return False
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        try:
+            rv = np.ravel(pot.V(_POINT_RADII)) * _POINT_RADII
+            s = np.ravel(pot.S(_POINT_RADII))
+        except (ValueError, ArithmeticError):
+            return False
+    return bool(np.allclose(rv, -zv, rtol=1e-12, atol=0.0) and np.all(s == 0))
+
+
 class _Quiet(logging.Filter):
     """Context manager: drops the potentials' log records while a trial value is built."""
 
@@ -516,7 +535,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     ------
     ValueError
         Bad input: a malformed state label, a bracket with the level bound
-        (or absent) at both ends, a start value where the level is absent.
+        (or absent) at both ends, a start value where the level is absent, a
+        dive asked of a bare point Coulomb charge (no level of it dives).
     StudyError
         The solver refused the start value (or a bracket end); the critical
         value lies beyond a value the potential or the solver refuses;
@@ -543,7 +563,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     (a square well's exact matching shows it). Diving with a Coulomb tail:
     s = E + 2 m c^2, p - p_c = a_1 s + a_2 s^2 + ... (the tail repels the
     lower continuum's states: non-analytic terms ~ exp(-c / sqrt(s)) lie
-    below every power).
+    below every power). A bare point charge is refused: its levels keep a
+    total energy above 0 for every charge it allows (Sommerfeld's formula)
+    and never dive.
 
     Search coordinate. A parameter whose opposite value the potential
     refuses, or makes not finite at r = 1e3..1e5 bohr where the start value
@@ -680,6 +702,14 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         raise ValueError("potential: a confining potential binds every level; there is no critical value")
     if kind == "dive" and eqname == "schrodinger":
         raise ValueError("kind: diving into the lower continuum needs the Dirac or Klein-Gordon equation")
+    if kind == "dive" and eqname != "schrodinger" and _bare_point_charge(pot0):
+        # E_total = m c^2 / sqrt(1 + (Z alpha / (n_r + gamma))^2) > 0 (Sommerfeld; Klein-Gordon alike) up to
+        # the largest charge for which a point charge has a solution; the search would walk to that wall
+        limit = (f"Z alpha < |kappa| = {abs(eq0.kappa)}" if eqname == "dirac" else
+                 f"Z alpha < l + 1/2 = {eq0.l + 0.5:g}")
+        raise ValueError(f"potential: a point Coulomb charge never makes {label} dive: its total energy stays above "
+                         f"0 (Sommerfeld) for every {limit}, beyond which a point charge has no solution; use a "
+                         "finite nucleus: the uniform-sphere or fermi term with its rms_fm")
     if kind == "unbind" and pot0.tail_charge > 0:
         raise ValueError(f"kind: a potential with a Coulomb tail (charge {pot0.tail_charge:g}) binds "
                          "infinitely many levels and none unbinds; use a screened potential or kind='dive'")
@@ -971,8 +1001,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             # a value outside the parameter's range: never step there again
             wall = tx
             if x_best is not None and (x_best - wall) * direction >= 0:
-                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would unbind near "
-                                 f"{best:.6g}, beyond the parameter's range: {exc}") from None
+                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would {kind} near "
+                                 f"{best:.6g} (extrapolated), beyond the parameter's range: {exc}") from None
             continue
         except _SolverRefused as exc:
             # a value the solver refuses (e.g. a potential that binds nothing, or is not finite where the
@@ -981,8 +1011,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             wall = tx
             if x_best is not None and (x_best - wall) * direction >= 0 and \
                     abs(wall - x_in) <= 1e-3 * abs(x_best - x_in):
-                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would unbind near "
-                                 f"{best:.6g}, beyond {exc.short}") from None
+                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would {kind} near "
+                                 f"{best:.6g} (extrapolated), beyond {exc.short}") from None
             continue
         if not rec["found"] and (p_out is None or ahead(p_out, target) > 0):
             p_out = target
