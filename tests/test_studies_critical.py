@@ -5,7 +5,9 @@ import functools
 import math
 import re
 
+import mpmath as mp
 import pytest
+import scipy.constants as sc
 from click.testing import CliRunner
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
@@ -53,16 +55,16 @@ def test_dirac_needs_j_for_l_above_zero():
 
 # --- extrapolation model ----------------------------------------------------------------------
 def test_exponents_follow_the_effective_range_expansion():
-    assert _exponents("unbind", 0, 4) == [1, 2, 3, 4]
-    assert _exponents("unbind", 1, 4) == [2, 3, 4, 5]      # no linear term for l > 0
-    assert _exponents("unbind", 2, 4) == [2, 4, 5, 6]      # odd powers from 2l + 1
-    assert _exponents("dive", 3, 3) == [1, 2, 3]
+    assert _exponents(0, 4) == [1, 2, 3, 4]
+    assert _exponents(1, 4) == [2, 3, 4, 5]      # no linear term for l > 0
+    assert _exponents(2, 4) == [2, 4, 5, 6]      # odd powers from 2l + 1
+    assert _exponents(None, 3) == [1, 2, 3]      # a threshold analytic in s (a dive with a Coulomb tail)
 
 
 def test_extrapolation_recovers_a_known_series():
     # p = 2 + 0.3 s^2 - 0.1 s^3 (an l = 1 threshold): the fit must return p_c = 2 exactly
     pts = [{"s": s, "value": 2 + 0.3 * s**2 - 0.1 * s**3} for s in (0.4, 0.2, 0.1, 0.05)]
-    best, unc = _extrapolate(pts, "unbind", 1)
+    best, unc = _extrapolate(pts, 1)
     assert best == pytest.approx(2.0, rel=1e-13)
     assert unc < 1e-12
 
@@ -184,7 +186,7 @@ def test_uncertainty_never_below_double_precision():
     # an exact threshold series (p linear and quadratic in s, as for Hulthen s levels) makes the fits of
     # successive degrees agree to rounding; the uncertainty must still be a few ulp of the value, not 1e-17
     pts = [{"s": s, "value": 0.84 + 0.3 * s + 0.1 * s**2} for s in (0.4, 0.2, 0.1, 0.05)]
-    best, unc = _extrapolate(pts, "unbind", 0)
+    best, unc = _extrapolate(pts, 0)
     assert best == pytest.approx(0.84, abs=4 * math.ulp(0.84))
     assert unc >= 4 * math.ulp(0.84)
     assert unc < 1e-14
@@ -198,14 +200,14 @@ def test_errors_of_the_points_are_propagated_through_the_fit():
 
     s_pts = [0.4, 0.2, 0.1, 0.05, 0.025]
     pts = [{"s": s, "value": series(s), "s_error": 1e-7 * s} for s in s_pts]
-    best, unc = _extrapolate(pts, "unbind", 0)
+    best, unc = _extrapolate(pts, 0)
     assert best == pytest.approx(1.0, abs=unc)
     shifts = []
     for i in range(len(pts)):
         for sign in (1, -1):
             moved = [dict(p) for p in pts]
             moved[i]["s"] += sign * moved[i]["s_error"]
-            shifts.append(abs(_extrapolate(moved, "unbind", 0)[0] - best))
+            shifts.append(abs(_extrapolate(moved, 0)[0] - best))
     assert max(shifts) > 1e-10                       # the errors matter at this size ...
     assert max(shifts) <= unc <= 20 * sum(shifts)    # ... and the uncertainty covers them
 
@@ -407,8 +409,9 @@ def test_critical_value_beyond_a_value_the_solver_refuses_is_reported():
     # (above), beyond that wall: the search closes in on it and says so
     from boundkit.potentials.expression import ExpressionTerm
 
-    with pytest.raises(StudyError, match=r"1s is still bound at D = 1\.000\d* and would unbind near 0\.8\d*, "
-                                         r"beyond D = 0\.99\d*, which the solver refuses \(potential: not finite"):
+    with pytest.raises(StudyError, match=r"1s is still bound at D = 1\.000\d* and would unbind near 0\.8\d* "
+                                         r"\(extrapolated\), beyond D = 0\.99\d*, which the solver refuses "
+                                         r"\(potential: not finite"):
         critical("schrodinger", ExpressionTerm("-Z*exp(-r/D)/r + 0*sqrt(D-1)", {"Z": 1, "D": 2}),
                  {"Z": 1, "D": 2}, state="1s", vary="D")
 
@@ -520,3 +523,139 @@ def test_a_table_s_interpolation_error_is_in_the_critical_value(n):
         assert re.search(r"estimated error of the extrapolation and .* of the table's interpolation\)", res.message)
     found = [p for p in res.points if p["found"]]
     assert all(0 < p["table_error"] <= p["error_estimate"] for p in found)
+
+
+# --- diving in a short-range well: the threshold is in sqrt(E + 2 m c^2) ---------------------------
+# In a well that vanishes outside, at total energy W = -m c^2 the Dirac equations outside read
+# P' = -kappa P / r, Q' = kappa Q / r + 2 m c^2 P / (hbar c): the normalizable solution has P = 0 and
+# Q ~ r^kappa, so the level dives where the regular solution has P = 0 outside (derived here). For a
+# square well of depth V0 and radius R (kappa = -1: P = r j_0(p r) inside, p hbar c = sqrt((V0 - m c^2)^2
+# - (m c^2)^2)) that is sin(p R) = 0, p R = pi: V0_c = m c^2 + sqrt((m c^2)^2 + (pi hbar c / R)^2).
+# m c^2 = E_h / alpha^2 and hbar c = E_h a_0 / alpha from scipy.constants (CODATA), as boundkit converts: the
+# tabulated "electron mass energy equivalent in MeV" differs from E_h / alpha^2 by 1.4e-11 (rounding of the
+# tables), which moves V0_c by 4.3e-11 MeV, more than a tight search's uncertainty
+HARTREE_MEV = sc.physical_constants["Hartree energy in eV"][0] * 1e-6
+HBARC_MEV_FM = HARTREE_MEV * sc.physical_constants["Bohr radius"][0] * 1e15 / sc.fine_structure
+ELECTRON_MC2_MEV = HARTREE_MEV / sc.fine_structure**2
+
+
+def _square_well_dive_depth(R_fm: float) -> float:
+    return ELECTRON_MC2_MEV + math.sqrt(ELECTRON_MC2_MEV**2 + (math.pi * HBARC_MEV_FM / R_fm) ** 2)
+
+
+def _square_well_depth_at(s_mev: float, R_fm: float) -> mp.mpf:
+    """Depth V0 (MeV) at which the 1s1/2 of the square well has E + 2 m c^2 = s_mev: the matching of Q/P
+    at R between P = r j_0(p r), Q = -p r j_1(p r) hbar c / (W + m c^2 + V0) inside and
+    P = r k_0(q r), Q = -q r k_1(q r) hbar c / (W + m c^2) outside (k_l(x) = e^-x x^-l-1 (1 + ...): modified
+    spherical Bessel functions; W = s - m c^2 the total energy, q hbar c = sqrt((m c^2)^2 - W^2)),
+    solved with mpmath at 40 digits (derived here from the radial Dirac equations)."""
+    with mp.workdps(40):
+        m, hc, R, s = mp.mpf(ELECTRON_MC2_MEV), mp.mpf(HBARC_MEV_FM), mp.mpf(R_fm), mp.mpf(s_mev)
+        W = s - m
+        q = mp.sqrt(m**2 - W**2) / hc
+
+        def mismatch(V0):
+            p = mp.sqrt((W + V0) ** 2 - m**2) / hc
+            j0, j1 = mp.sin(p * R) / (p * R), mp.sin(p * R) / (p * R) ** 2 - mp.cos(p * R) / (p * R)
+            k0_over_k1 = 1 / (1 + 1 / (q * R))
+            return (W + m) * p * j1 * k0_over_k1 - q * (W + m + V0) * j0
+
+        return mp.findroot(mismatch, mp.mpf(_square_well_dive_depth(R_fm)))
+
+
+def test_the_dive_of_a_short_range_well_has_a_half_integer_power():
+    """Exact square-well depths near the dive: V0_c - V0 = a s + b s^(3/2) + ..., s = E + 2 m c^2, with b
+    clearly non-zero (the small component outside is an l = 1 wave, whose decay constant q ~ sqrt(s)
+    enters as q^3). A series in integer powers of s misses it; the extrapolation in t = sqrt(s) with the
+    l = 1 effective-range powers (t^2, t^3, t^4, ...) recovers V0_c from the same points."""
+    R = 100.0
+    exact = _square_well_dive_depth(R)
+    ts = [0.1 / 2**i for i in range(5)]                      # t = sqrt(s / MeV), as a search takes them
+    depths = [_square_well_depth_at(t * t, R) for t in ts]
+    assert float(abs(depths[-1] - exact)) < 1e-3            # the root is the branch that dives at V0_c
+    # b / a from the two nearest points: about -0.245 (1 / MeV^(1/2)), not small
+    a_b = [(exact - d) / (t * t) for t, d in zip(ts, depths)]
+    ratio = float((a_b[-1] - a_b[-2]) / (ts[-1] - ts[-2]) / a_b[-1])
+    assert -0.3 < ratio < -0.2
+    best, unc = _extrapolate([{"s": t, "value": float(d)} for t, d in zip(ts, depths)], 1)
+    assert abs(best - exact) <= unc < 1e-11 * exact
+
+
+def test_dirac_1s_dives_in_a_square_well_at_the_exact_depth():
+    """A tester: boundkit gave 6.73123395692 +- 1.1e-10 MeV, 3.8e-9 from the exact 6.731233960753 (35 times
+    its uncertainty): integer powers of s = E + 2 m c^2 cannot follow the s^(3/2) term of the threshold."""
+    from boundkit.potentials.expression import ExpressionTerm
+
+    exact = _square_well_dive_depth(100.0)
+    res = critical("dirac", ExpressionTerm("where(r<100, -V0, 0)", {"V0": 5.0}), {"V0": 5.0}, state="1s1/2",
+                   vary="V0", kind="dive", units="nuclear")
+    assert res.status == "ok", res.message
+    assert abs(res.value - exact) <= res.uncertainty < 1e-8 * exact
+    assert res.settings["threshold_variable"] == "sqrt(E + 2 m c^2)"
+
+
+def _woods_saxon_dive_depth(radius: float, diffuseness: float) -> float:
+    """Depth (MeV) at which the electron 1s1/2 of V = -depth / (1 + exp((r - radius) / diffuseness)) (fm)
+    dives: the regular solution at W = -m c^2, integrated with scipy's DOP853 (rtol 1e-13) from the origin
+    (P ~ r, Q ~ -(W - m c^2 - V(0)) r^2 / (3 hbar c)) to r = radius + 40 diffuseness (V ~ 4e-18 depth
+    there), has P = 0 there (see above); root on the depth by brentq. Moving the end to radius + 50
+    diffuseness changes the root by < 1e-15 (measured)."""
+    W, mc2, hc = -ELECTRON_MC2_MEV, ELECTRON_MC2_MEV, HBARC_MEV_FM
+
+    def p_far(depth: float) -> float:
+        def V(r):
+            return -depth / (1 + math.exp((r - radius) / diffuseness))
+
+        def f(r, y):
+            v = V(r)
+            return [y[0] / r + (W + mc2 - v) / hc * y[1], -y[1] / r - (W - mc2 - v) / hc * y[0]]
+
+        r0 = 1e-6
+        sol = solve_ivp(f, (r0, radius + 40 * diffuseness), [r0, -(W - mc2 - V(0.0)) / (3 * hc) * r0**2],
+                        method="DOP853", rtol=1e-13, atol=1e-30)
+        return float(sol.y[0, -1] / math.hypot(*sol.y[:, -1]))
+
+    lo = _square_well_dive_depth(radius + 5 * diffuseness)
+    return brentq(p_far, lo, 1.2 * lo, xtol=1e-15, rtol=1e-15)
+
+
+def test_dirac_1s_dives_in_a_woods_saxon_well_within_its_uncertainty():
+    """A tester: 6.73951930845 +- 1.5e-10 MeV against a shooting 3.2e-9 away (22 times the uncertainty)."""
+    ref = _woods_saxon_dive_depth(100.0, 2.0)
+    res = critical("dirac", "woods-saxon", {"depth": 5.0, "radius": 100.0, "diffuseness": 2.0}, state="1s1/2",
+                   vary="depth", kind="dive", units="nuclear")
+    assert res.status == "ok", res.message
+    assert abs(res.value - ref) <= res.uncertainty < 1e-8 * ref
+
+
+# --- a point charge never dives ------------------------------------------------------------------
+@pytest.mark.parametrize("equation, state, limit", [("dirac", "1s1/2", r"Z alpha < \|kappa\| = 1"),
+                                                     ("dirac", "2p3/2", r"Z alpha < \|kappa\| = 2"),
+                                                     ("klein-gordon", "1s", r"Z alpha < l \+ 1/2 = 0\.5")])
+def test_a_point_charge_is_refused_for_diving_at_once(equation, state, limit):
+    """A tester: the Dirac 1s1/2 of a point charge searched for 2 minutes and reported 'critical Z = 56.4
+    +- 2.3e+02' (below a Z where the level was found bound); the Klein-Gordon 1s 'would unbind near 498'.
+    By Sommerfeld's formula a point-charge level keeps a total energy above 0 for every Z alpha the point
+    charge allows (Dirac: E_total = m c^2 / sqrt(1 + (Z alpha / (n_r + gamma))^2); Bjorken & Drell,
+    Relativistic Quantum Mechanics, 1964, from memory), far above the lower continuum at -m c^2."""
+    with pytest.raises(ValueError, match=r"^potential: a point Coulomb charge never makes .* dive: .*"
+                                         + limit + r".* use a finite nucleus: the uniform-sphere or fermi term"):
+        critical(equation, "coulomb", {"Z": 100 if equation == "dirac" else 50}, state=state, vary="Z")
+
+
+def test_cli_refuses_a_point_charge_dive_in_one_line():
+    out = CliRunner().invoke(main, ["critical", "-e", "dirac", "--param", "Z=100", "--state", "1s1/2",
+                                    "--vary", "Z"])
+    assert out.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: potential: a point Coulomb charge never makes 1s1/2 dive: .*\n",
+                        out.output)
+
+
+def test_a_point_charge_with_more_terms_stops_at_its_limit_saying_dive():
+    """Not a bare point charge (a Yukawa term adds to it; origin charge 2 Z), so the search runs, and stops
+    where the Klein-Gordon equation refuses the point charge (2 Z alpha = 1/2): the message said 'would
+    unbind' of a dive."""
+    with pytest.raises(StudyError, match=r"^1s is still bound at Z = 34\.25\d* and would dive near \S+ "
+                                         r"\(extrapolated\), beyond Z = 34\.25\d*, which the solver refuses "
+                                         r"\(Z: for the Klein-Gordon equation a point Coulomb charge needs"):
+        critical("klein-gordon", ["coulomb", "yukawa"], {"Z": 20, "screening_length": 1.0}, state="1s", vary="Z")

@@ -11,8 +11,11 @@ where the level does not exist -- unless the solver's answer is ``partial``
 absence, so the point is solved again with the other method family, and the
 search stops with a message if that cannot tell either. The critical value
 comes from inverse polynomial extrapolation of the parameter against a
-threshold variable that vanishes linearly (or, for l > 0, quadratically) at
-the critical point, and is accepted only when successive extrapolations
+threshold variable: the distance E + 2 m c^2 to the lower continuum for a
+dive with a Coulomb tail; the square root of the distance (the decay
+constant outside) when the level leaves a short-range potential, unbinding
+or diving, with the powers of the effective-range expansion of the wave
+outside. It is accepted only when successive extrapolations
 agree to ``tol`` and a point just past it has no level.
 
 The search runs in a coordinate that respects the parameter's range: a
@@ -189,16 +192,22 @@ class CriticalResult:
         return "\n".join([head] + [f"  {b!r}" for b in self.beyond])
 
 
-def _exponents(kind: str, l: int, count: int) -> list[int]:
-    """Powers of s in the expansion of p - p_c near threshold.
+def _exponents(l: int | None, count: int) -> list[int]:
+    """Powers of the threshold variable s in the expansion of p - p_c near threshold.
 
-    Diving: all powers (s = E + 2 m c^2 vanishes linearly). Unbinding, with
-    s = kappa = sqrt(-E): the effective-range expansion of a short-range
-    potential gives F(-kappa^2, p) = (-1)^l kappa^(2l+1) with F analytic, so
-    p - p_c holds kappa^e for even e >= 2 and for every e >= 2l + 1: all
-    powers for l = 0, no linear term for l > 0.
+    ``l = None``: s vanishes linearly at p_c and p is analytic in it, all
+    powers (a dive with a Coulomb tail, s = E + 2 m c^2: the tail repels the
+    lower continuum's states, so its non-analytic terms are exponentially
+    small, of order exp(-2 pi Z alpha m c / (hbar q)), below every power).
+    ``l >= 0``: s is, up to an analytic factor, the decay constant q of the
+    level outside a short-range potential, in a wave of orbital l (s =
+    sqrt(-E) unbinding, sqrt(E + 2 m c^2) diving; :func:`_exterior_l`). The
+    effective-range expansion gives the bound-state condition
+    F(-q^2, p) = (-1)^l q^(2l+1) with F analytic, so p - p_c holds s^e for
+    even e >= 2 and for every e >= 2l + 1: all powers for l = 0, no linear
+    term for l > 0.
     """
-    if kind == "dive":
+    if l is None:
         return list(range(1, count + 1))
     out, e = [], 1
     while len(out) < count:
@@ -206,6 +215,24 @@ def _exponents(kind: str, l: int, count: int) -> list[int]:
             out.append(e)
         e += 1
     return out
+
+
+def _exterior_l(eq, kind: str) -> int:
+    """Orbital l of the wave that carries the level outside a short-range potential at its threshold.
+
+    Unbinding (E -> 0): the channel's l (the large component's, for Dirac).
+    Diving (E -> -2 m c^2): for Klein-Gordon the same l; for Dirac the small
+    component's, which is the large one near the lower continuum: outside,
+    Q'' = (kappa (kappa - 1) / r^2 + q^2) Q (q hbar c = sqrt((m c^2)^2 - W^2),
+    W the total energy), a wave of l' = -kappa (kappa < 0) or kappa - 1
+    (kappa > 0), while P = (Q' - kappa Q / r) hbar c / (m c^2 - W) vanishes
+    with q (1s1/2: l' = 1, so p - p_c ~ s^2 with an s^3 term,
+    s = sqrt(E + 2 m c^2)).
+    """
+    kappa = getattr(eq, "kappa", None)
+    if kind == "unbind" or kappa is None:
+        return int(eq.l)
+    return -kappa if kappa < 0 else kappa - 1
 
 
 def _fit(s: list[float], p: list[float], exps: list[int],
@@ -237,13 +264,14 @@ def _precision_floor(value: float, rounding: float = 0.0) -> float:
     return max(float(rounding_floor(value)), rounding)
 
 
-def _extrapolate(points: list[dict], kind: str = "unbind", l: int = 0) -> tuple[float | None, float]:
+def _extrapolate(points: list[dict], l: int | None = 0) -> tuple[float | None, float]:
     """Parameter value where the threshold variable s vanishes, and its uncertainty.
 
     Interpolates p as c_0 + sum c_i s^(e_i) (exponents from
-    :func:`_exponents`) through the d + 1 points nearest to threshold
-    (d = 1..4) and takes c_0; returns the estimate of the degree whose change
-    from the degree below is smallest. Its uncertainty is that change, plus
+    :func:`_exponents` with ``l``; None for a threshold analytic in s)
+    through the d + 1 points nearest to threshold (d = 1..4) and takes c_0;
+    returns the estimate of the degree whose change from the degree below is
+    smallest. Its uncertainty is that change, plus
     the errors ``s_error`` of the points (if given) propagated through the
     fit, and never below what double precision supports (4 ulp of the value,
     or the rounding error of the fit). inf with fewer than three points.
@@ -258,7 +286,7 @@ def _extrapolate(points: list[dict], kind: str = "unbind", l: int = 0) -> tuple[
     s = [r["s"] for r in near]
     p = [r["value"] for r in near]
     ds = [r.get("s_error") or 0.0 for r in near]
-    exps = _exponents(kind, l, len(near) - 1)
+    exps = _exponents(l, len(near) - 1)
     est = []
     for d in range(1, len(near)):
         try:
@@ -389,6 +417,25 @@ def _finite_far(pot) -> bool:
     return bool(np.all(np.isfinite(values)))
 
 
+_POINT_RADII = np.geomspace(1e-8, 1e4, 13)
+
+
+def _bare_point_charge(pot) -> bool:
+    """Whether the potential is an attractive point Coulomb charge and nothing else: V = -Z/r with Z > 0
+    at r = 1e-8..1e4 bohr (a term or an expression), no scalar part."""
+    zv = pot.z_vector
+    if not zv > 0 or pot.z_scalar != 0:
+        return False
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        try:
+            rv = np.ravel(pot.V(_POINT_RADII)) * _POINT_RADII
+            s = np.ravel(pot.S(_POINT_RADII))
+        except (ValueError, ArithmeticError):
+            return False
+    return bool(np.allclose(rv, -zv, rtol=1e-12, atol=0.0) and np.all(s == 0))
+
+
 class _Quiet(logging.Filter):
     """Context manager: drops the potentials' log records while a trial value is built."""
 
@@ -488,7 +535,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     ------
     ValueError
         Bad input: a malformed state label, a bracket with the level bound
-        (or absent) at both ends, a start value where the level is absent.
+        (or absent) at both ends, a start value where the level is absent, a
+        dive asked of a bare point Coulomb charge (no level of it dives).
     StudyError
         The solver refused the start value (or a bracket end); the critical
         value lies beyond a value the potential or the solver refuses;
@@ -504,8 +552,20 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         p - p_c = sum_e a_e kappa^e,   e even >= 2, or e >= 2l + 1:
 
     all powers for l = 0 (E ~ -(p - p_c)^2), no linear term for l > 0
-    (E ~ -(p - p_c)). Diving: s = E + 2 m c^2 (m the reduced mass), which
-    vanishes linearly at the critical charge, p - p_c = a_1 s + a_2 s^2 + ...
+    (E ~ -(p - p_c)). Diving from a short-range potential (no Coulomb
+    tail): s = sqrt(E + 2 m c^2) (m the reduced mass), again the decay
+    constant outside up to an analytic factor, with the same series for the
+    l of the wave outside: l itself for Klein-Gordon; for Dirac that of the
+    small component, which is the large one near the lower continuum,
+    l' = -kappa (kappa < 0) or kappa - 1 (kappa > 0). A 1s1/2 has l' = 1:
+    p - p_c = a_2 s^2 + a_3 s^3 + ..., linear in E + 2 m c^2 but with a
+    (E + 2 m c^2)^(3/2) term that a series in integer powers cannot follow
+    (a square well's exact matching shows it). Diving with a Coulomb tail:
+    s = E + 2 m c^2, p - p_c = a_1 s + a_2 s^2 + ... (the tail repels the
+    lower continuum's states: non-analytic terms ~ exp(-c / sqrt(s)) lie
+    below every power). A bare point charge is refused: its levels keep a
+    total energy above 0 for every charge it allows (Sommerfeld's formula)
+    and never dive.
 
     Search coordinate. A parameter whose opposite value the potential
     refuses, or makes not finite at r = 1e3..1e5 bohr where the start value
@@ -567,8 +627,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     kept out of the fit's propagated error (which would never let the
     extrapolation settle, and which the fit's alternating weights would
     inflate) and added once to the result: the table's error of the point
-    nearest threshold, converted to s (dE / (2 s) when unbinding, dE when
-    diving) and to the parameter by the slope dp/ds of the two points
+    nearest threshold, converted to s (dE / (2 s) for a square-root
+    variable, dE for E + 2 m c^2) and to the parameter by the slope dp/ds of the two points
     nearest threshold. For an s level dE falls like s near threshold, and
     for l > 0 p - p_c ~ s^2, so in both cases the converted error tends to
     a constant there. The bracket, which bounds the interpolant's critical
@@ -632,7 +692,6 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                              f"(params[{vary!r}]) or a bracket")
         p_start = float(params[vary])
     eq0, pot0, settings0 = build(p_start)          # bad input surfaces here as ValueError
-    l_channel = eq0.l                              # orbital l of the (large) component
     if kind is None and eqname == "schrodinger" and pot0.tail_charge > 0:
         raise ValueError(f"potential: with a Coulomb tail (charge {pot0.tail_charge:g}) a Schrodinger level stays "
                          f"bound for any charge > 0, down to 0+: {label} never unbinds, there is no critical {vary}; "
@@ -643,9 +702,22 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         raise ValueError("potential: a confining potential binds every level; there is no critical value")
     if kind == "dive" and eqname == "schrodinger":
         raise ValueError("kind: diving into the lower continuum needs the Dirac or Klein-Gordon equation")
+    if kind == "dive" and eqname != "schrodinger" and _bare_point_charge(pot0):
+        # E_total = m c^2 / sqrt(1 + (Z alpha / (n_r + gamma))^2) > 0 (Sommerfeld; Klein-Gordon alike) up to
+        # the largest charge for which a point charge has a solution; the search would walk to that wall
+        limit = (f"Z alpha < |kappa| = {abs(eq0.kappa)}" if eqname == "dirac" else
+                 f"Z alpha < l + 1/2 = {eq0.l + 0.5:g}")
+        raise ValueError(f"potential: a point Coulomb charge never makes {label} dive: its total energy stays above "
+                         f"0 (Sommerfeld) for every {limit}, beyond which a point charge has no solution; use a "
+                         "finite nucleus: the uniform-sphere or fermi term with its rms_fm")
     if kind == "unbind" and pot0.tail_charge > 0:
         raise ValueError(f"kind: a potential with a Coulomb tail (charge {pot0.tail_charge:g}) binds "
                          "infinitely many levels and none unbinds; use a screened potential or kind='dive'")
+    # threshold variable s: the distance to threshold when a dive's exterior is a Coulomb tail (p analytic
+    # in it); its square root, the decay constant outside up to an analytic factor, when the level leaves a
+    # short-range potential (unbinding, or a dive from a well), with the powers of the exterior wave's l
+    root = kind == "unbind" or pot0.tail_charge == 0
+    l_fit = _exterior_l(eq0, kind) if root else None
     if beyond is not None and kind != "dive":
         raise ValueError("beyond: a level is followed past its critical value only when it dives "
                          f"(kind='dive'); this search is kind={kind!r}; leave beyond out")
@@ -711,11 +783,12 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             raise err from None
         if got is not None:
             E = float(got["energy"])
-            s_ = math.sqrt(max(-E, 0.0)) if kind == "unbind" else E + 2 * mc2
+            gap = -E if kind == "unbind" else E + 2 * mc2          # distance to threshold
+            s_ = math.sqrt(max(gap, 0.0)) if root else gap
             dt = float(got["table_error"])
 
             def to_s(dE: float) -> float:
-                return (dE / (2 * s_) if s_ > 0 else math.inf) if kind == "unbind" else dE
+                return (dE / (2 * s_) if s_ > 0 else math.inf) if root else dE
 
             # the fit propagates the solver's own error; the table's, systematic, is added at the end
             rec.update(found=s_ > 0, energy=E, error_estimate=float(got["error_estimate"]), table_error=dt,
@@ -728,7 +801,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         return rec
 
     def e_of(s_: float, mc2: float) -> float:
-        return -s_ * s_ if kind == "unbind" else s_ - 2 * mc2
+        gap = s_ * s_ if root else s_
+        return -gap if kind == "unbind" else gap - 2 * mc2
 
     def found_points() -> list[dict]:
         return [r for r in points if r["found"]]
@@ -850,10 +924,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         far from threshold ln|p| is nearer a low-degree polynomial of s (fewer overshoots),
         near it p may be exactly one (Hulthen: s is linear in delta).
         """
-        bp, up = _extrapolate(fp, kind, l_channel)
+        bp, up = _extrapolate(fp, l_fit)
         if not axis.geometric:
             return bp, up
-        bx, ux = _extrapolate([{**r, "value": x_of(r["value"])} for r in fp], kind, l_channel)
+        bx, ux = _extrapolate([{**r, "value": x_of(r["value"])} for r in fp], l_fit)
         if bx is None or bx > 700.0:
             return bp, up
         bx_p = p_of(bx)
@@ -927,8 +1001,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             # a value outside the parameter's range: never step there again
             wall = tx
             if x_best is not None and (x_best - wall) * direction >= 0:
-                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would unbind near "
-                                 f"{best:.6g}, beyond the parameter's range: {exc}") from None
+                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would {kind} near "
+                                 f"{best:.6g} (extrapolated), beyond the parameter's range: {exc}") from None
             continue
         except _SolverRefused as exc:
             # a value the solver refuses (e.g. a potential that binds nothing, or is not finite where the
@@ -937,8 +1011,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             wall = tx
             if x_best is not None and (x_best - wall) * direction >= 0 and \
                     abs(wall - x_in) <= 1e-3 * abs(x_best - x_in):
-                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would unbind near "
-                                 f"{best:.6g}, beyond {exc.short}") from None
+                raise StudyError(f"{label} is still bound at {vary} = {p_in:.12g} and would {kind} near "
+                                 f"{best:.6g} (extrapolated), beyond {exc.short}") from None
             continue
         if not rec["found"] and (p_out is None or ahead(p_out, target) > 0):
             p_out = target
@@ -952,7 +1026,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         # the bracket bounds the error whatever the extrapolation says
         reach = max(abs(best - p_in), abs(p_out - best))
         unc = max(min(unc, reach), _precision_floor(best))
-    unit_s = "hartree^(1/2)" if kind == "unbind" else "hartree"
+    unit_s = "hartree^(1/2)" if root else "hartree"
     if status == "ok" and p_out is not None and not (ahead(best, p_in) >= -unc and ahead(p_out, best) >= -unc):
         status = "unverified"
     # the tables' error moves the interpolant's critical value itself, which the bracket is of: added after
@@ -994,7 +1068,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                 "potential": describe(potential), "scalar": describe(scalar), "state": label,
                 "channel": channel, "tol": tol, "energy_tol": energy_tol, "method": disc.describe(),
                 "threshold_hartree": 0.0 if kind == "unbind" else -2 * mc2,
-                "threshold_variable": "sqrt(-E)" if kind == "unbind" else "E + 2 m c^2",
+                "threshold_variable": ("sqrt(-E)" if kind == "unbind" else
+                                       "sqrt(E + 2 m c^2)" if root else "E + 2 m c^2"),
                 "seconds": time.perf_counter() - t0}
     settings.pop("terms", None)
     if retried_at:
