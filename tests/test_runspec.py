@@ -736,3 +736,21 @@ def test_a_scan_of_a_spin_orbit_model_follows_each_j(tmp_path):
     (scan_run,) = data["scan"]
     rows = scan_run["rows"]
     assert sorted({r["label"] for r in rows}) == ["2p1/2", "2p3/2"] and all(r["status"] == "ok" for r in rows)
+
+
+def test_a_critical_section_of_a_spin_orbit_model_follows_each_j(tmp_path):
+    """'2p3/2' and '2p1/2' were refused as the same Schrodinger level (no j), which they are not in a
+    spin-orbit well, and the search solved them without j."""
+    text = SPIN_ORBIT.replace("CHANNELS", '["p"]').replace("depth = 50", "depth = 30").replace(
+        "radius = 4", "radius = 3").replace("[solve]\n", "") + (
+        '\n[critical]\nmodel = "ws"\nparameter = "depth"\nstates = ["2p3/2", "2p1/2"]\ntol = 1e-6\nworkers = 1\n')
+    report = run(load_spec(write(tmp_path, text)), tmp_path / "out")
+    assert report.success, report.problems
+    data = json.loads((tmp_path / "out" / "results.json").read_text())
+    values = {st["state"]: st["value"] for st in data["critical"][0]["states"]}
+    assert set(values) == {"2p3/2", "2p1/2"} and values["2p3/2"] < values["2p1/2"]
+    from boundkit.studies import critical
+    direct = critical("schrodinger", "woods-saxon", {"depth": 30.0, "radius": 3.0, "diffuseness": 0.6,
+                                                     "spin_orbit": 20.0}, state="2p1/2", vary="depth", tol=1e-6,
+                      units="nuclear", particle="neutron")
+    assert values["2p1/2"] == pytest.approx(direct.value, rel=1e-9)

@@ -659,3 +659,27 @@ def test_a_point_charge_with_more_terms_stops_at_its_limit_saying_dive():
                                          r"\(extrapolated\), beyond Z = 34\.25\d*, which the solver refuses "
                                          r"\(Z: for the Klein-Gordon equation a point Coulomb charge needs"):
         critical("klein-gordon", ["coulomb", "yukawa"], {"Z": 20, "screening_length": 1.0}, state="1s", vary="Z")
+
+
+def test_a_spin_orbit_model_takes_the_j_of_the_state():
+    """critical of a Schrodinger spin-orbit Woods-Saxon well solved the state without j ('give j = l +- 1/2');
+    the label's j is now the channel's j, and a label without j is refused for l > 0."""
+    import boundkit
+
+    ws = {"depth": 30.0, "radius": 3.0, "diffuseness": 0.6, "spin_orbit": 20.0}     # demonstration values
+    kw = dict(units="nuclear", particle="neutron")
+    found = {}
+    for state, j in (("2p3/2", 1.5), ("2p1/2", 0.5)):
+        res = critical("schrodinger", "woods-saxon", ws, state=state, vary="depth", tol=1e-6, **kw)
+        assert res.status == "ok", res.message
+        found[state] = res.value
+        # the direct solve with that j binds the level just above the value, and not just below it
+        above = boundkit.solve("schrodinger", "woods-saxon", {**ws, "depth": res.value * (1 + 1e-4)}, l=1, j=j,
+                               levels="all", **kw)
+        below = boundkit.solve("schrodinger", "woods-saxon", {**ws, "depth": res.value * (1 - 1e-4)}, l=1, j=j,
+                               levels="all", **kw)
+        assert [lv.label for lv in above.levels] == [state] and below.levels == ()
+    assert found["2p3/2"] < found["2p1/2"]      # a positive spin-orbit strength binds j = l + 1/2 more
+    with pytest.raises(ValueError, match=r"^state: a potential with a spin-orbit term splits '2p' by j; write "
+                                         r"2p1/2 or 2p3/2$"):
+        critical("schrodinger", "woods-saxon", ws, state="2p", vary="depth", **kw)

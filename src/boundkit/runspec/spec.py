@@ -179,15 +179,16 @@ def _once(rd: _Reader, key: tuple, items, same=lambda x: x, what: str = "entry",
         seen[k] = i
 
 
-def _state_key(state: str, equation: str, labels: str):
-    """The level a [critical] state names: (nodes, l, j), j only for Dirac (an s state's is 1/2)."""
+def _state_key(state: str, equation: str, labels: str, split: bool = False):
+    """The level a [critical] state names: (nodes, l, j), j only where it splits levels (``split``: Dirac,
+    or Schrodinger with a spin-orbit term; an s state's is 1/2)."""
     from ..states import parse_label
 
     try:
         nodes, l, j = parse_label(state, labels)
     except ValueError:
         return state
-    if equation != "dirac":
+    if not split:
         return nodes, l, None
     return nodes, l, 0.5 if j is None and l == 0 else j
 
@@ -523,8 +524,9 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
                 if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
                     raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
                                                         f"or \"{st}3/2\"")
-            _once(rd, key + ("states",), states, lambda st: _state_key(st, eq, labels), f"{eq} level",
-                  "" if eq == "dirac" else f"; the {eq} equation has no j")
+            split = eq == "dirac" or (eq == "schrodinger" and models[model].spin_orbit(units))
+            _once(rd, key + ("states",), states, lambda st: _state_key(st, eq, labels, split), f"{eq} level",
+                  "" if split else f"; the {eq} equation has no j")
             bracket = rd.get(s, key, "bracket", "list:number", None)
             if bracket is not None and (len(bracket) != 2 or bracket[0] == bracket[1]):
                 raise rd.error(key + ("bracket",), "write two different numbers, e.g. [0.5, 20.0] (either order)")

@@ -108,15 +108,26 @@ def parse_state(label: str, labels: str = "atomic") -> tuple[int, int, float | N
     return principal_n(nodes, l), l, j
 
 
-def state_channel(equation: str, label: str) -> tuple[dict[str, int], int, str]:
+def state_channel(equation: str, label: str, spin_orbit: bool = False) -> tuple[dict[str, int], int, str]:
     """(channel, node count k, canonical label) of a state in ``equation``.
 
     Dirac: j = l + 1/2 -> kappa = -(l + 1), j = l - 1/2 -> kappa = l; an s
     label needs no j; other labels without j are refused (two kappas fit).
-    Schrodinger and Klein-Gordon take l; a j in the label is ignored.
+    Schrodinger and Klein-Gordon take l; a j in the label is ignored, except
+    for Schrodinger with ``spin_orbit`` (a potential with a spin-orbit term),
+    which takes l and j as Dirac takes kappa.
     """
     n, l, j = parse_state(label)
     eq = canonical_equation(equation)
+    if eq == "schrodinger" and spin_orbit:
+        if j is None:
+            if l > 0:
+                raise ValueError(f"state: a potential with a spin-orbit term splits {label!r} by j; write "
+                                 f"{n}{letter(l)}{2 * l - 1}/2 or {n}{letter(l)}{2 * l + 1}/2")
+            j = 0.5
+        channel = {"l": l, "j": j}
+        k = n - l - 1
+        return channel, k, expected_labels(eq, channel, k + 1)[k]
     if eq == "dirac":
         if j is None:
             if l > 0:

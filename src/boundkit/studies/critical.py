@@ -436,6 +436,19 @@ def _bare_point_charge(pot) -> bool:
     return bool(np.allclose(rv, -zv, rtol=1e-12, atol=0.0) and np.all(s == 0))
 
 
+def _has_spin_orbit(potential, params, scalar, solve_kwargs) -> bool:
+    """Whether the potential (at the given parameters) has a spin-orbit term, whose Schrodinger states
+    need j; False when it cannot be built yet (the search's own checks then report why)."""
+    from ..potentials import make_potential
+
+    try:
+        values = {k: v for k, v in dict(params or {}).items() if not callable(v)}
+        return make_potential(potential, values, scalar=scalar,
+                              units=solve_kwargs.get("units", "atomic")).has_spin_orbit
+    except (ValueError, TypeError):
+        return False
+
+
 class _Quiet(logging.Filter):
     """Context manager: drops the potentials' log records while a trial value is built."""
 
@@ -642,7 +655,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     it). Near the lower continuum a Coulomb tail keeps the level compact.
     """
     eqname = canonical_equation(equation)
-    channel, k, atomic_label = state_channel(eqname, convert_label(state, "atomic", frm=labels))
+    channel, k, atomic_label = state_channel(eqname, convert_label(state, "atomic", frm=labels),
+                                             _has_spin_orbit(potential, params, scalar, solve_kwargs))
     label = convert_label(atomic_label, labels)
     tol = check_positive("tol", tol)
     energy_tol = check_positive("energy_tol", energy_tol)
