@@ -40,10 +40,6 @@ class RadialState:
     discretization family (``"spectral"`` or ``"finite-difference"``).
     ``density_weight`` is the weight of P^2 in the normalised density (the
     Klein-Gordon charge density (E + mc^2 - V)/(mc^2)), None when it is 1.
-    ``order`` is the algebraic order p of the nodal values' convergence (finite differences: the
-    stencil's accuracy order, 2 across a kink of the potential), None where it is geometric. Observables
-    do not scale their change between resolutions by it: near the origin, where P ~ r^gamma, two sizes
-    need not be in the asymptotic regime (the Dirac Z = 80 1s <r^-2>).
     """
 
     r: np.ndarray
@@ -55,7 +51,6 @@ class RadialState:
     elements: tuple = ()
     family: str = ""
     density_weight: np.ndarray | None = None
-    order: int | None = None
 
     def __call__(self, r) -> np.ndarray:
         """Normalised radial function(s) at radii ``r`` (bohr).

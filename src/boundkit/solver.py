@@ -526,7 +526,7 @@ def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi, 
     return op, ref, nodes
 
 
-def _state(eq, op: FactorizedOperator, E: float, y, order: int | None = None) -> RadialState:
+def _state(eq, op: FactorizedOperator, E: float, y) -> RadialState:
     grid, s = op.grid, op.sample
     f = op.expand(np.asarray(y, dtype=float))
     r = s.r
@@ -541,7 +541,7 @@ def _state(eq, op: FactorizedOperator, E: float, y, order: int | None = None) ->
     return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma,
                        r_core=op.r_core, elements=tuple(zip(bounds[:-1], bounds[1:])), family=grid.method
                        if grid.method == "spectral" else "finite-difference",
-                       density_weight=None if weight is None else np.asarray(weight, dtype=float), order=order)
+                       density_weight=None if weight is None else np.asarray(weight, dtype=float))
 
 
 _FD_CORE_GAMMA = 8.0     # exponents above this shrink the finite-difference weight's core radius (Channel.mesh)
@@ -1585,11 +1585,10 @@ def _solve_collocation(eq, pot, disc, levels, tol):
                 est = gap
                 record["estimate_from_located_level"] = True
         worst = max(worst, est / abs(E))
-        p = order or disc.order        # RadialState.order: the stencil's order (2 across a kink)
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=label, energy=E,
-                           error_estimate=est, nodes=nodes, state=_state(eq, op, E, ref.vector, p),
+                           error_estimate=est, nodes=nodes, state=_state(eq, op, E, ref.vector),
                            resolution=sizes[-1], iterations=ref.iterations,
-                           previous_state=None if prev is None else _state(eq, prev[0], history[-2], prev[1].vector, p)))
+                           previous_state=None if prev is None else _state(eq, prev[0], history[-2], prev[1].vector)))
     extra = dict(ch.extra)
     extra["mesh"] = "finite-difference"        # not the seeding channel's spectral elements
     if len(found) < len(ch.seeds):
