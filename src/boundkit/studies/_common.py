@@ -119,22 +119,17 @@ def state_channel(equation: str, label: str, spin_orbit: bool = False) -> tuple[
     """
     n, l, j = parse_state(label)
     eq = canonical_equation(equation)
-    if eq == "schrodinger" and spin_orbit:
-        if j is None:
-            if l > 0:
-                raise ValueError(f"state: a potential with a spin-orbit term splits {label!r} by j; write "
-                                 f"{n}{letter(l)}{2 * l - 1}/2 or {n}{letter(l)}{2 * l + 1}/2")
-            j = 0.5
-        channel = {"l": l, "j": j}
-        k = n - l - 1
-        return channel, k, expected_labels(eq, channel, k + 1)[k]
+    split = eq == "dirac" or (eq == "schrodinger" and spin_orbit)
+    if split and j is None:
+        if l > 0:
+            why = (f"the Dirac equation needs j in {label!r}" if eq == "dirac" else
+                   f"a potential with a spin-orbit term splits {label!r} by j")
+            raise ValueError(f"state: {why}; write {n}{letter(l)}{2 * l - 1}/2 or {n}{letter(l)}{2 * l + 1}/2")
+        j = 0.5
     if eq == "dirac":
-        if j is None:
-            if l > 0:
-                raise ValueError(f"state: the Dirac equation needs j in {label!r}; write "
-                                 f"{n}{letter(l)}{2 * l - 1}/2 or {n}{letter(l)}{2 * l + 1}/2")
-            j = 0.5
         channel = {"kappa": -(l + 1) if j == l + 0.5 else l}
+    elif split:
+        channel = {"l": l, "j": j}
     else:
         if j is not None:
             log.info("state %s: %s has no spin-orbit splitting; j is ignored", label, eq)
