@@ -68,12 +68,14 @@ def test_kinetic_matrix_is_the_collocation_second_derivative(n):
     assert np.allclose(mesh.weights, [float(v) for v in lam], rtol=1e-12, atol=0)
 
 
-def test_kinetic_matrix_is_its_closed_form_at_the_exact_zeros_correctly_rounded():
+def test_kinetic_matrix_is_its_closed_form_at_the_exact_zeros_correctly_rounded(laguerre_builder):
     """The closed form of T (Baye 2015; see laguerre_mesh) evaluated at the zeros of L_111 found in
     30-digit arithmetic (mpmath Newton steps from the mesh's nodes, L_N' = N (L_N - L_(N-1)) / x:
     standard). Built on scipy's double zeros (up to 4.5e-16 off) its entries were up to 9.1e-15
     (relative) off, enough to move the hydrogen n = 20..40 states' <r^-2> by 1e-13
-    (tests/test_error_estimates_hydrogen.py)."""
+    (tests/test_error_estimates_hydrogen.py). Both builders; the nodes, L_N'(x_j) and the Gauss
+    weights e^x / (x L_N'^2) too (the extended builder's L_N' near x = 0 is good to 1.7e-14 only,
+    the recurrence's rounding in 64-bit mantissas)."""
     n = 111
     mesh = laguerre_mesh(n)
     mp.mp.dps = 30
@@ -85,6 +87,12 @@ def test_kinetic_matrix_is_its_closed_form_at_the_exact_zeros_correctly_rounded(
                 L = mp.laguerre(n, 0, R)
                 R = R - R * L / (n * (L - mp.laguerre(n - 1, 0, R)))
             X.append(R)
+        dL = [-n * mp.laguerre(n - 1, 0, R) / R for R in X]
+        assert max(float(abs(mesh.x[j] / X[j] - 1)) for j in range(n)) <= 2.3e-16
+        assert max(float(abs(mesh.dL[j] / dL[j] - 1)) for j in range(n)) <= (2e-16 if laguerre_builder != "extended"
+                                                                             else 2e-14)
+        assert max(float(abs(mesh.weights[j] / (mp.e ** X[j] / (X[j] * dL[j] ** 2)) - 1))
+                   for j in range(n)) <= (1e-15 if laguerre_builder != "extended" else 5e-14)
         worst = 0.0
         for i in range(n):
             for j in range(n):
@@ -111,7 +119,7 @@ def test_mesh_rejects_fewer_than_two_nodes():
         laguerre_mesh(1)
 
 
-def test_weights_stay_finite_where_e_to_the_x_overflows():
+def test_weights_stay_finite_where_e_to_the_x_overflows(laguerre_builder):
     mesh = laguerre_mesh(230)         # x_N ~ 900: e^x alone overflows
     assert np.all(np.isfinite(mesh.weights)) and np.all(mesh.weights > 0)
 
