@@ -139,6 +139,22 @@ def test_beyond_is_refused_where_it_makes_no_sense():
                           beyond="x")
 
 
+@pytest.mark.parametrize("angles,match", [
+    ((0.3, 0.3), r"beyond_angles: the stability test compares every run with the first angle, 0.3 rad"),
+    ((0.3,), r"beyond_angles: give at least two scaling angles in \(0, pi/2\) radians"),
+    (0.3, r"beyond_angles: give at least two scaling angles in radians, e.g. \(0.25, 0.35\); got 0.3"),
+])
+def test_beyond_angles_are_checked_before_the_search_under_their_own_name(angles, match):
+    """Before: the whole search ran first (minutes), then boundkit.resonances refused the pair naming
+    ``angles``, an argument critical does not have."""
+    with pytest.raises(ValueError, match=match):
+        boundkit.critical("dirac", "uniform-sphere", {"Z": 160, "rms_fm": 7.0}, state="1s1/2", vary="Z",
+                          beyond=(3,), beyond_angles=angles)
+    with pytest.raises(ValueError, match="beyond_order: must be >= 6, got 4"):
+        boundkit.critical("dirac", "uniform-sphere", {"Z": 160, "rms_fm": 7.0}, state="1s1/2", vary="Z",
+                          beyond=(3,), beyond_order=4)
+
+
 def test_a_lost_resonance_is_reported_not_invented(monkeypatch, dive):
     from boundkit.studies.supercritical import follow_dived
 

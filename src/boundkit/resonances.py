@@ -213,6 +213,27 @@ _GAP_SHARE = 0.02   # a run's spread must stay below this share of the distance 
 _MIN_SPREAD = 0.05
 
 
+def check_angles(name: str, angles) -> tuple[float, ...]:
+    """The scaling angles as floats: at least two, in (0, pi/2), one at least _MIN_SPREAD from the
+    first. ``name`` is the argument named in the message (``angles``, or ``beyond_angles`` for the
+    critical study, which checks them before its search)."""
+    try:
+        angles = tuple(angles)
+    except TypeError:
+        raise ValueError(f"{name}: give at least two scaling angles in radians, e.g. (0.25, 0.35); got "
+                         f"{angles!r}") from None
+    angles = tuple(check_finite(name, a) for a in angles)
+    if len(angles) < 2 or not all(0 < a < math.pi / 2 for a in angles):
+        raise ValueError(f"{name}: give at least two scaling angles in (0, pi/2) radians, got {angles}")
+    far = max(angles[1:], key=lambda a: abs(a - angles[0]))
+    if not abs(far - angles[0]) >= _MIN_SPREAD - 1e-12:      # 0.35 - 0.3 is 0.04999999999999999
+        raise ValueError(f"{name}: the stability test compares every run with the first angle, {angles[0]:.10g} rad, "
+                         f"and the farthest other angle, {far:.10g} rad, is only {abs(far - angles[0]):.3g} rad from it: "
+                         "the rotated continuum then hardly moves and passes as resonances; give an angle at least "
+                         f"{_MIN_SPREAD:g} rad from the first (e.g. 0.25,0.35)")
+    return angles
+
+
 def _split_jumps(pot, mesh: ScaledMesh, analytic: Callable | None, V: np.ndarray, S: np.ndarray) -> None:
     """At each element edge on a breakpoint of the potential: V and S (in place) as the one-sided
     values weighted by the two elements' Jacobians, (J_L V(x-) + J_R V(x+)) / (J_L + J_R).
@@ -488,15 +509,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     emin, emax = (check_finite("window", w) for w in _pair(window))
     if not emin < emax:
         raise ValueError(f"window: need lower < upper, got ({emin:g}, {emax:g}) hartree")
-    angles = tuple(check_finite("angles", a) for a in angles)
-    if len(angles) < 2 or not all(0 < a < math.pi / 2 for a in angles):
-        raise ValueError(f"angles: give at least two scaling angles in (0, pi/2) radians, got {angles}")
-    far = max(angles[1:], key=lambda a: abs(a - angles[0]))
-    if not abs(far - angles[0]) >= _MIN_SPREAD - 1e-12:      # 0.35 - 0.3 is 0.04999999999999999
-        raise ValueError(f"angles: the stability test compares every run with the first angle, {angles[0]:.10g} rad, "
-                         f"and the farthest other angle, {far:.10g} rad, is only {abs(far - angles[0]):.3g} rad from it: "
-                         "the rotated continuum then hardly moves and passes as resonances; give an angle at least "
-                         f"{_MIN_SPREAD:g} rad from the first (e.g. 0.25,0.35)")
+    angles = check_angles("angles", angles)
     order = check_int("order", order, minimum=6)
     tol = check_positive("tol", tol)
     for name, v in (("r0", r0), ("r_max", r_max), ("h", h)):

@@ -677,9 +677,13 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     if kind is not None and kind not in _KINDS:
         raise ValueError(f"kind: must be 'unbind' or 'dive', got {kind!r}")
     if beyond is not None:
+        from ..resonances import check_angles
         from .supercritical import check_beyond
 
         beyond = check_beyond(beyond)
+        # checked here, not after the search, and under the names the caller gave
+        beyond_angles = check_angles("beyond_angles", beyond_angles)
+        beyond_order = check_int("beyond_order", beyond_order, minimum=6)
     varied = {vary} | {n for n, v in params.items() if callable(v)}
     t0 = time.perf_counter()
 
