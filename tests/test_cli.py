@@ -61,7 +61,11 @@ def test_repeatable_potential_terms_add():
         (("--param", "Z"), "malformed; write NAME=VALUE"),
         (("--param", "Z=abc"), "is not a number"),
         (("--param", "Z=1_0"), "'1_0' has an underscore in the number; write the digits without it"),   # read as 10
-        (("--param", "Q=1"), "no potential term takes parameter 'Q'"),
+        (("--param", "Q=1"), "--param: no potential term takes parameter 'Q'"),
+        # the API's message gives params={'rms_fm': 1} and the option; the command line only the option
+        (("--potential", "fermi", "--param", "Z=82"),
+         r"boundkit: error: --param: term 'fermi' needs parameter 'rms_fm' \(rms charge radius, fm\); give it, "
+         r"e.g. --param rms_fm=1\n$"),
         (("-e", "dirac", "--kappa", "0"), "kappa: must be a non-zero integer"),
         (("--kappa", "-1"), "kappa: only the Dirac equation takes kappa; give l for schrodinger"),
         (("--equation", "schrodinger", "--l", "-1"), "l: must be >= 0"),

@@ -40,14 +40,17 @@ def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
     ``options``: keyword -> option of the command that feeds it, e.g. ``{"max_nodes": "--max-nodes"}``.
     A :class:`boundkit._checks.LimitError` names the keyword that raises its limit
     (``max_nodes= (API)``); the message then names the option instead. A message that starts with a
-    keyword (``hard_core: must be positive``) starts with its option. Any other error is its own message.
+    keyword (``hard_core: must be positive``; ``params`` is always ``--param``) starts with its option,
+    and an example given both ways (``params={'Z': 1} (--param Z=1 on the command line)``) keeps the
+    option's form. Any other error is its own message.
     """
     from .._checks import LimitError
 
-    options = options or {}
+    options = {"params": "--param", **(options or {})}
     if isinstance(exc, LimitError) and exc.keyword in options:
         return exc.naming(options[exc.keyword])
-    text = str(exc)
+    # an example given both ways, "params={'Z': 1} (--param Z=1 on the command line)": the option only
+    text = re.sub(r"\b\w+=\{[^{}]*\} \((--[^()]+?) on the command line\)", r"\1", str(exc))
     head, sep, rest = text.partition(":")
     if sep and head in options:
         return f"{options[head]}:{rest}"
