@@ -7,6 +7,7 @@ entry points give for the same study are compared in tests/test_parity.py.
 from __future__ import annotations
 
 import inspect
+import json
 import subprocess
 import sys
 
@@ -168,3 +169,16 @@ def test_api_reference_page_is_current():
     script = Path(__file__).resolve().parents[1] / "docs" / "make_api.py"
     res = subprocess.run([sys.executable, str(script), "--check"], capture_output=True, text=True)
     assert res.returncode == 0, res.stderr
+
+
+def test_solve_without_a_potential_is_hydrogen_in_the_api_as_on_the_command_line():
+    """`boundkit solve` with no potential option is hydrogen; boundkit.solve() was a refusal
+    ("needs parameter 'Z'"). Exact: E_n = -Z^2 / (2 n^2) hartree (Bohr; common practice)."""
+    assert boundkit.solve().levels[0].energy == pytest.approx(-0.5, rel=1e-13)
+    assert [lv.energy for lv in boundkit.solve(params={"Z": 2}, levels=2).levels] == \
+        pytest.approx([-2.0, -0.5], rel=1e-13)
+    out = CliRunner().invoke(main, ["solve", "--json"])
+    assert json.loads(out.output)["levels"][0]["energy"] == pytest.approx(boundkit.solve().levels[0].energy, rel=1e-15)
+    # a Coulomb term named explicitly still needs its charge
+    with pytest.raises(ValueError, match=r"^params: term 'coulomb' needs parameter 'Z'"):
+        boundkit.solve(potential="coulomb")

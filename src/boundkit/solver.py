@@ -1655,7 +1655,7 @@ def setup(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     return eq, pot, settings
 
 
-def solve(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+def solve(equation: str = "schrodinger", potential=None, params: dict | None = None, *,
           l: int | None = None, kappa: int | None = None, levels: int | str = 1, tol: float = 1e-10,
           method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None,
@@ -1666,9 +1666,12 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     Parameters
     ----------
     equation : {'schrodinger', 'klein-gordon', 'dirac'}
-    potential : str, callable or sequence
+    potential : str, callable or sequence, optional
         Built-in term name(s) (they add) or a callable V(r) (r in bohr,
-        V in hartree). Default ``'coulomb'``.
+        V in hartree). Left out with no ``scalar`` either: the hydrogen atom,
+        a ``'coulomb'`` term with Z = 1 unless ``params`` gives Z (as
+        ``boundkit solve`` without potential options). A ``'coulomb'`` named
+        explicitly needs its Z.
     params : dict
         Term parameters, e.g. ``{'Z': 1}``.
     l, kappa : int
@@ -1738,6 +1741,10 @@ def solve(equation: str = "schrodinger", potential="coulomb", params: dict | Non
     from .states import check_convention
     labels = check_convention(labels)
     disc = get_method(method, order)
+    if potential is None:
+        potential = "coulomb" if scalar is None else ()
+        if scalar is None:
+            params = {"Z": 1.0, **(params or {})}
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
                               units=units, j=j)
