@@ -182,3 +182,16 @@ def test_solve_without_a_potential_is_hydrogen_in_the_api_as_on_the_command_line
     # a Coulomb term named explicitly still needs its charge
     with pytest.raises(ValueError, match=r"^params: term 'coulomb' needs parameter 'Z'"):
         boundkit.solve(potential="coulomb")
+
+
+def test_the_hydrogen_default_holds_for_every_solving_function_with_a_potential_default():
+    """converge, transitions and phase_shifts default to hydrogen as solve does (and as their
+    commands do); the 2p -> 1s line of hydrogen is 3/8 hartree (Bohr; common practice), reported in eV
+    (the hartree in eV from scipy.constants, CODATA)."""
+    from scipy.constants import physical_constants
+
+    for path in ("boundkit.solve", "boundkit.accuracy.converge", "boundkit.transitions", "boundkit.phase_shifts"):
+        assert inspect.signature(_api(path)).parameters["potential"].default is None, path
+    res = boundkit.transitions(max_n=2)
+    assert [ln.energy for ln in res.lines] == pytest.approx([0.375 * physical_constants["Hartree energy in eV"][0]],
+                                                            rel=1e-12)

@@ -103,7 +103,7 @@ class ConvergenceResult:
                 "reference_status": self.reference_status, "reference_message": self.reference_message}
 
 
-def converge(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+def converge(equation: str = "schrodinger", potential=None, params: dict | None = None, *,
              l: int | None = None, kappa: int | None = None, levels: int = 1,
              methods=("spectral", "finite-difference"), order: int = 8, sizes: dict | None = None,
              tol: float = 1e-13, max_levels: int = MAX_LEVELS, **kwargs) -> ConvergenceResult:

@@ -1629,14 +1629,20 @@ def _check_charge(part, pot) -> None:
                 part.name, charge, z, "attracts" if charge > 0 else "acts on", fix)
 
 
-def setup(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+def setup(equation: str = "schrodinger", potential=None, params: dict | None = None, *,
           l: int | None = None, kappa: int | None = None, particle: str | None = None,
           mass_mev: float | None = None, nucleus_mass_mev: float | None = None, scalar=None,
           units: str = "atomic", j: float | None = None):
     """Check and build (equation, potential, settings) from user-level arguments.
 
-    Shared by :func:`solve` and the studies; raises ValueError on bad input.
+    Shared by :func:`solve` and the studies; raises ValueError on bad input. ``potential`` None with
+    no ``scalar``: the hydrogen atom, a Coulomb term with Z = 1 unless ``params`` gives Z (the
+    default of the command line's potential options too).
     """
+    if potential is None:
+        potential = "coulomb" if scalar is None else ()
+        if scalar is None:
+            params = {"Z": 1.0, **(params or {})}
     part = get_particle(particle, mass_mev)
     mass = part.mass_au
     if nucleus_mass_mev is not None:
@@ -1741,10 +1747,6 @@ def solve(equation: str = "schrodinger", potential=None, params: dict | None = N
     from .states import check_convention
     labels = check_convention(labels)
     disc = get_method(method, order)
-    if potential is None:
-        potential = "coulomb" if scalar is None else ()
-        if scalar is None:
-            params = {"Z": 1.0, **(params or {})}
     eq, pot, settings = setup(equation, potential, params, l=l, kappa=kappa, particle=particle,
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar,
                               units=units, j=j)

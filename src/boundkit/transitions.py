@@ -379,7 +379,7 @@ def _channels(equation: str, max_n: int):
     return out
 
 
-def transitions(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
+def transitions(equation: str = "schrodinger", potential=None, params: dict | None = None, *,
                 max_n: int = 2, levels: Sequence[str] | None = None, multipoles: Sequence[str] = ("E1",),
                 energy_unit: str = "eV", tol: float = 1e-14, method: str = "auto",
                 particle: str | None = None, mass_mev: float | None = None,
@@ -433,7 +433,7 @@ def transitions(equation: str = "schrodinger", potential="coulomb", params: dict
             raise ValueError(f"multipoles: {m!r} is not one of {', '.join(MULTIPOLES)}")
         if m != "E1" and key != "dirac":
             raise ValueError(f"multipoles: {m} is computed for the Dirac equation only; use E1")
-    found, messages, settings, potential_name = [], [], {}, str(potential)
+    found, messages, settings, potential_name = [], [], {}, str("coulomb" if potential is None else potential)
     status = "ok"
     for channel, count in _channels(key, max_n):
         res = solve(key, potential, params, levels=count, tol=tol, method=method, particle=particle,

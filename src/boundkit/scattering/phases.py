@@ -144,7 +144,7 @@ def _unwrap_from_top(delta: np.ndarray) -> tuple[np.ndarray, float]:
     return out, float(steps.max()) if steps.size else 0.0
 
 
-def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger", potential="coulomb",
+def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger", potential=None,
                  params: dict | None = None, *, l: int | None = None, kappa: int | None = None,
                  particle: str | None = None, mass_mev: float | None = None,
                  nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
