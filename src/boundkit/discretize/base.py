@@ -41,6 +41,9 @@ class Grid:
         Indices of nodes shared by two elements, and for each the difference
         of the left and right first-derivative rows there (double and
         extended precision); the operator imposes a continuous derivative.
+    on_jumps : tuple
+        Indices of nodes placed on a jump of the potential (a family with ``aligns_jumps``); the
+        solver samples the mean of the two one-sided values there.
     """
 
     t: np.ndarray
@@ -57,6 +60,7 @@ class Grid:
     interfaces: tuple = ()
     jumps: Any = None
     jumps_ext: Any = None
+    on_jumps: tuple = ()
 
     @property
     def extended(self) -> bool:
@@ -89,6 +93,8 @@ class Discretization:
     first: int = 0
     cap: int = 0
     uses_edges: ClassVar[bool] = False   # whether grid() reads ``edges`` (the caller measures them only then)
+    aligns_jumps: ClassVar[bool] = False  # whether grid() takes ``jumps`` (radii where V or S jumps) and
+    #                                       puts a node on each (reported in Grid.on_jumps)
 
     def grid(self, mesh: LogMap, size: int, breaks=(), edges=()) -> Grid:  # pragma: no cover - contract
         """Nodes on ``mesh``; ``breaks`` are radii where the potential is not smooth, ``edges`` the
