@@ -481,11 +481,15 @@ def test_the_prediction_from_nearest_points_skips_a_value_solved_twice():
 
 @pytest.mark.slow
 def test_a_dive_search_from_below_binding_ends_in_a_status_not_a_traceback():
+    """Once a traceback, then exit 3 (tolerance not met, +- inf): the level is not yet bound at depth = 4,
+    and the search took that side for the dived one (see the tests of a dive from below binding, below)."""
     res = CliRunner().invoke(main, ["critical", "-e", "dirac", "--units", "nuclear", "-p", "woods-saxon",
                                     "--param", "depth=4", "--param", "radius=100", "--param", "diffuseness=2",
                                     "--state", "1s1/2", "--vary", "depth", "--kind", "dive"])
     assert res.exception is None or isinstance(res.exception, SystemExit), res.exception
-    assert "Traceback" not in res.output and res.exit_code in (0, 3)
+    assert "Traceback" not in res.output and res.exit_code == 0, res.output
+    value, unc = map(float, re.search(r"critical depth = (\S+) \+- (\S+) MeV", res.output).groups())
+    assert abs(value - _woods_saxon_dive_depth(100.0, 2.0)) <= unc
 
 
 # --- a tabulated potential ------------------------------------------------------------------
@@ -683,3 +687,43 @@ def test_a_spin_orbit_model_takes_the_j_of_the_state():
     with pytest.raises(ValueError, match=r"^state: a potential with a spin-orbit term splits '2p' by j; write "
                                          r"2p1/2 or 2p3/2$"):
         critical("schrodinger", "woods-saxon", ws, state="2p", vary="depth", **kw)
+
+
+# --- a dive searched from where the level is not yet bound ------------------------------------------
+# With the depth as parameter a level is absent on both sides of its bound range: below it the level is
+# not yet bound (E > 0), above the dive it has left for the lower continuum. A search started (or bracketed)
+# on the unbound side took that side for the dived one and bisected towards it: 40 evaluations, status
+# 'tolerance-not-met', 7.807 +- inf MeV for the Woods-Saxon well below (a tester's depth = 4).
+def _square_well(V0: float):
+    from boundkit.potentials.expression import ExpressionTerm
+
+    return ExpressionTerm("where(r<100, -V0, 0)", {"V0": V0})
+
+
+@pytest.mark.parametrize("start", [4.0, 1.0])
+def test_a_dive_search_from_below_binding_finds_the_square_well_dive(start):
+    exact = _square_well_dive_depth(100.0)
+    res = critical("dirac", _square_well(start), {"V0": start}, state="1s1/2", vary="V0", kind="dive",
+                   units="nuclear")
+    assert not res.points[0]["found"]               # the start is below binding
+    assert res.status == "ok", res.message
+    assert abs(res.value - exact) <= res.uncertainty < 1e-8 * exact
+    found_at, absent_at = res.bracket
+    assert found_at < exact < absent_at             # the bracket is the one of the dive
+
+
+def test_a_dive_search_from_below_binding_finds_the_woods_saxon_dive():
+    ref = _woods_saxon_dive_depth(100.0, 2.0)
+    res = critical("dirac", "woods-saxon", {"depth": 4.0, "radius": 100.0, "diffuseness": 2.0}, state="1s1/2",
+                   vary="depth", kind="dive", units="nuclear")
+    assert not res.points[0]["found"]
+    assert res.status == "ok", res.message
+    assert abs(res.value - ref) <= res.uncertainty < 1e-8 * ref
+
+
+def test_a_dive_bracket_whose_absent_end_is_below_binding_is_refused():
+    with pytest.raises(ValueError, match=r"^bracket: 1s1/2 is absent at V0 = 4 because it is not yet bound there "
+                                         r"\(it moves away from -2 m c\^2 towards that end\), not because it "
+                                         r"dived; give an absent end past the dive, or only a start value$"):
+        critical("dirac", _square_well(5.0), {"V0": 5.0}, state="1s1/2", vary="V0", kind="dive",
+                 bracket=(5.0, 4.0), units="nuclear")

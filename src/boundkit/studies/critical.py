@@ -27,7 +27,10 @@ not (a range in an expression, exp(-r/a) with a < 0). A value that the
 potential or the solver refuses during the search is a wall the search does
 not cross; it narrows from the side where the level is bound. From a start
 where the level is absent the search looks on both sides in growing steps
-for a value where it is bound. The reported uncertainty is the
+for a value where it is bound; for a dive it then checks that the level nears
+the lower continuum towards the absent side, and otherwise (absent because
+not yet bound, as below binding on a well's depth) goes on the other way. The
+reported uncertainty is the
 extrapolation's, never below a few ulp of the value and never above what the
 found/absent bracket guarantees.
 """
@@ -548,8 +551,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     ------
     ValueError
         Bad input: a malformed state label, a bracket with the level bound
-        (or absent) at both ends, a start value where the level is absent, a
-        dive asked of a bare point Coulomb charge (no level of it dives).
+        (or absent) at both ends, a dive bracket whose absent end is where
+        the level is not yet bound, a start value where the level is absent
+        and not found bound anywhere tried, a dive asked of a bare point
+        Coulomb charge (no level of it dives).
     StudyError
         The solver refused the start value (or a bracket end); the critical
         value lies beyond a value the potential or the solver refuses;
@@ -604,7 +609,13 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     on either side gives the direction in which s falls. At a start where it
     is absent, values on both sides are tried in growing steps (factors 2,
     4, 16, ... for a geometric search) until the level is bound at one; the
-    last value tried without it on that side closes the bracket.
+    last value tried without it on that side closes the bracket. A dive has
+    two reasons for a missing level: it dived, or it is not yet bound (a
+    well's depth below binding). The level 5 per cent of the way towards
+    the absent value (or, if gone there too, away from it) tells which: if
+    s grows towards it, the level is not yet bound there, and the search
+    goes on away from it from the bound value as from a bound start (a
+    bracket with such an absent end is refused).
 
     Search. The level is followed from the start value towards threshold
     (each point is seeded from the points found; the plain solver is tried
@@ -861,6 +872,21 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         except (_Refused, _SolverRefused):
             return None
 
+    def dives_towards(r_in: dict, x_absent: float) -> bool:
+        """Whether the level, bound at r_in, is absent at x_absent because it dived (s falls towards
+        x_absent) rather than because it is not yet bound there (s grows: a dive searched on the depth of a
+        well, from below binding). Decided by the level 5 % of the way towards x_absent, or, when it is gone
+        there too, 5 % of the way away from it; True when neither tells (always for unbinding)."""
+        if kind != "dive":
+            return True
+        x_in = x_of(r_in["value"])
+        h = math.copysign(0.05 * abs(x_absent - x_in), x_absent - x_in)
+        for sign in (1.0, -1.0):
+            rec = try_evaluate(x_in + sign * h, seeds=(r_in["energy"],))
+            if rec is not None and rec["found"]:
+                return (rec["s"] - r_in["s"]) * sign < 0
+        return True
+
     if bracket is not None:
         ra, rb = evaluate(a), evaluate(b)
         if ra["found"] == rb["found"]:
@@ -870,6 +896,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         r_in, r_out = (ra, rb) if ra["found"] else (rb, ra)
         p_out = r_out["value"]
         x_in, x_out = x_of(r_in["value"]), x_of(p_out)
+        if not dives_towards(r_in, x_out):
+            raise ValueError(f"bracket: {label} is absent at {vary} = {p_out:g} because it is not yet bound there "
+                             "(it moves away from -2 m c^2 towards that end), not because it dived; give an "
+                             "absent end past the dive, or only a start value")
         direction = math.copysign(1.0, x_out - x_in)
         step = 0.05 * abs(x_out - x_in)
         rec = try_evaluate(x_in + direction * step, seeds=(r_in["energy"],))
@@ -905,9 +935,14 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                                  f"from {min(tried):.6g} to {max(tried):.6g}{why}; start where it is bound "
                                  "(or give a bracket)")
             rec, side = hit
-            p_out = p_of(last_absent[side])
-            direction = -side
-            step = 0.05 * abs(x_of(rec["value"]) - last_absent[side])
+            if dives_towards(rec, last_absent[side]):
+                p_out = p_of(last_absent[side])
+                direction = -side
+                step = 0.05 * abs(x_of(rec["value"]) - last_absent[side])
+            else:
+                # a dive from where the level is not yet bound: on, away from that side, as from a bound start
+                direction = side
+                step = axis.first_step(rec["value"])
         else:
             step = axis.first_step(p_start)
             direction = 1.0
