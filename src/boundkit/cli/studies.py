@@ -150,8 +150,9 @@ def _bracket(text: str | None):
 @click.option("--state", required=True, help="Level: 1s, 2p (Schrodinger, Klein-Gordon); 1s1/2, 2p3/2 (Dirac).")
 @click.option("--vary", required=True, metavar="NAME", help="Parameter to vary; its --param value is the start.")
 @click.option("--bracket", default=None, metavar="A,B", help="Values with the level bound at one, absent at the other.")
-@click.option("--kind", type=click.Choice(["unbind", "dive"]), default=None,
-              help="unbind (E -> 0) or dive (E -> -2mc^2); default: dive with a Coulomb tail, else unbind.")
+@click.option("--kind", type=click.Choice(["unbind", "dive", "merge"]), default=None,
+              help="unbind (E -> 0), dive (E -> -2mc^2) or merge (Klein-Gordon: meets an antiparticle level); "
+                   "default: dive with a Coulomb tail, else unbind.")
 @tol_option(1e-8, "Relative tolerance of the critical value.")
 @click.option("--energy-tol", type=float, default=1e-10, show_default=True, help="Relative tolerance of each energy.")
 @click.option("--max-evaluations", type=int, default=40, show_default=True, help="Budget of solves.")
@@ -170,7 +171,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                  table_origin, table_r_unit, table_v_unit, params, unit_system, state, vary, bracket, kind, tol,
                  energy_tol, max_evaluations, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule,
                  labels, beyond, as_json):
-    """Parameter value where a level unbinds (E -> 0) or dives into the lower continuum."""
+    """Parameter value where a level unbinds (E -> 0), dives into the lower continuum, or merges."""
     from ..studies import StudyError, critical
 
     check_tol(energy_tol, "--energy-tol")
@@ -205,7 +206,8 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     else:
         lo, hi = res.bracket
         pu = f" {res.parameter_unit}" if res.parameter_unit else ""
-        click.echo(f"{res.state} ({res.equation} equation), {'unbinding' if res.kind == 'unbind' else 'diving'}")
+        doing = {"unbind": "unbinding", "dive": "diving", "merge": "merging with an antiparticle level"}[res.kind]
+        click.echo(f"{res.state} ({res.equation} equation), {doing}")
         click.echo(f"critical {res.parameter} = {res.value_text}")
         click.echo(f"bracket: level found at {res.parameter} = {lo:.12g}{pu}, absent at "
                    f"{'-' if hi is None else format(hi, '.12g') + pu}")

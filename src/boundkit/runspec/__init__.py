@@ -90,7 +90,7 @@ array ``[[x]]`` of several::
     bracket = [0.5, 20.0]              # optional: bound at one end, unbound at the other
     tol = 1e-8                         # relative tolerance of the critical value
     energy_tol = 1e-10                 # relative tolerance of each energy on the way
-    kind = "unbind"                    # optional: unbind or dive (default from the potential)
+    kind = "unbind"                    # optional: unbind, dive or merge (default from the potential)
     workers = 2                        # states searched in parallel (default: all cores)
 
     [compare]                          # Schrodinger, Klein-Gordon and Dirac side by side

@@ -531,8 +531,8 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
             if bracket is not None and (len(bracket) != 2 or bracket[0] == bracket[1]):
                 raise rd.error(key + ("bracket",), "write two different numbers, e.g. [0.5, 20.0] (either order)")
             kind = rd.get(s, key, "kind", "str", None)
-            if kind is not None and kind not in ("unbind", "dive"):
-                raise rd.error(key + ("kind",), f"must be \"unbind\" or \"dive\", got {kind!r}")
+            if kind is not None and kind not in ("unbind", "dive", "merge"):
+                raise rd.error(key + ("kind",), f"must be \"unbind\", \"dive\" or \"merge\", got {kind!r}")
             etol = _tolerance(rd, s, key, 1e-10, "energy_tol")
             critical_secs.append(CriticalSection(
                 key, model, param, states, eq, tuple(bracket) if bracket else None, _tolerance(rd, s, key, 1e-8),

@@ -1,5 +1,6 @@
-"""Critical parameters: where a level unbinds (E -> 0) or dives into the
-lower continuum (E -> -2 m c^2).
+"""Critical parameters: where a level unbinds (E -> 0), dives into the
+lower continuum (E -> -2 m c^2), or (Klein-Gordon) merges with an
+antiparticle level.
 
 The level is followed by continuation: each new parameter value is seeded
 with the energy predicted from the points already found, and refined with
@@ -27,9 +28,17 @@ not (a range in an expression, exp(-r/a) with a < 0). A value that the
 potential or the solver refuses during the search is a wall the search does
 not cross; it narrows from the side where the level is bound. From a start
 where the level is absent the search looks on both sides in growing steps
-for a value where it is bound. The reported uncertainty is the
+for a value where it is bound; for a dive it then checks that the level nears
+the lower continuum towards the absent side, and otherwise (absent because
+not yet bound, as below binding on a well's depth) goes on the other way. The
+reported uncertainty is the
 extrapolation's, never below a few ulp of the value and never above what the
 found/absent bracket guarantees.
+
+A Klein-Gordon s level of a short-range potential does not dive: it meets an
+antiparticle level first, and the pair's energies turn complex. A dive of it
+is refused; ``kind='merge'`` finds that point by narrowing the found/absent
+bracket, aimed at the top of the parabola p(E) through the nearest points.
 """
 from __future__ import annotations
 
@@ -56,7 +65,7 @@ __all__ = ["critical", "CriticalResult"]
 
 log = logging.getLogger(__name__)
 
-_KINDS = ("unbind", "dive")
+_KINDS = ("unbind", "dive", "merge")
 
 UNCERTAINTY_MEANING = (
     "+- is the estimated error of the critical value, extrapolated to threshold from the solved points: "
@@ -65,6 +74,17 @@ UNCERTAINTY_MEANING = (
     "bracket (the level was solved bound at one end and not found at the other); with a table in the "
     "potential, plus the table's interpolation error of the level nearest threshold converted to the "
     "parameter (the slope dp/ds there), which no bracket bounds")
+
+MERGE_UNCERTAINTY_MEANING = (
+    "+- is the estimated error of the merge value: the distance from it to the farther end of the bracket (the "
+    "level, or its antiparticle partner, was solved at one end and neither at the other) plus the energies' error "
+    "estimates near the merge converted to the parameter by the slope dp/dE of the fold, at least 4 ulp (double "
+    "precision)")
+
+MERGE_BRACKET_MEANING = (
+    "the bracket is the pair of solved values nearest the merge (a real level at the first, none at the second: "
+    "past the merge the pair's energies are complex); the merge value inside it is the top of the parabola "
+    "p(E) through the three points found nearest the merge")
 
 BRACKET_MEANING = (
     "the bracket is the pair of solved values nearest the threshold (the level bound at the first, not "
@@ -90,7 +110,9 @@ class CriticalResult:
         The varied parameter.
     value : float
         Its critical value: where the level's binding energy reaches 0
-        (``kind = 'unbind'``) or -2 m c^2 (``kind = 'dive'``).
+        (``kind = 'unbind'``) or -2 m c^2 (``kind = 'dive'``), or where it
+        meets an antiparticle level and both turn complex (``kind = 'merge'``,
+        Klein-Gordon).
     uncertainty : float
         Estimated absolute error of ``value``: the change between
         extrapolations to threshold with successive numbers of terms, plus
@@ -104,7 +126,7 @@ class CriticalResult:
         The level's label (``1s``, ``2p3/2``, ...).
     equation : str
     kind : str
-        ``'unbind'`` or ``'dive'``.
+        ``'unbind'``, ``'dive'`` or ``'merge'``.
     bracket : tuple
         (nearest value where the level was found, nearest value past it
         where it was not); the second entry is None if no such point was
@@ -158,12 +180,12 @@ class CriticalResult:
     @property
     def bracket_meaning(self) -> str:
         """One sentence saying what ``bracket`` is, and why it is wider than ``uncertainty``."""
-        return BRACKET_MEANING
+        return MERGE_BRACKET_MEANING if self.kind == "merge" else BRACKET_MEANING
 
     @property
     def uncertainty_meaning(self) -> str:
         """One sentence saying what ``uncertainty`` is."""
-        return UNCERTAINTY_MEANING
+        return MERGE_UNCERTAINTY_MEANING if self.kind == "merge" else UNCERTAINTY_MEANING
 
     @property
     def value_text(self) -> str:
@@ -341,6 +363,39 @@ def _predict_s(points: list[dict], p: float) -> float:
     return _lagrange_at_zero([r["value"] - p for r in near], [r["s"] for r in near])
 
 
+def _fold(points: list[dict], pdir: float) -> dict | None:
+    """The fold p = p_m - a (E - E_m)^2 through the three found points furthest along the search.
+
+    Near the value p_m where a Klein-Gordon level meets its antiparticle partner, the two real energies
+    are E_m +- sqrt((p_m - p) / a) (a saddle-node: p is analytic in E with dp/dE = 0 at E_m), so the
+    parabola in E through three points near p_m has its top near (E_m, p_m), whichever of the two
+    branches the points lie on. ``pdir`` is the sign of the search direction in p: the top must be a
+    maximum of p for pdir > 0, a minimum for pdir < 0. Returns a dict with ``value`` (p_m), ``energy``
+    (E_m, hartree), ``points`` (the three points) and ``slopes`` (dp/dE at them, parameter per hartree),
+    or None when there are fewer than three distinct points or the parabola turns the other way.
+    """
+    near: list[dict] = []
+    for r in sorted(points, key=lambda r: -r["value"] * pdir):
+        if all(r["value"] != q["value"] and r["energy"] != q["energy"] for q in near):
+            near.append(r)
+        if len(near) == 3:
+            break
+    if len(near) < 3:
+        return None
+    e0 = near[0]["energy"]
+    scale = max(abs(r["energy"] - e0) for r in near)
+    x = np.array([(r["energy"] - e0) / scale for r in near])
+    try:
+        c0, c1, c2 = np.linalg.solve(np.vander(x, 3, increasing=True), [r["value"] for r in near])
+    except np.linalg.LinAlgError:
+        return None
+    if not c2 * pdir < 0:
+        return None
+    xv = -c1 / (2 * c2)
+    return {"value": float(c0 + c1 * xv + c2 * xv * xv), "energy": float(e0 + xv * scale),
+            "slopes": [float((c1 + 2 * c2 * xi) / scale) for xi in x], "points": near}
+
+
 class _Axis:
     """Search coordinate x of the varied parameter p.
 
@@ -490,7 +545,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
              method: str = "auto", scalar=None, labels: str = "atomic", beyond=None,
              beyond_angles=(0.25, 0.35), beyond_order: int = 12,
              **solve_kwargs) -> CriticalResult:
-    """Critical value of a parameter at which a level unbinds or dives.
+    """Critical value of a parameter at which a level unbinds, dives or merges.
 
     Parameters
     ----------
@@ -514,9 +569,12 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         direction in which the level approaches its threshold.
     tol : float
         Relative tolerance of the critical value (default 1e-8).
-    kind : {'unbind', 'dive'}, optional
+    kind : {'unbind', 'dive', 'merge'}, optional
         Default: ``'dive'`` when the potential has a Coulomb tail (such a
-        level never unbinds), else ``'unbind'``.
+        level never unbinds), else ``'unbind'``. ``'merge'`` (Klein-Gordon
+        only): where the level meets an antiparticle level and both turn
+        complex, as a Klein-Gordon s level of a short-range potential does
+        instead of diving (a dive of it is refused).
     energy_tol : float
         Relative tolerance of each energy (default 1e-10).
     bracket_rtol : float
@@ -548,8 +606,12 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     ------
     ValueError
         Bad input: a malformed state label, a bracket with the level bound
-        (or absent) at both ends, a start value where the level is absent, a
-        dive asked of a bare point Coulomb charge (no level of it dives).
+        (or absent) at both ends, a dive bracket whose absent end is where
+        the level is not yet bound, a start value where the level is absent
+        and not found bound anywhere tried, a dive asked of a bare point
+        Coulomb charge (no level of it dives) or of a Klein-Gordon s level of
+        a short-range potential (it merges), a merge asked of another
+        equation.
     StudyError
         The solver refused the start value (or a bracket end); the critical
         value lies beyond a value the potential or the solver refuses;
@@ -604,7 +666,13 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     on either side gives the direction in which s falls. At a start where it
     is absent, values on both sides are tried in growing steps (factors 2,
     4, 16, ... for a geometric search) until the level is bound at one; the
-    last value tried without it on that side closes the bracket.
+    last value tried without it on that side closes the bracket. A dive has
+    two reasons for a missing level: it dived, or it is not yet bound (a
+    well's depth below binding). The level 5 per cent of the way towards
+    the absent value (or, if gone there too, away from it) tells which: if
+    s grows towards it, the level is not yet bound there, and the search
+    goes on away from it from the bound value as from a bound start (a
+    bracket with such an absent end is refused).
 
     Search. The level is followed from the start value towards threshold
     (each point is seeded from the points found; the plain solver is tried
@@ -648,6 +716,31 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     value, does not cap it. When it alone exceeds ``tol`` |p_c|, the status
     is ``'tolerance-not-met'`` and the message names the table.
 
+    Merging (Klein-Gordon). The charge of a Klein-Gordon state is the integral
+    of (E + m c^2 - V) u^2 / (m c^2) (dK/dE is minus its matrix). Outside a
+    short-range well an s state near E = -2 m c^2 is u ~ exp(-q r), and that
+    integral tends to -m c^2 / (2 q) -> -infinity: a state reaching the
+    lower continuum is an antiparticle level. The particle s level therefore
+    never dives; it meets an antiparticle level rising from the continuum,
+    where the charge of both is 0 (dE/dp infinite), and past that value p_m
+    the two energies are complex (Schiff, Snyder & Weinberg, Phys. Rev. 57,
+    315 (1940); a square well's matching shows it). Near p_m,
+    p = p_m - a (E - E_m)^2 + ..., analytic in E on both branches, so the
+    top of the parabola through the three points found nearest p_m
+    estimates (p_m, E_m) whichever branch a point came from. The search
+    follows the level towards the lower continuum in doubling steps until it
+    is absent, then aims 9/10 of the way to that top (a point found there is
+    10 times nearer it), and, within ``tol`` of it, just past it; it stops
+    when the found/absent bracket is narrower than ``tol`` |p_m|. The value
+    is the top (the bracket's midpoint if the top lies outside it); its
+    uncertainty is the distance to the farther end of the bracket plus the
+    largest error estimate of the three points times |dp/dE| there (an
+    energy error moves the curve p(E) by that much). The result is
+    ``'unverified'`` when the points do not turn (no top inside the
+    bracket, or one below -2 m c^2): the level was lost some other way,
+    perhaps by diving (Klein-Gordon levels with l > 0 of a short-range well
+    dive).
+
     Mesh. The solver sizes each level's mesh from its energy: the outer end
     is where the WKB estimate of the radial function has fallen by e^-42,
     about r_t + 42/sqrt(2 m |E|) near E = 0, so the domain grows
@@ -675,7 +768,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     disc = get_method(method, solve_kwargs.pop("order", None))
     setup_kwargs = {k_: v for k_, v in solve_kwargs.items() if k_ in _SETUP_KEYS}
     if kind is not None and kind not in _KINDS:
-        raise ValueError(f"kind: must be 'unbind' or 'dive', got {kind!r}")
+        raise ValueError(f"kind: must be 'unbind', 'dive' or 'merge', got {kind!r}")
     if beyond is not None:
         from ..resonances import check_angles
         from .supercritical import check_beyond
@@ -720,6 +813,16 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         raise ValueError("potential: a confining potential binds every level; there is no critical value")
     if kind == "dive" and eqname == "schrodinger":
         raise ValueError("kind: diving into the lower continuum needs the Dirac or Klein-Gordon equation")
+    if kind == "merge" and eqname != "klein-gordon":
+        instead = "dive" if eqname == "dirac" else "unbind"
+        raise ValueError(f"kind: only Klein-Gordon levels merge with antiparticle levels (their charge changes "
+                         f"sign); a {eqname} level {instead}s: use kind='{instead}'")
+    if kind == "dive" and eqname == "klein-gordon" and pot0.tail_charge == 0 and eq0.l == 0:
+        # outside a short-range well the charge of an s state near W = -m c^2 is ~ W / (2 q) -> -infinity: a
+        # state reaching the lower continuum is an antiparticle level; the particle level meets one first
+        raise ValueError("kind: a Klein-Gordon s level of a short-range well does not dive: it merges with an "
+                         "antiparticle level before reaching -2 m c^2 (their energies turn complex); ask for that "
+                         "point (kind='merge', --kind merge), or use the Dirac equation")
     if kind == "dive" and eqname != "schrodinger" and _bare_point_charge(pot0):
         # E_total = m c^2 / sqrt(1 + (Z alpha / (n_r + gamma))^2) > 0 (Sommerfeld; Klein-Gordon alike) up to
         # the largest charge for which a point charge has a solution; the search would walk to that wall
@@ -734,7 +837,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     # threshold variable s: the distance to threshold when a dive's exterior is a Coulomb tail (p analytic
     # in it); its square root, the decay constant outside up to an analytic factor, when the level leaves a
     # short-range potential (unbinding, or a dive from a well), with the powers of the exterior wave's l
-    root = kind == "unbind" or pot0.tail_charge == 0
+    root = kind == "unbind" or (kind == "dive" and pot0.tail_charge == 0)
     l_fit = _exterior_l(eq0, kind) if root else None
     if beyond is not None and kind != "dive":
         raise ValueError("beyond: a level is followed past its critical value only when it dives "
@@ -865,6 +968,21 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         except (_Refused, _SolverRefused):
             return None
 
+    def dives_towards(r_in: dict, x_absent: float) -> bool:
+        """Whether the level, bound at r_in, is absent at x_absent because it dived or merged (s falls
+        towards x_absent) rather than because it is not yet bound there (s grows: a dive searched on the
+        depth of a well, from below binding). Decided by the level 5 % of the way towards x_absent, or, when
+        it is gone there too, 5 % of the way away from it; True when neither tells (always for unbinding)."""
+        if kind == "unbind":
+            return True
+        x_in = x_of(r_in["value"])
+        h = math.copysign(0.05 * abs(x_absent - x_in), x_absent - x_in)
+        for sign in (1.0, -1.0):
+            rec = try_evaluate(x_in + sign * h, seeds=(r_in["energy"],))
+            if rec is not None and rec["found"]:
+                return (rec["s"] - r_in["s"]) * sign < 0
+        return True
+
     if bracket is not None:
         ra, rb = evaluate(a), evaluate(b)
         if ra["found"] == rb["found"]:
@@ -874,6 +992,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         r_in, r_out = (ra, rb) if ra["found"] else (rb, ra)
         p_out = r_out["value"]
         x_in, x_out = x_of(r_in["value"]), x_of(p_out)
+        if not dives_towards(r_in, x_out):
+            raise ValueError(f"bracket: {label} is absent at {vary} = {p_out:g} because it is not yet bound there "
+                             "(it moves away from -2 m c^2 towards that end), not because it dived; give an "
+                             "absent end past the dive, or only a start value")
         direction = math.copysign(1.0, x_out - x_in)
         step = 0.05 * abs(x_out - x_in)
         rec = try_evaluate(x_in + direction * step, seeds=(r_in["energy"],))
@@ -909,9 +1031,14 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                                  f"from {min(tried):.6g} to {max(tried):.6g}{why}; start where it is bound "
                                  "(or give a bracket)")
             rec, side = hit
-            p_out = p_of(last_absent[side])
-            direction = -side
-            step = 0.05 * abs(x_of(rec["value"]) - last_absent[side])
+            if dives_towards(rec, last_absent[side]):
+                p_out = p_of(last_absent[side])
+                direction = -side
+                step = 0.05 * abs(x_of(rec["value"]) - last_absent[side])
+            else:
+                # a dive from where the level is not yet bound: on, away from that side, as from a bound start
+                direction = side
+                step = axis.first_step(rec["value"])
         else:
             step = axis.first_step(p_start)
             direction = 1.0
@@ -951,6 +1078,125 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         bx_p = p_of(bx)
         ux_p = max(abs(bx_p) * ux, _precision_floor(bx_p))      # dp = |p| dx
         return (bx_p, ux_p) if bp is None or ux_p < up else (bp, up)
+
+    def merge_search(p_out: float | None, step: float) -> CriticalResult:
+        """Klein-Gordon: the value where the level meets its antiparticle partner (Notes of :func:`critical`)."""
+        wall = None
+        status = "tolerance-not-met"
+        while len(points) < max_evaluations:
+            fp = found_points()
+            n_in = max(fp, key=lambda r: ahead(r["value"], 0.0))
+            p_in = n_in["value"]
+            tol_p = tol * (abs(p_in) or 1.0)
+            if p_out is not None and abs(p_out - p_in) <= tol_p:
+                status = "ok"
+                break
+            fold = _fold(fp, pdir)
+            x_in, x_out = x_of(p_in), (None if p_out is None else x_of(p_out))
+            p_v = None if fold is None else fold["value"]
+            seeds: tuple = ()
+            if p_v is not None and axis.allows(p_v) and ahead(p_v, p_in) > 0 and \
+                    (p_out is None or ahead(p_out, p_v) > 0):
+                # just short of the top, where a level found is nearer it; within tol of it, just past it
+                if ahead(p_v, p_in) <= 0.25 * tol_p:
+                    tx = x_of(p_v + pdir * 0.25 * tol_p)
+                else:
+                    tx = x_in + 0.9 * (x_of(p_v) - x_in)
+                if x_out is None and abs(tx - x_in) > axis.max_step:
+                    tx = x_in + direction * axis.max_step
+                # seed on the parabola's branch of the nearest point: p_v - p ~ (E - E_v)^2
+                share = max((p_v - p_of(tx)) / (p_v - p_in), 0.0)
+                seeds = (fold["energy"] + (n_in["energy"] - fold["energy"]) * math.sqrt(share),)
+            elif x_out is None:
+                tx = x_in + direction * step
+                step = min(2 * step, axis.max_step)
+            else:
+                tx = 0.5 * (x_in + x_out)
+            if x_out is not None and not ((tx - x_in) * direction > 0 and (x_out - tx) * direction > 0):
+                tx = 0.5 * (x_in + x_out)
+            if wall is not None and (tx - wall) * direction >= 0:
+                tx = 0.5 * (x_in + wall)
+            target = p_of(tx)
+            if target == p_in or target == p_out:
+                break
+            rec = try_evaluate(tx, seeds=seeds + seeds_for(target))
+            if rec is None:
+                # a value the potential or the solver refuses: a wall, approached from the found side
+                if wall is not None and abs(tx - x_in) <= 1e-3 * abs(wall - x_in):
+                    raise StudyError(f"{label} is still found at {vary} = {p_in:.12g} next to {p_of(tx):.12g}, "
+                                     "which the potential or the solver refuses; no merge before it")
+                wall = tx
+                continue
+            if not rec["found"] and (p_out is None or ahead(p_out, target) > 0):
+                p_out = target
+        fp = found_points()
+        n_in = max(fp, key=lambda r: ahead(r["value"], 0.0))
+        p_in = n_in["value"]
+        fold = _fold(fp, pdir)
+        mc2 = n_in["mc2"]
+        extra = {"threshold_hartree": None, "threshold_variable": "none: the top of p(E), where dp/dE = 0",
+                 "merge_energy_hartree": None if fold is None else fold["energy"]}
+        if p_out is None:
+            best = fold["value"] if fold else p_in
+            message = (f"{label} was still found at {vary} = {p_in:.12g}{pu} after {len(points)} evaluations, "
+                       f"with no value past a merge met; best estimate {best:.12g}")
+            return result_of(best, math.inf, "tolerance-not-met", message, p_in, None, n_in, extra)
+        inside = fold is not None and ahead(fold["value"], p_in) >= 0 and ahead(p_out, fold["value"]) >= 0
+        best = fold["value"] if inside else 0.5 * (p_in + p_out)
+        # each energy's error moves the curve p(E) by dE dp/dE there (first order; dp/dE -> 0 at the top)
+        spread = 0.0 if fold is None else max(r["error_estimate"] * abs(sl)
+                                              for r, sl in zip(fold["points"], fold["slopes"]))
+        unc = max(max(abs(best - p_in), abs(p_out - best)) + spread, _precision_floor(best))
+        gap = None if fold is None else fold["energy"] + 2 * mc2
+        if fold is None or not gap > 0 or not inside:
+            where = ("" if fold is None else f" (the parabola through the nearest points turns at "
+                     f"{fold['value']:.12g}, E = {fold['energy']:.10g} hartree)")
+            message = (f"{label} is lost between {vary} = {p_in:.12g} (E = {n_in['energy']:.10g} hartree, "
+                       f"{n_in['s']:.4g} hartree above -2 m c^2) and {p_out:.12g}{pu}, but not as at a merge, where "
+                       f"dp/dE -> 0{where}: it may dive (kind='dive') or have been missed there; {best:.12g} is "
+                       "not confirmed")
+            return result_of(best, unc, "unverified", message, p_in, p_out, n_in, extra)
+        if status == "ok":
+            message = (f"{label} merges with an antiparticle level at {vary} = {best:.{_digits(best, unc)}g} +- "
+                       f"{unc:.2g}{pu}, at E = {fold['energy']:.10g} hartree ({gap:.4g} hartree above -2 m c^2); "
+                       f"found at {p_in:.12g}{pu}, no real level at {p_out:.12g}{pu}")
+        else:
+            message = (f"the bracket ({p_in:.12g}, {p_out:.12g}) did not narrow to tol = {tol:g} within "
+                       f"{len(points)} evaluations; best estimate {best:.12g} +- {unc:.2g}{pu}")
+        return result_of(best, unc, status, message, p_in, p_out, n_in, extra)
+
+    p_unit = parameter_units(potential, scalar, [vary], solve_kwargs.get("units", "atomic"))[vary]
+    pu = f" {p_unit}" if p_unit else ""
+
+    def result_of(best: float, unc: float, status: str, message: str, p_in: float, p_out: float | None,
+                  near: dict, extra: dict | None = None) -> CriticalResult:
+        """The CriticalResult of a finished search (settings, points, and the partial solves noted)."""
+        retried = len(retried_at)
+        if retried:
+            message += (f"; {retried} point(s) solved with {other.name} where the {disc.name} solve was partial "
+                        "(its count of levels not certified)")
+        if status != "ok":
+            log.warning("critical %s: %s", label, message)
+        mc2 = near["mc2"]
+        settings = {**settings0, "params": {k_: (repr(v) if callable(v) else v) for k_, v in params.items()},
+                    "potential": describe(potential), "scalar": describe(scalar), "state": label,
+                    "channel": channel, "tol": tol, "energy_tol": energy_tol, "method": disc.describe(),
+                    "threshold_hartree": 0.0 if kind == "unbind" else -2 * mc2,
+                    "threshold_variable": ("sqrt(-E)" if kind == "unbind" else
+                                           "sqrt(E + 2 m c^2)" if root else "E + 2 m c^2"),
+                    **(extra or {}), "seconds": time.perf_counter() - t0}
+        settings.pop("terms", None)
+        if retried_at:
+            settings["partial_solves_retried"] = {"method": other.name, "values": retried_at}
+        clean = [{k_: r.get(k_) for k_ in ("value", "found", "energy", "error_estimate", "table_error", "via",
+                                          "r_max", "seconds")} for r in points]
+        return CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
+                              equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
+                              settings=settings, status=status, message=message, points=tuple(clean),
+                              parameter_unit=p_unit)
+
+    if kind == "merge":
+        return merge_search(p_out, step)
 
     prev_best = None
     rechecked: set = set()
@@ -1051,8 +1297,6 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     # the checks against the bracket, and not bounded by it
     table_unc = _table_uncertainty(fp)
     fit_unc, unc = unc, unc + table_unc
-    p_unit = parameter_units(potential, scalar, [vary], solve_kwargs.get("units", "atomic"))[vary]
-    pu = f" {p_unit}" if p_unit else ""
     if status == "ok":
         what = ("estimated error of the extrapolation" if not table_unc else
                 f"estimated error of the extrapolation and {table_unc:.2g}{pu} of the table's interpolation")
@@ -1075,45 +1319,21 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     else:
         message = (f"the extrapolations did not agree to tol = {tol:g} within {len(points)} evaluations; "
                    f"best estimate {best:.12g} +- {unc:.2g}{pu}")
-    retried = len(retried_at)
-    if retried:
-        message += (f"; {retried} point(s) solved with {other.name} where the {disc.name} solve was partial "
-                    "(its count of levels not certified)")
-    if status != "ok":
-        log.warning("critical %s: %s", label, message)
-    mc2 = near["mc2"]
-    settings = {**settings0, "params": {k_: (repr(v) if callable(v) else v) for k_, v in params.items()},
-                "potential": describe(potential), "scalar": describe(scalar), "state": label,
-                "channel": channel, "tol": tol, "energy_tol": energy_tol, "method": disc.describe(),
-                "threshold_hartree": 0.0 if kind == "unbind" else -2 * mc2,
-                "threshold_variable": ("sqrt(-E)" if kind == "unbind" else
-                                       "sqrt(E + 2 m c^2)" if root else "E + 2 m c^2"),
-                "seconds": time.perf_counter() - t0}
-    settings.pop("terms", None)
-    if retried_at:
-        settings["partial_solves_retried"] = {"method": other.name, "values": retried_at}
-    clean = []
-    for r in points:
-        clean.append({k_: r.get(k_) for k_ in ("value", "found", "energy", "error_estimate", "table_error", "via",
-                                                "r_max", "seconds")})
-    result = CriticalResult(parameter=vary, value=float(best), uncertainty=float(unc), state=label,
-                            equation=eqname, kind=kind, bracket=(p_in, p_out), evaluations=len(points),
-                            settings=settings, status=status, message=message, points=tuple(clean),
-                            parameter_unit=p_unit)
+    result = result_of(best, unc, status, message, p_in, p_out, near)
     if beyond is None:
         return result
     if status != "ok":
         log.warning("critical %s: not followed past the critical value (status %s)", label, status)
-        return replace(result, message=f"{message}; not followed past the critical value (beyond) since the "
-                       "critical value is not confirmed")
+        return replace(result, message=f"{result.message}; not followed past the critical value (beyond) since "
+                       "the critical value is not confirmed")
     from .supercritical import follow_dived
 
     direction = 1.0 if (p_out is not None and p_out > p_in) or (p_out is None and best > p_in) else -1.0
     dived = follow_dived(eqname, potential, params, label=atomic_label, channel=channel, vary=vary,
-                         critical_value=float(best), direction=direction, points=clean, beyond=beyond,
+                         critical_value=float(best), direction=direction, points=list(result.points), beyond=beyond,
                          scalar=scalar, setup_kwargs=setup_kwargs, angles=beyond_angles, order=beyond_order)
     # followed under its atomic label (the one boundkit.resonances gives); reported in the caller's
     dived = tuple(replace(b, label=convert_label(b.label, labels)) for b in dived)
-    settings["beyond"] = {"distances": list(beyond), "angles_rad": list(beyond_angles), "order": beyond_order,
-                          "method": "exterior complex scaling (boundkit.resonances)"}
+    result.settings["beyond"] = {"distances": list(beyond), "angles_rad": list(beyond_angles), "order": beyond_order,
+                                 "method": "exterior complex scaling (boundkit.resonances)"}
     return replace(result, beyond=dived)
