@@ -386,3 +386,23 @@ def test_molecular_kratzer_well(mass_mev, l):
     m = res.settings["mass_atomic_units"]
     for lv in res.levels:
         assert abs(lv.energy - kratzer(A, B, lv.nodes, l, m)) < 1e-12 * abs(lv.energy), lv.label
+
+
+@pytest.mark.parametrize("equation,Z,channel,levels", [
+    ("schrodinger", 2.5, 0, 4),     # 4s: 1.0011 times the plain Richardson estimate
+    ("dirac", 50, -1, 3),           # 3s1/2: 1.012 times it
+    ("klein-gordon", 60, 0, 3),     # 3s: 1.035 times its distance to the located level
+])
+def test_finite_difference_estimates_bound_the_error_not_only_within_2(equation, Z, channel, levels):
+    """Strictly |E - E_exact| <= error_estimate for finite differences (exact levels: Bohr, Sommerfeld-Dirac
+    and Klein-Gordon Coulomb formulas, tests/exact.py). Before: the Richardson estimate |E_h - E_2h| / (2^8 - 1)
+    was the error's asymptotic value (14 of 428 catalogue levels above it, by up to 1.2 %), and the distance to
+    the located level, a lower bound of the error, stood in for it where larger (81 of 428 above, 3.5 %)."""
+    key = "kappa" if equation == "dirac" else "l"
+    res = boundkit.solve(equation, "coulomb", {"Z": Z}, levels=levels, tol=1e-10, method=FD, **{key: channel})
+    assert len(res.levels) == levels
+    for lv in res.levels:
+        exact = (schrodinger_coulomb(Z, lv.n) if equation == "schrodinger" else
+                 float(dirac_coulomb_mp(Z, lv.n, channel)) if equation == "dirac" else
+                 float(klein_gordon_coulomb_mp(Z, lv.n, channel)))
+        assert abs(lv.energy - exact) <= lv.error_estimate, (lv.label, abs(lv.energy - exact) / lv.error_estimate)

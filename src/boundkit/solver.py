@@ -62,6 +62,7 @@ _DIRAC_INNER_FLOOR = 1e-11   # the eliminated Dirac operator loses its seeds bel
 _FINITE_INNER = 1e-5   # inner cut for potentials finite at the origin: f = 1 + O(r^2) there
 _DEPTH_INNER = 1e-4    # ... and at most this many depth lengths of the core (see _depth_length)
 _CUT_RETRY = 1e-2      # the inner end moves in by this when cutting there costs more than tol (_cut_error)
+_FD_SAFETY = 1.25      # factor of safety on the finite differences' Richardson estimate (see _estimate)
 _UNSTABLE = 1e-3       # a level whose energy still moves this much between sizes is not reported
 
 
@@ -444,8 +445,12 @@ def _ladder_from(disc: Discretization, start: int) -> list[int]:
 def _estimate(history: list[float], disc: Discretization, order: int | None = None) -> float:
     """Error estimate of the last energy in ``history``.
 
-    Finite differences: Richardson, |E_h - E_2h| / (2^order - 1). Spectral:
-    the last difference |E_k - E_(k-1)|. Convergence is geometric, so this
+    Finite differences: Richardson, F |E_h - E_2h| / (2^order - 1) with a factor of safety F =
+    _FD_SAFETY (1.25, the grid convergence index's factor for a scheme of known order: P. J. Roache,
+    J. Fluids Eng. 116, 405 (1994), from memory). Without it the estimate is the error's asymptotic
+    value, not a bound: on 428 exact-catalogue levels (hydrogen, Dirac and Klein-Gordon Coulomb, the
+    oscillator; tol 1e-6 to 1e-12) the error was up to 1.012 times |E_h - E_2h| / (2^8 - 1), above it
+    for 14 (0 with the factor). Spectral: the last difference |E_k - E_(k-1)|. Convergence is geometric, so this
     bounds the error of E_k, conservatively (measured on the exact catalogue:
     true errors are 1/40 of it or less). A sharper geometric extrapolation,
     d1^2/d0, understated the error by 25x on one catalogue level and is not
@@ -457,7 +462,7 @@ def _estimate(history: list[float], disc: Discretization, order: int | None = No
         return math.inf
     d1 = abs(history[-1] - history[-2])
     if disc.order is not None:
-        return max(d1 / (2.0 ** (order or disc.order) - 1), floor)
+        return max(_FD_SAFETY * d1 / (2.0 ** (order or disc.order) - 1), floor)
     return max(d1, floor)
 
 
@@ -1728,12 +1733,15 @@ def _solve_collocation(eq, pot, disc, levels, tol):
             est *= 10
             record["estimate_inflated"] = 10
         # a systematic error that no change of resolution shows (the inner cut near a critical
-        # charge: 75x the Richardson estimate at Z = 137) shows against the located level
+        # charge: 75x the Richardson estimate at Z = 137) shows against the located level: when the
+        # distance to it, less the located level's own estimate, exceeds the estimate, the estimate is
+        # that distance plus the located level's estimate, which bounds the error (the distance alone
+        # is a lower bound: 81 of 428 exact-catalogue levels were 1.02-1.035 times it)
         seed_err = ch.extra.get("seed_errors", [])
         if k < len(seed_err):
-            gap = abs(E - ch.seeds[k]) - seed_err[k]
-            if gap > est:
-                est = gap
+            gap = abs(E - ch.seeds[k])
+            if gap - seed_err[k] > est:
+                est = gap + seed_err[k]
                 record["estimate_from_located_level"] = True
         state = _state(eq, op, E, ref.vector)
         est = max(est, _cut_error(eq, pot, state, E))
