@@ -543,6 +543,42 @@ def test_files_that_are_not_utf8_name_the_file(tmp_path):
     one_line_error(cli("solve", "--potential-file", bad), r"latin1.toml: not UTF-8 text")
 
 
+def test_a_byte_order_mark_is_read_past_in_tables_model_files_and_run_specs(tmp_path):
+    """UTF-8 with a byte-order mark (spreadsheet exports, some Windows editors) read as UTF-8. Before: a table
+    failed on its first line ("expected 2 columns (r and V), found 1") and TOML files on their first key."""
+    from boundkit.potentials.catalog import read_model_file
+    from boundkit.potentials.tabulated import read_table
+    from boundkit.runspec import load_spec
+
+    bom = b"\xef\xbb\xbf"
+    table = tmp_path / "bom.txt"
+    table.write_bytes(bom + "# units: r=bohr V=hartree\n".encode() +
+                      "".join(f"{0.1 * i:.3f} {-1 / (0.1 * i):.15g}\n" for i in range(1, 31)).encode())
+    plain = tmp_path / "plain.txt"
+    plain.write_bytes(table.read_bytes()[3:])
+    assert np.array_equal(np.asarray(read_table(table)[0]), np.asarray(read_table(plain)[0]))
+    out = cli("solve", "--potential-file", table, "--json")
+    assert out.exit_code == 0, out.output
+    for name in ("coulomb.toml",):
+        src = Path(boundkit.__file__).resolve().parents[2] / "potentials" / name
+        copy = tmp_path / name
+        copy.write_bytes(bom + src.read_bytes())
+        assert read_model_file(copy).name == read_model_file(src).name
+    spec = Path(boundkit.__file__).resolve().parents[2] / "examples" / "plasma-screened-ion.toml"
+    copy = tmp_path / "spec.toml"
+    copy.write_bytes(bom + spec.read_bytes())
+    assert load_spec(copy).title == load_spec(spec).title
+
+
+def test_table_unit_errors_name_the_options_on_the_command_line(tmp_path):
+    table = tmp_path / "t.txt"
+    table.write_text("".join(f"{0.1 * i:.3f} {-1 / (0.1 * i):.15g}\n" for i in range(1, 31)))
+    one_line_error(cli("solve", "--potential-file", table, "--table-v-unit", "meV"),
+                   r"--table-v-unit: unknown energy unit 'meV'; choose one of hartree, eV, keV, MeV")
+    one_line_error(cli("solve", "--potential-file", table, "--table-r-unit", "mile"),
+                   r"--table-r-unit: unknown")
+
+
 def test_a_swallowed_sigterm_is_raised_again_at_the_next_progress_update():
     """SIGTERM raised inside a finalizer is printed and dropped by Python ("Exception ignored");
     the recorded signal is raised again at the next safe point (a progress update)."""

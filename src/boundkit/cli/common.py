@@ -40,13 +40,14 @@ def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
     ``options``: keyword -> option of the command that feeds it, e.g. ``{"max_nodes": "--max-nodes"}``.
     A :class:`boundkit._checks.LimitError` names the keyword that raises its limit
     (``max_nodes= (API)``); the message then names the option instead. A message that starts with a
-    keyword (``hard_core: must be positive``; ``params`` is always ``--param``) starts with its option,
+    keyword (``hard_core: must be positive``; ``params``, ``r_unit`` and ``v_unit`` are always ``--param``,
+    ``--table-r-unit`` and ``--table-v-unit``) starts with its option,
     and an example given both ways (``params={'Z': 1} (--param Z=1 on the command line)``) keeps the
     option's form. Any other error is its own message.
     """
     from .._checks import LimitError
 
-    options = {"params": "--param", **(options or {})}
+    options = {"params": "--param", "r_unit": "--table-r-unit", "v_unit": "--table-v-unit", **(options or {})}
     if isinstance(exc, LimitError) and exc.keyword in options:
         return exc.naming(options[exc.keyword])
     # an example given both ways, "params={'Z': 1} (--param Z=1 on the command line)": the option only

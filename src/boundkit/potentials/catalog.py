@@ -126,7 +126,7 @@ def read_model_file(path: str | Path, text: str | None = None) -> ModelSpec:
     path = Path(path)
     if text is None:
         try:
-            text = path.read_text(encoding="utf-8")
+            text = path.read_text(encoding="utf-8-sig")     # a leading byte-order mark is dropped
         except UnicodeDecodeError as exc:
             raise ValueError(f"potential file {path}: not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at position "
                              f"{exc.start}); save it as UTF-8") from None

@@ -240,7 +240,8 @@ def _read_table(path, r_unit: str, v_unit: str, max_points: int):
 
     max_points = check_int("max_points", max_points, minimum=MIN_POINTS)
     try:
-        with open(name, encoding="utf-8", errors="replace") as fh:
+        # utf-8-sig: a leading byte-order mark (spreadsheet exports write one) is dropped
+        with open(name, encoding="utf-8-sig", errors="replace") as fh:
             return _read_lines(_lines(fh, shorten(name, 160)), shorten(name, 160), r_default, v_default, max_points)
     except OSError as exc:
         raise ValueError(f"potential file {shorten(name, 160)!r}: cannot read it ({exc.strerror or exc})") from None

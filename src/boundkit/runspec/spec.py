@@ -339,7 +339,8 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
                          "max_bytes= (API)")
     if text is None:
         try:
-            text = path.read_text(encoding="utf-8")
+            # utf-8-sig: a leading byte-order mark (written by some Windows editors) is dropped
+            text = path.read_text(encoding="utf-8-sig")
         except UnicodeDecodeError as exc:
             raise ValueError(f"run spec {path}: not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at position "
                              f"{exc.start}); save it as UTF-8") from None
