@@ -362,6 +362,38 @@ def test_kratzer_levels_origin_exponent(l, B):
         assert _rel(lv.energy, _kratzer_exact(A, B, l, n_r)) < 1e-10, (l, B, n_r)
 
 
+@pytest.mark.parametrize("form", ["callable", "expression"])
+@pytest.mark.parametrize("l,B", [(0, 0.01), (0, 0.05), (1, -0.5), (2, 0.3)])
+def test_an_inverse_square_core_written_by_the_user_is_found_and_solved_as_kratzer(form, l, B):
+    """V = -1/r + B/r^2 as a callable or an expression: the probe reads B from r^2 V near the origin, so u
+    goes like r^(l' + 1) there (Kratzer formula above). Before: the origin was taken as regular (gamma = l + 1),
+    and the levels were 3e-11 off (B = 0.01, tol 1e-10) with estimates 1.4 times smaller (a tester)."""
+    pot = (lambda r: -1 / r + B / r**2) if form == "callable" else f"-1/r + ({B})/r**2"
+    if form == "expression":
+        from boundkit.potentials.expression import ExpressionTerm
+        pot = ExpressionTerm(pot, {})
+    res = boundkit.solve("schrodinger", pot, l=l, levels=2, tol=1e-10)
+    assert res.status == "ok", res.message
+    (term,) = make_potential(pot).vector
+    assert term.origin_inverse_square == pytest.approx(B, rel=1e-9)
+    assert term.origin_charge == pytest.approx(1.0, rel=1e-6)
+    for n_r, lv in enumerate(res.levels):
+        exact = _kratzer_exact(1.0, B, l, n_r)
+        assert abs(lv.energy - exact) <= lv.error_estimate, (lv.label, abs(lv.energy - exact), lv.error_estimate)
+        assert _rel(lv.energy, exact) < 1e-12
+
+
+def test_a_user_inverse_square_core_gets_the_library_refusals():
+    with pytest.raises(ValueError, match="fall to the centre"):
+        boundkit.solve("schrodinger", lambda r: -1 / r - 0.2 / r**2, l=0)
+    with pytest.raises(ValueError, match="Schrodinger equation only"):
+        boundkit.solve("dirac", lambda r: -1 / r + 0.3 / r**2, kappa=-1)
+    # a Coulomb-like, a finite and a steeper core are not read as inverse-square ones
+    for f in (lambda r: -1 / r, lambda r: -np.exp(-r), lambda r: 1e-6 / r**3 - 1 / r):
+        (term,) = make_potential(f).vector
+        assert term.origin_inverse_square == 0.0
+
+
 def _morse_exact(D, a, v):
     # E_v = -(a^2/2m)(lambda - v - 1/2)^2, lambda = sqrt(2 m D)/a, m = 1 (Morse, Phys. Rev. 34, 57 (1929))
     lam = math.sqrt(2 * D) / a

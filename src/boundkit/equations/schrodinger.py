@@ -63,9 +63,9 @@ class Schrodinger(RadialEquation):
         disc = (self.l + 0.5) ** 2 + 2 * self.mass * b0
         if disc <= 0:
             raise ValueError(
-                f"params: the 1/r^2 term B = {b0:g} is too attractive for l = {self.l}: "
-                f"l(l+1) + 2 m B < -1/4 makes the particle fall to the centre; use B > "
-                f"{-(self.l + 0.5) ** 2 / (2 * self.mass):.6g}"
+                f"potential: its 1/r^2 part at the origin (kratzer B, or B/r^2 in a user's V), B = {b0:g} hartree "
+                f"bohr^2, is too attractive for l = {self.l}: l(l+1) + 2 m B < -1/4 makes the particle fall to the "
+                f"centre; use B > {-(self.l + 0.5) ** 2 / (2 * self.mass):.6g}"
             )
         return 0.5 + math.sqrt(disc)
 

@@ -231,7 +231,10 @@ class ProbedTerm(Term):
     Notes
     -----
     Z0 = -r V(r) at r = 1e-12..1e-10 bohr when that is steady (to 1e-6) and not
-    negligible, else 0; far out, V growing beyond 1e3 hartree over
+    negligible, else 0; when instead r^2 V(r) is steady there, the term has an
+    inverse-square core B0 / r^2 (``origin_inverse_square``, which sets the
+    exponent of u at the origin in the Schrodinger equation and is refused by
+    the relativistic ones) and Z0 is the slope of r^2 V at 1e-8..1e-6 bohr; far out, V growing beyond 1e3 hartree over
     r = 1e3..1e5 bohr means a confining term, otherwise the tail charge is
     read from V ~ V_inf - Z_inf / r fitted at r = 1e4 and 1e5 bohr: Z_inf is the
     tail charge (0 when below 1e-6), V_inf the far constant (0 when below
@@ -264,8 +267,15 @@ class ProbedTerm(Term):
     def _probe(self) -> None:
         r_small, v = self._finite_probe(np.array([1e-12, 1e-11, 1e-10]))
         rv = -r_small * v
+        r2v = r_small * r_small * v
+        self._b0 = 0.0
         if np.all(np.isfinite(rv)) and abs(rv[0] - rv[2]) <= 1e-6 * max(1.0, abs(rv[0])) and abs(rv[0]) > 1e-8:
             self._z0 = float(rv[0])
+        elif np.all(np.isfinite(r2v)) and abs(r2v[0] - r2v[2]) <= 1e-6 * max(1.0, abs(r2v[0])) \
+                and abs(r2v[0]) > 1e-8:
+            # an inverse-square core B0 / r^2 (Kratzer-like): it sets the exponent of u at the origin
+            self._b0 = float(r2v[0])
+            self._z0 = self._charge_under_inverse_square()
         else:
             self._z0 = 0.0
             if not np.all(np.isfinite(rv)):
@@ -295,9 +305,26 @@ class ProbedTerm(Term):
                 raise ValueError(f"potential: {shorten(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
                                  "in magnitude (hartree bohr); scale the potential down")
 
+    def _charge_under_inverse_square(self) -> float:
+        """Z0 of V = B0 / r^2 - Z0 / r + O(1) near the origin, from r^2 V = B0 - Z0 r + O(r^2) at
+        r = 1e-8, 1e-7 and 1e-6 bohr: the slope of the first two, when the third agrees to 1e-6 (else 0)."""
+        r, v = self._finite_probe(np.array([1e-8, 1e-7, 1e-6]))
+        y = r * r * v
+        if not np.all(np.isfinite(y)):
+            return 0.0
+        z = -(y[1] - y[0]) / (r[1] - r[0])
+        z_check = -(y[2] - y[1]) / (r[2] - r[1])
+        return float(z) if abs(z - z_check) <= 1e-6 * max(1.0, abs(z)) and abs(z) > 1e-8 else 0.0
+
     @property
     def origin_charge(self) -> float:
         return self._z0
+
+    @property
+    def origin_inverse_square(self) -> float:
+        """B0 of V ~ B0 / r^2 at the origin, read from r^2 V(r) at r = 1e-12..1e-10 bohr when that is
+        steady (to 1e-6) and not negligible (0 otherwise, and for a Coulomb-like or finite origin)."""
+        return self._b0
 
     @property
     def tail_charge(self) -> float:
