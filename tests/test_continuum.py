@@ -436,6 +436,43 @@ def test_dirac_coulomb_phase_tends_to_sigma_l_itself_not_mod_pi(kappa, sign):
     assert gaps[2] < 1e-7 and gaps[2] < gaps[1] < gaps[0] < 1e-3, gaps
 
 
+# --- near-critical point charges: the start at the origin -----------------------------------------
+@pytest.mark.parametrize("Z", [50.0, 60.0, 65.0, 68.0])
+def test_klein_gordon_near_critical_point_coulomb_phase_is_zero_within_its_estimate(Z):
+    # A pure point charge: delta relative to the Coulomb phase is exactly 0, and the Coulomb phase is
+    # arg Gamma(L + 1 + i eta) - (L - l) pi/2 with L(L + 1) = l(l + 1) - (Z alpha)^2 (standard Coulomb
+    # scattering with non-integer L; Messiah, Quantum Mechanics, 1961, the Coulomb phase), here with
+    # mpmath. Near Z alpha = 1/2 (gamma -> 1/2) the irregular part of a start from r^gamma alone hardly
+    # fades: at Z = 68 delta was -2.2e-8 with an estimate of 3e-13, status ok.
+    E = np.array([0.5, 500.0, 2e4])
+    for tol in (1e-8, 1e-10):
+        res = phase_shifts(E, "klein-gordon", "coulomb", {"Z": Z}, l=0, tol=tol)
+        assert res.status == "ok", res.message
+        assert np.all(np.abs(res.delta) <= res.error_estimate), (res.delta, res.error_estimate)
+        assert np.all(res.error_estimate <= tol)
+    k = np.sqrt(E * (E + 2 * C_AU**2)) / C_AU
+    eta = -Z * (E + C_AU**2) / (C_AU**2 * k)
+    L = -0.5 + math.sqrt(0.25 - (Z / C_AU) ** 2)
+    with mpmath.workdps(30):
+        theta = [float(mpmath.arg(mpmath.gamma(L + 1 + 1j * e)) - L * mpmath.pi / 2) for e in eta]
+    assert np.max(np.abs(mod_pi(res.coulomb_phase - np.array(theta)))) < 1e-12
+
+
+@pytest.mark.parametrize("Z", [118.0, 130.0, 135.0])
+@pytest.mark.parametrize("kappa", [-1, 1])
+def test_dirac_near_critical_point_coulomb_phase_is_zero_within_its_estimate(Z, kappa):
+    # as above for Dirac: gamma = sqrt(kappa^2 - (Z alpha)^2) -> 0 as Z alpha -> 1; at Z = 135 the
+    # kappa = -1 phase was -3.1e-9 with an estimate of 8e-14, status ok. The Coulomb phase against
+    # the closed form written out above (dirac_coulomb_phase, from the 1F1 asymptotics).
+    E = np.array([0.5, 500.0, 2e4])
+    res = phase_shifts(E, "dirac", "coulomb", {"Z": Z}, kappa=kappa, tol=1e-10)
+    assert res.status == "ok", res.message
+    assert np.all(np.abs(res.delta) <= res.error_estimate), (res.delta, res.error_estimate)
+    with mpmath.workdps(30):
+        expect = [float(dirac_coulomb_phase(kappa, mpmath.mpf(Z) / C_AU, 1 + mpmath.mpf(e) / C_AU**2)) for e in E]
+    assert np.max(np.abs(mod_pi(res.coulomb_phase - np.array(expect)))) < 1e-10
+
+
 # --- Levinson's theorem -----------------------------------------------------------------------
 def hulthen_levels(Z, delta):
     """s levels of the Hulthen well: bound while n^2 delta < 2 Z (Fluegge, Practical Quantum
