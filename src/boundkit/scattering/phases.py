@@ -265,7 +265,13 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
         status, msg = "ok", f"{len(E)} phase shift(s)" + (f", largest error estimate {err.max():.2g} rad"
                                                           if estimate else " (no error estimate asked)")
     log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
-    if ch.tail_charge:
+    if ch.tail_b:
+        shape = (f"-{ch.tail_charge:g}/r + " if ch.tail_charge else "") + f"{ch.tail_b:g}/r^2"
+        reference = (f"{'Coulomb' if ch.tail_charge else 'free'} waves, with an inverse-square tail "
+                     f"V ~ {shape} matched exactly (delta includes its phase "
+                     "sigma_L - sigma_l + (l - L) pi/2, L (L + 1) = l (l + 1) + 2 m B)")
+        branch = "absolute: continuous in E from the node counts of the solution and of the tail's own one"
+    elif ch.tail_charge:
         reference = f"Coulomb tail V ~ -{ch.tail_charge:g}/r (delta relative to the Coulomb phase)"
         branch = "absolute: continuous in E from the node counts of the solution and of the Coulomb one"
     else:
@@ -274,7 +280,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
                   + ("; hard core" if ch.hard_core else ""))
     settings = {**settings, "tol": tol, "rtol": _rtol(tol), "estimate_error": estimate,
                 "method": "DOP853 outward integration in ln r from the Frobenius start, matched to "
-                          + ("Coulomb" if ch.tail_charge else "Riccati-Bessel") + " functions"}
+                          + ("Coulomb" if ch.long_tail else "Riccati-Bessel") + " functions"}
     return PhaseShifts(
         energies=E, wave_numbers=np.asarray(wave_number(eq.name, E, eq.mass), dtype=float), delta=delta,
         error_estimate=err, coulomb_phase=np.array(theta), eta=np.array(eta),
@@ -325,6 +331,9 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     tol = check_positive("tol", tol)
     ch, settings = _channel(equation, potential, params, None, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, None, hard_core)
+    if ch.tail_b:
+        raise ValueError(f"potential: it has an inverse-square tail (B = {ch.tail_b:g} hartree bohr^2); the scattering "
+                         "length here is for short-range potentials -- use phase_shifts")
     if ch.tail_charge:
         raise ValueError(f"potential: it has a Coulomb tail (charge {ch.tail_charge:g}); the scattering length "
                          "here is for short-range potentials -- use phase_shifts for Coulomb-modified phases")
@@ -455,6 +464,9 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, None, particle, mass_mev, nucleus_mass_mev, None,
                             units, None, None)
+    if ch.tail_b:
+        raise ValueError(f"potential: Levinson's theorem needs a short-range potential; this one has an inverse-square "
+                         f"tail (B = {ch.tail_b:g} hartree bohr^2)")
     if ch.tail_charge:
         raise ValueError(f"potential: Levinson's theorem needs a short-range potential; this one has a Coulomb tail "
                          f"(charge {ch.tail_charge:g}) and infinitely many bound levels")

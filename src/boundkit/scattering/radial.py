@@ -39,7 +39,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.integrate import solve_ivp
@@ -48,7 +48,7 @@ from .._rounding import beside
 from ..equations import RadialEquation, Sample
 from ..potentials import Potential
 from ..units import C_AU
-from .reference import Reference, free_zero_count, reference_at, wave_number
+from .reference import Reference, free_zero_count, inverse_square_shift, reference_at, wave_number
 
 log = logging.getLogger(__name__)
 
@@ -75,7 +75,13 @@ class Channel:
     length: float
     r_grid: np.ndarray          # radii of the range profile
     v_grid: np.ndarray          # 2 m |V_sr| there (1/bohr^2)
-    reference: "Channel | None" = None   # the pure Coulomb tail as a channel (its node count fixes the branch)
+    reference: "Channel | None" = None   # the pure tail as a channel (its node count fixes the branch)
+    tail_b: float = 0.0         # B of an inverse-square tail V ~ -Z_t/r + B/r^2 (hartree bohr^2)
+
+    @property
+    def long_tail(self) -> bool:
+        """A Coulomb or inverse-square tail: matched to Coulomb functions (mpmath), not free waves."""
+        return self.tail_charge != 0.0 or self.tail_b != 0.0
 
     def sample(self, r) -> Sample:
         r = np.atleast_1d(np.asarray(r, dtype=float))
@@ -98,6 +104,36 @@ def _natural_length(mass: float, pot: Potential, hard_core: float | None) -> flo
     return float(hard_core) if hard_core else 1.0
 
 
+def _inverse_square_ends(term) -> tuple[float, float, float]:
+    """(B0, B_tail, Z_t) of one term: its 1/r^2 coefficients at the origin and far out (hartree bohr^2)
+    and its tail charge.
+
+    Built-in terms declare them. A user's term (callable, expression) is read here: B0 = r^2 V at
+    r = 1e-12..1e-10 bohr when steady to 1e-6; far out V = -Z_t/r + B/r^2 fitted at 1e4 and 1e5 bohr and
+    kept when it also holds at 1e3 bohr (to 1e-6) and |B| > 1e-9 max(1, |Z_t|) (the rounding of a pure
+    Coulomb tail is ~1e-12 |Z_t|). The probe of the term's ends reads V ~ -Z_t/r alone, and took
+    1/(2 r^2) for a Coulomb tail of charge -5e-6, matched at 1e-8 bohr (an IndexError followed)."""
+    from ..potentials.base import ProbedTerm
+
+    if not isinstance(term, ProbedTerm):
+        return float(term.origin_inverse_square), float(term.tail_inverse_square), float(term.tail_charge)
+    with np.errstate(all="ignore"):
+        r0 = np.array([1e-12, 1e-11, 1e-10])
+        s0 = r0 * r0 * np.asarray(term(r0), dtype=float)
+        rf = np.array([1e3, 1e4, 1e5])
+        x = rf * np.asarray(term(rf), dtype=float)          # -Z + B / r
+    b0 = 0.0
+    if np.all(np.isfinite(s0)) and abs(s0[0] - s0[2]) <= 1e-6 * abs(s0[0]) and abs(s0[0]) > 1e-9:
+        b0 = float(s0[0])
+    zt, b_tail = float(term.tail_charge), 0.0
+    if np.all(np.isfinite(x)):
+        B = float((x[1] - x[2]) / (1 / rf[1] - 1 / rf[2]))
+        Z = float(B / rf[2] - x[2])
+        if abs(B) > 1e-9 * max(1.0, abs(Z)) and abs(B / rf[0] - Z - x[0]) <= 1e-6 * max(abs(x[0]), abs(B) / rf[0]):
+            zt, b_tail = (Z if abs(Z) > 1e-9 * max(1.0, abs(B)) else 0.0), B
+    return b0, b_tail, zt
+
+
 def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
             with_reference: bool = True) -> Channel:
     """Check a channel for continuum work and build its range profile.
@@ -111,34 +147,48 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
     if pot.confining:
         raise ValueError("potential: it grows without bound far out (confining), so there is no continuum; "
                          "use a potential that tends to 0 or to a Coulomb tail")
-    zt = pot.tail_charge
+    ends = [_inverse_square_ends(t) for t in pot.vector + pot.scalar]
+    b0, b_tail, zt = (float(sum(e[i] for e in ends)) for i in range(3))
     if eq.name != "schrodinger":
         if any(t.tail_charge != 0.0 for t in pot.scalar):
             raise ValueError("potential: a scalar term with a Coulomb tail has no continuum reference here; "
                              "give Coulomb tails as vector terms")
+        if b0 != 0.0 or b_tail != 0.0:
+            raise ValueError(f"potential: it has a 1/r^2 part (B = {b_tail or b0:.6g} hartree bohr^2 "
+                             f"{'far out' if b_tail else 'at the origin'}), supported in the Schrodinger equation "
+                             "only; use equation='schrodinger' or a potential without it")
     if hard_core is not None:        # checked positive by the caller
         if eq.name != "schrodinger":
             eq._refuse_nonrelativistic_terms(pot)
         gamma = float(eq.l + 1)
     else:
         gamma = float(eq.gamma(pot))
+        if b0 != pot.origin_inverse_square:      # a user's term's 1/r^2 at the origin (read above)
+            disc = (eq.l + 0.5) ** 2 + 2 * eq.mass * b0
+            if disc <= 0:
+                raise ValueError(f"potential: its 1/r^2 part at the origin (B = {b0:.6g} hartree bohr^2) is too "
+                                 f"attractive for l = {eq.l}: l(l+1) + 2 m B < -1/4 makes the particle fall to "
+                                 "the centre; use a weaker 1/r^2 part or a larger l")
+            gamma = 0.5 + math.sqrt(disc)
     L = _natural_length(eq.mass, pot, hard_core)
     bps = tuple(b for b in pot.breakpoints if b > 0 and (hard_core is None or b > hard_core))
     far = max([L, *bps, hard_core or 0.0])
     r = np.logspace(math.log10(min(L, far) * 1e-3), math.log10(far * _FAR), _RANGE_GRID)
     with np.errstate(all="ignore"):
-        vsr = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) + zt / r
+        vsr = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) + zt / r - b_tail / r**2
     v = 2 * eq.mass * np.abs(np.nan_to_num(vsr, nan=np.inf))
     reference = None
-    if zt != 0.0 and with_reference:
+    if (zt != 0.0 or b_tail != 0.0) and with_reference:
         from ..potentials.builtin import Coulomb
+        from ..potentials.library import Kratzer
 
+        tail = Kratzer(A=zt, B=b_tail) if b_tail else Coulomb(Z=zt)
         try:
-            reference = prepare(eq, Potential((Coulomb(Z=zt),)), None, with_reference=False)
+            reference = prepare(eq, Potential((tail,)), None, with_reference=False)
         except ValueError as exc:
             raise ValueError(f"potential: its Coulomb tail (charge {zt:g}) has no regular point-Coulomb "
                              f"reference in this channel ({exc})") from None
-    return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference)
+    return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference, b_tail)
 
 
 def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
@@ -412,10 +462,10 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     For a Coulomb tail, ``ref_raw`` (the pure-Coulomb regular solution integrated to the same
     radius) fixes the integer part of delta; without it delta is left in (-pi/2, pi/2].
     """
-    ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p)
+    ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p, ch.tail_b)
     (F0, F1), (G0, G1) = ref.F, ref.G
     k, pi = ref.k, math.pi
-    if ch.tail_charge != 0.0:       # in mpmath: F and G may be far outside the double range
+    if ch.long_tail:       # in mpmath: F and G may be far outside the double range
         import mpmath  # lazy: only a Coulomb tail needs it
         with mpmath.workdps(30):
             det = F0 * G1 - G0 * F1
@@ -441,4 +491,11 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     mi = round(m)
     # C sin(x + delta) = (-1)^mi C sin(x + delta + mi pi): the amplitude found for the folded delta
     # changes sign with each pi added (the state came out as minus sin(... + delta) for odd mi)
-    return Match(delta + mi * pi, float(-amp if mi % 2 else amp), ref, float(abs(m - mi)))
+    amp, delta = float(-amp if mi % 2 else amp), delta + mi * pi
+    if ch.tail_b:
+        # the tail's B/r^2 phase belongs to delta: delta is relative to the Coulomb phase sigma_l (or to free
+        # waves), as for a Coulomb tail alone, and the reference phase given is sigma_l
+        shift = inverse_square_shift(ch.eq, E, ch.tail_charge, ch.tail_b)
+        ref = replace(ref, theta=math.remainder(ref.theta - shift, 2 * pi))
+        delta += shift
+    return Match(delta, amp, ref, float(abs(m - mi)))
