@@ -1058,3 +1058,49 @@ def test_levinson_names_the_bound_count_limit_when_a_shallow_level_is_missed():
                      r"trusted", check.message), check.message
     known = levinson("schrodinger", "hulthen", {"Z": 1.0, "delta": 0.4999}, n_bound=2)
     assert known.success and known.agrees
+
+
+# --- units of the nuclear system ------------------------------------------------------------------
+WS = {"depth": 50.0, "radius": 3.0, "diffuseness": 0.5}
+
+
+def _neutron_k_per_fm(E_mev):
+    # k = sqrt(2 m E) / (hbar c), m the neutron mass (scipy.constants, CODATA); common practice
+    from scipy.constants import c, e, hbar, physical_constants
+    m = physical_constants["neutron mass energy equivalent in MeV"][0]
+    hbar_c = hbar * c / (e * 1e6) * 1e15                       # MeV fm
+    return math.sqrt(2 * m * E_mev) / hbar_c
+
+
+def test_nuclear_units_read_energies_in_mev_in_the_api_as_on_the_command_line():
+    # The command line with --units nuclear reads --energies in MeV; the API read them in hartree
+    res = phase_shifts([1.0], "schrodinger", "woods-saxon", WS, units="nuclear", particle="neutron")
+    assert abs(res.energies_in("MeV")[0] - 1.0) < 1e-12
+    assert abs(res.wave_numbers[0] / boundkit.units.FM_PER_BOHR - _neutron_k_per_fm(1.0)) < 1e-9 * _neutron_k_per_fm(1.0)
+    same = phase_shifts([1.0], "schrodinger", "woods-saxon", WS, units="nuclear", particle="neutron", energy_unit="MeV")
+    assert same.delta[0] == res.delta[0]
+    st = continuum_state(1.0, "schrodinger", "woods-saxon", WS, units="nuclear", particle="neutron")
+    assert abs(st.delta - res.delta[0]) < 1e-7
+
+
+def test_nuclear_units_json_gives_lengths_in_fm_as_the_text_does():
+    # phases --units nuclear --json gave k, the matching radius and the scattering length in bohr while its
+    # text gave fm (and solve --units nuclear --json gives fm); the units block now names fm
+    args = ["phases", "-p", "woods-saxon", "--param", "depth=50", "--param", "radius=3", "--param", "diffuseness=0.5",
+            "--units", "nuclear", "--particle", "neutron", "--energies", "1", "--scattering-length"]
+    text = CliRunner().invoke(main, args)
+    run = CliRunner().invoke(main, args + ["--json"])
+    assert run.exit_code == 0 and text.exit_code == 0, (run.output, text.output)
+    d = json.loads(run.output)
+    assert d["phases"]["units"]["length"] == "fm" and d["phases"]["units"]["wave_number"] == "1/fm"
+    assert d["phases"]["units"]["energy"] == "MeV" and d["scattering_length"]["units"]["length"] == "fm"
+    point = d["phases"]["points"][0]
+    assert abs(point["wave_number"] - _neutron_k_per_fm(1.0)) < 1e-9 * _neutron_k_per_fm(1.0)
+    a_text = float(re.search(r"scattering length a = (\S+) \+- \S+ fm", text.output).group(1))
+    assert abs(d["scattering_length"]["scattering_length"] - a_text) <= 1e-11 * abs(a_text)
+    api = scattering_length("schrodinger", "woods-saxon", WS, units="nuclear", particle="neutron")
+    assert abs(d["scattering_length"]["scattering_length"] - api.a * boundkit.units.FM_PER_BOHR) < 1e-9 * abs(a_text)
+    assert api.to_dict()["units"]["length"] == "fm" and api.to_dict("bohr")["scattering_length"] == api.a
+    assert json.loads(CliRunner().invoke(main, ["solve", "-p", "woods-saxon", "--param", "depth=50", "--param",
+                                                "radius=3", "--param", "diffuseness=0.5", "--units", "nuclear",
+                                                "--particle", "neutron", "--json"]).output)["units"]["length"] == "fm"

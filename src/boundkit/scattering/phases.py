@@ -48,6 +48,12 @@ def _rtol(tol: float) -> float:
     return min(1e-6, tol * 1e-3)
 
 
+def _call_unit(energy_unit: str | None, units: str) -> str:
+    """The unit of a call's energies: ``energy_unit``, else hartree (MeV with units='nuclear', as the command
+    line reads them; it read MeV where the API read hartree)."""
+    return energy_unit or ("MeV" if units == "nuclear" else "hartree")
+
+
 def _energies(energies, unit: str) -> np.ndarray:
     unit = canonical_unit(unit)
     try:
@@ -152,7 +158,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
                  params: dict | None = None, *, l: int | None = None, kappa: int | None = None,
                  particle: str | None = None, mass_mev: float | None = None,
                  nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
-                 j: float | None = None, hard_core: float | None = None, energy_unit: str = "hartree",
+                 j: float | None = None, hard_core: float | None = None, energy_unit: str | None = None,
                  tol: float = 1e-8, estimate_error: bool = True,
                  max_nodes: int = MAX_PHASE_NODES, max_eta: float = MAX_REPULSIVE_ETA) -> PhaseShifts:
     """Phase shifts of one channel at kinetic energies above threshold.
@@ -167,8 +173,11 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     hard_core : float, optional
         Radius of an impenetrable core (u = 0 there), bohr (fm with
         ``units='nuclear'``).
-    energy_unit : str
-        Unit of ``energies`` (hartree, eV, keV, MeV, ...).
+    energy_unit : str, optional
+        Unit of ``energies`` and of the energies quoted in messages (hartree,
+        eV, keV, MeV, ...); default hartree, MeV with ``units='nuclear'`` (as
+        ``boundkit phases --units nuclear``). The result keeps hartree
+        (``PhaseShifts.energies_in``; ``to_dict`` converts to the system's units).
     tol : float
         Target absolute accuracy of each phase shift, radians.
     estimate_error : bool
@@ -217,6 +226,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     -1.0
     """
     tol = check_positive("tol", tol)
+    energy_unit = _call_unit(energy_unit, units)
     E = _energies(energies, energy_unit)
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
@@ -549,7 +559,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
                     particle: str | None = None, mass_mev: float | None = None,
                     nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
                     j: float | None = None, hard_core: float | None = None, r=None,
-                    normalisation: str = "unit-amplitude", energy_unit: str = "hartree",
+                    normalisation: str = "unit-amplitude", energy_unit: str | None = None,
                     tol: float = 1e-8, max_nodes: int = MAX_PHASE_NODES,
                     max_eta: float = MAX_REPULSIVE_ETA) -> ContinuumState:
     """The regular solution at one energy above threshold, normalised.
@@ -578,6 +588,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     if normalisation not in ("unit-amplitude", "energy"):
         raise ValueError(f"normalisation: unknown value {normalisation!r}; choose unit-amplitude or energy")
     tol = check_positive("tol", tol)
+    energy_unit = _call_unit(energy_unit, units)
     E = float(_energies(energy, energy_unit)[0])
     if r is not None:
         r = np.atleast_1d(np.asarray(r, dtype=float))
