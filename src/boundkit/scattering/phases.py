@@ -15,7 +15,7 @@ from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int,
 from .._rounding import rounding_floor
 from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, bohr_to, constants_record, hartree_to, system_units
 from ..units import energy_unit as canonical_unit
-from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare
+from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
 
@@ -133,11 +133,14 @@ def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
         lrefs = integrate(ch.reference, E, one, loosened(rtol, _LOOSE))[0] if ch.reference else [[None]] * len(E)
         for i, e in enumerate(E):
             d = matches[i].delta
-            # never below the integration's own tolerance: two runs that share most of their steps agreed
-            # to 2e-16 where a pure point charge's phase was 2e-15 off its exact 0
-            err[i] = max(abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta),
-                         abs(d - match(ch, float(e), loose[i][0], lrefs[i][0]).delta),
-                         max(rtol, _RTOL_FLOOR))
+            # two sources, added: the potential cut at R (the change up to 1.25 R, both read in one run, plus
+            # the first-order bound on the rest beyond 1.25 R) and the integration (the looser run, which also
+            # starts further out). The larger of the two alone missed the other: Hulthen phases were 1.0-1.4
+            # times their estimate. Never below the integration's own tolerance: two runs that share most of
+            # their steps agreed to 2e-16 where a pure point charge's phase was 2e-15 off its exact 0
+            cut = abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta) + tail_bound(ch, float(e),
+                                                                                         _SECOND_RADIUS * R1[i])
+            err[i] = max(cut + abs(d - match(ch, float(e), loose[i][0], lrefs[i][0]).delta), max(rtol, _RTOL_FLOOR))
     return matches, err, R1, [ok for _, ok in rr]
 
 

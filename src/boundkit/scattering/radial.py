@@ -52,7 +52,7 @@ from .reference import Reference, free_zero_count, inverse_square_shift, referen
 
 log = logging.getLogger(__name__)
 
-__all__ = ["Channel", "prepare", "matching_radius", "integrate", "Match", "match"]
+__all__ = ["Channel", "prepare", "matching_radius", "tail_bound", "integrate", "Match", "match"]
 
 _START = 1e-7      # inner start in units of the smallest length of the problem
 _RANGE_GRID = 4000
@@ -191,6 +191,30 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
     return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference, b_tail)
 
 
+def _tail_profile(ch: Channel, E: float) -> tuple[np.ndarray, np.ndarray]:
+    """(r, B(r)) on the range profile: B(r) = integral_r^inf 2 m_E |V_sr| min(k s^2, 1/k) ds, the
+    first-order bound on the phase change from the short-range part beyond r (see
+    :func:`matching_radius`)."""
+    eq = ch.eq
+    k = float(wave_number(eq.name, E, eq.mass)) if E > 0 else 0.0
+    r, v = ch.r_grid, ch.v_grid
+    if eq.name != "schrodinger":
+        v = v * (1 + E / (eq.mass * C_AU**2))
+    weight = np.minimum(k * r**2, 1 / k) if k > 0 else r**2
+    f = v * weight * r                      # integrand in ln r
+    dlnr = math.log(r[1] / r[0])
+    seg = 0.5 * (f[1:] + f[:-1]) * dlnr
+    return r, np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
+
+
+def tail_bound(ch: Channel, E: float, R: float) -> float:
+    """First-order bound (rad) on the phase change from the short-range part beyond R (bohr): the
+    profile's B at the first profile radius not above R (so never below the bound at R)."""
+    r, tail = _tail_profile(ch, E)
+    i = int(np.searchsorted(r, R, side="right")) - 1
+    return float(tail[max(i, 0)])
+
+
 def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
     """(R, reached): a radius beyond which the short-range part changes delta by < tol/100.
 
@@ -202,16 +226,7 @@ def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
     the relativistic equations. ``reached`` is False when V_sr never falls
     that low on the profile (a long-range tail other than Coulomb).
     """
-    eq = ch.eq
-    k = float(wave_number(eq.name, E, eq.mass)) if E > 0 else 0.0
-    r, v = ch.r_grid, ch.v_grid
-    if eq.name != "schrodinger":
-        v = v * (1 + E / (eq.mass * C_AU**2))
-    weight = np.minimum(k * r**2, 1 / k) if k > 0 else r**2
-    f = v * weight * r                      # integrand in ln r
-    dlnr = math.log(r[1] / r[0])
-    seg = 0.5 * (f[1:] + f[:-1]) * dlnr
-    tail = np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
+    r, tail = _tail_profile(ch, E)
     ok = np.nonzero(~(tail < 1e-2 * tol))[0]
     reached = bool(ok.size == 0 or ok[-1] < len(r) - 2)
     R = float(r[ok[-1] + 1]) if ok.size and reached else (float(r[-1]) if ok.size else float(r[0]))

@@ -39,9 +39,10 @@ class PhaseShifts:
         high energy in the Schrodinger equation. Coulomb tail: relative to
         the Coulomb phase.
     error_estimate : ndarray
-        Absolute error estimate of delta, radians (largest change under a
-        second matching radius and a looser integration tolerance; at least
-        4 ulp of delta).
+        Absolute error estimate of delta, radians (the change under a second
+        matching radius plus the first-order bound of the potential beyond it,
+        added to the change under a looser integration tolerance and a start
+        further out; at least the integration tolerance and 4 ulp of delta).
     coulomb_phase : ndarray
         Reference phase theta (radians, in (-pi, pi]; 0 for a free tail): the
         wave goes like sin(k r - eta ln 2kr - l pi/2 + theta + delta), l the
