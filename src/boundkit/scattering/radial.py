@@ -511,6 +511,6 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
         # the tail's B/r^2 phase belongs to delta: delta is relative to the Coulomb phase sigma_l (or to free
         # waves), as for a Coulomb tail alone, and the reference phase given is sigma_l
         shift = inverse_square_shift(ch.eq, E, ch.tail_charge, ch.tail_b)
-        ref = replace(ref, theta=math.remainder(ref.theta - shift, 2 * pi))
+        ref = replace(ref, theta=math.remainder(ref.theta - shift, 2 * pi) if ch.tail_charge else 0.0)
         delta += shift
     return Match(delta, amp, ref, float(abs(m - mi)))
