@@ -100,17 +100,17 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
                                                          scalar=scalar or None, hard_core=hard_core, **common)
     except ValueError as exc:
         fail(api_message(exc, _LIMITS))
+    lunit = "fm" if unit_system == "nuclear" else "bohr"     # lengths as the text shows them, as solve --json
     if as_json:
-        record = {"phases": res.to_dict(unit)}
+        record = {"phases": res.to_dict(unit, lunit)}
         if "levinson" in out:
-            record["levinson"] = {k: v for k, v in out["levinson"].to_dict(unit).items() if k != "phases"}
+            record["levinson"] = {k: v for k, v in out["levinson"].to_dict(unit, lunit).items() if k != "phases"}
         if "scattering_length" in out:
-            record["scattering_length"] = out["scattering_length"].to_dict()
+            record["scattering_length"] = out["scattering_length"].to_dict(lunit)
         click.echo(json.dumps(record, default=json_default, indent=2))
     else:
         from ..units import FM_PER_BOHR
 
-        lunit = "fm" if unit_system == "nuclear" else "bohr"
         per = FM_PER_BOHR if unit_system == "nuclear" else 1.0
         click.echo(res.table(unit, lunit))
         if "levinson" in out:

@@ -211,6 +211,13 @@ class Term:
         return ()
 
     @property
+    def tail_inverse_square(self) -> float:
+        """Coefficient B of an inverse-square part of the term far out: V ~ -Z_t/r + B/r^2 (hartree
+        bohr^2), which the continuum matches to Coulomb functions of non-integer order. 0.0 for
+        terms without one."""
+        return 0.0
+
+    @property
     def origin_inverse_square(self) -> float:
         """Coefficient B0 of an inverse-square part of the term at the origin.
 

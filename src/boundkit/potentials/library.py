@@ -684,7 +684,7 @@ class Kratzer(Term):
     2 m B to l(l+1), so u ~ r^(l'+1) with l'(l'+1) = l(l+1) + 2 m B
     (``origin_inverse_square`` = B; ``origin_charge`` = A for the next
     order). A level exists only when l(l+1) + 2 m B > -1/4 (otherwise the
-    particle falls to the centre). Far out V ~ -A/r: tail_charge A.
+    particle falls to the centre). Far out V ~ -A/r + B/r^2: tail_charge A, tail_inverse_square B.
     For m = 1, E = -A^2 / (2 (n_r + l' + 1)^2).
     """
 
@@ -710,6 +710,10 @@ class Kratzer(Term):
 
     @property
     def origin_inverse_square(self) -> float:
+        return self.values["B"]
+
+    @property
+    def tail_inverse_square(self) -> float:
         return self.values["B"]
 
 

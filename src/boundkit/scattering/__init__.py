@@ -25,7 +25,7 @@ shift, relative to the Coulomb one when there is a Coulomb tail.
 Method.
 
 1. The regular solution is integrated outward in t = ln r from the Frobenius
-   behaviour u ~ r^gamma at a small radius (or from u = 0 at a hard core), as
+   behaviour u ~ r^gamma (1 + c r^m) at a small radius (or from u = 0 at a hard core), as
    a first-order system for (u, p (u' + kappa u / r)) with scipy's DOP853 at
    tight tolerance, piece by piece between the potential's breakpoints
    (:mod:`.radial`).
@@ -42,9 +42,12 @@ Method.
    short-range potential it tends to 0 at high energy (Schrodinger) and
    delta(0) = n pi with n bound levels (Levinson's theorem, checked by
    :func:`levinson`).
-4. The error estimate is the larger change of delta when it is read at
-   1.25 R and when the integration tolerance actually used (never below
-   DOP853's floor of 3e-14) is loosened 30 times. Each piece between
+4. The error estimate adds the cut of the potential at R (the change of
+   delta read at 1.25 R in the same run, plus the first-order bound on the
+   rest beyond 1.25 R) and the integration's error (the change when the
+   tolerance actually used, never below DOP853's floor of 3e-14, is loosened
+   30 times and the start moved 10 times further out); never below that
+   tolerance itself. Each piece between
    breakpoints samples the potential 64 ulp inside its ends, so that it
    sees its own side of a jump.
 5. The s-wave scattering length comes from the zero-energy solution,

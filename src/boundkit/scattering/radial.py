@@ -11,9 +11,12 @@ With t = ln r, u = r^gamma U and w = r^(gamma - 1) W it reads
     dW/dt = (kappa - gamma + 1) W + r^2 (q - E) U,
 
 started at r_0 = 1e-7 x (the smallest length of the problem) from the
-Frobenius leading term U = 1, W = p (gamma + kappa); the irregular solution,
-r^-gamma, dies out relative to the regular one on the way out, so the start
-error fades. A hard core of radius a starts instead at r = a with u = 0,
+Frobenius leading term U = 1, W = p (gamma + kappa) and its first correction
+(:func:`frobenius_start`). The irregular part that a start leaves fades
+relative to the regular one only as r^-(gamma - gamma_irregular), which is
+r^-(2 gamma - 1) for Klein-Gordon and r^-2 gamma for Dirac: near a critical
+point charge it hardly fades at all, so the start must be right to second
+order, and the error estimate's check run starts 10 times further out. A hard core of radius a starts instead at r = a with u = 0,
 u' > 0. The system is integrated by scipy's DOP853 piece by piece between the
 potential's breakpoints (jumps of V or of p), so no step straddles a jump.
 
@@ -36,7 +39,7 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.integrate import solve_ivp
@@ -45,11 +48,11 @@ from .._rounding import beside
 from ..equations import RadialEquation, Sample
 from ..potentials import Potential
 from ..units import C_AU
-from .reference import Reference, free_zero_count, reference_at, wave_number
+from .reference import Reference, free_zero_count, inverse_square_shift, reference_at, wave_number
 
 log = logging.getLogger(__name__)
 
-__all__ = ["Channel", "prepare", "matching_radius", "integrate", "Match", "match"]
+__all__ = ["Channel", "prepare", "matching_radius", "tail_bound", "integrate", "Match", "match"]
 
 _START = 1e-7      # inner start in units of the smallest length of the problem
 _RANGE_GRID = 4000
@@ -72,7 +75,13 @@ class Channel:
     length: float
     r_grid: np.ndarray          # radii of the range profile
     v_grid: np.ndarray          # 2 m |V_sr| there (1/bohr^2)
-    reference: "Channel | None" = None   # the pure Coulomb tail as a channel (its node count fixes the branch)
+    reference: "Channel | None" = None   # the pure tail as a channel (its node count fixes the branch)
+    tail_b: float = 0.0         # B of an inverse-square tail V ~ -Z_t/r + B/r^2 (hartree bohr^2)
+
+    @property
+    def long_tail(self) -> bool:
+        """A Coulomb or inverse-square tail: matched to Coulomb functions (mpmath), not free waves."""
+        return self.tail_charge != 0.0 or self.tail_b != 0.0
 
     def sample(self, r) -> Sample:
         r = np.atleast_1d(np.asarray(r, dtype=float))
@@ -95,6 +104,36 @@ def _natural_length(mass: float, pot: Potential, hard_core: float | None) -> flo
     return float(hard_core) if hard_core else 1.0
 
 
+def _inverse_square_ends(term) -> tuple[float, float, float]:
+    """(B0, B_tail, Z_t) of one term: its 1/r^2 coefficients at the origin and far out (hartree bohr^2)
+    and its tail charge.
+
+    Built-in terms declare them. A user's term (callable, expression) is read here: B0 = r^2 V at
+    r = 1e-12..1e-10 bohr when steady to 1e-6; far out V = -Z_t/r + B/r^2 fitted at 1e4 and 1e5 bohr and
+    kept when it also holds at 1e3 bohr (to 1e-6) and |B| > 1e-9 max(1, |Z_t|) (the rounding of a pure
+    Coulomb tail is ~1e-12 |Z_t|). The probe of the term's ends reads V ~ -Z_t/r alone, and took
+    1/(2 r^2) for a Coulomb tail of charge -5e-6, matched at 1e-8 bohr (an IndexError followed)."""
+    from ..potentials.base import ProbedTerm
+
+    if not isinstance(term, ProbedTerm):
+        return float(term.origin_inverse_square), float(term.tail_inverse_square), float(term.tail_charge)
+    with np.errstate(all="ignore"):
+        r0 = np.array([1e-12, 1e-11, 1e-10])
+        s0 = r0 * r0 * np.asarray(term(r0), dtype=float)
+        rf = np.array([1e3, 1e4, 1e5])
+        x = rf * np.asarray(term(rf), dtype=float)          # -Z + B / r
+    b0 = 0.0
+    if np.all(np.isfinite(s0)) and abs(s0[0] - s0[2]) <= 1e-6 * abs(s0[0]) and abs(s0[0]) > 1e-9:
+        b0 = float(s0[0])
+    zt, b_tail = float(term.tail_charge), 0.0
+    if np.all(np.isfinite(x)):
+        B = float((x[1] - x[2]) / (1 / rf[1] - 1 / rf[2]))
+        Z = float(B / rf[2] - x[2])
+        if abs(B) > 1e-9 * max(1.0, abs(Z)) and abs(B / rf[0] - Z - x[0]) <= 1e-6 * max(abs(x[0]), abs(B) / rf[0]):
+            zt, b_tail = (Z if abs(Z) > 1e-9 * max(1.0, abs(B)) else 0.0), B
+    return b0, b_tail, zt
+
+
 def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
             with_reference: bool = True) -> Channel:
     """Check a channel for continuum work and build its range profile.
@@ -108,34 +147,72 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
     if pot.confining:
         raise ValueError("potential: it grows without bound far out (confining), so there is no continuum; "
                          "use a potential that tends to 0 or to a Coulomb tail")
-    zt = pot.tail_charge
+    ends = [_inverse_square_ends(t) for t in pot.vector + pot.scalar]
+    b0, b_tail, zt = (float(sum(e[i] for e in ends)) for i in range(3))
     if eq.name != "schrodinger":
         if any(t.tail_charge != 0.0 for t in pot.scalar):
             raise ValueError("potential: a scalar term with a Coulomb tail has no continuum reference here; "
                              "give Coulomb tails as vector terms")
+        if b0 != 0.0 or b_tail != 0.0:
+            raise ValueError(f"potential: it has a 1/r^2 part (B = {b_tail or b0:.6g} hartree bohr^2 "
+                             f"{'far out' if b_tail else 'at the origin'}), supported in the Schrodinger equation "
+                             "only; use equation='schrodinger' or a potential without it")
     if hard_core is not None:        # checked positive by the caller
         if eq.name != "schrodinger":
             eq._refuse_nonrelativistic_terms(pot)
         gamma = float(eq.l + 1)
     else:
         gamma = float(eq.gamma(pot))
+        if b0 != pot.origin_inverse_square:      # a user's term's 1/r^2 at the origin (read above)
+            disc = (eq.l + 0.5) ** 2 + 2 * eq.mass * b0
+            if disc <= 0:
+                raise ValueError(f"potential: its 1/r^2 part at the origin (B = {b0:.6g} hartree bohr^2) is too "
+                                 f"attractive for l = {eq.l}: l(l+1) + 2 m B < -1/4 makes the particle fall to "
+                                 "the centre; use a weaker 1/r^2 part or a larger l")
+            gamma = 0.5 + math.sqrt(disc)
     L = _natural_length(eq.mass, pot, hard_core)
     bps = tuple(b for b in pot.breakpoints if b > 0 and (hard_core is None or b > hard_core))
     far = max([L, *bps, hard_core or 0.0])
     r = np.logspace(math.log10(min(L, far) * 1e-3), math.log10(far * _FAR), _RANGE_GRID)
     with np.errstate(all="ignore"):
-        vsr = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) + zt / r
+        vsr = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) + zt / r - b_tail / r**2
     v = 2 * eq.mass * np.abs(np.nan_to_num(vsr, nan=np.inf))
     reference = None
-    if zt != 0.0 and with_reference:
+    if (zt != 0.0 or b_tail != 0.0) and with_reference:
         from ..potentials.builtin import Coulomb
+        from ..potentials.library import Kratzer
 
+        tail = Kratzer(A=zt, B=b_tail) if b_tail else Coulomb(Z=zt)
         try:
-            reference = prepare(eq, Potential((Coulomb(Z=zt),)), None, with_reference=False)
+            reference = prepare(eq, Potential((tail,)), None, with_reference=False)
         except ValueError as exc:
             raise ValueError(f"potential: its Coulomb tail (charge {zt:g}) has no regular point-Coulomb "
                              f"reference in this channel ({exc})") from None
-    return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference)
+    return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference, b_tail)
+
+
+def _tail_profile(ch: Channel, E: float) -> tuple[np.ndarray, np.ndarray]:
+    """(r, B(r)) on the range profile: B(r) = integral_r^inf 2 m_E |V_sr| min(k s^2, 1/k) ds, the
+    first-order bound on the phase change from the short-range part beyond r (see
+    :func:`matching_radius`)."""
+    eq = ch.eq
+    k = float(wave_number(eq.name, E, eq.mass)) if E > 0 else 0.0
+    r, v = ch.r_grid, ch.v_grid
+    if eq.name != "schrodinger":
+        v = v * (1 + E / (eq.mass * C_AU**2))
+    weight = np.minimum(k * r**2, 1 / k) if k > 0 else r**2
+    f = v * weight * r                      # integrand in ln r
+    dlnr = math.log(r[1] / r[0])
+    seg = 0.5 * (f[1:] + f[:-1]) * dlnr
+    return r, np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
+
+
+def tail_bound(ch: Channel, E: float, R: float) -> float:
+    """First-order bound (rad) on the phase change from the short-range part beyond R (bohr): the
+    profile's B at the first profile radius not above R (so never below the bound at R)."""
+    r, tail = _tail_profile(ch, E)
+    i = int(np.searchsorted(r, R, side="right")) - 1
+    return float(tail[max(i, 0)])
 
 
 def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
@@ -149,16 +226,7 @@ def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
     the relativistic equations. ``reached`` is False when V_sr never falls
     that low on the profile (a long-range tail other than Coulomb).
     """
-    eq = ch.eq
-    k = float(wave_number(eq.name, E, eq.mass)) if E > 0 else 0.0
-    r, v = ch.r_grid, ch.v_grid
-    if eq.name != "schrodinger":
-        v = v * (1 + E / (eq.mass * C_AU**2))
-    weight = np.minimum(k * r**2, 1 / k) if k > 0 else r**2
-    f = v * weight * r                      # integrand in ln r
-    dlnr = math.log(r[1] / r[0])
-    seg = 0.5 * (f[1:] + f[:-1]) * dlnr
-    tail = np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
+    r, tail = _tail_profile(ch, E)
     ok = np.nonzero(~(tail < 1e-2 * tol))[0]
     reached = bool(ok.size == 0 or ok[-1] < len(r) - 2)
     R = float(r[ok[-1] + 1]) if ok.size and reached else (float(r[-1]) if ok.size else float(r[0]))
@@ -172,6 +240,59 @@ def _start(ch: Channel, k: float) -> float:
         return float(ch.hard_core)
     scales = [ch.length, *ch.breakpoints[:1]] + ([1.0 / k] if k > 0 else [])
     return _START * min(scales)
+
+
+def _coefficients(ch: Channel, Es: np.ndarray, r: float) -> tuple[np.ndarray, np.ndarray]:
+    """(a21, a22) of the system for (U, X = W / p) at radius r, per energy:
+    dU/dt = -(kappa + gamma) U + X, dX/dt = a21 U + a22 X with a21 = r^2 (q - E) / p and
+    a22 = kappa - gamma + 1 - d ln p / dt (five-point differences in t, step 0.01: p varies on the
+    scale r only where V does, and exactly p is constant for Schrodinger and Klein-Gordon)."""
+    eq = ch.eq
+    h = 0.01
+    samples = [ch.sample(r * math.exp(h * i)) for i in (-2, -1, 0, 1, 2)]
+    lnp = np.log(np.abs([np.broadcast_to(eq.p(Es, smp), Es.shape) for smp in samples]))
+    dlnp = (lnp[0] - 8 * lnp[1] + 8 * lnp[3] - lnp[4]) / (12 * h)
+    qE = np.broadcast_to(eq.q(Es, samples[2]), Es.shape) - Es
+    p = np.broadcast_to(eq.p(Es, samples[2]), Es.shape)
+    return r * r * qE / p, (ch.kappa - ch.gamma + 1) - dlnp
+
+
+def frobenius_start(ch: Channel, Es: np.ndarray, r0: float) -> tuple[np.ndarray, np.ndarray]:
+    """(U, W) at the start r0: the Frobenius leading term and its first correction.
+
+    Notes
+    -----
+    With X = W / p the system reads dY/dt = A(r) Y, Y = (U, X), and the leading term
+    Y0 = (1, kappa + gamma) solves A(0) Y0 = 0 (the indicial equation that fixes gamma). Where
+    A(r) = A(0) + r^m A1 + ..., the next term r^m Y1 solves (m - A(0)) Y1 = A1 Y0, so the start is
+    Y0 + (m - A(r0))^(-1) A(r0) Y0 up to order r0^(2m). The defect A(r) Y0 = (0, d(r)) is measured at
+    r0 and r0 / e, which gives m (1 for a Coulomb charge at the origin, 2 for a potential finite there).
+    The leading term alone leaves an irregular part of relative size ~ r0^m, which fades only as
+    (r0 / r)^(gamma - gamma_irregular): 2 gamma - 1 for Klein-Gordon and 2 gamma for Dirac, both -> 0
+    near the critical charge, where a start from r^gamma alone left delta 2e-8 off (Klein-Gordon,
+    Z = 68) and 3e-9 off (Dirac kappa = -1, Z = 135) with estimates 1e-5 of that. The correction is
+    skipped (leading term only) where the measured defect is not a clean power (zero, changing sign,
+    or m outside [0.1, 8]).
+    """
+    kg = ch.kappa + ch.gamma
+    a21, a22 = _coefficients(ch, Es, r0)
+    d = a21 + a22 * kg
+    b21, b22 = _coefficients(ch, Es, r0 / math.e)
+    d_in = b21 + b22 * kg
+    with np.errstate(all="ignore"):
+        m = np.log(d / d_in)
+    U, X = np.ones_like(Es), np.full_like(Es, kg)
+    ok = np.isfinite(m) & (m >= 0.1) & (m <= 8.0) & np.isfinite(d)
+    if np.any(ok):
+        # (m I - A) (dU, dX) = (0, d), A = [[-kg, 1], [a21, a22]]
+        det = (m + kg) * (m - a22) - a21
+        dU = np.where(ok, d / det, 0.0)
+        dX = np.where(ok, (m + kg) * d / det, 0.0)
+        good = ok & np.isfinite(dU) & np.isfinite(dX) & (np.abs(dU) < 0.5)
+        U = np.where(good, U + dU, U)
+        X = np.where(good, X + dX, X)
+    p0 = np.broadcast_to(ch.eq.p(Es, ch.sample(r0)), Es.shape)
+    return U, X * p0
 
 
 @dataclass(frozen=True)
@@ -196,7 +317,8 @@ def loosened(rtol: float, factor: float) -> float:
     return max(float(rtol), _RTOL_FLOOR) * factor
 
 
-def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral: bool = False):
+def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral: bool = False,
+              start_scale: float = 1.0):
     """Integrate outward at one energy or a batch of energies sharing the steps.
 
     Parameters
@@ -207,6 +329,9 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
         Radii (bohr) where the solution is recorded.
     integral : bool
         Also accumulate the integral of u^2 dr (true scale).
+    start_scale : float
+        Multiplies the start radius (an error estimate's check run starts further out, so that the
+        start's own error shows in the difference).
 
     Returns
     -------
@@ -223,7 +348,7 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
     wanted = [sorted(float(x) for x in rr) for rr in radii]
     eq, kap, gam = ch.eq, ch.kappa, ch.gamma
     k_max = float(np.max(wave_number(eq.name, Es, eq.mass)))
-    r0 = _start(ch, k_max)
+    r0 = _start(ch, k_max) * (1.0 if ch.hard_core else start_scale)
     rmax = max(rr[-1] for rr in wanted)
     edges = {r0, *[b for b in ch.breakpoints if r0 < b < rmax], *[x for rr in wanted for x in rr]}
     # extra edges every factor e^2 in r: the state is rescaled to norm 1 at each edge, so the
@@ -233,7 +358,7 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
     if ch.hard_core:
         U, Wt = np.zeros(n), np.ones(n)
     else:
-        U, Wt = np.ones(n), np.broadcast_to(eq.p(Es, ch.sample(r0)), (n,)) * (gam + kap)
+        U, Wt = frobenius_start(ch, Es, r0)
     y = np.concatenate((U, Wt, np.zeros(n))) if integral else np.concatenate((U, Wt))
 
     inside = [0.0, math.inf]     # the present piece's radii, just inside its ends (_rounding.beside; per piece)
@@ -352,10 +477,10 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     For a Coulomb tail, ``ref_raw`` (the pure-Coulomb regular solution integrated to the same
     radius) fixes the integer part of delta; without it delta is left in (-pi/2, pi/2].
     """
-    ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p)
+    ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p, ch.tail_b)
     (F0, F1), (G0, G1) = ref.F, ref.G
     k, pi = ref.k, math.pi
-    if ch.tail_charge != 0.0:       # in mpmath: F and G may be far outside the double range
+    if ch.long_tail:       # in mpmath: F and G may be far outside the double range
         import mpmath  # lazy: only a Coulomb tail needs it
         with mpmath.workdps(30):
             det = F0 * G1 - G0 * F1
@@ -381,4 +506,11 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     mi = round(m)
     # C sin(x + delta) = (-1)^mi C sin(x + delta + mi pi): the amplitude found for the folded delta
     # changes sign with each pi added (the state came out as minus sin(... + delta) for odd mi)
-    return Match(delta + mi * pi, float(-amp if mi % 2 else amp), ref, float(abs(m - mi)))
+    amp, delta = float(-amp if mi % 2 else amp), delta + mi * pi
+    if ch.tail_b:
+        # the tail's B/r^2 phase belongs to delta: delta is relative to the Coulomb phase sigma_l (or to free
+        # waves), as for a Coulomb tail alone, and the reference phase given is sigma_l
+        shift = inverse_square_shift(ch.eq, E, ch.tail_charge, ch.tail_b)
+        ref = replace(ref, theta=math.remainder(ref.theta - shift, 2 * pi) if ch.tail_charge else 0.0)
+        delta += shift
+    return Match(delta, amp, ref, float(abs(m - mi)))

@@ -65,7 +65,7 @@ from scipy.special import spherical_jn, spherical_yn
 
 from ..units import C_AU
 
-__all__ = ["wave_number", "sommerfeld", "Reference", "reference_at", "free_zero_count"]
+__all__ = ["wave_number", "sommerfeld", "Reference", "reference_at", "free_zero_count", "inverse_square_shift"]
 
 _DPS = 30   # mpmath precision (digits) for the Coulomb functions; near-integer 2 gamma needs headroom
 
@@ -129,17 +129,19 @@ def _normalised(F, G, cF, cG):
     return Fh, Gh, float(mpmath.arg(cF))
 
 
-def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float) -> Reference:
+def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float, tail_b: float = 0.0) -> Reference:
     """Regular and irregular tail solutions of channel ``eq`` at radius R (bohr).
 
     ``p_R`` is the equation's p(E) at R (needed to turn the Dirac small
-    component into du/dr).
+    component into du/dr); ``tail_b`` the B of an inverse-square tail
+    V ~ -Z_t/r + B/r^2 (Schrodinger), whose Coulomb functions have the order L
+    with L (L + 1) = l (l + 1) + 2 m B.
     """
     import mpmath  # lazy: only Coulomb-tail references need it
     name, m = eq.name, eq.mass
     k = float(wave_number(name, E, m))
     l = eq.l
-    if tail_charge == 0.0:
+    if tail_charge == 0.0 and tail_b == 0.0:
         x = k * R
         F = (x * spherical_jn(l, x), k * (spherical_jn(l, x) + x * spherical_jn(l, x, derivative=True)))
         G = (-x * spherical_yn(l, x), -k * (spherical_yn(l, x) + x * spherical_yn(l, x, derivative=True)))
@@ -149,7 +151,10 @@ def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float) -> Refe
         if name == "dirac":
             F, G, cF, cG = _dirac_coulomb(eq.kappa, l, E, m, tail_charge, R, p_R)
         else:
-            L = l if name == "schrodinger" else _kg_L(l, tail_charge)
+            if name == "schrodinger":
+                L = l if tail_b == 0.0 else -0.5 + math.sqrt((l + 0.5) ** 2 + 2 * m * tail_b)
+            else:
+                L = _kg_L(l, tail_charge)
             rho = mpmath.mpf(k) * R
 
             def pair(fun):
@@ -165,6 +170,20 @@ def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float) -> Refe
             cG = 1j * cF
         Fh, Gh, th = _normalised(F, G, cF, cG)
     return Reference(Fh, Gh, th, eta, k)
+
+
+def inverse_square_shift(eq, E: float, tail_charge: float, tail_b: float) -> float:
+    """The phase an inverse-square tail B/r^2 adds to the Coulomb (or free) one:
+    sigma_L - sigma_l + (l - L) pi / 2, L (L + 1) = l (l + 1) + 2 m B, sigma_L = arg Gamma(L + 1 + i eta)
+    taken continuous in eta (imaginary part of log Gamma), so it is continuous in E and tends to
+    (l - L) pi / 2, the phase of B/r^2 alone, at high energy (Schrodinger)."""
+    import mpmath  # lazy: only long tails need it
+    l, m = eq.l, eq.mass
+    eta = float(sommerfeld(eq.name, E, m, tail_charge)) if tail_charge else 0.0
+    with mpmath.workdps(_DPS):
+        L = -mpmath.mpf(0.5) + mpmath.sqrt((l + mpmath.mpf(0.5)) ** 2 + 2 * mpmath.mpf(m) * tail_b)
+        return float(mpmath.im(mpmath.loggamma(L + 1 + 1j * eta)) - mpmath.im(mpmath.loggamma(l + 1 + 1j * eta))
+                     + (l - L) * mpmath.pi / 2)
 
 
 def _kg_L(l: int, Z: float) -> float:

@@ -7,13 +7,20 @@ from typing import Any
 
 import numpy as np
 
-from ..units import FM_PER_BOHR, hartree_to
+from ..units import FM_PER_BOHR, bohr_to, hartree_to
+from ..units import energy_unit as _energy
+from ..units import length_unit as _length
 
 __all__ = ["PhaseShifts", "ScatteringLength", "LevinsonCheck", "ContinuumState"]
 
 
 def _floats(a) -> list:
     return [None if (x is None or not math.isfinite(x)) else float(x) for x in np.asarray(a, dtype=float)]
+
+
+def _system_length(settings: dict, length_unit: str | None) -> str:
+    """``length_unit``, else that of the call's unit system (bohr; fm with units='nuclear')."""
+    return _length(length_unit or ("fm" if settings.get("units") == "nuclear" else "bohr"))
 
 
 @dataclass(frozen=True, repr=False)
@@ -32,9 +39,10 @@ class PhaseShifts:
         high energy in the Schrodinger equation. Coulomb tail: relative to
         the Coulomb phase.
     error_estimate : ndarray
-        Absolute error estimate of delta, radians (largest change under a
-        second matching radius and a looser integration tolerance; at least
-        4 ulp of delta).
+        Absolute error estimate of delta, radians (the change under a second
+        matching radius plus the first-order bound of the potential beyond it,
+        added to the change under a looser integration tolerance and a start
+        further out; at least the integration tolerance and 4 ulp of delta).
     coulomb_phase : ndarray
         Reference phase theta (radians, in (-pi, pi]; 0 for a free tail): the
         wave goes like sin(k r - eta ln 2kr - l pi/2 + theta + delta), l the
@@ -74,21 +82,27 @@ class PhaseShifts:
     def energies_in(self, unit: str) -> np.ndarray:
         return np.asarray(hartree_to(self.energies, unit), dtype=float)
 
-    def to_dict(self, energy_unit: str = "hartree") -> dict[str, Any]:
-        """A JSON-ready record (energies in ``energy_unit``, phases in radians)."""
+    def to_dict(self, energy_unit: str | None = None, length_unit: str | None = None) -> dict[str, Any]:
+        """A JSON-ready record: energies in ``energy_unit``, wave numbers and matching radii in
+        ``length_unit`` (default: those of the call's unit system, hartree and bohr or MeV and fm),
+        phases in radians; the ``units`` block names each."""
+        nuclear = self.settings.get("units") == "nuclear"
+        energy_unit = _energy(energy_unit or ("MeV" if nuclear else "hartree"))
+        lu = _system_length(self.settings, length_unit)
+        per = float(bohr_to(1.0, lu))
         return {
             "equation": self.equation, "channel": self.channel, "potential": self.potential,
             "reference": self.reference, "branch": self.branch,
-            "units": {**self.units, "energy": energy_unit},
+            "units": {**self.units, "energy": energy_unit, "length": lu, "wave_number": f"1/{lu}"},
             "constants": self.constants, "settings": self.settings,
             "status": self.status, "success": self.success, "message": self.message,
             "points": [
                 {"energy": e, "wave_number": k, "delta": d, "error_estimate": er,
                  "coulomb_phase": c, "eta": et, "matching_radius": R}
                 for e, k, d, er, c, et, R in zip(
-                    _floats(self.energies_in(energy_unit)), _floats(self.wave_numbers), _floats(self.delta),
+                    _floats(self.energies_in(energy_unit)), _floats(self.wave_numbers / per), _floats(self.delta),
                     _floats(self.error_estimate), _floats(self.coulomb_phase),
-                    _floats(self.eta), _floats(self.matching_radius))
+                    _floats(self.eta), _floats(self.matching_radius * per))
             ],
             "diagnostics": self.diagnostics,
         }
@@ -144,10 +158,17 @@ class ScatteringLength:
     constants: dict = field(default_factory=dict)
     units: dict = field(default_factory=lambda: {"length": "bohr"})
 
-    def to_dict(self) -> dict[str, Any]:
-        return {"scattering_length": self.a, "scattering_length_error": self.a_error,
-                "effective_range": self.effective_range, "effective_range_error": self.effective_range_error,
-                "convention": self.convention, "units": self.units, "equation": self.equation,
+    def to_dict(self, length_unit: str | None = None) -> dict[str, Any]:
+        """A JSON-ready record, lengths in ``length_unit`` (default that of the call's unit system: bohr,
+        or fm with units='nuclear'), named in its ``units`` block."""
+        lu = _system_length(self.settings, length_unit)
+
+        def conv(x):
+            return None if x is None else float(bohr_to(x, lu))
+
+        return {"scattering_length": conv(self.a), "scattering_length_error": conv(self.a_error),
+                "effective_range": conv(self.effective_range), "effective_range_error": conv(self.effective_range_error),
+                "convention": self.convention, "units": {**self.units, "length": lu}, "equation": self.equation,
                 "potential": self.potential, "method": self.method, "status": self.status,
                 "success": self.success, "message": self.message, "settings": self.settings,
                 "constants": self.constants}
@@ -181,12 +202,12 @@ class LevinsonCheck:
     status: str
     message: str
 
-    def to_dict(self, energy_unit: str = "hartree") -> dict[str, Any]:
+    def to_dict(self, energy_unit: str | None = None, length_unit: str | None = None) -> dict[str, Any]:
         return {"count_from_phase": self.count_from_phase, "count_unwrapped": self.count_unwrapped,
                 "n_bound": self.n_bound, "agrees": self.agrees, "residual": self.residual,
                 "delta_low": self.delta_low, "delta_high": self.delta_high, "max_step": self.max_step,
                 "status": self.status, "success": self.success, "message": self.message,
-                "units": {"phase": "rad"}, "phases": self.phases.to_dict(energy_unit)}
+                "units": {"phase": "rad"}, "phases": self.phases.to_dict(energy_unit, length_unit)}
 
     def __repr__(self) -> str:
         nb = "" if self.n_bound is None else f", bound levels {self.n_bound}"
