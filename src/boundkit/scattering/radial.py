@@ -108,23 +108,19 @@ def _inverse_square_ends(term) -> tuple[float, float, float]:
     """(B0, B_tail, Z_t) of one term: its 1/r^2 coefficients at the origin and far out (hartree bohr^2)
     and its tail charge.
 
-    Built-in terms declare them. A user's term (callable, expression) is read here: B0 = r^2 V at
-    r = 1e-12..1e-10 bohr when steady to 1e-6; far out V = -Z_t/r + B/r^2 fitted at 1e4 and 1e5 bohr and
-    kept when it also holds at 1e3 bohr (to 1e-6) and |B| > 1e-9 max(1, |Z_t|) (the rounding of a pure
-    Coulomb tail is ~1e-12 |Z_t|). The probe of the term's ends reads V ~ -Z_t/r alone, and took
-    1/(2 r^2) for a Coulomb tail of charge -5e-6, matched at 1e-8 bohr (an IndexError followed)."""
+    Built-in terms declare them, and a user's term (callable, expression) declares B0 from its probe
+    (:class:`boundkit.potentials.base.ProbedTerm`). Its tail is read here: V = -Z_t/r + B/r^2 fitted at
+    1e4 and 1e5 bohr and kept when it also holds at 1e3 bohr (to 1e-6) and |B| > 1e-9 max(1, |Z_t|) (the
+    rounding of a pure Coulomb tail is ~1e-12 |Z_t|). The probe of the term's ends reads V ~ -Z_t/r alone,
+    and took 1/(2 r^2) for a Coulomb tail of charge -5e-6, matched at 1e-8 bohr (an IndexError followed)."""
     from ..potentials.base import ProbedTerm
 
+    b0 = float(term.origin_inverse_square)
     if not isinstance(term, ProbedTerm):
-        return float(term.origin_inverse_square), float(term.tail_inverse_square), float(term.tail_charge)
+        return b0, float(term.tail_inverse_square), float(term.tail_charge)
     with np.errstate(all="ignore"):
-        r0 = np.array([1e-12, 1e-11, 1e-10])
-        s0 = r0 * r0 * np.asarray(term(r0), dtype=float)
         rf = np.array([1e3, 1e4, 1e5])
         x = rf * np.asarray(term(rf), dtype=float)          # -Z + B / r
-    b0 = 0.0
-    if np.all(np.isfinite(s0)) and abs(s0[0] - s0[2]) <= 1e-6 * abs(s0[0]) and abs(s0[0]) > 1e-9:
-        b0 = float(s0[0])
     zt, b_tail = float(term.tail_charge), 0.0
     if np.all(np.isfinite(x)):
         B = float((x[1] - x[2]) / (1 / rf[1] - 1 / rf[2]))
@@ -162,14 +158,7 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
             eq._refuse_nonrelativistic_terms(pot)
         gamma = float(eq.l + 1)
     else:
-        gamma = float(eq.gamma(pot))
-        if b0 != pot.origin_inverse_square:      # a user's term's 1/r^2 at the origin (read above)
-            disc = (eq.l + 0.5) ** 2 + 2 * eq.mass * b0
-            if disc <= 0:
-                raise ValueError(f"potential: its 1/r^2 part at the origin (B = {b0:.6g} hartree bohr^2) is too "
-                                 f"attractive for l = {eq.l}: l(l+1) + 2 m B < -1/4 makes the particle fall to "
-                                 "the centre; use a weaker 1/r^2 part or a larger l")
-            gamma = 0.5 + math.sqrt(disc)
+        gamma = float(eq.gamma(pot))        # with the 1/r^2 part at the origin, and its fall-to-centre refusal
     L = _natural_length(eq.mass, pot, hard_core)
     bps = tuple(b for b in pot.breakpoints if b > 0 and (hard_core is None or b > hard_core))
     far = max([L, *bps, hard_core or 0.0])
