@@ -230,7 +230,7 @@ def solve_rung(eq, pot, sample_fn, gamma, r_core, edges, quiet, n, want, lo, hi,
                                                 certify, offset, rtol, guess_lo))
 
 
-def far_operator(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi: float):
+def far_operator(eq, pot, sample_fn, gamma, r_core, r_min: float, r_far: float, hi: float, degree: int = 18):
     """The operator of the far box (short-range potentials: their levels are counted on it), degree 18."""
     edges, quiet = layout(eq, pot, sample_fn, r_min, r_far, [hi])
-    return make_operator(eq, sample_fn, gamma, r_core, edges, quiet, 18, hi)
+    return make_operator(eq, sample_fn, gamma, r_core, edges, quiet, degree, hi)

@@ -60,6 +60,7 @@ from __future__ import annotations
 import logging
 import math
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 import scipy.linalg as sla
@@ -67,7 +68,7 @@ import scipy.linalg as sla
 from .eigen import refine
 from .equations.variational import SymmetricOperator
 
-__all__ = ["count_below", "locate_levels", "certify_levels", "particle_floor", "Located"]
+__all__ = ["count_below", "locate_levels", "certify_levels", "particle_floor", "peak_floor", "Floor", "Located"]
 
 log = logging.getLogger(__name__)
 
@@ -81,11 +82,23 @@ def count_below(op: SymmetricOperator, E: float) -> int:
     return op.count_negative(E)
 
 
-def particle_floor(op: SymmetricOperator, lo: float, top: float, start: float) -> tuple[float, int]:
+class Floor(NamedTuple):
+    """A Klein-Gordon particle floor (:func:`particle_floor`)."""
+
+    energy: float       # E*
+    count: int          # N(E*): 0, or particle levels merged with their antiparticle partners
+    narrow: bool        # the grids missed it (or it is not there): a pair of roots close to their merge
+    peak: float | None = None   # where the lowest eigenvalue of K(E) peaks, when that was looked for
+
+
+def particle_floor(op: SymmetricOperator, lo: float, top: float, start: float) -> Floor:
     """Klein-Gordon: an energy E* in [lo, top] where K(E*) is positive definite (N(E*) = 0), tried at
-    ``start`` first, then on grids over [lo, top] zoomed four times on the smallest count; (E*, N(E*)),
-    with the smallest count found when no such energy is (a particle level merged with its antiparticle
-    partner: their energies are complex, and that eigenvalue of K(E) stays negative across the window).
+    ``start`` first, then on grids over [lo, top] zoomed four times on the smallest count, then (when
+    none had N = 0) where the lowest eigenvalue of K(E) peaks (:func:`_lowest_peak`: between a particle
+    level and its antiparticle partner close to their merge the window is narrower than the grids' step);
+    (E*, N(E*), whether the grids missed it), with the smallest count found when no such energy is (a
+    particle level merged with its antiparticle partner: their energies are complex, and that eigenvalue
+    of K(E) stays negative across the window).
 
     Notes
     -----
@@ -111,7 +124,83 @@ def particle_floor(op: SymmetricOperator, lo: float, top: float, start: float) -
             if best[0] == 0:
                 break
         a, b = max(lo, best[1] - h), min(top, best[1] + h)
-    return best[1], best[0]
+    if best[0] == 0:
+        return Floor(best[1], best[0], False)
+    # the grid missed: a particle level and its antiparticle partner close to their merge leave a window
+    # narrower than its step (a square well 1e-5 below its merge depth: 5.5e-3 MeV of 1 MeV)
+    return peak_floor(op, lo, top, best[1], best[0])
+
+
+def peak_floor(op: SymmetricOperator, lo: float, top: float, start: float, count: int | None = None) -> Floor:
+    """The particle floor where the lowest eigenvalue of K(E) peaks (:func:`_lowest_peak`), or ``start``
+    (whose count is ``count`` when the caller has it) unless the count at the peak is smaller (or 0);
+    ``narrow`` set. Without ``count``, ``start`` is the peak of a coarser grid of the same box, and the
+    search starts around it."""
+    n0 = count_below(op, start) if count is None else count
+    E = _lowest_peak(op, lo, top, near=None if count is not None else start)
+    n = count_below(op, E)
+    return Floor(E, n, True, E) if n < n0 or n == 0 else Floor(start, n0, True, E)
+
+
+def _lowest_peak(op: SymmetricOperator, lo: float, top: float, near: float | None = None) -> float:
+    """The energy in [lo, top] where the lowest eigenvalue phi(E) of the scaled K(E) is largest.
+
+    Notes
+    -----
+    For every vector u, u^T K(E) u is a concave parabola in E (:func:`particle_floor`), so phi(E), the
+    minimum of u^T D K(E) D u over unit u (D = diag(sqrt(row_scale)), a congruence: the count is that of
+    K), is concave; K(E) is positive definite somewhere in the window exactly when its maximum is
+    positive. Its slope v^T dK/dE v (v = D u, u the lowest eigenvector) falls through zero at the
+    maximum: found by regula falsi on that sign change (Illinois: a bracket end kept twice has its slope
+    halved; a step that does not halve the bracket is followed by a halving), one dense eigen-solve of the
+    lowest pair a step (:meth:`SymmetricOperator.lowest`). ``near``: the peak of a coarser grid, tried
+    first in a narrow bracket.
+    """
+    def slope(E):
+        return op.slope_form(E, op.lowest(E)[1])
+
+    a, b, sa, sb = lo, top, None, None
+    if near is not None:        # a bracket around the peak of a coarser grid, widened 100 times a try
+        for width in (1e-6, 1e-4, 1e-2):
+            a, b = max(lo, near - width * (top - lo)), min(top, near + width * (top - lo))
+            sa, sb = slope(a), slope(b)
+            if sa > 0 > sb:
+                break
+        else:
+            a, b, sa, sb = lo, top, None, None
+    if sa is None:
+        sa, sb = slope(a), slope(b)
+        if sa <= 0:
+            return a
+        if sb >= 0:
+            return b
+    # the peak is wanted to 1e-10 (relative): near it the slope is rounding (a square well 1e-11 past its
+    # merge depth: its sign flipped at 1e-20 between energies 1e-12 apart), and a pair's window that narrow is far
+    # below what its roots can be told apart by (the estimate of solver._near_merge)
+    close = 1e-10 * max(abs(lo), abs(top))
+    side, halve = 0, False
+    for _ in range(80):
+        width = b - a
+        E = 0.5 * (a + b) if halve else b - sb * (b - a) / (sb - sa)
+        if not a < E < b:
+            E = 0.5 * (a + b)
+        s = slope(E)
+        if s == 0:
+            return E
+        if s > 0:
+            a, sa = E, s
+            if side > 0:
+                sb *= 0.5
+            side = 1
+        else:
+            b, sb = E, s
+            if side < 0:
+                sa *= 0.5
+            side = -1
+        if b - a <= close:
+            break
+        halve = b - a > 0.5 * width     # a slope of another mode far from the peak: halve next
+    return 0.5 * (a + b)
 
 
 def _pencil(op: SymmetricOperator, E0: float) -> np.ndarray:

@@ -242,6 +242,7 @@ class _Tally:
     bisected: int = 0                   # spectral elements: levels located by bisection on the count
     floor_hit: bool = False
     potential_floor_hit: bool = False   # a level's estimate is the rounding of its potential energy, above tol
+    merge_hit: bool = False             # a Klein-Gordon level near a merge: its rounding lies above tol
     table_hit: bool = False             # a table's interpolation error puts a level's estimate above tol
     notes: list = field(default_factory=list)
 
@@ -862,6 +863,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     if short_range:
         far = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi, lo, floor_start)
         bound, extra["count_box"], lo, floor_start = far.bound, far.box, far.lo, None
+        extra["near_merge"] = far.narrow
         if far.below:       # dived (Dirac) or merged (Klein-Gordon) states: not bound levels
             extra["no_level_why"] = ("this potential binds no level in this channel: "
                                      + _below_window(eq, far.below))
@@ -911,7 +913,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
 
         op = make_operator(eq, sample, gamma, r_core, *layout(eq, pot, sample, r_min, R, energies),
                            min(8, degrees[0]), E0)
-        lo, below = particle_floor(op, lo, min(hi, 0.0), floor_start)
+        lo, below = particle_floor(op, lo, min(hi, 0.0), floor_start)[:2]
         extra["window_bottom"] = lo
         if below:
             tally.notes.append(_below_window(eq, below))
@@ -1114,6 +1116,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
         est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol)
         tally.potential_floor_hit |= hit
+        if eq.name == "klein-gordon":
+            est = _near_merge(eq, rk.op, E, rk.located.vectors[i], state, eq.label(n), est, tol, tally)
         cut = _cut_error(eq, pot, state, E)
         if cut > est:
             est = cut
@@ -1132,6 +1136,10 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=eq.label(n), energy=E,
                            error_estimate=est, nodes=k + offset, state=state,
                            resolution=rk.size, iterations=0, previous_state=prev_state))
+    if len(found) < want and "why" not in extra and extra.get("near_merge"):
+        extra["why"] = ("a particle level this close to merging with its antiparticle partner (their energies turn "
+                        "complex; the window between their two roots is narrow on the counting box) could not be "
+                        "separated from it on the ladder's meshes; whether it is still bound is not resolved here")
     if len(found) < want and "why" not in extra:
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
                         if last.located.certified else "the count certificate failed (see diagnostics)")
@@ -1312,12 +1320,57 @@ def _element_state(eq, op, E: float, y) -> RadialState | None:
     Q = eq.small_component(E, s, g)
     weight = eq.density_weight(E, s)
     comps = (P,) if Q is None else (P, Q)
-    if weight is not None and Q is None and not float(np.sum(w_dr * weight * P * P)) > 0:
-        return None     # Klein-Gordon: negative (or zero) charge, not a particle level
-    comps, _ = normalise(w_dr, *comps, weight=weight)
+    by_nodes = True
+    if weight is not None and Q is None:
+        # Klein-Gordon: the sign of the charge on K's own quadrature points (the form the count reads);
+        # near a merge the charge is a small difference, and the nodes' quadrature (one-sided V at a
+        # jump) had it 340 times too large 1e-11 below a square well's merge depth
+        charge = op.charge_ratio(E, y)
+        if not charge > 0:
+            return None     # negative (or zero) charge, not a particle level
+        if not float(np.sum(w_dr * weight * P * P)) > 0:
+            # the nodes' charge lost its sign: normalised to charge 1 on K's quadrature instead
+            (P,), norm = normalise(w_dr, P)
+            y = np.asarray(y, dtype=float)
+            comps, by_nodes = (P * math.sqrt(norm / (charge * float(y @ op.mass_apply(y)))),), False
+    if by_nodes:
+        comps, _ = normalise(w_dr, *comps, weight=weight)
     return RadialState(r=r, P=comps[0], Q=comps[1] if Q is not None else None, weights=w_dr, gamma=op.gamma,
                        r_core=op.r_core, elements=grid.elements, family="spectral",
                        density_weight=None if weight is None else np.asarray(weight, dtype=float))
+
+
+def _near_merge(eq, op, E: float, y, state: RadialState, label: str, est: float, tol: float,
+                tally: _Tally) -> float:
+    """A Klein-Gordon level's estimate, raised to its rounding floor when its charge ratio Q
+    (:meth:`SymmetricOperator.charge_ratio`) is below 1; Q -> 0 where the level merges with an
+    antiparticle level. Rounding of size d in the form moves the root by d / Q, with d =
+    POTENTIAL_FLOOR <|V| + |S| + ((E - V)^2 + S^2) / (2 m c^2)> (the terms of q - E, averaged over P^2).
+    Where that floor lies above tol, a note says so and the solve does not say 'ok'.
+
+    Notes
+    -----
+    A square well 3e-10 to 5e-12 (relative) below its merge depth (tests/test_studies_critical.py) had its
+    1s up to 3.7 times further from the matching's root than its estimate (the change between rungs, or
+    the potential's floor, whose <|V|> leaves out the (E - V)^2 / (2 m c^2) term, twice |V| inside that
+    well), at a charge ratio of 1e-4 to 1e-5. With this floor the error was at most 0.28 of the estimate
+    on 19 depths from 3e-13 to 1e-8 below the merge.
+    """
+    from .ladder import POTENTIAL_FLOOR
+
+    ratio = op.charge_ratio(E, y)
+    if not 0 < ratio < 1:
+        return est
+    smp = op.sample                     # on the state's own nodes
+    size = np.abs(smp.V) + np.abs(smp.S) + ((E - smp.V) ** 2 + smp.S**2) / (2 * eq.mass * C_AU**2)
+    dens = state.weights * state.P**2
+    floor = POTENTIAL_FLOOR * float(np.sum(dens * size) / np.sum(dens)) / ratio
+    if floor > est and floor > tol * abs(E):
+        tally.merge_hit = True
+        tally.notes.append(f"{label}: close to its merge with an antiparticle level (charge over norm "
+                           f"{ratio:.2g}), the root moves with the rounding of the form by {floor / abs(E):.2g} "
+                           f"relative, above tol {tol:g}")
+    return max(est, floor)
 
 
 def _with_threshold(pot):
@@ -1535,6 +1588,7 @@ class _FarCount(NamedTuple):
     box: float          # the box's radius, bohr
     lo: float           # the bottom of the window (a Klein-Gordon channel's particle floor)
     below: int          # states below it: dived (Dirac), or particle levels merged with their antiparticles
+    narrow: bool = False    # Klein-Gordon: a particle level close to its merge (the floor's window is narrow)
 
 
 def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float,
@@ -1545,23 +1599,34 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
     level that dived into the lower continuum is still counted by N(hi), and was reported as a bound
     level that could not be found (status 'partial' for a square well whose only level had dived).
     ``floor_start``: a Klein-Gordon channel's particle floor is looked for on this box, from there
-    (:func:`boundkit.locator.particle_floor`), and becomes lo.
+    (:func:`boundkit.locator.particle_floor`), and becomes lo. When none is found (a particle level
+    merged with its antiparticle partner) after a narrow search (the pair is near its merge), the box at
+    twice the degree is counted where its lowest eigenvalue of K(E) peaks, and taken when it finds fewer
+    merged pairs: near the merge depth the box's own error can merge a pair that is still real.
 
     The box reaches 1e4 natural lengths, and ten times the potential's range (:func:`_potential_range`):
     a long-ranged well (a Yukawa potential screened at 3700 natural lengths) has levels that turn
     round beyond 1e4 L, and a box that cuts them off squeezes them up to the threshold and out of the
     count (tests/test_level_count.py)."""
     from .ladder import far_operator
-    from .locator import count_below, particle_floor
+    from .locator import count_below, particle_floor, peak_floor
 
     reach = _potential_range(eq, pot)
     r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L), 10 * reach)
     op = far_operator(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi)
+    narrow = False
     if floor_start is not None:
-        lo, below = particle_floor(op, lo, min(hi, 0.0), floor_start)
+        floor = particle_floor(op, lo, min(hi, 0.0), floor_start)
+        narrow = floor.narrow
+        if floor.count and narrow and lo < floor.peak < min(hi, 0.0):     # an interior peak: a pair near its merge
+            fine = far_operator(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi, degree=36)
+            again = peak_floor(fine, lo, min(hi, 0.0), floor.peak)
+            if again.count < floor.count:
+                floor, op = again, fine
+        lo, below = floor.energy, floor.count
     else:
         below = count_below(op, lo) if math.isfinite(lo) else 0
-    return _FarCount(count_below(op, hi) - below, float(r_far), lo, below)
+    return _FarCount(count_below(op, hi) - below, float(r_far), lo, below, narrow)
 
 
 def laguerre_scale(eq, pot, gamma: float) -> tuple[float, float, float]:
@@ -1619,6 +1684,10 @@ _TABLE_WHY = ("the table's interpolation error lies above it (see diagnostics no
 _POTENTIAL_FLOOR_WHY = ("a level far shallower than its well carries the rounding of its potential energy, "
                         "which lies above it (see diagnostics notes)")
 
+_MERGE_WHY = ("a Klein-Gordon level this close to merging with an antiparticle level (their energies turn complex) "
+              "moves with the rounding of its equation by more than that (see diagnostics notes); the two cannot "
+              "be told apart that finely in double precision")
+
 
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
             t0) -> SolveResult:
@@ -1644,6 +1713,8 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
                 message += f": {_TABLE_WHY}"
             elif tally.potential_floor_hit:
                 message += f": {_POTENTIAL_FLOOR_WHY}"
+            elif tally.merge_hit:
+                message += f": {_MERGE_WHY}"
     elif wanted is not None and len(found) < wanted:
         status = "partial"
         message = (f"found {len(found)} of {wanted} requested bound levels: "
@@ -1652,6 +1723,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         status = "tolerance-not-met"
         why = (_TABLE_WHY if tally.table_hit
                else _POTENTIAL_FLOOR_WHY if tally.potential_floor_hit
+               else _MERGE_WHY if tally.merge_hit
                else f"the rounding floor (about {disc.floor:g} relative) lies above it" if tally.floor_hit
                else f"the largest resolution ({disc.ladder()[-1]}) was reached")
         message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g}: {why}; "

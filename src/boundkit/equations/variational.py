@@ -489,6 +489,34 @@ class SymmetricOperator:
         f = self.expand(np.asarray(y, dtype=float))
         return self.row_scale * self._apply(E, f, np.float64, derivative=True)[:-1]
 
+    def slope_form(self, E, y) -> float:
+        """y^T (dK/dE) y on the kept nodes (element by element, no matrix)."""
+        f = self.expand(np.asarray(y, dtype=float))
+        return float(f[:-1] @ self._apply(E, f, np.float64, derivative=True)[:-1])
+
+    def charge_ratio(self, E, y) -> float:
+        """-y^T (dK/dE) y / y^T M y: the slope with which the root's eigenvalue of (K(E), M) falls, on the
+        quadrature points of K itself. For Klein-Gordon it is int (E + m c^2 - V) P^2 dr / (m c^2 int P^2)
+        (the charge over the norm; plus the boundary term's share): positive for a particle level, and
+        near 0 where it is about to merge with an antiparticle level (the root is then ill-conditioned:
+        rounding in K moves it by that much more). 1 for the Schrodinger equation."""
+        y = np.asarray(y, dtype=float)
+        return -self.slope_form(E, y) / float(y @ self.mass_apply(y))
+
+    def lowest(self, E) -> tuple[float, np.ndarray]:
+        """(the lowest eigenvalue of D K(E) D, D = diag(sqrt(row_scale)) (a congruence: the inertia is
+        K's), and D times its unit eigenvector): one dense eigen-solve of that one pair (LAPACK's
+        banded selection was three times slower at 500 unknowns, and its dsyevr a third slower than
+        dsyevx at 400)."""
+        import scipy.linalg as sla
+
+        d = np.sqrt(self.row_scale)
+        K = self.symmetric(E)
+        K *= d[:, None]
+        K *= d
+        w, u = sla.eigh(K, subset_by_index=[0, 0], driver="evx", overwrite_a=True, check_finite=False)
+        return float(w[0]), d * u[:, 0]
+
     def derivative_in_t(self, f):
         """df/dt at every node (the two one-sided values averaged at shared nodes)."""
         if self._derivative is None:        # the blocks in double, stacked per batch, and how many
