@@ -802,7 +802,7 @@ def test_cli_refuses_a_klein_gordon_s_dive_of_a_well_in_one_line():
 
 
 # from a start where 1s is bound (3 MeV), and from a bracket whose end 5 MeV is past the merge
-@pytest.mark.parametrize("start, bracket", [(3.0, None), (5.0, (5.0, 3.0))])
+@pytest.mark.parametrize("start, bracket", [(3.0, None), pytest.param(5.0, (5.0, 3.0), marks=pytest.mark.slow)])
 def test_klein_gordon_1s_merges_in_a_square_well_at_the_matching_depth(start, bracket):
     V0m, _ = _kg_square_well_merge(100.0)
     res = critical("klein-gordon", _square_well(start), {"V0": start}, state="1s", vary="V0", kind="merge",
@@ -821,6 +821,7 @@ def test_a_merge_is_asked_of_klein_gordon_only():
         critical("dirac", _square_well(5.0), {"V0": 5.0}, state="1s1/2", vary="V0", kind="merge", units="nuclear")
 
 
+@pytest.mark.slow
 def test_cli_finds_a_klein_gordon_merge():
     V0m, _ = _kg_square_well_merge(100.0)
     out = CliRunner().invoke(main, ["critical", "-e", "klein-gordon", "--units", "nuclear", "--expr",
@@ -832,6 +833,7 @@ def test_cli_finds_a_klein_gordon_merge():
     assert abs(value - float(V0m)) <= unc
 
 
+@pytest.mark.slow
 def test_a_klein_gordon_p_level_of_a_well_dives_and_is_not_said_to_merge():
     """Outside the well a Klein-Gordon p state at E = -2 m c^2 is u ~ 1/r, of finite charge: the level dives
     (derived here: matching (r j_1(k r))' / (r j_1(k r)) = -1/R gives j_0(k R) = 0, k R = pi, the depth of the
