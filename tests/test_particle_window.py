@@ -175,3 +175,39 @@ def test_a_root_of_negative_charge_is_dropped_not_reported(monkeypatch):
     assert any("antiparticle state); dropped" in note for note in res.diagnostics["notes"])
     assert [lv.label for lv in res.levels] == ["2s"]
     assert abs(res.levels[0].energy - _scalar_coulomb_kg(300, 1)) <= 4 * res.levels[0].error_estimate + 1e-12 * 3541
+
+
+# --- a scalar potential that tends to a constant far out -------------------------------------------------
+def test_a_schrodinger_scalar_far_constant_moves_the_threshold():
+    """The Schrodinger equation sees V + S: hydrogen plus a scalar constant 0.1 hartree has the levels
+    -1/(2 n^2) + 0.1 (Bohr; common practice), two of them above 0. Before: the threshold stayed at 0 and
+    levels=4 was 'partial, found 2 of 4'."""
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 1}, scalar=lambda r: 0.1 + 0 * r, levels=4)
+    assert res.status == "ok", res.message
+    assert [lv.energy for lv in res.levels] == pytest.approx([-1 / (2 * n * n) + 0.1 for n in range(1, 5)],
+                                                             abs=1e-13)
+
+
+@pytest.mark.parametrize("equation,channel", [("dirac", {"kappa": -1}), ("klein-gordon", {"l": 0})])
+@pytest.mark.parametrize("s_inf", [30.0, -30.0])
+def test_a_relativistic_scalar_far_constant_is_refused_with_the_mass_recipe(equation, channel, s_inf):
+    """Far out a scalar constant S_inf is a change of mass, and the continuum starts at S_inf. Before: with
+    S_inf = +30 MeV the levels between 0 and 30 MeV were dropped with status ok; with -30 MeV the box grew
+    until a MemoryError (a tester, against a shooting of both equations). The recipe is an identity of both
+    equations (m and S enter only as m c^2 + S): the same well with the mass raised by S_inf."""
+    m = 938.272089
+    well = "-50/(1 + exp((r - 5)/0.6))"
+    with pytest.raises(ValueError, match=(rf"^potential: the scalar part tends to S_inf = {s_inf:g} MeV far out, a "
+                                          rf"change of mass there; the {equation} solver needs a scalar that vanishes "
+                                          rf"far out: give mass_mev={m + s_inf:.10g} \(--mass-mev\) and the scalar "
+                                          r"minus S_inf")):
+        boundkit.solve(equation, ExpressionTerm(well, {}), scalar=ExpressionTerm(f"{s_inf} + 0*r", {}),
+                       units="nuclear", mass_mev=m, levels="all", **channel)
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+    out = CliRunner().invoke(main, ["solve", "-e", equation, "--units", "nuclear", "--mass-mev", str(m), "--expr", well,
+                                    "--scalar-expr", f"{s_inf} + 0*r", "--levels", "all",
+                                    *(["--kappa", "-1"] if equation == "dirac" else [])])
+    assert out.exit_code == 2 and "Traceback" not in out.output
+    assert f"give mass_mev={m + s_inf:.10g} (--mass-mev)" in out.output

@@ -1373,14 +1373,48 @@ def _near_merge(eq, op, E: float, y, state: RadialState, label: str, est: float,
     return max(est, floor)
 
 
-def _with_threshold(pot):
+def _with_threshold(eq, pot):
     """(potential, V_inf): a vector potential tending to a constant V_inf far out
     (``Potential.far_constant``) is solved as V - V_inf (levels below V_inf are bound) and the
-    energies are shifted back."""
-    v_inf = 0.0 if pot.confining else pot.far_constant
+    energies are shifted back. The Schrodinger equation sees V + S, so there a scalar term's far
+    constant counts too; in the relativistic equations it is a change of mass far out
+    (:func:`_check_scalar_far_constant` refuses it)."""
+    if pot.confining:
+        return pot, 0.0
+    v_inf = pot.far_constant + (_scalar_far_constant(pot) if eq.name == "schrodinger" else 0.0)
     if not v_inf:
         return pot, 0.0
     return _Shifted(pot, v_inf), v_inf
+
+
+def _scalar_far_constant(pot) -> float:
+    """S_inf: the constant the scalar terms tend to far out (hartree)."""
+    return float(sum(t.far_constant for t in pot.scalar))
+
+
+def _check_scalar_far_constant(eq, pot, units: str) -> None:
+    """Refuse a Dirac or Klein-Gordon channel whose scalar potential tends to a constant S_inf != 0.
+
+    Far out the particle then has the mass m c^2 + S_inf, and its continuum starts at the binding energy
+    S_inf, not at 0: with S_inf > 0 the levels between 0 and S_inf were dropped with status ok, with
+    S_inf < 0 the box grew without end (a MemoryError; a tester, against a shooting of both equations).
+    Solving with the mass m c^2 + S_inf and the scalar S - S_inf is the same equation (m and S enter only
+    as m c^2 + S), with binding energies counted from m c^2 + S_inf; the message gives that recipe.
+    """
+    if eq.name == "schrodinger" or pot.confining:
+        return
+    s_inf = _scalar_far_constant(pot)
+    if not s_inf:
+        return
+    from .units import system_units
+
+    eu = system_units(units)[0]
+    mc2 = eq.mass * ELECTRON_MASS_MEV
+    raise ValueError(
+        f"potential: the scalar part tends to S_inf = {hartree_to(s_inf, eu):.6g} {eu} far out, a change of mass "
+        f"there; the {eq.name} solver needs a scalar that vanishes far out: give mass_mev="
+        f"{mc2 + hartree_to(s_inf, 'MeV'):.10g} (--mass-mev) and the scalar minus S_inf (binding energies then "
+        "count from m c^2 + S_inf)")
 
 
 class _Shifted:
@@ -1420,7 +1454,7 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
     so on a shared machine.
     """
     with one_blas_thread():
-        pot, v_inf = _with_threshold(pot)
+        pot, v_inf = _with_threshold(eq, pot)
         res = _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
         if v_inf:
             res = _shift_result(res, v_inf)
@@ -1886,6 +1920,7 @@ def setup(equation: str = "schrodinger", potential=None, params: dict | None = N
         log.info("Schrodinger equation: scalar terms are added to the vector potential")
     pot = make_potential(potential, params, scalar=scalar, units=units)
     _check_charge(part, pot)
+    _check_scalar_far_constant(eq, pot, units)
     settings = {
         "equation": eq.name, "l": eq.l, "kappa": eq.kappa, "j": eq.j, "particle": part.name,
         "particle_mass_MeV": part.mass_mev, "nucleus_mass_MeV": nucleus_mass_mev,
