@@ -16,6 +16,7 @@ from __future__ import annotations
 import math
 import re
 
+import numpy as np
 import pytest
 
 import boundkit
@@ -84,3 +85,40 @@ def test_the_all_levels_message_says_how_shallow_a_level_the_count_can_miss():
     assert float(m.group(2)) == pytest.approx(R, rel=1e-2)
     assert float(m.group(1)) == pytest.approx(1 / (2 * R * R), rel=0.5)     # said to one digit
     assert float(m.group(1)) > (0.5 - 0.4999) ** 2 / 2
+
+
+def _well_in_repulsive_coulomb(V0: float, R: float, Z: float) -> list[float]:
+    """Bound s levels (hartree, m = 1) of V = -V0 inside R and +Z/r outside, by matching at R: sin(k r)
+    inside (k = sqrt(2 (E + V0))), Whittaker's W_{-Z/q, 1/2}(2 q r) outside (q = sqrt(-2 E); the decaying
+    solution of the Coulomb equation, e.g. Abramowitz and Stegun 13.1.33, from memory); the roots of the
+    Wronskian k cos(kR) W - sin(kR) W' (no poles), bracketed on 60 energies, at 30 digits."""
+    import mpmath as mp
+
+    with mp.workdps(30):
+        def wronskian(E):
+            k, q = mp.sqrt(2 * (E + V0)), mp.sqrt(-2 * E)
+            W = lambda r: mp.whitw(-Z / q, mp.mpf(1) / 2, 2 * q * r)  # noqa: E731
+            return k * mp.cos(k * R) * W(R) - mp.sin(k * R) * mp.diff(W, R)
+
+        grid = np.linspace(-V0 + 1e-3, -1e-3, 60)
+        vals = [wronskian(mp.mpf(E)) for E in grid]
+        return [float(mp.findroot(wronskian, (mp.mpf(a), mp.mpf(b)), solver="anderson"))
+                for a, b, fa, fb in zip(grid[:-1], grid[1:], vals[:-1], vals[1:]) if fa * fb < 0]
+
+
+def test_a_repulsive_coulomb_tail_binds_finitely_many_levels_and_all_are_found():
+    """A proton in a nucleus sees a repulsive Coulomb tail: finitely many levels. Before: levels='all' was
+    refused ('has a Coulomb tail and binds infinitely many'), and asking for more levels than exist gave
+    'partial ... levels too close to the threshold?' (a tester; the Dirac relativistic-mean-field case agreed
+    with its shooting to 1e-10 MeV once counted on the far box). Here against an exact matching."""
+    V0, R, Z = 30.0, 1.0, 1.0
+    exact = _well_in_repulsive_coulomb(V0, R, Z)
+    assert len(exact) == 2
+    V = lambda r: np.where(r < R, -V0, Z / r)  # noqa: E731
+    for levels in ("all", 2, 5):
+        res = boundkit.solve("schrodinger", V, l=0, levels=levels, tol=1e-10)
+        assert res.status == "ok", res.message
+        assert res.diagnostics["bound_count"] == 2
+        assert len(res.levels) == 2
+        for lv, E in zip(res.levels, exact):
+            assert abs(lv.energy - E) <= max(lv.error_estimate, 1e-13 * abs(E)), (lv.label, lv.energy - E)

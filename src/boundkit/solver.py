@@ -858,7 +858,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     guess_lo = lo       # the pencil's guesses are tried down to here (a Klein-Gordon floor lies above it)
     lo, floor_start = _particle_floor_by_bound(eq, sample, r_min, lo)
-    short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge == 0
+    short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge <= 0
     bound = None
     if short_range:
         far = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi, lo, floor_start)
@@ -871,7 +871,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                 tally.notes.append(_below_window(eq, far.below))
     elif levels is None:
         raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
-                         + ("is confining" if pot.confining else "has a Coulomb tail")
+                         + ("is confining" if pot.confining else "has an attractive Coulomb tail")
                          + " and binds infinitely many; give a number of levels")
     extra["bound_count"] = bound
     extra["window_bottom"] = lo
