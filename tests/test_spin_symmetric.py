@@ -176,3 +176,16 @@ def test_deep_spin_symmetric_well_box_holds_the_lowest_level(equation, channel):
     for lv, E in zip(res.levels, ref):
         err = abs(lv.energy - E)
         assert err <= 1e-11 * abs(E) and err <= 2 * lv.error_estimate, (lv.label, lv.energy, E)
+
+
+@pytest.mark.parametrize("equation,channel", [("klein-gordon", {"l": 0}), ("dirac", {"kappa": -1})])
+def test_s_equal_minus_v_is_named_not_called_v_zero(equation, channel):
+    """V = -S = -50 MeV Woods-Saxon (the pseudospin limit V + S = 0): refused as before, but the message
+    said 'too weak ... V = 0 everywhere' although |V| = 50 MeV (a tester)."""
+    from boundkit.potentials.expression import ExpressionTerm
+
+    well = "50/(1 + exp((r - 5)/0.6))"
+    with pytest.raises(ValueError, match=r"^potential: V \+ S is zero everywhere \(S = -V\); boundkit finds a "
+                                         r"particle's levels where V \+ S binds them"):
+        boundkit.solve(equation, ExpressionTerm("-" + well, {}), scalar=ExpressionTerm(well, {}), units="nuclear",
+                       particle="proton", **channel)

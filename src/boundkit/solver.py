@@ -203,6 +203,16 @@ def _natural_length(eq: RadialEquation, pot: Potential) -> float:
     if v_inf and not np.any(strength):
         raise ValueError(f"potential: V is the same constant ({v_inf:.6g} hartree) at every radius; a constant only "
                          "moves the threshold to its value and binds nothing: add a well (a term that varies with r)")
+    if eq.name != "schrodinger":
+        s = _sample(pot, r, scan=True)
+        with np.errstate(over="ignore", invalid="ignore"):
+            weak = not np.max(2 * eq.mass * r**2 * np.abs(s.V - s.S)) >= 1e-3
+        if not weak:
+            # V + S vanishes, V - S does not (S = -V; a tester's Woods-Saxon wells of 50 MeV were 'V = 0')
+            raise ValueError("potential: V + S is zero everywhere (S = -V); boundkit finds a particle's levels "
+                             "where V + S binds them, and V - S enters only at order (V - S)/(2 m c^2), too weak "
+                             "to bind at |V - S| << m c^2; check the scalar's sign (S = V is the spin-symmetric "
+                             "case)")
     raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr "
                      "(2 m r^2 |V| stays below 1e-3; V = 0 everywhere binds nothing); check the parameters or the "
                      "table's values")
