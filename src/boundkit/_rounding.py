@@ -30,3 +30,9 @@ def beside(x: float) -> tuple[float, float]:
     jump search may report the float next to a. A smooth potential moves by 1e-14 relative there."""
     step = OFF_EDGE * math.ulp(x)
     return x - step, x + step
+
+
+def beside_each(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """:func:`beside` of every entry of ``x``."""
+    step = OFF_EDGE * np.spacing(np.abs(x))
+    return x - step, x + step

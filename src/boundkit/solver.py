@@ -50,6 +50,7 @@ from .states import count_nodes, normalise, principal_n
 from .units import (C_AU, ELECTRON_MASS_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to,
                     system_units)
 from ._checks import MAX_LEVELS, check_choice, check_count, check_int, check_positive
+from ._rounding import beside_each
 
 __all__ = ["solve", "solve_channel", "setup", "prepare_channel", "Channel", "make_equation", "check_levels",
            "table_error"]
@@ -520,12 +521,10 @@ def _edges(pot) -> tuple:
 
 
 _last_jumps = _LastResult()
-_JUMP_ULPS = 64          # the one-sided values of a jump are read this many ulp from it
 
 
 def _jumps(pot) -> tuple:
-    """The potential's breakpoints where V or S jumps: their one-sided values, read _JUMP_ULPS ulp
-    either side, differ by more than 1e-8 of the largest |V| + |S| there and 1e-3 of the radius either
+    """The potential's breakpoints where V or S jumps: their one-sided values (:func:`_sides`) differ by more than 1e-8 of the largest |V| + |S| there and 1e-3 of the radius either
     side (at the kink of -max(0, 10 - 3 r), where V is 0, they differ by 1.4e-11 of that: rounding).
     Kept for the last potential object, as :func:`_edges`."""
     def compute():
@@ -542,19 +541,21 @@ def _jumps(pot) -> tuple:
 
 
 def _sides(pot, b: np.ndarray) -> tuple[Sample, Sample]:
-    """Samples of the potential just inside and just outside the radii ``b``."""
-    eps = _JUMP_ULPS * np.finfo(float).eps
-    return _sample(pot, b * (1.0 - eps)), _sample(pot, b * (1.0 + eps))
+    """Samples of the potential just inside and just outside the radii ``b`` (where every jump's sides
+    are read: :func:`boundkit._rounding.beside`)."""
+    inside, outside = beside_each(np.asarray(b, dtype=float))
+    return _sample(pot, inside), _sample(pot, outside)
 
 
-def _grid_sample(pot, grid) -> Sample:
+def _grid_sample(pot, grid, sides=None) -> Sample:
     """The potential on the grid's nodes; on a node placed on a jump (``Grid.on_jumps``) the mean of
-    its one-sided values (the value at the jump itself is either side's, or a third one)."""
+    its one-sided values ``sides`` (:func:`_sides` there, read when not given; the value at the jump
+    itself is either side's, or a third one)."""
     sample = _sample(pot, grid.r)
     if not grid.on_jumps:
         return sample
     idx = np.asarray(grid.on_jumps)
-    s_in, s_out = _sides(pot, grid.r[idx])
+    s_in, s_out = sides if sides is not None else _sides(pot, grid.r[idx])
     V, S = sample.V.copy(), sample.S.copy()
     V[idx] = 0.5 * (s_in.V + s_out.V)
     S[idx] = 0.5 * (s_in.S + s_out.S)
@@ -575,10 +576,10 @@ class _MeanAtJumps:
     bounds; the Dirac p = c^2 / (E + 2 m c^2 - V + S) did the same (1.007) with its arithmetic mean,
     and converges with its harmonic one (p at the mean V)."""
 
-    def __init__(self, eq: RadialEquation, pot, grid) -> None:
+    def __init__(self, eq: RadialEquation, grid, sides) -> None:
         self._eq, self._idx = eq, np.asarray(grid.on_jumps)
         r = grid.r[self._idx]
-        self._sides = tuple(Sample(r, x.V, x.S, x.W) for x in _sides(pot, r))
+        self._sides = tuple(Sample(r, x.V, x.S, x.W) for x in sides)
 
     def __getattr__(self, name):
         return getattr(self._eq, name)
@@ -612,8 +613,9 @@ def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi, 
     """
     extra = {"jumps": _jumps(pot)} if disc.aligns_jumps else {}
     grid = disc.grid(mesh, size, breaks=pot.breakpoints, edges=_edges(pot) if disc.uses_edges else (), **extra)
-    op = FactorizedOperator(_MeanAtJumps(eq, pot, grid) if grid.on_jumps else eq, grid, _grid_sample(pot, grid),
-                            gamma, r_core, E_ref=E_seed)
+    sides = _sides(pot, grid.r[np.asarray(grid.on_jumps)]) if grid.on_jumps else None
+    op = FactorizedOperator(_MeanAtJumps(eq, grid, sides) if grid.on_jumps else eq, grid,
+                            _grid_sample(pot, grid, sides), gamma, r_core, E_ref=E_seed)
     A, B = op.pencil(E_seed)
     if grid.dense:
         lam, vec = dense_pencil(A, B)
