@@ -87,8 +87,13 @@ class Floor(NamedTuple):
 
     energy: float       # E*
     count: int          # N(E*): 0, or particle levels merged with their antiparticle partners
-    narrow: bool        # the grids missed it (or it is not there): a pair of roots close to their merge
     peak: float | None = None   # where the lowest eigenvalue of K(E) peaks, when that was looked for
+
+    @property
+    def narrow(self) -> bool:
+        """Whether the grids missed the floor (or it is not there) and the peak was looked for: a pair of
+        roots close to their merge."""
+        return self.peak is not None
 
 
 def particle_floor(op: SymmetricOperator, lo: float, top: float, start: float) -> Floor:
@@ -125,7 +130,7 @@ def particle_floor(op: SymmetricOperator, lo: float, top: float, start: float) -
                 break
         a, b = max(lo, best[1] - h), min(top, best[1] + h)
     if best[0] == 0:
-        return Floor(best[1], best[0], False)
+        return Floor(best[1], best[0])
     # the grid missed: a particle level and its antiparticle partner close to their merge leave a window
     # narrower than its step (a square well 1e-5 below its merge depth: 5.5e-3 MeV of 1 MeV)
     return peak_floor(op, lo, top, best[1], best[0])
@@ -139,7 +144,7 @@ def peak_floor(op: SymmetricOperator, lo: float, top: float, start: float, count
     n0 = count_below(op, start) if count is None else count
     E = _lowest_peak(op, lo, top, near=None if count is not None else start)
     n = count_below(op, E)
-    return Floor(E, n, True, E) if n < n0 or n == 0 else Floor(start, n0, True, E)
+    return Floor(E, n, E) if n < n0 or n == 0 else Floor(start, n0, E)
 
 
 def _lowest_peak(op: SymmetricOperator, lo: float, top: float, near: float | None = None) -> float:

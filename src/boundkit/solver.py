@@ -1116,7 +1116,9 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         rk = rungs[ri]
         E = rk.located.energies[i]
         n = principal_n(k + offset, eq.l)
-        state = _element_state(eq, rk.op, E, rk.located.vectors[i])
+        y = rk.located.vectors[i]
+        ratio = rk.op.charge_ratio(E, y) if eq.name == "klein-gordon" else None
+        state = _element_state(eq, rk.op, E, y, ratio)
         if state is None:       # a root of negative Klein-Gordon charge: an antiparticle state, not a level
             tally.notes.append(f"{eq.label(n)}: E = {E:.10g} hartree has negative charge int (E + m c^2 - V) "
                                "P^2 dr / (m c^2) (an antiparticle state); dropped")
@@ -1129,7 +1131,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol)
         tally.potential_floor_hit |= hit
         if eq.name == "klein-gordon":
-            est = _near_merge(eq, rk.op, E, rk.located.vectors[i], state, eq.label(n), est, tol, tally)
+            est = _near_merge(eq, rk.op, E, ratio, state, eq.label(n), est, tol, tally)
         cut = _cut_error(eq, pot, state, E)
         if cut > est:
             est = cut
@@ -1319,9 +1321,10 @@ def _check_klein_core(eq, sample, r_min: float, R: float) -> None:
             "repulsive core (Klein's paradox); soften the core below 2 m c^2 or use the Schrodinger equation")
 
 
-def _element_state(eq, op, E: float, y) -> RadialState | None:
+def _element_state(eq, op, E: float, y, charge: float | None = None) -> RadialState | None:
     """Normalised radial functions of a level on a spectral-element grid; None for a Klein-Gordon root
-    of negative (or zero) charge, which no normalisation makes a particle level."""
+    of negative (or zero) charge, which no normalisation makes a particle level. ``charge``: the
+    Klein-Gordon charge ratio of (E, y) (:meth:`SymmetricOperator.charge_ratio`) when the caller has it."""
     grid, s = op.grid, op.sample
     f = op.expand(np.asarray(y, dtype=float))
     r = s.r
@@ -1337,7 +1340,7 @@ def _element_state(eq, op, E: float, y) -> RadialState | None:
         # Klein-Gordon: the sign of the charge on K's own quadrature points (the form the count reads);
         # near a merge the charge is a small difference, and the nodes' quadrature (one-sided V at a
         # jump) had it 340 times too large 1e-11 below a square well's merge depth
-        charge = op.charge_ratio(E, y)
+        charge = op.charge_ratio(E, y) if charge is None else charge
         if not charge > 0:
             return None     # negative (or zero) charge, not a particle level
         if not float(np.sum(w_dr * weight * P * P)) > 0:
@@ -1352,9 +1355,9 @@ def _element_state(eq, op, E: float, y) -> RadialState | None:
                        density_weight=None if weight is None else np.asarray(weight, dtype=float))
 
 
-def _near_merge(eq, op, E: float, y, state: RadialState, label: str, est: float, tol: float,
+def _near_merge(eq, op, E: float, ratio: float, state: RadialState, label: str, est: float, tol: float,
                 tally: _Tally) -> float:
-    """A Klein-Gordon level's estimate, raised to its rounding floor when its charge ratio Q
+    """A Klein-Gordon level's estimate, raised to its rounding floor when its charge ratio Q = ``ratio``
     (:meth:`SymmetricOperator.charge_ratio`) is below 1; Q -> 0 where the level merges with an
     antiparticle level. Rounding of size d in the form moves the root by d / Q, with d =
     POTENTIAL_FLOOR <|V| + |S| + ((E - V)^2 + S^2) / (2 m c^2)> (the terms of q - E, averaged over P^2).
@@ -1370,7 +1373,6 @@ def _near_merge(eq, op, E: float, y, state: RadialState, label: str, est: float,
     """
     from .ladder import POTENTIAL_FLOOR
 
-    ratio = op.charge_ratio(E, y)
     if not 0 < ratio < 1:
         return est
     smp = op.sample                     # on the state's own nodes
@@ -1393,15 +1395,10 @@ def _with_threshold(eq, pot):
     (:func:`_check_scalar_far_constant` refuses it)."""
     if pot.confining:
         return pot, 0.0
-    v_inf = pot.far_constant + (_scalar_far_constant(pot) if eq.name == "schrodinger" else 0.0)
+    v_inf = pot.far_constant + (pot.scalar_far_constant if eq.name == "schrodinger" else 0.0)
     if not v_inf:
         return pot, 0.0
     return _Shifted(pot, v_inf), v_inf
-
-
-def _scalar_far_constant(pot) -> float:
-    """S_inf: the constant the scalar terms tend to far out (hartree)."""
-    return float(sum(t.far_constant for t in pot.scalar))
 
 
 def _check_scalar_far_constant(eq, pot, units: str) -> None:
@@ -1415,11 +1412,9 @@ def _check_scalar_far_constant(eq, pot, units: str) -> None:
     """
     if eq.name == "schrodinger" or pot.confining:
         return
-    s_inf = _scalar_far_constant(pot)
+    s_inf = pot.scalar_far_constant
     if not s_inf:
         return
-    from .units import system_units
-
     eu = system_units(units)[0]
     mc2 = eq.mass * ELECTRON_MASS_MEV
     raise ValueError(

@@ -478,6 +478,11 @@ class Potential:
         return float(sum(t.far_constant for t in self.vector))
 
     @property
+    def scalar_far_constant(self) -> float:
+        """S_inf: the constant the scalar terms tend to far out (hartree)."""
+        return float(sum(t.far_constant for t in self.scalar))
+
+    @property
     def origin_inverse_square(self) -> float:
         """Sum of the terms' 1/r^2 coefficients at the origin (vector and scalar terms)."""
         return float(sum(t.origin_inverse_square for t in self.vector + self.scalar))
