@@ -100,17 +100,16 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
                                                          scalar=scalar or None, hard_core=hard_core, **common)
     except ValueError as exc:
         fail(api_message(exc, _LIMITS))
-    lunit = "fm" if unit_system == "nuclear" else "bohr"     # lengths as the text shows them, as solve --json
-    if as_json:
-        record = {"phases": res.to_dict(unit, lunit)}
+    if as_json:     # to_dict gives lengths in the call's unit system (fm with --units nuclear), as the text
+        record = {"phases": res.to_dict(unit)}
         if "levinson" in out:
-            record["levinson"] = {k: v for k, v in out["levinson"].to_dict(unit, lunit).items() if k != "phases"}
+            record["levinson"] = {k: v for k, v in out["levinson"].to_dict(unit).items() if k != "phases"}
         if "scattering_length" in out:
-            record["scattering_length"] = out["scattering_length"].to_dict(lunit)
+            record["scattering_length"] = out["scattering_length"].to_dict()
         click.echo(json.dumps(record, default=json_default, indent=2))
     else:
         from ..units import FM_PER_BOHR
-
+        lunit = "fm" if unit_system == "nuclear" else "bohr"
         per = FM_PER_BOHR if unit_system == "nuclear" else 1.0
         click.echo(res.table(unit, lunit))
         if "levinson" in out:

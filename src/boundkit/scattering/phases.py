@@ -51,7 +51,7 @@ def _rtol(tol: float) -> float:
 def _call_unit(energy_unit: str | None, units: str) -> str:
     """The unit of a call's energies: ``energy_unit``, else hartree (MeV with units='nuclear', as the command
     line reads them; it read MeV where the API read hartree)."""
-    return energy_unit or ("MeV" if units == "nuclear" else "hartree")
+    return energy_unit or system_units(units)[0]
 
 
 def _energies(energies, unit: str) -> np.ndarray:
@@ -523,7 +523,7 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     elif count != count_unw or max_step > 1.0:
         status, msg = "grid-too-coarse", (f"the absolute phase gives {count} but following delta along the grid "
                                           f"gives {count_unw} (largest step {max_step:.2g} rad)")
-    elif agrees is False and count_bound and box and count > n_bound:
+    elif agrees is False and box and count > n_bound:
         # the solver's count misses a level bound by less than ~1/(2 m R^2) on its box, while the phase at
         # k R ~ 1e-3 still sees it: Hulthen Z = 1, delta = 0.4999 has a level at -5e-9 hartree
         eu, lu = system_units(units)

@@ -7,7 +7,7 @@ from typing import Any
 
 import numpy as np
 
-from ..units import FM_PER_BOHR, bohr_to, hartree_to
+from ..units import FM_PER_BOHR, bohr_to, hartree_to, system_units
 from ..units import energy_unit as _energy
 from ..units import length_unit as _length
 
@@ -20,7 +20,7 @@ def _floats(a) -> list:
 
 def _system_length(settings: dict, length_unit: str | None) -> str:
     """``length_unit``, else that of the call's unit system (bohr; fm with units='nuclear')."""
-    return _length(length_unit or ("fm" if settings.get("units") == "nuclear" else "bohr"))
+    return _length(length_unit or system_units(settings.get("units", "atomic"))[1])
 
 
 @dataclass(frozen=True, repr=False)
@@ -86,8 +86,7 @@ class PhaseShifts:
         """A JSON-ready record: energies in ``energy_unit``, wave numbers and matching radii in
         ``length_unit`` (default: those of the call's unit system, hartree and bohr or MeV and fm),
         phases in radians; the ``units`` block names each."""
-        nuclear = self.settings.get("units") == "nuclear"
-        energy_unit = _energy(energy_unit or ("MeV" if nuclear else "hartree"))
+        energy_unit = _energy(energy_unit or system_units(self.settings.get("units", "atomic"))[0])
         lu = _system_length(self.settings, length_unit)
         per = float(bohr_to(1.0, lu))
         return {
