@@ -968,20 +968,25 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         except (_Refused, _SolverRefused):
             return None
 
-    def dives_towards(r_in: dict, x_absent: float) -> bool:
+    def dives_towards(r_in: dict, x_absent: float) -> tuple[bool, dict | None]:
         """Whether the level, bound at r_in, is absent at x_absent because it dived or merged (s falls
         towards x_absent) rather than because it is not yet bound there (s grows: a dive searched on the
         depth of a well, from below binding). Decided by the level 5 % of the way towards x_absent, or, when
-        it is gone there too, 5 % of the way away from it; True when neither tells (always for unbinding)."""
+        it is gone there too, 5 % of the way away from it; True when neither tells (always for unbinding).
+        Also returns the record solved 5 % of the way towards x_absent (None for unbinding or a refusal),
+        which a bracketed search's first step would otherwise solve again."""
         if kind == "unbind":
-            return True
+            return True, None
         x_in = x_of(r_in["value"])
         h = math.copysign(0.05 * abs(x_absent - x_in), x_absent - x_in)
+        towards = None
         for sign in (1.0, -1.0):
             rec = try_evaluate(x_in + sign * h, seeds=(r_in["energy"],))
+            if sign > 0:
+                towards = rec
             if rec is not None and rec["found"]:
-                return (rec["s"] - r_in["s"]) * sign < 0
-        return True
+                return (rec["s"] - r_in["s"]) * sign < 0, towards
+        return True, towards
 
     if bracket is not None:
         ra, rb = evaluate(a), evaluate(b)
@@ -992,13 +997,14 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         r_in, r_out = (ra, rb) if ra["found"] else (rb, ra)
         p_out = r_out["value"]
         x_in, x_out = x_of(r_in["value"]), x_of(p_out)
-        if not dives_towards(r_in, x_out):
+        dived, towards = dives_towards(r_in, x_out)
+        if not dived:
             raise ValueError(f"bracket: {label} is absent at {vary} = {p_out:g} because it is not yet bound there "
                              "(it moves away from -2 m c^2 towards that end), not because it dived; give an "
                              "absent end past the dive, or only a start value")
         direction = math.copysign(1.0, x_out - x_in)
         step = 0.05 * abs(x_out - x_in)
-        rec = try_evaluate(x_in + direction * step, seeds=(r_in["energy"],))
+        rec = towards if towards is not None else try_evaluate(x_in + direction * step, seeds=(r_in["energy"],))
         if rec is not None and not rec["found"]:
             p_out = rec["value"]
     else:
@@ -1031,7 +1037,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                                  f"from {min(tried):.6g} to {max(tried):.6g}{why}; start where it is bound "
                                  "(or give a bracket)")
             rec, side = hit
-            if dives_towards(rec, last_absent[side]):
+            if dives_towards(rec, last_absent[side])[0]:
                 p_out = p_of(last_absent[side])
                 direction = -side
                 step = 0.05 * abs(x_of(rec["value"]) - last_absent[side])
