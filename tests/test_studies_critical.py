@@ -689,6 +689,18 @@ def test_a_spin_orbit_model_takes_the_j_of_the_state():
         critical("schrodinger", "woods-saxon", ws, state="2p", vary="depth", **kw)
 
 
+def test_a_spin_orbit_model_given_only_a_bracket_takes_the_j_of_the_state():
+    """With the varied depth given only as a bracket (not in params), the spin-orbit term was looked for
+    on a potential that could not be built without it, taken as absent, and the 2p3/2 was solved without j
+    ('give j = l +- 1/2', which critical has no option for; a reviewer). The same value as from a start."""
+    ws = {"radius": 3.0, "diffuseness": 0.6, "spin_orbit": 20.0}     # demonstration values
+    kw = dict(units="nuclear", particle="neutron", tol=1e-6)
+    res = critical("schrodinger", "woods-saxon", ws, state="2p3/2", vary="depth", bracket=(60.0, 5.0), **kw)
+    assert res.status == "ok", res.message
+    ref = critical("schrodinger", "woods-saxon", {**ws, "depth": 30.0}, state="2p3/2", vary="depth", **kw)
+    assert abs(res.value - ref.value) <= res.uncertainty + ref.uncertainty
+
+
 # --- a dive searched from where the level is not yet bound ------------------------------------------
 # With the depth as parameter a level is absent on both sides of its bound range: below it the level is
 # not yet bound (E > 0), above the dive it has left for the lower continuum. A search started (or bracketed)

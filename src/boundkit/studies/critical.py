@@ -491,13 +491,16 @@ def _bare_point_charge(pot) -> bool:
     return bool(np.allclose(rv, -zv, rtol=1e-12, atol=0.0) and np.all(s == 0))
 
 
-def _has_spin_orbit(potential, params, scalar, solve_kwargs) -> bool:
-    """Whether the potential (at the given parameters) has a spin-orbit term, whose Schrodinger states
-    need j; False when it cannot be built yet (the search's own checks then report why)."""
+def _has_spin_orbit(potential, params, scalar, solve_kwargs, vary, bracket) -> bool:
+    """Whether the potential (at the given parameters, the varied one at the bracket's first end when
+    params lacks it) has a spin-orbit term, whose Schrodinger states need j; False when it cannot be
+    built (the search's own checks then report why)."""
     from ..potentials import make_potential
 
     try:
         values = {k: v for k, v in dict(params or {}).items() if not callable(v)}
+        if bracket is not None and isinstance(vary, str) and vary.strip() not in values:
+            values[vary.strip()] = float(bracket[0])
         return make_potential(potential, values, scalar=scalar,
                               units=solve_kwargs.get("units", "atomic")).has_spin_orbit
     except (ValueError, TypeError):
@@ -749,7 +752,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     """
     eqname = canonical_equation(equation)
     channel, k, atomic_label = state_channel(eqname, convert_label(state, "atomic", frm=labels),
-                                             _has_spin_orbit(potential, params, scalar, solve_kwargs))
+                                             _has_spin_orbit(potential, params, scalar, solve_kwargs, vary, bracket))
     label = convert_label(atomic_label, labels)
     tol = check_positive("tol", tol)
     energy_tol = check_positive("energy_tol", energy_tol)
