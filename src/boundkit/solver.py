@@ -1730,6 +1730,13 @@ _MERGE_WHY = ("a Klein-Gordon level this close to merging with an antiparticle l
               "be told apart that finely in double precision")
 
 
+def _estimate_why(tally: _Tally) -> str | None:
+    """Why an estimate lies above tol when a floor of its own put it there (a table's interpolation, the
+    rounding of a shallow level's potential energy, a Klein-Gordon level near its merge), else None."""
+    return (_TABLE_WHY if tally.table_hit else _POTENTIAL_FLOOR_WHY if tally.potential_floor_hit
+            else _MERGE_WHY if tally.merge_hit else None)
+
+
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
             t0) -> SolveResult:
     found.sort(key=lambda lv: lv.energy)
@@ -1750,23 +1757,18 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
         if status != "ok":
             message = f"{what}; worst estimated relative error {worst:.2g} exceeds tol = {tol:g}"
-            if tally.table_hit:
-                message += f": {_TABLE_WHY}"
-            elif tally.potential_floor_hit:
-                message += f": {_POTENTIAL_FLOOR_WHY}"
-            elif tally.merge_hit:
-                message += f": {_MERGE_WHY}"
+            why = _estimate_why(tally)
+            if why:
+                message += f": {why}"
     elif wanted is not None and len(found) < wanted:
         status = "partial"
         message = (f"found {len(found)} of {wanted} requested bound levels: "
                    + (extra.get("why") or "the count certificate failed (see diagnostics)"))
     elif worst > tol:
         status = "tolerance-not-met"
-        why = (_TABLE_WHY if tally.table_hit
-               else _POTENTIAL_FLOOR_WHY if tally.potential_floor_hit
-               else _MERGE_WHY if tally.merge_hit
-               else f"the rounding floor (about {disc.floor:g} relative) lies above it" if tally.floor_hit
-               else f"the largest resolution ({disc.ladder()[-1]}) was reached")
+        why = (_estimate_why(tally)
+               or (f"the rounding floor (about {disc.floor:g} relative) lies above it" if tally.floor_hit
+                   else f"the largest resolution ({disc.ladder()[-1]}) was reached"))
         message = (f"worst estimated relative error {worst:.2g} exceeds tol = {tol:g}: {why}; "
                    "the values shown are the best estimates")
     else:
