@@ -917,14 +917,15 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         energies = [_hydrogenic_guess(eq, pot, l1), _hydrogenic_guess(eq, pot, want - 1 + l1)]
         trusted = True
     E0 = energies[0] if math.isfinite(energies[0]) else 0.0
+    first_layout = None     # the first attempt's layout, when the floor search below has laid it out already
     if floor_start is not None:
         # a Klein-Gordon Coulomb tail (or confining potential) whose particle floor the pointwise bound
         # did not settle (a finite nucleus: V + S far below -m c^2 inside it): counts on this box
         from .ladder import make_operator
         from .locator import particle_floor
 
-        op = make_operator(eq, sample, gamma, r_core, *layout(eq, pot, sample, r_min, R, energies),
-                           min(8, degrees[0]), E0)
+        first_layout = layout(eq, pot, sample, r_min, R, energies)
+        op = make_operator(eq, sample, gamma, r_core, *first_layout, min(8, degrees[0]), E0)
         lo, below = particle_floor(op, lo, min(hi, 0.0), floor_start)[:2]
         extra["window_bottom"] = lo
         if below:
@@ -935,7 +936,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     # the first, the point-Coulomb levels of a vector Coulomb tail (checked by one count like any seed)
     seed = _coulomb_seed(eq, pot, want)
     for _attempt in range(16):
-        edges, quiet = layout(eq, pot, sample, r_min, R, energies)
+        edges, quiet = first_layout or layout(eq, pot, sample, r_min, R, energies)
+        first_layout = None
         _check_pole(eq, sample, r_min, R, energies)
         degree = degrees[0] if trusted and len(degrees) > 1 else min(8, degrees[0])
         rung = solve_rung(eq, pot, sample, gamma, r_core, edges, quiet, degree, want, lo, hi, E0, scale,
