@@ -122,3 +122,16 @@ def test_a_repulsive_coulomb_tail_binds_finitely_many_levels_and_all_are_found()
         assert len(res.levels) == 2
         for lv, E in zip(res.levels, exact):
             assert abs(lv.energy - E) <= max(lv.error_estimate, 1e-13 * abs(E)), (lv.label, lv.energy - E)
+
+
+def test_a_dirac_well_that_binds_nothing_is_not_counted_below_its_window():
+    """Found by the thorough fuzz run: the Dirac exp-cosine well Z = 1, D = 0.01 bohr (Z D far below what a
+    1/r-like well needs to bind: the Schrodinger count is 0) counted one state below the window's bottom and
+    none below its top; the bound count came out -1 and the locator raised an IndexError. Now no level, status
+    ok, as the Schrodinger equation says."""
+    kw = dict(levels=1, tol=1e-6)
+    dirac = boundkit.solve("dirac", "exp-cosine", {"Z": 1.0, "screening_length": 0.01}, kappa=-1, **kw)
+    schr = boundkit.solve("schrodinger", "exp-cosine", {"Z": 1.0, "screening_length": 0.01}, l=0, **kw)
+    assert schr.levels == () and schr.status == "ok"
+    assert dirac.levels == () and dirac.status == "ok", dirac.message
+    assert dirac.diagnostics["bound_count"] == 0

@@ -1669,7 +1669,13 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
         lo, below = floor.energy, floor.count
     else:
         below = count_below(op, lo) if math.isfinite(lo) else 0
-    return _FarCount(count_below(op, hi) - below, float(r_far), lo, below, narrow)
+    n_hi = count_below(op, hi)
+    # more states below the window's bottom than below its top: the count is not monotone there (the
+    # eliminated Dirac form near -2 m c^2; a Dirac exp-cosine well of Z = 1, D = 0.01 bohr, which binds
+    # nothing, counted 1 below and 0 above, and the negative bound count crashed the locator, a fuzz
+    # example), so none of them is taken as dived
+    below = min(below, n_hi)
+    return _FarCount(n_hi - below, float(r_far), lo, below, narrow)
 
 
 def laguerre_scale(eq, pot, gamma: float) -> tuple[float, float, float]:
