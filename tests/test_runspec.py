@@ -643,6 +643,33 @@ def test_a_critical_state_listed_twice_is_refused_at_load(tmp_path, equations, s
     assert key in res.output
 
 
+@pytest.mark.parametrize("labels, equations, terms, params, state, message", [
+    # a spin-orbit Schrodinger "2p" passed the load and failed only when the run reached it
+    ("atomic", '["schrodinger"]', '["woods-saxon"]', "{ depth = 30, radius = 3, diffuseness = 0.6, spin_orbit = 20 }",
+     "2p", "a potential with a spin-orbit term splits '2p' by j; write 2p1/2 or 2p3/2"),
+    # the fix a state names is its own l's two j (a "3d" was told to write 3d1/2)
+    ("atomic", '["dirac"]', '["yukawa"]', "{ Z = 1.0, screening_length = 50.0 }",
+     "3d", "the Dirac equation needs j in '3d'; write 3d3/2 or 3d5/2"),
+    # in the spec's own labels
+    ("nuclear", '["schrodinger"]', '["woods-saxon"]', "{ depth = 30, radius = 3, diffuseness = 0.6, spin_orbit = 20 }",
+     "0d", "a potential with a spin-orbit term splits '0d' by j; write 0d3/2 or 0d5/2"),
+    # a label the convention has no level for passed the load too
+    ("atomic", '["schrodinger"]', '["yukawa"]', "{ Z = 1.0, screening_length = 50.0 }",
+     "1p", r"'1p' needs n >= 2 for an p level"),
+])
+def test_a_critical_state_without_the_j_its_levels_need_is_refused_at_load(tmp_path, labels, equations, terms, params,
+                                                                           state, message):
+    text = (f'title = "t"\ndescription = "d"\nlabels = "{labels}"\nunits = "nuclear"\nequations = {equations}\n'
+            f'particle = {{ name = "neutron" }}\n[models.m]\nterms = {terms}\nparams = {params}\n[critical]\n'
+            f'model = "m"\nparameter = "{"depth" if "depth" in params else "Z"}"\nstates = ["1s", "{state}"]\n')
+    with pytest.raises(ValueError, match=rf"^run spec \S+, line {line_of(text, 'states =')}, "
+                                         rf"key 'critical\.states\[1\]': {message}"):
+        load_spec(write(tmp_path, text))
+    res = CliRunner().invoke(main, ["run", str(tmp_path / "spec.toml"), "--dry-run"])
+    assert res.exit_code == 2 and len(res.output.strip().splitlines()) == 1, res.output
+    assert res.output.startswith("boundkit: error: ") and "critical.states[1]" in res.output
+
+
 @pytest.mark.parametrize("old, new, key", [
     ("[solve]\n", '[solve]\nmodels = ["h", "h"]\n', "solve.models[1]"),
     ("[solve]\n", '[solve]\nequations = ["dirac", "Dirac"]\n', "solve.equations[1]"),
