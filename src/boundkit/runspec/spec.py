@@ -511,10 +511,6 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
             states = tuple(x.strip() for x in rd.get(s, key, "states", "list:str"))
             if not states:
                 raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
-            for i, st in enumerate(states):
-                if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
-                    raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
-                                                        "\"2p3/2\"")
             eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
             split = splits_by_j(eq, models[model].spin_orbit(units))
             for i, st in enumerate(states):
