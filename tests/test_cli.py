@@ -87,6 +87,33 @@ def test_bad_input_gives_one_message_and_exit_2(args, message):
     assert "Traceback" not in res.output
 
 
+_NEEDS_D = (r"^boundkit: error: --param: term 'yukawa' needs parameter 'screening_length' \(screening length D, "
+            r"bohr\); give it, e.g. --param screening_length=1")
+
+
+@pytest.mark.parametrize("args, tail", [
+    (("solve",), ""),
+    (("phases", "--energies", "0.1"), ""),
+    (("scan", "--vary", "Z=1:2:2"), r" \(at Z = 1\)"),
+    # critical and resonances printed the API's wording, params={'screening_length': 1} (--param ... on the
+    # command line)
+    (("critical", "--state", "1s", "--vary", "Z"), ""),
+    (("resonances", "--window", "1,2"), ""),
+])
+def test_every_command_names_a_missing_parameter_as_its_option(args, tail):
+    res = run(args[0], "-p", "yukawa", "--param", "Z=1", *args[1:])
+    assert res.exit_code == 2 and "Traceback" not in res.output
+    assert re.fullmatch(_NEEDS_D + tail + "\n", res.output), res.output
+
+
+def test_critical_without_a_start_value_names_the_options():
+    """It printed the API's wording, '(params['screening_length']) or a bracket'."""
+    res = run("critical", "-p", "yukawa", "--param", "Z=1", "--state", "1s", "--vary", "screening_length")
+    assert res.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: --param: give a start value of 'screening_length' where 1s is bound "
+                        r"\(--param screening_length=VALUE\) or --bracket A,B\n", res.output), res.output
+
+
 def test_solve_footer_names_what_each_family_counts():
     """The spectral family reports re-seeded guesses and levels found by bisection (it used to print
     finite-difference counters that it never set, always 0); the finite-difference family its

@@ -1083,6 +1083,33 @@ def test_nuclear_units_read_energies_in_mev_in_the_api_as_on_the_command_line():
     assert abs(st.delta - res.delta[0]) < 1e-7
 
 
+@pytest.mark.parametrize("equation, terms, params, channel", [
+    ("schrodinger", "woods-saxon", {"depth": 50.0, "radius": 3.0, "diffuseness": 0.5}, {"l": 1}),
+    # a proton: a Coulomb tail (uniform sphere, its rms radius in fm in every system) on the well
+    ("dirac", ["woods-saxon", "uniform-sphere"],
+     {"depth": 50.0, "radius": 3.0, "diffuseness": 0.5, "Z": -8.0, "rms_fm": 2.7}, {"kappa": -1}),
+])
+def test_continuum_state_takes_radii_in_fm_under_nuclear_units(equation, terms, params, channel):
+    """continuum_state(r=...) read r in bohr under units='nuclear', where its energy (MeV), the hard core and
+    every other length are fm: radii of a few fm were read as 1e5 times larger. The same problem in atomic
+    units, converted with scipy.constants (CODATA: Hartree energy, Bohr radius; common practice)."""
+    from scipy.constants import physical_constants
+    mev_per_hartree = physical_constants["Hartree energy in eV"][0] * 1e-6
+    fm_per_bohr = physical_constants["Bohr radius"][0] * 1e15
+    r_fm = np.array([0.5, 2.0, 3.0, 6.0, 12.0])
+    E_mev = 4.0
+    kw = dict(particle="proton", **channel)
+    nuc = continuum_state(E_mev, equation, terms, params, units="nuclear", r=r_fm, **kw)
+    atomic = {**params, "depth": params["depth"] / mev_per_hartree, "radius": params["radius"] / fm_per_bohr,
+              "diffuseness": params["diffuseness"] / fm_per_bohr}
+    ref = continuum_state(E_mev / mev_per_hartree, equation, terms, atomic, units="atomic", r=r_fm / fm_per_bohr, **kw)
+    assert np.allclose(nuc.r_in("fm"), r_fm, rtol=1e-14) and np.allclose(nuc.r, ref.r, rtol=1e-14)
+    assert np.max(np.abs(nuc.P - ref.P)) < 1e-7 and abs(nuc.delta - ref.delta) < 1e-7
+    assert np.max(np.abs(nuc.P)) > 0.1      # the radii reach past the well: the wave is not near zero there
+    with pytest.raises(ValueError, match=r"^r: give positive, finite radii in fm$"):
+        continuum_state(E_mev, equation, terms, params, units="nuclear", r=[-1.0], **kw)
+
+
 def test_nuclear_units_json_gives_lengths_in_fm_as_the_text_does():
     # phases --units nuclear --json gave k, the matching radius and the scattering length in bohr while its
     # text gave fm (and solve --units nuclear --json gives fm); the units block now names fm

@@ -143,3 +143,26 @@ def test_cornell_with_a_weak_string_is_solved(kappa_c, sigma, l, particle):
         approx = -m * kappa_c**2 / (2 * n * n) + sigma * r_mean
         assert abs(lv.energy - approx) < 1e-4 * abs(approx), (lv.label, lv.energy, approx)
         assert lv.resolution < 2000
+
+
+def test_a_missing_parameter_carries_the_command_line_wording_too():
+    """The API names the fix both ways; the command line took its own wording out with a regular expression
+    over the message. The error now carries it (OptionError, as LimitError carries its keyword), through
+    scan's '(at ...)' and through pickling (worker processes)."""
+    import pickle
+
+    from boundkit._checks import OptionError
+    from boundkit.studies import scan
+
+    api = (r"^params: term 'yukawa' needs parameter 'screening_length' \(screening length D, bohr\); give it, "
+           r"e.g. params=\{'screening_length': 1\} \(--param screening_length=1 on the command line\)")
+    cli = "params: term 'yukawa' needs parameter 'screening_length' (screening length D, bohr); give it, " \
+          "e.g. --param screening_length=1"
+    with pytest.raises(OptionError, match=api + "$") as info:
+        boundkit.solve("schrodinger", "yukawa", {"Z": 1})
+    assert info.value.command_line == cli
+    back = pickle.loads(pickle.dumps(info.value))
+    assert str(back) == str(info.value) and back.command_line == cli
+    with pytest.raises(OptionError, match=api + r" \(at Z = 1\)$") as info:
+        scan("schrodinger", "yukawa", {"Z": 1}, {"Z": [1.0, 2.0]}, workers=1)
+    assert info.value.command_line == cli + " (at Z = 1)"

@@ -87,6 +87,24 @@ def test_the_all_levels_message_says_how_shallow_a_level_the_count_can_miss():
     assert float(m.group(1)) > (0.5 - 0.4999) ** 2 / 2
 
 
+def test_the_all_levels_message_names_no_missed_binding_below_the_rounding_of_the_energies():
+    """A proton in a nucleus (a Woods-Saxon well and a repulsive uniformly charged sphere, Z = -82 in the tail;
+    demonstration values) is counted on a box of 5e13 fm, and the message said 'a level bound by less than
+    about 7e-27 MeV ... is not counted': far below the last digit of any energy of the well (a reviewer).
+    That sentence is left out when the missed binding 1/(2 m R^2) lies below the rounding floor of energies on
+    the well's scale, FLOOR / (2 m L^2) (L the natural length); the Hulthen case above keeps it."""
+    from boundkit.ladder import FLOOR
+
+    res = boundkit.solve("schrodinger", ["woods-saxon", "uniform-sphere"],
+                         {"depth": 50.0, "radius": 7.0, "diffuseness": 0.65, "Z": -82.0, "rms_fm": 5.5},
+                         units="nuclear", particle="proton", l=0, levels="all")
+    assert res.status == "ok", res.message
+    R, L, m = res.diagnostics["count_box_bohr"], res.diagnostics["natural_length_bohr"], res.settings["mass_atomic_units"]
+    assert 1 / (2 * m * R * R) < FLOOR / (2 * m * L * L)       # the case: the box is that far out
+    assert re.fullmatch(r"all \d+ bound level\(s\) of this channel; estimated relative error <= \S+ \(tol 1e-10\)",
+                        res.message), res.message
+
+
 def _well_in_repulsive_coulomb(V0: float, R: float, Z: float) -> list[float]:
     """Bound s levels (hartree, m = 1) of V = -V0 inside R and +Z/r outside, by matching at R: sin(k r)
     inside (k = sqrt(2 (E + V0))), Whittaker's W_{-Z/q, 1/2}(2 q r) outside (q = sqrt(-2 E); the decaying

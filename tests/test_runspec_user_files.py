@@ -279,7 +279,7 @@ def test_dry_run_reports_every_error(study, tmp_path):
     assert f"line {line_of(text, 'flavour')}, key 'models.table.term[0].flavour': unknown key" in lines[0]
     assert f"line {line_of(text, 'radii = 3')}, key 'solve.radii': expected true or false" in lines[1]
     assert f"line {line_of(text, 'steps = 3')}, key 'scan.steps': unknown key" in lines[2]
-    assert "key 'critical[1].states[0]': state 'one' not understood" in lines[3]
+    assert "key 'critical[1].states[0]': cannot read 'one'" in lines[3]
     # the normal path stops at the first
     with pytest.raises(ValueError, match=r"key 'models\.table\.term\[0\]\.flavour': unknown key") as info:
         load_spec(study)

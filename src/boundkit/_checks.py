@@ -9,7 +9,7 @@ import math
 from typing import Iterable
 
 __all__ = ["check_finite", "check_positive", "check_int", "check_choice", "check_parameter", "check_count",
-           "check_workers", "LimitError", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
+           "check_workers", "LimitError", "OptionError", "shorten", "MAX_MAGNITUDE", "MAX_GRID_POINTS", "MAX_L", "MAX_N",
            "MAX_LEVELS", "MAX_TABLE_POINTS", "MAX_PHASE_NODES", "MAX_REPULSIVE_ETA"]
 
 MAX_GRID_POINTS = 10_000
@@ -173,6 +173,34 @@ class LimitError(ValueError):
 
     def __reduce__(self):      # picklable across worker processes, whatever the arguments
         return type(self), (self.lead, self.keyword, self.override)
+
+
+class OptionError(ValueError):
+    """Bad input whose message names its fix in the API's terms, with the command line's wording beside it.
+
+    ``str(exc)`` is the API's message (e.g. ``... give it, e.g. params={'Z': 1} (--param Z=1 on the command
+    line)``); :attr:`command_line` is the same message as a command gives it (``... e.g. --param Z=1``):
+    :func:`boundkit.cli.common.api_message` prints that one, as it prints :meth:`LimitError.naming`.
+
+    Parameters
+    ----------
+    api : str
+        The message from the API.
+    command_line : str
+        The message on the command line; it may start with the API keyword (``params: ...``), which the
+        command renames to its option.
+    """
+
+    def __init__(self, api: str, command_line: str):
+        self.command_line = command_line
+        super().__init__(api)
+
+    def amended(self, suffix: str) -> "OptionError":
+        """The same error with ``suffix`` added to both wordings (e.g. ``" (at Z = 1)"``)."""
+        return type(self)(str(self) + suffix, self.command_line + suffix)
+
+    def __reduce__(self):      # picklable across worker processes
+        return type(self), (str(self), self.command_line)
 
 
 def check_count(name: str, count: int, limit: int, override: str, what: str = "points", *,

@@ -1778,6 +1778,15 @@ def _estimate_why(tally: _Tally) -> str | None:
             else _MERGE_WHY if tally.merge_hit else None)
 
 
+def _rounding_floor_of_energies(eq, L: float | None) -> float:
+    """The rounding floor (``ladder.FLOOR``, relative) of energies on the scale of a well whose natural
+    length is ``L``: FLOOR / (2 m L^2), |V + S| at L. A binding below it lies below the last digit those
+    energies carry; 0 when L is not known."""
+    from .ladder import FLOOR
+
+    return FLOOR / (2 * eq.mass * L * L) if L else 0.0
+
+
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
             t0) -> SolveResult:
     found.sort(key=lambda lv: lv.energy)
@@ -1791,10 +1800,13 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         if levels is not None and levels > bound:
             what += f" ({levels} requested)"
         if "count_box" in extra:
-            R = extra["count_box"]
+            R, missed = extra["count_box"], 1 / (2 * eq.mass * extra["count_box"] ** 2)
             eu, lu = system_units((settings or {}).get("units", "atomic"))
-            what += (f"; a level bound by less than about {hartree_to(1 / (2 * eq.mass * R * R), eu):.1g} {eu} "
-                     f"(1/(2 m R^2) on the counting box, R = {bohr_to(R, lu):.3g} {lu}) is not counted")
+            # said only where that binding is not below the last digit of energies on the well's scale
+            # (a repulsive Coulomb tail's counting box reaches 1e13 L: "less than about 7e-27 MeV")
+            if missed >= _rounding_floor_of_energies(eq, extra.get("L")):
+                what += (f"; a level bound by less than about {hartree_to(missed, eu):.1g} {eu} "
+                         f"(1/(2 m R^2) on the counting box, R = {bohr_to(R, lu):.3g} {lu}) is not counted")
         message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
         if status != "ok":
             message = f"{what}; worst estimated relative error {worst:.2g} exceeds tol = {tol:g}"

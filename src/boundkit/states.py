@@ -26,7 +26,7 @@ import re
 import numpy as np
 
 __all__ = ["count_nodes", "count_nodes_each", "principal_n", "normalise", "LABEL_CONVENTIONS", "level_label", "parse_label",
-           "check_convention", "label_sort_key", "convert_label", "level_n"]
+           "check_convention", "label_sort_key", "convert_label", "level_n", "splits_by_j", "missing_j"]
 
 LABEL_CONVENTIONS = ("atomic", "nuclear", "quarkonium")
 """Names of the labelling conventions (see the module docstring)."""
@@ -188,6 +188,23 @@ def _normalise_rows(w_dr, components, dens):
     first = P[np.arange(P.shape[0]), np.argmax(big, axis=1)]      # P[k, 0] where a row is all zero
     scale = np.where(first < 0, -scale, scale)[:, None]
     return tuple(c * scale for c in components), norm
+
+
+def splits_by_j(equation: str, spin_orbit: bool = False) -> bool:
+    """Whether j splits the levels of a channel of ``equation`` (a canonical name: ``'schrodinger'``,
+    ``'klein-gordon'``, ``'dirac'``): the Dirac equation, and the Schrodinger equation of a potential
+    with a spin-orbit term (``spin_orbit``). There a level's label names its j (an s level's is 1/2);
+    elsewhere a j in a label does not change the level."""
+    return equation == "dirac" or (equation == "schrodinger" and bool(spin_orbit))
+
+
+def missing_j(equation: str, label: str, l: int) -> str:
+    """Why ``label`` (l > 0, no j) names no single level where j splits them (:func:`splits_by_j`), and the
+    fix: the label with each of its two j."""
+    stem = "".join(str(label).split())
+    why = (f"the Dirac equation needs j in {label!r}" if equation == "dirac" else
+           f"a potential with a spin-orbit term splits {label!r} by j")
+    return f"{why}; write {stem}{2 * l - 1}/2 or {stem}{2 * l + 1}/2"
 
 
 def label_sort_key(label: str, labels: str = "atomic") -> tuple:

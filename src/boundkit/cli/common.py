@@ -39,19 +39,19 @@ def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
 
     ``options``: keyword -> option of the command that feeds it, e.g. ``{"max_nodes": "--max-nodes"}``.
     A :class:`boundkit._checks.LimitError` names the keyword that raises its limit
-    (``max_nodes= (API)``); the message then names the option instead. A message that starts with a
-    keyword (``hard_core: must be positive``; ``params``, ``r_unit`` and ``v_unit`` are always ``--param``,
-    ``--table-r-unit`` and ``--table-v-unit``) starts with its option,
-    and an example given both ways (``params={'Z': 1} (--param Z=1 on the command line)``) keeps the
-    option's form. Any other error is its own message.
+    (``max_nodes= (API)``); the message then names the option instead. An
+    :class:`boundkit._checks.OptionError` carries its command-line wording (``--param Z=1`` for the
+    API's ``params={'Z': 1} (--param Z=1 on the command line)``), which is used. A message that starts
+    with a keyword (``hard_core: must be positive``; ``params``, ``r_unit`` and ``v_unit`` are always
+    ``--param``, ``--table-r-unit`` and ``--table-v-unit``) starts with its option. Any other error is
+    its own message.
     """
-    from .._checks import LimitError
+    from .._checks import LimitError, OptionError
 
     options = {"params": "--param", "r_unit": "--table-r-unit", "v_unit": "--table-v-unit", **(options or {})}
     if isinstance(exc, LimitError) and exc.keyword in options:
         return exc.naming(options[exc.keyword])
-    # an example given both ways, "params={'Z': 1} (--param Z=1 on the command line)": the option only
-    text = re.sub(r"\b\w+=\{[^{}]*\} \((--[^()]+?) on the command line\)", r"\1", str(exc))
+    text = exc.command_line if isinstance(exc, OptionError) else str(exc)
     head, sep, rest = text.partition(":")
     if sep and head in options:
         return f"{options[head]}:{rest}"

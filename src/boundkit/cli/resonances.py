@@ -8,7 +8,7 @@ import json
 
 import click
 
-from .common import fail, json_default, report_unit
+from .common import api_message, fail, json_default, report_unit
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option, particle_options,
                       potential_options, subset_params, tol_option)
 
@@ -74,7 +74,7 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
                          order=order, r0=r0, r_max=r_max, tol=tol, scalar=scalar or None, units=unit_system,
                          analytic=True if analytic else None, **kwargs)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc))
     if as_json:
         click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
         return

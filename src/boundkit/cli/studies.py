@@ -197,7 +197,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
                        scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
     except ValueError as exc:
-        fail(str(exc))
+        fail(api_message(exc))
     except StudyError as exc:
         click.echo(f"boundkit: failed: {exc}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)

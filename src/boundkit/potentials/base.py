@@ -18,7 +18,7 @@ from typing import Callable, ClassVar
 
 import numpy as np
 
-from .._checks import MAX_MAGNITUDE, check_parameter, shorten
+from .._checks import MAX_MAGNITUDE, OptionError, check_parameter, shorten
 
 log = logging.getLogger(__name__)
 
@@ -147,10 +147,9 @@ class Term:
             elif p.default is not None:
                 values[p.name] = float(p.default)
             else:
-                raise ValueError(
-                    f"params: term {self.name!r} needs parameter {p.name!r} ({p.doc}, {p.unit}); "
-                    f"give it, e.g. params={{{p.name!r}: 1}} (--param {p.name}=1 on the command line)"
-                )
+                lead = f"params: term {self.name!r} needs parameter {p.name!r} ({p.doc}, {p.unit}); give it, e.g. "
+                raise OptionError(f"{lead}params={{{p.name!r}: 1}} (--param {p.name}=1 on the command line)",
+                                  f"{lead}--param {p.name}=1")
         self.values: dict[str, float] = values
         self._validate()
 

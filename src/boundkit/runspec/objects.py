@@ -7,6 +7,7 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from .._checks import MAX_GRID_POINTS
+from ..states import splits_by_j
 from .keylines import _KeyLines, _dotted
 
 STUDY_SECTIONS = ("solve", "converge", "scan", "critical", "compare")
@@ -45,7 +46,7 @@ class ChannelSpec:
             kappas = [-(self.l + 1) if self.two_j == 2 * self.l + 1 else self.l]
         else:
             kappas = [-(self.l + 1)] + ([self.l] if self.l > 0 else [])
-        if equation == "dirac" or (spin_orbit and equation == "schrodinger"):
+        if splits_by_j(equation, spin_orbit):
             out = []
             for k in kappas:
                 l = k if k > 0 else -k - 1

@@ -17,7 +17,7 @@ from typing import Any
 
 from .._checks import MAX_GRID_POINTS, MAX_L, MAX_LEVELS, MAX_SPEC_BYTES, check_int
 from ..observables import length_unit as canonical_length_unit
-from ..states import LABEL_CONVENTIONS
+from ..states import LABEL_CONVENTIONS, missing_j, parse_label, splits_by_j
 from ..units import energy_unit as canonical_energy_unit
 from ..units import get_particle
 from .models import _read_model
@@ -179,15 +179,10 @@ def _once(rd: _Reader, key: tuple, items, same=lambda x: x, what: str = "entry",
         seen[k] = i
 
 
-def _state_key(state: str, equation: str, labels: str, split: bool = False):
-    """The level a [critical] state names: (nodes, l, j), j only where it splits levels (``split``: Dirac,
-    or Schrodinger with a spin-orbit term; an s state's is 1/2)."""
-    from ..states import parse_label
-
-    try:
-        nodes, l, j = parse_label(state, labels)
-    except ValueError:
-        return state
+def _state_key(state: str, labels: str, split: bool = False) -> tuple[int, int, float | None]:
+    """The level a [critical] state names: (nodes, l, j), j only where it splits levels (``split``:
+    :func:`boundkit.states.splits_by_j`; an s state's is 1/2). The state is read already."""
+    nodes, l, j = parse_label(state, labels)
     if not split:
         return nodes, l, None
     return nodes, l, 0.5 if j is None and l == 0 else j
@@ -516,17 +511,16 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
             states = tuple(x.strip() for x in rd.get(s, key, "states", "list:str"))
             if not states:
                 raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
-            for i, st in enumerate(states):
-                if not re.fullmatch(r"\d+[a-z](\d+/2)?", st):
-                    raise rd.error(key + ("states", i), f"state {st!r} not understood; write e.g. \"1s\", \"2p\" or "
-                                                        "\"2p3/2\"")
             eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
+            split = splits_by_j(eq, models[model].spin_orbit(units))
             for i, st in enumerate(states):
-                if eq == "dirac" and not st.endswith("/2") and not st.endswith("s"):
-                    raise rd.error(key + ("states", i), f"the Dirac equation needs j in {st!r}, e.g. \"{st}1/2\" "
-                                                        f"or \"{st}3/2\"")
-            split = eq == "dirac" or (eq == "schrodinger" and models[model].spin_orbit(units))
-            _once(rd, key + ("states",), states, lambda st: _state_key(st, eq, labels, split), f"{eq} level",
+                try:     # what the run would refuse: a label of no level, or without the j that names one
+                    _nodes, l, j = parse_label(st, labels)
+                except ValueError as exc:
+                    raise rd.error(key + ("states", i), str(exc).removeprefix("state: ")) from None
+                if split and j is None and l > 0:
+                    raise rd.error(key + ("states", i), missing_j(eq, st, l))
+            _once(rd, key + ("states",), states, lambda st: _state_key(st, labels, split), f"{eq} level",
                   "" if split else f"; the {eq} equation has no j")
             bracket = rd.get(s, key, "bracket", "list:number", None)
             if bracket is not None and (len(bracket) != 2 or bracket[0] == bracket[1]):

@@ -572,13 +572,21 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     energy : float
         Kinetic energy E > 0 in ``energy_unit``.
     r : array, optional
-        Radii (bohr) to return it at; default 1001 points up to 1.25 times the
-        matching radius.
+        Radii to return it at, in the length unit of ``units`` (bohr, or fm
+        with ``units='nuclear'``, as ``hard_core``); default 1001 points up to
+        1.25 times the matching radius.
     normalisation : {'unit-amplitude', 'energy'}
         Unit amplitude: P ~ sin(k r - eta ln 2kr - l pi/2 + theta + delta).
         Energy: integral P_E P_E' (x charge weight) dr = delta(E - E').
     Other parameters as in :func:`phase_shifts` (``max_nodes`` counts the
     nodes up to the largest of ``r`` too; ``max_eta`` as there).
+
+    Returns
+    -------
+    ContinuumState
+        In atomic units, as its ``units`` say: ``state.r`` in bohr whatever
+        unit ``r`` was given in (``state.r_in('fm')`` converts), the energy in
+        hartree, k in 1/bohr.
 
     Notes
     -----
@@ -594,9 +602,11 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     energy_unit = _call_unit(energy_unit, units)
     E = float(_energies(energy, energy_unit)[0])
     if r is not None:
+        length = system_units(units)[1]
         r = np.atleast_1d(np.asarray(r, dtype=float))
         if r.size == 0 or not np.all(np.isfinite(r)) or np.any(r <= 0):
-            raise ValueError("r: give positive, finite radii in bohr")
+            raise ValueError(f"r: give positive, finite radii in {length}")
+        r = r * (FM_IN_BOHR if length == "fm" else 1.0)
     ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
                      hard_core)
     eq = ch.eq

@@ -235,6 +235,10 @@ class ContinuumState:
     channel: dict
     units: dict = field(default_factory=lambda: {"energy": "hartree", "length": "bohr"})
 
+    def r_in(self, unit: str) -> np.ndarray:
+        """The radii in ``unit`` (bohr, fm, pm, angstrom, nm)."""
+        return bohr_to(self.r, unit)
+
     def __repr__(self) -> str:
         comp = "P, Q" if self.Q is not None else "P"
         return (f"ContinuumState(E = {self.energy:.8g} hartree, k = {self.wave_number:.8g}/bohr, "

@@ -19,11 +19,10 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from .. import _signals
-from ..equations.base import letter
 from ..equations.dirac import kappa_to_lj
 from ..potentials import TERMS, Term
 from ..solver import make_equation
-from ..states import parse_label, principal_n
+from ..states import missing_j, parse_label, principal_n, splits_by_j
 
 __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
            "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
@@ -119,12 +118,10 @@ def state_channel(equation: str, label: str, spin_orbit: bool = False) -> tuple[
     """
     n, l, j = parse_state(label)
     eq = canonical_equation(equation)
-    split = eq == "dirac" or (eq == "schrodinger" and spin_orbit)
+    split = splits_by_j(eq, spin_orbit)
     if split and j is None:
         if l > 0:
-            why = (f"the Dirac equation needs j in {label!r}" if eq == "dirac" else
-                   f"a potential with a spin-orbit term splits {label!r} by j")
-            raise ValueError(f"state: {why}; write {n}{letter(l)}{2 * l - 1}/2 or {n}{letter(l)}{2 * l + 1}/2")
+            raise ValueError(f"state: {missing_j(eq, label, l)}")
         j = 0.5
     if eq == "dirac":
         channel = {"kappa": -(l + 1) if j == l + 0.5 else l}

@@ -51,7 +51,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from .._checks import check_int, check_positive
+from .._checks import OptionError, check_int, check_positive
 from .._rounding import rounding_floor
 from ..discretize import get_method
 from ..solver import setup, solve_channel, table_error
@@ -802,8 +802,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         p_start = a
     else:
         if vary not in params:
-            raise ValueError(f"params: give a start value of {vary!r} where {label} is bound "
-                             f"(params[{vary!r}]) or a bracket")
+            lead = f"params: give a start value of {vary!r} where {label} is bound "
+            raise OptionError(f"{lead}(params[{vary!r}]) or a bracket", f"{lead}(--param {vary}=VALUE) or --bracket A,B")
         p_start = float(params[vary])
     eq0, pot0, settings0 = build(p_start)          # bad input surfaces here as ValueError
     if kind is None and eqname == "schrodinger" and pot0.tail_charge > 0:

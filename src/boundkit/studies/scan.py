@@ -38,7 +38,7 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from .._checks import MAX_GRID_POINTS, MAX_LEVELS, check_count, check_int, check_positive, check_workers
-from .._checks import shorten
+from .._checks import OptionError, shorten
 from .._threads import usable_cores
 from ..states import check_convention, convert_label
 from ..solver import check_levels, solve
@@ -779,4 +779,6 @@ def _check_input(todo: list[dict]) -> None:
                   scalar=rebuild_potential(t["scalar"], t["params"], varied), **t["channel"], **kwargs)
         except ValueError as exc:
             where = ", ".join(f"{k} = {v:g}" for k, v in t["point"].items())
+            if isinstance(exc, OptionError):
+                raise exc.amended(f" (at {where})") from None
             raise ValueError(f"{exc} (at {where})") from None
