@@ -1,0 +1,116 @@
+"""Spectral elements on a sharp Woods-Saxon surface: the estimate bounds the error at every tolerance.
+
+The integrals of the elements' quadratic form were taken with degree + 2 Gauss points, which is exact
+when r (V + S) is a cubic on the element. Across a Woods-Saxon surface of small diffuseness it is not,
+and the rule's aliasing error in the potential term fell erratically from rung to rung: two rungs could
+carry the same error (2.52e-9 and 2.53e-9 hartree at degrees 15 and 18 for the first well below), so
+their difference, the estimate, was 177 times below the true error; at tol 1e-6 the second well's 1s was
+3.1e-6 (relative) off with status ok. Elements on which r (V + S) is not a cubic to rounding now get half
+their degree again in Gauss points.
+
+References: an independent matched shooting (scipy DOP853, rtol 1e-13, outward from r0 with u = r and
+inward from r1 with exponential decay, met at rm; (r0, rm, r1) = (1e-8, R, R + 60/k) and
+(1e-7, 0.7 R, R + 50/k), k = sqrt(-2E)), computed for this test (2026-12-05) by _shot_1s below, which the
+slow test reruns; both cuts agree with the stored values to 1.3e-15 (relative).
+"""
+from __future__ import annotations
+
+import math
+
+import pytest
+
+import boundkit
+
+WELLS = [
+    # depth (hartree), radius (bohr), diffuseness (bohr), 1s binding energy (hartree)
+    (1.7254044576900245, 2.403022941724509, 0.02771814504543994, -1.166710215911802),
+    (0.18692016579431744, 5.193817476458639, 0.05768880579615062, -0.08689680320695922),
+]
+
+
+def _shot_1s(depth, R, a, E_guess, r0, rm_frac, r1_decay):
+    from scipy.integrate import solve_ivp
+    from scipy.optimize import brentq
+
+    def V(r):
+        return -depth / (1 + math.exp(min((r - R) / a, 700.0)))
+
+    def rhs(r, y, E):
+        return [y[1], 2 * (V(r) - E) * y[0]]
+
+    rm, r1 = rm_frac * R, R + r1_decay / math.sqrt(-2 * E_guess)
+
+    def mismatch(E):
+        k = math.sqrt(-2 * E)
+        out = solve_ivp(rhs, (r0, rm), [r0, 1.0], args=(E,), method="DOP853", rtol=1e-13, atol=1e-300,
+                        max_step=a / 4).y[:, -1]
+        inn = solve_ivp(rhs, (r1, rm), [1e-30, -k * 1e-30], args=(E,), method="DOP853", rtol=1e-13, atol=1e-300,
+                        max_step=a / 4).y[:, -1]
+        return (out[0] * inn[1] - inn[0] * out[1]) / math.hypot(*out) / math.hypot(*inn)
+
+    return brentq(mismatch, E_guess * 1.001, E_guess * 0.999, xtol=1e-16, rtol=1e-15)
+
+
+@pytest.mark.parametrize("tol", [1e-6, 1e-8, 1e-10])
+@pytest.mark.parametrize("depth, R, a, exact", WELLS)
+def test_the_estimate_bounds_the_error_across_a_sharp_surface(depth, R, a, exact, tol):
+    res = boundkit.solve("schrodinger", "woods-saxon", {"depth": depth, "radius": R, "diffuseness": a}, l=0,
+                         levels=1, tol=tol, method="spectral")
+    assert res.status == "ok", res.message
+    lv = res.levels[0]
+    err = abs(lv.energy - exact)
+    assert err <= max(lv.error_estimate, 1e-14 * abs(exact)), (err, lv.error_estimate)
+    assert err <= tol * abs(exact)
+
+
+# Dirac kappa = -1 in a Fermi nucleus, Z = 92, rms radius 7.473720969742803 fm (a case of the cross-method sweep):
+# the 1s by the matched shooting of tests/test_locator_shooting.py (_matched_energy, DOP853 at rtol 1e-13), cuts
+# (r0, rm, r1) = (1e-9, 2e-3, 0.5), (1e-8, 1e-3, 0.6), (1e-9, 5e-3, 0.45) bohr: -4850.78271452042{5, 9, 4}
+# hartree, computed 2026-12-05. Before, at tol 1e-7 the elements gave -4850.7827367468 +- 3.3e-7: 2.2e-5 off
+# (rungs of 121 and 151 unknowns agreed by accident; the next moved by 2.2e-5).
+FERMI_RMS = 7.473720969742803
+FERMI_1S = -4850.782714520427
+
+
+@pytest.mark.parametrize("tol", [1e-7, 1e-10])
+def test_the_estimate_bounds_the_error_of_a_fermi_nucleus_1s(tol):
+    res = boundkit.solve("dirac", "fermi", {"Z": 92, "rms_fm": FERMI_RMS}, kappa=-1, levels=1, tol=tol,
+                         method="spectral")
+    assert res.status == "ok", res.message
+    lv = res.levels[0]
+    assert abs(lv.energy - FERMI_1S) <= lv.error_estimate, (lv.energy - FERMI_1S, lv.error_estimate)
+
+
+def test_a_coulomb_element_keeps_its_quadrature():
+    """r V = -Z is a constant: no element of a point charge needs more points (the Dirac Z = 92 benchmark
+    pays nothing)."""
+    import numpy as np
+
+    from boundkit.ladder import _structure_points, make_operator
+    from boundkit.solver import sampler, setup
+
+    eq, pot, _ = setup("dirac", "coulomb", {"Z": 92}, kappa=-1)
+    edges = list(np.linspace(math.log(1e-6), math.log(20.0), 12))
+    op = make_operator(eq, sampler(pot), eq.gamma(pot), 0.01, edges, [False] * 11, 12, -4000.0)
+    assert not any(_structure_points(op.grid, op.sample))
+    eq, pot, _ = setup("schrodinger", "woods-saxon", {"depth": 1.0, "radius": 2.0, "diffuseness": 0.03}, l=0)
+    op = make_operator(eq, sampler(pot), eq.gamma(pot), 0.01, edges, [False] * 11, 12, -0.5)
+    assert any(_structure_points(op.grid, op.sample))
+
+
+@pytest.mark.slow
+def test_the_fermi_reference_is_reproduced_by_shooting():
+    from test_locator_shooting import _matched_energy
+
+    from boundkit.solver import setup
+
+    eq, pot, _ = setup("dirac", "fermi", {"Z": 92, "rms_fm": FERMI_RMS}, kappa=-1)
+    for cut in ((1e-9, 2e-3, 0.5), (1e-8, 1e-3, 0.6)):
+        assert abs(_matched_energy(pot, -1, eq.mass, FERMI_1S, *cut) - FERMI_1S) <= 2e-15 * abs(FERMI_1S)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("depth, R, a, exact", WELLS)
+def test_the_references_are_reproduced_by_shooting(depth, R, a, exact):
+    for cut in ((1e-8, 1.0, 60.0), (1e-7, 0.7, 50.0)):
+        assert abs(_shot_1s(depth, R, a, exact, *cut) - exact) <= 2e-15 * abs(exact)
