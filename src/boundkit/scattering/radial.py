@@ -104,32 +104,6 @@ def _natural_length(mass: float, pot: Potential, hard_core: float | None) -> flo
     return float(hard_core) if hard_core else 1.0
 
 
-def _inverse_square_ends(term) -> tuple[float, float, float]:
-    """(B0, B_tail, Z_t) of one term: its 1/r^2 coefficients at the origin and far out (hartree bohr^2)
-    and its tail charge.
-
-    Built-in terms declare them, and a user's term (callable, expression) declares B0 from its probe
-    (:class:`boundkit.potentials.base.ProbedTerm`). Its tail is read here: V = -Z_t/r + B/r^2 fitted at
-    1e4 and 1e5 bohr and kept when it also holds at 1e3 bohr (to 1e-6) and |B| > 1e-9 max(1, |Z_t|) (the
-    rounding of a pure Coulomb tail is ~1e-12 |Z_t|). The probe of the term's ends reads V ~ -Z_t/r alone,
-    and took 1/(2 r^2) for a Coulomb tail of charge -5e-6, matched at 1e-8 bohr (an IndexError followed)."""
-    from ..potentials.base import ProbedTerm
-
-    b0 = float(term.origin_inverse_square)
-    if not isinstance(term, ProbedTerm):
-        return b0, float(term.tail_inverse_square), float(term.tail_charge)
-    with np.errstate(all="ignore"):
-        rf = np.array([1e3, 1e4, 1e5])
-        x = rf * np.asarray(term(rf), dtype=float)          # -Z + B / r
-    zt, b_tail = float(term.tail_charge), 0.0
-    if np.all(np.isfinite(x)):
-        B = float((x[1] - x[2]) / (1 / rf[1] - 1 / rf[2]))
-        Z = float(B / rf[2] - x[2])
-        if abs(B) > 1e-9 * max(1.0, abs(Z)) and abs(B / rf[0] - Z - x[0]) <= 1e-6 * max(abs(x[0]), abs(B) / rf[0]):
-            zt, b_tail = (Z if abs(Z) > 1e-9 * max(1.0, abs(B)) else 0.0), B
-    return b0, b_tail, zt
-
-
 def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
             with_reference: bool = True) -> Channel:
     """Check a channel for continuum work and build its range profile.
@@ -143,8 +117,8 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
     if pot.confining:
         raise ValueError("potential: it grows without bound far out (confining), so there is no continuum; "
                          "use a potential that tends to 0 or to a Coulomb tail")
-    ends = [_inverse_square_ends(t) for t in pot.vector + pot.scalar]
-    b0, b_tail, zt = (float(sum(e[i] for e in ends)) for i in range(3))
+    # the ends as the terms declare them (a user's callable or expression: read by its probe, ProbedTerm)
+    b0, b_tail, zt = pot.origin_inverse_square, pot.tail_inverse_square, pot.tail_charge
     if eq.name != "schrodinger":
         if any(t.tail_charge != 0.0 for t in pot.scalar):
             raise ValueError("potential: a scalar term with a Coulomb tail has no continuum reference here; "
