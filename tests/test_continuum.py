@@ -1061,6 +1061,17 @@ def test_inverse_square_parts_are_refused_where_they_are_not_supported():
 
 
 
+def test_an_inverse_square_tail_too_attractive_for_its_order_is_refused_by_name():
+    # -0.3 r^2/(1 + r^4) ~ -0.3/r^2 far out, finite at the origin: with l = 0, m = 1, l(l+1) + 2 m B = -0.6 < -1/4.
+    # The refusal blamed the origin ('its 1/r^2 part at the origin ... fall to the centre') and a Coulomb tail of
+    # charge 0.
+    with pytest.raises(ValueError, match=r"potential: its 1/r\^2 tail far out, B = -0\.3 hartree bohr\^2, is too "
+                                         r"attractive for l = 0: .* complex order, .* use B > -0\.125"):
+        phase_shifts([1.0], "schrodinger", lambda r: -0.3 * r**2 / (1 + r**4), l=0)
+    res = phase_shifts([1.0], "schrodinger", lambda r: -0.3 * r**2 / (1 + r**4), l=1, estimate_error=False)
+    assert res.success, res.message       # (l + 1/2)^2 - 0.6 > 0: the tail has a real order for l = 1
+
+
 def test_levinson_names_the_bound_count_limit_when_a_shallow_level_is_missed():
     # Hulthen Z = 1, delta = 0.4999: E_n = -(Z/n - n delta/2)^2 / 2 gives two s levels, -0.28128750125 and
     # -5.0e-9 hartree (Fluegge, Practical Quantum Mechanics, 1971, Hulthen problem; from memory, see
