@@ -1072,6 +1072,15 @@ def test_an_inverse_square_tail_too_attractive_for_its_order_is_refused_by_name(
     assert res.success, res.message       # (l + 1/2)^2 - 0.6 > 0: the tail has a real order for l = 1
 
 
+def test_the_reference_names_the_tail_with_its_sign_and_units():
+    # a repulsive tail read 'V ~ --1/r'; the coefficients were in hartree and bohr whatever the call's units
+    rep = phase_shifts([1.0], "schrodinger", "coulomb", {"Z": -1.0}, l=0, estimate_error=False)
+    assert "Coulomb tail V ~ 1/r (V in hartree, r in bohr)" in rep.reference
+    from boundkit.potentials.expression import ExpressionTerm
+    nuc = phase_shifts([1.0], "schrodinger", ExpressionTerm("1.44/r - 10/r**2 - 50*exp(-r)"), l=2, units="nuclear",
+                       mass_mev=938.0, estimate_error=False)
+    assert "inverse-square tail V ~ 1.44/r - 10/r^2 (V in MeV, r in fm)" in nuc.reference, nuc.reference
+
 def test_levinson_names_the_bound_count_limit_when_a_shallow_level_is_missed():
     # Hulthen Z = 1, delta = 0.4999: E_n = -(Z/n - n delta/2)^2 / 2 gives two s levels, -0.28128750125 and
     # -5.0e-9 hartree (Fluegge, Practical Quantum Mechanics, 1971, Hulthen problem; from memory, see
