@@ -1034,6 +1034,21 @@ def test_kratzer_phase_relative_to_coulomb_is_exact(B, l):
         assert np.max(np.abs(mod_pi(res.coulomb_phase - sigma))) < 1e-12
 
 
+
+@pytest.mark.parametrize("rest", [lambda r: r**2 / (1 + r**5), lambda r: 300 / (r**4 + 1e4)], ids=["r^-3", "r^-4"])
+def test_a_steeper_correction_to_a_coulomb_tail_is_not_matched_as_an_inverse_square_one(rest):
+    # V = -1/r + (a term falling like r^-3 or r^-4): a Coulomb tail of charge 1 and no 1/r^2 part, by construction.
+    # The scattering layer's own fit of the tail checked -Z + B/r at 1e3 bohr against r V as a whole (to 1e-6 of
+    # the charge), took the steeper part for B = 1.1e-4 (r^-3) or 3.3e-6 (r^-4) and matched to Coulomb functions
+    # of the wrong order. The channel is read without integrating (a phase with this tail takes minutes).
+    from boundkit.scattering.radial import prepare
+    from boundkit.solver import setup
+
+    eq, pot, _ = setup("schrodinger", lambda r: -1 / r + rest(r), None, l=0)
+    ch = prepare(eq, pot)
+    assert ch.tail_b == 0.0 and ch.tail_charge == pytest.approx(1.0, rel=1e-9) and not ch.reference.tail_b
+
+
 def test_inverse_square_parts_are_refused_where_they_are_not_supported():
     with pytest.raises(ValueError, match="potential: it has a 1/r\\^2 part .* Schrodinger equation only"):
         phase_shifts([1.0], "klein-gordon", lambda r: 0.5 / r**2)
@@ -1044,6 +1059,27 @@ def test_inverse_square_parts_are_refused_where_they_are_not_supported():
     with pytest.raises(ValueError, match="potential: its 1/r\\^2 part at the origin .* is too attractive"):
         phase_shifts([1.0], "schrodinger", lambda r: -0.3 / r**2 * np.exp(-r))
 
+
+
+def test_an_inverse_square_tail_too_attractive_for_its_order_is_refused_by_name():
+    # -0.3 r^2/(1 + r^4) ~ -0.3/r^2 far out, finite at the origin: with l = 0, m = 1, l(l+1) + 2 m B = -0.6 < -1/4.
+    # The refusal blamed the origin ('its 1/r^2 part at the origin ... fall to the centre') and a Coulomb tail of
+    # charge 0.
+    with pytest.raises(ValueError, match=r"potential: its 1/r\^2 tail far out, B = -0\.3 hartree bohr\^2, is too "
+                                         r"attractive for l = 0: .* complex order, .* use B > -0\.125"):
+        phase_shifts([1.0], "schrodinger", lambda r: -0.3 * r**2 / (1 + r**4), l=0)
+    res = phase_shifts([1.0], "schrodinger", lambda r: -0.3 * r**2 / (1 + r**4), l=1, estimate_error=False)
+    assert res.success, res.message       # (l + 1/2)^2 - 0.6 > 0: the tail has a real order for l = 1
+
+
+def test_the_reference_names_the_tail_with_its_sign_and_units():
+    # a repulsive tail read 'V ~ --1/r'; the coefficients were in hartree and bohr whatever the call's units
+    rep = phase_shifts([1.0], "schrodinger", "coulomb", {"Z": -1.0}, l=0, estimate_error=False)
+    assert "Coulomb tail V ~ 1/r (V in hartree, r in bohr)" in rep.reference
+    from boundkit.potentials.expression import ExpressionTerm
+    nuc = phase_shifts([1.0], "schrodinger", ExpressionTerm("1.44/r - 10/r**2 - 50*exp(-r)"), l=2, units="nuclear",
+                       mass_mev=938.0, estimate_error=False)
+    assert "inverse-square tail V ~ 1.44/r - 10/r^2 (V in MeV, r in fm)" in nuc.reference, nuc.reference
 
 def test_levinson_names_the_bound_count_limit_when_a_shallow_level_is_missed():
     # Hulthen Z = 1, delta = 0.4999: E_n = -(Z/n - n delta/2)^2 / 2 gives two s levels, -0.28128750125 and
@@ -1132,6 +1168,53 @@ def test_nuclear_units_json_gives_lengths_in_fm_as_the_text_does():
                                                 "radius=3", "--param", "diffuseness=0.5", "--units", "nuclear",
                                                 "--particle", "neutron", "--json"]).output)["units"]["length"] == "fm"
 
+
+
+def _hbar_c_mev_fm():
+    from scipy.constants import c, e, hbar
+    return hbar * c / (e * 1e6) * 1e15                       # MeV fm (CODATA via scipy.constants)
+
+
+@pytest.mark.parametrize("form", ["callable", "expression"])
+@pytest.mark.parametrize("l", [0, 1])
+def test_an_inverse_square_potential_in_nuclear_units_has_its_exact_phase(form, l):
+    # V = B/r^2 (B in MeV fm^2): delta_l = (l - L) pi/2 at every energy, L (L + 1) = l (l + 1) + 2 m B / hbar^2 (as in
+    # test_inverse_square_potential_phase_is_exact; derived there), 2 m B / hbar^2 = 2 m c^2 B / (hbar c)^2. The
+    # wrapper of MeV and fm dropped the tail's B: delta came back 0 (+- 5e-12, 'range-not-reached') behind a Coulomb
+    # tail of charge -7.6e-4 that the probe had fitted to B/r^2.
+    from boundkit.potentials.expression import ExpressionTerm
+    B, mc2 = 10.0, 938.0
+    exact = (l - _inverse_square_L(l, 2 * mc2 * B / _hbar_c_mev_fm() ** 2)) * math.pi / 2
+    pot = (lambda r: B / r**2) if form == "callable" else ExpressionTerm(f"{B}/r**2")
+    res = phase_shifts([1.0, 5.0], "schrodinger", pot, l=l, units="nuclear", mass_mev=mc2, tol=1e-8)
+    assert res.status == "ok", res.message
+    assert np.all(np.abs(res.delta - exact) <= res.error_estimate), (res.delta - exact, res.error_estimate)
+    assert np.all(res.error_estimate < 1e-8) and np.all(np.abs(res.coulomb_phase) < 1e-12)
+
+
+def test_a_well_with_an_inverse_square_tail_in_nuclear_units_is_the_same_problem_in_atomic_units():
+    # V(r) = -50 exp(-r/1.5) + 10 r^2/(1 + r^4) MeV (r in fm, an illustrative well with a 1/r^2 tail), against the
+    # same V written in hartree and bohr with scipy.constants (r_fm = r_bohr x bohr/fm, V_hartree = V_MeV / (MeV
+    # per hartree)), at the same energies: one problem, so one set of phases (common practice).
+    from scipy.constants import femto, physical_constants
+    fm_per_bohr = physical_constants["Bohr radius"][0] / femto
+    mev_per_hartree = physical_constants["Hartree energy in eV"][0] / 1e6
+    nuc = lambda r: -50 * np.exp(-r / 1.5) + 10 * r**2 / (1 + r**4)            # noqa: E731
+    au = lambda r: nuc(r * fm_per_bohr) / mev_per_hartree                      # noqa: E731
+    E = np.array([0.5, 2.0, 8.0])
+    a = phase_shifts(E, "schrodinger", nuc, l=1, units="nuclear", mass_mev=938.0, tol=1e-8)
+    b = phase_shifts(E / mev_per_hartree, "schrodinger", au, l=1, mass_mev=938.0, tol=1e-8)
+    assert a.status == "ok" and b.status == "ok", (a.message, b.message)
+    assert np.all(np.abs(a.delta - b.delta) <= a.error_estimate + b.error_estimate), (a.delta - b.delta)
+    assert np.all(a.error_estimate < 1e-7)
+
+
+def test_an_inverse_square_potential_in_nuclear_units_from_the_command_line():
+    run = CliRunner().invoke(main, ["phases", "--expr", "10/r**2", "--units", "nuclear", "--mass-mev", "938",
+                                    "--energies", "1", "--l", "1", "--json"])
+    assert run.exit_code == 0, run.output
+    exact = (1 - _inverse_square_L(1, 2 * 938.0 * 10.0 / _hbar_c_mev_fm() ** 2)) * math.pi / 2   # as above
+    assert abs(json.loads(run.output)["phases"]["points"][0]["delta"] - exact) < 1e-8
 
 # --- error estimates against an exact phase ---------------------------------------------------------
 def _hulthen_s_phase(E, Z, dl):

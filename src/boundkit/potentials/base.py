@@ -231,6 +231,25 @@ class Term:
         return f"{type(self).__name__}({args})"
 
 
+def _inverse_square_tail(r: np.ndarray, v: np.ndarray) -> tuple[float, float]:
+    """(Z, B) of a tail V = -Z/r + B/r^2 at the radii ``r`` (1e3, 1e4, 1e5 bohr), else (0, 0).
+
+    r V = -Z + B/r is fitted at the last two radii and kept when |B| > 1e-9 max(1, |Z|) (the rounding of a
+    pure Coulomb tail gives B ~ 1e-12 |Z|) and the fit holds at the first radius to 1e-6 of its B/r part
+    (plus rounding): a check against r V as a whole took the 1e-6 r^-2 of -1/r + 1/r^3 at r = 1e3 for a
+    B of 1.1e-4.
+    """
+    x = r * v                                             # -Z + B / r
+    b = float((x[1] - x[2]) / (1 / r[1] - 1 / r[2]))
+    z = float(b / r[2] - x[2])
+    if abs(b) <= 1e-9 * max(1.0, abs(z)):
+        return 0.0, 0.0
+    misfit = abs(b / r[0] - z - x[0])
+    if misfit > 1e-6 * abs(b) / r[0] + 64 * np.finfo(float).eps * (abs(z) + abs(x[0])):
+        return 0.0, 0.0
+    return z, b
+
+
 class ProbedTerm(Term):
     """A term whose ends are found by probing it numerically (callables, expressions).
 
@@ -241,10 +260,15 @@ class ProbedTerm(Term):
     inverse-square core B0 / r^2 (``origin_inverse_square``, which sets the
     exponent of u at the origin in the Schrodinger equation and is refused by
     the relativistic ones) and Z0 is the slope of r^2 V at 1e-8..1e-6 bohr; far out, V growing beyond 1e3 hartree over
-    r = 1e3..1e5 bohr means a confining term, otherwise the tail charge is
-    read from V ~ V_inf - Z_inf / r fitted at r = 1e4 and 1e5 bohr: Z_inf is the
+    r = 1e3..1e5 bohr means a confining term, otherwise the tail is read: first as
+    V ~ -Z_inf / r + B / r^2 fitted at r = 1e4 and 1e5 bohr and checked at 1e3 bohr
+    (:func:`_inverse_square_tail`; B is ``tail_inverse_square``, which the
+    continuum matches to Coulomb functions of order L), else as
+    V ~ V_inf - Z_inf / r fitted at r = 1e4 and 1e5 bohr: Z_inf is the
     tail charge (0 when below 1e-6), V_inf the far constant (0 when below
-    1e-9 hartree; the solver puts the threshold there). When a probe value is not
+    1e-9 hartree; the solver puts the threshold there). A far constant together
+    with a 1/r^2 tail is not read as such (Z_inf then carries about -1e-4 B).
+    When a probe value is not
     finite (a pole there), the probe is repeated once at radii 4.7 % larger;
     values still not finite count as "no Coulomb behaviour" (origin); far out,
     values that overflow to +inf mean a confining term (an exponential wall),
@@ -287,7 +311,7 @@ class ProbedTerm(Term):
             if not np.all(np.isfinite(rv)):
                 log.info("%s: not finite near r = 0; treated as not Coulomb-like there", self.label)
         r_big, vb = self._finite_probe(np.array([1e3, 1e4, 1e5]))
-        self._vinf = 0.0
+        self._vinf, self._b_tail = 0.0, 0.0
         if not np.all(np.isfinite(vb)):
             if np.all(np.isfinite(vb) | np.isposinf(vb)):
                 self._far, self._zinf = "confining", 0.0
@@ -298,18 +322,22 @@ class ProbedTerm(Term):
             self._far, self._zinf = "confining", 0.0
         else:
             self._far = "zero"
-            r1, r2 = r_big[1], r_big[2]
-            z = float(-(vb[1] - vb[2]) * r1 * r2 / (r2 - r1))
-            v_inf = float(vb[2] + z / r2)
-            if abs(v_inf) > 1e-9:
-                self._vinf = v_inf
-            else:
-                z = float(-r2 * vb[2])          # no constant: -r V(r) at 1e5 bohr
+            z, self._b_tail = _inverse_square_tail(r_big, vb)
+            if not self._b_tail:
+                r1, r2 = r_big[1], r_big[2]
+                z = float(-(vb[1] - vb[2]) * r1 * r2 / (r2 - r1))
+                v_inf = float(vb[2] + z / r2)
+                if abs(v_inf) > 1e-9:
+                    self._vinf = v_inf
+                else:
+                    z = float(-r2 * vb[2])          # no constant: -r V(r) at 1e5 bohr
             self._zinf = z if abs(z) > 1e-6 else 0.0
-        for what, z in (("origin charge -r V(r) near r = 0", self._z0), ("tail charge -r V(r) far out", self._zinf)):
+        for what, z, unit in (("origin charge -r V(r) near r = 0", self._z0, "hartree bohr"),
+                              ("tail charge -r V(r) far out", self._zinf, "hartree bohr"),
+                              ("inverse-square tail r^2 V(r) far out", self._b_tail, "hartree bohr^2")):
             if abs(z) > MAX_MAGNITUDE:
                 raise ValueError(f"potential: {shorten(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
-                                 "in magnitude (hartree bohr); scale the potential down")
+                                 f"in magnitude ({unit}); scale the potential down")
 
     def _charge_under_inverse_square(self) -> float:
         """Z0 of V = B0 / r^2 - Z0 / r + O(1) near the origin, from r^2 V = B0 - Z0 r + O(r^2) at
@@ -335,6 +363,11 @@ class ProbedTerm(Term):
     @property
     def tail_charge(self) -> float:
         return self._zinf
+
+    @property
+    def tail_inverse_square(self) -> float:
+        """B of V ~ -Z_inf/r + B/r^2 far out (hartree bohr^2), read with the tail charge (0 when none)."""
+        return self._b_tail
 
     @property
     def far_constant(self) -> float:
@@ -487,6 +520,12 @@ class Potential:
         return float(sum(t.origin_inverse_square for t in self.vector + self.scalar))
 
     @property
+    def tail_inverse_square(self) -> float:
+        """Sum of the terms' 1/r^2 coefficients far out, B of V + S ~ -Z_inf/r + B/r^2 (vector and scalar
+        terms; hartree bohr^2)."""
+        return float(sum(t.tail_inverse_square for t in self.vector + self.scalar))
+
+    @property
     def name(self) -> str:
         """Short description: term names joined by ' + ', scalar terms marked."""
         parts = [getattr(t, "label", t.name) for t in self.vector]
@@ -504,7 +543,11 @@ class NuclearUnitsTerm(Term):
     Notes
     -----
     V_au(r) = V_nuc(r / FM_IN_BOHR) * MEV_IN_HARTREE; a charge-like coefficient
-    (V ~ -Z/r) in MeV fm becomes Z * MEV_IN_HARTREE * FM_IN_BOHR in hartree bohr.
+    (V ~ -Z/r) in MeV fm becomes Z * MEV_IN_HARTREE * FM_IN_BOHR in hartree bohr,
+    an inverse-square one (V ~ B/r^2, at the origin or far out) in MeV fm^2
+    B * MEV_IN_HARTREE * FM_IN_BOHR^2 in hartree bohr^2. Every property a
+    :class:`Term` declares is forwarded so converted (a property left out reads
+    the base class's 0: tests/test_potential_properties.py checks the list).
     The wrapped term is in atomic units: it is never wrapped again.
     """
 
@@ -537,6 +580,10 @@ class NuclearUnitsTerm(Term):
     @property
     def origin_inverse_square(self) -> float:
         return self.inner.origin_inverse_square * self._v * self._r**2
+
+    @property
+    def tail_inverse_square(self) -> float:
+        return self.inner.tail_inverse_square * self._v * self._r**2
 
     @property
     def breakpoints(self) -> tuple[float, ...]:

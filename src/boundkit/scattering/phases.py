@@ -44,6 +44,16 @@ def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_
     return prepare(eq, pot, hard_core), settings
 
 
+def _tail_formula(ch: Channel, units: str) -> str:
+    """The tail -Z_t/r + B/r^2 of a channel as a formula in the call's unit system, its units named:
+    ``-1.44/r + 10/r^2 (V in MeV, r in fm)``; a repulsive charge reads ``+ 1/r``, not ``- -1/r``."""
+    energy, length = system_units(units)
+    z = hartree_to(ch.tail_charge, energy) * bohr_to(1.0, length)          # energy x length
+    b = hartree_to(ch.tail_b, energy) * bohr_to(1.0, length) ** 2          # energy x length^2
+    parts = [f"{c:g}{power}" for c, power in ((-z, "/r"), (b, "/r^2")) if c]
+    return " + ".join(parts).replace("+ -", "- ") + f" (V in {energy}, r in {length})"
+
+
 def _rtol(tol: float) -> float:
     return min(1e-6, tol * 1e-3)
 
@@ -279,13 +289,12 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
                                                           if estimate else " (no error estimate asked)")
     log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
     if ch.tail_b:
-        shape = (f"-{ch.tail_charge:g}/r + " if ch.tail_charge else "") + f"{ch.tail_b:g}/r^2"
         reference = (f"{'Coulomb' if ch.tail_charge else 'free'} waves, with an inverse-square tail "
-                     f"V ~ {shape} matched exactly (delta includes its phase "
+                     f"V ~ {_tail_formula(ch, settings.get('units', 'atomic'))} matched exactly (delta includes its phase "
                      "sigma_L - sigma_l + (l - L) pi/2, L (L + 1) = l (l + 1) + 2 m B)")
         branch = "absolute: continuous in E from the node counts of the solution and of the tail's own one"
     elif ch.tail_charge:
-        reference = f"Coulomb tail V ~ -{ch.tail_charge:g}/r (delta relative to the Coulomb phase)"
+        reference = f"Coulomb tail V ~ {_tail_formula(ch, settings.get('units', 'atomic'))} (delta relative to the Coulomb phase)"
         branch = "absolute: continuous in E from the node counts of the solution and of the Coulomb one"
     else:
         reference = "free waves (short-range potential)"

@@ -90,44 +90,29 @@ class Channel:
                       None if W is None else np.asarray(W, dtype=float))
 
 
-def _natural_length(mass: float, pot: Potential, hard_core: float | None) -> float:
-    """First r with 2 m r^2 |V + S| >= 1, else where that strength peaks, else the hard core or 1."""
+def _natural_length(mass: float, pot: Potential, hard_core: float | None, b_tail: float = 0.0) -> float:
+    """First r with 2 m r^2 |V + S - B/r^2| >= 1, else where that strength peaks (when it is flat towards the
+    origin, the last r where it is half its peak), else the hard core or 1.
+
+    An inverse-square tail B/r^2 (matched exactly) has no length of its own: its strength 2 m B is the same at
+    every r. Left in, the strength of -0.3 r^2/(1 + r^4) rose to its plateau at 1e4 bohr and the matching
+    radius asked for 3e6 nodes at E = 1 hartree (a LimitError); taken out, what is left, 0.3/(r^2 (1 + r^4)),
+    is flat from the origin to r = 1, where it falls. A pure B/r^2 keeps the smallest radius of the grid."""
     r = np.logspace(-12, 7, 1901)
     with np.errstate(all="ignore"):
-        v = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float)
+        v = np.asarray(pot.V(r), dtype=float) + np.asarray(pot.S(r), dtype=float) - b_tail / r**2
     strength = 2 * mass * r**2 * np.abs(np.nan_to_num(v))
     big = strength >= 1.0
     if np.any(big):
         return float(r[np.argmax(big)])
     if np.max(strength) > 1e-12:
+        peak = float(np.max(strength))
+        if strength[0] >= 0.5 * peak:         # flat towards the origin: where it falls
+            return float(r[np.nonzero(strength >= 0.5 * peak)[0][-1]])
         return float(r[np.argmax(strength)])
+    if b_tail:
+        return float(r[0])
     return float(hard_core) if hard_core else 1.0
-
-
-def _inverse_square_ends(term) -> tuple[float, float, float]:
-    """(B0, B_tail, Z_t) of one term: its 1/r^2 coefficients at the origin and far out (hartree bohr^2)
-    and its tail charge.
-
-    Built-in terms declare them, and a user's term (callable, expression) declares B0 from its probe
-    (:class:`boundkit.potentials.base.ProbedTerm`). Its tail is read here: V = -Z_t/r + B/r^2 fitted at
-    1e4 and 1e5 bohr and kept when it also holds at 1e3 bohr (to 1e-6) and |B| > 1e-9 max(1, |Z_t|) (the
-    rounding of a pure Coulomb tail is ~1e-12 |Z_t|). The probe of the term's ends reads V ~ -Z_t/r alone,
-    and took 1/(2 r^2) for a Coulomb tail of charge -5e-6, matched at 1e-8 bohr (an IndexError followed)."""
-    from ..potentials.base import ProbedTerm
-
-    b0 = float(term.origin_inverse_square)
-    if not isinstance(term, ProbedTerm):
-        return b0, float(term.tail_inverse_square), float(term.tail_charge)
-    with np.errstate(all="ignore"):
-        rf = np.array([1e3, 1e4, 1e5])
-        x = rf * np.asarray(term(rf), dtype=float)          # -Z + B / r
-    zt, b_tail = float(term.tail_charge), 0.0
-    if np.all(np.isfinite(x)):
-        B = float((x[1] - x[2]) / (1 / rf[1] - 1 / rf[2]))
-        Z = float(B / rf[2] - x[2])
-        if abs(B) > 1e-9 * max(1.0, abs(Z)) and abs(B / rf[0] - Z - x[0]) <= 1e-6 * max(abs(x[0]), abs(B) / rf[0]):
-            zt, b_tail = (Z if abs(Z) > 1e-9 * max(1.0, abs(B)) else 0.0), B
-    return b0, b_tail, zt
 
 
 def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
@@ -138,13 +123,14 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
     ------
     ValueError
         Confining potential, a scalar Coulomb tail in a relativistic
-        equation, a point charge too strong for the equation, a bad hard core.
+        equation, a point charge too strong for the equation, a 1/r^2 tail too
+        attractive for l (complex order), a bad hard core.
     """
     if pot.confining:
         raise ValueError("potential: it grows without bound far out (confining), so there is no continuum; "
                          "use a potential that tends to 0 or to a Coulomb tail")
-    ends = [_inverse_square_ends(t) for t in pot.vector + pot.scalar]
-    b0, b_tail, zt = (float(sum(e[i] for e in ends)) for i in range(3))
+    # the ends as the terms declare them (a user's callable or expression: read by its probe, ProbedTerm)
+    b0, b_tail, zt = pot.origin_inverse_square, pot.tail_inverse_square, pot.tail_charge
     if eq.name != "schrodinger":
         if any(t.tail_charge != 0.0 for t in pot.scalar):
             raise ValueError("potential: a scalar term with a Coulomb tail has no continuum reference here; "
@@ -153,13 +139,18 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
             raise ValueError(f"potential: it has a 1/r^2 part (B = {b_tail or b0:.6g} hartree bohr^2 "
                              f"{'far out' if b_tail else 'at the origin'}), supported in the Schrodinger equation "
                              "only; use equation='schrodinger' or a potential without it")
+    elif b_tail and (eq.l + 0.5) ** 2 + 2 * eq.mass * b_tail <= 0:
+        raise ValueError(f"potential: its 1/r^2 tail far out, B = {b_tail:g} hartree bohr^2, is too attractive for "
+                         f"l = {eq.l}: with l(l+1) + 2 m B < -1/4 the tail's Coulomb functions have a complex order, "
+                         f"which is not supported here; use B > {-(eq.l + 0.5) ** 2 / (2 * eq.mass):.6g} or a tail "
+                         "that falls faster than 1/r^2")
     if hard_core is not None:        # checked positive by the caller
         if eq.name != "schrodinger":
             eq._refuse_nonrelativistic_terms(pot)
         gamma = float(eq.l + 1)
     else:
         gamma = float(eq.gamma(pot))        # with the 1/r^2 part at the origin, and its fall-to-centre refusal
-    L = _natural_length(eq.mass, pot, hard_core)
+    L = _natural_length(eq.mass, pot, hard_core, b_tail)
     bps = tuple(b for b in pot.breakpoints if b > 0 and (hard_core is None or b > hard_core))
     far = max([L, *bps, hard_core or 0.0])
     r = np.logspace(math.log10(min(L, far) * 1e-3), math.log10(far * _FAR), _RANGE_GRID)
