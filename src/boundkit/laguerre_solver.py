@@ -542,7 +542,7 @@ def solve_laguerre(eq, pot, levels: int, tol: float, sample, gamma: float, r_lo:
         Ek = hk[-1]
         n = principal_n(k, eq.l)
         est = max(abs(hk[-1] - hk[-2]), FLOOR * abs(Ek))
-        est, _ = with_potential_floor(shallow, eq.label(n), Ek, est, float(floors[k]), tol)
+        est, _ = with_potential_floor(shallow, eq.label(n), Ek, est, float(floors[k]), tol, hk)
         worst = max(worst, est / abs(Ek))
         per_level.append({"label": eq.label(n), "sizes": used, "energies": list(hk), "r_min": r_lo,
                           "r_max": r_last})

@@ -1130,7 +1130,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
             v_abs[ri] = np.abs(rk.op.sample.V) + np.abs(rk.op.sample.S)
         V_abs = v_abs[ri]
         est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
-        est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol)
+        est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol, h)
         tally.potential_floor_hit |= hit
         if eq.name == "klein-gordon":
             est = _near_merge(eq, rk.op, E, ratio, state, eq.label(n), est, tol, tally)
