@@ -19,8 +19,9 @@ For the spectral family the solver
    ``tol`` (twice, as for the collocation family) or the rounding floor.
 
 For a short-range potential the number of bound levels is the count at the
-threshold on a far box (r_max = 1e4 natural lengths beyond the well), which
-is the number of nodes of the zero-energy solution there.
+threshold on a far box (r_max = 1e4 natural lengths beyond the well) whose
+outer end is open to the potential-free exterior, which is the number of nodes
+of the zero-energy solution on (0, inf) (:func:`boundkit.solver._far_bound`).
 """
 from __future__ import annotations
 

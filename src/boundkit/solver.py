@@ -37,7 +37,7 @@ import numpy as np
 
 from ._threads import one_blas_thread
 from .discretize import Discretization, get_method
-from .eigen import dense_pencil, refine, shift_invert
+from .eigen import NOISE_ULPS, dense_pencil, refine, shift_invert
 from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
 from .equations.base import decay_steps
 from .equations.dirac import Dirac
@@ -876,6 +876,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         far = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi, lo, floor_start)
         bound, extra["count_box"], lo, floor_start = far.bound, far.box, far.lo, None
         extra["near_merge"] = far.narrow
+        extra["near_threshold"] = far.near
         if far.below:       # dived (Dirac) or merged (Klein-Gordon) states: not bound levels
             extra["no_level_why"] = ("this potential binds no level in this channel: "
                                      + _below_window(eq, far.below))
@@ -1131,6 +1132,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         V_abs = v_abs[ri]
         est = max(abs(h[-1] - h[-2]), FLOOR * abs(E)) if len(h) >= 2 else math.inf
         est, hit = with_potential_floor(tally.notes, eq.label(n), E, est, potential_floor(state, V_abs), tol, h)
+        est = _with_residual_floor(tally, rk.op, eq.label(n), E, est, tol)
         tally.potential_floor_hit |= hit
         if eq.name == "klein-gordon":
             est = _near_merge(eq, rk.op, E, ratio, state, eq.label(n), est, tol, tally)
@@ -1167,6 +1169,26 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                                  f"the mesh there cost up to {cut_worst:.2g} hartree, more than tol and the rungs' estimate")
         return again
     return found, tally, per_level, worst, extra
+
+
+def _with_residual_floor(tally: _Tally, op, label: str, E: float, est: float, tol: float) -> float:
+    """The estimate raised, for a level at which Newton's method stopped on the rounding of its residual
+    (:func:`boundkit.eigen._stalled_at_noise`, recorded in ``op.noise_stalls``), to that rounding:
+    NOISE_ULPS u sum |K_ii| y_i^2 / y^T M y (u = 2^-64; :meth:`SymmetricOperator.energy_noise`). That
+    happens to levels 1e-8 to 1e-10 of their well's depth below the threshold: the 2p and 3d of square
+    wells just deep enough to bind them were up to 0.97 u times that sum off their exact levels, 1.5
+    times the estimate without it (tests/test_shallow_levels.py). It is not a floor for every level:
+    the sum can be 1e4 times the rounding Newton's method meets (thin deep shells, the top levels of a
+    73-level Hulthen well), whose steps shrink below tol first."""
+    noise = op.noise_stalls.get(E, 0.0)
+    if noise <= est:
+        return est
+    if noise > tol * abs(E):
+        tally.potential_floor_hit = True
+        tally.notes.append(f"{label}: the rounding of the equation's terms where it lives ({noise / abs(E):.2g} "
+                           f"relative) lies above tol {tol:g}: a level this close to the threshold is not resolved "
+                           "that far in double precision")
+    return noise
 
 
 def _settled_confirmed(op, located, lo_r: float, dived: int, settled: int, want: int):
@@ -1664,15 +1686,36 @@ class _FarCount(NamedTuple):
     lo: float           # the bottom of the window (a Klein-Gordon channel's particle floor)
     below: int          # states below it: dived (Dirac), or particle levels merged with their antiparticles
     narrow: bool = False    # Klein-Gordon: a particle level close to its merge (the floor's window is narrow)
+    near: _NearThreshold | None = None      # a state of the open box close to the threshold, when there is one
+
+
+class _NearThreshold(NamedTuple):
+    """A state of the open far box within _THRESHOLD_BAND p / R^2 of the threshold (:func:`_near_threshold`)."""
+
+    mu: float           # its eigenvalue of (K(threshold), M): about its energy less the threshold, hartree
+    error: float        # how far mu can be off: the change to twice the degree, rounding, the tail beyond R
+    bound: bool         # counted as bound: mu < -error
+    decided: bool       # |mu| > error: which side of the threshold it lies on is known
+
+
+_THRESHOLD_BAND = 0.1   # the band around the threshold looked at closely, in p / R^2 of the far box (R its radius)
 
 
 def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float,
                lo: float = -math.inf, floor_start: float | None = None) -> _FarCount:
     """Bound levels of a short-range potential in the window (lo, hi), counted on a far box: N(hi) -
-    N(lo). A level bound by less than about 1/(2 m R^2) on a box of radius R is not counted: its
-    zero-energy solution has no node inside the box yet. States below lo are not bound levels: a Dirac
-    level that dived into the lower continuum is still counted by N(hi), and was reported as a bound
-    level that could not be found (status 'partial' for a square well whose only level had dived).
+    N(lo), N(hi) with the outer end open to the potential-free exterior at the threshold
+    (:meth:`~boundkit.equations.variational.SymmetricOperator.open_end_term`), so that the count is
+    the number of nodes of the zero-energy solution on (0, inf): a box closed by f(R) = 0 does not
+    count a level bound by less than about 1/(2 m R^2) (the Hulthen 2s at Z = 1, delta = 0.4999, 5e-9
+    hartree below the threshold, was left out with status 'ok' and 'all 1 bound level(s)'). A state
+    of the open box within _THRESHOLD_BAND p / R^2 of the threshold is looked at closely
+    (:func:`_near_threshold`); when its side of the threshold cannot be told it is not counted, and
+    the result says so (``near``).
+
+    States below lo are not bound levels: a Dirac level that dived into the lower continuum is still
+    counted by N(hi), and was reported as a bound level that could not be found (status 'partial' for a
+    square well whose only level had dived).
     ``floor_start``: a Klein-Gordon channel's particle floor is looked for on this box, from there
     (:func:`boundkit.locator.particle_floor`), and becomes lo. When none is found (a particle level
     merged with its antiparticle partner) after a narrow search (the pair is near its merge), the box at
@@ -1682,7 +1725,8 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
     The box reaches 1e4 natural lengths, and ten times the potential's range (:func:`_potential_range`):
     a long-ranged well (a Yukawa potential screened at 3700 natural lengths) has levels that turn
     round beyond 1e4 L, and a box that cuts them off squeezes them up to the threshold and out of the
-    count (tests/test_level_count.py)."""
+    count (tests/test_level_count.py); with the open end such a box counts them, and the range keeps
+    the potential beyond R negligible for the exterior solution."""
     from .ladder import far_operator
     from .locator import count_below, particle_floor, peak_floor
 
@@ -1701,14 +1745,82 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
         lo, below = floor.energy, floor.count
     else:
         below = count_below(op, lo) if math.isfinite(lo) else 0
-    n_hi = count_below(op, hi)
+    c = op.open_end_term(hi)
+    R = float(op.sample.r[-1])
+    band = _THRESHOLD_BAND * float(eq.p(hi, Sample(op.sample.r[-1:], op.sample.V[-1:], op.sample.S[-1:]))[0]) / R**2
+    n_hi = op.count_negative(hi - band, c)
+    near = None
+    if op.count_negative(hi + band, c) != n_hi:
+        near = _near_threshold(eq, pot, sample, gamma, L, r_min, r_far, hi, op, c, band)
+        n_hi += near.bound
     # more states below the window's bottom than below its top: the count is not monotone there, so none
     # of them is taken as dived. Above a pole-free bottom it is monotone; a Dirac bottom inside the pole (a
     # sampled peak of V - S below the true one, now refined: _pole_free_bottom) counted 1 below and 0 above
     # for the exp-cosine well Z = 1, D = 0.01 bohr, and the negative bound count crashed the locator (a fuzz
     # example). The guard stays for a peak narrower than the sampling.
     below = min(below, n_hi)
-    return _FarCount(n_hi - below, float(r_far), lo, below, narrow)
+    return _FarCount(n_hi - below, float(r_far), lo, below, narrow, near)
+
+
+def _near_threshold(eq, pot, sample, gamma: float, L: float, r_min: float, r_far: float, hi: float, op, c: float,
+                    band: float) -> _NearThreshold:
+    """The level of the open far box within ``band`` of the threshold hi, on the box at degree 18 and
+    at 36 (:func:`_open_level`); mu is its energy less hi. Its error is the change between the two,
+    plus a count's rounding there, plus the potential beyond R, which the open end leaves out:
+    int_R^inf |V + S| dr / R (for an s state, whose zero-energy solution is about constant out there,
+    the shift of its energy; less for l > 0). Done only when two counts found such a level (at most
+    one, near a threshold): up to a few hundred counts and two dense LU factorizations."""
+    from .ladder import far_operator
+
+    mu18, noise18 = _open_level(op, c, hi, band)
+    fine = far_operator(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi, degree=36)
+    mu, noise = _open_level(fine, fine.open_end_term(hi), hi, band)
+    R = float(fine.sample.r[-1])
+    r = np.geomspace(R, 1e6 * R, 2001)
+    s = _sample(pot, r, scan=True)
+    tail = float(np.trapezoid(np.abs(s.V + s.S), r)) / R
+    error = abs(mu - mu18) + max(noise, noise18) + tail
+    return _NearThreshold(mu, error, mu < -error, abs(mu) > error)
+
+
+def _open_level(op, c: float, hi: float, band: float) -> tuple[float, float]:
+    """(E - hi, the rounding of a count there) for the level E of the open box (``c``: its end term)
+    in (hi - band, hi + band), by counting: halving the distance to hi until the count no longer sees
+    the level (at most 200 times), then ten bisections (E to 0.1 %). The rounding is NOISE_ULPS u
+    sum |K_ii| y_i^2 / y^T M y (u = 2^-53; :meth:`SymmetricOperator.energy_noise`) for the level's
+    vector y, from two steps of inverse iteration with K(E) (dense, rows and columns scaled to a unit
+    diagonal). A dense generalized eigen-solve does not do: its eigenvalues near 0 were off by 1e-7
+    hartree (M spans many decades over the box), where counts agree to 1e-12."""
+    import scipy.linalg as sla
+
+    n0 = op.count_negative(hi - band, c)
+    side = -1.0 if op.count_negative(hi, c) > n0 else 1.0      # below the threshold, or above it
+    a, b = 0.0, band        # distances from hi: the level lies between them, on its side
+    for _ in range(200):
+        mid = 0.5 * b
+        if mid == 0.0 or (op.count_negative(hi + side * mid, c) > n0) != (side > 0):
+            break
+        b = mid
+    else:
+        mid = 0.0
+    a = mid
+    for _ in range(10):
+        mid = 0.5 * (a + b)
+        if (op.count_negative(hi + side * mid, c) > n0) == (side > 0):
+            b = mid
+        else:
+            a = mid
+    E = hi + side * 0.5 * (a + b)
+    K, M = op.open_pencil(E, c)
+    d = 1.0 / np.sqrt(np.maximum(np.abs(np.diag(K)), 1e-300))
+    lu = sla.lu_factor(K * d[:, None] * d, check_finite=False)
+    y = np.ones(op.n)
+    for _ in range(2):
+        y = sla.lu_solve(lu, d * (M @ (d * y)), check_finite=False)
+        y /= np.max(np.abs(y))
+    y = d * y
+    noise = NOISE_ULPS * 2.0**-53 * float(np.sum(np.abs(np.diag(K)) * y * y) / (y @ M @ y))
+    return E - hi, noise
 
 
 def laguerre_scale(eq, pot, gamma: float) -> tuple[float, float, float]:
@@ -1755,7 +1867,8 @@ def _solve_laguerre(eq, pot, levels, tol):
     found, notes, per_level, worst, extra = out
     extra["bound_count"] = bound
     if counted is not None:
-        extra["count_box"] = counted[1]
+        extra["count_box"] = counted.box
+        extra["near_threshold"] = counted.near
     extra["L"] = L
     tally = _Tally(notes=notes, potential_floor_hit=extra.pop("potential_floor_hit", False))
     return found, tally, per_level, worst, extra
@@ -1771,6 +1884,15 @@ _MERGE_WHY = ("a Klein-Gordon level this close to merging with an antiparticle l
               "be told apart that finely in double precision")
 
 
+def _undecided_why(near: _NearThreshold, extra: dict, eu: str, lu: str) -> str:
+    """Why a state at the threshold is neither reported nor ruled out (:func:`_near_threshold`)."""
+    R = extra["count_box"]
+    return (f"one more state lies at the threshold: on the counting box (R = {bohr_to(R, lu):.3g} {lu}, open to "
+            f"the exterior) its energy is {hartree_to(near.mu, eu):+.2g} {eu} from it, within that value's error "
+            f"{hartree_to(near.error, eu):.2g} {eu}, and double precision cannot decide whether it is a level bound "
+            "by about that much or less, or no level (a zero-energy or virtual state)")
+
+
 def _estimate_why(tally: _Tally) -> str | None:
     """Why an estimate lies above tol when a floor of its own put it there (a table's interpolation, the
     rounding of a shallow level's potential energy, a Klein-Gordon level near its merge), else None."""
@@ -1778,20 +1900,13 @@ def _estimate_why(tally: _Tally) -> str | None:
             else _MERGE_WHY if tally.merge_hit else None)
 
 
-def _rounding_floor_of_energies(eq, L: float | None) -> float:
-    """The rounding floor (``ladder.FLOOR``, relative) of energies on the scale of a well whose natural
-    length is ``L``: FLOOR / (2 m L^2), |V + S| at L. A binding below it lies below the last digit those
-    energies carry; 0 when L is not known."""
-    from .ladder import FLOOR
-
-    return FLOOR / (2 * eq.mass * L * L) if L else 0.0
-
-
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
             t0) -> SolveResult:
     found.sort(key=lambda lv: lv.energy)
     bound = extra.get("bound_count")
     wanted = levels if levels is not None else bound
+    near = extra.get("near_threshold")
+    eu, lu = system_units((settings or {}).get("units", "atomic"))
     if bound is not None and (levels is None or levels > bound) and len(found) == bound:
         status = "ok" if worst <= tol else "tolerance-not-met"
         what = (extra.get("no_level_why", "this potential binds no level in this channel (the count of levels "
@@ -1799,20 +1914,18 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
                 if bound == 0 else f"all {bound} bound level(s) of this channel")
         if levels is not None and levels > bound:
             what += f" ({levels} requested)"
-        if "count_box" in extra:
-            R, missed = extra["count_box"], 1 / (2 * eq.mass * extra["count_box"] ** 2)
-            eu, lu = system_units((settings or {}).get("units", "atomic"))
-            # said only where that binding is not below the last digit of energies on the well's scale
-            # (a repulsive Coulomb tail's counting box reaches 1e13 L: "less than about 7e-27 MeV")
-            if missed >= _rounding_floor_of_energies(eq, extra.get("L")):
-                what += (f"; a level bound by less than about {hartree_to(missed, eu):.1g} {eu} "
-                         f"(1/(2 m R^2) on the counting box, R = {bohr_to(R, lu):.3g} {lu}) is not counted")
         message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
         if status != "ok":
             message = f"{what}; worst estimated relative error {worst:.2g} exceeds tol = {tol:g}"
             why = _estimate_why(tally)
             if why:
                 message += f": {why}"
+        if near is not None and not near.decided:
+            status = "partial"
+            message = ((f"found the {bound} level(s) that are surely bound" if bound else "no level is surely bound")
+                       + (f" ({levels} requested)" if levels is not None and levels > bound else "") + "; "
+                       + _undecided_why(near, extra, eu, lu)
+                       + (f"; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})" if bound else ""))
     elif wanted is not None and len(found) < wanted:
         status = "partial"
         message = (f"found {len(found)} of {wanted} requested bound levels: "
@@ -1831,6 +1944,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
         "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound,
         "threshold_hartree": extra.get("threshold", 0.0), "count_box_bohr": extra.get("count_box"),
+        "threshold_state_hartree": None if near is None else [near.mu, near.error],
         "certified_by_count": extra.get("certified"),
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "reseeded_guesses": tally.reseeded, "bisected_levels": tally.bisected,
