@@ -147,17 +147,20 @@ def with_potential_floor(notes: list, label: str, E: float, est: float, floor: f
     larger of those two changes (a sample of that scatter) raises the floor: the top s level of a square
     well 1e4 times deeper than its binding was 7.3e-15 <|V|> off, 1.2 times the floor, after changes of
     3.9e-14 and 2.7e-15 hartree (tests/test_steps.py). A change before it far above the floor is the
-    ladder still converging, not scatter, and is left out."""
+    ladder still converging, not scatter, and is left out. The scatter raises the estimate only: whether
+    the potential energy's rounding is the reason it lies above tol is told by the floor itself (near a
+    Klein-Gordon merge the rungs scatter for another reason, which the caller names)."""
+    raised = floor
     if floor > est and len(recent) >= 3:
         before = abs(recent[-2] - recent[-3])
         if before <= _SCATTER * floor:
-            floor = max(floor, before)
+            raised = max(floor, before)
     hit = floor > est and floor > tol * abs(E)
     if hit:
         notes.append(f"{label}: the rounding of its potential energy ({floor / abs(E):.2g} relative) lies "
                      f"above tol {tol:g}: a level this shallow in this well is not resolved that far in "
                      "double precision")
-    return max(est, floor), hit
+    return max(est, raised), hit
 
 
 def spectral_done(h: list[float], tol: float) -> bool:
