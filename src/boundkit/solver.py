@@ -1896,8 +1896,10 @@ def _undecided_why(near: _NearThreshold, extra: dict, eu: str, lu: str) -> str:
 def _estimate_why(tally: _Tally) -> str | None:
     """Why an estimate lies above tol when a floor of its own put it there (a table's interpolation, the
     rounding of a shallow level's potential energy, a Klein-Gordon level near its merge), else None."""
-    return (_TABLE_WHY if tally.table_hit else _POTENTIAL_FLOOR_WHY if tally.potential_floor_hit
-            else _MERGE_WHY if tally.merge_hit else None)
+    # a merge's floor is set only when it lies above the estimate with the potential's floor in it: it is
+    # then the larger of the two, and the reason (a Klein-Gordon 1s 1e-13 from its merge had both above tol)
+    return (_TABLE_WHY if tally.table_hit else _MERGE_WHY if tally.merge_hit
+            else _POTENTIAL_FLOOR_WHY if tally.potential_floor_hit else None)
 
 
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
