@@ -64,6 +64,7 @@ _FINITE_INNER = 1e-5   # inner cut for potentials finite at the origin: f = 1 + 
 _DEPTH_INNER = 1e-4    # ... and at most this many depth lengths of the core (see _depth_length)
 _CUT_RETRY = 1e-2      # the inner end moves in by this when cutting there costs more than tol (_cut_error)
 _FD_SAFETY = 1.25      # factor of safety on the finite differences' Richardson estimate (see _estimate)
+_HIGH_L = 15           # from this l a singular mass matrix is the weight's range, refused by name (solve_channel)
 _UNSTABLE = 1e-3       # a level whose energy still moves this much between sizes is not reported
 
 
@@ -750,7 +751,20 @@ def _inner_end(eq, pot, gamma: float, L: float, levels: int, hi: float) -> float
     r_min = cut * L
     if finite_origin:
         r_min = min(r_min, _DEPTH_INNER * _depth_length(eq, pot, r_min))
-    return max(r_min, _inner_wkb(eq, pot, E_top, L))
+    return max(r_min, _inner_wkb(eq, pot, E_top, L), _weight_floor(gamma, L * (eq.l + 1) ** 2, r_min))
+
+
+def _weight_floor(gamma: float, r_core: float, r_min: float) -> float:
+    """The inner end where the elements' weight w^2 = (r / (r + r_core))^(2 gamma) is 1e-250, when at
+    ``r_min`` it would be below 1e-280 (else 0). At high l (an oscillator or a linear well at l = 20, a
+    Woods-Saxon well at l = 30, a pion's l = 25 level in a lead nucleus) w^2 underflowed at the inner end,
+    the mass matrix was singular, and the solve ended in LAPACK's 'leading minor of order 1 of B is not
+    positive definite' (a tester). r_core = L (l + 1)^2 is a Coulomb level's inner turning point and lies
+    far beyond an oscillator's (676 against 5 at l = 25), so the end moves only as far as the weight
+    needs, not to where it is merely negligible."""
+    if 2 * gamma * math.log10(r_min / (r_min + r_core)) >= -280:
+        return 0.0
+    return r_core * 10.0 ** (-125.0 / gamma)
 
 
 def _finite_origin(pot) -> bool:
@@ -1518,7 +1532,16 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
     """
     with one_blas_thread():
         pot, v_inf = _with_threshold(eq, pot)
-        res = _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
+        try:
+            res = _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
+        except np.linalg.LinAlgError as exc:
+            if eq.l < _HIGH_L:
+                raise
+            raise ValueError(
+                f"l: at l = {eq.l} the spectral elements' mass matrix is singular to double precision (their "
+                f"weight (r / (r + r_core))^(2 l + 2) spans more than double precision near the origin; LAPACK: "
+                f"{str(exc).split('.')[0]}); lower l solve (up to about 30 for an oscillator or a linear well, "
+                "100 for a Coulomb potential in the relativistic equations)") from None
         if v_inf:
             res = _shift_result(res, v_inf)
         return res
