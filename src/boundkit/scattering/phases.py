@@ -452,10 +452,10 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     n_bound : int, optional
         Number of bound levels of the channel to compare with (e.g. exact).
     count_bound : bool
-        Count the bound levels with :func:`boundkit.solve` instead. Its count misses a
-        level bound by less than about 1/(2 m R^2) on its counting box of radius R; when
-        the phase counts more than it, the status is ``count-short`` and the phase's
-        count is the one trusted.
+        Count the bound levels with :func:`boundkit.solve` instead. Its count leaves out a
+        state within rounding of the threshold whose side it cannot decide (status
+        ``partial``, ``diagnostics['threshold_state_hartree']``); when the phase counts more
+        than it then, the status is ``count-short`` and the phase's count is the one trusted.
     points : int
         Energies on the logarithmic grid (refined where delta moves fast).
     tol : float
@@ -517,14 +517,14 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     count = round(d_lo / math.pi)
     residual = abs(d_lo / math.pi - count)
     count_unw = round(unwrapped[0] / math.pi)
-    box = None
+    near = None
     if count_bound:
         from ..solver import solve
 
         found = solve("schrodinger", ch.pot, l=eq.l, levels=count + 1, particle=particle, mass_mev=mass_mev,
                       nucleus_mass_mev=nucleus_mass_mev)
         n_bound = len(found.levels)
-        box = found.diagnostics.get("count_box_bohr")
+        near = found.diagnostics.get("threshold_state_hartree")
     agrees = None if n_bound is None else (count == count_unw == n_bound)
     if residual > 0.25:
         status, msg = "threshold-state", (f"delta(E_min)/pi = {d_lo / math.pi:.4f} is far from an integer: a "
@@ -532,15 +532,15 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     elif count != count_unw or max_step > 1.0:
         status, msg = "grid-too-coarse", (f"the absolute phase gives {count} but following delta along the grid "
                                           f"gives {count_unw} (largest step {max_step:.2g} rad)")
-    elif agrees is False and box and count > n_bound:
-        # the solver's count misses a level bound by less than ~1/(2 m R^2) on its box, while the phase at
-        # k R ~ 1e-3 still sees it: Hulthen Z = 1, delta = 0.4999 has a level at -5e-9 hartree
-        eu, lu = system_units(units)
+    elif agrees is False and near is not None and count > n_bound:
+        # solve left out a state at the threshold whose side double precision could not decide, while the
+        # phase at k R ~ 1e-3 counts it as bound
+        eu, _ = system_units(units)
         status, msg = "count-short", (
-            f"delta(0) - delta(inf) = {count} pi, but solve counted {n_bound} bound level(s); its count misses a level "
-            f"bound by less than about {hartree_to(1 / (2 * eq.mass * box * box), eu):.1g} {eu} (1/(2 m R^2) on its "
-            f"counting box, R = {bohr_to(box, lu):.3g} {lu}), so the phase's count of {count} is the one trusted: "
-            "a level that shallow is likely (give n_bound to check against a known count)")
+            f"delta(0) - delta(inf) = {count} pi, but solve found {n_bound} surely bound level(s) and left out a "
+            f"state at the threshold ({hartree_to(near[0], eu):+.2g} {eu} from it, within {hartree_to(near[1], eu):.2g} "
+            f"{eu}) whose side it could not decide; the phase's count of {count} is the one trusted (give n_bound "
+            "to check against a known count)")
     elif agrees is False:
         status, msg = "disagrees", f"delta(0) - delta(inf) = {count} pi but the channel has {n_bound} bound level(s)"
     else:
