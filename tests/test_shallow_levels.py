@@ -157,3 +157,15 @@ def test_a_state_at_the_threshold_is_named_not_counted_silently(case):
         one = boundkit.solve("schrodinger", *args, l=0, levels=1, tol=1e-10)
         assert one.status == "ok", one.message
         _assert_within_estimates(one, surely)
+
+
+def test_an_undecided_threshold_state_keeps_the_tolerance_verdict():
+    """A review: with a state at the threshold undecided, the message was rebuilt and always said 'estimated
+    relative error <= ...', also when that error exceeded tol. Hulthen Z = 1, delta = 0.5: the 2s lies exactly
+    at the threshold (E_2 = -(1/2 - 2 delta/2)^2 / 2 = 0; the closed form above); tol 1e-15 lies below every
+    level's rounding floor."""
+    res = boundkit.solve("schrodinger", "hulthen", {"Z": 1.0, "delta": 0.5}, l=0, levels="all", tol=1e-15)
+    assert res.status == "partial", res.message
+    assert re.search(r"found the 1 level\(s\) that are surely bound; one more state lies at the threshold", res.message)
+    assert re.search(r"worst estimated relative error \S+ exceeds tol = 1e-15", res.message), res.message
+    assert "<=" not in res.message

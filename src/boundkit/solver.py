@@ -1934,23 +1934,26 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
     eu, lu = system_units((settings or {}).get("units", "atomic"))
     if bound is not None and (levels is None or levels > bound) and len(found) == bound:
         status = "ok" if worst <= tol else "tolerance-not-met"
-        what = (extra.get("no_level_why", "this potential binds no level in this channel (the count of levels "
-                                           "below the threshold is 0)")
-                if bound == 0 else f"all {bound} bound level(s) of this channel")
+        undecided = near is not None and not near.decided
+        if undecided:       # a state at the threshold neither reported nor ruled out
+            status = "partial"
+            what = f"found the {bound} level(s) that are surely bound" if bound else "no level is surely bound"
+        else:
+            what = (extra.get("no_level_why", "this potential binds no level in this channel (the count of levels "
+                                               "below the threshold is 0)")
+                    if bound == 0 else f"all {bound} bound level(s) of this channel")
         if levels is not None and levels > bound:
             what += f" ({levels} requested)"
-        message = f"{what}; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
-        if status != "ok":
+        if undecided:
+            what += "; " + _undecided_why(near, extra, eu, lu)
+        if worst <= tol:
+            message = what + (f"; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
+                              if bound or not undecided else "")
+        else:
             message = f"{what}; worst estimated relative error {worst:.2g} exceeds tol = {tol:g}"
             why = _estimate_why(tally)
             if why:
                 message += f": {why}"
-        if near is not None and not near.decided:
-            status = "partial"
-            message = ((f"found the {bound} level(s) that are surely bound" if bound else "no level is surely bound")
-                       + (f" ({levels} requested)" if levels is not None and levels > bound else "") + "; "
-                       + _undecided_why(near, extra, eu, lu)
-                       + (f"; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})" if bound else ""))
     elif wanted is not None and len(found) < wanted:
         status = "partial"
         message = (f"found {len(found)} of {wanted} requested bound levels: "
