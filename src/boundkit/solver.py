@@ -255,6 +255,7 @@ class _Tally:
     floor_hit: bool = False
     potential_floor_hit: bool = False   # a level's estimate is the rounding of its potential energy, above tol
     merge_hit: bool = False             # a Klein-Gordon level near a merge: its rounding lies above tol
+    residual_hit: bool = False          # a level at its residual's rounding (near the threshold) above tol
     table_hit: bool = False             # a table's interpolation error puts a level's estimate above tol
     notes: list = field(default_factory=list)
 
@@ -1198,7 +1199,7 @@ def _with_residual_floor(tally: _Tally, op, label: str, E: float, est: float, to
     if noise <= est:
         return est
     if noise > tol * abs(E):
-        tally.potential_floor_hit = True
+        tally.residual_hit = True
         tally.notes.append(f"{label}: the rounding of the equation's terms where it lives ({noise / abs(E):.2g} "
                            f"relative) lies above tol {tol:g}: a level this close to the threshold is not resolved "
                            "that far in double precision")
@@ -1535,7 +1536,8 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
         try:
             res = _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
         except np.linalg.LinAlgError as exc:
-            if eq.l < _HIGH_L:
+            # only the mass matrix B of a generalized eigenproblem failing its Cholesky factorization
+            if eq.l < _HIGH_L or "of B is not positive definite" not in str(exc):
                 raise
             raise ValueError(
                 f"l: at l = {eq.l} the spectral elements' mass matrix is singular to double precision (their "
@@ -1795,14 +1797,19 @@ def _near_threshold(eq, pot, sample, gamma: float, L: float, r_min: float, r_far
     one, near a threshold): up to a few hundred counts and two dense LU factorizations."""
     from .ladder import far_operator
 
-    mu18, noise18 = _open_level(op, c, hi, band)
-    fine = far_operator(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi, degree=36)
-    mu, noise = _open_level(fine, fine.open_end_term(hi), hi, band)
+    # the box counted on is at degree 36 already where a Klein-Gordon pair near its merge moved it there
+    # (_far_bound): the other box is then at 18, so that the change between the two is one
+    finer = op.grid.degree >= 36
+    other = far_operator(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi, degree=18 if finer else 36)
+    mu_op, noise_op = _open_level(op, c, hi, band)
+    mu_other, noise_other = _open_level(other, other.open_end_term(hi), hi, band)
+    fine = op if finer else other
+    mu = mu_op if finer else mu_other
     R = float(fine.sample.r[-1])
     r = np.geomspace(R, 1e6 * R, 2001)
     s = _sample(pot, r, scan=True)
     tail = float(np.trapezoid(np.abs(s.V + s.S), r)) / R
-    error = abs(mu - mu18) + max(noise, noise18) + tail
+    error = abs(mu_op - mu_other) + max(noise_op, noise_other) + tail
     return _NearThreshold(mu, error, mu < -error, abs(mu) > error)
 
 
@@ -1902,6 +1909,8 @@ _TABLE_WHY = ("the table's interpolation error lies above it (see diagnostics no
 _POTENTIAL_FLOOR_WHY = ("a level far shallower than its well carries the rounding of its potential energy, "
                         "which lies above it (see diagnostics notes)")
 
+_RESIDUAL_WHY = ("a level this close to the threshold carries the rounding of its equation's terms where it lives, "
+                 "which lies above it (see diagnostics notes)")
 _MERGE_WHY = ("a Klein-Gordon level this close to merging with an antiparticle level (their energies turn complex) "
               "moves with the rounding of its equation by more than that (see diagnostics notes); the two cannot "
               "be told apart that finely in double precision")
@@ -1922,6 +1931,7 @@ def _estimate_why(tally: _Tally) -> str | None:
     # a merge's floor is set only when it lies above the estimate with the potential's floor in it: it is
     # then the larger of the two, and the reason (a Klein-Gordon 1s 1e-13 from its merge had both above tol)
     return (_TABLE_WHY if tally.table_hit else _MERGE_WHY if tally.merge_hit
+            else _RESIDUAL_WHY if tally.residual_hit
             else _POTENTIAL_FLOOR_WHY if tally.potential_floor_hit else None)
 
 
