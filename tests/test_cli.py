@@ -169,3 +169,19 @@ def test_a_plot_path_under_a_file_and_a_name_without_suffix(tmp_path, monkeypatc
     res = run("solve", "--plot", "fig")
     assert res.exit_code == 0, res.output
     assert "figure: fig.png" in res.output and (tmp_path / "fig.png").exists()
+
+
+@pytest.mark.parametrize("args, message", [
+    (("solve", "--l", "-1"), r"invalid value for '--l': l: must be >= 0, got -1; see boundkit solve --help"),
+    (("scan", "--vary", "Z=1:2:2", "--l", "0", "--l", "-2"),
+     r"invalid value for '--l': l: must be >= 0, got -2; see boundkit scan --help"),
+    (("solve", "-e", "dirac", "--kappa", "0"),
+     r"invalid value for '--kappa': kappa: must be a non-zero integer \(kappa = -1 is s1/2, \+1 is p1/2, -2 is "
+     r"p3/2, \.\.\.\); see boundkit solve --help"),
+])
+def test_a_bad_channel_number_is_a_usage_error_with_the_help_tail(args, message):
+    """--l -1 ended 'l: must be >= 0, got -1' without the '; see boundkit solve --help' that --levels 0 and
+    other bad option values get: the channel numbers are checked where click reads them."""
+    res = run(*args)
+    assert res.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: " + message + "\n", res.output), res.output

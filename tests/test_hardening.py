@@ -23,6 +23,7 @@ from click.testing import CliRunner
 
 import boundkit
 from boundkit.cli import main
+from boundkit.potentials.expression import ExpressionTerm
 
 HYDROGEN = """\
 title = "Hydrogen, Schrodinger"
@@ -925,6 +926,20 @@ def test_a_constant_potential_is_named_as_such(expr):
         boundkit.solve("schrodinger", lambda r: 2.0 + 0.0 * r)
     with pytest.raises(ValueError, match=r"too weak to bind anything"):      # a zero potential keeps its message
         boundkit.solve("schrodinger", lambda r: 0.0 * r)
+
+
+@pytest.mark.parametrize("expr, l, B", [("-0.1/r**2", 0, "-0.1"), ("0.3/r**2", 0, "0.3"), ("-0.1/r**2", 2, "-0.1")])
+def test_a_pure_inverse_square_potential_is_named_as_such(expr, l, B):
+    """V = -0.1/r^2 was 'too weak to bind anything ... 2 m r^2 |V| stays below 1e-3', which is false
+    (2 m r^2 |V| = 0.2 at every radius). B/r^2 alone has no length scale: with 2 m B > -(l + 1/2)^2 it binds
+    no level, and below that the particle falls to the centre (scale invariance; common practice). Like a
+    constant V (above), a potential with no length of its own is refused, with what it is and what to do."""
+    message = (rf"potential: B/r\^2 alone \(B = {B} hartree bohr\^2; the rest is weak: 2 m r\^2 \|V - B/r\^2\| < "
+               r"1e-3\) has no length scale and binds no level unless it makes the particle fall to the centre "
+               r"\(2 m B < -\(l \+ 1/2\)\^2, refused\); add a well to bind a level$")
+    one_line_error(cli("solve", "--expr", expr, "--l", str(l)), message)
+    with pytest.raises(ValueError, match=message):
+        boundkit.solve("schrodinger", ExpressionTerm(expr), l=l)
 
 
 def test_an_unwritable_states_path_is_refused_before_solving(tmp_path):

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import json
 import logging
+import re
 
 import pytest
 from click.testing import CliRunner
@@ -131,9 +132,9 @@ def test_compare_with_its_relativistic_channels_refused_says_it_in_one_short_lin
     assert "-20000" in res.stdout                       # the Schrodinger levels are still there
     lines = res.stderr.strip().splitlines()
     assert len(lines) == 1 and len(lines[0]) < 300, res.stderr
-    assert lines[0].startswith("boundkit: not every channel was solved: klein-gordon l=0 error: Z: for the "
+    assert lines[0].startswith("boundkit: not every channel was solved: klein-gordon l=0: error (Z: for the "
                                "Klein-Gordon equation a point Coulomb charge needs Z alpha < l + 1/2"), lines[0]
-    assert lines[0].endswith("; 2 more: dirac kappa=-1 error, dirac kappa=1 error"), lines[0]
+    assert lines[0].endswith("; dirac kappa=-1: error; dirac kappa=1: error"), lines[0]   # their reasons: --json
     assert not [r.getMessage() for r in caplog.records if r.levelno >= logging.WARNING]   # no second line
 
 
@@ -212,3 +213,35 @@ def test_scan_pairs_each_j_with_its_l_for_a_spin_orbit_term():
     bad = run("scan", *ws, "--vary", "spin_orbit=20", "--l", "1", "--j", "1.5", "--l", "1")
     assert bad.exit_code == 2 and "Traceback" not in bad.output
     assert bad.stderr.strip() == "boundkit: error: --j: give one --j per --l, in the same order (got 1 --j for 2 --l)"
+
+
+def test_compare_names_a_shared_refusal_once_on_short_lines():
+    """compare -p linear: every relativistic channel refuses the confining vector potential (Klein's
+    paradox); the status line repeated the reason per channel (2423 characters at --l-max 2) and the
+    stderr line cut it off. Both are one line under 300 characters, the reason given once; --json keeps
+    each channel's message."""
+    res = CliRunner().invoke(main, ["compare", "-p", "linear", "--param", "F=1", "--l-max", "6", "-n", "1"])
+    assert res.exit_code == 3, res.output
+    status = [x for x in res.stdout.splitlines() if x.startswith("status:")]
+    assert len(status) == 1 and len(status[0]) < 300, status
+    assert re.match(r"status: klein-gordon l=0\.\.6, dirac kappa=-7\.\.6: error \(potential: the vector part",
+                    status[0]), status
+    assert status[0].count("Klein's paradox") == 1
+    err = res.stderr.splitlines()
+    assert len(err) == 1 and len(err[0]) < 300, err
+    assert re.match(r"boundkit: not every channel was solved: klein-gordon l=0\.\.6, dirac kappa=-7\.\.6: error "
+                    r"\(potential: ", err[0]), err
+    data = json.loads(CliRunner().invoke(main, ["compare", "-p", "linear", "--param", "F=1", "--l-max", "1",
+                                                "-n", "1", "--json"]).stdout)
+    assert all("Klein's paradox" in data["messages"][k] for k in ("klein-gordon l=1", "dirac kappa=1"))
+
+
+def test_scan_stderr_line_stays_under_300_characters():
+    """scan printed the first bad row's whole message on stderr (368 characters for a Klein-Gordon channel
+    of a linear potential)."""
+    res = CliRunner().invoke(main, ["scan", "-e", "klein-gordon", "-p", "linear", "--vary", "F=1:2:2", "-n", "1"])
+    assert res.exit_code == 3, res.output
+    err = res.stderr.splitlines()
+    assert len(err) == 1 and len(err[0]) < 300, err
+    assert re.match(r"boundkit: 2 row\(s\) with status error, tolerance-not-met or missing; first: 1s \(error: "
+                    r"potential: the vector part", err[0]), err

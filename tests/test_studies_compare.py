@@ -1,6 +1,8 @@
 """Schrodinger, Klein-Gordon and Dirac levels side by side."""
 from __future__ import annotations
 
+import re
+
 import pytest
 
 from boundkit.exact import dirac_coulomb, klein_gordon_coulomb, schrodinger_coulomb
@@ -115,3 +117,20 @@ def test_a_spin_orbit_term_is_refused_with_what_to_do():
         compare("woods-saxon", ws, units="nuclear", particle="neutron")
     res = compare("woods-saxon", {**ws, "spin_orbit": 0}, units="nuclear", particle="neutron", l_max=0, levels=1)
     assert res.success
+
+
+def test_a_reason_many_channels_share_is_given_once():
+    """A linear confining vector potential: every Klein-Gordon and Dirac channel is refused with the same
+    Klein's-paradox reason (the equation's name apart). The status repeated it for each channel (2415
+    characters for l_max = 2, tens of kilobytes for l_max = 25); it groups the channels and gives the
+    reason once, on one line under 300 characters, and the messages keep every channel's own text."""
+    res = compare("linear", {"F": 1.0}, l_max=2, levels=1)
+    text = res.problems()
+    assert len(text) < 300 and "\n" not in text, text
+    assert text.count("Klein's paradox") == 1, text
+    assert re.match(r"klein-gordon l=0\.\.2, dirac kappa=-3\.\.2: error \(potential: the vector part outgrows",
+                    text), text
+    assert "the Klein-Gordon/Dirac equation binds nothing" in text
+    assert sum("Klein's paradox" in m for m in res.messages.values()) == 8
+    assert "the Dirac equation binds nothing" in res.messages["dirac kappa=2"]
+    assert all(res.statuses[f"schrodinger l={l}"] == "ok" for l in range(3))

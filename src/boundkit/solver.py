@@ -215,6 +215,12 @@ def _natural_length(eq: RadialEquation, pot: Potential) -> float:
                              "where V + S binds them, and V - S enters only at order (V - S)/(2 m c^2), too weak "
                              "to bind at |V - S| << m c^2; check the scalar's sign (S = V is the spin-symmetric "
                              "case)")
+    B = getattr(pot, "origin_inverse_square", 0.0)
+    if B:   # the strength leaves B/r^2 out; alone it has no length (scale invariance), and 2 m B < -(l+1/2)^2 is
+        # refused by eq.gamma before this (the fall to the centre)
+        raise ValueError(f"potential: B/r^2 alone (B = {B:.6g} hartree bohr^2; the rest is weak: 2 m r^2 |V - B/r^2| < "
+                         "1e-3) has no length scale and binds no level unless it makes the particle fall to the "
+                         "centre (2 m B < -(l + 1/2)^2, refused); add a well to bind a level")
     raise ValueError("potential: too weak to bind anything on any length scale from 1e-14 to 1e8 bohr "
                      "(2 m r^2 |V| stays below 1e-3; V = 0 everywhere binds nothing); check the parameters or the "
                      "table's values")

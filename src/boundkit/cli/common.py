@@ -19,7 +19,7 @@ from .._checks import shorten
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
            "check_output_path", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "levels_arg",
-           "level_count", "parse_params", "report_unit", "report_length", "api_message"]
+           "level_count", "channel_number", "parse_params", "report_unit", "report_length", "api_message"]
 
 EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
@@ -192,6 +192,21 @@ def levels_arg(text: str, max_levels: int | None = None):
     if n < 1:
         raise click.BadParameter(f"levels: must be >= 1 (or 'all'), got {n}", param_hint="'--levels'")
     return level_count(n, max_levels)
+
+
+def channel_number(ctx, param, value):
+    """Callback of ``--l`` and ``--kappa`` (one value or repeated): the API's check as click reads the option, so
+    that a bad channel number is a usage error (``; see boundkit CMD --help``) like any bad option value."""
+    from .._checks import check_int
+    from ..equations.dirac import kappa_to_lj
+
+    for v in value if isinstance(value, tuple) else (value,):
+        try:
+            if v is not None:
+                kappa_to_lj(v) if param.name.startswith("kappa") else check_int("l", v, minimum=0)
+        except ValueError as exc:
+            raise click.BadParameter(str(exc), param_hint=f"'{param.opts[0]}'") from None
+    return value
 
 
 def level_count(n: int, max_levels: int | None = None) -> int:

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import click
 
-from .common import parse_params
+from .common import channel_number, parse_params
 
 __all__ = ["potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
            "levels_option", "tol_option", "method_option", "order_option", "particle_options", "energy_unit_option",
@@ -47,16 +47,16 @@ def equation_option(multiple: bool = False):
 def channel_options(j: bool = True, multiple: bool = False):
     """``--l``, ``--kappa`` (and ``--j``): the channel, as the API's l=, kappa=, j=."""
     if multiple:
-        opts = [click.option("--l", "ls", type=int, multiple=True,
+        opts = [click.option("--l", "ls", type=int, multiple=True, callback=channel_number,
                              help="Orbital l of a channel (Schrodinger, Klein-Gordon; repeatable; default 0)."),
-                click.option("--kappa", "kappas", type=int, multiple=True,
+                click.option("--kappa", "kappas", type=int, multiple=True, callback=channel_number,
                              help="Dirac kappa of a channel (repeatable; default -1): -1 = s1/2, 1 = p1/2, "
                                   "-2 = p3/2, ...; needs -e dirac (another equation of the same scan takes the l "
                                   "of that kappa).")]
     else:
-        opts = [click.option("--l", "l", type=int, default=None,
+        opts = [click.option("--l", "l", type=int, default=None, callback=channel_number,
                              help="Orbital l (Schrodinger, Klein-Gordon; default 0)."),
-                click.option("--kappa", type=int, default=None,
+                click.option("--kappa", type=int, default=None, callback=channel_number,
                              help="Dirac kappa (default -1): -1 = s1/2, 1 = p1/2, -2 = p3/2, ...")]
     if j and multiple:
         opts.append(click.option("--j", "js", type=float, multiple=True,

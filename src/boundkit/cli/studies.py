@@ -10,7 +10,7 @@ import sys
 import click
 
 from .._checks import MAX_L
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_particle, check_plot_path, check_tol,
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_particle, check_plot_path, check_tol,
                      clip_message, fail, json_default, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
@@ -125,8 +125,9 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
             click.echo(f"figure: {written}")
     bad = [r for r in res.rows if r["status"] in ("error", "tolerance-not-met", "missing")]
     if bad:
-        click.echo(f"boundkit: {len(bad)} row(s) with status error, tolerance-not-met or missing; first: "
-                   f"{bad[0]['label']} ({bad[0]['status']}: {bad[0]['message']})", err=True)
+        click.echo("boundkit: " + clip_message(f"{len(bad)} row(s) with status error, tolerance-not-met or missing; "
+                                               f"first: {bad[0]['label']} ({bad[0]['status']}: {bad[0]['message']})"),
+                   err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if res.problems or (plot_path and written is None):
         sys.exit(EXIT_BAD_INPUT)
@@ -264,11 +265,7 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
         click.echo(json.dumps(res.to_dict(unit, sunit), default=json_default, indent=2))
     else:
         click.echo(res.table(unit, sunit))
-    if not res.success:    # one line: the first channel with its reason, then the others by name
-        bad = [(k, v) for k, v in res.statuses.items() if v != "ok"]
-        (first, status), rest = bad[0], bad[1:]
-        reason = f": {res.messages[first]}" if res.messages.get(first) else ""
-        more = f"; {len(rest)} more: " + ", ".join(f"{k} {v}" for k, v in rest) if rest else ""
-        click.echo(f"boundkit: {clip_message(f'not every channel was solved: {first} {status}{reason}{more}')}",
-                   err=True)
+    if not res.success:    # one line: channels grouped by status and reason, each reason once (--json: all)
+        head = "not every channel was solved: "
+        click.echo(f"boundkit: {clip_message(head + res.problems(MAX_MESSAGE - len(head)))}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)

@@ -16,7 +16,7 @@ from typing import Any, Mapping
 from .._checks import MAX_L, check_count, check_int, check_positive
 from ..equations.base import letter
 from ..solver import solve
-from ..reporting import difference_error, format_difference
+from ..reporting import channel_summary, difference_error, format_difference
 from ..states import check_convention, convert_label
 from ..units import constants_record, energy_unit, hartree_to
 from ._common import describe
@@ -140,11 +140,12 @@ class CompareResult:
         lines += ["", "status: " + (self.problems() or "ok")]
         return "\n".join(lines)
 
-    def problems(self) -> str:
-        """The channels whose status is not 'ok', each with its status ('' when there are none); a
-        refused channel ('error') with the refusal."""
-        return "; ".join(f"{k}: {v}" + (f" ({self.messages[k]})" if v == "error" and self.messages.get(k) else "")
-                         for k, v in self.statuses.items() if v != "ok")
+    def problems(self, width: int = 280) -> str:
+        """The channels whose status is not 'ok' on one line of at most ``width`` characters ('' when there
+        are none): channels with the same status and reason together, the reason once
+        (:func:`boundkit.reporting.channel_summary`); :attr:`messages` keeps each channel's own."""
+        return channel_summary(((k, v, self.messages.get(k, "")) for k, v in self.statuses.items() if v != "ok"),
+                               width)
 
     def __repr__(self) -> str:
         return f"CompareResult({len(self.rows)} levels, success={self.success})"
