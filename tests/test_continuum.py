@@ -23,7 +23,7 @@ from boundkit.cli import main
 from boundkit.potentials import Parameter, Term
 from boundkit.scattering import (LevinsonCheck, PhaseShifts, continuum_state, levinson, phase_shifts,
                                  scattering_length, wave_number)
-from boundkit.units import C_AU, ELECTRON_MASS_MEV
+from boundkit.units import C_AU, MASS_UNIT_MEV
 
 ZERO = lambda r: 0.0 * r   # noqa: E731  (a potential that vanishes: free particle, used with a hard core)
 
@@ -237,7 +237,7 @@ def test_dirac_with_equal_scalar_and_vector_is_a_schrodinger_problem(kappa):
     dirac = phase_shifts([E], "dirac", "yukawa", half, scalar="yukawa", kappa=kappa)
     m_eff = (E + 2 * C_AU**2) / (2 * C_AU**2)
     schr = phase_shifts([E], "schrodinger", "yukawa", {"Z": 1.0, "screening_length": D}, l=1,
-                        mass_mev=m_eff * ELECTRON_MASS_MEV)
+                        mass_mev=m_eff * MASS_UNIT_MEV)
     assert abs(dirac.wave_numbers[0] - schr.wave_numbers[0]) < 1e-12 * schr.wave_numbers[0]
     assert abs(dirac.delta[0] - schr.delta[0]) < 1e-9
 

@@ -66,7 +66,7 @@ from typing import Callable
 import numpy as np
 import scipy.constants as sc
 
-from .units import ALPHA, C_AU, ELECTRON_MASS_MEV, LENGTH_UNITS, bohr_to, hartree_to, length_unit
+from .units import ALPHA, C_AU, LENGTH_UNITS, bohr_to, hartree_to, length_unit, mass_mev_to_au
 from .wavefunctions import evaluate, origin_coefficient, origin_noise
 
 __all__ = ["Quantity", "LevelObservables", "expectation", "expectation_value", "radial_moment",
@@ -738,7 +738,7 @@ def masses_of(result) -> tuple[float, float]:
     s = result.settings
     mass = float(s.get("mass_atomic_units", 1.0))
     mev = s.get("particle_mass_MeV")
-    return mass, (mass if mev is None else float(mev) / ELECTRON_MASS_MEV)
+    return mass, (mass if mev is None else mass_mev_to_au(float(mev)))
 
 
 def observables(level, *, length_unit: str = "bohr", mass: float = 1.0, potential=None) -> LevelObservables:

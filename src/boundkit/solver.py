@@ -47,8 +47,8 @@ from .mesh import LogMap
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
 from .states import count_nodes, normalise, principal_n
-from .units import (C_AU, ELECTRON_MASS_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to,
-                    system_units)
+from .units import (C_AU, MASS_UNIT_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to,
+                    mass_mev_to_au, system_units)
 from ._checks import MAX_LEVELS, check_choice, check_count, check_int, check_positive
 from ._rounding import beside_each
 
@@ -1493,7 +1493,7 @@ def _check_scalar_far_constant(eq, pot, units: str) -> None:
     if not s_inf:
         return
     eu = system_units(units)[0]
-    mc2 = eq.mass * ELECTRON_MASS_MEV
+    mc2 = eq.mass * MASS_UNIT_MEV
     raise ValueError(
         f"potential: the scalar part tends to S_inf = {hartree_to(s_inf, eu):.6g} {eu} far out, a change of mass "
         f"there; the {eq.name} solver needs a scalar that vanishes far out: give mass_mev="
@@ -2133,7 +2133,7 @@ def setup(equation: str = "schrodinger", potential=None, params: dict | None = N
     part = get_particle(particle, mass_mev)
     mass = part.mass_au
     if nucleus_mass_mev is not None:
-        M = check_mass("nucleus_mass_mev", nucleus_mass_mev) / ELECTRON_MASS_MEV
+        M = mass_mev_to_au(check_mass("nucleus_mass_mev", nucleus_mass_mev))
         mass = mass * M / (mass + M)
     eq = make_equation(equation, l=l, kappa=kappa, mass=mass, j=j)
     if scalar is not None and eq.name == "schrodinger":

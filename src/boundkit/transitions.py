@@ -75,7 +75,7 @@ from scipy.special import spherical_jn
 
 from ._checks import MAX_N, check_count, check_int
 from .observables import _integral, matrix_element
-from .units import C_AU, ELECTRON_MASS_MEV, hartree_to
+from .units import C_AU, hartree_to, mass_mev_to_au
 from .wavefunctions import radial_derivative_state
 
 __all__ = ["Line", "LevelDecay", "TransitionResult", "transitions", "line", "wigner3j", "reduced_c"]
@@ -455,7 +455,7 @@ def transitions(equation: str = "schrodinger", potential=None, params: dict | No
         kept = set(wanted)
     mass = float(settings.get("mass_atomic_units", 1.0))
     pm = settings.get("particle_mass_MeV")
-    particle_mass = mass if pm is None else float(pm) / ELECTRON_MASS_MEV
+    particle_mass = mass if pm is None else mass_mev_to_au(float(pm))
     found.sort(key=lambda lv: lv.energy)
     # every line down from a kept level (its lifetime counts them all), reported among kept levels only
     down_from: dict[str, list] = {}

@@ -22,11 +22,13 @@ __all__ = [
     "HARTREE_EV",
     "BOHR_M",
     "ELECTRON_MASS_MEV",
+    "MASS_UNIT_MEV",
     "Particle",
     "PARTICLES",
     "ENERGY_UNITS",
     "LENGTH_UNITS",
     "get_particle",
+    "mass_mev_to_au",
     "particle_table",
     "hartree_to",
     "bohr_to",
@@ -45,6 +47,14 @@ HARTREE_EV: float = sc.physical_constants["Hartree energy in eV"][0]
 HARTREE_J: float = sc.physical_constants["Hartree energy"][0]
 BOHR_M: float = sc.physical_constants["Bohr radius"][0]
 ELECTRON_MASS_MEV: float = sc.physical_constants["electron mass energy equivalent in MeV"][0]
+"""CODATA's tabulated m_e c^2 in MeV, for the record (:func:`constants_record`); masses are converted with
+:data:`MASS_UNIT_MEV`."""
+MASS_UNIT_MEV: float = HARTREE_EV * 1e-6 / ALPHA**2
+"""The atomic unit of mass as a rest energy in MeV: m_e c^2 = E_h / alpha^2, with the very E_h in MeV
+that converts energies (``hartree_to(1, 'MeV')``). Every mass in MeV is divided by it, so a level's
+E / (m c^2) in MeV is its value in atomic units, exact to rounding. CODATA's tabulated m_e c^2 in MeV
+(:data:`ELECTRON_MASS_MEV`) differs from it by 1.4e-11 relative (rounding of the tables, inside the
+3.1e-10 uncertainty of m_e c^2); dividing by that put levels of a mass in MeV 1.4e-11 off."""
 FM_PER_BOHR: float = BOHR_M * 1e15
 
 
@@ -64,6 +74,9 @@ class Particle:
         Electric charge in units of the elementary charge e (None: not stated).
     spin : float, optional
         Spin in units of hbar (None: not stated).
+    mass_ratio : float, optional
+        Mass in electron masses when that is what the source gives (CODATA's mass ratios); it is then
+        the mass used, and ``mass_mev`` must be ``mass_ratio * MASS_UNIT_MEV`` (:meth:`from_ratio`).
     """
 
     name: str
@@ -71,14 +84,33 @@ class Particle:
     source: str
     charge: float | None = None
     spin: float | None = None
+    mass_ratio: float | None = None
 
     def __post_init__(self) -> None:
         check_mass("mass_mev", self.mass_mev)
+        if self.mass_ratio is not None and abs(self.mass_ratio * MASS_UNIT_MEV - self.mass_mev) > 4e-16 * self.mass_mev:
+            raise ValueError(f"mass_ratio: {self.mass_ratio!r} electron masses is not mass_mev = {self.mass_mev!r} MeV "
+                             "(m_e c^2 = E_h / alpha^2); build the particle with Particle.from_ratio")
+
+    @classmethod
+    def from_ratio(cls, name: str, mass_ratio: float, source: str, charge: float | None = None,
+                   spin: float | None = None) -> "Particle":
+        """A particle whose mass is given in electron masses (its rest energy in MeV follows from
+        m_e c^2 = E_h / alpha^2, :data:`MASS_UNIT_MEV`)."""
+        return cls(name, mass_ratio * MASS_UNIT_MEV, source, charge, spin, float(mass_ratio))
 
     @property
     def mass_au(self) -> float:
-        """Mass in units of the electron mass (the atomic unit of mass)."""
-        return self.mass_mev / ELECTRON_MASS_MEV
+        """Mass in units of the electron mass (the atomic unit of mass): the mass ratio when the
+        particle was given by one, else ``mass_mev / MASS_UNIT_MEV``."""
+        return self.mass_ratio if self.mass_ratio is not None else mass_mev_to_au(self.mass_mev)
+
+
+def mass_mev_to_au(mass_mev: float) -> float:
+    """A rest energy in MeV as a mass in electron masses, through m_e c^2 = E_h / alpha^2
+    (:data:`MASS_UNIT_MEV`), the factor that converts energies: E / (m c^2) is then the same in MeV as in
+    atomic units."""
+    return mass_mev / MASS_UNIT_MEV
 
 
 def check_mass(name: str, mass_mev) -> float:
@@ -86,30 +118,32 @@ def check_mass(name: str, mass_mev) -> float:
     parameter in atomic units): 2 m r^2 V and (m c^2)^2 then stay inside the floating-point range,
     where a mass of 1e300 MeV made infinities and a bare 'array must not contain infs or NaNs'."""
     m = check_positive(name, mass_mev)
-    top = MAX_MAGNITUDE * ELECTRON_MASS_MEV
+    top = MAX_MAGNITUDE * MASS_UNIT_MEV
     if m > top:
         raise ValueError(f"{name}: {m:.3g} MeV is beyond {top:.3g} MeV ({MAX_MAGNITUDE:g} electron masses), the "
                          "largest mass boundkit accepts (no particle or nucleus is near it); give a smaller mass")
     return m
 
 
-def _codata_mass(key: str) -> float:
-    return sc.physical_constants[key][0]
+def _codata(name: str, key: str | None, charge: float, spin: float, note: str = "") -> Particle:
+    """A particle of CODATA's mass ratio ``key`` (None: the electron, 1): exact in electron masses."""
+    ratio = 1.0 if key is None else sc.physical_constants[key][0]
+    what = "the unit of mass" if key is None else f"the {key}"
+    return Particle.from_ratio(name, ratio, f"CODATA via scipy.constants: {what}{note}; in MeV times "
+                               "m_e c^2 = E_h / alpha^2", charge, spin)
 
 
 _PDG = "Particle Data Group, Review of Particle Physics (value from memory; not in CODATA)"
-_CODATA = "CODATA via scipy.constants"
 # charges in e and spins in hbar are common knowledge; the negative mesons are the ones that form atoms
 PARTICLES: Mapping[str, Particle] = {
-    "electron": Particle("electron", _codata_mass("electron mass energy equivalent in MeV"), _CODATA, -1.0, 0.5),
-    "muon": Particle("muon", _codata_mass("muon mass energy equivalent in MeV"), _CODATA, -1.0, 0.5),
+    "electron": _codata("electron", None, -1.0, 0.5),
+    "muon": _codata("muon", "muon-electron mass ratio", -1.0, 0.5),
     "pion": Particle("pion", 139.57039, _PDG + "; the negative pion", -1.0, 0.0),
     "kaon": Particle("kaon", 493.677, _PDG + "; the negative kaon", -1.0, 0.0),
-    "proton": Particle("proton", _codata_mass("proton mass energy equivalent in MeV"), _CODATA, 1.0, 0.5),
-    "antiproton": Particle("antiproton", _codata_mass("proton mass energy equivalent in MeV"),
-                           _CODATA + " (equal to the proton mass)", -1.0, 0.5),
-    "neutron": Particle("neutron", _codata_mass("neutron mass energy equivalent in MeV"), _CODATA, 0.0, 0.5),
-    "deuteron": Particle("deuteron", _codata_mass("deuteron mass energy equivalent in MeV"), _CODATA, 1.0, 1.0),
+    "proton": _codata("proton", "proton-electron mass ratio", 1.0, 0.5),
+    "antiproton": _codata("antiproton", "proton-electron mass ratio", -1.0, 0.5, " (equal to the proton mass)"),
+    "neutron": _codata("neutron", "neutron-electron mass ratio", 0.0, 0.5),
+    "deuteron": _codata("deuteron", "deuteron-electron mass ratio", 1.0, 1.0),
 }
 
 
@@ -222,6 +256,7 @@ def constants_record() -> dict:
         "hartree_eV": HARTREE_EV,
         "bohr_m": BOHR_M,
         "electron_mass_MeV": ELECTRON_MASS_MEV,
+        "mass_unit_MeV": MASS_UNIT_MEV,
         "source": f"CODATA via scipy.constants (scipy {scipy.__version__})",
     }
 

@@ -34,7 +34,7 @@ def _mesh(res) -> str:
 
 def _table(res, unit: str, length: str = "bohr") -> str:
     from ..states import level_n
-    from ..units import ELECTRON_MASS_MEV, bohr_to, hartree_to
+    from ..units import MASS_UNIT_MEV, bohr_to, hartree_to
 
     s = res.settings
     labels = s.get("labels", "atomic")
@@ -42,7 +42,7 @@ def _table(res, unit: str, length: str = "bohr") -> str:
     head = [
         f"{res.equation} equation, potential {res.potential}, particle {s.get('particle')} "
         f"({s.get('particle_mass_MeV'):.9g} MeV/c^2)"
-        + (f", reduced mass {s['mass_atomic_units'] * ELECTRON_MASS_MEV:.9g} MeV/c^2 with a nucleus of "
+        + (f", reduced mass {s['mass_atomic_units'] * MASS_UNIT_MEV:.9g} MeV/c^2 with a nucleus of "
            f"{s['nucleus_mass_MeV']:.9g} MeV/c^2" if s.get("nucleus_mass_MeV") is not None else ""),
         f"method {s['method']['method']}{_mesh(res)}, tol {s['tol']:g} (relative), "
         f"alpha = {res.constants['alpha']:.13g} (CODATA)",
