@@ -71,6 +71,8 @@ _MAX_DT = 3.0        # longest element in t
 _MAX_DT_QUIET = 6.0  # longest quiet element (f nearly constant there)
 _START = 2.0  # first degree: _START - log10(tol) (see ladder_for)
 _DECAY_CUT = 50.0    # e-folds of decay beyond which a level needs no resolution (the box keeps 42)
+MAX_ELEMENTS = 20_000  # most elements of a layout: 300 hydrogen s levels take 198, 200 oscillator levels 257;
+#                       an attractive -1/r^2.5 core (that falls to the centre) asked for 7e6 and was killed for memory
 
 
 def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[list, list]:
@@ -87,7 +89,11 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
         rho = np.maximum(rho, _rate_for(t, ex, rate))
     rho = np.maximum(rho, _shape_rate(t, r, s))
     cum = np.concatenate(([0.0], np.cumsum(0.5 * (rho[1:] + rho[:-1]) * np.diff(t))))
-    n_el = max(1, int(math.ceil(cum[-1] / _PHASE)))
+    n_el = max(1, int(math.ceil(min(cum[-1], 1e300) / _PHASE)))
+    if n_el > MAX_ELEMENTS:
+        raise ValueError(f"potential: the element layout needs {n_el:.3g} elements between r = {r_min:.3g} and "
+                         f"{r_max:.3g} bohr, beyond {MAX_ELEMENTS}: the potential varies too fast there (a core "
+                         "steeper than -1/r^2?); regularise it, or ask for fewer levels")
     edges = list(np.interp(np.linspace(0, cum[-1], n_el + 1), cum, t))
     kept = set()            # edges on a breakpoint: a nearby breakpoint is added, not moved onto them
     for b in pot.breakpoints:

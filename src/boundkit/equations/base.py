@@ -98,6 +98,18 @@ class RadialEquation:
         raise NotImplementedError
 
     @staticmethod
+    def _refuse_fall_to_centre(potential, scalar: bool = True) -> None:
+        """Refuse V (+ S with ``scalar``) falling faster than -1/r^2 at the origin: no lowest level."""
+        probe = getattr(potential, "origin_fall", None)
+        fall = probe(scalar) if probe is not None else None
+        if fall is not None:
+            r, y = fall
+            raise ValueError(f"potential: V falls faster than -1/r^2 at the origin (r^2 V = {y[0]:.3g} hartree "
+                             f"bohr^2 at r = {r[0]:.3g} bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): the particle "
+                             "falls to the centre and there is no lowest level; regularise the core, e.g. a "
+                             "finite-size cut-off")
+
+    @staticmethod
     def _refuse_nonrelativistic_terms(potential) -> None:
         """Relativistic equations refuse terms that only the Schrodinger equation takes."""
         if potential.has_spin_orbit:

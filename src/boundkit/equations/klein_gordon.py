@@ -54,6 +54,7 @@ class KleinGordon(RadialEquation):
 
     def gamma(self, potential) -> float:
         self._refuse_nonrelativistic_terms(potential)
+        self._refuse_fall_to_centre(potential, scalar=False)   # a scalar enters squared, as (m c^2 + S)^2
         zz = (potential.z_vector**2 - potential.z_scalar**2) * ALPHA**2
         disc = (self.l + 0.5) ** 2 - zz
         if disc <= 0:

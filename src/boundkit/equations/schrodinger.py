@@ -53,6 +53,7 @@ class Schrodinger(RadialEquation):
     def gamma(self, potential) -> float:
         if self.j is None and potential.has_spin_orbit:
             raise ValueError("j: the potential has a spin-orbit term; give j = l +- 1/2 (e.g. --j 1.5 with --l 1)")
+        self._refuse_fall_to_centre(potential)
         return self._gamma(potential)
 
     def _gamma(self, potential) -> float:

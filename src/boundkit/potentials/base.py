@@ -250,6 +250,27 @@ def _inverse_square_tail(r: np.ndarray, v: np.ndarray) -> tuple[float, float]:
     return z, b
 
 
+_ORIGIN_RADII = (1e-12, 1e-11, 1e-10)   # bohr: where the origin is probed (ProbedTerm, Potential.origin_fall)
+
+
+def _falling_core(r: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """(r, r^2 V) when r^2 V at the three ascending radii ``r`` is negative and grows in magnitude towards
+    the origin beyond a steady core, else None.
+
+    V ~ -B r^-s with s > 2 (or a 1/r^2 core whose coefficient grows, log(r)/r^2) is unbounded below:
+    the particle falls to the centre (Landau & Lifshitz, Quantum Mechanics, sec. 35). A steady core
+    B0/r^2 - Z0/r has r^2 V = B0 - Z0 r: the line through the outer two radii predicts the inner value
+    (with a strong repulsive Z0, 1000/r - 0.01/r^2, r^2 V grows towards the origin too), so a fall is a growth
+    beyond that line by more than the 1e-6 that :class:`ProbedTerm` allows a steady core. A finite or
+    Coulomb-like origin has r^2 V -> 0, and rounding noise of a sum of such terms shrinks with r too.
+    """
+    y = r * r * v
+    if not np.all(np.isfinite(y)) or not np.all(y < 0) or not np.all(y[:-1] < y[1:]):
+        return None
+    line = y[1] - (y[2] - y[1]) / (r[2] - r[1]) * (r[1] - r[0])
+    return (r, y) if y[0] < line - 1e-6 * abs(y[0]) else None
+
+
 class ProbedTerm(Term):
     """A term whose ends are found by probing it numerically (callables, expressions).
 
@@ -295,7 +316,7 @@ class ProbedTerm(Term):
         return r, v
 
     def _probe(self) -> None:
-        r_small, v = self._finite_probe(np.array([1e-12, 1e-11, 1e-10]))
+        r_small, v = self._finite_probe(np.array(_ORIGIN_RADII))
         rv = -r_small * v
         r2v = r_small * r_small * v
         self._b0 = 0.0
@@ -518,6 +539,14 @@ class Potential:
     def origin_inverse_square(self) -> float:
         """Sum of the terms' 1/r^2 coefficients at the origin (vector and scalar terms)."""
         return float(sum(t.origin_inverse_square for t in self.vector + self.scalar))
+
+    def origin_fall(self, scalar: bool = True) -> tuple[np.ndarray, np.ndarray] | None:
+        """(r, r^2 V) at r = 1e-12, 1e-11, 1e-10 bohr when V (+ S with ``scalar``) falls faster than
+        -1/r^2 at the origin, else None (see :func:`_falling_core`)."""
+        r = np.array(_ORIGIN_RADII)
+        with np.errstate(all="ignore"), complex_values():
+            v = np.real(self.V(r)) + (np.real(self.S(r)) if scalar else 0.0)
+        return _falling_core(r, v)
 
     @property
     def tail_inverse_square(self) -> float:

@@ -1,0 +1,102 @@
+"""Attractive cores more singular than 1/r^2: the particle falls to the centre.
+
+For V ~ -B r^-s near the origin with s > 2 the Hamiltonian is unbounded below and there is no lowest
+level (Landau & Lifshitz, Quantum Mechanics, sec. 35 "fall of a particle to the centre", from memory).
+boundkit laid such potentials out on element grids of 1.2e8 nodes (-1/r^2.5, killed for memory) or
+8.5e16 bytes (-1/r^3, a MemoryError traceback), and reported levels at -9e49 hartree for -1/r^2.01
+(a tester). Each solve here runs with the element layout replaced by a stub that fails the test, so a
+solve that would lay out elements never allocates anything.
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from click.testing import CliRunner
+
+import boundkit
+from boundkit.cli import main
+
+def expr(text: str):
+    from boundkit.potentials.expression import ExpressionTerm
+
+    return ExpressionTerm(text, {})
+
+
+FALLS = "falls faster than -1/r\\^2 at the origin .*the particle falls to the centre.*regularise the core"
+
+
+@pytest.fixture
+def no_layout(monkeypatch):
+    """Fail the test, without allocating, if a solve reaches the element layout."""
+    from boundkit import ladder
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("the element layout was reached")
+
+    monkeypatch.setattr(ladder, "layout", refuse)
+
+
+@pytest.mark.parametrize("text", ["-1/r**2.5", "-1/r**3", "-exp(-r)/r**3", "-1/r**2.01", "log(r)/r**2 - 1/r"])
+def test_an_attractive_core_steeper_than_inverse_square_is_refused(no_layout, text):
+    with pytest.raises(ValueError, match=FALLS):
+        boundkit.solve("schrodinger", expr(text), levels=1)
+
+
+def test_a_callable_core_and_the_relativistic_equations_are_refused_too(no_layout):
+    with pytest.raises(ValueError, match=FALLS):
+        boundkit.solve("schrodinger", lambda r: -1 / r**3)
+    with pytest.raises(ValueError, match=FALLS):
+        boundkit.solve("schrodinger", "coulomb", {"Z": 1}, l=2, scalar=expr("-0.5/r**3"))
+    with pytest.raises(ValueError, match=FALLS):
+        boundkit.solve("dirac", expr("-1/r**3"), kappa=-1)
+    with pytest.raises(ValueError, match=FALLS):
+        boundkit.solve("klein-gordon", expr("-1/r**3"))
+
+
+def test_the_message_names_the_core_it_measured(no_layout):
+    # r^2 V = -1/sqrt(r): -1e6 at r = 1e-12 bohr, -1e5 at 1e-10 bohr
+    with pytest.raises(ValueError, match=r"r\^2 V = -1e\+06 hartree bohr\^2 at r = 1e-12 bohr, -1e\+05 at r = "
+                                         r"1e-10 bohr"):
+        boundkit.solve("schrodinger", expr("-1/r**2.5"))
+
+
+def test_the_command_line_refuses_in_one_line(no_layout):
+    res = CliRunner().invoke(main, ["solve", "--expr", "-1/r**3"])
+    assert res.exit_code == 2, (res.output, res.exception)
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("boundkit: error: potential: "), res.stderr
+    assert "Traceback" not in res.output
+
+
+def test_a_repulsive_or_regularised_or_inverse_square_core_still_solves():
+    # a repulsive 1/r^3 core only raises the 1s of -2/r (exact -2 hartree, common practice)
+    res = boundkit.solve("schrodinger", expr("1/r**3 - 2/r"))
+    assert res.status == "ok", res.message
+    assert -2.0 < res.levels[0].energy < 0.0
+    # a steady r^2 V (Kratzer-like, 2 m B > -(l + 1/2)^2) is not a fall: -1/r - 0.1/r^2 at l = 0 has
+    # l'(l'+1) = -0.2, l' = sqrt(0.05) - 1/2, E = -1/(2 (l' + 1)^2) (Kratzer levels, common practice)
+    res = boundkit.solve("schrodinger", expr("-1/r - 0.1/r**2"), tol=1e-10)
+    lp = np.sqrt(0.05) - 0.5
+    assert res.levels[0].energy == pytest.approx(-1 / (2 * (lp + 1) ** 2), rel=1e-9)
+
+
+def test_the_layout_refuses_an_absurd_element_count():
+    # the safety net behind the refusal: a layout of 1e16 elements stops before it allocates one
+    from boundkit.ladder import layout
+    from boundkit.potentials import make_potential
+    from boundkit.solver import make_equation, sampler
+
+    pot = make_potential(expr("-1/r**3"))
+    eq = make_equation("schrodinger", l=0)
+    with pytest.raises(ValueError, match="potential: the element layout needs .* elements"):
+        layout(eq, pot, sampler(pot), 1e-33, 1e4, [0.0])
+
+
+def test_a_steady_inverse_square_core_under_a_strong_repulsive_coulomb_term_is_not_a_fall():
+    # r^2 V = B + |A| r grows in magnitude towards the origin, but only linearly: a steady B/r^2 core
+    from boundkit.potentials import make_potential
+
+    for pot in (make_potential("kratzer", {"A": -1000.0, "B": -0.01}),
+                make_potential(lambda r: 1000 / r - 0.01 / r**2)):
+        assert pot.origin_fall() is None
+    assert make_potential(lambda r: 1000 / r - 0.01 / r**2.001).origin_fall() is not None
