@@ -9,6 +9,14 @@ from .base import RadialEquation, Sample, letter
 __all__ = ["Schrodinger"]
 
 
+
+def inverse_square_order(l: int, mass: float, B: float) -> float | None:
+    """The order L of a channel whose potential has a B / r^2 part: L (L + 1) = l (l + 1) + 2 m B, the
+    root L > -1/2 (common practice); None when (l + 1/2)^2 + 2 m B <= 0 (the order is complex: the particle
+    falls to the centre, or the tail's Coulomb functions have no real order)."""
+    disc = (l + 0.5) ** 2 + 2 * mass * B
+    return None if disc <= 0 else -0.5 + math.sqrt(disc)
+
 class Schrodinger(RadialEquation):
     """Non-relativistic radial equation for orbital ``l`` and (reduced) mass ``mass``.
 
@@ -61,14 +69,14 @@ class Schrodinger(RadialEquation):
         b0 = getattr(potential, "origin_inverse_square", 0.0)
         if b0 == 0.0:
             return float(self.l + 1)
-        disc = (self.l + 0.5) ** 2 + 2 * self.mass * b0
-        if disc <= 0:
+        order = inverse_square_order(self.l, self.mass, b0)
+        if order is None:
             raise ValueError(
                 f"potential: its 1/r^2 part at the origin (kratzer B, or B/r^2 in a user's V), B = {b0:g} hartree "
                 f"bohr^2, is too attractive for l = {self.l}: l(l+1) + 2 m B < -1/4 makes the particle fall to the "
                 f"centre; use B > {-(self.l + 0.5) ** 2 / (2 * self.mass):.6g}"
             )
-        return 0.5 + math.sqrt(disc)
+        return order + 1.0
 
     def label(self, n: int) -> str:
         if self.j is not None:

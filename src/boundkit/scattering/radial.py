@@ -48,6 +48,7 @@ from .._rounding import beside
 from ..equations import RadialEquation, Sample
 from ..potentials import Potential
 from ..units import C_AU
+from ..equations.schrodinger import inverse_square_order
 from .reference import Reference, free_zero_count, inverse_square_shift, reference_at, wave_number
 
 log = logging.getLogger(__name__)
@@ -139,7 +140,7 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
             raise ValueError(f"potential: it has a 1/r^2 part (B = {b_tail or b0:.6g} hartree bohr^2 "
                              f"{'far out' if b_tail else 'at the origin'}), supported in the Schrodinger equation "
                              "only; use equation='schrodinger' or a potential without it")
-    elif b_tail and (eq.l + 0.5) ** 2 + 2 * eq.mass * b_tail <= 0:
+    elif b_tail and inverse_square_order(eq.l, eq.mass, b_tail) is None:
         raise ValueError(f"potential: its 1/r^2 tail far out, B = {b_tail:g} hartree bohr^2, is too attractive for "
                          f"l = {eq.l}: with l(l+1) + 2 m B < -1/4 the tail's Coulomb functions have a complex order, "
                          f"which is not supported here; use B > {-(eq.l + 0.5) ** 2 / (2 * eq.mass):.6g} or a tail "

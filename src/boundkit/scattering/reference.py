@@ -63,6 +63,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import spherical_jn, spherical_yn
 
+from ..equations.schrodinger import inverse_square_order
 from ..units import C_AU
 
 __all__ = ["wave_number", "sommerfeld", "Reference", "reference_at", "free_zero_count", "inverse_square_shift"]
@@ -152,7 +153,7 @@ def reference_at(eq, E: float, R: float, tail_charge: float, p_R: float, tail_b:
             F, G, cF, cG = _dirac_coulomb(eq.kappa, l, E, m, tail_charge, R, p_R)
         else:
             if name == "schrodinger":
-                L = l if tail_b == 0.0 else -0.5 + math.sqrt((l + 0.5) ** 2 + 2 * m * tail_b)
+                L = l if tail_b == 0.0 else inverse_square_order(l, m, tail_b)
             else:
                 L = _kg_L(l, tail_charge)
             rho = mpmath.mpf(k) * R
