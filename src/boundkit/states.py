@@ -26,7 +26,7 @@ import re
 import numpy as np
 
 __all__ = ["count_nodes", "count_nodes_each", "principal_n", "normalise", "LABEL_CONVENTIONS", "level_label", "parse_label",
-           "check_convention", "label_sort_key", "convert_label", "level_n", "splits_by_j", "missing_j"]
+           "check_convention", "label_sort_key", "convert_label", "level_n", "splits_by_j", "missing_j", "level_j"]
 
 LABEL_CONVENTIONS = ("atomic", "nuclear", "quarkonium")
 """Names of the labelling conventions (see the module docstring)."""
@@ -205,6 +205,19 @@ def missing_j(equation: str, label: str, l: int) -> str:
     why = (f"the Dirac equation needs j in {label!r}" if equation == "dirac" else
            f"a potential with a spin-orbit term splits {label!r} by j")
     return f"{why}; write {stem}{2 * l - 1}/2 or {stem}{2 * l + 1}/2"
+
+
+def level_j(equation: str, label: str, l: int, j: float | None, split: bool) -> float | None:
+    """The j that names the level of ``label`` (its l and j as read) where j splits levels (``split``,
+    :func:`splits_by_j`): j as written, 1/2 for an s level; elsewhere None. A label with l > 0 and no j
+    names no single level there: ValueError ('state: ...', :func:`missing_j`)."""
+    if not split:
+        return None
+    if j is None:
+        if l > 0:
+            raise ValueError(f"state: {missing_j(equation, label, l)}")
+        return 0.5
+    return j
 
 
 def label_sort_key(label: str, labels: str = "atomic") -> tuple:

@@ -17,7 +17,7 @@ from typing import Any
 
 from .._checks import MAX_GRID_POINTS, MAX_L, MAX_LEVELS, MAX_SPEC_BYTES, check_int
 from ..observables import length_unit as canonical_length_unit
-from ..states import LABEL_CONVENTIONS, missing_j, parse_label, splits_by_j
+from ..states import LABEL_CONVENTIONS, level_j, parse_label, splits_by_j
 from ..units import energy_unit as canonical_energy_unit
 from ..units import get_particle
 from .models import _read_model
@@ -177,15 +177,6 @@ def _once(rd: _Reader, key: tuple, items, same=lambda x: x, what: str = "entry",
             raise rd.error(key + (i,), f"{text!r} is the same {what} as {other!r} (line {first}{note}); "
                                        "list it once")
         seen[k] = i
-
-
-def _state_key(state: str, labels: str, split: bool = False) -> tuple[int, int, float | None]:
-    """The level a [critical] state names: (nodes, l, j), j only where it splits levels (``split``:
-    :func:`boundkit.states.splits_by_j`; an s state's is 1/2). The state is read already."""
-    nodes, l, j = parse_label(state, labels)
-    if not split:
-        return nodes, l, None
-    return nodes, l, 0.5 if j is None and l == 0 else j
 
 
 def _model_name(rd: _Reader, data: dict, key: tuple, models: dict) -> str:
@@ -513,14 +504,14 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
                 raise rd.error(key + ("states",), "name at least one state, e.g. [\"1s\"]")
             eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
             split = splits_by_j(eq, models[model].spin_orbit(units))
+            named = {}      # state -> (nodes, l, j): the level it names (j only where j splits levels)
             for i, st in enumerate(states):
                 try:     # what the run would refuse: a label of no level, or without the j that names one
-                    _nodes, l, j = parse_label(st, labels)
+                    nodes, l, j = parse_label(st, labels)
+                    named[st] = (nodes, l, level_j(eq, st, l, j, split))
                 except ValueError as exc:
                     raise rd.error(key + ("states", i), str(exc).removeprefix("state: ")) from None
-                if split and j is None and l > 0:
-                    raise rd.error(key + ("states", i), missing_j(eq, st, l))
-            _once(rd, key + ("states",), states, lambda st: _state_key(st, labels, split), f"{eq} level",
+            _once(rd, key + ("states",), states, named.__getitem__, f"{eq} level",
                   "" if split else f"; the {eq} equation has no j")
             bracket = rd.get(s, key, "bracket", "list:number", None)
             if bracket is not None and (len(bracket) != 2 or bracket[0] == bracket[1]):

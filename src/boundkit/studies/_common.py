@@ -22,7 +22,7 @@ from .. import _signals
 from ..equations.dirac import kappa_to_lj
 from ..potentials import TERMS, Term
 from ..solver import make_equation
-from ..states import missing_j, parse_label, principal_n, splits_by_j
+from ..states import level_j, parse_label, principal_n, splits_by_j
 
 __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
            "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
@@ -119,10 +119,8 @@ def state_channel(equation: str, label: str, spin_orbit: bool = False) -> tuple[
     n, l, j = parse_state(label)
     eq = canonical_equation(equation)
     split = splits_by_j(eq, spin_orbit)
-    if split and j is None:
-        if l > 0:
-            raise ValueError(f"state: {missing_j(eq, label, l)}")
-        j = 0.5
+    if split:
+        j = level_j(eq, label, l, j, split)
     if eq == "dirac":
         channel = {"kappa": -(l + 1) if j == l + 0.5 else l}
     elif split:
