@@ -101,3 +101,17 @@ def test_a_term_in_mev_and_fm_converts_its_ends_as_the_built_in_kratzer_does(for
         assert getattr(builtin, name) == pytest.approx(exact, rel=1e-12), name
         assert getattr(wrapped, name) == pytest.approx(exact, rel=1e-6), name
     assert wrapped.far_constant == 0.0 and wrapped.far == "zero"
+
+
+@pytest.mark.parametrize("text", ["1e308", "-1e308"])
+def test_a_far_value_near_the_largest_double_reads_as_a_constant_without_overflow(text):
+    """Found by the thorough fuzz run: the far-tail fit multiplied V = 1e308 by r = 1e5 (an overflow, a
+    RuntimeWarning, an error in the suite). The tail is read as a constant, as before the 1/r^2 fit."""
+    import warnings
+
+    from boundkit.potentials.expression import ExpressionTerm
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        term = ExpressionTerm(text, {})
+    assert (term.tail_charge, term.tail_inverse_square, term.far_constant) == (0.0, 0.0, float(text))

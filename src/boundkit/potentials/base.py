@@ -239,8 +239,11 @@ def _inverse_square_tail(r: np.ndarray, v: np.ndarray) -> tuple[float, float]:
     (plus rounding): a check against r V as a whole took the 1e-6 r^-2 of -1/r + 1/r^3 at r = 1e3 for a
     B of 1.1e-4.
     """
-    x = r * v                                             # -Z + B / r
-    b = float((x[1] - x[2]) / (1 / r[1] - 1 / r[2]))
+    with np.errstate(all="ignore"):
+        x = r * v                                         # -Z + B / r
+        b = float((x[1] - x[2]) / (1 / r[1] - 1 / r[2]))
+    if not (np.all(np.isfinite(x)) and np.isfinite(b)):     # a far value near the largest double: no tail
+        return 0.0, 0.0
     z = float(b / r[2] - x[2])
     if abs(b) <= 1e-9 * max(1.0, abs(z)):
         return 0.0, 0.0
