@@ -1778,7 +1778,7 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
         below = count_below(op, lo) if math.isfinite(lo) else 0
     c = op.open_end_term(hi)
     R = float(op.sample.r[-1])
-    band = _THRESHOLD_BAND * float(eq.p(hi, Sample(op.sample.r[-1:], op.sample.V[-1:], op.sample.S[-1:]))[0]) / R**2
+    band = _THRESHOLD_BAND * float(eq.p(hi, op.end_sample())[0]) / R**2
     n_hi = op.count_negative(hi - band, c)
     near = None
     if op.count_negative(hi + band, c) != n_hi:

@@ -330,6 +330,11 @@ class SymmetricOperator:
             neg += q < 0
         return int(neg)
 
+    def end_sample(self) -> Sample:
+        """The potential at the box's outer end R (the last node), as a one-point sample."""
+        s = self.sample
+        return Sample(s.r[-1:], s.V[-1:], s.S[-1:], None if s.W is None else s.W[-1:])
+
     def open_end_term(self, E) -> float:
         """c of the term c f(t_max)^2 that makes the outer end of the box open to a potential-free
         exterior at the threshold (E = 0): the natural boundary condition of the form with it is
@@ -347,9 +352,8 @@ class SymmetricOperator:
         instead, a level bound by less than about 1/(2 m R^2) is not counted. Integrating p (u' +
         kappa u / r)^2 by parts leaves p (u' + kappa u / r) v at R, so c = p (l' - kappa) / R w(R)^2.
         """
-        s = self.sample
-        end = Sample(s.r[-1:], s.V[-1:], s.S[-1:], None if s.W is None else s.W[-1:])
-        R = float(s.r[-1])
+        end = self.end_sample()
+        R = float(end.r[0])
         p = float(self.eq.p(float(E), end)[0])
         qe = float(self.eq.q(float(E), end)[0]) - float(E)
         k = float(self.eq.kappa_eff)
