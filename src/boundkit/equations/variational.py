@@ -257,9 +257,10 @@ class SymmetricOperator:
         out[0] += dtype(self._sigma(E, derivative)) * f[0]
         return out
 
-    def symmetric(self, E, derivative=False) -> np.ndarray:
-        """K(E) (or dK/dE) on the kept nodes, unscaled and symmetric (double precision)."""
-        K = self._dense(self._blocks(E, np.float64, derivative))
+    def symmetric(self, E, derivative=False, last: bool = False) -> np.ndarray:
+        """K(E) (or dK/dE) on the kept nodes (with ``last``, the last node too), unscaled and symmetric
+        (double precision)."""
+        K = self._dense(self._blocks(E, np.float64, derivative), last=last)
         K[0, 0] += self._sigma(E, derivative)
         return K
 
@@ -363,8 +364,7 @@ class SymmetricOperator:
     def open_pencil(self, E, open_end: float) -> tuple[np.ndarray, np.ndarray]:
         """(K(E), M) on every node, the last one kept with the term ``open_end`` f(t_max)^2
         (:meth:`open_end_term`); dense, for the few eigenvalues near the threshold of a far box."""
-        K = self._dense(self._blocks(E, np.float64), last=True)
-        K[0, 0] += self._sigma(E)
+        K = self.symmetric(E, last=True)
         K[-1, -1] += open_end
         return K, self._dense(self._mass_element_blocks(), last=True)
 
