@@ -105,10 +105,17 @@ def _stalled_at_noise(op, y, step: float, ext: bool) -> bool:
     Measured on square-well p and d levels 1e-8 to 3e-9 of the depth below the threshold: Newton's steps
     stalled at about u times that scale, and counts in double precision placed the level within 1.9
     times 2^-53 times it (45 rungs)."""
-    noise = getattr(op, "energy_noise", None)
-    if noise is None or not hasattr(op, "noise_stalls"):
+    if not hasattr(op, "noise_stalls"):
         return False
-    return step <= NOISE_ULPS * _unit(ext) * noise(np.asarray(y, dtype=float))
+    bound = energy_rounding(op, y, ext)
+    return bound is not None and step <= bound
+
+
+def energy_rounding(op, y, ext: bool = False) -> float | None:
+    """The rounding of the level of y on ``op``: NOISE_ULPS u op.energy_noise(y) (u as in
+    :func:`_stalled_at_noise`), or None for an operator without ``energy_noise``."""
+    noise = getattr(op, "energy_noise", None)
+    return None if noise is None else NOISE_ULPS * _unit(ext) * noise(np.asarray(y, dtype=float))
 
 
 def _unit(ext: bool) -> float:
@@ -181,7 +188,7 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
             # by 1e-6 or better (its factor is about the size of the previous step over the gap)
             if small >= 2 or prev <= 1e-8 * abs(float(E)):
                 if noisy:           # the caller's estimate must cover that rounding (op.noise_stalls)
-                    op.noise_stalls[float(E)] = NOISE_ULPS * _unit(ext) * op.energy_noise(np.asarray(yw, dtype=float))
+                    op.noise_stalls[float(E)] = energy_rounding(op, yw, ext)
                 return Refined(float(E), np.asarray(yw, dtype=float), it, True, step)
         elif it == 1 and step <= 1e-2 * math.sqrt(rtol) * abs(float(E)):
             # a first step so small that the next one, quadratically smaller by a factor up to

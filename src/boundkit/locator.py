@@ -65,7 +65,7 @@ from typing import NamedTuple
 import numpy as np
 import scipy.linalg as sla
 
-from .eigen import NOISE_ULPS, refine
+from .eigen import energy_rounding, refine
 from .equations.variational import SymmetricOperator
 
 __all__ = ["count_below", "locate_levels", "certify_levels", "particle_floor", "peak_floor", "Floor", "Located"]
@@ -335,7 +335,7 @@ def _closed(op, k: int, a: float, b: float, counts: tuple[int, int], width: floa
         # the count's own rounding (in double precision) can place the bracket that far off: a level 1e-8
         # of its well's depth below the threshold was 1.7e-12 hartree outside a bracket of 1e-13
         # relative, and never found (:func:`boundkit.eigen._stalled_at_noise`)
-        s = max(s, NOISE_ULPS * 2.0**-53 * op.energy_noise(ref.vector))
+        s = max(s, energy_rounding(op, ref.vector))
     return (ref if ref.converged and a - s <= ref.energy <= b + s else None), (a, b, ca, cb)
 
 
