@@ -13,7 +13,7 @@ import numpy as np
 
 from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int, check_positive
 from .._rounding import rounding_floor
-from ..units import C_AU, ENERGY_UNITS, FM_IN_BOHR, bohr_to, constants_record, hartree_to, system_units
+from ..units import C_AU, ENERGY_UNITS, bohr_to, constants_record, hartree_to, system_units, to_atomic
 from ..units import energy_unit as canonical_unit
 from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
@@ -38,7 +38,7 @@ def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_
                               mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev, scalar=scalar, units=units,
                               j=j)
     if hard_core is not None:
-        hard_core = check_positive("hard_core", hard_core) * (FM_IN_BOHR if units == "nuclear" else 1.0)
+        hard_core = to_atomic(check_positive("hard_core", hard_core), "bohr", units)
     settings["hard_core_bohr"] = hard_core
     settings["potential_name"] = pot.name
     return prepare(eq, pot, hard_core), settings
@@ -314,6 +314,15 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
 
 
 # --- scattering length -----------------------------------------------------------------------
+def _short_range_only(ch, message) -> None:
+    """Refuse a channel with a long tail: ``message(tail)`` names it, ``tail`` being 'an inverse-square
+    tail (B = ...)' or 'a Coulomb tail (charge ...)' (the inverse square first)."""
+    if ch.tail_b:
+        raise ValueError(message(f"an inverse-square tail (B = {ch.tail_b:g} hartree bohr^2)"))
+    if ch.tail_charge:
+        raise ValueError(message(f"a Coulomb tail (charge {ch.tail_charge:g})"))
+
+
 def scattering_length(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
                       kappa: int | None = None, particle: str | None = None, mass_mev: float | None = None,
                       nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
@@ -353,12 +362,9 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     tol = check_positive("tol", tol)
     ch, settings = _channel(equation, potential, params, None, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, None, hard_core)
-    if ch.tail_b:
-        raise ValueError(f"potential: it has an inverse-square tail (B = {ch.tail_b:g} hartree bohr^2); the scattering "
-                         "length here is for short-range potentials -- use phase_shifts")
-    if ch.tail_charge:
-        raise ValueError(f"potential: it has a Coulomb tail (charge {ch.tail_charge:g}); the scattering length "
-                         "here is for short-range potentials -- use phase_shifts for Coulomb-modified phases")
+    _short_range_only(ch, lambda tail: f"potential: it has {tail}; the scattering length here is for short-range "
+                                       "potentials -- use phase_shifts"
+                                       + ("" if ch.tail_b else " for Coulomb-modified phases"))
     if ch.kappa != -1:
         raise ValueError("kappa: the scattering length is an s-wave quantity; use kappa = -1 (s1/2)")
     schr = ch.eq.name == "schrodinger"
@@ -489,12 +495,8 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, None, particle, mass_mev, nucleus_mass_mev, None,
                             units, None, None)
-    if ch.tail_b:
-        raise ValueError(f"potential: Levinson's theorem needs a short-range potential; this one has an inverse-square "
-                         f"tail (B = {ch.tail_b:g} hartree bohr^2)")
-    if ch.tail_charge:
-        raise ValueError(f"potential: Levinson's theorem needs a short-range potential; this one has a Coulomb tail "
-                         f"(charge {ch.tail_charge:g}) and infinitely many bound levels")
+    _short_range_only(ch, lambda tail: "potential: Levinson's theorem needs a short-range potential; this one has "
+                                       + tail + ("" if ch.tail_b else " and infinitely many bound levels"))
     eq = ch.eq
     R0, _ = matching_radius(ch, 0.0, tol)
     k_lo = 1e-3 / max(R0, ch.length)
@@ -615,7 +617,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
         r = np.atleast_1d(np.asarray(r, dtype=float))
         if r.size == 0 or not np.all(np.isfinite(r)) or np.any(r <= 0):
             raise ValueError(f"r: give positive, finite radii in {length}")
-        r = r * (FM_IN_BOHR if length == "fm" else 1.0)
+        r = to_atomic(r, "bohr", units)
     ch, _ = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
                      hard_core)
     eq = ch.eq
