@@ -1725,8 +1725,16 @@ class _NearThreshold(NamedTuple):
 
     mu: float           # its eigenvalue of (K(threshold), M): about its energy less the threshold, hartree
     error: float        # how far mu can be off: the change to twice the degree, rounding, the tail beyond R
-    bound: bool         # counted as bound: mu < -error
-    decided: bool       # |mu| > error: which side of the threshold it lies on is known
+
+    @property
+    def bound(self) -> bool:
+        """Counted as bound: mu < -error."""
+        return self.mu < -self.error
+
+    @property
+    def decided(self) -> bool:
+        """|mu| > error: which side of the threshold it lies on is known."""
+        return abs(self.mu) > self.error
 
 
 _THRESHOLD_BAND = 0.1   # the band around the threshold looked at closely, in p / R^2 of the far box (R its radius)
@@ -1816,7 +1824,7 @@ def _near_threshold(eq, pot, sample, gamma: float, L: float, r_min: float, r_far
     s = _sample(pot, r, scan=True)
     tail = float(np.trapezoid(np.abs(s.V + s.S), r)) / R
     error = abs(mu_op - mu_other) + max(noise_op, noise_other) + tail
-    return _NearThreshold(mu, error, mu < -error, abs(mu) > error)
+    return _NearThreshold(mu, error)
 
 
 def _open_level(op, c: float, hi: float, band: float) -> tuple[float, float]:
@@ -1831,7 +1839,7 @@ def _open_level(op, c: float, hi: float, band: float) -> tuple[float, float]:
 
     n0 = op.count_negative(hi - band, c)
     side = -1.0 if op.count_negative(hi, c) > n0 else 1.0      # below the threshold, or above it
-    a, b = 0.0, band        # distances from hi: the level lies between them, on its side
+    b = band                # distance from hi beyond which the level does not lie, on its side
     for _ in range(200):
         mid = 0.5 * b
         if mid == 0.0 or (op.count_negative(hi + side * mid, c) > n0) != (side > 0):
