@@ -546,13 +546,17 @@ class SymmetricOperator:
     def dT_y(self, E, y):
         if self.eq.energy_linear:           # dK/dE = -M
             return -self.row_scale * self.mass_apply(np.asarray(y, dtype=float))
+        return self.row_scale * self._dK_y(E, y)[1]
+
+    def _dK_y(self, E, y) -> tuple[np.ndarray, np.ndarray]:
+        """(y on every node, (dK/dE) y on the kept nodes), element by element (no matrix)."""
         f = self.expand(np.asarray(y, dtype=float))
-        return self.row_scale * self._apply(E, f, np.float64, derivative=True)[:-1]
+        return f, self._apply(E, f, np.float64, derivative=True)[:-1]
 
     def slope_form(self, E, y) -> float:
         """y^T (dK/dE) y on the kept nodes (element by element, no matrix)."""
-        f = self.expand(np.asarray(y, dtype=float))
-        return float(f[:-1] @ self._apply(E, f, np.float64, derivative=True)[:-1])
+        f, dk = self._dK_y(E, y)
+        return float(f[:-1] @ dk)
 
     def charge_ratio(self, E, y) -> float:
         """-y^T (dK/dE) y / y^T M y: the slope with which the root's eigenvalue of (K(E), M) falls, on the
