@@ -114,3 +114,19 @@ def test_the_fermi_reference_is_reproduced_by_shooting():
 def test_the_references_are_reproduced_by_shooting(depth, R, a, exact):
     for cut in ((1e-8, 1.0, 60.0), (1e-7, 0.7, 50.0)):
         assert abs(_shot_1s(depth, R, a, exact, *cut) - exact) <= 2e-15 * abs(exact)
+
+
+def test_more_points_on_a_grid_match_a_grid_built_with_them():
+    """make_operator adds points to a built grid (with_quadrature) instead of building it again: the result
+    is the grid element_grid builds with those counts, bit for bit."""
+    import numpy as np
+
+    from boundkit.discretize.elements import element_grid, with_quadrature
+
+    edges = list(np.linspace(math.log(1e-5), math.log(20.0), 9))
+    quads = [14 + k for k in range(8)]
+    direct = element_grid(edges, [12] * 8, quads)
+    added = with_quadrature(element_grid(edges, [12] * 8, [14] * 8), edges, quads)
+    assert np.array_equal(direct.t_ext, added.t_ext)
+    for a, b in zip(direct.quad, added.quad):
+        assert all(np.array_equal(x, y) for x, y in ((a.t, b.t), (a.w, b.w), (a.B, b.B), (a.Bt, b.Bt)))

@@ -33,7 +33,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .discretize.elements import element_grid, gll
+from .discretize.elements import element_grid, gll, with_quadrature
 
 if TYPE_CHECKING:       # the operator and the locator load with the first rung, not with the stop rule
     from .equations.variational import SymmetricOperator
@@ -252,7 +252,7 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
     sample = sample_fn(grid.r)
     more = _structure_points(grid, sample)
     if any(more):       # the nodes stay where they are: only the quadrature changes
-        grid = element_grid(edges, degrees, [q + m for q, m in zip(quads, more)])
+        grid = with_quadrature(grid, edges, [q + m for q, m in zip(quads, more)])
     sample_q = sample_fn(np.exp(grid.tq.astype(float)))
     return SymmetricOperator(eq, grid, sample, sample_q, gamma, r_core, E_ref=E0)
 

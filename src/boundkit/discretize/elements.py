@@ -17,7 +17,7 @@ r^gamma is factored out.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import lru_cache
 
 import numpy as np
@@ -142,6 +142,21 @@ def _reference_quadrature(n: int, m: int):
     return y, wy, B, Bt
 
 
+def _element_quadrature(a, b, n: int, m: int) -> Quadrature:
+    """The m Gauss-Legendre points of the degree-n element [a, b] (extended-precision edges)."""
+    half = (b - a) / 2
+    y, wy, B, Bt = _reference_quadrature(n, m)
+    return Quadrature(t=a + (y + 1) * half, w=wy * float(half), B=B, Bt=Bt / half)
+
+
+def with_quadrature(grid: ElementGrid, edges, quad_points) -> ElementGrid:
+    """``grid`` (built on ``edges``) with other Gauss-Legendre point counts, one per element: the nodes,
+    differentiation matrices and weights are kept, only the quadrature is rebuilt."""
+    edges = [np.longdouble(e) for e in edges]
+    return replace(grid, quad=tuple(_element_quadrature(edges[e], edges[e + 1], s1 - s0, int(m))
+                                    for e, ((s0, s1), m) in enumerate(zip(grid.elements, quad_points))))
+
+
 def element_grid(edges, degree, quad_points=None) -> ElementGrid:
     """GLL spectral elements between consecutive ``edges`` (ascending t).
 
@@ -179,8 +194,7 @@ def element_grid(edges, degree, quad_points=None) -> ElementGrid:
         els.append((s, s + n))
         Ds.append(Dref / half)
         wl.append(we)
-        y, wy, B, Bt = _reference_quadrature(n, quads[e])
-        qs.append(Quadrature(t=a + (y + 1) * half, w=wy * float(half), B=B, Bt=Bt / half))
+        qs.append(_element_quadrature(a, b, n, quads[e]))
         s += n
     t_ext[-1] = edges[-1]
     degree = max(degrees)
