@@ -17,7 +17,8 @@ from scipy.special import ai_zeros
 
 import boundkit
 from boundkit.potentials import TERMS, make_potential
-from boundkit.potentials.library import LIBRARY, Fermi, UniformSphere, Uehling, fermi_dirac, uehling_integral
+from boundkit.potentials.library import (LIBRARY, Fermi, UniformSphere, Uehling, fermi_dirac, fermi_dirac_orders,
+                                        uehling_integral)
 from boundkit.units import ALPHA, FM_PER_BOHR
 
 LAMBDA_E = ALPHA  # hbar/(m_e c) in bohr (atomic units: 1/c = alpha)
@@ -142,6 +143,20 @@ def test_fermi_dirac_integrals_against_mpmath_polylog():
             with mp.workdps(80):
                 ref = -mp.polylog(s, -mp.exp(mp.mpf(y)))
                 assert abs(g - ref) <= 1e-14 * abs(ref), (s, y)
+
+
+def test_fermi_dirac_series_tiers_against_mpmath_polylog():
+    # the series for y < -1 keeps 40, 11 or 1 terms by how small e^y is (boundaries -4 and -41): each
+    # side of each boundary, and far out where one term is all, against mpmath.polylog (300 digits, for
+    # Li_1(-e^y) = -log(1 + e^y) at y = -600); several orders at once agree with one at a time (to rounding)
+    ys = np.array([-600.0, -41.0 - 1e-9, -41.0, -40.999, -4.0 - 1e-12, -4.0, -3.999, -1.5, 2.5, 41.5])
+    many = fermi_dirac_orders((1, 2, 3, 7), ys)
+    for row, s in zip(many, (1, 2, 3, 7)):
+        np.testing.assert_allclose(row, fermi_dirac(s, ys), rtol=5e-16, atol=0)
+        for y, g in zip(ys, row):
+            with mp.workdps(300):
+                ref = -mp.polylog(s, -mp.exp(mp.mpf(y)))
+                assert abs(g - ref) <= 1e-15 * abs(ref), (s, y, g, ref)
 
 
 def _fermi_reference(term: Fermi):
