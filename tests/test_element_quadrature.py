@@ -117,8 +117,9 @@ def test_the_references_are_reproduced_by_shooting(depth, R, a, exact):
 
 
 def test_more_points_on_a_grid_match_a_grid_built_with_them():
-    """make_operator adds points to a built grid (with_quadrature) instead of building it again: the result
-    is the grid element_grid builds with those counts, bit for bit."""
+    """make_operator adds the quadrature to a grid built without one (with_quadrature) once the structure
+    points are known: the result is the grid element_grid builds with those counts, bit for bit, as is the
+    one built with other counts first."""
     import numpy as np
 
     from boundkit.discretize.elements import element_grid, with_quadrature
@@ -126,7 +127,10 @@ def test_more_points_on_a_grid_match_a_grid_built_with_them():
     edges = list(np.linspace(math.log(1e-5), math.log(20.0), 9))
     quads = [14 + k for k in range(8)]
     direct = element_grid(edges, [12] * 8, quads)
-    added = with_quadrature(element_grid(edges, [12] * 8, [14] * 8), edges, quads)
-    assert np.array_equal(direct.t_ext, added.t_ext)
-    for a, b in zip(direct.quad, added.quad):
-        assert all(np.array_equal(x, y) for x, y in ((a.t, b.t), (a.w, b.w), (a.B, b.B), (a.Bt, b.Bt)))
+    bare = element_grid(edges, [12] * 8, quadrature=False)
+    assert bare.quad == ()
+    for added in (with_quadrature(element_grid(edges, [12] * 8, [14] * 8), edges, quads),
+                  with_quadrature(bare, edges, quads)):
+        assert np.array_equal(direct.t_ext, added.t_ext) and np.array_equal(direct.w, added.w)
+        for a, b in zip(direct.quad, added.quad, strict=True):
+            assert all(np.array_equal(x, y) for x, y in ((a.t, b.t), (a.w, b.w), (a.B, b.B), (a.Bt, b.Bt)))

@@ -248,11 +248,10 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
              for d, a, b in zip(degrees, edges[:-1], edges[1:])]
     from .equations.variational import SymmetricOperator
 
-    grid = element_grid(edges, degrees, quads)
+    grid = element_grid(edges, degrees, quadrature=False)      # the nodes; the rule follows from them
     sample = sample_fn(grid.r)
     more = _structure_points(grid, sample)
-    if any(more):       # the nodes stay where they are: only the quadrature changes
-        grid = with_quadrature(grid, edges, [q + m for q, m in zip(quads, more)])
+    grid = with_quadrature(grid, edges, [q + m for q, m in zip(quads, more)])
     sample_q = sample_fn(np.exp(grid.tq.astype(float)))
     return SymmetricOperator(eq, grid, sample, sample_q, gamma, r_core, E_ref=E0)
 

@@ -157,7 +157,7 @@ def with_quadrature(grid: ElementGrid, edges, quad_points) -> ElementGrid:
                                     for e, ((s0, s1), m) in enumerate(zip(grid.elements, quad_points))))
 
 
-def element_grid(edges, degree, quad_points=None) -> ElementGrid:
+def element_grid(edges, degree, quad_points=None, quadrature: bool = True) -> ElementGrid:
     """GLL spectral elements between consecutive ``edges`` (ascending t).
 
     ``degree`` is one int for every element or a sequence with one per element.
@@ -165,7 +165,8 @@ def element_grid(edges, degree, quad_points=None) -> ElementGrid:
     int or one per element; default degree + 2). Integrals of the quadratic
     form are done on these points, not on the nodes: the integrands carry
     w(r)^2 ~ r^(2 gamma), which varies exponentially in t, and a rule with more
-    points keeps them exact enough that no spurious mode appears.
+    points keeps them exact enough that no spurious mode appears. With ``quadrature`` False the
+    grid has none yet (``quad`` empty; :func:`with_quadrature` adds it once the counts are known).
     """
     edges = [np.longdouble(e) for e in edges]
     m = len(edges) - 1
@@ -194,7 +195,8 @@ def element_grid(edges, degree, quad_points=None) -> ElementGrid:
         els.append((s, s + n))
         Ds.append(Dref / half)
         wl.append(we)
-        qs.append(_element_quadrature(a, b, n, quads[e]))
+        if quadrature:
+            qs.append(_element_quadrature(a, b, n, quads[e]))
         s += n
     t_ext[-1] = edges[-1]
     degree = max(degrees)
