@@ -371,8 +371,8 @@ class Fermi(Term):
     @staticmethod
     def rms_of(c: float, a: float) -> float:
         """Rms radius of the Fermi shape with half-density radius c and diffuseness a (same units)."""
-        y = c / a
-        return a * math.sqrt(12.0 * float(fermi_dirac(5, y)) / float(fermi_dirac(3, y)))
+        f3, f5 = fermi_dirac_orders((3, 5), c / a)
+        return a * math.sqrt(12.0 * float(f5) / float(f3))
 
     def density(self, r):
         """Charge density rho(r) in e/bohr^3 (normalised to Z)."""
