@@ -837,7 +837,10 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     The levels are located and certified by counting on spectral elements
     (:mod:`boundkit.ladder`, tolerance 1e-12: their error estimates must stay well below the
     other families' errors, which are checked against them); other families refine them.
+    A relativistic scalar that tends to a constant far out is refused (:func:`_check_scalar_far_constant`,
+    in hartree), as in :func:`setup` and :func:`solve_channel`.
     """
+    _check_scalar_far_constant(eq, pot, "atomic")
     found, tally, _, _, extra = _solve_elements(eq, pot, levels, 1e-12)
     found = sorted(found, key=lambda lv: lv.energy)
     seeds = [lv.energy for lv in found]
@@ -1535,8 +1538,11 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
     ``levels`` is a number of lowest levels, or None for every bound level of
     a potential that has finitely many. BLAS runs single-threaded inside: the
     matrices are small (a few hundred rows), and threads only contend, badly
-    so on a shared machine.
+    so on a shared machine. A relativistic scalar that tends to a constant far out is
+    refused here as in :func:`setup` (a caller may build ``eq`` and ``pot`` without it),
+    its value in the units of ``settings["units"]`` (atomic without settings).
     """
+    _check_scalar_far_constant(eq, pot, (settings or {}).get("units", "atomic"))
     with one_blas_thread():
         pot, v_inf = _with_threshold(eq, pot)
         try:
