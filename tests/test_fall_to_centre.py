@@ -157,3 +157,16 @@ def test_a_repulsive_scalar_core_in_front_of_a_coulomb_well_still_solves():
     res = boundkit.solve("klein-gordon", "coulomb", {"Z": 1}, scalar=expr("1/r**3"))
     assert res.status == "ok", res.message
     assert -0.5 < res.levels[0].energy < 0.0
+
+
+@pytest.mark.parametrize("method", ["spectral", "finite-difference"])
+@pytest.mark.parametrize("text", ["1/r**3", "exp(-r)/r**3", "1e-3/r**4"])
+def test_a_repulsive_scalar_alone_binds_no_klein_gordon_level(method, text):
+    """With V = 0 and S >= 0, q(E) - E = S + S^2/(2 m c^2) - E (1 + E/(2 m c^2)) > 0 for every E in the window
+    (-2 m c^2, 0): no level (exact, from the equation). A scalar core steeper than 1/r^2 alone (no well) ended
+    in LAPACK's 'Eigenvalues did not converge'."""
+    res = boundkit.solve("klein-gordon", None, scalar=expr(text), method=method)
+    assert res.status == "ok" and res.levels == () and res.diagnostics["bound_count"] == 0, res.message
+    assert "binds no level: it is nowhere attractive" in res.message
+    out = CliRunner().invoke(main, ["solve", "-e", "klein-gordon", "--scalar-expr", text, "--method", method])
+    assert out.exit_code == 0 and "nowhere attractive" in out.stdout, (out.output, out.exception)
