@@ -240,6 +240,7 @@ def test_the_engine_refuses_a_relativistic_scalar_far_constant_too(equation, cha
     in_hartree = s_inf * 1e6 / sc.physical_constants["Hartree energy in eV"][0]
     for call in (lambda: solve_channel(eq, pot, get_method("finite-difference"), 1),
                  lambda: prepare_channel(eq, pot, 1)):
-        with pytest.raises(ValueError, match=rf"^potential: the scalar part tends to S_inf = {re.escape(f'{in_hartree:.6g}')} "
-                                             rf"hartree far out, .*{recipe}"):
+        value = re.escape(f"{in_hartree:.6g}")
+        with pytest.raises(ValueError, match=rf"^potential: the scalar part tends to S_inf = {value} hartree far out, "
+                                             rf".*{recipe}"):
             call()
