@@ -100,3 +100,73 @@ def test_a_steady_inverse_square_core_under_a_strong_repulsive_coulomb_term_is_n
                 make_potential(lambda r: 1000 / r - 0.01 / r**2)):
         assert pot.origin_fall() is None
     assert make_potential(lambda r: 1000 / r - 0.01 / r**2.001).origin_fall() is not None
+
+
+# A Lorentz scalar enters the relativistic equations as (m c^2 + S)^2. S ~ -B r^-s with s > 1 makes the
+# mass term change sign near the origin (a pole of the Dirac equation's eliminated form) and, squared, a
+# core steeper than 1/r^2 with an essential singularity at the origin, which the elements' r^gamma factor
+# (gamma from a Coulomb-like -Zs/r scalar) was not built for: the Klein-Gordon solve of -1/r^3 ended in
+# LAPACK's 'Eigenvalues did not converge' (0.2 s), of -1/r**3 - 1/r in 'found 0 of 2', status partial (24 s),
+# and the Dirac one in a message about a 'strong repulsive V - S'.
+SCALAR_CORE = (r"scalar: S falls faster than -1/r at the origin \(r S = .* hartree bohr at r = 1e-12 bohr, .* at "
+               r"r = 1e-10 bohr\): .*\(m c\^2 \+ S\)\^2.*regularise the scalar's core")
+
+
+@pytest.mark.parametrize("equation", ["klein-gordon", "dirac"])
+@pytest.mark.parametrize("text", ["-1/r**3", "-1/r**2.5", "-1/r**2", "-1/r**4", "-exp(-r)/r**3",
+                                  "-exp(-r)/r**1.1"])
+def test_a_scalar_steeper_than_coulomb_at_the_origin_is_refused(no_layout, equation, text):
+    with pytest.raises(ValueError, match=SCALAR_CORE):
+        boundkit.solve(equation, None, scalar=expr(text))
+
+
+def test_a_callable_scalar_core_under_a_coulomb_well_is_refused_too(no_layout):
+    with pytest.raises(ValueError, match=SCALAR_CORE):
+        boundkit.solve("klein-gordon", None, scalar=lambda r: -1 / r**3)
+    with pytest.raises(ValueError, match=SCALAR_CORE):
+        boundkit.solve("klein-gordon", "coulomb", {"Z": 1}, scalar=expr("-1/r**3"), levels=2)
+    with pytest.raises(ValueError, match=SCALAR_CORE):
+        boundkit.solve("dirac", "coulomb", {"Z": 1}, kappa=-1, scalar=lambda r: -np.exp(-r) / r**2.5)
+
+
+def test_the_command_line_refuses_a_steep_scalar_in_one_line(no_layout):
+    for equation in ("klein-gordon", "dirac"):
+        res = CliRunner().invoke(main, ["solve", "--equation", equation, "--scalar-expr", "-1/r**3"])
+        assert res.exit_code == 2, (res.output, res.exception)
+        lines = res.stderr.strip().splitlines()
+        assert len(lines) == 1 and lines[0].startswith("boundkit: error: scalar: S falls faster than -1/r"), \
+            res.stderr
+        assert "Traceback" not in res.output
+
+
+def test_a_coulomb_like_or_repulsive_scalar_is_not_a_steep_scalar_core():
+    from boundkit.potentials import make_potential
+
+    # r S = -Zs + S0 r is steady (a Coulomb-like scalar, with or without a constant part); r S > 0 for a
+    # repulsive core; no scalar at all
+    for scalar in (expr("-2/r"), expr("-2/r + 0.3"), expr("-2*exp(-r)/r"), expr("1/r**3"), expr("exp(-r)/r**3")):
+        assert make_potential("coulomb", {"Z": 1}, scalar=scalar).scalar_origin_fall() is None
+    assert make_potential("coulomb", {"Z": 1}).scalar_origin_fall() is None
+    r, rs = make_potential(None, scalar=expr("-1/r**1.1")).scalar_origin_fall()
+    # r S = -r^-0.1 at 1e-12 and 1e-10 bohr: -10^1.2 and -10 (exact)
+    assert rs[0] == pytest.approx(-10**1.2, rel=1e-12) and rs[-1] == pytest.approx(-10.0, rel=1e-12)
+
+
+def test_a_repulsive_scalar_core_in_front_of_a_coulomb_well_still_solves():
+    # not refused: the core only raises the 1s of -1/r (exact -1/2 hartree, common practice)
+    res = boundkit.solve("klein-gordon", "coulomb", {"Z": 1}, scalar=expr("1/r**3"))
+    assert res.status == "ok", res.message
+    assert -0.5 < res.levels[0].energy < 0.0
+
+
+@pytest.mark.parametrize("method", ["spectral", "finite-difference"])
+@pytest.mark.parametrize("text", ["1/r**3", "exp(-r)/r**3", "1e-3/r**4"])
+def test_a_repulsive_scalar_alone_binds_no_klein_gordon_level(method, text):
+    """With V = 0 and S >= 0, q(E) - E = S + S^2/(2 m c^2) - E (1 + E/(2 m c^2)) > 0 for every E in the window
+    (-2 m c^2, 0): no level (exact, from the equation). A scalar core steeper than 1/r^2 alone (no well) ended
+    in LAPACK's 'Eigenvalues did not converge'."""
+    res = boundkit.solve("klein-gordon", None, scalar=expr(text), method=method)
+    assert res.status == "ok" and res.levels == () and res.diagnostics["bound_count"] == 0, res.message
+    assert "binds no level: it is nowhere attractive" in res.message
+    out = CliRunner().invoke(main, ["solve", "-e", "klein-gordon", "--scalar-expr", text, "--method", method])
+    assert out.exit_code == 0 and "nowhere attractive" in out.stdout, (out.output, out.exception)

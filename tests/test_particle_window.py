@@ -211,3 +211,36 @@ def test_a_relativistic_scalar_far_constant_is_refused_with_the_mass_recipe(equa
                                     *(["--kappa", "-1"] if equation == "dirac" else [])])
     assert out.exit_code == 2 and "Traceback" not in out.output
     assert f"give mass_mev={m + s_inf:.10g} (--mass-mev)" in out.output
+
+
+@pytest.mark.parametrize("equation,channel", [("dirac", {"kappa": -1}), ("klein-gordon", {"l": 0})])
+@pytest.mark.parametrize("s_inf", [30.0, -30.0])
+def test_the_engine_refuses_a_relativistic_scalar_far_constant_too(equation, channel, s_inf):
+    """`solve_channel` and `prepare_channel` are public and take an equation and a potential built without
+    `setup`, whose check alone refused a far scalar constant: solve_channel dropped the levels between 0 and
+    S_inf = +30 MeV (status ok, one level of the well where the shifted well has more). Same message, in
+    the units the settings carry (hartree without settings)."""
+    import re
+
+    import scipy.constants as sc
+
+    from boundkit.potentials import make_potential
+    from boundkit.solver import get_method, make_equation, prepare_channel, solve_channel
+    from boundkit.units import mass_mev_to_au
+
+    m = 938.272089
+    eq = make_equation(equation, mass=mass_mev_to_au(m), **channel)
+    pot = make_potential(ExpressionTerm("-50/(1 + exp((r - 5)/0.6))", {}),
+                         scalar=ExpressionTerm(f"{s_inf} + 0*r", {}), units="nuclear")
+    recipe = rf"give mass_mev={m + s_inf:.10g} \(--mass-mev\) and the scalar minus S_inf"
+    with pytest.raises(ValueError, match=rf"^potential: the scalar part tends to S_inf = {s_inf:g} MeV far out, a "
+                                         rf"change of mass there; the {equation} solver .*{recipe}"):
+        solve_channel(eq, pot, get_method("spectral"), None, settings={"units": "nuclear"})
+    # 1 hartree = 27.211386... eV (CODATA 2018 through scipy.constants)
+    in_hartree = s_inf * 1e6 / sc.physical_constants["Hartree energy in eV"][0]
+    for call in (lambda: solve_channel(eq, pot, get_method("finite-difference"), 1),
+                 lambda: prepare_channel(eq, pot, 1)):
+        value = re.escape(f"{in_hartree:.6g}")
+        with pytest.raises(ValueError, match=rf"^potential: the scalar part tends to S_inf = {value} hartree far out, "
+                                             rf".*{recipe}"):
+            call()

@@ -837,7 +837,10 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     The levels are located and certified by counting on spectral elements
     (:mod:`boundkit.ladder`, tolerance 1e-12: their error estimates must stay well below the
     other families' errors, which are checked against them); other families refine them.
+    A relativistic scalar that tends to a constant far out is refused (:func:`_check_scalar_far_constant`,
+    in hartree), as in :func:`setup` and :func:`solve_channel`.
     """
+    _check_scalar_far_constant(eq, pot, "atomic")
     found, tally, _, _, extra = _solve_elements(eq, pot, levels, 1e-12)
     found = sorted(found, key=lambda lv: lv.energy)
     seeds = [lv.energy for lv in found]
@@ -1535,8 +1538,11 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
     ``levels`` is a number of lowest levels, or None for every bound level of
     a potential that has finitely many. BLAS runs single-threaded inside: the
     matrices are small (a few hundred rows), and threads only contend, badly
-    so on a shared machine.
+    so on a shared machine. A relativistic scalar that tends to a constant far out is
+    refused here as in :func:`setup` (a caller may build ``eq`` and ``pot`` without it),
+    its value in the units of ``settings["units"]`` (atomic without settings).
     """
+    _check_scalar_far_constant(eq, pot, (settings or {}).get("units", "atomic"))
     with one_blas_thread():
         pot, v_inf = _with_threshold(eq, pot)
         try:
@@ -1601,10 +1607,16 @@ def _repulsive_everywhere(eq, pot) -> bool:
     A Dirac channel with vector terms only (no scalar) that are nowhere attractive binds no level of the
     particle either: the states a repulsive V holds inside the gap are those of the antiparticle (a
     repulsive Coulomb field's lie just above E = -2 m c^2, hydrogen's levels mirrored). Before this, a
-    repulsive point charge was refused with a message about a pole of the eliminated form and S = -V."""
-    if eq.name not in ("schrodinger", "dirac") or pot.confining or pot.tail_charge > 0:
+    repulsive point charge was refused with a message about a pole of the eliminated form and S = -V.
+
+    A Klein-Gordon channel with scalar terms only (V = 0) that are nowhere attractive binds none either:
+    q(E) - E = S + S^2/(2 m c^2) - E (1 + E/(2 m c^2)) > 0 for S >= 0 and every E in (-2 m c^2, 0). A
+    scalar core steeper than 1/r^2 alone (S = 1/r^3) ended in LAPACK's 'Eigenvalues did not converge'."""
+    if eq.name not in ("schrodinger", "dirac", "klein-gordon") or pot.confining or pot.tail_charge > 0:
         return False
     if eq.name == "dirac" and pot.scalar:       # only a repulsive vector potential: see _REPULSIVE_DIRAC
+        return False
+    if eq.name == "klein-gordon" and pot.vector:    # only a repulsive scalar potential (see above)
         return False
     _, strength, attractive = _strength(eq, pot)
     if np.any(attractive) or not np.any(strength >= 1e-3):    # V = 0: _natural_length's refusal
@@ -1621,15 +1633,17 @@ _REPULSIVE = ("this potential binds no level: it is nowhere attractive (V >= 0 a
 _REPULSIVE_DIRAC = ("this potential binds no level of the particle: it is nowhere attractive (V >= 0 at every "
                     "radius from 1e-14 to 1e8 bohr, no scalar term); the states a repulsive V holds in the gap are "
                     "the antiparticle's")
+_REPULSIVE_SCALAR = ("this potential binds no level: it is nowhere attractive (a scalar S >= 0 at every radius from "
+                     "1e-14 to 1e8 bohr and no vector term: (m c^2 + S)^2 >= (m c^2)^2)")
 
 
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
     _check_klein(eq, pot)
     if _repulsive_everywhere(eq, pot):
+        why = {"dirac": _REPULSIVE_DIRAC, "klein-gordon": _REPULSIVE_SCALAR}.get(eq.name, _REPULSIVE)
         return _result(eq, pot, disc, levels, tol, settings, potential_name, [], _Tally(), [], 0.0,
-                       {"bound_count": 0, "no_level_why": _REPULSIVE_DIRAC if eq.name == "dirac" else _REPULSIVE},
-                       t0)
+                       {"bound_count": 0, "no_level_why": why}, t0)
     if disc.family == "spectral":
         run = _solve_laguerre(eq, pot, levels, tol)
         found, tally, per_level, worst, extra = run

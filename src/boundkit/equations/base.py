@@ -110,6 +110,20 @@ class RadialEquation:
                              "finite-size cut-off")
 
     @staticmethod
+    def _refuse_steep_scalar(potential) -> None:
+        """Refuse a Lorentz scalar falling faster than -1/r at the origin (Klein-Gordon, Dirac)."""
+        probe = getattr(potential, "scalar_origin_fall", None)
+        fall = probe() if probe is not None else None
+        if fall is not None:
+            r, y = fall
+            raise ValueError(f"scalar: S falls faster than -1/r at the origin (r S = {y[0]:.3g} hartree bohr at "
+                             f"r = {r[0]:.3g} bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): it enters as "
+                             "(m c^2 + S)^2, so m c^2 + S changes sign near the origin and, squared, makes a core "
+                             "steeper than 1/r^2 that the relativistic solvers do not take (they take a scalar at "
+                             "most as singular as a Coulomb -Zs/r there); regularise the scalar's core, e.g. a "
+                             "finite-size cut-off")
+
+    @staticmethod
     def _refuse_nonrelativistic_terms(potential) -> None:
         """Relativistic equations refuse terms that only the Schrodinger equation takes."""
         if potential.has_spin_orbit:

@@ -70,6 +70,7 @@ class Dirac(RadialEquation):
         return s.V + s.S
 
     def gamma(self, potential) -> float:
+        self._refuse_steep_scalar(potential)      # before the 1/r^2 terms: S = -B/r^2 is one of them
         self._refuse_nonrelativistic_terms(potential)
         self._refuse_fall_to_centre(potential, scalar=False)   # a scalar enters squared, as (m c^2 + S)^2
         zv, zs = potential.z_vector, potential.z_scalar

@@ -256,9 +256,9 @@ def _inverse_square_tail(r: np.ndarray, v: np.ndarray) -> tuple[float, float]:
 _ORIGIN_RADII = (1e-12, 1e-11, 1e-10)   # bohr: where the origin is probed (ProbedTerm, Potential.origin_fall)
 
 
-def _falling_core(r: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
-    """(r, r^2 V) when r^2 V at the three ascending radii ``r`` is negative and grows in magnitude towards
-    the origin beyond a steady core, else None.
+def _falling_core(r: np.ndarray, v: np.ndarray, power: int = 2) -> tuple[np.ndarray, np.ndarray] | None:
+    """(r, r^power V) when r^power V at the three ascending radii ``r`` is negative and grows in magnitude
+    towards the origin beyond a steady core, else None.
 
     V ~ -B r^-s with s > 2 (or a 1/r^2 core whose coefficient grows, log(r)/r^2) is unbounded below:
     the particle falls to the centre (Landau & Lifshitz, Quantum Mechanics, sec. 35). A steady core
@@ -266,8 +266,10 @@ def _falling_core(r: np.ndarray, v: np.ndarray) -> tuple[np.ndarray, np.ndarray]
     (with a strong repulsive Z0, 1000/r - 0.01/r^2, r^2 V grows towards the origin too), so a fall is a growth
     beyond that line by more than the 1e-6 that :class:`ProbedTerm` allows a steady core. A finite or
     Coulomb-like origin has r^2 V -> 0, and rounding noise of a sum of such terms shrinks with r too.
+    With ``power`` = 1 the same test finds a Lorentz scalar S steeper than -1/r (r S = -Zs + S0 r is the
+    steady core there): see :meth:`Potential.scalar_origin_fall`.
     """
-    y = r * r * v
+    y = r**power * v
     if not np.all(np.isfinite(y)) or not np.all(y < 0) or not np.all(y[:-1] < y[1:]):
         return None
     line = y[1] - (y[2] - y[1]) / (r[2] - r[1]) * (r[1] - r[0])
@@ -546,10 +548,20 @@ class Potential:
     def origin_fall(self, scalar: bool = True) -> tuple[np.ndarray, np.ndarray] | None:
         """(r, r^2 V) at r = 1e-12, 1e-11, 1e-10 bohr when V (+ S with ``scalar``) falls faster than
         -1/r^2 at the origin, else None (see :func:`_falling_core`)."""
+        return self._origin_probe(lambda r: np.real(self.V(r)) + (np.real(self.S(r)) if scalar else 0.0), 2)
+
+    def scalar_origin_fall(self) -> tuple[np.ndarray, np.ndarray] | None:
+        """(r, r S) at r = 1e-12, 1e-11, 1e-10 bohr when the scalar S falls faster than -1/r at the
+        origin, else None (see :func:`_falling_core`). The relativistic equations take S squared, as
+        (m c^2 + S)^2: such a scalar is a core steeper than 1/r^2 behind a zero of m c^2 + S."""
+        return self._origin_probe(lambda r: np.real(self.S(r)), 1)
+
+    @staticmethod
+    def _origin_probe(values, power: int) -> tuple[np.ndarray, np.ndarray] | None:
         r = np.array(_ORIGIN_RADII)
         with np.errstate(all="ignore"), complex_values():
-            v = np.real(self.V(r)) + (np.real(self.S(r)) if scalar else 0.0)
-        return _falling_core(r, v)
+            v = values(r)
+        return _falling_core(r, v, power)
 
     @property
     def tail_inverse_square(self) -> float:
