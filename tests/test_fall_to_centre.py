@@ -170,3 +170,43 @@ def test_a_repulsive_scalar_alone_binds_no_klein_gordon_level(method, text):
     assert "binds no level: it is nowhere attractive" in res.message
     out = CliRunner().invoke(main, ["solve", "-e", "klein-gordon", "--scalar-expr", text, "--method", method])
     assert out.exit_code == 0 and "nowhere attractive" in out.stdout, (out.output, out.exception)
+
+
+# The relativistic equations take V squared: the Klein-Gordon form has -(E - V)^2 / (2 m c^2), and the
+# Dirac equation's V enters beside m c^2 the same way. |V| ~ B r^-s with s > 1, of either sign, is then a
+# core steeper than 1/r^2 (an attractive V^2 / (2 m c^2) ~ r^-2s), a fall to the centre that the vector
+# probe (r^2 V) missed: a Klein-Gordon solve of -exp(-r)/r**1.5 returned 'tolerance-not-met', estimated
+# error 1.5e2, after 64 s, and the Dirac one ran for more than 100 s (a helper's finding).
+STEEP_V = (r"potential: V grows faster than 1/r at the origin \(r \|V\| = .* hartree bohr at r = 1e-12 bohr, .* at "
+           r"r = 1e-10 bohr\): .*\(E - V\)\^2.*falls to the centre.*regularise the core")
+
+
+@pytest.mark.parametrize("equation", ["klein-gordon", "dirac"])
+@pytest.mark.parametrize("text", ["-exp(-r)/r**1.5", "-1/r**1.5 - 1/r", "1/r**1.5 - 2/r", "-1/r**1.9",
+                                  "-1/r**1.05"])
+def test_a_vector_potential_steeper_than_coulomb_is_refused_by_the_relativistic_equations(no_layout, equation,
+                                                                                          text):
+    kw = {"kappa": -1} if equation == "dirac" else {}
+    with pytest.raises(ValueError, match=STEEP_V):
+        boundkit.solve(equation, expr(text), **kw)
+
+
+def test_coulomb_like_vector_cores_are_not_steep():
+    from boundkit.potentials import make_potential
+
+    # r |V| = Z - c r (steady), finite at the origin, or growing like ln(1/r) (the Uehling correction of
+    # a point charge: r |V| = 95.03, 94.71, 94.38 at Z = 92 from 1e-12 to 1e-10 bohr) is not refused
+    for pot in (make_potential("coulomb", {"Z": 92}), make_potential(["coulomb", "uehling"], {"Z": 92}),
+                make_potential("fermi", {"Z": 92, "rms_fm": 5.86}), make_potential(expr("-2*exp(-r)/r + 3")),
+                make_potential(expr("-1/r + 1e4*r**2"))):
+        assert pot.vector_origin_steep() is None, pot
+    r, y = make_potential(expr("-1/r**1.5")).vector_origin_steep()
+    # r |V| = r^-0.5 at 1e-12 and 1e-10 bohr: 1e6 and 1e5 (exact)
+    assert y[0] == pytest.approx(1e6, rel=1e-12) and y[-1] == pytest.approx(1e5, rel=1e-12)
+
+
+def test_the_schrodinger_equation_still_takes_a_core_between_coulomb_and_inverse_square():
+    # -1/r**1.5 is no fall for the Schrodinger equation (s < 2): it solves, well below the -1/r 1s
+    res = boundkit.solve("schrodinger", expr("-1/r**1.5"))
+    assert res.status == "ok", res.message
+    assert res.levels[0].energy < -0.5

@@ -124,6 +124,20 @@ class RadialEquation:
                              "finite-size cut-off")
 
     @staticmethod
+    def _refuse_steep_vector(potential) -> None:
+        """Refuse V growing faster than 1/r at the origin, of either sign (Klein-Gordon, Dirac): the
+        relativistic equations take it squared (:meth:`Potential.vector_origin_steep`)."""
+        probe = getattr(potential, "vector_origin_steep", None)
+        steep = probe() if probe is not None else None
+        if steep is not None:
+            r, y = steep
+            raise ValueError(f"potential: V grows faster than 1/r at the origin (r |V| = {y[0]:.3g} hartree bohr at "
+                             f"r = {r[0]:.3g} bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): the relativistic equations "
+                             "take V squared, as (E - V)^2, which makes a core steeper than 1/r^2 there whatever V's "
+                             "sign, and the particle falls to the centre (a Coulomb -Z/r is the most singular V they "
+                             "take); regularise the core, e.g. a finite-size cut-off, or use the Schrodinger equation")
+
+    @staticmethod
     def _refuse_nonrelativistic_terms(potential) -> None:
         """Relativistic equations refuse terms that only the Schrodinger equation takes."""
         if potential.has_spin_orbit:

@@ -8,6 +8,8 @@ equations). All values are in atomic units: r in bohr, V in hartree.
 """
 from __future__ import annotations
 
+import math
+
 import contextlib
 import contextvars
 import functools
@@ -254,6 +256,7 @@ def _inverse_square_tail(r: np.ndarray, v: np.ndarray) -> tuple[float, float]:
 
 
 _ORIGIN_RADII = (1e-12, 1e-11, 1e-10)   # bohr: where the origin is probed (ProbedTerm, Potential.origin_fall)
+_STEEP_PER_DECADE = 0.02                 # growth of log10(r |V|) per decade towards the origin taken as |V| ~ r^-s, s > 1
 
 
 def _falling_core(r: np.ndarray, v: np.ndarray, power: int = 2) -> tuple[np.ndarray, np.ndarray] | None:
@@ -555,6 +558,19 @@ class Potential:
         origin, else None (see :func:`_falling_core`). The relativistic equations take S squared, as
         (m c^2 + S)^2: such a scalar is a core steeper than 1/r^2 behind a zero of m c^2 + S."""
         return self._origin_probe(lambda r: np.real(self.S(r)), 1)
+
+    def vector_origin_steep(self) -> tuple[np.ndarray, np.ndarray] | None:
+        """(r, r |V|) at r = 1e-12, 1e-11, 1e-10 bohr when |V| grows faster than 1/r towards the origin, of
+        either sign, else None: r |V| grows towards the origin by more than 10^0.02 per decade (|V| ~ r^-s
+        with s >= 1.02). A Coulomb core (r |V| steady), a finite one, and the logarithmic growth of a
+        point charge's Uehling correction (10^0.0015 per decade at Z = 92) pass. The relativistic
+        equations take V squared, so such a V is a core steeper than 1/r^2 there."""
+        r = np.array(_ORIGIN_RADII)
+        with np.errstate(all="ignore"), complex_values():
+            y = r * np.abs(np.real(self.V(r)))
+        if not (np.all(np.isfinite(y)) and np.all(y > 0) and y[0] > y[1] > y[2]):
+            return None
+        return (r, y) if math.log10(y[0] / y[1]) >= _STEEP_PER_DECADE else None
 
     @staticmethod
     def _origin_probe(values, power: int) -> tuple[np.ndarray, np.ndarray] | None:
