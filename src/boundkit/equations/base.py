@@ -98,44 +98,42 @@ class RadialEquation:
         raise NotImplementedError
 
     @staticmethod
-    def _refuse_fall_to_centre(potential, scalar: bool = True) -> None:
+    def _refuse_core(potential, probe: str, message, *args) -> None:
+        """Raise ValueError(message(r, y)) when the potential's origin probe ``probe`` (a method returning
+        (radii, values) or None) finds a core the equation does not take; a potential without it passes."""
+        method = getattr(potential, probe, None)
+        found = method(*args) if method is not None else None
+        if found is not None:
+            raise ValueError(message(*found))
+
+    @classmethod
+    def _refuse_fall_to_centre(cls, potential, scalar: bool = True) -> None:
         """Refuse V (+ S with ``scalar``) falling faster than -1/r^2 at the origin: no lowest level."""
-        probe = getattr(potential, "origin_fall", None)
-        fall = probe(scalar) if probe is not None else None
-        if fall is not None:
-            r, y = fall
-            raise ValueError(f"potential: V falls faster than -1/r^2 at the origin (r^2 V = {y[0]:.3g} hartree "
-                             f"bohr^2 at r = {r[0]:.3g} bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): the particle "
-                             "falls to the centre and there is no lowest level; regularise the core, e.g. a "
-                             "finite-size cut-off")
+        cls._refuse_core(potential, "origin_fall", lambda r, y: (
+            f"potential: V falls faster than -1/r^2 at the origin (r^2 V = {y[0]:.3g} hartree bohr^2 at r = "
+            f"{r[0]:.3g} bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): the particle falls to the centre and there is no "
+            "lowest level; regularise the core, e.g. a finite-size cut-off"), scalar)
 
-    @staticmethod
-    def _refuse_steep_scalar(potential) -> None:
+    @classmethod
+    def _refuse_steep_scalar(cls, potential) -> None:
         """Refuse a Lorentz scalar falling faster than -1/r at the origin (Klein-Gordon, Dirac)."""
-        probe = getattr(potential, "scalar_origin_fall", None)
-        fall = probe() if probe is not None else None
-        if fall is not None:
-            r, y = fall
-            raise ValueError(f"scalar: S falls faster than -1/r at the origin (r S = {y[0]:.3g} hartree bohr at "
-                             f"r = {r[0]:.3g} bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): it enters as "
-                             "(m c^2 + S)^2, so m c^2 + S changes sign near the origin and, squared, makes a core "
-                             "steeper than 1/r^2 that the relativistic solvers do not take (they take a scalar at "
-                             "most as singular as a Coulomb -Zs/r there); regularise the scalar's core, e.g. a "
-                             "finite-size cut-off")
+        cls._refuse_core(potential, "scalar_origin_fall", lambda r, y: (
+            f"scalar: S falls faster than -1/r at the origin (r S = {y[0]:.3g} hartree bohr at r = {r[0]:.3g} bohr, "
+            f"{y[-1]:.3g} at r = {r[-1]:.3g} bohr): it enters as (m c^2 + S)^2, so m c^2 + S changes sign near the "
+            "origin and, squared, makes a core steeper than 1/r^2 that the relativistic solvers do not take (they "
+            "take a scalar at most as singular as a Coulomb -Zs/r there); regularise the scalar's core, e.g. a "
+            "finite-size cut-off"))
 
-    @staticmethod
-    def _refuse_steep_vector(potential) -> None:
+    @classmethod
+    def _refuse_steep_vector(cls, potential) -> None:
         """Refuse V growing faster than 1/r at the origin, of either sign (Klein-Gordon, Dirac): the
         relativistic equations take it squared (:meth:`Potential.vector_origin_steep`)."""
-        probe = getattr(potential, "vector_origin_steep", None)
-        steep = probe() if probe is not None else None
-        if steep is not None:
-            r, y = steep
-            raise ValueError(f"potential: V grows faster than 1/r at the origin (r |V| = {y[0]:.3g} hartree bohr at "
-                             f"r = {r[0]:.3g} bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): the relativistic equations "
-                             "take V squared, as (E - V)^2, which makes a core steeper than 1/r^2 there whatever V's "
-                             "sign, and the particle falls to the centre (a Coulomb -Z/r is the most singular V they "
-                             "take); regularise the core, e.g. a finite-size cut-off, or use the Schrodinger equation")
+        cls._refuse_core(potential, "vector_origin_steep", lambda r, y: (
+            f"potential: V grows faster than 1/r at the origin (r |V| = {y[0]:.3g} hartree bohr at r = {r[0]:.3g} "
+            f"bohr, {y[-1]:.3g} at r = {r[-1]:.3g} bohr): the relativistic equations take V squared, as (E - V)^2, "
+            "which makes a core steeper than 1/r^2 there whatever V's sign, and the particle falls to the centre (a "
+            "Coulomb -Z/r is the most singular V they take); regularise the core, e.g. a finite-size cut-off, or "
+            "use the Schrodinger equation"))
 
     @staticmethod
     def _refuse_nonrelativistic_terms(potential) -> None:
