@@ -195,8 +195,11 @@ def test_coulomb_like_vector_cores_are_not_steep():
     from boundkit.potentials import make_potential
 
     # r |V| = Z - c r (steady), finite at the origin, or growing like ln(1/r) (the Uehling correction of
-    # a point charge: r |V| = 95.03, 94.71, 94.38 at Z = 92 from 1e-12 to 1e-10 bohr) is not refused
+    # a point charge: r |V| = 95.03, 94.71, 94.38 at Z = 92 from 1e-12 to 1e-10 bohr, and alone, with a
+    # finite nucleus, 0.033 to 0.026 at Z = 1: the same rise each decade) is not refused
     for pot in (make_potential("coulomb", {"Z": 92}), make_potential(["coulomb", "uehling"], {"Z": 92}),
+                make_potential(["uniform-sphere", "uehling"], {"Z": 1, "rms_fm": 0.84}),
+                make_potential("uehling", {"Z": 1}),
                 make_potential("fermi", {"Z": 92, "rms_fm": 5.86}), make_potential(expr("-2*exp(-r)/r + 3")),
                 make_potential(expr("-1/r + 1e4*r**2"))):
         assert pot.vector_origin_steep() is None, pot

@@ -8,8 +8,6 @@ equations). All values are in atomic units: r in bohr, V in hartree.
 """
 from __future__ import annotations
 
-import math
-
 import contextlib
 import contextvars
 import functools
@@ -256,7 +254,7 @@ def _inverse_square_tail(r: np.ndarray, v: np.ndarray) -> tuple[float, float]:
 
 
 _ORIGIN_RADII = (1e-12, 1e-11, 1e-10)   # bohr: where the origin is probed (ProbedTerm, Potential.origin_fall)
-_STEEP_PER_DECADE = 0.02                 # growth of log10(r |V|) per decade towards the origin taken as |V| ~ r^-s, s > 1
+_STEEP_PER_DECADE = 10**0.02            # growth of r |V|'s rise per decade towards the origin taken as |V| ~ r^-s, s > 1
 
 
 def _falling_core(r: np.ndarray, v: np.ndarray, power: int = 2) -> tuple[np.ndarray, np.ndarray] | None:
@@ -561,16 +559,17 @@ class Potential:
 
     def vector_origin_steep(self) -> tuple[np.ndarray, np.ndarray] | None:
         """(r, r |V|) at r = 1e-12, 1e-11, 1e-10 bohr when |V| grows faster than 1/r towards the origin, of
-        either sign, else None: r |V| grows towards the origin by more than 10^0.02 per decade (|V| ~ r^-s
-        with s >= 1.02). A Coulomb core (r |V| steady), a finite one, and the logarithmic growth of a
-        point charge's Uehling correction (10^0.0015 per decade at Z = 92) pass. The relativistic
-        equations take V squared, so such a V is a core steeper than 1/r^2 there."""
+        either sign, else None: r |V| grows towards the origin, beyond rounding, by an amount per decade that
+        itself grows by 10^0.02 or more from one decade to the next (|V| ~ A r^-s with s >= 1.02 gives
+        10^(s - 1)). A Coulomb core (r |V| steady), a finite one, and the logarithmic growth of a point
+        charge's Uehling correction (the same amount each decade, (2 alpha / 3 pi) Z ln 10) pass. The
+        relativistic equations take V squared, so such a V is a core steeper than 1/r^2 there."""
         r = np.array(_ORIGIN_RADII)
         with np.errstate(all="ignore"), complex_values():
             y = r * np.abs(np.real(self.V(r)))
-        if not (np.all(np.isfinite(y)) and np.all(y > 0) and y[0] > y[1] > y[2]):
+        if not (np.all(np.isfinite(y)) and y[0] > y[1] > y[2] > 0 and y[0] - y[1] > 1e-6 * y[0]):
             return None
-        return (r, y) if math.log10(y[0] / y[1]) >= _STEEP_PER_DECADE else None
+        return (r, y) if (y[0] - y[1]) >= _STEEP_PER_DECADE * (y[1] - y[2]) else None
 
     @staticmethod
     def _origin_probe(values, power: int) -> tuple[np.ndarray, np.ndarray] | None:
