@@ -42,7 +42,7 @@ from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
 from .equations.base import decay_steps
 from .equations.dirac import Dirac
 from .equations.klein_gordon import KleinGordon
-from .equations.schrodinger import Schrodinger
+from .equations.schrodinger import Schrodinger, inverse_square_order
 from .mesh import LogMap
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
@@ -894,7 +894,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     guess_lo = lo       # the pencil's guesses are tried down to here (a Klein-Gordon floor lies above it)
     lo, floor_start = _particle_floor_by_bound(eq, sample, r_min, lo)
-    short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge <= 0
+    infinite = _supercritical_tail(eq, pot)
+    short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge <= 0 and not infinite
     bound = None
     if short_range:
         far = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi, lo, floor_start)
@@ -908,7 +909,8 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                 tally.notes.append(_below_window(eq, far.below))
     elif levels is None:
         raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
-                         + ("is confining" if pot.confining else "has an attractive Coulomb tail")
+                         + ("is confining" if pot.confining else _infinite_tail_why(eq, infinite) if infinite
+                            else "has an attractive Coulomb tail")
                          + " and binds infinitely many; give a number of levels")
     extra["bound_count"] = bound
     extra["window_bottom"] = lo
@@ -1015,6 +1017,24 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
             reuse = (edges, quiet, rung)
         energies = new_energies
         break
+    if rung is not None and len(rung.located.energies) < want and bound is None and not pot.confining:
+        # with no count (a long-range tail) the largest box tried is all there is; when it holds fewer levels
+        # than sought (levels of a supercritical 1/r^2 tail each
+        # about a hundred times shallower than the one before: the tenth of -1/(r^2 + 1) lies 1e-20 hartree
+        # down): the ladder solves those it holds and has room for (decayed by e^-_DECAY within it; the
+        # ninth of -1/(r^2 + 1), 2.2e-18 hartree down, had decayed by e^-6 at R = 3e9 bohr and was 1e-4 off
+        # with an estimate of 8e-13), and the result says why the rest are missing
+        got = 0
+        for E in rung.located.energies:
+            if _outer_radius(eq, pot, E, L) > 1.05 * R:
+                break
+            got += 1
+        extra["why"] = (f"the largest box tried (R = {R:.3g} bohr, {R / L:.3g} natural lengths, {rung.size} unknowns) "
+                        f"has room for {got} level(s) below the threshold; the others lie closer to it than such a "
+                        "box resolves")
+        want = got
+        if want == 0:
+            return [], tally, [], 0.0, extra
     # 2. the ladder on a fixed layout
     extra["r_max"] = R
     hist = _Histories()
@@ -1715,6 +1735,26 @@ def _with_table_error(pot, found, tally, worst: float, tol: float):
     return out, worst
 
 
+def _supercritical_tail(eq, pot) -> float:
+    """B of a far tail B / r^2 (no Coulomb tail) too attractive for the channel's l, l (l + 1) + 2 m B < -1/4,
+    else 0. Such a channel binds infinitely many levels, accumulating at the threshold geometrically (the
+    tail's order is complex, :func:`~boundkit.equations.schrodinger.inverse_square_order`): no far box counts
+    them all (one of -1/(r^2 + 1) counted 9, and they were reported as all the levels)."""
+    if pot.confining or pot.tail_charge != 0:
+        return 0.0
+    B = pot.tail_inverse_square
+    return B if B < 0 and inverse_square_order(eq.l, eq.mass, B) is None else 0.0
+
+
+def _infinite_tail_why(eq, B: float) -> str:
+    """Why a supercritical 1/r^2 tail (:func:`_supercritical_tail`) binds infinitely many levels."""
+    s = math.sqrt(-(eq.l + 0.5) ** 2 - 2 * eq.mass * B)
+    return (f"has an attractive 1/r^2 tail far out (B = {B:.3g} hartree bohr^2: l(l+1) + 2 m B = "
+            f"{eq.l * (eq.l + 1) + 2 * eq.mass * B:.3g} < -1/4 at l = {eq.l}), whose levels accumulate at the threshold, "
+            f"each about exp(2 pi / s) = {math.exp(min(2 * math.pi / s, 700.0)):.3g} times shallower than the one before "
+            f"(s = sqrt(-(l + 1/2)^2 - 2 m B) = {s:.3g}),")
+
+
 def _potential_range(eq, pot) -> float:
     """Radius beyond which 2 m r^2 |V + S| stays below 1e-3 (the weakest strength the natural length
     looks for): the potential cannot hold a turning point out there but of a level that shallow."""
@@ -1907,13 +1947,14 @@ def _solve_laguerre(eq, pot, levels, tol):
     from .laguerre_solver import applies, solve_laguerre
 
     gamma = eq.gamma(pot)
-    if not applies(eq, pot, levels, gamma, tol):
+    infinite = _supercritical_tail(eq, pot)
+    if not applies(eq, pot, levels, gamma, tol) or infinite and levels is None:
         return _solve_elements(eq, pot, levels, tol)
     sample = sampler(pot)
     bound = counted = None
     want = levels
     L, a, r_lo = laguerre_scale(eq, pot, gamma)
-    if pot.tail_charge == 0:
+    if pot.tail_charge == 0 and not infinite:
         hi = eq.energy_window(pot)[1]
         n_req = 1 if levels is None else levels          # as the elements size their box
         counted = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, n_req, hi), n_req, hi)
