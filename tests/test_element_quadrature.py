@@ -5,8 +5,8 @@ when r (V + S) is a cubic on the element. Across a Woods-Saxon surface of small 
 and the rule's aliasing error in the potential term fell erratically from rung to rung: two rungs could
 carry the same error (2.52e-9 and 2.53e-9 hartree at degrees 15 and 18 for the first well below), so
 their difference, the estimate, was 177 times below the true error; at tol 1e-6 the second well's 1s was
-3.1e-6 (relative) off with status ok. Elements on which r (V + S) is not a cubic to rounding now get half
-their degree again in Gauss points.
+3.1e-6 (relative) off with status ok. Elements on which r (V + S) is not a cubic to rounding got half
+their degree again in Gauss points, and now their whole degree again (SHARP below: half was still too few).
 
 References: an independent matched shooting (scipy DOP853, rtol 1e-13, outward from r0 with u = r and
 inward from r1 with exponential decay, met at rm; (r0, rm, r1) = (1e-8, R, R + 60/k) and
@@ -134,3 +134,81 @@ def test_more_points_on_a_grid_match_a_grid_built_with_them():
         assert np.array_equal(direct.t_ext, added.t_ext) and np.array_equal(direct.w, added.w)
         for a, b in zip(direct.quad, added.quad, strict=True):
             assert all(np.array_equal(x, y) for x, y in ((a.t, b.t), (a.w, b.w), (a.B, b.B), (a.Bt, b.Bt)))
+
+
+# Sharp Woods-Saxon wells (a / R from 0.01 to 0.025) where degree + 2 + degree / 2 Gauss points were still too
+# few: the last two rungs carried nearly the same aliasing error, and the estimate fell 2.1 to 180 times below
+# the true error at tol 1e-8 (found by a sweep of 15 wells, l = 0, 1, 2, 4, against independent references).
+# depth, radius, diffuseness (bohr, hartree), l, the level's index k, levels asked for, its binding energy:
+# - the l = 0 levels: the exact s-wave condition (the hypergeometric zero of tests/test_woods_saxon.py,
+#   ws_condition, Fluegge 1971) found with mpmath at 80 digits (z0 = 1 / (1 + exp(-R/a)) needs them);
+# - the 2p: a matched shooting (_shot below, scipy DOP853 at rtol 2.2e-14) at match radii 0.4 R and R, which
+#   agree to 4e-15 hartree (R + 20 a gives 5e-14 more); the same shooting is within 1.1e-13 hartree of the
+#   exact condition on the l = 0 levels. Computed for this test on 2026-12-05; the slow test reruns both.
+SHARP = [
+    (1.169, 2.399, 0.0255, 1, 0, 1, -0.1800635248034952),
+    (1.7328, 1.7457, 0.01838, 0, 0, 1, -0.83463471384687059956),
+    (3.1634, 2.6388, 0.03597, 0, 0, 3, -2.6292172214037830667),
+    (1.1677, 4.5689, 0.06634, 0, 1, 3, -0.46637434190493164007),
+]
+
+
+def _shot(depth, R, a, l, E_guess, rm_frac):
+    """A level of the Woods-Saxon well by matched shooting: u = r^(l+1) (1 + c r^2) outward from 1e-4 bohr,
+    exp(-k r) inward from R + 40 a + 40 / k (the potential is e^-40 of its depth there), log derivatives met
+    at rm_frac R; DOP853 at scipy's finest rtol (2.2e-14)."""
+    import warnings
+
+    from scipy.integrate import solve_ivp
+    from scipy.optimize import brentq
+    from scipy.special import expit
+
+    def rhs(r, y, E):
+        return [y[1], (l * (l + 1) / r**2 - 2 * depth * expit((R - r) / a) - 2 * E) * y[0]]
+
+    def mismatch(E):
+        k = math.sqrt(-2 * E)
+        r0, rm, r1 = 1e-4, rm_frac * R, R + 40 * a + 40 / k
+        c = 2 * (-depth * expit(R / a) - E) / (4 * l + 6)
+        y0 = [r0 ** (l + 1) * (1 + c * r0**2), (l + 1) * r0**l + c * (l + 3) * r0 ** (l + 2)]
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", UserWarning)        # rtol raised to its floor, 2.2e-14
+            out = solve_ivp(rhs, (r0, rm), y0, args=(E,), method="DOP853", rtol=1e-14, atol=1e-300).y[:, -1]
+            inn = solve_ivp(rhs, (r1, rm), [1.0, -k], args=(E,), method="DOP853", rtol=1e-14, atol=1e-300).y[:, -1]
+        return out[1] / out[0] - inn[1] / inn[0]
+
+    return brentq(mismatch, E_guess - 1e-9, E_guess + 1e-9, xtol=1e-17, rtol=1e-15)
+
+
+@pytest.mark.parametrize("tol", [1e-6, 1e-8, 1e-10])
+@pytest.mark.parametrize("depth, R, a, l, k, levels, exact", SHARP)
+def test_the_estimate_bounds_the_error_of_sharper_wells(depth, R, a, l, k, levels, exact, tol):
+    res = boundkit.solve("schrodinger", "woods-saxon", {"depth": depth, "radius": R, "diffuseness": a}, l=l,
+                         levels=levels, tol=tol, method="spectral")
+    assert res.status == "ok", res.message
+    lv = res.levels[k]
+    err = abs(lv.energy - exact)
+    # 2e-13 relative: the references' own uncertainty (the shooting against the exact condition)
+    assert err <= max(lv.error_estimate, 2e-13 * abs(exact)), (err, lv.error_estimate)
+    assert err <= tol * abs(exact)
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("depth, R, a, l, k, levels, exact", SHARP)
+def test_the_sharper_references_are_reproduced(depth, R, a, l, k, levels, exact):
+    for rm_frac in (0.4, 1.0):
+        assert abs(_shot(depth, R, a, l, exact, rm_frac) - exact) <= 2e-13 * abs(exact)
+    if l == 0:
+        import mpmath as mp
+
+        mp.mp.dps = 80
+        s = 2 * mp.mpf(a) ** 2                  # 2 m a^2 / hbar^2 in atomic units (m = 1)
+        z0 = 1 / (1 + mp.exp(-mp.mpf(R) / a))
+
+        def condition(E):       # ws_condition of tests/test_woods_saxon.py, in atomic units
+            nu, mu = mp.sqrt(-s * E), 1j * mp.sqrt(s * (E + depth))
+            return mp.re(z0**nu * (1 - z0) ** mu * mp.hyp2f1(nu + mu, nu + mu + 1, 2 * nu + 1, z0))
+
+        E = mp.findroot(condition, mp.mpf(exact))
+        mp.mp.dps = 15
+        assert abs(float(E) - exact) <= 1e-15 * abs(exact)

@@ -238,10 +238,15 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
     -----
     The quadratic form is integrated with n + 2 Gauss points per element, exact when r (V + S) is a
     cubic there, plus (2 gamma + 1)(b - a) / 2 for the weight w^2 ~ r^(2 gamma) that varies fast in t,
-    plus n / 2 on elements where r (V + S) is not a cubic to rounding (:func:`_structure_points`): across
+    plus n on elements where r (V + S) is not a cubic to rounding (:func:`_structure_points`): across
     a sharp Woods-Saxon surface the rule's aliasing error in the potential term fell erratically from rung
     to rung, and two rungs could agree to 0.4 % while both were 2.5e-9 hartree off (tests/
-    test_element_quadrature.py).
+    test_element_quadrature.py). With n / 2 there the aliasing still broke the variational (monotone)
+    convergence on sharper wells (a / R = 0.01 to 0.025): degrees 12 and 15 both 3.6e-9 hartree off
+    and 2e-11 apart (an estimate 180 times short), a 2p whose error grew from degree 15 to 18 (2.1
+    times). With n the errors fall monotonically, and 4 n instead of n moves a rung's level by at most 2 %
+    of its error on those wells (on the sharpest of the sweep, a / R = 0.0044, by 8e-13 relative on a rung
+    whose error is 1e-14, which the next rung's change, the estimate, covers).
     """
     degrees = _degrees(quiet, n)
     quads = [d + 2 + int(math.ceil(0.5 * (2 * gamma + 1) * (b - a)))
@@ -260,7 +265,7 @@ _CUBIC_ROUNDING = 1e-13     # Legendre content of r (V + S) above degree 3, rela
 
 
 def _structure_points(grid, sample) -> list[int]:
-    """Extra Gauss points per element: half its degree where g = r (V + S) (and r U of a spin-orbit term)
+    """Extra Gauss points per element: its degree where g = r (V + S) (and r U of a spin-orbit term)
     on the element's nodes has Legendre content above degree 3 beyond _CUBIC_ROUNDING of max |g|, else 0.
     A point charge (g constant) gets none."""
     parts = [sample.r * (sample.V + sample.S)] + ([] if sample.W is None else [sample.r * sample.W])
@@ -277,7 +282,7 @@ def _structure_points(grid, sample) -> list[int]:
             values = g[starts[mine, None] + np.arange(d + 1)]          # one row per element of degree d
             high = values @ _legendre_of_nodes(int(d))[4:].T            # its Legendre content above degree 3
             flagged[mine] |= np.max(np.abs(high), axis=1) > _CUBIC_ROUNDING * G
-    return [int(d + 1) // 2 if f else 0 for d, f in zip(degrees, flagged)]
+    return [int(d) if f else 0 for d, f in zip(degrees, flagged)]
 
 
 @lru_cache(maxsize=32)
