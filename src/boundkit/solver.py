@@ -1053,12 +1053,12 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
         energies = new_energies
         break
     if rung is not None and len(rung.located.energies) < want and bound is None and not pot.confining:
-        # with no count (a long-range tail) the largest box tried is all there is; when it holds fewer levels
-        # than sought (levels of a supercritical 1/r^2 tail each
-        # about a hundred times shallower than the one before: the tenth of -1/(r^2 + 1) lies 1e-20 hartree
-        # down): the ladder solves those it holds and has room for (decayed by e^-_DECAY within it; the
-        # ninth of -1/(r^2 + 1), 2.2e-18 hartree down, had decayed by e^-6 at R = 3e9 bohr and was 1e-4 off
-        # with an estimate of 8e-13), and the result says why the rest are missing
+        # with no count (a long-range tail) the largest box tried is all there is. When it holds fewer levels
+        # than sought (a supercritical 1/r^2 tail's, each about a hundred times shallower than the one before:
+        # the tenth of -1/(r^2 + 1) lies 1e-20 hartree down), the ladder solves those it holds and has room
+        # for (decayed by e^-_DECAY within it: the ninth of -1/(r^2 + 1), 2.2e-18 hartree down, had decayed by
+        # e^-6 at R = 3e9 bohr and was 1e-4 off with an estimate of 8e-13), and the result says why the rest
+        # are missing (before, the ladder raised an IndexError)
         got = 0
         for E in rung.located.energies:
             if _outer_radius(eq, pot, E, L) > 1.05 * R:
