@@ -929,7 +929,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     guess_lo = lo       # the pencil's guesses are tried down to here (a Klein-Gordon floor lies above it)
     lo, floor_start = _particle_floor_by_bound(eq, sample, r_min, lo)
-    infinite = _supercritical_tail(eq, pot)
+    infinite = _infinite_tail(eq, pot)
     short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge <= 0 and not infinite
     bound = None
     if short_range:
@@ -944,8 +944,7 @@ def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known
                 tally.notes.append(_below_window(eq, far.below))
     elif levels is None:
         raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
-                         + ("is confining" if pot.confining else _infinite_tail_why(eq, infinite) if infinite
-                            else "has an attractive Coulomb tail")
+                         + ("is confining" if pot.confining else infinite or "has an attractive Coulomb tail")
                          + " and binds infinitely many; give a number of levels")
     extra["bound_count"] = bound
     extra["window_bottom"] = lo
@@ -1770,24 +1769,33 @@ def _with_table_error(pot, found, tally, worst: float, tol: float):
     return out, worst
 
 
-def _supercritical_tail(eq, pot) -> float:
-    """B of a far tail B / r^2 (no Coulomb tail) too attractive for the channel's l, l (l + 1) + 2 m B < -1/4,
-    else 0. Such a channel binds infinitely many levels, accumulating at the threshold geometrically (the
-    tail's order is complex, :func:`~boundkit.equations.schrodinger.inverse_square_order`): no far box counts
-    them all (one of -1/(r^2 + 1) counted 9, and they were reported as all the levels)."""
+def _infinite_tail(eq, pot) -> str:
+    """Why a potential without a Coulomb tail binds infinitely many levels in this channel, as a phrase
+    ('has an attractive ... tail ...,'), or '' when it binds finitely many (or is confining).
+
+    Two tails do so, their levels accumulating at the threshold where no far box counts them all: one of
+    -1/(r^2 + 1) counted 9, and they were reported as all the levels.
+
+    - B / r^2 too attractive for l: l (l + 1) + 2 m B < -1/4 (its order is complex,
+      :func:`~boundkit.equations.schrodinger.inverse_square_order`); each level is about exp(2 pi / s) times
+      shallower than the one before, s = sqrt(-(l + 1/2)^2 - 2 m B).
+    - -A r^-s with A > 0 and 0 < s < 2, s != 1 (:attr:`Potential.slow_tail`): it outlasts the centrifugal
+      barrier, as a Coulomb tail does.
+    """
     if pot.confining or pot.tail_charge != 0:
-        return 0.0
+        return ""
     B = pot.tail_inverse_square
-    return B if B < 0 and inverse_square_order(eq.l, eq.mass, B) is None else 0.0
-
-
-def _infinite_tail_why(eq, B: float) -> str:
-    """Why a supercritical 1/r^2 tail (:func:`_supercritical_tail`) binds infinitely many levels."""
-    s = math.sqrt(-(eq.l + 0.5) ** 2 - 2 * eq.mass * B)
-    return (f"has an attractive 1/r^2 tail far out (B = {B:.3g} hartree bohr^2: l(l+1) + 2 m B = "
-            f"{eq.l * (eq.l + 1) + 2 * eq.mass * B:.3g} < -1/4 at l = {eq.l}), whose levels accumulate at the threshold, "
-            f"each about exp(2 pi / s) = {math.exp(min(2 * math.pi / s, 700.0)):.3g} times shallower than the one before "
-            f"(s = sqrt(-(l + 1/2)^2 - 2 m B) = {s:.3g}),")
+    if B < 0 and inverse_square_order(eq.l, eq.mass, B) is None:
+        s = math.sqrt(-(eq.l + 0.5) ** 2 - 2 * eq.mass * B)
+        return (f"has an attractive 1/r^2 tail far out (B = {B:.3g} hartree bohr^2: l(l+1) + 2 m B = "
+                f"{eq.l * (eq.l + 1) + 2 * eq.mass * B:.3g} < -1/4 at l = {eq.l}), whose levels accumulate at the "
+                f"threshold, each about exp(2 pi / s) = {math.exp(min(2 * math.pi / s, 700.0)):.3g} times shallower "
+                f"than the one before (s = sqrt(-(l + 1/2)^2 - 2 m B) = {s:.3g}),")
+    power = pot.slow_tail
+    if power:
+        return (f"has an attractive tail far out falling off as r^-{power:.3g}, slower than 1/r^2 (the centrifugal "
+                "barrier), whose levels accumulate at the threshold as those of a Coulomb tail do,")
+    return ""
 
 
 def _potential_range(eq, pot) -> float:
@@ -1982,7 +1990,7 @@ def _solve_laguerre(eq, pot, levels, tol):
     from .laguerre_solver import applies, solve_laguerre
 
     gamma = eq.gamma(pot)
-    infinite = _supercritical_tail(eq, pot)
+    infinite = _infinite_tail(eq, pot)
     if not applies(eq, pot, levels, gamma, tol) or infinite and levels is None:
         return _solve_elements(eq, pot, levels, tol)
     sample = sampler(pot)

@@ -12,6 +12,7 @@ import contextlib
 import contextvars
 import functools
 import logging
+import math
 
 from dataclasses import dataclass, field
 from typing import Callable, ClassVar
@@ -217,6 +218,13 @@ class Term:
         return 0.0
 
     @property
+    def slow_tail(self) -> float:
+        """The power s of an attractive tail V - V_inf ~ -A r^-s (A > 0) that falls off slower than 1/r^2
+        and is not a Coulomb one (0 < s < 2, s != 1): such a tail binds infinitely many levels. 0.0 for
+        terms without one (every built-in term)."""
+        return 0.0
+
+    @property
     def origin_inverse_square(self) -> float:
         """Coefficient B0 of an inverse-square part of the term at the origin.
 
@@ -338,7 +346,7 @@ class ProbedTerm(Term):
             if not np.all(np.isfinite(rv)):
                 log.info("%s: not finite near r = 0; treated as not Coulomb-like there", self.label)
         r_big, vb = self._finite_probe(np.array([1e3, 1e4, 1e5]))
-        self._vinf, self._b_tail = 0.0, 0.0
+        self._vinf, self._b_tail, self._slow = 0.0, 0.0, 0.0
         if not np.all(np.isfinite(vb)):
             if np.all(np.isfinite(vb) | np.isposinf(vb)):
                 self._far, self._zinf = "confining", 0.0
@@ -351,13 +359,18 @@ class ProbedTerm(Term):
             self._far = "zero"
             z, self._b_tail = _inverse_square_tail(r_big, vb)
             if not self._b_tail:
-                r1, r2 = r_big[1], r_big[2]
-                z = float(-(vb[1] - vb[2]) * r1 * r2 / (r2 - r1))
-                v_inf = float(vb[2] + z / r2)
+                power = self._power_tail(r_big, vb)
+                if power is not None:
+                    z, v_inf, s = power
+                    self._slow = s
+                else:
+                    r1, r2 = r_big[1], r_big[2]
+                    z = float(-(vb[1] - vb[2]) * r1 * r2 / (r2 - r1))
+                    v_inf = float(vb[2] + z / r2)
                 if abs(v_inf) > 1e-9:
                     self._vinf = v_inf
-                else:
-                    z = float(-r2 * vb[2])          # no constant: -r V(r) at 1e5 bohr
+                elif power is None:
+                    z = float(-r_big[2] * vb[2])          # no constant: -r V(r) at 1e5 bohr
             self._zinf = z if abs(z) > 1e-6 else 0.0
         for what, z, unit in (("origin charge -r V(r) near r = 0", self._z0, "hartree bohr"),
                               ("tail charge -r V(r) far out", self._zinf, "hartree bohr"),
@@ -365,6 +378,38 @@ class ProbedTerm(Term):
             if abs(z) > MAX_MAGNITUDE:
                 raise ValueError(f"potential: {shorten(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
                                  f"in magnitude ({unit}); scale the potential down")
+
+    def _power_tail(self, r: np.ndarray, v: np.ndarray) -> tuple[float, float, float] | None:
+        """(0, V_inf, s) when V at the radii ``r`` (1e3, 1e4, 1e5 bohr) and at 1e6 bohr falls off towards a
+        constant V_inf as C r^-s other than a Coulomb tail, with s reported when the tail is attractive
+        (C < 0) and 0 < s < 2 (else 0); None when it is a Coulomb tail, or no single power (the caller then
+        reads a Coulomb tail and a constant).
+
+        A Coulomb tail with a constant, V_inf - Z/r, is kept when it predicts V at 1e3 bohr from the outer
+        two to 1e-3 of V - V_inf there. Otherwise the falls of V from one decade to the next, d_k, give
+        10^s as d_k / d_(k+1): a single power when the two ratios agree to 0.01 in s, and then V_inf =
+        V(1e6) - d_3 / (10^s - 1) from the outer three (0 when within 1e-3 of d_3 of it).
+        -1/(r + 1)**1.5 was read as a tail charge 0.011 and a constant 7.6e-8 hartree (the two outer radii
+        of a Coulomb fit). A tail of several powers (-1/r - 1/r**1.5) is read as one, the slowest nearly."""
+        r1, r2 = r[1], r[2]
+        z = float(-(v[1] - v[2]) * r1 * r2 / (r2 - r1))
+        v_inf = float(v[2] + z / r2)
+        if abs(v_inf - z / r[0] - v[0]) <= 1e-3 * abs(v[0] - v_inf):
+            return None                             # a Coulomb tail (and a constant)
+        r_far, v_far = self._finite_probe(np.array([1e6]))
+        if r_far[0] != 1e6 or not np.isfinite(v_far[0]):
+            return None
+        d = -np.diff(np.append(v, v_far))          # V(r_k) - V(r_(k+1)), from 1e3 bohr out
+        if not (np.all(d > 0) or np.all(d < 0)) or not np.all(np.abs(d[:-1]) > np.abs(d[1:])):
+            return None
+        s_in, s_out = math.log10(d[0] / d[1]), math.log10(d[1] / d[2])
+        if abs(s_in - s_out) > 0.01:
+            return None
+        v_inf = float(v_far[0] - d[2] / (10**s_out - 1))
+        if abs(v_inf) <= 1e-3 * abs(d[2]):
+            v_inf = 0.0             # within what the fit tells (-1/sqrt(r + 1): 8.7e-8 off 0)
+        attractive = d[2] < 0       # V rises towards V_inf far out
+        return 0.0, v_inf, (s_out if attractive and 0 < s_out < 2 else 0.0)
 
     def _charge_under_inverse_square(self) -> float:
         """Z0 of V = B0 / r^2 - Z0 / r + O(1) near the origin, from r^2 V = B0 - Z0 r + O(r^2) at
@@ -399,6 +444,10 @@ class ProbedTerm(Term):
     @property
     def far_constant(self) -> float:
         return self._vinf
+
+    @property
+    def slow_tail(self) -> float:
+        return self._slow
 
     @property
     def far(self) -> str:  # type: ignore[override]
@@ -585,6 +634,12 @@ class Potential:
         return float(sum(t.tail_inverse_square for t in self.vector + self.scalar))
 
     @property
+    def slow_tail(self) -> float:
+        """The smallest power s of the terms' attractive tails falling off slower than 1/r^2 (not Coulomb;
+        :attr:`Term.slow_tail`), else 0."""
+        return min((t.slow_tail for t in self.vector + self.scalar if t.slow_tail), default=0.0)
+
+    @property
     def name(self) -> str:
         """Short description: term names joined by ' + ', scalar terms marked."""
         parts = [getattr(t, "label", t.name) for t in self.vector]
@@ -643,6 +698,10 @@ class NuclearUnitsTerm(Term):
     @property
     def tail_inverse_square(self) -> float:
         return self.inner.tail_inverse_square * self._v * self._r**2
+
+    @property
+    def slow_tail(self) -> float:
+        return self.inner.slow_tail        # a power: no unit
 
     @property
     def breakpoints(self) -> tuple[float, ...]:
