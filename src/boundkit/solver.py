@@ -105,6 +105,9 @@ def _sample(pot: Potential, r: np.ndarray, scan: bool = False) -> Sample:
     with np.errstate(all="ignore"):
         V = np.asarray(pot.V(r))
         S = np.asarray(pot.S(r))
+        # one pass decides in the usual case that every value is finite (the sum is finite then, and
+        # only then, barring an overflow of the sum itself, which the slow branch below sorts out)
+        total = np.sum(V) + np.sum(S) if getattr(pot, "scalar", True) else np.sum(V)   # S = 0 without scalar terms
     if V.dtype != np.float64 or S.dtype != np.float64:
         for name, x in (("V", V), ("S", S)):
             if np.iscomplexobj(x) and np.any(x.imag != 0):
@@ -113,10 +116,6 @@ def _sample(pot: Potential, r: np.ndarray, scan: bool = False) -> Sample:
                                  "resonances) for complex potentials")
         V, S = V.real.astype(float), S.real.astype(float)
     W = pot.spin_orbit(r)
-    # one pass decides in the usual case that every value is finite (the sum is finite then, and
-    # only then, barring an overflow of the sum itself, which the slow branch below sorts out)
-    with np.errstate(all="ignore"):
-        total = np.sum(V) + np.sum(S)
     if not np.isfinite(total):
         if scan:
             V = np.where(np.isposinf(V), 1e300, V)

@@ -488,6 +488,19 @@ class CallableTerm(ProbedTerm):
         return f"CallableTerm({self.label})"
 
 
+def _summed(terms, r: np.ndarray) -> np.ndarray:
+    """The sum of the terms at r, on r's shape, in double (complex when a term is): 0 + t_1(r) + t_2(r) ...;
+    one term's own array is taken as it is when it already has that shape and type (0.0 + v is v, -0.0 aside)."""
+    if len(terms) == 1:
+        v = np.asarray(terms[0](r))
+        if v.shape == r.shape and v.dtype in (np.float64, np.complex128):
+            return v + 0.0
+    out = np.zeros_like(r, dtype=float)
+    for t in terms:
+        out = out + t(r)
+    return out
+
+
 @dataclass(frozen=True)
 class Potential:
     """A sum of vector terms and Lorentz-scalar terms.
@@ -504,12 +517,10 @@ class Potential:
     description: str = field(default="")
 
     def V(self, r) -> np.ndarray:
-        r = np.asarray(r)
-        return sum((t(r) for t in self.vector), np.zeros_like(r, dtype=float))
+        return _summed(self.vector, np.asarray(r))
 
     def S(self, r) -> np.ndarray:
-        r = np.asarray(r)
-        return sum((t(r) for t in self.scalar), np.zeros_like(r, dtype=float))
+        return _summed(self.scalar, np.asarray(r))
 
     def continued(self, z) -> np.ndarray:
         """V at complex radii ``z`` (bohr): the sum of the vector terms' analytic continuations
