@@ -802,6 +802,47 @@ def test_force_keeps_the_earlier_run_when_every_solve_of_a_section_found_nothing
     assert {p.name: p.read_bytes() for p in out.iterdir()} == before
 
 
+# A requested level the potential does not hold was passed over: report.md said "Every requested level was
+# found", results.json had no problem and the exit code was 0 (a tester's report), against docs/runspec.md.
+# The Yukawa 2s is unbound at screening length D = 2 bohr (Z = 1): its critical D is about 3.22 bohr
+# (Rogers, Graboske and Harwood, Phys. Rev. A 1, 1577 (1970), from memory); at D = 0.5 bohr even the 1s is
+# unbound (critical D about 0.84 bohr, same source).
+_YUKAWA = _HEAD + ('equations = ["schrodinger"]\nchannels = ["s"]\nlevels = 2\n[models.y]\nterms = ["yukawa"]\n'
+                   'params = {{ Z = 1.0, screening_length = {D} }}\n[solve]\nfigures = []\n')
+
+
+def test_a_requested_level_that_is_not_bound_is_a_problem(tmp_path):
+    res = boundkit.solve("schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, levels=2)
+    assert res.status == "ok" and len(res.levels) == 1          # the solver: all there are, said in the message
+    spec = write(tmp_path, _YUKAWA.format(D=2.0))
+    out = tmp_path / "o"
+    cli_res = cli("run", spec, "--out", out)
+    assert cli_res.exit_code == 3, cli_res.output
+    problem = ("solve model y, schrodinger, channel s: found 1 of 2 requested levels: all 1 bound level(s) "
+               "of this channel (2 requested)")
+    assert f"boundkit: problem: {problem}" in cli_res.stderr
+    doc = json.loads((out / "results.json").read_text())
+    assert not doc["success"] and any(p.startswith(problem) for p in doc["problems"]), doc["problems"]
+    assert [r["label"] for r in doc["solve"]["levels"]] == ["1s"]
+    report = (out / "report.md").read_text()
+    assert "Every requested level was found" not in report and f"- {problem}" in report
+
+
+def test_force_keeps_the_earlier_run_when_no_requested_level_is_bound(tmp_path):
+    from boundkit.runspec import run
+
+    out, before = _earlier_run(tmp_path)
+    spec = write(tmp_path, _YUKAWA.format(D=0.5))
+    res = cli("run", spec, "--out", out, "--force")
+    assert res.exit_code == 3, res.output
+    assert "problem: solve model y, schrodinger, channel s: found 0 of 2 requested levels" in res.stderr
+    assert re.search(r"the run computed nothing; the earlier run in \S+ is kept as it was", res.stderr)
+    assert {p.name: p.read_bytes() for p in out.iterdir()} == before
+    report = run(spec, tmp_path / "new")          # no earlier run: written, saying what went wrong
+    assert not report.kept_earlier and not report.success
+    assert "found 0 of 2 requested levels" in (tmp_path / "new" / "report.md").read_text()
+
+
 # --- --levels had no upper limit: 10^8 levels grew to 3.6 GB in 15 s and never finished -----------
 def test_levels_are_bounded_with_an_override(monkeypatch):
     import importlib

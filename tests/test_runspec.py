@@ -346,13 +346,15 @@ def test_levels_that_are_not_found_are_reported_as_problems(tmp_path):
     text = FAST.replace('terms = ["coulomb"]\nparams = { Z = 1 }',
                             'terms = ["yukawa"]\nparams = { Z = 1, screening_length = 2.0 }')
     text = text.replace('channels = ["s", { l = 1, levels = 1 }]', 'channels = ["s"]')
-    # asking for more levels than the channel holds returns all of them and is not a failure (the
-    # counting locator knows the well holds exactly one s level); the difference 2p - 2s the spec
-    # also asks for cannot be formed, and that is what is reported
+    # asking for more levels than the channel holds returns all of them, status ok, in the solver (the
+    # counting locator knows the well holds exactly one s level); the run spec asked for 2 and got 1,
+    # which is a problem (docs/runspec.md), and so is the difference 2p - 2s it cannot form
     report = run(write(tmp_path, text), tmp_path / "o")
     assert not report.success
-    assert not any("found 1 of 2" in p for p in report.problems)
-    assert report.problems and all("2s" in p for p in report.problems)
+    assert len(report.problems) == 2, report.problems
+    assert report.problems[0].startswith("solve model h, schrodinger, channel s: found 1 of 2 requested levels: "
+                                         "all 1 bound level(s) of this channel (2 requested)")
+    assert "E(2p) - E(2s): no model and equation has both levels" in report.problems[1]
     data = json.loads((tmp_path / "o" / "results.json").read_text())
     assert [r["label"] for r in data["solve"]["levels"]] == ["1s"]
 

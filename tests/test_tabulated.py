@@ -335,6 +335,28 @@ def test_a_seeded_level_of_a_table_carries_the_table_s_error(method, n):
             assert got["status"] == "ok" and 0 < got["table_error"] < 1e-12
 
 
+@pytest.mark.parametrize("r0", [1e-2, 1e-3])
+def test_a_table_s_estimate_covers_what_lies_below_its_first_point(r0):
+    """A table of the Yukawa potential -exp(-r/2)/r on 400 log-spaced points from r0 to 40 bohr, tail
+    'zero', default origin 'coulomb' (r V held at its first value below r0): from r0 = 0.01 the 1s was
+    2.5e-7 hartree above the built-in Yukawa term's (Z = 1, screening length 2 bohr, solved at tol 1e-13;
+    the same closed form) with an estimate of 8.6e-15 and status ok (a tester); from 1e-3, 2.5e-10 with
+    1.9e-14 (the error goes as r0^3: r V is linear at the origin, the 1s density as r^2). The estimate now
+    holds the origin's model: twice the first-order shift by r V continued linearly from the first two
+    points instead of held, and it stays within ten times the error."""
+    r = np.geomspace(r0, 40.0, 400)
+    term = TabulatedTerm(r, -np.exp(-r / 2) / r, tail="zero")
+    res = boundkit.solve("schrodinger", term, None, l=0, levels=1, tol=1e-10)
+    ref = boundkit.solve("schrodinger", "yukawa", {"Z": 1, "screening_length": 2}, l=0, levels=1, tol=1e-13)
+    (lv,), (exact,) = res.levels, ref.levels
+    error = abs(lv.energy - exact.energy)
+    assert error > 1e-10 * abs(exact.energy)           # the origin's model costs more than tol
+    assert error <= lv.error_estimate <= 10 * error
+    assert res.status == "tolerance-not-met"
+    assert "continued linearly below its first point" in res.diagnostics["notes"][-1]
+    assert "or start it nearer r = 0 (below its first point the potential is modelled)" in res.message
+
+
 def test_a_fine_table_is_not_called_coarse(caplog):
     r = np.geomspace(1e-5, 150, 400)
     with caplog.at_level(logging.WARNING, logger="boundkit.potentials.tabulated"):

@@ -1711,7 +1711,8 @@ def _table_error(table, state) -> float:
     """A level's energy error from one table's interpolation, to first order in the difference d(r) of
     the splines of degree k + 2 and k (:meth:`TabulatedTerm.interpolation_difference`), with rho the
     level's density: 2 |integral rho d| for a table that resolves its potential (interpolation spread at
-    most SPREAD_WARN), the integral of rho |d| for a coarser one.
+    most SPREAD_WARN), the integral of rho |d| for a coarser one; plus 2 |integral rho d_0| with d_0 the
+    uncertainty of the declared origin below the first point (:meth:`TabulatedTerm.origin_difference`).
 
     Notes
     -----
@@ -1726,9 +1727,10 @@ def _table_error(table, state) -> float:
 
     d = table.interpolation_difference(state.r)
     w = state.weights * (state.P**2 if state.Q is None else state.P**2 + state.Q**2)
+    origin = 2.0 * abs(float(np.sum(w * table.origin_difference(state.r))))
     if table.interpolation_spread <= SPREAD_WARN:
-        return 2.0 * abs(float(np.sum(w * d)))
-    return float(np.sum(w * np.abs(d)))
+        return 2.0 * abs(float(np.sum(w * d))) + origin
+    return float(np.sum(w * np.abs(d))) + origin
 
 
 def _tables(pot) -> list:
@@ -1764,7 +1766,8 @@ def _with_table_error(pot, found, tally, worst: float, tol: float):
             tally.table_hit |= err > tol * abs(lv.energy)
         out.append(replace(lv, error_estimate=est))
     tally.notes.append(f"the estimates include the tables' interpolation error (to first order, from splines of two "
-                       f"degrees): at most {largest[0]:.2g} relative ({largest[1] or 'no level'})")
+                       f"degrees and from the table continued linearly below its first point): at most "
+                       f"{largest[0]:.2g} relative ({largest[1] or 'no level'})")
     return out, worst
 
 
@@ -2016,7 +2019,7 @@ def _solve_laguerre(eq, pot, levels, tol):
 
 
 _TABLE_WHY = ("the table's interpolation error lies above it (see diagnostics notes): give the table more points "
-              "where the potential bends")
+              "where the potential bends, or start it nearer r = 0 (below its first point the potential is modelled)")
 _POTENTIAL_FLOOR_WHY = ("a level far shallower than its well carries the rounding of its potential energy, "
                         "which lies above it (see diagnostics notes)")
 

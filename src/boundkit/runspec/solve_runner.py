@@ -53,10 +53,13 @@ class SolveRunner:
                                      "message": str(exc), "levels": []})
                         continue
                     self.tick()
-                    if res.levels or res.success:   # levels, or all there are (none): a result
+                    if res.levels:      # a channel with no level computed nothing the spec asked for
                         self.computed += 1
                     if not res.success:
                         self.problems.append(f"solve {tag}: {res.status}: {res.message}")
+                    elif len(res.levels) < nlev:    # all the channel holds, fewer than asked: not as asked
+                        self.problems.append(f"solve {tag}: found {len(res.levels)} of {nlev} requested levels: "
+                                             f"{res.message}")
                     runs.append({"model": mname, "equation": eq, "channel": cname, **kw, "requested": nlev,
                                  "status": res.status, "message": res.message,
                                  "diagnostics": {k: v for k, v in res.diagnostics.items() if k != "levels"}})
