@@ -4,14 +4,13 @@ Parse, call :mod:`boundkit.studies`, print. No numerics here. Registered on the 
 """
 from __future__ import annotations
 
-import json
 import sys
 
 import click
 
 from .._checks import MAX_L
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_particle, check_plot_path, check_tol,
-                     clip_message, fail, json_default, report_unit, write_figure)
+                     clip_message, fail, json_text, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
                       plot_option, potential_options, tol_option)
@@ -107,7 +106,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
         fail(api_message(exc, {"max_levels": "--max-levels"}))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict(unit)))
     else:
         click.echo(res.table(unit))
         click.echo("")
@@ -203,7 +202,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         click.echo(f"boundkit: failed: {exc}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if as_json:
-        click.echo(json.dumps(res.to_dict(), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict()))
     else:
         lo, hi = res.bracket
         pu = f" {res.parameter_unit}" if res.parameter_unit else ""
@@ -262,7 +261,7 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
     except ValueError as exc:
         fail(api_message(exc, {"max_levels": "--max-levels", "max_l_max": "--max-l-max"}))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit, sunit), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict(unit, sunit)))
     else:
         click.echo(res.table(unit, sunit))
     if not res.success:    # one line: channels grouped by status and reason, each reason once (--json: all)
