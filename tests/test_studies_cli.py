@@ -168,7 +168,7 @@ def _one_line_error(res, pattern):
 def test_critical_names_the_parameters_when_no_term_takes_the_varied_one():
     res = run("critical", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=5", "--state", "1s",
               "--vary", "Q")
-    _one_line_error(res, r"^boundkit: error: vary: no term of the potential takes 'Q'; its terms take Z, "
+    _one_line_error(res, r"^boundkit: error: --vary: no term of the potential takes 'Q'; its terms take Z, "
                          r"screening_length$")
 
 
@@ -245,3 +245,14 @@ def test_scan_stderr_line_stays_under_300_characters():
     assert len(err) == 1 and len(err[0]) < 300, err
     assert re.match(r"boundkit: 2 row\(s\) with status error, tolerance-not-met or missing; first: 1s \(error: "
                     r"potential: the vector part", err[0]), err
+
+
+# --- a varied name no term takes is named as --vary ---------------------------------------------
+def test_scan_names_vary_for_a_parameter_no_term_takes():
+    """A tester: `scan --vary Q=1:2:3` said '--param: no potential term takes parameter 'Q'', naming an option
+    the user did not give."""
+    res = run("scan", "--param", "Z=1", "--vary", "Q=1:2:3", "--workers", "1")
+    assert res.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: --vary: no term of the potential takes 'Q'; its terms take Z\n",
+                        res.output)
+

@@ -104,7 +104,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                    progress=progress, scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit,
                    **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
-        fail(api_message(exc, {"max_levels": "--max-levels"}))
+        fail(api_message(exc, {"max_levels": "--max-levels", "vary": "--vary"}))
     if as_json:
         click.echo(json_text(res.to_dict(unit)))
     else:
@@ -197,7 +197,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
                        scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
     except ValueError as exc:
-        fail(api_message(exc))
+        fail(api_message(exc, {"vary": "--vary"}))
     except StudyError as exc:
         click.echo(f"boundkit: failed: {exc}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)

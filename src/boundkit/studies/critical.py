@@ -58,8 +58,8 @@ from ..solver import setup, solve_channel, table_error
 from .._threads import inside, one_blas_thread
 from ..states import convert_label
 from ..units import C_AU, constants_record
-from ._common import (StudyError, canonical_equation, describe, parameter_units, rebuild_potential,
-                      resolve_params, seeded_level, state_channel, term_parameters)
+from ._common import (StudyError, canonical_equation, check_varied, describe, parameter_units,
+                      rebuild_potential, resolve_params, seeded_level, state_channel)
 
 __all__ = ["critical", "CriticalResult"]
 
@@ -850,10 +850,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         return setup(eqname, rebuild_potential(potential, values, varied), values,
                      scalar=rebuild_potential(scalar, values, varied), **channel, **setup_kwargs)
 
-    taken = term_parameters(potential, scalar)
-    if taken is not None and vary not in taken:
-        raise ValueError(f"vary: no term of the potential takes {vary!r}; its terms take "
-                         f"{', '.join(taken) or 'no parameters'}")
+    check_varied(potential, scalar, [vary])
     if bracket is not None:
         try:
             a, b = (float(x) for x in bracket)
