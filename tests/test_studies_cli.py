@@ -256,3 +256,24 @@ def test_scan_names_vary_for_a_parameter_no_term_takes():
     assert re.fullmatch(r"boundkit: error: --vary: no term of the potential takes 'Q'; its terms take Z\n",
                         res.output)
 
+
+
+# --- critical follows --units and --energy-unit ------------------------------------------------
+@pytest.mark.parametrize("extra, eunit, lunit", [(("--units", "nuclear"), "MeV", "fm"),
+                                                 (("--energy-unit", "eV"), "eV", "bohr")])
+def test_critical_json_reports_energies_and_lengths_in_the_units_asked(extra, eunit, lunit):
+    """A tester: with --units nuclear the points' energies and mesh ends stayed in hartree and bohr."""
+    from boundkit.studies import critical
+    from boundkit.units import bohr_to
+
+    units = "nuclear" if "nuclear" in extra else "atomic"
+    ref = critical("klein-gordon", "coulomb", {"Z": 20}, state="1s", vary="Z", kind="merge", units=units)
+    res = run("critical", "-e", "klein-gordon", "--param", "Z=20", "--vary", "Z", "--state", "1s",
+              "--kind", "merge", "--json", *extra)
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.output)
+    assert (data["units"]["energy"], data["units"]["length"]) == (eunit, lunit)
+    for got, want in zip(data["points"], ref.points):
+        assert got["energy"] == pytest.approx(hartree_to(want["energy"], eunit), rel=1e-12)
+        assert got["error_estimate"] == pytest.approx(hartree_to(want["error_estimate"], eunit), rel=1e-12)
+        assert got["r_max"] == pytest.approx(bohr_to(want["r_max"], lunit), rel=1e-12)

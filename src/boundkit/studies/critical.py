@@ -57,7 +57,7 @@ from ..discretize import get_method
 from ..solver import setup, solve_channel, table_error
 from .._threads import inside, one_blas_thread
 from ..states import convert_label
-from ..units import C_AU, constants_record
+from ..units import C_AU, bohr_to, constants_record, energy_unit, hartree_to, length_unit
 from ._common import (StudyError, canonical_equation, check_varied, describe, parameter_units,
                       rebuild_potential, resolve_params, seeded_level, state_channel)
 
@@ -214,8 +214,13 @@ class CriticalResult:
         unit = f" {self.parameter_unit}" if self.parameter_unit else ""
         return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}{unit}"
 
-    def to_dict(self) -> dict[str, Any]:
-        """A JSON-ready record."""
+    def to_dict(self, unit: str = "hartree", length: str = "bohr") -> dict[str, Any]:
+        """A JSON-ready record: the points' energies (and the resonances past the value) in ``unit``, their
+        mesh ends ``r_max`` in ``length``; settings named ``..._hartree`` stay in hartree."""
+        energy = (lambda x: None if x is None else float(hartree_to(x, unit)))    # noqa: E731
+        points = [{**p, **{k: energy(p.get(k)) for k in ("energy", "error_estimate", "table_error")},
+                   "r_max": None if p.get("r_max") is None else float(bohr_to(p["r_max"], length))}
+                  for p in self.points]
         return {"parameter": self.parameter, "parameter_unit": self.parameter_unit, "value": self.value,
                 "uncertainty": self.uncertainty,
                 "state": self.state, "equation": self.equation, "kind": self.kind,
@@ -223,10 +228,10 @@ class CriticalResult:
                 "bracket": list(self.bracket), "bracket_meaning": self.bracket_meaning,
                 "evaluations": self.evaluations, "status": self.status,
                 "message": self.message, "settings": self.settings, "constants": constants_record(),
-                "units": {"parameter": self.parameter_unit or "1", "energy": "hartree", "length": "bohr",
-                          "time": "s"},
-                "points": [dict(p) for p in self.points],
-                "beyond": [b.to_dict() for b in self.beyond]}
+                "units": {"parameter": self.parameter_unit or "1", "energy": energy_unit(unit),
+                          "length": length_unit(length), "time": "s"},
+                "points": points,
+                "beyond": [b.to_dict(unit) for b in self.beyond]}
 
     def __repr__(self) -> str:
         head = (f"CriticalResult({self.state} {self.equation}, {self.kind}: {self.parameter} = "
