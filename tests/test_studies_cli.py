@@ -168,7 +168,7 @@ def _one_line_error(res, pattern):
 def test_critical_names_the_parameters_when_no_term_takes_the_varied_one():
     res = run("critical", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=5", "--state", "1s",
               "--vary", "Q")
-    _one_line_error(res, r"^boundkit: error: vary: no term of the potential takes 'Q'; its terms take Z, "
+    _one_line_error(res, r"^boundkit: error: --vary: no term of the potential takes 'Q'; its terms take Z, "
                          r"screening_length$")
 
 
@@ -245,3 +245,35 @@ def test_scan_stderr_line_stays_under_300_characters():
     assert len(err) == 1 and len(err[0]) < 300, err
     assert re.match(r"boundkit: 2 row\(s\) with status error, tolerance-not-met or missing; first: 1s \(error: "
                     r"potential: the vector part", err[0]), err
+
+
+# --- a varied name no term takes is named as --vary ---------------------------------------------
+def test_scan_names_vary_for_a_parameter_no_term_takes():
+    """A tester: `scan --vary Q=1:2:3` said '--param: no potential term takes parameter 'Q'', naming an option
+    the user did not give."""
+    res = run("scan", "--param", "Z=1", "--vary", "Q=1:2:3", "--workers", "1")
+    assert res.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: --vary: no term of the potential takes 'Q'; its terms take Z\n",
+                        res.output)
+
+
+
+# --- critical follows --units and --energy-unit ------------------------------------------------
+@pytest.mark.parametrize("extra, eunit, lunit", [(("--units", "nuclear"), "MeV", "fm"),
+                                                 (("--energy-unit", "eV"), "eV", "bohr")])
+def test_critical_json_reports_energies_and_lengths_in_the_units_asked(extra, eunit, lunit):
+    """A tester: with --units nuclear the points' energies and mesh ends stayed in hartree and bohr."""
+    from boundkit.studies import critical
+    from boundkit.units import bohr_to
+
+    units = "nuclear" if "nuclear" in extra else "atomic"
+    ref = critical("klein-gordon", "coulomb", {"Z": 20}, state="1s", vary="Z", kind="merge", units=units)
+    res = run("critical", "-e", "klein-gordon", "--param", "Z=20", "--vary", "Z", "--state", "1s",
+              "--kind", "merge", "--json", *extra)
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.output)
+    assert (data["units"]["energy"], data["units"]["length"]) == (eunit, lunit)
+    for got, want in zip(data["points"], ref.points):
+        assert got["energy"] == pytest.approx(hartree_to(want["energy"], eunit), rel=1e-12)
+        assert got["error_estimate"] == pytest.approx(hartree_to(want["error_estimate"], eunit), rel=1e-12)
+        assert got["r_max"] == pytest.approx(bohr_to(want["r_max"], lunit), rel=1e-12)

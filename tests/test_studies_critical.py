@@ -933,3 +933,46 @@ def test_the_klein_gordon_1s_at_its_merge_is_never_missed_silently(eps):
         assert res.status != "ok" or len(res.levels) == 1, res.message
     if res.status != "ok":
         assert re.search(r"merg", res.message), res.message
+
+
+# --- no critical radius below a point charge's limit ---------------------------------------------
+def test_a_finite_nucleus_below_the_point_charge_limit_has_no_critical_radius():
+    """A tester: Dirac 1s1/2, uniform sphere Z = 100, vary rms_fm printed 'critical rms_fm = -333544.24 +- inf
+    fm'. Z alpha = 0.73 < 1: even a point charge keeps the 1s1/2 total energy above 0 (Sommerfeld; Bjorken &
+    Drell, Relativistic Quantum Mechanics, 1964, from memory), and a sphere of any radius, no deeper than the
+    point charge, lifts it further (first order in the potential, its density being positive): no radius
+    makes it dive."""
+    with pytest.raises(ValueError, match=r"^potential: 1s1/2 dives at no rms_fm tried .* no deeper than a point "
+                                         r"charge Z = 100, Z alpha = 0\.7297 < \|kappa\| = 1, it never dives .*"
+                                         r"there is no critical rms_fm; vary Z instead$"):
+        critical("dirac", "uniform-sphere", {"Z": 100, "rms_fm": 7}, state="1s1/2", vary="rms_fm", units="nuclear")
+
+
+def test_cli_says_in_one_line_that_no_radius_dives():
+    out = CliRunner().invoke(main, ["critical", "-e", "dirac", "-p", "uniform-sphere", "--param", "Z=100",
+                                    "--param", "rms_fm=7", "--vary", "rms_fm", "--state", "1s1/2"])
+    assert out.exit_code == 2, out.output
+    assert re.fullmatch(r"boundkit: error: potential: .* there is no critical rms_fm[^\n]*\n", out.output)
+    assert "-333" not in out.output
+
+
+# --- Klein-Gordon point charge: the merge at Z alpha = l + 1/2 -------------------------------------
+@pytest.mark.parametrize("state, l", [("1s", 0), ("2p", 1)])
+def test_klein_gordon_point_charge_merges_at_z_alpha_l_plus_half(state, l):
+    """A tester: KG 1s of a point charge, vary Z, kind merge gave 68.5179995888 +- inf, tolerance-not-met. A
+    point charge's Klein-Gordon levels turn complex at Z alpha = l + 1/2 (gamma = sqrt((l + 1/2)^2 - (Z alpha)^2)
+    ceases to be real; Greiner, Relativistic Quantum Mechanics, from memory)."""
+    exact = (l + 0.5) / sc.fine_structure
+    res = critical("klein-gordon", "coulomb", {"Z": 20}, state=state, vary="Z", kind="merge")
+    assert res.status == "ok", res.message
+    assert math.isfinite(res.uncertainty)
+    assert abs(res.value - exact) <= res.uncertainty <= 1e-12 * exact
+    lo, hi = res.bracket
+    assert lo < exact and hi is not None and hi >= exact
+
+
+def test_cli_klein_gordon_point_charge_merge_is_ok():
+    out = CliRunner().invoke(main, ["critical", "-e", "klein-gordon", "--param", "Z=20", "--vary", "Z",
+                                    "--state", "1s", "--kind", "merge"])
+    assert out.exit_code == 0, out.output
+    assert "68.51799958879" in out.output and "inf" not in out.output

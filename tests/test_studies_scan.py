@@ -79,7 +79,8 @@ def test_a_schrodinger_channel_takes_j_for_a_spin_orbit_term():
 
 
 def test_scan_refuses_bad_input_before_solving():
-    with pytest.raises(ValueError, match="no potential term takes parameter 'screening'"):
+    with pytest.raises(ValueError, match=r"^vary: no term of the potential takes 'screening'; its terms take Z, "
+                                         r"screening_length$"):
         scan("schrodinger", "yukawa", {"Z": 1, "screening_length": 2.0}, {"screening": [1.0, 2.0]}, workers=1)
     with pytest.raises(ValueError, match="needs screening_length > 0.*at screening_length = -1"):
         scan("schrodinger", "yukawa", {"Z": 1}, {"screening_length": [2.0, -1.0]}, workers=1)

@@ -207,3 +207,20 @@ def test_width_growth_law_beyond_diving():
     assert 1.6 < power[-1] < 2.4 and 1.6 < power[-2] < 2.6   # 20 -> 28 -> 40 (measured 2.1, 1.9)
     keV = 1e-3 * sc.physical_constants["Hartree energy in eV"][0]
     assert 1 < res.beyond[3].width * keV < 10                 # 10 past diving: 3.1 keV measured
+
+
+def test_cli_beyond_table_follows_the_energy_unit(monkeypatch, dive):
+    """The resonances past diving were printed in hartree whatever --units or --energy-unit said."""
+    import boundkit.studies
+    from boundkit.units import hartree_to
+
+    monkeypatch.setattr(boundkit.studies, "critical", lambda *a, **k: dive)
+    out = CliRunner().invoke(main, ["critical", "-e", "dirac", "--potential", "uniform-sphere", "--param", "Z=160",
+                                    "--rms-rule", "1.2,2.5", "--state", "1s1/2", "--vary", "Z", "--beyond", "3,5",
+                                    "--units", "nuclear"])
+    assert out.exit_code == 0, out.output
+    assert "(complex scaling), MeV:" in out.output
+    for b in dive.beyond:
+        row = next(line for line in out.output.splitlines() if line.split()[:1] == [f"{b.value:.10g}"])
+        assert float(row.split()[2]) == pytest.approx(hartree_to(b.energy, "MeV"), rel=1e-11)
+        assert float(row.split()[4]) == pytest.approx(hartree_to(b.width, "MeV"), rel=1e-7)

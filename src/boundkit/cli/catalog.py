@@ -1,11 +1,10 @@
 """``boundkit potentials`` and ``boundkit particles``: what the library knows (model potentials, particles)."""
 from __future__ import annotations
 
-import json
 
 import click
 
-from .common import fail, json_default
+from .common import fail, json_text
 
 __all__ = ["potentials_cmd", "particles_cmd"]
 
@@ -45,8 +44,7 @@ def particles_cmd(as_json):
 
     rows = particle_table()
     if as_json:
-        click.echo(json.dumps({"units": {"mass": "MeV/c^2", "charge": "e", "spin": "hbar"}, "particles": rows},
-                              default=json_default, indent=2))
+        click.echo(json_text({"units": {"mass": "MeV/c^2", "charge": "e", "spin": "hbar"}, "particles": rows}))
         return
     click.echo(f"{'name':<11} {'mass (MeV/c^2)':>17} {'charge (e)':>10} {'spin (hbar)':>11}  source")
     for r in rows:

@@ -5,13 +5,12 @@ Parse, call :mod:`boundkit.scattering`, print. No numerics here. Registered on t
 """
 from __future__ import annotations
 
-import json
 import sys
 
 import click
 
 from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_plot_path, fail, json_default, report_unit,
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_plot_path, fail, json_text, report_unit,
                      write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       particle_options, plot_option, potential_options, tol_option)
@@ -106,7 +105,7 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             record["levinson"] = {k: v for k, v in out["levinson"].to_dict(unit).items() if k != "phases"}
         if "scattering_length" in out:
             record["scattering_length"] = out["scattering_length"].to_dict()
-        click.echo(json.dumps(record, default=json_default, indent=2))
+        click.echo(json_text(record))
     else:
         from ..units import FM_PER_BOHR
         lunit = "fm" if unit_system == "nuclear" else "bohr"

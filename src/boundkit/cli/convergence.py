@@ -1,13 +1,12 @@
 """``boundkit converge`` (energies against resolution) and ``boundkit validate`` (the exact-case catalogue)."""
 from __future__ import annotations
 
-import json
 import sys
 
 import click
 
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_particle, check_plot_path, fail,
-                     json_default, report_unit, write_figure)
+                     json_text, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       levels_option, method_option, order_option, particle_options, plot_option,
                       potential_options, tol_option)
@@ -47,7 +46,7 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     except ValueError as exc:
         fail(api_message(exc, {"max_levels": "--max-levels"}))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict(unit)))
     else:
         missed = "" if res.reference_status == "ok" else f", which it did not meet ({res.reference_status})"
         click.echo(f"{res.equation} equation, potential {res.potential}; errors relative to a spectral "
@@ -82,8 +81,7 @@ def validate_cmd(quick, method, as_json):
     methods = ("spectral", "finite-difference") if method == "both" else (method,)
     rows = run_validation(quick=quick, methods=methods)
     if as_json:
-        click.echo(json.dumps({"cases": rows, "passed": all(r["passed"] for r in rows)}, default=json_default,
-                              indent=2))
+        click.echo(json_text({"cases": rows, "passed": all(r["passed"] for r in rows)}))
     else:
         click.echo(format_table(rows))
     if not all(r["passed"] for r in rows):

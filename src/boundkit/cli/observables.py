@@ -3,13 +3,12 @@ hyperfine`` and the ``--observables`` / ``--states`` extras of ``boundkit solve`
 Parses, calls the public API, prints; no numerics here."""
 from __future__ import annotations
 
-import json
 import sys
 
 import click
 
 from .._checks import MAX_N
-from .common import EXIT_NOT_CONVERGED, api_message, check_particle, fail, json_default
+from .common import EXIT_NOT_CONVERGED, api_message, check_particle, fail, json_text
 from .options import (build_potential, energy_unit_option, equation_option, json_option, labels_option,
                       levels_option, method_option, particle_options, potential_options, tol_option)
 
@@ -121,7 +120,7 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
     except ValueError as exc:
         fail(api_message(exc, {"max_n_limit": "--max-n-limit"}))
     if as_json:
-        click.echo(json.dumps(tr.to_dict(), default=json_default, indent=2))
+        click.echo(json_text(tr.to_dict()))
     else:
         click.echo(_format_lines(tr))
     if tr.status != "ok":
@@ -189,13 +188,12 @@ def hyperfine_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, t
                                "nuclear_moment": "--nuclear-moment", "magnetization_radius": "--magnetized-sphere-fm"}))
     dipole = "point dipole" if radius_fm is None else f"uniformly magnetized sphere, R = {radius_fm:g} fm"
     if as_json:
-        click.echo(json.dumps({"equation": res.equation, "potential": res.potential,
-                               "nucleus": {"moment_nuclear_magnetons": nuclear_moment, "spin": nuclear_spin,
-                                           "magnetization": dipole},
-                               "units": {"hyperfine_a": unit, "hyperfine_splitting": unit, "g_factor": "1",
-                                         "energy": "hartree"},
-                               "status": res.status, "message": res.message, "levels": rows},
-                              default=json_default, indent=2))
+        click.echo(json_text({"equation": res.equation, "potential": res.potential,
+                              "nucleus": {"moment_nuclear_magnetons": nuclear_moment, "spin": nuclear_spin,
+                                          "magnetization": dipole},
+                              "units": {"hyperfine_a": unit, "hyperfine_splitting": unit, "g_factor": "1",
+                                        "energy": "hartree"},
+                              "status": res.status, "message": res.message, "levels": rows}))
     else:
         out = [f"dirac equation, potential {res.potential}; nucleus mu = {nuclear_moment:g} mu_N, I = "
                f"{nuclear_spin:g}, {dipole}",

@@ -4,11 +4,10 @@ Parse, call :func:`boundkit.resonances`, print. No numerics here. Registered on 
 """
 from __future__ import annotations
 
-import json
 
 import click
 
-from .common import api_message, fail, json_default, report_unit
+from .common import api_message, fail, json_text, report_unit
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option, particle_options,
                       potential_options, subset_params, tol_option)
 
@@ -76,7 +75,7 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
     except ValueError as exc:
         fail(api_message(exc))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict(unit)))
         return
     s = res.settings
     click.echo(f"{res.equation} equation, potential {res.potential}; {s['scaling']} complex scaling beyond "

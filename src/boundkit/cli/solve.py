@@ -1,13 +1,12 @@
 """``boundkit solve``: the bound levels of one channel, as a table or JSON."""
 from __future__ import annotations
 
-import json
 import sys
 
 import click
 
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_output_path, check_particle,
-                     check_plot_path, clip_message, fail, json_default, report_length, report_unit, write_figure)
+                     check_plot_path, clip_message, fail, json_text, report_length, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, length_unit_option, levels_option, method_option, order_option,
                       particle_options, plot_option, potential_options, tol_option)
@@ -139,7 +138,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     except ValueError as exc:
         fail(api_message(exc, {"max_levels": "--max-levels"}))
     if as_json:
-        click.echo(json.dumps(record, default=json_default, indent=2))
+        click.echo(json_text(record))
     else:
         click.echo(_table(res, unit, length) + extra)
     outputs_ok = True

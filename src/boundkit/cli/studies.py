@@ -4,14 +4,14 @@ Parse, call :mod:`boundkit.studies`, print. No numerics here. Registered on the 
 """
 from __future__ import annotations
 
-import json
+import math
 import sys
 
 import click
 
 from .._checks import MAX_L
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_particle, check_plot_path, check_tol,
-                     clip_message, fail, json_default, report_unit, write_figure)
+                     clip_message, fail, json_text, report_length, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
                       plot_option, potential_options, tol_option)
@@ -105,9 +105,9 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                    progress=progress, scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit,
                    **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
-        fail(api_message(exc, {"max_levels": "--max-levels"}))
+        fail(api_message(exc, {"max_levels": "--max-levels", "vary": "--vary"}))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict(unit)))
     else:
         click.echo(res.table(unit))
         click.echo("")
@@ -145,6 +145,11 @@ def _bracket(text: str | None):
     return a, b
 
 
+def _number(x: float | None, spec: str) -> str:
+    """``x`` formatted by ``spec``; 'nan' right-aligned for None (a value a record could not convert)."""
+    return format(math.nan if x is None else x, spec)
+
+
 @click.command("critical")
 @equation_option()
 @potential_options
@@ -166,12 +171,13 @@ def _bracket(text: str | None):
 @click.option("--beyond", default=None, metavar="D1,D2,...",
               help="Diving only: follow the dived level this far past the critical value (e.g. 3,5,10) as a "
                    "resonance E + i Gamma/2 in the lower continuum (complex scaling).")
+@energy_unit_option()
 @click.option("--json", "as_json", is_flag=True,
               help="Print one JSON object (parameter, value, uncertainty, state, equation, kind, bracket, ...).")
 def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_tail, table_tail_charge,
                  table_origin, table_r_unit, table_v_unit, params, unit_system, state, vary, bracket, kind, tol,
                  energy_tol, max_evaluations, particle, mass_mev, nucleus_mass_mev, method, order, rms_rule,
-                 labels, beyond, as_json):
+                 labels, beyond, energy_unit, as_json):
     """Parameter value where a level unbinds (E -> 0), dives into the lower continuum, or merges."""
     from ..studies import StudyError, critical
 
@@ -179,6 +185,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     check_particle(particle, mass_mev)
     br = _bracket(bracket)
     try:
+        unit, length = report_unit(energy_unit, unit_system), report_length(None, unit_system)
         extra = ()
         if br is not None and not any(p.split("=")[0].strip() == vary for p in params):
             extra = (f"{vary}={br[0]!r}",)
@@ -198,12 +205,12 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
                        scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
     except ValueError as exc:
-        fail(api_message(exc))
+        fail(api_message(exc, {"vary": "--vary"}))
     except StudyError as exc:
         click.echo(f"boundkit: failed: {exc}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if as_json:
-        click.echo(json.dumps(res.to_dict(), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict(unit, length)))
     else:
         lo, hi = res.bracket
         pu = f" {res.parameter_unit}" if res.parameter_unit else ""
@@ -216,11 +223,12 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         click.echo(f"uncertainty: {res.uncertainty_meaning}")
         click.echo(f"bracket: {res.bracket_meaning}")
         if res.beyond:
-            click.echo("past the critical value, a resonance E + i Gamma/2 below -2 m c^2 (complex scaling), hartree:")
+            click.echo(f"past the critical value, a resonance E + i Gamma/2 below -2 m c^2 (complex scaling), {unit}:")
             click.echo(f"{res.parameter:>14} {'label':<8} {'energy':>20} {'+-':>8} {'width':>14} {'+-':>8}  status")
-            for b in res.beyond:
-                click.echo(f"{b.value:>14.10g} {b.label:<8} {b.energy:>20.12g} {b.energy_error:>8.2g} "
-                           f"{b.width:>14.8g} {b.width_error:>8.2g}  {b.status}")
+            for b in (b.to_dict(unit) for b in res.beyond):
+                click.echo(f"{b['value']:>14.10g} {b['label']:<8} {_number(b['energy'], '20.12g')} "
+                           f"{_number(b['energy_error'], '8.2g')} {_number(b['width'], '14.8g')} "
+                           f"{_number(b['width_error'], '8.2g')}  {b['status']}")
     if not res.success:
         click.echo(f"boundkit: {res.status}: {res.message}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
@@ -262,7 +270,7 @@ def compare_cmd(potentials, scalars, exprs, scalar_exprs, files, table_tail, tab
     except ValueError as exc:
         fail(api_message(exc, {"max_levels": "--max-levels", "max_l_max": "--max-l-max"}))
     if as_json:
-        click.echo(json.dumps(res.to_dict(unit, sunit), default=json_default, indent=2))
+        click.echo(json_text(res.to_dict(unit, sunit)))
     else:
         click.echo(res.table(unit, sunit))
     if not res.success:    # one line: channels grouped by status and reason, each reason once (--json: all)

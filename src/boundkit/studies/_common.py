@@ -27,7 +27,7 @@ from ..states import level_j, parse_label, principal_n, splits_by_j
 __all__ = ["StudyError", "canonical_equation", "channel_for", "channel_name", "parse_state",
            "state_channel", "resolve_params", "rebuild_potential", "describe", "write_atomic",
            "write_json_atomic", "umask_mode", "identity", "code_version", "ProgressBar", "seeded_level", "expected_labels", "NuclearRadius",
-           "parameter_units", "term_parameters"]
+           "parameter_units", "term_parameters", "check_varied"]
 
 log = logging.getLogger(__name__)
 
@@ -276,6 +276,16 @@ def term_parameters(potential, scalar=None) -> list[str] | None:
         elif isinstance(spec, str):
             return None          # an unknown name: the potential's own check says so
     return sorted(names)
+
+
+def check_varied(potential, scalar, names: Sequence[str]) -> None:
+    """ValueError naming ``vary`` when a varied name is a parameter no term of the potential takes (nothing
+    is checked when that cannot be told: :func:`term_parameters` gives None)."""
+    taken = term_parameters(potential, scalar)
+    missing = [n for n in names if n not in (taken if taken is not None else names)]
+    if missing:
+        raise ValueError(f"vary: no term of the potential takes {missing[0]!r}; its terms take "
+                         f"{', '.join(taken) or 'no parameters'}")
 
 
 def parameter_units(potential, scalar, names: Sequence[str], units: str = "atomic") -> dict[str, str]:

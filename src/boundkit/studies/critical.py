@@ -57,9 +57,9 @@ from ..discretize import get_method
 from ..solver import setup, solve_channel, table_error
 from .._threads import inside, one_blas_thread
 from ..states import convert_label
-from ..units import C_AU, constants_record
-from ._common import (StudyError, canonical_equation, describe, parameter_units, rebuild_potential,
-                      resolve_params, seeded_level, state_channel, term_parameters)
+from ..units import C_AU, bohr_to, constants_record, energy_unit, hartree_to, length_unit
+from ._common import (StudyError, canonical_equation, check_varied, describe, parameter_units,
+                      rebuild_potential, resolve_params, seeded_level, state_channel)
 
 __all__ = ["critical", "CriticalResult"]
 
@@ -85,6 +85,18 @@ MERGE_BRACKET_MEANING = (
     "the bracket is the pair of solved values nearest the merge (a real level at the first, none at the second: "
     "past the merge the pair's energies are complex); the merge value inside it is the top of the parabola "
     "p(E) through the three points found nearest the merge")
+
+POINT_MERGE_RULE = "point charge: Z alpha = l + 1/2"
+"""``settings['merge_rule']`` of a Klein-Gordon point charge's merge, taken from the exact condition."""
+
+POINT_MERGE_UNCERTAINTY_MEANING = (
+    "+- is the rounding of the merge value, which is exact for a point charge: its Klein-Gordon levels turn "
+    "complex where Z alpha = l + 1/2 (gamma = sqrt((l + 1/2)^2 - (Z alpha)^2) stops being real), solved for the "
+    "varied parameter; at least 4 ulp (double precision)")
+
+POINT_MERGE_BRACKET_MEANING = (
+    "the level was solved at the first value, just short of the merge; the second lies just past it, where a point "
+    "charge has no Klein-Gordon solution (none past Z alpha = l + 1/2: the solver refuses it)")
 
 BRACKET_MEANING = (
     "the bracket is the pair of solved values nearest the threshold (the level bound at the first, not "
@@ -178,13 +190,22 @@ class CriticalResult:
         return self.status == "ok"
 
     @property
+    def _point_merge(self) -> bool:
+        """Whether the value is a point charge's exact merge, Z alpha = l + 1/2 (no search)."""
+        return self.kind == "merge" and self.settings.get("merge_rule") == POINT_MERGE_RULE
+
+    @property
     def bracket_meaning(self) -> str:
         """One sentence saying what ``bracket`` is, and why it is wider than ``uncertainty``."""
+        if self._point_merge:
+            return POINT_MERGE_BRACKET_MEANING
         return MERGE_BRACKET_MEANING if self.kind == "merge" else BRACKET_MEANING
 
     @property
     def uncertainty_meaning(self) -> str:
         """One sentence saying what ``uncertainty`` is."""
+        if self._point_merge:
+            return POINT_MERGE_UNCERTAINTY_MEANING
         return MERGE_UNCERTAINTY_MEANING if self.kind == "merge" else UNCERTAINTY_MEANING
 
     @property
@@ -193,8 +214,13 @@ class CriticalResult:
         unit = f" {self.parameter_unit}" if self.parameter_unit else ""
         return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}{unit}"
 
-    def to_dict(self) -> dict[str, Any]:
-        """A JSON-ready record."""
+    def to_dict(self, unit: str = "hartree", length: str = "bohr") -> dict[str, Any]:
+        """A JSON-ready record: the points' energies (and the resonances past the value) in ``unit``, their
+        mesh ends ``r_max`` in ``length``; settings named ``..._hartree`` stay in hartree."""
+        energy = (lambda x: None if x is None else float(hartree_to(x, unit)))    # noqa: E731
+        points = [{**p, **{k: energy(p.get(k)) for k in ("energy", "error_estimate", "table_error")},
+                   "r_max": None if p.get("r_max") is None else float(bohr_to(p["r_max"], length))}
+                  for p in self.points]
         return {"parameter": self.parameter, "parameter_unit": self.parameter_unit, "value": self.value,
                 "uncertainty": self.uncertainty,
                 "state": self.state, "equation": self.equation, "kind": self.kind,
@@ -202,10 +228,10 @@ class CriticalResult:
                 "bracket": list(self.bracket), "bracket_meaning": self.bracket_meaning,
                 "evaluations": self.evaluations, "status": self.status,
                 "message": self.message, "settings": self.settings, "constants": constants_record(),
-                "units": {"parameter": self.parameter_unit or "1", "energy": "hartree", "length": "bohr",
-                          "time": "s"},
-                "points": [dict(p) for p in self.points],
-                "beyond": [b.to_dict() for b in self.beyond]}
+                "units": {"parameter": self.parameter_unit or "1", "energy": energy_unit(unit),
+                          "length": length_unit(length), "time": "s"},
+                "points": points,
+                "beyond": [b.to_dict(unit) for b in self.beyond]}
 
     def __repr__(self) -> str:
         head = (f"CriticalResult({self.state} {self.equation}, {self.kind}: {self.parameter} = "
@@ -475,20 +501,47 @@ def _finite_far(pot) -> bool:
 _POINT_RADII = np.geomspace(1e-8, 1e4, 13)
 
 
+def _sample_rv_s(pot, radii):
+    """(r V(r), S(r)) at ``radii`` with the warnings of the evaluation kept quiet; None if it raises."""
+    with np.errstate(all="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        try:
+            return np.ravel(pot.V(radii)) * radii, np.ravel(pot.S(radii))
+        except (ValueError, ArithmeticError):
+            return None
+
+
 def _bare_point_charge(pot) -> bool:
     """Whether the potential is an attractive point Coulomb charge and nothing else: V = -Z/r with Z > 0
     at r = 1e-8..1e4 bohr (a term or an expression), no scalar part."""
     zv = pot.z_vector
     if not zv > 0 or pot.z_scalar != 0:
         return False
-    with np.errstate(all="ignore"), warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        try:
-            rv = np.ravel(pot.V(_POINT_RADII)) * _POINT_RADII
-            s = np.ravel(pot.S(_POINT_RADII))
-        except (ValueError, ArithmeticError):
-            return False
+    sampled = _sample_rv_s(pot, _POINT_RADII)
+    if sampled is None:
+        return False
+    rv, s = sampled
     return bool(np.allclose(rv, -zv, rtol=1e-12, atol=0.0) and np.all(s == 0))
+
+
+_BOUND_RADII = np.geomspace(1e-10, 1e4, 281)
+
+
+def _point_charge_bound(pot, eq) -> float | None:
+    """Dirac: the charge Z of a potential no deeper than its point charge, r V(r) >= -Z at r = 1e-10..1e4 bohr
+    (20 radii a decade; Z the Coulomb tail's charge), with no scalar part and Z alpha < |kappa|; else None.
+    Such a potential lifts each level above the point charge's (first order in V, the density being positive),
+    whose total energy stays above 0 (Sommerfeld): the level does not dive."""
+    kappa = getattr(eq, "kappa", None)
+    z = pot.tail_charge
+    if kappa is None or not z > 0 or not z / C_AU < abs(kappa) or pot.z_scalar != 0:
+        return None
+    sampled = _sample_rv_s(pot, _BOUND_RADII)
+    if sampled is None:
+        return None
+    rv, s = sampled
+    ok = np.all(np.isfinite(rv)) and np.all(rv >= -z * (1 + 1e-12)) and np.all(s == 0)
+    return float(z) if ok else None
 
 
 def _has_spin_orbit(potential, params, scalar, solve_kwargs, vary, bracket) -> bool:
@@ -614,7 +667,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         and not found bound anywhere tried, a dive asked of a bare point
         Coulomb charge (no level of it dives) or of a Klein-Gordon s level of
         a short-range potential (it merges), a merge asked of another
-        equation.
+        equation; a Dirac dive searched on a parameter that leaves the
+        potential no deeper than a point charge below its limit (a nucleus's
+        radius at Z alpha < |kappa|).
     StudyError
         The solver refused the start value (or a bracket end); the critical
         value lies beyond a value the potential or the solver refuses;
@@ -643,7 +698,13 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     lower continuum's states: non-analytic terms ~ exp(-c / sqrt(s)) lie
     below every power). A bare point charge is refused: its levels keep a
     total energy above 0 for every charge it allows (Sommerfeld's formula)
-    and never dive.
+    and never dive. So is, for Dirac, a search whose estimate leaves the
+    parameter's range (a radius extrapolated below 0) while at every value
+    found the potential kept one Coulomb charge Z with Z alpha < |kappa|
+    and was no deeper than that point charge (r V >= -Z, no scalar part):
+    such a level lies above the point charge's (first order in V, its
+    density being positive) and dives at none of them (a finite nucleus of
+    Z alpha < 1 searched on its radius).
 
     Search coordinate. A parameter whose opposite value the potential
     refuses, or makes not finite at r = 1e3..1e5 bohr where the start value
@@ -742,7 +803,13 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     ``'unverified'`` when the points do not turn (no top inside the
     bracket, or one below -2 m c^2): the level was lost some other way,
     perhaps by diving (Klein-Gordon levels with l > 0 of a short-range well
-    dive).
+    dive). A bare point charge needs no search: its levels hold
+    gamma = sqrt((l + 1/2)^2 - (Z alpha)^2), real up to Z alpha = l + 1/2,
+    past which the energies are complex and the solver refuses the charge.
+    The merge value is where Z alpha = l + 1/2 (Z read from the potential,
+    solved for the varied parameter by secant steps), with an uncertainty of
+    its rounding; the level is solved 1e-6 of the value short of it, and
+    must be absent (or refused) as far past it, else the search runs.
 
     Mesh. The solver sizes each level's mesh from its energy: the outer end
     is where the WKB estimate of the radial function has fallen by e^-42,
@@ -788,10 +855,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         return setup(eqname, rebuild_potential(potential, values, varied), values,
                      scalar=rebuild_potential(scalar, values, varied), **channel, **setup_kwargs)
 
-    taken = term_parameters(potential, scalar)
-    if taken is not None and vary not in taken:
-        raise ValueError(f"vary: no term of the potential takes {vary!r}; its terms take "
-                         f"{', '.join(taken) or 'no parameters'}")
+    check_varied(potential, scalar, [vary])
     if bracket is not None:
         try:
             a, b = (float(x) for x in bracket)
@@ -1174,6 +1238,55 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                        f"{len(points)} evaluations; best estimate {best:.12g} +- {unc:.2g}{pu}")
         return result_of(best, unc, status, message, p_in, p_out, n_in, extra)
 
+    def point_charge_merge() -> CriticalResult | None:
+        """Klein-Gordon, a bare point charge: the merge is where Z alpha = l + 1/2 exactly (past it gamma, and
+        the pair's energies, turn complex). Z(p) is read from the potential alone (the Klein-Gordon setup
+        refuses Z alpha >= l + 1/2) and solved for p by secant steps (one for Z itself); the level is then
+        solved just short of it. None, for the search to decide, when Z does not follow p or the potential
+        stops being a bare point charge on the way."""
+        target = (eq0.l + 0.5) * C_AU
+
+        def z_of(p: float) -> float | None:
+            values = resolve_params(params, {vary: p})
+            try:
+                pot = setup("schrodinger", rebuild_potential(potential, values, varied), values,
+                            scalar=rebuild_potential(scalar, values, varied), l=eq0.l, **setup_kwargs)[1]
+            except ValueError:
+                return None
+            return float(pot.z_vector) if _bare_point_charge(pot) else None
+
+        fp = sorted(found_points(), key=lambda r: abs(r["value"] - p_start))
+        if len(fp) < 2:
+            return None
+        (pa, za), (pb, zb) = ((r["value"], z_of(r["value"])) for r in fp[:2])
+        for _ in range(30):
+            if za is None or zb is None or za == zb or pa == pb:
+                return None
+            pc = pb + (target - zb) * (pb - pa) / (zb - za)
+            zc = z_of(pc)
+            if zc is None or not math.isfinite(pc):
+                return None
+            pa, za, pb, zb = pb, zb, pc, zc
+            if abs(zc - target) <= _precision_floor(target) or pa == pb:
+                break
+        slope = (zb - za) / (pb - pa) if pb != pa else 0.0
+        if abs(zb - target) > 16 * _precision_floor(target) or not slope:
+            return None
+        unc = max(abs(zb - target) / abs(slope), _precision_floor(pb))
+        # the level just short of the merge, and none just past it (the solver refuses Z alpha > l + 1/2)
+        h = math.copysign(1e-6 * (abs(pb) or 1.0), slope)
+        near = try_evaluate(x_of(pb - h), seeds=(fp[0]["energy"],) + seeds_for(pb))
+        past = try_evaluate(x_of(pb + h))
+        if near is None or not near["found"] or (past is not None and past["found"]):
+            return None
+        message = (f"{label} merges with an antiparticle level at {vary} = {pb:.{_digits(pb, unc)}g} +- "
+                   f"{unc:.2g}{pu}, where Z alpha = l + 1/2 = {eq0.l + 0.5:g} (exact for a point charge: past it "
+                   f"the Klein-Gordon levels are complex); found at {near['value']:.12g}{pu}, E = "
+                   f"{near['energy']:.10g} hartree")
+        extra = {"threshold_hartree": None, "threshold_variable": "none: the exact condition Z alpha = l + 1/2",
+                 "merge_energy_hartree": None, "merge_rule": POINT_MERGE_RULE}
+        return result_of(pb, unc, "ok", message, near["value"], pb + h, near, extra)
+
     p_unit = parameter_units(potential, scalar, [vary], solve_kwargs.get("units", "atomic"))[vary]
     pu = f" {p_unit}" if p_unit else ""
 
@@ -1204,8 +1317,30 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                               settings=settings, status=status, message=message, points=tuple(clean),
                               parameter_unit=p_unit)
 
+    if kind == "merge" and _bare_point_charge(pot0):
+        exact = point_charge_merge()
+        if exact is not None:
+            return exact
     if kind == "merge":
         return merge_search(p_out, step)
+
+    def refuse_if_no_dive(fp: list[dict]) -> None:
+        """A dive whose estimate left the parameter's range while, at every value found, the potential kept
+        the same Coulomb charge Z and was no deeper than that point charge with Z alpha < |kappa|: the level
+        dives at none of them, and the search runs out of the range. ValueError: no critical value."""
+        charges = set()
+        for r in fp:
+            eq_r, pot_r, _ = build(r["value"])
+            charges.add(_point_charge_bound(pot_r, eq_r))
+        if len(charges) != 1 or None in charges:
+            return
+        z = charges.pop()
+        values = [r["value"] for r in fp]
+        raise ValueError(
+            f"potential: {label} dives at no {vary} tried ({min(values):.4g} to {max(values):.4g}{pu}) and the "
+            f"extrapolation leaves the range of {vary}: no deeper than a point charge Z = {z:g}, Z alpha = "
+            f"{z / C_AU:.4g} < |kappa| = {abs(eq0.kappa)}, it never dives (Sommerfeld); there is no critical "
+            f"{vary}; vary Z instead")
 
     prev_best = None
     rechecked: set = set()
@@ -1215,6 +1350,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         near = min(fp, key=lambda r: r["s"])
         p_in = near["value"]
         best, unc = estimate(fp)
+        if kind == "dive" and eqname == "dirac" and best is not None and not axis.allows(best) and len(fp) >= 3:
+            refuse_if_no_dive(fp)
         inside = best is not None and ahead(best, p_in) >= -unc and (p_out is None or ahead(p_out, best) >= -unc)
         scale = abs(best) if best else 1.0
         converged = (best is not None and axis.allows(best) and inside and unc <= tol * scale

@@ -45,7 +45,7 @@ from ..solver import check_levels, solve
 from ..units import column, constants_record, hartree_to
 from ..units import energy_unit as _energy_unit
 from . import _common
-from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, describe,
+from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, check_varied, describe,
                       expected_labels, parameter_units, rebuild_potential, resolve_params,
                       write_atomic, write_json_atomic)
 
@@ -636,6 +636,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
             raise ValueError(f"vary[{name!r}]: expected a non-empty sequence of finite numbers")
         check_count(f"vary[{name!r}]", len(vals), max_points, "max_points=", "values or more")
         grid[str(name)] = vals
+    check_varied(potential, scalar, list(grid))
     params = dict(params or {})
     derived = {k for k, v in params.items() if callable(v)}
     clash = derived & set(grid)
