@@ -50,8 +50,9 @@ def test_critical_json_is_strict_when_a_search_does_not_settle():
 
 
 def test_every_command_prints_json_through_the_one_helper():
-    """--json output goes through cli.common.json_text, which cleans NaN and inf; no command calls
-    json.dumps itself."""
+    """--json output goes through cli.common.json_text (boundkit._jsonsafe.json_text), which cleans NaN and
+    inf; no command calls json.dumps itself."""
     root = Path(boundkit.cli.__file__).parent
     calls = {p.name for p in root.glob("*.py") if re.search(r"json\.dumps\(", p.read_text())}
-    assert calls == {"common.py"}
+    assert calls == set()
+    assert re.search(r"json\.dumps\(.*allow_nan=False", (root.parent / "_jsonsafe.py").read_text())

@@ -18,7 +18,7 @@ import click
 from .._checks import shorten
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
-           "check_output_path", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_default", "json_text",
+           "check_output_path", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_text",
            "levels_arg", "level_count", "channel_number", "parse_params", "report_unit", "report_length", "api_message"]
 
 EXIT_BAD_INPUT = 2
@@ -156,23 +156,13 @@ def write_figure(draw, path: str, option: str = "--plot") -> str | None:
         return None
 
 
-def json_default(x):
-    """JSON fallback for numpy scalars."""
-    try:
-        return float(x)
-    except (TypeError, ValueError):
-        return str(x)
-
-
 def json_text(doc) -> str:
     """``doc`` as strict JSON text (indented), the one path of every ``--json``: NaN and +-inf become null,
-    as in a run's results.json (the same cleaning, :func:`boundkit.runspec.files._clean`), since strict
-    parsers reject NaN and Infinity."""
-    import json
+    as in a run's results.json (:func:`boundkit._jsonsafe.json_text`), since strict parsers reject NaN and
+    Infinity."""
+    from .._jsonsafe import json_text as strict
 
-    from ..runspec.files import _clean
-
-    return json.dumps(_clean(doc), default=json_default, indent=2, allow_nan=False)
+    return strict(doc)
 
 
 MAX_LEVELS_KEY = "boundkit.max_levels"

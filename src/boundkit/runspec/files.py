@@ -19,43 +19,12 @@ from pathlib import Path
 
 import numpy as np
 
+from .._jsonsafe import json_safe as _clean
 from ..studies._common import umask_mode as _umask_mode
 
 def _slug(text: str) -> str:
     s = re.sub(r"[^A-Za-z0-9]+", "-", str(text)).strip("-").lower()
     return s or "x"
-
-
-def _json_default(x):
-    if isinstance(x, (np.floating, np.integer)):
-        return x.item()
-    if isinstance(x, np.ndarray):
-        return x.tolist()
-    if isinstance(x, Path):
-        return str(x)
-    if isinstance(x, tuple):
-        return list(x)
-    try:
-        return float(x)
-    except (TypeError, ValueError):
-        return str(x)
-
-
-def _clean(x):
-    """JSON-safe copy: non-finite floats become None, tuple keys become strings."""
-    if isinstance(x, dict):
-        return {(k if isinstance(k, str) else ":".join(map(str, k)) if isinstance(k, tuple) else str(k)): _clean(v)
-                for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
-    if isinstance(x, (float, np.floating)):
-        x = float(x)
-        return x if math.isfinite(x) else None
-    if isinstance(x, np.integer):
-        return int(x)
-    if isinstance(x, np.ndarray):
-        return _clean(x.tolist())
-    return x
 
 
 def _atomic_write(path: Path, data: str | bytes) -> None:

@@ -9,12 +9,11 @@ from __future__ import annotations
 
 import datetime as _dt
 import hashlib
-import json
 
 from .. import __version__
 from ..observables import LENGTH_UNITS
 from ..units import ENERGY_UNITS, constants_record
-from .files import _clean, _json_default
+from .._jsonsafe import json_text
 
 
 class ReportWriter:
@@ -41,7 +40,7 @@ class ReportWriter:
             "headline": list(self.headline),
             "files": sorted(set(self.files) | {"results.json", "report.md"}),
         }
-        self.write("results.json", json.dumps(_clean(doc), indent=2, default=_json_default) + "\n")
+        self.write("results.json", json_text(doc) + "\n")
 
     def _write_report(self, seconds: float) -> None:
         spec = self.spec

@@ -367,16 +367,10 @@ def write_atomic(path: str | os.PathLike, text: str) -> Path:
     return path
 
 
-def _json_default(x):
-    if isinstance(x, (np.floating, np.integer)):
-        return x.item()
-    if isinstance(x, np.ndarray):
-        return x.tolist()
-    return str(x)
-
-
 def write_json_atomic(path, data) -> Path:
-    return write_atomic(path, json.dumps(data, indent=1, default=_json_default, allow_nan=False))
+    from .._jsonsafe import json_default
+
+    return write_atomic(path, json.dumps(data, indent=1, default=json_default, allow_nan=False))
 
 
 # --- progress ------------------------------------------------------------------------------
