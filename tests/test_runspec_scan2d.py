@@ -138,3 +138,23 @@ def test_plan_of_a_convergence_study(tmp_path):
     (st,) = plan(load_spec(spec)).studies
     assert st.section == "converge" and st.line == 6 and st.solves == 2
     assert "convergence of model h, schrodinger s, 2 level(s)" in st.summary
+
+
+def test_a_one_parameter_scan_slope_over_an_inverse_length_is_in_energy_times_length(tmp_path):
+    """The slope d[E(2s) - E(1s)]/d delta of a Hulthen well is in hartree bohr (delta is in 1/bohr); the label
+    read 'hartree/1/bohr' (a tester)."""
+    one = SPEC.split("[scan.second]")[0].replace('parameter = "Z"\nvalues = [1.0, 1.5, 2.0]',
+                                                'parameter = "delta"\nvalues = [0.05, 0.1, 0.15]')
+    spec = tmp_path / "spec.toml"
+    spec.write_text(one, encoding="utf-8")
+    report = run(load_spec(spec), tmp_path / "out")
+    assert report.success, report.problems
+    text = (tmp_path / "out" / "report.md").read_text()
+    assert "hartree/1/bohr" not in text and "hartree bohr" in text
+    doc = json.loads((tmp_path / "out" / "results.json").read_text())
+    (item,) = doc["scan"][0]["differences"]
+    assert item["slope_unit"] == "hartree bohr"
+    # E(2s) - E(1s) = 3 (Z^2 - delta^2) / 8 with Z = 1 (the levels above): linear fit of -3 delta^2 / 8 over
+    # delta = 0.05, 0.1, 0.15 has slope -3 (0.05 + 0.15) / 8 = -0.075 (least squares of a parabola on three
+    # equally spaced points: its secant over the ends)
+    assert item["slope_per_parameter"] == pytest.approx(-0.075, rel=1e-9)

@@ -125,7 +125,7 @@ class ScanRunner:
             line = f"E({a}) - E({b}) ({self.e_unit}) at {sec.parameter} = " + ", ".join(
                 f"{v:g}{pu}: {format_difference(self.E(d), self.E(e), 8)}" for v, d, e in pts) + "."
             if "slope_per_parameter" in item:
-                per = f"{self.e_unit}/{p_unit}" if p_unit else f"{self.e_unit} per unit of {sec.parameter}"
+                per = _per_unit(self.e_unit, p_unit) if p_unit else f"{self.e_unit} per unit of {sec.parameter}"
                 item["slope_unit"] = per
                 line += f" Least-squares slope: {_fmt(item['slope_per_parameter'], 5)} {per}."
                 self.headline.append(f"scan of {sec.parameter} ({sec.model}): d[E({a}) - E({b})]/d{sec.parameter} = "
@@ -237,3 +237,11 @@ def _scan_table(rows: list[dict], parameter: str, key: str = "energy") -> dict[f
         if math.isfinite(energy):
             out.setdefault(value, {})[str(label)] = energy
     return out
+
+
+def _per_unit(e_unit: str, p_unit: str) -> str:
+    """The unit of an energy per parameter: hartree bohr for a parameter in 1/bohr (not hartree/1/bohr),
+    hartree/bohr for one in bohr, a compound unit in parentheses."""
+    if p_unit.startswith("1/"):
+        return f"{e_unit} {p_unit[2:]}"
+    return f"{e_unit}/({p_unit})" if any(c in p_unit for c in "/* ") else f"{e_unit}/{p_unit}"
