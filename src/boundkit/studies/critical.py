@@ -850,9 +850,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     varied = {vary} | {n for n, v in params.items() if callable(v)}
     t0 = time.perf_counter()
 
-    def build(p: float):
+    def build(p: float, equation: str = eqname):
         values = resolve_params(params, {vary: p})
-        return setup(eqname, rebuild_potential(potential, values, varied), values,
+        return setup(equation, rebuild_potential(potential, values, varied), values,
                      scalar=rebuild_potential(scalar, values, varied), **channel, **setup_kwargs)
 
     check_varied(potential, scalar, [vary])
@@ -1247,10 +1247,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         target = (eq0.l + 0.5) * C_AU
 
         def z_of(p: float) -> float | None:
-            values = resolve_params(params, {vary: p})
             try:
-                pot = setup("schrodinger", rebuild_potential(potential, values, varied), values,
-                            scalar=rebuild_potential(scalar, values, varied), l=eq0.l, **setup_kwargs)[1]
+                pot = build(p, "schrodinger")[1]       # the Klein-Gordon setup refuses Z alpha >= l + 1/2
             except ValueError:
                 return None
             return float(pot.z_vector) if _bare_point_charge(pot) else None
