@@ -56,8 +56,10 @@ def test_the_lowest_levels_of_a_supercritical_tail_are_found_and_not_capped_by_a
     assert res.diagnostics["bound_count"] is None          # infinitely many: no finite count
     for lv, ref in zip(res.levels, SHOT, strict=True):
         assert abs(lv.energy - ref) <= max(lv.error_estimate, 1e-10 * abs(ref)), (lv.energy, ref)
-    # the ratio of neighbouring levels tends to exp(2 pi / s), s = sqrt(2 - 1/4): 36.2 / 1.32 -> 115.6
-    assert 80 < SHOT[0] / SHOT[1] < 130 and math.exp(2 * math.pi / math.sqrt(1.75)) == pytest.approx(115.6, rel=1e-3)
+    # the ratio of neighbouring levels tends to exp(2 pi / s), s = sqrt(2 - 1/4) (115.6); the lowest two, still
+    # off that asymptote, stand 107 apart
+    ratio = res.levels[0].energy / res.levels[1].energy
+    assert 0.9 < ratio / math.exp(2 * math.pi / math.sqrt(1.75)) < 1.0
 
 
 def test_more_levels_than_a_box_has_room_for_are_a_partial_result_that_says_why():
