@@ -11,43 +11,30 @@ from pathlib import Path
 
 import numpy as np
 
-__all__ = ["json_safe", "json_default", "json_text"]
+__all__ = ["json_safe", "json_text"]
 
 
 def json_safe(x):
-    """JSON-safe copy: non-finite floats become None, tuple keys become strings, numpy values Python ones."""
+    """JSON-safe copy: non-finite floats become None, tuple keys become strings, numpy values and arrays
+    Python ones, a path its text; anything else a number when it converts to one, else its text."""
     if isinstance(x, dict):
         return {(k if isinstance(k, str) else ":".join(map(str, k)) if isinstance(k, tuple) else str(k)): json_safe(v)
                 for k, v in x.items()}
     if isinstance(x, (list, tuple)):
         return [json_safe(v) for v in x]
-    if isinstance(x, (float, np.floating)):
-        x = float(x)
-        return x if math.isfinite(x) else None
-    if isinstance(x, np.integer):
-        return int(x)
     if isinstance(x, np.ndarray):
         return json_safe(x.tolist())
-    return x
-
-
-def json_default(x):
-    """Fallback of json.dumps for what it does not know: numpy values, arrays, paths, tuples, else a
-    number when the value converts to one, else its text."""
-    if isinstance(x, (np.floating, np.integer)):
-        return x.item()
-    if isinstance(x, np.ndarray):
-        return x.tolist()
+    if x is None or isinstance(x, (str, bool, int, np.integer)):
+        return int(x) if isinstance(x, np.integer) else x
     if isinstance(x, Path):
         return str(x)
-    if isinstance(x, tuple):
-        return list(x)
     try:
-        return float(x)
+        x = float(x)
     except (TypeError, ValueError):
         return str(x)
+    return x if math.isfinite(x) else None
 
 
 def json_text(doc, indent: int = 2) -> str:
-    """``doc`` as strict JSON text: :func:`json_safe`, then json.dumps refusing NaN and inf."""
-    return json.dumps(json_safe(doc), default=json_default, indent=indent, allow_nan=False)
+    """``doc`` as strict JSON text: :func:`json_safe`, then json.dumps (which then meets no NaN or inf)."""
+    return json.dumps(json_safe(doc), indent=indent, allow_nan=False)

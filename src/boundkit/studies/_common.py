@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import functools
 import hashlib
-import json
 import logging
 import math
 import os
@@ -368,9 +367,11 @@ def write_atomic(path: str | os.PathLike, text: str) -> Path:
 
 
 def write_json_atomic(path, data) -> Path:
-    from .._jsonsafe import json_default
+    """``data`` as strict JSON (non-finite numbers as null: a NaN or inf raised here after the study had
+    computed everything), written atomically."""
+    from .._jsonsafe import json_text
 
-    return write_atomic(path, json.dumps(data, indent=1, default=json_default, allow_nan=False))
+    return write_atomic(path, json_text(data, indent=1))
 
 
 # --- progress ------------------------------------------------------------------------------
