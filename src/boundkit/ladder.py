@@ -258,7 +258,7 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
              for d, a, b in zip(degrees, edges[:-1], edges[1:])]
     from .equations.variational import SymmetricOperator
 
-    grid = element_grid(edges, degrees, quadrature=False)      # the nodes; the rule follows from them
+    grid = element_grid(edges, degrees)      # the nodes; the rule follows from them
     sample = sample_fn(grid.r)
     more = _structure_points(grid, sample)
     grid = with_quadrature(grid, edges, [q + m for q, m in zip(quads, more)])

@@ -108,26 +108,12 @@ class ElementGrid:
 
 @dataclass(frozen=True)
 class Quadrature:
-    """Gauss-Legendre points of one element and the maps from its nodal values.
-
-    ``t`` (extended precision) and ``w`` (weights for dt) of the points,
-    ``B`` the Lagrange interpolation matrix (points x nodes) and ``Bt`` the
-    derivative in t of the interpolant at the points, both in extended precision.
-    ``Bt`` is the reference element's (``Bt_ref``, shared) over the half-length
-    ``half``, formed when asked for: the operator assembles its blocks from the
-    reference matrices (:mod:`boundkit.equations.variational`), and forming it
-    for every element of every grid took about 9 % of a Dirac-Coulomb solve.
-    """
+    """The Gauss-Legendre points ``t`` of one element (extended precision). The operator takes the
+    weights and the maps from nodal values from the reference element (:func:`_reference_quadrature`,
+    scaled there: :mod:`boundkit.equations.variational`); forming them per element as well, for every
+    grid, took about 9 % of a Dirac-Coulomb solve, and only tests read them."""
 
     t: np.ndarray
-    w: np.ndarray
-    B: np.ndarray
-    Bt_ref: np.ndarray
-    half: np.longdouble
-
-    @property
-    def Bt(self) -> np.ndarray:
-        return self.Bt_ref / self.half
 
 
 @lru_cache(maxsize=256)
@@ -153,45 +139,35 @@ def _reference_quadrature(n: int, m: int):
 
 def _element_quadrature(a, b, n: int, m: int) -> Quadrature:
     """The m Gauss-Legendre points of the degree-n element [a, b] (extended-precision edges)."""
-    half = (b - a) / 2
-    y, wy, B, Bt = _reference_quadrature(n, m)
-    return Quadrature(t=a + (y + 1) * half, w=wy * float(half), B=B, Bt_ref=Bt, half=half)
+    return Quadrature(t=a + (_reference_quadrature(n, m)[0] + 1) * ((b - a) / 2))
 
 
 def with_quadrature(grid: ElementGrid, edges, quad_points) -> ElementGrid:
-    """``grid`` (built on ``edges``) with other Gauss-Legendre point counts, one per element: the nodes,
-    differentiation matrices and weights are kept, only the quadrature is rebuilt."""
+    """``grid`` (built on ``edges``) with its Gauss-Legendre point counts, one per element: the nodes,
+    differentiation matrices and weights are kept, the quadrature is (re)built. Integrals of the
+    quadratic form are done on these points, not on the nodes: the integrands carry w(r)^2 ~
+    r^(2 gamma), which varies exponentially in t, and a rule with more points keeps them exact enough
+    that no spurious mode appears (:func:`boundkit.ladder.make_operator` chooses the counts)."""
     edges = [np.longdouble(e) for e in edges]
     return replace(grid, quad=tuple(_element_quadrature(edges[e], edges[e + 1], s1 - s0, int(m))
                                     for e, ((s0, s1), m) in enumerate(zip(grid.elements, quad_points))))
 
 
-def element_grid(edges, degree, quad_points=None, quadrature: bool = True) -> ElementGrid:
-    """GLL spectral elements between consecutive ``edges`` (ascending t).
+def element_grid(edges, degree) -> ElementGrid:
+    """GLL spectral elements between consecutive ``edges`` (ascending t), without a quadrature
+    (:func:`with_quadrature` adds it).
 
     ``degree`` is one int for every element or a sequence with one per element.
-    ``quad_points``: Gauss-Legendre points per element for the integrals (one
-    int or one per element; default degree + 2). Integrals of the quadratic
-    form are done on these points, not on the nodes: the integrands carry
-    w(r)^2 ~ r^(2 gamma), which varies exponentially in t, and a rule with more
-    points keeps them exact enough that no spurious mode appears. With ``quadrature`` False the
-    grid has none yet (``quad`` empty; :func:`with_quadrature` adds it once the counts are known).
     """
     edges = [np.longdouble(e) for e in edges]
     m = len(edges) - 1
     degrees = [int(degree)] * m if np.ndim(degree) == 0 else [int(d) for d in degree]
     if len(degrees) != m:
         raise ValueError(f"degree: need one degree per element ({m}), got {len(degrees)}")
-    if quad_points is None:
-        quads = [d + 2 for d in degrees]
-    elif np.ndim(quad_points) == 0:
-        quads = [int(quad_points)] * m
-    else:
-        quads = [int(q) for q in quad_points]
     N = sum(degrees) + 1
     t_ext = np.empty(N, dtype=np.longdouble)
     w = np.zeros(N)
-    els, Ds, wl, qs = [], [], [], []
+    els, Ds, wl = [], [], []
     s = 0
     for e, n in enumerate(degrees):
         x, wref, Dref = gll(n)
@@ -204,11 +180,9 @@ def element_grid(edges, degree, quad_points=None, quadrature: bool = True) -> El
         els.append((s, s + n))
         Ds.append(Dref / half)
         wl.append(we)
-        if quadrature:
-            qs.append(_element_quadrature(a, b, n, quads[e]))
         s += n
     t_ext[-1] = edges[-1]
     degree = max(degrees)
     t = t_ext.astype(float)
     return ElementGrid(t=t, t_ext=t_ext, r=np.exp(t), w=w, elements=tuple(els), D=tuple(Ds),
-                       w_local=tuple(wl), degree=degree, quad=tuple(qs))
+                       w_local=tuple(wl), degree=degree)
