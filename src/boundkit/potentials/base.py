@@ -265,9 +265,28 @@ _ORIGIN_RADII = (1e-12, 1e-11, 1e-10)   # bohr: where the origin is probed (Prob
 _STEEP_PER_DECADE = 10**0.02            # growth of r |V|'s rise per decade towards the origin taken as |V| ~ r^-s, s > 1
 
 
-def _falling_core(r: np.ndarray, v: np.ndarray, power: int = 2) -> tuple[np.ndarray, np.ndarray] | None:
-    """(r, r^power V) when r^power V at the three ascending radii ``r`` is negative and grows in magnitude
-    towards the origin beyond a steady core, else None.
+def _origin_probe(values, test) -> tuple[np.ndarray, np.ndarray] | None:
+    """``test(r, values(r))`` at the origin's radii _ORIGIN_RADII (non-finite values and complex parts quiet)."""
+    r = np.array(_ORIGIN_RADII)
+    with np.errstate(all="ignore"), complex_values():
+        y = values(r)
+    return test(r, y)
+
+
+def _steep_core(r: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """(r, y) when y = r |V| at the three ascending radii ``r`` grows towards the origin, beyond rounding, by an
+    amount per decade that itself grows by _STEEP_PER_DECADE or more from one decade to the next (|V| ~ A r^-s
+    with s >= 1.02 gives 10^(s - 1)), else None. A Coulomb core (r |V| steady), a finite one, and the
+    logarithmic growth of a point charge's Uehling correction (the same amount each decade, (2 alpha / 3 pi) Z
+    ln 10) pass."""
+    if not (np.all(np.isfinite(y)) and y[0] > y[1] > y[2] > 0 and y[0] - y[1] > 1e-6 * y[0]):
+        return None
+    return (r, y) if (y[0] - y[1]) >= _STEEP_PER_DECADE * (y[1] - y[2]) else None
+
+
+def _falling_core(r: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """(r, y) when y = r^p V (p = 2 for V, 1 for a relativistic scalar S) at the three ascending radii ``r``
+    is negative and grows in magnitude towards the origin beyond a steady core, else None.
 
     V ~ -B r^-s with s > 2 (or a 1/r^2 core whose coefficient grows, log(r)/r^2) is unbounded below:
     the particle falls to the centre (Landau & Lifshitz, Quantum Mechanics, sec. 35). A steady core
@@ -275,10 +294,9 @@ def _falling_core(r: np.ndarray, v: np.ndarray, power: int = 2) -> tuple[np.ndar
     (with a strong repulsive Z0, 1000/r - 0.01/r^2, r^2 V grows towards the origin too), so a fall is a growth
     beyond that line by more than the 1e-6 that :class:`ProbedTerm` allows a steady core. A finite or
     Coulomb-like origin has r^2 V -> 0, and rounding noise of a sum of such terms shrinks with r too.
-    With ``power`` = 1 the same test finds a Lorentz scalar S steeper than -1/r (r S = -Zs + S0 r is the
-    steady core there): see :meth:`Potential.scalar_origin_fall`.
+    With p = 1 the same test finds a Lorentz scalar S steeper than -1/r (r S = -Zs + S0 r is the steady core
+    there): see :meth:`Potential.scalar_origin_fall`.
     """
-    y = r**power * v
     if not np.all(np.isfinite(y)) or not np.all(y < 0) or not np.all(y[:-1] < y[1:]):
         return None
     line = y[1] - (y[2] - y[1]) / (r[2] - r[1]) * (r[1] - r[0])
@@ -359,14 +377,12 @@ class ProbedTerm(Term):
             self._far = "zero"
             z, self._b_tail = _inverse_square_tail(r_big, vb)
             if not self._b_tail:
-                power = self._power_tail(r_big, vb)
+                r1, r2 = r_big[1], r_big[2]
+                z = float(-(vb[1] - vb[2]) * r1 * r2 / (r2 - r1))      # a Coulomb tail and a constant
+                v_inf = float(vb[2] + z / r2)
+                power = self._power_tail(r_big, vb, z, v_inf)
                 if power is not None:
-                    z, v_inf, s = power
-                    self._slow = s
-                else:
-                    r1, r2 = r_big[1], r_big[2]
-                    z = float(-(vb[1] - vb[2]) * r1 * r2 / (r2 - r1))
-                    v_inf = float(vb[2] + z / r2)
+                    z, (v_inf, self._slow) = 0.0, power
                 if abs(v_inf) > 1e-9:
                     self._vinf = v_inf
                 elif power is None:
@@ -379,22 +395,19 @@ class ProbedTerm(Term):
                 raise ValueError(f"potential: {shorten(self.label)}: its {what} is {z:.3g}, beyond {MAX_MAGNITUDE:g} "
                                  f"in magnitude ({unit}); scale the potential down")
 
-    def _power_tail(self, r: np.ndarray, v: np.ndarray) -> tuple[float, float, float] | None:
-        """(0, V_inf, s) when V at the radii ``r`` (1e3, 1e4, 1e5 bohr) and at 1e6 bohr falls off towards a
+    def _power_tail(self, r: np.ndarray, v: np.ndarray, z: float, v_coulomb: float) -> tuple[float, float] | None:
+        """(V_inf, s) when V at the radii ``r`` (1e3, 1e4, 1e5 bohr) and at 1e6 bohr falls off towards a
         constant V_inf as C r^-s other than a Coulomb tail, with s reported when the tail is attractive
         (C < 0) and 0 < s < 2 (else 0); None when it is a Coulomb tail, or no single power (the caller then
-        reads a Coulomb tail and a constant).
+        keeps its reading of a Coulomb tail, charge ``z``, and a constant ``v_coulomb``).
 
-        A Coulomb tail with a constant, V_inf - Z/r, is kept when it predicts V at 1e3 bohr from the outer
-        two to 1e-3 of V - V_inf there. Otherwise the falls of V from one decade to the next, d_k, give
+        That reading, fitted on the outer two radii, is kept when it predicts V at 1e3 bohr to 1e-3 of
+        V - V_inf there. Otherwise the falls of V from one decade to the next, d_k, give
         10^s as d_k / d_(k+1): a single power when the two ratios agree to 0.01 in s, and then V_inf =
         V(1e6) - d_3 / (10^s - 1) from the outer three (0 when within 1e-3 of d_3 of it).
         -1/(r + 1)**1.5 was read as a tail charge 0.011 and a constant 7.6e-8 hartree (the two outer radii
         of a Coulomb fit). A tail of several powers (-1/r - 1/r**1.5) is read as one, the slowest nearly."""
-        r1, r2 = r[1], r[2]
-        z = float(-(v[1] - v[2]) * r1 * r2 / (r2 - r1))
-        v_inf = float(v[2] + z / r2)
-        if abs(v_inf - z / r[0] - v[0]) <= 1e-3 * abs(v[0] - v_inf):
+        if abs(v_coulomb - z / r[0] - v[0]) <= 1e-3 * abs(v[0] - v_coulomb):
             return None                             # a Coulomb tail (and a constant)
         r_far, v_far = self._finite_probe(np.array([1e6]))
         if r_far[0] != 1e6 or not np.isfinite(v_far[0]):
@@ -409,7 +422,7 @@ class ProbedTerm(Term):
         if abs(v_inf) <= 1e-3 * abs(d[2]):
             v_inf = 0.0             # within what the fit tells (-1/sqrt(r + 1): 8.7e-8 off 0)
         attractive = d[2] < 0       # V rises towards V_inf far out
-        return 0.0, v_inf, (s_out if attractive and 0 < s_out < 2 else 0.0)
+        return v_inf, (s_out if attractive and 0 < s_out < 2 else 0.0)
 
     def _charge_under_inverse_square(self) -> float:
         """Z0 of V = B0 / r^2 - Z0 / r + O(1) near the origin, from r^2 V = B0 - Z0 r + O(r^2) at
@@ -609,34 +622,20 @@ class Potential:
     def origin_fall(self, scalar: bool = True) -> tuple[np.ndarray, np.ndarray] | None:
         """(r, r^2 V) at r = 1e-12, 1e-11, 1e-10 bohr when V (+ S with ``scalar``) falls faster than
         -1/r^2 at the origin, else None (see :func:`_falling_core`)."""
-        return self._origin_probe(lambda r: np.real(self.V(r)) + (np.real(self.S(r)) if scalar else 0.0), 2)
+        return _origin_probe(lambda r: r * r * (np.real(self.V(r)) + (np.real(self.S(r)) if scalar else 0.0)),
+                             _falling_core)
 
     def scalar_origin_fall(self) -> tuple[np.ndarray, np.ndarray] | None:
         """(r, r S) at r = 1e-12, 1e-11, 1e-10 bohr when the scalar S falls faster than -1/r at the
         origin, else None (see :func:`_falling_core`). The relativistic equations take S squared, as
         (m c^2 + S)^2: such a scalar is a core steeper than 1/r^2 behind a zero of m c^2 + S."""
-        return self._origin_probe(lambda r: np.real(self.S(r)), 1)
+        return _origin_probe(lambda r: r * np.real(self.S(r)), _falling_core)
 
     def vector_origin_steep(self) -> tuple[np.ndarray, np.ndarray] | None:
         """(r, r |V|) at r = 1e-12, 1e-11, 1e-10 bohr when |V| grows faster than 1/r towards the origin, of
-        either sign, else None: r |V| grows towards the origin, beyond rounding, by an amount per decade that
-        itself grows by 10^0.02 or more from one decade to the next (|V| ~ A r^-s with s >= 1.02 gives
-        10^(s - 1)). A Coulomb core (r |V| steady), a finite one, and the logarithmic growth of a point
-        charge's Uehling correction (the same amount each decade, (2 alpha / 3 pi) Z ln 10) pass. The
-        relativistic equations take V squared, so such a V is a core steeper than 1/r^2 there."""
-        r = np.array(_ORIGIN_RADII)
-        with np.errstate(all="ignore"), complex_values():
-            y = r * np.abs(np.real(self.V(r)))
-        if not (np.all(np.isfinite(y)) and y[0] > y[1] > y[2] > 0 and y[0] - y[1] > 1e-6 * y[0]):
-            return None
-        return (r, y) if (y[0] - y[1]) >= _STEEP_PER_DECADE * (y[1] - y[2]) else None
-
-    @staticmethod
-    def _origin_probe(values, power: int) -> tuple[np.ndarray, np.ndarray] | None:
-        r = np.array(_ORIGIN_RADII)
-        with np.errstate(all="ignore"), complex_values():
-            v = values(r)
-        return _falling_core(r, v, power)
+        either sign, else None (see :func:`_steep_core`). The relativistic equations take V squared, so such
+        a V is a core steeper than 1/r^2 there."""
+        return _origin_probe(lambda r: r * np.abs(np.real(self.V(r))), _steep_core)
 
     @property
     def tail_inverse_square(self) -> float:
