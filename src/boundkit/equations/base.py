@@ -125,6 +125,17 @@ class RadialEquation:
             "finite-size cut-off"))
 
     @classmethod
+    def _refuse_relativistic_cores(cls, potential) -> None:
+        """The Klein-Gordon and Dirac refusals at the origin, in the order their messages are wanted: a steep
+        scalar (S = -B/r^2 is also a 1/r^2 term), the Schrodinger-only terms, V falling faster than -1/r^2
+        (a scalar enters squared, as (m c^2 + S)^2), V steeper than 1/r of either sign (V enters squared too,
+        as (E - V)^2)."""
+        cls._refuse_steep_scalar(potential)
+        cls._refuse_nonrelativistic_terms(potential)
+        cls._refuse_fall_to_centre(potential, scalar=False)
+        cls._refuse_steep_vector(potential)
+
+    @classmethod
     def _refuse_steep_vector(cls, potential) -> None:
         """Refuse V growing faster than 1/r at the origin, of either sign (Klein-Gordon, Dirac): the
         relativistic equations take it squared (:meth:`Potential.vector_origin_steep`)."""

@@ -70,10 +70,7 @@ class Dirac(RadialEquation):
         return s.V + s.S
 
     def gamma(self, potential) -> float:
-        self._refuse_steep_scalar(potential)      # before the 1/r^2 terms: S = -B/r^2 is one of them
-        self._refuse_nonrelativistic_terms(potential)
-        self._refuse_fall_to_centre(potential, scalar=False)   # a scalar enters squared, as (m c^2 + S)^2
-        self._refuse_steep_vector(potential)                   # and V squared, as (E - V)^2
+        self._refuse_relativistic_cores(potential)
         zv, zs = potential.z_vector, potential.z_scalar
         if abs(zv - zs) < 1e-14 * max(1.0, abs(zv)):
             return float(abs(self.kappa) if self.kappa < 0 else self.kappa + 1)

@@ -53,10 +53,7 @@ class KleinGordon(RadialEquation):
         return -(E - s.V) / self._mc2(s)
 
     def gamma(self, potential) -> float:
-        self._refuse_steep_scalar(potential)      # before the 1/r^2 terms: S = -B/r^2 is one of them
-        self._refuse_nonrelativistic_terms(potential)
-        self._refuse_fall_to_centre(potential, scalar=False)   # a scalar enters squared, as (m c^2 + S)^2
-        self._refuse_steep_vector(potential)                   # and V squared, as (E - V)^2
+        self._refuse_relativistic_cores(potential)
         zz = (potential.z_vector**2 - potential.z_scalar**2) * ALPHA**2
         disc = (self.l + 0.5) ** 2 - zz
         if disc <= 0:
