@@ -42,7 +42,7 @@ from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
 from .equations.base import decay_steps
 from .equations.dirac import Dirac
 from .equations.klein_gordon import KleinGordon
-from .equations.schrodinger import Schrodinger, inverse_square_order
+from .equations.schrodinger import Schrodinger
 from .mesh import LogMap
 from .potentials import Potential, make_potential
 from .results import Level, RadialState, SolveResult
@@ -1779,7 +1779,8 @@ def _infinite_tail(eq, pot) -> str:
     -1/(r^2 + 1) counted 9, and they were reported as all the levels.
 
     - B / r^2 too attractive for l: l (l + 1) + 2 m B < -1/4 (its order is complex,
-      :func:`~boundkit.equations.schrodinger.inverse_square_order`); each level is about exp(2 pi / s) times
+      :func:`~boundkit.equations.schrodinger.inverse_square_order`; at exactly -1/4 the levels are finitely
+      many); each level is about exp(2 pi / s) times
       shallower than the one before, s = sqrt(-(l + 1/2)^2 - 2 m B).
     - -A r^-s with A > 0 and 0 < s < 2, s != 1 (:attr:`Potential.slow_tail`): it outlasts the centrifugal
       barrier, as a Coulomb tail does.
@@ -1787,8 +1788,9 @@ def _infinite_tail(eq, pot) -> str:
     if pot.confining or pot.tail_charge != 0:
         return ""
     B = pot.tail_inverse_square
-    if B < 0 and inverse_square_order(eq.l, eq.mass, B) is None:
-        s = math.sqrt(-(eq.l + 0.5) ** 2 - 2 * eq.mass * B)
+    disc = (eq.l + 0.5) ** 2 + 2 * eq.mass * B      # of inverse_square_order: the order is complex below 0
+    if disc < 0:
+        s = math.sqrt(-disc)
         return (f"has an attractive 1/r^2 tail far out (B = {B:.3g} hartree bohr^2: l(l+1) + 2 m B = "
                 f"{eq.l * (eq.l + 1) + 2 * eq.mass * B:.3g} < -1/4 at l = {eq.l}), whose levels accumulate at the "
                 f"threshold, each about exp(2 pi / s) = {math.exp(min(2 * math.pi / s, 700.0)):.3g} times shallower "
