@@ -89,15 +89,12 @@ def _eta(m: int) -> float:
     return float((1 - 2 ** (1 + n)) * (-1) ** n * _bernoulli(n + 1) / (n + 1))
 
 
-_TAYLOR_CACHE: dict[int, np.ndarray] = {}
-
-
-def _taylor_coefficients(s: int) -> np.ndarray:
-    """Coefficients eta(s-k)/k!, k = 0.._N_TAYLOR, lowest power first."""
-    c = _TAYLOR_CACHE.get(s)
-    if c is None:
-        c = np.array([_eta(s - k) / math.factorial(k) for k in range(_N_TAYLOR + 1)])
-        _TAYLOR_CACHE[s] = c
+@lru_cache(maxsize=64)
+def _taylor_coefficients(orders: tuple[int, ...]) -> np.ndarray:
+    """Coefficients eta(s-k)/k!, k = 0.._N_TAYLOR (rows, lowest power first), one column per order s
+    (read-only)."""
+    c = np.array([[_eta(s - k) / math.factorial(k) for s in orders] for k in range(_N_TAYLOR + 1)])
+    c.flags.writeable = False
     return c
 
 
@@ -106,7 +103,7 @@ _SERIES_TIERS = ((41.0, 1), (4.0, 11), (0.0, _N_SERIES))   # (smallest -y, terms
 
 def _powers(x: np.ndarray, n: int) -> np.ndarray:
     """x^1 .. x^n, one row per value (repeated products: n small, |x| < 1 where it matters)."""
-    return np.cumprod(np.broadcast_to(x[:, None], (x.size, n)), axis=1)
+    return np.vander(x, n + 1, increasing=True)[:, 1:]
 
 
 @lru_cache(maxsize=64)
@@ -177,7 +174,7 @@ def fermi_dirac_orders(orders, y) -> np.ndarray:
     if np.any(neg):
         out[neg] = _fd_series(orders, flat[neg])
     if np.any(mid):
-        c = np.stack([_taylor_coefficients(s) for s in orders], axis=1)
+        c = _taylor_coefficients(orders)
         out[mid] = c[0] + _powers(flat[mid], _N_TAYLOR) @ c[1:]
     if np.any(pos):
         yp = flat[pos]
