@@ -74,3 +74,17 @@ def test_more_levels_than_a_box_has_room_for_are_a_partial_result_that_says_why(
         assert 5 <= len(r.levels) < 12
     for a, b in zip(res.levels, fd.levels, strict=True):
         assert abs(a.energy - b.energy) <= a.error_estimate + b.error_estimate, (a.label, a.energy, b.energy)
+
+
+def test_a_tail_exactly_at_the_critical_strength_has_finitely_many_levels():
+    """l (l + 1) + 2 m B = -1/4 exactly: the order is on the edge of turning complex, the levels are finitely
+    many (the accumulation needs s > 0). The check divided by s = 0 there (a reviewer, with a stub)."""
+    from types import SimpleNamespace
+
+    from boundkit.solver import _infinite_tail, make_equation
+
+    eq = make_equation("schrodinger", l=0, mass=1.0)
+    stub = SimpleNamespace(confining=False, tail_charge=0.0, tail_inverse_square=-0.125, slow_tail=0.0)
+    assert _infinite_tail(eq, stub) == ""
+    stub.tail_inverse_square = -0.2
+    assert "1/r^2 tail" in _infinite_tail(eq, stub)
