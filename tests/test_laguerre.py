@@ -433,6 +433,18 @@ def test_a_faint_narrow_bump_far_out(monkeypatch):
     _same_levels_as_the_elements(monkeypatch, p)
 
 
+def test_a_strong_narrow_bump_the_potential_declares_is_not_missed(monkeypatch):
+    """Found by the thorough search below (2026-12-05): V = -0.5/r + exp(-((r - 17.78)/0.01)^2), l = 1, one level,
+    tol 1e-5 (and 1e-8). The bump, 1 hartree high and 0.01 bohr wide, sits where the 2p lives; the Laguerre mesh
+    gave the bare Coulomb 2p, -0.03125 hartree with an estimate of 6e-16, while the elements give -0.0309603 (the
+    bump's first-order shift C w sqrt(pi) u^2 is of that size). It fell between the probe's samples (0.26 bohr
+    apart there) and the state grid's; the callable's own sampling declares breakpoints around it, which the
+    path now takes as a reason to hand the channel to the elements."""
+    p = {"Zt": 0.5, "A": 0.0, "b": 0.0, "C": 1.0, "c0": 1.25, "w": -2.0, "l": 1, "levels": 1, "tol": -5.0}
+    _same_levels_as_the_elements(monkeypatch, p)
+    _same_levels_as_the_elements(monkeypatch, {**p, "tol": -8.0})
+
+
 @_QUICK
 @given(p=_CASES)
 def test_random_coulomb_tailed_potentials_give_the_elements_levels(monkeypatch, p):
