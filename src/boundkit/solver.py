@@ -1378,20 +1378,23 @@ def _pole_free_bottom(eq, sample, r_min: float, lo: float) -> float:
     tests/test_dirac_pole.py)."""
     if eq.name != "dirac" or not math.isfinite(lo):
         return lo
-    r = np.logspace(math.log10(r_min), 8, 3000)
-    s = sample(r, scan=True)
-    top = max(_peak_above_samples(sample, r, s.V - s.S), 0.0)
+    top = max(_peak_above_samples(sample, np.logspace(math.log10(r_min), 8, 3000)), 0.0)
     # strictly above: at E = -2mc^2 + max(V - S) the form itself is singular (S = V gives exactly that)
     return lo + top * (1 + 1e-9) + 1e-9 * abs(lo)
 
 
-def _peak_above_samples(sample, r: np.ndarray, g: np.ndarray, zooms: int = 8) -> float:
+def _peak_above_samples(sample, r: np.ndarray) -> float:
     """The maximum of g = V - S, sampled at the radii r (ascending), refined around each sampled local
     maximum within 1 % of the best: the bracket between its neighbours is sampled at 17 points in ln r and
-    narrowed to the best one's neighbours ``zooms`` times (8x each). A peak narrower than the sampling stays
+    narrowed to the best one's neighbours 8 times (8x each). A peak narrower than the sampling stays
     unseen, as it does for every probe of the potential."""
-    with np.errstate(invalid="ignore"):
-        g = np.where(np.isfinite(g), g, -np.inf)
+    def g_at(x):
+        s = sample(x, scan=True)
+        with np.errstate(invalid="ignore"):
+            d = s.V - s.S
+            return np.where(np.isfinite(d), d, -np.inf)
+
+    g = g_at(r)
     best = float(np.max(g))
     if not best > 0:
         return best
@@ -1399,11 +1402,9 @@ def _peak_above_samples(sample, r: np.ndarray, g: np.ndarray, zooms: int = 8) ->
     t = np.log(r)
     for i in np.nonzero(inner)[0][:8] + 1:
         a, b = t[i - 1], t[i + 1]
-        for _ in range(zooms):
+        for _ in range(8):
             tt = np.linspace(a, b, 17)
-            s = sample(np.exp(tt), scan=True)
-            gg = s.V - s.S
-            gg = np.where(np.isfinite(gg), gg, -np.inf)
+            gg = g_at(np.exp(tt))
             j = int(np.argmax(gg))
             best = max(best, float(gg[j]))
             a, b = tt[max(j - 1, 0)], tt[min(j + 1, 16)]
