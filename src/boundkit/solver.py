@@ -1919,9 +1919,8 @@ def _near_threshold(eq, pot, sample, gamma: float, L: float, r_min: float, r_far
     other = far_operator(eq, pot, sample, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi, degree=18 if finer else 36)
     mu_op, noise_op = _open_level(op, c, hi, band)
     mu_other, noise_other = _open_level(other, other.open_end_term(hi), hi, band)
-    fine = op if finer else other
     mu = mu_op if finer else mu_other
-    R = float(fine.sample.r[-1])
+    R = float(op.sample.r[-1])          # both boxes share the layout, so their last node
     r = np.geomspace(R, 1e6 * R, 2001)
     s = _sample(pot, r, scan=True)
     tail = float(np.trapezoid(np.abs(s.V + s.S), r)) / R
