@@ -56,3 +56,14 @@ def test_the_command_line_refuses_it_in_one_line():
     assert out.exit_code == 2
     assert "Traceback" not in out.output
     assert "l = 200 the spectral elements' mass matrix is singular" in out.output
+
+
+def test_the_elements_refuse_a_singular_mass_matrix_by_name_below_solve_channel_too():
+    """The refusal sat around solve_channel only: callers of the element solver below it (prepare_channel, used by
+    the studies and the validator; the convergence study's element rows) got LAPACK's raw 'leading minor ... of B
+    is not positive definite' (a reviewer)."""
+    from boundkit.solver import prepare_channel, setup
+
+    eq, pot, _ = setup("schrodinger", "oscillator", {"k": 1.0}, l=200)
+    with pytest.raises(ValueError, match=r"^l: at l = 200 the spectral elements' mass matrix is singular"):
+        prepare_channel(eq, pot, 2)

@@ -26,6 +26,7 @@ Richardson estimate.
 """
 from __future__ import annotations
 
+import contextlib
 import logging
 import math
 import time
@@ -64,7 +65,7 @@ _FINITE_INNER = 1e-5   # inner cut for potentials finite at the origin: f = 1 + 
 _DEPTH_INNER = 1e-4    # ... and at most this many depth lengths of the core (see _depth_length)
 _CUT_RETRY = 1e-2      # the inner end moves in by this when cutting there costs more than tol (_cut_error)
 _FD_SAFETY = 1.25      # factor of safety on the finite differences' Richardson estimate (see _estimate)
-_HIGH_L = 15           # from this l a singular mass matrix is the weight's range, refused by name (solve_channel)
+_HIGH_L = 15           # from this l a singular mass matrix is the weight's range, refused by name
 _UNSTABLE = 1e-3       # a level whose energy still moves this much between sizes is not reported
 
 
@@ -888,6 +889,13 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
 
 def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known_bound: int | None = None,
                     inner: float | None = None):
+    """:func:`_elements_on` with a singular mass matrix at high l refused by name (:func:`_singular_mass_refused`)."""
+    with _singular_mass_refused(eq.l):
+        return _elements_on(eq, pot, levels, tol, degrees, known_bound, inner)
+
+
+def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bound: int | None = None,
+                 inner: float | None = None):
     """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`).
 
     ``degrees``: run exactly these rungs (a convergence study), with no early stop.
@@ -1599,20 +1607,29 @@ def solve_channel(eq: RadialEquation, pot: Potential, disc: Discretization, leve
     _check_scalar_far_constant(eq, pot, (settings or {}).get("units", "atomic"))
     with one_blas_thread():
         pot, v_inf = _with_threshold(eq, pot)
-        try:
+        with _singular_mass_refused(eq.l):
             res = _solve_channel(eq, pot, disc, levels, tol, settings, potential_name)
-        except np.linalg.LinAlgError as exc:
-            # only the mass matrix B of a generalized eigenproblem failing its Cholesky factorization
-            if eq.l < _HIGH_L or "of B is not positive definite" not in str(exc):
-                raise
-            raise ValueError(
-                f"l: at l = {eq.l} the spectral elements' mass matrix is singular to double precision (their "
-                f"weight (r / (r + r_core))^(2 l + 2) spans more than double precision near the origin; LAPACK: "
-                f"{str(exc).split('.')[0]}); lower l solve (up to about 100 for an oscillator or a linear well, "
-                "100 for a Coulomb potential in the relativistic equations)") from None
         if v_inf:
             res = _shift_result(res, v_inf)
         return res
+
+
+@contextlib.contextmanager
+def _singular_mass_refused(l: int):
+    """Turn LAPACK's failure to factorize the elements' mass matrix B at high l into a ValueError naming l.
+    Around :func:`_solve_elements` (so the convergence study, the validator and prepare_channel's callers
+    get it too) and :func:`solve_channel` (the other families)."""
+    try:
+        yield
+    except np.linalg.LinAlgError as exc:
+        # only the mass matrix B of a generalized eigenproblem failing its Cholesky factorization
+        if l < _HIGH_L or "of B is not positive definite" not in str(exc):
+            raise
+        raise ValueError(
+            f"l: at l = {l} the spectral elements' mass matrix is singular to double precision (their "
+            f"weight (r / (r + r_core))^(2 l + 2) spans more than double precision near the origin; LAPACK: "
+            f"{str(exc).split('.')[0]}); lower l solve (up to about 100 for an oscillator or a linear well, "
+            "100 for a Coulomb potential in the relativistic equations)") from None
 
 
 def _check_klein(eq, pot) -> None:
