@@ -129,8 +129,8 @@ def test_more_points_on_a_grid_match_a_grid_built_with_them():
     quads = [14 + k for k in range(8)]
     bare = element_grid(edges, [12] * 8)
     assert bare.quad == ()
-    once = with_quadrature(bare, edges, quads)
-    twice = with_quadrature(with_quadrature(bare, edges, [14] * 8), edges, quads)
+    once = with_quadrature(bare, quads)
+    twice = with_quadrature(with_quadrature(bare, [14] * 8), quads)
     assert np.array_equal(once.t_ext, bare.t_ext) and np.array_equal(once.w, bare.w)
     for a, b, m, lo, hi in zip(once.quad, twice.quad, quads, edges[:-1], edges[1:], strict=True):
         assert np.array_equal(a.t, b.t) and len(a.t) == m

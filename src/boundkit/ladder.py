@@ -149,7 +149,7 @@ def potential_floor(state, V_abs) -> float:
 
 
 def with_potential_floor(notes: list, label: str, E: float, est: float, floor: float, tol: float,
-                         recent=()) -> tuple[float, bool]:
+                         recent) -> tuple[float, bool]:
     """(the estimate raised to ``floor``, the rounding floor of the level's potential energy
     (:func:`potential_floor`), and whether that floor alone puts it above tol; then a note says so).
 
@@ -261,7 +261,7 @@ def make_operator(eq, sample_fn, gamma, r_core, edges, quiet, n, E0) -> Symmetri
     grid = element_grid(edges, degrees)      # the nodes; the rule follows from them
     sample = sample_fn(grid.r)
     more = _structure_points(grid, sample)
-    grid = with_quadrature(grid, edges, [q + m for q, m in zip(quads, more)])
+    grid = with_quadrature(grid, [q + m for q, m in zip(quads, more)])
     sample_q = sample_fn(np.exp(grid.tq.astype(float)))
     return SymmetricOperator(eq, grid, sample, sample_q, gamma, r_core, E_ref=E0)
 

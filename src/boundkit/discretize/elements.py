@@ -137,20 +137,17 @@ def _reference_quadrature(n: int, m: int):
     return y, wy, B, Bt
 
 
-def _element_quadrature(a, b, n: int, m: int) -> Quadrature:
-    """The m Gauss-Legendre points of the degree-n element [a, b] (extended-precision edges)."""
-    return Quadrature(t=a + (_reference_quadrature(n, m)[0] + 1) * ((b - a) / 2))
-
-
-def with_quadrature(grid: ElementGrid, edges, quad_points) -> ElementGrid:
-    """``grid`` (built on ``edges``) with its Gauss-Legendre point counts, one per element: the nodes,
-    differentiation matrices and weights are kept, the quadrature is (re)built. Integrals of the
-    quadratic form are done on these points, not on the nodes: the integrands carry w(r)^2 ~
-    r^(2 gamma), which varies exponentially in t, and a rule with more points keeps them exact enough
-    that no spurious mode appears (:func:`boundkit.ladder.make_operator` chooses the counts)."""
-    edges = [np.longdouble(e) for e in edges]
-    return replace(grid, quad=tuple(_element_quadrature(edges[e], edges[e + 1], s1 - s0, int(m))
-                                    for e, ((s0, s1), m) in enumerate(zip(grid.elements, quad_points))))
+def with_quadrature(grid: ElementGrid, quad_points) -> ElementGrid:
+    """``grid`` with its Gauss-Legendre point counts, one per element: the nodes, differentiation matrices
+    and weights are kept, the quadrature is (re)built from the reference points mapped onto each element
+    (its ends are its first and last nodes, the edges it was built on). Integrals of the quadratic form are
+    done on these points, not on the nodes: the integrands carry w(r)^2 ~ r^(2 gamma), which varies
+    exponentially in t, and a rule with more points keeps them exact enough that no spurious mode appears
+    (:func:`boundkit.ladder.make_operator` chooses the counts)."""
+    t = grid.t_ext
+    return replace(grid, quad=tuple(
+        Quadrature(t=t[s0] + (_reference_quadrature(s1 - s0, int(m))[0] + 1) * ((t[s1] - t[s0]) / 2))
+        for (s0, s1), m in zip(grid.elements, quad_points)))
 
 
 def element_grid(edges, degree) -> ElementGrid:
