@@ -281,7 +281,9 @@ def check_varied(potential, scalar, names: Sequence[str]) -> None:
     """ValueError naming ``vary`` when a varied name is a parameter no term of the potential takes (nothing
     is checked when that cannot be told: :func:`term_parameters` gives None)."""
     taken = term_parameters(potential, scalar)
-    missing = [n for n in names if n not in (taken if taken is not None else names)]
+    if taken is None:
+        return
+    missing = [n for n in names if n not in taken]
     if missing:
         raise ValueError(f"vary: no term of the potential takes {missing[0]!r}; its terms take "
                          f"{', '.join(taken) or 'no parameters'}")
