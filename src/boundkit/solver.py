@@ -936,8 +936,9 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
     lo = _pole_free_bottom(eq, sample, r_min, lo)
     guess_lo = lo       # the pencil's guesses are tried down to here (a Klein-Gordon floor lies above it)
     lo, floor_start = _particle_floor_by_bound(eq, sample, r_min, lo)
-    infinite = _infinite_tail(eq, pot)
-    short_range = math.isfinite(hi) and not pot.confining and pot.tail_charge <= 0 and not infinite
+    if levels is None:
+        _refuse_all_of_infinitely_many(eq, pot)      # prepare_channel and the convergence study come here directly
+    short_range = math.isfinite(hi) and not _infinitely_many(eq, pot)
     bound = None
     if short_range:
         far = known_bound or _far_bound(eq, pot, sample, gamma, L, r_min, n_req, hi, lo, floor_start)
@@ -949,10 +950,6 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
                                      + _below_window(eq, far.below))
             if eq.name == "klein-gordon":
                 tally.notes.append(_below_window(eq, far.below))
-    elif levels is None:
-        raise ValueError("levels: 'all' needs a potential with finitely many bound levels; this one "
-                         + ("is confining" if pot.confining else infinite or "has an attractive Coulomb tail")
-                         + " and binds infinitely many; give a number of levels")
     extra["bound_count"] = bound
     extra["window_bottom"] = lo
     want = n_req if levels is not None else bound
@@ -1711,6 +1708,8 @@ _REPULSIVE_SCALAR = ("this potential binds no level: it is nowhere attractive (a
 def _solve_channel(eq, pot, disc, levels, tol, settings, potential_name) -> SolveResult:
     t0 = time.perf_counter()
     _check_klein(eq, pot)
+    if levels is None:
+        _refuse_all_of_infinitely_many(eq, pot)
     if _repulsive_everywhere(eq, pot):
         why = {"dirac": _REPULSIVE_DIRAC, "klein-gordon": _REPULSIVE_SCALAR}.get(eq.name, _REPULSIVE)
         return _result(eq, pot, disc, levels, tol, settings, potential_name, [], _Tally(), [], 0.0,
@@ -1787,6 +1786,22 @@ def _with_table_error(pot, found, tally, worst: float, tol: float):
                        f"degrees and from the table continued linearly below its first point): at most "
                        f"{largest[0]:.2g} relative ({largest[1] or 'no level'})")
     return out, worst
+
+
+def _infinitely_many(eq, pot) -> str:
+    """Why the channel binds infinitely many levels, as a phrase ('is confining', 'has an attractive Coulomb
+    tail', or :func:`_infinite_tail`'s), or '' when it binds finitely many (its count is made on the far box)."""
+    if pot.confining:
+        return "is confining"
+    return "has an attractive Coulomb tail" if pot.tail_charge > 0 else _infinite_tail(eq, pot)
+
+
+def _refuse_all_of_infinitely_many(eq, pot) -> None:
+    """levels='all' of a channel that binds infinitely many (:func:`_infinitely_many`): refused, before any work."""
+    why = _infinitely_many(eq, pot)
+    if why:
+        raise ValueError(f"levels: 'all' needs a potential with finitely many bound levels; this one {why} and binds "
+                         "infinitely many; give a number of levels")
 
 
 def _infinite_tail(eq, pot) -> str:
@@ -2011,14 +2026,13 @@ def _solve_laguerre(eq, pot, levels, tol):
     from .laguerre_solver import applies, solve_laguerre
 
     gamma = eq.gamma(pot)
-    infinite = _infinite_tail(eq, pot)
-    if not applies(eq, pot, levels, gamma, tol) or infinite and levels is None:
+    if not applies(eq, pot, levels, gamma, tol):
         return _solve_elements(eq, pot, levels, tol)
     sample = sampler(pot)
     bound = counted = None
     want = levels
     L, a, r_lo = laguerre_scale(eq, pot, gamma)
-    if pot.tail_charge == 0 and not infinite:
+    if pot.tail_charge == 0 and not _infinite_tail(eq, pot):
         hi = eq.energy_window(pot)[1]
         n_req = 1 if levels is None else levels          # as the elements size their box
         counted = _far_bound(eq, pot, sample, gamma, L, _inner_end(eq, pot, gamma, L, n_req, hi), n_req, hi)
