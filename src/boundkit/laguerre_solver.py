@@ -81,7 +81,7 @@ from scipy.linalg import lapack
 
 from .discretize.elements import gll
 from .discretize.laguerre import cardinal_matrix, laguerre_mesh
-from .equations.base import decay_steps
+from .equations.base import Sample, decay_steps
 from .ladder import FLOOR, POTENTIAL_FLOOR, spectral_done, with_potential_floor
 from .results import Level, RadialState
 from .states import count_nodes_each, normalise, principal_n
@@ -247,17 +247,21 @@ class _Probe:
         t = np.linspace(math.log(r_lo), math.log(r_last), 4001)
         r = np.exp(t)
         s = sample(r)
-        rate = _shape_rate_r(t[1] - t[0], r, s)
+        with np.errstate(all="ignore"):
+            g = r * (s.V + s.S)
+            G = float(np.max(np.abs(np.where(np.isfinite(g), g, 0.0))))
+        rate = _shape_rate_r(t[1] - t[0], r, s, G)
         inside = [b for b in breakpoints if r_lo < b < r_last]
         if inside:
-            with np.errstate(all="ignore"):
-                G = float(np.max(np.abs(np.where(np.isfinite(s.V + s.S), r * (s.V + s.S), 0.0))))
-            for b in inside:
-                tb = np.linspace(math.log(b) - 0.02, math.log(b) + 0.02, 201)
-                rb = np.exp(tb)
-                local = float(np.max(_shape_rate_r(tb[1] - tb[0], rb, sample(rb), G)))
-                k = int(np.clip(np.searchsorted(r, b), 0, len(r) - 1))
-                rate[k] = max(rate[k], local)
+            # every window sampled in one call (graded edges declare several breakpoints close together)
+            tb = np.log(inside)[:, None] + np.linspace(-0.02, 0.02, 201)[None, :]
+            rb = np.exp(tb)
+            sb = sample(rb.ravel())
+            for k, (b, rw) in enumerate(zip(inside, rb)):
+                part = slice(k * 201, (k + 1) * 201)
+                local = float(np.max(_shape_rate_r(tb[k, 1] - tb[k, 0], rw, Sample(rw, sb.V[part], sb.S[part]), G)))
+                i = int(np.clip(np.searchsorted(r, b), 0, len(r) - 1))
+                rate[i] = max(rate[i], local)
         return cls(r, s, rate)
 
     def _decay_steps(self, eq, E: float):
