@@ -31,9 +31,14 @@ ALPHA = sc.fine_structure
 """Fine-structure constant (CODATA via scipy.constants)."""
 C = 1.0 / ALPHA
 """Speed of light in atomic units (c = 1/alpha)."""
+HBARC_MEV_FM = sc.physical_constants["reduced Planck constant times c in MeV fm"][0]
+"""hbar c in MeV fm (CODATA via scipy.constants; exact in the SI 2019)."""
+BOHR_M = ALPHA * HBARC_MEV_FM / (sc.physical_constants["Hartree energy in eV"][0] * 1e-6) * sc.femto
+"""The Bohr radius in metres as alpha hbar c / E_h (CODATA via scipy.constants), the one consistent with hbar c;
+CODATA's tabulated a0 differs from it by 5.6e-12 relative (rounding of the tables, inside a0's uncertainty)."""
 
 __all__ = [
-    "ALPHA", "C", "kappa_to_l", "schrodinger_coulomb", "dirac_coulomb", "dirac_coulomb_mp",
+    "ALPHA", "C", "HBARC_MEV_FM", "BOHR_M", "kappa_to_l", "schrodinger_coulomb", "dirac_coulomb", "dirac_coulomb_mp",
     "klein_gordon_coulomb", "klein_gordon_coulomb_mp", "oscillator", "dirac_spin_symmetric_oscillator",
     "Case", "solve_case",
 ]

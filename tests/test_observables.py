@@ -14,6 +14,7 @@ from boundkit.observables import (density_at_origin, expectation_value, g_factor
                                   matrix_element, observables, radial_moment)
 
 from exact_dirac_states import moment as dirac_moment, residual as dirac_residual
+from exact import BOHR_M
 
 ALPHA = sc.fine_structure
 PROTON_MASS_MEV = sc.physical_constants["proton mass energy equivalent in MeV"][0]
@@ -104,7 +105,7 @@ def test_expectation_value_error_estimate_is_inf_without_previous_state():
 
 def test_moment_units_and_bad_power():
     lv = _levels("schrodinger", 1, ("l", 0), 1).levels[0]
-    bohr_fm = sc.physical_constants["Bohr radius"][0] * 1e15
+    bohr_fm = BOHR_M * 1e15
     assert radial_moment(lv, 2, "fm").value == pytest.approx(3.0 * bohr_fm**2, rel=1e-12)
     with pytest.raises(ValueError, match=r"k: <r\^k> of 1s needs k > -\(2 gamma \+ 1\)"):
         radial_moment(lv, -3)
@@ -387,7 +388,7 @@ def test_hyperfine_bohr_weisskopf_sphere_against_exact_1s():
         den = mp.gamma(2 * g - 1) / (2 * Z) ** (2 * g - 1)
         eps = float(num / den)
     assert 1 - sphere.value / point.value == pytest.approx(eps, rel=1e-8)
-    bohr_fm = sc.physical_constants["Bohr radius"][0] * 1e15
+    bohr_fm = BOHR_M * 1e15
     in_fm = hyperfine_a(lv, mu_p, 0.5, magnetization_radius=R * bohr_fm, radius_unit="fm")
     assert in_fm.value == pytest.approx(sphere.value, rel=1e-13)
 
@@ -420,7 +421,7 @@ def test_observables_record_in_length_unit():
     lv = _levels("dirac", 1, ("kappa", -1), 1).levels[0]
     obs = observables(lv, length_unit="angstrom")
     d = obs.to_dict()
-    bohr_a = sc.physical_constants["Bohr radius"][0] * 1e10
+    bohr_a = BOHR_M * 1e10
     assert d["r_mean"] == pytest.approx(dirac_moment(1, -1, 1, ALPHA, 1) * bohr_a, rel=1e-12)
     assert set(d) >= {"r_mean", "r_rms", "r_inverse", "g_factor"}
     pot = boundkit.make_potential("coulomb", {"Z": 1})

@@ -7,6 +7,7 @@ import scipy.constants as sc
 import boundkit
 from boundkit.potentials import Term, make_potential
 from boundkit.potentials.base import NuclearUnitsTerm
+from exact import BOHR_M
 
 
 def test_tail_charges_split_into_vector_and_scalar():
@@ -71,7 +72,7 @@ def test_a_huge_inverse_square_tail_is_refused_by_the_probe():
 
 # --- a term written in MeV and fm (NuclearUnitsTerm) declares every end of its inner term, converted ----------
 MEV_PER_HARTREE = sc.physical_constants["Hartree energy in eV"][0] / 1e6   # CODATA via scipy.constants
-FM_PER_BOHR = sc.physical_constants["Bohr radius"][0] / sc.femto
+FM_PER_BOHR = BOHR_M / sc.femto              # alpha hbar c / E_h (tests/exact.py)
 
 
 def test_the_nuclear_units_wrapper_overrides_every_declared_property_of_a_term():

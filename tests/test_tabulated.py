@@ -10,8 +10,8 @@ import scipy.constants as sc
 
 import boundkit
 from boundkit.potentials.tabulated import ENERGY_UNITS, LENGTH_UNITS, TabulatedTerm, read_table
+from exact import BOHR_M
 
-BOHR_M = sc.physical_constants["Bohr radius"][0]            # CODATA via scipy.constants
 HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]  # CODATA via scipy.constants
 
 R_GRID = np.logspace(-4, np.log10(50.0), 300)

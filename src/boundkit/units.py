@@ -45,7 +45,11 @@ C_AU: float = 1.0 / ALPHA
 """Speed of light in atomic units."""
 HARTREE_EV: float = sc.physical_constants["Hartree energy in eV"][0]
 HARTREE_J: float = sc.physical_constants["Hartree energy"][0]
-BOHR_M: float = sc.physical_constants["Bohr radius"][0]
+BOHR_M: float = ALPHA * sc.hbar * sc.c / (sc.e * HARTREE_EV)
+"""Bohr radius in metres, derived as a0 = alpha hbar c / E_h (scipy.constants; hbar, c and e are exact in the SI)
+with the very E_h that converts energies, so that E_h a0 = alpha hbar c holds to rounding and a problem posed
+in MeV and fm sees hbar c itself. CODATA's tabulated a0 differs by 5.6e-12 relative (the rounding of its tables,
+well inside the 1.5e-10 uncertainty of a0); converting with it put every level of such a problem 5.6e-12 off."""
 ELECTRON_MASS_MEV: float = sc.physical_constants["electron mass energy equivalent in MeV"][0]
 """CODATA's tabulated m_e c^2 in MeV, for the record (:func:`constants_record`); masses are converted with
 :data:`MASS_UNIT_MEV`."""
@@ -214,7 +218,7 @@ LENGTH_UNITS: Mapping[str, float] = {
     "angstrom": BOHR_M * 1e10,
     "nm": BOHR_M * 1e9,
 }
-"""Length unit -> multiply a value in bohr by this factor (Bohr radius from scipy.constants)."""
+"""Length unit -> multiply a value in bohr by this factor (:data:`BOHR_M`, alpha hbar c / E_h)."""
 _LENGTH_ALIASES = {u.lower(): u for u in LENGTH_UNITS} | {"a0": "bohr", "a.u.": "bohr", "å": "angstrom",
                                                           "ang": "angstrom"}
 

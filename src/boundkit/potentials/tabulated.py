@@ -22,8 +22,8 @@ nowhere is read in the caller's system: bohr and hartree by default, fm and
 MeV when the term is used with ``units="nuclear"`` (``--units nuclear``).
 The conversion happens once, when the table is read.
 
-Conversion uses :mod:`scipy.constants` only (the Bohr radius and the
-Hartree energy in eV, CODATA).
+Conversion uses :mod:`scipy.constants` only (the Hartree energy in eV,
+CODATA, and the Bohr radius alpha hbar c / E_h of :data:`boundkit.units.BOHR_M`).
 
 Interpolation
 -------------
@@ -93,6 +93,7 @@ import scipy.constants as sc
 from scipy.interpolate import make_interp_spline
 
 from .._checks import MAX_MAGNITUDE, MAX_TABLE_POINTS, check_choice, check_parameter, shorten
+from ..units import BOHR_M, HARTREE_EV
 from .base import Term
 
 __all__ = ["LENGTH_UNITS", "ENERGY_UNITS", "MIN_POINTS", "TAILS", "ORIGINS", "DEGREES", "read_table",
@@ -100,22 +101,20 @@ __all__ = ["LENGTH_UNITS", "ENERGY_UNITS", "MIN_POINTS", "TAILS", "ORIGINS", "DE
 
 log = logging.getLogger(__name__)
 
-_BOHR_M = sc.physical_constants["Bohr radius"][0]
-_HARTREE_EV = sc.physical_constants["Hartree energy in eV"][0]
 
 LENGTH_UNITS: dict[str, float] = {
     "bohr": 1.0,
-    "angstrom": sc.angstrom / _BOHR_M,
-    "nm": sc.nano / _BOHR_M,
-    "fm": sc.femto / _BOHR_M,
+    "angstrom": sc.angstrom / BOHR_M,
+    "nm": sc.nano / BOHR_M,
+    "fm": sc.femto / BOHR_M,
 }
-"""Length unit -> bohr per unit (CODATA via scipy.constants)."""
+"""Length unit -> bohr per unit (the Bohr radius of :data:`boundkit.units.BOHR_M`, alpha hbar c / E_h)."""
 
 ENERGY_UNITS: dict[str, float] = {
     "hartree": 1.0,
-    "eV": 1.0 / _HARTREE_EV,
-    "keV": sc.kilo / _HARTREE_EV,
-    "MeV": sc.mega / _HARTREE_EV,
+    "eV": 1.0 / HARTREE_EV,
+    "keV": sc.kilo / HARTREE_EV,
+    "MeV": sc.mega / HARTREE_EV,
 }
 """Energy unit -> hartree per unit (CODATA via scipy.constants)."""
 

@@ -1,0 +1,45 @@
+"""Levels of a problem posed in MeV and fm agree with formulas written with hbar c to rounding.
+
+A Schrodinger problem in nuclear units has one constant, hbar c (and alpha with a Coulomb term,
+through e^2 = alpha hbar c). boundkit solves in atomic units; the conversions must therefore satisfy
+E_h a0 = alpha hbar c exactly. CODATA's tabulated Bohr radius does not, to 5.6e-12 relative (the
+rounding of the tables), so the fm <-> bohr factor is derived as a0 = alpha hbar c / E_h from
+scipy.constants (CODATA 2022: the Bohr radius's own uncertainty is 1.5e-10 relative, and the
+derived value lies well inside it).
+"""
+from __future__ import annotations
+
+import math
+
+import pytest
+import scipy.constants as sc
+
+import boundkit
+from boundkit.units import FM_PER_BOHR, bohr_to, hartree_to
+
+HBARC_MEV_FM = sc.physical_constants["reduced Planck constant times c in MeV fm"][0]    # CODATA via scipy
+CODATA_BOHR_FM = sc.physical_constants["Bohr radius"][0] / sc.femto
+
+
+@pytest.mark.parametrize("l", [0, 1, 3])
+def test_a_nuclear_oscillator_matches_hbar_omega(l):
+    """Isotropic oscillator V = k r^2 / 2: E = hbar omega (2 n_r + l + 3/2), hbar omega = hbar c sqrt(k / m c^2)
+    (any quantum-mechanics text, e.g. Messiah, Quantum Mechanics, 1961, ch. XII). Before the derived a0 the
+    levels were 5.6e-12 above it with an estimate of 2e-14."""
+    m, k = 938.0, 2.0                                  # MeV and MeV/fm^2 (a nucleon-like mass, illustrative)
+    res = boundkit.solve("schrodinger", "oscillator", {"k": k}, l=l, levels=3, tol=1e-13, mass_mev=m,
+                         units="nuclear")
+    assert res.success, res.message
+    for lv in res.levels:
+        exact = HBARC_MEV_FM * math.sqrt(k / m) * (2 * lv.nodes + l + 1.5)
+        got, est = hartree_to(lv.energy, "MeV"), hartree_to(lv.error_estimate, "MeV")
+        assert abs(got - exact) <= max(est, 4e-16 * exact), (lv.label, got / exact - 1, est / exact)
+
+
+def test_the_bohr_radius_in_fm_is_consistent_with_hbar_c():
+    """alpha hbar c / E_h (CODATA via scipy.constants) in fm, and within CODATA's uncertainty of its Bohr radius."""
+    e_h_mev = sc.physical_constants["Hartree energy in eV"][0] * 1e-6
+    assert FM_PER_BOHR == pytest.approx(sc.fine_structure * HBARC_MEV_FM / e_h_mev, rel=1e-15)
+    assert bohr_to(1.0, "fm") == FM_PER_BOHR
+    sigma = sc.physical_constants["Bohr radius"][2] / sc.physical_constants["Bohr radius"][0]
+    assert abs(FM_PER_BOHR / CODATA_BOHR_FM - 1) < 0.1 * sigma
