@@ -1251,3 +1251,51 @@ def test_hulthen_phase_estimates_bound_the_error(Z, dl):
     exact = np.array([_hulthen_s_phase(e, Z, dl) for e in E])
     assert res.status == "ok", res.message
     assert np.all(np.abs(res.delta - exact) <= res.error_estimate), (res.delta - exact, res.error_estimate)
+
+
+# The short-range-only refusals named B in hartree bohr^2 under units='nuclear' (10 MeV fm^2 read 0.000131).
+# B = 10 MeV fm^2 in hartree bohr^2 by hand, from CODATA via scipy.constants (Hartree energy in eV, Bohr radius).
+def _b_atomic(b_mev_fm2: float) -> float:
+    import scipy.constants as sc
+
+    hartree_mev = sc.physical_constants["Hartree energy in eV"][0] * 1e-6
+    bohr_fm = sc.physical_constants["Bohr radius"][0] * 1e15
+    return b_mev_fm2 / hartree_mev / bohr_fm**2
+
+
+@pytest.mark.parametrize("units", ["nuclear", "atomic"])
+@pytest.mark.parametrize("call, lead", [
+    (scattering_length, r"potential: it has an inverse-square tail, V ~ "),
+    (levinson, r"potential: Levinson's theorem needs a short-range potential; this one has an inverse-square tail, "
+               r"V ~ "),
+], ids=["scattering_length", "levinson"])
+def test_a_short_range_refusal_names_the_inverse_square_tail_in_the_units_of_the_call(call, lead, units):
+    from boundkit.potentials.expression import ExpressionTerm
+
+    if units == "nuclear":
+        pot, want = ExpressionTerm("10/r**2 - 50*exp(-r)"), r"10/r\^2 \(V in MeV, r in fm\)"
+    else:
+        b = _b_atomic(10.0)                               # 1.31234e-4: the same tail in hartree bohr^2
+        pot, want = (lambda r: b / r**2 - 50 * np.exp(-r)), re.escape(f"{b:g}") + r"/r\^2 \(V in hartree, r in bohr\)"
+    with pytest.raises(ValueError, match="^" + lead + want + ("" if call is levinson else r"; the scattering length "
+                                                               r"here is for short-range potentials -- use phase_shifts")
+                       + "$"):
+        call("schrodinger", pot, units=units, mass_mev=938.0)
+
+
+@pytest.mark.parametrize("call, tail", [
+    (scattering_length, r"a Coulomb tail \(charge 1\); the scattering length here is for short-range potentials -- "
+                        r"use phase_shifts for Coulomb-modified phases"),
+    (levinson, r"short-range potential; this one has a Coulomb tail \(charge 1\) and infinitely many bound levels"),
+], ids=["scattering_length", "levinson"])
+def test_a_short_range_refusal_of_a_coulomb_tail_says_what_to_do(call, tail):
+    with pytest.raises(ValueError, match=tail + "$"):
+        call("schrodinger", "coulomb", {"Z": 1.0}, units="nuclear", mass_mev=938.0)
+
+
+def test_cli_levinson_refuses_an_inverse_square_tail_in_the_units_of_the_call():
+    out = CliRunner().invoke(main, ["phases", "--units", "nuclear", "--mass-mev", "938", "--expr",
+                                    "10/r**2 - 50*exp(-r)", "--l", "0", "--levinson"])
+    assert out.exit_code == 2, out.output
+    assert re.fullmatch(r"boundkit: error: potential: Levinson's theorem needs a short-range potential; this one has "
+                        r"an inverse-square tail, V ~ 10/r\^2 \(V in MeV, r in fm\)\n", out.output), out.output

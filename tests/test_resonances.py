@@ -592,3 +592,26 @@ def test_an_analytic_form_equal_to_the_potential_everywhere_scales_from_the_orig
     (u,) = uni.resonances
     assert u.energy == pytest.approx(r.energy, abs=1e-8)
     assert u.width == pytest.approx(r.width, abs=1e-8)
+
+
+# The header quoted the contour's r0 and r_max in bohr under --units nuclear, where every other length is in fm.
+@pytest.mark.parametrize("args, length", [
+    (("--units", "nuclear", "--particle", "neutron", "--expr", "-50*exp(-r/2)", "--window=-40,-1"), "fm"),
+    (("--expr", "-2*exp(-r/2)", "--window=-1,-0.01"), "bohr"),
+])
+def test_cli_resonances_header_quotes_the_contour_in_the_length_unit_of_the_units(args, length):
+    import re
+
+    import scipy.constants as sc
+
+    runner = CliRunner()
+    out = runner.invoke(main, ["resonances", *args])
+    assert out.exit_code == 0, out.output
+    got = re.search(r"complex scaling beyond r0 = (\S+) (\S+) to (\S+) (\S+), theta = ", out.output)
+    assert got is not None, out.output
+    assert (got.group(2), got.group(4)) == (length, length)
+    settings = json.loads(runner.invoke(main, ["resonances", *args, "--json"]).output)["settings"]
+    # fm per bohr from CODATA's Bohr radius (via scipy.constants)
+    per = sc.physical_constants["Bohr radius"][0] * 1e15 if length == "fm" else 1.0
+    assert float(got.group(1)) == pytest.approx(settings["r0_bohr"] * per, rel=1e-5)    # printed to 6 digits
+    assert float(got.group(3)) == pytest.approx(settings["r_max_bohr"] * per, rel=1e-5)

@@ -858,7 +858,8 @@ def test_a_klein_gordon_p_level_of_a_well_dives_and_is_not_said_to_merge():
     merge = critical("klein-gordon", _square_well(6.0), {"V0": 6.0}, state="2p", vary="V0", kind="merge",
                      units="nuclear")
     assert merge.status == "unverified"
-    assert re.match(r"2p is lost between V0 = \S+ \(E = .*\) and \S+, but not as at a merge, where dp/dE -> 0 .*: "
+    assert re.match(r"2p is lost between V0 = \S+ \(E = \S+ MeV, \S+ MeV above -2 m c\^2\) and \S+, but not as at a "
+                    r"merge, where dp/dE -> 0 .*: "
                     r"it may dive \(kind='dive'\) or have been missed there; \S+ is not confirmed", merge.message)
 
 
@@ -984,3 +985,52 @@ def test_cli_klein_gordon_point_charge_merge_is_ok():
                                     "--state", "1s", "--kind", "merge"])
     assert out.exit_code == 0, out.output
     assert "68.51799958879" in out.output and "inf" not in out.output
+
+
+# --- messages quote energies in the caller's unit -----------------------------------------------------------
+# They said 'hartree' whatever --units / --energy-unit asked, while the JSON and the tables followed them.
+# The numbers are checked against the hartree energy of the points by the factor taken from scipy.constants here
+# (CODATA via scipy.constants: 'Hartree energy in eV').
+_EV_PER_HARTREE = sc.physical_constants["Hartree energy in eV"][0]
+_PER_HARTREE = {"hartree": 1.0, "MeV": _EV_PER_HARTREE * 1e-6, "keV": _EV_PER_HARTREE * 1e-3}
+
+
+@pytest.mark.parametrize("units, energy_unit, named", [("atomic", None, "hartree"), ("nuclear", None, "MeV"),
+                                                       ("nuclear", "keV", "keV")])
+def test_a_point_charge_merge_message_quotes_the_energy_in_the_unit_asked(units, energy_unit, named):
+    res = critical("klein-gordon", "coulomb", {"Z": 20}, state="1s", vary="Z", kind="merge", units=units,
+                   energy_unit=energy_unit)
+    assert res.status == "ok", res.message
+    got = re.search(r"found at (\S+), E = (\S+) (\S+)$", res.message)
+    assert got is not None, res.message
+    assert got.group(3) == named
+    near = next(p for p in res.points if p["found"] and p["value"] == pytest.approx(float(got.group(1)), rel=1e-11))
+    assert float(got.group(2)) == pytest.approx(near["energy"] * _PER_HARTREE[named], rel=1e-9)   # .10g printed
+
+
+def test_critical_refuses_an_unknown_energy_unit():
+    with pytest.raises(ValueError, match=r"^energy_unit: unknown unit 'MeW'; choose one of hartree, "):
+        critical("klein-gordon", "coulomb", {"Z": 20}, state="1s", vary="Z", kind="merge", energy_unit="MeW")
+
+
+def test_a_square_well_merge_message_quotes_energies_in_mev_under_nuclear_units():
+    res = critical("klein-gordon", _square_well(3.0), {"V0": 3.0}, state="1s", vary="V0", kind="merge",
+                   units="nuclear")
+    assert res.status == "ok", res.message
+    got = re.search(r", at E = (\S+) MeV \((\S+) MeV above -2 m c\^2\); found at ", res.message)
+    assert got is not None, res.message
+    merge = res.settings["merge_energy_hartree"]
+    assert float(got.group(1)) == pytest.approx(merge * _PER_HARTREE["MeV"], rel=1e-9)
+    # the gap to -2 m c^2, an electron's: 2 m_e c^2 from CODATA's tabulated value (via scipy.constants)
+    two_mc2 = 2 * sc.physical_constants["electron mass energy equivalent in MeV"][0]
+    assert float(got.group(2)) == pytest.approx(float(got.group(1)) + two_mc2, rel=1e-3, abs=1e-6)
+
+
+@pytest.mark.parametrize("extra, named", [(("--units", "nuclear"), "MeV"),
+                                          (("--units", "nuclear", "--energy-unit", "keV"), "keV")])
+def test_cli_critical_status_line_quotes_the_energy_in_the_unit_asked(extra, named):
+    out = CliRunner().invoke(main, ["critical", "-e", "klein-gordon", "--param", "Z=20", "--vary", "Z", "--state",
+                                    "1s", "--kind", "merge", *extra])
+    assert out.exit_code == 0, out.output
+    assert re.search(rf"^\d+ evaluations; status: ok - 1s merges .*, E = \S+ {named}$", out.output, re.M), out.output
+    assert "hartree" not in out.output

@@ -224,3 +224,23 @@ def test_cli_beyond_table_follows_the_energy_unit(monkeypatch, dive):
         row = next(line for line in out.output.splitlines() if line.split()[:1] == [f"{b.value:.10g}"])
         assert float(row.split()[2]) == pytest.approx(hartree_to(b.energy, "MeV"), rel=1e-11)
         assert float(row.split()[4]) == pytest.approx(hartree_to(b.width, "MeV"), rel=1e-7)
+
+
+def test_a_dived_resonance_message_quotes_energies_in_the_unit_asked(dive):
+    """The messages of the resonances past diving said hartree whatever unit the critical search was asked in.
+    The same point as dive.beyond[0] (3 past diving), in keV: the factor from CODATA via scipy.constants."""
+    import re
+
+    from boundkit.studies.supercritical import follow_dived
+
+    kev = 1e-3 * sc.physical_constants["Hartree energy in eV"][0]
+    (b,) = follow_dived("dirac", "uniform-sphere", {"Z": 160, "rms_fm": NuclearRadius()}, label="1s1/2",
+                        channel={"kappa": -1}, vary="Z", critical_value=dive.value, direction=1.0,
+                        points=dive.points, beyond=(3,), energy_unit="keV")
+    ref = dive.beyond[0]
+    assert b.status == ref.status == "ok"
+    got = re.fullmatch(r"E = (\S+) \+ i Gamma/2, Gamma = (\S+) keV \((\S+) keV below -2 m c\^2\)", b.message)
+    assert got is not None, b.message
+    for text, hartree, digits in zip(got.groups(), (ref.energy, ref.width, ref.depth), (12, 6, 6)):
+        assert float(text) == pytest.approx(hartree * kev, rel=10.0 ** (1 - digits))
+    assert "hartree" in ref.message            # the default stays hartree

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import click
 
-from .common import api_message, fail, json_text, report_unit
+from .common import api_message, fail, json_text, report_length, report_unit
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option, particle_options,
                       potential_options, subset_params, tol_option)
 
@@ -54,7 +54,7 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
                    as_json):
     """Resonances, bound and quasi-bound levels in an energy window (complex scaling)."""
     from .. import resonances
-    from ..units import ENERGY_UNITS
+    from ..units import ENERGY_UNITS, bohr_to
     from ..potentials.expression import ExpressionTerm
     from ..potentials.optical import ImaginaryPart
 
@@ -78,8 +78,10 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
         click.echo(json_text(res.to_dict(unit)))
         return
     s = res.settings
+    length = report_length(None, unit_system)      # the contour in fm under --units nuclear
     click.echo(f"{res.equation} equation, potential {res.potential}; {s['scaling']} complex scaling beyond "
-               f"r0 = {s['r0_bohr']:.6g} bohr to {s['r_max_bohr']:.6g} bohr, theta = "
+               f"r0 = {bohr_to(s['r0_bohr'], length):.6g} {length} to {bohr_to(s['r_max_bohr'], length):.6g} "
+               f"{length}, theta = "
                f"{', '.join(f'{a:g}' for a in s['angles_rad'])} rad, orders {s['orders'][0]}, {s['orders'][1]}")
     click.echo(f"binding energy E and width Gamma (eigenvalue E - i Gamma/2) in {unit}")
     click.echo("")

@@ -203,7 +203,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                     from None
         res = critical(equation, vector, values, state=state, vary=vary, bracket=br, tol=tol, kind=kind,
                        energy_tol=energy_tol, max_evaluations=max_evaluations, method=method,
-                       scalar=scalar or None, units=unit_system, labels=labels, **kwargs)
+                       scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit, **kwargs)
     except ValueError as exc:
         fail(api_message(exc, {"vary": "--vary"}))
     except StudyError as exc:

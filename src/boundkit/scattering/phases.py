@@ -314,13 +314,14 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
 
 
 # --- scattering length -----------------------------------------------------------------------
-def _short_range_only(ch, message) -> None:
+def _short_range_only(ch, units: str, message, coulomb_note: str = "") -> None:
     """Refuse a channel with a long tail: ``message(tail)`` names it, ``tail`` being 'an inverse-square
-    tail (B = ...)' or 'a Coulomb tail (charge ...)' (the inverse square first)."""
+    tail, V ~ ...' (its formula in the call's units, :func:`_tail_formula`) or 'a Coulomb tail (charge ...)'
+    (the inverse square first); ``coulomb_note`` follows the message of a Coulomb tail alone."""
     if ch.tail_b:
-        raise ValueError(message(f"an inverse-square tail (B = {ch.tail_b:g} hartree bohr^2)"))
+        raise ValueError(message(f"an inverse-square tail, V ~ {_tail_formula(ch, units)}"))
     if ch.tail_charge:
-        raise ValueError(message(f"a Coulomb tail (charge {ch.tail_charge:g})"))
+        raise ValueError(message(f"a Coulomb tail (charge {ch.tail_charge:g})") + coulomb_note)
 
 
 def scattering_length(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
@@ -362,9 +363,8 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     tol = check_positive("tol", tol)
     ch, settings = _channel(equation, potential, params, None, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
                             units, None, hard_core)
-    _short_range_only(ch, lambda tail: f"potential: it has {tail}; the scattering length here is for short-range "
-                                       "potentials -- use phase_shifts"
-                                       + ("" if ch.tail_b else " for Coulomb-modified phases"))
+    _short_range_only(ch, units, lambda tail: f"potential: it has {tail}; the scattering length here is for "
+                      "short-range potentials -- use phase_shifts", " for Coulomb-modified phases")
     if ch.kappa != -1:
         raise ValueError("kappa: the scattering length is an s-wave quantity; use kappa = -1 (s1/2)")
     schr = ch.eq.name == "schrodinger"
@@ -495,8 +495,8 @@ def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | N
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, None, particle, mass_mev, nucleus_mass_mev, None,
                             units, None, None)
-    _short_range_only(ch, lambda tail: "potential: Levinson's theorem needs a short-range potential; this one has "
-                                       + tail + ("" if ch.tail_b else " and infinitely many bound levels"))
+    _short_range_only(ch, units, lambda tail: "potential: Levinson's theorem needs a short-range potential; this one "
+                      f"has {tail}", " and infinitely many bound levels")
     eq = ch.eq
     R0, _ = matching_radius(ch, 0.0, tol)
     k_lo = 1e-3 / max(R0, ch.length)

@@ -57,7 +57,8 @@ from ..discretize import get_method
 from ..solver import setup, solve_channel, table_error
 from .._threads import inside, one_blas_thread
 from ..states import convert_label
-from ..units import C_AU, bohr_to, constants_record, energy_unit, hartree_to, length_unit
+from ..units import (C_AU, bohr_to, constants_record, energy_unit as canonical_unit, hartree_to, length_unit,
+                     system_units)
 from ._common import (StudyError, canonical_equation, check_varied, describe, parameter_units,
                       rebuild_potential, resolve_params, seeded_level, state_channel)
 
@@ -228,7 +229,7 @@ class CriticalResult:
                 "bracket": list(self.bracket), "bracket_meaning": self.bracket_meaning,
                 "evaluations": self.evaluations, "status": self.status,
                 "message": self.message, "settings": self.settings, "constants": constants_record(),
-                "units": {"parameter": self.parameter_unit or "1", "energy": energy_unit(unit),
+                "units": {"parameter": self.parameter_unit or "1", "energy": canonical_unit(unit),
                           "length": length_unit(length), "time": "s"},
                 "points": points,
                 "beyond": [b.to_dict(unit) for b in self.beyond]}
@@ -599,7 +600,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
              bracket: tuple[float, float] | None = None, tol: float = 1e-8, kind: str | None = None,
              energy_tol: float = 1e-10, bracket_rtol: float = 1e-2, max_evaluations: int = 40,
              method: str = "auto", scalar=None, labels: str = "atomic", beyond=None,
-             beyond_angles=(0.25, 0.35), beyond_order: int = 12,
+             beyond_angles=(0.25, 0.35), beyond_order: int = 12, energy_unit: str | None = None,
              **solve_kwargs) -> CriticalResult:
     """Critical value of a parameter at which a level unbinds, dives or merges.
 
@@ -653,6 +654,10 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     beyond_angles, beyond_order
         Scaling angles and Lobatto order of those complex-scaling solves
         (:func:`boundkit.resonances`).
+    energy_unit : str, optional
+        Unit of the energies quoted in messages (``message``, and those of
+        ``beyond``; default hartree, MeV with ``units='nuclear'``); the
+        result's numbers stay in hartree (convert with ``to_dict(unit)``).
 
     Returns
     -------
@@ -837,6 +842,11 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                          f"{', '.join(_SETUP_KEYS)}, order")
     disc = get_method(method, solve_kwargs.pop("order", None))
     setup_kwargs = {k_: v for k_, v in solve_kwargs.items() if k_ in _SETUP_KEYS}
+    e_unit = canonical_unit(energy_unit or system_units(setup_kwargs.get("units", "atomic"))[0])
+
+    def energy_text(x: float, spec: str) -> str:
+        """An energy (hartree) in the caller's unit, with the unit named."""
+        return f"{hartree_to(x, e_unit):{spec}} {e_unit}"
     if kind is not None and kind not in _KINDS:
         raise ValueError(f"kind: must be 'unbind', 'dive' or 'merge', got {kind!r}")
     if beyond is not None:
@@ -963,7 +973,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         except ValueError as exc:
             last = min((r for r in points if r["found"]), key=lambda r: r["s"], default=None)
             where = (f"; the level was last found at {vary} = {last['value']:.12g} with E = "
-                     f"{last['energy']:.6g} hartree" if last else "")
+                     f"{energy_text(last['energy'], '.6g')}" if last else "")
             err = _SolverRefused(f"the solver refused {vary} = {p:.12g}: {exc}{where}. The critical value "
                                  "cannot be reached through this point")
             err.reason = f"the solver refused {vary} = {p:.6g} ({exc})"
@@ -1223,15 +1233,16 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         gap = None if fold is None else fold["energy"] + 2 * mc2
         if fold is None or not gap > 0 or not inside:
             where = ("" if fold is None else f" (the parabola through the nearest points turns at "
-                     f"{fold['value']:.12g}, E = {fold['energy']:.10g} hartree)")
-            message = (f"{label} is lost between {vary} = {p_in:.12g} (E = {n_in['energy']:.10g} hartree, "
-                       f"{n_in['s']:.4g} hartree above -2 m c^2) and {p_out:.12g}{pu}, but not as at a merge, where "
+                     f"{fold['value']:.12g}, E = {energy_text(fold['energy'], '.10g')})")
+            message = (f"{label} is lost between {vary} = {p_in:.12g} (E = {energy_text(n_in['energy'], '.10g')}, "
+                       f"{energy_text(n_in['s'], '.4g')} above -2 m c^2) and {p_out:.12g}{pu}, but not as at a merge, where "
                        f"dp/dE -> 0{where}: it may dive (kind='dive') or have been missed there; {best:.12g} is "
                        "not confirmed")
             return result_of(best, unc, "unverified", message, p_in, p_out, n_in, extra)
         if status == "ok":
             message = (f"{label} merges with an antiparticle level at {vary} = {best:.{_digits(best, unc)}g} +- "
-                       f"{unc:.2g}{pu}, at E = {fold['energy']:.10g} hartree ({gap:.4g} hartree above -2 m c^2); "
+                       f"{unc:.2g}{pu}, at E = {energy_text(fold['energy'], '.10g')} ({energy_text(gap, '.4g')} above "
+                       "-2 m c^2); "
                        f"found at {p_in:.12g}{pu}, no real level at {p_out:.12g}{pu}")
         else:
             message = (f"the bracket ({p_in:.12g}, {p_out:.12g}) did not narrow to tol = {tol:g} within "
@@ -1280,7 +1291,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         message = (f"{label} merges with an antiparticle level at {vary} = {pb:.{_digits(pb, unc)}g} +- "
                    f"{unc:.2g}{pu}, where Z alpha = l + 1/2 = {eq0.l + 0.5:g} (exact for a point charge: past it "
                    f"the Klein-Gordon levels are complex); found at {near['value']:.12g}{pu}, E = "
-                   f"{near['energy']:.10g} hartree")
+                   f"{energy_text(near['energy'], '.10g')}")
         extra = {"threshold_hartree": None, "threshold_variable": "none: the exact condition Z alpha = l + 1/2",
                  "merge_energy_hartree": None, "merge_rule": POINT_MERGE_RULE}
         return result_of(pb, unc, "ok", message, near["value"], pb + h, near, extra)
@@ -1434,7 +1445,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         # the bracket bounds the error whatever the extrapolation says
         reach = max(abs(best - p_in), abs(p_out - best))
         unc = max(min(unc, reach), _precision_floor(best))
-    unit_s = "hartree^(1/2)" if root else "hartree"
+    # s in the caller's unit: the square root of an energy when root
+    s_text = (f"{math.sqrt(hartree_to(near['s'] ** 2, e_unit)):.4g} {e_unit}^(1/2)" if root else
+              energy_text(near["s"], ".4g"))
     if status == "ok" and p_out is not None and not (ahead(best, p_in) >= -unc and ahead(p_out, best) >= -unc):
         status = "unverified"
     # the tables' error moves the interpolant's critical value itself, which the bracket is of: added after
@@ -1453,8 +1466,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                         f"(relative): give the table more points where the potential bends")
     elif status == "lost":
         status = "unverified"
-        message = (f"{label} disappears between {vary} = {p_in:.12g} (E = {near['energy']:.10g} hartree, "
-                   f"{near['s']:.4g} {unit_s} from threshold) and {p_out:.12g}, before its threshold; "
+        message = (f"{label} disappears between {vary} = {p_in:.12g} (E = {energy_text(near['energy'], '.10g')}, "
+                   f"{s_text} from threshold) and {p_out:.12g}, before its threshold; "
                    f"extrapolating to the threshold gives {best:.12g}, which is not confirmed")
     elif status == "unverified" or (p_out is not None and ahead(best, p_out) > fit_unc):
         status = "unverified"
@@ -1475,7 +1488,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     direction = 1.0 if (p_out is not None and p_out > p_in) or (p_out is None and best > p_in) else -1.0
     dived = follow_dived(eqname, potential, params, label=atomic_label, channel=channel, vary=vary,
                          critical_value=float(best), direction=direction, points=list(result.points), beyond=beyond,
-                         scalar=scalar, setup_kwargs=setup_kwargs, angles=beyond_angles, order=beyond_order)
+                         scalar=scalar, setup_kwargs=setup_kwargs, angles=beyond_angles, order=beyond_order,
+                         energy_unit=e_unit)
     # followed under its atomic label (the one boundkit.resonances gives); reported in the caller's
     dived = tuple(replace(b, label=convert_label(b.label, labels)) for b in dived)
     result.settings["beyond"] = {"distances": list(beyond), "angles_rad": list(beyond_angles), "order": beyond_order,

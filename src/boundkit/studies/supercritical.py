@@ -36,7 +36,7 @@ import math
 from dataclasses import dataclass
 from typing import Any, Mapping, Sequence
 
-from ..units import C_AU, hartree_to
+from ..units import C_AU, hartree_to, energy_unit as canonical_unit
 
 __all__ = ["DivedResonance", "follow_dived", "check_beyond"]
 
@@ -119,7 +119,8 @@ def check_beyond(beyond) -> tuple[float, ...]:
 def follow_dived(equation: str, potential, params: Mapping[str, Any], *, label: str, channel: Mapping[str, int],
                  vary: str, critical_value: float, direction: float, points: Sequence[Mapping[str, Any]],
                  beyond: Sequence[float], scalar=None, setup_kwargs: Mapping[str, Any] | None = None,
-                 angles: Sequence[float] = (0.25, 0.35), order: int = 12) -> tuple[DivedResonance, ...]:
+                 angles: Sequence[float] = (0.25, 0.35), order: int = 12,
+                 energy_unit: str = "hartree") -> tuple[DivedResonance, ...]:
     """Complex energies of a dived level at distances ``beyond`` past its diving point.
 
     Parameters
@@ -139,6 +140,9 @@ def follow_dived(equation: str, potential, params: Mapping[str, Any], *, label: 
         Distances past p_c (see :func:`check_beyond`).
     angles, order
         Passed to :func:`boundkit.resonances`.
+    energy_unit
+        Unit of the energies quoted in the messages (the attributes stay
+        in hartree).
 
     Returns
     -------
@@ -155,6 +159,7 @@ def follow_dived(equation: str, potential, params: Mapping[str, Any], *, label: 
     from ._common import rebuild_potential, resolve_params
 
     setup_kwargs = dict(setup_kwargs or {})
+    unit = canonical_unit(energy_unit)
     varied = {vary} | {n for n, v in params.items() if callable(v)}
     values_c = resolve_params(params, {vary: critical_value})
     eq, _, _ = setup(equation, rebuild_potential(potential, values_c, varied), values_c,
@@ -197,11 +202,13 @@ def follow_dived(equation: str, potential, params: Mapping[str, Any], *, label: 
         depth = -(hit.energy + 2 * mc2)
         known.append((d, depth))
         if hit.width > hit.width_error:
-            status, msg = "ok", (f"E = {hit.energy:.12g} + i Gamma/2, Gamma = {hit.width:.6g} hartree "
-                                 f"({depth:.6g} hartree below -2 m c^2)")
+            status, msg = "ok", (f"E = {hartree_to(hit.energy, unit):.12g} + i Gamma/2, Gamma = "
+                                 f"{hartree_to(hit.width, unit):.6g} {unit} "
+                                 f"({hartree_to(depth, unit):.6g} {unit} below -2 m c^2)")
         else:
-            status, msg = "unresolved", (f"Gamma = {hit.width:.3g} hartree is below its error estimate "
-                                         f"{hit.width_error:.2g}: too close to the diving point to resolve")
+            status, msg = "unresolved", (f"Gamma = {hartree_to(hit.width, unit):.3g} {unit} is below its error "
+                                         f"estimate {hartree_to(hit.width_error, unit):.2g}: too close to the "
+                                         "diving point to resolve")
         out.append(DivedResonance(p, d, label, hit.energy, hit.energy_error, hit.width, hit.width_error, depth,
                                   status, msg, window))
     return tuple(out)
