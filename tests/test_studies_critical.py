@@ -944,6 +944,21 @@ def test_the_klein_gordon_1s_at_its_merge_is_never_missed_silently(eps):
         assert re.search(r"merg", res.message), res.message
 
 
+def test_newton_diverging_near_a_merge_is_a_failed_refinement_not_an_overflow():
+    """R = 95 fm, 1e-13 below the merge depth (V0 = 3.898265789214858 MeV, from _kg_square_well_merge): Newton's
+    method, started between the two nearly equal roots, ran off to energies whose extended-precision residual
+    overflowed on its cast to double ('overflow encountered in cast', a RuntimeWarning to the user, an error under
+    this suite's -W error); that step now counts as a refinement that failed. The level is bound there: it is
+    reported, or the status says why not."""
+    import boundkit
+    from boundkit.potentials.expression import ExpressionTerm
+
+    V0 = 3.898265789214858
+    res = boundkit.solve("klein-gordon", ExpressionTerm("where(r<95.0, -V0, 0)", {"V0": V0}), {"V0": V0}, l=0,
+                         units="nuclear", levels="all")
+    assert res.status != "ok" or len(res.levels) == 1, res.message
+
+
 # --- no critical radius below a point charge's limit ---------------------------------------------
 def test_a_finite_nucleus_below_the_point_charge_limit_has_no_critical_radius():
     """A tester: Dirac 1s1/2, uniform sphere Z = 100, vary rms_fm printed 'critical rms_fm = -333544.24 +- inf

@@ -139,7 +139,8 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
     seed was so close that the next step, smaller by a factor of at most about
     |E| / gap, would fall below rtol) (rtol defaults to
     1e-17 with extended-precision residuals, 1e-15 without), or after
-    ``max_iter`` steps (then ``converged`` is False).
+    ``max_iter`` steps (then ``converged`` is False). A residual that is not finite (the iteration ran
+    off) also ends it, not converged.
     """
     y = np.asarray(y0, dtype=float)
     j = int(np.argmax(np.abs(y)))
@@ -162,11 +163,16 @@ def refine(op, E0: float, y0, max_iter: int = 30, rtol: float | None = None) -> 
     noisy = False       # a step counted small only because it stalled at the residual's rounding
     for it in range(1, max_iter + 1):
         Ef = float(E)
-        if solve_bordered is None or it % 4 == 0:
-            solve_bordered = _bordered_solver(op, Ef, np.asarray(yw, dtype=float), j)
         if coarse is not None and step <= 1e-10 * abs(float(E)):
             coarse = None                    # close: extended precision from here on
-        res = np.asarray((coarse or residual)(E, yw), dtype=float)
+        with np.errstate(over="ignore", invalid="ignore"):
+            res = np.asarray((coarse or residual)(E, yw), dtype=float)
+        if not np.all(np.isfinite(res)):
+            # run off to energies (or vectors) whose residual overflows: a seed between two nearly equal
+            # roots of a Klein-Gordon pair at its merge did that; the caller tries its other means
+            return Refined(Ef, np.asarray(yw, dtype=float), it, False, math.inf)
+        if solve_bordered is None or it % 4 == 0:
+            solve_bordered = _bordered_solver(op, Ef, np.asarray(yw, dtype=float), j)
         sol = solve_bordered(-res)
         dE = sol[j]
         dy = sol.copy()
