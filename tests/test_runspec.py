@@ -10,6 +10,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import scipy.constants as sc
 from click.testing import CliRunner
 
 import boundkit
@@ -618,6 +619,26 @@ def test_critical_bracket_in_either_order_as_the_api_takes_it(tmp_path, bracket)
     assert report.success, report.problems
     data = json.loads((tmp_path / "o" / "results.json").read_text())
     assert data["critical"][0]["states"][0]["value"] == pytest.approx(2.0, rel=1e-7)
+
+
+def test_critical_results_follow_the_spec_energy_unit(tmp_path):
+    """results.json's critical entries gave energies in hartree whatever energy_unit the spec named (the
+    search's messages too). The last point found, E of the 1s near its threshold, is checked against the
+    same search's value in hartree, converted with CODATA's hartree in eV (scipy.constants)."""
+    hartree_ev = sc.physical_constants["Hartree energy in eV"][0]
+    out = {}
+    for unit in ("hartree", "eV"):
+        text = _HULTHEN_1S.replace("BRACKET", "[1.0, 3.0]").replace('description = "d"\n',
+                                                                    f'description = "d"\nenergy_unit = "{unit}"\n')
+        report = run(write(tmp_path, text), tmp_path / unit)
+        assert report.success, report.problems
+        out[unit] = json.loads((tmp_path / unit / "results.json").read_text())["critical"][0]["states"][0]
+    assert out["eV"]["units"]["energy"] == "eV" and out["hartree"]["units"]["energy"] == "hartree"
+    found = [p for p in out["hartree"]["points"] if p["found"]]
+    found_ev = [p for p in out["eV"]["points"] if p["found"]]
+    assert found and len(found) == len(found_ev)
+    for a, b in zip(found, found_ev):
+        assert b["energy"] == pytest.approx(a["energy"] * hartree_ev, rel=1e-14)
 
 
 def test_critical_bracket_of_two_equal_values_is_refused(tmp_path):

@@ -76,7 +76,9 @@ class StudyRunners:
         jobs = [dict(equation=sec.equation, potential=vector, params=params, state=state, vary=sec.parameter,
                      bracket=tuple(sec.bracket) if sec.bracket else None, tol=sec.tolerance,
                      energy_tol=sec.energy_tolerance, method=spec.method, kind=sec.kind, scalar=scalar or None,
-                     units=spec.units, labels=spec.labels, **self.particle_kwargs()) for state in sec.states]
+                     units=spec.units, labels=spec.labels, energy_unit=self.e_unit, length_unit=self.l_unit,
+                     **self.particle_kwargs())
+                for state in sec.states]
         rows = []
         for state, (ok, got) in zip(sec.states, _map_jobs(_critical_job, jobs, sec.workers, self.tick)):
             if not ok:
@@ -196,16 +198,19 @@ def _critical_job(kwargs: dict) -> tuple[bool, Any]:
     """One critical search (top level, so that worker processes can run it).
 
     Returns (True, the result as a JSON-ready dict) or (False, the message of
-    the ValueError or StudyError that stopped it).
+    the ValueError or StudyError that stopped it); energies in ``kwargs['energy_unit']``, lengths in
+    ``kwargs['length_unit']`` (taken out: the search itself has no length unit).
     """
-    
+    kwargs = dict(kwargs)
+    length = kwargs.pop("length_unit", "bohr")
     studies = importlib.import_module("boundkit.studies")
     try:
         with one_blas_thread():   # small matrices: threads only contend
             res = _call(studies.critical, **kwargs)
     except (ValueError, RuntimeError) as exc:
         return False, str(exc)
-    return True, (_clean(res.to_dict()) if hasattr(res, "to_dict") else {"value": _clean(res)})
+    unit = kwargs.get("energy_unit") or "hartree"
+    return True, (_clean(res.to_dict(unit, length)) if hasattr(res, "to_dict") else {"value": _clean(res)})
 
 
 def _workers(workers: int | None) -> int | None:
