@@ -15,7 +15,7 @@ import pytest
 import scipy.constants as sc
 
 import boundkit
-from boundkit.units import FM_PER_BOHR, bohr_to, hartree_to
+from boundkit.units import FM_PER_BOHR, bohr_to, constants_record, hartree_to
 
 HBARC_MEV_FM = sc.physical_constants["reduced Planck constant times c in MeV fm"][0]    # CODATA via scipy
 CODATA_BOHR_FM = sc.physical_constants["Bohr radius"][0] / sc.femto
@@ -43,3 +43,12 @@ def test_the_bohr_radius_in_fm_is_consistent_with_hbar_c():
     assert bohr_to(1.0, "fm") == FM_PER_BOHR
     sigma = sc.physical_constants["Bohr radius"][2] / sc.physical_constants["Bohr radius"][0]
     assert abs(FM_PER_BOHR / CODATA_BOHR_FM - 1) < 0.1 * sigma
+
+
+def test_the_recorded_constants_hold_e_h_a0_equal_to_alpha_hbar_c():
+    """Every result's constants record names hbar c (CODATA via scipy.constants), and the record is consistent:
+    E_h a0 = alpha hbar c to rounding."""
+    rec = constants_record()
+    assert rec["hbar_c_MeV_fm"] == pytest.approx(HBARC_MEV_FM, rel=1e-15)
+    e_h_a0 = rec["hartree_eV"] * 1e-6 * rec["bohr_m"] / sc.femto
+    assert e_h_a0 == pytest.approx(rec["alpha"] * rec["hbar_c_MeV_fm"], rel=1e-15)

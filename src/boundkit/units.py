@@ -21,6 +21,7 @@ __all__ = [
     "C_AU",
     "HARTREE_EV",
     "BOHR_M",
+    "HBARC_MEV_FM",
     "ELECTRON_MASS_MEV",
     "MASS_UNIT_MEV",
     "Particle",
@@ -60,6 +61,8 @@ E / (m c^2) in MeV is its value in atomic units, exact to rounding. CODATA's tab
 (:data:`ELECTRON_MASS_MEV`) differs from it by 1.4e-11 relative (rounding of the tables, inside the
 3.1e-10 uncertainty of m_e c^2); dividing by that put levels of a mass in MeV 1.4e-11 off."""
 FM_PER_BOHR: float = BOHR_M * 1e15
+HBARC_MEV_FM: float = sc.hbar * sc.c / sc.e * 1e9
+"""hbar c in MeV fm (exact in the SI): E_h a0 / alpha, the one constant of a problem posed in MeV and fm."""
 
 
 @dataclass(frozen=True, slots=True)
@@ -259,6 +262,7 @@ def constants_record() -> dict:
         "c_atomic_units": C_AU,
         "hartree_eV": HARTREE_EV,
         "bohr_m": BOHR_M,
+        "hbar_c_MeV_fm": HBARC_MEV_FM,
         "electron_mass_MeV": ELECTRON_MASS_MEV,
         "mass_unit_MeV": MASS_UNIT_MEV,
         "source": f"CODATA via scipy.constants (scipy {scipy.__version__})",

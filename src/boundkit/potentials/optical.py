@@ -27,13 +27,12 @@ import math
 import numpy as np
 import scipy.constants as sc
 
-from ..units import FM_PER_BOHR, MEV_IN_HARTREE
+from ..units import FM_PER_BOHR, HBARC_MEV_FM, MEV_IN_HARTREE
 from .base import CallableTerm, Parameter, Term
 from .library import fermi_dirac
 
 __all__ = ["ComplexCallableTerm", "ImaginaryPart", "OpticalTRho", "OPTICAL"]
 
-_HBARC_MEV_FM = sc.hbar * sc.c / (sc.e * 1e6) * 1e15      # hbar c in MeV fm (CODATA)
 _NUCLEON_MEV = sc.physical_constants["proton mass energy equivalent in MeV"][0]
 
 
@@ -142,7 +141,7 @@ class OpticalTRho(Term):
         rho0 = v["A"] / (8 * math.pi * a**3 * float(fermi_dirac(3, c / a)))       # fm^-3
         b0 = complex(v["b0_re_fm"], v["b0_im_fm"])
         mu = v["mu_mev"]
-        self._depth = -2 * math.pi * _HBARC_MEV_FM**2 / mu * (1 + mu / _NUCLEON_MEV) * b0 * rho0  # MeV
+        self._depth = -2 * math.pi * HBARC_MEV_FM**2 / mu * (1 + mu / _NUCLEON_MEV) * b0 * rho0  # MeV
         self._c, self._a = c / FM_PER_BOHR, a / FM_PER_BOHR
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:
