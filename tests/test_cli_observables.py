@@ -265,3 +265,24 @@ def test_the_header_does_not_call_a_smooth_surface_a_kink():
     assert r.exit_code == 0, r.output
     line = next(x for x in r.output.splitlines() if x.startswith("potential breakpoints"))
     assert line == "potential breakpoints (jumps, kinks or surfaces, where the mesh puts an edge): r = 5 fm"
+
+
+@pytest.mark.parametrize("suffix", [".csv", ".npz"])
+def test_exported_states_give_level_energies_in_the_unit_asked(tmp_path, suffix):
+    """A tester found the --states files in hartree whatever --energy-unit said: write_states takes
+    energy_unit (MeV here) and keeps the hartree value beside it, both named in the units."""
+    import scipy.constants as sc
+
+    res = boundkit.solve("schrodinger", "coulomb", {"Z": 2}, levels=2, tol=1e-13)
+    path = write_states(res, tmp_path / f"he{suffix}", length_unit="fm", energy_unit="MeV")
+    meta, _ = read_states(path)
+    assert meta["units"]["energy"] == "MeV" and meta["units"]["energy_hartree"] == "hartree"
+    mev_per_hartree = sc.physical_constants["Hartree energy in eV"][0] * 1e-6        # CODATA via scipy
+    for lv, n in zip(meta["levels"], (1, 2)):
+        # -Z^2 / (2 n^2) hartree (Bethe & Salpeter 1957)
+        assert lv["energy_hartree"] == pytest.approx(-2.0 / n**2, rel=1e-12)
+        assert lv["energy"] == pytest.approx(-2.0 / n**2 * mev_per_hartree, rel=1e-12)
+    if suffix == ".csv":
+        assert path.read_text().splitlines()[1].endswith("level energies (below) in MeV")
+    with pytest.raises(ValueError, match=r"energy_unit: unknown unit 'furlong'; choose one of hartree, eV"):
+        write_states(res, tmp_path / f"x{suffix}", energy_unit="furlong")

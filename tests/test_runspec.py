@@ -830,3 +830,18 @@ def test_a_critical_section_of_a_spin_orbit_model_follows_each_j(tmp_path):
                                                      "spin_orbit": 20.0}, state="2p1/2", vary="depth", tol=1e-6,
                       units="nuclear", particle="neutron")
     assert values["2p1/2"] == pytest.approx(direct.value, rel=1e-9)
+
+
+def test_solve_states_files_follow_the_spec_energy_unit(tmp_path):
+    """[solve] states = true wrote the level energies of its radial-function files in hartree under
+    energy_unit = "eV" (a tester, for the command line's --states): they follow the spec now."""
+    from boundkit.io_states import read_states
+
+    text = FAST.replace("levels = 2", 'levels = 2\nenergy_unit = "eV"').replace("[solve]\n", "[solve]\nstates = true\n")
+    out = tmp_path / "o"
+    run(write(tmp_path, text), out)
+    meta, _ = read_states(out / "states-h-schrodinger-s.csv")
+    assert meta["units"]["energy"] == "eV"
+    one = next(lv for lv in meta["levels"] if lv["label"] == "1s")
+    # -1/2 hartree (Bethe & Salpeter 1957) in eV, CODATA via scipy.constants
+    assert one["energy"] == pytest.approx(-0.5 * sc.physical_constants["Hartree energy in eV"][0], rel=1e-12)

@@ -277,3 +277,42 @@ def test_a_level_the_solve_could_not_certify_is_missing_not_absent():
     certified = {"status": "ok", "message": "all 1 bound level(s) of this channel (2 requested)",
                  "levels": [{"label": "1s", "energy": -0.5, "error_estimate": 1e-15}]}
     assert [r["status"] for r in _rows_for(task, certified)] == ["ok", "absent"]
+
+
+def test_point_files_are_in_the_scan_units_and_name_them(tmp_path):
+    """A tester found points/*.json in hartree and bohr, with no units, beside parameters in MeV and fm
+    (scan.csv in keV): each point file now names its units and follows the scan's energy unit and the
+    length unit of its system; a rerun in another energy unit reads them back."""
+    import scipy.constants as sc
+
+    ws = {"radius": 5.0, "diffuseness": 0.6}
+    kw = dict(l=0, levels=1, workers=1, out=tmp_path, units="nuclear", particle="proton")
+    res = scan("schrodinger", "woods-saxon", ws, {"depth": [40.0, 50.0]}, energy_unit="keV", **kw)
+    kev_per_hartree = sc.physical_constants["Hartree energy in eV"][0] * 1e-3      # CODATA via scipy
+    fm_per_bohr = sc.physical_constants["Bohr radius"][0] / sc.femto
+    files = sorted((tmp_path / "points").glob("*.json"))
+    assert len(files) == 2
+    by_depth = {r["depth"]: r for r in res.rows}
+    for f in files:
+        rec = json.loads(f.read_text())
+        assert rec["units"]["energy"] == "keV" and rec["units"]["length"] == "fm"
+        assert rec["units"]["parameters"] == {"depth": "MeV", "diffuseness": "fm", "radius": "fm"}
+        lv = rec["result"]["levels"][0]
+        row = by_depth[rec["point"]["depth"]]
+        assert lv["energy"] == pytest.approx(row["energy"] * kev_per_hartree, rel=1e-12)
+        assert lv["error_estimate"] == pytest.approx(row["error_estimate"] * kev_per_hartree, rel=1e-12)
+        assert 5.0 < lv["r_max"] < 100.0        # a few radii of a 5 fm well, in fm (it was 5e-4: bohr)
+    # the 1s at 40 MeV in keV, as in scan.csv
+    assert by_depth[40.0]["energy"] * kev_per_hartree == pytest.approx(
+        float((tmp_path / "scan.csv").read_text().splitlines()[1].split(",")[4]), rel=1e-15)
+    again = scan("schrodinger", "woods-saxon", ws, {"depth": [40.0, 50.0]}, energy_unit="eV", **kw)
+    assert (again.solved, again.reused) == (0, 2)
+    for a, b in zip(again.rows, res.rows):
+        assert a["energy"] == pytest.approx(b["energy"], rel=4e-16)
+    # a point file that does not name its units is solved again
+    rec = json.loads(files[0].read_text())
+    del rec["units"]
+    files[0].write_text(json.dumps(rec))
+    third = scan("schrodinger", "woods-saxon", ws, {"depth": [40.0, 50.0]}, energy_unit="eV", **kw)
+    assert (third.solved, third.reused) == (1, 1)
+    assert fm_per_bohr == pytest.approx(boundkit.units.bohr_to(1.0, "fm"), rel=1e-10)

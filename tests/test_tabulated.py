@@ -387,3 +387,40 @@ def test_a_binary_file_is_called_binary_not_one_column(tmp_path):
     with pytest.raises(ValueError, match=r"line 1: not UTF-8 text \(a binary file, or another encoding: save it as "
                                          r"UTF-8\); a table is plain"):
         read_table(f)
+
+
+def _number_list(text: str) -> list[float]:
+    return [float(x) for x in text.split(",")]
+
+
+def test_table_warnings_speak_the_table_units(tmp_path, caplog):
+    """A tester found an fm/MeV table's warnings under --units nuclear in bohr and 'hartree bohr': they give
+    radii, V and r V in the units the table was written in (the file's units line, or r_unit/v_unit)."""
+    r = np.linspace(0.01, 20.0, 100)                  # fm; a 50 MeV well that ends at -0.1 MeV
+    v = -50.0 / (1 + np.exp((r - 5.0) / 0.6)) - 0.1
+    path = write_table(tmp_path / "ws.txt", r, v, header="# units: r=fm V=MeV")
+    with caplog.at_level(logging.WARNING, logger="boundkit.potentials.tabulated"):
+        TabulatedTerm(path, tail="zero", origin="coulomb")
+    text = "\n".join(caplog.messages)
+    assert "bohr" not in text and "hartree" not in text
+    # the user's own numbers: r V at the first three points in MeV fm, V and r at the last point
+    got = _number_list(re.search(r"first three points \((.*) MeV fm\)", text).group(1))
+    np.testing.assert_allclose(got, r[:3] * v[:3], rtol=1e-5)
+    m = re.search(r"V = (\S+) MeV at the last point \(r = (\S+) fm\) is far from 0", text)
+    assert float(m.group(1)) == pytest.approx(v[-1], rel=1e-5) and float(m.group(2)) == pytest.approx(20.0, rel=1e-5)
+    at = float(re.search(r"differ by that at r = (\S+) fm\)", text).group(1))
+    assert r[0] <= at <= r[-1]                        # a radius of the table, in fm
+    caplog.clear()
+    with caplog.at_level(logging.WARNING, logger="boundkit.potentials.tabulated"):
+        TabulatedTerm(r, v, tail="coulomb", tail_charge=3.0, r_unit="fm", v_unit="MeV")
+    assert re.search(r"differs from -r V = \S+ \(in hartree bohr\) at the last point \(r = 20 fm\)", caplog.text)
+    # -r V at the last point in hartree bohr, by hand from CODATA via scipy.constants
+    mev_fm_in_hartree_bohr = 1e6 / HARTREE_EV * 1e-15 / sc.physical_constants["Bohr radius"][0]
+    minus_rv = float(re.search(r"differs from -r V = (\S+) \(in", caplog.text).group(1))
+    assert minus_rv == pytest.approx(-r[-1] * v[-1] * mev_fm_in_hartree_bohr, rel=1e-5)
+
+
+def test_a_growing_exponential_tail_is_refused_in_the_table_units():
+    r = np.linspace(1.0, 10.0, 20)                    # angstrom; |V| grows as exp(+r / 2 angstrom)
+    with pytest.raises(ValueError, match=r"\(fitted slope of ln\|V\| = 0\.5 per angstrom\); use tail='zero'"):
+        TabulatedTerm(r, -np.exp(r / 2.0), tail="exponential", r_unit="angstrom", v_unit="eV")

@@ -465,3 +465,18 @@ def test_transitions_json_is_strict_json_and_stable_levels_say_why():
     rows = {ln.split()[0]: ln for ln in text.splitlines()[-3:]}
     assert rows["1s"].endswith("(stable: no lower level)")
     assert rows["2s"].endswith("(no E1 line to the 1 lower level)")
+
+
+def test_magnetic_line_strengths_state_their_unit_and_convention():
+    """A tester found the JSON units naming EJ only ('e^2 bohr^(2J) for EJ'), and the M1 strength of
+    2p3/2 - 2p1/2, 1.775e-5, equal to (4/3)(alpha/2)^2: S = 4/3 mu_B^2 (|<2p3/2||L + 2S||2p1/2>|^2 = 4/3,
+    standard angular-momentum algebra, common practice) with mu_B = alpha/2 e bohr (Gaussian atomic units,
+    alpha from scipy.constants), never stated. The units now name MJ and the convention."""
+    tr = _tr("dirac", multipoles=("E1", "M1", "E2"))
+    unit = tr.to_dict()["units"]["line_strength"]
+    assert "e^2 bohr^(2J) for EJ and for MJ" in unit and "mu_B = e hbar/(2 m_e c) = (alpha/2) e bohr" in unit
+    assert "an M1 strength in mu_B^2 is S/(alpha/2)^2" in unit
+    s = tr.line("2p3/2", "2p1/2", "M1").line_strength
+    # nonrelativistic value; the Dirac value differs by O((Z alpha)^2) = 5e-5 (measured 6.7e-6)
+    assert s == pytest.approx(4 / 3 * (ALPHA / 2) ** 2, rel=2e-5)
+    assert s / (ALPHA / 2) ** 2 == pytest.approx(4 / 3, rel=2e-5)

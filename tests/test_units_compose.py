@@ -82,14 +82,15 @@ def test_unstated_table_units_follow_the_system(tables, builtin_1s):
 def test_model_file_units_win_over_the_system(tmp_path, builtin_1s, file_units, system):
     """A model file states its own unit system; the caller's system does not convert it again."""
     scale_v, scale_r = (1.0, 1.0) if file_units == "nuclear" else (1 / MEV_PER_HARTREE, 1 / FM_PER_BOHR)
+    e_unit, r_unit = ("MeV", "fm") if file_units == "nuclear" else ("hartree", "bohr")
     path = tmp_path / "ws.toml"
     path.write_text(
         'name = "my-ws"\ndescription = "test well"\nsource = "test"\n'
         'expression = "-V0/(1 + exp((r - R)/a))"\n'
         f'units = "{file_units}"\n'
-        f'[parameters.V0]\ndefault = {WS["depth"] * scale_v!r}\nunit = "energy"\ndescription = "depth"\n'
-        f'[parameters.R]\ndefault = {WS["radius"] * scale_r!r}\nunit = "length"\ndescription = "radius"\n'
-        f'[parameters.a]\ndefault = {WS["diffuseness"] * scale_r!r}\nunit = "length"\ndescription = "a"\n')
+        f'[parameters.V0]\ndefault = {WS["depth"] * scale_v!r}\nunit = "{e_unit}"\ndescription = "depth"\n'
+        f'[parameters.R]\ndefault = {WS["radius"] * scale_r!r}\nunit = "{r_unit}"\ndescription = "radius"\n'
+        f'[parameters.a]\ndefault = {WS["diffuseness"] * scale_r!r}\nunit = "{r_unit}"\ndescription = "a"\n')
     term, _ = read_model_file(str(path)).build({})
     E = boundkit.solve("schrodinger", term, units=system, particle="proton").levels[0].energy
     assert E == pytest.approx(builtin_1s, rel=1e-8)

@@ -48,6 +48,16 @@ j_(J+1): Q_E1 -> C integral r (P_a P_b + Q_a Q_b) dr.
 
 Rates for every multipole (u upper, l lower, g = 2j + 1 or 2l + 1)
 --------------------------------------------------------------
+Line strengths are in atomic units in the Gaussian convention, where an
+electric and a magnetic 2^J-pole moment both have the unit e a0^J: S of an EJ
+or an MJ line is in e^2 a0^(2J) (:data:`LINE_STRENGTH_UNIT`). The Bohr magneton
+is then mu_B = e hbar / (2 m_e c) = (alpha/2) e a0 (c = 1/alpha), so an M1
+strength in mu_B^2 (as tables often give it) is S / (alpha/2)^2: the
+2p3/2 - 2p1/2 line of hydrogen has S = (4/3)(alpha/2)^2 e^2 a0^2 = 4/3 mu_B^2
+(|<2p3/2||L + 2S||2p1/2>|^2 = 4/3), up to (Z alpha)^2 corrections. (Gaussian
+atomic units for magnetic moments: common practice; the convention of the
+multipole form above.)
+
     S = |Q|^2,  A_ul = 2 (2J+1)(J+1) / (J [(2J+1)!!]^2) k^(2J+1) S / g_u,
     f_lu = m c^3 g_u A_ul / (2 omega^2 g_l)   (absorption oscillator strength),
 
@@ -78,7 +88,7 @@ from .observables import _integral, matrix_element
 from .units import C_AU, hartree_to, mass_mev_to_au
 from .wavefunctions import radial_derivative_state
 
-__all__ = ["Line", "LevelDecay", "TransitionResult", "transitions", "line", "wigner3j", "reduced_c"]
+__all__ = ["Line", "LevelDecay", "TransitionResult", "transitions", "line", "wigner3j", "reduced_c", "LINE_STRENGTH_UNIT"]
 
 log = logging.getLogger(__name__)
 
@@ -141,13 +151,20 @@ def _rate_factor(J: int) -> float:
 
 
 # --- results ---------------------------------------------------------------------------
+LINE_STRENGTH_UNIT = ("atomic units: e^2 bohr^(2J) for EJ and for MJ (Gaussian convention, magnetic 2^J-pole "
+                      "moments in e bohr^J: mu_B = e hbar/(2 m_e c) = (alpha/2) e bohr; an M1 strength in mu_B^2 "
+                      "is S/(alpha/2)^2)")
+"""Unit of the line strengths S (the ``units`` of :meth:`TransitionResult.to_dict`)."""
+
 
 @dataclass(frozen=True, slots=True, repr=False)
 class Line:
     """One radiative line upper -> lower.
 
-    ``energy`` in ``energy_unit``; ``line_strength`` in atomic units
-    (e^2 a0^(2J) for EJ); ``einstein_a`` in 1/s; ``oscillator_strength`` the
+    ``energy`` in ``energy_unit``; ``line_strength`` in atomic units,
+    e^2 a0^(2J) for EJ and for MJ (Gaussian convention: mu_B = (alpha/2) e a0,
+    so an M1 strength in mu_B^2 is S / (alpha/2)^2; :data:`LINE_STRENGTH_UNIT`);
+    ``einstein_a`` in 1/s; ``oscillator_strength`` the
     absorption f of lower -> upper. ``line_strength_velocity`` holds the line
     strength in the second gauge (velocity form) and ``long_wavelength_a`` the
     rate in the long-wavelength limit (Dirac), both for comparison;
@@ -247,7 +264,7 @@ class TransitionResult:
     def to_dict(self) -> dict:
         return {"equation": self.equation, "potential": self.potential,
                 "units": {"energy": self.energy_unit, "wavelength": "nm", "einstein_a": "1/s",
-                          "line_strength": "atomic units (e^2 bohr^(2J) for EJ)",
+                          "line_strength": LINE_STRENGTH_UNIT,
                           "lifetime": "s (null: no line down, stable here)"},
                 "status": self.status, "message": self.message, "constants": self.constants,
                 "settings": self.settings, "lines": [ln.to_dict() for ln in self.lines],

@@ -302,6 +302,46 @@ def _dimension(unit: str) -> tuple[int, int] | None:
     return powers[0], powers[1]
 
 
+def unit_in_atomic(unit: str) -> tuple[int, int, float] | None:
+    """(energy power, length power, value of one ``unit`` in hartree^p bohr^q) of a unit written from the
+    energy units (:data:`ENERGY_UNITS`, exact spelling) and length units (:data:`LENGTH_UNITS`) with
+    integer powers, ``*`` (or a space) between factors and at most one ``/``: ``MeV``, ``1/fm``,
+    ``eV/angstrom^2``, ``hartree*bohr``. A number is ``1``, ``e`` (a charge in units of e) or empty.
+    None when a factor is not one of these units.
+    """
+    unit = str(unit).strip()
+    if unit in ("", "1", "e"):
+        return (0, 0, 1.0)
+    if unit.count("/") > 1:
+        return None
+    num, slash, den = unit.partition("/")
+    energy = length = 0
+    value = 1.0
+    for part, sign in ((num, 1), (den, -1)):
+        factors = part.replace("*", " ").split()
+        if not factors and (sign == 1 or slash):
+            return None                                         # "MeV/" has no denominator
+        for factor in factors:
+            base, hat, exp = factor.rpartition("^")
+            if factor in ENERGY_UNITS or not hat:               # cm^-1 is an energy unit of its own
+                base, exp = factor, "1"
+            try:
+                p = sign * int(exp)
+            except ValueError:
+                return None
+            if base == "1" and sign == 1:
+                continue
+            if base in ENERGY_UNITS:
+                energy += p
+                value /= ENERGY_UNITS[base] ** p
+            elif base in LENGTH_UNITS:
+                length += p
+                value /= LENGTH_UNITS[base] ** p
+            else:
+                return None
+    return energy, length, value
+
+
 def to_atomic(value: float, unit: str, system: str = "atomic") -> float:
     """Convert a parameter given in ``system`` to atomic units.
 

@@ -18,6 +18,16 @@ same way with ``--potential-file my.toml``. The format is ours:
     unit = "e"
     description = "nuclear charge number"
 
+A parameter's ``unit`` is the unit of its value (the default, and a value given
+with ``params`` or ``--param``). It is written from the energy units (hartree,
+eV, meV, keV, MeV, cm^-1, MHz, GHz, THz) and length units (bohr, fm, pm,
+angstrom, nm) with integer powers: ``MeV``, ``1/fm``, ``eV/angstrom^2``,
+``hartree*bohr^2``; a number is ``"1"`` (or ``"e"`` for a charge). A value in
+another unit than the file's system reads (hartree and bohr, or MeV and fm with
+``units = "nuclear"``) is converted to it: ``R`` in ``"bohr"`` in a nuclear
+file is R bohr, not R fm. A unit boundkit does not know, or one of another
+dimension than a built-in term's parameter (a radius in MeV), is refused.
+
 TOML has no complex numbers: a complex default is a string in Python's
 notation, ``default = "-50 - 5j"`` (spaces allowed), and only a model with an
 ``expression`` takes one (the expression may also contain imaginary numbers
@@ -30,6 +40,7 @@ refused with the file, the key and its line.
 from __future__ import annotations
 
 import math
+import numbers
 import re
 import tomllib
 from dataclasses import dataclass, field
@@ -59,6 +70,9 @@ class ModelSpec:
     units: str = "atomic"
     role: str = "vector"
     parameters: Mapping[str, dict] = field(default_factory=dict)
+    factors: Mapping[str, float] = field(default_factory=dict)
+    """Per parameter: its value in the declared ``unit`` times this is its value in the unit it is read
+    in (the file's system, or the built-in term's unit); 1 when they are the same unit."""
 
     @property
     def defaults(self) -> dict[str, float | complex]:
@@ -70,13 +84,15 @@ class ModelSpec:
         """The term this model describes, with the file's defaults under ``params``.
 
         Returns (term, names of the parameters it took). Parameters are in the
-        file's unit system; the term comes back in atomic units with
+        units the file declares for them (converted here to the file's unit
+        system, :attr:`factors`); the term comes back in atomic units with
         ``fixed_units`` set, so a caller's ``units=`` does not convert it again.
         """
         from . import TERMS, _make_term
         from .expression import ExpressionTerm
 
         values = {**self.defaults, **{k: v for k, v in params.items() if k in self.parameters}}
+        values = {k: v * self.factors[k] if k in self.factors and _is_number(v) else v for k, v in values.items()}
         if self.expression is not None:
             term = ExpressionTerm(self.expression, values)
             term.label = self.name
@@ -91,6 +107,64 @@ class ModelSpec:
         term = _make_term(self.term, values, used, self.units)
         term.fixed_units = True
         return term, used | (set(self.parameters) & set(params))
+
+
+def _is_number(value) -> bool:
+    """A plain number (a parameter may also be an object that follows another, such as NuclearRadius)."""
+    return isinstance(value, numbers.Number) and not isinstance(value, bool)
+
+
+def _unit_text(energy: int, length: int, system: str) -> str:
+    """``MeV*fm^2``, ``1/fm``, ``hartree``: the unit of these powers in a unit system ('1' for a number)."""
+    from ..units import system_units
+
+    names = system_units(system)
+    up = [n + (f"^{p}" if p != 1 else "") for n, p in zip(names, (energy, length)) if p > 0]
+    down = [n + (f"^{-p}" if p != -1 else "") for n, p in zip(names, (energy, length)) if p < 0]
+    text = "*".join(up) or "1"
+    return text + ("/" + "*".join(down) if down else "")
+
+
+def _read_in(term: str | None, pname: str, system: str) -> str | None:
+    """The unit a parameter is read in: a built-in term's own (in the file's system), or None for an
+    expression's parameter (it takes the file's system in the dimension of its declared unit)."""
+    from . import TERMS
+    from ..units import unit_label
+
+    cls = TERMS.get(term) if term is not None else None
+    unit = next((p.unit for p in getattr(cls, "parameters", ()) if p.name == pname), None)
+    return None if unit is None else unit_label(unit, system)
+
+
+_DIMENSION_NAMES = {(1, 0): "an energy", (0, 1): "a length", (0, -1): "an inverse length", (0, 0): "a number"}
+
+
+def _dimension_name(energy: int, length: int) -> str:
+    return _DIMENSION_NAMES.get((energy, length), f"energy^{energy} length^{length}")
+
+
+def _unit_factor(unit: str, pname: str, term: str | None, system: str) -> float:
+    """Factor from the declared ``unit`` to the unit parameter ``pname`` is read in; ValueError (its message
+    without the file's prefix) when the unit is unknown or of another dimension than the term reads."""
+    from ..units import ENERGY_UNITS, LENGTH_UNITS, unit_in_atomic
+
+    expected = _read_in(term, pname, system)
+    given = unit_in_atomic(unit)
+    if given is None:
+        hint = f" (term {term!r} reads it in {expected})" if expected is not None else ""
+        raise ValueError(f"parameter {pname!r}: unknown unit {unit!r}{hint}; write a unit of energy "
+                         f"({', '.join(ENERGY_UNITS)}) and/or length ({', '.join(LENGTH_UNITS)}) with integer "
+                         "powers, such as fm, 1/fm or MeV*fm^2, or 1 for a number")
+    energy, length, value = given
+    if expected is None:
+        expected = _unit_text(energy, length, system)
+    want = unit_in_atomic(expected)              # every built-in term's unit is one of these (a test checks)
+    if want[:2] != (energy, length):
+        raise ValueError(f"parameter {pname!r}: unit {unit!r} is {_dimension_name(energy, length)}, but term "
+                         f"{term!r} reads {pname} as {_dimension_name(*want[:2])} in {expected}; write "
+                         f"unit = \"{expected}\" (or another unit of {_dimension_name(*want[:2])}) with the value "
+                         "in it")
+    return value / want[2]
 
 
 def _complex_default(text: str) -> complex:
@@ -155,7 +229,7 @@ def read_model_file(path: str | Path, text: str | None = None) -> ModelSpec:
         raise bad("units", "must be \"atomic\" or \"nuclear\"")
     if data.get("role", "vector") not in ("vector", "scalar"):
         raise bad("role", "must be \"vector\" or \"scalar\"")
-    params = {}
+    params, factors = {}, {}
     for pname, spec in data.get("parameters", {}).items():
         if not isinstance(spec, dict):
             raise bad(pname, "each parameter is a table [parameters.NAME] with unit, description, default")
@@ -177,10 +251,15 @@ def read_model_file(path: str | Path, text: str | None = None) -> ModelSpec:
             if k not in spec:
                 raise bad(pname, f"[parameters.{pname}] needs {k} = \"...\"")
         params[pname] = dict(spec)
+        try:
+            factors[pname] = _unit_factor(spec["unit"], pname, data.get("term"), data.get("units", "atomic"))
+        except ValueError as exc:
+            raise bad("unit", str(exc), pname) from None
     return ModelSpec(name=data["name"], description=data["description"], source=data["source"],
                      path=str(path), term=data.get("term"), expression=data.get("expression"),
                      formula=data.get("formula", data.get("expression", "")),
-                     units=data.get("units", "atomic"), role=data.get("role", "vector"), parameters=params)
+                     units=data.get("units", "atomic"), role=data.get("role", "vector"), parameters=params,
+                     factors=factors)
 
 
 def library_models() -> dict[str, ModelSpec]:

@@ -240,7 +240,8 @@ def read_table(path: str | os.PathLike, r_unit: str = "bohr", v_unit: str = "har
 
 
 def _read_table(path, r_unit: str, v_unit: str, max_points: int):
-    """:func:`read_table` that also returns the set of columns the file's units line states."""
+    """:func:`read_table` that also returns the set of columns the file's units line states, and the
+    (length, energy) units the table was read in."""
     name = os.fspath(path)
     r_default = _length_unit(r_unit, "r_unit")
     v_default = _energy_unit(v_unit, "v_unit")
@@ -308,7 +309,7 @@ def _read_lines(lines, name: str, r_default: str, v_default: str, max_points: in
                              f"{units[key]} but {arg}={given!r} was given; drop one of them")
     r_arr = np.asarray(rs) * LENGTH_UNITS[ru]
     v_arr = np.asarray(vs) * ENERGY_UNITS[vu]
-    return r_arr, v_arr, set(units)
+    return r_arr, v_arr, set(units), (ru, vu)
 
 
 def _check_arrays(r, V) -> tuple[np.ndarray, np.ndarray]:
@@ -389,21 +390,23 @@ class TabulatedTerm(Term):
         if V is None:
             if not isinstance(table, (str, os.PathLike)):
                 raise ValueError("table: give a file path, or the arrays r and V")
-            r, v, in_file = _read_table(table, r_unit, v_unit, max_points)
+            r, v, in_file, self.table_units = _read_table(table, r_unit, v_unit, max_points)
             stated |= in_file
             self.path: str | None = os.fspath(table)
             self.label = label or os.path.basename(self.path)
             self.source = f"table file {self.path}"  # type: ignore[misc]
         else:
             r, v = _check_arrays(table, V)
-            r = r * LENGTH_UNITS[_length_unit(r_unit, "r_unit")]
-            v = v * ENERGY_UNITS[_energy_unit(v_unit, "v_unit")]
+            self.table_units = (_length_unit(r_unit, "r_unit"), _energy_unit(v_unit, "v_unit"))
+            r = r * LENGTH_UNITS[self.table_units[0]]
+            v = v * ENERGY_UNITS[self.table_units[1]]
             self.path = None
             self.label = label or "table"
         big = np.nonzero((np.abs(v) > MAX_MAGNITUDE) | (np.abs(r * v) > MAX_MAGNITUDE))[0]
         if big.size:
-            raise ValueError(f"table {shorten(self.label)}: point {big[0] + 1} has V = {v[big[0]]:.3g} hartree, beyond "
-                             f"{MAX_MAGNITUDE:g} in magnitude (or r V is); check the units of the table")
+            raise ValueError(f"table {shorten(self.label)}: point {big[0] + 1} has V = {self._in_v(v[big[0]]):.3g} "
+                             f"{self.table_units[1]} ({v[big[0]]:.3g} hartree), beyond {MAX_MAGNITUDE:g} hartree in "
+                             "magnitude (or r V is, in hartree bohr); check the units of the table")
         self.r, self.V = r, v
         self.values = {}
         self.stated_units = frozenset(stated)
@@ -413,10 +416,11 @@ class TabulatedTerm(Term):
         self.interpolation_spread, where = self._spread(r, r * v)
         if self.interpolation_spread > SPREAD_WARN:
             log.warning("%s: the interpolant of r V is uncertain by %.2g of max |r V| (splines of degree %d and %d "
-                        "differ by that at r = %.4g bohr); a level can be off by up to about that fraction of max |r V| <1/r>, "
+                        "differ by that at r = %.4g %s); a level can be off by up to about that fraction of max |r V| <1/r>, "
                         "far more than that fraction of a shallow level's energy (its error estimate includes it, "
                         "to first order): give the table more points there",
-                        self.label, self.interpolation_spread, self.degree, self._other_degree(len(r)), where)
+                        self.label, self.interpolation_spread, self.degree, self._other_degree(len(r)),
+                        self._in_r(where), self.table_units[0])
         self._y0 = float(r[0] * v[0])
         if tail_charge is not None and self.tail != "coulomb":
             raise ValueError(f"tail_charge: only used with tail='coulomb', not tail={self.tail!r}; drop it")
@@ -426,14 +430,15 @@ class TabulatedTerm(Term):
         if self.tail == "coulomb":
             self._zinf = -y_last if tail_charge is None else check_parameter("tail_charge", tail_charge)
             if tail_charge is not None and abs(-y_last - self._zinf) > 1e-6 * max(1.0, abs(self._zinf)):
-                log.warning("%s: the Coulomb tail charge %g differs from -r V = %g at the last point "
-                            "(r = %g bohr); V jumps there", self.label, self._zinf, -y_last, r[-1])
+                log.warning("%s: the Coulomb tail charge %g differs from -r V = %g (in hartree bohr) at the last "
+                            "point (r = %g %s); V jumps there", self.label, self._zinf, -y_last, self._in_r(r[-1]),
+                            self.table_units[0])
             self._warn_unsteady(r[-3:], r[-3:] * v[-3:], "last", "tail='coulomb'")
         elif self.tail == "zero":
             if abs(v[-1]) > 1e-6 * float(np.max(np.abs(v))):
-                log.warning("%s: V = %g hartree at the last point (r = %g bohr) is far from 0 but "
+                log.warning("%s: V = %g %s at the last point (r = %g %s) is far from 0 but "
                             "tail='zero' sets V = 0 beyond it; extend the table or choose another tail",
-                            self.label, v[-1], r[-1])
+                            self.label, self._in_v(v[-1]), self.table_units[1], self._in_r(r[-1]), self.table_units[0])
         else:
             self._decay = self._fit_decay(r, v)
         if self.origin == "coulomb":
@@ -510,10 +515,19 @@ class TabulatedTerm(Term):
             out[below] = slope * (r[below] - r0)
         return out
 
+    def _in_r(self, r):
+        """Radii in bohr in the table's own length unit."""
+        return r / LENGTH_UNITS[self.table_units[0]]
+
+    def _in_v(self, v):
+        """Energies in hartree in the table's own energy unit."""
+        return v / ENERGY_UNITS[self.table_units[1]]
+
     def _warn_unsteady(self, r, y, which: str, option: str) -> None:
         if abs(y[0] - y[-1]) > 1e-3 * max(float(np.max(np.abs(y))), 1e-300):
-            log.warning("%s: r V is not steady over the %s three points (%s hartree bohr); %s assumes it is",
-                        self.label, which, ", ".join(f"{x:.6g}" for x in y), option)
+            ru, vu = self.table_units
+            log.warning("%s: r V is not steady over the %s three points (%s %s %s); %s assumes it is",
+                        self.label, which, ", ".join(f"{x:.6g}" for x in self._in_v(self._in_r(y))), vu, ru, option)
 
     def _fit_decay(self, r: np.ndarray, v: np.ndarray) -> float:
         rr, vv = r[-_EXP_FIT_POINTS:], v[-_EXP_FIT_POINTS:]
@@ -523,7 +537,8 @@ class TabulatedTerm(Term):
         slope = float(np.polyfit(rr, np.log(np.abs(vv)), 1)[0])
         if not slope < 0:
             raise ValueError(f"tail='exponential': |V| does not decrease over the last {_EXP_FIT_POINTS} points "
-                             f"(fitted slope of ln|V| = {slope:.3g} per bohr); use tail='zero' or tail='coulomb'")
+                             f"(fitted slope of ln|V| = {slope * LENGTH_UNITS[self.table_units[0]]:.3g} per "
+                             f"{self.table_units[0]}); use tail='zero' or tail='coulomb'")
         return -1.0 / slope
 
     def _evaluate(self, r: np.ndarray) -> np.ndarray:

@@ -66,7 +66,7 @@ class SolveRunner:
                     if sec.states and res.levels:
                         from ..io_states import states_csv_text
                         stem = re.sub(r"[^A-Za-z0-9.=+-]+", "_", f"states-{mname}-{eq}-{cname}")
-                        self.write(f"{stem}.csv", states_csv_text(res, self.l_unit))
+                        self.write(f"{stem}.csv", states_csv_text(res, self.l_unit, energy_unit=self.e_unit))
                     for lv in res.levels:
                         row = {"model": mname, "equation": eq, "channel": cname, "label": lv.label,
                                "n": level_n(lv.nodes, lv.l, spec.labels),

@@ -11,7 +11,9 @@ another level.
 
 With an ``out`` directory every finished point is written at once, as its
 own small JSON file (temporary file + rename, so a file is either whole or
-absent); a rerun with the same directory reuses the points already there.
+absent), in the scan's energy unit and the length unit of its unit system,
+named in the file's ``units``; a rerun with the same directory reuses the
+points already there.
 At the end the whole table is written as ``scan.csv`` and ``scan.json``.
 """
 from __future__ import annotations
@@ -42,7 +44,7 @@ from .._checks import OptionError, shorten
 from .._threads import usable_cores
 from ..states import check_convention, convert_label
 from ..solver import check_levels, solve
-from ..units import column, constants_record, hartree_to
+from ..units import ENERGY_UNITS, LENGTH_UNITS, column, constants_record, hartree_to, system_units
 from ..units import energy_unit as _energy_unit
 from . import _common
 from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, check_varied, describe,
@@ -54,7 +56,7 @@ __all__ = ["scan", "ScanResult", "linspace", "logspace", "parse_vary"]
 log = logging.getLogger(__name__)
 
 _POINTS_DIR = "points"
-_FORMAT = 1   # version of the point files; part of the key
+_FORMAT = 2   # version of the point files; part of the key (2: levels in the units the file names)
 
 
 def linspace(start: float, stop: float, num: int, max_points: int = MAX_GRID_POINTS) -> list[float]:
@@ -130,6 +132,26 @@ def solve_point(task: Mapping[str, Any]) -> dict:
                "r_max": float(lv.state.r[-1])} for lv in res.levels]
     return {"key": task["key"], "status": res.status, "message": res.message, "levels": levels,
             "seconds": time.perf_counter() - t0}
+
+
+def _record_in(record: dict, energy: str, length: str, inverse: bool = False) -> dict:
+    """A point's record with its levels' energies in ``energy`` and r_max in ``length`` (from hartree and
+    bohr; ``inverse``: back to them)."""
+    fe, fl = ENERGY_UNITS[energy], LENGTH_UNITS[length]
+    if inverse:
+        fe, fl = 1 / fe, 1 / fl
+    levels = [{**lv, "energy": lv["energy"] * fe, "error_estimate": lv["error_estimate"] * fe,
+               "r_max": lv["r_max"] * fl} for lv in record["levels"]]
+    return {**record, "levels": levels}
+
+
+def _stored_record(rec: dict) -> dict | None:
+    """The record of a point file in hartree and bohr, or None when its units are not ones boundkit writes."""
+    units = rec.get("units")
+    if not isinstance(units, dict) or units.get("energy") not in ENERGY_UNITS or \
+            units.get("length") not in LENGTH_UNITS or not isinstance(rec.get("result"), dict):
+        return None
+    return _record_in(rec["result"], units["energy"], units["length"], inverse=True)
 
 
 def _point_key(task: Mapping[str, Any], potential_id: Any) -> str:
@@ -564,8 +586,9 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         (written to ``out`` as they arrive). A point whose worker died is an
         ``error`` row that a rerun solves again.
     out : path, optional
-        Directory for the point files (``points/<key>.json``) and for
-        ``scan.csv`` and ``scan.json``. Points already there are reused.
+        Directory for the point files (``points/<key>.json``, each naming its
+        units) and for ``scan.csv`` and ``scan.json``. Points already there are
+        reused.
     progress : bool, None or callable
         Progress bar on stderr: None shows it when stderr is a terminal and
         the scan runs for more than two seconds. A callable is called as
@@ -586,8 +609,9 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         Labelling convention of the rows (``2p1/2``, ``0p1/2`` or ``1P1/2``;
         :mod:`boundkit.states`).
     energy_unit : str, optional
-        Unit of the energies in ``scan.csv`` and ``scan.json`` under ``out``
-        (default hartree; MeV with ``units='nuclear'``); the result itself
+        Unit of the energies in ``scan.csv``, ``scan.json`` and the point files
+        under ``out`` (default hartree; MeV with ``units='nuclear'``; lengths
+        there are in bohr, or fm with ``units='nuclear'``); the result itself
         keeps hartree (convert with ``series(..., unit=)``, ``to_csv(unit)``).
     **solve_kwargs
         Passed to :func:`boundkit.solve` (``particle``, ``mass_mev``,
@@ -676,6 +700,12 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
             task["key"] = _point_key(task, potential_id)
             tasks.append(task)
     units = solve_kwargs.get("units", "atomic")
+    length_unit = system_units(units)[1]
+    fixed_names = sorted({k for t in tasks[:1] for k in t["params"]} - set(names))
+    point_units = {"energy": file_unit, "length": length_unit,
+                   "parameters": parameter_units(potential, scalar, names + fixed_names, units),
+                   "note": f"energy and error_estimate in {file_unit}, r_max in {length_unit}; parameters in "
+                           "their units ('' for a charge or a number, or when not known)"}
     records: dict[str, dict] = {}
     outdir = Path(out) if out is not None else None
     problems: list[str] = []
@@ -695,8 +725,9 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
                 except (OSError, ValueError):
                     log.warning("scan: unreadable point file %s is solved again", f)
                     continue
-                if rec.get("key") == t["key"] and "result" in rec:
-                    records[t["key"]] = rec["result"]
+                stored = _stored_record(rec) if rec.get("key") == t["key"] else None
+                if stored is not None:
+                    records[t["key"]] = stored
     reused = len(records)
     todo = [t for t in tasks if t["key"] not in records]
     _check_input(todo)
@@ -712,9 +743,10 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         if outdir is not None and not problems and not record.get("transient"):
             t = by_key[key]
             _write_or_note(problems, outdir / _POINTS_DIR / f"{key}.json", write_json_atomic, {
-                "key": key, "point": t["point"], "params": t["params"], "equation": t["equation"],
-                "channel": t["channel"], "levels": t["levels"], "tol": t["tol"], "method": t["method"],
-                "potential": describe(t["potential"]), "result": record})
+                "key": key, "units": point_units, "point": t["point"], "params": t["params"],
+                "equation": t["equation"], "channel": t["channel"], "levels": t["levels"], "tol": t["tol"],
+                "method": t["method"], "potential": describe(t["potential"]),
+                "result": _record_in(record, file_unit, length_unit)})
         bar.update(solved)
 
     try:
