@@ -65,11 +65,12 @@ def test_the_estimate_bounds_the_error_across_a_sharp_surface(depth, R, a, exact
 
 # Dirac kappa = -1 in a Fermi nucleus, Z = 92, rms radius 7.473720969742803 fm (a case of the cross-method sweep):
 # the 1s by the matched shooting of tests/test_locator_shooting.py (_matched_energy, DOP853 at rtol 1e-13), cuts
-# (r0, rm, r1) = (1e-9, 2e-3, 0.5), (1e-8, 1e-3, 0.6), (1e-9, 5e-3, 0.45) bohr: -4850.78271452042{5, 9, 4}
-# hartree, computed 2026-12-05. Before, at tol 1e-7 the elements gave -4850.7827367468 +- 3.3e-7: 2.2e-5 off
+# (r0, rm, r1) = (1e-9, 2e-3, 0.5), (1e-8, 1e-3, 0.6), (1e-9, 5e-3, 0.45) bohr: -4850.7827145203{43, 40, 40}
+# hartree, computed 2026-12-05 with fm converted by a0 = alpha hbar c / E_h (with CODATA's tabulated a0, 5.6e-12
+# larger, the radius in bohr was that much smaller and the 1s -4850.78271452042{5, 9, 4}). Before, at tol 1e-7 the elements gave -4850.7827367468 +- 3.3e-7: 2.2e-5 off
 # (rungs of 121 and 151 unknowns agreed by accident; the next moved by 2.2e-5).
 FERMI_RMS = 7.473720969742803
-FERMI_1S = -4850.782714520427
+FERMI_1S = -4850.782714520343
 
 
 @pytest.mark.parametrize("tol", [1e-7, 1e-10])
