@@ -39,6 +39,24 @@ def _rms_rule(text: str | None, values: dict, varied=()) -> None:
     values["rms_fm"] = NuclearRadius(r0, apz)
 
 
+def _check_vary(text: str, values: list[float]) -> None:
+    """Refuse what a run spec's [scan] refuses (:mod:`boundkit.runspec.spec`): a range of fewer than 2
+    points (``START:STOP:1`` drops STOP) and a value given twice (solved twice)."""
+    name, _, rhs = str(text).partition("=")
+    name, parts = name.strip(), [p.strip() for p in rhs.split(":")]
+    if len(parts) > 1 and len(values) < 2:
+        fail(f"--vary {text!r}: a range needs N >= 2 points (N = 1 drops STOP = {parts[1]}); write e.g. "
+             f"{name}={parts[0]}:{parts[1]}:2, or {name}={parts[0]} for one value")
+    seen = set()
+    for v in values:
+        if v in seen:
+            if len(parts) > 1:
+                fail(f"--vary {text!r}: the range gives the value {v:g} more than once (it would be solved again); "
+                     f"make START and STOP differ, or write {name}={v:g} for one value")
+            fail(f"--vary {text!r}: the value {v:g} is listed twice (it would be solved twice); list each value once")
+        seen.add(v)
+
+
 # --- scan -----------------------------------------------------------------------------------
 @click.command("scan")
 @equation_option(multiple=True)
@@ -84,7 +102,11 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
         if len(varies) > 2:
             raise ValueError("--vary: give one or two parameters")
         limit = {} if max_points is None else {"max_points": max_points}
-        vary = dict(parse_vary(v, **limit) for v in varies)
+        vary = {}
+        for text in varies:
+            name, values = parse_vary(text, **limit)
+            _check_vary(text, values)
+            vary[name] = values
         if len(vary) < len(varies):
             raise ValueError("--vary: each parameter may be varied once")
         # expression and model-file terms are built now: give them the first value of each varied parameter

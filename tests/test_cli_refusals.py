@@ -1,0 +1,36 @@
+"""Command-line input that used to be accepted and silently ignored or mishandled (exit 0), or refused in more
+than one line or without a fix named (Tester B, 2026-12-05): each is now one line `boundkit: error: ...`, exit 2."""
+from __future__ import annotations
+
+import re
+
+import pytest
+from click.testing import CliRunner
+
+from boundkit.cli import main
+
+
+def run(*args):
+    return CliRunner().invoke(main, [str(a) for a in args])
+
+
+def one_line(res, pattern):
+    assert res.exit_code == 2, res.output
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1, res.stderr
+    assert re.match(pattern, lines[0]), lines[0]
+    assert "Traceback" not in res.output
+
+
+# --- p9: --vary as strict as a run spec's [scan] values and range --------------------------------
+@pytest.mark.parametrize("vary, pattern", [
+    ("Z=1,1,2", r"^boundkit: error: --vary 'Z=1,1,2': the value 1 is listed twice \(it would be solved twice\); "
+                r"list each value once$"),
+    ("Z=1,2,1.0", r"^boundkit: error: --vary 'Z=1,2,1.0': the value 1 is listed twice"),
+    ("Z=1:2:1", r"^boundkit: error: --vary 'Z=1:2:1': a range needs N >= 2 points \(N = 1 drops STOP = 2\); write "
+                r"e.g. Z=1:2:2, or Z=1 for one value$"),
+    ("Z=1:1:3", r"^boundkit: error: --vary 'Z=1:1:3': the range gives the value 1 more than once \(it would be solved "
+                r"again\); make START and STOP differ, or write Z=1 for one value$"),
+])
+def test_vary_refuses_what_a_run_spec_refuses(vary, pattern):
+    one_line(run("scan", "--vary", vary, "--levels", "1"), pattern)
