@@ -2,6 +2,7 @@
 than one line or without a fix named (Tester B, 2026-12-05): each is now one line `boundkit: error: ...`, exit 2."""
 from __future__ import annotations
 
+import os
 import re
 
 import pytest
@@ -34,3 +35,25 @@ def one_line(res, pattern):
 ])
 def test_vary_refuses_what_a_run_spec_refuses(vary, pattern):
     one_line(run("scan", "--vary", vary, "--levels", "1"), pattern)
+
+
+# --- p10: options that nothing reads --------------------------------------------------------------
+@pytest.mark.parametrize("option, value", [("--table-tail", "zero"), ("--table-tail-charge", "3"),
+                                           ("--table-origin", "finite"), ("--table-r-unit", "fm"),
+                                           ("--table-v-unit", "MeV"), ("--table-tail", "coulomb")])
+def test_table_options_without_a_table_are_refused(option, value):
+    one_line(run("solve", option, value),
+             rf"^boundkit: error: {option}: there is no table to apply it to \(a --potential-file of r and V other "
+             r"than a \.toml model file\); drop it, or give the table$")
+
+
+def test_table_options_with_a_model_file_only_are_refused():
+    model = os.path.join(os.path.dirname(__file__), "..", "potentials", "hulthen.toml")
+    res = run("solve", "--potential-file", model, "--param", "Z=1", "--param", "delta=0.1", "--table-origin", "finite")
+    one_line(res, r"^boundkit: error: --table-origin: there is no table")
+
+
+def test_converge_refuses_an_order_for_the_spectral_family_alone():
+    one_line(run("converge", "--method", "spectral", "--order", "4"),
+             r"^boundkit: error: --order: only the finite-difference family takes an order; drop it, or use "
+             r"--method finite-difference or both$")

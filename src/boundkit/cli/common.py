@@ -19,7 +19,8 @@ from .._checks import shorten
 
 __all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
            "check_output_path", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_text",
-           "levels_arg", "level_count", "channel_number", "parse_params", "report_unit", "report_length", "api_message"]
+           "levels_arg", "level_count", "channel_number", "parse_params", "report_unit", "report_length", "api_message",
+           "given_option"]
 
 EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
@@ -56,6 +57,17 @@ def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
     if sep and head in options:
         return f"{options[head]}:{rest}"
     return text
+
+
+def given_option(name: str) -> str | None:
+    """The option (``--table-tail``) of the parameter ``name`` of the running command when the user gave it on
+    the command line (or in the environment), None when it holds its default or no command is running."""
+    from click.core import ParameterSource
+
+    ctx = click.get_current_context(silent=True)
+    if ctx is None or ctx.get_parameter_source(name) in (None, ParameterSource.DEFAULT, ParameterSource.DEFAULT_MAP):
+        return None
+    return next((p.opts[0] for p in ctx.command.params if p.name == name), f"--{name.replace('_', '-')}")
 
 
 def clip_message(message: str) -> str:

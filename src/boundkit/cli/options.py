@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import click
 
-from .common import channel_number, parse_params
+from .common import channel_number, given_option, parse_params
 
 __all__ = ["CHANNEL_OPTIONS", "potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
            "levels_option", "tol_option", "method_option", "order_option", "particle_options", "energy_unit_option",
@@ -195,6 +195,12 @@ def build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
     from ..potentials.expression import ExpressionTerm
 
     values = parse_params(params)
+    if not any(not str(path).lower().endswith(".toml") for path in files):
+        for name in ("table_tail", "table_tail_charge", "table_origin", "table_r_unit", "table_v_unit"):
+            option = given_option(name)
+            if option:
+                raise ValueError(f"{option}: there is no table to apply it to (a --potential-file of r and V other "
+                                 "than a .toml model file); drop it, or give the table")
     vector, scalar = list(potentials), list(scalars)
     for text in exprs:
         vector.append(ExpressionTerm(text, subset_params(text, values)))
