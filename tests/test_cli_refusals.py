@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import os
 import re
+import subprocess
+import sys
 
 import pytest
 from click.testing import CliRunner
@@ -57,3 +59,31 @@ def test_converge_refuses_an_order_for_the_spectral_family_alone():
     one_line(run("converge", "--method", "spectral", "--order", "4"),
              r"^boundkit: error: --order: only the finite-difference family takes an order; drop it, or use "
              r"--method finite-difference or both$")
+
+
+# --- p12: one line for a potential that is not finite -------------------------------------------
+@pytest.mark.parametrize("expr", ["-exp(1000*r)", "-sqrt(-r)"])
+def test_a_potential_not_finite_gives_one_line(expr):
+    proc = subprocess.run([sys.executable, "-m", "boundkit.cli", "solve", "--expr", expr], capture_output=True,
+                          text=True, timeout=300)
+    assert proc.returncode == 2, proc.stderr
+    assert proc.stderr.strip().splitlines() == [proc.stderr.strip()], proc.stderr
+    assert re.match(r"^boundkit: error: potential: not finite at r = \S+ bohr; check the expression or parameters$",
+                    proc.stderr.strip())
+
+
+@pytest.mark.parametrize("show", [True, False])
+def test_records_moot_if_refused_are_held_and_shown_unless_refused(caplog, show):
+    import logging
+
+    from boundkit.cli.group import MOOT_IF_REFUSED, HeldRecords
+
+    held = HeldRecords()
+    with caplog.at_level(logging.WARNING):
+        held.attach()
+        logging.getLogger("boundkit.test").warning("far note", extra={MOOT_IF_REFUSED: True})
+        logging.getLogger("boundkit.test").warning("plain note")
+        assert [r.getMessage() for r in caplog.records] == ["plain note"]     # held
+        held.release(show=show)
+        logging.getLogger("boundkit.test").warning("after")
+    assert [r.getMessage() for r in caplog.records] == ["plain note"] + ["far note"] * show + ["after"]

@@ -9,7 +9,6 @@ from __future__ import annotations
 import math
 import os
 import re
-import sys
 import unicodedata
 from pathlib import Path
 
@@ -17,7 +16,7 @@ import click
 
 from .._checks import shorten
 
-__all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
+__all__ = ["Refused", "EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
            "check_output_path", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_text",
            "levels_arg", "level_count", "channel_number", "parse_params", "report_unit", "report_length", "api_message",
            "given_option"]
@@ -29,10 +28,15 @@ MAX_MESSAGE = 280      # with "boundkit: error: " the line stays under 300 chara
 """Longest error line (characters); long quoted values in a message are shortened."""
 
 
+class Refused(SystemExit):
+    """The exit of :func:`fail`: the input was refused (exit 2). The command group then drops the log
+    records that such a refusal makes moot (:class:`boundkit.cli.group.HeldRecords`)."""
+
+
 def fail(message: str) -> None:
     """One line ``boundkit: error: ...`` on stderr, exit 2."""
     click.echo(f"boundkit: error: {clip_message(message)}", err=True)
-    sys.exit(EXIT_BAD_INPUT)
+    raise Refused(EXIT_BAD_INPUT)
 
 
 def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
