@@ -72,6 +72,30 @@ def test_a_potential_not_finite_gives_one_line(expr):
                     proc.stderr.strip())
 
 
+# --- p13: run --out under a file ------------------------------------------------------------------
+HYDROGEN = 'title = "h"\ndescription = "hydrogen"\n[models.h]\nterms = ["coulomb"]\nparams = { Z = 1 }\n[solve]\nmodels = ["h"]\n'
+
+
+@pytest.mark.parametrize("dry", [False, True])
+def test_run_out_under_a_file_names_the_file_and_the_fix(tmp_path, dry):
+    spec = tmp_path / "h.toml"
+    spec.write_text(HYDROGEN)
+    blocker = tmp_path / "a-file"
+    blocker.write_text("")
+    res = run("run", spec, "--out", blocker / "x", "--quiet", *(("--dry-run",) if dry else ()))
+    one_line(res, rf"^boundkit: error: --out '{re.escape(str(blocker / 'x'))}': '{re.escape(str(blocker))}' is a "
+                  r"file, not a folder; choose another folder$")
+    assert not os.path.isdir(blocker)
+
+
+def test_scan_out_under_a_file_says_the_same(tmp_path):
+    blocker = tmp_path / "a-file"
+    blocker.write_text("")
+    one_line(run("scan", "--vary", "Z=1,2", "--levels", "1", "--out", blocker / "x"),
+             rf"^boundkit: error: --out '{re.escape(str(blocker / 'x'))}': '{re.escape(str(blocker))}' is a file, not "
+             r"a folder; choose another folder$")
+
+
 @pytest.mark.parametrize("show", [True, False])
 def test_records_moot_if_refused_are_held_and_shown_unless_refused(caplog, show):
     import logging

@@ -10,7 +10,8 @@ import sys
 import click
 
 from .._checks import MAX_L
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_particle, check_plot_path, check_tol,
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_output_folder, check_particle,
+                     check_plot_path, check_tol,
                      clip_message, fail, json_text, report_length, report_unit, write_figure)
 from .options import (CHANNEL_OPTIONS, build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
@@ -97,6 +98,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
 
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
+    check_output_folder(out, "--out")
     try:
         unit = report_unit(energy_unit, unit_system)
         if len(varies) > 2:
