@@ -88,3 +88,12 @@ def test_scan_dirac_takes_l_with_j():
     rows = json.loads(res.stdout)["rows"]
     assert {r["channel"] for r in rows} == {"kappa=-2", "l=1, j=1.5"}
     assert {r["label"] for r in rows if r["equation"] == "dirac"} == {"2p3/2"}
+
+
+@pytest.mark.parametrize("extra, option", [(("--j", "0.5"), "--j"), (("--kappa", "-1"), "--kappa")])
+def test_phases_levinson_refuses_a_channel_option_it_would_ignore(extra, option):
+    """levinson() takes l alone (Schrodinger): --j and --kappa were dropped silently (exit 0)."""
+    res = run("phases", "--levinson", "-p", "yukawa", "--param", "Z=1", "--param", "screening_length=2", *extra)
+    assert res.exit_code == 2, res.output
+    assert __import__("re").match(rf"^boundkit: error: {option}: --levinson checks a Schrodinger channel given by "
+                                  rf"--l alone; leave out {option}$", res.stderr.strip()), res.stderr

@@ -73,6 +73,10 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             raise ValueError("--levinson chooses its own energy grid; leave out --energies")
         if not want_levinson and grid is None:
             raise ValueError("--energies is required (e.g. --energies 0.01:2:40:log), or give --levinson")
+        for option, value in (("--kappa", kappa), ("--j", j)):
+            if want_levinson and value is not None:     # levinson() takes l alone
+                raise ValueError(f"{option}: --levinson checks a Schrodinger channel given by --l alone; leave out "
+                                 f"{option}")
         if bound_levels is not None and not want_levinson:
             raise ValueError("--bound-levels goes with --levinson")
         limits = {k: v for k, v in (("max_nodes", max_nodes), ("max_eta", max_eta)) if v is not None}
