@@ -61,10 +61,11 @@ def test_a_schrodinger_channel_takes_j_for_a_spin_orbit_term():
     assert channel_for("schrodinger", {"l": 1, "j": 1.5}) == {"l": 1, "j": 1.5}
     with pytest.raises(ValueError, match=r"j: for l = 1 a spin-1/2 particle has j = l \+- 1/2 \(0.5, 1.5\), got 2.5"):
         channel_for("schrodinger", {"l": 1, "j": 2.5})
-    for eq, ch in (("dirac", {"l": 1, "j": 1.5}), ("klein-gordon", {"l": 1, "j": 1.5}),
-                   ("schrodinger", {"kappa": -2, "j": 1.5})):
-        with pytest.raises(ValueError, match=r"'j' goes with 'l' in a Schrodinger channel"):
+    for eq, ch in (("klein-gordon", {"l": 1, "j": 1.5}), ("schrodinger", {"kappa": -2, "j": 1.5})):
+        with pytest.raises(ValueError, match=r"'j' goes with 'l' in a Schrodinger channel \(for a spin-orbit term\) "
+                                             r"or a Dirac one \(naming its kappa\)"):
             channel_for(eq, ch)
+    assert channel_for("dirac", {"l": 1, "j": 1.5}) == {"kappa": -2}     # l with j names a Dirac kappa
     ws = {"depth": 50, "radius": 4, "diffuseness": 0.6}              # demonstration values, neutron, MeV and fm
     res = scan("schrodinger", "woods-saxon", ws, {"spin_orbit": [10.0, 20.0]},
                channels=[{"l": 1, "j": 1.5}, {"l": 1, "j": 0.5}], levels=1, units="nuclear", particle="neutron",

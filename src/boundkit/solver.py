@@ -41,7 +41,7 @@ from .discretize import Discretization, get_method
 from .eigen import NOISE_ULPS, dense_pencil, refine, shift_invert
 from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
 from .equations.base import decay_steps
-from .equations.dirac import Dirac
+from .equations.dirac import Dirac, dirac_kappa
 from .equations.klein_gordon import KleinGordon
 from .equations.schrodinger import Schrodinger
 from .mesh import LogMap
@@ -74,29 +74,24 @@ def make_equation(equation: str, l: int | None = None, kappa: int | None = None,
     """Build the equation object of one channel.
 
     ``equation`` is ``schrodinger``, ``klein-gordon`` or ``dirac``; Schrodinger
-    and Klein-Gordon take ``l`` (default 0), Dirac takes ``kappa`` (default -1;
-    an ``l`` alone is refused because it fits two kappas).
+    and Klein-Gordon take ``l`` (default 0), Dirac takes ``kappa`` (default -1),
+    or ``l`` with ``j`` (:func:`boundkit.equations.dirac.dirac_kappa`: an ``l`` or
+    ``j`` alone is refused because it fits two kappas, one beside ``kappa`` must
+    be its own). Schrodinger takes ``j`` for a spin-orbit term; Klein-Gordon none.
     """
     key = str(equation).lower().replace("_", "-")
     key = {"kg": "klein-gordon", "kleingordon": "klein-gordon", "schroedinger": "schrodinger"}.get(key, key)
     check_choice("equation", key, EQUATIONS)
     if key == "dirac":
-        if kappa is None:
-            if l is not None:
-                raise ValueError(
-                    f"kappa: the Dirac equation needs kappa, not l; for l = {l} use kappa = {-(l + 1)} "
-                    f"(j = l + 1/2)" + (f" or kappa = {l} (j = l - 1/2)" if l > 0 else "")
-                )
-            kappa = -1
-        return Dirac(kappa=kappa, mass=mass)
+        return Dirac(kappa=dirac_kappa(kappa, l, j), mass=mass)
     if kappa is not None:
         raise ValueError(f"kappa: only the Dirac equation takes kappa; give l for {key}")
     l = 0 if l is None else check_int("l", l, minimum=0)
     if key == "schrodinger":
         return Schrodinger(l=l, mass=mass, j=j)
     if j is not None:
-        raise ValueError("j: only the Schrodinger equation takes j (for a spin-orbit term); the Dirac "
-                         "equation takes kappa, and a spin-0 particle has j = l")
+        raise ValueError("j: the Klein-Gordon equation (spin 0) takes no j; drop it (a spin-0 particle has j = l), "
+                         "or use the Dirac equation (kappa, or l with j)")
     return KleinGordon(l=l, mass=mass)
 
 
@@ -2341,8 +2336,11 @@ def solve(equation: str = "schrodinger", potential=None, params: dict | None = N
         (default) or MeV and fm. Results are always in hartree and bohr
         inside; convert with ``Level.energy_in``.
     j : float, optional
-        Total angular momentum l +- 1/2 of a spin-1/2 particle in the
-        Schrodinger equation, needed when the potential has a spin-orbit term.
+        Total angular momentum l +- 1/2 of a spin-1/2 particle. Schrodinger:
+        needed when the potential has a spin-orbit term. Dirac: with ``l`` it
+        names the channel (j = l + 1/2 is kappa = -(l + 1), j = l - 1/2 is
+        kappa = l); beside ``kappa`` it must be kappa's own, |kappa| - 1/2.
+        Klein-Gordon (spin 0) takes none.
     cross_check : bool
         Also solve with the other discretization family and put the
         per-level agreement in ``diagnostics['cross_check']``.

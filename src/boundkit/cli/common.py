@@ -9,7 +9,6 @@ from __future__ import annotations
 import math
 import os
 import re
-import sys
 import unicodedata
 from pathlib import Path
 
@@ -17,9 +16,10 @@ import click
 
 from .._checks import shorten
 
-__all__ = ["EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
-           "check_output_path", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_text",
-           "levels_arg", "level_count", "channel_number", "parse_params", "report_unit", "report_length", "api_message"]
+__all__ = ["Refused", "EXIT_BAD_INPUT", "EXIT_NOT_CONVERGED", "EXIT_INTERRUPTED", "MAX_MESSAGE", "fail", "clip_message",
+           "check_output_path", "check_output_folder", "check_tol", "check_particle", "check_plot_path", "write_figure", "json_text",
+           "levels_arg", "level_count", "channel_number", "parse_params", "report_unit", "report_length", "api_message",
+           "given_option"]
 
 EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
@@ -28,10 +28,15 @@ MAX_MESSAGE = 280      # with "boundkit: error: " the line stays under 300 chara
 """Longest error line (characters); long quoted values in a message are shortened."""
 
 
+class Refused(SystemExit):
+    """The exit of :func:`fail`: the input was refused (exit 2). The command group then drops the log
+    records that such a refusal makes moot (:class:`boundkit.cli.group.HeldRecords`)."""
+
+
 def fail(message: str) -> None:
     """One line ``boundkit: error: ...`` on stderr, exit 2."""
     click.echo(f"boundkit: error: {clip_message(message)}", err=True)
-    sys.exit(EXIT_BAD_INPUT)
+    raise Refused(EXIT_BAD_INPUT)
 
 
 def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
@@ -56,6 +61,17 @@ def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
     if sep and head in options:
         return f"{options[head]}:{rest}"
     return text
+
+
+def given_option(name: str) -> str | None:
+    """The option (``--table-tail``) of the parameter ``name`` of the running command when the user gave it on
+    the command line (or in the environment), None when it holds its default or no command is running."""
+    from click.core import ParameterSource
+
+    ctx = click.get_current_context(silent=True)
+    if ctx is None or ctx.get_parameter_source(name) in (None, ParameterSource.DEFAULT, ParameterSource.DEFAULT_MAP):
+        return None
+    return next((p.opts[0] for p in ctx.command.params if p.name == name), f"--{name.replace('_', '-')}")
 
 
 def clip_message(message: str) -> str:
@@ -134,12 +150,22 @@ def check_output_path(path: str | None, option: str, formats: tuple[str, ...], e
              "name or another folder")
     if not p.name or path.endswith(("/", os.sep)) or is_dir:
         fail(f"{option} {path!r}: not a file name; write e.g. {option} {example}")
-    blocking = next((a for a in p.parents if a.exists() and not a.is_dir()), None)
-    if blocking is not None:
-        fail(f"{option} {path!r}: {str(blocking)!r} is a file, not a folder; choose another folder")
+    check_output_folder(str(p.parent), option, path)
     if (p.suffix or not optional_suffix) and p.suffix.lower() not in formats:
         fail(f"{option} {path!r}: unsupported {what} {p.suffix or '(none)'!r}; use {', '.join(formats[:-1])} or "
              f"{formats[-1]}")
+
+
+def check_output_folder(path: str | None, option: str, given: str | None = None) -> None:
+    """Refuse a folder ``path`` to be created under a file (``--out /dev/null/x``), before anything is computed:
+    the message names the file. ``given``: a file the user named in the folder ``path`` (which may then be the
+    file in the way itself)."""
+    if path is None:
+        return
+    above = Path(path).parents if given is None else (Path(path), *Path(path).parents)
+    blocking = next((a for a in above if a.exists() and not a.is_dir()), None)
+    if blocking is not None:
+        fail(f"{option} {given or path!r}: {str(blocking)!r} is a file, not a folder; choose another folder")
 
 
 def write_figure(draw, path: str, option: str = "--plot") -> str | None:

@@ -12,7 +12,7 @@ import click
 from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_plot_path, fail, json_text, report_unit,
                      write_figure)
-from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
+from .options import (CHANNEL_OPTIONS, build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       particle_options, plot_option, potential_options, tol_option)
 
 __all__ = ["phases_cmd"]
@@ -73,6 +73,10 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             raise ValueError("--levinson chooses its own energy grid; leave out --energies")
         if not want_levinson and grid is None:
             raise ValueError("--energies is required (e.g. --energies 0.01:2:40:log), or give --levinson")
+        for option, value in (("--kappa", kappa), ("--j", j)):
+            if want_levinson and value is not None:     # levinson() takes l alone
+                raise ValueError(f"{option}: --levinson checks a Schrodinger channel given by --l alone; leave out "
+                                 f"{option}")
         if bound_levels is not None and not want_levinson:
             raise ValueError("--bound-levels goes with --levinson")
         limits = {k: v for k, v in (("max_nodes", max_nodes), ("max_eta", max_eta)) if v is not None}
@@ -98,7 +102,7 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             out["scattering_length"] = scattering_length(equation, vector, values, kappa=kappa,
                                                          scalar=scalar or None, hard_core=hard_core, **common)
     except ValueError as exc:
-        fail(api_message(exc, _LIMITS))
+        fail(api_message(exc, {**_LIMITS, **CHANNEL_OPTIONS}))
     if as_json:     # to_dict gives lengths in the call's unit system (fm with --units nuclear), as the text
         record = {"phases": res.to_dict(unit)}
         if "levinson" in out:

@@ -6,7 +6,7 @@ import sys
 import click
 
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_particle, check_plot_path, fail,
-                     json_text, report_unit, write_figure)
+                     given_option, json_text, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       levels_option, method_option, order_option, particle_options, plot_option,
                       potential_options, tol_option)
@@ -33,6 +33,9 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     from ..accuracy import converge
 
     methods = ("spectral", "finite-difference") if method == "both" else (method,)
+    if method == "spectral" and given_option("order"):
+        fail("--order: only the finite-difference family takes an order; drop it, or use --method "
+             "finite-difference or both")
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
     try:

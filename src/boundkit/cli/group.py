@@ -16,9 +16,48 @@ import click
 
 from .. import __version__
 from .._signals import Terminated, on_sigterm as _on_sigterm, pending
-from .common import EXIT_BAD_INPUT, EXIT_INTERRUPTED, fail
+from .common import EXIT_BAD_INPUT, EXIT_INTERRUPTED, Refused, fail
 
-__all__ = ["main", "BoundkitGroup"]
+__all__ = ["main", "BoundkitGroup", "HeldRecords", "MOOT_IF_REFUSED"]
+
+MOOT_IF_REFUSED = "moot_if_refused"
+"""Attribute of a log record (``log.warning(..., extra={MOOT_IF_REFUSED: True})``) that a refusal of the input
+would make moot: a far behaviour assumed for a potential that is not finite out there, when the solver then
+refuses the potential at a nearer radius (its error names that radius)."""
+
+
+class HeldRecords(logging.Filter):
+    """Filter on the root handlers during a command: holds the records marked :data:`MOOT_IF_REFUSED` and
+    shows them when the command ends, unless it ended by refusing its input (:class:`Refused`: then the
+    one error line says it all)."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.records: list[logging.LogRecord] = []
+        self.handlers: list[logging.Handler] = []
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        if not getattr(record, MOOT_IF_REFUSED, False):
+            return True
+        if not any(r is record for r in self.records):    # once, whatever the number of handlers
+            self.records.append(record)
+        return False
+
+    def attach(self) -> None:
+        self.handlers = list(logging.getLogger().handlers)
+        for h in self.handlers:
+            h.addFilter(self)
+
+    def release(self, show: bool) -> None:
+        for h in self.handlers:
+            h.removeFilter(self)
+        records, self.records, self.handlers = self.records, [], []
+        for record in records if show else ():
+            setattr(record, MOOT_IF_REFUSED, False)
+            logging.getLogger(record.name).handle(record)
+
+
+_HELD = HeldRecords()
 
 
 class BoundkitGroup(click.Group):
@@ -34,6 +73,16 @@ class BoundkitGroup(click.Group):
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
         if not standalone_mode:
             return super().main(args, prog_name, complete_var, standalone_mode, **extra)
+        try:
+            self._standalone(args, prog_name, complete_var, **extra)
+        except Refused:
+            _HELD.release(show=False)
+            raise
+        except BaseException:
+            _HELD.release(show=True)
+            raise
+
+    def _standalone(self, args, prog_name, complete_var, **extra):
         argv = args if args is not None else sys.argv[1:]
         if any("\x00" in str(a) for a in argv):   # os.stat and open() would raise ValueError on it
             fail("an argument contains a NUL character (\\x00); remove it")
@@ -101,6 +150,7 @@ def main(verbose: int) -> None:
     """boundkit: bound states of central potentials (Schrodinger, Klein-Gordon, Dirac)."""
     level = logging.WARNING - 10 * min(verbose, 2)
     logging.basicConfig(level=level, format="%(levelname)s %(name)s: %(message)s")
+    _HELD.attach()
     if verbose >= 2:
         warnings.simplefilter("default", RuntimeWarning)
 

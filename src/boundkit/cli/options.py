@@ -16,9 +16,9 @@ from __future__ import annotations
 
 import click
 
-from .common import channel_number, parse_params
+from .common import channel_number, given_option, parse_params
 
-__all__ = ["potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
+__all__ = ["CHANNEL_OPTIONS", "potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
            "levels_option", "tol_option", "method_option", "order_option", "particle_options", "energy_unit_option",
            "plot_option", "json_option", "METHODS", "ENERGY_UNIT_NAMES", "length_unit_option", "labels_option",
            "LENGTH_UNIT_NAMES"]
@@ -44,6 +44,10 @@ def equation_option(multiple: bool = False):
                         help="schrodinger, klein-gordon or dirac.")
 
 
+CHANNEL_OPTIONS = {"l": "--l", "kappa": "--kappa", "j": "--j"}
+"""API keyword -> option of the channel (for :func:`boundkit.cli.common.api_message`)."""
+
+
 def channel_options(j: bool = True, multiple: bool = False):
     """``--l``, ``--kappa`` (and ``--j``): the channel, as the API's l=, kappa=, j=."""
     if multiple:
@@ -55,17 +59,19 @@ def channel_options(j: bool = True, multiple: bool = False):
                                   "of that kappa).")]
     else:
         opts = [click.option("--l", "l", type=int, default=None, callback=channel_number,
-                             help="Orbital l (Schrodinger, Klein-Gordon; default 0)."),
+                             help="Orbital l (Schrodinger, Klein-Gordon; default 0; Dirac: with --j, naming kappa)."),
                 click.option("--kappa", type=int, default=None, callback=channel_number,
                              help="Dirac kappa (default -1): -1 = s1/2, 1 = p1/2, -2 = p3/2, ...")]
     if j and multiple:
         opts.append(click.option("--j", "js", type=float, multiple=True,
-                                 help="j = l +- 1/2 of each --l, in the same order (Schrodinger, for a spin-orbit "
-                                      "term such as woods-saxon spin_orbit; one per --l)."))
+                                 help="j = l +- 1/2 of each --l, in the same order (one per --l): Schrodinger, for "
+                                      "a spin-orbit term such as woods-saxon spin_orbit; Dirac, naming the kappa "
+                                      "(j = l + 1/2: kappa = -(l+1); j = l - 1/2: kappa = l)."))
     elif j:
         opts.append(click.option("--j", "j", type=float, default=None,
-                                 help="j = l +- 1/2 (Schrodinger, for a spin-orbit term such as woods-saxon "
-                                      "spin_orbit)."))
+                                 help="j = l +- 1/2: Schrodinger, for a spin-orbit term such as woods-saxon "
+                                      "spin_orbit; Dirac, with --l instead of --kappa (j = l + 1/2: kappa = -(l+1); "
+                                      "j = l - 1/2: kappa = l), or beside --kappa, its own j."))
     return lambda f: _apply(f, opts)
 
 
@@ -189,6 +195,12 @@ def build_potential(potentials, scalars, exprs, scalar_exprs, files, table_tail,
     from ..potentials.expression import ExpressionTerm
 
     values = parse_params(params)
+    if not any(not str(path).lower().endswith(".toml") for path in files):
+        for name in ("table_tail", "table_tail_charge", "table_origin", "table_r_unit", "table_v_unit"):
+            option = given_option(name)
+            if option:
+                raise ValueError(f"{option}: there is no table to apply it to (a --potential-file of r and V other "
+                                 "than a .toml model file); drop it, or give the table")
     vector, scalar = list(potentials), list(scalars)
     for text in exprs:
         vector.append(ExpressionTerm(text, subset_params(text, values)))

@@ -18,7 +18,7 @@ from pathlib import Path
 
 import click
 
-from .common import EXIT_NOT_CONVERGED, clip_message, fail
+from .common import EXIT_NOT_CONVERGED, check_output_folder, clip_message, fail
 
 __all__ = ["run_cmd"]
 
@@ -49,6 +49,7 @@ def run_cmd(spec_path: str, out_dir: str | None, force: bool, dry_run: bool, qui
     except ValueError as exc:
         fail(str(exc))
     target = Path(out_dir) if out_dir else Path("out") / spec.name
+    check_output_folder(str(target), "--out")
     if dry_run:
         from ..runspec.files import _check_target
         from ..runspec.plan import plan
@@ -62,11 +63,11 @@ def run_cmd(spec_path: str, out_dir: str | None, force: bool, dry_run: bool, qui
         return
     try:
         report = run(spec, target, force=force, progress=not quiet)
-    except FileExistsError as exc:
-        fail(str(exc))
     except ValueError as exc:
         fail(str(exc))
     except OSError as exc:
+        if isinstance(exc, FileExistsError) and exc.errno is None:    # the output folder's own checks
+            fail(str(exc))
         fail(f"cannot create the output folder {str(target)!r} ({exc.strerror or exc}); choose a writable "
               "place with --out")
     if report.kept_earlier:

@@ -10,9 +10,10 @@ import sys
 import click
 
 from .._checks import MAX_L
-from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_particle, check_plot_path, check_tol,
+from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_output_folder, check_particle,
+                     check_plot_path, check_tol,
                      clip_message, fail, json_text, report_length, report_unit, write_figure)
-from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
+from .options import (CHANNEL_OPTIONS, build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
                       plot_option, potential_options, tol_option)
 
@@ -37,6 +38,24 @@ def _rms_rule(text: str | None, values: dict, varied=()) -> None:
     if "rms_fm" in values:
         fail("--rms-rule sets rms_fm at every point; leave out --param rms_fm")
     values["rms_fm"] = NuclearRadius(r0, apz)
+
+
+def _check_vary(text: str, values: list[float]) -> None:
+    """Refuse what a run spec's [scan] refuses (:mod:`boundkit.runspec.spec`): a range of fewer than 2
+    points (``START:STOP:1`` drops STOP) and a value given twice (solved twice)."""
+    name, _, rhs = str(text).partition("=")
+    name, parts = name.strip(), [p.strip() for p in rhs.split(":")]
+    if len(parts) > 1 and len(values) < 2:
+        fail(f"--vary {text!r}: a range needs N >= 2 points (N = 1 drops STOP = {parts[1]}); write e.g. "
+             f"{name}={parts[0]}:{parts[1]}:2, or {name}={parts[0]} for one value")
+    seen = set()
+    for v in values:
+        if v in seen:
+            if len(parts) > 1:
+                fail(f"--vary {text!r}: the range gives the value {v:g} more than once (it would be solved again); "
+                     f"make START and STOP differ, or write {name}={v:g} for one value")
+            fail(f"--vary {text!r}: the value {v:g} is listed twice (it would be solved twice); list each value once")
+        seen.add(v)
 
 
 # --- scan -----------------------------------------------------------------------------------
@@ -79,12 +98,17 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
 
     check_particle(particle, mass_mev)
     check_plot_path(plot_path)
+    check_output_folder(out, "--out")
     try:
         unit = report_unit(energy_unit, unit_system)
         if len(varies) > 2:
             raise ValueError("--vary: give one or two parameters")
         limit = {} if max_points is None else {"max_points": max_points}
-        vary = dict(parse_vary(v, **limit) for v in varies)
+        vary = {}
+        for text in varies:
+            name, values = parse_vary(text, **limit)
+            _check_vary(text, values)
+            vary[name] = values
         if len(vary) < len(varies):
             raise ValueError("--vary: each parameter may be varied once")
         # expression and model-file terms are built now: give them the first value of each varied parameter
@@ -105,7 +129,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                    progress=progress, scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit,
                    **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
-        fail(api_message(exc, {"max_levels": "--max-levels", "vary": "--vary"}))
+        fail(api_message(exc, {"max_levels": "--max-levels", "vary": "--vary", **CHANNEL_OPTIONS}))
     if as_json:
         click.echo(json_text(res.to_dict(unit)))
     else:

@@ -7,7 +7,7 @@ from .._checks import check_int, check_positive
 from ..units import ALPHA, C_AU
 from .base import RadialEquation, Sample, letter
 
-__all__ = ["Dirac", "kappa_to_lj"]
+__all__ = ["Dirac", "kappa_to_lj", "dirac_kappa"]
 
 
 def kappa_to_lj(kappa: int) -> tuple[int, float]:
@@ -16,6 +16,55 @@ def kappa_to_lj(kappa: int) -> tuple[int, float]:
         raise ValueError("kappa: must be a non-zero integer (kappa = -1 is s1/2, +1 is p1/2, -2 is p3/2, ...)")
     l = kappa if kappa > 0 else -kappa - 1
     return l, abs(kappa) - 0.5
+
+
+def _name(kappa: int) -> str:
+    """``kappa = -2 (p3/2)``."""
+    l, j = kappa_to_lj(kappa)
+    return f"kappa = {kappa} ({letter(l)}{int(2 * j)}/2)"
+
+
+def dirac_kappa(kappa: int | None = None, l: int | None = None, j: float | None = None) -> int:
+    """The kappa of a Dirac channel named by ``kappa``, or by ``l`` with ``j`` (default -1, s1/2).
+
+    kappa = -(l + 1) has j = l + 1/2 and kappa = l has j = l - 1/2. An ``l`` or ``j``
+    given beside ``kappa`` must be the kappa's own; ``l`` alone (two kappas) and
+    ``j`` alone (two kappas) are refused. Raises ValueError naming the argument
+    and the kappas that would fit.
+    """
+    if j is not None:
+        j = float(j)
+        if not (math.isfinite(j) and j > 0 and (2 * j) % 2 == 1):
+            raise ValueError(f"j: must be a positive half-integer (0.5, 1.5, 2.5, ...), got {j:g}")
+    if l is not None:
+        l = check_int("l", l, minimum=0)
+    if kappa is not None:
+        kl, kj = kappa_to_lj(check_int("kappa", kappa))
+        label = f"{letter(kl)}{int(2 * kj)}/2"
+        if l is not None and l != kl:
+            fits = " or ".join(_name(k) for k in ((-(l + 1), l) if l > 0 else (-1,)))
+            raise ValueError(f"l: l = {l} does not fit kappa = {kappa} ({label}, l = {kl}); give kappa alone, or the "
+                             f"kappa of l = {l}: {fits}")
+        if j is not None and j != kj:
+            k = int(j + 0.5)
+            raise ValueError(f"j: j = {j:g} does not fit kappa = {kappa} ({label}, j = {int(2 * kj)}/2); give kappa "
+                             f"alone, or the kappa of j = {j:g}: {_name(-k)} or {_name(k)}")
+        return int(kappa)
+    if l is None and j is None:
+        return -1
+    if j is None:
+        raise ValueError(f"kappa: the Dirac equation needs kappa, not l; for l = {l} use kappa = {-(l + 1)} "
+                         f"(j = l + 1/2)" + (f" or kappa = {l} (j = l - 1/2)" if l > 0 else "")
+                         + "; or give j with l")
+    if l is None:
+        k = int(j + 0.5)
+        raise ValueError(f"j: j alone does not name a Dirac channel; give {_name(-k)} or {_name(k)}, or l with j")
+    fits = {l + 0.5: -(l + 1), l - 0.5: l} if l > 0 else {0.5: -1}
+    if j not in fits:
+        names = " or ".join(f"{x:g} (kappa = {k})" for x, k in sorted(fits.items()))
+        raise ValueError(f"j: for l = {l} a Dirac channel has j = {names}, got {j:g}; give kappa instead, or l with "
+                         "one of these j")
+    return fits[j]
 
 
 class Dirac(RadialEquation):

@@ -369,7 +369,9 @@ class ProbedTerm(Term):
             if np.all(np.isfinite(vb) | np.isposinf(vb)):
                 self._far, self._zinf = "confining", 0.0
             else:
-                log.warning("%s: not finite at r = 1e3..1e5 bohr; far behaviour taken as V -> 0", self.label)
+                # moot if the solve then refuses the potential nearer in (its one error line names the radius)
+                log.warning("%s: not finite at r = 1e3..1e5 bohr; far behaviour taken as V -> 0", self.label,
+                            extra={"moot_if_refused": True})
                 self._far, self._zinf = "zero", 0.0
         elif vb[2] > 1e3 and vb[2] > vb[1] > vb[0]:
             self._far, self._zinf = "confining", 0.0

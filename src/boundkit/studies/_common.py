@@ -44,10 +44,11 @@ def canonical_equation(name: str) -> str:
 
 def channel_for(equation: str, channel: Mapping[str, int]) -> dict[str, int]:
     """The channel of ``equation`` described by ``channel`` ({"l": ..} or {"kappa": ..}; Schrodinger
-    also {"l": .., "j": ..} for a potential with a spin-orbit term).
+    also {"l": .., "j": ..} for a potential with a spin-orbit term, Dirac for the kappa they name).
 
     Schrodinger and Klein-Gordon take l; a kappa alone is mapped to the l of
-    its large component (kappa = -(l+1) or kappa = l). Dirac needs kappa.
+    its large component (kappa = -(l+1) or kappa = l). Dirac needs kappa, or l
+    with j (j = l + 1/2 is kappa = -(l+1), j = l - 1/2 is kappa = l).
     Raises ValueError for anything else.
     """
     if not isinstance(channel, Mapping):
@@ -57,22 +58,20 @@ def channel_for(equation: str, channel: Mapping[str, int]) -> dict[str, int]:
     if extra:
         raise ValueError(f"channels: unknown key {extra[0]!r} in {dict(channel)!r}; use 'l' or 'kappa' (and 'j' "
                          "with 'l' for a Schrodinger spin-orbit term)")
+    l, kappa = channel.get("l"), channel.get("kappa")
+    eq = canonical_equation(equation)
+    if eq == "dirac":       # kappa, or l with j; one beside kappa must be its own (the solver's messages)
+        if l is None and kappa is None and channel.get("j") is None:
+            raise ValueError("channels: a channel needs 'l' (Schrodinger, Klein-Gordon) or 'kappa' (Dirac)")
+        return {"kappa": make_equation("dirac", l=l, kappa=kappa, j=channel.get("j")).kappa}
     if "j" in channel:
-        eq = canonical_equation(equation)
         if eq != "schrodinger" or "l" not in channel or "kappa" in channel:
             raise ValueError(f"channels: {dict(channel)!r}: 'j' goes with 'l' in a Schrodinger channel (for a "
-                             "spin-orbit term); a Dirac channel is its kappa, and a spin-0 particle has j = l")
+                             "spin-orbit term) or a Dirac one (naming its kappa); a spin-0 particle has j = l")
         made = make_equation(eq, l=channel["l"], j=channel["j"])       # checks j = l +- 1/2
         return {"l": made.l, "j": made.j}
-    l, kappa = channel.get("l"), channel.get("kappa")
     if l is None and kappa is None:
         raise ValueError("channels: a channel needs 'l' (Schrodinger, Klein-Gordon) or 'kappa' (Dirac)")
-    eq = canonical_equation(equation)
-    if eq == "dirac":
-        if kappa is None:
-            make_equation("dirac", l=l)       # raises the solver's message naming both kappas
-        make_equation("dirac", kappa=kappa)   # checks kappa != 0
-        return {"kappa": int(kappa)}
     if kappa is not None:
         lk, _ = kappa_to_lj(int(kappa))
         if l is not None and int(l) != lk:
