@@ -286,3 +286,18 @@ def test_exported_states_give_level_energies_in_the_unit_asked(tmp_path, suffix)
         assert path.read_text().splitlines()[1].endswith("level energies (below) in MeV")
     with pytest.raises(ValueError, match=r"energy_unit: unknown unit 'furlong'; choose one of hartree, eV"):
         write_states(res, tmp_path / f"x{suffix}", energy_unit="furlong")
+
+
+def test_cli_states_file_follows_energy_unit(tmp_path):
+    """`solve --states F --energy-unit eV` wrote the levels' energies in hartree (labelled): now in eV, the
+    hydrogen 1s -1/2 hartree times CODATA's hartree in eV (scipy.constants), with the hartree value beside it."""
+    import scipy.constants as sc
+
+    path = tmp_path / "h.csv"
+    r = run("solve", "-n", "1", "--tol", "1e-13", "--energy-unit", "eV", "--states", str(path))
+    assert r.exit_code == 0, r.output
+    meta, _ = read_states(path)
+    assert meta["units"]["energy"] == "eV"
+    assert meta["levels"][0]["energy"] == pytest.approx(-0.5 * sc.physical_constants["Hartree energy in eV"][0],
+                                                        rel=1e-12)
+    assert "(r in bohr, energies in eV)" in r.output

@@ -48,11 +48,12 @@ def add_observables(record: dict, res, length_unit: str) -> dict:
     return record
 
 
-def write_states_file(res, path: str, length_unit: str) -> None:
+def write_states_file(res, path: str, length_unit: str, energy_unit: str = "hartree") -> None:
     from ..io_states import write_states
 
-    write_states(res, path, length_unit=length_unit)
-    click.echo(f"wrote radial functions of {len(res.levels)} level(s) to {path} (r in {length_unit})", err=True)
+    write_states(res, path, length_unit=length_unit, energy_unit=energy_unit)
+    click.echo(f"wrote radial functions of {len(res.levels)} level(s) to {path} (r in {length_unit}, energies in "
+               f"{energy_unit})", err=True)
 
 
 def _format_lines(tr) -> str:

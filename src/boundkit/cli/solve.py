@@ -144,7 +144,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
     outputs_ok = True
     if states_path:
         try:
-            write_states_file(res, states_path, length)
+            write_states_file(res, states_path, length, unit)
         except (OSError, ValueError) as exc:   # the levels above are complete; only this file is missing
             text = str(exc) if isinstance(exc, ValueError) else \
                 f"--states {states_path!r}: cannot write it ({exc.strerror or exc})"
