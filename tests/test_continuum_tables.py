@@ -5,10 +5,12 @@ Check values: the same potential written as a Python callable (its phases are th
 potential within their own estimates, 1e-10 rad and below here); the tables' points are that function's
 values, so the table and the callable differ only by the interpolation between the points and the model
 below the first point."""
+import math
 import re
 
 import numpy as np
 import pytest
+from scipy.constants import physical_constants
 
 from boundkit.potentials.tabulated import TabulatedTerm
 from boundkit.scattering import phase_shifts, scattering_length
@@ -123,3 +125,18 @@ def test_no_table_no_table_note():
     res = phase_shifts([0.3], "schrodinger", yukawa)
     assert "table" not in res.message and "table_error_rad" not in res.diagnostics
     assert "table" not in scattering_length("schrodinger", yukawa).message
+
+
+def test_scattering_length_message_quotes_the_radius_in_the_call_length_unit():
+    # a square well of 2 fm, 30 MeV, proton: R was quoted in bohr (6.3e-5) under units='nuclear'
+    res = scattering_length("schrodinger", lambda r: np.where(r < 2.0, -30.0, 0.0), particle="proton",
+                            units="nuclear")
+    assert res.success
+    assert re_match(r"matched at R = [0-9.]+ fm$", res.message)
+    R = float(res.message.split("R = ")[1].split()[0])
+    fm_per_bohr = physical_constants["Bohr radius"][0] * 1e15          # scipy.constants (CODATA)
+    assert math.isclose(R, res.settings["matching_radius_bohr"] * fm_per_bohr, rel_tol=1e-3)
+    strict = scattering_length("schrodinger", lambda r: np.where(r < 2.0, -30.0, 0.0), particle="proton",
+                               units="nuclear", tol=1e-16)
+    assert strict.status == "tolerance-not-met"
+    assert re_match(r"^error estimate [0-9.e+-]+ fm exceeds the tolerance$", strict.message)

@@ -431,11 +431,11 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     if not reached:
         status, msg = "range-not-reached", "the potential is not negligible at the largest radius tried"
     elif a_err > tol * max(ch.length, abs(a)):
-        status, msg = "tolerance-not-met", f"error estimate {a_err:.2g} bohr exceeds the tolerance"
+        status, msg = "tolerance-not-met", f"error estimate {bohr_to(a_err, length):.2g} {length} exceeds the tolerance"
         if tabled and table > tol * max(ch.length, abs(a)):
             msg += f": the table's interpolation error, {bohr_to(table, length):.2g} {length}, lies above it; {_TABLE_FIX}"
     else:
-        status, msg = "ok", f"a from the zero-energy solution matched at R = {R1:.4g} bohr"
+        status, msg = "ok", f"a from the zero-energy solution matched at R = {bohr_to(R1, length):.4g} {length}"
     if tabled:
         msg += (f"; a's estimate includes the table's interpolation error (to first order, as the phase shifts'): "
                 f"{bohr_to(table, length):.2g} {length}; r_e's estimate does not")
