@@ -97,15 +97,20 @@ def test_yukawa_table_phase_estimate_covers_and_falls_with_refinement(l):
 
 @pytest.mark.filterwarnings("ignore")
 def test_yukawa_table_scattering_length_estimate_covers_and_falls_with_refinement():
-    # a 40-point table is 1.4e-3 bohr off (a = 1.385 bohr); before, its estimate was below 1e-12
+    # a 40-point table is 1.4e-3 bohr off in a (1.385 bohr) and 1.4 bohr in r_e (16.8 bohr, Bethe's
+    # integral); before, both estimates were below 1e-8
     ref = scattering_length("schrodinger", yukawa)
     ests = []
     for points in (40, 100, 400):
         tab = scattering_length("schrodinger", _yukawa_table(points))
         assert _covered(tab.a, tab.a_error, ref.a, ref.a_error)
-        ests.append(tab.a_error)
+        assert _covered(tab.effective_range, tab.effective_range_error, ref.effective_range,
+                        ref.effective_range_error)
+        ests.append((tab.a_error, tab.effective_range_error))
     assert abs(tab.a - ref.a) > 1e-10
-    assert ests[2] < 0.1 * ests[1] < 0.01 * ests[0]
+    for est in zip(*ests):
+        assert est[2] < 0.1 * est[1] < 0.01 * est[0]
+    assert "r_e's estimate includes it" in tab.message
 
 
 @pytest.mark.filterwarnings("ignore")
@@ -140,3 +145,4 @@ def test_scattering_length_message_quotes_the_radius_in_the_call_length_unit():
                                units="nuclear", tol=1e-16)
     assert strict.status == "tolerance-not-met"
     assert re_match(r"^error estimate [0-9.e+-]+ fm exceeds the tolerance$", strict.message)
+

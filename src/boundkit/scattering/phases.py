@@ -427,6 +427,9 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     re_err = max(abs(re - re2), abs(re - re3)) if schr and re is not None else None
     if not schr:
         re, re_err = _effective_range_from_phases(ch, a)
+    elif tabled and re is not None:
+        re_table = _table_range_error(ch, a, re)
+        re_err += re_table
     length = system_units(units)[1]
     if not reached:
         status, msg = "range-not-reached", "the potential is not negligible at the largest radius tried"
@@ -438,7 +441,11 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
         status, msg = "ok", f"a from the zero-energy solution matched at R = {bohr_to(R1, length):.4g} {length}"
     if tabled:
         msg += (f"; a's estimate includes the table's interpolation error (to first order, as the phase shifts'): "
-                f"{bohr_to(table, length):.2g} {length}; r_e's estimate does not")
+                f"{bohr_to(table, length):.2g} {length}")
+        if schr and re is not None:
+            msg += f"; r_e's estimate includes it: {bohr_to(re_table, length):.2g} {length}"
+        elif not schr:
+            msg += "; r_e's estimate does not (it comes from low-energy phases)"
     how = ("Bethe's integral for r_e" if schr else
            "r_e from k cot delta_0 at k, 2k, 4k (k = 0.01 / max(|a|, L, |r_e|)), extrapolated in k^2")
     return ScatteringLength(a=a, a_error=a_err, effective_range=re, effective_range_error=re_err,
@@ -458,6 +465,34 @@ def _table_length_error(ch: Channel, evaluate, raw) -> float:
     slope = raw.R**ch.gamma * raw.du * math.exp(raw.log_scale)        # u'(R) on the scale of evaluate
     p = np.broadcast_to(ch.eq.p(0.0, grid.sample), grid.r.shape)
     return table_change(ch, 0.0, grid, (u / slope) ** 2, (w / (p * slope)) ** 2) / p_far(ch, 0.0)
+
+
+def _table_range_error(ch: Channel, a: float, r_e: float) -> float:
+    """The first-order change of a Schrodinger effective range from the tables' uncertainty (bohr).
+
+    Notes
+    -----
+    With phi_k = u_k / sin(delta) (u_k of unit amplitude, so phi_k -> cos kr + cot(delta) sin kr, and
+    phi_0 -> 1 - r/a), the phase formula of :mod:`.tables` gives d(k cot delta) = (1/p_inf) integral
+    dq phi_k^2 dr, and at k = 0 d(-1/a) likewise with phi_0. So g(k) = 2 (k cot delta + 1/a) / k^2 =
+    r_e + O(k^2) changes by (2 / (k^2 p_inf)) integral dq (phi_k^2 - phi_0^2) dr, and r_e by that
+    combined at k and 2k as (4 g(k) - g(2k)) / 3 (k = 0.01 / max(|a|, L, |r_e|), the O(k^2) term
+    removed); one batch of three energies (0, k, 2k) integrated for it, only when a table is there.
+    """
+    k = _K_EFFECTIVE / max(abs(a), ch.length, abs(r_e)) * np.array([1.0, 2.0])
+    E = np.concatenate(([0.0], k * k / (2 * ch.eq.mass)))
+    R = [matching_radius(ch, float(e), 1e-12)[0] for e in E]
+    raws, evaluate = integrate(ch, E, [[x] for x in R], 1e-12, dense=True)
+    grid = table_grid(ch, _start(ch, float(k[-1])), min(R), 0.0)
+    u = evaluate(grid.r)[0]
+    slope = R[0] ** ch.gamma * raws[0][0].du * math.exp(raws[0][0].log_scale)
+    phi0 = (u[0] / slope) ** 2 / (a * a)                          # (1 - r/a)^2 far out
+    kernel = np.zeros_like(phi0)
+    for i, weight in ((1, 4.0 / 3.0), (2, -1.0 / 3.0)):
+        m = match(ch, float(E[i]), raws[i][0])
+        phi = u[i] / (m.amplitude * R[i] ** ch.gamma * math.exp(raws[i][0].log_scale) * math.sin(m.delta))
+        kernel += weight * 2.0 * (phi * phi - phi0) / k[i - 1] ** 2
+    return table_change(ch, 0.0, grid, kernel, np.zeros_like(kernel)) / p_far(ch, 0.0)
 
 
 def _effective_range_from_phases(ch: Channel, a: float) -> tuple[float | None, float | None]:
