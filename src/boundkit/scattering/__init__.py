@@ -49,7 +49,11 @@ Method.
    30 times and the start moved 10 times further out); never below that
    tolerance itself. Each piece between
    breakpoints samples the potential 64 ulp inside its ends, so that it
-   sees its own side of a jump.
+   sees its own side of a jump. A tabulated potential adds its interpolation
+   and origin-model error, to first order (d delta = -(1/(p k)) integral
+   [dp (D u)^2 + dq u^2] dr; :mod:`.tables`), to the phase shifts, the
+   scattering length and the Schrodinger effective range, as a solve does to
+   its levels.
 5. The s-wave scattering length comes from the zero-energy solution,
    u = C (r - a) beyond the range, with k cot delta_0 = -1/a + r_e k^2/2;
    the effective range from Bethe's integral

@@ -18,6 +18,7 @@ from ..units import energy_unit as canonical_unit
 from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
+from .tables import p_far, table_change, table_grid, table_terms
 
 log = logging.getLogger(__name__)
 
@@ -125,15 +126,38 @@ def _check_barrier(ch: Channel, E: np.ndarray, max_eta, unit: str) -> None:
 def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     """Matches at R1 for a batch of energies sharing the integration steps.
 
-    Returns (matches, error estimates, R1 values, range reached flags). The
-    batch tolerance is divided by sqrt(number of components), because the
-    step control measures the root mean square error of all of them.
+    Returns (matches, error estimates, R1 values, range reached flags): :func:`_matched` without the
+    tables' part of the estimates.
     """
+    return _matched(ch, E, tol, estimate)[:4]
+
+
+def _table_phase_error(ch: Channel, E: np.ndarray, evaluate, raws, matches, R1) -> np.ndarray:
+    """Per energy, the first-order change of delta from the tables' uncertainty (rad; see
+    :mod:`.tables`): the unit-amplitude solution on the tables' grid, from the main run's dense output.
+    The matching radius is never below a table's last point (a declared breakpoint)."""
+    k = np.atleast_1d(np.asarray(wave_number(ch.eq.name, E, ch.eq.mass), dtype=float))
+    grid = table_grid(ch, _start(ch, float(k.max())), min(R1), float(E.max()))
+    u, w = evaluate(grid.r)
+    out = np.zeros(len(E))
+    for i, e in enumerate(E):
+        scale = matches[i].amplitude * R1[i] ** ch.gamma * math.exp(raws[i][0].log_scale)
+        p = np.broadcast_to(ch.eq.p(float(e), grid.sample), grid.r.shape)
+        out[i] = table_change(ch, float(e), grid, (u[i] / scale) ** 2, (w[i] / (p * scale)) ** 2) / (
+            p_far(ch, float(e)) * k[i])
+    return out
+
+
+def _matched(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
+    """(matches, error estimates, R1 values, range reached flags, the tables' part of the estimates or
+    None without tables or estimate). The batch tolerance is divided by sqrt(number of components),
+    because the step control measures the root mean square error of all of them."""
     rr = [matching_radius(ch, float(e), tol) for e in E]
     R1 = [R for R, _ in rr]
     rtol = _rtol(tol) / math.sqrt(2 * len(E))
     radii = [[R, _SECOND_RADIUS * R] if estimate else [R] for R in R1]
-    raws, _ = integrate(ch, E, radii, rtol)
+    tabled = estimate and bool(table_terms(ch.pot))
+    raws, evaluate = integrate(ch, E, radii, rtol, dense=tabled)
     refs = integrate(ch.reference, E, radii, rtol)[0] if ch.reference else [[None] * len(r) for r in radii]
     matches = [match(ch, float(e), raw[0], rf[0]) for e, raw, rf in zip(E, raws, refs)]
     err = np.zeros(len(E))
@@ -151,7 +175,10 @@ def _phases_at(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
             cut = abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta) + tail_bound(ch, float(e),
                                                                                          _SECOND_RADIUS * R1[i])
             err[i] = max(cut + abs(d - match(ch, float(e), loose[i][0], lrefs[i][0]).delta), max(rtol, _RTOL_FLOOR))
-    return matches, err, R1, [ok for _, ok in rr]
+    table = _table_phase_error(ch, E, evaluate, raws, matches, R1) if tabled else None
+    if table is not None:
+        err = err + table
+    return matches, err, R1, [ok for _, ok in rr], table
 
 
 def _unwrap_from_top(delta: np.ndarray) -> tuple[np.ndarray, float]:
@@ -252,12 +279,20 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
 
 def _tabulate(ch: Channel, E: np.ndarray, tol: float, estimate: bool, settings: dict, t0: float,
               unit: str = "hartree") -> PhaseShifts:
-    return _assemble(ch, E, *_phases_at(ch, E, tol, estimate), tol, estimate, settings, t0, unit)
+    matches, err, Rs, reached, table = _matched(ch, E, tol, estimate)
+    return _assemble(ch, E, matches, err, Rs, reached, tol, estimate, settings, t0, unit, table)
+
+
+_TABLE_NOTE = ("the estimates include the table's interpolation error (to first order, from splines of two degrees "
+               "and from the table continued linearly below its first point)")
+_TABLE_FIX = ("give the table more points where the potential bends, or start it nearer r = 0 (below its first "
+              "point the potential is modelled)")
 
 
 def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings, t0,
-              unit: str = "hartree") -> PhaseShifts:
-    """The result; energies in its messages in ``unit`` (the caller's)."""
+              unit: str = "hartree", table: np.ndarray | None = None) -> PhaseShifts:
+    """The result; energies in its messages in ``unit`` (the caller's); ``table`` the tables' part of
+    the estimates (rad), named in the message."""
     eq = ch.eq
     delta = [m.delta for m in matches]
     theta = [m.ref.theta for m in matches]
@@ -281,12 +316,16 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
         status, msg = "tolerance-not-met", (f"error estimate {err[i]:.2g} rad at "
                                             f"E = {E[i] * ENERGY_UNITS[unit]:.4g} {unit} "
                                             f"exceeds tol = {tol:g}")
+        if table is not None and table[i] > tol:
+            msg += f": the table's interpolation error, {table[i]:.2g} rad, lies above it; {_TABLE_FIX}"
     elif worst_residual > 0.05:
         status, msg = "branch-uncertain", (f"the node count and the matched phase disagree by "
                                            f"{worst_residual:.2g} pi somewhere; the integer part of delta may be off")
     else:
         status, msg = "ok", f"{len(E)} phase shift(s)" + (f", largest error estimate {err.max():.2g} rad"
                                                           if estimate else " (no error estimate asked)")
+    if table is not None:
+        msg += f"; {_TABLE_NOTE}: at most {float(np.max(table)):.2g} rad"
     log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
     if ch.tail_b:
         reference = (f"{'Coulomb' if ch.tail_charge else 'free'} waves, with an inverse-square tail "
@@ -310,7 +349,8 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
         potential=settings.get("potential_name", repr(ch.pot)), reference=reference, branch=branch,
         success=status == "ok", status=status, message=msg, settings=settings, constants=constants_record(),
         diagnostics={"branch_residual_max": worst_residual, "max_step_along_grid": max_step,
-                     "seconds": time.perf_counter() - t0})
+                     "seconds": time.perf_counter() - t0,
+                     **({} if table is None else {"table_error_rad": [float(x) for x in table]})})
 
 
 # --- scattering length -----------------------------------------------------------------------
@@ -369,25 +409,43 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
         raise ValueError("kappa: the scattering length is an s-wave quantity; use kappa = -1 (s1/2)")
     schr = ch.eq.name == "schrodinger"
     R1, reached = matching_radius(ch, 0.0, tol * ch.length)
-    runs = {}
+    runs, tabled = {}, bool(table_terms(ch.pot))
     for key, rtol, radii in (("main", _rtol(tol), [R1, _SECOND_RADIUS * R1]),
                              ("loose", loosened(_rtol(tol), _LOOSE), [R1])):
-        raws, _ = integrate(ch, 0.0, radii, rtol, integral=schr, start_scale=_START_CHECK if key == "loose" else 1.0)
+        raws, evaluate = integrate(ch, 0.0, radii, rtol, integral=schr, dense=tabled and key == "main",
+                                   start_scale=_START_CHECK if key == "loose" else 1.0)
         runs[key] = [_length_pair(ch, raw) for raw in raws]
+        if evaluate is not None:
+            table = _table_length_error(ch, evaluate, raws[0])
     (a, re), (a2, re2) = runs["main"]
     a3, re3 = runs["loose"][0]
     # a = R1 - u/u' loses the digits below the ulp of R1 (a weak well: a = -1e-6 bohr at R1 = 0.04), and
     # the repeated integrations can agree to the last bit: no estimate below 4 ulp of that subtraction
     a_err = max(abs(a - a2), abs(a - a3), float(rounding_floor(max(R1, abs(a)))))
+    if tabled:
+        a_err += table
     re_err = max(abs(re - re2), abs(re - re3)) if schr and re is not None else None
     if not schr:
         re, re_err = _effective_range_from_phases(ch, a)
+    elif tabled and re is not None:
+        re_table = _table_range_error(ch, a, re)
+        re_err += re_table
+    length = system_units(units)[1]
     if not reached:
         status, msg = "range-not-reached", "the potential is not negligible at the largest radius tried"
     elif a_err > tol * max(ch.length, abs(a)):
-        status, msg = "tolerance-not-met", f"error estimate {a_err:.2g} bohr exceeds the tolerance"
+        status, msg = "tolerance-not-met", f"error estimate {bohr_to(a_err, length):.2g} {length} exceeds the tolerance"
+        if tabled and table > tol * max(ch.length, abs(a)):
+            msg += f": the table's interpolation error, {bohr_to(table, length):.2g} {length}, lies above it; {_TABLE_FIX}"
     else:
-        status, msg = "ok", f"a from the zero-energy solution matched at R = {R1:.4g} bohr"
+        status, msg = "ok", f"a from the zero-energy solution matched at R = {bohr_to(R1, length):.4g} {length}"
+    if tabled:
+        msg += (f"; a's estimate includes the table's interpolation error (to first order, as the phase shifts'): "
+                f"{bohr_to(table, length):.2g} {length}")
+        if schr and re is not None:
+            msg += f"; r_e's estimate includes it: {bohr_to(re_table, length):.2g} {length}"
+        elif not schr:
+            msg += "; r_e's estimate does not (it comes from low-energy phases)"
     how = ("Bethe's integral for r_e" if schr else
            "r_e from k cot delta_0 at k, 2k, 4k (k = 0.01 / max(|a|, L, |r_e|)), extrapolated in k^2")
     return ScatteringLength(a=a, a_error=a_err, effective_range=re, effective_range_error=re_err,
@@ -396,6 +454,45 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
                             success=status == "ok", status=status, message=msg,
                             settings={**settings, "tol": tol, "matching_radius_bohr": R1},
                             constants=constants_record())
+
+
+def _table_length_error(ch: Channel, evaluate, raw) -> float:
+    """The first-order change of the scattering length from the tables' uncertainty (bohr; see
+    :mod:`.tables`): the zero-energy solution normalised to u -> r - a (u' = 1 beyond the range), from the
+    main run's dense output at the matching radius ``raw.R`` (never below a table's last point)."""
+    grid = table_grid(ch, _start(ch, 0.0), raw.R, 0.0)
+    u, w = evaluate(grid.r)
+    slope = raw.R**ch.gamma * raw.du * math.exp(raw.log_scale)        # u'(R) on the scale of evaluate
+    p = np.broadcast_to(ch.eq.p(0.0, grid.sample), grid.r.shape)
+    return table_change(ch, 0.0, grid, (u / slope) ** 2, (w / (p * slope)) ** 2) / p_far(ch, 0.0)
+
+
+def _table_range_error(ch: Channel, a: float, r_e: float) -> float:
+    """The first-order change of a Schrodinger effective range from the tables' uncertainty (bohr).
+
+    Notes
+    -----
+    With phi_k = u_k / sin(delta) (u_k of unit amplitude, so phi_k -> cos kr + cot(delta) sin kr, and
+    phi_0 -> 1 - r/a), the phase formula of :mod:`.tables` gives d(k cot delta) = (1/p_inf) integral
+    dq phi_k^2 dr, and at k = 0 d(-1/a) likewise with phi_0. So g(k) = 2 (k cot delta + 1/a) / k^2 =
+    r_e + O(k^2) changes by (2 / (k^2 p_inf)) integral dq (phi_k^2 - phi_0^2) dr, and r_e by that
+    combined at k and 2k as (4 g(k) - g(2k)) / 3 (k = 0.01 / max(|a|, L, |r_e|), the O(k^2) term
+    removed); one batch of three energies (0, k, 2k) integrated for it, only when a table is there.
+    """
+    k = _K_EFFECTIVE / max(abs(a), ch.length, abs(r_e)) * np.array([1.0, 2.0])
+    E = np.concatenate(([0.0], k * k / (2 * ch.eq.mass)))
+    R = [matching_radius(ch, float(e), 1e-12)[0] for e in E]
+    raws, evaluate = integrate(ch, E, [[x] for x in R], 1e-12, dense=True)
+    grid = table_grid(ch, _start(ch, float(k[-1])), min(R), 0.0)
+    u = evaluate(grid.r)[0]
+    slope = R[0] ** ch.gamma * raws[0][0].du * math.exp(raws[0][0].log_scale)
+    phi0 = (u[0] / slope) ** 2 / (a * a)                          # (1 - r/a)^2 far out
+    kernel = np.zeros_like(phi0)
+    for i, weight in ((1, 4.0 / 3.0), (2, -1.0 / 3.0)):
+        m = match(ch, float(E[i]), raws[i][0])
+        phi = u[i] / (m.amplitude * R[i] ** ch.gamma * math.exp(raws[i][0].log_scale) * math.sin(m.delta))
+        kernel += weight * 2.0 * (phi * phi - phi0) / k[i - 1] ** 2
+    return table_change(ch, 0.0, grid, kernel, np.zeros_like(kernel)) / p_far(ch, 0.0)
 
 
 def _effective_range_from_phases(ch: Channel, a: float) -> tuple[float | None, float | None]:
