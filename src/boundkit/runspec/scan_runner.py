@@ -77,7 +77,7 @@ class ScanRunner:
                  "values": list(sec.values), "energy_unit_of_rows": "hartree", "rows": rows}
         if hasattr(res, "to_dict"):
             try:
-                entry["result"] = _clean(res.to_dict())
+                entry["result"] = _clean(res.to_dict(self.e_unit))
             except Exception:  # noqa: BLE001 - a richer record is optional
                 pass
         md = [f"## Scan{suffix}: levels against {sec.parameter}", "",

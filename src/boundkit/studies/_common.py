@@ -288,6 +288,14 @@ def check_varied(potential, scalar, names: Sequence[str]) -> None:
                          f"{', '.join(taken) or 'no parameters'}")
 
 
+def call_units(settings: Mapping[str, Any]) -> tuple[str, str]:
+    """(energy, length) unit of a study's unit system, from its ``settings['solve_kwargs']['units']``:
+    hartree and bohr, or MeV and fm with units='nuclear' (the defaults of its records)."""
+    from ..units import system_units
+
+    return system_units((settings.get("solve_kwargs") or {}).get("units", "atomic"))
+
+
 def parameter_units(potential, scalar, names: Sequence[str], units: str = "atomic") -> dict[str, str]:
     """Unit of each named parameter, from the built-in terms' declarations ('' if unknown)."""
     from ..potentials import _as_list

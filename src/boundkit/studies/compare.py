@@ -19,7 +19,7 @@ from ..solver import solve
 from ..reporting import channel_summary, difference_error, format_difference
 from ..states import check_convention, convert_label
 from ..units import constants_record, energy_unit, hartree_to
-from ._common import describe
+from ._common import call_units, describe
 
 __all__ = ["compare", "CompareResult"]
 
@@ -93,9 +93,13 @@ class CompareResult:
             raise KeyError(f"level {label!r} has no fine-structure splitting (l = 0, or a level missing)")
         return float(hartree_to(v, unit))
 
-    def to_dict(self, unit: str = "hartree", splitting_unit: str | None = None) -> dict[str, Any]:
-        """JSON-ready record: energies in ``unit``, differences in ``splitting_unit`` (default ``unit``)."""
-        unit = energy_unit(unit)
+    def _system(self) -> tuple[str, str]:
+        return call_units(self.settings)
+
+    def to_dict(self, unit: str | None = None, splitting_unit: str | None = None) -> dict[str, Any]:
+        """JSON-ready record: energies in ``unit`` (default the call's: hartree, or MeV with units='nuclear'),
+        differences in ``splitting_unit`` (default ``unit``)."""
+        unit = energy_unit(unit or self._system()[0])
         sunit = energy_unit(splitting_unit or unit)
         rows = []
         for r in self.rows:
@@ -107,14 +111,15 @@ class CompareResult:
                 for k in (key, key + "_error"):
                     out[k] = None if r[k] is None else float(hartree_to(r[k], sunit))
             rows.append(out)
-        return {"units": {"energy": unit, "differences": sunit, "length": "bohr"}, "rows": rows,
+        return {"units": {"energy": unit, "differences": sunit, "length": self._system()[1]}, "rows": rows,
                 "statuses": self.statuses, "messages": self.messages, "success": self.success,
                 "settings": self.settings,
                 "constants": constants_record()}
 
-    def table(self, unit: str = "hartree", splitting_unit: str | None = None) -> str:
-        """Two plain-text tables: levels in ``unit``; shifts and splittings in ``splitting_unit``."""
-        unit = energy_unit(unit)
+    def table(self, unit: str | None = None, splitting_unit: str | None = None) -> str:
+        """Two plain-text tables: levels in ``unit`` (default the call's); shifts and splittings in
+        ``splitting_unit``."""
+        unit = energy_unit(unit or self._system()[0])
         sunit = energy_unit(splitting_unit or unit)
 
         def fmt(x, u, w=22):

@@ -47,7 +47,7 @@ from ..solver import check_levels, solve
 from ..units import ENERGY_UNITS, LENGTH_UNITS, column, constants_record, hartree_to, system_units
 from ..units import energy_unit as _energy_unit
 from . import _common
-from ._common import (ProgressBar, canonical_equation, channel_for, channel_name, check_varied, describe,
+from ._common import (ProgressBar, call_units, canonical_equation, channel_for, channel_name, check_varied, describe,
                       expected_labels, parameter_units, rebuild_potential, resolve_params,
                       write_atomic, write_json_atomic)
 
@@ -259,14 +259,20 @@ class ScanResult:
         E = np.array([np.nan if r["energy"] is None else hartree_to(r["energy"], unit) for r in rows])
         return x, E
 
+    def _system(self) -> tuple[str, str]:
+        return call_units(self.settings)
+
     def _length_unit(self) -> str:
-        """The length unit of the scan's unit system (bohr, or fm with units='nuclear')."""
-        from ..units import system_units
+        return self._system()[1]
 
-        return system_units((self.settings.get("solve_kwargs") or {}).get("units", "atomic"))[1]
+    def _energy_unit(self, unit: str | None) -> str:
+        """``unit``, or the scan's system's when None."""
+        return _energy_unit(unit) if unit is not None else self._system()[0]
 
-    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
-        """A JSON-ready record (energies in ``unit``; absent levels as null)."""
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        """A JSON-ready record (energies in ``unit``, default the call's: hartree, or MeV with
+        units='nuclear'; absent levels as null)."""
+        unit = self._energy_unit(unit)
         rows = []
         for r in self.rows:
             r = dict(r)
@@ -281,8 +287,9 @@ class ScanResult:
                 "settings": self.settings, "constants": constants_record(), "rows": rows,
                 "solved": self.solved, "reused": self.reused, "seconds": self.seconds}
 
-    def to_csv(self, unit: str = "hartree") -> str:
-        """The rows as CSV text (energies in ``unit``, empty when absent)."""
+    def to_csv(self, unit: str | None = None) -> str:
+        """The rows as CSV text (energies in ``unit``, default the call's, empty when absent)."""
+        unit = self._energy_unit(unit)
         buf = io.StringIO()
         u = "hartree" if unit == "hartree" else unit
         cols = [*(column(p, self.parameter_units.get(p, "")) for p in self.parameters), "equation", "channel",
@@ -296,8 +303,9 @@ class ScanResult:
                         e, de, r["status"], r["message"]])
         return buf.getvalue()
 
-    def table(self, unit: str = "hartree") -> str:
-        """A plain-text table (energies in ``unit``)."""
+    def table(self, unit: str | None = None) -> str:
+        """A plain-text table (energies in ``unit``, default the call's)."""
+        unit = self._energy_unit(unit)
         def named(p: str) -> str:
             u = self.parameter_units.get(p, "")
             return f"{p} ({u})" if u else p
