@@ -615,3 +615,19 @@ def test_cli_resonances_header_quotes_the_contour_in_the_length_unit_of_the_unit
     per = sc.physical_constants["Bohr radius"][0] * 1e15 if length == "fm" else 1.0
     assert float(got.group(1)) == pytest.approx(settings["r0_bohr"] * per, rel=1e-5)    # printed to 6 digits
     assert float(got.group(3)) == pytest.approx(settings["r_max_bohr"] * per, rel=1e-5)
+
+
+def test_contour_lengths_follow_the_call_units():
+    """r0, r_max and h were read in bohr under units='nuclear' (phases' hard_core reads fm there): r_max = 40
+    meant as fm asked for a 40-bohr mesh of 4e6 unknowns. They now follow the call's units; the settings keep
+    bohr (fm per bohr: alpha hbar c / E_h, boundkit.units.FM_PER_BOHR, from scipy.constants)."""
+    from boundkit.units import FM_PER_BOHR, MEV_IN_HARTREE
+
+    ws = {"depth": 50.0, "radius": 5.0, "diffuseness": 0.6}
+    res = boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
+                              window=(0.1 * MEV_IN_HARTREE, 10 * MEV_IN_HARTREE), r0=12.0, r_max=40.0)
+    assert res.settings["r0_bohr"] == pytest.approx(12.0 / FM_PER_BOHR, rel=1e-15)
+    assert res.settings["r_max_bohr"] == pytest.approx(40.0 / FM_PER_BOHR, rel=1e-15)
+    with pytest.raises(ValueError, match=r"^r0: must be >= 0 fm, got -1$"):
+        boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
+                            window=(0.1 * MEV_IN_HARTREE, 10 * MEV_IN_HARTREE), r0=-1.0)

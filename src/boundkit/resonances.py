@@ -84,7 +84,7 @@ from ._threads import inside, one_blas_thread, usable_cores
 from ._checks import check_finite, check_int, check_positive
 from ._rounding import beside
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
-from .units import C_AU, constants_record, hartree_to
+from .units import C_AU, bohr_to, constants_record, hartree_to, system_units, to_atomic
 
 __all__ = ["Resonance", "ResonanceResult", "resonances"]
 
@@ -380,11 +380,12 @@ def _mesh_plan(eq, pot, window, angles, analytic, r0, r_max, h) -> dict:
             "inner": inner, "natural_length": L}
 
 
-def _check_size(plan: dict, per_element: int, r_max_given: bool) -> None:
+def _check_size(plan: dict, per_element: int, r_max_given: bool, length_unit: str = "bohr") -> None:
     """Refuse, before any edge is laid, a mesh that cannot stay within _MAX_SIZE unknowns: the real
     segment needs at least R0 / h - 1 elements and the rotated one (r_max - R0) / h_out, which
     :func:`_edges` would lay one by one (4e11 of them for r_max = 1e12 bohr; an energy of 1e300
-    hartree made h 1e-150 bohr and numpy's linspace gave up with 'Maximum allowed size exceeded')."""
+    hartree made h 1e-150 bohr and numpy's linspace gave up with 'Maximum allowed size exceeded'). A given r_max is quoted in
+    ``length_unit``, the unit it was given in."""
     r0, r_max = plan["r0"], plan["r_max"]
     inner = r0 / plan["h"] - 1 if r0 > 0 else 0.0
     outer = (r_max - r0) / plan["h_out"]
@@ -393,7 +394,8 @@ def _check_size(plan: dict, per_element: int, r_max_given: bool) -> None:
         return
     count = f"at least {least:.3g}" if math.isfinite(least) else "more than 1e308"
     if r_max_given and outer * per_element > _MAX_SIZE:
-        raise ValueError(f"r_max: the scaled mesh out to r_max = {r_max:.4g} bohr needs {count} unknowns, more "
+        raise ValueError(f"r_max: the scaled mesh out to r_max = {bohr_to(r_max, length_unit):.4g} {length_unit} "
+                         f"needs {count} unknowns, more "
                          f"than the limit of {_MAX_SIZE} of a dense eigenproblem; give a smaller r_max (or none: "
                          "it is then set by the window)")
     raise _window_too_big(count)
@@ -460,7 +462,8 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         Lobatto order of the elements (>= 6); the stability test also runs
         at ``order - 4`` (first angle only).
     r0, r_max, h : float, optional
-        Start of the rotated segment, end of the mesh and element size (bohr);
+        Start of the rotated segment, end of the mesh and element size (bohr, or fm with
+        ``units='nuclear'``; the settings keep them in bohr);
         chosen from the potential and the window when omitted.
     analytic : callable or True, optional
         V(z) for complex z (bohr -> hartree) used on the rotated segment
@@ -512,11 +515,13 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     angles = check_angles("angles", angles)
     order = check_int("order", order, minimum=6)
     tol = check_positive("tol", tol)
+    lu = system_units(units)[1]          # r0, r_max and h are read in the call's length unit
     for name, v in (("r0", r0), ("r_max", r_max), ("h", h)):
         if v is not None:
             (check_finite if name == "r0" else check_positive)(name, v)
     if r0 is not None and r0 < 0:
-        raise ValueError(f"r0: must be >= 0 bohr, got {r0:g}")
+        raise ValueError(f"r0: must be >= 0 {lu}, got {r0:g}")
+    r0, r_max, h = (None if v is None else to_atomic(v, "bohr", units) for v in (r0, r_max, h))
     if r0 == 0 and analytic is None:
         raise ValueError("r0: r0 = 0 (uniform scaling) needs analytic=, the potential as a function of complex r")
     if analytic is not None and analytic is not True and not callable(analytic):
@@ -543,9 +548,9 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
             r0 = max(pot.breakpoints, default=0.0)
     plan = _mesh_plan(eq, pot, (emin, emax), angles, analytic, r0, r_max, h)
     if plan["r_max"] <= plan["r0"]:
-        raise ValueError(f"r_max: must exceed r0 = {plan['r0']:.4g} bohr")
+        raise ValueError(f"r_max: must exceed r0 = {bohr_to(plan['r0'], lu):.4g} {lu}")
     per_node = 1 if eq.name == "schrodinger" else 2
-    _check_size(plan, order * per_node, r_max is not None)
+    _check_size(plan, order * per_node, r_max is not None, lu)
     edges = _edges(plan, pot)
     orders = (order - 4, order)
     size = (len(edges) - 1) * order * per_node
@@ -604,7 +609,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         # an unscaled segment of several wavelengths: on 7.5 r^2 exp(-r) (R0 = 35 bohr, k R0 = 130) the
         # resonances with Gamma/2 = 1.1 (l = 0), 1.05 (l = 2) and 2.0 hartree (l = 3) were missed
         message += (f"; broad resonances, whose outgoing wave grows over the unscaled segment (to R0 = "
-                    f"{plan['r0']:.3g} bohr), can be missed: for an analytic potential use analytic=True (--analytic)")
+                    f"{bohr_to(plan['r0'], lu):.3g} {lu}), can be missed: for an analytic potential use analytic=True (--analytic)")
     return ResonanceResult(tuple(found), True, status, message, eq.name, pot.name, settings, constants_record(),
                            _UNITS, diagnostics)
 

@@ -38,8 +38,10 @@ def _numbers(option: str, text: str, count: int | None = None) -> tuple[float, .
               help="Complex-scaling angles in radians (at least two, one at least 0.05 rad from the first).")
 @click.option("--order", type=int, default=12, show_default=True,
               help="Lobatto order of the elements; the stability test also uses order - 4.")
-@click.option("--r0", type=float, default=None, help="Start of the rotated segment in bohr (default: automatic).")
-@click.option("--r-max", type=float, default=None, help="End of the mesh in bohr (default: automatic).")
+@click.option("--r0", type=float, default=None,
+              help="Start of the rotated segment in bohr, fm with --units nuclear (default: automatic).")
+@click.option("--r-max", type=float, default=None,
+              help="End of the mesh in bohr, fm with --units nuclear (default: automatic).")
 @click.option("--analytic", is_flag=True, default=False,
               help="Continue the potential itself to complex r on the rotated segment (expressions without abs "
                    "and where, and coulomb terms); --r0 then defaults to 0, uniform scaling. Finds broad "
