@@ -317,3 +317,10 @@ def test_point_files_are_in_the_scan_units_and_name_them(tmp_path):
     third = scan("schrodinger", "woods-saxon", ws, {"depth": [40.0, 50.0]}, energy_unit="eV", **kw)
     assert (third.solved, third.reused) == (1, 1)
     assert fm_per_bohr == pytest.approx(boundkit.units.bohr_to(1.0, "fm"), rel=1e-10)
+
+
+def test_a_value_listed_twice_is_refused():
+    """scan(vary={'Z': [1, 1, 2]}) solved Z = 1 twice (the command line and run specs refuse it)."""
+    with pytest.raises(ValueError, match=r"^vary\['Z'\]: the value 1 is listed twice \(it would be solved twice\); "
+                                         r"list each value once$"):
+        boundkit.scan("schrodinger", "coulomb", {"Z": 1.0}, vary={"Z": [1, 1.0, 2]}, workers=1)
