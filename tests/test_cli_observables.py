@@ -301,3 +301,12 @@ def test_cli_states_file_follows_energy_unit(tmp_path):
     assert meta["levels"][0]["energy"] == pytest.approx(-0.5 * sc.physical_constants["Hartree energy in eV"][0],
                                                         rel=1e-12)
     assert "(r in bohr, energies in eV)" in r.output
+
+
+def test_transitions_text_names_the_line_strength_unit():
+    """The text header said 'S in atomic units' only; it names the unit and convention the JSON gives."""
+    from boundkit.transitions import LINE_STRENGTH_UNIT
+
+    r = run("transitions", "--max-n", "2")
+    assert r.exit_code == 0, r.output
+    assert f"S in {LINE_STRENGTH_UNIT};" in r.output and "e^2 bohr^(2J)" in LINE_STRENGTH_UNIT

@@ -57,9 +57,11 @@ def write_states_file(res, path: str, length_unit: str, energy_unit: str = "hart
 
 
 def _format_lines(tr) -> str:
+    from ..transitions import LINE_STRENGTH_UNIT
+
     u = tr.energy_unit
     out = [f"{tr.equation} equation, potential {tr.potential}: {tr.message}",
-           f"line energies in {u}; S in atomic units; f absorption oscillator strength; A in 1/s", "",
+           f"line energies in {u}; S in {LINE_STRENGTH_UNIT}; f absorption oscillator strength; A in 1/s", "",
            f"{'upper':<8} {'lower':<8} {'mult':<4} {'energy':>16} {'lambda (nm)':>14} {'S':>13} {'f':>12} "
            f"{'A (1/s)':>12} {'check':>10}"]
     for ln in tr.lines:
