@@ -184,3 +184,40 @@ def test_an_undecided_threshold_state_keeps_the_tolerance_verdict():
     assert re.search(r"found the 1 level\(s\) that are surely bound; one more state lies at the threshold", res.message)
     assert re.search(r"worst estimated relative error \S+ exceeds tol = 1e-15", res.message), res.message
     assert "<=" not in res.message
+
+
+# --- finite differences: a level far shallower than its well --------------------------------------
+def _exp_well_level(V0: float, E_near: float) -> float:
+    """The s level of V = -V0 e^-r (m = 1) near E_near: J_nu(2 sqrt(2 V0)) = 0 with nu = 2 sqrt(-2 E), so
+    E = -nu^2 / 8 (u = J_nu(2 sqrt(2 V0) e^(-r/2)) solves the radial equation and vanishes far out; Fluegge,
+    Practical Quantum Mechanics, 1971, the exponential well, from memory), the root in nu by mpmath at 40
+    digits from the solver's own value."""
+    with mp.workdps(40):
+        x0 = 2 * mp.sqrt(2 * mp.mpf(V0))
+        nu = mp.findroot(lambda n: mp.besselj(n, x0), 2 * mp.sqrt(-2 * mp.mpf(E_near)))
+        return float(-nu**2 / 8)
+
+
+@pytest.mark.parametrize("x0, excess", [(5.520078110286311, 1e-6), (11.79153443901428, 1e-6)])
+def test_finite_difference_levels_at_their_potential_energy_rounding_are_within_their_estimates(x0, excess):
+    """The top s level of an exponential well just past the threshold where J_0(x0) = 0 (x0 the 2nd and 4th
+    zeros of J_0, Abramowitz & Stegun table 9.5): the finite differences put it 1.3e-14 and 1.1e-13 <|V|> off
+    with estimates at their rounding floor, 5e-13 |E|, 13x and 160x below the error (a tester's Yukawa-sum well
+    first). Over 15 such wells (the 2nd to 4th zeros, 1e-2 to 1e-6 past them) the finite differences' error
+    reached 5.2e-13 <|V|>."""
+    V0 = (x0 / 2) ** 2 / 2 * (1 + excess)
+    res = boundkit.solve("schrodinger", ExpressionTerm(f"-{V0!r}*exp(-r)"), l=0, levels="all",
+                         method="finite-difference", tol=1e-12)
+    top = res.levels[-1]
+    exact = _exp_well_level(V0, top.energy)
+    assert abs(top.energy - exact) <= top.error_estimate, (top.energy - exact, top.error_estimate)
+
+
+def test_finite_difference_shallow_yukawa_sum_level_within_its_estimate():
+    """A tester's case: -3 e^-r/r - 2 e^(-r/5)/r + 1.5 e^(-2r)/r, l = 2, the one level at -4.2146165743466e-4
+    hartree (the tester's own DOP853 Pruefer shooting, three settings agreeing to 1.2e-19; not an exact
+    result): the finite differences were 1.2e-15 off with an estimate of 2.1e-16."""
+    res = boundkit.solve("schrodinger", ExpressionTerm("-3*exp(-r)/r - 2*exp(-r/5)/r + 1.5*exp(-2*r)/r"), l=2,
+                         levels="all", method="finite-difference")
+    (lv,) = res.levels
+    assert abs(lv.energy - -4.2146165743466e-4) <= lv.error_estimate
