@@ -9,7 +9,11 @@ from scipy.constants import physical_constants
 import boundkit
 
 HBARC = physical_constants["reduced Planck constant times c in MeV fm"][0]   # CODATA
-MP = physical_constants["proton mass energy equivalent in MeV"][0]             # CODATA
+# the proton's rest energy as boundkit takes it (README, Constants): CODATA's proton-electron mass ratio times
+# m_e c^2 = E_h / alpha^2; CODATA's tabulated "proton mass energy equivalent in MeV" is 1.4e-11 away from it
+# (the rounding of the tables) and moves a level by up to that much
+MP = (physical_constants["proton-electron mass ratio"][0] * physical_constants["Hartree energy in eV"][0] * 1e-6
+      / physical_constants["fine-structure constant"][0] ** 2)
 
 
 def ws_condition(E, V0, R, a, m):
@@ -115,7 +119,8 @@ def test_a_nearly_square_well_converges_to_the_square_well(a):
 def test_sharp_woods_saxon_s_levels_against_the_exact_condition():
     """a/R = 1e-3 against the hypergeometric condition above, evaluated with 470 digits (1 - z0 =
     e^(-R/a) = e^(-1000)); before the graded edge the solve stopped at an estimate of 6e-8 and was
-    5e-10 off. Agreement to 3e-12 here, the same offset as at a = 0.5 fm (the CODATA spread)."""
+    5e-10 off. Agreement to 3e-12 here (it was 3e-12 with CODATA's tabulated proton mass and a0, whose
+    offsets happened to cancel; with the exact hbar c and the tabulated mass, 9.7e-12)."""
     V0, R, a = 50.0, 5.0, 0.005
     res = boundkit.solve("schrodinger", "woods-saxon", {"depth": V0, "radius": R, "diffuseness": a}, l=0,
                          levels=2, units="nuclear", particle="proton", tol=1e-10)

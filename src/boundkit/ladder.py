@@ -66,7 +66,6 @@ def ladder_for(tol: float) -> tuple:
     return tuple(n for n in DEGREES if n >= start) or DEGREES[-1:]
 FLOOR = 2e-14        # rounding floor of refined energies (extended-precision residuals)
 POTENTIAL_FLOOR = 9.5e-15  # ... and of a level's potential energy (see potential_floor)
-POTENTIAL_FLOOR_FD = 1e-12  # the same for the finite differences (see potential_floor)
 _PHASE = 5.0         # WKB phase (radians of oscillation, or e-folds / 3 of decay) per element
 _MAX_DT = 3.0        # longest element in t
 _MAX_DT_QUIET = 6.0  # longest quiet element (f nearly constant there)
@@ -130,9 +129,8 @@ def layout(eq, pot, sample_fn, r_min: float, r_max: float, energies) -> tuple[li
 _SCATTER = 4.0     # see with_potential_floor
 
 
-def potential_floor(state, V_abs, factor: float = POTENTIAL_FLOOR) -> float:
-    """The rounding floor of a level's energy set by the potential it feels: ``factor`` <|V|>, POTENTIAL_FLOOR
-    for the spectral family, POTENTIAL_FLOOR_FD for the finite differences.
+def potential_floor(state, V_abs) -> float:
+    """The rounding floor of a level's energy set by the potential it feels: POTENTIAL_FLOOR <|V|>.
 
     ``V_abs`` is |V| + |S| (or |V + S|) on the state's nodes. A level far shallower than its well (the
     top s level of a square well 1e4 times deeper than its binding) carries the rounding of its
@@ -145,13 +143,9 @@ def potential_floor(state, V_abs, factor: float = POTENTIAL_FLOOR) -> float:
     <|V|>. For a Coulomb level <|V|> = 2 |E| (2.00003 |E| for the Dirac 1s at Z = 1), and FLOOR |E|
     stays the larger: at 1e-14 the two were equal to rounding, and an unreachable tol on hydrogen was
     put down to the potential energy instead of the rounding floor (tests/test_accuracy.py).
-    The finite differences round far more (stencils of 1/h^2 coefficients): on the top s levels of 15
-    exponential wells 1e-2 to 1e-6 past the thresholds J_0(2 sqrt(2 V0)) = 0 (2nd to 4th zeros; exact Bessel
-    condition at 40 digits) their error reached 5.2e-13 <|V|>, and two were 13 and 160 times their estimates
-    at the family's floor 5e-13 |E|; POTENTIAL_FLOOR_FD is 1e-12.
     """
     dens = state.P**2 if state.Q is None else state.P**2 + state.Q**2
-    return factor * float(np.sum(state.weights * dens * V_abs))
+    return POTENTIAL_FLOOR * float(np.sum(state.weights * dens * V_abs))
 
 
 def with_potential_floor(notes: list, label: str, E: float, est: float, floor: float, tol: float,

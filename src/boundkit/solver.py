@@ -2141,22 +2141,9 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
                        diagnostics=diagnostics)
 
 
-_FD_SHALLOW = 3.0     # <|V|> / |E| above which a finite-difference level takes the potential floor
-
-
 def _solve_collocation(eq, pot, disc, levels, tol):
-    """Finite differences (and a user's collocation family): refine the located levels per level.
-
-    A level whose <|V|> exceeds _FD_SHALLOW |E| has an estimate of at least the rounding of its potential
-    energy, POTENTIAL_FLOOR_FD <|V|> (:func:`boundkit.ladder.potential_floor`). On the s levels of 18
-    exponential wells (exact Bessel condition) the error was at most 5.5e-14 |E| (within the family's floor,
-    5e-13 |E|) for <|V|> / |E| up to 2.9, and up to 2.4e-13 <|V|> = 9.5e-13 |E| from 3.5 on (up to 5.2e-13
-    <|V|> far past it); a floor on every level would have put the hydrogen levels (<|V|> = 2 |E|, errors of
-    3e-14 |E|) at 2e-12 relative and tol 1e-12 out of reach."""
-    from .ladder import POTENTIAL_FLOOR_FD, potential_floor, with_potential_floor
-
+    """Finite differences (and a user's collocation family): refine the located levels per level."""
     ch = prepare_channel(eq, pot, levels)
-    sample = sampler(pot)
     tally = ch.tally
     per_level = []
     found: list[Level] = []
@@ -2223,11 +2210,6 @@ def _solve_collocation(eq, pot, disc, levels, tol):
                 est = gap + seed_err[k]
                 record["estimate_from_located_level"] = True
         state = _state(eq, op, E, ref.vector)
-        s = sample(state.r)
-        floor = potential_floor(state, np.abs(s.V) + np.abs(s.S), POTENTIAL_FLOOR_FD)
-        if floor > _FD_SHALLOW * POTENTIAL_FLOOR_FD * abs(E):      # a level far shallower than its well
-            est, hit = with_potential_floor(tally.notes, label, E, est, floor, tol, history)
-            tally.potential_floor_hit |= hit
         est = max(est, _cut_error(eq, pot, state, E))
         worst = max(worst, est / abs(E))
         found.append(Level(n=n, l=eq.l, j=eq.j, kappa=eq.kappa, label=label, energy=E,
