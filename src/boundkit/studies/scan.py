@@ -667,7 +667,8 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
         if not vals or not all(math.isfinite(v) for v in vals):
             raise ValueError(f"vary[{name!r}]: expected a non-empty sequence of finite numbers")
         check_count(f"vary[{name!r}]", len(vals), max_points, "max_points=", "values or more")
-        twice = next((v for i, v in enumerate(vals) if v in vals[:i]), None)
+        seen: set[float] = set()
+        twice = next((v for v in vals if v in seen or seen.add(v)), None)
         if twice is not None:
             raise ValueError(f"vary[{name!r}]: the value {twice:g} is listed twice (it would be solved twice); "
                              "list each value once")
