@@ -97,3 +97,12 @@ def test_phases_levinson_refuses_a_channel_option_it_would_ignore(extra, option)
     assert res.exit_code == 2, res.output
     assert __import__("re").match(rf"^boundkit: error: {option}: --levinson checks a Schrodinger channel given by "
                                   rf"--l alone; leave out {option}$", res.stderr.strip()), res.stderr
+
+
+def test_resonances_and_converge_name_the_channel_options():
+    """The channel keywords were named as options by solve, scan and phases only (a review): resonances and
+    converge printed 'kappa: ...' for the same refusal."""
+    for args in (["resonances", "-e", "dirac", "--l", "1", "--window=-1,0"], ["converge", "-e", "dirac", "--l", "1"]):
+        r = run(*args)
+        assert r.exit_code != 0 and r.output.startswith("boundkit: error: --kappa: the Dirac equation needs kappa"), \
+            r.output

@@ -47,13 +47,15 @@ def api_message(exc: Exception, options: dict[str, str] | None = None) -> str:
     (``max_nodes= (API)``); the message then names the option instead. An
     :class:`boundkit._checks.OptionError` carries its command-line wording (``--param Z=1`` for the
     API's ``params={'Z': 1} (--param Z=1 on the command line)``), which is used. A message that starts
-    with a keyword (``hard_core: must be positive``; ``params``, ``r_unit`` and ``v_unit`` are always
-    ``--param``, ``--table-r-unit`` and ``--table-v-unit``) starts with its option. Any other error is
+    with a keyword (``hard_core: must be positive``; ``params``, ``r_unit``, ``v_unit``, ``l``, ``kappa`` and
+    ``j`` are always ``--param``, ``--table-r-unit``, ``--table-v-unit``, ``--l``, ``--kappa`` and ``--j``)
+    starts with its option. Any other error is
     its own message.
     """
     from .._checks import LimitError, OptionError
 
-    options = {"params": "--param", "r_unit": "--table-r-unit", "v_unit": "--table-v-unit", **(options or {})}
+    options = {"params": "--param", "r_unit": "--table-r-unit", "v_unit": "--table-v-unit", "l": "--l",
+               "kappa": "--kappa", "j": "--j", **(options or {})}
     if isinstance(exc, LimitError) and exc.keyword in options:
         return exc.naming(options[exc.keyword])
     text = exc.command_line if isinstance(exc, OptionError) else str(exc)

@@ -12,7 +12,7 @@ import click
 from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_plot_path, fail, json_text, report_unit,
                      write_figure)
-from .options import (CHANNEL_OPTIONS, build_potential, channel_options, energy_unit_option, equation_option, json_option,
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       particle_options, plot_option, potential_options, tol_option)
 
 __all__ = ["phases_cmd"]
@@ -102,7 +102,7 @@ def phases_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_
             out["scattering_length"] = scattering_length(equation, vector, values, kappa=kappa,
                                                          scalar=scalar or None, hard_core=hard_core, **common)
     except ValueError as exc:
-        fail(api_message(exc, {**_LIMITS, **CHANNEL_OPTIONS}))
+        fail(api_message(exc, _LIMITS))
     if as_json:     # to_dict gives lengths in the call's unit system (fm with --units nuclear), as the text
         record = {"phases": res.to_dict(unit)}
         if "levinson" in out:

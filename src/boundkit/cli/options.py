@@ -18,7 +18,7 @@ import click
 
 from .common import channel_number, given_option, parse_params
 
-__all__ = ["CHANNEL_OPTIONS", "potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
+__all__ = ["potential_options", "build_potential", "subset_params", "equation_option", "channel_options",
            "levels_option", "tol_option", "method_option", "order_option", "particle_options", "energy_unit_option",
            "plot_option", "json_option", "METHODS", "ENERGY_UNIT_NAMES", "length_unit_option", "labels_option",
            "LENGTH_UNIT_NAMES"]
@@ -43,9 +43,6 @@ def equation_option(multiple: bool = False):
     return click.option("--equation", "-e", default="schrodinger", show_default=True,
                         help="schrodinger, klein-gordon or dirac.")
 
-
-CHANNEL_OPTIONS = {"l": "--l", "kappa": "--kappa", "j": "--j"}
-"""API keyword -> option of the channel (for :func:`boundkit.cli.common.api_message`)."""
 
 
 def channel_options(j: bool = True, multiple: bool = False):

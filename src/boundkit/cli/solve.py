@@ -7,7 +7,7 @@ import click
 
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, api_message, check_output_path, check_particle,
                      check_plot_path, clip_message, fail, json_text, report_length, report_unit, write_figure)
-from .options import (CHANNEL_OPTIONS, build_potential, channel_options, energy_unit_option, equation_option, json_option,
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, length_unit_option, levels_option, method_option, order_option,
                       particle_options, plot_option, potential_options, tol_option)
 
@@ -136,7 +136,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
             record = add_observables(record, res, length)
             extra = observables_table(res, length)
     except ValueError as exc:
-        fail(api_message(exc, {"max_levels": "--max-levels", **CHANNEL_OPTIONS}))
+        fail(api_message(exc, {"max_levels": "--max-levels"}))
     if as_json:
         click.echo(json_text(record))
     else:

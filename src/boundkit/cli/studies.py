@@ -13,7 +13,7 @@ from .._checks import MAX_L
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_output_folder, check_particle,
                      check_plot_path, check_tol,
                      clip_message, fail, json_text, report_length, report_unit, write_figure)
-from .options import (CHANNEL_OPTIONS, build_potential, channel_options, energy_unit_option, equation_option, json_option,
+from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
                       plot_option, potential_options, tol_option)
 
@@ -129,7 +129,7 @@ def scan_cmd(equations, potentials, scalars, exprs, scalar_exprs, files, table_t
                    progress=progress, scalar=scalar or None, units=unit_system, labels=labels, energy_unit=unit,
                    **limit, **kwargs)
     except (ValueError, StudyError) as exc:   # StudyError: a Dask cluster without workers
-        fail(api_message(exc, {"max_levels": "--max-levels", "vary": "--vary", **CHANNEL_OPTIONS}))
+        fail(api_message(exc, {"max_levels": "--max-levels", "vary": "--vary"}))
     if as_json:
         click.echo(json_text(res.to_dict(unit)))
     else:
