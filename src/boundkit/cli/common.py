@@ -152,22 +152,20 @@ def check_output_path(path: str | None, option: str, formats: tuple[str, ...], e
              "name or another folder")
     if not p.name or path.endswith(("/", os.sep)) or is_dir:
         fail(f"{option} {path!r}: not a file name; write e.g. {option} {example}")
-    check_output_folder(str(p.parent), option, path)
+    check_output_folder(path, option)
     if (p.suffix or not optional_suffix) and p.suffix.lower() not in formats:
         fail(f"{option} {path!r}: unsupported {what} {p.suffix or '(none)'!r}; use {', '.join(formats[:-1])} or "
              f"{formats[-1]}")
 
 
-def check_output_folder(path: str | None, option: str, given: str | None = None) -> None:
-    """Refuse a folder ``path`` to be created under a file (``--out /dev/null/x``), before anything is computed:
-    the message names the file. ``given``: a file the user named in the folder ``path`` (which may then be the
-    file in the way itself)."""
+def check_output_folder(path: str | None, option: str) -> None:
+    """Refuse a folder or file ``path`` to be created under a file (``--out /dev/null/x``), before anything is
+    computed: the message names the file in the way."""
     if path is None:
         return
-    above = Path(path).parents if given is None else (Path(path), *Path(path).parents)
-    blocking = next((a for a in above if a.exists() and not a.is_dir()), None)
+    blocking = next((a for a in Path(path).parents if a.exists() and not a.is_dir()), None)
     if blocking is not None:
-        fail(f"{option} {given or path!r}: {str(blocking)!r} is a file, not a folder; choose another folder")
+        fail(f"{option} {path!r}: {str(blocking)!r} is a file, not a folder; choose another folder")
 
 
 def write_figure(draw, path: str, option: str = "--plot") -> str | None:
