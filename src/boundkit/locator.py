@@ -166,13 +166,8 @@ def peak_undecided(op: SymmetricOperator, E: float) -> bool:
     _PEAK_NOISE rounding units (the largest seen at rounding, 0.3). A dense eigen-solve's own value of the
     eigenvalue carries the rounding of the whole matrix (u_r ||D K D||, 1e-12 here) and cannot tell it.
     """
-    _, v = op.lowest(E)
-    d = np.sqrt(op.row_scale)
-    u = v / d
-    u /= np.linalg.norm(u)
-    K = op.symmetric(E)
-    K *= d[:, None]
-    K *= d
+    K = op.scaled_symmetric(E)
+    u = sla.eigh(K, subset_by_index=[0, 0], driver="evx", check_finite=False)[1][:, 0]
     phi = float(u @ K @ u)
     a = np.abs(u)
     return abs(phi) <= _PEAK_NOISE * np.finfo(float).eps * float(a @ np.abs(K) @ a)

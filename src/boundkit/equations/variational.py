@@ -574,12 +574,17 @@ class SymmetricOperator:
         dsyevx at 400)."""
         import scipy.linalg as sla
 
+        K = self.scaled_symmetric(E)
+        w, u = sla.eigh(K, subset_by_index=[0, 0], driver="evx", overwrite_a=True, check_finite=False)
+        return float(w[0]), np.sqrt(self.row_scale) * u[:, 0]
+
+    def scaled_symmetric(self, E) -> np.ndarray:
+        """D K(E) D, D = diag(sqrt(row_scale)): the dense matrix :meth:`lowest` solves (a new array)."""
         d = np.sqrt(self.row_scale)
         K = self.symmetric(E)
         K *= d[:, None]
         K *= d
-        w, u = sla.eigh(K, subset_by_index=[0, 0], driver="evx", overwrite_a=True, check_finite=False)
-        return float(w[0]), d * u[:, 0]
+        return K
 
     def derivative_in_t(self, f):
         """df/dt at every node (the two one-sided values averaged at shared nodes)."""
