@@ -16,8 +16,8 @@ import scipy.constants as sc
 
 import boundkit
 from boundkit.units import FM_PER_BOHR, bohr_to, constants_record, hartree_to
+from exact import HBARC_MEV_FM      # CODATA via scipy.constants
 
-HBARC_MEV_FM = sc.physical_constants["reduced Planck constant times c in MeV fm"][0]    # CODATA via scipy
 CODATA_BOHR_FM = sc.physical_constants["Bohr radius"][0] / sc.femto
 
 
