@@ -62,7 +62,7 @@ def test_woods_saxon_table_phase_estimate_covers_the_interpolation(tmp_path, ori
         assert _covered(tab.delta[i], tab.error_estimate[i], ref.delta[i], ref.error_estimate[i])
         assert tab.error_estimate[i] < 5 * diff         # and not by an estimate of another order
     assert tab.status == "tolerance-not-met"
-    assert "table's interpolation error" in tab.message
+    assert "tables' interpolation error" in tab.message
     assert len(tab.diagnostics["table_error_rad"]) == len(E)
 
 

@@ -1747,7 +1747,9 @@ def _table_error(table, state) -> float:
 
 def _tables(pot) -> list:
     """The potential's tables (terms with an interpolation error), vector and scalar."""
-    return [t for t in tuple(pot.vector) + tuple(pot.scalar) if hasattr(t, "interpolation_difference")]
+    from .potentials.tabulated import table_terms
+
+    return [t for t, _ in table_terms(pot)]
 
 
 def table_error(pot, state: RadialState) -> float:
@@ -1777,9 +1779,9 @@ def _with_table_error(pot, found, tally, worst: float, tol: float):
             largest = max(largest, (err / abs(lv.energy), lv.label))
             tally.table_hit |= err > tol * abs(lv.energy)
         out.append(replace(lv, error_estimate=est))
-    tally.notes.append(f"the estimates include the tables' interpolation error (to first order, from splines of two "
-                       f"degrees and from the table continued linearly below its first point): at most "
-                       f"{largest[0]:.2g} relative ({largest[1] or 'no level'})")
+    from .potentials.tabulated import TABLE_ERROR_NOTE
+
+    tally.notes.append(f"{TABLE_ERROR_NOTE}: at most {largest[0]:.2g} relative ({largest[1] or 'no level'})")
     return out, worst
 
 

@@ -18,7 +18,8 @@ from ..units import energy_unit as canonical_unit
 from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
-from .tables import p_far, table_change, table_grid, table_terms
+from ..potentials.tabulated import TABLE_ERROR_NOTE, table_terms
+from .tables import p_far, table_change, table_grid
 
 log = logging.getLogger(__name__)
 
@@ -283,8 +284,6 @@ def _tabulate(ch: Channel, E: np.ndarray, tol: float, estimate: bool, settings: 
     return _assemble(ch, E, matches, err, Rs, reached, tol, estimate, settings, t0, unit, table)
 
 
-_TABLE_NOTE = ("the estimates include the table's interpolation error (to first order, from splines of two degrees "
-               "and from the table continued linearly below its first point)")
 _TABLE_FIX = ("give the table more points where the potential bends, or start it nearer r = 0 (below its first "
               "point the potential is modelled)")
 
@@ -325,7 +324,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
         status, msg = "ok", f"{len(E)} phase shift(s)" + (f", largest error estimate {err.max():.2g} rad"
                                                           if estimate else " (no error estimate asked)")
     if table is not None:
-        msg += f"; {_TABLE_NOTE}: at most {float(np.max(table)):.2g} rad"
+        msg += f"; {TABLE_ERROR_NOTE}: at most {float(np.max(table)):.2g} rad"
     log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
     if ch.tail_b:
         reference = (f"{'Coulomb' if ch.tail_charge else 'free'} waves, with an inverse-square tail "

@@ -54,18 +54,15 @@ import math
 import numpy as np
 
 from ..equations import Sample
+from ..potentials.tabulated import table_terms
 
-__all__ = ["table_terms", "TableGrid", "table_grid", "table_change"]
+__all__ = ["TableGrid", "table_grid", "table_change"]
 
 _GAUSS = 8            # Gauss-Legendre points per sub-interval (in ln r)
 _ORIGIN_STEP = 0.5    # sub-intervals in ln r below the first point (the integrand goes as r^(2 gamma + 1))
 _MAX_SUB = 256        # sub-intervals per table interval, at most
 
 
-def table_terms(pot) -> list[tuple[object, bool]]:
-    """(table, scalar?) for every term of ``pot`` with an interpolation error, vector then scalar."""
-    return ([(t, False) for t in pot.vector if hasattr(t, "interpolation_difference")]
-            + [(t, True) for t in pot.scalar if hasattr(t, "interpolation_difference")])
 
 
 class TableGrid:
