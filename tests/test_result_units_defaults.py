@@ -32,3 +32,13 @@ def test_scan_defaults_to_the_call_units():
     assert d["rows"][0]["energy"] == pytest.approx(s.rows[0]["energy"] * MEV_PER_HARTREE, rel=1e-15)
     assert s.to_csv().splitlines()[0].split(",")[4] == "energy_MeV"
     assert "MeV" in s.table().splitlines()[0]
+
+
+def test_critical_defaults_to_the_call_units():
+    """critical()'s record defaulted to hartree and bohr under units='nuclear' (a review)."""
+    r = boundkit.critical("schrodinger", "woods-saxon", {"depth": 50.0, "radius": 2.0, "diffuseness": 0.5},
+                          state="1s", vary="depth", units="nuclear", particle="proton")
+    d = r.to_dict()
+    assert d["units"]["energy"] == "MeV" and d["units"]["length"] == "fm"
+    i = next(i for i, p in enumerate(r.points) if p["found"])
+    assert d["points"][i]["energy"] == pytest.approx(r.points[i]["energy"] * MEV_PER_HARTREE, rel=1e-15)

@@ -215,9 +215,12 @@ class CriticalResult:
         unit = f" {self.parameter_unit}" if self.parameter_unit else ""
         return f"{self.value:.{_digits(self.value, self.uncertainty)}g} +- {self.uncertainty:.2g}{unit}"
 
-    def to_dict(self, unit: str = "hartree", length: str = "bohr") -> dict[str, Any]:
+    def to_dict(self, unit: str | None = None, length: str | None = None) -> dict[str, Any]:
         """A JSON-ready record: the points' energies (and the resonances past the value) in ``unit``, their
-        mesh ends ``r_max`` in ``length``; settings named ``..._hartree`` stay in hartree."""
+        mesh ends ``r_max`` in ``length`` (defaults: the call's unit system, hartree and bohr or MeV and fm);
+        settings named ``..._hartree`` stay in hartree."""
+        e_default, l_default = system_units(self.settings.get("units", "atomic"))
+        unit, length = unit or e_default, length or l_default
         energy = (lambda x: None if x is None else float(hartree_to(x, unit)))    # noqa: E731
         points = [{**p, **{k: energy(p.get(k)) for k in ("energy", "error_estimate", "table_error")},
                    "r_max": None if p.get("r_max") is None else float(bohr_to(p["r_max"], length))}
