@@ -1760,7 +1760,7 @@ def _table_error(table, state) -> float:
 
 def _tables(pot) -> list:
     """The potential's tables (terms with an interpolation error), vector and scalar."""
-    from .potentials.tabulated import table_terms
+    from .potentials.base import table_terms
 
     return [t for t, _ in table_terms(pot)]
 
@@ -1792,7 +1792,7 @@ def _with_table_error(pot, found, tally, worst: float, tol: float):
             largest = max(largest, (err / abs(lv.energy), lv.label))
             tally.table_hit |= err > tol * abs(lv.energy)
         out.append(replace(lv, error_estimate=est))
-    from .potentials.tabulated import TABLE_ERROR_NOTE
+    from .potentials.base import TABLE_ERROR_NOTE
 
     tally.notes.append(f"{TABLE_ERROR_NOTE}: at most {largest[0]:.2g} relative ({largest[1] or 'no level'})")
     return out, worst

@@ -24,7 +24,7 @@ from .._checks import MAX_MAGNITUDE, OptionError, check_parameter, shorten
 log = logging.getLogger(__name__)
 
 __all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "NuclearUnitsTerm", "refuse_complex",
-           "complex_values"]
+           "complex_values", "table_terms", "TABLE_ERROR_NOTE"]
 
 _COMPLEX_OK: contextvars.ContextVar[bool] = contextvars.ContextVar("boundkit_complex_ok", default=False)
 
@@ -733,3 +733,14 @@ class NuclearUnitsTerm(Term):
 
     def __repr__(self) -> str:
         return f"{self.inner!r} [MeV, fm]"
+
+TABLE_ERROR_NOTE = ("the estimates include the tables' interpolation error (to first order, from splines of two "
+                    "degrees and from the table continued linearly below its first point)")
+"""How a result says that its estimates hold its tables' error (solves, phase shifts, lengths)."""
+
+
+def table_terms(pot) -> list[tuple[object, bool]]:
+    """(table, scalar?) for every term of ``pot`` with an interpolation error (:class:`TabulatedTerm` and its
+    kin: what :meth:`~TabulatedTerm.interpolation_difference` identifies), vector terms then scalar ones."""
+    return ([(t, False) for t in pot.vector if hasattr(t, "interpolation_difference")]
+            + [(t, True) for t in pot.scalar if hasattr(t, "interpolation_difference")])

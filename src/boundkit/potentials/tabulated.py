@@ -96,8 +96,7 @@ from .._checks import MAX_MAGNITUDE, MAX_TABLE_POINTS, check_choice, check_param
 from ..units import BOHR_M, HARTREE_EV
 from .base import Term
 
-__all__ = ["LENGTH_UNITS", "ENERGY_UNITS", "MIN_POINTS", "TAILS", "ORIGINS", "DEGREES", "read_table", "table_terms",
-           "TABLE_ERROR_NOTE",
+__all__ = ["LENGTH_UNITS", "ENERGY_UNITS", "MIN_POINTS", "TAILS", "ORIGINS", "DEGREES", "read_table",
            "TabulatedTerm"]
 
 log = logging.getLogger(__name__)
@@ -586,15 +585,3 @@ class TabulatedTerm(Term):
     def __repr__(self) -> str:
         return (f"TabulatedTerm({self.label!r}, {self.r.size} points, r = {self.r[0]:.3g}..{self.r[-1]:.3g} bohr, "
                 f"origin={self.origin!r}, tail={self.tail!r})")
-
-
-TABLE_ERROR_NOTE = ("the estimates include the tables' interpolation error (to first order, from splines of two "
-                    "degrees and from the table continued linearly below its first point)")
-"""How a result says that its estimates hold its tables' error (solves, phase shifts, lengths)."""
-
-
-def table_terms(pot) -> list[tuple[object, bool]]:
-    """(table, scalar?) for every term of ``pot`` with an interpolation error (:class:`TabulatedTerm` and its
-    kin: what :meth:`~TabulatedTerm.interpolation_difference` identifies), vector terms then scalar ones."""
-    return ([(t, False) for t in pot.vector if hasattr(t, "interpolation_difference")]
-            + [(t, True) for t in pot.scalar if hasattr(t, "interpolation_difference")])

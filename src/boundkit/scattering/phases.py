@@ -18,7 +18,7 @@ from ..units import energy_unit as canonical_unit
 from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
-from ..potentials.tabulated import TABLE_ERROR_NOTE, table_terms
+from ..potentials.base import TABLE_ERROR_NOTE, table_terms
 from .tables import p_far, table_change, table_grid
 
 log = logging.getLogger(__name__)

@@ -54,7 +54,7 @@ import math
 import numpy as np
 
 from ..equations import Sample
-from ..potentials.tabulated import table_terms
+from ..potentials.base import table_terms
 
 __all__ = ["TableGrid", "table_grid", "table_change"]
 
