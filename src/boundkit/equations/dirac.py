@@ -24,6 +24,17 @@ def _name(kappa: int) -> str:
     return f"kappa = {kappa} ({letter(l)}{int(2 * j)}/2)"
 
 
+def _kappas_of_l(l: int) -> tuple[int, ...]:
+    """The kappas of orbital l: -(l + 1) (j = l + 1/2) and l (j = l - 1/2, for l > 0)."""
+    return (-(l + 1), l) if l > 0 else (-1,)
+
+
+def _kappas_of_j(j: float) -> tuple[int, int]:
+    """The kappas of total j: -(j + 1/2) (l = j - 1/2) and j + 1/2 (l = j + 1/2)."""
+    k = int(j + 0.5)
+    return -k, k
+
+
 def dirac_kappa(kappa: int | None = None, l: int | None = None, j: float | None = None) -> int:
     """The kappa of a Dirac channel named by ``kappa``, or by ``l`` with ``j`` (default -1, s1/2).
 
@@ -42,13 +53,12 @@ def dirac_kappa(kappa: int | None = None, l: int | None = None, j: float | None 
         kl, kj = kappa_to_lj(check_int("kappa", kappa))
         label = f"{letter(kl)}{int(2 * kj)}/2"
         if l is not None and l != kl:
-            fits = " or ".join(_name(k) for k in ((-(l + 1), l) if l > 0 else (-1,)))
+            fits = " or ".join(_name(k) for k in _kappas_of_l(l))
             raise ValueError(f"l: l = {l} does not fit kappa = {kappa} ({label}, l = {kl}); give kappa alone, or the "
                              f"kappa of l = {l}: {fits}")
         if j is not None and j != kj:
-            k = int(j + 0.5)
             raise ValueError(f"j: j = {j:g} does not fit kappa = {kappa} ({label}, j = {int(2 * kj)}/2); give kappa "
-                             f"alone, or the kappa of j = {j:g}: {_name(-k)} or {_name(k)}")
+                             f"alone, or the kappa of j = {j:g}: " + " or ".join(map(_name, _kappas_of_j(j))))
         return int(kappa)
     if l is None and j is None:
         return -1
@@ -57,9 +67,9 @@ def dirac_kappa(kappa: int | None = None, l: int | None = None, j: float | None 
                          f"(j = l + 1/2)" + (f" or kappa = {l} (j = l - 1/2)" if l > 0 else "")
                          + "; or give j with l")
     if l is None:
-        k = int(j + 0.5)
-        raise ValueError(f"j: j alone does not name a Dirac channel; give {_name(-k)} or {_name(k)}, or l with j")
-    fits = {l + 0.5: -(l + 1), l - 0.5: l} if l > 0 else {0.5: -1}
+        raise ValueError("j: j alone does not name a Dirac channel; give " + " or ".join(map(_name, _kappas_of_j(j)))
+                         + ", or l with j")
+    fits = {kappa_to_lj(k)[1]: k for k in _kappas_of_l(l)}
     if j not in fits:
         names = " or ".join(f"{x:g} (kappa = {k})" for x, k in sorted(fits.items()))
         raise ValueError(f"j: for l = {l} a Dirac channel has j = {names}, got {j:g}; give kappa instead, or l with "

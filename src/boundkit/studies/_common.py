@@ -18,7 +18,7 @@ from typing import Any, Callable, Mapping, Sequence
 import numpy as np
 
 from .. import _signals
-from ..equations.dirac import kappa_to_lj
+from ..equations.dirac import dirac_kappa, kappa_to_lj
 from ..potentials import TERMS, Term
 from ..solver import make_equation
 from ..states import level_j, parse_label, principal_n, splits_by_j
@@ -120,7 +120,7 @@ def state_channel(equation: str, label: str, spin_orbit: bool = False) -> tuple[
     if split:
         j = level_j(eq, label, l, j, split)
     if eq == "dirac":
-        channel = {"kappa": -(l + 1) if j == l + 0.5 else l}
+        channel = {"kappa": dirac_kappa(l=l, j=j)}
     elif split:
         channel = {"l": l, "j": j}
     else:
