@@ -144,3 +144,12 @@ def test_bordered_column_matches_a_lil_assignment():
         assert np.array_equal(got.toarray(), want.toarray())
         assert np.array_equal(got.indptr, want.indptr) and np.array_equal(got.indices, want.indices)
         assert np.array_equal(got.data, want.data)
+
+
+def test_an_order_without_the_finite_differences_is_refused():
+    """converge(methods=('spectral',), order=12) ignored the order silently (the command line refused it)."""
+    from boundkit.accuracy import converge
+
+    with pytest.raises(ValueError, match=r"^order: only the finite-difference method takes an order; drop it, or "
+                                         r"add 'finite-difference' to methods$"):
+        converge("schrodinger", "coulomb", {"Z": 1}, methods=("spectral",), order=12)

@@ -107,6 +107,8 @@ BAD = [
     ('[solve]\ndifferences = [["2p", "2s"]]\n', '[converge]\nmodel = "hh"\n', "converge.model", 'model = "hh"',
      "no model 'hh'"),
     ('[solve]\ndifferences = [["2p", "2s"]]\n', '', "solve", None, "asks for no study"),
+    ('[solve]\ndifferences = [["2p", "2s"]]\n', '[converge]\nmodel = "h"\nmethods = ["spectral"]\norder = 4\n',
+     "converge.order", "order = 4", "only the finite-difference method takes an order"),
     ('levels = 2', 'levels = 2\nlabels = "spectroscopic"', "labels", 'labels = "spectroscopic"',
      "must be one of atomic, nuclear, quarkonium"),
 ]

@@ -105,7 +105,7 @@ class ConvergenceResult:
 
 def converge(equation: str = "schrodinger", potential=None, params: dict | None = None, *,
              l: int | None = None, kappa: int | None = None, levels: int = 1,
-             methods=("spectral", "finite-difference"), order: int = 8, sizes: dict | None = None,
+             methods=("spectral", "finite-difference"), order: int | None = None, sizes: dict | None = None,
              tol: float = 1e-13, max_levels: int = MAX_LEVELS, **kwargs) -> ConvergenceResult:
     """Convergence study of one channel.
 
@@ -126,9 +126,17 @@ def converge(equation: str = "schrodinger", potential=None, params: dict | None 
     mean what they mean for :func:`boundkit.solve`; ``kwargs`` are passed to
     the argument setup (particle, mass_mev, nucleus_mass_mev, scalar, units).
     ``levels`` is at most ``max_levels`` (:data:`boundkit._checks.MAX_LEVELS`, as for
-    :func:`boundkit.solve`). Returns a :class:`ConvergenceResult`.
+    :func:`boundkit.solve`). ``order`` is that of the finite differences (default 8), refused when
+    ``methods`` has no finite-difference family. Returns a :class:`ConvergenceResult`.
     """
     check_levels(check_int("levels", levels, minimum=1), max_levels)     # a number: no 'all' here
+    if order is not None and "finite-difference" not in tuple(methods):
+        raise ValueError("order: only the finite-difference method takes an order; drop it, or add "
+                         "'finite-difference' to methods")
+    if order is None:
+        from .discretize.finite_difference import DEFAULT_ORDER
+
+        order = DEFAULT_ORDER
     with one_blas_thread():
         return _converge(equation, potential, params, l, kappa, levels, methods, order, sizes, tol, kwargs)
 

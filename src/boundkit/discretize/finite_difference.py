@@ -21,7 +21,9 @@ from .._checks import check_int
 from ..mesh import LogMap
 from .base import Discretization, Grid
 
-__all__ = ["FiniteDifference", "clustered_nodes", "derivative_matrix", "narrow_edges"]
+__all__ = ["FiniteDifference", "DEFAULT_ORDER", "clustered_nodes", "derivative_matrix", "narrow_edges"]
+
+DEFAULT_ORDER = 8     # accuracy order of the finite differences when none is asked for
 
 
 @lru_cache(maxsize=16)
@@ -76,7 +78,7 @@ class FiniteDifference(Discretization):
     first = 600
     cap = 12800
 
-    def __init__(self, order: int = 8) -> None:
+    def __init__(self, order: int = DEFAULT_ORDER) -> None:
         order = check_int("order", order, minimum=2)
         if order % 2 or order > 12:
             raise ValueError(f"order: finite-difference order must be even and between 2 and 12, got {order}")

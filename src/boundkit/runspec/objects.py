@@ -211,7 +211,7 @@ class ConvergeSection:
     channel: ChannelSpec
     levels: int
     methods: tuple[str, ...]
-    order: int
+    order: int | None           # of the finite differences; None: the default (8)
     tolerance: float = 1e-13
 
 

@@ -452,8 +452,12 @@ def load_spec(path: str | os.PathLike, text: str | None = None, all_errors: bool
             model = _model_name(rd, s, key, models)
             eq = _equation(rd, rd.get(s, key, "equation", "str", equations[0]), key + ("equation",))
             _check_channels(rd, "converge", models, mdata, (model,), (eq,), ch[:1], particle, units)
-            converge_secs.append(ConvergeSection(key, model, eq, ch[0], _levels(rd, s, key, 1), meths,
-                                                 rd.get(s, key, "order", "int", 8), _tolerance(rd, s, key, 1e-13)))
+            order = rd.get(s, key, "order", "int", None)
+            if order is not None and "finite-difference" not in meths:
+                raise rd.error(key + ("order",), "only the finite-difference method takes an order; drop it, or add "
+                                                 "\"finite-difference\" to methods")
+            converge_secs.append(ConvergeSection(key, model, eq, ch[0], _levels(rd, s, key, 1), meths, order,
+                                                 _tolerance(rd, s, key, 1e-13)))
 
     scan_secs = []
     for key, s in _sections(rd, data, "scan"):
