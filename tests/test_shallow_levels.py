@@ -198,15 +198,6 @@ def _exp_well_level(V0: float, E_near: float) -> float:
         return float(-nu**2 / 8)
 
 
-# Known, not fixed (the Yukawa-sum case below): the finite differences stop after two sizes (600 and 1200 nodes)
-# with a Richardson estimate at order 8, change / 255 (then the family's floor 5e-13 |E|), while the error at
-# 1200 is 0.15 of the change: not the asymptotic regime, which two sizes cannot show. A third size would, at
-# four times the cost of every finite-difference solve. (A floor on <|V|> was tried and dropped: it put a
-# Woods-Saxon 4d 300 times above its error.)
-_FD_SHALLOW_MISS = pytest.mark.xfail(strict=True, reason="known: two finite-difference sizes cannot show that a "
-                                                          "level is not in Richardson's asymptotic regime")
-
-
 @pytest.mark.parametrize("x0, excess", [(5.520078110286311, 1e-6), (11.79153443901428, 1e-6)])
 def test_finite_difference_levels_at_their_potential_energy_rounding_are_within_their_estimates(x0, excess):
     """The top s level of an exponential well just past the threshold where J_0(x0) = 0 (x0 the 2nd and 4th
@@ -221,11 +212,12 @@ def test_finite_difference_levels_at_their_potential_energy_rounding_are_within_
     assert abs(top.energy - exact) <= top.error_estimate, (top.energy - exact, top.error_estimate)
 
 
-@_FD_SHALLOW_MISS
 def test_finite_difference_shallow_yukawa_sum_level_within_its_estimate():
     """A tester's case: -3 e^-r/r - 2 e^(-r/5)/r + 1.5 e^(-2r)/r, l = 2, the one level at -4.2146165743466e-4
     hartree (the tester's own DOP853 Pruefer shooting, three settings agreeing to 1.2e-19; not an exact
-    result): the finite differences were 1.2e-15 off with an estimate of 2.1e-16."""
+    result): the finite differences were 1.2e-15 off with an estimate of 2.1e-16 (two sizes, Richardson at order 8,
+    while the error was 0.15 of the change). The located level's estimate (its potential-energy floor, 1.4e-15)
+    now bounds it from below, twice over."""
     res = boundkit.solve("schrodinger", ExpressionTerm("-3*exp(-r)/r - 2*exp(-r/5)/r + 1.5*exp(-2*r)/r"), l=2,
                          levels="all", method="finite-difference")
     (lv,) = res.levels
