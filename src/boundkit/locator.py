@@ -140,13 +140,10 @@ def peak_floor(op: SymmetricOperator, lo: float, top: float, start: float, count
     """The particle floor where the lowest eigenvalue of K(E) peaks (:func:`_lowest_peak`), or ``start``
     (whose count is ``count`` when the caller has it) unless the count at the peak is smaller (or 0);
     ``narrow`` set. Without ``count``, ``start`` is the peak of a coarser grid of the same box, and the
-    search starts around it. A pair counted merged at the peak only by rounding (:func:`peak_undecided`) is
-    not counted: it may still be bound, and is left to the ladder, which finds it or says why not."""
+    search starts around it."""
     n0 = count_below(op, start) if count is None else count
     E = _lowest_peak(op, lo, top, near=None if count is not None else start)
     n = count_below(op, E)
-    if n and peak_undecided(op, E):
-        n -= 1
     return Floor(E, n, E) if n < n0 or n == 0 else Floor(start, n0, E)
 
 

@@ -1912,7 +1912,7 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
     count (tests/test_level_count.py); with the open end such a box counts them, and the range keeps
     the potential beyond R negligible for the exterior solution."""
     from .ladder import far_operator
-    from .locator import count_below, particle_floor, peak_floor
+    from .locator import count_below, particle_floor, peak_floor, peak_undecided
 
     reach = _potential_range(eq, pot)
     r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, levels, L), 10 * reach)
@@ -1926,6 +1926,10 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
             again = peak_floor(fine, lo, min(hi, 0.0), floor.peak)
             if again.count < floor.count:
                 floor, op = again, fine
+        if floor.count and narrow and peak_undecided(op, floor.peak):
+            # the pair nearest its merge is merged on this box by rounding only: it may still be bound, and
+            # is left to the ladder, which finds it or says why not (near_merge)
+            floor = floor._replace(count=floor.count - 1)
         lo, below = floor.energy, floor.count
     else:
         below = count_below(op, lo) if math.isfinite(lo) else 0
