@@ -20,7 +20,7 @@ __all__ = ["converge_cmd", "validate_cmd"]
 @channel_options(j=False)
 @levels_option(1)
 @method_option(families=True)
-@order_option(8)
+@order_option()
 @tol_option(1e-13, "Relative tolerance of the reference solve the errors are measured against.")
 @particle_options()
 @energy_unit_option()
@@ -44,7 +44,7 @@ def converge_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
                                                  table_tail_charge, table_origin, table_r_unit, table_v_unit,
                                                  params)
         res = converge(equation, vector, values, l=l, kappa=kappa, levels=levels, max_levels=max_levels,
-                       methods=methods, order=order if "finite-difference" in methods else None, tol=tol, particle=particle, mass_mev=mass_mev,
+                       methods=methods, order=order, tol=tol, particle=particle, mass_mev=mass_mev,
                        nucleus_mass_mev=nucleus_mass_mev, scalar=scalar or None, units=unit_system)
     except ValueError as exc:
         fail(api_message(exc, {"max_levels": "--max-levels"}))
