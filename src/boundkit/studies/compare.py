@@ -93,13 +93,10 @@ class CompareResult:
             raise KeyError(f"level {label!r} has no fine-structure splitting (l = 0, or a level missing)")
         return float(hartree_to(v, unit))
 
-    def _system(self) -> tuple[str, str]:
-        return call_units(self.settings)
-
     def to_dict(self, unit: str | None = None, splitting_unit: str | None = None) -> dict[str, Any]:
         """JSON-ready record: energies in ``unit`` (default the call's: hartree, or MeV with units='nuclear'),
         differences in ``splitting_unit`` (default ``unit``)."""
-        unit = energy_unit(unit or self._system()[0])
+        unit = energy_unit(unit or call_units(self.settings)[0])
         sunit = energy_unit(splitting_unit or unit)
         rows = []
         for r in self.rows:
@@ -111,7 +108,7 @@ class CompareResult:
                 for k in (key, key + "_error"):
                     out[k] = None if r[k] is None else float(hartree_to(r[k], sunit))
             rows.append(out)
-        return {"units": {"energy": unit, "differences": sunit, "length": self._system()[1]}, "rows": rows,
+        return {"units": {"energy": unit, "differences": sunit, "length": call_units(self.settings)[1]}, "rows": rows,
                 "statuses": self.statuses, "messages": self.messages, "success": self.success,
                 "settings": self.settings,
                 "constants": constants_record()}
@@ -119,7 +116,7 @@ class CompareResult:
     def table(self, unit: str | None = None, splitting_unit: str | None = None) -> str:
         """Two plain-text tables: levels in ``unit`` (default the call's); shifts and splittings in
         ``splitting_unit``."""
-        unit = energy_unit(unit or self._system()[0])
+        unit = energy_unit(unit or call_units(self.settings)[0])
         sunit = energy_unit(splitting_unit or unit)
 
         def fmt(x, u, w=22):

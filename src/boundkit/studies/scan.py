@@ -259,15 +259,9 @@ class ScanResult:
         E = np.array([np.nan if r["energy"] is None else hartree_to(r["energy"], unit) for r in rows])
         return x, E
 
-    def _system(self) -> tuple[str, str]:
-        return call_units(self.settings)
-
-    def _length_unit(self) -> str:
-        return self._system()[1]
-
     def _energy_unit(self, unit: str | None) -> str:
         """``unit``, or the scan's system's when None."""
-        return _energy_unit(unit) if unit is not None else self._system()[0]
+        return _energy_unit(unit) if unit is not None else call_units(self.settings)[0]
 
     def to_dict(self, unit: str | None = None) -> dict[str, Any]:
         """A JSON-ready record (energies in ``unit``, default the call's: hartree, or MeV with
@@ -282,7 +276,7 @@ class ScanResult:
             rows.append(r)
         return {"parameters": list(self.parameters), "values": {k: list(v) for k, v in self.values.items()},
                 "parameter_units": self.parameter_units,
-                "units": {"energy": unit, "length": self._length_unit(), "time": "s",
+                "units": {"energy": unit, "length": call_units(self.settings)[1], "time": "s",
                           "parameters": self.parameter_units},
                 "settings": self.settings, "constants": constants_record(), "rows": rows,
                 "solved": self.solved, "reused": self.reused, "seconds": self.seconds}
