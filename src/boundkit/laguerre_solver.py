@@ -247,12 +247,12 @@ class _Probe:
         t = np.linspace(math.log(r_lo), math.log(r_last), 4001)
         r = np.exp(t)
         s = sample(r)
-        with np.errstate(all="ignore"):
-            g = r * (s.V + s.S)
-            G = float(np.max(np.abs(np.where(np.isfinite(g), g, 0.0))))
-        rate = _shape_rate_r(t[1] - t[0], r, s, G)
+        rate = _shape_rate_r(t[1] - t[0], r, s)
         inside = [b for b in breakpoints if r_lo < b < r_last]
         if inside:
+            with np.errstate(all="ignore"):        # the whole probe's max |g|, the windows' scale
+                g = r * (s.V + s.S)
+                G = float(np.max(np.abs(np.where(np.isfinite(g), g, 0.0))))
             # every window sampled in one call (graded edges declare several breakpoints close together)
             tb = np.log(inside)[:, None] + np.linspace(-0.02, 0.02, 201)[None, :]
             rb = np.exp(tb)

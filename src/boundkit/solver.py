@@ -43,9 +43,10 @@ from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
 from .equations.base import decay_steps
 from .equations.dirac import Dirac, dirac_kappa
 from .equations.klein_gordon import KleinGordon
-from .equations.schrodinger import Schrodinger
+from .equations.schrodinger import Schrodinger, inverse_square_disc
 from .mesh import LogMap
 from .potentials import Potential, make_potential
+from .potentials.base import TABLE_ERROR_NOTE, table_terms
 from .results import Level, RadialState, SolveResult
 from .states import count_nodes, normalise, principal_n
 from .units import (C_AU, MASS_UNIT_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to,
@@ -1761,8 +1762,6 @@ def _table_error(table, state) -> float:
 
 def _tables(pot) -> list:
     """The potential's tables (terms with an interpolation error), vector and scalar."""
-    from .potentials.base import table_terms
-
     return [t for t, _ in table_terms(pot)]
 
 
@@ -1793,8 +1792,6 @@ def _with_table_error(pot, found, tally, worst: float, tol: float):
             largest = max(largest, (err / abs(lv.energy), lv.label))
             tally.table_hit |= err > tol * abs(lv.energy)
         out.append(replace(lv, error_estimate=est))
-    from .potentials.base import TABLE_ERROR_NOTE
-
     tally.notes.append(f"{TABLE_ERROR_NOTE}: at most {largest[0]:.2g} relative ({largest[1] or 'no level'})")
     return out, worst
 
@@ -1832,7 +1829,7 @@ def _infinite_tail(eq, pot) -> str:
     if pot.confining or pot.tail_charge != 0:
         return ""
     B = pot.tail_inverse_square
-    disc = (eq.l + 0.5) ** 2 + 2 * eq.mass * B      # of inverse_square_order: the order is complex below 0
+    disc = inverse_square_disc(eq.l, eq.mass, B)
     if disc < 0:
         s = math.sqrt(-disc)
         return (f"has an attractive 1/r^2 tail far out (B = {B:.3g} hartree bohr^2: l(l+1) + 2 m B = "

@@ -10,11 +10,16 @@ __all__ = ["Schrodinger"]
 
 
 
+def inverse_square_disc(l: int, mass: float, B: float) -> float:
+    """(l + 1/2)^2 + 2 m B: the order of a channel with a B / r^2 part is real above 0, complex below."""
+    return (l + 0.5) ** 2 + 2 * mass * B
+
+
 def inverse_square_order(l: int, mass: float, B: float) -> float | None:
     """The order L of a channel whose potential has a B / r^2 part: L (L + 1) = l (l + 1) + 2 m B, the
     root L > -1/2 (common practice); None when (l + 1/2)^2 + 2 m B <= 0 (the order is complex: the particle
     falls to the centre, or the tail's Coulomb functions have no real order)."""
-    disc = (l + 0.5) ** 2 + 2 * mass * B
+    disc = inverse_square_disc(l, mass, B)
     return None if disc <= 0 else -0.5 + math.sqrt(disc)
 
 class Schrodinger(RadialEquation):
