@@ -46,7 +46,7 @@ from .equations.klein_gordon import KleinGordon
 from .equations.schrodinger import Schrodinger, inverse_square_disc
 from .mesh import LogMap
 from .potentials import Potential, make_potential
-from .potentials.base import TABLE_ERROR_NOTE, table_terms
+from .potentials.base import TABLE_ERROR_NOTE, TABLE_FIX, table_terms
 from .results import Level, RadialState, SolveResult
 from .states import count_nodes, normalise, principal_n
 from .units import (C_AU, MASS_UNIT_MEV, bohr_to, check_mass, constants_record, get_particle, hartree_to,
@@ -2063,8 +2063,7 @@ def _solve_laguerre(eq, pot, levels, tol):
     return found, tally, per_level, worst, extra
 
 
-_TABLE_WHY = ("the table's interpolation error lies above it (see diagnostics notes): give the table more points "
-              "where the potential bends, or start it nearer r = 0 (below its first point the potential is modelled)")
+_TABLE_WHY = "the table's interpolation error lies above it (see diagnostics notes): " + TABLE_FIX
 _POTENTIAL_FLOOR_WHY = ("a level far shallower than its well carries the rounding of its potential energy, "
                         "which lies above it (see diagnostics notes)")
 

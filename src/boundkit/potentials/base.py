@@ -24,7 +24,7 @@ from .._checks import MAX_MAGNITUDE, OptionError, check_parameter, shorten
 log = logging.getLogger(__name__)
 
 __all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "NuclearUnitsTerm", "refuse_complex",
-           "complex_values", "table_terms", "TABLE_ERROR_NOTE"]
+           "complex_values", "table_terms", "TABLE_ERROR_NOTE", "TABLE_FIX"]
 
 _COMPLEX_OK: contextvars.ContextVar[bool] = contextvars.ContextVar("boundkit_complex_ok", default=False)
 
@@ -737,6 +737,9 @@ class NuclearUnitsTerm(Term):
 TABLE_ERROR_NOTE = ("the estimates include the tables' interpolation error (to first order, from splines of two "
                     "degrees and from the table continued linearly below its first point)")
 """How a result says that its estimates hold its tables' error (solves, phase shifts, lengths)."""
+TABLE_FIX = ("give the table more points where the potential bends, or start it nearer r = 0 (below its first "
+             "point the potential is modelled)")
+"""The fix a result names when a table's interpolation error lies above tol."""
 
 
 def table_terms(pot) -> list[tuple[object, bool]]:

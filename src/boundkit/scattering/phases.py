@@ -18,7 +18,7 @@ from ..units import energy_unit as canonical_unit
 from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
-from ..potentials.base import TABLE_ERROR_NOTE, table_terms
+from ..potentials.base import TABLE_ERROR_NOTE, TABLE_FIX, table_terms
 from .tables import p_far, table_change, table_grid
 
 log = logging.getLogger(__name__)
@@ -284,8 +284,6 @@ def _tabulate(ch: Channel, E: np.ndarray, tol: float, estimate: bool, settings: 
     return _assemble(ch, E, matches, err, Rs, reached, tol, estimate, settings, t0, unit, table)
 
 
-_TABLE_FIX = ("give the table more points where the potential bends, or start it nearer r = 0 (below its first "
-              "point the potential is modelled)")
 
 
 def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings, t0,
@@ -316,7 +314,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
                                             f"E = {E[i] * ENERGY_UNITS[unit]:.4g} {unit} "
                                             f"exceeds tol = {tol:g}")
         if table is not None and table[i] > tol:
-            msg += f": the table's interpolation error, {table[i]:.2g} rad, lies above it; {_TABLE_FIX}"
+            msg += f": the table's interpolation error, {table[i]:.2g} rad, lies above it; {TABLE_FIX}"
     elif worst_residual > 0.05:
         status, msg = "branch-uncertain", (f"the node count and the matched phase disagree by "
                                            f"{worst_residual:.2g} pi somewhere; the integer part of delta may be off")
@@ -435,7 +433,7 @@ def scattering_length(equation: str = "schrodinger", potential="coulomb", params
     elif a_err > tol * max(ch.length, abs(a)):
         status, msg = "tolerance-not-met", f"error estimate {bohr_to(a_err, length):.2g} {length} exceeds the tolerance"
         if tabled and table > tol * max(ch.length, abs(a)):
-            msg += f": the table's interpolation error, {bohr_to(table, length):.2g} {length}, lies above it; {_TABLE_FIX}"
+            msg += f": the table's interpolation error, {bohr_to(table, length):.2g} {length}, lies above it; {TABLE_FIX}"
     else:
         status, msg = "ok", f"a from the zero-energy solution matched at R = {bohr_to(R1, length):.4g} {length}"
     if tabled:

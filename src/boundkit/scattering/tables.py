@@ -91,6 +91,9 @@ class TableGrid:
         self.r = np.exp(t)
         self.dr = (0.5 * step[:, None] * wg[None, :]).ravel() * self.r
         self.sample = ch.sample(self.r)
+        # (term, scalar?, its spline difference, its origin's difference) on r: the same for every energy
+        self.tables = [(t, scalar, t.interpolation_difference(self.r), t.origin_difference(self.r))
+                       for t, scalar in tabs]
 
 
 def table_grid(ch, r_lo: float, r_hi: float, E_max: float) -> TableGrid | None:
@@ -110,9 +113,9 @@ def table_change(ch, E: float, grid: TableGrid, uu: np.ndarray, dd: np.ndarray) 
     eq, smp = ch.eq, grid.sample
     p0, q0 = eq.p(E, smp), eq.q(E, smp)
     total = 0.0
-    for term, scalar in table_terms(ch.pot):
+    for term, scalar, d_spline, d_origin in grid.tables:
         parts = []
-        for d in (term.interpolation_difference(grid.r), term.origin_difference(grid.r)):
+        for d in (d_spline, d_origin):
             moved = Sample(smp.r, smp.V + (0 if scalar else d), smp.S + (d if scalar else 0), smp.W)
             fp, fq = (eq.p(E, moved) - p0) * dd, (eq.q(E, moved) - q0) * uu
             parts.append((float(np.sum(grid.dr * (fp + fq))), float(np.sum(grid.dr * (np.abs(fp) + np.abs(fq))))))
