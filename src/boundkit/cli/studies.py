@@ -12,7 +12,7 @@ import click
 from .._checks import MAX_L
 from .common import (EXIT_BAD_INPUT, EXIT_NOT_CONVERGED, MAX_MESSAGE, api_message, check_output_folder, check_particle,
                      check_plot_path, check_tol,
-                     clip_message, fail, json_text, report_length, report_unit, write_figure)
+                     clip_message, fail, json_text, report_unit, write_figure)
 from .options import (build_potential, channel_options, energy_unit_option, equation_option, json_option,
                       labels_option, levels_option, method_option, order_option, particle_options,
                       plot_option, potential_options, tol_option)
@@ -209,7 +209,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
     check_particle(particle, mass_mev)
     br = _bracket(bracket)
     try:
-        unit, length = report_unit(energy_unit, unit_system), report_length(None, unit_system)
+        unit = report_unit(energy_unit, unit_system)
         extra = ()
         if br is not None and not any(p.split("=")[0].strip() == vary for p in params):
             extra = (f"{vary}={br[0]!r}",)
@@ -234,7 +234,7 @@ def critical_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, tabl
         click.echo(f"boundkit: failed: {exc}", err=True)
         sys.exit(EXIT_NOT_CONVERGED)
     if as_json:
-        click.echo(json_text(res.to_dict(unit, length)))
+        click.echo(json_text(res.to_dict(unit)))
     else:
         lo, hi = res.bracket
         pu = f" {res.parameter_unit}" if res.parameter_unit else ""

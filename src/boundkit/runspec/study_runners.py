@@ -18,7 +18,6 @@ from typing import Any
 
 from .._threads import one_blas_thread, usable_cores
 from ..states import convert_label
-from ..discretize.finite_difference import DEFAULT_ORDER
 from .files import _clean, _csv_with_units, _fmt
 from .objects import CompareSection, ConvergeSection, CriticalSection
 
@@ -61,7 +60,7 @@ class StudyRunners:
             md.append(f"| {m} | {lab} | {_fmt(v, 3)} |")
             if m != "spectral" and math.isfinite(v):
                 self.headline.append(f"observed order of {m} ({sec.model}, {sec.equation} {lab}): {v:.2f} "
-                                     f"(nominal {sec.order or DEFAULT_ORDER})")
+                                     f"(nominal {res.settings['fd_order']})")
         md.append("")
         if any(m == "spectral" for m, _ in res.orders):
             md.append("The spectral family converges faster than any power, so its log-log slope is not an "
