@@ -52,3 +52,21 @@ def test_the_recorded_constants_hold_e_h_a0_equal_to_alpha_hbar_c():
     assert rec["hbar_c_MeV_fm"] == pytest.approx(HBARC_MEV_FM, rel=1e-15)
     e_h_a0 = rec["hartree_eV"] * 1e-6 * rec["bohr_m"] / sc.femto
     assert e_h_a0 == pytest.approx(rec["alpha"] * rec["hbar_c_MeV_fm"], rel=1e-15)
+
+
+@pytest.mark.parametrize("built_in", ["nuclear", "atomic-read-as-nuclear"])
+def test_a_term_instance_is_converted_once(built_in):
+    """A Term made with units='nuclear' holds its values converted already; solve(units='nuclear') must not
+    convert it again (it did, silently: status ok and the oscillator's 1s 1.0e7 times hbar omega 3/2; a
+    Woods-Saxon well was refused as too weak to bind). A term made without units is read in the caller's system, as before. Reference: the oscillator's
+    hbar omega (2 n_r + l + 3/2), hbar c from scipy.constants (CODATA)."""
+    from boundkit.potentials import TERMS
+
+    m, k = 938.0, 2.0                                  # MeV and MeV/fm^2 (illustrative)
+    term = TERMS["oscillator"]("nuclear", k=k) if built_in == "nuclear" else TERMS["oscillator"](k=k)
+    res = boundkit.solve("schrodinger", term, {}, l=0, levels=2, tol=1e-13, mass_mev=m, units="nuclear")
+    assert res.success, res.message
+    for lv in res.levels:
+        exact = HBARC_MEV_FM * math.sqrt(k / m) * (2 * lv.nodes + 1.5)
+        got, est = hartree_to(lv.energy, "MeV"), hartree_to(lv.error_estimate, "MeV")
+        assert abs(got - exact) <= max(est, 4e-16 * exact), (lv.label, got / exact - 1, est / exact)

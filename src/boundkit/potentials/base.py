@@ -114,9 +114,9 @@ class Term:
 
     Unit systems: a term built from numbers in atomic units reads MeV and fm
     in the nuclear system through :meth:`in_system`. A term whose numbers
-    already carry their own units (a table with a units line, a model file
-    with ``units = ...``, a term already wrapped) sets ``fixed_units = True``
-    and is never converted again.
+    already carry their own units (built with ``units='nuclear'``, a table
+    with a units line, a model file with ``units = ...``, a term already
+    wrapped) sets ``fixed_units = True`` and is never converted again.
     """
 
     name: ClassVar[str] = "term"
@@ -152,6 +152,8 @@ class Term:
                 raise OptionError(f"{lead}params={{{p.name!r}: 1}} (--param {p.name}=1 on the command line)",
                                   f"{lead}--param {p.name}=1")
         self.values: dict[str, float] = values
+        if units != "atomic":
+            self.fixed_units = True     # its values are in atomic units now: in_system must not convert again
         self._validate()
 
     def _validate(self) -> None:
