@@ -51,6 +51,10 @@ class RadialState:
     elements: tuple = ()
     family: str = ""
     density_weight: np.ndarray | None = None
+    memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
+    """What :mod:`boundkit.wavefunctions` derives from the nodal values once per state (the values over
+    their origin factor, ...): every matrix element and line involving the state reads them again.
+    Not an argument: ``dataclasses.replace`` gives the new state an empty one."""
 
     def __call__(self, r) -> np.ndarray:
         """Normalised radial function(s) at radii ``r`` (bohr).

@@ -99,24 +99,59 @@ def interpolate_f(tn: np.ndarray, fn: np.ndarray, elements, family: str, t: np.n
     out = np.empty_like(t)
     if not elements:
         elements = ((0, len(tn) - 1),)
+    if family != "finite-difference":
+        return _spectral_eval(tn, fn, tuple(elements), t)
     for a, b in elements:
-        if family == "finite-difference":
-            inside = (t >= tn[a]) & (t <= tn[b])
-            idx = np.nonzero(inside)[0]
-            if not idx.size:
-                continue
-            m = min(stencil, b - a + 1)
-            pos = np.searchsorted(tn[a:b + 1], t[idx]) + a
-            first = np.clip(pos - m // 2, a, b + 1 - m)
-            for s in np.unique(first):
-                sel = idx[first == s]
-                nodes = tn[s:s + m]
-                out[sel] = _bary_eval(nodes, fn[s:s + m], _weights(nodes), t[sel])
-        else:
-            nodes = tn[a:b + 1]
-            inside = (t >= nodes[0]) & (t <= nodes[-1])
-            if inside.any():
-                out[inside] = _bary_eval(nodes, fn[a:b + 1], _weights(nodes), t[inside])
+        inside = (t >= tn[a]) & (t <= tn[b])
+        idx = np.nonzero(inside)[0]
+        if not idx.size:
+            continue
+        m = min(stencil, b - a + 1)
+        pos = np.searchsorted(tn[a:b + 1], t[idx]) + a
+        first = np.clip(pos - m // 2, a, b + 1 - m)
+        for s in np.unique(first):
+            sel = idx[first == s]
+            nodes = tn[s:s + m]
+            out[sel] = _bary_eval(nodes, fn[s:s + m], _weights(nodes), t[sel])
+    return out
+
+
+@lru_cache(maxsize=256)
+def _element_table_of(nodes: bytes, elements: tuple) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """``(index, weights, right ends)`` of the elements of the nodes packed in ``nodes``: row e of
+    ``index`` holds element e's node indices, padded with its last one, and row e of ``weights`` their
+    barycentric weights, padded with 0 (a padded column adds nothing to either sum); ``right ends``
+    the t of each element's last node (cached and read-only: a state is interpolated by every
+    matrix element and line that involves it)."""
+    tn = np.frombuffer(nodes, dtype=float)
+    width = max(b - a + 1 for a, b in elements)
+    index = np.empty((len(elements), width), dtype=np.intp)
+    weights = np.zeros((len(elements), width))
+    for e, (a, b) in enumerate(elements):
+        index[e, : b - a + 1] = np.arange(a, b + 1)
+        index[e, b - a + 1:] = b
+        weights[e, : b - a + 1] = _weights(tn[a:b + 1])
+    right = tn[[b for _, b in elements]]
+    for arr in (index, weights, right):
+        arr.flags.writeable = False
+    return index, weights, right
+
+
+def _spectral_eval(tn: np.ndarray, fn: np.ndarray, elements: tuple, t: np.ndarray) -> np.ndarray:
+    """The spectral family's interpolation (the polynomial through all nodes of the element holding
+    each t, barycentric form), every t at once: t on a node shared by two elements takes the node's
+    value, as either element's polynomial does."""
+    index, weights, right = _element_table_of(np.ascontiguousarray(tn, dtype=float).tobytes(), elements)
+    e = np.minimum(np.searchsorted(right, t, side="left"), len(right) - 1)
+    rows = index[e]
+    d = t[:, None] - tn[rows]
+    exact = d == 0
+    d[exact] = 1.0
+    k = weights[e] / d
+    out = np.einsum("ij,ij->i", k, fn[rows]) / k.sum(axis=1)
+    hit = exact.any(axis=1)
+    if hit.any():
+        out[hit] = fn[rows[hit, np.argmax(exact[hit], axis=1)]]
     return out
 
 
@@ -159,7 +194,7 @@ def _towards_origin(rn, fn, state, r, gamma: float):
     in r, with h = f (r + r_core)^-gamma; h is extrapolated linearly in r from the first node and
     one near 4 r_min (:func:`_origin_nodes`; error O(r_min^2)) and returned as f = h (r + r_core)^gamma."""
     rc, g = state.r_core, gamma
-    i, j = _origin_nodes(rn, 2)
+    i, j = _memo(state, "origin_nodes", lambda: tuple(_origin_nodes(rn, 2)))
     h0, h1 = (fn[[i, j]] * (rn[[i, j]] + rc) ** -g) if rc > 0 else fn[[i, j]]
     h = h0 + (h1 - h0) / (rn[j] - rn[i]) * (r - rn[i])
     return h * (r + rc) ** g if rc > 0 else h
@@ -188,7 +223,11 @@ def origin_noise(state) -> float:
     its nodal values from r_min to about 4 r_min (:func:`_origin_nodes`) from their least-squares
     line, over its mean. There h is a line to O(r_min^2 / L^2), so the scatter is rounding (1e-13 of
     Q at the first nodes of a Z = 116 1s level), which every quantity read below r_min carries; 0 when
-    fewer than three nodes lie there."""
+    fewer than three nodes lie there (kept in ``state.memo``)."""
+    return _memo(state, "origin_noise", lambda: _origin_noise(state))
+
+
+def _origin_noise(state) -> float:
     j = int(_origin_nodes(state.r, 2)[1])
     if j < 2:
         return 0.0
@@ -206,22 +245,48 @@ def origin_noise(state) -> float:
     return worst
 
 
+def _nodal(state, component: str):
+    """``(values, t_n, f_n, exponent)`` of one component of ``state``: its nodal values, t = ln r at the
+    nodes and f = values / w(r), w the origin factor with that exponent (the Klein-Gordon weight's own,
+    see :func:`evaluate`); None when the state has no such component. Kept in ``state.memo``."""
+    values = {"P": state.P, "Q": state.Q, "weight": state.density_weight}[component]
+    if values is None:
+        return None
+
+    def make():
+        rn = state.r
+        gamma = _weight_exponent(rn, values) if component == "weight" else state.gamma
+        return values, np.log(rn), values / _weight(rn, state.r_core, gamma), gamma
+    return _memo(state, ("nodal", component), make)
+
+
+def _memo(state, key, make):
+    """``state.memo[key]``, made by ``make()`` on first use (a state's nodal values never change)."""
+    got = state.memo.get(key)
+    if got is None:
+        got = state.memo[key] = make()
+    return got
+
+
 def evaluate(state, r, component: str = "P") -> np.ndarray:
     """Value of one component (``"P"``, ``"Q"`` or ``"weight"``, the density
-    weight) of ``state`` at radii ``r`` in bohr; see the module docstring."""
+    weight) of ``state`` at radii ``r`` in bohr; see the module docstring.
+    At the state's own nodes (``r`` is ``state.r``) the nodal values themselves."""
+    nodal = _nodal(state, component)
+    if r is state.r:
+        if nodal is None:
+            return np.ones_like(r) if component == "weight" else np.zeros_like(r)
+        return nodal[0].copy()
     r = np.atleast_1d(np.asarray(r, dtype=float))
     if np.any(~np.isfinite(r)) or np.any(r < 0):
         raise ValueError("r: radii must be finite and >= 0 (bohr)")
-    values = {"P": state.P, "Q": state.Q, "weight": state.density_weight}[component]
-    if values is None:
+    if nodal is None:
         return np.ones_like(r) if component == "weight" else np.zeros_like(r)
-    rn = state.r
-    tn = np.log(rn)
     # the Klein-Gordon weight (E + mc^2 - V)/mc^2 grows like 1/r at a point charge: it is
     # interpolated as weight * r / (r + r_core), bounded at both ends (exponent -1 below); at a finite
     # nucleus it tends to a constant, and is taken as it is (exponent 0)
-    gamma = _weight_exponent(rn, values) if component == "weight" else state.gamma
-    fn = values / _weight(rn, state.r_core, gamma)
+    values, tn, fn, gamma = nodal
+    rn = state.r
     out = np.zeros_like(r)
     mid = (r >= rn[0]) & (r <= rn[-1])
     if mid.any():
@@ -252,13 +317,20 @@ def _weight_exponent(rn: np.ndarray, w: np.ndarray) -> float:
 
 def _diff_matrix(x: np.ndarray) -> np.ndarray:
     """Derivative matrix of the interpolating polynomial on nodes x (barycentric form):
-    D_ij = (b_j / b_i) / (x_i - x_j), D_ii = -sum_(j != i) D_ij."""
+    D_ij = (b_j / b_i) / (x_i - x_j), D_ii = -sum_(j != i) D_ij (cached, read-only)."""
+    return _diff_matrix_of(np.ascontiguousarray(x, dtype=float).tobytes())
+
+
+@lru_cache(maxsize=8192)
+def _diff_matrix_of(nodes: bytes) -> np.ndarray:
+    x = np.frombuffer(nodes, dtype=float)
     b = barycentric_weights(x)
     d = x[:, None] - x[None, :]
     np.fill_diagonal(d, 1.0)
     D = (b[None, :] / b[:, None]) / d
     np.fill_diagonal(D, 0.0)
     np.fill_diagonal(D, -D.sum(axis=1))
+    D.flags.writeable = False
     return D
 
 
@@ -288,10 +360,16 @@ def radial_derivative_state(state):
     """A copy of ``state`` whose P is r dP/dr (same origin exponent, Q and weight dropped),
     for velocity-form matrix elements: integral g P_b' dr = integral (g / r) (r P_b') dr.
 
+    Made once per state (kept in ``state.memo``: a level's lines all read it).
+
     Notes
     -----
     P = w f, t = ln r: r dP/dr = w (df/dt + gamma r_core / (r + r_core) f).
     """
+    return _memo(state, "r dP/dr", lambda: _radial_derivative(state))
+
+
+def _radial_derivative(state):
     from dataclasses import replace
 
     rn = state.r
