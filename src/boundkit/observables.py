@@ -67,7 +67,7 @@ import numpy as np
 import scipy.constants as sc
 
 from .units import ALPHA, C_AU, LENGTH_UNITS, bohr_to, hartree_to, length_unit, mass_mev_to_au
-from .wavefunctions import evaluate, origin_coefficient, origin_noise
+from .wavefunctions import components_at, origin_coefficient, origin_noise
 
 __all__ = ["Quantity", "LevelObservables", "expectation", "expectation_value", "radial_moment",
            "mean_radius", "rms_radius", "matrix_element", "observables", "g_factor", "hyperfine_a",
@@ -109,21 +109,24 @@ class Quantity:
 
 def _pair_integrand(sa, sb, r, f, kind: str) -> np.ndarray:
     """Integrand for dr at radii r: f(r) times the density/overlap of states sa, sb."""
+    two = kind in ("PQ", "QP-PQ", "P2-Q2") or (kind == "density" and sa.Q is not None and sb.Q is not None)
+    weighted = kind == "density" and (sa.density_weight is not None or sb.density_weight is not None)
+    names = ("P",) + (("Q",) if two else ()) + (("weight",) if weighted else ())
+    a = dict(zip(names, components_at(sa, r, names)))
+    b = a if sb is sa else dict(zip(names, components_at(sb, r, names)))
     if kind == "PQ":      # P_a Q_b + Q_a P_b, halved (equal to P Q on the diagonal)
-        return f(r) * 0.5 * (evaluate(sa, r, "P") * evaluate(sb, r, "Q")
-                             + evaluate(sa, r, "Q") * evaluate(sb, r, "P"))
+        return f(r) * 0.5 * (a["P"] * b["Q"] + a["Q"] * b["P"])
     if kind == "QP-PQ":
-        return f(r) * (evaluate(sa, r, "Q") * evaluate(sb, r, "P") - evaluate(sa, r, "P") * evaluate(sb, r, "Q"))
-    Pa, Pb = evaluate(sa, r, "P"), evaluate(sb, r, "P")
+        return f(r) * (a["Q"] * b["P"] - a["P"] * b["Q"])
     if kind == "plain":   # the large components only, no weight (an L2 product)
-        return f(r) * Pa * Pb
+        return f(r) * a["P"] * b["P"]
     if kind == "P2-Q2":
-        return f(r) * (Pa * Pb - evaluate(sa, r, "Q") * evaluate(sb, r, "Q"))
-    dens = Pa * Pb
-    if sa.density_weight is not None or sb.density_weight is not None:
-        dens = dens * 0.5 * (evaluate(sa, r, "weight") + evaluate(sb, r, "weight"))
-    if sa.Q is not None and sb.Q is not None:
-        dens = dens + evaluate(sa, r, "Q") * evaluate(sb, r, "Q")
+        return f(r) * (a["P"] * b["P"] - a["Q"] * b["Q"])
+    dens = a["P"] * b["P"]
+    if weighted:
+        dens = dens * 0.5 * (a["weight"] + b["weight"])
+    if two:
+        dens = dens + a["Q"] * b["Q"]
     return f(r) * dens
 
 
@@ -164,8 +167,17 @@ def _origin_tail(sa, sb, f, kind: str, t_c: float) -> np.ndarray:
 
     Raises ValueError when s <= 0 (the integral diverges at the origin).
     """
-    rr = np.exp(np.array([t_c, t_c - _TAIL_STEP]))
-    h = _pair_integrand(sa, sb, rr, f, kind) * rr
+    rr = _tail_radii(t_c)
+    return _power_tail(_pair_integrand(sa, sb, rr, f, kind) * rr)
+
+
+def _tail_radii(t_c: float) -> np.ndarray:
+    """The two radii :func:`_origin_tail` reads the integrand at."""
+    return np.exp(np.array([t_c, t_c - _TAIL_STEP]))
+
+
+def _power_tail(h: np.ndarray) -> np.ndarray:
+    """:func:`_origin_tail` from h = r g at its two radii (:func:`_tail_radii`)."""
     if not np.all(np.isfinite(h)):
         return np.array([math.nan, math.nan])
     if h[0] == 0.0 or h[0] * h[1] <= 0.0:
@@ -312,18 +324,22 @@ def _integrals(sa, sb, f, kind: str = "density", breaks=()) -> tuple[float, floa
         else:
             g = _pair_integrand(sa, sb, grid.r, f, kind)
         body = _sums(grid.weights, g)
-        # [0, r_min]: Gauss-Legendre in t = ln r over _INNER_EFOLDS e-folds, dr = r dt
+        # [0, r_min]: Gauss-Legendre in t = ln r over _INNER_EFOLDS e-folds, dr = r dt, the power-law
+        # part below them (_origin_tail) and the gap between the two first nodes (interpolated): the
+        # integrand is evaluated at all those radii in one call
         r0 = min(sa.r[0], sb.r[0])
-        t = math.log(r0) + 0.5 * _INNER_EFOLDS * (_GL_T - 1.0)
-        rr = np.exp(t)
-        inner = 0.5 * _INNER_EFOLDS * _sums(_GL_W * rr, _pair_integrand(sa, sb, rr, f, kind))
-        inner += _origin_tail(sa, sb, f, kind, math.log(r0) - _INNER_EFOLDS)
-        if sa.r[0] != sb.r[0]:      # the gap between the two first nodes (interpolated)
-            lo, hi = r0, grid.r[0]
-            if hi > lo:
-                x = 0.5 * (math.log(hi) + math.log(lo)) + 0.5 * (math.log(hi) - math.log(lo)) * _GL_T
-                rx = np.exp(x)
-                inner += 0.5 * (math.log(hi) - math.log(lo)) * _sums(_GL_W * rx, _pair_integrand(sa, sb, rx, f, kind))
+        rr = np.exp(math.log(r0) + 0.5 * _INNER_EFOLDS * (_GL_T - 1.0))
+        rt = _tail_radii(math.log(r0) - _INNER_EFOLDS)
+        lo, hi = r0, grid.r[0]
+        gap = sa.r[0] != sb.r[0] and hi > lo
+        half = 0.5 * (math.log(hi) - math.log(lo))
+        rx = np.exp(0.5 * (math.log(hi) + math.log(lo)) + half * _GL_T) if gap else rr[:0]
+        n = len(rr)
+        small = _pair_integrand(sa, sb, np.concatenate((rr, rt, rx)), f, kind)
+        inner = 0.5 * _INNER_EFOLDS * _sums(_GL_W * rr, small[:n])
+        inner += _power_tail(small[n:n + 2] * rt)
+        if gap:
+            inner += half * _sums(_GL_W * rx, small[n + 2:])
     total = body + inner
     if not math.isfinite(total[0]):
         raise ValueError("f: the integral does not converge for this level (check the power of r at the "

@@ -78,6 +78,7 @@ import logging
 import math
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
+from functools import lru_cache
 from typing import Sequence
 
 import scipy.constants as sc
@@ -132,6 +133,7 @@ def _l_of(kappa: int) -> int:
     return kappa if kappa > 0 else -kappa - 1
 
 
+@lru_cache(maxsize=4096)
 def reduced_c(kappa_a: int, kappa_b: int, J: int) -> float:
     """<kappa_a||C_J||kappa_b> = (-1)^(j_a + 1/2) sqrt((2j_a+1)(2j_b+1)) (j_a J j_b; -1/2 0 1/2)
     when l_a + l_b + J is even, else 0."""

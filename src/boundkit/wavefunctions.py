@@ -35,8 +35,8 @@ from functools import lru_cache
 
 import numpy as np
 
-__all__ = ["barycentric_weights", "interpolate_f", "evaluate", "origin_coefficient", "origin_noise", "derivative_t",
-           "radial_derivative_state"]
+__all__ = ["barycentric_weights", "interpolate_f", "evaluate", "components_at", "origin_coefficient", "origin_noise",
+           "derivative_t", "radial_derivative_state"]
 
 FD_STENCIL = 10
 """Nodes used for local interpolation of finite-difference states."""
@@ -80,7 +80,8 @@ def _bary_eval(tn: np.ndarray, fn: np.ndarray, b: np.ndarray, t: np.ndarray) -> 
     exact = d == 0
     d[exact] = 1.0
     k = b[None, :] / d
-    out = (k @ fn) / k.sum(axis=1)
+    total = k.sum(axis=1)
+    out = (k @ fn) / (total if fn.ndim == 1 else total[:, None])
     hit = exact.any(axis=1)
     if hit.any():
         out[hit] = fn[np.argmax(exact[hit], axis=1)]
@@ -93,10 +94,11 @@ def interpolate_f(tn: np.ndarray, fn: np.ndarray, elements, family: str, t: np.n
 
     ``t`` must lie in [tn[0], tn[-1]]. ``elements`` are (first, last) node
     index pairs; ``family`` selects global-per-element (spectral) or local
-    (finite-difference) interpolation.
+    (finite-difference) interpolation. ``fn`` may hold several functions on
+    the same nodes, one per column (the result then has one column each).
     """
     t = np.asarray(t, dtype=float)
-    out = np.empty_like(t)
+    out = np.empty(t.shape + fn.shape[1:])
     if not elements:
         elements = ((0, len(tn) - 1),)
     if family != "finite-difference":
@@ -148,7 +150,8 @@ def _spectral_eval(tn: np.ndarray, fn: np.ndarray, elements: tuple, t: np.ndarra
     exact = d == 0
     d[exact] = 1.0
     k = weights[e] / d
-    out = np.einsum("ij,ij->i", k, fn[rows]) / k.sum(axis=1)
+    total = k.sum(axis=1)
+    out = np.einsum("ij,ij...->i...", k, fn[rows]) / (total if fn.ndim == 1 else total[:, None])
     hit = exact.any(axis=1)
     if hit.any():
         out[hit] = fn[rows[hit, np.argmax(exact[hit], axis=1)]]
@@ -272,33 +275,47 @@ def evaluate(state, r, component: str = "P") -> np.ndarray:
     """Value of one component (``"P"``, ``"Q"`` or ``"weight"``, the density
     weight) of ``state`` at radii ``r`` in bohr; see the module docstring.
     At the state's own nodes (``r`` is ``state.r``) the nodal values themselves."""
-    nodal = _nodal(state, component)
+    if r is not state.r:
+        r = np.atleast_1d(np.asarray(r, dtype=float))
+        if np.any(~np.isfinite(r)) or np.any(r < 0):
+            raise ValueError("r: radii must be finite and >= 0 (bohr)")
+    return components_at(state, r, (component,))[0]
+
+
+def components_at(state, r: np.ndarray, components) -> list[np.ndarray]:
+    """:func:`evaluate` of several ``components`` of ``state`` at the same radii ``r`` (a 1-D array of
+    finite radii >= 0, not checked), one array each: the element search and the interpolation kernel
+    are shared."""
+    nodal = [_nodal(state, c) for c in components]
+    absent = [np.ones_like(r) if c == "weight" else np.zeros_like(r) for c in components]
     if r is state.r:
-        if nodal is None:
-            return np.ones_like(r) if component == "weight" else np.zeros_like(r)
-        return nodal[0].copy()
-    r = np.atleast_1d(np.asarray(r, dtype=float))
-    if np.any(~np.isfinite(r)) or np.any(r < 0):
-        raise ValueError("r: radii must be finite and >= 0 (bohr)")
-    if nodal is None:
-        return np.ones_like(r) if component == "weight" else np.zeros_like(r)
+        return [a if n is None else n[0].copy() for a, n in zip(absent, nodal)]
+    live = [i for i, n in enumerate(nodal) if n is not None]
+    if not live:
+        return absent
     # the Klein-Gordon weight (E + mc^2 - V)/mc^2 grows like 1/r at a point charge: it is
     # interpolated as weight * r / (r + r_core), bounded at both ends (exponent -1 below); at a finite
     # nucleus it tends to a constant, and is taken as it is (exponent 0)
-    values, tn, fn, gamma = nodal
-    rn = state.r
-    out = np.zeros_like(r)
+    rn, tn = state.r, nodal[live[0]][1]
+    fn = nodal[live[0]][2] if len(live) == 1 else np.stack([nodal[i][2] for i in live], axis=1)
+    out = np.zeros(r.shape + fn.shape[1:])
     mid = (r >= rn[0]) & (r <= rn[-1])
     if mid.any():
         out[mid] = interpolate_f(tn, fn, state.elements, state.family, np.log(r[mid]))
+    if len(live) == 1:
+        out = out[:, None]
     low = r < rn[0]
-    if low.any():
-        out[low] = _towards_origin(rn, fn, state, r[low], gamma)
     inside = low | mid
-    out[inside] *= _weight(r[inside], state.r_core, gamma)
-    if component == "weight" and (r > rn[-1]).any():
-        out[r > rn[-1]] = values[-1]
-    return out
+    beyond = r > rn[-1]
+    for col, i in enumerate(live):
+        values, _, f_i, gamma = nodal[i]
+        if low.any():
+            out[low, col] = _towards_origin(rn, f_i, state, r[low], gamma)
+        out[inside, col] *= _weight(r[inside], state.r_core, gamma)
+        if components[i] == "weight" and beyond.any():
+            out[beyond, col] = values[-1]
+        absent[i] = out[:, col]
+    return absent
 
 
 def _weight_exponent(rn: np.ndarray, w: np.ndarray) -> float:
