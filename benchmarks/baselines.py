@@ -45,6 +45,10 @@ hartree with m = 1, c = 1/alpha, alpha from scipy.constants (CODATA).
 Hulthen, l = 0: E_n = -(Z m/n - n delta/2)^2 / (2 m), bound while n^2 delta < 2 Z m (Flugge,
 Practical Quantum Mechanics, 1971; citation from memory), evaluated in exact rational arithmetic
 from the binary values of m and delta (near the threshold the difference loses digits in double).
+Hydrogen radial dipole integrals R = integral_0^inf R_nl R_n'l' r^3 dr from the exact radial functions
+R_nl = sqrt(N) e^(-r/n) (2r/n)^l L^(2l+1)_(n-l-1)(2r/n), N = (2/n)^3 (n-l-1)! / (2n (n+l)!) (Bethe &
+Salpeter 1957, sec. 3), term by term with integral_0^inf r^k e^(-a r) dr = k! / a^(k+1), in exact
+rational arithmetic up to the final square root of the norms.
 """
 from __future__ import annotations
 
@@ -57,14 +61,31 @@ import scipy.linalg as sla
 from scipy.special import roots_laguerre
 from threadpoolctl import threadpool_limits
 
-__all__ = ["hydrogen_exact", "dirac_coulomb_exact", "hulthen_exact", "fd_hydrogen", "laguerre_hydrogen", "dense_geneig",
-           "dense_pencil"]
+__all__ = ["hydrogen_exact", "dirac_coulomb_exact", "hulthen_exact", "hydrogen_dipole_exact", "fd_hydrogen",
+           "laguerre_hydrogen", "dense_geneig", "dense_pencil"]
 
 
 def hydrogen_exact(n, Z: float = 1.0) -> np.ndarray:
     """Schrodinger-Coulomb binding energies -Z^2/(2 n^2) in hartree."""
     n = np.asarray(n, dtype=float)
     return -Z**2 / (2.0 * n**2)
+
+
+def _hydrogen_terms(n: int, l: int) -> tuple[Fraction, list[tuple[int, Fraction]]]:
+    """(N, [(power k, coefficient)]) with R_nl = sqrt(N) e^(-r/n) sum coefficient r^k (module docstring)."""
+    m, alpha = n - l - 1, 2 * l + 1
+    norm = Fraction(2, n) ** 3 * math.factorial(m) / (2 * n * math.factorial(n + l))
+    terms = [(l + j, (-1) ** j * Fraction(math.comb(m + alpha, m - j), math.factorial(j)) * Fraction(2, n) ** (l + j))
+             for j in range(m + 1)]
+    return norm, terms
+
+
+def hydrogen_dipole_exact(n: int, l: int, n2: int, l2: int) -> float:
+    """|integral_0^inf R_nl R_n2l2 r^3 dr| of hydrogen (Z = 1, bohr), exact up to the last rounding."""
+    (na, ta), (nb, tb) = _hydrogen_terms(n, l), _hydrogen_terms(n2, l2)
+    a = Fraction(1, n) + Fraction(1, n2)
+    total = sum(ca * cb * math.factorial(ka + kb + 3) / a ** (ka + kb + 4) for ka, ca in ta for kb, cb in tb)
+    return abs(float(total)) * math.sqrt(float(na * nb))
 
 
 def dirac_coulomb_exact(n: int, kappa: int, Z: float) -> float:

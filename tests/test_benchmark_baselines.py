@@ -89,3 +89,22 @@ def test_hulthen_exact_formula_in_rational_arithmetic():
             want = -((mpmath.mpf(m) / n - n * mpmath.mpf(0.1) / 2) ** 2) / (2 * mpmath.mpf(m))
             assert bl.hulthen_exact(n, m, 1, 0.1) == pytest.approx(float(want), rel=1e-15)
     assert bl.hulthen_exact(3, 2.0, 1.0, 1e-12) == pytest.approx(-2.0 / 18, rel=1e-10)
+
+
+def test_hydrogen_dipole_integrals_against_closed_form_and_quadrature():
+    """<1s|r|2p> = 2^7 sqrt(6) / 3^5 bohr (Bethe & Salpeter 1957; from memory, and checked by the quadrature), and higher pairs
+    against mpmath quadrature of the exact radial functions written out here (independent of the rational sum)."""
+    import math
+
+    import mpmath as mp
+
+    assert bl.hydrogen_dipole_exact(2, 1, 1, 0) == pytest.approx(2**7 * math.sqrt(6) / 3**5, rel=1e-15)
+    mp.mp.dps = 30
+
+    def R(n, l, r):
+        norm = mp.sqrt((mp.mpf(2) / n) ** 3 * mp.factorial(n - l - 1) / (2 * n * mp.factorial(n + l)))
+        return norm * mp.exp(-r / n) * (2 * r / n) ** l * mp.laguerre(n - l - 1, 2 * l + 1, 2 * r / n)
+
+    for n, l, n2, l2 in [(8, 1, 3, 0), (8, 7, 7, 6), (5, 2, 4, 3)]:
+        ref = abs(mp.quad(lambda r: R(n, l, r) * R(n2, l2, r) * r**3, [0, 10, 40, 100, mp.inf]))
+        assert bl.hydrogen_dipole_exact(n, l, n2, l2) == pytest.approx(float(ref), rel=1e-14)
