@@ -35,8 +35,8 @@ from functools import lru_cache
 
 import numpy as np
 
-__all__ = ["barycentric_weights", "interpolate_f", "evaluate", "components_at", "origin_coefficient", "origin_noise",
-           "derivative_t", "radial_derivative_state"]
+__all__ = ["barycentric_weights", "interpolate_f", "cardinal_rows", "evaluate", "components_at", "origin_coefficient",
+           "origin_noise", "derivative_t", "radial_derivative_state"]
 
 FD_STENCIL = 10
 """Nodes used for local interpolation of finite-difference states."""
@@ -143,19 +143,25 @@ def _spectral_eval(tn: np.ndarray, fn: np.ndarray, elements: tuple, t: np.ndarra
     """The spectral family's interpolation (the polynomial through all nodes of the element holding
     each t, barycentric form), every t at once: t on a node shared by two elements takes the node's
     value, as either element's polynomial does."""
-    index, weights, right = _element_table_of(np.ascontiguousarray(tn, dtype=float).tobytes(), elements)
+    rows, k = cardinal_rows(tn, elements, t)
+    return np.einsum("ij,ij...->i...", k, fn[rows])
+
+
+def cardinal_rows(tn: np.ndarray, elements: tuple, t: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``(rows, values)``: the spectral family's interpolant at each t is sum_j values[i, j] f[rows[i, j]]
+    (the cardinal functions of the element holding t, at t; a row of a t on a node picks that node)."""
+    index, weights, right = _element_table_of(np.ascontiguousarray(tn, dtype=float).tobytes(), tuple(elements))
     e = np.minimum(np.searchsorted(right, t, side="left"), len(right) - 1)
     rows = index[e]
     d = t[:, None] - tn[rows]
     exact = d == 0
     d[exact] = 1.0
     k = weights[e] / d
-    total = k.sum(axis=1)
-    out = np.einsum("ij,ij...->i...", k, fn[rows]) / (total if fn.ndim == 1 else total[:, None])
+    k /= k.sum(axis=1)[:, None]
     hit = exact.any(axis=1)
     if hit.any():
-        out[hit] = fn[rows[hit, np.argmax(exact[hit], axis=1)]]
-    return out
+        k[hit] = exact[hit] & (np.cumsum(exact[hit], axis=1) == 1)      # the first node it sits on
+    return rows, k
 
 
 def _weight(r, r_core: float, gamma: float):
