@@ -493,15 +493,20 @@ class _Axis:
 _FAR_RADII = np.array([1e3, 1e4, 1e5])
 
 
-def _finite_far(pot) -> bool:
-    """Whether the potential (vector and scalar) is finite at r = 1e3, 1e4, 1e5 bohr."""
+def _quiet_values(pot, radii):
+    """(V(r), S(r)) at ``radii`` with the warnings of the evaluation kept quiet; None if it raises."""
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         try:
-            values = np.concatenate([np.ravel(pot.V(_FAR_RADII)), np.ravel(pot.S(_FAR_RADII))])
+            return np.ravel(pot.V(radii)), np.ravel(pot.S(radii))
         except (ValueError, ArithmeticError):
-            return False
-    return bool(np.all(np.isfinite(values)))
+            return None
+
+
+def _finite_far(pot) -> bool:
+    """Whether the potential (vector and scalar) is finite at r = 1e3, 1e4, 1e5 bohr."""
+    values = _quiet_values(pot, _FAR_RADII)
+    return values is not None and bool(np.all(np.isfinite(np.concatenate(values))))
 
 
 _POINT_RADII = np.geomspace(1e-8, 1e4, 13)
@@ -509,12 +514,11 @@ _POINT_RADII = np.geomspace(1e-8, 1e4, 13)
 
 def _sample_rv_s(pot, radii):
     """(r V(r), S(r)) at ``radii`` with the warnings of the evaluation kept quiet; None if it raises."""
-    with np.errstate(all="ignore"), warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        try:
-            return np.ravel(pot.V(radii)) * radii, np.ravel(pot.S(radii))
-        except (ValueError, ArithmeticError):
-            return None
+    values = _quiet_values(pot, radii)
+    if values is None:
+        return None
+    with np.errstate(all="ignore"):        # r V overflows where V is near the largest double
+        return values[0] * radii, values[1]
 
 
 def _bare_point_charge(pot) -> bool:
