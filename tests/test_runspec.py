@@ -531,6 +531,23 @@ def test_report_headline_numbers_carry_units(tmp_path):
         assert re.search(r"hartree|bohr", line), line
 
 
+
+def test_converge_headline_gives_the_nominal_order_to_the_finite_differences_only(tmp_path):
+    """The headline said '(nominal 8)', the finite differences' order, of the laguerre-mesh family too (a
+    Schrodinger p channel of hydrogen solves on its Lagrange-Laguerre mesh, which is spectral: no nominal order)."""
+    text = ('title = "t"\ndescription = "d"\n[models.h]\nterms = ["coulomb"]\nparams = { Z = 1 }\n'
+            '[converge]\nmodel = "h"\nchannel = "p"\nlevels = 2\norder = 6\n')
+    report = run(write(tmp_path, text), tmp_path / "o")
+    md = (tmp_path / "o" / "report.md").read_text()
+    for label in ("2p", "3p"):          # the family was studied, with a finite log-log slope
+        assert re.search(rf"^\| laguerre-mesh \| {label} \| \d", md, re.M), md
+    orders = [line for line in report.headline if line.startswith("observed order")]
+    assert len(orders) == 2, report.headline
+    for line, label in zip(orders, ("2p", "3p")):
+        assert re.fullmatch(rf"observed order of finite-difference \(h, schrodinger {label}\): \d+\.\d\d "
+                            r"\(nominal 6\)", line), orders
+    assert not any("laguerre" in line or "spectral" in line for line in report.headline), report.headline
+
 def test_the_spec_in_the_documentation_reads():
     doc = (Path(__file__).resolve().parent.parent / "docs" / "runspec.md").read_text()
     block = re.search(r"## A first spec\s+```toml\n(.*?)```", doc, re.S).group(1)

@@ -164,8 +164,10 @@ class CriticalResult:
         Every evaluation: value, found, energy (hartree), error_estimate
         (hartree; it holds table_error), table_error (hartree: the part of
         the estimate from the interpolation of the potential's tables, 0
-        without tables), via (``continuation`` or ``solver``), r_max (outer
-        end of the level's mesh, bohr), seconds.
+        without tables), via (``continuation`` or ``solver``; in a merge
+        search ``UNDECIDED_VIA`` where the solve could not tell the pair from
+        a merged one: ``found`` is False there, but the level is not absent),
+        r_max (outer end of the level's mesh, bohr), seconds.
     parameter_unit : str
         Unit of the parameter ('' for a charge or a parameter of unknown
         unit); ``value``, ``uncertainty`` and ``bracket`` are in it.
@@ -491,15 +493,20 @@ class _Axis:
 _FAR_RADII = np.array([1e3, 1e4, 1e5])
 
 
-def _finite_far(pot) -> bool:
-    """Whether the potential (vector and scalar) is finite at r = 1e3, 1e4, 1e5 bohr."""
+def _quiet_values(pot, radii):
+    """(V(r), S(r)) at ``radii`` with the warnings of the evaluation kept quiet; None if it raises."""
     with np.errstate(all="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         try:
-            values = np.concatenate([np.ravel(pot.V(_FAR_RADII)), np.ravel(pot.S(_FAR_RADII))])
+            return np.ravel(pot.V(radii)), np.ravel(pot.S(radii))
         except (ValueError, ArithmeticError):
-            return False
-    return bool(np.all(np.isfinite(values)))
+            return None
+
+
+def _finite_far(pot) -> bool:
+    """Whether the potential (vector and scalar) is finite at r = 1e3, 1e4, 1e5 bohr."""
+    values = _quiet_values(pot, _FAR_RADII)
+    return values is not None and bool(np.all(np.isfinite(np.concatenate(values))))
 
 
 _POINT_RADII = np.geomspace(1e-8, 1e4, 13)
@@ -507,12 +514,11 @@ _POINT_RADII = np.geomspace(1e-8, 1e4, 13)
 
 def _sample_rv_s(pot, radii):
     """(r V(r), S(r)) at ``radii`` with the warnings of the evaluation kept quiet; None if it raises."""
-    with np.errstate(all="ignore"), warnings.catch_warnings():
-        warnings.simplefilter("ignore", RuntimeWarning)
-        try:
-            return np.ravel(pot.V(radii)) * radii, np.ravel(pot.S(radii))
-        except (ValueError, ArithmeticError):
-            return None
+    values = _quiet_values(pot, radii)
+    if values is None:
+        return None
+    with np.errstate(all="ignore"):        # r V overflows where V is near the largest double
+        return values[0] * radii, values[1]
 
 
 def _bare_point_charge(pot) -> bool:
@@ -594,6 +600,20 @@ class _SolverRefused(StudyError):
 
 class _Undecided(StudyError):
     """Neither method family could decide whether the level is bound at a parameter value."""
+
+
+_NEAR_MERGE_REASON = "close to merging with its antiparticle partner"
+"""The words of a solve's 'partial' reason when a Klein-Gordon pair lies within rounding of its merge (the
+ladder's reason in :mod:`boundkit.solver`, given when the far box's count left that pair undecided:
+:func:`boundkit.locator.peak_undecided`)."""
+
+UNDECIDED_VIA = "solver (undecided: within its resolution of the merge)"
+"""``points[i]['via']`` of a merge search's point where the solve could not tell the pair from a merged one."""
+
+
+def _near_merge(res) -> bool:
+    """Whether a solve is 'partial' only because a Klein-Gordon pair lies within rounding of its merge."""
+    return res.status == "partial" and _NEAR_MERGE_REASON in res.message
 
 
 # BLAS single-threaded, as boundkit.solver.solve_channel runs: the matrices are small, and two
@@ -732,7 +752,11 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     not taken as "absent": the point is solved again with the other method
     family (spectral for finite differences, and the reverse), whose result
     is used (``points[i]['via']`` says so, as does the message); if that is
-    partial too, the search stops with a StudyError.
+    partial too, the search stops with a StudyError. A merge search is the
+    exception for one reason: a solve that is partial because a Klein-Gordon
+    pair lies within rounding of its merge (the far box cannot tell it from a
+    merged pair, and the other family counts on the same box) is at the merge
+    within the solver's resolution; see Merging.
 
     Start. At a start where the level is bound, a step of 2 per cent of x
     on either side gives the direction in which s falls. At a start where it
@@ -803,15 +827,25 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     follows the level towards the lower continuum in doubling steps until it
     is absent, then aims 9/10 of the way to that top (a point found there is
     10 times nearer it), and, within ``tol`` of it, just past it; it stops
-    when the found/absent bracket is narrower than ``tol`` |p_m|. The value
+    when the found/absent bracket is narrower than ``tol`` |p_m| (and
+    bisects it once more while the top lies outside it by less than its
+    width: the points turn, but too far from the top to place it). Where the
+    solve cannot tell the pair from a merged one (status ``'partial'``, a
+    pair within rounding of its merge: a few 1e-10 of a square well's depth)
+    the point is undecided (``points[i]['via']``), neither found nor absent:
+    the search closes in on such values from both sides, from the side with
+    the wider gap, and stops when both gaps are no wider than the undecided
+    values' spread; the bracket then holds them, and the status is
+    ``'tolerance-not-met'`` when it is still wider than ``tol`` |p_m|, with
+    a message that says why. The value
     is the top (the bracket's midpoint if the top lies outside it); its
     uncertainty is the distance to the farther end of the bracket plus the
     largest error estimate of the three points times |dp/dE| there (an
     energy error moves the curve p(E) by that much). The result is
     ``'unverified'`` when the points do not turn (no top inside the
-    bracket, or one below -2 m c^2): the level was lost some other way,
-    perhaps by diving (Klein-Gordon levels with l > 0 of a short-range well
-    dive). A bare point charge needs no search: its levels hold
+    bracket, or one below -2 m c^2) and no value was undecided: the level
+    was lost some other way, perhaps by diving (Klein-Gordon levels with
+    l > 0 of a short-range well dive). A bare point charge needs no search: its levels hold
     gamma = sqrt((l + 1/2)^2 - (Z alpha)^2), real up to Z alpha = l + 1/2,
     past which the energies are complex and the solver refuses the charge.
     The merge value is where Z alpha = l + 1/2 (Z read from the potential,
@@ -954,7 +988,11 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                 res = solve_channel(eq, pot, disc, k + 1, energy_tol)
                 lv = next((x for x in res.levels if x.nodes == k), None)
                 via = "solver"
-                if lv is None and res.status == "partial":
+                if lv is None and res.status == "partial" and kind == "merge" and _near_merge(res):
+                    # a pair within rounding of its merge: at the merge within the solver's resolution, neither
+                    # found nor absent. The other family counts on the same far box and cannot tell either.
+                    rec.update(undecided=True, via=UNDECIDED_VIA)
+                elif lv is None and res.status == "partial":
                     # the count certificate failed: no evidence that the level is absent. Ask the
                     # other method family; if it cannot tell either, the point is undecided.
                     res2 = solve_channel(eq, pot, other, k + 1, energy_tol)
@@ -998,7 +1036,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         rec["seconds"] = time.perf_counter() - t_start
         points.append(rec)
         log.info("critical %s: %s = %.15g -> %s", label, vary, p,
-                 f"E = {rec['energy']:.15g} ({via})" if rec["found"] else "no level")
+                 f"E = {rec['energy']:.15g} ({via})" if rec["found"] else
+                 "undecided (within the solver's resolution of the merge)" if rec.get("undecided") else "no level")
         return rec
 
     def e_of(s_: float, mc2: float) -> float:
@@ -1165,23 +1204,51 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
         ux_p = max(abs(bx_p) * ux, _precision_floor(bx_p))      # dp = |p| dx
         return (bx_p, ux_p) if bp is None or ux_p < up else (bp, up)
 
+    def undecided_between(p_in: float, p_out: float | None) -> list[float]:
+        """Values past p_in (and short of p_out) where the solve was undecided, within its resolution of the
+        merge; in the search direction."""
+        return sorted((r["value"] for r in points if r.get("undecided") and ahead(r["value"], p_in) > 0
+                       and (p_out is None or ahead(p_out, r["value"]) > 0)), key=lambda v: ahead(v, p_in))
+
     def merge_search(p_out: float | None, step: float) -> CriticalResult:
         """Klein-Gordon: the value where the level meets its antiparticle partner (Notes of :func:`critical`)."""
         wall = None
         status = "tolerance-not-met"
+        if any(r.get("undecided") and r["value"] == p_out for r in points):
+            p_out = None            # undecided, not absent: the merge may lie a little past it
         while len(points) < max_evaluations:
             fp = found_points()
             n_in = max(fp, key=lambda r: ahead(r["value"], 0.0))
             p_in = n_in["value"]
             tol_p = tol * (abs(p_in) or 1.0)
-            if p_out is not None and abs(p_out - p_in) <= tol_p:
-                status = "ok"
-                break
             fold = _fold(fp, pdir)
-            x_in, x_out = x_of(p_in), (None if p_out is None else x_of(p_out))
             p_v = None if fold is None else fold["value"]
+            zone = undecided_between(p_in, p_out)
+            if p_out is not None and abs(p_out - p_in) <= tol_p:
+                # done, unless the top lies just outside the bracket (within its width): the points turn but
+                # are still too far from the top to place it; a point between them brings the parabola closer
+                width = abs(p_out - p_in)
+                if zone or p_v is None or not (-width <= ahead(p_v, p_in) and ahead(p_v, p_out) <= width) or \
+                        (ahead(p_v, p_in) >= 0 and ahead(p_out, p_v) >= 0):
+                    status = "ok"
+                    break
+            if zone and p_out is not None and \
+                    max(abs(zone[0] - p_in), abs(p_out - zone[-1])) <= abs(zone[-1] - zone[0]):
+                status = "resolution"       # closed on both sides of the undecided values, as near as they are wide
+                break
+            x_in, x_out = x_of(p_in), (None if p_out is None else x_of(p_out))
             seeds: tuple = ()
-            if p_v is not None and axis.allows(p_v) and ahead(p_v, p_in) > 0 and \
+            if zone:
+                # close in on the undecided values from the side with the wider gap: beyond them as far as
+                # they lie from the found end while nothing past them is absent, else halfway to the bracket end
+                x_lo, x_hi = x_of(zone[0]), x_of(zone[-1])
+                if x_out is None:
+                    tx = x_hi + (x_hi - x_in)
+                elif abs(x_out - x_hi) > abs(x_lo - x_in):
+                    tx = 0.5 * (x_hi + x_out)
+                else:
+                    tx = 0.5 * (x_in + x_lo)
+            elif p_v is not None and axis.allows(p_v) and ahead(p_v, p_in) > 0 and \
                     (p_out is None or ahead(p_out, p_v) > 0):
                 # just short of the top, where a level found is nearer it; within tol of it, just past it
                 if ahead(p_v, p_in) <= 0.25 * tol_p:
@@ -1203,7 +1270,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
             if wall is not None and (tx - wall) * direction >= 0:
                 tx = 0.5 * (x_in + wall)
             target = p_of(tx)
-            if target == p_in or target == p_out:
+            if target == p_in or target == p_out or target in zone:
                 break
             rec = try_evaluate(tx, seeds=seeds + seeds_for(target))
             if rec is None:
@@ -1213,7 +1280,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                                      "which the potential or the solver refuses; no merge before it")
                 wall = tx
                 continue
-            if not rec["found"] and (p_out is None or ahead(p_out, target) > 0):
+            if not rec["found"] and not rec.get("undecided") and (p_out is None or ahead(p_out, target) > 0):
                 p_out = target
         fp = found_points()
         n_in = max(fp, key=lambda r: ahead(r["value"], 0.0))
@@ -1234,7 +1301,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                                               for r, sl in zip(fold["points"], fold["slopes"]))
         unc = max(max(abs(best - p_in), abs(p_out - best)) + spread, _precision_floor(best))
         gap = None if fold is None else fold["energy"] + 2 * mc2
-        if fold is None or not gap > 0 or not inside:
+        zone = undecided_between(p_in, p_out)
+        if (fold is None or not gap > 0 or not inside) and not zone:
             where = ("" if fold is None else f" (the parabola through the nearest points turns at "
                      f"{fold['value']:.12g}, E = {energy_text(fold['energy'], '.10g')})")
             message = (f"{label} is lost between {vary} = {p_in:.12g} (E = {energy_text(n_in['energy'], '.10g')}, "
@@ -1242,11 +1310,23 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                        f"dp/dE -> 0{where}: it may dive (kind='dive') or have been missed there; {best:.12g} is "
                        "not confirmed")
             return result_of(best, unc, "unverified", message, p_in, p_out, n_in, extra)
+        # the top's energy, when the parabola turns above -2 m c^2 (with undecided values it need not: the solver
+        # itself then says the pair is at its merge)
+        at_e = ("" if fold is None or not gap > 0 else
+                f", at E = {energy_text(fold['energy'], '.10g')} ({energy_text(gap, '.4g')} above -2 m c^2)")
+        undecided = ("" if not zone else
+                     f"the solver cannot decide whether {label} is still bound at {len(zone)} value(s) of {vary} "
+                     f"between {zone[0]:.12g} and {zone[-1]:.12g} (within its resolution of the merge: a pair this "
+                     "close to merging is not told from a merged one in double precision)")
         if status == "ok":
             message = (f"{label} merges with an antiparticle level at {vary} = {best:.{_digits(best, unc)}g} +- "
-                       f"{unc:.2g}{pu}, at E = {energy_text(fold['energy'], '.10g')} ({energy_text(gap, '.4g')} above "
-                       "-2 m c^2); "
-                       f"found at {p_in:.12g}{pu}, no real level at {p_out:.12g}{pu}")
+                       f"{unc:.2g}{pu}{at_e}; found at {p_in:.12g}{pu}, no real level at {p_out:.12g}{pu}"
+                       + (f"; {undecided}, inside that bracket" if zone else ""))
+        elif status == "resolution":
+            status = "tolerance-not-met"
+            message = (f"{undecided}, so the bracket ({p_in:.12g}, {p_out:.12g}) cannot narrow to tol = {tol:g}: "
+                       f"{label} merges with an antiparticle level at {vary} = {best:.{_digits(best, unc)}g} +- "
+                       f"{unc:.2g}{pu}{at_e}")
         else:
             message = (f"the bracket ({p_in:.12g}, {p_out:.12g}) did not narrow to tol = {tol:g} within "
                        f"{len(points)} evaluations; best estimate {best:.12g} +- {unc:.2g}{pu}")
