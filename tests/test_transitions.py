@@ -480,3 +480,95 @@ def test_magnetic_line_strengths_state_their_unit_and_convention():
     # nonrelativistic value; the Dirac value differs by O((Z alpha)^2) = 5e-5 (measured 6.7e-6)
     assert s == pytest.approx(4 / 3 * (ALPHA / 2) ** 2, rel=2e-5)
     assert s / (ALPHA / 2) ** 2 == pytest.approx(4 / 3, rel=2e-5)
+
+
+MUON_MASS_MEV = sc.physical_constants["muon mass energy equivalent in MeV"][0]
+
+
+def test_e1_rate_with_a_nucleus_mass_carries_the_two_body_dipole():
+    """Muonic calcium (Z = 20, M = 37214 MeV, a round 40Ca nucleus mass: the factor needs no more) 2p -> 1s
+    against the closed form with the two-body dipole (a tester found it 11 % low).
+
+    The dipole about the centre of mass (common practice, derived here): with r = r_particle - r_nucleus,
+    r_particle - R_cm = M r / (M + m) and r_nucleus - R_cm = -m r / (M + m), so a particle of charge q e and a
+    nucleus of charge Z e have d = q e M r / (M + m) + Z e (-m r / (M + m)) = e (q M - Z m) r / (M + m); for
+    q = -1 that is -e r (M + Z m)/(M + m), the single-particle dipole times (M + Z m)/(M + m) (1 for Z = 1).
+    Closed form (Bethe and Salpeter 1957, hydrogen-like radial integral; exact): <1s|r|2p> = 128 sqrt(6) /
+    (243 Z mu), omega = 3 Z^2 mu / 8 hartree (mu the reduced mass in electron masses), S = F^2 <1s|r|2p>^2
+    with F the factor, A = 4 omega^3 S / (3 c^3 g_u), g_u = 3."""
+    M, Z = 37214.0, 20
+    me = sc.physical_constants["electron mass energy equivalent in MeV"][0]
+    m = MUON_MASS_MEV / me
+    mu = m * (M / me) / (m + M / me)
+    F = (M + Z * MUON_MASS_MEV) / (M + MUON_MASS_MEV)
+    R = 128 * math.sqrt(6) / (243 * Z * mu)
+    omega = 3 * Z**2 * mu / 8
+    A_exact = 4 * omega**3 * F**2 * R**2 / (3 * (1 / ALPHA) ** 3 * 3) / AU_TIME
+    tr = boundkit.transitions("schrodinger", "coulomb", {"Z": Z}, max_n=2, particle="muon", nucleus_mass_mev=M)
+    ln = tr.line("2p", "1s")
+    assert ln.einstein_a == pytest.approx(A_exact, rel=1e-10)
+    assert ln.line_strength == pytest.approx(F**2 * R**2, rel=1e-10)
+    # q = -1: the sign of -e r; boundkit's muon mass is CODATA's ratio times E_h/alpha^2, 1.4e-11 from the MeV value
+    assert tr.settings["dipole_factor"] == pytest.approx(-F, rel=1e-10)
+    assert "dipole" in tr.message and "(M + Z m)/(M + m)" in tr.message
+    # the same factor on the Dirac E1 amplitude (and only there: the M1 line is the particle's own)
+    dirac = boundkit.transitions("dirac", "coulomb", {"Z": Z}, max_n=2, particle="muon", nucleus_mass_mev=M,
+                                 multipoles=("E1", "M1"))
+    assert dirac.settings["dipole_factor"] == tr.settings["dipole_factor"]
+    mass = dirac.settings["mass_atomic_units"]
+    kw = dict(particle="muon", nucleus_mass_mev=M, tol=1e-14)
+    s_levels = boundkit.solve("dirac", "coulomb", {"Z": Z}, kappa=-1, levels=2, **kw).levels
+    p_level = boundkit.solve("dirac", "coulomb", {"Z": Z}, kappa=1, levels=1, **kw).levels[0]
+    bare = line(p_level, s_levels[0], "E1", equation="dirac", mass=mass)          # the particle's own dipole
+    F2 = tr.settings["dipole_factor"] ** 2
+    assert dirac.line("2p1/2", "1s1/2").line_strength == pytest.approx(F2 * bare.line_strength, rel=1e-14)
+    m1 = line(s_levels[1], s_levels[0], "M1", equation="dirac", mass=mass)
+    assert dirac.line("2s1/2", "1s1/2", "M1").line_strength == pytest.approx(m1.line_strength, rel=1e-13)
+
+
+def test_e1_dipole_factor_is_one_for_hydrogen_and_without_a_nucleus_mass():
+    """Z = 1 with the proton mass: (M + m)/(M + m) = 1 exactly; no nucleus mass: the particle's charge alone
+    (-1), the single-particle dipole (both from the derivation above)."""
+    assert _tr("schrodinger", nucleus=PROTON_MASS_MEV).settings["dipole_factor"] == pytest.approx(-1.0, rel=1e-15)
+    assert _tr("schrodinger").settings["dipole_factor"] == -1.0
+
+
+def test_e1_dipole_without_a_coulomb_tail_uses_a_neutral_core_and_says_so():
+    """A Hulthen well has no Coulomb tail, so the nucleus's charge is unknown: Z = 0 is used, F = q M/(M + m)
+    (the derivation above with Z = 0), and the message says so. Without a nucleus mass nothing changes."""
+    M = 10 * PROTON_MASS_MEV
+    me = sc.physical_constants["electron mass energy equivalent in MeV"][0]
+    tr = boundkit.transitions("schrodinger", "hulthen", {"Z": 1, "delta": 0.05}, max_n=2, nucleus_mass_mev=M)
+    assert tr.settings["dipole_factor"] == pytest.approx(-M / (M + me), rel=1e-10)
+    assert "no Coulomb tail" in tr.message and "Z = 0 is used" in tr.message
+    plain = boundkit.transitions("schrodinger", "hulthen", {"Z": 1, "delta": 0.05}, max_n=2)
+    assert plain.settings["dipole_factor"] == -1.0 and "dipole" not in plain.message
+
+
+def test_neutral_particle_transitions_are_refused():
+    """A neutron's E1 lines would come from the nucleus's recoil alone, whose charge the potential lacks."""
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+
+    with pytest.raises(ValueError, match="particle: neutron has no charge.*use a charged particle"):
+        boundkit.transitions("schrodinger", "hulthen", {"Z": 1, "delta": 0.05}, particle="neutron")
+    res = CliRunner().invoke(main, ["transitions", "-p", "hulthen", "--param", "Z=1", "--param", "delta=0.05",
+                                    "--particle", "neutron"])
+    assert res.exit_code != 0
+    assert res.output.strip().startswith("boundkit: error: particle: neutron has no charge")
+    assert "Traceback" not in res.output
+
+
+def test_transitions_help_and_readme_describe_the_two_body_dipole():
+    """The factor is documented where users look, not only in the module docstring (a tester's finding)."""
+    from pathlib import Path
+
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+
+    text = " ".join(CliRunner().invoke(main, ["transitions", "--help"]).output.split())
+    assert "(M + Z m)/(M + m)" in text and "M1, E2 and M2 lines carry no recoil terms" in text
+    readme = " ".join((Path(__file__).parents[1] / "README.md").read_text().split())
+    assert "e r (q M - Z m)/(M + m)" in readme

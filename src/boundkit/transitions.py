@@ -65,12 +65,35 @@ which for E1 is A = 4 omega^3 S / (3 c^3 g_u), f = 2 m omega S / (3 g_l). The
 lifetime of a level is 1 / sum of its A; the branching ratio of a line is
 A / sum A. A in 1/s uses the atomic unit of time from scipy.constants.
 
-Reduced mass: when a nucleus mass M is given the levels are solved with
-mu = m M / (m + M), omega is the true transition energy, and the dipole is
-e r (r the relative coordinate), exact for a neutral two-body system such as
-hydrogen (for a nucleus of charge Z it is e r (M + Z m)/(M + m), a factor not
-applied here). m in f is the orbiting particle's own mass, the usual
-definition (with it, f of hydrogen exceeds the infinite-mass value by m/mu).
+Reduced mass and the two-body dipole: when a nucleus mass M is given the levels
+are solved with mu = m M / (m + M) and omega is the true transition energy. The
+dipole is that of both charges about their centre of mass: with r = r_particle -
+r_nucleus, r_particle - R_cm = M r / (M + m) and r_nucleus - R_cm = -m r / (M + m),
+so a particle of charge q e and a nucleus of charge Z e have
+
+    d = q e M r / (M + m) - Z e m r / (M + m) = e r (q M - Z m) / (M + m)
+
+(common practice, derived here). For q = -1 this is the single-particle -e r
+times (M + Z m)/(M + m), 1 for hydrogen (Z = 1) and 1.055 for muonic calcium, whose
+2p -> 1s rate it raises by 11 %. The E1 amplitude (length and velocity form, and
+the Dirac E1 with its full k) is multiplied by F = (q M - Z m)/(M + m), S, A and f
+by F^2; the factor is that of the long-wavelength limit (with retardation the two
+charges' phases differ by k r m/(M + m), which is left out). Without a nucleus mass
+F = q, the particle's own dipole (F^2 = 1 for every charged particle named here).
+q is the particle's charge (a particle given by its mass alone is taken as q = -1,
+and said so in the result's message); Z is read from the potential: -Z_inf / q,
+Z_inf the Coulomb tail V ~ -Z_inf / r of its vector terms (the electric part;
+a scalar Coulomb tail carries no charge). A potential without a Coulomb tail
+(a Woods-Saxon or Yukawa well alone) does not tell the nucleus's charge: Z = 0 is
+then used (a neutral core, F = q M / (M + m)) and the message says so. A neutral
+particle (q = 0) is refused: its lines come from the nucleus's recoil alone,
+whose charge the potential does not carry. M1, E2 and M2 lines keep the
+particle's own moments in the relative coordinate; their recoil terms are not
+applied (the E2 charge factor would be (q M^2 + Z m^2)/(M + m)^2 in the
+long-wavelength limit; the magnetic ones need the nucleus's own currents and
+moments, which the solve does not know), and the message says so when a nucleus
+mass is given. m in f is the orbiting particle's own mass, the usual definition
+(with it, f of hydrogen exceeds the infinite-mass value by m/mu).
 """
 from __future__ import annotations
 
@@ -331,11 +354,15 @@ def _previous(level):
 
 
 def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.0,
-         particle_mass: float | None = None, energy_unit: str = "eV") -> Line | None:
+         particle_mass: float | None = None, energy_unit: str = "eV", dipole_factor: float = 1.0) -> Line | None:
     """The line upper -> lower of one multipole, or None when the selection rules forbid it.
 
     ``mass`` is the mass used in the solve, ``particle_mass`` the particle's
-    own mass (for f), both in electron masses. See the module docstring.
+    own mass (for f), both in electron masses. ``dipole_factor`` F multiplies
+    the E1 amplitude (S, A and f by F^2; other multipoles are left as they
+    are): the two-body dipole (q M - Z m)/(M + m) in units of e that
+    :func:`transitions` passes (1: the dipole of a unit charge in the
+    relative coordinate). See the module docstring.
     """
     omega = upper.energy - lower.energy
     if not omega > 0:
@@ -375,6 +402,11 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
         long_a = long_a / gu / AU_TIME_S
     else:
         raise ValueError(f"equation: {equation!r} is not one of schrodinger, klein-gordon, dirac")
+    if multipole == "E1" and dipole_factor != 1.0:
+        F2 = float(dipole_factor) ** 2
+        S, S_err = S * F2, S_err * F2
+        SV = None if SV is None else SV * F2
+        long_a = None if long_a is None else long_a * F2
     A_au = _rate_factor(J) * k ** (2 * J + 1) * S / gu
     f = m_f * C_AU**3 * gu * A_au / (2 * omega**2 * gl)
     return Line(upper=upper.label, lower=lower.label, multipole=multipole,
@@ -382,6 +414,42 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
                 wavelength_nm=NM_HARTREE / omega, line_strength=S, oscillator_strength=f,
                 einstein_a=A_au / AU_TIME_S, line_strength_velocity=SV, long_wavelength_a=long_a,
                 line_strength_error=S_err)
+
+
+def _dipole_factor(potential, params, particle, mass_mev, nucleus_mass_mev, scalar, units) -> tuple[float, str]:
+    """(F, note): the E1 charge factor F = (q M - Z m)/(M + m) of the module docstring (q without a nucleus
+    mass) and what the result's message says about it ('' when there is nothing to say)."""
+    from .potentials import make_potential
+    from .units import get_particle
+
+    part = get_particle(particle, mass_mev)
+    notes = []
+    q = part.charge
+    if q is None:
+        q = -1.0
+        notes.append(f"particle {part.name} given by its mass: its charge is taken as -e for the E1 dipole")
+    if q == 0:
+        raise ValueError(f"particle: {part.name} has no charge, so its E1 lines come from the nucleus's recoil alone "
+                         "(dipole -Z e m r/(M + m)), whose charge Z the potential does not carry; use a charged "
+                         "particle")
+    if nucleus_mass_mev is None:
+        return float(q), "; ".join(notes)
+    if potential is None:
+        potential = "coulomb" if scalar is None else ()
+        if scalar is None:
+            params = {"Z": 1.0, **(params or {})}
+    z_tail = make_potential(potential, params, scalar=scalar, units=units).vector_tail_charge
+    Z = -z_tail / q
+    M, m = float(nucleus_mass_mev), part.mass_mev
+    F = (q * M - Z * m) / (M + m)
+    if z_tail == 0:
+        notes.append("the potential has no Coulomb tail, so the nucleus's charge is not known: Z = 0 is used in "
+                     f"the E1 dipole (q M - Z m)/(M + m) = {F:.12g} e")
+    else:
+        notes.append(f"E1 dipole of particle and nucleus about their centre of mass: (q M - Z m)/(M + m) = {F:.12g} e "
+                     f"(q = {q:g}, Z = {Z:.12g}; for q = -1 the particle's -e r times (M + Z m)/(M + m))")
+    notes.append("M1, E2 and M2 lines without the nucleus's share (recoil terms not applied)")
+    return F, "; ".join(notes)
 
 
 def _channels(equation: str, max_n: int):
@@ -435,6 +503,14 @@ def transitions(equation: str = "schrodinger", potential=None, params: dict | No
     Notes
     -----
     See the module docstring for the radial integrals and the rate formulas.
+    With ``nucleus_mass_mev`` M the E1 amplitude is the two-body dipole about the
+    centre of mass, e r (q M - Z m)/(M + m) (q the particle's charge, m its mass,
+    r = r_particle - r_nucleus): for q = -1 the particle's own dipole times
+    (M + Z m)/(M + m), which raises the muonic calcium 2p -> 1s rate by 11 %.
+    Z = -Z_inf / q from the Coulomb tail V ~ -Z_inf / r of the vector terms; a
+    potential without one gives Z = 0 (said in ``message``). M1, E2 and M2 lines
+    carry no recoil terms (said in ``message``). ``settings["dipole_factor"]``
+    holds the factor (q without a nucleus mass). A neutral particle is refused.
     """
     from .solver import solve  # the public entry point
     from .units import energy_unit as canonical_energy_unit
@@ -452,6 +528,7 @@ def transitions(equation: str = "schrodinger", potential=None, params: dict | No
             raise ValueError(f"multipoles: {m!r} is not one of {', '.join(MULTIPOLES)}")
         if m != "E1" and key != "dirac":
             raise ValueError(f"multipoles: {m} is computed for the Dirac equation only; use E1")
+    dipole, dipole_note = _dipole_factor(potential, params, particle, mass_mev, nucleus_mass_mev, scalar, units)
     found, messages, settings, potential_name = [], [], {}, str("coulomb" if potential is None else potential)
     status = "ok"
     for channel, count in _channels(key, max_n):
@@ -490,7 +567,8 @@ def transitions(equation: str = "schrodinger", potential=None, params: dict | No
                 continue
             below[up.label] += 1
             for m in mults:
-                ln = line(up, low, m, equation=key, mass=mass, particle_mass=particle_mass, energy_unit=unit)
+                ln = line(up, low, m, equation=key, mass=mass, particle_mass=particle_mass, energy_unit=unit,
+                          dipole_factor=dipole)
                 if ln is not None:
                     down_from[up.label].append(ln)
     lines = [ln for down in down_from.values() for ln in down if ln.lower in kept]
@@ -508,9 +586,12 @@ def transitions(equation: str = "schrodinger", potential=None, params: dict | No
     if levels is not None:
         message += (f"; lifetimes count the decays to every lower level with n <= {max_n} (of {len(found)} bound "
                     "there), listed or not")
+    if dipole_note:
+        message += "; " + dipole_note
     if messages:
         message += "; " + "; ".join(messages)
     from .units import constants_record
     return TransitionResult(tuple(lines), tuple(decays), key, potential_name, unit,
-                            settings={**settings, "max_n": max_n, "multipoles": mults, "tol": tol, "labels": labels},
+                            settings={**settings, "max_n": max_n, "multipoles": mults, "tol": tol, "labels": labels,
+                                      "dipole_factor": dipole},
                             constants=constants_record(), status=status, message=message)

@@ -23,7 +23,11 @@ nearest t (degree stencil - 1, default 10 nodes, matching the default
 Outside the mesh: for r < r_min, P / r^gamma (a power series in r at a
 Coulomb-like origin) is extrapolated linearly in r from the first node and one
 near 4 r_min (relative error O(r_min^2); nodes further apart than the first
-two carry less of their rounding to the origin). The Klein-Gordon density weight, ~ 1/r at a
+two carry less of their rounding to the origin). A Dirac Q follows its own power
+there (:func:`origin_shift`): r^gamma at a point charge, r^(gamma + 1) for
+kappa < 0 and r^(gamma - 1) for kappa > 0 where the origin has none (a finite
+nucleus); the first is extrapolated as b r^(gamma + 1), b read at the node near
+4 r_min, the second as (a + b r) r^(gamma - 1). The Klein-Gordon density weight, ~ 1/r at a
 point charge, is handled the same way with exponent -1: weight r / (r + r_core)
 is interpolated, and extrapolated as a + b / r below r_min. For r > r_max the
 functions are returned as 0 (the solver's outer radius lies where the level has
@@ -36,7 +40,7 @@ from functools import lru_cache
 import numpy as np
 
 __all__ = ["barycentric_weights", "interpolate_f", "cardinal_rows", "evaluate", "components_at", "origin_coefficient",
-           "origin_noise", "derivative_t", "radial_derivative_state"]
+           "origin_noise", "origin_shift", "derivative_t", "radial_derivative_state"]
 
 FD_STENCIL = 10
 """Nodes used for local interpolation of finite-difference states."""
@@ -198,24 +202,89 @@ def _over_r_gamma(state, values: np.ndarray, idx) -> np.ndarray:
     return fn * (rn + rc) ** -g if rc > 0 else fn
 
 
-def _towards_origin(rn, fn, state, r, gamma: float):
+def _towards_origin(rn, fn, state, r, gamma: float, shift: int = 0):
     """f below the first node. At a Coulomb-like origin P / r^gamma = h(r), a power series
     in r, with h = f (r + r_core)^-gamma; h is extrapolated linearly in r from the first node and
-    one near 4 r_min (:func:`_origin_nodes`; error O(r_min^2)) and returned as f = h (r + r_core)^gamma."""
+    one near 4 r_min (:func:`_origin_nodes`; error O(r_min^2)) and returned as f = h (r + r_core)^gamma.
+
+    ``shift`` (:func:`origin_shift`) is the power by which the component departs from r^gamma there.
+    +1 (Q of kappa < 0 at an origin without a point charge, Q ~ r^(gamma + 1)): h = b r, its
+    leading coefficient 0 (a line with a free intercept read that intercept off the errors of the
+    first nodes, and Q / (P r) grew like 1/r below them: -23145 at 1e-9 bohr instead of -2248 for a
+    Z = 83 sphere), b = h / r at the node near 4 r_min alone: the cancellation in P' + kappa P / r
+    that makes Q spoils the first nodes most (Q / (P r) 50 % off at r_min, 0.6 % near 4 r_min; a
+    least-squares b over the nodes between was 6 % off). The term left out is O(4 r_min / L).
+    -1 (Q of kappa > 0 there, Q ~ r^(gamma - 1)): h r is the line."""
     rc, g = state.r_core, gamma
     i, j = _memo(state, "origin_nodes", lambda: tuple(_origin_nodes(rn, 2)))
-    h0, h1 = (fn[[i, j]] * (rn[[i, j]] + rc) ** -g) if rc > 0 else fn[[i, j]]
-    h = h0 + (h1 - h0) / (rn[j] - rn[i]) * (r - rn[i])
+    if shift == 1:
+        hj = fn[j] * (rn[j] + rc) ** -g if rc > 0 else fn[j]
+        h = float(hj / rn[j]) * r
+    else:
+        x = rn[[i, j]]
+        h0, h1 = (fn[[i, j]] * (x + rc) ** -g) if rc > 0 else fn[[i, j]]
+        if shift == -1:
+            h0, h1 = h0 * x[0], h1 * x[1]
+        h = h0 + (h1 - h0) / (x[1] - x[0]) * (r - x[0])
+        if shift == -1:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                h = np.where(r > 0, h / np.where(r > 0, r, 1.0), 0.0)  # Q(0) = 0: r^(gamma - 1), gamma >= 2
     return h * (r + rc) ** g if rc > 0 else h
+
+
+def origin_shift(state, component: str = "Q") -> int:
+    """The power by which ``component`` departs from r^gamma at the origin: 0, +1 or -1 (kept in
+    ``state.memo``).
+
+    P ~ r^gamma by the definition of gamma. At a point charge Q ~ r^gamma as well (gamma irrational).
+    Where the origin has no point charge, or the vector and scalar charges cancel (gamma is then the
+    integer |kappa| for kappa < 0 and kappa + 1 for kappa > 0), the regular solution has
+    Q ~ r^(gamma + 1) for kappa < 0 and Q ~ r^(gamma - 1) for kappa > 0 at a finite potential (a spin-
+    symmetric Coulomb origin keeps Q ~ r^gamma for kappa < 0). A state does not carry its kappa or
+    potential, so for an integer gamma the power is read from Q: the slope of ln |Q / r^gamma| in ln r
+    between the nodes near 4 r_min and 16 r_min (past the first nodes, whose Q the cancellation in
+    P' + kappa P / r spoils most), rounded to the nearest of -1, 0, +1 (it is 1.00 for a Z = 83 sphere,
+    -1.00 for its kappa = 1 level). A non-integer gamma returns 0 without reading anything.
+    """
+    if component != "Q" or state.Q is None:
+        return 0
+    return _memo(state, "origin_shift", lambda: _q_shift(state))
+
+
+def _q_shift(state) -> int:
+    g = float(state.gamma)
+    if g != round(g):
+        return 0
+    rn = state.r
+    idx = np.minimum(np.searchsorted(rn, rn[0] * np.array([_ORIGIN_SPAN, _ORIGIN_SPAN**2])), len(rn) - 1)
+    if idx[1] <= idx[0]:
+        return 0
+    h = _over_r_gamma(state, state.Q, idx)
+    if not (np.all(np.isfinite(h)) and h[0] * h[1] > 0):
+        return 0
+    slope = float(np.log(h[1] / h[0]) / np.log(rn[idx[1]] / rn[idx[0]]))
+    shift = int(round(slope))
+    return shift if shift in (-1, 1) else 0
 
 
 def origin_coefficient(state, component: str = "P", points: int = 2) -> float:
     """lim_(r -> 0) component / r^gamma (bohr^(-1/2 - gamma)): h = P / r^gamma at ``points`` nodes
     from the first one to about 4 r_min (:func:`_origin_nodes`) extrapolated to r = 0 by the
-    polynomial through them (2: linear, as in :func:`_towards_origin`; 3: quadratic)."""
+    polynomial through them (2: linear, as in :func:`_towards_origin`; 3: quadratic).
+
+    A Q that vanishes one power faster than r^gamma (:func:`origin_shift` +1: kappa < 0 without a
+    point charge at the origin) has the limit 0, returned as such. One that vanishes one power slower
+    (-1: kappa > 0 there) has no finite limit: ValueError."""
     values = state.P if component == "P" else state.Q
     if values is None:
         return 0.0
+    shift = origin_shift(state, component)
+    if shift == 1:
+        return 0.0
+    if shift == -1:
+        raise ValueError(f"component: {component} of this state goes like r^(gamma - 1) at the origin (kappa > 0 "
+                         f"without a point charge there, gamma = {state.gamma:g}), so {component} / r^gamma has no "
+                         "finite limit; the density's leading power there is r^(2 gamma - 2)")
     idx = _origin_nodes(state.r, points)
     rn = state.r[idx]
     h = _over_r_gamma(state, values, idx)
@@ -227,25 +296,34 @@ def origin_coefficient(state, component: str = "P", points: int = 2) -> float:
     return float(total)
 
 
-def origin_noise(state) -> float:
+def origin_noise(state, component: str | None = None) -> float:
     """Relative rounding of P / r^gamma (and Q / r^gamma) near the origin: the largest deviation of
     its nodal values from r_min to about 4 r_min (:func:`_origin_nodes`) from their least-squares
     line, over its mean. There h is a line to O(r_min^2 / L^2), so the scatter is rounding (1e-13 of
     Q at the first nodes of a Z = 116 1s level), which every quantity read below r_min carries; 0 when
-    fewer than three nodes lie there (kept in ``state.memo``)."""
-    return _memo(state, "origin_noise", lambda: _origin_noise(state))
+    fewer than three nodes lie there (kept in ``state.memo``).
+
+    A Q of another power than r^gamma (:func:`origin_shift`) is read over its own power. Where Q vanishes
+    one power faster (kappa < 0 at a finite nucleus) its first nodes carry the cancellation in
+    P' + kappa P / r that makes Q, not rounding alone: 0.15 for the 1s of a Z = 20 or 83 sphere, 0.56 for
+    a muon's (Q / (P r) 96 % off at r_min, 0.8 % near 4 r_min), while P's is 3e-9 (Z = 83). ``component``
+    ('P' or 'Q') gives that component's alone; None the larger of the two."""
+    if component not in (None, "P", "Q"):
+        raise ValueError(f"component: {component!r} is not one of 'P', 'Q' (or None for both)")
+    return _memo(state, ("origin_noise", component), lambda: _origin_noise(state, component))
 
 
-def _origin_noise(state) -> float:
+def _origin_noise(state, component: str | None = None) -> float:
     j = int(_origin_nodes(state.r, 2)[1])
     if j < 2:
         return 0.0
     rn = state.r[: j + 1]
     worst = 0.0
-    for values in (state.P, state.Q):
-        if values is None:
+    for name, values in (("P", state.P), ("Q", state.Q)):
+        if values is None or component not in (None, name):
             continue
-        h = _over_r_gamma(state, values, slice(0, j + 1))
+        # the component over its own power of r at the origin (origin_shift): the series it follows there
+        h = _over_r_gamma(state, values, slice(0, j + 1)) / rn ** origin_shift(state, name)
         scale = abs(float(np.mean(h)))
         if scale == 0.0 or not np.all(np.isfinite(h)):
             continue
@@ -316,7 +394,7 @@ def components_at(state, r: np.ndarray, components) -> list[np.ndarray]:
     for col, i in enumerate(live):
         values, _, f_i, gamma = nodal[i]
         if low.any():
-            out[low, col] = _towards_origin(rn, f_i, state, r[low], gamma)
+            out[low, col] = _towards_origin(rn, f_i, state, r[low], gamma, origin_shift(state, components[i]))
         out[inside, col] *= _weight(r[inside], state.r_core, gamma)
         if components[i] == "weight" and beyond.any():
             out[beyond, col] = values[-1]

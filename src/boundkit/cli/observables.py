@@ -108,7 +108,14 @@ def transitions_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, t
                     table_origin, table_r_unit, table_v_unit, params, unit_system, max_n, max_n_limit, levels,
                     multipoles, energy_unit, tol, method, particle, mass_mev, nucleus_mass_mev, labels, as_json):
     """Radiative lines among the levels up to --max-n: energies, line strengths, oscillator
-    strengths, Einstein A, lifetimes and branching ratios."""
+    strengths, Einstein A, lifetimes and branching ratios.
+
+    With --nucleus-mass-mev M the levels use the reduced mass and the E1 dipole is
+    that of particle (charge q, mass m) and nucleus (charge Z) about their centre of
+    mass, e r (q M - Z m)/(M + m): for q = -1 the particle's own dipole times
+    (M + Z m)/(M + m), 1 for hydrogen, 1.055 for muonic calcium. Z comes from the
+    potential's Coulomb tail (Z = 0, said in the header, when it has none); M1, E2
+    and M2 lines carry no recoil terms; a neutral particle is refused."""
     from ..transitions import transitions
 
     try:
