@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
 import scipy.constants as sc
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
@@ -33,7 +34,7 @@ def _run(E, a, b, y0, V, m, kappa=-1):
         P, Q = y[0], y[1]
         v = V(r)
         return [-kappa / r * P + (E + 2 * m * C * C - v) / C * Q, kappa / r * Q - (E - v) / C * P,
-                P * P + Q * Q, r * (P * P + Q * Q), P * Q / r**2]
+                P * P + Q * Q, r * (P * P + Q * Q), P * Q / r**2, (P * P + Q * Q) / r**2]
     # a given first step: with atol 1e-300 on components that start at 0, scipy's own first-step guess
     # overflows (inf / inf); the adaptive steps take over after it
     return solve_ivp(rhs, [a, b], y0, method="DOP853", rtol=1e-13, atol=1e-300,
@@ -43,26 +44,28 @@ def _run(E, a, b, y0, V, m, kappa=-1):
 def _shoot(E, Z, R, m, rm, rmax, full=False):
     V = _potential(Z, R)
     r0 = 1e-6 * R
-    y = [r0, -(E + 1.5 * Z / R) / (3 * C) * r0 * r0, 0.0, 0.0, 0.0]
+    y = [r0, -(E + 1.5 * Z / R) / (3 * C) * r0 * r0, 0.0, 0.0, 0.0, r0]      # int_0^r0 of rho / r^2 ~ r0
     y = _run(E, r0, R, y, V, m)
     yo = _run(E, R, rm, y, V, m)
-    yi = _run(E, rmax, rm, [1e-30, -1e-30 * math.sqrt(-E / (E + 2 * m * C * C)), 0.0, 0.0, 0.0], V, m)
+    yi = _run(E, rmax, rm, [1e-30, -1e-30 * math.sqrt(-E / (E + 2 * m * C * C)), 0.0, 0.0, 0.0, 0.0], V, m)
     if not full:
         return yo[1] / yo[0] - yi[1] / yi[0]
     s = yo[0] / yi[0]
     integrals = yo[2:] - s * s * yi[2:]
-    return integrals / integrals[0]
+    # the start P = r0 (Q ~ r0^2) makes P / r -> 1 at the origin: rho / r^2 there is 1 / norm
+    return np.append(integrals / integrals[0], 1.0 / integrals[0])
 
 
 def sphere_1s(Z: float, rms_fm: float, guess: float, m: float = 1.0) -> list[dict]:
     """The 1s1/2 level near ``guess`` (hartree, binding) with two matching settings: a list of dicts with
-    E, r_mean and pq_r2 (int P Q / r^2 dr, normalised)."""
+    E, r_mean, pq_r2 (int P Q / r^2 dr, normalised), r_m2 (<r^-2>) and rho0 (lim rho / r^2 at the origin,
+    normalised)."""
     R = sphere_radius(rms_fm)
     out = []
     for rm, rmax in ((max(0.83 / (Z * m), 3 * R), 60 / (Z * m)), (max(1.66 / (Z * m), 5 * R), 75 / (Z * m))):
         E = brentq(lambda e: _shoot(e, Z, R, m, rm, rmax), guess * 1.0001, guess * 0.9999, xtol=1e-14, rtol=1e-15)
-        _, r_mean, pq = _shoot(E, Z, R, m, rm, rmax, True)
-        out.append({"E": E, "r_mean": r_mean, "pq_r2": pq})
+        _, r_mean, pq, r_m2, rho0 = _shoot(E, Z, R, m, rm, rmax, True)
+        out.append({"E": E, "r_mean": r_mean, "pq_r2": pq, "r_m2": r_m2, "rho0": rho0})
     return out
 
 

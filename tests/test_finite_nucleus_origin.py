@@ -98,3 +98,49 @@ def test_origin_noise_of_one_component():
     assert origin_noise(st) == max(p, q)
     with pytest.raises(ValueError, match="component: 'X' is not one of 'P', 'Q'"):
         origin_noise(st, "X")
+
+
+@pytest.mark.parametrize("Z, rms", SPHERES)
+def test_the_density_at_the_origin_of_an_s_level(Z, rms):
+    """lim rho / r^2 of the 1s1/2 against the shooting reference's (its start P = r makes it 1 / norm). The
+    estimate reads P's rounding at the first nodes (Q vanishes one power faster there and adds nothing at
+    r = 0); with Q's, whose first nodes carry the cancellation that makes it, the estimate was 29 % of the
+    value at Z = 83."""
+    from boundkit.observables import density_at_origin
+
+    refs = sphere_1s(Z, rms, _level(Z, rms).energy)
+    q = density_at_origin(_level(Z, rms))
+    ref = refs[0]["rho0"]
+    assert abs(q.value - ref) <= q.error + abs(refs[0]["rho0"] - refs[1]["rho0"]), (q, ref)
+    assert q.error <= 1e-6 * ref, q
+
+
+def test_the_density_at_the_origin_of_a_p_one_half_level_follows_its_small_component():
+    """kappa = +1 at a finite nucleus: Q ~ r leads, so rho ~ c r^(2 gamma - 2) with gamma = 2 (P ~ r^2). observables()
+    raised for every such level (density_at_origin asked for lim Q / r^gamma, which has none). Check against the
+    state's own density at radii far below the first node, where rho / r^(2 gamma - 2) = c (1 + O(r))."""
+    from boundkit.observables import density_at_origin
+
+    lv = _level(20, 3.48, kappa=1)
+    obs = boundkit.observables(lv)
+    q = density_at_origin(lv)
+    assert q is not None and "2 gamma - 2" in q.name and obs.origin.value == q.value
+    g = lv.state.gamma
+    r = lv.state.r[0] * 1e-6
+    assert q.value == pytest.approx(float(lv.state.density(r)) / r ** (2 * g - 2), rel=1e-5)
+
+
+@pytest.mark.parametrize("Z, rms, particle", [(83, 5.5, "electron"), (20, 3.48, "muon")])
+def test_the_inverse_square_moment_counts_the_large_components_rounding_below_the_first_node(Z, rms, particle):
+    """<r^-2> puts a share of itself below the first node, where Q ~ r^2 adds (Q / P)^2 of its noise to the
+    density: the estimate reads P's rounding there. With Q's (whose first nodes carry the cancellation that
+    makes it) it was 2.4e-6 (Z = 83) and 7.7e-6 (muon) relative; against the shooting reference."""
+    from boundkit.observables import radial_moment
+
+    res = boundkit.solve("dirac", "uniform-sphere", {"Z": Z, "rms_fm": rms}, kappa=-1, tol=1e-12, particle=particle)
+    lv = res.levels[0]
+    refs = sphere_1s(Z, rms, lv.energy, m=res.settings["mass_atomic_units"])
+    q = radial_moment(lv, -2)
+    ref = refs[0]["r_m2"]
+    assert abs(q.value - ref) <= q.error + abs(refs[0]["r_m2"] - refs[1]["r_m2"]), (q, ref)
+    assert q.error <= 1e-10 * ref, q

@@ -72,7 +72,7 @@ import numpy as np
 import scipy.constants as sc
 
 from .units import ALPHA, C_AU, LENGTH_UNITS, bohr_to, hartree_to, length_unit, mass_mev_to_au
-from .wavefunctions import cardinal_rows, components_at, origin_coefficient, origin_noise
+from .wavefunctions import cardinal_rows, components_at, origin_coefficient, origin_noise, origin_shift
 
 __all__ = ["Quantity", "LevelObservables", "expectation", "expectation_value", "radial_moment",
            "mean_radius", "rms_radius", "matrix_element", "observables", "g_factor", "hyperfine_a",
@@ -549,12 +549,16 @@ def _state_noise(sa, sb, f, kind: str) -> float:
     return FD_NOISE * max(len(sa.r), len(sb.r)) * total
 
 
-def _origin_error(below: float, *states) -> float:
+def _origin_error(below: float, *states, kind: str = "density") -> float:
     """Error of the part of an integral below the first node (``below``, of the integrand's absolute
     value): twice the states' relative rounding of P / r^gamma there (:func:`origin_noise`; a product
     of two states). Negligible unless the integrand is nearly flat in ln r towards the origin (a
-    point-dipole hyperfine integral at high Z puts 27 % of itself there)."""
-    return 2.0 * max(origin_noise(s) for s in states) * below if below > 0 else 0.0
+    point-dipole hyperfine integral at high Z puts 27 % of itself there). A Q one power below P there
+    (kappa < 0 without a point charge, :func:`origin_shift`) adds (Q / P)^2 ~ r^2 of its noise to a
+    density, nothing to see: only P's counts then, unless the integrand is P Q."""
+    def noise(s):
+        return origin_noise(s, "P") if kind != "PQ" and kind != "QP-PQ" and origin_shift(s) == 1 else origin_noise(s)
+    return 2.0 * max(noise(s) for s in states) * below if below > 0 else 0.0
 
 
 def _real_function(f, name: str = "f", fix: str = "") -> Callable[[np.ndarray], np.ndarray]:
@@ -637,7 +641,7 @@ def _expectation(level, f, name: str, unit: str, kind: str, breaks: tuple,
     value, scale, below, quad = _integrals(s, None, f, kind, breaks)
     _refuse_far(tail, scale, R, refusal)
     prev = None if level.previous_state is None else _integral(level.previous_state, None, f, kind, breaks)
-    error = _estimate(value, prev, scale, _origin_error(below, s), _state_noise(s, s, f, kind)) + \
+    error = _estimate(value, prev, scale, _origin_error(below, s, kind=kind), _state_noise(s, s, f, kind)) + \
         (tail if tail > 0 else 0.0) + quad
     return Quantity(name, value, error, unit, _note(level))
 
@@ -683,29 +687,38 @@ def rms_radius(level) -> float:
 
 
 def density_at_origin(level) -> Quantity:
-    """Coefficient c of the density rho(r) ~ c r^(2 gamma) at the origin (bohr^(-1-2 gamma)).
+    """Coefficient c of the density rho(r) ~ c r^(2 gamma) at the origin (bohr^(-1-2 gamma)); for a Dirac
+    level with kappa > 0 and no point charge at the origin, whose Q ~ r^(gamma - 1) leads, of rho ~ c
+    r^(2 gamma - 2) (the name says which).
 
     Notes
     -----
-    c = lim P^2 / r^(2 gamma) (+ Q^2 / r^(2 gamma) for Dirac). For Schrodinger
-    s states (gamma = 1) |psi(0)|^2 = c / (4 pi). Klein-Gordon: the plain
+    c = lim P^2 / r^(2 gamma) (+ Q^2 / r^(2 gamma) for Dirac, where Q has P's power: a point charge;
+    without one Q ~ r^(gamma + 1) for kappa < 0 adds nothing, and for kappa > 0 c = lim Q^2 / r^(2 gamma - 2)).
+    For Schrodinger s states (gamma = 1) |psi(0)|^2 = c / (4 pi). Klein-Gordon: the plain
     P^2 coefficient (the charge-density weight diverges at a point charge).
     P / r^gamma is extrapolated to r = 0 linearly from the first node and one
     near 4 r_min; the error estimate is the larger of the change from the
     previous resolution and the difference to a quadratic extrapolation from
-    three nodes, plus twice the relative scatter of P / r^gamma about a line
+    three nodes, plus twice the relative scatter of the leading components over their power about a line
     over those nodes (rounding in the nodal values near r_min, which both
     resolutions share).
     """
-    def coef(s, points=2):
-        return origin_coefficient(s, "P", points) ** 2 + origin_coefficient(s, "Q", points) ** 2
+    st = level.state
+    shift = origin_shift(st, "Q") if st.Q is not None else 1
+    lead = ("Q",) if shift == -1 else ("P", "Q") if shift == 0 and st.Q is not None else ("P",)
 
-    value = coef(level.state)
+    def coef(s, points=2):
+        return sum(origin_coefficient(s, c, points, own_power=True) ** 2 for c in lead)
+
+    value = coef(st)
     prev = None if level.previous_state is None else coef(level.previous_state)
-    error = max(_estimate(value, prev), abs(coef(level.state, 3) - value)) + 2 * origin_noise(level.state) * value
-    g = level.state.gamma
-    return Quantity("rho/r^(2 gamma) at 0", value, error, f"bohr^-{1 + 2 * g:.6g}",
-                    "P^2 coefficient" if level.state.density_weight is not None else "")
+    noise = max(origin_noise(st, c) for c in lead)
+    error = max(_estimate(value, prev), abs(coef(st, 3) - value)) + 2 * noise * value
+    g = st.gamma - 1 if shift == -1 else st.gamma
+    power = "2 gamma - 2" if shift == -1 else "2 gamma"
+    return Quantity(f"rho/r^({power}) at 0", value, error, f"bohr^-{1 + 2 * g:.6g}",
+                    "P^2 coefficient" if st.density_weight is not None else "")
 
 
 # --- matrix elements -----------------------------------------------------------------------
@@ -755,7 +768,7 @@ def matrix_element(level_a, level_b, f: Callable[[np.ndarray], np.ndarray], *,
     swapped = _integral(sb, sa, f, kind) if sa.r[-1] != sb.r[-1] else value
     pa, pb = level_a.previous_state, level_b.previous_state
     prev = None if pa is None or pb is None else _integral(pa, pb, f, kind)
-    err = max(_estimate(value, prev, scale, _origin_error(below, sa, sb), _state_noise(sa, sb, f, kind)),
+    err = max(_estimate(value, prev, scale, _origin_error(below, sa, sb, kind=kind), _state_noise(sa, sb, f, kind)),
               abs(value - swapped))
     return Quantity(name, value, err + (tail if tail > 0 else 0.0) + quad, "a.u.", _note(level_a))
 

@@ -267,27 +267,31 @@ def _q_shift(state) -> int:
     return shift if shift in (-1, 1) else 0
 
 
-def origin_coefficient(state, component: str = "P", points: int = 2) -> float:
+def origin_coefficient(state, component: str = "P", points: int = 2, own_power: bool = False) -> float:
     """lim_(r -> 0) component / r^gamma (bohr^(-1/2 - gamma)): h = P / r^gamma at ``points`` nodes
     from the first one to about 4 r_min (:func:`_origin_nodes`) extrapolated to r = 0 by the
     polynomial through them (2: linear, as in :func:`_towards_origin`; 3: quadratic).
 
     A Q that vanishes one power faster than r^gamma (:func:`origin_shift` +1: kappa < 0 without a
     point charge at the origin) has the limit 0, returned as such. One that vanishes one power slower
-    (-1: kappa > 0 there) has no finite limit: ValueError."""
+    (-1: kappa > 0 there) has no finite limit: ValueError. With ``own_power`` the limit is taken over
+    the component's own power r^(gamma + shift) instead (the leading coefficient of its series; for
+    shift -1 h r is extrapolated, as :func:`_towards_origin` does)."""
     values = state.P if component == "P" else state.Q
     if values is None:
         return 0.0
     shift = origin_shift(state, component)
-    if shift == 1:
+    if shift == 1 and not own_power:
         return 0.0
-    if shift == -1:
+    if shift == -1 and not own_power:
         raise ValueError(f"component: {component} of this state goes like r^(gamma - 1) at the origin (kappa > 0 "
                          f"without a point charge there, gamma = {state.gamma:g}), so {component} / r^gamma has no "
                          "finite limit; the density's leading power there is r^(2 gamma - 2)")
     idx = _origin_nodes(state.r, points)
     rn = state.r[idx]
-    h = _over_r_gamma(state, values, idx)
+    if shift == 1:      # read at the node near 4 r_min alone, as _towards_origin does
+        return float(_over_r_gamma(state, values, idx[-1:])[0] / rn[-1])
+    h = _over_r_gamma(state, values, idx) * rn ** -shift
     # Lagrange polynomial through (rn, h) evaluated at 0
     total = 0.0
     for i in range(points):
