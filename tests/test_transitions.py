@@ -572,3 +572,26 @@ def test_transitions_help_and_readme_describe_the_two_body_dipole():
     assert "(M + Z m)/(M + m)" in text and "M1, E2 and M2 lines carry no recoil terms" in text
     readme = " ".join((Path(__file__).parents[1] / "README.md").read_text().split())
     assert "e r (q M - Z m)/(M + m)" in readme
+
+
+def test_a_line_between_fine_structure_partners_carries_the_error_of_its_energy():
+    """3d5/2 -> 3p3/2 of hydrogen: omega ~ 1e-6 hartree is the difference of two levels of 0.056 hartree, so
+    their estimates (about 1e-14 relative each) are 1e-9 of omega, and A ~ omega^3 S three times that; the line
+    reported only the error of S (7.5e-11) while omega was 7.5e-10 off the exact Sommerfeld difference (a tester).
+    Reference: the Sommerfeld-Dirac levels of tests/exact.py (Bethe & Salpeter 1957, eq. 14.29)."""
+    from click.testing import CliRunner
+
+    from boundkit.cli import main
+    from exact import dirac_coulomb
+
+    tr = boundkit.transitions("dirac", "coulomb", {"Z": 1}, max_n=3, energy_unit="hartree")
+    ln = next(x for x in tr.lines if (x.upper, x.lower) == ("3d5/2", "3p3/2"))
+    exact = dirac_coulomb(1.0, 3, -3) - dirac_coulomb(1.0, 3, -2)
+    assert abs(ln.energy_hartree - exact) <= ln.energy_error, (ln.energy_hartree, exact, ln.energy_error)
+    rel_omega = ln.energy_error / ln.energy_hartree
+    assert ln.einstein_a_error / ln.einstein_a >= ln.line_strength_error / ln.line_strength + 3 * rel_omega
+    assert ln.oscillator_strength_error / ln.oscillator_strength >= rel_omega
+    d = ln.to_dict()
+    assert d["energy_error"] == ln.energy_error and d["einstein_a_error"] == ln.einstein_a_error
+    text = CliRunner().invoke(main, ["transitions", "-e", "dirac", "--max-n", "3"]).stdout
+    assert "dA/A" in text

@@ -198,7 +198,11 @@ class Line:
     change one resolution lower, never below the rounding of the integral of
     |r P_a P_b|) carried to S = l_> R^2; for Dirac the change of S when both
     levels are taken one resolution lower (inf when a level has no previous
-    state). A, f and S share the same relative error.
+    state). ``energy_error`` (in ``energy_unit``) is the sum of the two levels' estimates: omega is their
+    difference, so between close levels (fine-structure partners) it carries far more relative error than
+    either. ``einstein_a_error`` (1/s) and ``oscillator_strength_error`` add it to S's:
+    dA/A = dS/S + (1 + domega/omega)^(2J+1) - 1, df/f = dS/S + (1 + domega/omega)^(2J-1) - 1
+    (A ~ omega^(2J+1) S, f ~ omega^(2J-1) S).
     """
 
     upper: str
@@ -214,6 +218,9 @@ class Line:
     line_strength_velocity: float | None = None
     long_wavelength_a: float | None = None
     line_strength_error: float = math.inf
+    energy_error: float = math.inf
+    einstein_a_error: float = math.inf
+    oscillator_strength_error: float = math.inf
 
     @property
     def gauge_agreement(self) -> float | None:
@@ -228,7 +235,8 @@ class Line:
                 "line_strength": self.line_strength, "oscillator_strength": self.oscillator_strength,
                 "einstein_a": self.einstein_a, "line_strength_velocity": self.line_strength_velocity,
                 "gauge_agreement": self.gauge_agreement, "long_wavelength_a": self.long_wavelength_a,
-                "line_strength_error": self.line_strength_error}
+                "line_strength_error": self.line_strength_error, "energy_error": self.energy_error,
+                "einstein_a_error": self.einstein_a_error, "oscillator_strength_error": self.oscillator_strength_error}
 
     def __repr__(self) -> str:
         return (f"Line({self.upper} -> {self.lower} {self.multipole}: {self.energy:.10g} {self.energy_unit}, "
@@ -409,11 +417,16 @@ def line(upper, lower, multipole: str = "E1", *, equation: str, mass: float = 1.
         long_a = None if long_a is None else long_a * F2
     A_au = _rate_factor(J) * k ** (2 * J + 1) * S / gu
     f = m_f * C_AU**3 * gu * A_au / (2 * omega**2 * gl)
+    # omega is the difference of two levels: its error is theirs, carried to A ~ omega^(2J+1) S, f ~ omega^(2J-1) S
+    d_omega = upper.error_estimate + lower.error_estimate
+    r_omega, r_S = d_omega / omega, S_err / S
     return Line(upper=upper.label, lower=lower.label, multipole=multipole,
                 energy=float(hartree_to(omega, energy_unit)), energy_unit=energy_unit, energy_hartree=omega,
                 wavelength_nm=NM_HARTREE / omega, line_strength=S, oscillator_strength=f,
                 einstein_a=A_au / AU_TIME_S, line_strength_velocity=SV, long_wavelength_a=long_a,
-                line_strength_error=S_err)
+                line_strength_error=S_err, energy_error=float(hartree_to(d_omega, energy_unit)),
+                einstein_a_error=A_au / AU_TIME_S * (r_S + (1 + r_omega) ** (2 * J + 1) - 1),
+                oscillator_strength_error=f * (r_S + (1 + r_omega) ** (2 * J - 1) - 1))
 
 
 def _dipole_factor(potential, params, particle, mass_mev, nucleus_mass_mev, scalar, units) -> tuple[float, str]:

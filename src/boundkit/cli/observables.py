@@ -3,6 +3,7 @@ hyperfine`` and the ``--observables`` / ``--states`` extras of ``boundkit solve`
 Parses, calls the public API, prints; no numerics here."""
 from __future__ import annotations
 
+import math
 import sys
 
 import click
@@ -63,7 +64,7 @@ def _format_lines(tr) -> str:
     out = [f"{tr.equation} equation, potential {tr.potential}: {tr.message}",
            f"line energies in {u}; S in {LINE_STRENGTH_UNIT}; f absorption oscillator strength; A in 1/s", "",
            f"{'upper':<8} {'lower':<8} {'mult':<4} {'energy':>16} {'lambda (nm)':>14} {'S':>13} {'f':>12} "
-           f"{'A (1/s)':>12} {'check':>10}"]
+           f"{'A (1/s)':>12} {'dA/A':>8} {'check':>10}"]
     for ln in tr.lines:
         if ln.gauge_agreement is not None:
             check = f"{ln.gauge_agreement:.1e}"
@@ -72,8 +73,10 @@ def _format_lines(tr) -> str:
         else:
             check = "-"
         out.append(f"{ln.upper:<8} {ln.lower:<8} {ln.multipole:<4} {ln.energy:>16.10g} {ln.wavelength_nm:>14.8g} "
-                   f"{ln.line_strength:>13.6g} {ln.oscillator_strength:>12.6g} {ln.einstein_a:>12.6g} {check:>10}")
-    out += ["", "check: |S_length / S_velocity - 1| (the two gauges; it loses digits when omega is tiny), or",
+                   f"{ln.line_strength:>13.6g} {ln.oscillator_strength:>12.6g} {ln.einstein_a:>12.6g} "
+                   f"{ln.einstein_a_error / ln.einstein_a if ln.einstein_a else math.inf:>8.1e} {check:>10}")
+    out += ["", "dA/A: estimated relative error of A, from S's and from omega's (the difference of two levels' energies)",
+            "check: |S_length / S_velocity - 1| (the two gauges; it loses digits when omega is tiny), or",
             "       'lw': long-wavelength A / A - 1 (large for M1 between s levels: that rate comes from retardation)",
             "",
             f"{'level':<8} {'lifetime (s)':>14}  branching ratios"]
