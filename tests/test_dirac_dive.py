@@ -35,6 +35,7 @@ from reference_dirac_sphere import sphere_level_hartree
 R_FM = 100.0
 M_MEV = C.physical_constants["Hartree energy in eV"][0] * 1e-6 / C.fine_structure**2   # boundkit's m_e c^2
 HBARC = C.hbar * C.c / C.e * 1e9           # MeV fm (exact SI constants)
+HARTREE_MEV = C.physical_constants["Hartree energy in eV"][0] * 1e-6
 V0C = M_MEV + math.sqrt(M_MEV**2 + (math.pi * HBARC / R_FM) ** 2)
 
 
@@ -70,6 +71,8 @@ def test_a_square_well_level_next_to_its_dive_is_found(d):
     assert len(res.levels) == 1 and res.levels[0].label == "1s1/2"
     lv = res.levels[0]
     assert abs(lv.energy_in("MeV") - exact) <= lv.error_in("MeV"), (lv.energy_in("MeV"), exact, lv.error_in("MeV"))
+    x, err = res.diagnostics["dive_state_hartree"]      # placed above the pole by more than its error
+    assert x > err
 
 
 @pytest.mark.parametrize("d", [1e-12, 1e-15, 0.0, -1e-15, -1e-12])
@@ -81,6 +84,9 @@ def test_a_square_well_state_within_the_resolution_of_its_dive_is_partial(d):
     assert not res.levels and not res.success
     assert re.search(r"within .* of diving into the lower continuum", res.message), res.message
     assert re.search(r"move .* further from the dive", res.message), res.message
+    x, err = res.diagnostics["dive_state_hartree"]
+    assert abs(x) <= err
+    assert res.to_dict()["diagnostics"]["dive_state"] == pytest.approx([x * HARTREE_MEV, err * HARTREE_MEV])
 
 
 @pytest.mark.parametrize("d", [-1e-8, -1e-10])
@@ -91,6 +97,8 @@ def test_a_square_well_level_that_dived_clearly_is_not_counted(d):
     assert res.status == "ok", res.message
     assert not res.levels
     assert re.search(r"dived into the lower continuum", res.message), res.message
+    x, err = res.diagnostics["dive_state_hartree"]      # measured below the pole, or too deep to lift
+    assert x < -err or x == 0.0
 
 
 @pytest.mark.parametrize("Z, kappa, label, near", [(169.73336438, -1, "1s1/2", "5e-10"),
