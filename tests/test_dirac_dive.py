@@ -5,9 +5,9 @@ the two was counted below the window and reported as dived, status 'ok': a unifo
 (rms 7 fm) at Z = 169.73336438 came back with 2s1/2 and 3s1/2, its 1s1/2 (W + 1 = 5.0e-10) missing; at
 Z = 182.22671252 the 2p1/2 (W + 1 = 1.1e-9) likewise; a vector square well 1e-10 below its dive depth
 had no level (tester G, s32). A state that close is now placed by counting on the far box at two
-degrees: found when it lies above the pole by more than their difference, reported 'partial' (neither
-found nor ruled out) when it does not, and counted as dived only when it stays below the pole with the
-well weakened too.
+degrees: found when it lies above the pole by more than their difference plus a count's rounding,
+counted as dived when its depth below the pole (measured by weakening the well until it rises above it)
+exceeds that error, and reported 'partial' (neither found nor ruled out) in between.
 
 References: the square well's matching condition, derived here (common practice: inside G = r j0(p r),
 F = -p r j1(p r) / (W + m + V0); outside G = r k0(q r), F = -q r k1(q r) / (W + m); hbar c = 1 in
