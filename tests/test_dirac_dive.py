@@ -120,3 +120,18 @@ def test_a_sphere_level_that_dived_keeps_the_labels_above():
     assert res.status == "ok", res.message
     assert [lv.label for lv in res.levels] == ["2s1/2", "3s1/2"]
     assert any("dived into the lower continuum" in note for note in res.diagnostics["notes"])
+
+
+def test_a_sphere_state_within_the_resolution_of_its_dive_is_partial():
+    # the dive charge from the reference: W + 1 is linear in Z this close to it (two points 8e-8 apart)
+    mc2 = 1 / C.fine_structure**2
+    z1, z2 = 169.7333643, 169.73336438
+    w1, w2 = (sphere_level_hartree(z, 7.0, -1, near) / mc2 + 2 for z, near in ((z1, "5.5e-9"), (z2, "5e-10")))
+    z_dive = z2 + w2 * (z2 - z1) / (w1 - w2)
+    Z = 169.7333643881
+    assert abs(Z - z_dive) < 1e-9          # W + 1 within about 6e-11 of 0: far inside the counts' resolution
+    res = boundkit.solve("dirac", ["uniform-sphere"], {"Z": Z, "rms_fm": 7.0}, kappa=-1, levels=2, units="nuclear")
+    assert res.status == "partial", res.message
+    assert [lv.label for lv in res.levels] == ["2s1/2", "3s1/2"]
+    assert re.search(r"within .* of diving into the lower continuum", res.message), res.message
+    assert re.search(r"move .* further from the dive", res.message), res.message

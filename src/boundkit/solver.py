@@ -2327,7 +2327,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
     if dive_undecided and status != "partial":
         # the levels found are surely bound, but one more may lie below them
         status = "partial"
-        message = f"{len(found)} level(s) surely bound; {_dive_why(dive, eu)}; {message}"
+        message = f"{message}; {_dive_why(dive, eu)}"
     diagnostics = {
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
         "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound,
