@@ -17,7 +17,7 @@ MeV fm), with x = W + m as the unknown so that a level 1e-16 of m above -2 m c^2
     p^2 = (x - m + V0)^2 - m^2,  q^2 = x (2 m - x)   (times 1 / (hbar c)^2);
 
 at x = 0 it is sinc(p R) = 0, so the dive depth is V0c = m + sqrt(m^2 + (pi hbar c / R)^2). The sphere:
-tester G's mpmath matching (tests/reference_dirac_sphere.py).
+tester G's mpmath matching (tests/reference_dirac_sphere_series.py).
 """
 from __future__ import annotations
 
@@ -30,7 +30,7 @@ from scipy.optimize import brentq
 
 import boundkit
 from boundkit.potentials.expression import ExpressionTerm
-from reference_dirac_sphere import sphere_level_hartree
+from reference_dirac_sphere_series import sphere_level_hartree
 
 R_FM = 100.0
 M_MEV = C.physical_constants["Hartree energy in eV"][0] * 1e-6 / C.fine_structure**2   # boundkit's m_e c^2
