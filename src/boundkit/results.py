@@ -261,7 +261,8 @@ def units_block(energy: str, length: str, **more: str) -> dict[str, str]:
 # diagnostics keys: old name -> (new name, kind); the new name carries no unit, the units block does
 _DIAG_KEYS = {"threshold_hartree": ("threshold", "energy"), "natural_length_bohr": ("natural_length", "length"),
               "breakpoints_bohr": ("breakpoints", "length"), "count_box_bohr": ("count_box", "length"),
-              "threshold_state_hartree": ("threshold_state", "energy")}
+              "threshold_state_hartree": ("threshold_state", "energy"),
+              "dive_state_hartree": ("dive_state", "energy")}
 _PER_LEVEL = {"energies": "energy", "r_min": "length", "r_max": "length"}
 _CROSS = {"energy": "energy", "error_estimate": "energy", "other_energy": "energy",
           "other_error_estimate": "energy", "difference": "energy"}

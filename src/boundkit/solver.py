@@ -898,14 +898,14 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
 
 
 def _solve_elements(eq, pot, levels: int | None, tol: float, degrees=None, known_bound: int | None = None,
-                    inner: float | None = None):
+                    inner: float | None = None, bottom: _Dive | None = None):
     """:func:`_elements_on` with a singular mass matrix at high l refused by name (:func:`_singular_mass_refused`)."""
     with _singular_mass_refused(eq.l):
-        return _elements_on(eq, pot, levels, tol, degrees, known_bound, inner)
+        return _elements_on(eq, pot, levels, tol, degrees, known_bound, inner, bottom)
 
 
 def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bound: int | None = None,
-                 inner: float | None = None):
+                 inner: float | None = None, bottom: _Dive | None = None):
     """Spectral elements: box, layout, ladder, counting (see :mod:`boundkit.ladder`).
 
     ``degrees``: run exactly these rungs (a convergence study), with no early stop.
@@ -920,6 +920,9 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
     1.8e-11 off; a 40-digit matching, tests/reference_kg_sphere.py). Moving the end in for every finite
     origin instead shifted every element edge and made the Dirac Fermi Z = 92 benchmark take 6 rungs
     instead of 3.
+    ``bottom``: a Dirac state below the window's bottom looked at closely (:func:`_dive_band`), for a
+    Coulomb tail (a short-range well's far count does that itself); when it is a level, the window starts
+    below it.
     """
     study = degrees is not None
     from .ladder import FLOOR, ladder_for, layout, potential_floor, solve_rung, spectral_done, with_potential_floor
@@ -943,7 +946,8 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
     _check_pole(eq, sample, r_min, 1e4 * L, [0.0])
     _check_klein_core(eq, sample, r_min, 1e4 * L)
     extra = {"gamma": gamma, "L": L, "r_min": r_min, "threshold": 0.0, "mesh": "spectral-elements"}
-    lo = _pole_free_bottom(eq, sample, r_min, lo)
+    lo = _pole_free_bottom(eq, sample, r_min, lo) if bottom is None else bottom.bottom
+    extra["dive"] = bottom
     guess_lo = lo       # the pencil's guesses are tried down to here (a Klein-Gordon floor lies above it)
     lo, floor_start = _particle_floor_by_bound(eq, sample, r_min, lo)
     if levels is None:
@@ -955,9 +959,10 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
         bound, extra["count_box"], lo, floor_start = far.bound, far.box, far.lo, None
         extra["near_merge"] = far.narrow
         extra["near_threshold"] = far.near
+        extra["dive"] = far.dive
         if far.below:       # dived (Dirac) or merged (Klein-Gordon) states: not bound levels
             extra["no_level_why"] = ("this potential binds no level in this channel: "
-                                     + _below_window(eq, far.below))
+                                     + _below_window(eq, far.below, far.dive))
             if eq.name == "klein-gordon":
                 tally.notes.append(_below_window(eq, far.below))
     extra["bound_count"] = bound
@@ -1197,9 +1202,17 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
     extra["certified"] = bool(last.located.certified)
     found, worst = [], 0.0
     offset = last.located.offset - settled
+    if offset and eq.name == "dirac" and bottom is None and not short_range:
+        # a Coulomb tail's state below the window: dived, or a level between the bottom and the pole
+        # (a short-range well's far count looked already)
+        r_far = max(1e4 * L, 40 * _well_radius(pot, L), 10 * _initial_radius(eq, pot, n_req, L))
+        dive = _dive_band(eq, pot, sample, gamma, L, r_min, r_far, hi, lo)
+        if dive.bound:
+            return _solve_elements(eq, pot, levels, tol, degrees if study else None, known_bound, inner, dive)
+        extra["dive"] = dive
     if offset and eq.name != "klein-gordon":       # (merged Klein-Gordon pairs were noted above)
-        tally.notes.append(f"{offset} state(s) lie below the bottom of the bound-state window (dived into the "
-                           "lower continuum); the levels above keep their node counts")
+        tally.notes.append(_below_window(eq, offset, extra.get("dive"))
+                           + "; the levels above keep their node counts")
     if settled:
         tally.notes.append(f"{settled} lowest level(s) met tol on degree {rungs[hist.at[settled - 1][-1][0]].degree} "
                            "or below and were not solved on the rungs above")
@@ -1254,7 +1267,8 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
         extra["why"] = ("the box could not be made to hold them (levels too close to the threshold?)"
                         if last.located.certified else "the count certificate failed (see diagnostics)")
     if cut_worst and inner is None and not study:
-        again = _solve_elements(eq, pot, levels, tol, known_bound=known_bound, inner=r_min * _CUT_RETRY)
+        again = _solve_elements(eq, pot, levels, tol, known_bound=known_bound, inner=r_min * _CUT_RETRY,
+                                bottom=bottom)
         again[1].reseeded += tally.reseeded
         again[1].bisected += tally.bisected
         again[1].notes.insert(0, f"inner end moved in from {r_min:.4g} to {r_min * _CUT_RETRY:.4g} bohr: cutting "
@@ -1372,11 +1386,16 @@ def _particle_floor_by_bound(eq, sample, r_min: float, lo: float) -> tuple[float
     return lo, -mc2
 
 
-def _below_window(eq, below: int) -> str:
-    """Why ``below`` states under the bottom of the window are not bound levels."""
+def _below_window(eq, below: int, dive: _Dive | None = None) -> str:
+    """Why ``below`` states under the bottom of the window are not bound levels (or, with ``dive`` undecided,
+    why the top one is not reported)."""
     if eq.name == "klein-gordon":
         return (f"{below} particle level(s) merged with their antiparticle partners (complex energies: the "
                 "count N(E) stays above 0 across the window); they are not bound levels")
+    if dive is not None and not dive.decided:
+        return (f"{below} state(s) lie below the bottom of the bound-state window; the top one lies within "
+                f"{abs(dive.x) + dive.error:.2g} hartree of diving into the lower continuum, where the counts cannot "
+                "tell whether it is still bound, and is not reported")
     return (f"{below} state(s) lie below the bottom of the bound-state window (dived into the lower continuum); "
             "they are not bound levels")
 
@@ -1393,9 +1412,20 @@ def _pole_free_bottom(eq, sample, r_min: float, lo: float) -> float:
     tests/test_dirac_pole.py)."""
     if eq.name != "dirac" or not math.isfinite(lo):
         return lo
+    # strictly above: at E = -2mc^2 + max(V - S) the form itself is singular (S = V gives exactly that).
+    # A state between the pole and this bottom is looked at closely when a count puts one below the
+    # bottom (:func:`_dive_band`)
+    return _dive_pole(sample, r_min, lo) + _DIVE_BAND * abs(lo)
+
+
+_DIVE_BAND = 1e-9       # the bottom of a Dirac window above its pole, relative to 2 m c^2 (_pole_free_bottom)
+
+
+def _dive_pole(sample, r_min: float, lo: float) -> float:
+    """-2 m c^2 + max(V - S) (``lo`` the first), the pole of the Dirac form that levels dive into, with the
+    peak of V - S refined (:func:`_peak_above_samples`) and raised by 1e-9 of itself."""
     top = max(_peak_above_samples(sample, np.logspace(math.log10(r_min), 8, 3000)), 0.0)
-    # strictly above: at E = -2mc^2 + max(V - S) the form itself is singular (S = V gives exactly that)
-    return lo + top * (1 + 1e-9) + 1e-9 * abs(lo)
+    return lo + top * (1 + 1e-9)
 
 
 def _peak_above_samples(sample, r: np.ndarray) -> float:
@@ -1860,6 +1890,7 @@ class _FarCount(NamedTuple):
     below: int          # states below it: dived (Dirac), or particle levels merged with their antiparticles
     narrow: bool = False    # Klein-Gordon: a particle level close to its merge (the floor's window is narrow)
     near: _NearThreshold | None = None      # a state of the open box close to the threshold, when there is one
+    dive: _Dive | None = None   # Dirac: the top state below the window's bottom, looked at closely (_dive_band)
 
 
 class _NearThreshold(NamedTuple):
@@ -1880,6 +1911,143 @@ class _NearThreshold(NamedTuple):
 
 
 _THRESHOLD_BAND = 0.1   # the band around the threshold looked at closely, in p / R^2 of the far box (R its radius)
+
+
+class _Dive(NamedTuple):
+    """The top state below the bottom of a Dirac window, looked at closely (:func:`_dive_band`)."""
+
+    bottom: float       # the bottom of the window to count from (below the state when it is surely bound)
+    x: float            # its energy above the pole (below: negative) on the box at degree 36, hartree; 0 when
+                        # not measured (within _DIVE_ULPS ulp of it, or below it by more than _DIVE_WEAKER lifts)
+    error: float        # how far x can be off: the change from degree 18, and the margin of the lowest count
+    dived: bool         # below the pole by more than the error (0 < -x - error, or too far to lift)
+
+    @property
+    def bound(self) -> bool:
+        """Surely above the pole: a level (x > error)."""
+        return self.x > self.error
+
+    @property
+    def decided(self) -> bool:
+        """Known to be a level, or to have dived."""
+        return self.bound or self.dived
+
+
+_DIVE_ULPS = 16         # the lowest count of the band lies this many ulp of the pole above it
+_DIVE_STEPS = 40        # bisections (in log x) that place a state in the band
+_DIVE_WEAKER = 1e-9     # the largest relative weakening of V and S that a dived state is lifted by (_dive_band)
+_DIVE_LIFT_STEPS = 10   # bisections (in log) of the weakening that lifts a state above the pole
+_DIVE_REACH = 1e-6      # how far above the pole (relative to 2 m c^2) a lifted state is placed
+
+
+def _place_above_pole(op, j: int, pole: float, a: float, b: float) -> float:
+    """Where the state of index j (in the grid's whole spectrum) lies above the pole: 0 when the count at
+    a (just above the pole) has it below, b - pole when the count at b does not, else by bisection on the
+    count in log(E - pole) (_DIVE_STEPS counts)."""
+    if op.count_negative(a) > j:
+        return 0.0
+    if op.count_negative(b) <= j:
+        return b - pole
+    x0, x1 = a - pole, b - pole
+    for _ in range(_DIVE_STEPS):
+        mid = math.sqrt(x0 * x1)
+        if op.count_negative(pole + mid) > j:
+            x1 = mid
+        else:
+            x0 = mid
+    return math.sqrt(x0 * x1)
+
+
+def _weakened(sample, factor: float):
+    """The sampler of ``factor`` (V, S)."""
+    def weak(r, scan: bool = False) -> Sample:
+        s = sample(r, scan=scan)
+        return Sample(s.r, s.V * factor, s.S * factor, s.W)
+    return weak
+
+
+def _dive_band(eq, pot, sample, gamma: float, L: float, r_min: float, r_far: float, hi: float, bottom: float,
+               op=None) -> _Dive:
+    """The top state that a count on the far box (``op``, degree 18; built when None) puts below the Dirac
+    window's ``bottom``: a level that dived, or one that lies between the bottom and the pole
+    -2 m c^2 + max(V - S) (:func:`_dive_pole`), still bound.
+
+    Notes
+    -----
+    The bottom sits _DIVE_BAND (1e-9 of 2 m c^2) above the pole, and every state below it was taken as dived:
+    a uniformly charged sphere at Z = 169.73336438 (rms 7 fm) lost its 1s1/2, bound by W + 1 = 5.0e-10, with
+    status 'ok' (tests/test_dirac_dive.py). Counts down to the pole keep their meaning for the discrete
+    problem (E + 2 m c^2 - V + S > 0 on the box), but not all their digits: a square well's level next to its
+    dive was placed up to 2e-14 MeV off at degree 18, 3e-13 at 36 and 3e-12 at 60. So the state is placed
+    by counting (:func:`_place_above_pole`) on the far box at degree 18 and 36, down to _DIVE_ULPS ulp above
+    the pole; x is where the second puts it, and its error the change between the two, plus the rounding of
+    a count there (NOISE_ULPS u sum |K_ii| y_i^2 / y^T M y, :meth:`SymmetricOperator.energy_noise`; 1.5e-11
+    MeV for that well at degree 36, 50 times the change) and that margin. Above the pole by more than the
+    error it is a level, and the bottom moves below it.
+
+    Below the margin on both boxes, the state is lifted by weakening V and S: by _DIVE_WEAKER (1e-9) it
+    stays below the pole when it dived that far (a square well's state rises 3.5e-9 MeV); else the
+    weakening eta* that lifts it above the pole is found on each box (by bisection in log eta), and its
+    depth below the pole is eta* times its rise per unit eta there (on the finer box), with the change of
+    that between the boxes plus the rounding as its error. Dived by more than the error, it is not a level;
+    within it, it lies within the resolution of diving, and is neither reported nor ruled out (status
+    'partial'). Only when a count puts a state below the window: a dived state costs one or two far boxes
+    more (13-70 ms on a square well and a sphere), one within 1e-9 of its dive a few hundred counts and
+    about twenty-five boxes (0.25-0.6 s).
+    """
+    from .ladder import far_operator
+    from .locator import _inverse_iteration
+
+    def box(fn, degree):
+        return far_operator(eq, pot, fn, gamma, L * (eq.l + 1) ** 2, r_min, r_far, hi, degree=degree)
+
+    def rounding(ops, E: float) -> float:
+        """The energy resolution of a count at E for the state there, on the coarser of the boxes."""
+        return max(NOISE_ULPS * 2.0**-53 * o.energy_noise(_inverse_iteration(o, E)) for o in ops)
+
+    lo = eq.energy_window(pot)[0]
+    pole = _dive_pole(sample, r_min, lo)
+    tiny = _DIVE_ULPS * math.ulp(pole)
+    op = op if op is not None else box(sample, 18)
+    j = op.count_negative(bottom) - 1       # the index of the top state below the bottom
+    if j < 0:       # (a Coulomb tail's rung counted one, this box none: as before, taken as dived)
+        return _Dive(bottom, 0.0, tiny, True)
+    boxes = (op, box(sample, 36))
+    x18, x36 = (_place_above_pole(o, j, pole, pole + tiny, bottom) for o in boxes)
+    if x18 or x36:
+        error = abs(x18 - x36) + rounding(boxes, pole + max(x36, tiny)) + tiny
+        if x36 > error:         # a level: the bottom goes below it, by more than the error
+            return _Dive(pole + max(tiny, 0.5 * (x36 - error)), x36, error, False)
+        return _Dive(bottom, x36, error, False)
+
+    def lifted(eta: float, degree: int, place: bool = False) -> float:
+        """With V and S weakened by eta: where the state lies above the pole (``place``), or whether it
+        does (1.0 or 0.0)."""
+        weak = _weakened(sample, 1 - eta)
+        pole_w = _dive_pole(weak, r_min, lo)
+        op_w = box(weak, degree)
+        if place:
+            return _place_above_pole(op_w, j, pole_w, pole_w + tiny, pole_w + _DIVE_REACH * abs(lo))
+        return float(op_w.count_negative(pole_w + tiny) <= j)
+
+    if not lifted(_DIVE_WEAKER, 18):
+        return _Dive(bottom, 0.0, tiny, True)
+    if not lifted(4 * _DIVE_WEAKER, 36):    # the boxes disagree by as much as that weakening lifts it
+        return _Dive(bottom, 0.0, lifted(4 * _DIVE_WEAKER, 18, place=True) + tiny, False)
+    brackets = []
+    for n, top in ((18, _DIVE_WEAKER), (36, 4 * _DIVE_WEAKER)):
+        e0, e1 = _DIVE_WEAKER * 1e-7, top
+        for _ in range(_DIVE_LIFT_STEPS):
+            mid = math.sqrt(e0 * e1)
+            e0, e1 = (e0, mid) if lifted(mid, n) else (mid, e1)
+        brackets.append((e0, e1))
+    eta18, eta36 = (math.sqrt(e0 * e1) for e0, e1 in brackets)
+    # lifted by twice eta*, the state lies about as far above the pole as it lay below it
+    depth = lifted(2 * eta36, 36, place=True)
+    per_eta = depth / eta36
+    error = (per_eta * (abs(eta18 - eta36) + brackets[1][1] - brackets[1][0]) + rounding(boxes, pole + tiny)
+             + tiny)
+    return _Dive(bottom, -depth, error, depth > error)
 
 
 def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: int, hi: float,
@@ -1930,6 +2098,13 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
         lo, below = floor.energy, floor.count
     else:
         below = count_below(op, lo) if math.isfinite(lo) else 0
+    dive = None
+    if below and eq.name == "dirac":
+        # a state below the window: dived, or still bound between the bottom and the pole
+        dive = _dive_band(eq, pot, sample, gamma, L, r_min, r_far, hi, lo, op)
+        if dive.bottom != lo:
+            lo = dive.bottom
+            below = count_below(op, lo)
     c = op.open_end_term(hi)
     R = float(op.sample.r[-1])
     band = _THRESHOLD_BAND * float(eq.p(hi, op.end_sample())[0]) / R**2
@@ -1944,7 +2119,7 @@ def _far_bound(eq, pot, sample, gamma: float, L: float, r_min: float, levels: in
     # for the exp-cosine well Z = 1, D = 0.01 bohr, and the negative bound count crashed the locator (a fuzz
     # example). The guard stays for a peak narrower than the sampling.
     below = min(below, n_hi)
-    return _FarCount(n_hi - below, float(r_far), lo, below, narrow, near)
+    return _FarCount(n_hi - below, float(r_far), lo, below, narrow, near, dive)
 
 
 def _near_threshold(eq, pot, sample, gamma: float, L: float, r_min: float, r_far: float, hi: float, op, c: float,
@@ -2083,6 +2258,15 @@ def _undecided_why(near: _NearThreshold, extra: dict, eu: str, lu: str) -> str:
             "by about that much or less, or no level (a zero-energy or virtual state)")
 
 
+def _dive_why(dive: _Dive, eu: str) -> str:
+    """Why a Dirac state at the bottom of the window is neither reported nor ruled out (:func:`_dive_band`)."""
+    return (f"one more state lies within {hartree_to(abs(dive.x) + dive.error, eu):.2g} {eu} of diving into the lower "
+            "continuum (-2 m c^2 + max(V - S), the bottom of the bound-state window): closer than the counts there "
+            "resolve (their rounding and the change between boxes of two degrees), so double precision cannot "
+            "decide whether it is a level bound by that little or a state that has dived; move the potential's "
+            "parameters further from the dive (the critical-value study with kind 'dive' locates it)")
+
+
 def _estimate_why(tally: _Tally) -> str | None:
     """Why an estimate lies above tol when a floor of its own put it there (a table's interpolation, the
     rounding of a shallow level's potential energy, a Klein-Gordon level near its merge), else None."""
@@ -2099,11 +2283,13 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
     bound = extra.get("bound_count")
     wanted = levels if levels is not None else bound
     near = extra.get("near_threshold")
+    dive = extra.get("dive")
+    dive_undecided = dive is not None and not dive.decided
     eu, lu = system_units((settings or {}).get("units", "atomic"))
     if bound is not None and (levels is None or levels > bound) and len(found) == bound:
         status = "ok" if worst <= tol else "tolerance-not-met"
-        undecided = near is not None and not near.decided
-        if undecided:       # a state at the threshold neither reported nor ruled out
+        undecided = (near is not None and not near.decided) or dive_undecided
+        if undecided:       # a state at the threshold (or at the bottom) neither reported nor ruled out
             status = "partial"
             what = f"found the {bound} level(s) that are surely bound" if bound else "no level is surely bound"
         else:
@@ -2112,8 +2298,10 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
                     if bound == 0 else f"all {bound} bound level(s) of this channel")
         if levels is not None and levels > bound:
             what += f" ({levels} requested)"
-        if undecided:
+        if near is not None and not near.decided:
             what += "; " + _undecided_why(near, extra, eu, lu)
+        if dive_undecided:
+            what += "; " + _dive_why(dive, eu)
         if worst <= tol:
             message = what + (f"; estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
                               if bound or not undecided else "")
@@ -2136,11 +2324,16 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
     else:
         status = "ok"
         message = f"{len(found)} level(s), estimated relative error <= {max(worst, 0):.2g} (tol {tol:g})"
+    if dive_undecided and status != "partial":
+        # the levels found are surely bound, but one more may lie below them
+        status = "partial"
+        message = f"{message}; {_dive_why(dive, eu)}"
     diagnostics = {
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
         "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound,
         "threshold_hartree": extra.get("threshold", 0.0), "count_box_bohr": extra.get("count_box"),
         "threshold_state_hartree": None if near is None else [near.mu, near.error],
+        "dive_state_hartree": None if dive is None else [dive.x, dive.error],
         "certified_by_count": extra.get("certified"),
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "reseeded_guesses": tally.reseeded, "bisected_levels": tally.bisected,
