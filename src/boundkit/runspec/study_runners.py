@@ -32,7 +32,7 @@ class StudyRunners:
     def _converge(self, sec: ConvergeSection, suffix: str) -> bool:
         """Run one [converge] section; returns whether it computed anything (rows, or a reference solve
         that found all the levels there are)."""
-        from ..accuracy import converge
+        from ..accuracy import SPECTRAL_FAMILIES, converge
         from ..plots import convergence_figure
 
         spec = self.spec
@@ -58,8 +58,8 @@ class StudyRunners:
         for (m, lab), v in res.orders.items():
             lab = convert_label(lab, spec.labels)
             md.append(f"| {m} | {lab} | {_fmt(v, 3)} |")
-            # a nominal order is the finite differences' alone: the laguerre-mesh family is spectral too
-            if m == "finite-difference" and math.isfinite(v):
+            # a nominal order is the finite differences' alone: the spectral families have none
+            if m not in SPECTRAL_FAMILIES and math.isfinite(v):
                 self.headline.append(f"observed order of {m} ({sec.model}, {sec.equation} {lab}): {v:.2f} "
                                      f"(nominal {res.settings['fd_order']})")
         md.append("")
