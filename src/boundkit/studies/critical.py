@@ -1228,8 +1228,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                 # done, unless the top lies just outside the bracket (within its width): the points turn but
                 # are still too far from the top to place it; a point between them brings the parabola closer
                 width = abs(p_out - p_in)
-                if zone or p_v is None or not (-width <= ahead(p_v, p_in) and ahead(p_v, p_out) <= width) or \
-                        (ahead(p_v, p_in) >= 0 and ahead(p_out, p_v) >= 0):
+                beyond = None if p_v is None else max(-ahead(p_v, p_in), ahead(p_v, p_out))   # <= 0: inside
+                if zone or beyond is None or not 0 < beyond <= width:
                     status = "ok"
                     break
             if zone and p_out is not None and \
