@@ -140,27 +140,12 @@ def _pair_density(sa, sb, r, kind: str) -> np.ndarray:
     return dens
 
 
-def _nodal_density(s, kind: str) -> np.ndarray:
-    """Same as :func:`_pair_density` for sa = sb = s, at s's own nodes (no interpolation)."""
-    if kind == "QP-PQ":
-        return 0 * s.r
-    if kind == "plain":
-        return s.P**2
-    if kind == "PQ":
-        return s.P * s.Q
-    if kind == "P2-Q2":
-        return s.P**2 - s.Q**2
-    dens = s.P**2 if s.density_weight is None else s.density_weight * s.P**2
-    if s.Q is not None:
-        dens = dens + s.Q**2
-    return dens
-
-
 def _nodal_integrand(s, f, kind: str) -> np.ndarray:
-    """Same as :func:`_pair_integrand` for sa = sb = s, at s's own nodes (no interpolation)."""
+    """Same as :func:`_pair_integrand` for sa = sb = s, at s's own nodes (no interpolation; the antisymmetric
+    'QP-PQ' is 0 there whatever f is)."""
     if kind == "QP-PQ":
         return 0 * s.r
-    return f(s.r) * _nodal_density(s, kind)
+    return f(s.r) * _pair_density(s, s, s.r, kind)
 
 
 _PANEL_T, _PANEL_W = np.polynomial.legendre.leggauss(24)
@@ -337,7 +322,7 @@ def _integrals(sa, sb, f, kind: str = "density", breaks=()) -> tuple[float, floa
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if sb is None or sb is sa:
             sb = sa
-            rho = _nodal_density(sa, kind)
+            rho = _pair_density(sa, sa, sa.r, kind)
         else:
             rho = _pair_density(sa, sb, grid.r, kind)
         fr = f(grid.r)
@@ -459,7 +444,8 @@ def _unresolved(grid, sa, sb, f, kind: str, fr, rho, g, scale: float) -> tuple[f
     error = float(np.sum(bound[bound <= _SCREEN_FLOOR * scale]))
     if not flagged.size:
         return 0.0, error
-    nodal = np.array([float(np.sum(_element_rule(tn[starts[e]:ends[e] + 1]) * (g * r)[starts[e]:ends[e] + 1]))
+    gr = g * r
+    nodal = np.array([float(np.sum(_element_rule(tn[starts[e]:ends[e] + 1]) * gr[starts[e]:ends[e] + 1]))
                       for e in flagged])
     # adaptive refinement: every panel (at first a whole flagged element, valued by its nodal rule) is
     # split in two halves of 16 Gauss points each; it is settled when the halves agree with it within
@@ -540,7 +526,7 @@ def _state_noise(sa, sb, f, kind: str) -> float:
     r = grid.r
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         if sa is sb:
-            g = r * _nodal_density(sa, kind)
+            g = r * _pair_density(sa, sa, r, kind)
         else:
             g = r * _pair_density(sa, sb, r, kind)
         dg = np.gradient(g, np.log(r))
