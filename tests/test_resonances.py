@@ -11,6 +11,7 @@ from __future__ import annotations
 import importlib
 import json
 import math
+import re
 
 import mpmath
 import numpy as np
@@ -21,7 +22,7 @@ from scipy.integrate import quad, solve_ivp
 import boundkit
 from boundkit.cli import main
 from boundkit.potentials.optical import ComplexCallableTerm, ImaginaryPart, OpticalTRho
-from boundkit.units import C_AU, HARTREE_EV
+from boundkit.units import C_AU, HARTREE_EV, MEV_IN_HARTREE
 
 
 def barrier(r):
@@ -571,7 +572,7 @@ def test_cli_tabulated_barrier(tmp_path, barrier_result):
     (["--window", "3"], "boundkit: error: --window '3': write two numbers LO,HI"),
     (["--window", "3,4", "--angles", "x"], "boundkit: error: --angles 'x': write numbers"),
     (["--window", "0.5,6", "--angles", "0.3,0.3"], "boundkit: error: angles: the stability test compares"),
-    (["--window", "4,3"], "boundkit: error: window: need lower < upper"),
+    (["--window", "4,3"], "boundkit: error: --window: need lower < upper"),
     (["--window", "3,4", "--energy-unit", "furlong"], "boundkit: error: energy_unit: unknown unit"),
 ])
 def test_cli_errors(args, match):
@@ -656,3 +657,67 @@ def test_dirac_positive_kappa_point_coulomb_has_no_spurious_level(Z, kappa, wind
     assert all(abs(r.energy - dirac_coulomb(Z, abs(kappa), -kappa)) > 1e-6 * abs(window[0])
                for r in res.resonances)
     assert res.diagnostics["spurious"] == 1
+
+
+def test_cli_dirac_positive_kappa_first_row_is_the_2p1_2():
+    # the tester's command: the first row was '2p1/2 bound -0.50000665659298' (the 1s1/2 energy);
+    # exact 2p1/2 of hydrogen -0.125002080189 hartree (Sommerfeld-Dirac formula, Bethe and Salpeter 1957)
+    from exact import dirac_coulomb
+
+    out = CliRunner().invoke(main, ["resonances", "-e", "dirac", "--kappa", "1", "--param", "Z=1",
+                                    "--window=-0.7,-0.02"])
+    assert out.exit_code == 0, out.output
+    rows = [line.split() for line in out.output.splitlines() if line.split()[:2][1:] == ["bound"]]
+    exact = [(f"{n}p1/2", dirac_coulomb(1, n, 1)) for n in range(2, 12) if -0.7 <= dirac_coulomb(1, n, 1) <= -0.02]
+    assert [r[0] for r in rows] == [label for label, _ in exact] == ["2p1/2", "3p1/2", "4p1/2", "5p1/2"]
+    assert [float(r[2]) for r in rows] == pytest.approx([e for _, e in exact], abs=1e-10)
+
+
+# --units nuclear: the none-stable message quoted the MeV window in hartree, and the JSON named lengths
+# in bohr where `boundkit phases` gives fm
+def test_cli_resonances_nuclear_units_message_and_json_lengths():
+    import scipy.constants as sc
+
+    args = ["resonances", "--units", "nuclear", "--particle", "neutron", "--expr", "-50*exp(-r/2)",
+            "--window", "1,6"]
+    runner = CliRunner()
+    out = runner.invoke(main, args)
+    assert out.exit_code == 0, out.output
+    assert "no eigenvalue with Re E in [1, 6] MeV is stable" in out.output
+    assert "hartree" not in out.output.splitlines()[-1]
+    data = json.loads(runner.invoke(main, [*args, "--json"]).output)
+    assert data["units"]["length"] == "fm"
+    # fm per bohr as boundkit defines it, a0 = alpha hbar c / E_h (scipy.constants; CODATA's tabulated a0 is
+    # 6e-12 away)
+    per = sc.fine_structure * sc.hbar * sc.c / sc.physical_constants["Hartree energy"][0] * 1e15
+    assert data["contour"]["r0"] == pytest.approx(data["settings"]["r0_bohr"] * per, rel=1e-12)
+    assert data["contour"]["r_max"] == pytest.approx(data["settings"]["r_max_bohr"] * per, rel=1e-12)
+    res = boundkit.resonances("schrodinger", lambda r: -50 * np.exp(-r / 2), units="nuclear", particle="neutron",
+                              window=(1 * MEV_IN_HARTREE, 6 * MEV_IN_HARTREE))
+    assert res.to_dict()["units"]["length"] == "fm" and res.to_dict(length_unit="bohr")["units"]["length"] == "bohr"
+
+
+def test_window_too_big_names_the_options_on_the_command_line():
+    # the command has --r0 and --r-max and no h: it quoted the API keywords 'h, r0 and r_max'
+    args = ["resonances", "--units", "nuclear", "--particle", "neutron", "-p", "woods-saxon", "--param", "depth=50",
+            "--param", "radius=4", "--param", "diffuseness=0.6", "--l", "4", "--window", "0.05,15"]
+    out = CliRunner().invoke(main, args)
+    assert out.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: --window: the mesh for this window needs at least \S+ unknowns, more than "
+                        r"the limit of 2400 of a dense eigenproblem; narrow the window, raise its lower end, or give "
+                        r"--r0 and --r-max\n", out.output), out.output
+    with pytest.raises(ValueError, match=r"^window: .* narrow the window, raise its lower end, or give h, r0 and "
+                                         r"r_max$"):
+        boundkit.resonances("schrodinger", "woods-saxon", {"depth": 50, "radius": 4, "diffuseness": 0.6},
+                            units="nuclear", particle="neutron", l=4,
+                            window=(0.05 * MEV_IN_HARTREE, 15 * MEV_IN_HARTREE))
+
+
+def test_uniform_scaling_without_analytic_names_the_option_on_the_command_line():
+    with pytest.raises(ValueError, match=r"^r0: r0 = 0 \(uniform scaling\) needs analytic=, the potential as a function "
+                                         r"of complex r$"):
+        boundkit.resonances("schrodinger", barrier, window=(3, 4), r0=0.0)
+    out = CliRunner().invoke(main, ["resonances", "--expr", "7.5*r**2*exp(-r)", "--window", "3,4", "--r0", "0"])
+    assert out.exit_code == 2
+    assert out.output == ("boundkit: error: --r0: 0 (uniform scaling) needs --analytic, the potential continued to "
+                          "complex r\n")

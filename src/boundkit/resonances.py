@@ -85,7 +85,7 @@ import numpy as np
 import scipy.linalg as sla
 
 from ._threads import inside, one_blas_thread, usable_cores
-from ._checks import check_finite, check_int, check_positive
+from ._checks import OptionError, check_finite, check_int, check_positive
 from ._rounding import beside
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
 from .units import C_AU, bohr_to, constants_record, hartree_to, system_units, to_atomic
@@ -170,10 +170,18 @@ class ResonanceResult:
     units: dict = field(default_factory=dict)
     diagnostics: dict = field(default_factory=dict)
 
-    def to_dict(self, energy_unit: str = "hartree") -> dict[str, Any]:
-        """JSON-ready record; energies and widths in ``energy_unit``."""
+    def to_dict(self, energy_unit: str = "hartree", length_unit: str | None = None) -> dict[str, Any]:
+        """JSON-ready record; energies and widths in ``energy_unit``, the contour (``r0``, ``r_max`` and
+        the element size ``h``) in ``length_unit`` (default: that of the call's unit system, bohr or fm
+        with units='nuclear'); the ``units`` block names both. The settings keep their lengths in bohr,
+        as their names say."""
+        lu = length_unit or system_units(self.settings.get("units", "atomic"))[1]
+        s = self.settings
+        contour = {name: float(bohr_to(s[key], lu)) for name, key in
+                   (("r0", "r0_bohr"), ("r_max", "r_max_bohr"), ("h", "element_size_bohr")) if key in s}
         return {"equation": self.equation, "potential": self.potential,
-                "units": {"energy": energy_unit, "width": energy_unit, "length": "bohr", "angle": "rad"},
+                "units": {"energy": energy_unit, "width": energy_unit, "length": lu, "angle": "rad"},
+                "contour": contour,
                 "constants": self.constants, "settings": self.settings, "status": self.status,
                 "success": self.success, "message": self.message, "diagnostics": self.diagnostics,
                 "resonances": [r.to_dict(energy_unit) for r in self.resonances]}
@@ -454,17 +462,19 @@ def _check_size(plan: dict, per_element: int, r_max_given: bool, length_unit: st
         return
     count = f"at least {least:.3g}" if math.isfinite(least) else "more than 1e308"
     if r_max_given and outer * per_element > _MAX_SIZE:
-        raise ValueError(f"r_max: the scaled mesh out to r_max = {bohr_to(r_max, length_unit):.4g} {length_unit} "
-                         f"needs {count} unknowns, more "
-                         f"than the limit of {_MAX_SIZE} of a dense eigenproblem; give a smaller r_max (or none: "
-                         "it is then set by the window)")
+        head = (f"r_max: the scaled mesh out to r_max = {bohr_to(r_max, length_unit):.4g} {length_unit} needs "
+                f"{count} unknowns, more than the limit of {_MAX_SIZE} of a dense eigenproblem; give a smaller ")
+        raise OptionError(head + "r_max (or none: it is then set by the window)",
+                          head + "--r-max (or none: it is then set by the window)")
     raise _window_too_big(count)
 
 
-def _window_too_big(count) -> ValueError:
-    return ValueError(f"window: the mesh for this window needs {count} unknowns, more than the limit of "
-                      f"{_MAX_SIZE} of a dense eigenproblem; narrow the window, raise its lower end, or give h, "
-                      "r0 and r_max")
+def _window_too_big(count) -> OptionError:
+    """The refusal of a window whose mesh is too large; the command line names its options (it has --r0 and
+    --r-max, and no element size)."""
+    head = (f"window: the mesh for this window needs {count} unknowns, more than the limit of {_MAX_SIZE} of a "
+            "dense eigenproblem; narrow the window, raise its lower end, or give ")
+    return OptionError(head + "h, r0 and r_max", head + "--r0 and --r-max")
 
 
 def _edges(plan: dict, pot) -> np.ndarray:
@@ -583,7 +593,8 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         raise ValueError(f"r0: must be >= 0 {lu}, got {r0:g}")
     r0, r_max, h = (None if v is None else to_atomic(v, "bohr", units) for v in (r0, r_max, h))
     if r0 == 0 and analytic is None:
-        raise ValueError("r0: r0 = 0 (uniform scaling) needs analytic=, the potential as a function of complex r")
+        raise OptionError("r0: r0 = 0 (uniform scaling) needs analytic=, the potential as a function of complex r",
+                          "--r0: 0 (uniform scaling) needs --analytic, the potential continued to complex r")
     if analytic is not None and analytic is not True and not callable(analytic):
         raise ValueError("analytic: expected a callable V(z) of complex z, or True (continue the potential itself)")
 
@@ -672,7 +683,9 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                                  + (f" ({len(broad)} broad: orders {order}, {order + 4} and R0 moved out by 20 %)"
                                     if broad else ""))
     else:
-        status, message = "none-stable", (f"no eigenvalue with Re E in [{emin:g}, {emax:g}] hartree is stable to "
+        eu = system_units(units)[0]           # the window as the call's unit system reads energies
+        status, message = "none-stable", (f"no eigenvalue with Re E in [{hartree_to(emin, eu):g}, "
+                                          f"{hartree_to(emax, eu):g}] {eu} is stable to "
                                           f"{tol:g} over the angles and orders ({in_window} moved: rotated "
                                           "continuum); try larger angles or a wider window")
     if analytic is None and plan["r0"] * _wavenumber(eq, max(emax, 0.0)) > 20:
