@@ -721,3 +721,31 @@ def test_uniform_scaling_without_analytic_names_the_option_on_the_command_line()
     assert out.exit_code == 2
     assert out.output == ("boundkit: error: --r0: 0 (uniform scaling) needs --analytic, the potential continued to "
                           "complex r\n")
+
+
+def test_klein_gordon_point_charge_labels_count_a_level_the_elements_resolve_coarsely():
+    # Klein-Gordon Coulomb (Greiner, Relativistic Quantum Mechanics: Wave Equations, ch. 1; tests/exact.py):
+    # at Z = 20, l = 0 the 1s is -205.577 and the 2s -50.8991 hartree. u ~ r^0.978 at the point charge: the 1s,
+    # resolved to 1e-4 only, moved with theta beyond tol and was not counted, so the 2s came out as '1s', status ok
+    from exact import klein_gordon_coulomb
+
+    exact = {n: klein_gordon_coulomb(20, n, 0) for n in range(1, 8)}
+    res = boundkit.resonances("klein-gordon", "coulomb", {"Z": 20}, l=0, window=(1.1 * exact[1], 0.9 * exact[3]))
+    assert res.resonances
+    for r in res.resonances:
+        n = min(exact, key=lambda k: abs(exact[k] - r.energy))
+        assert r.label == f"{n}s"
+        assert abs(r.energy - exact[n]) <= 2 * r.energy_error
+
+
+def test_none_stable_at_a_point_charge_says_what_to_do():
+    # Klein-Gordon Z = 60, l = 0: u ~ r^s at the point charge, s = 1/2 + sqrt(1/4 - (Z alpha)^2) = 0.741 (the
+    # Frobenius exponent, Greiner, Relativistic Quantum Mechanics: Wave Equations, ch. 1); the 2s (-566.81) and
+    # 3s (-235.02) in the window move between runs by more than tol. The message advised larger angles.
+    res = boundkit.resonances("klein-gordon", "coulomb", {"Z": 60}, l=0, window=(-2300, -200))
+    assert res.status == "none-stable"
+    assert re.search(r"; the solution goes like r\^0\.741 at the point charge, which the elements resolve slowly "
+                     r"\(bound levels move between runs by more than tol\): for bound levels use boundkit\.solve "
+                     r"\(boundkit solve\), or a finite nucleus \(e\.g\. uniform-sphere\)", res.message), res.message
+    far = boundkit.resonances("klein-gordon", "coulomb", {"Z": 60}, l=2, window=(-300, -100))
+    assert "point charge" not in far.message
