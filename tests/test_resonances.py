@@ -749,3 +749,19 @@ def test_none_stable_at_a_point_charge_says_what_to_do():
                      r"\(boundkit solve\), or a finite nucleus \(e\.g\. uniform-sphere\)", res.message), res.message
     far = boundkit.resonances("klein-gordon", "coulomb", {"Z": 60}, l=2, window=(-300, -100))
     assert "point charge" not in far.message
+
+
+@pytest.mark.parametrize("order", [12, 14])
+def test_dirac_hydrogen_estimates_cover_the_rounding_of_the_rest_energy(order):
+    # the eigenvalues of the Dirac matrix (binding energies ~0.5 beside its -2 m c^2 = -37558 hartree diagonal)
+    # scatter by a few ulp of 2 m c^2 (7.3e-12) between runs; at order 12 the 1s1/2 was 1.4e-11 off with an
+    # estimate of 9.4e-12. Sommerfeld-Dirac formula in 50 digits (Bethe and Salpeter 1957; tests/exact.py)
+    from exact import dirac_coulomb_mp
+
+    exact = [float(dirac_coulomb_mp(1, n, -1)) for n in (1, 2, 3)]
+    res = boundkit.resonances("dirac", "coulomb", {"Z": 1}, kappa=-1, window=(1.05 * exact[0], 0.98 * exact[2]),
+                              order=order)
+    assert [r.label for r in res.resonances] == ["1s1/2", "2s1/2", "3s1/2"]
+    for r, e in zip(res.resonances, exact):
+        assert abs(r.energy - e) <= r.energy_error
+        assert r.energy_error <= 1e-10
