@@ -1299,3 +1299,29 @@ def test_cli_levinson_refuses_an_inverse_square_tail_in_the_units_of_the_call():
     assert out.exit_code == 2, out.output
     assert re.fullmatch(r"boundkit: error: potential: Levinson's theorem needs a short-range potential; this one has "
                         r"an inverse-square tail, V ~ 10/r\^2 \(V in MeV, r in fm\)\n", out.output), out.output
+
+
+def test_levinson_table_shows_no_error_where_none_was_computed():
+    # the Levinson grid is computed without error estimates: the table's error column read 0
+    run = CliRunner().invoke(main, ["phases", "-p", "hulthen", "--param", "Z=1", "--param", "delta=1", "--levinson"])
+    assert run.exit_code == 0, run.output
+    lines = run.output.splitlines()
+    head = next(i for i, line in enumerate(lines) if line.split()[:2] == ["energy", "k"])
+    rows = [line.split() for line in lines[head + 1:] if line.strip()][:3]
+    assert rows and all(r[4] == "none" for r in rows), run.output
+    res = phase_shifts([0.5], "schrodinger", "hulthen", {"Z": 1, "delta": 1}, estimate_error=False)
+    assert res.to_dict()["points"][0]["error_estimate"] is None
+    assert phase_shifts([0.5], "schrodinger", "hulthen", {"Z": 1, "delta": 1}).to_dict()["points"][0][
+        "error_estimate"] > 0
+
+
+def test_complex_potential_in_phases_names_phases_and_the_fix():
+    # it said "the bound-state solver takes real potentials only" (the wrong tool)
+    one_line_error(CliRunner().invoke(main, ["phases", "--expr", "-exp(-r)*(1+0.1j)", "--energies", "0.1"]),
+                   r"potential: expression '-exp\(-r\)\*\(1\+0\.1j\)' returned complex values .*; phase shifts take "
+                   r"real potentials only; use boundkit resonances for complex ones \(resonances, absorption\), "
+                   r"or give a real potential$")
+    with pytest.raises(ValueError, match=r"returned complex values .*; phase shifts take real potentials only; use "
+                                         r"boundkit.resonances for complex ones \(resonances, absorption\), or give "
+                                         r"a real potential$"):
+        phase_shifts([0.1], "schrodinger", lambda r: -np.exp(-r) * (1 + 0.1j))

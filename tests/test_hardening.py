@@ -675,9 +675,9 @@ def test_resonances_refuse_a_mesh_too_large_before_laying_it():
                                          r"limit of 2400 of a dense eigenproblem; narrow the window"):
         resonances("schrodinger", well, window=(1e-300, 1e300))
     one_line_error(cli("resonances", "--window", "3,4", "--expr", "7.5*r**2*exp(-r)", "--r-max", "1e12"),
-                   r"r_max: the scaled mesh out to r_max = 1e\+12 bohr")
+                   r"--r-max: the scaled mesh out to r_max = 1e\+12 bohr .*give a smaller --r-max \(or none")
     one_line_error(cli("resonances", "--window", "1e-300,1e300", "--expr", "7.5*r**2*exp(-r)"),
-                   r"window: the mesh for this window needs at least")
+                   r"--window: the mesh for this window needs at least .* or give --r0 and --r-max$")
 
 
 def test_a_mass_beyond_1e30_electron_masses_is_refused():

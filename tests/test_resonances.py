@@ -11,6 +11,7 @@ from __future__ import annotations
 import importlib
 import json
 import math
+import re
 
 import mpmath
 import numpy as np
@@ -21,7 +22,7 @@ from scipy.integrate import quad, solve_ivp
 import boundkit
 from boundkit.cli import main
 from boundkit.potentials.optical import ComplexCallableTerm, ImaginaryPart, OpticalTRho
-from boundkit.units import C_AU, HARTREE_EV
+from boundkit.units import C_AU, HARTREE_EV, MEV_IN_HARTREE
 
 
 def barrier(r):
@@ -571,7 +572,7 @@ def test_cli_tabulated_barrier(tmp_path, barrier_result):
     (["--window", "3"], "boundkit: error: --window '3': write two numbers LO,HI"),
     (["--window", "3,4", "--angles", "x"], "boundkit: error: --angles 'x': write numbers"),
     (["--window", "0.5,6", "--angles", "0.3,0.3"], "boundkit: error: angles: the stability test compares"),
-    (["--window", "4,3"], "boundkit: error: window: need lower < upper"),
+    (["--window", "4,3"], "boundkit: error: --window: need lower < upper"),
     (["--window", "3,4", "--energy-unit", "furlong"], "boundkit: error: energy_unit: unknown unit"),
 ])
 def test_cli_errors(args, match):
@@ -631,3 +632,136 @@ def test_contour_lengths_follow_the_call_units():
     with pytest.raises(ValueError, match=r"^r0: must be >= 0 fm, got -1$"):
         boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
                             window=(0.1 * MEV_IN_HARTREE, 10 * MEV_IN_HARTREE), r0=-1.0)
+
+
+# --- Dirac kappa > 0 at a point charge: no spurious level at the kappa < 0 energy ------------------
+@pytest.mark.parametrize("Z, kappa, window", [(1, 1, (-0.7, -0.1)), (10, 2, (-15.0, -2.5)),
+                                              (92, 1, (-6000.0, -250.0))])
+def test_dirac_positive_kappa_point_coulomb_has_no_spurious_level(Z, kappa, window):
+    # Sommerfeld-Dirac formula (Bethe and Salpeter, Quantum Mechanics of One- and Two-Electron Atoms,
+    # 1957, eq. 14.29; tests/exact.py): for kappa > 0 the lowest level is n = kappa + 1 (2p1/2, 3d3/2),
+    # and the kappa < 0 level n = |kappa| (1s1/2 at -0.500006656597 for Z = 1, 2p3/2 for kappa = -2)
+    # has no partner here. Equal-order elements for P and Q held one at that energy (status ok).
+    from exact import dirac_coulomb
+
+    res = boundkit.resonances("dirac", "coulomb", {"Z": Z}, kappa=kappa, window=window)
+    exact = [(n, dirac_coulomb(Z, n, kappa)) for n in range(kappa + 1, kappa + 12)]
+    expected = [(n, e) for n, e in exact if window[0] <= e <= window[1]]
+    assert res.status == "ok"
+    assert [r.label for r in res.resonances] == [f"{n}{'spd'[kappa]}{2 * kappa - 1}/2" for n, _ in expected]
+    for r, (n, e) in zip(res.resonances, expected):
+        assert r.kind == "bound"
+        # a point charge's r^gamma (gamma not an integer) converges algebraically: at Z = 92 the error is
+        # 4.6e-5 of 1257 hartree, inside its estimate
+        assert abs(r.energy - e) <= min(1e-7 * abs(e), 2 * r.energy_error + 1e-9 * abs(e))
+    assert all(abs(r.energy - dirac_coulomb(Z, abs(kappa), -kappa)) > 1e-6 * abs(window[0])
+               for r in res.resonances)
+    assert res.diagnostics["spurious"] == 1
+
+
+def test_cli_dirac_positive_kappa_first_row_is_the_2p1_2():
+    # the tester's command: the first row was '2p1/2 bound -0.50000665659298' (the 1s1/2 energy);
+    # exact 2p1/2 of hydrogen -0.125002080189 hartree (Sommerfeld-Dirac formula, Bethe and Salpeter 1957)
+    from exact import dirac_coulomb
+
+    out = CliRunner().invoke(main, ["resonances", "-e", "dirac", "--kappa", "1", "--param", "Z=1",
+                                    "--window=-0.7,-0.02"])
+    assert out.exit_code == 0, out.output
+    rows = [line.split() for line in out.output.splitlines() if line.split()[:2][1:] == ["bound"]]
+    exact = [(f"{n}p1/2", dirac_coulomb(1, n, 1)) for n in range(2, 12) if -0.7 <= dirac_coulomb(1, n, 1) <= -0.02]
+    assert [r[0] for r in rows] == [label for label, _ in exact] == ["2p1/2", "3p1/2", "4p1/2", "5p1/2"]
+    assert [float(r[2]) for r in rows] == pytest.approx([e for _, e in exact], abs=1e-10)
+
+
+# --units nuclear: the none-stable message quoted the MeV window in hartree, and the JSON named lengths
+# in bohr where `boundkit phases` gives fm
+def test_cli_resonances_nuclear_units_message_and_json_lengths():
+    import scipy.constants as sc
+
+    args = ["resonances", "--units", "nuclear", "--particle", "neutron", "--expr", "-50*exp(-r/2)",
+            "--window", "1,6"]
+    runner = CliRunner()
+    out = runner.invoke(main, args)
+    assert out.exit_code == 0, out.output
+    assert "no eigenvalue with Re E in [1, 6] MeV is stable" in out.output
+    assert "hartree" not in out.output.splitlines()[-1]
+    data = json.loads(runner.invoke(main, [*args, "--json"]).output)
+    assert data["units"]["length"] == "fm"
+    # fm per bohr as boundkit defines it, a0 = alpha hbar c / E_h (scipy.constants; CODATA's tabulated a0 is
+    # 6e-12 away)
+    per = sc.fine_structure * sc.hbar * sc.c / sc.physical_constants["Hartree energy"][0] * 1e15
+    assert data["contour"]["r0"] == pytest.approx(data["settings"]["r0_bohr"] * per, rel=1e-12)
+    assert data["contour"]["r_max"] == pytest.approx(data["settings"]["r_max_bohr"] * per, rel=1e-12)
+    res = boundkit.resonances("schrodinger", lambda r: -50 * np.exp(-r / 2), units="nuclear", particle="neutron",
+                              window=(1 * MEV_IN_HARTREE, 6 * MEV_IN_HARTREE))
+    assert res.to_dict()["units"]["length"] == "fm" and res.to_dict(length_unit="bohr")["units"]["length"] == "bohr"
+
+
+def test_window_too_big_names_the_options_on_the_command_line():
+    # the command has --r0 and --r-max and no h: it quoted the API keywords 'h, r0 and r_max'
+    args = ["resonances", "--units", "nuclear", "--particle", "neutron", "-p", "woods-saxon", "--param", "depth=50",
+            "--param", "radius=4", "--param", "diffuseness=0.6", "--l", "4", "--window", "0.05,15"]
+    out = CliRunner().invoke(main, args)
+    assert out.exit_code == 2
+    assert re.fullmatch(r"boundkit: error: --window: the mesh for this window needs at least \S+ unknowns, more than "
+                        r"the limit of 2400 of a dense eigenproblem; narrow the window, raise its lower end, or give "
+                        r"--r0 and --r-max\n", out.output), out.output
+    with pytest.raises(ValueError, match=r"^window: .* narrow the window, raise its lower end, or give h, r0 and "
+                                         r"r_max$"):
+        boundkit.resonances("schrodinger", "woods-saxon", {"depth": 50, "radius": 4, "diffuseness": 0.6},
+                            units="nuclear", particle="neutron", l=4,
+                            window=(0.05 * MEV_IN_HARTREE, 15 * MEV_IN_HARTREE))
+
+
+def test_uniform_scaling_without_analytic_names_the_option_on_the_command_line():
+    with pytest.raises(ValueError, match=r"^r0: r0 = 0 \(uniform scaling\) needs analytic=, the potential as a function "
+                                         r"of complex r$"):
+        boundkit.resonances("schrodinger", barrier, window=(3, 4), r0=0.0)
+    out = CliRunner().invoke(main, ["resonances", "--expr", "7.5*r**2*exp(-r)", "--window", "3,4", "--r0", "0"])
+    assert out.exit_code == 2
+    assert out.output == ("boundkit: error: --r0: 0 (uniform scaling) needs --analytic, the potential continued to "
+                          "complex r\n")
+
+
+def test_klein_gordon_point_charge_labels_count_a_level_the_elements_resolve_coarsely():
+    # Klein-Gordon Coulomb (Greiner, Relativistic Quantum Mechanics: Wave Equations, ch. 1; tests/exact.py):
+    # at Z = 20, l = 0 the 1s is -205.577 and the 2s -50.8991 hartree. u ~ r^0.978 at the point charge: the 1s,
+    # resolved to 1e-4 only, moved with theta beyond tol and was not counted, so the 2s came out as '1s', status ok
+    from exact import klein_gordon_coulomb
+
+    exact = {n: klein_gordon_coulomb(20, n, 0) for n in range(1, 8)}
+    res = boundkit.resonances("klein-gordon", "coulomb", {"Z": 20}, l=0, window=(1.1 * exact[1], 0.9 * exact[3]))
+    assert res.resonances
+    for r in res.resonances:
+        n = min(exact, key=lambda k: abs(exact[k] - r.energy))
+        assert r.label == f"{n}s"
+        assert abs(r.energy - exact[n]) <= 2 * r.energy_error
+
+
+def test_none_stable_at_a_point_charge_says_what_to_do():
+    # Klein-Gordon Z = 60, l = 0: u ~ r^s at the point charge, s = 1/2 + sqrt(1/4 - (Z alpha)^2) = 0.741 (the
+    # Frobenius exponent, Greiner, Relativistic Quantum Mechanics: Wave Equations, ch. 1); the 2s (-566.81) and
+    # 3s (-235.02) in the window move between runs by more than tol. The message advised larger angles.
+    res = boundkit.resonances("klein-gordon", "coulomb", {"Z": 60}, l=0, window=(-2300, -200))
+    assert res.status == "none-stable"
+    assert re.search(r"; the solution goes like r\^0\.741 at the point charge, which the elements resolve slowly "
+                     r"\(bound levels move between runs by more than tol\): for bound levels use boundkit\.solve "
+                     r"\(boundkit solve\), or a finite nucleus \(e\.g\. uniform-sphere\)", res.message), res.message
+    far = boundkit.resonances("klein-gordon", "coulomb", {"Z": 60}, l=2, window=(-300, -100))
+    assert "point charge" not in far.message
+
+
+@pytest.mark.parametrize("order", [12, 14])
+def test_dirac_hydrogen_estimates_cover_the_rounding_of_the_rest_energy(order):
+    # the eigenvalues of the Dirac matrix (binding energies ~0.5 beside its -2 m c^2 = -37558 hartree diagonal)
+    # scatter by a few ulp of 2 m c^2 (7.3e-12) between runs; at order 12 the 1s1/2 was 1.4e-11 off with an
+    # estimate of 9.4e-12. Sommerfeld-Dirac formula in 50 digits (Bethe and Salpeter 1957; tests/exact.py)
+    from exact import dirac_coulomb_mp
+
+    exact = [float(dirac_coulomb_mp(1, n, -1)) for n in (1, 2, 3)]
+    res = boundkit.resonances("dirac", "coulomb", {"Z": 1}, kappa=-1, window=(1.05 * exact[0], 0.98 * exact[2]),
+                              order=order)
+    assert [r.label for r in res.resonances] == ["1s1/2", "2s1/2", "3s1/2"]
+    for r, e in zip(res.resonances, exact):
+        assert abs(r.energy - e) <= r.energy_error
+        assert r.energy_error <= 1e-10

@@ -13,6 +13,9 @@ from .options import (build_potential, channel_options, energy_unit_option, equa
 
 __all__ = ["resonances_cmd"]
 
+_OPTIONS = {"window": "--window", "r0": "--r0", "r_max": "--r-max"}
+"""API keywords of :func:`boundkit.resonances` -> the options that feed them, named in refusals."""
+
 
 def _numbers(option: str, text: str, count: int | None = None) -> tuple[float, ...]:
     parts = [p.strip() for p in str(text).split(",")]
@@ -75,7 +78,7 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
                          order=order, r0=r0, r_max=r_max, tol=tol, scalar=scalar or None, units=unit_system,
                          analytic=True if analytic else None, **kwargs)
     except ValueError as exc:
-        fail(api_message(exc))
+        fail(api_message(exc, _OPTIONS))
     if as_json:
         click.echo(json_text(res.to_dict(unit)))
         return

@@ -27,6 +27,7 @@ __all__ = ["Parameter", "Term", "Potential", "ProbedTerm", "CallableTerm", "Nucl
            "complex_values", "table_terms", "TABLE_ERROR_NOTE", "TABLE_FIX"]
 
 _COMPLEX_OK: contextvars.ContextVar[bool] = contextvars.ContextVar("boundkit_complex_ok", default=False)
+_REAL_FOR: contextvars.ContextVar[tuple[str, str] | None] = contextvars.ContextVar("boundkit_real_for", default=None)
 
 
 @contextlib.contextmanager
@@ -42,6 +43,19 @@ def complex_values():
         yield
     finally:
         _COMPLEX_OK.reset(token)
+
+
+@contextlib.contextmanager
+def real_values_for(api: str, command_line: str):
+    """Inside this context a refusal of complex values by :func:`refuse_complex` names the tool that refused
+    them and its fix: ``api`` in the API's words, ``command_line`` in a command's (the two wordings of an
+    :class:`boundkit._checks.OptionError`), e.g. ``phase shifts take real potentials only; ...``. Outside,
+    the refusal names the bound-state solver."""
+    token = _REAL_FOR.set((api, command_line))
+    try:
+        yield
+    finally:
+        _REAL_FOR.reset(token)
 
 
 def refuse_complex(values, label: str, r=None) -> np.ndarray:
@@ -61,6 +75,10 @@ def refuse_complex(values, label: str, r=None) -> np.ndarray:
         if np.any(imag != 0):
             i = int(np.argmax(imag))
             at = "" if r is None or np.ndim(r) == 0 else f" at r = {np.ravel(r)[i]:.3g} bohr"
+            head = f"potential: {label} returned complex values (imaginary part {np.ravel(imag)[i]:.3g}{at}); "
+            if _REAL_FOR.get() is not None:
+                api, command_line = _REAL_FOR.get()
+                raise OptionError(head + api, head + command_line)
             raise ValueError(f"potential: {label} returned complex values (imaginary part {np.ravel(imag)[i]:.3g}"
                              f"{at}); the bound-state solver takes real potentials only; use boundkit.resonances "
                              "(boundkit resonances) for complex ones, or return real values")

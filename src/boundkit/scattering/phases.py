@@ -18,7 +18,8 @@ from ..units import energy_unit as canonical_unit
 from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
-from ..potentials.base import TABLE_ERROR_NOTE, TABLE_FIX, table_terms
+from .._threads import inside
+from ..potentials.base import TABLE_ERROR_NOTE, TABLE_FIX, real_values_for, table_terms
 from .tables import p_far, table_change, table_grid
 
 log = logging.getLogger(__name__)
@@ -30,6 +31,15 @@ _SECOND_RADIUS = 1.25   # ... and reads delta again at this multiple of the matc
 _START_CHECK = 10.0     # the loose run also starts this many times further out (the start's error)
 _K_EFFECTIVE = 0.01  # k x (length scale) of the lowest phase used for a relativistic effective range
 _BORN_TOP = 1.0      # Levinson grid ends where the first-order bound on |delta| falls below this (rad)
+
+
+def _real_only():
+    """The context of the continuum's entry points: a complex potential is refused in their words."""
+    return real_values_for(
+        "phase shifts take real potentials only; use boundkit.resonances for complex ones (resonances, "
+        "absorption), or give a real potential",
+        "phase shifts take real potentials only; use boundkit resonances for complex ones (resonances, "
+        "absorption), or give a real potential")
 
 
 def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,
@@ -195,6 +205,7 @@ def _unwrap_from_top(delta: np.ndarray) -> tuple[np.ndarray, float]:
     return out, float(steps.max()) if steps.size else 0.0
 
 
+@inside(_real_only)
 def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger", potential=None,
                  params: dict | None = None, *, l: int | None = None, kappa: int | None = None,
                  particle: str | None = None, mass_mev: float | None = None,
@@ -361,6 +372,7 @@ def _short_range_only(ch, units: str, message, coulomb_note: str = "") -> None:
         raise ValueError(message(f"a Coulomb tail (charge {ch.tail_charge:g})") + coulomb_note)
 
 
+@inside(_real_only)
 def scattering_length(equation: str = "schrodinger", potential="coulomb", params: dict | None = None, *,
                       kappa: int | None = None, particle: str | None = None, mass_mev: float | None = None,
                       nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
@@ -537,6 +549,7 @@ def _length_pair(ch: Channel, raw) -> tuple[float, float | None]:
 
 
 # --- Levinson ----------------------------------------------------------------------------------
+@inside(_real_only)
 def levinson(equation: str = "schrodinger", potential="yukawa", params: dict | None = None, *,
              l: int | None = None, particle: str | None = None, mass_mev: float | None = None,
              nucleus_mass_mev: float | None = None, units: str = "atomic", n_bound: int | None = None,
@@ -662,6 +675,7 @@ def _born_small(ch: Channel, bound: float) -> float:
 
 
 # --- states ------------------------------------------------------------------------------------
+@inside(_real_only)
 def continuum_state(energy: float, equation: str = "schrodinger", potential="coulomb",
                     params: dict | None = None, *, l: int | None = None, kappa: int | None = None,
                     particle: str | None = None, mass_mev: float | None = None,

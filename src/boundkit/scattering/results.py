@@ -43,6 +43,8 @@ class PhaseShifts:
         matching radius plus the first-order bound of the potential beyond it,
         added to the change under a looser integration tolerance and a start
         further out; at least the integration tolerance and 4 ulp of delta).
+        Zero when none was computed (``estimate_error=False``, as on the
+        Levinson grid): the table then reads ``none`` and the JSON null.
     coulomb_phase : ndarray
         Reference phase theta (radians, in (-pi, pi]; 0 for a free tail): the
         wave goes like sin(k r - eta ln 2kr - l pi/2 + theta + delta), l the
@@ -100,7 +102,7 @@ class PhaseShifts:
                  "coulomb_phase": c, "eta": et, "matching_radius": R}
                 for e, k, d, er, c, et, R in zip(
                     _floats(self.energies_in(energy_unit)), _floats(self.wave_numbers / per), _floats(self.delta),
-                    _floats(self.error_estimate), _floats(self.coulomb_phase),
+                    self._errors(), _floats(self.coulomb_phase),
                     _floats(self.eta), _floats(self.matching_radius * per))
             ],
             "diagnostics": self.diagnostics,
@@ -115,10 +117,18 @@ class PhaseShifts:
                 f"reference: {self.reference}; branch: {self.branch}",
                 f"energies (kinetic, total minus rest) in {energy_unit}; k in 1/{length_unit}; phases in rad", "",
                 f"{'energy':>16} {'k':>14} {'delta':>20} {'delta/pi':>12} {'error':>9} {'coulomb phase':>14}"]
-        rows = [f"{e:>16.9g} {k:>14.8g} {d:>20.14g} {d / math.pi:>12.6f} {er:>9.2g} {c:>14.8g}"
+        rows = [f"{e:>16.9g} {k:>14.8g} {d:>20.14g} {d / math.pi:>12.6f} "
+                f"{'none' if er is None else format(er, '.2g'):>9} {c:>14.8g}"
                 for e, k, d, er, c in zip(self.energies_in(energy_unit), self.wave_numbers / per, self.delta,
-                                          self.error_estimate, self.coulomb_phase)]
+                                          self._errors(), self.coulomb_phase)]
         return "\n".join(head + rows + ["", f"status: {self.status} - {self.message}"])
+
+    def _errors(self) -> list:
+        """The error estimates, None where none was computed (``estimate_error=False``: the array holds 0
+        there, which is no estimate)."""
+        if self.settings.get("estimate_error", True) is False:
+            return [None] * len(self.delta)
+        return _floats(self.error_estimate)
 
     def _channel_text(self) -> str:
         if self.channel.get("kappa") is not None:
@@ -129,7 +139,12 @@ class PhaseShifts:
         n = len(self.energies)
         span = f"E in [{self.energies[0]:.4g}, {self.energies[-1]:.4g}] hartree" if n else "no energies"
         return (f"PhaseShifts({self.equation}, {self._channel_text()}, {self.potential}: {n} points, {span}, "
-                f"max error {np.max(self.error_estimate) if n else 0:.2g} rad, status={self.status!r})")
+                f"{self._max_error_text()}, status={self.status!r})")
+
+    def _max_error_text(self) -> str:
+        if self.settings.get("estimate_error", True) is False:
+            return "no error estimate"
+        return f"max error {np.max(self.error_estimate) if len(self.energies) else 0:.2g} rad"
 
 
 @dataclass(frozen=True, repr=False)
