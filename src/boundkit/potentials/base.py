@@ -79,9 +79,8 @@ def refuse_complex(values, label: str, r=None) -> np.ndarray:
             if _REAL_FOR.get() is not None:
                 api, command_line = _REAL_FOR.get()
                 raise OptionError(head + api, head + command_line)
-            raise ValueError(f"potential: {label} returned complex values (imaginary part {np.ravel(imag)[i]:.3g}"
-                             f"{at}); the bound-state solver takes real potentials only; use boundkit.resonances "
-                             "(boundkit resonances) for complex ones, or return real values")
+            raise ValueError(head + "the bound-state solver takes real potentials only; use boundkit.resonances "
+                                    "(boundkit resonances) for complex ones, or return real values")
         arr = np.real(arr)
     try:
         return np.asarray(arr, dtype=float)
