@@ -49,6 +49,9 @@ counting (:func:`_pinned`: a bracket with j and j + 1 levels below its ends,
 closed to 1e-6 relative, Newton's method from its middle).
 Without that, the lower rungs of the ladder, which are not counted, could carry
 a repeated level up to the last one, where only bisection on the count mended it.
+A level the count cannot vouch for (Newton's level within the count's own rounding of an end of its
+bracket: two levels closer than that, a tunnelling doublet) is solved with the cluster around it on
+the cluster's own subspace (:func:`_told_apart`), so the levels of a cluster come back in order.
 
 The count is exact for the discrete problem. It equals the count of the
 continuous problem once the mesh resolves the levels (the same condition as
@@ -65,7 +68,7 @@ from typing import NamedTuple
 import numpy as np
 import scipy.linalg as sla
 
-from .eigen import energy_rounding, refine
+from .eigen import Refined, energy_rounding, refine
 from .equations.variational import SymmetricOperator
 
 __all__ = ["count_below", "locate_levels", "certify_levels", "particle_floor", "peak_floor", "Floor", "Located"]
@@ -338,6 +341,8 @@ def _closing(op, k: int, a: float, b: float, counts: tuple[int, int], rtol: floa
     bisection, continued. Returns (the level or None, the last bracket and its counts)."""
     for width in (1e-6, _PINNED):
         ref, bracket = _closed(op, k, a, b, counts, width, rtol, slack)
+        if ref is not None:
+            ref = _told_apart(op, k, ref, bracket[:2])
         if ref is not None and (accept is None or accept(ref)):
             return ref, bracket
         a, b, ca, cb = bracket
@@ -363,6 +368,95 @@ def _closed(op, k: int, a: float, b: float, counts: tuple[int, int], width: floa
         # relative, and never found (:func:`boundkit.eigen._stalled_at_noise`)
         s = max(s, energy_rounding(op, ref.vector))
     return (ref if ref.converged and a - s <= ref.energy <= b + s else None), (a, b, ca, cb)
+
+
+_CLUSTER = 1e-6     # relative half-width around a level within which its cluster is counted (:func:`_told_apart`)
+_CLUSTER_MAX = 4    # largest cluster solved on its own subspace
+
+
+def _told_apart(op, k: int, ref, bracket: tuple[float, float]):
+    """Newton's level in a bracket closed by counting, checked where the count cannot vouch for it.
+
+    A count in double precision places a level only to its rounding, R = NOISE_ULPS 2^-53
+    sum |K_ii| y_i^2 / y^T M y (:func:`boundkit.eigen.energy_rounding`; 7e-11 hartree for a level at
+    -11.7 hartree in a square well of depth 50). When Newton's level lies within R of an end of the
+    bracket (or beyond it), the bracket does not tell it from a neighbour that close, and Newton's
+    method cannot either: between two levels closer than the guess (a tunnelling doublet of two wells
+    tuned to one level, 4.4e-12 hartree apart) it stops after one step anywhere between them. Then
+    the cluster around it is counted well outside that noise (at E -+ 1e-6 |E|) and solved on its own
+    subspace (:func:`_cluster_levels`, residuals in extended precision): the cluster's level of index
+    k replaces Newton's (whose level may be either of the pair; the cluster's are in order). Where
+    that is not possible (more than _CLUSTER_MAX levels, an operator without extended residuals), the
+    level's estimate is kept at least R (``op.noise_stalls``, read by :func:`boundkit.solver._with_residual_floor`): its
+    error is then the count's.
+    """
+    noise = getattr(op, "noise_stalls", None)
+    R = energy_rounding(op, ref.vector)
+    if noise is None or R is None:
+        return ref
+    a, b = bracket
+    E = ref.energy
+    if a + R < E < b - R:       # the count vouches for it: no other level in reach of that noise
+        return ref
+    D = max(_CLUSTER * abs(E), 64 * R)
+    j0 = count_below(op, E - D)
+    m = count_below(op, E + D) - j0
+    if m <= 1 or not j0 <= k < j0 + m:
+        return ref
+    got = _cluster_levels(op, E, m) if m <= _CLUSTER_MAX else None
+    if got is None:
+        noise[float(E)] = max(noise.get(float(E), 0.0), R)
+        return ref
+    energies, vectors, rounding = got
+    i = k - j0
+    noise[float(energies[i])] = rounding[i]
+    return Refined(float(energies[i]), vectors[i], ref.iterations, True, 0.0)
+
+
+def _cluster_levels(op, E0: float, m: int, steps: int = 3):
+    """The m levels of a cluster near E0 by Rayleigh-Ritz on their own subspace: block inverse
+    iteration with K(E0) (their components grow by the spacing to the other levels over their own
+    distance from E0, 1e12 a step for a doublet), then the m x m pencil (Z^T K(E) Z, Z^T M Z) with
+    K(E) Z in extended precision, its i-th root in E by Newton's method on the i-th eigenvalue (one
+    step for the Schrodinger equation, where K is linear in E). Returns (energies, vectors,
+    roundings: :func:`boundkit.eigen.energy_rounding` in extended precision of each vector), or
+    None for an operator without extended-precision residuals or when the roots do not settle."""
+    scale = getattr(op, "_scale_ext", None)
+    if scale is None or not getattr(op.grid, "extended", False):
+        return None
+    rng = np.random.default_rng(0)
+    Z = rng.standard_normal((op.n - 1, m))
+    for _ in range(steps):
+        Z = np.column_stack([op.solve(E0, op.row_scale * op.mass_apply(z)) for z in Z.T])
+        MZ = np.column_stack([op.mass_apply(z) for z in Z.T])
+        try:
+            C = np.linalg.cholesky(Z.T @ MZ)
+        except np.linalg.LinAlgError:
+            return None
+        Z = sla.solve_triangular(C, Z.T, lower=True).T          # M-orthonormal columns
+    B = Z.T @ np.column_stack([op.mass_apply(z) for z in Z.T])
+    Zl = Z.astype(np.longdouble)
+    energies, vectors = [], []
+    for i in range(m):
+        E = float(E0)
+        for it in range(12):
+            KZ = np.column_stack([op.residual(E, z) / scale for z in Zl.T])
+            A = np.asarray(Zl.T @ KZ, dtype=float)
+            mu, c = sla.eigh(0.5 * (A + A.T), B)
+            v = Z @ c[:, i]
+            slope = -op.slope_form(E, v) / float(v @ op.mass_apply(v))
+            if not slope > 0:
+                return None
+            dE = float(mu[i]) / slope
+            E += dE
+            if abs(dE) <= 1e-17 * abs(E) or (it == 1 and getattr(op.eq, "energy_linear", False)):
+                break
+        else:
+            return None
+        energies.append(E)
+        vectors.append(v / v[np.argmax(np.abs(v))])
+    rounding = [energy_rounding(op, v, True) for v in vectors]
+    return energies, vectors, rounding
 
 
 def _inverse_iteration(op: SymmetricOperator, E: float, steps: int = 2) -> np.ndarray:

@@ -2277,8 +2277,40 @@ def _estimate_why(tally: _Tally) -> str | None:
             else _POTENTIAL_FLOOR_WHY if tally.potential_floor_hit else None)
 
 
+def _untold_pairs(found: list[Level]) -> tuple[list[Level], list[tuple[Level, Level]]]:
+    """Neighbouring levels (in node order) that lie within the sum of their estimates of each other,
+    which double precision does not tell apart (a tunnelling doublet of two wells tuned to one level,
+    4.7e-16 hartree apart at -11.7 hartree). Returns the levels, a pair out of node order (the one with
+    more nodes lower) moved to their mean with each estimate grown by half their difference (the
+    order of the pair is not resolved, and an impossible one is not reported), and the pairs."""
+    levels = sorted(found, key=lambda lv: lv.nodes)
+    pairs = []
+    for i in range(len(levels) - 1):
+        a, b = levels[i], levels[i + 1]
+        if b.nodes != a.nodes + 1 or b.energy - a.energy > a.error_estimate + b.error_estimate:
+            continue
+        if b.energy < a.energy:
+            mean, half = 0.5 * (a.energy + b.energy), 0.5 * (a.energy - b.energy)
+            a = replace(a, energy=mean, error_estimate=a.error_estimate + half)
+            b = replace(b, energy=mean, error_estimate=b.error_estimate + half)
+            levels[i], levels[i + 1] = a, b
+        pairs.append((a, b))
+    return levels, pairs
+
+
+def _untold_why(pairs, eu: str) -> str:
+    """Why neighbouring levels are not told apart (:func:`_untold_pairs`), and what to do."""
+    said = ", ".join(f"{a.label} and {b.label} lie {hartree_to(abs(b.energy - a.energy), eu):.2g} {eu} apart, "
+                     f"within their estimates ({hartree_to(a.error_estimate, eu):.2g}, "
+                     f"{hartree_to(b.error_estimate, eu):.2g} {eu})" for a, b in pairs)
+    return (f"{said}: closer than double precision resolves here (as the tunnelling pair of two wells tuned to "
+            "one level can be), so the two are not told apart and each energy is good only to its estimate; move "
+            "the potential's parameters away from the coincidence to separate them")
+
+
 def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, per_level, worst, extra,
             t0) -> SolveResult:
+    found, untold = _untold_pairs(found)
     found.sort(key=lambda lv: lv.energy)
     bound = extra.get("bound_count")
     wanted = levels if levels is not None else bound
@@ -2328,6 +2360,9 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         # the levels found are surely bound, but one more may lie below them
         status = "partial"
         message = f"{message}; {_dive_why(dive, eu)}"
+    if untold:
+        status = "partial"
+        message = f"{message}; {_untold_why(untold, eu)}"
     diagnostics = {
         "gamma": extra.get("gamma"), "natural_length_bohr": extra.get("L"),
         "breakpoints_bohr": [float(b) for b in pot.breakpoints], "bound_count": bound,
