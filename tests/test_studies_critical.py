@@ -12,6 +12,7 @@ from click.testing import CliRunner
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
+import boundkit
 from boundkit.cli import main
 
 from boundkit.studies import CriticalResult, NuclearRadius, StudyError, critical
@@ -1135,3 +1136,15 @@ def test_cli_critical_status_line_quotes_the_energy_in_the_unit_asked(extra, nam
     assert out.exit_code == 0, out.output
     assert re.search(rf"^\d+ evaluations; status: ok - 1s merges .*, E = \S+ {named}$", out.output, re.M), out.output
     assert "hartree" not in out.output
+
+
+def test_a_solve_within_rounding_of_a_merge_says_so_in_its_diagnostics():
+    """The merge search reads diagnostics['near_merge_undecided'] (it read the words of the solve's message before):
+    at 3e-11 of the depth past the merge of the R = 50 fm well (exact matching, mpmath) the solve is 'partial' with
+    the key set; well away from the merge (bound, or merged) the key is False."""
+    V0m = float(_kg_square_well_merge(50.0)[0])
+    near = boundkit.solve("klein-gordon", _well(V0m * (1 + 3e-11), 50.0), {}, units="nuclear")
+    assert near.status == "partial" and near.diagnostics["near_merge_undecided"] is True, near.message
+    for V0 in (0.9 * V0m, 1.1 * V0m):
+        far = boundkit.solve("klein-gordon", _well(V0, 50.0), {}, units="nuclear")
+        assert far.diagnostics["near_merge_undecided"] is False, far.message

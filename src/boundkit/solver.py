@@ -1260,6 +1260,7 @@ def _elements_on(eq, pot, levels: int | None, tol: float, degrees=None, known_bo
                            error_estimate=est, nodes=k + offset, state=state,
                            resolution=rk.size, iterations=0, previous_state=prev_state))
     if len(found) < want and "why" not in extra and extra.get("near_merge"):
+        extra["near_merge_undecided"] = True
         extra["why"] = ("a particle level this close to merging with its antiparticle partner (their energies turn "
                         "complex; the window between their two roots is narrow on the counting box) could not be "
                         "separated from it on the ladder's meshes; whether it is still bound is not resolved here")
@@ -2369,6 +2370,7 @@ def _result(eq, pot, disc, levels, tol, settings, potential_name, found, tally, 
         "threshold_hartree": extra.get("threshold", 0.0), "count_box_bohr": extra.get("count_box"),
         "threshold_state_hartree": None if near is None else [near.mu, near.error],
         "dive_state_hartree": None if dive is None else [dive.x, dive.error],
+        "near_merge_undecided": bool(extra.get("near_merge_undecided")),
         "certified_by_count": extra.get("certified"),
         "dropped_node_mismatch": tally.dropped_node_mismatch, "dropped_unstable": tally.dropped_unstable,
         "reseeded_guesses": tally.reseeded, "bisected_levels": tally.bisected,

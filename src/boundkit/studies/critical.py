@@ -602,18 +602,15 @@ class _Undecided(StudyError):
     """Neither method family could decide whether the level is bound at a parameter value."""
 
 
-_NEAR_MERGE_REASON = "close to merging with its antiparticle partner"
-"""The words of a solve's 'partial' reason when a Klein-Gordon pair lies within rounding of its merge (the
-ladder's reason in :mod:`boundkit.solver`, given when the far box's count left that pair undecided:
-:func:`boundkit.locator.peak_undecided`)."""
-
 UNDECIDED_VIA = "solver (undecided: within its resolution of the merge)"
 """``points[i]['via']`` of a merge search's point where the solve could not tell the pair from a merged one."""
 
 
 def _near_merge(res) -> bool:
-    """Whether a solve is 'partial' only because a Klein-Gordon pair lies within rounding of its merge."""
-    return res.status == "partial" and _NEAR_MERGE_REASON in res.message
+    """Whether a solve is 'partial' because a Klein-Gordon pair lies within rounding of its merge (the far
+    box's count left that pair undecided, :func:`boundkit.locator.peak_undecided`, and the ladder could not
+    separate it: the solve's ``diagnostics['near_merge_undecided']``)."""
+    return res.status == "partial" and bool(res.diagnostics.get("near_merge_undecided"))
 
 
 # BLAS single-threaded, as boundkit.solver.solve_channel runs: the matrices are small, and two
