@@ -76,9 +76,8 @@ def refuse_complex(values, label: str, r=None) -> np.ndarray:
             i = int(np.argmax(imag))
             at = "" if r is None or np.ndim(r) == 0 else f" at r = {np.ravel(r)[i]:.3g} bohr"
             head = f"potential: {label} returned complex values (imaginary part {np.ravel(imag)[i]:.3g}{at}); "
-            if _REAL_FOR.get() is not None:
-                api, command_line = _REAL_FOR.get()
-                raise OptionError(head + api, head + command_line)
+            if (words := _REAL_FOR.get()) is not None:
+                raise OptionError(head + words[0], head + words[1])
             raise ValueError(head + "the bound-state solver takes real potentials only; use boundkit.resonances "
                                     "(boundkit resonances) for complex ones, or return real values")
         arr = np.real(arr)

@@ -35,11 +35,9 @@ _BORN_TOP = 1.0      # Levinson grid ends where the first-order bound on |delta|
 
 def _real_only():
     """The context of the continuum's entry points: a complex potential is refused in their words."""
-    return real_values_for(
-        "phase shifts take real potentials only; use boundkit.resonances for complex ones (resonances, "
-        "absorption), or give a real potential",
-        "phase shifts take real potentials only; use boundkit resonances for complex ones (resonances, "
-        "absorption), or give a real potential")
+    words = ("phase shifts take real potentials only; use {} for complex ones (resonances, absorption), or give a "
+             "real potential")
+    return real_values_for(words.format("boundkit.resonances"), words.format("boundkit resonances"))
 
 
 def _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar, units, j,

@@ -126,7 +126,7 @@ class PhaseShifts:
     def _errors(self) -> list:
         """The error estimates, None where none was computed (``estimate_error=False``: the array holds 0
         there, which is no estimate)."""
-        if self.settings.get("estimate_error", True) is False:
+        if not self._estimated:
             return [None] * len(self.delta)
         return _floats(self.error_estimate)
 
@@ -141,8 +141,13 @@ class PhaseShifts:
         return (f"PhaseShifts({self.equation}, {self._channel_text()}, {self.potential}: {n} points, {span}, "
                 f"{self._max_error_text()}, status={self.status!r})")
 
+    @property
+    def _estimated(self) -> bool:
+        """Whether errors were estimated (``estimate_error=False`` leaves 0 in the array, which is no estimate)."""
+        return self.settings.get("estimate_error", True) is not False
+
     def _max_error_text(self) -> str:
-        if self.settings.get("estimate_error", True) is False:
+        if not self._estimated:
             return "no error estimate"
         return f"max error {np.max(self.error_estimate) if len(self.energies) else 0:.2g} rad"
 
