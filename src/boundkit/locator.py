@@ -444,7 +444,7 @@ def _cluster_levels(op, E0: float, m: int, steps: int = 3):
             A = np.asarray(Zl.T @ KZ, dtype=float)
             mu, c = sla.eigh(0.5 * (A + A.T), B)
             v = Z @ c[:, i]
-            slope = -op.slope_form(E, v) / float(v @ op.mass_apply(v))
+            slope = op.charge_ratio(E, v)
             if not slope > 0:
                 return None
             dE = float(mu[i]) / slope
