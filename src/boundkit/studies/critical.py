@@ -607,10 +607,10 @@ UNDECIDED_VIA = "solver (undecided: within its resolution of the merge)"
 
 
 def _near_merge(res) -> bool:
-    """Whether a solve is 'partial' because a Klein-Gordon pair lies within rounding of its merge (the far
+    """Whether a (partial) solve left a Klein-Gordon pair undecided within rounding of its merge (the far
     box's count left that pair undecided, :func:`boundkit.locator.peak_undecided`, and the ladder could not
     separate it: the solve's ``diagnostics['near_merge_undecided']``)."""
-    return res.status == "partial" and bool(res.diagnostics.get("near_merge_undecided"))
+    return bool(res.diagnostics.get("near_merge_undecided"))
 
 
 # BLAS single-threaded, as boundkit.solver.solve_channel runs: the matrices are small, and two
