@@ -76,3 +76,21 @@ def test_a_shift_on_an_eigenvalue_gives_none_or_that_eigenvalue():
     A = sp.diags(np.arange(1.0, n + 1)).tocsr()
     got = nearest_pair(A, sp.identity(n, format="csr"), 3.0)
     assert got is None or abs(got[0] - 3.0) < 1e-12
+
+
+@pytest.mark.parametrize("k", [1, 30])
+def test_dense_pencil_gives_the_same_pair(k):
+    """Dense arrays take an LU of their own: the same eigenpair as the sparse pencil."""
+    n = 80
+    sigma = exact(n, k) + 1e-6
+    lam, y = nearest_pair(laplacian(n).toarray(), np.eye(n), sigma)
+    lam_s, y_s = nearest_pair(laplacian(n), sp.identity(n, format="csr"), sigma)
+    assert abs(lam - exact(n, k)) <= 1e-11 and abs(lam - lam_s) <= 1e-12
+    # scaled to a largest entry of 1: a symmetric vector has two, so the sign may differ
+    assert min(np.max(np.abs(y - y_s)), np.max(np.abs(y + y_s))) <= 1e-9
+
+
+def test_dense_complex_pair_gives_none():
+    A = np.diag(np.arange(5.0, 25.0))
+    A[:2, :2] = [[1.0, 0.5], [-0.5, 1.0]]
+    assert nearest_pair(A, np.eye(20), 1.0) is None

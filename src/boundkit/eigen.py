@@ -17,7 +17,9 @@ Three solvers, one loop each:
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
+from functools import partial
 
 import numpy as np
 import scipy.linalg as sla
@@ -51,7 +53,7 @@ def shift_invert(A, B, sigma: float, k: int = 4):
 
 
 def nearest_pair(A, B, sigma: float, max_iter: int = 12, vtol: float = 1e-10):
-    """The eigenpair of the sparse pencil A y = lambda B y nearest ``sigma``, by inverse iteration,
+    """The eigenpair of the pencil A y = lambda B y (sparse or dense) nearest ``sigma``, by inverse iteration,
     or None when it does not settle (two eigenvalues about as near, a complex pair, a singular shift).
 
     Notes
@@ -69,20 +71,26 @@ def nearest_pair(A, B, sigma: float, max_iter: int = 12, vtol: float = 1e-10):
     method. A start vector with no component along the nearest eigenvector could not reach it: the
     start is fixed pseudo-random.
     """
-    A = sp.csc_matrix(A)
-    B = sp.csr_matrix(B)
     n = A.shape[0]
-    try:
-        with np.errstate(all="ignore"):
-            lu = spla.splu(A - sigma * B)
-    except RuntimeError:            # exactly singular: sigma is an eigenvalue of the grid
-        return None
+    if sp.issparse(A) or sp.issparse(B):
+        A, B = sp.csc_matrix(A), sp.csr_matrix(B)
+        try:
+            with np.errstate(all="ignore"):
+                solve = spla.splu(A - sigma * B).solve
+        except RuntimeError:            # exactly singular: sigma is an eigenvalue of the grid
+            return None
+    else:
+        A, B = np.asarray(A, dtype=float), np.asarray(B, dtype=float)
+        with np.errstate(all="ignore"), warnings.catch_warnings():
+            warnings.simplefilter("ignore", sla.LinAlgWarning)      # an exactly singular shift: z is not finite
+            lu = sla.lu_factor(A - sigma * B, check_finite=False)
+        solve = partial(sla.lu_solve, lu, check_finite=False)
     y = np.random.default_rng(20261205).standard_normal(n)
     y /= y[np.argmax(np.abs(y))]
     change = math.inf
     for _ in range(max_iter):
         with np.errstate(all="ignore"):
-            z = lu.solve(B @ y)
+            z = solve(B @ y)
         j = int(np.argmax(np.abs(z)))
         if not np.all(np.isfinite(z)) or z[j] == 0.0:
             return None
