@@ -32,7 +32,8 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from baselines import (dense_geneig, dense_pencil, dirac_coulomb_exact, fd_hydrogen,  # noqa: E402
-                       hulthen_exact, hydrogen_dipole_exact, hydrogen_exact, laguerre_hydrogen)
+                       hulthen_exact, hydrogen_dipole_exact, hydrogen_exact, laguerre_hydrogen,
+                       yukawa_1s_critical_length)
 
 import boundkit  # noqa: E402
 from boundkit._threads import usable_cores  # noqa: E402
@@ -234,6 +235,22 @@ def main(argv=None) -> int:
     over = max(d / ln.line_strength_error for d, ln in zip(dev, rt.lines))
     row(f"E1 lines of hydrogen, n <= 8 ({len(rt.lines)} lines, tol 1e-14)", f"{tt:.3f} s", f"{c_time * 1e3:.1f} ms",
         f"{tt / c_time:.1f} units of (c)", "", None, f"S {worst_s:.1e} vs exact, err/est <= {over:.2f}")
+
+    # 5e: the finite-difference family (no target; the cross-check method of cross_check=True and validate)
+    tfd, rfd = best_of(lambda: boundkit.solve("dirac", "coulomb", {"Z": Z_U}, kappa=-1, levels=5, tol=1e-9,
+                                               method="finite-difference"), k_slow)
+    efd, nfd = vs_exact(rfd, lambda n: dirac_coulomb_exact(n, -1, Z_U))
+    row("finite differences: Dirac-Coulomb Z=92 s1/2, 5 levels, tol 1e-9", f"{tfd:.3f} s", f"{c_time * 1e3:.1f} ms",
+        f"{tfd / c_time:.1f} units of (c)", "", None, f"{efd:.1e} vs exact, est {est_rel(rfd):.1e}, {nfd}/5 found")
+
+    # 5f: a critical-parameter search (no target): where the Yukawa 1s unbinds, against baselines'
+    # zero-energy integration
+    tc, rc = best_of(lambda: boundkit.critical("schrodinger", "yukawa", {"Z": 1, "screening_length": 2.0},
+                                               state="1s", vary="screening_length"), k_slow)
+    d_ref = yukawa_1s_critical_length()
+    row("critical: Yukawa 1s unbinding screening length (Z=1)", f"{tc:.3f} s", f"{c_time * 1e3:.1f} ms",
+        f"{tc / c_time:.1f} units of (c)", "", None,
+        f"{abs(rc.value - d_ref) / d_ref:.1e} vs zero-energy integration, est {rc.uncertainty / d_ref:.1e}")
 
     # 6: import time
     t_floor = import_time("import numpy, scipy.linalg, scipy.sparse.linalg, scipy.special, scipy.constants", k_fast)

@@ -108,3 +108,10 @@ def test_hydrogen_dipole_integrals_against_closed_form_and_quadrature():
     for n, l, n2, l2 in [(8, 1, 3, 0), (8, 7, 7, 6), (5, 2, 4, 3)]:
         ref = abs(mp.quad(lambda r: R(n, l, r) * R(n2, l2, r) * r**3, [0, 10, 40, 100, mp.inf]))
         assert bl.hydrogen_dipole_exact(n, l, n2, l2) == pytest.approx(float(ref), rel=1e-14)
+
+
+def test_yukawa_critical_length_baseline():
+    """The benchmark's zero-energy integration reaches the published critical screening: Rogers, Graboske &
+    Harwood, Phys. Rev. A 1, 1577 (1970), 1/D_c = 1.19061 (from memory), i.e. D_c = 0.83990 to their digits."""
+    d = bl.yukawa_1s_critical_length()
+    assert 1 / d == pytest.approx(1.19061, abs=1e-5)

@@ -2,8 +2,10 @@
 from __future__ import annotations
 
 import functools
+import importlib.util
 import math
 import re
+from pathlib import Path
 
 import mpmath as mp
 import pytest
@@ -218,18 +220,16 @@ def test_errors_of_the_points_are_propagated_through_the_fit():
 def _yukawa_1s_critical_screening_length() -> float:
     """Independent value: the 1s of V = -exp(-r/D)/r (Z = 1, hartree, bohr) unbinds where the
     zero-energy s-wave solution of -u''/2 + V u = 0, u(0) = 0, becomes flat far out, u'(inf) = 0
-    (a zero-energy bound state: for D below it u' stays > 0, above it u turns over).
-    Integrated with scipy's DOP853 from a series start u = r - r^2 + (1 + 1/D) r^3/3 to r = 40 bohr,
-    where exp(-r/D) ~ 1e-21; root on D by brentq. Changing r_max (40 -> 70), the start (1e-6 -> 1e-5)
-    and rtol (1e-13 -> 3e-14) moves the root by < 1e-14 (measured)."""
-    def slope_far(D: float) -> float:
-        r0 = 1e-6
-        y0 = [r0 - r0**2 + (1 + 1 / D) * r0**3 / 3, 1 - 2 * r0 + (1 + 1 / D) * r0**2]
-        sol = solve_ivp(lambda r, y: [y[1], -2 * math.exp(-r / D) / r * y[0]], (r0, 40.0), y0,
-                        method="DOP853", rtol=1e-13, atol=1e-16)
-        return float(sol.y[1, -1])
-
-    return brentq(slope_far, 0.7, 1.0, xtol=1e-15, rtol=1e-15)
+    (a zero-energy bound state: for D below it u' stays > 0, above it u turns over). The integration
+    the benchmark carries (benchmarks/baselines.py, yukawa_1s_critical_length; no boundkit): scipy's
+    DOP853 from a series start to r = 40 bohr, where exp(-r/D) ~ 1e-21, root on D by brentq. Changing
+    r_max (40 -> 70), the start (1e-6 -> 1e-5) and rtol (1e-13 -> 3e-14) moves the root by < 1e-14
+    (measured)."""
+    path = Path(__file__).resolve().parents[1] / "benchmarks" / "baselines.py"
+    spec = importlib.util.spec_from_file_location("boundkit_bench_baselines", path)
+    baselines = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(baselines)
+    return baselines.yukawa_1s_critical_length()
 
 
 @pytest.mark.parametrize("start", [

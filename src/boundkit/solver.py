@@ -38,7 +38,7 @@ import numpy as np
 
 from ._threads import one_blas_thread
 from .discretize import Discretization, get_method
-from .eigen import NOISE_ULPS, dense_pencil, refine, shift_invert
+from .eigen import NOISE_ULPS, dense_pencil, nearest_pair, refine, shift_invert
 from .equations import EQUATIONS, FactorizedOperator, RadialEquation, Sample
 from .equations.base import decay_steps
 from .equations.dirac import Dirac, dirac_kappa
@@ -635,6 +635,12 @@ def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi, 
     op = FactorizedOperator(_MeanAtJumps(eq, grid, sides) if grid.on_jumps else eq, grid,
                             _grid_sample(pot, grid, sides), gamma, r_core, E_ref=E_seed)
     A, B = op.pencil(E_seed)
+    # the eigenvalue nearest the seed first: when it qualifies (in the window, within reach, k nodes) it
+    # is the one the rule below takes from the whole spectrum or the six nearest (the nearest that qualifies)
+    got = nearest_pair(A, B, E_seed)
+    if got is not None and lo < got[0] < hi and abs(got[0] - E_seed) < reach and _nodes_of(op, got[1]) == k:
+        ref = refine(op, got[0], got[1])
+        return op, ref, _nodes_of(op, ref.vector)
     if grid.dense:
         lam, vec = dense_pencil(A, B)
     else:

@@ -39,12 +39,19 @@ def _stencils(order: int):
 
 
 def derivative_matrix(n: int, order: int) -> sp.csr_matrix:
-    """First-derivative matrix on n uniform unit-spaced nodes (CSR).
+    """First-derivative matrix on n uniform unit-spaced nodes (CSR; a new copy on each call).
 
     Rows closer than half a stencil to an end use one-sided stencils with
     ``order + 1`` points, so every row has accuracy ``order``. Built from index arrays (a loop over
-    the rows cost 25 ms at n = 9600, once per level and size of a finite-difference solve).
+    the rows cost 25 ms at n = 9600, once per level and size of a finite-difference solve), and kept
+    for the last sizes asked for: every level of a solve meets the same few sizes.
     """
+    return _derivative_matrix(n, order).copy()
+
+
+@lru_cache(maxsize=16)
+def _derivative_matrix(n: int, order: int) -> sp.csr_matrix:
+    """:func:`derivative_matrix`, cached (callers take copies)."""
     centre, half, edge = _stencils(order)
     rows, cols, vals = [], [], []
 
