@@ -913,10 +913,11 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
         levels = levels[~limit.spurious(eq, levels)]
     targets = {i: r for i, r in enumerate(found) if r.kind in ("bound", "quasi-bound", "supercritical")}
     labels: dict[int, str] = {}
-    for k, e0 in enumerate(levels):
-        e = complex(e0)
-        for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
-            e = _follow(_operator(eq, limit.mesh, V + 1j * lam * WV, S + 1j * lam * WS), e)
+    arrived = [complex(e) for e in levels]
+    for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
+        M = _operator(eq, limit.mesh, V + 1j * lam * WV, S + 1j * lam * WS)     # one matrix per step, for every level
+        arrived = [_follow(M, e) for e in arrived]
+    for k, e in enumerate(arrived):
         for i, r in targets.items():
             if i not in labels and abs(e - r.complex_energy) <= tol * max(abs(e), scale):
                 labels[i] = eq.label(k + 1 + eq.l)
