@@ -915,8 +915,8 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     labels: dict[int, str] = {}
     arrived = [complex(e) for e in levels]
     for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
-        M = _operator(eq, limit.mesh, V + 1j * lam * WV, S + 1j * lam * WS)     # one matrix per step, for every level
-        arrived = [_follow(M, e) for e in arrived]
+        # one matrix per step, for every level (held no longer: the next step's is built without it)
+        arrived = _follow(_operator(eq, limit.mesh, V + 1j * lam * WV, S + 1j * lam * WS), arrived)
     for k, e in enumerate(arrived):
         for i, r in targets.items():
             if i not in labels and abs(e - r.complex_energy) <= tol * max(abs(e), scale):
@@ -929,8 +929,12 @@ def _real_limit(V, S, exterior):
     return V - 1j * np.where(exterior, 0.0, V.imag), S - 1j * np.where(exterior, 0.0, S.imag)
 
 
-def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
-    """Eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
+def _follow(M: np.ndarray, starts: list[complex]) -> list[complex]:
+    """For each e in ``starts``: the eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
+    return [_follow_one(M, e) for e in starts]
+
+
+def _follow_one(M: np.ndarray, e: complex, steps: int = 6) -> complex:
     n = M.shape[0]
     x = np.ones(n, dtype=complex) / math.sqrt(n)
     for it in range(steps):
