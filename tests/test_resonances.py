@@ -765,3 +765,39 @@ def test_dirac_hydrogen_estimates_cover_the_rounding_of_the_rest_energy(order):
     for r, e in zip(res.resonances, exact):
         assert abs(r.energy - e) <= r.energy_error
         assert r.energy_error <= 1e-10
+
+
+def test_dirac_reference_run_is_built_once_and_each_level_tested_once(monkeypatch):
+    # the matrix of the reference run (first angle, full order) was built three times (its eigen solve, the
+    # spurious test of the stable eigenvalues, the labels' count) and every bound level had its spurious test,
+    # an LU and inverse iteration, twice; exact 3d3/2 and 4d3/2 at Z = 10 from the Sommerfeld-Dirac formula
+    # (Bethe and Salpeter 1957; tests/exact.py)
+    from exact import dirac_coulomb
+
+    mod = importlib.import_module("boundkit.resonances")
+    built, tested = [], []
+    operator, spurious = mod._operator, mod._spurious
+    monkeypatch.setattr(mod, "_operator", lambda eq, mesh, V, S: built.append((mesh.theta, mesh.order))
+                        or operator(eq, mesh, V, S))
+    monkeypatch.setattr(mod, "_spurious", lambda eq, mesh, M, energies: tested.extend(complex(e) for e in energies)
+                        or spurious(eq, mesh, M, energies))
+    res = boundkit.resonances("dirac", "coulomb", {"Z": 10}, kappa=2, window=(-15.0, -2.5))
+    assert [r.label for r in res.resonances] == ["3d3/2", "4d3/2"]
+    assert [r.energy for r in res.resonances] == pytest.approx([dirac_coulomb(10, n, 2) for n in (3, 4)], rel=1e-7)
+    assert res.diagnostics["spurious"] == 1
+    assert sorted(built) == [(0.25, 8), (0.25, 12), (0.35, 12)]
+    assert len(tested) >= 3 and len(tested) == len(set(tested))
+
+
+def test_absorptive_labels_build_one_matrix_per_step_for_all_levels(monkeypatch):
+    # following the real limit's levels to V_R + i lam W (8 steps) built the operator at each lam once per
+    # level (5 levels of hydrogen l = 1 here: 40 builds); exact hydrogen 2p, 3p at -1/8, -1/18 hartree
+    mod = importlib.import_module("boundkit.resonances")
+    built = []
+    operator = mod._operator
+    monkeypatch.setattr(mod, "_operator", lambda eq, mesh, V, S: built.append(mesh.order) or operator(eq, mesh, V, S))
+    W = lambda r: -0.3 * np.exp(-r / 0.3)        # noqa: E731
+    res = boundkit.resonances("schrodinger", "coulomb", {"Z": 1}, l=1, window=(-0.2, -0.04), absorptive=W)
+    assert [r.label for r in res.resonances] == ["2p", "3p"]
+    assert [r.energy for r in res.resonances] == pytest.approx([-1 / 8, -1 / 18], abs=1e-3)
+    assert len(built) == 3 + 3 + 8          # the three runs, the real limit's three, one per step

@@ -317,6 +317,29 @@ _TOP_SHARE = 0.01   # share of an eigenvector's norm in the top Legendre mode of
 # for the true levels of point charges Z = 1 to 92 and finite nuclei, 1e-18 for most)
 
 
+@dataclass(repr=False)
+class _Run:
+    """What a run's later readers take from it instead of rebuilding it: the samples V and S and the
+    exterior mask of its mesh, and for Dirac (whose spurious test reads them) the mesh and the matrix,
+    with the spurious verdicts of its eigenvalues as they are computed (:meth:`spurious`)."""
+
+    V: np.ndarray
+    S: np.ndarray
+    exterior: np.ndarray
+    mesh: ScaledMesh | None = None
+    M: np.ndarray | None = None
+    verdicts: dict = field(default_factory=dict)
+
+    def spurious(self, eq, energies) -> np.ndarray:
+        """:func:`_spurious` of the eigenvalues ``energies`` of this run's matrix, each computed once (the
+        stable eigenvalues are tested in :func:`resonances`, the bound ones again in the labels)."""
+        energies = [complex(e) for e in energies]
+        todo = [e for e in dict.fromkeys(energies) if e not in self.verdicts]
+        if todo:
+            self.verdicts.update(zip(todo, _spurious(eq, self.mesh, self.M, todo).tolist()))
+        return np.array([self.verdicts[e] for e in energies], dtype=bool)
+
+
 def _spurious(eq, mesh: ScaledMesh, M: np.ndarray, energies) -> np.ndarray:
     """For each eigenvalue of M in ``energies``: True when its eigenvector is a spurious solution of
     the Dirac discretization (an element-by-element oscillation, not a state of the equation).
@@ -630,12 +653,21 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         raise _window_too_big(size)
     t0 = time.perf_counter()
 
-    def run(th, o, edges=edges, r0=plan["r0"]):
+    kept: dict[str, _Run] = {}
+
+    def run(th, o, edges=edges, r0=plan["r0"], keep=False):
         mesh = build_mesh(edges, o, r0, th)
-        return _operator(eq, mesh, *_sample(pot, mesh, analytic))
+        V, S = _sample(pot, mesh, analytic)
+        M = _operator(eq, mesh, V, S)
+        if keep:
+            # the reference run, which the spurious test and the labels read again (its mesh and matrix
+            # only for Dirac: the other equations' labels need the samples alone)
+            dirac = eq.name == "dirac"
+            kept["ref"] = _Run(V, S, mesh.exterior, mesh if dirac else None, M if dirac else None)
+        return M
 
     runs = [(th, order) for th in angles] + [(angles[0], orders[0])]
-    spectra, failed = _spectra(runs, lambda key: run(*key))
+    spectra, failed = _spectra(runs, lambda key: run(*key, keep=key == runs[0]))
     if failed is not None:
         (th, o), exc = failed
         log.warning("complex eigen solve failed at theta = %g, order %d: %s", th, o, exc)
@@ -645,10 +677,8 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     found, rejected, in_window, order_only = _stable(spectra, angles, orders, (emin, emax), tol, eq)
     spurious = 0
     if eq.name == "dirac" and found:
-        mesh = build_mesh(edges, order, plan["r0"], angles[0])
         with one_blas_thread():
-            bad = _spurious(eq, mesh, _operator(eq, mesh, *_sample(pot, mesh, analytic)),
-                            [r.complex_energy for r in found])
+            bad = kept["ref"].spurious(eq, [r.complex_energy for r in found])
         spurious = int(np.sum(bad))
         if spurious:
             log.info("dropped %d spurious Dirac solution(s) of the equal-order elements", spurious)
@@ -666,7 +696,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
         with one_blas_thread():
             found = _label_by_continuity(found, eq, edges, plan["r0"], angles, order, pot, analytic,
-                                         (emin, emax), tol, spectra)
+                                         (emin, emax), tol, spectra, kept["ref"])
     settings.update({"window_hartree": [emin, emax], "angles_rad": list(angles), "orders": list(orders),
                      "tol": tol, "r0_bohr": plan["r0"], "r_max_bohr": plan["r_max"], "elements": len(edges) - 1,
                      "element_size_bohr": plan["h"], "scaling": "uniform" if plan["r0"] == 0 else "exterior",
@@ -812,7 +842,7 @@ def _pair(window) -> tuple:
     return a, b
 
 
-def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, window, tol, spectra):
+def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, window, tol, spectra, ref):
     """Name bound, quasi-bound and dived levels after the real-limit level they continue.
 
     The real limit keeps Re V (and Re S) on the real segment. Its levels are the eigenvalues that
@@ -823,21 +853,31 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     eigenvalue it arrives at. A level whose path arrives nowhere keeps its generic label; a level
     the mesh cannot resolve (far below the window) is missed by the count, which shifts n. Spurious
     Dirac solutions (:func:`_spurious`) are not counted.
+
+    ``ref`` is the reference run of ``spectra`` (first angle, this order), :class:`_Run`. Without an
+    absorptive part the real limit is that run, whose eigenvalues and spurious verdicts are read as
+    they are; with one, the real limit's three runs are solved here.
     """
-    meshes = [build_mesh(edges, order, r0, th) for th in angles[:2]]
-    V, S = _sample(pot, meshes[0], analytic)
-    ext = meshes[0].exterior
+    V, S, ext = ref.V, ref.S, ref.exterior
     # the physical imaginary part lives on the real segment (R0 lies beyond it); on the rotated
     # segment the tail is complex only through z and stays as it is
     WV = np.where(ext, 0.0, V.imag)
     WS = np.where(ext, 0.0, S.imag)
     absorbing = bool(np.any(WV) or np.any(WS))
     V, S = _real_limit(V, S, ext)
+    limit = ref
     if absorbing:
+        mesh0 = ref.mesh if ref.mesh is not None else build_mesh(edges, order, r0, angles[0])
+        limit = _Run(V, S, ext, mesh0)
+
         def build(k):
             if k == 0:
-                return _operator(eq, meshes[0], V, S)
-            m = meshes[1] if k == 1 else build_mesh(edges, order - 4, r0, angles[0])
+                M = _operator(eq, mesh0, V, S)
+                if eq.name == "dirac":
+                    limit.M = M                # read again by the spurious test
+                return M
+            th, o = (angles[1], order) if k == 1 else (angles[0], order - 4)
+            m = build_mesh(edges, o, r0, th)
             return _operator(eq, m, *_real_limit(*_sample(pot, m, analytic), m.exterior))
 
         got, failed = _spectra([0, 1, 2], build)
@@ -870,13 +910,14 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     levels = levels[levels.real <= window[1] + 0.5 * (window[1] - window[0])]
     if eq.name == "dirac" and levels.size:
         # a spurious solution of the elements (see _spurious) is no level: counted, it raised every n by one
-        levels = levels[~_spurious(eq, meshes[0], _operator(eq, meshes[0], V, S), levels)]
+        levels = levels[~limit.spurious(eq, levels)]
     targets = {i: r for i, r in enumerate(found) if r.kind in ("bound", "quasi-bound", "supercritical")}
     labels: dict[int, str] = {}
-    for k, e0 in enumerate(levels):
-        e = complex(e0)
-        for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
-            e = _follow(_operator(eq, meshes[0], V + 1j * lam * WV, S + 1j * lam * WS), e)
+    arrived = [complex(e) for e in levels]
+    for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
+        # one matrix per step, for every level (held no longer: the next step's is built without it)
+        arrived = _follow(_operator(eq, limit.mesh, V + 1j * lam * WV, S + 1j * lam * WS), arrived)
+    for k, e in enumerate(arrived):
         for i, r in targets.items():
             if i not in labels and abs(e - r.complex_energy) <= tol * max(abs(e), scale):
                 labels[i] = eq.label(k + 1 + eq.l)
@@ -888,8 +929,12 @@ def _real_limit(V, S, exterior):
     return V - 1j * np.where(exterior, 0.0, V.imag), S - 1j * np.where(exterior, 0.0, S.imag)
 
 
-def _follow(M: np.ndarray, e: complex, steps: int = 6) -> complex:
-    """Eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
+def _follow(M: np.ndarray, starts: list[complex]) -> list[complex]:
+    """For each e in ``starts``: the eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
+    return [_follow_one(M, e) for e in starts]
+
+
+def _follow_one(M: np.ndarray, e: complex, steps: int = 6) -> complex:
     n = M.shape[0]
     x = np.ones(n, dtype=complex) / math.sqrt(n)
     for it in range(steps):
