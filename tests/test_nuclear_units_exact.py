@@ -70,3 +70,20 @@ def test_a_term_instance_is_converted_once(built_in):
         exact = HBARC_MEV_FM * math.sqrt(k / m) * (2 * lv.nodes + 1.5)
         got, est = hartree_to(lv.energy, "MeV"), hartree_to(lv.error_estimate, "MeV")
         assert abs(got - exact) <= max(est, 4e-16 * exact), (lv.label, got / exact - 1, est / exact)
+
+
+def test_a_term_built_in_stated_atomic_units_is_not_read_as_nuclear():
+    """A Term made with units='atomic' states its units: solve(units='nuclear') must keep them (it re-read its
+    numbers as MeV and fm, silently, since an explicit 'atomic' could not be told from the default). Reference:
+    the oscillator's hbar omega (2 n_r + l + 3/2) in atomic units, omega = sqrt(k / m) (common practice)."""
+    from boundkit.potentials import TERMS
+    from boundkit.units import mass_mev_to_au
+
+    m_mev, k = 938.0, 2.0                              # MeV (illustrative) and hartree/bohr^2
+    term = TERMS["oscillator"](units="atomic", k=k)
+    res = boundkit.solve("schrodinger", term, {}, l=0, levels=2, tol=1e-13, mass_mev=m_mev, units="nuclear")
+    assert res.success, res.message
+    m = mass_mev_to_au(m_mev)
+    for lv in res.levels:
+        exact = math.sqrt(k / m) * (2 * lv.nodes + 1.5)                 # hartree
+        assert abs(lv.energy - exact) <= max(lv.error_estimate, 4e-16 * exact), (lv.label, lv.energy / exact - 1)

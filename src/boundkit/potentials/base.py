@@ -128,11 +128,12 @@ class Term:
     Parameter values are checked in ``__init__``: unknown names, missing
     required values and non-finite numbers raise :class:`ValueError`.
 
-    Unit systems: a term built from numbers in atomic units reads MeV and fm
-    in the nuclear system through :meth:`in_system`. A term whose numbers
-    already carry their own units (built with ``units='nuclear'``, a table
-    with a units line, a model file with ``units = ...``, a term already
-    wrapped) sets ``fixed_units = True`` and is never converted again.
+    Unit systems: a term built without ``units`` has its numbers read in the
+    caller's system: as they are in atomic units, as MeV and fm in the nuclear
+    system (through :meth:`in_system`). A term whose numbers carry stated units
+    (built with ``units='nuclear'`` or ``units='atomic'``, a table with a units
+    line, a model file with ``units = ...``, a term already wrapped) sets
+    ``fixed_units = True`` and is never converted again.
     """
 
     name: ClassVar[str] = "term"
@@ -142,7 +143,7 @@ class Term:
     source: ClassVar[str] = ""
     far: ClassVar[str] = "zero"
 
-    def __init__(self, units: str = "atomic", **params: float) -> None:
+    def __init__(self, units: str | None = None, **params: float) -> None:
         from ..units import to_atomic, unit_label
 
         known = {p.name for p in self.parameters}
@@ -156,7 +157,7 @@ class Term:
         for p in self.parameters:
             if p.name in params:
                 value = params[p.name]
-                if units != "atomic" and _is_number(value):
+                if units not in (None, "atomic") and _is_number(value):
                     shown = "" if p.unit in ("", "1", "e") else " " + unit_label(p.unit, units)
                     self.given[p.name] = f"{float(value):g}{shown}"
                     value = to_atomic(float(value), p.unit, units)
@@ -168,8 +169,10 @@ class Term:
                 raise OptionError(f"{lead}params={{{p.name!r}: 1}} (--param {p.name}=1 on the command line)",
                                   f"{lead}--param {p.name}=1")
         self.values: dict[str, float] = values
-        if units != "atomic":
-            self.fixed_units = True     # its values are in atomic units now: in_system must not convert again
+        if units is not None:
+            # stated units: its values are in atomic units now (converted if they were nuclear), and in_system
+            # must not read them again in a caller's system (an explicit 'atomic' was re-read as MeV and fm)
+            self.fixed_units = True
         self._validate()
 
     def _validate(self) -> None:
