@@ -622,16 +622,16 @@ def test_contour_lengths_follow_the_call_units():
     """r0, r_max and h were read in bohr under units='nuclear' (phases' hard_core reads fm there): r_max = 40
     meant as fm asked for a 40-bohr mesh of 4e6 unknowns. They now follow the call's units; the settings keep
     bohr (fm per bohr: alpha hbar c / E_h, boundkit.units.FM_PER_BOHR, from scipy.constants)."""
-    from boundkit.units import FM_PER_BOHR, MEV_IN_HARTREE
+    from boundkit.units import FM_PER_BOHR
 
     ws = {"depth": 50.0, "radius": 5.0, "diffuseness": 0.6}
     res = boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
-                              window=(0.1 * MEV_IN_HARTREE, 10 * MEV_IN_HARTREE), r0=12.0, r_max=40.0)
+                              window=(0.1, 10.0), r0=12.0, r_max=40.0)
     assert res.settings["r0_bohr"] == pytest.approx(12.0 / FM_PER_BOHR, rel=1e-15)
     assert res.settings["r_max_bohr"] == pytest.approx(40.0 / FM_PER_BOHR, rel=1e-15)
     with pytest.raises(ValueError, match=r"^r0: must be >= 0 fm, got -1$"):
         boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
-                            window=(0.1 * MEV_IN_HARTREE, 10 * MEV_IN_HARTREE), r0=-1.0)
+                            window=(0.1, 10.0), r0=-1.0)
 
 
 # --- Dirac kappa > 0 at a point charge: no spurious level at the kappa < 0 energy ------------------
@@ -693,7 +693,7 @@ def test_cli_resonances_nuclear_units_message_and_json_lengths():
     assert data["contour"]["r0"] == pytest.approx(data["settings"]["r0_bohr"] * per, rel=1e-12)
     assert data["contour"]["r_max"] == pytest.approx(data["settings"]["r_max_bohr"] * per, rel=1e-12)
     res = boundkit.resonances("schrodinger", lambda r: -50 * np.exp(-r / 2), units="nuclear", particle="neutron",
-                              window=(1 * MEV_IN_HARTREE, 6 * MEV_IN_HARTREE))
+                              window=(1.0, 6.0))
     assert res.to_dict()["units"]["length"] == "fm" and res.to_dict(length_unit="bohr")["units"]["length"] == "bohr"
 
 
@@ -710,7 +710,7 @@ def test_window_too_big_names_the_options_on_the_command_line():
                                          r"r_max$"):
         boundkit.resonances("schrodinger", "woods-saxon", {"depth": 50, "radius": 4, "diffuseness": 0.6},
                             units="nuclear", particle="neutron", l=4,
-                            window=(0.05 * MEV_IN_HARTREE, 15 * MEV_IN_HARTREE))
+                            window=(0.05, 15.0))
 
 
 def test_uniform_scaling_without_analytic_names_the_option_on_the_command_line():
@@ -801,3 +801,22 @@ def test_absorptive_labels_build_one_matrix_per_step_for_all_levels(monkeypatch)
     assert [r.label for r in res.resonances] == ["2p", "3p"]
     assert [r.energy for r in res.resonances] == pytest.approx([-1 / 8, -1 / 18], abs=1e-3)
     assert len(built) == 3 + 3 + 8          # the three runs, the real limit's three, one per step
+
+
+def test_window_follows_the_call_units_as_phase_shifts_energies_do():
+    """window was read in hartree under units='nuclear' (where r0, r_max, h and phase_shifts' energies read
+    fm and MeV): window=(0.1, 10) meant as MeV was 0.1 to 10 hartree (2.7 eV to 272 eV). It now reads the
+    call's energy unit (MeV there), or ``energy_unit`` when given; the settings keep hartree.
+    Hartree per MeV from boundkit.units.MEV_IN_HARTREE (scipy.constants, CODATA)."""
+
+    ws = {"depth": 50.0, "radius": 5.0, "diffuseness": 0.6}
+    res = boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
+                              window=(0.1, 10.0), r0=12.0, r_max=40.0)
+    assert res.settings["window_hartree"] == pytest.approx([0.1 * MEV_IN_HARTREE, 10.0 * MEV_IN_HARTREE], rel=1e-15)
+    res_kev = boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
+                                  window=(100.0, 10000.0), energy_unit="keV", r0=12.0, r_max=40.0)
+    assert res_kev.settings["window_hartree"] == pytest.approx(res.settings["window_hartree"], rel=1e-15)
+    assert [r.energy for r in res_kev.resonances] == [r.energy for r in res.resonances]
+    with pytest.raises(ValueError, match=r"^window: need lower < upper, got \(5, 1\) MeV$"):
+        boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
+                            window=(5.0, 1.0))

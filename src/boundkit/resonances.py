@@ -88,7 +88,8 @@ from ._threads import inside, one_blas_thread, usable_cores
 from ._checks import OptionError, check_finite, check_int, check_positive
 from ._rounding import beside, rounding_floor
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
-from .units import C_AU, bohr_to, constants_record, hartree_to, system_units, to_atomic
+from .units import C_AU, ENERGY_UNITS, bohr_to, constants_record, hartree_to, system_units, to_atomic
+from .units import energy_unit as canonical_energy_unit
 
 __all__ = ["Resonance", "ResonanceResult", "resonances"]
 
@@ -537,7 +538,8 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                r_max: float | None = None, h: float | None = None, analytic: Callable | None = None,
                absorptive=None, absorptive_params: dict | None = None, tol: float = 1e-6,
                particle: str | None = None, mass_mev: float | None = None,
-               nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic") -> ResonanceResult:
+               nucleus_mass_mev: float | None = None, scalar=None, units: str = "atomic",
+               energy_unit: str | None = None) -> ResonanceResult:
     """Resonances, bound and quasi-bound levels with Re E in ``window`` by complex scaling.
 
     Parameters
@@ -546,7 +548,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         As in :func:`boundkit.solve`. Callables may return complex values
         (a complex potential).
     window : (float, float)
-        Range of the real part of the binding energy, hartree.
+        Range of the real part of the binding energy, in ``energy_unit``.
     angles : sequence of float
         Scaling angles theta in radians, 0 < theta < pi/2, at least two
         (default 0.25 and 0.35), one of them at least 0.05 rad from the
@@ -575,6 +577,9 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         ``potential`` (names, callables, terms) with its own parameters.
     tol : float
         Relative stability required of an eigenvalue over angles and orders.
+    energy_unit : str, optional
+        Unit of ``window``: by default that of the call's system, hartree (MeV with ``units='nuclear'``,
+        as for :func:`boundkit.phase_shifts` and the command line). The settings keep the window in hartree.
 
     Returns
     -------
@@ -603,9 +608,11 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     from .potentials.optical import ComplexCallableTerm, ImaginaryPart
     from .solver import setup
 
-    emin, emax = (check_finite("window", w) for w in _pair(window))
+    e_unit = canonical_energy_unit(energy_unit or system_units(units)[0])
+    emin, emax = (check_finite("window", w) for w in _pair(window, e_unit))
     if not emin < emax:
-        raise ValueError(f"window: need lower < upper, got ({emin:g}, {emax:g}) hartree")
+        raise ValueError(f"window: need lower < upper, got ({emin:g}, {emax:g}) {e_unit}")
+    emin, emax = emin / ENERGY_UNITS[e_unit], emax / ENERGY_UNITS[e_unit]      # hartree from here on
     angles = check_angles("angles", angles)
     order = check_int("order", order, minimum=6)
     tol = check_positive("tol", tol)
@@ -834,11 +841,11 @@ def _spectra(keys, build):
     return out, None
 
 
-def _pair(window) -> tuple:
+def _pair(window, unit: str = "hartree") -> tuple:
     try:
         a, b = window
     except (TypeError, ValueError):
-        raise ValueError(f"window: expected (lower, upper) in hartree, got {window!r}") from None
+        raise ValueError(f"window: expected (lower, upper) in {unit}, got {window!r}") from None
     return a, b
 
 

@@ -74,7 +74,7 @@ def resonances_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, ta
         kwargs = {k: v for k, v in (("particle", particle), ("mass_mev", mass_mev),
                                     ("nucleus_mass_mev", nucleus_mass_mev)) if v is not None}
         per = ENERGY_UNITS[unit]
-        res = resonances(equation, vector, values, window=(lo / per, hi / per), l=l, kappa=kappa, angles=thetas,
+        res = resonances(equation, vector, values, window=(lo, hi), energy_unit=unit, l=l, kappa=kappa, angles=thetas,
                          order=order, r0=r0, r_max=r_max, tol=tol, scalar=scalar or None, units=unit_system,
                          analytic=True if analytic else None, **kwargs)
     except ValueError as exc:

@@ -185,7 +185,8 @@ def follow_dived(equation: str, potential, params: Mapping[str, Any], *, label: 
         for lo, hi in ((1.6, 0.6), (3.0, 0.25)):
             window = (-2 * mc2 - lo * D, -2 * mc2 - hi * D)
             res = resonances(equation, rebuild_potential(potential, values, varied), values,
-                             scalar=rebuild_potential(scalar, values, varied), window=window, angles=angles,
+                             scalar=rebuild_potential(scalar, values, varied), window=window, energy_unit="hartree",
+                             angles=angles,
                              order=order, **channel, **setup_kwargs)
             hits = [r for r in res.resonances if r.label == label and r.kind == "supercritical"]
             if hits:
