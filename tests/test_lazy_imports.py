@@ -98,3 +98,16 @@ def test_cli_help_loads_neither_numpy_nor_scipy():
         print([m for m in ("numpy", "scipy") if m in sys.modules])
     """)], check=True, capture_output=True, text=True).stdout
     assert out.strip() == "[]"
+
+
+def test_a_run_without_figures_loads_no_matplotlib(tmp_path):
+    """A run spec whose [solve] asks for no figure (and no shifts) does not import matplotlib: 0.45 s of
+    pyplot that every such run paid while [solve] imported the plot functions up front."""
+    spec = tmp_path / "h.toml"
+    spec.write_text('title = "H"\ndescription = "hydrogen"\nequations = ["schrodinger"]\n'
+                    '[models.h]\nterms = ["coulomb"]\nparams = { Z = 1 }\n[solve]\nfigures = []\n')
+    loaded = _loaded_after(f"""
+        from boundkit.runspec import run
+        assert run({str(spec)!r}, {str(tmp_path / "out")!r}, progress=False).success
+    """)
+    assert "matplotlib" not in loaded

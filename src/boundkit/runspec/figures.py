@@ -40,8 +40,13 @@ class FigureWriter:
         self.files.append(name)
         self.figures.append((name, caption))
 
-    def _solve_figures(self, sec, by_model, radial_figure, density_figure, level_diagram) -> None:
+    def _solve_figures(self, sec, by_model) -> None:
+        """The figures [solve] asks for; matplotlib is imported only when there is one to draw."""
         spec = self.spec
+        if not sec.figures or not any(lvs for per_eq in by_model.values() for lvs in per_eq.values()):
+            return
+        from ..plots import density_figure, level_diagram, level_scheme, radial_figure
+
         for mname, per_eq in by_model.items():
             label = spec.models[mname].label
             for eq, lvs in per_eq.items():
@@ -66,8 +71,6 @@ class FigureWriter:
                                 pot, groups, p, energy_unit=self.e_unit, length_unit=self.l_unit,
                                 title=f"{label}: potential and levels"))
         if "levels" in sec.figures and len(by_model) > 1:
-            from ..plots import level_scheme
-
             for eq in sec.equations:
                 groups = {spec.models[m].label: per_eq[eq] for m, per_eq in by_model.items() if per_eq.get(eq)}
                 if len(groups) > 1:

@@ -27,7 +27,6 @@ class SolveRunner:
     """Runs the [solve] section."""
 
     def _solve(self, sec: SolveSection) -> None:
-        from ..plots import density_figure, level_diagram, radial_figure
         from ..solver import solve
 
         spec = self.spec
@@ -143,7 +142,7 @@ class SolveRunner:
                 out["shifts"] = shifts
                 self._shift_figure(sec.reference, shifts)
         self.results["solve"] = out
-        self._solve_figures(sec, by_model, radial_figure, density_figure, level_diagram)
+        self._solve_figures(sec, by_model)
         self._solve_report(sec, rows, diffs, shifts)
 
     def _describe_model(self, mname: str) -> dict:
