@@ -7,6 +7,7 @@ and every text of the figure lies inside the saved canvas (nothing clipped).
 """
 from __future__ import annotations
 
+import os
 import types
 
 import matplotlib
@@ -115,3 +116,24 @@ def test_one_draw_saves_the_tight_box_and_clips_no_text(kind, levels, saved, tmp
 def test_vector_figures_keep_matplotlib_s_tight_crop(suffix, levels, tmp_path):
     path = plots.radial_figure(levels["dirac"], tmp_path / f"r{suffix}")
     assert path.exists() and path.stat().st_size > 1000
+
+
+def test_a_forked_process_parses_math_text_with_its_own_fonts(levels, tmp_path):
+    """Labels parsed before a fork hold the parent's fonts, whose files the child would read at the
+    shared file offsets: a run's figure was lost to 'FT_Load_Glyph failed: invalid outline' while the
+    helper process drew beside the run. A child starts a parser of its own."""
+    plots.radial_figure(levels["dirac"], tmp_path / "before.png")       # parses the axis label's math
+    parent = plots._Canvas._parser
+    assert parent is not None
+    pid = os.fork()
+    if pid == 0:    # pragma: no cover - the child reports through its exit code
+        code = 1
+        try:
+            fresh = plots._Canvas._parser is None
+            plots.radial_figure(levels["dirac"], tmp_path / "child.png")
+            code = 0 if fresh and plots._Canvas._parser is not parent else 2
+        finally:
+            os._exit(code)
+    assert os.waitpid(pid, 0)[1] == 0
+    assert plots._Canvas._parser is parent
+    assert (tmp_path / "child.png").read_bytes() == (tmp_path / "before.png").read_bytes()
