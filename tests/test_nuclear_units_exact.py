@@ -87,3 +87,24 @@ def test_a_term_built_in_stated_atomic_units_is_not_read_as_nuclear():
     for lv in res.levels:
         exact = math.sqrt(k / m) * (2 * lv.nodes + 1.5)                 # hartree
         assert abs(lv.energy - exact) <= max(lv.error_estimate, 4e-16 * exact), (lv.label, lv.energy / exact - 1)
+
+
+@pytest.mark.parametrize("stated", ["atomic", "nuclear"])
+def test_a_varied_term_with_stated_units_keeps_them(stated):
+    """scan, critical and the dived-state study rebuild a prebuilt term at each point of a varied parameter: the
+    rebuilt term had no units, so its other parameters (atomic already) were read again as MeV and fm under
+    units='nuclear' (a review found it: a Yukawa term's 2 bohr became 2 fm, 'too weak to bind anything').
+    The varied value is read in the call's system, as for a term given by name. Reference: the single solve of
+    the same term."""
+    from boundkit.potentials import TERMS
+    from boundkit.units import FM_PER_BOHR
+
+    length = 2.0 if stated == "atomic" else 2.0 * FM_PER_BOHR          # 2 bohr either way
+    t = TERMS["yukawa"](units=stated, Z=1, screening_length=length)
+    one = boundkit.solve("schrodinger", t, {}, l=0, levels=1, mass_mev=0.51099895, units="nuclear")
+    assert one.success, one.message
+    res = boundkit.scan("schrodinger", t, {}, {"Z": [1.0, 1.5]}, l=0, levels=1, mass_mev=0.51099895,
+                        units="nuclear", workers=1, progress=False)
+    rows = {r["point"]["Z"] if "point" in r else r["Z"]: r for r in res.rows}
+    assert rows[1.0]["energy"] == pytest.approx(one.levels[0].energy, rel=1e-12), rows[1.0]
+    assert rows[1.5]["energy"] < rows[1.0]["energy"]

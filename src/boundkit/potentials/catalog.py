@@ -104,8 +104,7 @@ class ModelSpec:
             raise ValueError(f"potential file {self.path}: key 'term': unknown built-in {self.term!r}; "
                              f"built-ins are {', '.join(sorted(TERMS))}")
         used: set = set()
-        term = _make_term(self.term, values, used, self.units)
-        term.fixed_units = True
+        term = _make_term(self.term, values, used, self.units)       # stated units: fixed_units is set
         return term, used | (set(self.parameters) & set(params))
 
 

@@ -106,9 +106,7 @@ class TermEntry:
             if unused:
                 raise ValueError(f"params: the expression takes no parameter {unused[0]!r}")
             return term                      # make_potential reads it in the spec's unit system
-        term = _make_term(self.name, self.params, set(), units)   # atomic units from here on
-        term.fixed_units = True                                    # make_potential converts it no more
-        return term
+        return _make_term(self.name, self.params, set(), units)   # stated units: make_potential converts it no more
 
     def describe(self) -> str:
         """A short readable name of the term, e.g. ``table well.txt`` or ``scalar woods-saxon``."""

@@ -143,23 +143,31 @@ def resolve_params(params: Mapping[str, Any] | None, point: Mapping[str, float])
     return out
 
 
-def _rebuild_term(term: Term, values: Mapping[str, Any], names: set) -> Term:
+def _rebuild_term(term: Term, values: Mapping[str, Any], names: set, units: str = "atomic") -> Term:
+    """``term`` with the parameters ``names`` set to the point's ``values`` (read in the call's ``units``). A term
+    with stated units (``fixed_units``) holds its other values in atomic units already: it is rebuilt in atomic
+    units, the point's values converted, and keeps them stated."""
     from ..potentials.expression import ExpressionTerm
+    from ..units import to_atomic
 
-    new = {**term.values, **{n: values[n] for n in names}}
+    point = {n: values[n] for n in names}
     if isinstance(term, ExpressionTerm):
-        out = ExpressionTerm(term.formula, new)
+        out = ExpressionTerm(term.formula, {**term.values, **point})
         out.label = term.label
         return out
     if type(term) in TERMS.values():
-        return type(term)(**new)
+        if not term.fixed_units:
+            return type(term)(**{**term.values, **point})
+        unit = {p.name: p.unit for p in term.parameters}
+        point = {n: to_atomic(float(v), unit[n], units) if isinstance(v, (int, float)) else v for n, v in point.items()}
+        return type(term)(units="atomic", **{**term.values, **point})
     raise ValueError(f"vary: parameter {sorted(names)[0]!r} is fixed inside the prebuilt term {term!r}; "
                      "pass the term by name (or as an expression) so that it can be rebuilt at each point")
 
 
-def rebuild_potential(spec, values: Mapping[str, Any], varied: set):
+def rebuild_potential(spec, values: Mapping[str, Any], varied: set, units: str = "atomic"):
     """``spec`` with every prebuilt :class:`Term` that holds a varied parameter
-    rebuilt with the point's values (names and callables pass through)."""
+    rebuilt with the point's values, read in the call's ``units`` (names and callables pass through)."""
     if spec is None:
         return None
     single = isinstance(spec, (str, Term)) or callable(spec)
@@ -169,7 +177,7 @@ def rebuild_potential(spec, values: Mapping[str, Any], varied: set):
         if isinstance(item, Term):
             names = set(getattr(item, "values", {})) & set(varied)
             if names:
-                item = _rebuild_term(item, values, names)
+                item = _rebuild_term(item, values, names, units)
         out.append(item)
     return out[0] if single else out
 

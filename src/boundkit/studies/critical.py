@@ -896,8 +896,9 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
 
     def build(p: float, equation: str = eqname):
         values = resolve_params(params, {vary: p})
-        return setup(equation, rebuild_potential(potential, values, varied), values,
-                     scalar=rebuild_potential(scalar, values, varied), **channel, **setup_kwargs)
+        units = setup_kwargs.get("units", "atomic")
+        return setup(equation, rebuild_potential(potential, values, varied, units), values,
+                     scalar=rebuild_potential(scalar, values, varied, units), **channel, **setup_kwargs)
 
     check_varied(potential, scalar, [vary])
     if bracket is not None:
