@@ -820,3 +820,11 @@ def test_window_follows_the_call_units_as_phase_shifts_energies_do():
     with pytest.raises(ValueError, match=r"^window: need lower < upper, got \(5, 1\) MeV$"):
         boundkit.resonances("schrodinger", "woods-saxon", ws, l=3, particle="neutron", units="nuclear",
                             window=(5.0, 1.0))
+
+
+def test_none_stable_message_quotes_the_window_in_its_own_unit():
+    """The message of an empty window converted it to the call's system unit, not the energy_unit it was given in
+    (a review: '[5.5124, 5.87989] hartree' for a window of 150..160 eV)."""
+    res = boundkit.resonances("schrodinger", barrier, window=(150, 160), energy_unit="eV")
+    assert res.status == "none-stable"
+    assert re.search(r"no eigenvalue with Re E in \[150, 160\] eV is stable", res.message), res.message

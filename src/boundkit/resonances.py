@@ -88,8 +88,8 @@ from ._threads import inside, one_blas_thread, usable_cores
 from ._checks import OptionError, check_finite, check_int, check_positive
 from ._rounding import beside, rounding_floor
 from .complex_scaling import ScaledMesh, build_mesh, element_edges
-from .units import C_AU, ENERGY_UNITS, bohr_to, constants_record, hartree_to, system_units, to_atomic
-from .units import energy_unit as canonical_energy_unit
+from .units import (C_AU, ENERGY_UNITS, bohr_to, call_energy_unit, constants_record, hartree_to, system_units,
+                    to_atomic)
 
 __all__ = ["Resonance", "ResonanceResult", "resonances"]
 
@@ -608,7 +608,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     from .potentials.optical import ComplexCallableTerm, ImaginaryPart
     from .solver import setup
 
-    e_unit = canonical_energy_unit(energy_unit or system_units(units)[0])
+    e_unit = call_energy_unit(energy_unit, units)
     emin, emax = (check_finite("window", w) for w in _pair(window, e_unit))
     if not emin < emax:
         raise ValueError(f"window: need lower < upper, got ({emin:g}, {emax:g}) {e_unit}")
@@ -721,9 +721,8 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
                                  + (f" ({len(broad)} broad: orders {order}, {order + 4} and R0 moved out by 20 %)"
                                     if broad else ""))
     else:
-        eu = system_units(units)[0]           # the window as the call's unit system reads energies
-        status, message = "none-stable", (f"no eigenvalue with Re E in [{hartree_to(emin, eu):g}, "
-                                          f"{hartree_to(emax, eu):g}] {eu} is stable to "
+        status, message = "none-stable", (f"no eigenvalue with Re E in [{hartree_to(emin, e_unit):g}, "
+                                          f"{hartree_to(emax, e_unit):g}] {e_unit} is stable to "
                                           f"{tol:g} over the angles and orders ({in_window} moved: rotated "
                                           "continuum); try larger angles or a wider window") + _slow_origin(eq, pot)
     if analytic is None and plan["r0"] * _wavenumber(eq, max(emax, 0.0)) > 20:

@@ -255,6 +255,12 @@ def system_units(system: str = "atomic") -> tuple[str, str]:
     return ("MeV", "fm") if system == "nuclear" else ("hartree", "bohr")
 
 
+def call_energy_unit(asked: str | None, system: str = "atomic") -> str:
+    """Canonical name of a call's energy unit: the ``energy_unit`` it ``asked`` for, else that of its unit
+    ``system`` (hartree, or MeV with ``'nuclear'``)."""
+    return energy_unit(asked or system_units(system)[0])
+
+
 def constants_record() -> dict:
     """The constants a result was computed with, for reports and JSON."""
     return {

@@ -251,9 +251,9 @@ def level_count(n: int, max_levels: int | None = None) -> int:
 
 def report_unit(energy_unit: str | None, unit_system: str) -> str:
     """Canonical name of the unit of reported energies: ``--energy-unit``, else hartree (MeV with --units nuclear)."""
-    from ..units import energy_unit as canonical_unit
+    from ..units import call_energy_unit
 
-    return canonical_unit(energy_unit or ("MeV" if unit_system == "nuclear" else "hartree"))
+    return call_energy_unit(energy_unit, unit_system)
 
 
 def report_length(length_unit: str | None, unit_system: str) -> str:

@@ -57,8 +57,8 @@ from ..discretize import get_method
 from ..solver import setup, solve_channel, table_error
 from .._threads import inside, one_blas_thread
 from ..states import convert_label
-from ..units import (C_AU, bohr_to, constants_record, energy_unit as canonical_unit, hartree_to, length_unit,
-                     system_units)
+from ..units import (C_AU, bohr_to, call_energy_unit, constants_record, energy_unit as canonical_unit, hartree_to,
+                     length_unit, system_units)
 from ._common import (StudyError, canonical_equation, check_varied, describe, parameter_units,
                       rebuild_potential, resolve_params, seeded_level, state_channel)
 
@@ -876,7 +876,7 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
                          f"{', '.join(_SETUP_KEYS)}, order")
     disc = get_method(method, solve_kwargs.pop("order", None))
     setup_kwargs = {k_: v for k_, v in solve_kwargs.items() if k_ in _SETUP_KEYS}
-    e_unit = canonical_unit(energy_unit or system_units(setup_kwargs.get("units", "atomic"))[0])
+    e_unit = call_energy_unit(energy_unit, setup_kwargs.get("units", "atomic"))
 
     def energy_text(x: float, spec: str) -> str:
         """An energy (hartree) in the caller's unit, with the unit named."""
