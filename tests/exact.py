@@ -287,3 +287,16 @@ def solve_case(case: Case):
     import boundkit
 
     return boundkit.solve(**case.kwargs())
+
+
+@functools.lru_cache(maxsize=1)
+def benchmark_baselines():
+    """The benchmark's own yardsticks, benchmarks/baselines.py (no boundkit in it), loaded as a module."""
+    import importlib.util
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parents[1] / "benchmarks" / "baselines.py"
+    spec = importlib.util.spec_from_file_location("boundkit_bench_baselines", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module

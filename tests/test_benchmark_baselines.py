@@ -8,17 +8,13 @@ eq. 14.29; standard), alpha from scipy.constants (CODATA).
 """
 from __future__ import annotations
 
-import importlib.util
-from pathlib import Path
-
 import numpy as np
 import pytest
 import scipy.constants as sc
 
-_PATH = Path(__file__).resolve().parents[1] / "benchmarks" / "baselines.py"
-_spec = importlib.util.spec_from_file_location("boundkit_bench_baselines", _PATH)
-bl = importlib.util.module_from_spec(_spec)
-_spec.loader.exec_module(bl)
+from exact import benchmark_baselines
+
+bl = benchmark_baselines()
 
 
 def _hydrogen(n, l=0):

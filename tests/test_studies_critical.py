@@ -2,10 +2,8 @@
 from __future__ import annotations
 
 import functools
-import importlib.util
 import math
 import re
-from pathlib import Path
 
 import mpmath as mp
 import pytest
@@ -18,7 +16,7 @@ import boundkit
 from boundkit.cli import main
 
 from boundkit.studies import CriticalResult, NuclearRadius, StudyError, critical
-from exact import HBARC_MEV_FM
+from exact import HBARC_MEV_FM, benchmark_baselines
 from boundkit.studies._common import parse_state, state_channel
 from boundkit.studies.critical import UNDECIDED_VIA, _exponents, _extrapolate
 from boundkit.units import C_AU
@@ -225,11 +223,7 @@ def _yukawa_1s_critical_screening_length() -> float:
     DOP853 from a series start to r = 40 bohr, where exp(-r/D) ~ 1e-21, root on D by brentq. Changing
     r_max (40 -> 70), the start (1e-6 -> 1e-5) and rtol (1e-13 -> 3e-14) moves the root by < 1e-14
     (measured)."""
-    path = Path(__file__).resolve().parents[1] / "benchmarks" / "baselines.py"
-    spec = importlib.util.spec_from_file_location("boundkit_bench_baselines", path)
-    baselines = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(baselines)
-    return baselines.yukawa_1s_critical_length()
+    return benchmark_baselines().yukawa_1s_critical_length()
 
 
 @pytest.mark.parametrize("start", [

@@ -635,24 +635,23 @@ def _level_on_grid(eq, pot, gamma, r_core, disc, mesh, size, E_seed, k, lo, hi, 
     op = FactorizedOperator(_MeanAtJumps(eq, grid, sides) if grid.on_jumps else eq, grid,
                             _grid_sample(pot, grid, sides), gamma, r_core, E_ref=E_seed)
     A, B = op.pencil(E_seed)
-    # the eigenvalue nearest the seed first: when it qualifies (in the window, within reach, k nodes) it
-    # is the one the rule below takes from the whole spectrum or the six nearest (the nearest that qualifies)
+
+    def near(lam) -> bool:
+        return lo < lam < hi and abs(lam - E_seed) < reach
+
+    # the eigenvalue nearest the seed first: when it qualifies (near, with k nodes) it is the one the rule
+    # below takes from the whole spectrum or the six nearest (the nearest that qualifies)
     got = nearest_pair(A, B, E_seed)
-    if got is not None and lo < got[0] < hi and abs(got[0] - E_seed) < reach and _nodes_of(op, got[1]) == k:
-        ref = refine(op, got[0], got[1])
-        return op, ref, _nodes_of(op, ref.vector)
-    if grid.dense:
-        lam, vec = dense_pencil(A, B)
-    else:
-        lam, vec = shift_invert(A, B, E_seed, k=6)
-    near = [i for i in range(len(lam)) if lo < lam[i] < hi and abs(lam[i] - E_seed) < reach]
-    pick = [i for i in near if _nodes_of(op, vec[:, i]) == k] or (near if math.isfinite(reach) else [])
-    if not pick:
-        return None
-    i = min(pick, key=lambda i: abs(lam[i] - E_seed))
-    ref = refine(op, lam[i], vec[:, i])
-    nodes = _nodes_of(op, ref.vector)
-    return op, ref, nodes
+    if got is None or not (near(got[0]) and _nodes_of(op, got[1]) == k):
+        lam, vec = dense_pencil(A, B) if grid.dense else shift_invert(A, B, E_seed, k=6)
+        close = [i for i in range(len(lam)) if near(lam[i])]
+        pick = [i for i in close if _nodes_of(op, vec[:, i]) == k] or (close if math.isfinite(reach) else [])
+        if not pick:
+            return None
+        i = min(pick, key=lambda i: abs(lam[i] - E_seed))
+        got = lam[i], vec[:, i]
+    ref = refine(op, *got)
+    return op, ref, _nodes_of(op, ref.vector)
 
 
 def _state(eq, op: FactorizedOperator, E: float, y) -> RadialState:
