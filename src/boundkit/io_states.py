@@ -27,6 +27,7 @@ import numpy as np
 from .observables import LENGTH_UNITS, KG_NOTE, length_unit as canonical_length_unit
 from .states import level_n
 from .units import energy_unit as energy_unit_name, hartree_to
+from .wavefunctions import regular_values
 
 __all__ = ["write_states", "read_states", "states_csv_text", "STATE_FORMATS"]
 
@@ -41,8 +42,9 @@ def _columns(level, unit: str):
     st = level.state
     scale = LENGTH_UNITS[unit]
     r = st.r * scale
-    P = st.P / np.sqrt(scale)
-    Q = (np.zeros_like(st.P) if st.Q is None else st.Q) / np.sqrt(scale)
+    P, Q = regular_values(st)       # what every observable reads (the nodal values, less a finite nucleus' admixture)
+    P = P / np.sqrt(scale)
+    Q = (np.zeros_like(st.P) if Q is None else Q) / np.sqrt(scale)
     dens = st.density(st.r) / scale
     return r, P, Q, dens, st.weights * scale
 

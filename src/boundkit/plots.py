@@ -18,6 +18,7 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: E402
 from matplotlib.mathtext import MathTextParser  # noqa: E402
 
 from . import palette  # noqa: E402
+from .wavefunctions import regular_values  # noqa: E402
 
 __all__ = ["convergence_figure", "save_figure", "radial_figure", "density_figure", "level_diagram",
            "level_scheme", "draw_level_scheme", "spread_labels", "shift_figure"]
@@ -287,7 +288,8 @@ def radial_figure(levels, path, *, length_unit: str = "bohr", title: str | None 
         for lv in lvs:
             st = lv.state
             have_kg = have_kg or st.density_weight is not None
-            comps = (st.P,) if st.Q is None else (st.P, st.Q)
+            P, Q = regular_values(st)
+            comps = (P,) if Q is None else (P, Q)
             fine, smooth = _smooth(st.r, *comps, r_top=r_top / scale)
             colour = colours[i]
             ax.plot(fine * scale, smooth[0] * norm, color=colour, lw=1.6, label=f"{_curve_label(group, lv)}  P")

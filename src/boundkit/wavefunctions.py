@@ -36,6 +36,7 @@ decayed by about e^-42).
 """
 from __future__ import annotations
 
+import math
 from functools import lru_cache
 
 import numpy as np
@@ -307,8 +308,7 @@ def origin_series(state, terms: int = _SERIES_TERMS) -> dict | None:
 
 def _fit_series(state, terms: int):
     rn = state.r
-    last = state.elements[0][1] if state.elements else len(rn) - 1
-    last = min(last, int(np.searchsorted(rn, _SERIES_SPAN * rn[0], side="right")) - 1)
+    last = min(state.elements[0][1], int(np.searchsorted(rn, _SERIES_SPAN * rn[0], side="right")) - 1)
     if last + 1 < terms + 3:
         return None
     g = float(state.gamma)
@@ -316,8 +316,7 @@ def _fit_series(state, terms: int):
     out = {"scale": float(rn[last])}
     for name, values, lead, irregular in (("P", state.P, g, 1.0 - g), ("Q", state.Q, g + 1.0, -g)):
         y = values[: last + 1] / s**lead
-        basis = np.column_stack([s ** (irregular - lead)] + [s**i for i in range(terms)])
-        pinv = np.linalg.pinv(basis)
+        basis, pinv = _series_basis(s.tobytes(), irregular - lead, terms)
         coef = pinv @ y
         if not (np.all(np.isfinite(coef)) and coef[1] != 0.0):
             return None
@@ -329,17 +328,30 @@ def _fit_series(state, terms: int):
     return out
 
 
+@lru_cache(maxsize=64)
+def _series_basis(s_bytes: bytes, irregular: float, terms: int) -> tuple[np.ndarray, np.ndarray]:
+    """(basis, its pseudo-inverse) of :func:`origin_series`' fit on the scaled radii s (given as bytes: the states
+    of one grid and exponent share it; read-only)."""
+    s = np.frombuffer(s_bytes)
+    basis = np.column_stack([s**irregular] + [s**i for i in range(terms)])
+    pinv = np.linalg.pinv(basis)
+    for a in (basis, pinv):
+        a.flags.writeable = False
+    return basis, pinv
+
+
 def _irregular(series, name: str, r: np.ndarray, gamma: float) -> np.ndarray:
     """The irregular solution's part of component ``name`` at radii ``r`` (:func:`origin_series`)."""
     s = r / series["scale"]
     return series[name][0][0] * s ** ((1.0 - gamma) if name == "P" else -gamma)
 
 
-def _regular_series(series, name: str, r: np.ndarray, gamma: float) -> np.ndarray:
-    """The regular series of component ``name`` at radii ``r`` (:func:`origin_series`)."""
+def _regular_series(state, series, name: str, r: np.ndarray, gamma: float) -> np.ndarray:
+    """The regular series of component ``name`` at radii ``r`` (:func:`origin_series`), in the normalisation of
+    :func:`regular_values`."""
     s = r / series["scale"]
     coef = series[name][0]
-    return s ** (gamma + (name == "Q")) * np.polyval(coef[:0:-1], s)
+    return _regular_norm(state) * s ** (gamma + (name == "Q")) * np.polyval(coef[:0:-1], s)
 
 
 def regular_values(state) -> tuple[np.ndarray, np.ndarray | None]:
@@ -349,8 +361,17 @@ def regular_values(state) -> tuple[np.ndarray, np.ndarray | None]:
     on that element): Q's part falls like r^(-2 gamma - 1) relative to Q (1e-16 of it near 12 R at Z = 83),
     P's like r^(1 - 2 gamma) (it is the same solution: its P is left beside Q's end, 1e-14 of P there).
     It stops before an element where either part grows against its component (the component decays
-    faster: out of the origin's region; Z = 20 near 1 bohr, where P's part was 5e-8 of P)."""
+    faster: out of the origin's region; Z = 20 near 1 bohr, where P's part was 5e-8 of P). The values are then
+    normalised again (the solver normalised them with the admixture: the norm of the rest was 1 - 4e-14 at a
+    Z = 92 sphere, twice the estimate of <1>); the series below r_min carries the same factor
+    (:func:`_regular_norm`)."""
     return _memo(state, "regular values", lambda: _regular_values(state))
+
+
+def _regular_norm(state) -> float:
+    """The factor :func:`regular_values` normalised the nodal values by (1 without an admixture taken off)."""
+    regular_values(state)
+    return state.memo.get("regular norm", 1.0)
 
 
 def _regular_values(state):
@@ -360,7 +381,7 @@ def _regular_values(state):
     P, Q = state.P.copy(), state.Q.copy()
     g = float(state.gamma)
     before = np.array([np.inf, np.inf])
-    for a, b in (state.elements or ((0, len(state.r) - 1),)):
+    for a, b in state.elements:
         r = state.r[a:b + 1]
         dp, dq = _irregular(series, "P", r, g), _irregular(series, "Q", r, g)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -373,7 +394,9 @@ def _regular_values(state):
         if part[1] <= np.finfo(float).eps:
             break
         before = part
-    return P, Q
+    factor = 1.0 / math.sqrt(float(state.weights @ (P * P + Q * Q)))
+    state.memo["regular norm"] = factor
+    return P * factor, Q * factor
 
 
 def origin_coefficient(state, component: str = "P", points: int = 2, own_power: bool = False) -> float:
@@ -397,7 +420,7 @@ def origin_coefficient(state, component: str = "P", points: int = 2, own_power: 
     series = origin_series(state, _SERIES_TERMS + points - 2)
     if series is not None:      # the fitted series' leading coefficient (points - 2 more terms than the default)
         power = state.gamma + (component == "Q")
-        return float(series[component][0][1]) / series["scale"] ** power
+        return _regular_norm(state) * float(series[component][0][1]) / series["scale"] ** power
     if shift == -1 and not own_power:
         raise ValueError(f"component: {component} of this state goes like r^(gamma - 1) at the origin (kappa > 0 "
                          f"without a point charge there, gamma = {state.gamma:g}), so {component} / r^gamma has no "
@@ -434,8 +457,8 @@ def origin_noise(state, component: str | None = None) -> float:
 
 def _origin_noise(state, component: str | None = None) -> float:
     series = origin_series(state)
-    if series is not None:       # the fit's residual: what is left of the nodal values is their rounding
-        return max(series[c][1] for c in ("P", "Q") if component in (None, c))
+    if series is not None:       # the fit's rounding carried to its coefficients: what the series below r_min carries
+        return max(series[c][2] for c in ("P", "Q") if component in (None, c))
     j = int(_origin_nodes(state.r, 2)[1])
     if j < 2:
         return 0.0
@@ -480,7 +503,7 @@ def _memo(state, key, make):
 def evaluate(state, r, component: str = "P") -> np.ndarray:
     """Value of one component (``"P"``, ``"Q"`` or ``"weight"``, the density
     weight) of ``state`` at radii ``r`` in bohr; see the module docstring.
-    At the state's own nodes (``r`` is ``state.r``) the nodal values themselves."""
+    At the state's own nodes (``r`` is ``state.r``) the nodal values (:func:`regular_values`)."""
     if r is not state.r:
         r = np.atleast_1d(np.asarray(r, dtype=float))
         if np.any(~np.isfinite(r)) or np.any(r < 0):
@@ -521,7 +544,7 @@ def components_at(state, r: np.ndarray, components) -> list[np.ndarray]:
             out[low, col] = _towards_origin(rn, f_i, state, r[low], gamma, origin_shift(state, components[i]))
         out[inside, col] *= _weight(r[inside], state.r_core, gamma)
         if own:
-            out[low, col] = _regular_series(series, components[i], r[low], gamma)
+            out[low, col] = _regular_series(state, series, components[i], r[low], gamma)
         if components[i] == "weight" and beyond.any():
             out[beyond, col] = values[-1]
         absent[i] = out[:, col]
