@@ -129,3 +129,16 @@ def test_klein_gordon_matrix_element(kg_s):
     assert abs(sign * q.value - exact) <= q.error
     assert abs(sign * q.value - exact) < 1e-10 * abs(exact)
 
+
+def test_klein_gordon_matrix_element_across_grids(kg_s):
+    # 1s and 2p are solved on grids of their own: the 2p's weight is read on the 1s's nodes, and at the
+    # node on the jump each element takes its own side (the nodal sum was 4.9e-8 off, twice its estimate)
+    (a, _), (ref_a, _) = kg_s
+    vector, _ = _well(V0)
+    b = boundkit.solve("klein-gordon", vector, l=1, levels=1).levels[0]
+    ref_b = State("klein-gordon", levels("klein-gordon", V0, 0, R, kappa=1)[0], V0, 0, R, kappa=1)
+    assert b.energy == pytest.approx(float(ref_b.E), rel=1e-13)
+    q = matrix_element(a, b, lambda r: r)
+    exact = float(ref_a.integral(lambda r: r, ref_b))
+    assert abs(q.value - exact) <= q.error
+    assert abs(q.value - exact) < 1e-10 * abs(exact)
