@@ -40,6 +40,11 @@ class RadialState:
     discretization family (``"spectral"`` or ``"finite-difference"``).
     ``density_weight`` is the weight of P^2 in the normalised density (the
     Klein-Gordon charge density (E + mc^2 - V)/(mc^2)), None when it is 1.
+    ``weight_sides`` holds, for each element end on a jump of the potential,
+    ``(node index, weight inside, weight outside)``: the weight jumps there,
+    and each element interpolates its own side's value; ``density_weight``
+    holds at that node the mean of the two by the elements' quadrature
+    weights, so that sums over the nodes integrate each element with its own.
     """
 
     r: np.ndarray
@@ -51,6 +56,7 @@ class RadialState:
     elements: tuple = ()
     family: str = ""
     density_weight: np.ndarray | None = None
+    weight_sides: tuple = ()
     memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
     """What :mod:`boundkit.wavefunctions` derives from the nodal values once per state (the values over
     their origin factor, ...): every matrix element and line involving the state reads them again.

@@ -533,6 +533,9 @@ def components_at(state, r: np.ndarray, components) -> list[np.ndarray]:
         out[mid] = interpolate_f(tn, fn, state.elements, state.family, np.log(r[mid]))
     if len(live) == 1:
         out = out[:, None]
+    i_w = components.index("weight") if "weight" in components else None
+    if mid.any() and state.weight_sides and i_w is not None and nodal[i_w] is not None:
+        out[mid, live.index(i_w)] += _side_correction(state, tn, np.log(r[mid]), nodal[i_w])
     low = r < rn[0]
     inside = low | mid
     beyond = r > rn[-1]
@@ -549,6 +552,22 @@ def components_at(state, r: np.ndarray, components) -> list[np.ndarray]:
             out[beyond, col] = values[-1]
         absent[i] = out[:, col]
     return absent
+
+
+def _side_correction(state, tn: np.ndarray, t: np.ndarray, nodal) -> np.ndarray:
+    """What each element's own side of the density weight at its ends on a jump (``state.weight_sides``)
+    adds to the interpolant of the weight's nodal values (f = weight / w there) at ``t`` (in [tn[0],
+    tn[-1]]): the node's cardinal function times (the side's value - the nodal one). A t on such a node
+    is read on the inner element (its inside value)."""
+    values, _, _, gamma = nodal
+    rows, k = cardinal_rows(tn, tuple(state.elements), t)
+    first = rows[:, 0]
+    out = np.zeros(len(t))
+    for j, w_in, w_out in state.weight_sides:
+        at = np.sum(np.where(rows == j, k, 0.0), axis=1)
+        side = np.where(first == j, w_out, w_in)
+        out += at * (side - values[j]) / _weight(state.r[j], state.r_core, gamma)
+    return out
 
 
 def _weight_exponent(rn: np.ndarray, w: np.ndarray) -> float:
