@@ -771,13 +771,9 @@ def density_at_origin(level) -> Quantity:
 
     value = coef(st)
     prev = None if level.previous_state is None else coef(level.previous_state)
-    series = origin_series(st)
-    if series is None:
-        noise = max(origin_noise(st, c) for c in lead)
-        spread = abs(coef(st, 3) - value)
-    else:       # the fitted series' leading coefficient: its rounding, and its change with one or two more terms
-        noise = max(series[c][2] for c in lead)
-        spread = max(abs(coef(st, p) - value) for p in (3, 4))
+    noise = max(origin_noise(st, c) for c in lead)      # with a fitted series, its leading coefficient's rounding
+    # the extrapolation's change with one more node, or the fitted series' with one or two more terms
+    spread = max(abs(coef(st, p) - value) for p in ((3,) if origin_series(st) is None else (3, 4)))
     error = max(_estimate(value, prev), spread) + 2 * noise * value
     g = st.gamma - 1 if shift == -1 else st.gamma
     power = "2 gamma - 2" if shift == -1 else "2 gamma"

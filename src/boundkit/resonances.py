@@ -320,14 +320,13 @@ _TOP_SHARE = 0.01   # share of an eigenvector's norm in the top Legendre mode of
 
 @dataclass(repr=False)
 class _Run:
-    """What a run's later readers take from it instead of rebuilding it: the samples V and S and the
-    exterior mask of its mesh, and for Dirac (whose spurious test reads them) the mesh and the matrix,
-    with the spurious verdicts of its eigenvalues as they are computed (:meth:`spurious`)."""
+    """What a run's later readers take from it instead of rebuilding it: the samples V and S, its mesh, and
+    for Dirac (whose spurious test reads it) the matrix, with the spurious verdicts of its eigenvalues as
+    they are computed (:meth:`spurious`)."""
 
     V: np.ndarray
     S: np.ndarray
-    exterior: np.ndarray
-    mesh: ScaledMesh | None = None
+    mesh: ScaledMesh
     M: np.ndarray | None = None
     verdicts: dict = field(default_factory=dict)
 
@@ -660,17 +659,17 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
         raise _window_too_big(size)
     t0 = time.perf_counter()
 
-    kept: dict[str, _Run] = {}
+    ref: _Run | None = None
 
     def run(th, o, edges=edges, r0=plan["r0"], keep=False):
+        nonlocal ref
         mesh = build_mesh(edges, o, r0, th)
         V, S = _sample(pot, mesh, analytic)
         M = _operator(eq, mesh, V, S)
         if keep:
-            # the reference run, which the spurious test and the labels read again (its mesh and matrix
-            # only for Dirac: the other equations' labels need the samples alone)
-            dirac = eq.name == "dirac"
-            kept["ref"] = _Run(V, S, mesh.exterior, mesh if dirac else None, M if dirac else None)
+            # the reference run, which the spurious test and the labels read again (its matrix only for Dirac,
+            # whose spurious test reads it: the other equations' labels need the samples and the mesh alone)
+            ref = _Run(V, S, mesh, M if eq.name == "dirac" else None)
         return M
 
     runs = [(th, order) for th in angles] + [(angles[0], orders[0])]
@@ -685,7 +684,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     spurious = 0
     if eq.name == "dirac" and found:
         with one_blas_thread():
-            bad = kept["ref"].spurious(eq, [r.complex_energy for r in found])
+            bad = ref.spurious(eq, [r.complex_energy for r in found])
         spurious = int(np.sum(bad))
         if spurious:
             log.info("dropped %d spurious Dirac solution(s) of the equal-order elements", spurious)
@@ -703,7 +702,7 @@ def resonances(equation: str = "schrodinger", potential="coulomb", params: dict 
     if any(r.kind in ("bound", "quasi-bound", "supercritical") for r in found):
         with one_blas_thread():
             found = _label_by_continuity(found, eq, edges, plan["r0"], angles, order, pot, analytic,
-                                         (emin, emax), tol, spectra, kept["ref"])
+                                         (emin, emax), tol, spectra, ref)
     settings.update({"window_hartree": [emin, emax], "angles_rad": list(angles), "orders": list(orders),
                      "tol": tol, "r0_bohr": plan["r0"], "r_max_bohr": plan["r_max"], "elements": len(edges) - 1,
                      "element_size_bohr": plan["h"], "scaling": "uniform" if plan["r0"] == 0 else "exterior",
@@ -864,7 +863,7 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     absorptive part the real limit is that run, whose eigenvalues and spurious verdicts are read as
     they are; with one, the real limit's three runs are solved here.
     """
-    V, S, ext = ref.V, ref.S, ref.exterior
+    V, S, ext = ref.V, ref.S, ref.mesh.exterior
     # the physical imaginary part lives on the real segment (R0 lies beyond it); on the rotated
     # segment the tail is complex only through z and stays as it is
     WV = np.where(ext, 0.0, V.imag)
@@ -873,8 +872,8 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     V, S = _real_limit(V, S, ext)
     limit = ref
     if absorbing:
-        mesh0 = ref.mesh if ref.mesh is not None else build_mesh(edges, order, r0, angles[0])
-        limit = _Run(V, S, ext, mesh0)
+        mesh0 = ref.mesh
+        limit = _Run(V, S, mesh0)
 
         def build(k):
             if k == 0:
@@ -922,7 +921,9 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     arrived = [complex(e) for e in levels]
     for lam in np.linspace(0.0, 1.0, 9)[1:] if absorbing else ():
         # one matrix per step, for every level (held no longer: the next step's is built without it)
-        arrived = _follow(_operator(eq, limit.mesh, V + 1j * lam * WV, S + 1j * lam * WS), arrived)
+        M = _operator(eq, limit.mesh, V + 1j * lam * WV, S + 1j * lam * WS)
+        arrived = [_follow_one(M, e) for e in arrived]
+        del M
     for k, e in enumerate(arrived):
         for i, r in targets.items():
             if i not in labels and abs(e - r.complex_energy) <= tol * max(abs(e), scale):
@@ -935,12 +936,8 @@ def _real_limit(V, S, exterior):
     return V - 1j * np.where(exterior, 0.0, V.imag), S - 1j * np.where(exterior, 0.0, S.imag)
 
 
-def _follow(M: np.ndarray, starts: list[complex]) -> list[complex]:
-    """For each e in ``starts``: the eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
-    return [_follow_one(M, e) for e in starts]
-
-
 def _follow_one(M: np.ndarray, e: complex, steps: int = 6) -> complex:
+    """The eigenvalue of M nearest to e, by Rayleigh-quotient inverse iteration."""
     n = M.shape[0]
     x = np.ones(n, dtype=complex) / math.sqrt(n)
     for it in range(steps):
