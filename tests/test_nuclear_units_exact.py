@@ -108,3 +108,19 @@ def test_a_varied_term_with_stated_units_keeps_them(stated):
     rows = {r["point"]["Z"] if "point" in r else r["Z"]: r for r in res.rows}
     assert rows[1.0]["energy"] == pytest.approx(one.levels[0].energy, rel=1e-12), rows[1.0]
     assert rows[1.5]["energy"] < rows[1.0]["energy"]
+
+
+def test_a_resumed_scan_tells_stated_units_from_none(tmp_path):
+    """A term built without units and one built with units='atomic' are different potentials under
+    units='nuclear', but the resume key fingerprinted name and values alone: the second scan into the same
+    folder reused the first one's point, 'solved 0 reused 1' (a tester). Reference: the same scan solved
+    afresh (no folder)."""
+    from boundkit.potentials import TERMS
+
+    kw = dict(l=0, levels=1, units="nuclear", workers=1, progress=False)
+    boundkit.scan("schrodinger", [TERMS["oscillator"](k=1.0), "coulomb"], None, {"Z": [1.0]}, out=tmp_path, **kw)
+    atomic = [TERMS["oscillator"](units="atomic", k=1.0), "coulomb"]
+    second = boundkit.scan("schrodinger", atomic, None, {"Z": [1.0]}, out=tmp_path, **kw)
+    fresh = boundkit.scan("schrodinger", atomic, None, {"Z": [1.0]}, **kw)
+    assert second.to_dict()["reused"] == 0
+    assert second.rows[0]["energy"] == fresh.rows[0]["energy"]

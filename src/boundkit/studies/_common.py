@@ -222,15 +222,18 @@ def identity(spec, unstable: list[str]) -> Any:
         inner = getattr(spec, "inner", None)
         if isinstance(inner, Term):
             return {"wrapper": type(spec).__qualname__, "inner": identity(inner, unstable)}
+        # stated units (values in atomic units already) and none (read in the call's system) are two potentials
+        # under units='nuclear': a resumed scan reused one's points for the other (a tester)
+        stated = {"fixed_units": True} if spec.fixed_units else {}
         if tabulated is not None and isinstance(spec, tabulated.TabulatedTerm):
             digest = hashlib.sha256(np.ascontiguousarray(spec.r, float).tobytes()
                                     + np.ascontiguousarray(spec.V, float).tobytes()).hexdigest()
             return {"table_sha256": digest, "origin": spec.origin, "tail": spec.tail, "degree": spec.degree,
-                    "tail_charge": spec.tail_charge}
+                    "tail_charge": spec.tail_charge, **stated}
         if isinstance(spec, ExpressionTerm):
-            return {"expression": spec.formula, "values": dict(spec.values)}
+            return {"expression": spec.formula, "values": dict(spec.values), **stated}
         if type(spec) in TERMS.values():
-            return {"term": spec.name, "values": dict(spec.values)}
+            return {"term": spec.name, "values": dict(spec.values), **stated}
         name = getattr(spec, "label", type(spec).__qualname__)
         unstable.append(str(name))
         return {"term": type(spec).__qualname__, "label": str(name)}
