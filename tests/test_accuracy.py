@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -142,3 +143,21 @@ def test_validation_fails_a_solver_that_skips_levels_or_misstates_its_errors(mon
             if r["case"] in ("Schrodinger Coulomb Z=1", "Dirac Coulomb Z=1")]
     assert rows and not any(r["passed"] for r in rows)
     assert all(r[field] > 0 for r in rows)
+
+
+def test_cross_check_says_in_the_message_what_the_other_family_did_not_confirm():
+    """cross_check=True on a square double well: the finite-difference family refined 2 of the 4 levels
+    (its own status 'partial'), and the result was status 'ok' with nothing in its message (a tester; the
+    table of the command line said 'not found by the other family', the API only in diagnostics rows).
+    Reference: the rows themselves, and the levels of the same well (two tunnelling doublets)."""
+    from boundkit.potentials.expression import ExpressionTerm
+
+    V = ExpressionTerm("where(r<3, 0, where(r<5, -3, where(r<11, 0, where(r<13, -3, 0))))")
+    res = boundkit.solve("schrodinger", V, l=0, levels="all", cross_check=True)
+    missing = [r["label"] for r in res.diagnostics["cross_check"] if r["other_energy"] is None]
+    assert len(res.levels) == 4 and missing
+    assert re.search(rf"cross-check \(finite-difference\): {4 - len(missing)} of 4 level\(s\) found by it; not "
+                     rf"{', '.join(missing)} \(its status partial", res.message), res.message
+    ok = boundkit.solve("dirac", "coulomb", {"Z": 20}, kappa=-1, levels=2, cross_check=True)
+    assert ok.message.endswith("cross-check (finite-difference): 2 of 2 level(s) found by it, within twice their "
+                               "joint estimates"), ok.message

@@ -2595,6 +2595,24 @@ def setup(equation: str = "schrodinger", potential=None, params: dict | None = N
     return eq, pot, settings
 
 
+def _cross_check_summary(rows: list[dict], other: str, res2) -> str:
+    """What the other family confirmed, for the message of a cross-checked solve: levels it did not find (with
+    its status) and levels further apart than twice their joint estimates are named."""
+    missing = [r["label"] for r in rows if r["other_energy"] is None]
+    apart = [r["label"] for r in rows if r["other_energy"] is not None
+             and not r["difference"] <= 2 * (r["error_estimate"] + r["other_error_estimate"])]
+    text = f"cross-check ({other}): {len(rows) - len(missing)} of {len(rows)} level(s) found by it"
+    if missing:
+        text += f"; not {', '.join(missing)} (its status {res2.status}: {res2.message})"
+    if apart:
+        text += f"; {', '.join(apart)} differ by more than twice their joint estimates"
+    if missing or apart:
+        log.info("%s", text)
+    elif rows:
+        text += ", within twice their joint estimates"
+    return text
+
+
 def solve(equation: str = "schrodinger", potential=None, params: dict | None = None, *,
           l: int | None = None, kappa: int | None = None, levels: int | str = 1, tol: float = 1e-10,
           method: str | Discretization = "auto", order: int | None = None, particle: str | None = None,
@@ -2701,5 +2719,6 @@ def solve(equation: str = "schrodinger", potential=None, params: dict | None = N
                          "other_energy": None if o is None else o.energy,
                          "other_error_estimate": None if o is None else o.error_estimate,
                          "difference": None if o is None else abs(lv.energy - o.energy)})
-        res = replace(res, diagnostics={**res.diagnostics, "cross_check": rows})
+        res = replace(res, diagnostics={**res.diagnostics, "cross_check": rows},
+                      message=f"{res.message}; {_cross_check_summary(rows, other.name, res2)}")
     return res if labels == "atomic" else res.with_labels(labels)
