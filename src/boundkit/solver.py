@@ -892,6 +892,9 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     """
     _check_scalar_far_constant(eq, pot, "atomic")
     found, tally, _, _, extra = _solve_elements(eq, pot, levels, 1e-12)
+    # their notes speak of this solve's tol, not the caller's (a finite-difference solve at tol 1e-10 quoted
+    # 'lies above tol 1e-12' of a level's potential-energy rounding: a tester)
+    tally.notes[:] = [f"locating the levels (spectral elements, tol 1e-12): {note}" for note in tally.notes]
     found = sorted(found, key=lambda lv: lv.energy)
     seeds = [lv.energy for lv in found]
     extra["seed_errors"] = [lv.error_estimate for lv in found]
