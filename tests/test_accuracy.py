@@ -158,6 +158,10 @@ def test_cross_check_says_in_the_message_what_the_other_family_did_not_confirm()
     assert len(res.levels) == 4 and missing
     assert re.search(rf"cross-check \(finite-difference\): {4 - len(missing)} of 4 level\(s\) found by it; not "
                      rf"{', '.join(missing)} \(its status partial", res.message), res.message
+    nuclear = boundkit.solve("schrodinger", V, l=0, levels="all", cross_check=True, labels="nuclear")
+    named = [r["label"] for r in nuclear.diagnostics["cross_check"] if r["other_energy"] is None]
+    assert named == [f"{int(label[0]) - 1}s" for label in missing]          # nuclear n = atomic n - 1 for s levels
+    assert f"not {', '.join(named)} (its status" in nuclear.message, nuclear.message      # a review: it said 1s, 3s
     ok = boundkit.solve("dirac", "coulomb", {"Z": 20}, kappa=-1, levels=2, cross_check=True)
     assert ok.message.endswith("cross-check (finite-difference): 2 of 2 level(s) found by it, within twice their "
                                "joint estimates"), ok.message

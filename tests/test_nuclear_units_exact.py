@@ -124,3 +124,18 @@ def test_a_resumed_scan_tells_stated_units_from_none(tmp_path):
     fresh = boundkit.scan("schrodinger", atomic, None, {"Z": [1.0]}, **kw)
     assert second.to_dict()["reused"] == 0
     assert second.rows[0]["energy"] == fresh.rows[0]["energy"]
+
+
+def test_varying_a_parameter_of_an_expression_with_units_of_its_own_is_refused():
+    """A model file's expression is built in its file's units and marked so; rebuilt for a scan point it lost the
+    mark and was converted again under units='nuclear' (a review). Its parameters declare no units, so a point's
+    value cannot be converted either: refused, with the ways that work."""
+    from boundkit.potentials.expression import ExpressionTerm
+    from boundkit.studies._common import rebuild_potential
+
+    t = ExpressionTerm("-V0*exp(-r)", {"V0": 2.0})
+    t.fixed_units = True
+    with pytest.raises(ValueError, match=r"^vary: parameter 'V0' is inside an expression with units of its own "
+                                         r"\(a model file's\); vary it through the model file in a run spec"):
+        rebuild_potential(t, {"V0": 3.0}, {"V0"}, "nuclear")
+    assert rebuild_potential(ExpressionTerm("-V0*exp(-r)", {"V0": 2.0}), {"V0": 3.0}, {"V0"}).values == {"V0": 3.0}

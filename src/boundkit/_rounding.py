@@ -15,6 +15,11 @@ import numpy as np
 
 ULPS = 4
 
+EXTENDED_LONG_DOUBLE = bool(np.finfo(np.longdouble).eps < 1e-18)
+"""Whether numpy's long double is an extended type (the 80-bit x87 format on x86 Linux and Intel macOS), not
+plain double (Windows, ARM macOS): the Lagrange-Laguerre mesh is built in it or in double-double arithmetic,
+and observables' rounding floor depends on it."""
+
 
 def rounding_floor(x):
     """``ULPS`` units in the last place of |x| (elementwise for arrays)."""

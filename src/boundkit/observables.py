@@ -71,6 +71,7 @@ from typing import Callable
 import numpy as np
 import scipy.constants as sc
 
+from ._rounding import EXTENDED_LONG_DOUBLE
 from .units import ALPHA, C_AU, LENGTH_UNITS, bohr_to, hartree_to, length_unit, mass_mev_to_au
 from .wavefunctions import cardinal_rows, components_at, origin_coefficient, origin_noise, origin_series, origin_shift
 
@@ -545,7 +546,7 @@ def _integral(sa, sb, f, kind: str = "density", breaks=()) -> float:
     return _integrals(sa, sb, f, kind, breaks)[0]
 
 
-VALUE_FLOOR = 2e-14 if np.finfo(np.longdouble).eps < 1e-18 else 1e-13
+VALUE_FLOOR = 2e-14 if EXTENDED_LONG_DOUBLE else 1e-13
 """The spectral family's relative rounding floor of an observable: 2e-14, as for the energies, where long
 double is extended (x86); 1e-13 where it is plain double (Windows, ARM macOS: the elements' residuals and
 matrices in double). Measured with numpy's longdouble taken as double on this machine (the default suite,

@@ -2722,6 +2722,8 @@ def solve(equation: str = "schrodinger", potential=None, params: dict | None = N
                          "other_energy": None if o is None else o.energy,
                          "other_error_estimate": None if o is None else o.error_estimate,
                          "difference": None if o is None else abs(lv.energy - o.energy)})
-        res = replace(res, diagnostics={**res.diagnostics, "cross_check": rows},
-                      message=f"{res.message}; {_cross_check_summary(rows, other.name, res2)}")
-    return res if labels == "atomic" else res.with_labels(labels)
+        res = replace(res, diagnostics={**res.diagnostics, "cross_check": rows})
+    res = res if labels == "atomic" else res.with_labels(labels)
+    if cross_check:         # after the labels: the summary names levels as the caller asked for them
+        res = replace(res, message=f"{res.message}; {_cross_check_summary(res.diagnostics['cross_check'], other.name, res2)}")
+    return res

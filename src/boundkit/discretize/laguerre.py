@@ -28,6 +28,8 @@ from functools import lru_cache
 import numpy as np
 from scipy.special import eval_laguerre, roots_laguerre
 
+from .._rounding import EXTENDED_LONG_DOUBLE
+
 __all__ = ["LaguerreMesh", "laguerre_mesh", "cardinal_matrix", "expand"]
 
 
@@ -72,7 +74,7 @@ def laguerre_mesh(n: int) -> LaguerreMesh:
 
 # numpy's long double is the x87 80-bit format on x86 Linux and Intel macOS, plain double on
 # Windows and ARM macOS; there the mesh is built in double-double arithmetic instead
-_EXTENDED = bool(np.finfo(np.longdouble).eps < 1e-18)
+_EXTENDED = EXTENDED_LONG_DOUBLE          # a module attribute: the tests build the mesh both ways
 
 
 def _built_extended(n: int):

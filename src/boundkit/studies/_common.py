@@ -152,6 +152,12 @@ def _rebuild_term(term: Term, values: Mapping[str, Any], names: set, units: str 
 
     point = {n: values[n] for n in names}
     if isinstance(term, ExpressionTerm):
+        if term.fixed_units:
+            # its values are in atomic units already and an expression declares no units for its parameters: a
+            # point's value could not be converted, and the term rebuilt without units was converted twice (a review)
+            raise ValueError(f"vary: parameter {sorted(names)[0]!r} is inside an expression with units of its own "
+                             "(a model file's); vary it through the model file in a run spec, or pass the expression "
+                             "as text so that it is read in the call's units")
         out = ExpressionTerm(term.formula, {**term.values, **point})
         out.label = term.label
         return out
