@@ -222,3 +222,19 @@ def test_finite_difference_shallow_yukawa_sum_level_within_its_estimate():
                          levels="all", method="finite-difference")
     (lv,) = res.levels
     assert abs(lv.energy - -4.2146165743466e-4) <= lv.error_estimate
+
+
+def test_finite_differences_give_the_locator_floor_as_a_reason_only_where_it_decides():
+    """The finite-difference family takes its levels from a spectral-element solve at tol 1e-12, whose floor
+    flags became the result's stated reason: a Hulthen 2s (delta = 0.499) at tol 5e-11 read 'carries the
+    rounding of its potential energy, which lies above it', a rounding of 9.5e-12 relative, below tol; the
+    estimate was the finite differences' own (a review). Hulthen l = 0 levels: E_n = -(Z m/n - n delta/2)^2/(2m)
+    (Flugge 1971, from memory), checked here only through the estimates."""
+    res = boundkit.solve("schrodinger", "hulthen", {"Z": 1, "delta": 0.499}, l=0, levels=2, tol=5e-11,
+                         method="finite-difference")
+    assert res.status == "tolerance-not-met"
+    assert "rounding of its potential energy" not in res.message, res.message
+    assert any("lies above tol 1e-12" in note for note in res.diagnostics["notes"])      # the locator's own note
+    for lv in res.levels:
+        exact = -(1 / lv.n - lv.n * 0.499 / 2) ** 2 / 2
+        assert abs(lv.energy - exact) <= lv.error_estimate

@@ -459,6 +459,7 @@ def _ladder_from(disc: Discretization, start: int) -> list[int]:
 
 
 _FD_SCATTER = 0.5      # a change above this fraction of the one before: scatter (see _estimate)
+_SEED_FLOORS = ("floor_hit", "potential_floor_hit", "merge_hit", "residual_hit")   # _Tally's floor reasons
 _FD_SEED_FACTOR = 2.0  # a finite-difference level's estimate is at least this times its located level's
 
 
@@ -2448,6 +2449,12 @@ def _solve_collocation(eq, pot, disc, levels, tol):
     """Finite differences (and a user's collocation family): refine the located levels per level."""
     ch = prepare_channel(eq, pot, levels)
     tally = ch.tally
+    # the locator's floors were judged against its own tol 1e-12: they are this result's reasons only where a
+    # located level's estimate (with its floors) decides a level's estimate here and exceeds tol (a review: a
+    # Hulthen 2s at tol 5e-11 was said to be held by a potential-energy rounding of 9.5e-12)
+    seed_floors = [name for name in _SEED_FLOORS if getattr(tally, name)]
+    for name in seed_floors:
+        setattr(tally, name, False)
     per_level = []
     found: list[Level] = []
     worst = 0.0
@@ -2517,6 +2524,9 @@ def _solve_collocation(eq, pot, disc, levels, tol):
             # Woods-Saxon 2p 2.5e-6 hartree below threshold was 270 times its Richardson estimate, at the
             # 3.2e-10 its located level's floor named (a tester). The finite differences round more than the
             # elements: with the floor itself two levels were still 1.08 and 1.22 times it; twice it
+            if _FD_SEED_FACTOR * seed_err[k] > max(est, tol * abs(E)):
+                for name in seed_floors:
+                    setattr(tally, name, True)
             est = max(est, _FD_SEED_FACTOR * seed_err[k])
         state = _state(eq, op, E, ref.vector)
         est = max(est, _cut_error(eq, pot, state, E))
