@@ -145,11 +145,12 @@ def _element_table_of(nodes: bytes, elements: tuple) -> tuple[np.ndarray, np.nda
     return index, weights, right
 
 
-def _spectral_eval(tn: np.ndarray, fn: np.ndarray, elements: tuple, t: np.ndarray) -> np.ndarray:
+def _spectral_eval(tn: np.ndarray, fn: np.ndarray, elements: tuple, t: np.ndarray, rows_k=None) -> np.ndarray:
     """The spectral family's interpolation (the polynomial through all nodes of the element holding
     each t, barycentric form), every t at once: t on a node shared by two elements takes the node's
-    value, as either element's polynomial does."""
-    rows, k = cardinal_rows(tn, elements, t)
+    value, as either element's polynomial does. ``rows_k``: :func:`cardinal_rows` at t, when the caller has
+    them."""
+    rows, k = cardinal_rows(tn, elements, t) if rows_k is None else rows_k
     return np.einsum("ij,ij...->i...", k, fn[rows])
 
 
@@ -529,13 +530,18 @@ def components_at(state, r: np.ndarray, components) -> list[np.ndarray]:
     fn = nodal[live[0]][2] if len(live) == 1 else np.stack([nodal[i][2] for i in live], axis=1)
     out = np.zeros(r.shape + fn.shape[1:])
     mid = (r >= rn[0]) & (r <= rn[-1])
+    i_w = components.index("weight") if "weight" in components else None
+    # a weight that jumps (weight_sides: spectral states only) reads the cardinal rows again: found once
+    sided = mid.any() and bool(state.weight_sides) and i_w is not None and nodal[i_w] is not None
     if mid.any():
-        out[mid] = interpolate_f(tn, fn, state.elements, state.family, np.log(r[mid]))
+        t_mid = np.log(r[mid])
+        rows_k = cardinal_rows(tn, tuple(state.elements), t_mid) if sided else None
+        out[mid] = (_spectral_eval(tn, fn, tuple(state.elements), t_mid, rows_k) if sided else
+                    interpolate_f(tn, fn, state.elements, state.family, t_mid))
     if len(live) == 1:
         out = out[:, None]
-    i_w = components.index("weight") if "weight" in components else None
-    if mid.any() and state.weight_sides and i_w is not None and nodal[i_w] is not None:
-        out[mid, live.index(i_w)] += _side_correction(state, tn, np.log(r[mid]), nodal[i_w])
+    if sided:
+        out[mid, live.index(i_w)] += _side_correction(state, *rows_k, nodal[i_w])
     low = r < rn[0]
     inside = low | mid
     beyond = r > rn[-1]
@@ -554,15 +560,14 @@ def components_at(state, r: np.ndarray, components) -> list[np.ndarray]:
     return absent
 
 
-def _side_correction(state, tn: np.ndarray, t: np.ndarray, nodal) -> np.ndarray:
+def _side_correction(state, rows: np.ndarray, k: np.ndarray, nodal) -> np.ndarray:
     """What each element's own side of the density weight at its ends on a jump (``state.weight_sides``)
-    adds to the interpolant of the weight's nodal values (f = weight / w there) at ``t`` (in [tn[0],
-    tn[-1]]): the node's cardinal function times (the side's value - the nodal one). A t on such a node
-    is read on the inner element (its inside value)."""
+    adds to the interpolant of the weight's nodal values (f = weight / w there) at the radii whose cardinal
+    rows and values are ``rows, k`` (:func:`cardinal_rows`): the node's cardinal function times (the side's
+    value - the nodal one). A t on such a node is read on the inner element (its inside value)."""
     values, _, _, gamma = nodal
-    rows, k = cardinal_rows(tn, tuple(state.elements), t)
     first = rows[:, 0]
-    out = np.zeros(len(t))
+    out = np.zeros(len(rows))
     for j, w_in, w_out in state.weight_sides:
         at = np.sum(np.where(rows == j, k, 0.0), axis=1)
         side = np.where(first == j, w_out, w_in)
@@ -646,4 +651,4 @@ def _radial_derivative(state):
     f = state.P / w
     dlogw = state.gamma * (state.r_core / (rn + state.r_core) if state.r_core > 0 else 1.0)
     rdP = w * (derivative_t(np.log(rn), f, state.elements, state.family) + dlogw * f)
-    return replace(state, P=rdP, Q=None, density_weight=None)
+    return replace(state, P=rdP, Q=None, density_weight=None, weight_sides=())
