@@ -100,7 +100,7 @@ def _check_nodes(ch: Channel, E: np.ndarray, tol: float, max_nodes, unit: str, l
     for e in E[::-1]:
         with np.errstate(over="ignore", invalid="ignore"):     # k of 1e300 hartree (Dirac) is inf
             k = float(wave_number(ch.eq.name, float(e), ch.eq.mass))
-            R = max(matching_radius(ch, float(e), tol, relative=True)[0], reach)
+            R = max(matching_radius(ch, float(e), tol)[0], reach)
             r0 = _start(ch, k)
             nodes = k * (R - r0) / math.pi
         if not nodes > max_nodes:
