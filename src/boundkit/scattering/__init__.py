@@ -42,6 +42,19 @@ Method.
    short-range potential it tends to 0 at high energy (Schrodinger) and
    delta(0) = n pi with n bound levels (Levinson's theorem, checked by
    :func:`levinson`).
+   A small phase with a free tail (delta_l ~ k^(2l+1) at low energy) is not read from u(R) and
+   u'(R): there u differs from the free regular solution F only by ~ delta / (k R)^(2l+1), and the
+   digits cancelled (a hard sphere's l = 20 phase at 1e-8 hartree was 1e11 times too large). The
+   integration carries the Wronskian Omega = F w - u w_F, whose derivative
+   w w_F (1/p_F - 1/p) + F u (q - q_F) vanishes where V does, so beta = -Omega / (k p_F) is
+   accumulated where the potential acts (or is F(a) w(a) at a hard core), with F kept as a
+   logarithm (no underflow); it is used where the integral of |Omega'| is below 0.1 of the
+   amplitude. Such a delta has relative accuracy: the matching radius also makes the first-order
+   bound of partial wave l beyond it (weight min((k r)^(2l+2) / ((2l+1)!!)^2, ...)) below tol/100
+   of its own total, and the estimate's bound beyond 1.25 R and its floor are relative to delta.
+   Below about 1e-290 rad delta leaves the double range; a delta whose estimate is as large as
+   itself is named in the message ("no relative accuracy") and in
+   ``diagnostics['no_relative_accuracy_hartree']``.
 4. The error estimate adds the cut of the potential at R (the change of
    delta read at 1.25 R in the same run, plus the first-order bound on the
    rest beyond 1.25 R) and the integration's error (the change when the

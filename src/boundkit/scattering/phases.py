@@ -31,6 +31,7 @@ _SECOND_RADIUS = 1.25   # ... and reads delta again at this multiple of the matc
 _START_CHECK = 10.0     # the loose run also starts this many times further out (the start's error)
 _K_EFFECTIVE = 0.01  # k x (length scale) of the lowest phase used for a relativistic effective range
 _BORN_TOP = 1.0      # Levinson grid ends where the first-order bound on |delta| falls below this (rad)
+_UNDERFLOW = 1e-290  # a |delta| below this is known only to lie below it (the double range ends near 1e-308)
 
 
 def _real_only():
@@ -161,29 +162,33 @@ def _matched(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     """(matches, error estimates, R1 values, range reached flags, the tables' part of the estimates or
     None without tables or estimate). The batch tolerance is divided by sqrt(number of components),
     because the step control measures the root mean square error of all of them."""
-    rr = [matching_radius(ch, float(e), tol) for e in E]
+    rr = [matching_radius(ch, float(e), tol, relative=True) for e in E]
     R1 = [R for R, _ in rr]
     rtol = _rtol(tol) / math.sqrt(2 * len(E))
     radii = [[R, _SECOND_RADIUS * R] if estimate else [R] for R in R1]
     tabled = estimate and bool(table_terms(ch.pot))
-    raws, evaluate = integrate(ch, E, radii, rtol, dense=tabled)
+    raws, evaluate = integrate(ch, E, radii, rtol, dense=tabled, wronskian=True)
     refs = integrate(ch.reference, E, radii, rtol)[0] if ch.reference else [[None] * len(r) for r in radii]
     matches = [match(ch, float(e), raw[0], rf[0]) for e, raw, rf in zip(E, raws, refs)]
     err = np.zeros(len(E))
     if estimate:
         one = [[R] for R in R1]
-        loose, _ = integrate(ch, E, one, loosened(rtol, _LOOSE), start_scale=_START_CHECK)
+        loose, _ = integrate(ch, E, one, loosened(rtol, _LOOSE), start_scale=_START_CHECK, wronskian=True)
         lrefs = integrate(ch.reference, E, one, loosened(rtol, _LOOSE))[0] if ch.reference else [[None]] * len(E)
         for i, e in enumerate(E):
-            d = matches[i].delta
+            d, small = matches[i].delta, matches[i].scale != 1.0
             # two sources, added: the potential cut at R (the change up to 1.25 R, both read in one run, plus
             # the first-order bound on the rest beyond 1.25 R) and the integration (the looser run, which also
             # starts further out). The larger of the two alone missed the other: Hulthen phases were 1.0-1.4
             # times their estimate. Never below the integration's own tolerance: two runs that share most of
-            # their steps agreed to 2e-16 where a pure point charge's phase was 2e-15 off its exact 0
-            cut = abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta) + tail_bound(ch, float(e),
-                                                                                         _SECOND_RADIUS * R1[i])
-            err[i] = max(cut + abs(d - match(ch, float(e), loose[i][0], lrefs[i][0]).delta), max(rtol, _RTOL_FLOOR))
+            # their steps agreed to 2e-16 where a pure point charge's phase was 2e-15 off its exact 0. A small
+            # delta read from the Wronskian (Match.scale: the size of its integral, ~ |delta|) has both the bound
+            # beyond 1.25 R and that floor relative to itself: the bound of partial wave l, and the tolerance
+            # times its scale (an absolute 1e-11 rad said nothing of a delta_20 of 1e-207)
+            cut = abs(d - match(ch, float(e), raws[i][1], refs[i][1]).delta) + tail_bound(
+                ch, float(e), _SECOND_RADIUS * R1[i], relative=small)
+            err[i] = max(cut + abs(d - match(ch, float(e), loose[i][0], lrefs[i][0]).delta),
+                         max(rtol, _RTOL_FLOOR) * matches[i].scale)
     table = _table_phase_error(ch, E, evaluate, raws, matches, R1) if tabled else None
     if table is not None:
         err = err + table
@@ -310,6 +315,12 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
         # the two repeated integrations can agree to the last bit (a deep well near threshold); no
         # estimate is below the rounding of delta itself, taken as 4 ulp (as for critical values)
         err = np.maximum(err, rounding_floor(delta))
+        # below about 1e-290 delta runs into the end of the double range (l = 50 at 1e-8 hartree: ~1e-530,
+        # returned as 0): it is then known only to lie below that
+        err = np.where(np.abs(delta) < _UNDERFLOW, np.maximum(err, _UNDERFLOW), err)
+    # a value whose estimate is as large as itself has no relative accuracy (a small delta_l divided by
+    # k^(2l+1) means nothing then): named in the message and the diagnostics, whatever the status
+    vague = [float(e) for e, d, er in zip(E, delta, err) if estimate and er >= abs(d)]
     # the branch is absolute (continuous in E); the largest step along the grid is kept as a diagnostic
     max_step = float(np.max(np.abs(np.diff(delta)))) if delta.size > 1 else 0.0
     worst_residual = float(np.nanmax(residual)) if len(residual) else 0.0
@@ -332,6 +343,11 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
                                                           if estimate else " (no error estimate asked)")
     if table is not None:
         msg += f"; {TABLE_ERROR_NOTE}: at most {float(np.max(table)):.2g} rad"
+    if vague:
+        shown = ", ".join(f"{e * ENERGY_UNITS[unit]:.4g}" for e in vague[:3]) + (", ..." if len(vague) > 3 else "")
+        msg += (f"; delta has no relative accuracy at {len(vague)} energ{'y' if len(vague) == 1 else 'ies'} "
+                f"(E = {shown} {unit}): its error estimate is as large as |delta| itself (below "
+                f"{_UNDERFLOW:g} rad it leaves the double range)")
     log.info("%s, %s: %s (%s)", eq.name, eq.channel(), status, msg)
     if ch.tail_b:
         reference = (f"{'Coulomb' if ch.tail_charge else 'free'} waves, with an inverse-square tail "
@@ -355,7 +371,7 @@ def _assemble(ch: Channel, E, matches, err, Rs, reached, tol, estimate, settings
         potential=settings.get("potential_name", repr(ch.pot)), reference=reference, branch=branch,
         success=status == "ok", status=status, message=msg, settings=settings, constants=constants_record(),
         diagnostics={"branch_residual_max": worst_residual, "max_step_along_grid": max_step,
-                     "seconds": time.perf_counter() - t0,
+                     "seconds": time.perf_counter() - t0, "no_relative_accuracy_hartree": vague,
                      **({} if table is None else {"table_error_rad": [float(x) for x in table]})})
 
 

@@ -43,6 +43,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.integrate import solve_ivp
+from scipy.special import spherical_jn
 
 from .._rounding import beside
 from ..equations import RadialEquation, Sample
@@ -60,6 +61,8 @@ _RANGE_GRID = 4000
 _RTOL_FLOOR = 3e-14   # DOP853 refuses rtol below 100 x machine epsilon
 _CHUNK = 2.0          # rescaling interval in ln r
 _FAR = 1e4            # the matching radius is sought up to this many natural lengths (or breakpoints)
+_SMALL = 0.1          # delta is read from the Wronskian with F when the integral of |Omega'| is below this
+                      # fraction of the amplitude (|delta| < 0.1 and no cancellation in that integral)
 
 
 @dataclass(frozen=True)
@@ -83,6 +86,12 @@ class Channel:
     def long_tail(self) -> bool:
         """A Coulomb or inverse-square tail: matched to Coulomb functions (mpmath), not free waves."""
         return self.tail_charge != 0.0 or self.tail_b != 0.0
+
+    @property
+    def free_wronskian(self) -> bool:
+        """Whether the integration can carry the Wronskian with the free regular solution (a free tail,
+        kappa = -(l + 1) or l, so that p (F' + kappa F / r) is a Riccati-Bessel function too)."""
+        return not self.long_tail and self.kappa in (-(self.eq.l + 1), self.eq.l)
 
     def sample(self, r) -> Sample:
         r = np.atleast_1d(np.asarray(r, dtype=float))
@@ -172,32 +181,62 @@ def prepare(eq: RadialEquation, pot: Potential, hard_core: float | None = None,
     return Channel(eq, pot, gamma, int(eq.kappa_eff), float(zt), hard_core, bps, L, r, v, reference, b_tail)
 
 
-def _tail_profile(ch: Channel, E: float) -> tuple[np.ndarray, np.ndarray]:
+def _tail_profile(ch: Channel, E: float, relative: bool = False) -> tuple[np.ndarray, np.ndarray]:
     """(r, B(r)) on the range profile: B(r) = integral_r^inf 2 m_E |V_sr| min(k s^2, 1/k) ds, the
     first-order bound on the phase change from the short-range part beyond r (see
-    :func:`matching_radius`)."""
+    :func:`matching_radius`). ``relative``: the bound of partial wave l instead (a free tail,
+    :func:`_free_weight`), which falls like (k r)^(2l+2) towards the origin, so that B(r) / B(0)
+    bounds the relative change of a small delta_l."""
     eq = ch.eq
     k = float(wave_number(eq.name, E, eq.mass)) if E > 0 else 0.0
     r, v = ch.r_grid, ch.v_grid
     if eq.name != "schrodinger":
         v = v * (1 + E / (eq.mass * C_AU**2))
-    weight = np.minimum(k * r**2, 1 / k) if k > 0 else r**2
+    if relative and k > 0:
+        weight = _free_weight(eq.l, k * r) / k
+    else:
+        weight = np.minimum(k * r**2, 1 / k) if k > 0 else r**2
     f = v * weight * r                      # integrand in ln r
     dlnr = math.log(r[1] / r[0])
     seg = 0.5 * (f[1:] + f[:-1]) * dlnr
     return r, np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
 
 
-def tail_bound(ch: Channel, E: float, R: float) -> float:
+def _free_weight(l: int, x: np.ndarray) -> np.ndarray:
+    """A bound on (x j_l(x))^2: min(x^(2l+2) / ((2l+1)!!)^2, (1 + 0.2 l^(1/3))^2).
+
+    |j_l(x)| <= x^l / (2l+1)!! is |J_nu(x)| <= (x/2)^nu / Gamma(nu + 1) (DLMF 10.14.4) with nu = l + 1/2;
+    the maximum of |x j_l(x)| grows slowly with l (measured here with scipy on x in (0, 400]: 1 at l = 0,
+    1.06 at l = 1, 1.44 at l = 20, 1.78 at l = 79), below 1 + 0.2 l^(1/3) at each of them. For l = 0 this is
+    min(x^2, 1), the weight the s-wave bound always had."""
+    with np.errstate(under="ignore"):
+        return np.exp(2 * _ln_envelope(l, x))
+
+
+def _ln_envelope(l: int, x) -> np.ndarray:
+    """ln of the bound on |x j_l(x)| of :func:`_free_weight` (no underflow: x > 0)."""
+    with np.errstate(divide="ignore"):
+        return np.minimum((l + 1) * np.log(x) - _ln_double_factorial(l), math.log(1 + 0.2 * l ** (1 / 3)))
+
+
+def _ln_double_factorial(l: int) -> float:
+    """ln (2l+1)!! = ln (2l+1)! - l ln 2 - ln l!."""
+    return math.lgamma(2 * l + 2) - l * math.log(2) - math.lgamma(l + 1)
+
+
+def tail_bound(ch: Channel, E: float, R: float, relative: bool = False) -> float:
     """First-order bound (rad) on the phase change from the short-range part beyond R (bohr): the
-    profile's B at the first profile radius not above R (so never below the bound at R)."""
-    r, tail = _tail_profile(ch, E)
+    profile's B at the first profile radius not above R (so never below the bound at R). ``relative``:
+    with the weight of partial wave l (:func:`_tail_profile`), a bound on a small delta_l's change."""
+    r, tail = _tail_profile(ch, E, relative)
     i = int(np.searchsorted(r, R, side="right")) - 1
     return float(tail[max(i, 0)])
 
 
-def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
-    """(R, reached): a radius beyond which the short-range part changes delta by < tol/100.
+def matching_radius(ch: Channel, E: float, tol: float, relative: bool = False) -> tuple[float, bool]:
+    """(R, reached): a radius beyond which the short-range part changes delta by < tol/100; with
+    ``relative`` (a free tail, E > 0) also by less than tol/100 of the first-order bound on delta_l
+    itself (when that is below 1), so that a small delta_l keeps its relative accuracy.
 
     Notes
     -----
@@ -211,9 +250,56 @@ def matching_radius(ch: Channel, E: float, tol: float) -> tuple[float, bool]:
     ok = np.nonzero(~(tail < 1e-2 * tol))[0]
     reached = bool(ok.size == 0 or ok[-1] < len(r) - 2)
     R = float(r[ok[-1] + 1]) if ok.size and reached else (float(r[-1]) if ok.size else float(r[0]))
+    if relative and E > 0 and ch.free_wronskian:
+        # a delta_l of 1e-200 needs the cut below 1e-202, not below 1e-10: read the bound of partial wave l
+        # relative to its own total (the first-order size of delta_l); the far end of the profile at most
+        _, tail_l = _tail_profile(ch, E, True)
+        far = np.nonzero(tail_l > 1e-2 * tol * min(1.0, float(tail_l[0])))[0]
+        if far.size:
+            R = max(R, float(r[min(far[-1] + 1, len(r) - 1)]))
     floor = max([*ch.breakpoints, ch.hard_core or 0.0, 0.0])
     R = max(R, floor * 1.0001, 1.5 * (ch.hard_core or 0.0), 4 * ch.length)
     return R, reached
+
+
+def _log_riccati(n: int, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(sign, ln |x j_n(x)|) elementwise, without underflow at small x (x > 0, n >= 0).
+
+    For x^2 <= 2n + 3 the power series x j_n(x) = x^(n+1) / (2n+1)!! sum_m (-x^2/2)^m (2n+1)!! /
+    (m! (2n+2m+1)!!) (DLMF 10.53.1), whose terms fall at least 2-fold from the first, so that it
+    cancels by at most a factor e; scipy's j_n beyond (x^(n+1) / (2n+1)!! underflows for n = 50 at
+    x = 1e-7, where the phase of a hard sphere is still representable)."""
+    x = np.asarray(x, dtype=float)
+    small = x * x <= 2 * n + 3
+    sign, out = np.ones_like(x), np.empty_like(x)
+    if np.any(small):
+        xs = x[small]
+        h = -0.5 * xs * xs
+        term, total = np.ones_like(xs), np.ones_like(xs)
+        for m in range(1, 40):
+            term = term * h / (m * (2 * n + 2 * m + 1))
+            total = total + term
+            if np.all(np.abs(term) < 1e-17 * np.abs(total)):
+                break
+        out[small] = (n + 1) * np.log(xs) - _ln_double_factorial(n) + np.log(total)   # total in (1/e, 1]
+    if not np.all(small):
+        xl = x[~small]
+        v = xl * spherical_jn(n, xl)
+        sign[~small] = np.sign(v)
+        with np.errstate(divide="ignore"):
+            out[~small] = np.log(np.abs(v))
+    return sign, out
+
+
+def _free_pair(l: int, kappa: int, x: np.ndarray) -> tuple[tuple, tuple]:
+    """(sign, ln |.|) of F = x j_l(x) and of (F' + kappa F / r) / k, the free regular solution and its
+    kappa-derivative in x: -x j_(l+1)(x) for kappa = -(l + 1), x j_(l-1)(x) for kappa = l (from
+    x j_l' = l j_l - x j_(l+1) = x j_(l-1) - (l + 1) j_l, DLMF 10.51.2), so neither is a difference."""
+    F = _log_riccati(l, x)
+    if kappa == -(l + 1):
+        s, g = _log_riccati(l + 1, x)
+        return F, (-s, g)
+    return F, _log_riccati(l - 1, x)
 
 
 def _start(ch: Channel, k: float) -> float:
@@ -276,6 +362,14 @@ def frobenius_start(ch: Channel, Es: np.ndarray, r0: float) -> tuple[np.ndarray,
     return U, X * p0
 
 
+def _log_sum(m: np.ndarray, e: np.ndarray, add: np.ndarray, e_add: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """m exp(e) + add exp(e_add) as (mantissa, exponent), elementwise, without overflow or underflow of
+    the exponentials (the larger exponent is kept)."""
+    top = np.where(m == 0, e_add, np.where(add == 0, e, np.maximum(e, e_add)))
+    with np.errstate(under="ignore"):
+        return m * np.exp(np.minimum(e - top, 0.0)) + add * np.exp(np.minimum(e_add - top, 0.0)), top
+
+
 @dataclass(frozen=True)
 class Raw:
     """The solution at one radius: u and du/dr (true scale / exp(log_scale), with the r^gamma factor
@@ -288,6 +382,8 @@ class Raw:
     p: float
     integral: float | None = None   # integral of u^2 dr from the start (true scale), when asked
     log_scale: float = 0.0          # u, du are on the true scale divided by exp(log_scale)
+    beta: float | None = None       # coefficient of the irregular free solution, from the Wronskian (on the
+    beta_mass: float | None = None  # scale of u), and the same integral of its integrand's |.|, when asked
 
 
 def loosened(rtol: float, factor: float) -> float:
@@ -299,7 +395,7 @@ def loosened(rtol: float, factor: float) -> float:
 
 
 def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral: bool = False,
-              start_scale: float = 1.0):
+              start_scale: float = 1.0, wronskian: bool = False):
     """Integrate outward at one energy or a batch of energies sharing the steps.
 
     Parameters
@@ -313,6 +409,13 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
     start_scale : float
         Multiplies the start radius (an error estimate's check run starts further out, so that the
         start's own error shows in the difference).
+    wronskian : bool
+        Also accumulate, for a free tail (``ch.free_wronskian``), the Wronskian of u with the free
+        regular solution F, Omega = F w - u w_F, whose derivative vanishes beyond the range:
+        Omega' = w w_F (1/p_F - 1/p) + F u (q - q_F) (p_F, q_F those of V = S = 0). It gives the
+        coefficient beta of the irregular free solution in u = alpha F^ + beta G^ as -Omega / (k p_F),
+        accumulated where the potential acts and never read off as a difference of two nearly equal
+        terms at R (``Raw.beta``, ``Raw.beta_mass``: the same integral of |Omega'|).
 
     Returns
     -------
@@ -341,6 +444,20 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
     else:
         U, Wt = frobenius_start(ch, Es, r0)
     y = np.concatenate((U, Wt, np.zeros(n))) if integral else np.concatenate((U, Wt))
+    wronskian = wronskian and ch.free_wronskian
+    if wronskian:
+        ks = np.asarray(wave_number(eq.name, Es, eq.mass), dtype=float)
+        free = Sample(np.ones(1), np.zeros(1), np.zeros(1), None)
+        pF = np.broadcast_to(eq.p(Es, free), (n,)).astype(float)
+        qF = np.broadcast_to(eq.q(Es, free), (n,)).astype(float)
+        # Omega at the start, F w - u w_F = r0^(gamma-1) F [W - r0 U p_F k (DF/k) / F]; kept as m exp(e)
+        (sF, lF), (sD, lD) = _free_pair(eq.l, kap, ks * r0)
+        om_e = (gam - 1) * math.log(r0) + lF
+        om_m = sF * (Wt - r0 * U * pF * ks * sD * np.exp(lD - lF))
+        mass_m, mass_e = np.abs(om_m), om_e.copy()
+        w0 = y.size
+        y = np.concatenate((y, np.zeros(2 * n)))
+    piece = {}                   # the present piece's ln of the Wronskian's scale, per energy
 
     inside = [0.0, math.inf]     # the present piece's radii, just inside its ends (_rounding.beside; per piece)
 
@@ -356,9 +473,17 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
         u, w = yy[:n], yy[n:2 * n]
         du = -(kap + gam) * u + w / p
         dw = (kap - gam + 1) * w + r * r * qE * u
+        parts = [du, dw]
         if integral:
-            return np.concatenate((du, dw, r ** (2 * gam + 1) * u * u))
-        return np.concatenate((du, dw))
+            parts.append(r ** (2 * gam + 1) * u * u)
+        if wronskian:
+            # dOmega/dt on the scale exp(log_scale) b^gamma nu(b) of the piece [a, b] (nu: F's envelope at b)
+            (s1, l1), (s2, l2) = _free_pair(eq.l, kap, ks * r)
+            fr = (r / piece["b"]) ** gam
+            dom = fr * (w * ks * s2 * np.exp(l2 - piece["nu"]) * (1 - pF / p)
+                        + r * u * (qE + Es - qF) * s1 * np.exp(l1 - piece["nu"]))
+            parts += [dom, np.abs(dom)]
+        return np.concatenate(parts)
 
     rtol = max(float(rtol), _RTOL_FLOOR)
     out = [[] for _ in range(n)]
@@ -368,7 +493,16 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
     for a, b in zip(edges[:-1], edges[1:]):
         lo, hi = beside(a)[1], beside(b)[0]
         inside[:] = (lo, hi) if lo < hi else (0.5 * (a + b),) * 2
-        sol = solve_ivp(rhs, (math.log(a), math.log(b)), y, method="DOP853", rtol=rtol, atol=1e-30,
+        atol = 1e-30
+        if wronskian:
+            piece["b"] = b
+            piece["nu"] = _ln_envelope(eq.l, ks * b)
+            # the Wronskian rides on the steps of u and w (its integrand is their product with F): under the
+            # step control, its zeros (an oscillating integrand) asked for steps of 1e-30 and a Yukawa s wave
+            # took minutes
+            atol = np.full(y.size, 1e-30)
+            atol[w0:] = 1e300
+        sol = solve_ivp(rhs, (math.log(a), math.log(b)), y, method="DOP853", rtol=rtol, atol=atol,
                         dense_output=dense)
         if not sol.success:
             raise RuntimeError(f"integration failed between r = {a:.4g} and {b:.4g} bohr: {sol.message}")
@@ -382,14 +516,24 @@ def integrate(ch: Channel, E, radii, rtol: float, dense: bool = False, integral:
         if dense:
             pieces.append((a, b, sol.sol, log_scale.copy()))
         if integral:
-            integ += y[2 * n:] * np.exp(2 * log_scale)
-            y[2 * n:] = 0.0
+            integ += y[2 * n:3 * n] * np.exp(2 * log_scale)
+            y[2 * n:3 * n] = 0.0
+        if wronskian:
+            scale = log_scale + gam * math.log(b) + piece["nu"]
+            om_m, om_e = _log_sum(om_m, om_e, y[w0:w0 + n], scale)
+            mass_m, mass_e = _log_sum(mass_m, mass_e, y[w0 + n:], scale)
+            y[w0:] = 0.0
         p_b = np.broadcast_to(eq.p(Es, ch.sample(b)), (n,))
         for i in range(n):
             if b in wanted[i]:
                 du = (y[n + i] / p_b[i] - kap * y[i]) / b
+                extra = {}
+                if wronskian:     # beta = -Omega / (k p_F), on the scale of u here: b^gamma exp(log_scale)
+                    to_u = math.exp(min(om_e[i] - gam * math.log(b) - log_scale[i], 700.0)) / (ks[i] * pF[i])
+                    to_m = math.exp(min(mass_e[i] - gam * math.log(b) - log_scale[i], 700.0)) / (ks[i] * pF[i])
+                    extra = {"beta": float(-om_m[i] * to_u), "beta_mass": float(mass_m[i] * to_m)}
                 out[i].append(Raw(b, float(y[i]), float(du), int(nodes[i]), float(p_b[i]),
-                                  float(integ[i]) if integral else None, float(log_scale[i])))
+                                  float(integ[i]) if integral else None, float(log_scale[i]), **extra))
         norm = np.hypot(y[:n], y[n:2 * n])
         norm[norm == 0] = 1.0
         y[:n] /= norm
@@ -425,6 +569,8 @@ class Match:
     amplitude: float
     ref: Reference
     residual: float
+    scale: float = 1.0    # the size an integration error is relative to (rad per unit rtol): 1, or for a small
+                          # delta read from the Wronskian the integral of |Omega'| in delta's units (~ |delta|)
 
 
 def _turn(k, F0, F1, G0, G1, delta: float, lib) -> float:
@@ -461,6 +607,7 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     ref = reference_at(ch.eq, E, raw.R, ch.tail_charge, raw.p, ch.tail_b)
     (F0, F1), (G0, G1) = ref.F, ref.G
     k, pi = ref.k, math.pi
+    scale = 1.0
     if ch.long_tail:       # in mpmath: F and G may be far outside the double range
         import mpmath  # lazy: only a Coulomb tail needs it
         with mpmath.workdps(30):
@@ -479,6 +626,13 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
     else:
         alpha, beta = np.linalg.solve([[F0, G0], [F1, G1]], [raw.u, raw.du])
         delta = _wrap(math.atan2(beta, alpha))
+        if raw.beta is not None and raw.beta_mass < _SMALL * math.hypot(alpha, beta):
+            # a small delta: beta from the Wronskian with F, accumulated where the potential acts; read from
+            # u(R) and u'(R) it is the difference of two values that agree to ~ delta / (k R)^(2l+1), and a hard
+            # sphere's l = 20 phase at 1e-8 hartree came out 1e11 times too large (its sign was wrong at l = 50)
+            beta = raw.beta
+            delta = math.atan(beta / alpha)
+            scale = raw.beta_mass / abs(alpha)
         amp = alpha / math.cos(delta) if abs(math.cos(delta)) >= abs(math.sin(delta)) else beta / math.sin(delta)
         theta_F = free_zero_count(ch.eq.l, k * raw.R) * pi + math.atan2(k * F0, F1) % pi
         inc = _turn(k, F0, F1, G0, G1, delta, math)
@@ -494,4 +648,4 @@ def match(ch: Channel, E: float, raw: Raw, ref_raw: Raw | None = None) -> Match:
         shift = inverse_square_shift(ch.eq, E, ch.tail_charge, ch.tail_b)
         ref = replace(ref, theta=math.remainder(ref.theta - shift, 2 * pi) if ch.tail_charge else 0.0)
         delta += shift
-    return Match(delta, amp, ref, float(abs(m - mi)))
+    return Match(delta, amp, ref, float(abs(m - mi)), scale)
