@@ -13,7 +13,7 @@ import numpy as np
 
 from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int, check_positive
 from .._rounding import rounding_floor
-from ..units import C_AU, ENERGY_UNITS, bohr_to, constants_record, hartree_to, system_units, to_atomic
+from ..units import C_AU, ENERGY_UNITS, bohr_to, call_energy_unit, constants_record, hartree_to, system_units, to_atomic
 from ..units import energy_unit as canonical_unit
 from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
 from .reference import sommerfeld, wave_number
@@ -67,12 +67,6 @@ def _tail_formula(ch: Channel, units: str) -> str:
 
 def _rtol(tol: float) -> float:
     return min(1e-6, tol * 1e-3)
-
-
-def _call_unit(energy_unit: str | None, units: str) -> str:
-    """The unit of a call's energies: ``energy_unit``, else hartree (MeV with units='nuclear', as the command
-    line reads them; it read MeV where the API read hartree)."""
-    return energy_unit or system_units(units)[0]
 
 
 def _energies(energies, unit: str) -> np.ndarray:
@@ -281,7 +275,7 @@ def phase_shifts(energies: Sequence[float] | float, equation: str = "schrodinger
     -1.0
     """
     tol = check_positive("tol", tol)
-    energy_unit = _call_unit(energy_unit, units)
+    energy_unit = call_energy_unit(energy_unit, units)   # MeV with units='nuclear', as the command line
     E = _energies(energies, energy_unit)
     t0 = time.perf_counter()
     ch, settings = _channel(equation, potential, params, l, kappa, particle, mass_mev, nucleus_mass_mev, scalar,
@@ -732,7 +726,7 @@ def continuum_state(energy: float, equation: str = "schrodinger", potential="cou
     if normalisation not in ("unit-amplitude", "energy"):
         raise ValueError(f"normalisation: unknown value {normalisation!r}; choose unit-amplitude or energy")
     tol = check_positive("tol", tol)
-    energy_unit = _call_unit(energy_unit, units)
+    energy_unit = call_energy_unit(energy_unit, units)   # MeV with units='nuclear', as the command line
     E = float(_energies(energy, energy_unit)[0])
     if r is not None:
         length = system_units(units)[1]
