@@ -592,10 +592,7 @@ def _state_noise(sa, sb, f, kind: str) -> float:
     grid = sa if sa.r[-1] >= sb.r[-1] else sb
     r = grid.r
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        if sa is sb:
-            g = r * _pair_density(sa, sa, r, kind)
-        else:
-            g = r * _pair_density(sa, sb, r, kind)
+        g = r * _pair_density(sa, sb, r, kind)
         dg = np.gradient(g, np.log(r))
         terms = np.abs(f(r)) * np.abs(dg) * grid.weights / r
     total = float(np.sum(terms[np.isfinite(terms)]))
@@ -764,7 +761,7 @@ def density_at_origin(level) -> Quantity:
     the series), plus twice a_0's rounding (the fit's residual carried to r = 0).
     """
     st = level.state
-    shift = origin_shift(st, "Q") if st.Q is not None else 1
+    shift = origin_shift(st, "Q")
     lead = ("Q",) if shift == -1 else ("P", "Q") if shift == 0 and st.Q is not None else ("P",)
 
     def coef(s, points=2):

@@ -366,19 +366,19 @@ def regular_values(state) -> tuple[np.ndarray, np.ndarray | None]:
     normalised again (the solver normalised them with the admixture: the norm of the rest was 1 - 4e-14 at a
     Z = 92 sphere, twice the estimate of <1>); the series below r_min carries the same factor
     (:func:`_regular_norm`)."""
-    return _memo(state, "regular values", lambda: _regular_values(state))
+    return _memo(state, "regular values", lambda: _regular_values(state))[:2]
 
 
 def _regular_norm(state) -> float:
     """The factor :func:`regular_values` normalised the nodal values by (1 without an admixture taken off)."""
-    regular_values(state)
-    return state.memo.get("regular norm", 1.0)
+    return _memo(state, "regular values", lambda: _regular_values(state))[2]
 
 
 def _regular_values(state):
+    """(P, Q, the factor they were normalised by) of :func:`regular_values`."""
     series = origin_series(state)
     if series is None:
-        return state.P, state.Q
+        return state.P, state.Q, 1.0
     P, Q = state.P.copy(), state.Q.copy()
     g = float(state.gamma)
     before = np.array([np.inf, np.inf])
@@ -396,8 +396,7 @@ def _regular_values(state):
             break
         before = part
     factor = 1.0 / math.sqrt(float(state.weights @ (P * P + Q * Q)))
-    state.memo["regular norm"] = factor
-    return P * factor, Q * factor
+    return P * factor, Q * factor, factor
 
 
 def origin_coefficient(state, component: str = "P", points: int = 2, own_power: bool = False) -> float:
@@ -493,10 +492,14 @@ def _nodal(state, component: str):
     return _memo(state, ("nodal", component), make)
 
 
+_MISSING = object()
+
+
 def _memo(state, key, make):
-    """``state.memo[key]``, made by ``make()`` on first use (a state's nodal values never change)."""
-    got = state.memo.get(key)
-    if got is None:
+    """``state.memo[key]``, made by ``make()`` on first use (a state's nodal values never change); a result of
+    None is kept too (a series fit that failed was tried again on every read below r_min)."""
+    got = state.memo.get(key, _MISSING)
+    if got is _MISSING:
         got = state.memo[key] = make()
     return got
 
