@@ -15,7 +15,8 @@ from .._checks import MAX_PHASE_NODES, MAX_REPULSIVE_ETA, LimitError, check_int,
 from .._rounding import rounding_floor
 from ..units import C_AU, ENERGY_UNITS, bohr_to, call_energy_unit, constants_record, hartree_to, system_units, to_atomic
 from ..units import energy_unit as canonical_unit
-from .radial import _RTOL_FLOOR, Channel, _start, integrate, loosened, match, matching_radius, prepare, tail_bound
+from .radial import (_RTOL_FLOOR, _SMALL, Channel, _start, integrate, loosened, match, matching_radius, prepare,
+                     tail_bound)
 from .reference import sommerfeld, wave_number
 from .results import ContinuumState, LevinsonCheck, PhaseShifts, ScatteringLength
 from .._threads import inside
@@ -161,13 +162,19 @@ def _matched(ch: Channel, E: np.ndarray, tol: float, estimate: bool):
     rtol = _rtol(tol) / math.sqrt(2 * len(E))
     radii = [[R, _SECOND_RADIUS * R] if estimate else [R] for R in R1]
     tabled = estimate and bool(table_terms(ch.pot))
-    raws, evaluate = integrate(ch, E, radii, rtol, dense=tabled, wronskian=True)
     refs = integrate(ch.reference, E, radii, rtol)[0] if ch.reference else [[None] * len(r) for r in radii]
-    matches = [match(ch, float(e), raw[0], rf[0]) for e, raw, rf in zip(E, raws, refs)]
+    # the Wronskian with the free wave (2 n more components, Riccati-Bessel functions at every stage: 6-8 times
+    # the cost) is read only for a small delta (radial.match: |sin delta| below about _SMALL); a batch carries
+    # it only when a first pass without it finds such a delta somewhere (a review)
+    for wronskian in (False, True):
+        raws, evaluate = integrate(ch, E, radii, rtol, dense=tabled, wronskian=wronskian)
+        matches = [match(ch, float(e), raw[0], rf[0]) for e, raw, rf in zip(E, raws, refs)]
+        if wronskian or not ch.free_wronskian or all(abs(math.sin(m.delta)) >= 2 * _SMALL for m in matches):
+            break
     err = np.zeros(len(E))
     if estimate:
         one = [[R] for R in R1]
-        loose, _ = integrate(ch, E, one, loosened(rtol, _LOOSE), start_scale=_START_CHECK, wronskian=True)
+        loose, _ = integrate(ch, E, one, loosened(rtol, _LOOSE), start_scale=_START_CHECK, wronskian=wronskian)
         lrefs = integrate(ch.reference, E, one, loosened(rtol, _LOOSE))[0] if ch.reference else [[None]] * len(E)
         for i, e in enumerate(E):
             d, small = matches[i].delta, matches[i].scale != 1.0
