@@ -154,8 +154,8 @@ class State:
 
         def g(r):
             pa, qa = self.PQ(r)
-            pb, qb = b.PQ(r)
-            w = (self.weight(r) + b.weight(r)) / 2
+            pb, qb = (pa, qa) if b is self else b.PQ(r)      # a state with itself: computed once
+            w = self.weight(r) if b is self else (self.weight(r) + b.weight(r)) / 2
             return f(r) * (w * pa * pb + qa * qb)
 
         with mp.workdps(DPS):

@@ -99,8 +99,9 @@ def nearest_pair(A, B, sigma: float, max_iter: int = 12, vtol: float = 1e-10):
         if step <= vtol and step <= 0.2 * change:
             lam = sigma + 1.0 / float(z[j])     # y_j = 1: z_j = 1 / (lambda - sigma)
             with np.errstate(all="ignore"):
-                res = float(np.max(np.abs(A @ y_new - lam * (B @ y_new))))
-                size = float(np.max(np.abs(A @ y_new)) + abs(lam) * np.max(np.abs(B @ y_new)))
+                Ay, By = A @ y_new, B @ y_new
+                res = float(np.max(np.abs(Ay - lam * By)))
+                size = float(np.max(np.abs(Ay)) + abs(lam) * np.max(np.abs(By)))
             return (lam, y_new) if res <= 1e-8 * size else None
         y, change = y_new, step
     return None

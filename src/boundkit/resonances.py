@@ -869,7 +869,7 @@ def _label_by_continuity(found, eq, edges, r0, angles, order, pot, analytic, win
     WV = np.where(ext, 0.0, V.imag)
     WS = np.where(ext, 0.0, S.imag)
     absorbing = bool(np.any(WV) or np.any(WS))
-    V, S = _real_limit(V, S, ext)
+    V, S = V - 1j * WV, S - 1j * WS       # the real limit (_real_limit), from the parts just taken
     limit = ref
     if absorbing:
         mesh0 = ref.mesh

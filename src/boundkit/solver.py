@@ -459,6 +459,7 @@ def _ladder_from(disc: Discretization, start: int) -> list[int]:
 
 
 _FD_SCATTER = 0.5      # a change above this fraction of the one before: scatter (see _estimate)
+_LOCATE_TOL = 1e-12    # tolerance of the spectral-element solve that locates the collocation families' levels
 _SEED_FLOORS = ("floor_hit", "potential_floor_hit", "merge_hit", "residual_hit")   # _Tally's floor reasons
 _FD_SEED_FACTOR = 2.0  # a finite-difference level's estimate is at least this times its located level's
 
@@ -892,10 +893,10 @@ def prepare_channel(eq: RadialEquation, pot: Potential, levels: int) -> Channel:
     in hartree), as in :func:`setup` and :func:`solve_channel`.
     """
     _check_scalar_far_constant(eq, pot, "atomic")
-    found, tally, _, _, extra = _solve_elements(eq, pot, levels, 1e-12)
+    found, tally, _, _, extra = _solve_elements(eq, pot, levels, _LOCATE_TOL)
     # their notes speak of this solve's tol, not the caller's (a finite-difference solve at tol 1e-10 quoted
     # 'lies above tol 1e-12' of a level's potential-energy rounding: a tester)
-    tally.notes[:] = [f"locating the levels (spectral elements, tol 1e-12): {note}" for note in tally.notes]
+    tally.notes[:] = [f"locating the levels (spectral elements, tol {_LOCATE_TOL:g}): {note}" for note in tally.notes]
     found = sorted(found, key=lambda lv: lv.energy)
     seeds = [lv.energy for lv in found]
     extra["seed_errors"] = [lv.error_estimate for lv in found]

@@ -128,7 +128,7 @@ def solve_cmd(equation, potentials, scalars, exprs, scalar_exprs, files, table_t
         res = solve(equation=equation, potential=vector, params=values, l=l, kappa=kappa,
                     levels=levels, max_levels=max_levels, tol=tol, method=method, order=order, particle=particle,
                     mass_mev=mass_mev, nucleus_mass_mev=nucleus_mass_mev,
-                    scalar=scalar or None, units=unit_system, cross_check=cross_check, j=j).with_labels(labels)
+                    scalar=scalar or None, units=unit_system, cross_check=cross_check, j=j, labels=labels)
         from .observables import add_observables, observables_table, write_states_file
         record = res.to_dict(unit, length)
         extra = ""

@@ -148,6 +148,7 @@ def _rebuild_term(term: Term, values: Mapping[str, Any], names: set, units: str 
     with stated units (``fixed_units``) holds its other values in atomic units already: it is rebuilt in atomic
     units, the point's values converted, and keeps them stated."""
     from ..potentials.expression import ExpressionTerm
+    from ..potentials.base import _is_number
     from ..units import to_atomic
 
     point = {n: values[n] for n in names}
@@ -165,7 +166,7 @@ def _rebuild_term(term: Term, values: Mapping[str, Any], names: set, units: str 
         if not term.fixed_units:
             return type(term)(**{**term.values, **point})
         unit = {p.name: p.unit for p in term.parameters}
-        point = {n: to_atomic(float(v), unit[n], units) if isinstance(v, (int, float)) else v for n, v in point.items()}
+        point = {n: to_atomic(float(v), unit[n], units) if _is_number(v) else v for n, v in point.items()}
         return type(term)(units="atomic", **{**term.values, **point})
     raise ValueError(f"vary: parameter {sorted(names)[0]!r} is fixed inside the prebuilt term {term!r}; "
                      "pass the term by name (or as an expression) so that it can be rebuilt at each point")

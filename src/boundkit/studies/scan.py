@@ -44,7 +44,7 @@ from .._checks import OptionError, shorten
 from .._threads import usable_cores
 from ..states import check_convention, convert_label
 from ..solver import check_levels, solve
-from ..units import ENERGY_UNITS, LENGTH_UNITS, column, constants_record, hartree_to, system_units
+from ..units import ENERGY_UNITS, LENGTH_UNITS, call_energy_unit, column, constants_record, hartree_to, system_units
 from ..units import energy_unit as _energy_unit
 from . import _common
 from ._common import (ProgressBar, call_units, canonical_equation, channel_for, channel_name, check_varied, describe,
@@ -647,7 +647,7 @@ def scan(equation: str | Sequence[str], potential, params: Mapping[str, Any] | N
     levels = check_levels(check_int("levels", levels, minimum=1), max_levels)   # an int: no 'all' here
     tol = check_positive("tol", tol)
     labels = check_convention(labels)
-    file_unit = _energy_unit(energy_unit or ("MeV" if solve_kwargs.get("units") == "nuclear" else "hartree"))
+    file_unit = call_energy_unit(energy_unit, solve_kwargs.get("units") or "atomic")
     scheduler_timeout = check_positive("scheduler_timeout", scheduler_timeout)
     workers = check_workers(workers)
     max_points = check_int("max_points", max_points, minimum=1)
