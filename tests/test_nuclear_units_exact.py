@@ -137,5 +137,5 @@ def test_varying_a_parameter_of_an_expression_with_units_of_its_own_is_refused()
     t.fixed_units = True
     with pytest.raises(ValueError, match=r"^vary: parameter 'V0' is inside an expression with units of its own "
                                          r"\(a model file's\); vary it through the model file in a run spec"):
-        rebuild_potential(t, {"V0": 3.0}, {"V0"}, "nuclear")
-    assert rebuild_potential(ExpressionTerm("-V0*exp(-r)", {"V0": 2.0}), {"V0": 3.0}, {"V0"}).values == {"V0": 3.0}
+        rebuild_potential(t, {"V0": 3.0}, {"V0"}, units="nuclear")
+    assert rebuild_potential(ExpressionTerm("-V0*exp(-r)", {"V0": 2.0}), {"V0": 3.0}, {"V0"}, units="atomic").values == {"V0": 3.0}

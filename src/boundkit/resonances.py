@@ -746,8 +746,10 @@ def _slow_origin(eq, pot) -> str:
     """
     if eq.name == "schrodinger" or not (pot.z_vector or pot.z_scalar):
         return ""
+    from .solver import _origin_gap
+
     s = float(eq.gamma(pot))
-    if (2 * s if eq.name == "dirac" else 2 * s - 1) >= 1:
+    if _origin_gap(s, eq.name == "dirac") >= 1:
         return ""
     return (f"; the solution goes like r^{s:.3g} at the point charge, which the elements resolve slowly (bound "
             "levels move between runs by more than tol): for bound levels use boundkit.solve (boundkit solve), or "

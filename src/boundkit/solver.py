@@ -266,9 +266,15 @@ def _nodes_of(op: FactorizedOperator, y) -> int:
     return count_nodes(op.expand(np.asarray(y, dtype=float)) * op.weight())
 
 
+def _origin_gap(gamma: float, two_component: bool) -> float:
+    """The gap between the exponents of the regular and the irregular solution at the origin (u ~ r^gamma
+    against r^-gamma for two components, r^(1 - gamma) for one)."""
+    return 2 * gamma if two_component else 2 * gamma - 1
+
+
 def _wanted_cut(gamma: float, two_component: bool) -> float:
     """The inner cut the exponents ask for (see :func:`_inner_cut`), before any floor."""
-    gap = max(2 * gamma if two_component else 2 * gamma - 1, 0.05)
+    gap = max(_origin_gap(gamma, two_component), 0.05)
     # a large exponent (high l) makes the region near the origin empty much further out:
     # (r_min / L)^gap <= 1e-20 is enough, and keeps w^2 = r^(2 gamma) far from underflow
     return max(_INNER ** (1.0 / min(1.0, gap)), min(1e-2, 10.0 ** (-20.0 / gap)))

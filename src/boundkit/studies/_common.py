@@ -172,9 +172,10 @@ def _rebuild_term(term: Term, values: Mapping[str, Any], names: set, units: str 
                      "pass the term by name (or as an expression) so that it can be rebuilt at each point")
 
 
-def rebuild_potential(spec, values: Mapping[str, Any], varied: set, units: str = "atomic"):
+def rebuild_potential(spec, values: Mapping[str, Any], varied: set, *, units: str):
     """``spec`` with every prebuilt :class:`Term` that holds a varied parameter
-    rebuilt with the point's values, read in the call's ``units`` (names and callables pass through)."""
+    rebuilt with the point's values, read in the call's ``units`` (names and callables pass through; no default:
+    a caller that left it out read a term with stated units in the wrong system)."""
     if spec is None:
         return None
     single = isinstance(spec, (str, Term)) or callable(spec)

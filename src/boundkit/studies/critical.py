@@ -897,8 +897,8 @@ def critical(equation: str, potential, params: Mapping[str, Any] | None, *, stat
     def build(p: float, equation: str = eqname):
         values = resolve_params(params, {vary: p})
         units = setup_kwargs.get("units", "atomic")
-        return setup(equation, rebuild_potential(potential, values, varied, units), values,
-                     scalar=rebuild_potential(scalar, values, varied, units), **channel, **setup_kwargs)
+        return setup(equation, rebuild_potential(potential, values, varied, units=units), values,
+                     scalar=rebuild_potential(scalar, values, varied, units=units), **channel, **setup_kwargs)
 
     check_varied(potential, scalar, [vary])
     if bracket is not None:

@@ -120,10 +120,10 @@ def solve_point(task: Mapping[str, Any]) -> dict:
     params = task["params"]
     try:
         units = task["solve_kwargs"].get("units", "atomic")
-        res = solve(task["equation"], rebuild_potential(task["potential"], params, varied, units), params,
+        res = solve(task["equation"], rebuild_potential(task["potential"], params, varied, units=units), params,
                     levels=task["levels"], max_levels=task.get("max_levels", MAX_LEVELS), tol=task["tol"],
                     method=task["method"],
-                    scalar=rebuild_potential(task["scalar"], params, varied, units), **task["channel"],
+                    scalar=rebuild_potential(task["scalar"], params, varied, units=units), **task["channel"],
                     **task["solve_kwargs"])
     except ValueError as exc:
         return {"key": task["key"], "status": "error", "message": str(exc), "levels": [],
@@ -817,8 +817,8 @@ def _check_input(todo: list[dict]) -> None:
         kwargs = {k: v for k, v in t["solve_kwargs"].items() if k != "order"}
         try:
             units = kwargs.get("units", "atomic")
-            setup(t["equation"], rebuild_potential(t["potential"], t["params"], varied, units), t["params"],
-                  scalar=rebuild_potential(t["scalar"], t["params"], varied, units), **t["channel"], **kwargs)
+            setup(t["equation"], rebuild_potential(t["potential"], t["params"], varied, units=units), t["params"],
+                  scalar=rebuild_potential(t["scalar"], t["params"], varied, units=units), **t["channel"], **kwargs)
         except ValueError as exc:
             where = ", ".join(f"{k} = {v:g}" for k, v in t["point"].items())
             if isinstance(exc, OptionError):

@@ -163,8 +163,8 @@ def follow_dived(equation: str, potential, params: Mapping[str, Any], *, label: 
     varied = {vary} | {n for n, v in params.items() if callable(v)}
     values_c = resolve_params(params, {vary: critical_value})
     units = setup_kwargs.get("units", "atomic")
-    eq, _, _ = setup(equation, rebuild_potential(potential, values_c, varied, units), values_c,
-                     scalar=rebuild_potential(scalar, values_c, varied, units), **channel, **setup_kwargs)
+    eq, _, _ = setup(equation, rebuild_potential(potential, values_c, varied, units=units), values_c,
+                     scalar=rebuild_potential(scalar, values_c, varied, units=units), **channel, **setup_kwargs)
     mc2 = eq.mass * C_AU**2
     found = sorted((p for p in points if p.get("found") and p.get("energy") is not None),
                    key=lambda p: abs(p["value"] - critical_value))
@@ -185,8 +185,8 @@ def follow_dived(equation: str, potential, params: Mapping[str, Any], *, label: 
         hit, window, res = None, (math.nan, math.nan), None
         for lo, hi in ((1.6, 0.6), (3.0, 0.25)):
             window = (-2 * mc2 - lo * D, -2 * mc2 - hi * D)
-            res = resonances(equation, rebuild_potential(potential, values, varied, units), values,
-                             scalar=rebuild_potential(scalar, values, varied, units), window=window, energy_unit="hartree",
+            res = resonances(equation, rebuild_potential(potential, values, varied, units=units), values,
+                             scalar=rebuild_potential(scalar, values, varied, units=units), window=window, energy_unit="hartree",
                              angles=angles,
                              order=order, **channel, **setup_kwargs)
             hits = [r for r in res.resonances if r.label == label and r.kind == "supercritical"]
